@@ -1,0 +1,15 @@
+// wane edit: placeholder until its issue lands; refuses to run rather than pretend.
+#include "cli/common.hpp"
+
+namespace wane::cli {
+
+void add_edit_command(CLI::App& app, command_registry& reg) {
+    CLI::App* sub = app.add_subcommand("edit", "(not built yet)");
+    sub->allow_extras();
+    reg.add(sub, [] {
+        print_error("'edit' is not built yet");
+        return exit_failure;
+    });
+}
+
+}  // namespace wane::cli

@@ -1,0 +1,15 @@
+// wane info: placeholder until its issue lands; refuses to run rather than pretend.
+#include "cli/common.hpp"
+
+namespace wane::cli {
+
+void add_info_command(CLI::App& app, command_registry& reg) {
+    CLI::App* sub = app.add_subcommand("info", "(not built yet)");
+    sub->allow_extras();
+    reg.add(sub, [] {
+        print_error("'info' is not built yet");
+        return exit_failure;
+    });
+}
+
+}  // namespace wane::cli

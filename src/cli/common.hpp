@@ -1,0 +1,56 @@
+// Shared CLI plumbing: subcommand registration, exit codes, messages.
+// Exit codes: 0 success, 1 failure at run time, 2 bad usage.
+#pragma once
+
+#include <CLI/CLI.hpp>
+
+#include <functional>
+#include <stdexcept>
+#include <string>
+#include <string_view>
+#include <utility>
+#include <vector>
+
+namespace wane::cli {
+
+inline constexpr int exit_ok = 0;
+inline constexpr int exit_failure = 1;
+inline constexpr int exit_usage = 2;
+
+/// Thrown for bad usage found after parsing (exit 2), e.g. a malformed note name option.
+struct usage_error : std::runtime_error {
+    using std::runtime_error::runtime_error;
+};
+
+using run_fn = std::function<int()>;
+
+/// Subcommands and what runs when each is chosen.
+struct command_registry {
+    std::vector<std::pair<CLI::App*, run_fn>> commands;
+    void add(CLI::App* sub, run_fn run) { commands.emplace_back(sub, std::move(run)); }
+};
+
+/// Global flags, set by main before any command runs.
+struct global_flags {
+    bool quiet = false;
+};
+global_flags& globals();
+
+/// "wane: warning: <msg>" on stderr (always shown: warnings are never silenced).
+void warn(std::string_view msg);
+/// "wane: error: <msg>" on stderr.
+void print_error(std::string_view msg);
+/// Informational line on stdout unless --quiet.
+void say(std::string_view msg);
+
+/// Each command file adds its subcommand (with options, help and examples footer) here.
+void add_analyze_command(CLI::App& app, command_registry& reg);
+void add_render_command(CLI::App& app, command_registry& reg);
+void add_info_command(CLI::App& app, command_registry& reg);
+void add_edit_command(CLI::App& app, command_registry& reg);
+void add_blend_command(CLI::App& app, command_registry& reg);
+void add_keymap_command(CLI::App& app, command_registry& reg);
+void add_compare_command(CLI::App& app, command_registry& reg);
+void add_report_command(CLI::App& app, command_registry& reg);
+
+}  // namespace wane::cli

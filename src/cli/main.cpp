@@ -1,0 +1,71 @@
+// wane: analyze a recorded note into a patch of damped partials, and render audio from patches.
+#include <cstdio>
+#include <exception>
+#include <iostream>
+
+#include "cli/common.hpp"
+
+namespace wane::cli {
+
+global_flags& globals() {
+    static global_flags flags;
+    return flags;
+}
+
+void warn(std::string_view msg) { std::cerr << "wane: warning: " << msg << '\n'; }
+void print_error(std::string_view msg) { std::cerr << "wane: error: " << msg << '\n'; }
+void say(std::string_view msg) {
+    if (!globals().quiet) std::cout << msg << '\n';
+}
+
+}  // namespace wane::cli
+
+int main(int argc, char** argv) {
+    using namespace wane::cli;
+    CLI::App app{"wane: analyze a plucked or struck note into an editable patch of damped partials, "
+                 "and render faithful copies and variants from it.",
+                 "wane"};
+    app.set_version_flag("--version", std::string("wane ") + WANE_VERSION);
+    app.add_flag("-q,--quiet", globals().quiet, "No progress bars or summaries (warnings still shown)");
+    app.require_subcommand(1);
+    app.footer("Examples:\n  wane analyze note.wav -o note.toml\n  wane render note.toml -o copy.wav\n"
+               "Run 'wane COMMAND --help' for each command's options.");
+
+    command_registry reg;
+    add_analyze_command(app, reg);
+    add_render_command(app, reg);
+    add_info_command(app, reg);
+    add_edit_command(app, reg);
+    add_blend_command(app, reg);
+    add_keymap_command(app, reg);
+    add_compare_command(app, reg);
+    add_report_command(app, reg);
+
+    try {
+        app.parse(argc, argv);
+    } catch (const CLI::CallForHelp& e) {
+        return app.exit(e);
+    } catch (const CLI::CallForAllHelp& e) {
+        return app.exit(e);
+    } catch (const CLI::CallForVersion& e) {
+        return app.exit(e);
+    } catch (const CLI::ParseError& e) {
+        print_error(e.what());
+        std::cerr << "Run 'wane --help' for usage.\n";
+        return exit_usage;
+    }
+
+    try {
+        for (auto& [sub, run] : reg.commands) {
+            if (sub->parsed()) return run();
+        }
+        print_error("no command given");
+        return exit_usage;
+    } catch (const usage_error& e) {
+        print_error(e.what());
+        return exit_usage;
+    } catch (const std::exception& e) {
+        print_error(e.what());
+        return exit_failure;
+    }
+}

@@ -1,0 +1,47 @@
+#include "core/envelope.hpp"
+
+#include <cassert>
+#include <cmath>
+
+namespace wane {
+
+std::vector<envelope_piece> envelope_pieces(const envelope& env) {
+    assert(!env.decay.empty());
+    std::vector<envelope_piece> pieces;
+    pieces.reserve(env.decay.size());
+    double start_s = env.attack_s;
+    double level = env.peak.db;
+    for (std::size_t i = 0; i < env.decay.size(); ++i) {
+        const decay_segment& seg = env.decay[i];
+        const bool last = i + 1 == env.decay.size();
+        const double end_s = last ? infinity : seg.until_s.value_or(infinity);
+        const double slope = t60_to_slope_db_per_s(seg.t60_s);
+        if (end_s <= start_s) continue;
+        pieces.push_back({.start_s = start_s, .end_s = end_s, .start_level = level_db{level},
+                          .slope_db_per_s = slope});
+        if (last || std::isinf(end_s)) break;
+        level += slope * (end_s - start_s);
+        start_s = end_s;
+    }
+    return pieces;
+}
+
+level_db envelope_level(const envelope& env, double time_s) {
+    if (time_s < 0.0) return level_db{-infinity};
+    if (time_s < env.attack_s) {
+        return to_level(amp_lin{to_amp(env.peak).lin * time_s / env.attack_s});
+    }
+    const auto pieces = envelope_pieces(env);
+    for (const envelope_piece& p : pieces) {
+        if (time_s < p.end_s) return level_db{p.start_level.db + p.slope_db_per_s * (time_s - p.start_s)};
+    }
+    return level_db{-infinity};  // unreachable for a valid envelope: the last piece ends at +inf
+}
+
+amp_lin envelope_amp(const envelope& env, double time_s) {
+    if (time_s < 0.0) return amp_lin{0.0};
+    if (time_s < env.attack_s) return amp_lin{to_amp(env.peak).lin * time_s / env.attack_s};
+    return to_amp(envelope_level(env, time_s));
+}
+
+}  // namespace wane

@@ -1,0 +1,76 @@
+// The patch model (format "wane-patch", version 1) as plain data. The TOML mapping lives in
+// src/io/patch_toml.*; the core only sees these structs. Times are seconds from the note's onset,
+// levels dBFS, frequencies Hz.
+#pragma once
+
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "core/envelope.hpp"
+
+namespace wane {
+
+inline constexpr int patch_format_version = 1;
+inline constexpr const char* patch_format_name = "wane-patch";
+
+struct note_info {
+    std::string name;
+    double f0_hz = 0.0;            ///< 0 when the sound has no pitch centre
+    double length_s = 4.0;         ///< how long a render lasts
+    double inharmonicity_b = 0.0;  ///< B in f_n = n f0 sqrt(1 + B n^2); 0 if not fitted
+    double gain_db = 0.0;
+    friend bool operator==(const note_info&, const note_info&) = default;
+};
+
+/// Settings the analysis used, recorded so a patch says how it was made (table [source.analysis]).
+struct analysis_settings {
+    std::string window;       ///< window name, e.g. "blackman-harris"
+    int fft_size = 0;         ///< FFT length in samples (after zero padding)
+    double window_s = 0.0;    ///< window length in seconds
+    double hop_s = 0.0;       ///< hop in seconds
+    friend bool operator==(const analysis_settings&, const analysis_settings&) = default;
+};
+
+struct source_info {
+    std::string file;
+    double sample_rate_hz = 0.0;
+    double onset_s = 0.0;  ///< where the note starts in the source
+    std::optional<analysis_settings> analysis;
+    friend bool operator==(const source_info&, const source_info&) = default;
+};
+
+struct partial {
+    double freq_hz = 0.0;
+    int harmonic = 0;  ///< 0 = not on the harmonic series
+    double phase_rad = 0.0;  ///< phase at t = 0 of cos(2 pi f t + phase)
+    envelope env;
+    friend bool operator==(const partial&, const partial&) = default;
+};
+
+/// A band of shaped noise (deterministic-plus-stochastic model); same envelope form as a partial.
+struct noise_band {
+    double low_hz = 0.0;
+    double high_hz = 0.0;
+    envelope env;  ///< peak level is the band's RMS level in dBFS
+    friend bool operator==(const noise_band&, const noise_band&) = default;
+};
+
+struct patch {
+    int version = patch_format_version;
+    note_info note;
+    source_info source;
+    std::vector<partial> partials;  ///< canonical order: ascending freq_hz
+    std::vector<noise_band> noise;  ///< canonical order: ascending low_hz
+    friend bool operator==(const patch&, const patch&) = default;
+};
+
+/// Sorts partials by frequency and noise bands by low edge (the canonical order).
+void canonicalize(patch& p);
+
+/// Limits the format enforces (validated in the reader, asserted by the core).
+inline constexpr std::size_t max_partials = 4096;
+inline constexpr double max_length_s = 600.0;
+inline constexpr double max_peak_db = 24.0;
+
+}  // namespace wane

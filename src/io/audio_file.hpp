@@ -1,0 +1,55 @@
+// Audio files at the edge (libsndfile, libsamplerate). Everything the core sees is mono float
+// samples in [-1, 1] plus a sample rate.
+#pragma once
+
+#include <cstdint>
+#include <filesystem>
+#include <optional>
+#include <span>
+#include <string>
+#include <vector>
+
+namespace wane {
+
+struct audio_read_options {
+    /// 1-based channel to take; empty mixes all channels to mono (mean).
+    std::optional<int> channel;
+    /// Longest input accepted, in seconds (refused with the limit named beyond it).
+    double max_length_s = 1800.0;
+};
+
+struct mono_audio {
+    std::vector<float> samples;
+    double sample_rate_hz = 0.0;
+    int source_channels = 0;
+    std::string format_name;  ///< e.g. "WAV (Microsoft) / Signed 24 bit PCM"
+};
+
+/// Reads any file libsndfile reads. Throws io_error naming the file: missing, a directory, not
+/// audio (libsndfile's message passed on), zero frames, NaN/Inf samples, rate outside
+/// 1 Hz..768 kHz, --channel beyond the channel count, longer than max_length_s.
+mono_audio read_audio(const std::filesystem::path& path, const audio_read_options& options = {});
+
+enum class sample_format { pcm16, pcm24, float32 };
+
+struct audio_write_options {
+    sample_format format = sample_format::pcm24;
+    /// MIDI root note stored in the file's instrument chunk (WAV/AIFF), when set.
+    std::optional<int> root_midi;
+    /// Seed of the TPDF dither applied when writing 16-bit PCM (deterministic output).
+    std::uint64_t dither_seed = 0x77616e65;
+};
+
+/// Writes mono samples; the container follows the extension (.wav, .aif/.aiff, .flac). Atomic.
+/// Samples beyond full scale are the caller's business: check the peak first (never clip silently).
+void write_audio(const std::filesystem::path& path, std::span<const float> samples,
+                 double sample_rate_hz, const audio_write_options& options = {});
+
+/// Best-quality sinc resampling (libsamplerate SRC_SINC_BEST_QUALITY). Returns the input
+/// unchanged when the rates are equal.
+std::vector<float> resample(std::span<const float> samples, double from_rate_hz, double to_rate_hz);
+
+/// Parses "16", "24", "32f" (the --bits option). Empty for anything else.
+std::optional<sample_format> parse_sample_format(std::string_view text);
+
+}  // namespace wane
