@@ -1,0 +1,37 @@
+// The whole analysis: a mono recording -> a patch. Owned by the Analysis II work.
+#pragma once
+
+#include <span>
+#include <string>
+
+#include "core/patch.hpp"
+#include "tracking/tracker.hpp"
+
+namespace wane {
+
+struct analysis_params {
+    tracking_params tracking;
+    int max_segments = 3;
+    double start_s = 0.0;     ///< analyze from here (seconds into the file)
+    double end_s = 0.0;       ///< 0 = to the end
+    std::string source_file;  ///< recorded in [source].file
+    std::string note_name;    ///< [note].name
+};
+
+struct analysis_summary {
+    int partials = 0;
+    int segments = 0;          ///< total decay segments over all partials
+    double fit_error_db = 0.0; ///< RMS error of the envelope fits, dB
+};
+
+struct analysis_result {
+    patch value;
+    tracking_result tracking;
+    analysis_summary summary;
+};
+
+/// Throws std::invalid_argument with a user-facing reason when the sound cannot be analyzed.
+analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
+                             const analysis_params& params);
+
+}  // namespace wane
