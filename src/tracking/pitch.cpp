@@ -73,7 +73,7 @@ pitch_estimate estimate_pitch(std::span<const pitch_peak> all_peaks, const pitch
     double total = 0.0;
     for (std::size_t i = 0; i < peaks.size(); ++i) total += amp[i] = std::pow(10.0, peaks[i].level_db / 20.0);
 
-    constexpr std::array<double, 4> b_grid_fraction{0.0, 0.1, 0.3, 1.0};
+    constexpr std::array<double, 5> b_grid_fraction{0.0, 1.0 / 30.0, 0.1, 1.0 / 3.0, 1.0};
     pitch_estimate best;
     double best_score = -1.0;
     const std::size_t seeds = std::min<std::size_t>(peaks.size(), 8);

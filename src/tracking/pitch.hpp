@@ -20,7 +20,7 @@ struct pitch_params {
     int max_harmonic = 40;
     double tolerance_rel = 0.012;       ///< |f / (n f0 s_n) - 1| allowed, plus the stiffness slack
     /// Largest B allowed for while sieving, s_n = sqrt(1 + B n^2) (grid 0 .. this).
-    double max_inharmonicity = 1e-3;
+    double max_inharmonicity = 3e-3;
     /// A sound is harmonic when the best candidate explains this fraction of the strong peaks'
     /// amplitude (sum of linear amplitudes).
     double min_explained = 0.8;

@@ -259,3 +259,28 @@ TEST_CASE("window, FFT size and hop overrides are honoured", "[tracking][params]
     bad.window_s = 0.05;
     CHECK_THROWS_WITH(track_note(x, fs, bad), Contains("FFT size 1024"));
 }
+
+TEST_CASE("a high, very stiff string keeps its harmonic numbers", "[tracking][string]") {
+    // Treble-piano-like: f0 = 523.25 Hz, B = 2e-3, 12 partials (Fletcher 1964 law, exact).
+    const double f0 = 523.25, b = GENERATE(0.0, 5e-4, 2e-3);
+    constexpr double fs = 48000.0;
+    std::vector<synth_partial> partials;
+    for (int n = 1; n <= 12; ++n) {
+        const double nd = n;
+        partials.push_back({nd * f0 * std::sqrt(1.0 + b * nd * nd), 0.2 / nd, 2.0, 0.7 * nd});
+    }
+    const auto x = synth(partials, fs, 1.0, 0.0, 1e-5, 21);
+    const tracking_result r = track_note(x, fs, {});
+    CAPTURE(b, r.f0_hz, r.series_f0_hz, r.inharmonicity_b, r.tracks.size());
+    CHECK(std::abs(cents_between(r.f0_hz, f0)) < 0.2);
+    CHECK_THAT(r.inharmonicity_b, WithinAbs(b, 0.03 * b + 1e-7));
+    int labelled = 0;
+    for (const auto& t : r.tracks) {
+        const int n = t.harmonic;
+        REQUIRE(n >= 1);
+        REQUIRE(n <= 12);
+        CHECK(std::abs(cents_between(track_freq_hz(t), partials[n - 1].freq_hz)) < 0.2);
+        ++labelled;
+    }
+    CHECK(labelled == 12);
+}
