@@ -3,6 +3,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <cstdint>
 #include <numeric>
 #include <stdexcept>
@@ -14,6 +15,7 @@
 #include "spectrum/stft.hpp"
 #include "tracking/onset.hpp"
 #include "tracking/pitch.hpp"
+#include "tracking/signal_checks.hpp"
 
 namespace wane {
 
@@ -150,6 +152,12 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
     float max_dev = 0.0f;
     for (float v : x) max_dev = std::max(max_dev, std::abs(v - dc));
     if (max_dev < min_signal) refuse("no signal: the samples are constant (silence or DC only)");
+    if (const clipping_report clip = find_clipping(x); clip.clipped) {
+        char peak_text[32];
+        std::snprintf(peak_text, sizeof peak_text, "%.2f", 20.0 * std::log10(clip.peak_lin));
+        refuse("clipped: the waveform is flattened at its peak (" + std::string(peak_text) + " dBFS) in " +
+               std::to_string(clip.runs) + " places; the partial levels would be wrong");
+    }
 
     tracking_result result;
     const std::int64_t onset = detect_onset(x, fs);

@@ -216,6 +216,20 @@ TEST_CASE("bad input is refused with a clear message", "[tracking][bad]") {
         short_file[i] = static_cast<float>(0.5 * std::sin(two_pi * 440.0 * double(i) / fs));
     CHECK_THROWS_WITH(track_note(short_file, fs, {}), Contains("too short"));
     CHECK_THROWS_AS(track_note(short_file, fs, {}), std::invalid_argument);
+    // Clipped: a 220 Hz sine of amplitude 1.5 cut at +-1 (flat tops every half period).
+    std::vector<float> clipped(48000);
+    for (std::size_t i = 0; i < clipped.size(); ++i)
+        clipped[i] = static_cast<float>(std::clamp(1.5 * std::sin(two_pi * 220.0 * double(i) / fs), -1.0, 1.0));
+    CHECK_THROWS_WITH(track_note(clipped, fs, {}), Contains("clipped") && Contains("0.00 dBFS"));
+    // The same sine unclipped at full scale, and a 16-bit-quantized 40 Hz sine (its peak value
+    // repeats over several samples), are not clipped.
+    std::vector<float> clean(48000), slow(48000);
+    for (std::size_t i = 0; i < clean.size(); ++i) {
+        clean[i] = static_cast<float>(std::sin(two_pi * 220.0 * double(i) / fs));
+        slow[i] = static_cast<float>(std::round(32767.0 * std::sin(two_pi * 40.0 * double(i) / fs)) / 32768.0);
+    }
+    CHECK_NOTHROW(track_note(clean, fs, {}));
+    CHECK_NOTHROW(track_note(slow, fs, {}));
     CHECK_THROWS_AS(track_note(noise, fs, {}), std::invalid_argument);
 }
 
