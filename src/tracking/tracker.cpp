@@ -2,6 +2,7 @@
 #include "tracking/tracker.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <cstdio>
 #include <cstdint>
@@ -140,6 +141,18 @@ void bridge_gap(partial_track& track, int frames, const track_point& next, doubl
     }
 }
 
+/// Median frequency of the first (or last) few points of a track: its ends can sit on a fading or
+/// rising edge where a single frame reads off.
+double edge_freq_hz(const partial_track& t, bool at_start) {
+    constexpr std::size_t edge_points = 5;
+    const std::size_t k = std::min(edge_points, t.points.size());
+    std::array<double, edge_points> f{};
+    for (std::size_t i = 0; i < k; ++i) f[i] = t.points[at_start ? i : t.points.size() - 1 - i].freq_hz;
+    for (std::size_t i = 1; i < k; ++i)  // insertion sort of <= 5 values
+        for (std::size_t j = i; j > 0 && f[j - 1] > f[j]; --j) std::swap(f[j - 1], f[j]);
+    return f[k / 2];
+}
+
 /// Joins fragments of one partial: a track starting within max_gap_s after another ended, at a
 /// frequency within rel_tol of where that one stopped, continues it (the gap bridged). Fragments
 /// come from a partial dipping into the noise (beating) for longer than the frame bridging allows.
@@ -161,7 +174,7 @@ void join_fragments(std::vector<partial_track>& tracks, std::vector<double>& pea
             const track_point& last = tracks[earlier].points.back();
             const double gap_s = first.time_s - last.time_s;
             if (gap_s <= 0.5 * hop_s || gap_s > max_gap_s) continue;
-            const double dist = std::abs(first.freq_hz / last.freq_hz - 1.0);
+            const double dist = std::abs(edge_freq_hz(tracks[later], true) / edge_freq_hz(tracks[earlier], false) - 1.0);
             if (dist < best_dist) best_dist = dist, best = earlier;
         }
         if (best == tracks.size()) continue;

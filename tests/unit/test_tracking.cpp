@@ -298,3 +298,61 @@ TEST_CASE("a high, very stiff string keeps its harmonic numbers", "[tracking][st
     }
     CHECK(labelled == 12);
 }
+
+TEST_CASE("a partial that dips into the noise stays one track", "[tracking][join]") {
+    // 440 Hz, silent from 0.5 to 0.7 s (amplitude 0 there, raised-cosine edges of 20 ms), with a
+    // steady 660 Hz partial beside it. Ground truth: one 440 Hz partial over the whole note.
+    constexpr double fs = 48000.0;
+    const auto count = static_cast<std::size_t>(1.5 * fs);
+    std::vector<float> x(count);
+    std::mt19937 rng(13);
+    std::normal_distribution<double> gauss(0.0, 1e-5);
+    for (std::size_t i = 0; i < count; ++i) {
+        const double t = double(i) / fs;
+        double gate = 1.0;
+        constexpr double edge_s = 0.02;
+        if (t > 0.5 - edge_s && t < 0.7 + edge_s) {
+            if (t < 0.5) gate = 0.5 + 0.5 * std::cos(pi * (t - (0.5 - edge_s)) / edge_s);
+            else if (t > 0.7) gate = 0.5 - 0.5 * std::cos(pi * (t - 0.7) / edge_s);
+            else gate = 0.0;
+        }
+        x[i] = static_cast<float>(0.3 * gate * std::cos(two_pi * 440.0 * t) + 0.2 * std::cos(two_pi * 660.0 * t + 1.0) +
+                                  gauss(rng));
+    }
+    const tracking_result r = track_note(x, fs, {});
+    int at_440 = 0;
+    for (const auto& t : r.tracks) {
+        if (std::abs(track_freq_hz(t) - 440.0) > 1.0) continue;
+        ++at_440;
+        CAPTURE(t.points.front().time_s, t.points.back().time_s, t.points.size());
+        CHECK(t.points.front().time_s < 0.05);
+        CHECK(t.points.back().time_s > 1.3);
+        // Consecutive frames: the gap is bridged, one point per hop.
+        CHECK_THAT(t.points.back().time_s - t.points.front().time_s,
+                   WithinAbs(double(t.points.size() - 1) * r.hop_s, 1e-9));
+    }
+    CHECK(at_440 == 1);
+}
+
+TEST_CASE("partials straying from the stiff-string law keep their numbers", "[tracking][labels]") {
+    // f_n = n f0 sqrt(1 + B n^2) (1 + 1.5e-6 n^3): 4% sharp of the law at n = 30, which the
+    // single-B series cannot follow; the true numbers are the ground truth.
+    constexpr double fs = 48000.0, f0 = 100.0, b = 1e-4;
+    std::vector<synth_partial> partials;
+    for (int n = 1; n <= 30; ++n) {
+        const double nd = n;
+        partials.push_back({nd * f0 * std::sqrt(1.0 + b * nd * nd) * (1.0 + 1.5e-6 * nd * nd * nd), 0.3 / nd, 3.0, 0.4 * nd});
+    }
+    const auto x = synth(partials, fs, 1.0, 0.0, 1e-5, 17);
+    const tracking_result r = track_note(x, fs, {});
+    CAPTURE(r.f0_hz, r.series_f0_hz, r.inharmonicity_b);
+    CHECK(r.tracks.size() == 30);
+    for (const auto& t : r.tracks) {
+        const double f = track_freq_hz(t);
+        const auto it = std::min_element(partials.begin(), partials.end(), [&](auto& a, auto& c) {
+            return std::abs(a.freq_hz - f) < std::abs(c.freq_hz - f);
+        });
+        CAPTURE(f, t.harmonic);
+        CHECK(t.harmonic == static_cast<int>(it - partials.begin()) + 1);
+    }
+}
