@@ -22,8 +22,13 @@ namespace {
 fs::path temp_sibling(const fs::path& dest) {
     static std::atomic<unsigned> counter{0};
     const fs::path folder = dest.has_parent_path() ? dest.parent_path() : fs::path(".");
-    const std::string name = "." + dest.filename().string() + "." + std::to_string(::getpid()) + "." +
-                             std::to_string(counter.fetch_add(1)) + ".tmp";
+    std::string name = ".";
+    name += dest.filename().string();
+    name += '.';
+    name += std::to_string(::getpid());
+    name += '.';
+    name += std::to_string(counter.fetch_add(1));
+    name += ".tmp";
     return folder / name;
 }
 
