@@ -46,7 +46,9 @@ atomic_output::atomic_output(fs::path destination) : dest_(std::move(destination
     const fs::path folder = dest_.has_parent_path() ? dest_.parent_path() : fs::path(".");
     std::error_code ec;
     if (!fs::is_directory(folder, ec)) {
-        throw io_error(dest_.string() + ": output folder '" + folder.string() + "' does not exist");
+        const bool exists = fs::exists(folder, ec);
+        throw io_error(dest_.string() + ": output folder '" + folder.string() +
+                       (exists ? "' is not a folder" : "' does not exist"));
     }
     if (fs::is_directory(dest_, ec)) throw io_error(dest_.string() + ": is a directory");
 }

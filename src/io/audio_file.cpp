@@ -173,6 +173,41 @@ container container_for(const fs::path& path) {
                    "' (use .wav, .aif, .aiff or .flac)");
 }
 
+/// Appends an AIFF INST chunk holding the root note to a finished AIFF file and fixes the FORM
+/// size. Layout (Apple, "Audio Interchange File Format: AIFF", version 1.3, 1989): ckID 'INST',
+/// ckSize 20, then baseNote, detune, lowNote, highNote, lowVelocity, highVelocity (one byte
+/// each), gain (int16 dB), sustainLoop and releaseLoop (playMode, beginLoop, endLoop: int16 each;
+/// playMode 0 = no looping). Chunks start on even offsets, so an odd file gets a pad byte first.
+void append_aiff_inst_chunk(const fs::path& file, const fs::path& dest, int root_midi) {
+    constexpr std::uint32_t inst_chunk_size = 20;
+    constexpr unsigned char full_range_top = 127;
+    std::error_code ec;
+    std::uintmax_t size = fs::file_size(file, ec);
+    if (ec) throw io_error(quoted(dest) + ": cannot store the root note: " + ec.message());
+    std::string bytes;
+    if (size % 2 != 0) bytes.push_back('\0');
+    bytes += "INST";
+    for (int shift = 24; shift >= 0; shift -= 8) bytes.push_back(static_cast<char>((inst_chunk_size >> shift) & 0xFF));
+    bytes.push_back(static_cast<char>(root_midi));  // baseNote
+    bytes.push_back('\0');                          // detune (cents)
+    bytes.push_back('\0');                          // lowNote
+    bytes.push_back(static_cast<char>(full_range_top));  // highNote
+    bytes.push_back(1);                                  // lowVelocity
+    bytes.push_back(static_cast<char>(full_range_top));  // highVelocity
+    bytes.append(2 + 6 + 6, '\0');                      // gain 0 dB, two loops of playMode 0
+    size += bytes.size();
+    const auto form_size = static_cast<std::uint32_t>(size - 8);  // FORM size excludes its 8-byte header
+    const std::array<char, 4> form_be = {static_cast<char>(form_size >> 24), static_cast<char>((form_size >> 16) & 0xFF),
+                                         static_cast<char>((form_size >> 8) & 0xFF), static_cast<char>(form_size & 0xFF)};
+    std::fstream f(file, std::ios::binary | std::ios::in | std::ios::out);
+    f.seekp(0, std::ios::end);
+    f.write(bytes.data(), static_cast<std::streamsize>(bytes.size()));
+    f.seekp(4);
+    f.write(form_be.data(), form_be.size());
+    f.flush();
+    if (!f) throw io_error(quoted(dest) + ": write failed while storing the root note");
+}
+
 }  // namespace
 
 mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
@@ -207,7 +242,7 @@ mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
     const double claimed_s = static_cast<double>(info.frames) / rate_hz;
     if (claimed_s > options.max_length_s) {
         char buf[160];
-        std::snprintf(buf, sizeof buf, ": %.1f s long, longer than the %.1f s limit", claimed_s, options.max_length_s);
+        std::snprintf(buf, sizeof buf, ": %.4g s long, longer than the %g s limit", claimed_s, options.max_length_s);
         throw io_error(quoted(path) + buf);
     }
 
@@ -315,8 +350,10 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
         inst.velocity_hi = 127;
         inst.key_lo = 0;
         inst.key_hi = 127;
-        // FLAC has no instrument chunk; libsndfile refuses there and we store nothing.
-        if (cont.major != SF_FORMAT_FLAC &&
+        // WAV: libsndfile writes the smpl chunk. AIFF: libsndfile (1.2) accepts the instrument
+        // but writes no INST chunk, so we append one after closing (append_aiff_inst_chunk).
+        // FLAC has no instrument chunk; nothing is stored.
+        if (cont.major == SF_FORMAT_WAV &&
             sf_command(file.get(), SFC_SET_INSTRUMENT, &inst, sizeof inst) != SF_TRUE) {
             throw io_error(quoted(path) + ": cannot store the root note: " + sf_strerror(file.get()));
         }
@@ -372,6 +409,9 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
         }
     }
     if (file.close() != 0) throw io_error(quoted(path) + ": write failed while closing the file");
+    if (options.root_midi && cont.major == SF_FORMAT_AIFF) {
+        append_aiff_inst_chunk(out.temp_path(), path, *options.root_midi);
+    }
     out.commit();
 }
 

@@ -14,7 +14,7 @@ namespace wane {
 
 struct audio_read_options {
     /// 1-based channel to take; empty mixes all channels to mono (mean).
-    std::optional<int> channel;
+    std::optional<int> channel{};
     /// Longest input accepted, in seconds (refused with the limit named beyond it).
     double max_length_s = 1800.0;
 };
@@ -36,7 +36,7 @@ enum class sample_format { pcm16, pcm24, float32 };
 struct audio_write_options {
     sample_format format = sample_format::pcm24;
     /// MIDI root note stored in the file's instrument chunk (WAV/AIFF), when set.
-    std::optional<int> root_midi;
+    std::optional<int> root_midi{};
     /// Seed of the TPDF dither applied when writing 16-bit PCM (deterministic output).
     std::uint64_t dither_seed = 0x77616e65;
     /// TPDF dither for 16-bit PCM (on by default). Off rounds to the nearest step, so samples
