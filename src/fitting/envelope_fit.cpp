@@ -14,6 +14,8 @@ namespace {
 /// Largest number of segments the fixed-size normal equations hold.
 constexpr int max_supported_segments = 8;
 constexpr int max_unknowns = max_supported_segments + 1;
+/// The dynamic program places run boundaries on at most this many grid points.
+constexpr std::size_t dp_grid_points = 50;
 /// A segment needs at least this many fit points so its slope is determined by data.
 constexpr int min_points_per_segment = 3;
 /// Residuals above the line count at most this much in the power-mean level offset, dB
@@ -31,10 +33,14 @@ constexpr int floor_median_frames = 5;
 /// Residual lag-1 correlation is clamped to this before the effective sample count is formed.
 constexpr double max_residual_correlation = 0.9;
 /// Golden-section steps when a knot is refined between grid points.
-constexpr int knot_refine_steps = 24;
+constexpr int knot_refine_steps = 14;
 constexpr double golden = 0.6180339887498949;  // (sqrt(5) - 1) / 2
 /// Coordinate-descent sweeps over the knots.
-constexpr int knot_sweeps = 3;
+constexpr int knot_sweeps = 2;
+/// With more than one knot, each knot is scanned over this many grid points either side of
+/// where it is (the dynamic program already placed it near its optimum); a lone knot is
+/// scanned over the whole grid.
+constexpr std::size_t knot_scan_halfwidth = 6;
 
 /// Standard deviation of a frame's level in dB from additive noise, for a sinusoid whose level
 /// exceeds the floor (mean noise power at the peak) by excess_db: the level error is
@@ -204,18 +210,25 @@ std::vector<std::vector<std::size_t>> segmented_least_squares(const point_sums& 
                                                               double min_run_s) {
     const std::size_t n = ps.size();
     const std::size_t min_pts = min_points_per_segment;
-    std::vector<std::vector<double>> cost(kmax + 1, std::vector<double>(n + 1, infinity));
-    std::vector<std::vector<std::size_t>> from(kmax + 1, std::vector<std::size_t>(n + 1, 0));
+    // Run boundaries on a coarse grid: every stride-th point (and the end); run costs stay exact.
+    const std::size_t stride = (n + dp_grid_points - 1) / dp_grid_points;
+    std::vector<std::size_t> cand;
+    for (std::size_t i = 0; i < n; i += stride) cand.push_back(i);
+    cand.push_back(n);
+    const std::size_t nc = cand.size();
+    std::vector<std::vector<double>> cost(kmax + 1, std::vector<double>(nc, infinity));
+    std::vector<std::vector<std::size_t>> from(kmax + 1, std::vector<std::size_t>(nc, 0));
     auto run_ok = [&](std::size_t a, std::size_t b) {
         return b - a >= min_pts && ps.x[b - 1] - ps.x[a] >= min_run_s;
     };
-    for (std::size_t j = min_pts; j <= n; ++j)
-        if (run_ok(0, j)) cost[1][j] = ps.line_cost(0, j);
+    for (std::size_t j = 1; j < nc; ++j)
+        if (run_ok(0, cand[j])) cost[1][j] = ps.line_cost(0, cand[j]);
     for (int k = 2; k <= kmax; ++k) {
-        for (std::size_t j = k * min_pts; j <= n; ++j) {
-            for (std::size_t i = (k - 1) * min_pts; i + min_pts <= j; ++i) {
-                if (!std::isfinite(cost[k - 1][i]) || !run_ok(i, j)) continue;
-                const double c = cost[k - 1][i] + ps.line_cost(i, j);
+        // The last layer only needs the full run (j = the end).
+        for (std::size_t j = k == kmax ? nc - 1 : 1; j < nc; ++j) {
+            for (std::size_t i = 1; i < j; ++i) {
+                if (!std::isfinite(cost[k - 1][i]) || !run_ok(cand[i], cand[j])) continue;
+                const double c = cost[k - 1][i] + ps.line_cost(cand[i], cand[j]);
                 if (c < cost[k][j]) {
                     cost[k][j] = c;
                     from[k][j] = i;
@@ -225,14 +238,14 @@ std::vector<std::vector<std::size_t>> segmented_least_squares(const point_sums& 
     }
     std::vector<std::vector<std::size_t>> starts(kmax + 1);
     for (int k = 2; k <= kmax; ++k) {
-        if (!std::isfinite(cost[k][n])) continue;
-        std::vector<std::size_t> s(k - 1);
-        std::size_t j = n;
+        if (!std::isfinite(cost[k][nc - 1])) continue;
+        std::vector<std::size_t> st(k - 1);
+        std::size_t j = nc - 1;
         for (int kk = k; kk >= 2; --kk) {
             j = from[kk][j];
-            s[kk - 2] = j;
+            st[kk - 2] = cand[j];
         }
-        starts[k] = std::move(s);
+        starts[k] = std::move(st);
     }
     return starts;
 }
@@ -256,7 +269,13 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
             std::vector<double> trial = best.knots;
             double best_rss = best.sol.rss;
             std::size_t best_i = n;
-            for (std::size_t i = 1; i + 1 < n; ++i) {
+            std::size_t scan_lo = 1, scan_hi = n - 1;
+            if (knots.size() > 1) {
+                const std::size_t at = ps.first_after(best.knots[j]);
+                scan_lo = std::max<std::size_t>(1, at > knot_scan_halfwidth ? at - knot_scan_halfwidth : 0);
+                scan_hi = std::min(n - 1, at + knot_scan_halfwidth);
+            }
+            for (std::size_t i = scan_lo; i < scan_hi; ++i) {
                 trial[j] = ps.x[i];
                 if (!knots_feasible(ps, trial, min_segment_s)) continue;
                 const continuous_solution s = solve_continuous(ps, trial);
@@ -363,6 +382,14 @@ bool changes_significant(const point_sums& ps, const knot_fit& f, double inflati
     return true;
 }
 
+/// Level of the decay pieces at time t >= the first piece's start (envelope_level without
+/// rebuilding the pieces at every call).
+double decay_level_db(std::span<const envelope_piece> pieces, double t) {
+    for (const envelope_piece& p : pieces)
+        if (t < p.end_s) return p.start_level.db + p.slope_db_per_s * (t - p.start_s);
+    return -infinity;
+}
+
 double wrap_phase(double phase_rad) { return std::remainder(phase_rad, two_pi); }
 
 }  // namespace
@@ -425,10 +452,8 @@ level_line_fit fit_level_lines(std::span<const double> times_s, std::span<const 
     const double dof = std::max(static_cast<double>(n) - 2.0 * kbig, 1.0);
     double chi2 = 0.0;
     for (std::size_t i = 0; i < n; ++i) chi2 += weights[i] * resid[i] * resid[i];
-    std::vector<double> w2(n);
-    if (chi2 <= dof) {
-        for (std::size_t i = 0; i < n; ++i) w2[i] = weights[i];
-    } else {
+    std::vector<double> w2(weights.begin(), weights.end());
+    if (chi2 > dof) {
         double lo = 0.0, hi = 0.0;
         for (double r : resid) hi = std::max(hi, r * r);
         auto excess_chi2 = [&](double s2) {
@@ -442,11 +467,11 @@ level_line_fit fit_level_lines(std::span<const double> times_s, std::span<const 
         }
         const double s2 = 0.5 * (lo + hi);
         for (std::size_t i = 0; i < n; ++i) w2[i] = 1.0 / (1.0 / weights[i] + s2);
+        // Pass 2 with the calibrated weights.
+        ps = point_sums(times_s, levels_db, w2);
+        fits = fit_all_k(ps, kmax, params);
+        kbig = largest_feasible(fits);
     }
-    // Pass 2 with the calibrated weights.
-    ps = point_sums(times_s, levels_db, w2);
-    fits = fit_all_k(ps, kmax, params);
-    kbig = largest_feasible(fits);
 
     // Effective number of independent points from the residual lag-1 correlation of the largest
     // feasible model (beating leaves slow, correlated residuals; noise leaves white ones):
@@ -547,20 +572,22 @@ partial_fit fit_region(const std::vector<track_point>& pts, std::span<const doub
     {
         // Reliability weights here carry a fixed model error so the strongest frames do not
         // decide alone: 1 / (offset_sigma^2 + noise^2).
+        const auto pieces = envelope_pieces(env);
         double sw = 0.0, sp = 0.0;
         for (std::size_t i = 0; i < m; ++i) {
             const double sn = noise_sigma_db(expected_excess_db[first + i]);
             const double w = 1.0 / (offset_sigma_db * offset_sigma_db + sn * sn);
-            const double r = level[i] - envelope_level(env, time[i]).db;
+            const double r = level[i] - decay_level_db(pieces, time[i]);
             sp += w * std::pow(10.0, std::min(r, max_offset_residual_db) / 10.0);
             sw += w;
         }
         env.peak.db += power_to_db(sp / sw);
     }
     // Fit error: plain RMS over the fitted frames.
+    const auto pieces = envelope_pieces(env);
     double se = 0.0;
     for (std::size_t i = 0; i < m; ++i) {
-        const double r = level[i] - envelope_level(env, time[i]).db;
+        const double r = level[i] - decay_level_db(pieces, time[i]);
         se += r * r;
     }
     out.weighted_sq_error_db2 = se;
@@ -637,11 +664,12 @@ std::optional<partial_fit> fit_partial(const partial_track& track, const envelop
     partial_fit out = fit_region(pts, expected, peak, peak, end, params);
     for (int pass = 0; pass < end_refit_passes; ++pass) {
         std::size_t model_end = n;
+        const auto pieces = envelope_pieces(out.env);
         for (std::size_t i = peak; i < n; ++i) {
-            expected[i] = envelope_level(out.env, pts[i].time_s).db - pts[i].floor_db;
+            expected[i] = decay_level_db(pieces, pts[i].time_s) - pts[i].floor_db;
             if (model_end == n && expected[i] < params.floor_margin_db) model_end = i;
         }
-        if (model_end < peak + 2) break;
+        if (model_end < peak + 2 || (pass > 0 && model_end == end)) break;
         end = model_end;
         out = fit_region(pts, expected, peak, peak, end, params);
     }
