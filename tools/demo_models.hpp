@@ -181,7 +181,7 @@ inline std::size_t frames_of(double time_s, double sample_rate_hz) {
 //     first partial lands exactly on the design f1;
 //   - a cascade of identical first-order allpasses with negative coefficient (phase delay falling
 //     with frequency: higher partials travel the loop faster), its coefficient fitted so the loop
-//     resonances follow the stiff-string law f_n = n f0 sqrt(1 + B n^2) (Fletcher 1964; also
+//     resonances follow the stiff-string law f_n = n f0 sqrt(1 + B n^2) (Fletcher 1964, from memory; also
 //     Fletcher and Rossing, The Physics of Musical Instruments, stiff strings);
 //   - a one-pole lowpass loss filter: T60 falls with frequency.
 // The pluck is a short smoothed force pulse through a pluck-position comb 1 - z^-(beta P), which
@@ -218,7 +218,7 @@ struct string_params {
 /// Nominal f0 of the stiff-string law such that partial 1 is f1: f0 = f1 / sqrt(1 + B).
 inline double string_nominal_f0_hz(const string_params& p) { return p.f1_hz / std::sqrt(1.0 + p.inharmonicity_b); }
 
-/// Target frequency of partial n: n f0 sqrt(1 + B n^2) (Fletcher 1964).
+/// Target frequency of partial n: n f0 sqrt(1 + B n^2) (Fletcher 1964, from memory).
 inline double stiff_string_partial_hz(const string_params& p, int n) {
     const double nd = static_cast<double>(n);
     return nd * string_nominal_f0_hz(p) * std::sqrt(1.0 + p.inharmonicity_b * nd * nd);
