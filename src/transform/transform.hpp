@@ -74,7 +74,7 @@ struct transform_params {
     std::optional<double> max_freq_hz{};            ///< drop partials above; clip noise bands
     std::optional<std::size_t> keep_strongest{};    ///< keep the N partials with the highest peak_db
     // Inharmonicity.
-    std::optional<double> set_b{};///< new B (>= 0); moves harmonic partials to n f0 sqrt(1 + B n^2)
+    std::optional<double> set_b{};  ///< new B (>= 0); moves harmonic partials to n f0 sqrt(1 + B n^2)
     double scale_b = 1.0;         ///< B times this (>= 0); ignored when set_b is given
     // Variation.
     variation_params variation{};
