@@ -502,6 +502,16 @@ TEST_CASE("bad inputs give an io_error naming the file", "[audio_io]") {
     // 1000 frames at 48 kHz is 20.8 ms.
     cases.push_back({"good.wav", "0.01 s limit", {.max_length_s = 0.01}});
 
+    // Truncated AIFF and FLAC (written here, then cut in half).
+    std::vector<float> tone(20000);
+    for (std::size_t i = 0; i < tone.size(); ++i) tone[i] = static_cast<float>(0.5 * std::sin(0.05 * static_cast<double>(i)));
+    for (const std::string ext : {".aiff", ".flac"}) {
+        write_audio(dir / ("whole" + ext), tone, 48000.0);
+        const std::string whole = read_bytes(dir / ("whole" + ext));
+        write_bytes(dir / ("cut" + ext), whole.substr(0, whole.size() / 2));
+        cases.push_back({"cut" + ext, "truncated", {}});
+    }
+
     for (const bad_case& c : cases) {
         const fs::path p = dir / c.name;
         const std::string msg = read_error(p, c.options);
@@ -554,6 +564,12 @@ TEST_CASE("a failed write names the path and leaves nothing behind", "[audio_io]
         CHECK_THAT(msg, Contains(c.path.string()));
         CHECK_THAT(msg, Contains(c.expect));
         CHECK_FALSE(fs::exists(c.path));
+    }
+    // An existing folder nobody can create files in, even root: procfs.
+    if (fs::is_directory("/proc/self")) {
+        const std::string msg = write_error("/proc/self/wane_test.wav", ok, 48000.0);
+        CAPTURE(msg);
+        CHECK_THAT(msg, Contains("/proc/self/wane_test.wav") && Contains("cannot write"));
     }
     CHECK_THAT(write_error(out / "rate.wav", ok, 44100.5), Contains("44100.5"));
     CHECK_THAT(write_error(out / "rate.wav", ok, 1e9), Contains("768 kHz"));
