@@ -54,6 +54,13 @@ int main(int argc, char** argv) {
                         t.points.front().time_s, t.points.back().time_s, t.points.size(),
                         t.cut_by_end ? " cut" : "");
         }
+        if (const char* dump = std::getenv("BENCH_TRACK_DUMP")) {
+            const int want = std::atoi(dump);
+            for (const auto& t : r.tracks)
+                if (t.harmonic == want)
+                    for (const auto& p : t.points)
+                        std::printf("    t=%.3f f=%.3f L=%.1f floor=%.1f ph=%.3f\n", p.time_s, p.freq_hz, p.level_db, p.floor_db, p.phase_rad);
+        }
     } catch (const std::exception& e) {
         std::printf("error: %s\n", e.what());
         return 1;

@@ -11,13 +11,15 @@ namespace wane {
 namespace {
 double db_of_power(double power) { return 10.0 * std::log10(std::max(power, 1e-30)); }
 double wrap_phase(double phase) { return std::remainder(phase, two_pi); }
+constexpr std::size_t bin_stride = 2;  ///< the floor looks at every 2nd bin (zero padding >= 2)
 }  // namespace
 
 noise_floor::noise_floor(int bin_count, double bin_hz, double hop_s, const noise_floor_params& params)
     : bin_count_(bin_count),
       bin_hz_(bin_hz),
       band_bins_(std::max(params.min_band_bins, static_cast<int>(std::lround(params.band_hz / bin_hz)))),
-      alpha_(1.0 - std::exp(-hop_s / params.smoothing_s)),
+      update_interval_(std::max(1, static_cast<int>(params.max_update_s / hop_s))),
+      alpha_(1.0 - std::exp(-hop_s * update_interval_ / params.smoothing_s)),
       quantile_(params.quantile),
       mean_over_quantile_(1.0 / -std::log(1.0 - params.quantile)) {
     const int bands = (bin_count + band_bins_ - 1) / band_bins_;
@@ -31,8 +33,9 @@ void noise_floor::measure(std::span<const float> power) {
     for (std::size_t b = 0; b < bands_db_.size(); ++b) {
         const std::size_t lo = b * band_bins_;
         const std::size_t hi = std::min(power.size(), lo + band_bins_);
-        const auto count = hi - lo;
-        std::copy(power.begin() + lo, power.begin() + hi, scratch_.begin());
+        // Every bin_stride-th bin: with zero padding neighbours are correlated, so this loses little.
+        std::size_t count = 0;
+        for (std::size_t k = lo; k < hi; k += bin_stride) scratch_[count++] = power[k];
         const auto q = static_cast<std::size_t>(quantile_ * double(count - 1));
         std::nth_element(scratch_.begin(), scratch_.begin() + q, scratch_.begin() + count);
         measured_db_[b] = db_of_power(double(scratch_[q]) * mean_over_quantile_);
@@ -47,6 +50,9 @@ void noise_floor::reset(std::span<const float> power) {
 
 void noise_floor::update(std::span<const float> power) {
     if (!started_) return reset(power);
+    // Re-measured every update_interval-th frame; the running average moves slowly anyway.
+    if (++frames_since_ < update_interval_) return;
+    frames_since_ = 0;
     measure(power);
     for (std::size_t b = 0; b < bands_db_.size(); ++b)
         bands_db_[b] += alpha_ * (measured_db_[b] - bands_db_[b]);
@@ -72,36 +78,34 @@ void find_peaks(std::span<const float> power, std::span<const kiss_fft_cpx> bins
     const double base_thr = std::max(double(frame_max) * std::pow(10.0, -params.below_max_db / 10.0),
                                      std::pow(10.0, params.abs_floor_db / 10.0));
     const double above_floor = std::pow(10.0, params.above_floor_db / 10.0);
-    // Threshold per floor band, refreshed when the band changes.
-    double thr = base_thr;
-    double band_floor_db = -300.0;
-    double band_end_hz = -1.0;
-    const double band_hz = floor != nullptr ? floor->band_hz() : 0.0;
-    for (std::size_t k = first; k <= last; ++k) {
-        const float p = power[k];
-        if (!(p > power[k - 1] && p >= power[k + 1])) continue;
-        const double f_bin = double(k) * bin_hz;
-        if (floor != nullptr && f_bin >= band_end_hz) {
-            band_floor_db = floor->floor_db_at(f_bin);
-            band_end_hz = (std::floor(f_bin / band_hz) + 1.0) * band_hz;
-            thr = std::max(base_thr, std::pow(10.0, band_floor_db / 10.0) * above_floor);
+    // Power threshold per floor band (the floor's bands are whole multiples of FFT bins).
+    const double band_hz = floor != nullptr ? floor->band_hz() : sample_rate_hz;
+    const auto band_bins = std::max<std::size_t>(1, static_cast<std::size_t>(std::lround(band_hz / bin_hz)));
+    for (std::size_t band_lo = (first / band_bins) * band_bins; band_lo <= last; band_lo += band_bins) {
+        const std::size_t lo = std::max(band_lo, first);
+        const std::size_t hi = std::min(band_lo + band_bins, last + 1);
+        const double band_floor_db = floor != nullptr ? floor->floor_db_at((double(band_lo) + 0.5 * double(band_bins)) * bin_hz) : -300.0;
+        const auto thr = static_cast<float>(
+            floor != nullptr ? std::max(base_thr, std::pow(10.0, band_floor_db / 10.0) * above_floor) : base_thr);
+        for (std::size_t k = lo; k < hi; ++k) {
+            const float p = power[k];
+            if (p <= thr || !(p > power[k - 1] && p >= power[k + 1])) continue;
+            const auto fit = correction.interpolate(db_of_power(power[k - 1]), db_of_power(p),
+                                                    db_of_power(power[k + 1]));
+            spectral_peak peak{.freq_hz = (double(k) + fit.offset_bins) * bin_hz,
+                               .level_db = fit.level_db,
+                               .phase_rad = 0.0,
+                               .floor_db = band_floor_db};
+            if (!bins.empty()) {
+                // Zero-phase frame: the phase is nearly flat over the main lobe; interpolate linearly
+                // toward the neighbour on the side of the true peak.
+                const std::size_t k2 = fit.offset_bins >= 0.0 ? k + 1 : k - 1;
+                const double ph0 = std::atan2(double(bins[k].i), double(bins[k].r));
+                const double ph1 = std::atan2(double(bins[k2].i), double(bins[k2].r));
+                peak.phase_rad = wrap_phase(ph0 + std::abs(fit.offset_bins) * wrap_phase(ph1 - ph0));
+            }
+            out.push_back(peak);
         }
-        if (double(p) <= thr) continue;
-        const auto fit = correction.interpolate(db_of_power(power[k - 1]), db_of_power(p),
-                                                db_of_power(power[k + 1]));
-        spectral_peak peak{.freq_hz = (double(k) + fit.offset_bins) * bin_hz,
-                           .level_db = fit.level_db,
-                           .phase_rad = 0.0,
-                           .floor_db = band_floor_db};
-        if (!bins.empty()) {
-            // Zero-phase frame: the phase is nearly flat over the main lobe; interpolate linearly
-            // toward the neighbour on the side of the true peak.
-            const std::size_t k2 = fit.offset_bins >= 0.0 ? k + 1 : k - 1;
-            const double ph0 = std::atan2(double(bins[k].i), double(bins[k].r));
-            const double ph1 = std::atan2(double(bins[k2].i), double(bins[k2].r));
-            peak.phase_rad = wrap_phase(ph0 + std::abs(fit.offset_bins) * wrap_phase(ph1 - ph0));
-        }
-        out.push_back(peak);
     }
 }
 

@@ -18,6 +18,7 @@ struct noise_floor_params {
     /// lobes in the band do not lift it.
     double quantile = 0.2;
     double smoothing_s = 0.08;  ///< time constant of the running average (dB domain)
+    double max_update_s = 0.02; ///< re-measure at least this often (every frame for hops above)
 };
 
 /// Running noise-floor estimate per frequency band. Levels are mean noise power per bin on the
@@ -40,6 +41,8 @@ private:
     int bin_count_;
     double bin_hz_;
     int band_bins_;
+    int update_interval_;
+    int frames_since_ = 0;
     double alpha_;
     double quantile_;
     double mean_over_quantile_;  ///< exponential distribution: mean = q-quantile / -ln(1 - q)

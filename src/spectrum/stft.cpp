@@ -42,10 +42,18 @@ void stft_plan::analyze(std::span<const float> samples, std::int64_t centre, flo
     const float* w = window_.data() + h;  // w[m], m = -h..h
     float* buf = frame_.data();
     // Zero padding sits between the two halves (indices h+1 .. M-h-1); written once, never touched.
-    for (std::int64_t m = -h; m <= h; ++m) {
-        const std::int64_t n = centre + m;
-        const float x = (n >= 0 && n < size) ? samples[n] - dc_offset : 0.0f;
-        buf[m >= 0 ? m : m_size + m] = w[m] * x;
+    if (centre - h >= 0 && centre + h < size) {
+        // Interior frame: two straight multiply loops.
+        const float* x = samples.data() + centre;
+        for (std::int64_t m = 0; m <= h; ++m) buf[m] = w[m] * (x[m] - dc_offset);
+        float* tail = buf + m_size;
+        for (std::int64_t m = -h; m < 0; ++m) tail[m] = w[m] * (x[m] - dc_offset);
+    } else {
+        for (std::int64_t m = -h; m <= h; ++m) {
+            const std::int64_t n = centre + m;
+            const float x = (n >= 0 && n < size) ? samples[n] - dc_offset : 0.0f;
+            buf[m >= 0 ? m : m_size + m] = w[m] * x;
+        }
     }
     kiss_fftr(cfg_, buf, bins_.data());
     const float scale2 = static_cast<float>(amp_scale_ * amp_scale_);

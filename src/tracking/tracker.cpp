@@ -43,7 +43,8 @@ constexpr int min_track_frames = 5;
 constexpr double min_track_windows = 1.5;        ///< ... and at least this many window lengths
 constexpr double harmonic_tolerance_rel = 0.02;  ///< labelling tracks with harmonic numbers
 constexpr int b_fit_rounds = 3;
-constexpr double max_snr_weight_db = 60.0;
+constexpr double max_snr_weight_db = 40.0;       ///< B fit: weight by SNR, capped here
+constexpr double representative_range_db = 20.0; ///< a track's frequency: median within this of its peak
 
 int odd_length(double samples) { return std::max(3, 2 * static_cast<int>(std::lround(samples / 2.0)) + 1); }
 
@@ -290,10 +291,12 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
         std::vector<double> f;
         double best = -infinity, best_snr = -infinity;
         for (const auto& pt : done[i].points) {
-            f.push_back(pt.freq_hz);
             best = std::max(best, pt.level_db);
             best_snr = std::max(best_snr, pt.level_db - pt.floor_db);
         }
+        // The track's frequency: median over its strong part (beating and the noisy tail aside).
+        for (const auto& pt : done[i].points)
+            if (pt.level_db >= best - representative_range_db) f.push_back(pt.freq_hz);
         rep_freq[i] = median(std::move(f));
         strength[i] = best;
         weight[i] = std::pow(10.0, std::min(best_snr, max_snr_weight_db) / 10.0) * double(done[i].points.size());
@@ -311,7 +314,7 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
         for (int round = 0; round < b_fit_rounds; ++round) {
             for (std::size_t i = 0; i < order.size(); ++i) {
                 harmonic[i] = harmonic_number(freqs[i], f0_hz, b, harmonic_tolerance_rel);
-                weights[i] = weight[order[i]] * double(harmonic[i]) * double(harmonic[i]);
+                weights[i] = weight[order[i]];
             }
             const inharmonicity_fit fit = fit_inharmonicity(harmonic, freqs, weights);
             if (fit.used == 0) break;
