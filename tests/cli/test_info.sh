@@ -57,6 +57,11 @@ cat err3.txt
 check '[ $rc -eq 0 ]'
 check 'grep -q "^wane: warning: typo.toml:$tline:1: note: unknown key .gian_db. (did you mean .gain_db.?)" err3.txt'
 
+# The worked edit of patches/README.md: partial 3's tail T60 doubled shows in the table.
+sed "s/{ t60_s = 5.5200 }/{ t60_s = 11.0400 }/" "$pluck" >edited.toml
+"$wane" info edited.toml >out5.txt 2>&1
+check 'grep -Eq "^ +3 +3 +440\.651789 .* 3\.030 s to 0\.600 s, 11\.040 s to end$" out5.txt'
+
 # Not a patch at all.
 printf 'hello = 1\n' >not.toml
 "$wane" info not.toml >/dev/null 2>err4.txt; rc=$?
