@@ -136,11 +136,11 @@ std::string peak_dbfs_text(double peak) {
 }
 
 /// xorshift64* (Vigna 2016, "An experimental exploration of Marsaglia's xorshift generators,
-/// scrambled"), seeded through splitmix64 so any seed (also 0) gives a good state.
+/// scrambled", from memory), seeded through splitmix64 so any seed (also 0) gives a good state.
 class dither_rng {
 public:
     explicit dither_rng(std::uint64_t seed) {
-        std::uint64_t z = seed + 0x9E3779B97F4A7C15ull;  // splitmix64 (Steele, Lea, Flood 2014)
+        std::uint64_t z = seed + 0x9E3779B97F4A7C15ull;  // splitmix64 (Steele, Lea, Flood 2014, from memory)
         z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ull;
         z = (z ^ (z >> 27)) * 0x94D049BB133111EBull;
         state_ = z ^ (z >> 31);
@@ -161,22 +161,21 @@ private:
 };
 
 struct container {
-    int major = 0;
-    std::string extension;
+    int major = 0;  ///< libsndfile's SF_FORMAT_* container
 };
 
 container container_for(const fs::path& path) {
     std::string ext = path.extension().string();
     std::transform(ext.begin(), ext.end(), ext.begin(), [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
-    if (ext == ".wav") return {SF_FORMAT_WAV, ext};
-    if (ext == ".aif" || ext == ".aiff") return {SF_FORMAT_AIFF, ext};
-    if (ext == ".flac") return {SF_FORMAT_FLAC, ext};
+    if (ext == ".wav") return {SF_FORMAT_WAV};
+    if (ext == ".aif" || ext == ".aiff") return {SF_FORMAT_AIFF};
+    if (ext == ".flac") return {SF_FORMAT_FLAC};
     throw io_error(path_text(path) + ": unsupported output extension '" + path.extension().string() +
                    "' (use .wav, .aif, .aiff or .flac)");
 }
 
 /// Appends an AIFF INST chunk holding the root note to a finished AIFF file and fixes the FORM
-/// size. Layout (Apple, "Audio Interchange File Format: AIFF", version 1.3, 1989): ckID 'INST',
+/// size. Layout (Apple, "Audio Interchange File Format: AIFF", version 1.3, 1989, from memory): ckID 'INST',
 /// ckSize 20, then baseNote, detune, lowNote, highNote, lowVelocity, highVelocity (one byte
 /// each), gain (int16 dB), sustainLoop and releaseLoop (playMode, beginLoop, endLoop: int16 each;
 /// playMode 0 = no looping). Chunks start on even offsets, so an odd file gets a pad byte first.

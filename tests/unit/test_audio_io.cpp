@@ -75,7 +75,7 @@ void put_u32(std::string& s, std::uint32_t v) {
 }
 
 /// A canonical 44-byte-header WAV assembled by hand from the RIFF WAVE layout (Microsoft/IBM
-/// "Multimedia Programming Interface and Data Specifications 1.0", 1991): format tag 1 = PCM,
+/// "Multimedia Programming Interface and Data Specifications 1.0", 1991, from memory): format tag 1 = PCM,
 /// 3 = IEEE float. `data` is the raw little-endian sample bytes.
 std::string wav_bytes(std::uint32_t format_tag, std::uint32_t channels, std::uint32_t rate_hz,
                       std::uint32_t bits, const std::string& data) {
