@@ -479,3 +479,32 @@ TEST_CASE("read_patch_file names an unreadable file in an io_error", "[patch][io
     CHECK_THROWS_AS(read_patch_file(missing), io_error);
     CHECK_THROWS_WITH(read_patch_file(missing), Contains("no-such-patch.toml"));
 }
+
+TEST_CASE("the worked hand edit in patches/README.md gives the levels it states", "[patch][envelope]") {
+    patch p = read_patch_file(fs::path(WANE_SOURCE_DIR) / "patches/steel-pluck.toml").value;
+    REQUIRE(p.partials.size() >= 3);
+    partial& third = p.partials[2];
+    REQUIRE(third.harmonic == 3);
+    REQUIRE(third.env.decay.size() == 2);
+    CHECK(third.env.decay[1].t60_s == 5.52);
+    const envelope before = third.env;
+    third.env.decay[1].t60_s *= 2.0;
+    const envelope& fund = p.partials[0].env;
+    // The README's table, hand computed from the definition to 0.01 dB (tolerance 0.005 dB).
+    const double times_s[] = {1.0, 2.0, 4.0, 6.0};
+    const double before_db[] = {-30.57, -41.44, -63.18, -84.92};
+    const double after_db[] = {-28.40, -33.83, -44.70, -55.57};
+    const double fund_db[] = {-20.73, -28.60, -44.35, -60.10};
+    for (int i = 0; i < 4; ++i) {
+        CAPTURE(times_s[i]);
+        CHECK_THAT(envelope_level(before, times_s[i]).db, WithinAbs(before_db[i], 0.005));
+        CHECK_THAT(envelope_level(third.env, times_s[i]).db, WithinAbs(after_db[i], 0.005));
+        CHECK_THAT(envelope_level(fund, times_s[i]).db, WithinAbs(fund_db[i], 0.005));
+    }
+    CHECK_THAT(envelope_level(third.env, 0.6).db, WithinAbs(-26.22, 0.005));
+    third.env.decay[1].t60_s = 1.5 * 5.52;  // the gentler variant
+    CHECK_THAT(envelope_level(third.env, 4.0).db, WithinAbs(-50.86, 0.005));
+    // The edited patch is written with the new value in canonical form.
+    third.env.decay[1].t60_s = 11.04;
+    CHECK_THAT(format_patch(p), Contains("decay = [ { t60_s = 3.0300, until_s = 0.6000 }, { t60_s = 11.0400 } ]"));
+}
