@@ -300,7 +300,14 @@ TEST_CASE("a 4 s note with 40 partials gives a patch under 10 KB", "[fitting][an
     const analysis_result r = analyze_note(x, test_rate_hz, {.tracking = {}, .source_file = "note40.wav", .note_name = "note40"});
     const std::string text = format_patch(r.value);
     CAPTURE(r.summary.partials, r.summary.segments, r.summary.fit_error_db, text.size());
-    CHECK(r.summary.partials == 40);
+    // Every harmonic is in the patch (the tracker may add a stray track; the size must hold anyway).
+    for (int n = 1; n <= 40; ++n) {
+        bool found = false;
+        for (const partial& q : r.value.partials) found = found || std::abs(q.freq_hz - 110.0 * n) < 0.5;
+        CAPTURE(n);
+        CHECK(found);
+    }
+    CHECK(r.summary.partials >= 40);
     CHECK(text.size() < 10000);  // issue 5 acceptance: under 10 KB (the 24-bit WAV is ~576 KB)
     // The patch reads back to the same values (h-patch's reader; canonical text round trip).
     CHECK(format_patch(parse_patch(text, "note40.toml").value) == text);
