@@ -52,7 +52,8 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     double sq_error = 0.0, frames = 0.0;
     for (const partial_track& track : tr.tracks) {
         const auto fit = fit_partial(track, fit_params);
-        if (!fit) {
+        // A fit whose peak lies beyond what the format holds is no partial of this note.
+        if (!fit || fit->env.peak.db > max_peak_db) {
             ++out.summary.unfitted;
             continue;
         }

@@ -26,6 +26,15 @@ constexpr int variance_bisection_steps = 40;
 constexpr double offset_sigma_db = 0.5;
 /// Frames in the running mean that gives the first pass its expected level above the floor.
 constexpr int excess_smoothing_frames = 9;
+/// Frames over which the local roughness of the level is measured (odd).
+constexpr std::size_t roughness_frames = 17;
+/// Median absolute value of a zero-mean Gaussian = 0.6745 sigma, so sigma = 1.4826 median|x|.
+constexpr double mad_to_sigma = 1.4826;
+/// The noise term may be at most this many times the roughness estimate (overlapping frames
+/// smooth the noise, so the roughness understates it).
+constexpr double roughness_cap = 2.0;
+/// Furthest the first decay line may be run back before the first frame of a late-born track, dB.
+constexpr double max_backward_rise_db = 6.0;
 /// Refits after moving the fit's end to where the fitted envelope meets the floor margin.
 constexpr int end_refit_passes = 2;
 /// Frames in the running median that decides where the track reaches the floor.
@@ -523,12 +532,30 @@ partial_fit fit_region(const std::vector<track_point>& pts, std::span<const doub
     // pushed up and bias the tail towards a slower decay. The level itself is used as measured:
     // for circular noise n weaker than the sinusoid A, E ln|A + n| = ln A exactly (the mean of
     // ln|1 + z| over a circle of radius < 1 is 0), so the dB level is unbiased down to the floor.
-    std::vector<double> level(m), weight(m), time(m);
+    // The floor can overstate the noise a frame carries (a floor raised by the attack's noise,
+    // a band floor far from the partial): the noise term is capped at a multiple of the level's
+    // local roughness, sigma ~ 1.4826 median|second difference| / sqrt(6) (white noise: Var of
+    // the second difference is 6 sigma^2), taken over roughness_frames frames around each one.
+    std::vector<double> level(m), weight(m), time(m), rough(m, infinity);
     for (std::size_t i = 0; i < m; ++i) {
-        const track_point& p = pts[first + i];
-        const double sn = noise_sigma_db(expected_excess_db[first + i]);
-        level[i] = p.level_db;
-        time[i] = p.time_s;
+        level[i] = pts[first + i].level_db;
+        time[i] = pts[first + i].time_s;
+    }
+    if (m >= roughness_frames) {
+        std::vector<double> d2(m, 0.0);
+        for (std::size_t i = 1; i + 1 < m; ++i) d2[i] = std::abs(level[i + 1] - 2.0 * level[i] + level[i - 1]);
+        d2[0] = d2[1];
+        d2[m - 1] = d2[m - 2];
+        std::array<double, roughness_frames> win{};
+        for (std::size_t i = 0; i < m; ++i) {
+            const std::size_t a = std::min(i >= roughness_frames / 2 ? i - roughness_frames / 2 : 0, m - roughness_frames);
+            std::copy(d2.begin() + static_cast<std::ptrdiff_t>(a), d2.begin() + static_cast<std::ptrdiff_t>(a + roughness_frames), win.begin());
+            std::nth_element(win.begin(), win.begin() + roughness_frames / 2, win.end());
+            rough[i] = mad_to_sigma * win[roughness_frames / 2] / std::sqrt(6.0);
+        }
+    }
+    for (std::size_t i = 0; i < m; ++i) {
+        const double sn = std::min(noise_sigma_db(expected_excess_db[first + i]), roughness_cap * rough[i]);
         weight[i] = 1.0 / (params.model_sigma_db * params.model_sigma_db + sn * sn);
     }
 
@@ -555,10 +582,16 @@ partial_fit fit_region(const std::vector<track_point>& pts, std::span<const doub
 
     // Envelope: the attack ends half a window before the level peak (the frame centred there is
     // the first whose window lies wholly after an abrupt onset); the first line runs back to it.
+    // A track whose first frame is already its peak shows no rise at all (it was born late, e.g.
+    // under the noise of the attack): its decay line runs back to the onset, attack 0.
     partial_fit out;
     envelope& env = out.env;
     const double t_peak = pts[peak].time_s;
-    env.attack_s = std::clamp(t_peak - 0.5 * params.window_s, 0.0, t_peak);
+    // Running back is trusted over a short way only: when it would climb more than
+    // max_backward_rise_db above the first fitted point, the regular attack rule applies.
+    const double smeared_attack_s = std::clamp(t_peak - 0.5 * params.window_s, 0.0, t_peak);
+    env.attack_s = peak == 0 ? 0.0 : smeared_attack_s;
+    if (lines.slopes_db_per_s[0] * (env.attack_s - gx[0]) > max_backward_rise_db) env.attack_s = smeared_attack_s;
     env.peak = level_db{lines.start_level_db + lines.slopes_db_per_s[0] * (env.attack_s - gx[0])};
     const std::size_t k = lines.slopes_db_per_s.size();
     for (std::size_t j = 0; j < k; ++j) {
