@@ -37,11 +37,15 @@ compare_result compare_signals(std::span<const float> a, std::span<const float> 
         std::min(a.size(), onset + static_cast<std::size_t>(std::llround(params.early_window_s * sample_rate_hz)));
     if (early_end <= onset) throw std::invalid_argument("the reference ends at its onset");
 
-    spectral_distance_params whole = params.spectral;
+    spectral_distance_params spectral = params.spectral;
+    if (params.spectral_max_freq_hz > 0.0) {
+        spectral.band_limit_fraction = std::min(1.0, params.spectral_max_freq_hz / (0.5 * sample_rate_hz));
+    }
+    spectral_distance_params whole = spectral;
     whole.start_frames = 0;
     whole.end_frames = a.size();
     r.whole = spectral_distance(a, b_aligned, whole);
-    spectral_distance_params early = params.spectral;
+    spectral_distance_params early = spectral;
     early.start_frames = onset;
     early.end_frames = early_end;
     r.early = spectral_distance(a, b_aligned, early);

@@ -25,6 +25,8 @@ struct compare_params {
     double early_window_s = 0.100;        ///< "first 100 ms after onset" for the early distance and SNR
     double lowest_band_nominal_hz = 63.0;
     double highest_band_nominal_hz = 16000.0;
+    /// Spectral distances count bins up to this frequency only; 0 = up to Nyquist.
+    double spectral_max_freq_hz = 0.0;
 };
 
 struct band_decay_pair {
