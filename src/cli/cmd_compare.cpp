@@ -134,12 +134,14 @@ void print_table(const compare_options& opt, const compare_result& r, const spec
     const std::string early_label = "first " + num(1000.0 * r.early_window_s, "%.0f", "?") + " ms";
     o << "spectral distances (STFT, Hann window, hop = size/" << sp.hop_divisor
       << "; log-spectral distance over bins within " << num(sp.range_db, "%.0f", "?") << " dB of A's peak)\n";
-    o << "  STFT size                ";
+    char size_head[40];
+    std::snprintf(size_head, sizeof size_head, "  %-27s", "STFT size");
+    o << size_head;
     for (const int n : sp.fft_sizes) o << num(static_cast<double>(n), "%9.0f", "");
     o << "     mean\n";
     auto row = [&](const std::string& label, const spectral_distance_result& d, bool lsd) {
-        char head[32];
-        std::snprintf(head, sizeof head, "  %-23s", label.c_str());
+        char head[48];
+        std::snprintf(head, sizeof head, "  %-27s", label.c_str());
         o << head;
         for (const resolution_distance& res : d.per_resolution) {
             o << num(lsd ? res.log_spectral_distance_db : res.spectral_convergence, lsd ? "%9.3f" : "%9.4f", "        -");

@@ -420,7 +420,7 @@ TEST_CASE("SNR over a window follows its definition", "[measure][snr]") {
     CHECK(std::isnan(snr_db(zero, zero, 0, 1000)));
 }
 
-TEST_CASE("compare: self gives zero distance and equal decay times; 6 dB quieter gives 6 dB", "[measure][compare]") {
+TEST_CASE("compare: self gives zero distance and equal decay times, 6 dB quieter gives 6 dB", "[measure][compare]") {
     const std::vector<float> a = test_note(2.5);
     const compare_result self = compare_signals(a, a, rate_hz);
     CHECK(self.align.lag_frames == 0);
