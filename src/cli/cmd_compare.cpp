@@ -79,7 +79,10 @@ std::string json_distance(const spectral_distance_result& d) {
 
 std::string json_decay(const decay_times& d) {
     std::ostringstream o;
+    // t20_s / t30_s only when the ISO 3382-1 noise margin is met; *_fit_s whenever the curve
+    // reaches the range (the margin unchecked).
     o << "{\"t20_s\": " << jnum(d.t20_s) << ", \"t30_s\": " << jnum(d.t30_s)
+      << ", \"t20_fit_s\": " << jnum(d.t20_fit.t60_s) << ", \"t30_fit_s\": " << jnum(d.t30_fit.t60_s)
       << ", \"dynamic_range_db\": " << jnum(d.dynamic_range_db) << "}";
     return o.str();
 }
@@ -162,13 +165,19 @@ void print_table(const compare_options& opt, const compare_result& r, const spec
     // src/tracking is merged; print "f0 difference: <cents> cents" here. Nothing is printed until then.
 
     o << "\noctave-band decay times from A's onset, in s (Schroeder integration; T20 fits -5..-25 dB,\n"
-         "T30 -5..-35 dB, by least squares, extrapolated to 60 dB; '-' = range not reached or noise too close)\n";
-    o << "  band Hz     T20 A    T20 B    T30 A    T30 B\n";
+         "T30 -5..-35 dB, by least squares, extrapolated to 60 dB; (x) = less than 10 dB between the\n"
+         "range and the noise or the end of the file, so not an ISO 3382-1 figure; - = range not reached)\n";
+    o << "  band Hz      T20 A     T20 B     T30 A     T30 B\n";
+    // The ISO figure, else the fit in parentheses, else "-".
+    auto decay_cell = [](double iso_s, double fit_s) {
+        if (std::isfinite(iso_s)) return num(iso_s, "%.3f ", "-");
+        return num(fit_s, "(%.3f)", "-    ");
+    };
     for (const band_decay_pair& b : r.bands) {
         char line[128];
-        std::snprintf(line, sizeof line, "  %7.0f  %8s %8s %8s %8s\n", b.band.nominal_hz,
-                      num(b.a.t20_s, "%.3f", "-").c_str(), num(b.b.t20_s, "%.3f", "-").c_str(),
-                      num(b.a.t30_s, "%.3f", "-").c_str(), num(b.b.t30_s, "%.3f", "-").c_str());
+        std::snprintf(line, sizeof line, "  %7.0f  %9s %9s %9s %9s\n", b.band.nominal_hz,
+                      decay_cell(b.a.t20_s, b.a.t20_fit.t60_s).c_str(), decay_cell(b.b.t20_s, b.b.t20_fit.t60_s).c_str(),
+                      decay_cell(b.a.t30_s, b.a.t30_fit.t60_s).c_str(), decay_cell(b.b.t30_s, b.b.t30_fit.t60_s).c_str());
         o << line;
     }
     std::cout << o.str();
