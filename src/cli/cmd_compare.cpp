@@ -1,6 +1,7 @@
 // wane compare A B: how far a copy (B) is from its source (A). Aligns B to A at the onset, then
 // prints the multi-resolution log-spectral distance, spectral convergence, octave-band T20/T30 of
 // both and the SNR over the first 100 ms after the onset, as a table or as JSON.
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
@@ -101,7 +102,8 @@ void print_json(const compare_options& opt, const compare_result& r, const spect
       << ", \"onset_a_s\": " << jnum(static_cast<double>(r.align.onset_a_frames) / r.sample_rate_hz) << "},\n";
     o << "  \"stft\": {\"window\": \"hann\", \"fft_sizes\": [";
     for (std::size_t i = 0; i < sp.fft_sizes.size(); ++i) o << (i ? ", " : "") << sp.fft_sizes[i];
-    o << "], \"hop\": \"size/" << sp.hop_divisor << "\", \"range_db\": " << jnum(sp.range_db) << "},\n";
+    o << "], \"hop\": \"size/" << sp.hop_divisor << "\", \"range_db\": " << jnum(sp.range_db)
+      << ", \"max_freq_hz\": " << jnum(r.spectral_max_freq_hz) << "},\n";
     o << "  \"whole\": " << json_distance(r.whole) << ",\n";
     o << "  \"early_window_s\": " << jnum(r.early_window_s) << ",\n";
     o << "  \"early\": " << json_distance(r.early) << ",\n";
@@ -136,7 +138,9 @@ void print_table(const compare_options& opt, const compare_result& r, const spec
 
     const std::string early_label = "first " + num(1000.0 * r.early_window_s, "%.0f", "?") + " ms";
     o << "spectral distances (STFT, Hann window, hop = size/" << sp.hop_divisor
-      << "; log-spectral distance over bins within " << num(sp.range_db, "%.0f", "?") << " dB of A's peak)\n";
+      << "; log-spectral distance over bins within " << num(sp.range_db, "%.0f", "?") << " dB of A's peak";
+    if (r.spectral_max_freq_hz < 0.5 * fs) o << "; bins up to " << num(r.spectral_max_freq_hz, "%.0f", "?") << " Hz";
+    o << ")\n";
     char size_head[40];
     std::snprintf(size_head, sizeof size_head, "  %-27s", "STFT size");
     o << size_head;
@@ -197,16 +201,20 @@ int run_compare(const compare_options& opt) {
     }
     compare_params params{};
     params.early_window_s = opt.early_s;
-    if (b_rate_before_hz && *b_rate_before_hz < a.sample_rate_hz) {
-        // B cannot hold anything above its own Nyquist, nor much of the resampler's transition
-        // band just below it: the spectral distances stop below that.
-        params.spectral_max_freq_hz = resampled_band_fraction * 0.5 * *b_rate_before_hz;
+    if (b_rate_before_hz) {
+        // A resampled B holds nothing above the lower of the two Nyquist frequencies, nor much of
+        // the resampler's transition band just below it: the spectral distances stop below that.
+        params.spectral_max_freq_hz = resampled_band_fraction * 0.5 * std::min(*b_rate_before_hz, a.sample_rate_hz);
     }
     compare_result r;
     try {
         r = compare_signals(a.samples, b.samples, a.sample_rate_hz, params);
     } catch (const std::invalid_argument& e) {
         throw std::runtime_error(opt.a_path.string() + ": " + e.what());
+    }
+    if (r.early_window_s < opt.early_s) {
+        warn(opt.a_path.string() + " ends " + num(1000.0 * r.early_window_s, "%.1f", "?") +
+             " ms after its onset: the early figures cover only that");
     }
     if (opt.json) {
         print_json(opt, r, params.spectral, b_rate_before_hz);

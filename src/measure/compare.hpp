@@ -39,7 +39,8 @@ struct compare_result {
     double sample_rate_hz = 0.0;
     alignment align;
     std::size_t compared_frames = 0;  ///< length of the common span after alignment (from a's start)
-    double early_window_s = 0.0;
+    double early_window_s = 0.0;      ///< as asked, or shorter when a ends sooner after its onset
+    double spectral_max_freq_hz = 0.0; ///< highest bin frequency counted in the spectral distances
     spectral_distance_result whole;   ///< over the whole of a
     spectral_distance_result early;   ///< frames centred in [onset, onset + early_window_s)
     double early_snr_db = 0.0;        ///< over [onset, onset + early_window_s)

@@ -453,3 +453,24 @@ TEST_CASE("compare: self gives zero distance and equal decay times, 6 dB quieter
         if (!std::isnan(band.a.t30_s)) CHECK_THAT(band.b.t30_s, WithinRel(band.a.t30_s, 1e-3));
     }
 }
+
+TEST_CASE("spectral distance: bins above the band limit do not count", "[measure][spectral]") {
+    // b = a + a strong 21 kHz tone. Up to 0.75 of Nyquist (18 kHz) the two differ only by the
+    // tone's Hann-window leakage (sidelobes fall 18 dB per octave: far below 0.05 dB there);
+    // over the whole band the tone's bins (far above a's level there) dominate. Frames are kept
+    // inside the signal (centres 2048 .. N - 2048): a frame reaching past the ends cuts the tone
+    // off abruptly, and that leaks everywhere.
+    std::mt19937 gen(5);
+    std::normal_distribution<double> normal(0.0, 1.0);
+    std::vector<float> a(24000), b(24000);
+    for (std::size_t i = 0; i < a.size(); ++i) {
+        a[i] = static_cast<float>(0.05 * normal(gen));
+        b[i] = static_cast<float>(static_cast<double>(a[i]) + 0.5 * std::sin(two_pi * 21000.0 * static_cast<double>(i) / rate_hz));
+    }
+    const spectral_distance_result limited =
+        spectral_distance(a, b, {.start_frames = 2048, .end_frames = 24000 - 2048, .band_limit_fraction = 0.75});
+    const spectral_distance_result full = spectral_distance(a, b, {.start_frames = 2048, .end_frames = 24000 - 2048});
+    CAPTURE(limited.log_spectral_distance_db, full.log_spectral_distance_db);
+    CHECK(limited.log_spectral_distance_db < 0.05);
+    CHECK(full.log_spectral_distance_db > 1.0);
+}
