@@ -45,6 +45,9 @@ struct compare_result {
     spectral_distance_result early;   ///< frames centred in [onset, onset + early_window_s)
     double early_snr_db = 0.0;        ///< over [onset, onset + early_window_s)
     std::vector<band_decay_pair> bands;  ///< decay from a's onset, lowest band first
+    /// f0 of b against f0 of a in cents (cents_between(f0_b, f0_a)). compare_signals leaves it
+    /// empty: the caller that has an f0 estimator fills it.
+    std::optional<double> f0_difference_cents;
 };
 
 /// a is the reference; b is aligned to it first. Same sample rate (resample at the edge).
