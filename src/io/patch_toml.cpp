@@ -2,9 +2,11 @@
 //
 // Reading: toml++ parses the text; every key is then read with its type checked, its source position
 // recorded under a path like "partial[3].decay[2].t60_s" (1-based, as `wane info` numbers them),
-// and the whole model goes through one validator (validate_model). Errors carry
-// "file:line:col: partial 3: decay[2].t60_s must not be 0". Unknown keys are the only findings that
-// do not stop the read: they come back as warnings naming the nearest known key.
+// and the whole model goes through one validator (struct validator), once as written and once
+// rounded to the file's precision. Errors carry "file:line:col: partial 3: decay[2].t60_s must not
+// be 0". Unknown keys are the only findings that do not stop the read: they come back as warnings
+// naming the nearest known key. The model returned is rounded and in canonical order, so
+// parse(format(p)) == p for every patch the reader returns.
 //
 // Writing: the text is produced here, not by toml++'s formatter, with one fixed number format per
 // quantity (see the `fmt_*` helpers for the precision each needs and why), so that reading a file the
