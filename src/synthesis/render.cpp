@@ -11,10 +11,10 @@
 // flushed every partials_per_flush partials into a double block accumulator.
 //
 // Float error budget (bounded, does not grow with render length): a lane runs at most
-// render_anchor_frames / lanes = 64 steps from its exact anchor, each step one float complex
+// render_anchor_frames / render_lanes = 32 steps from its exact anchor, each step one float complex
 // multiply (relative error ~ 2^-24 each) with the float-rounded m^lanes (~ 2^-24 systematic), so
-// the relative error stays below ~64 * 2 * 2^-24 ~ 8e-6 (-102 dB) in the worst case and is far
-// smaller on average (measured -125 dB or better in tests/unit/test_render.cpp).
+// the relative error stays below ~32 * 2 * 2^-24 ~ 3.8e-6 (-108 dB) in the worst case and is far
+// smaller on average (error energy -128 dB in tests/unit/test_render.cpp).
 #include "synthesis/render.hpp"
 
 #include <algorithm>
@@ -29,9 +29,9 @@ namespace wane {
 
 namespace {
 
-/// Independent oscillator lanes per partial (one vector of 8 floats = 2 AVX registers per
-/// component; 16 gives two independent dependency chains per component).
-constexpr std::size_t lanes = 16;
+/// Independent oscillator lanes per partial: 4 vectors of 8 floats per component, i.e. four
+/// independent dependency chains, enough to keep the multipliers busy.
+constexpr std::size_t lanes = render_lanes;
 static_assert(render_anchor_frames % lanes == 0);
 /// Partials summed in the float block buffer before it is added to the double accumulator.
 constexpr std::size_t partials_per_flush = 32;
@@ -140,7 +140,7 @@ enum class span_kind : unsigned char { ramp, decay };
 ///   ramp:  A(n) = amp_per_frame * n                          (the attack; A(0) = 0)
 ///   decay: ln A(n) = ln_amp_begin + ln_amp_per_frame * (n - begin)    (nepers)
 /// The per-frame phasor factor is m = exp(ln_amp_per_frame) e^(j 2 pi f / rate); m_pow holds m^l
-/// for l < lanes (exact double), step = m^lanes rounded to float.
+/// for l < lanes (exact double, as re/im arrays), step = m^lanes rounded to float.
 struct span {
     std::size_t begin = 0;
     std::size_t end = 0;
@@ -148,7 +148,8 @@ struct span {
     double amp_per_frame = 0.0;
     double ln_amp_begin = 0.0;
     double ln_amp_per_frame = 0.0;
-    std::array<std::complex<double>, lanes> m_pow{};
+    std::array<double, lanes> m_pow_re{};
+    std::array<double, lanes> m_pow_im{};
     float step_re = 1.0F;
     float step_im = 0.0F;
 };
@@ -169,7 +170,9 @@ void set_phasor_powers(span& s, double cycles_per_frame, double ln_amp_per_frame
     const double w_rad = two_pi * cycles_per_frame;
     for (std::size_t l = 0; l < lanes; ++l) {
         const double dl = static_cast<double>(l);
-        s.m_pow[l] = std::polar(std::exp(ln_amp_per_frame * dl), w_rad * dl);
+        const std::complex<double> m_l = std::polar(std::exp(ln_amp_per_frame * dl), w_rad * dl);
+        s.m_pow_re[l] = m_l.real();
+        s.m_pow_im[l] = m_l.imag();
     }
     const double dl = static_cast<double>(lanes);
     const std::complex<double> step = std::polar(std::exp(ln_amp_per_frame * dl), w_rad * dl);
@@ -241,6 +244,14 @@ std::complex<double> exact_phasor(double cycles_per_frame, double phase_rad, std
     return std::polar(1.0, two_pi * cycles + phase_rad);
 }
 
+/// Lane anchors z m^l (l < lanes) in double from the exact anchor z = (z_re, z_im), rounded to float.
+void set_lane_anchors(const span& s, double z_re, double z_im, float* re, float* im) {
+    for (std::size_t l = 0; l < lanes; ++l) {
+        re[l] = static_cast<float>(z_re * s.m_pow_re[l] - z_im * s.m_pow_im[l]);
+        im[l] = static_cast<float>(z_re * s.m_pow_im[l] + z_im * s.m_pow_re[l]);
+    }
+}
+
 /// Adds one partial's frames [from, to) (inside span s) to block (block[0] is frame block_begin).
 /// Anchors every lane from exact double values at `from`.
 void add_span_part(const render_plan& plan, std::size_t k, const span& s, std::size_t from,
@@ -254,20 +265,14 @@ void add_span_part(const render_plan& plan, std::size_t k, const span& s, std::s
         const double ln_last = ln_from + s.ln_amp_per_frame * static_cast<double>(to - 1 - from);
         // Skip stretches entirely below the silence floor (the envelope is monotone in a span).
         if (std::max(ln_from, ln_last) < ln_silence_amp) return;
-        const std::complex<double> anchor = std::exp(ln_from) * z;
-        for (std::size_t l = 0; l < lanes; ++l) {
-            const std::complex<double> zl = anchor * s.m_pow[l];
-            re[l] = static_cast<float>(zl.real());
-            im[l] = static_cast<float>(zl.imag());
-        }
+        const double amp = std::exp(ln_from);
+        set_lane_anchors(s, amp * z.real(), amp * z.imag(), re, im);
         add_damped(block + (from - block_begin), to - from, re, im, s.step_re, s.step_im);
     } else {
         alignas(32) float amp[lanes];
         const double amp_per_frame = plan.gain_lin[k] * s.amp_per_frame;
+        set_lane_anchors(s, z.real(), z.imag(), re, im);
         for (std::size_t l = 0; l < lanes; ++l) {
-            const std::complex<double> zl = z * s.m_pow[l];
-            re[l] = static_cast<float>(zl.real());
-            im[l] = static_cast<float>(zl.imag());
             amp[l] = static_cast<float>(amp_per_frame * static_cast<double>(from + l));
         }
         add_ramped(block + (from - block_begin), to - from, re, im, amp, s.step_re, s.step_im,
