@@ -58,17 +58,10 @@ constexpr std::size_t vfloat_width = 8;
 static_assert(lanes % vfloat_width == 0);
 constexpr std::size_t lane_vectors = lanes / vfloat_width;
 
-// Unaligned load/store of a vfloat. Always inlined into the kernels, so the ABI note GCC gives
-// for passing a 32-byte vector by value without AVX (-Wpsabi) concerns no real call; the note is
-// silenced for the kernel section only.
-#pragma GCC diagnostic push
-#pragma GCC diagnostic ignored "-Wpsabi"
-[[gnu::always_inline]] inline vfloat load_v(const float* p) {
-    vfloat v;
-    std::memcpy(&v, p, sizeof v);
-    return v;
-}
-[[gnu::always_inline]] inline void store_v(float* p, vfloat v) { std::memcpy(p, &v, sizeof v); }
+// Unaligned load/store of a vfloat (through references: no vector passes by value, so no ABI
+// question between the clones).
+[[gnu::always_inline]] inline void load_v(vfloat& v, const float* p) { std::memcpy(&v, p, sizeof v); }
+[[gnu::always_inline]] inline void store_v(float* p, const vfloat& v) { std::memcpy(p, &v, sizeof v); }
 
 // Hot kernel, decay span: out[k] += Re(z_k) for k < frames; lane l holds z_{s*lanes+l} at step s
 // and is advanced by the complex factor step = m^lanes after use. re0/im0: initial lane states.
@@ -78,14 +71,16 @@ void add_damped(float* __restrict out, std::size_t frames, const float* __restri
     vfloat re[lane_vectors];
     vfloat im[lane_vectors];
     for (std::size_t v = 0; v < lane_vectors; ++v) {
-        re[v] = load_v(re0 + v * vfloat_width);
-        im[v] = load_v(im0 + v * vfloat_width);
+        load_v(re[v], re0 + v * vfloat_width);
+        load_v(im[v], im0 + v * vfloat_width);
     }
     const std::size_t steps = frames / lanes;
     for (std::size_t s = 0; s < steps; ++s) {
         float* o = out + s * lanes;
         for (std::size_t v = 0; v < lane_vectors; ++v) {
-            store_v(o + v * vfloat_width, load_v(o + v * vfloat_width) + re[v]);
+            vfloat acc;
+            load_v(acc, o + v * vfloat_width);
+            store_v(o + v * vfloat_width, acc + re[v]);
             const vfloat nr = re[v] * step_re - im[v] * step_im;
             const vfloat ni = re[v] * step_im + im[v] * step_re;
             re[v] = nr;
@@ -108,15 +103,17 @@ void add_ramped(float* __restrict out, std::size_t frames, const float* __restri
     vfloat im[lane_vectors];
     vfloat amp[lane_vectors];
     for (std::size_t v = 0; v < lane_vectors; ++v) {
-        re[v] = load_v(re0 + v * vfloat_width);
-        im[v] = load_v(im0 + v * vfloat_width);
-        amp[v] = load_v(amp0 + v * vfloat_width);
+        load_v(re[v], re0 + v * vfloat_width);
+        load_v(im[v], im0 + v * vfloat_width);
+        load_v(amp[v], amp0 + v * vfloat_width);
     }
     const std::size_t steps = frames / lanes;
     for (std::size_t s = 0; s < steps; ++s) {
         float* o = out + s * lanes;
         for (std::size_t v = 0; v < lane_vectors; ++v) {
-            store_v(o + v * vfloat_width, load_v(o + v * vfloat_width) + amp[v] * re[v]);
+            vfloat acc;
+            load_v(acc, o + v * vfloat_width);
+            store_v(o + v * vfloat_width, acc + amp[v] * re[v]);
             const vfloat nr = re[v] * step_re - im[v] * step_im;
             const vfloat ni = re[v] * step_im + im[v] * step_re;
             re[v] = nr;
@@ -131,8 +128,6 @@ void add_ramped(float* __restrict out, std::size_t frames, const float* __restri
     float* o = out + steps * lanes;
     for (std::size_t l = 0; l < frames - steps * lanes; ++l) o[l] += tail_amp[l] * tail_re[l];
 }
-
-#pragma GCC diagnostic pop
 
 enum class span_kind : unsigned char { ramp, decay };
 
