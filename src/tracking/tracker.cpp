@@ -43,15 +43,28 @@ constexpr int min_track_frames = 5;
 constexpr double min_track_windows = 1.5;        ///< ... and at least this many window lengths
 constexpr double harmonic_tolerance_rel = 0.02;  ///< labelling tracks with harmonic numbers
 constexpr int b_fit_rounds = 3;
+/// f0 is fitted on harmonics 1..this (given B from all): real strings stray from the ideal law
+/// more at high n (bridge coupling, tension modulation), and the low partials carry the pitch.
+constexpr int pitch_harmonics = 8;
+constexpr double fundamental_snr_db = 20.0;      ///< partial 1 sets the pitch when this far up
+constexpr double fundamental_below_max_db = 40.0; ///< ... and within this of the strongest track
 constexpr double max_snr_weight_db = 40.0;       ///< B fit: weight by SNR, capped here
-constexpr double representative_range_db = 20.0; ///< a track's frequency: median within this of its peak
+constexpr double attack_skip_s = 0.1;             ///< a track's frequency: median after this,
+constexpr double attack_skip_windows = 2.0;       ///< ... and after this many windows,
+constexpr double settled_snr_db = 20.0;           ///< ... over points this far above the floor
 
 int odd_length(double samples) { return std::max(3, 2 * static_cast<int>(std::lround(samples / 2.0)) + 1); }
 
-double median(std::vector<double> v) {
-    const auto mid = v.begin() + static_cast<std::ptrdiff_t>(v.size() / 2);
-    std::nth_element(v.begin(), mid, v.end());
-    return *mid;
+/// Value where the cumulative weight (values sorted) first reaches half the total.
+double weighted_median(std::vector<double> v, std::vector<double> w) {
+    std::vector<std::size_t> idx(v.size());
+    std::iota(idx.begin(), idx.end(), std::size_t{0});
+    std::sort(idx.begin(), idx.end(), [&](auto a, auto c) { return v[a] < v[c]; });
+    const double half = 0.5 * std::accumulate(w.begin(), w.end(), 0.0);
+    double acc = 0.0;
+    for (std::size_t i : idx)
+        if ((acc += w[i]) >= half) return v[i];
+    return v[idx.back()];
 }
 
 [[noreturn]] void refuse(const std::string& why) { throw std::invalid_argument(why); }
@@ -155,6 +168,23 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
         f0_hz = pe.f0_hz;
         b = pe.inharmonicity_b;
     }
+    if (f0_hz > 0.0) {
+        // Refine f0 and B on the survey peaks (Fletcher fit), for the harmonic guidance.
+        std::vector<int> hn(sv.peaks.size());
+        std::vector<double> freqs(sv.peaks.size()), weights(sv.peaks.size());
+        for (int round = 0; round < b_fit_rounds; ++round) {
+            for (std::size_t i = 0; i < sv.peaks.size(); ++i) {
+                hn[i] = harmonic_number(sv.peaks[i].freq_hz, f0_hz, b, harmonic_tolerance_rel);
+                freqs[i] = sv.peaks[i].freq_hz;
+                weights[i] = std::pow(10.0, sv.peaks[i].level_db / 10.0);
+            }
+            const inharmonicity_fit fit = fit_harmonic_series(hn, freqs, weights, pitch_harmonics);
+            if (fit.used < 2) break;
+            // An override keeps its f0 (the user's octave); only B is taken from the fit then.
+            if (!params.f0_hz) f0_hz = fit.f0_hz;
+            b = fit.inharmonicity_b;
+        }
+    }
     const double spacing_hz = resolve_spacing_hz(sv.peaks, f0_hz);
     const double window_s = params.window_s.value_or(
         std::clamp(periods_per_window / spacing_hz, min_window_s, max_window_s));
@@ -194,8 +224,28 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
         if (f0_hz > 0.0) d = std::min(d, dev_max_f0 * f0_hz);
         return d;
     };
+    // Finished tracks; when they pile up (long or noisy files) only the strongest are kept. Exact:
+    // a track among the final max_partials strongest is among the strongest of any subset.
+    std::vector<double> done_peak_db;
+    const std::size_t keep_at_most = 2 * static_cast<std::size_t>(std::max(params.max_partials, 1));
     const auto finish = [&](live_track& t) {
-        if (static_cast<int>(t.track.points.size()) >= min_frames) done.push_back(std::move(t.track));
+        if (static_cast<int>(t.track.points.size()) < min_frames) return;
+        done.push_back(std::move(t.track));
+        done_peak_db.push_back(t.peak_db);
+        if (done.size() < 2 * keep_at_most) return;
+        std::vector<std::size_t> idx(done.size());
+        std::iota(idx.begin(), idx.end(), std::size_t{0});
+        std::nth_element(idx.begin(), idx.begin() + static_cast<std::ptrdiff_t>(keep_at_most), idx.end(),
+                         [&](auto a, auto c) { return done_peak_db[a] > done_peak_db[c]; });
+        idx.resize(keep_at_most);
+        std::sort(idx.begin(), idx.end());
+        for (std::size_t i = 0; i < idx.size(); ++i) {
+            if (idx[i] == i) continue;  // idx is sorted, so idx[i] >= i: no self-move
+            done[i] = std::move(done[idx[i]]);
+            done_peak_db[i] = done_peak_db[idx[i]];
+        }
+        done.resize(keep_at_most);
+        done_peak_db.resize(keep_at_most);
     };
     const double hop_time_s = result.hop_s;
     int frames = 0;
@@ -286,7 +336,8 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
     if (done.empty()) refuse("no partials above the noise floor");
 
     // ---- keep the strongest, label harmonics, fit B ----
-    std::vector<double> strength(done.size()), rep_freq(done.size()), weight(done.size());
+    std::vector<double> strength(done.size()), rep_freq(done.size()), weight(done.size()),
+        peak_snr_db(done.size());
     for (std::size_t i = 0; i < done.size(); ++i) {
         std::vector<double> f;
         double best = -infinity, best_snr = -infinity;
@@ -294,11 +345,21 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
             best = std::max(best, pt.level_db);
             best_snr = std::max(best_snr, pt.level_db - pt.floor_db);
         }
-        // The track's frequency: median over its strong part (beating and the noisy tail aside).
+        // The track's frequency: amplitude-weighted median over its settled part (after the
+        // attack's glide, clear of the noise), so the loud early part, where the pitch is heard,
+        // counts most; all points when that part is empty.
+        const double settle_s = std::max(attack_skip_s, attack_skip_windows * result.window_s);
+        std::vector<double> w;
         for (const auto& pt : done[i].points)
-            if (pt.level_db >= best - representative_range_db) f.push_back(pt.freq_hz);
-        rep_freq[i] = median(std::move(f));
+            if (pt.time_s >= settle_s && pt.level_db >= pt.floor_db + settled_snr_db) {
+                f.push_back(pt.freq_hz);
+                w.push_back(std::pow(10.0, pt.level_db / 20.0));
+            }
+        if (f.empty())
+            for (const auto& pt : done[i].points) f.push_back(pt.freq_hz), w.push_back(1.0);
+        rep_freq[i] = weighted_median(std::move(f), std::move(w));
         strength[i] = best;
+        peak_snr_db[i] = best_snr;
         weight[i] = std::pow(10.0, std::min(best_snr, max_snr_weight_db) / 10.0) * double(done[i].points.size());
     }
     std::vector<std::size_t> order(done.size());
@@ -316,7 +377,7 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
                 harmonic[i] = harmonic_number(freqs[i], f0_hz, b, harmonic_tolerance_rel);
                 weights[i] = weight[order[i]];
             }
-            const inharmonicity_fit fit = fit_inharmonicity(harmonic, freqs, weights);
+            const inharmonicity_fit fit = fit_harmonic_series(harmonic, freqs, weights, pitch_harmonics);
             if (fit.used == 0) break;
             f0_hz = fit.f0_hz;
             b = fit.inharmonicity_b;
@@ -324,8 +385,23 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
         for (std::size_t i = 0; i < order.size(); ++i)
             harmonic[i] = harmonic_number(freqs[i], f0_hz, b, harmonic_tolerance_rel);
     }
-    result.f0_hz = f0_hz;
+    result.series_f0_hz = f0_hz;
     result.inharmonicity_b = f0_hz > 0.0 ? b : 0.0;
+    result.f0_hz = f0_hz;
+    if (f0_hz > 0.0 && !params.f0_hz) {
+        // The pitch is the fundamental's: partial 1's frequency / sqrt(1 + B) when it is tracked
+        // clearly (real strings can put partial 1 off the series of the upper partials).
+        double strongest_db = -infinity;
+        for (std::size_t i = 0; i < order.size(); ++i) strongest_db = std::max(strongest_db, strength[order[i]]);
+        double best_db = -infinity;
+        for (std::size_t i = 0; i < order.size(); ++i) {
+            const std::size_t k = order[i];
+            if (harmonic[i] != 1 || strength[k] <= best_db) continue;
+            if (strength[k] < strongest_db - fundamental_below_max_db || peak_snr_db[k] < fundamental_snr_db) continue;
+            best_db = strength[k];
+            result.f0_hz = freqs[i] / std::sqrt(1.0 + b);
+        }
+    }
     for (std::size_t i = 0; i < order.size(); ++i) {
         partial_track t = std::move(done[order[i]]);
         t.harmonic = harmonic[i];

@@ -27,14 +27,26 @@ longest=$(awk '{ if (length($0) > m) m = length($0) } END { print m }' out.txt)
 echo "longest line: $longest columns"
 check '[ "$longest" -le 100 ]'
 
+# Every example: wane info runs cleanly, and its counts match Python's tomllib (one interpreter
+# start for all files; skipped where tomllib is missing).
+have_tomllib=0
+python3 -c "import tomllib" 2>/dev/null && have_tomllib=1
+if [ $have_tomllib -eq 1 ]; then
+  python3 - "$src"/patches/*.toml >tomllib.txt <<'PY'
+import sys, tomllib
+for path in sys.argv[1:]:
+    d = tomllib.load(open(path, "rb"))
+    print(path, len(d.get("partial", [])), len(d.get("noise", [])))
+PY
+fi
 for f in "$src"/patches/*.toml; do
   "$wane" info "$f" >one.txt 2>one_err.txt || { echo "FAIL: wane info $f"; fail=1; }
   check '[ ! -s one_err.txt ]'
-  if python3 -c "import tomllib" 2>/dev/null; then
-    want=$(python3 -c "import tomllib,sys; d=tomllib.load(open(sys.argv[1],'rb')); print(len(d.get('partial',[])), len(d.get('noise',[])))" "$f")
+  if [ $have_tomllib -eq 1 ]; then
+    want=$(grep -F "$f " tomllib.txt | cut -d' ' -f2-)
     got=$(sed -nE 's/^  content +([0-9]+) partials?, ([0-9]+) noise bands?$/\1 \2/p' one.txt)
     echo "$(basename "$f"): tomllib counts '$want', wane info '$got'"
-    check '[ "$want" = "$got" ]'
+    check '[ -n "$want" ] && [ "$want" = "$got" ]'
   fi
 done
 

@@ -448,6 +448,8 @@ TEST_CASE("unknown keys warn with file:line:col and the nearest known key", "[pa
         {"hop_s = 0.005", "hop_s = 0.005\nwindow_size = 4", "window_size", "source.analysis: unknown key 'window_size'"},
         {"low_hz = 1000.0", "low_hz = 1000.0\nhigh = 3", "high = 3", "noise 1: unknown key 'high' (did you mean 'high_hz'?)"},
         {"version = 1", "version = 1\ncomment = \"x\"", "comment", "unknown key 'comment' (known keys here: format"},
+        {"onset_s = 0.512", "onset_s = 0.512\nf0_hz = 3.0", "f0_hz = 3.0", "source: unknown key 'f0_hz'"},
+        {"harmonic = 2", "harmonic = 2\nuntil_s = 3.0", "until_s = 3.0", "'until_s' belongs in a decay segment"},
     };
     for (const case_t& c : cases) {
         const std::string text = with(base_text, c.from, c.to);
@@ -458,6 +460,19 @@ TEST_CASE("unknown keys warn with file:line:col and the nearest known key", "[pa
         CHECK_THAT(r.warnings[0], StartsWith("pluck.toml" + line_tag(text, c.needle)));
         CHECK_THAT(r.warnings[0], Contains(c.expect));
     }
+}
+
+TEST_CASE("partials and bands are returned in canonical order; messages count in file order", "[patch]") {
+    // Swap the two partials' frequencies in the text: the file lists 293.9 Hz first.
+    std::string text = with(base_text, "freq_hz = 146.901", "freq_hz = XXX");
+    text = with(text, "freq_hz = 293.9", "freq_hz = 146.901");
+    text = with(text, "freq_hz = XXX", "freq_hz = 293.9");
+    const patch p = parse_patch(text, "pluck.toml").value;
+    CHECK(p.partials[0].freq_hz == 146.901);
+    CHECK(p.partials[0].harmonic == 2);  // the second table in the file
+    CHECK(parse_patch(format_patch(p), "again").value == p);
+    // An error in the second table of the file is "partial 2", whatever its frequency.
+    expect_error(with(text, "peak_db = -18.0", "peak_db = 30.0"), "peak_db = 30.0", "partial 2: peak_db");
 }
 
 TEST_CASE("the writer refuses a model that would not load", "[patch][write]") {

@@ -233,3 +233,54 @@ TEST_CASE("inharmonicity fit recovers Fletcher's B from exact partials", "[track
     CHECK_THAT(fit.inharmonicity_b, WithinRel(5e-4, 1e-9));
     CHECK(fit.used == 20);
 }
+
+TEST_CASE("window, FFT size and hop overrides are honoured", "[tracking][params]") {
+    constexpr double fs = 48000.0;
+    const std::vector<synth_partial> partials{{220.0, 0.3, 2.0, 0.0}, {440.0, 0.2, 1.5, 1.0}};
+    const auto x = synth(partials, fs, 1.0, 0.0, 1e-5, 9);
+    tracking_params p;
+    p.window_s = 0.05;
+    p.fft_size = 8192;
+    p.hop_s = 0.005;
+    const tracking_result r = track_note(x, fs, p);
+    CAPTURE(r.window_s, r.fft_size, r.hop_s);
+    CHECK_THAT(r.window_s, WithinAbs(0.05, 1.0 / fs));  // odd length: within one sample
+    CHECK(r.fft_size == 8192);
+    CHECK_THAT(r.hop_s, WithinAbs(0.005, 0.5 / fs));
+    REQUIRE(r.tracks.size() == 2);
+    CHECK_THAT(r.tracks[0].points[1].time_s - r.tracks[0].points[0].time_s, WithinAbs(r.hop_s, 1e-12));
+    // The automatic choice: 8 periods of f0 (220 Hz), zero padding >= 2.
+    const tracking_result a = track_note(x, fs, {});
+    CAPTURE(a.window_s, a.fft_size, a.hop_s, a.f0_hz);
+    CHECK_THAT(a.window_s, WithinAbs(8.0 / 220.0, 2.0 / fs));
+    CHECK(a.fft_size >= 2 * static_cast<int>(std::lround(a.window_s * fs)));
+    tracking_params bad;
+    bad.fft_size = 1024;  // shorter than the 0.05 s window
+    bad.window_s = 0.05;
+    CHECK_THROWS_WITH(track_note(x, fs, bad), Contains("FFT size 1024"));
+}
+
+TEST_CASE("a high, very stiff string keeps its harmonic numbers", "[tracking][string]") {
+    // Treble-piano-like: f0 = 523.25 Hz, B = 2e-3, 12 partials (Fletcher 1964 law, exact).
+    const double f0 = 523.25, b = GENERATE(0.0, 5e-4, 2e-3);
+    constexpr double fs = 48000.0;
+    std::vector<synth_partial> partials;
+    for (int n = 1; n <= 12; ++n) {
+        const double nd = n;
+        partials.push_back({nd * f0 * std::sqrt(1.0 + b * nd * nd), 0.2 / nd, 2.0, 0.7 * nd});
+    }
+    const auto x = synth(partials, fs, 1.0, 0.0, 1e-5, 21);
+    const tracking_result r = track_note(x, fs, {});
+    CAPTURE(b, r.f0_hz, r.series_f0_hz, r.inharmonicity_b, r.tracks.size());
+    CHECK(std::abs(cents_between(r.f0_hz, f0)) < 0.2);
+    CHECK_THAT(r.inharmonicity_b, WithinAbs(b, 0.03 * b + 1e-7));
+    int labelled = 0;
+    for (const auto& t : r.tracks) {
+        const int n = t.harmonic;
+        REQUIRE(n >= 1);
+        REQUIRE(n <= 12);
+        CHECK(std::abs(cents_between(track_freq_hz(t), partials[n - 1].freq_hz)) < 0.2);
+        ++labelled;
+    }
+    CHECK(labelled == 12);
+}
