@@ -15,7 +15,7 @@ namespace {
 constexpr int max_supported_segments = 8;
 constexpr int max_unknowns = max_supported_segments + 1;
 /// The dynamic program places run boundaries on at most this many grid points.
-constexpr std::size_t dp_grid_points = 50;
+constexpr std::size_t dp_grid_points = 32;
 /// A segment needs at least this many fit points so its slope is determined by data.
 constexpr int min_points_per_segment = 3;
 /// Residuals above the line count at most this much in the power-mean level offset, dB
@@ -28,6 +28,7 @@ constexpr double offset_sigma_db = 0.5;
 constexpr int excess_smoothing_frames = 9;
 /// Frames over which the local roughness of the level is measured (odd).
 constexpr std::size_t roughness_frames = 17;
+constexpr std::size_t roughness_stride = 4;
 /// Median absolute value of a zero-mean Gaussian = 0.6745 sigma, so sigma = 1.4826 median|x|.
 constexpr double mad_to_sigma = 1.4826;
 /// The noise term may be at most this many times the roughness estimate (overlapping frames
@@ -42,7 +43,7 @@ constexpr int floor_median_frames = 5;
 /// Residual lag-1 correlation is clamped to this before the effective sample count is formed.
 constexpr double max_residual_correlation = 0.9;
 /// Golden-section steps when a knot is refined between grid points.
-constexpr int knot_refine_steps = 14;
+constexpr int knot_refine_steps = 12;
 constexpr double golden = 0.6180339887498949;  // (sqrt(5) - 1) / 2
 /// Coordinate-descent sweeps over the knots.
 constexpr int knot_sweeps = 2;
@@ -335,7 +336,8 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
                 moved = true;
             }
         }
-        if (!moved) break;
+        // A lone knot has converged after one sweep (its scan covered the whole grid).
+        if (!moved || knots.size() == 1) break;
     }
     return best;
 }
@@ -522,40 +524,48 @@ level_line_fit fit_level_lines(std::span<const double> times_s, std::span<const 
 
 namespace {
 
+/// The floor can overstate the noise a frame carries (a floor raised by the attack's noise, a
+/// band floor far from the partial), so the weights cap the noise term at a multiple of the
+/// level's local roughness: sigma ~ 1.4826 median|second difference| / sqrt(6) (for white noise
+/// the second difference has variance 6 sigma^2), the median over roughness_frames frames,
+/// evaluated every roughness_stride frames and held in between. Infinite on short tracks.
+std::vector<double> level_roughness_db(const std::vector<track_point>& pts) {
+    const std::size_t n = pts.size();
+    std::vector<double> rough(n, infinity);
+    if (n < roughness_frames) return rough;
+    std::vector<double> d2(n, 0.0);
+    for (std::size_t i = 1; i + 1 < n; ++i)
+        d2[i] = std::abs(pts[i + 1].level_db - 2.0 * pts[i].level_db + pts[i - 1].level_db);
+    d2[0] = d2[1];
+    d2[n - 1] = d2[n - 2];
+    std::array<double, roughness_frames> win{};
+    for (std::size_t i = 0; i < n; i += roughness_stride) {
+        const std::size_t a = std::min(i >= roughness_frames / 2 ? i - roughness_frames / 2 : 0, n - roughness_frames);
+        std::copy_n(d2.begin() + static_cast<std::ptrdiff_t>(a), roughness_frames, win.begin());
+        std::nth_element(win.begin(), win.begin() + roughness_frames / 2, win.end());
+        const double sigma = mad_to_sigma * win[roughness_frames / 2] / std::sqrt(6.0);
+        for (std::size_t k = i; k < std::min(n, i + roughness_stride); ++k) rough[k] = sigma;
+    }
+    return rough;
+}
+
 /// Envelope of frames [first, end) of a track: weights, decimation, the line fit, the attack and
 /// the power-mean offset. Frequency and phase are filled by the caller.
 partial_fit fit_region(const std::vector<track_point>& pts, std::span<const double> expected_excess_db,
-                       std::size_t peak, std::size_t first, std::size_t end, const envelope_fit_params& params) {
+                       std::span<const double> rough_db, std::size_t peak, std::size_t first, std::size_t end, const envelope_fit_params& params) {
     const std::size_t m = end - first;
     // Frame weight 1 / (model^2 + noise^2), the noise term from the expected (not the measured)
     // level above the floor: weights from the measured level would favour frames that noise
     // pushed up and bias the tail towards a slower decay. The level itself is used as measured:
     // for circular noise n weaker than the sinusoid A, E ln|A + n| = ln A exactly (the mean of
     // ln|1 + z| over a circle of radius < 1 is 0), so the dB level is unbiased down to the floor.
-    // The floor can overstate the noise a frame carries (a floor raised by the attack's noise,
-    // a band floor far from the partial): the noise term is capped at a multiple of the level's
-    // local roughness, sigma ~ 1.4826 median|second difference| / sqrt(6) (white noise: Var of
-    // the second difference is 6 sigma^2), taken over roughness_frames frames around each one.
-    std::vector<double> level(m), weight(m), time(m), rough(m, infinity);
+    std::vector<double> level(m), weight(m), time(m);
     for (std::size_t i = 0; i < m; ++i) {
         level[i] = pts[first + i].level_db;
         time[i] = pts[first + i].time_s;
     }
-    if (m >= roughness_frames) {
-        std::vector<double> d2(m, 0.0);
-        for (std::size_t i = 1; i + 1 < m; ++i) d2[i] = std::abs(level[i + 1] - 2.0 * level[i] + level[i - 1]);
-        d2[0] = d2[1];
-        d2[m - 1] = d2[m - 2];
-        std::array<double, roughness_frames> win{};
-        for (std::size_t i = 0; i < m; ++i) {
-            const std::size_t a = std::min(i >= roughness_frames / 2 ? i - roughness_frames / 2 : 0, m - roughness_frames);
-            std::copy(d2.begin() + static_cast<std::ptrdiff_t>(a), d2.begin() + static_cast<std::ptrdiff_t>(a + roughness_frames), win.begin());
-            std::nth_element(win.begin(), win.begin() + roughness_frames / 2, win.end());
-            rough[i] = mad_to_sigma * win[roughness_frames / 2] / std::sqrt(6.0);
-        }
-    }
     for (std::size_t i = 0; i < m; ++i) {
-        const double sn = std::min(noise_sigma_db(expected_excess_db[first + i]), roughness_cap * rough[i]);
+        const double sn = std::min(noise_sigma_db(expected_excess_db[first + i]), roughness_cap * rough_db[first + i]);
         weight[i] = 1.0 / (params.model_sigma_db * params.model_sigma_db + sn * sn);
     }
 
@@ -694,7 +704,11 @@ std::optional<partial_fit> fit_partial(const partial_track& track, const envelop
             expected[i] = sum / count;
         }
     }
-    partial_fit out = fit_region(pts, expected, peak, peak, end, params);
+    const std::vector<double> rough = level_roughness_db(pts);
+    // The first pass only finds the region and the expected levels: a coarser grid will do.
+    envelope_fit_params coarse = params;
+    coarse.max_fit_points = std::max(min_points_per_segment * params.max_segments, params.max_fit_points / 2);
+    partial_fit out = fit_region(pts, expected, rough, peak, peak, end, coarse);
     for (int pass = 0; pass < end_refit_passes; ++pass) {
         std::size_t model_end = n;
         const auto pieces = envelope_pieces(out.env);
@@ -704,7 +718,7 @@ std::optional<partial_fit> fit_partial(const partial_track& track, const envelop
         }
         if (model_end < peak + 2 || (pass > 0 && model_end == end)) break;
         end = model_end;
-        out = fit_region(pts, expected, peak, peak, end, params);
+        out = fit_region(pts, expected, rough, peak, peak, end, params);
     }
 
     // Frequency: amplitude-weighted mean over the fitted frames.
