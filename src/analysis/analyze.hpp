@@ -5,6 +5,7 @@
 #include <string>
 
 #include "core/patch.hpp"
+#include "fitting/envelope_fit.hpp"
 #include "tracking/tracker.hpp"
 
 namespace wane {
@@ -33,7 +34,7 @@ struct analysis_result {
 };
 
 /// Largest number of decay segments per partial the fit supports (--max-segments).
-inline constexpr int max_decay_segments = 8;
+inline constexpr int max_decay_segments = max_fit_segments;
 
 /// Throws std::invalid_argument with a user-facing reason when the sound cannot be analyzed.
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,

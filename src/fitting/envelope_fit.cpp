@@ -4,7 +4,6 @@
 #include <array>
 #include <cassert>
 #include <cmath>
-#include <limits>
 #include <vector>
 
 namespace wane {
@@ -12,7 +11,7 @@ namespace wane {
 namespace {
 
 /// Largest number of segments the fixed-size normal equations hold.
-constexpr int max_supported_segments = 8;
+constexpr int max_supported_segments = max_fit_segments;
 constexpr int max_unknowns = max_supported_segments + 1;
 /// The dynamic program places run boundaries on at most this many grid points.
 constexpr std::size_t dp_grid_points = 32;
