@@ -42,6 +42,24 @@ constexpr const char* max_patch_file_text = "16 MiB";
 constexpr std::size_t max_noise_bands = 1024;
 /// Decay segments per envelope (the fits use a handful; this bounds hand-made files).
 constexpr std::size_t max_decay_segments = 64;
+/// Bounds that keep every number meaningful and printable (the core asserts nothing beyond them):
+/// frequencies up to 1 MHz (above any audio rate's Nyquist frequency);
+constexpr double max_freq_hz = 1e6;
+/// sample rates up to 10 MHz; source onsets up to 1e6 s (11.6 days into a recording);
+constexpr double max_sample_rate_hz = 1e7;
+constexpr double max_onset_s = 1e6;
+/// levels down to -1000 dB (amplitude 1e-50, below float's smallest normal, -758 dB);
+constexpr double min_level_db = -1000.0;
+/// B up to 1 (real strings are near 1e-4; 1 already puts harmonic 10 a semitone sharp ten times over);
+constexpr double max_inharmonicity_b = 1.0;
+/// phases within +-1000 rad (the analysis writes them wrapped to [-pi, pi]);
+constexpr double max_abs_phase_rad = 1000.0;
+/// FFT sizes up to 2^24 samples; strings up to 4096 bytes (a long path);
+constexpr int max_fft_size = 1 << 24;
+constexpr std::size_t max_string_bytes = 4096;
+/// a patch nests at most 4 levels (root > partial array > partial > decay array > segment); deeper
+/// structures are refused before they are walked.
+constexpr int max_nesting_depth = 4;
 
 // ---------------------------------------------------------------------------------------------
 // Number formatting (locale independent: std::to_chars).
@@ -91,9 +109,15 @@ constexpr int t60_decimals = 4;
 /// Inharmonicity B: 5 significant digits in scientific notation (B spans 1e-6..1e-2).
 constexpr int b_digits = 4;
 
+// One formatter per quantity; the writer prints with them and the reader rounds with them.
 std::string fmt_freq(double v) { return fmt_fixed(v, freq_decimals); }
+std::string fmt_band_edge(double v) { return fmt_fixed(v, band_edge_decimals); }
+std::string fmt_phase(double v) { return fmt_fixed(v, phase_decimals); }
 std::string fmt_time(double v) { return fmt_fixed(v, time_decimals); }
+std::string fmt_align(double v) { return fmt_fixed(v, align_decimals); }
 std::string fmt_level(double v) { return fmt_fixed(v, level_decimals); }
+std::string fmt_t60(double v) { return fmt_fixed(v, t60_decimals); }
+std::string fmt_b(double v) { return fmt_sci(v, b_digits); }
 
 /// A sample rate: an integer when it is one (at 1e-6 Hz resolution), e.g. "48000".
 std::string fmt_rate(double v) {
@@ -103,6 +127,53 @@ std::string fmt_rate(double v) {
         s.erase(s.size() - zeros.size());
     }
     return s;
+}
+
+using formatter = std::string (*)(double);
+
+/// The value the file will hold: v printed with its quantity's format and read back.
+double rounded(double v, formatter fmt) {
+    if (std::isnan(v)) return v;
+    const std::string text = fmt(v);
+    double out = 0.0;
+    const auto res = std::from_chars(text.data(), text.data() + text.size(), out);
+    assert(res.ec == std::errc{});
+    (void)res;
+    return out;
+}
+
+void round_envelope(envelope& env) {
+    env.attack_s = rounded(env.attack_s, fmt_time);
+    env.peak.db = rounded(env.peak.db, fmt_level);
+    for (decay_segment& seg : env.decay) {
+        seg.t60_s = rounded(seg.t60_s, fmt_t60);
+        if (seg.until_s) seg.until_s = rounded(*seg.until_s, fmt_time);
+    }
+}
+
+/// Rounds every number to the precision the file keeps, so that reading a patch gives exactly the
+/// model the writer would write: parse(format(p)) == p for every patch the reader returns.
+void round_to_file_precision(patch& p) {
+    p.note.f0_hz = rounded(p.note.f0_hz, fmt_freq);
+    p.note.length_s = rounded(p.note.length_s, fmt_time);
+    p.note.inharmonicity_b = rounded(p.note.inharmonicity_b, fmt_b);
+    p.note.gain_db = rounded(p.note.gain_db, fmt_level);
+    p.source.sample_rate_hz = rounded(p.source.sample_rate_hz, fmt_rate);
+    p.source.onset_s = rounded(p.source.onset_s, fmt_align);
+    if (p.source.analysis) {
+        p.source.analysis->window_s = rounded(p.source.analysis->window_s, fmt_align);
+        p.source.analysis->hop_s = rounded(p.source.analysis->hop_s, fmt_align);
+    }
+    for (partial& q : p.partials) {
+        q.freq_hz = rounded(q.freq_hz, fmt_freq);
+        q.phase_rad = rounded(q.phase_rad, fmt_phase);
+        round_envelope(q.env);
+    }
+    for (noise_band& b : p.noise) {
+        b.low_hz = rounded(b.low_hz, fmt_band_edge);
+        b.high_hz = rounded(b.high_hz, fmt_band_edge);
+        round_envelope(b.env);
+    }
 }
 
 /// Shortest round-trip text of a number, for messages.
@@ -240,21 +311,32 @@ struct validator {
         not_nan(path, v);
         if (std::isinf(v)) fail(path, "must be finite, not " + show(v));
     }
-    void at_least(const std::string& path, double v, double lo) const {
+    /// lo <= v <= hi (lo < v when open_low).
+    void within(const std::string& path, double v, double lo, double hi, const char* unit,
+                bool open_low = false) const {
         finite(path, v);
-        if (!(v >= lo)) fail(path, "must be >= " + show(lo) + ", not " + show(v));
+        const bool low_ok = open_low ? v > lo : v >= lo;
+        if (!low_ok || !(v <= hi)) {
+            fail(path, std::string("must be in ") + (open_low ? "(" : "[") + show(lo) + ", " + show(hi) + "]" + unit +
+                           ", not " + show(v));
+        }
     }
-    void above(const std::string& path, double v, double lo) const {
-        finite(path, v);
-        if (!(v > lo)) fail(path, "must be > " + show(lo) + ", not " + show(v));
+    void text(const std::string& path, const std::string& s) const {
+        if (s.size() > max_string_bytes) {
+            fail(path, "is " + std::to_string(s.size()) + " bytes long; at most " + std::to_string(max_string_bytes) +
+                           " are allowed");
+        }
     }
 
     void check_envelope(const std::string& base, const envelope& env) const {
-        at_least(base + ".attack_s", env.attack_s, 0.0);
+        not_nan(base + ".attack_s", env.attack_s);
+        if (env.attack_s < 0.0) fail(base + ".attack_s", "must be >= 0, not " + show(env.attack_s));
+        within(base + ".attack_s", env.attack_s, 0.0, max_length_s, " s");
         finite(base + ".peak_db", env.peak.db);
         if (env.peak.db > max_peak_db) {
             fail(base + ".peak_db", "must be <= +" + show(max_peak_db) + " dB, not " + show(env.peak.db));
         }
+        within(base + ".peak_db", env.peak.db, min_level_db, max_peak_db, " dB");
         if (env.decay.empty()) fail(base + ".decay", "needs at least one segment, e.g. [ { t60_s = 2.0 } ]");
         if (env.decay.size() > max_decay_segments) {
             fail(base + ".decay", "has " + std::to_string(env.decay.size()) + " segments; at most " +
@@ -284,6 +366,7 @@ struct validator {
                 fail(seg_path + ".until_s", "(" + show(until_s) + ") must be after " + prev_name + " (" +
                                                 show(prev_end_s) + ")");
             }
+            within(seg_path + ".until_s", until_s, 0.0, max_length_s, " s");
             prev_end_s = until_s;
             prev_name = indexed("decay", i) + ".until_s";
         }
@@ -291,21 +374,21 @@ struct validator {
 
     void check(const patch& p) const {
         const note_info& n = p.note;
-        at_least("note.f0_hz", n.f0_hz, 0.0);
-        finite("note.length_s", n.length_s);
-        if (!(n.length_s > 0.0 && n.length_s <= max_length_s)) {
-            fail("note.length_s", "must be in (0, " + show(max_length_s) + "] s, not " + show(n.length_s));
-        }
-        at_least("note.inharmonicity_b", n.inharmonicity_b, 0.0);
-        finite("note.gain_db", n.gain_db);
+        text("note.name", n.name);
+        within("note.f0_hz", n.f0_hz, 0.0, max_freq_hz, " Hz");
+        within("note.length_s", n.length_s, 0.0, max_length_s, " s", true);
+        within("note.inharmonicity_b", n.inharmonicity_b, 0.0, max_inharmonicity_b, "");
+        within("note.gain_db", n.gain_db, min_level_db, max_peak_db, " dB");
 
-        at_least("source.sample_rate_hz", p.source.sample_rate_hz, 0.0);
-        at_least("source.onset_s", p.source.onset_s, 0.0);
+        text("source.file", p.source.file);
+        within("source.sample_rate_hz", p.source.sample_rate_hz, 0.0, max_sample_rate_hz, " Hz");
+        within("source.onset_s", p.source.onset_s, 0.0, max_onset_s, " s");
         if (p.source.analysis) {
             const analysis_settings& a = *p.source.analysis;
-            if (a.fft_size < 1) fail("source.analysis.fft_size", "must be >= 1, not " + std::to_string(a.fft_size));
-            above("source.analysis.window_s", a.window_s, 0.0);
-            above("source.analysis.hop_s", a.hop_s, 0.0);
+            text("source.analysis.window", a.window);
+            within("source.analysis.fft_size", a.fft_size, 1.0, max_fft_size, "");
+            within("source.analysis.window_s", a.window_s, 0.0, max_length_s, " s", true);
+            within("source.analysis.hop_s", a.hop_s, 0.0, max_length_s, " s", true);
         }
 
         if (p.partials.size() > max_partials) {
@@ -322,24 +405,37 @@ struct validator {
         for (std::size_t i = 0; i < p.partials.size(); ++i) {
             const partial& q = p.partials[i];
             const std::string base = indexed("partial", i);
-            above(base + ".freq_hz", q.freq_hz, 0.0);
+            not_nan(base + ".freq_hz", q.freq_hz);
+            if (!(q.freq_hz > 0.0)) fail(base + ".freq_hz", "must be > 0, not " + show(q.freq_hz));
+            within(base + ".freq_hz", q.freq_hz, 0.0, max_freq_hz, " Hz", true);
             if (q.harmonic < 0) fail(base + ".harmonic", "must be >= 0 (0 = not on the harmonic series), not " +
                                                              std::to_string(q.harmonic));
-            finite(base + ".phase_rad", q.phase_rad);
+            within(base + ".phase_rad", q.phase_rad, -max_abs_phase_rad, max_abs_phase_rad, " rad");
             check_envelope(base, q.env);
         }
         for (std::size_t i = 0; i < p.noise.size(); ++i) {
             const noise_band& b = p.noise[i];
             const std::string base = indexed("noise", i);
-            at_least(base + ".low_hz", b.low_hz, 0.0);
+            within(base + ".low_hz", b.low_hz, 0.0, max_freq_hz, " Hz");
             finite(base + ".high_hz", b.high_hz);
             if (!(b.high_hz > b.low_hz)) {
                 fail(base + ".high_hz", "(" + show(b.high_hz) + ") must be above low_hz (" + show(b.low_hz) + ")");
             }
+            within(base + ".high_hz", b.high_hz, 0.0, max_freq_hz, " Hz");
             check_envelope(base, b.env);
         }
     }
 };
+
+/// Validates p as given, then rounded to the file's precision (rounding can merge two breakpoints
+/// or turn a tiny T60 into 0). Leaves p rounded.
+void validate_and_round(patch& p, const fail_fn& fail) {
+    validator{fail}.check(p);
+    round_to_file_precision(p);
+    validator{[&fail](const std::string& path, const std::string& what) {
+        fail(path, what + " once rounded to the precision the file keeps");
+    }}.check(p);
+}
 
 // ---------------------------------------------------------------------------------------------
 // Unknown keys: nearest known key by edit distance (optimal string alignment: insertions,
@@ -364,19 +460,27 @@ std::size_t edit_distance(std::string_view a, std::string_view b) {
 /// Longest key compared for a suggestion (longer unknown keys just list the known ones).
 constexpr std::size_t max_suggest_key_chars = 64;
 
+/// Whether `typed` is plausibly a misspelling of `known`: the unit suffix left out ("t60" for
+/// "t60_s", "phase" for "phase_rad"), or at most about a third of the characters edited (1..3).
+bool looks_like(std::string_view typed, std::string_view known) {
+    if (typed.size() > max_suggest_key_chars) return false;
+    if (known.size() > typed.size() && known.substr(0, typed.size()) == typed && known[typed.size()] == '_') {
+        return true;
+    }
+    const std::size_t limit = std::clamp<std::size_t>(std::max(typed.size(), known.size()) / 3, 1, 3);
+    return edit_distance(typed, known) <= limit;
+}
+
 std::string unknown_key_text(std::string_view key, std::span<const std::string_view> known) {
     std::string out = "unknown key '" + std::string(key) + "'";
     std::string_view best;
     std::size_t best_d = SIZE_MAX;
-    if (key.size() <= max_suggest_key_chars) {
-        for (std::string_view k : known) {
-            const std::size_t dist = edit_distance(key, k);
-            if (dist < best_d) best_d = dist, best = k;
-        }
+    for (std::string_view k : known) {
+        if (!looks_like(key, k)) continue;
+        const std::size_t dist = edit_distance(key, k);
+        if (dist < best_d) best_d = dist, best = k;
     }
-    // A suggestion is worth making when at most half the characters differ (and at most 3).
-    const std::size_t limit = std::min<std::size_t>(3, std::max<std::size_t>(1, key.size() / 2));
-    if (best_d <= limit) return out + " (did you mean '" + std::string(best) + "'?)";
+    if (!best.empty()) return out + " (did you mean '" + std::string(best) + "'?)";
     out += " (known keys here: ";
     for (std::size_t i = 0; i < known.size(); ++i) out += (i ? ", " : "") + std::string(known[i]);
     return out + ")";
@@ -425,6 +529,7 @@ public:
         patch p;
         p.version = patch_format_version;
         const toml::table& note = required_table(root, "note", "note");
+        expect_keys(note, note_keys);
         p.note.name = get_string(note, "name", "note.name").value_or("");
         p.note.f0_hz = required_number(note, "f0_hz", "note.f0_hz");
         p.note.length_s = required_number(note, "length_s", "note.length_s");
@@ -437,6 +542,7 @@ public:
             p.source.sample_rate_hz = get_number(*src, "sample_rate_hz", "source.sample_rate_hz").value_or(0.0);
             p.source.onset_s = get_number(*src, "onset_s", "source.onset_s").value_or(0.0);
             if (const toml::table* an = optional_table(*src, "analysis", "source.analysis")) {
+                expect_keys(*an, analysis_keys);
                 analysis_settings a;
                 a.window = get_string(*an, "window", "source.analysis.window").value_or("");
                 a.fft_size = required_int(*an, "fft_size", "source.analysis.fft_size");
@@ -449,6 +555,7 @@ public:
         }
 
         for_each_table(root, "partial", max_partials, [&](const toml::table& t, const std::string& base) {
+            expect_keys(t, partial_keys);
             partial q;
             q.freq_hz = required_number(t, "freq_hz", base + ".freq_hz");
             q.harmonic = get_int(t, "harmonic", base + ".harmonic").value_or(0);
@@ -458,6 +565,7 @@ public:
             p.partials.push_back(std::move(q));
         });
         for_each_table(root, "noise", max_noise_bands, [&](const toml::table& t, const std::string& base) {
+            expect_keys(t, noise_keys);
             noise_band b;
             b.low_hz = required_number(t, "low_hz", base + ".low_hz");
             b.high_hz = required_number(t, "high_hz", base + ".high_hz");
@@ -466,8 +574,7 @@ public:
             p.noise.push_back(std::move(b));
         });
 
-        validator v{[this](const std::string& path, const std::string& what) { fail(path, what); }};
-        v.check(p);
+        validate_and_round(p, [this](const std::string& path, const std::string& what) { fail(path, what); });
         return patch_read_result{.value = std::move(p), .warnings = std::move(warnings_)};
     }
 
@@ -544,14 +651,32 @@ private:
             (void)node;
             if (std::find(known.begin(), known.end(), k.str()) != known.end()) continue;
             const std::string shown = display(table_path);
-            std::string context;
-            if (table_path.rfind("partial[", 0) == 0 || table_path.rfind("noise[", 0) == 0) {
-                context = shown + ": ";
-            }
-            std::string text = at(pos_of(k)) + context + unknown_key_text(k.str(), known);
-            if (context.empty() && !table_path.empty()) text += " in [" + table_path + "]";
-            warnings_.push_back(std::move(text));
+            warnings_.push_back(at(pos_of(k)) + (shown.empty() ? "" : shown + ": ") + unknown_key_text(k.str(), known));
         }
+    }
+
+    /// The known keys of each table being read, for the hint on a missing key.
+    std::map<const toml::table*, std::span<const std::string_view>> known_;
+
+    void expect_keys(const toml::table& t, std::span<const std::string_view> known) { known_[&t] = known; }
+
+    /// Error for a missing required key; points at an unknown key that looks like a typo of it.
+    [[noreturn]] void missing(const toml::table& t, std::string_view key, const std::string& table_path,
+                              const std::string& example = "") {
+        std::string hint;
+        if (const auto it = known_.find(&t); it != known_.end()) {
+            for (const auto& [k, node] : t) {
+                (void)node;
+                const auto& known = it->second;
+                if (std::find(known.begin(), known.end(), k.str()) != known.end()) continue;
+                if (looks_like(k.str(), key)) {
+                    hint = " (is '" + std::string(k.str()) + "' at line " + std::to_string(pos_of(k).line) +
+                           " a misspelling of it?)";
+                    break;
+                }
+            }
+        }
+        fail_in(table_path, "missing required key " + std::string(key) + (hint.empty() ? example : hint));
     }
 
     const toml::table* optional_table(const toml::table& t, std::string_view key, const std::string& path) {
@@ -583,7 +708,7 @@ private:
 
     double required_number(const toml::table& t, std::string_view key, const std::string& path) {
         const auto v = get_number(t, key, path);
-        if (!v) fail_in(parent(path), "missing required key " + std::string(key));
+        if (!v) missing(t, key, parent(path));
         return *v;
     }
 
@@ -600,7 +725,7 @@ private:
 
     int required_int(const toml::table& t, std::string_view key, const std::string& path) {
         const auto v = get_int(t, key, path);
-        if (!v) fail_in(parent(path), "missing required key " + std::string(key));
+        if (!v) missing(t, key, parent(path));
         return *v;
     }
 
@@ -649,7 +774,7 @@ private:
         env.attack_s = get_number(t, "attack_s", base + ".attack_s").value_or(0.0);
         env.peak = level_db{required_number(t, "peak_db", base + ".peak_db")};
         const toml::node* d = t.get("decay");
-        if (!d) fail_in(base, "missing required key decay, e.g. decay = [ { t60_s = 2.0 } ]");
+        if (!d) missing(t, "decay", base, ", e.g. decay = [ { t60_s = 2.0 } ]");
         const std::string dpath = base + ".decay";
         record(dpath, *d);
         const toml::array* arr = d->as_array();
@@ -667,9 +792,10 @@ private:
             record(spath, e);
             const toml::table* st = e.as_table();
             if (!st) fail(spath, std::string("must be a table like { t60_s = 1.9, until_s = 0.8 }, not ") + type_name(e.type()));
+            expect_keys(*st, segment_keys);
             decay_segment seg;
             const auto t60 = get_number(*st, "t60_s", spath + ".t60_s");
-            if (!t60) fail(spath, "is missing t60_s (use inf to hold the level)");
+            if (!t60) missing(*st, "t60_s", spath, " (use inf to hold the level)");
             seg.t60_s = *t60;
             seg.until_s = get_number(*st, "until_s", spath + ".until_s");
             warn_unknown(*st, spath, segment_keys);
@@ -695,7 +821,7 @@ void write_envelope(std::ostringstream& out, const envelope& env) {
     for (std::size_t i = 0; i < env.decay.size(); ++i) {
         const decay_segment& seg = env.decay[i];
         if (i) out << ", ";
-        out << "{ t60_s = " << fmt_fixed(seg.t60_s, t60_decimals);
+        out << "{ t60_s = " << fmt_t60(seg.t60_s);
         if (seg.until_s) out << ", until_s = " << fmt_time(*seg.until_s);
         out << " }";
     }
@@ -711,34 +837,87 @@ std::string format_text(const patch& p) {
     out << "name = " << toml_string(p.note.name) << '\n';
     out << "f0_hz = " << fmt_freq(p.note.f0_hz) << '\n';
     out << "length_s = " << fmt_time(p.note.length_s) << '\n';
-    out << "inharmonicity_b = " << fmt_sci(p.note.inharmonicity_b, b_digits) << '\n';
+    out << "inharmonicity_b = " << fmt_b(p.note.inharmonicity_b) << '\n';
     out << "gain_db = " << fmt_level(p.note.gain_db) << '\n';
     out << "\n[source]\n";
     out << "file = " << toml_string(p.source.file) << '\n';
     out << "sample_rate_hz = " << fmt_rate(p.source.sample_rate_hz) << '\n';
-    out << "onset_s = " << fmt_fixed(p.source.onset_s, align_decimals) << '\n';
+    out << "onset_s = " << fmt_align(p.source.onset_s) << '\n';
     if (p.source.analysis) {
         const analysis_settings& a = *p.source.analysis;
         out << "\n[source.analysis]\n";
         out << "window = " << toml_string(a.window) << '\n';
         out << "fft_size = " << a.fft_size << '\n';
-        out << "window_s = " << fmt_fixed(a.window_s, align_decimals) << '\n';
-        out << "hop_s = " << fmt_fixed(a.hop_s, align_decimals) << '\n';
+        out << "window_s = " << fmt_align(a.window_s) << '\n';
+        out << "hop_s = " << fmt_align(a.hop_s) << '\n';
     }
     for (const partial& q : p.partials) {
         out << "\n[[partial]]\n";
         out << "freq_hz = " << fmt_freq(q.freq_hz) << '\n';
         out << "harmonic = " << q.harmonic << '\n';
-        out << "phase_rad = " << fmt_fixed(q.phase_rad, phase_decimals) << '\n';
+        out << "phase_rad = " << fmt_phase(q.phase_rad) << '\n';
         write_envelope(out, q.env);
     }
     for (const noise_band& b : p.noise) {
         out << "\n[[noise]]\n";
-        out << "low_hz = " << fmt_fixed(b.low_hz, band_edge_decimals) << '\n';
-        out << "high_hz = " << fmt_fixed(b.high_hz, band_edge_decimals) << '\n';
+        out << "low_hz = " << fmt_band_edge(b.low_hz) << '\n';
+        out << "high_hz = " << fmt_band_edge(b.high_hz) << '\n';
         write_envelope(out, b.env);
     }
     return out.str();
+}
+
+/// Refuses structures nested deeper than a patch has, before the reader walks them.
+void check_depth(const toml::node& n, int depth, const std::string& source_name) {
+    if (!n.is_table() && !n.is_array()) return;
+    if (depth > max_nesting_depth) {
+        const auto& b = n.source().begin;
+        throw patch_error(source_name + ":" + std::to_string(b.line) + ":" + std::to_string(b.column) +
+                          ": tables and arrays nest more than " + std::to_string(max_nesting_depth) +
+                          " levels deep here, deeper than any patch");
+    }
+    if (const toml::table* t = n.as_table()) {
+        for (const auto& [k, child] : *t) {
+            (void)k;
+            check_depth(child, depth + 1, source_name);
+        }
+    } else if (const toml::array* a = n.as_array()) {
+        for (const toml::node& child : *a) check_depth(child, depth + 1, source_name);
+    }
+}
+
+/// Counts [[partial]] and [[noise]] header lines before parsing, so a file with far too many is
+/// refused in linear time without building its tree (a header inside a multi-line string would
+/// count too; no valid patch has thousands of those).
+void prescan_counts(std::string_view text, const std::string& source_name) {
+    std::size_t partials = 0;
+    std::size_t bands = 0;
+    std::size_t line = 1;
+    for (std::size_t i = 0; i < text.size(); ++line) {
+        std::size_t eol = text.find('\n', i);
+        if (eol == std::string_view::npos) eol = text.size();
+        std::string_view l = text.substr(i, eol - i);
+        i = eol + 1;
+        const std::size_t first = l.find_first_not_of(" \t");
+        if (first == std::string_view::npos || l.substr(first, 2) != "[[") continue;
+        l.remove_prefix(first + 2);
+        const std::size_t close = l.find("]]");
+        if (close == std::string_view::npos) continue;
+        l = l.substr(0, close);
+        const std::size_t a = l.find_first_not_of(" \t");
+        const std::size_t b = l.find_last_not_of(" \t");
+        if (a == std::string_view::npos) continue;
+        const std::string_view name = l.substr(a, b - a + 1);
+        const bool too_many = (name == "partial" && ++partials > max_partials) ||
+                              (name == "noise" && ++bands > max_noise_bands);
+        if (too_many) {
+            const bool is_partial = name == "partial";
+            throw patch_error(source_name + ":" + std::to_string(line) + ":" + std::to_string(first + 1) +
+                              ": more than " + std::to_string(is_partial ? max_partials : max_noise_bands) +
+                              (is_partial ? " [[partial]] tables; at most " : " [[noise]] tables; at most ") +
+                              std::to_string(is_partial ? max_partials : max_noise_bands) + " are allowed");
+        }
+    }
 }
 
 }  // namespace
@@ -749,6 +928,7 @@ patch_read_result parse_patch(std::string_view text, std::string_view source_nam
         throw patch_error(name + ": " + std::to_string(text.size()) + " bytes is larger than the " +
                           max_patch_file_text + " a patch may have");
     }
+    prescan_counts(text, name);
     toml::table root;
     try {
         root = toml::parse(text, name);
@@ -757,6 +937,7 @@ patch_read_result parse_patch(std::string_view text, std::string_view source_nam
         throw patch_error(name + ":" + std::to_string(b.line) + ":" + std::to_string(b.column) +
                           ": not valid TOML: " + std::string(e.description()));
     }
+    check_depth(root, 0, name);
     reader r(source_name);
     return r.read(root);
 }
@@ -781,20 +962,11 @@ patch_read_result read_patch_file(const std::filesystem::path& path) {
 std::string format_patch(const patch& p) {
     patch sorted = p;
     canonicalize(sorted);
-    validator v{[](const std::string& path, const std::string& what) {
+    validate_and_round(sorted, [](const std::string& path, const std::string& what) {
         const std::string shown = display(path);
         throw patch_error("patch to write is invalid: " + (shown.empty() ? what : shown + " " + what));
-    }};
-    v.check(sorted);
-    std::string text = format_text(sorted);
-    // The fixed precisions can merge values the model keeps apart (two until_s 20 us apart, say);
-    // reading the text back guarantees the writer never writes a file that fails to load.
-    try {
-        (void)parse_patch(text, "(patch to write)");
-    } catch (const patch_error& e) {
-        throw patch_error(std::string("patch to write is invalid after rounding to the file's precision: ") + e.what());
-    }
-    return text;
+    });
+    return format_text(sorted);
 }
 
 void write_patch_file(const std::filesystem::path& path, const patch& p) {

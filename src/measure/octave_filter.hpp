@@ -39,8 +39,10 @@ struct biquad_coeffs {
     double b0 = 0.0, b1 = 0.0, b2 = 0.0, a1 = 0.0, a2 = 0.0;
 };
 
-/// Order of the Butterworth lowpass prototype: N = 3 gives a 6th-order bandpass (3 biquads).
-inline constexpr int default_octave_prototype_order = 3;
+/// Order of the Butterworth lowpass prototype: N = 4 gives an 8th-order bandpass (4 biquads).
+/// N = 3 (6th order) misses the IEC 61260-1 class 1 stopband limit of 60 dB at G^-3 for the
+/// 8 kHz band at 44.1 kHz (measured 59.93 dB: the bilinear warping widens the band's lower skirt).
+inline constexpr int default_octave_prototype_order = 4;
 
 class octave_filter {
 public:
