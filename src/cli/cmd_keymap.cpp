@@ -40,6 +40,10 @@ constexpr double default_keymap_rate_hz = 48000.0;
 constexpr double keymap_peak_target_db = -1.0;
 constexpr std::size_t keymap_memory_budget_bytes = std::size_t{1} << 30;  // 1 GiB of float samples
 constexpr int max_keymap_variants = 64;
+/// Threads of the write phase when the renders are kept in memory: writing is bound by the
+/// latency of each file's fsync (atomic output), not by the CPU, so more writes in flight than
+/// cores shorten the wall time (measured: see tools/bench_keymap.cpp).
+constexpr int keymap_writer_threads = 8;
 /// Mixed into a job's variation seed to seed its noise bands (any constant; "noise" in ASCII).
 constexpr std::uint64_t noise_seed_salt = 0x6e6f697365;
 
@@ -217,7 +221,8 @@ int run_keymap(keymap_options o) {
              fmt(keymap_peak_target_db, 1) + " dBFS");
     }
     const auto gain_f = static_cast<float>(gain);
-    parallel_for(jobs.size(), threads, [&](std::size_t i) {
+    const int write_threads = keep ? std::max(threads, keymap_writer_threads) : threads;
+    parallel_for(jobs.size(), write_threads, [&](std::size_t i) {
         std::vector<float> x = keep ? std::move(kept[i]) : render_patch(patches[i], renders[i]);
         if (gain != 1.0) {
             for (float& v : x) v *= gain_f;
