@@ -1,9 +1,16 @@
 // Tests of the patch edits, blending and keymap planning (src/transform).
 // References: the definitions these edits implement (exact ground truth on synthetic patches),
-// ISO 16 / equal temperament for note frequencies, and the SFZ opcode grammar.
+// ISO 16 / equal temperament for note frequencies, FFTW as the reference FFT for renders,
+// Schroeder integration (ISO 3382-1, src/measure) for T30, libsndfile to read the WAV instrument
+// chunk back, and the SFZ opcode grammar (<header> and opcode=value tokens, // comments).
 #include <catch2/catch.hpp>
+#include <fftw3.h>
+#include <sndfile.h>
 
 #include <cmath>
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
 #include <map>
 #include <regex>
 #include <set>
@@ -13,6 +20,9 @@
 
 #include "core/patch.hpp"
 #include "core/pitch_names.hpp"
+#include "io/patch_toml.hpp"
+#include "measure/decay.hpp"
+#include "synthesis/render.hpp"
 #include "transform/blend.hpp"
 #include "transform/keymap.hpp"
 #include "transform/rng.hpp"
@@ -389,18 +399,6 @@ TEST_CASE("keymap sample names and layer steps", "[transform][keymap]") {
 
 // ---------------------------------------------------------------- on renders
 
-#include <fftw3.h>
-#include <sndfile.h>
-
-#include <cstdlib>
-#include <filesystem>
-#include <fstream>
-
-#include "io/audio_file.hpp"
-#include "io/patch_toml.hpp"
-#include "measure/decay.hpp"
-#include "synthesis/render.hpp"
-
 namespace {
 
 constexpr double test_rate_hz = 48000.0;
@@ -429,7 +427,7 @@ public:
         fftw_plan plan = fftw_plan_dft_r2c_1d(static_cast<int>(fft_size), in, out, FFTW_ESTIMATE);
         const std::size_t n = x.size();
         for (std::size_t i = 0; i < fft_size; ++i) {
-            // Hann: w[i] = 0.5 (1 - cos(2 pi i / (n - 1))) (Harris 1978, eq. 27a form).
+            // Hann window w[i] = 0.5 (1 - cos(2 pi i / (n - 1))) (Harris 1978, symmetric form).
             in[i] = i < n ? static_cast<double>(x[i]) * 0.5 * (1.0 - std::cos(two_pi * static_cast<double>(i) / static_cast<double>(n - 1))) : 0.0;
         }
         fftw_execute(plan);
