@@ -43,9 +43,21 @@ std::vector<double> level_envelope_db(std::span<const float> x, double sample_ra
     return level;
 }
 
-std::vector<double> onset_strength(std::span<const double> level_db) {
+std::vector<double> onset_strength(std::span<const double> level_db, std::size_t lookback_frames) {
+    assert(lookback_frames >= 1);
     std::vector<double> out(level_db.size(), 0.0);
-    for (std::size_t f = 1; f < level_db.size(); ++f) out[f] = std::max(0.0, level_db[f] - level_db[f - 1]);
+    if (level_db.empty()) return out;
+    // Before the first frame the level is the envelope's floor (its minimum: the floor itself
+    // whenever the signal is quiet anywhere), so a signal that starts at full level has its onset
+    // at frame 0.
+    const double before_db = *std::min_element(level_db.begin(), level_db.end());
+    for (std::size_t f = 0; f < level_db.size(); ++f) {
+        double recent_max_db = f < lookback_frames ? before_db : -infinity;
+        for (std::size_t g = f > lookback_frames ? f - lookback_frames : 0; g < f; ++g) {
+            recent_max_db = std::max(recent_max_db, level_db[g]);
+        }
+        out[f] = std::max(0.0, level_db[f] - recent_max_db);
+    }
     return out;
 }
 
@@ -64,8 +76,9 @@ alignment align_onsets(std::span<const float> a, std::span<const float> b, doubl
                        const onset_params& params) {
     alignment out;
     const std::size_t hop = frames_of(params.hop_s, sample_rate_hz);
-    const std::vector<double> oa = onset_strength(level_envelope_db(a, sample_rate_hz, params));
-    const std::vector<double> ob = onset_strength(level_envelope_db(b, sample_rate_hz, params));
+    const std::size_t lookback = std::max<std::size_t>(1, frames_of(params.rise_lookback_s, sample_rate_hz) / hop);
+    const std::vector<double> oa = onset_strength(level_envelope_db(a, sample_rate_hz, params), lookback);
+    const std::vector<double> ob = onset_strength(level_envelope_db(b, sample_rate_hz, params), lookback);
     out.onset_a_frames = find_onset_frames(a, sample_rate_hz, params);
 
     // Coarse: c[l] = sum_k oa[k] ob[k + l], l in envelope hops; ties go to the smallest |l|.
@@ -86,12 +99,13 @@ alignment align_onsets(std::span<const float> a, std::span<const float> b, doubl
     out.coarse_lag_frames = best_lag * static_cast<std::ptrdiff_t>(hop);
 
     // Fine: normalised waveform correlation over [onset_a - hop, onset_a + refine window), lags
-    // within two envelope hops of the coarse lag; ties go to the one closest to the coarse lag.
+    // within one RMS window plus two hops of the coarse lag (an attack spread over two envelope
+    // frames can put the coarse lag off by about that); ties go to the one closest to the coarse lag.
     const std::ptrdiff_t w_begin = static_cast<std::ptrdiff_t>(out.onset_a_frames) - static_cast<std::ptrdiff_t>(hop);
     const std::ptrdiff_t w_end = static_cast<std::ptrdiff_t>(out.onset_a_frames + frames_of(params.refine_window_s, sample_rate_hz));
     double energy_a = 0.0;
     for (std::ptrdiff_t n = w_begin; n < w_end; ++n) energy_a += sample_at(a, n) * sample_at(a, n);
-    const std::ptrdiff_t search = 2 * static_cast<std::ptrdiff_t>(hop);
+    const std::ptrdiff_t search = static_cast<std::ptrdiff_t>(frames_of(params.frame_s, sample_rate_hz) + 2 * hop);
     double best_corr = -infinity;
     std::ptrdiff_t best_fine = out.coarse_lag_frames;
     for (std::ptrdiff_t mag = 0; mag <= search; ++mag) {

@@ -14,6 +14,7 @@ struct onset_params {
     double frame_s = 0.002;        ///< RMS window of the level envelope
     double floor_below_peak_db = 80.0;  ///< level envelope floored this far below its peak frame
     double threshold_below_peak_db = 20.0;  ///< onset: first frame within this of the peak frame level
+    double rise_lookback_s = 0.020;  ///< onset strength: rise above the maximum of the last 20 ms
     double max_lag_s = 0.5;        ///< largest lag searched either way
     double refine_window_s = 0.05; ///< waveform window after the reference onset for the fine search
 };
@@ -21,8 +22,11 @@ struct onset_params {
 /// Short-time level in dB at hop_s (RMS over frame_s), floored floor_below_peak_db below its peak.
 std::vector<double> level_envelope_db(std::span<const float> x, double sample_rate_hz, const onset_params& params);
 
-/// Onset strength: the positive part of the level envelope's frame-to-frame rise, in dB.
-std::vector<double> onset_strength(std::span<const double> level_db);
+/// Onset strength: how far each envelope frame rises above the loudest of the lookback_frames
+/// before it, in dB (0 when it does not). Frames before the start count as the envelope's floor.
+/// The pitch-period ripple of a sounding note never rises above its own recent maximum, so only
+/// attacks score.
+std::vector<double> onset_strength(std::span<const double> level_db, std::size_t lookback_frames);
 
 /// Onset in samples: the start of the first envelope frame whose level is within
 /// threshold_below_peak_db of the loudest frame. 0 for a silent signal.

@@ -27,7 +27,6 @@ compare_result compare_signals(std::span<const float> a, std::span<const float> 
     if (silent) throw std::invalid_argument("the reference is silent");
     compare_result r;
     r.sample_rate_hz = sample_rate_hz;
-    r.early_window_s = params.early_window_s;
     r.align = align_onsets(a, b, sample_rate_hz, params.onset);
     r.compared_frames = a.size();
     const std::vector<float> b_aligned = shift_by_lag(b, r.align.lag_frames, a.size());
@@ -36,12 +35,19 @@ compare_result compare_signals(std::span<const float> a, std::span<const float> 
     const std::size_t early_end =
         std::min(a.size(), onset + static_cast<std::size_t>(std::llround(params.early_window_s * sample_rate_hz)));
     if (early_end <= onset) throw std::invalid_argument("the reference ends at its onset");
+    r.early_window_s = static_cast<double>(early_end - onset) / sample_rate_hz;
 
-    spectral_distance_params whole = params.spectral;
+    spectral_distance_params spectral = params.spectral;
+    if (params.spectral_max_freq_hz > 0.0) {
+        spectral.band_limit_fraction = std::min(1.0, params.spectral_max_freq_hz / (0.5 * sample_rate_hz));
+    }
+    // Bin k of size N counts while k <= floor(fraction * N / 2): report the top of the range.
+    r.spectral_max_freq_hz = spectral.band_limit_fraction * 0.5 * sample_rate_hz;
+    spectral_distance_params whole = spectral;
     whole.start_frames = 0;
     whole.end_frames = a.size();
     r.whole = spectral_distance(a, b_aligned, whole);
-    spectral_distance_params early = params.spectral;
+    spectral_distance_params early = spectral;
     early.start_frames = onset;
     early.end_frames = early_end;
     r.early = spectral_distance(a, b_aligned, early);

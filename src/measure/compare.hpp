@@ -25,6 +25,8 @@ struct compare_params {
     double early_window_s = 0.100;        ///< "first 100 ms after onset" for the early distance and SNR
     double lowest_band_nominal_hz = 63.0;
     double highest_band_nominal_hz = 16000.0;
+    /// Spectral distances count bins up to this frequency only; 0 = up to Nyquist.
+    double spectral_max_freq_hz = 0.0;
 };
 
 struct band_decay_pair {
@@ -37,11 +39,15 @@ struct compare_result {
     double sample_rate_hz = 0.0;
     alignment align;
     std::size_t compared_frames = 0;  ///< length of the common span after alignment (from a's start)
-    double early_window_s = 0.0;
+    double early_window_s = 0.0;      ///< as asked, or shorter when a ends sooner after its onset
+    double spectral_max_freq_hz = 0.0; ///< highest bin frequency counted in the spectral distances
     spectral_distance_result whole;   ///< over the whole of a
     spectral_distance_result early;   ///< frames centred in [onset, onset + early_window_s)
     double early_snr_db = 0.0;        ///< over [onset, onset + early_window_s)
     std::vector<band_decay_pair> bands;  ///< decay from a's onset, lowest band first
+    /// f0 of b against f0 of a in cents (cents_between(f0_b, f0_a)). compare_signals leaves it
+    /// empty: the caller that has an f0 estimator fills it.
+    std::optional<double> f0_difference_cents;
 };
 
 /// a is the reference; b is aligned to it first. Same sample rate (resample at the edge).

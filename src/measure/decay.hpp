@@ -1,8 +1,9 @@
 // Decay times of a decaying signal (an impulse response, or a note from its onset):
-// Schroeder backward integration (Schroeder 1965, "New method of measuring reverberation time";
-// ISO 3382-1:2009, 5.3.3) and T20 / T30 by least-squares regression (ISO 3382-1:2009, 3.5 and
-// 5.3.4), with the noise floor handled by an iterative truncation point in the manner of Lundeby,
-// Vigran, Bietz and Vorlaender 1995 ("Uncertainties of measurements in room acoustics", Acustica 81).
+// Schroeder backward integration (Schroeder 1965, "New method of measuring reverberation time",
+// JASA 37) and T20 / T30 by least-squares regression as ISO 3382-1:2009 defines them, with the
+// noise floor handled by an iterative truncation point in the manner of Lundeby, Vigran, Bietz and
+// Vorlaender 1995 ("Uncertainties of measurements in room acoustics", Acustica 81). Clause
+// numbers of ISO 3382-1 below are from memory.
 #pragma once
 
 #include <cstddef>

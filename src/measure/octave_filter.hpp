@@ -1,4 +1,5 @@
-// Octave-band filters with the band edges of IEC 61260-1:2014 (base-ten system):
+// Octave-band filters with the band edges of IEC 61260-1:2014 (base-ten system; clause numbers
+// from memory):
 //   octave frequency ratio G = 10^(3/10)                        (IEC 61260-1:2014, 5.2)
 //   exact mid-band frequency f_m = f_r * G^x, f_r = 1000 Hz      (IEC 61260-1:2014, 5.4, b = 1)
 //   band edges f_1 = f_m * G^(-1/2), f_2 = f_m * G^(+1/2)        (IEC 61260-1:2014, 5.6)

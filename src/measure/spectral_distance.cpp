@@ -80,14 +80,18 @@ spectral_distance_result spectral_distance(std::span<const float> reference, std
         }
         stft_plan& plan = plan_for(size);
         const std::size_t hop = static_cast<std::size_t>(std::max(1, size / params.hop_divisor));
-        const std::size_t n_bins = static_cast<std::size_t>(size / 2 + 1);
-        std::vector<double> pa(n_bins), pb(n_bins);
+        const std::size_t all_bins = static_cast<std::size_t>(size / 2 + 1);
+        std::vector<double> pa(all_bins), pb(all_bins);
+        // Bins k = 0 .. n_bins - 1 lie at or below band_limit_fraction of Nyquist (bin N/2).
+        assert(params.band_limit_fraction > 0.0 && params.band_limit_fraction <= 1.0);
+        const std::size_t n_bins = std::min(
+            all_bins, static_cast<std::size_t>(std::floor(params.band_limit_fraction * (size / 2))) + 1);
 
         // Pass 1: the reference's peak bin power over the range.
         double peak_power = 0.0;
         for (std::size_t c = params.start_frames; c < end; c += hop) {
             plan.power_spectrum(reference, static_cast<std::ptrdiff_t>(c), pa);
-            peak_power = std::max(peak_power, *std::max_element(pa.begin(), pa.end()));
+            peak_power = std::max(peak_power, *std::max_element(pa.begin(), pa.begin() + static_cast<std::ptrdiff_t>(n_bins)));
         }
         const double used_threshold = peak_power * std::pow(10.0, -params.range_db / 10.0);
         const double floor_power = peak_power * std::pow(10.0, -params.floor_db / 10.0);

@@ -22,6 +22,9 @@ struct spectral_distance_params {
     /// the reference. Samples outside either signal read as zero.
     std::size_t start_frames = 0;
     std::size_t end_frames = 0;
+    /// Only bins at or below this fraction of the Nyquist frequency count (both measures), e.g.
+    /// to leave out the band a copy made at a lower rate cannot hold.
+    double band_limit_fraction = 1.0;
 };
 
 struct resolution_distance {

@@ -11,10 +11,10 @@
 // flushed every partials_per_flush partials into a double block accumulator.
 //
 // Float error budget (bounded, does not grow with render length): a lane runs at most
-// render_anchor_frames / lanes = 64 steps from its exact anchor, each step one float complex
+// render_anchor_frames / render_lanes = 32 steps from its exact anchor, each step one float complex
 // multiply (relative error ~ 2^-24 each) with the float-rounded m^lanes (~ 2^-24 systematic), so
-// the relative error stays below ~64 * 2 * 2^-24 ~ 8e-6 (-102 dB) in the worst case and is far
-// smaller on average (measured -125 dB or better in tests/unit/test_render.cpp).
+// the relative error stays below ~32 * 2 * 2^-24 ~ 3.8e-6 (-108 dB) in the worst case and is far
+// smaller on average (error energy -128 dB in tests/unit/test_render.cpp).
 #include "synthesis/render.hpp"
 
 #include <algorithm>
@@ -29,9 +29,9 @@ namespace wane {
 
 namespace {
 
-/// Independent oscillator lanes per partial (one vector of 8 floats = 2 AVX registers per
-/// component; 16 gives two independent dependency chains per component).
-constexpr std::size_t lanes = 16;
+/// Independent oscillator lanes per partial: 4 vectors of 8 floats per component, i.e. four
+/// independent dependency chains, enough to keep the multipliers busy.
+constexpr std::size_t lanes = render_lanes;
 static_assert(render_anchor_frames % lanes == 0);
 /// Partials summed in the float block buffer before it is added to the double accumulator.
 constexpr std::size_t partials_per_flush = 32;
@@ -58,17 +58,10 @@ constexpr std::size_t vfloat_width = 8;
 static_assert(lanes % vfloat_width == 0);
 constexpr std::size_t lane_vectors = lanes / vfloat_width;
 
-// Unaligned load/store of a vfloat. Always inlined into the kernels, so the ABI note GCC gives
-// for passing a 32-byte vector by value without AVX (-Wpsabi) concerns no real call; the note is
-// silenced for the kernel section only.
-#pragma GCC diagnostic push
-#pragma GCC diagnostic ignored "-Wpsabi"
-[[gnu::always_inline]] inline vfloat load_v(const float* p) {
-    vfloat v;
-    std::memcpy(&v, p, sizeof v);
-    return v;
-}
-[[gnu::always_inline]] inline void store_v(float* p, vfloat v) { std::memcpy(p, &v, sizeof v); }
+// Unaligned load/store of a vfloat (through references: no vector passes by value, so no ABI
+// question between the clones).
+[[gnu::always_inline]] inline void load_v(vfloat& v, const float* p) { std::memcpy(&v, p, sizeof v); }
+[[gnu::always_inline]] inline void store_v(float* p, const vfloat& v) { std::memcpy(p, &v, sizeof v); }
 
 // Hot kernel, decay span: out[k] += Re(z_k) for k < frames; lane l holds z_{s*lanes+l} at step s
 // and is advanced by the complex factor step = m^lanes after use. re0/im0: initial lane states.
@@ -78,14 +71,16 @@ void add_damped(float* __restrict out, std::size_t frames, const float* __restri
     vfloat re[lane_vectors];
     vfloat im[lane_vectors];
     for (std::size_t v = 0; v < lane_vectors; ++v) {
-        re[v] = load_v(re0 + v * vfloat_width);
-        im[v] = load_v(im0 + v * vfloat_width);
+        load_v(re[v], re0 + v * vfloat_width);
+        load_v(im[v], im0 + v * vfloat_width);
     }
     const std::size_t steps = frames / lanes;
     for (std::size_t s = 0; s < steps; ++s) {
         float* o = out + s * lanes;
         for (std::size_t v = 0; v < lane_vectors; ++v) {
-            store_v(o + v * vfloat_width, load_v(o + v * vfloat_width) + re[v]);
+            vfloat acc;
+            load_v(acc, o + v * vfloat_width);
+            store_v(o + v * vfloat_width, acc + re[v]);
             const vfloat nr = re[v] * step_re - im[v] * step_im;
             const vfloat ni = re[v] * step_im + im[v] * step_re;
             re[v] = nr;
@@ -108,15 +103,17 @@ void add_ramped(float* __restrict out, std::size_t frames, const float* __restri
     vfloat im[lane_vectors];
     vfloat amp[lane_vectors];
     for (std::size_t v = 0; v < lane_vectors; ++v) {
-        re[v] = load_v(re0 + v * vfloat_width);
-        im[v] = load_v(im0 + v * vfloat_width);
-        amp[v] = load_v(amp0 + v * vfloat_width);
+        load_v(re[v], re0 + v * vfloat_width);
+        load_v(im[v], im0 + v * vfloat_width);
+        load_v(amp[v], amp0 + v * vfloat_width);
     }
     const std::size_t steps = frames / lanes;
     for (std::size_t s = 0; s < steps; ++s) {
         float* o = out + s * lanes;
         for (std::size_t v = 0; v < lane_vectors; ++v) {
-            store_v(o + v * vfloat_width, load_v(o + v * vfloat_width) + amp[v] * re[v]);
+            vfloat acc;
+            load_v(acc, o + v * vfloat_width);
+            store_v(o + v * vfloat_width, acc + amp[v] * re[v]);
             const vfloat nr = re[v] * step_re - im[v] * step_im;
             const vfloat ni = re[v] * step_im + im[v] * step_re;
             re[v] = nr;
@@ -132,15 +129,13 @@ void add_ramped(float* __restrict out, std::size_t frames, const float* __restri
     for (std::size_t l = 0; l < frames - steps * lanes; ++l) o[l] += tail_amp[l] * tail_re[l];
 }
 
-#pragma GCC diagnostic pop
-
 enum class span_kind : unsigned char { ramp, decay };
 
 /// One stretch of frames [begin, end) of a partial with a single closed form.
 ///   ramp:  A(n) = amp_per_frame * n                          (the attack; A(0) = 0)
 ///   decay: ln A(n) = ln_amp_begin + ln_amp_per_frame * (n - begin)    (nepers)
 /// The per-frame phasor factor is m = exp(ln_amp_per_frame) e^(j 2 pi f / rate); m_pow holds m^l
-/// for l < lanes (exact double), step = m^lanes rounded to float.
+/// for l < lanes (exact double, as re/im arrays), step = m^lanes rounded to float.
 struct span {
     std::size_t begin = 0;
     std::size_t end = 0;
@@ -148,7 +143,8 @@ struct span {
     double amp_per_frame = 0.0;
     double ln_amp_begin = 0.0;
     double ln_amp_per_frame = 0.0;
-    std::array<std::complex<double>, lanes> m_pow{};
+    std::array<double, lanes> m_pow_re{};
+    std::array<double, lanes> m_pow_im{};
     float step_re = 1.0F;
     float step_im = 0.0F;
 };
@@ -169,7 +165,9 @@ void set_phasor_powers(span& s, double cycles_per_frame, double ln_amp_per_frame
     const double w_rad = two_pi * cycles_per_frame;
     for (std::size_t l = 0; l < lanes; ++l) {
         const double dl = static_cast<double>(l);
-        s.m_pow[l] = std::polar(std::exp(ln_amp_per_frame * dl), w_rad * dl);
+        const std::complex<double> m_l = std::polar(std::exp(ln_amp_per_frame * dl), w_rad * dl);
+        s.m_pow_re[l] = m_l.real();
+        s.m_pow_im[l] = m_l.imag();
     }
     const double dl = static_cast<double>(lanes);
     const std::complex<double> step = std::polar(std::exp(ln_amp_per_frame * dl), w_rad * dl);
@@ -241,6 +239,14 @@ std::complex<double> exact_phasor(double cycles_per_frame, double phase_rad, std
     return std::polar(1.0, two_pi * cycles + phase_rad);
 }
 
+/// Lane anchors z m^l (l < lanes) in double from the exact anchor z = (z_re, z_im), rounded to float.
+void set_lane_anchors(const span& s, double z_re, double z_im, float* re, float* im) {
+    for (std::size_t l = 0; l < lanes; ++l) {
+        re[l] = static_cast<float>(z_re * s.m_pow_re[l] - z_im * s.m_pow_im[l]);
+        im[l] = static_cast<float>(z_re * s.m_pow_im[l] + z_im * s.m_pow_re[l]);
+    }
+}
+
 /// Adds one partial's frames [from, to) (inside span s) to block (block[0] is frame block_begin).
 /// Anchors every lane from exact double values at `from`.
 void add_span_part(const render_plan& plan, std::size_t k, const span& s, std::size_t from,
@@ -254,20 +260,14 @@ void add_span_part(const render_plan& plan, std::size_t k, const span& s, std::s
         const double ln_last = ln_from + s.ln_amp_per_frame * static_cast<double>(to - 1 - from);
         // Skip stretches entirely below the silence floor (the envelope is monotone in a span).
         if (std::max(ln_from, ln_last) < ln_silence_amp) return;
-        const std::complex<double> anchor = std::exp(ln_from) * z;
-        for (std::size_t l = 0; l < lanes; ++l) {
-            const std::complex<double> zl = anchor * s.m_pow[l];
-            re[l] = static_cast<float>(zl.real());
-            im[l] = static_cast<float>(zl.imag());
-        }
+        const double amp = std::exp(ln_from);
+        set_lane_anchors(s, amp * z.real(), amp * z.imag(), re, im);
         add_damped(block + (from - block_begin), to - from, re, im, s.step_re, s.step_im);
     } else {
         alignas(32) float amp[lanes];
         const double amp_per_frame = plan.gain_lin[k] * s.amp_per_frame;
+        set_lane_anchors(s, z.real(), z.imag(), re, im);
         for (std::size_t l = 0; l < lanes; ++l) {
-            const std::complex<double> zl = z * s.m_pow[l];
-            re[l] = static_cast<float>(zl.real());
-            im[l] = static_cast<float>(zl.imag());
             amp[l] = static_cast<float>(amp_per_frame * static_cast<double>(from + l));
         }
         add_ramped(block + (from - block_begin), to - from, re, im, amp, s.step_re, s.step_im,

@@ -38,6 +38,9 @@ inline constexpr double end_fade_s = 0.010;
 /// The oscillator state is re-anchored from exact double-precision values at least this often
 /// (and at every envelope segment boundary).
 inline constexpr std::size_t render_anchor_frames = 1024;
+/// Independent oscillator lanes per partial: lane l holds z_(n+l), all advanced by m^render_lanes,
+/// so a lane runs render_anchor_frames / render_lanes float steps between exact anchors.
+inline constexpr std::size_t render_lanes = 32;
 /// Below this level a partial's stretch of samples is left out: far below any output format's
 /// resolution (float32 output of a full-scale signal resolves ~ -150 dB).
 inline constexpr level_db render_silence_level{-300.0};

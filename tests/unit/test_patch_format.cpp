@@ -448,6 +448,8 @@ TEST_CASE("unknown keys warn with file:line:col and the nearest known key", "[pa
         {"hop_s = 0.005", "hop_s = 0.005\nwindow_size = 4", "window_size", "source.analysis: unknown key 'window_size'"},
         {"low_hz = 1000.0", "low_hz = 1000.0\nhigh = 3", "high = 3", "noise 1: unknown key 'high' (did you mean 'high_hz'?)"},
         {"version = 1", "version = 1\ncomment = \"x\"", "comment", "unknown key 'comment' (known keys here: format"},
+        {"onset_s = 0.512", "onset_s = 0.512\nf0_hz = 3.0", "f0_hz = 3.0", "source: unknown key 'f0_hz'"},
+        {"harmonic = 2", "harmonic = 2\nuntil_s = 3.0", "until_s = 3.0", "'until_s' belongs in a decay segment"},
     };
     for (const case_t& c : cases) {
         const std::string text = with(base_text, c.from, c.to);
@@ -458,6 +460,19 @@ TEST_CASE("unknown keys warn with file:line:col and the nearest known key", "[pa
         CHECK_THAT(r.warnings[0], StartsWith("pluck.toml" + line_tag(text, c.needle)));
         CHECK_THAT(r.warnings[0], Contains(c.expect));
     }
+}
+
+TEST_CASE("partials and bands are returned in canonical order; messages count in file order", "[patch]") {
+    // Swap the two partials' frequencies in the text: the file lists 293.9 Hz first.
+    std::string text = with(base_text, "freq_hz = 146.901", "freq_hz = XXX");
+    text = with(text, "freq_hz = 293.9", "freq_hz = 146.901");
+    text = with(text, "freq_hz = XXX", "freq_hz = 293.9");
+    const patch p = parse_patch(text, "pluck.toml").value;
+    CHECK(p.partials[0].freq_hz == 146.901);
+    CHECK(p.partials[0].harmonic == 2);  // the second table in the file
+    CHECK(parse_patch(format_patch(p), "again").value == p);
+    // An error in the second table of the file is "partial 2", whatever its frequency.
+    expect_error(with(text, "peak_db = -18.0", "peak_db = 30.0"), "peak_db = 30.0", "partial 2: peak_db");
 }
 
 TEST_CASE("the writer refuses a model that would not load", "[patch][write]") {
@@ -478,4 +493,33 @@ TEST_CASE("read_patch_file names an unreadable file in an io_error", "[patch][io
     const fs::path missing = fs::path(WANE_SOURCE_DIR) / "patches/no-such-patch.toml";
     CHECK_THROWS_AS(read_patch_file(missing), io_error);
     CHECK_THROWS_WITH(read_patch_file(missing), Contains("no-such-patch.toml"));
+}
+
+TEST_CASE("the worked hand edit in patches/README.md gives the levels it states", "[patch][envelope]") {
+    patch p = read_patch_file(fs::path(WANE_SOURCE_DIR) / "patches/steel-pluck.toml").value;
+    REQUIRE(p.partials.size() >= 3);
+    partial& third = p.partials[2];
+    REQUIRE(third.harmonic == 3);
+    REQUIRE(third.env.decay.size() == 2);
+    CHECK(third.env.decay[1].t60_s == 5.52);
+    const envelope before = third.env;
+    third.env.decay[1].t60_s *= 2.0;
+    const envelope& fund = p.partials[0].env;
+    // The README's table, hand computed from the definition to 0.01 dB (tolerance 0.005 dB).
+    const double times_s[] = {1.0, 2.0, 4.0, 6.0};
+    const double before_db[] = {-30.57, -41.44, -63.18, -84.92};
+    const double after_db[] = {-28.40, -33.83, -44.70, -55.57};
+    const double fund_db[] = {-20.73, -28.60, -44.35, -60.10};
+    for (int i = 0; i < 4; ++i) {
+        CAPTURE(times_s[i]);
+        CHECK_THAT(envelope_level(before, times_s[i]).db, WithinAbs(before_db[i], 0.005));
+        CHECK_THAT(envelope_level(third.env, times_s[i]).db, WithinAbs(after_db[i], 0.005));
+        CHECK_THAT(envelope_level(fund, times_s[i]).db, WithinAbs(fund_db[i], 0.005));
+    }
+    CHECK_THAT(envelope_level(third.env, 0.6).db, WithinAbs(-26.22, 0.005));
+    third.env.decay[1].t60_s = 1.5 * 5.52;  // the gentler variant
+    CHECK_THAT(envelope_level(third.env, 4.0).db, WithinAbs(-50.86, 0.005));
+    // The edited patch is written with the new value in canonical form.
+    third.env.decay[1].t60_s = 11.04;
+    CHECK_THAT(format_patch(p), Contains("decay = [ { t60_s = 3.0300, until_s = 0.6000 }, { t60_s = 11.0400 } ]"));
 }

@@ -378,9 +378,10 @@ TEST_CASE("the attack follows the format's definition", "[render]") {
                                 std::cos(two_pi * 440.0 * t + 0.7);
         max_err = std::max(max_err, std::abs(static_cast<double>(y[n]) - expected));
     }
-    // The renderer's float error budget (src/synthesis/render.cpp): at most 64 float steps from an
-    // exact anchor, ~2 * 2^-24 each: 64 * 2 * 2^-24 = 7.6e-6 of the amplitude.
-    const double tolerance = 64.0 * 2.0 * std::ldexp(1.0, -24) * peak_amp;
+    // The renderer's float error budget (src/synthesis/render.cpp): at most
+    // render_anchor_frames / render_lanes float steps from an exact anchor, ~2 * 2^-24 each.
+    const double steps = static_cast<double>(render_anchor_frames / render_lanes);
+    const double tolerance = steps * 2.0 * std::ldexp(1.0, -24) * peak_amp;
     CAPTURE(max_err, tolerance);
     CHECK(max_err <= tolerance);
 
