@@ -1,15 +1,157 @@
-// wane info: placeholder until its issue lands; refuses to run rather than pretend.
+// wane info PATCH: what a patch holds, readable at 100 columns: the note summary and a table of
+// partials (and noise bands) with each envelope's segments.
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <iostream>
+#include <sstream>
+#include <string>
+#include <vector>
+
 #include "cli/common.hpp"
+#include "core/harmonics.hpp"
+#include "core/patch.hpp"
+#include "core/pitch_names.hpp"
+#include "core/units.hpp"
+#include "io/patch_toml.hpp"
 
 namespace wane::cli {
 
+namespace {
+
+constexpr std::size_t table_width_chars = 100;
+/// A canonical PCM WAV file: 44 header bytes (RIFF, fmt and data chunk headers), then samples.
+constexpr double wav_header_bytes = 44.0;
+constexpr double wav_24bit_bytes_per_sample = 3.0;
+constexpr double cents_per_semitone = 100.0;
+constexpr double ms_per_s = 1000.0;
+constexpr double bytes_per_kib = 1024.0;
+
+std::string printf_str(const char* fmt, auto... args) {
+    char buf[256];
+    std::snprintf(buf, sizeof buf, fmt, args...);
+    return buf;
+}
+
+std::string size_text(double bytes) {
+    if (bytes < bytes_per_kib) return printf_str("%.0f B", bytes);
+    if (bytes < bytes_per_kib * bytes_per_kib) return printf_str("%.1f KiB", bytes / bytes_per_kib);
+    return printf_str("%.1f MiB", bytes / (bytes_per_kib * bytes_per_kib));
+}
+
+/// "1.900 s to 0.800 s" for a segment with an end, "6.400 s to end" for the last.
+std::string segment_text(const decay_segment& seg) {
+    const std::string t60 = std::isinf(seg.t60_s) ? (seg.t60_s > 0 ? "inf" : "-inf") : printf_str("%.3f", seg.t60_s);
+    return t60 + " s to " + (seg.until_s ? printf_str("%.3f s", *seg.until_s) : std::string("end"));
+}
+
+/// Prints the envelope's segments after a fixed-width row prefix, wrapping at the table width.
+void print_segments(std::ostream& os, const std::string& prefix, const envelope& env) {
+    std::string line = prefix;
+    const std::string indent(prefix.size(), ' ');
+    for (std::size_t i = 0; i < env.decay.size(); ++i) {
+        const std::string cell = segment_text(env.decay[i]) + (i + 1 < env.decay.size() ? "," : "");
+        if (line.size() > prefix.size() && line.size() + 1 + cell.size() > table_width_chars) {
+            os << line << '\n';
+            line = indent;
+        }
+        if (line.size() > prefix.size()) line += ' ';
+        line += cell;
+    }
+    os << line << '\n';
+}
+
+/// "+1.25" with `decimals` digits; a value that rounds to zero prints as "+0.00", never "-0.00".
+std::string signed_text(double v, int decimals) {
+    const double scale = std::pow(10.0, decimals);
+    double r = std::round(v * scale) / scale;
+    if (r == 0.0) r = 0.0;
+    return printf_str("%+.*f", decimals, r);
+}
+
+std::string pitch_text(double f0_hz) {
+    if (f0_hz <= 0.0) return "0 (no pitch centre)";
+    const double midi = hz_to_midi(f0_hz);
+    const double nearest = std::round(midi);
+    std::string out = printf_str("%.6f Hz", f0_hz);
+    if (nearest < 0.0 || nearest > 127.0) return out + " (outside the MIDI note range)";
+    return out + " = " + note_name(static_cast<int>(nearest)) + " " +
+           signed_text((midi - nearest) * cents_per_semitone, 1) + printf_str(" cents (MIDI %d)", static_cast<int>(nearest));
+}
+
+int run_info(const std::filesystem::path& path) {
+    const patch_read_result r = read_patch_file(path);
+    for (const std::string& w : r.warnings) warn(w);
+    std::cout << patch_info_text(r.value, path);
+    return exit_ok;
+}
+
+}  // namespace
+
+std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
+    std::ostringstream os;
+    const note_info& n = p.note;
+
+    os << path.string() << " (" << patch_format_name << " version " << p.version << ")\n";
+    os << "  name      " << (n.name.empty() ? "(none)" : n.name) << '\n';
+    os << "  f0        " << pitch_text(n.f0_hz) << '\n';
+    os << "  B         " << printf_str("%.4e", n.inharmonicity_b) << '\n';
+    os << "  length    " << printf_str("%.4f s, gain %.2f dB", n.length_s, n.gain_db) << '\n';
+    os << "  content   " << p.partials.size() << (p.partials.size() == 1 ? " partial, " : " partials, ")
+              << p.noise.size() << (p.noise.size() == 1 ? " noise band" : " noise bands") << '\n';
+    const source_info& s = p.source;
+    os << "  source    " << (s.file.empty() ? "(none)" : s.file)
+              << (s.sample_rate_hz > 0.0 ? printf_str(", %.0f Hz", s.sample_rate_hz) : std::string(", rate unknown"))
+              << printf_str(", onset %.6f s", s.onset_s) << '\n';
+    if (s.analysis) {
+        const analysis_settings& a = *s.analysis;
+        os << "  analysis  " << (a.window.empty() ? "(window unnamed)" : a.window)
+                  << printf_str(", FFT %d, window %.3f ms, hop %.3f ms", a.fft_size, a.window_s * ms_per_s,
+                                a.hop_s * ms_per_s)
+                  << '\n';
+    }
+    std::error_code ec;
+    const double patch_bytes = static_cast<double>(std::filesystem::file_size(path, ec));
+    os << "  size      " << size_text(patch_bytes) << " as a patch";
+    if (s.sample_rate_hz > 0.0) {
+        const double wav_bytes = wav_header_bytes + std::ceil(n.length_s * s.sample_rate_hz) * wav_24bit_bytes_per_sample;
+        os << "; " << size_text(wav_bytes) << printf_str(" as a 24-bit mono WAV of %.4f s at %.0f Hz (%.0fx)",
+                                                                 n.length_s, s.sample_rate_hz, wav_bytes / patch_bytes);
+    }
+    os << "\n";
+
+    if (!p.partials.empty()) {
+        os << "\n     #  harm        freq_hz    cents  peak_db  att_ms  decay: T60 to segment end\n";
+        for (std::size_t i = 0; i < p.partials.size(); ++i) {
+            const partial& q = p.partials[i];
+            std::string cents = "";
+            if (q.harmonic > 0 && n.f0_hz > 0.0) {
+                cents = signed_text(cents_between(q.freq_hz, stiff_partial_hz(n.f0_hz, n.inharmonicity_b, q.harmonic)), 2);
+            }
+            const std::string prefix = printf_str("  %4zu  %4d  %13.6f  %7s  %7.2f  %6.2f  ", i + 1, q.harmonic,
+                                                  q.freq_hz, cents.c_str(), q.env.peak.db, q.env.attack_s * ms_per_s);
+            print_segments(os, prefix, q.env);
+        }
+        os << "  cents: off the ideal harmonic n f0 sqrt(1 + B n^2); blank for harmonic 0\n";
+    }
+    if (!p.noise.empty()) {
+        os << "\n  noise     low_hz     high_hz  peak_db  att_ms  decay: T60 to segment end\n";
+        for (std::size_t i = 0; i < p.noise.size(); ++i) {
+            const noise_band& b = p.noise[i];
+            const std::string prefix = printf_str("  %5zu  %9.2f  %10.2f  %7.2f  %6.2f  ", i + 1, b.low_hz, b.high_hz,
+                                                  b.env.peak.db, b.env.attack_s * ms_per_s);
+            print_segments(os, prefix, b.env);
+        }
+    }
+    return os.str();
+}
+
 void add_info_command(CLI::App& app, command_registry& reg) {
-    CLI::App* sub = app.add_subcommand("info", "(not built yet)");
-    sub->allow_extras();
-    reg.add(sub, [] {
-        print_error("'info' is not built yet");
-        return exit_failure;
-    });
+    CLI::App* sub = app.add_subcommand("info", "Show what a patch holds: the note, its partials and noise bands");
+    static std::string patch_path;
+    sub->add_option("PATCH", patch_path, "Patch file (.toml) to describe")->required();
+    sub->footer("Examples:\n  wane info patches/steel-pluck.toml\n  wane info note.toml 2>warnings.txt");
+    reg.add(sub, [] { return run_info(patch_path); });
 }
 
 }  // namespace wane::cli

@@ -1,15 +1,184 @@
-// wane render: placeholder until its issue lands; refuses to run rather than pretend.
+// wane render PATCH -o OUT: audio from a patch (the oscillator bank of src/synthesis/render.hpp).
+// Bad values of --rate and --length-s, and an output that would exceed full scale by more than
+// max_over_full_scale_db, are run-time errors (exit 1, no file written); an unknown --bits or a
+// positive --normalize-db is bad usage (exit 2). Clipping is never silent: a peak over 0 dBFS
+// fails with advice unless --normalize-db scales the render (and says so).
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <optional>
+#include <string>
+#include <vector>
+
 #include "cli/common.hpp"
+#include "core/patch.hpp"
+#include "core/pitch_names.hpp"
+#include "core/units.hpp"
+#include "io/atomic_file.hpp"
+#include "io/audio_file.hpp"
+#include "io/patch_toml.hpp"
+#include "synthesis/render.hpp"
 
 namespace wane::cli {
 
+namespace {
+
+constexpr double default_rate_hz = 48000.0;
+/// A render peaking more than this over full scale is refused even with --normalize-db: no sane
+/// patch is that loud, so something in it (peak_db, gain_db, a rising segment) is wrong.
+constexpr double max_over_full_scale_db = 40.0;
+/// Headroom the clipping advice suggests below full scale.
+constexpr double advice_headroom_db = 1.0;
+
+struct render_options {
+    std::filesystem::path patch_path;
+    std::filesystem::path out_path;
+    double rate_hz = default_rate_hz;
+    std::string bits = "24";
+    std::optional<double> length_s;
+    double gain_db = 0.0;
+    std::optional<double> normalize_db;
+};
+
+std::string printf_str(const char* fmt, auto... args) {
+    char buf[512];
+    std::snprintf(buf, sizeof buf, fmt, args...);
+    return buf;
+}
+
+std::string dbfs_text(double amp) { return printf_str("%+.2f dBFS", to_level(amp_lin{amp}).db); }
+
+const char* format_text(sample_format f) {
+    switch (f) {
+        case sample_format::pcm16: return "16-bit";
+        case sample_format::pcm24: return "24-bit";
+        case sample_format::float32: return "32-bit float";
+    }
+    return "?";
+}
+
+double peak_of(const std::vector<float>& y) {
+    double peak = 0.0;
+    for (const float v : y) {
+        const double a = std::fabs(static_cast<double>(v));
+        if (!(a <= peak)) peak = a;  // also takes NaN, so a broken render cannot hide
+    }
+    return peak;
+}
+
+int run_render(const render_options& o) {
+    // Options first (nothing is read or written before they are all good).
+    const std::optional<sample_format> format = parse_sample_format(o.bits);
+    if (!format) throw usage_error("--bits " + o.bits + ": must be 16, 24 or 32f");
+    if (!(o.rate_hz >= min_render_rate_hz && o.rate_hz <= max_render_rate_hz) ||
+        o.rate_hz != std::round(o.rate_hz)) {
+        throw std::runtime_error(printf_str("--rate %g: must be a whole number of Hz from %.0f to %.0f",
+                                            o.rate_hz, min_render_rate_hz, max_render_rate_hz));
+    }
+    if (o.length_s && !(*o.length_s > 0.0 && *o.length_s <= max_length_s)) {
+        throw std::runtime_error(printf_str("--length-s %g: must be more than 0 and at most %.0f s",
+                                            *o.length_s, max_length_s));
+    }
+    if (!std::isfinite(o.gain_db)) throw usage_error("--gain-db: must be a finite number of dB");
+    if (o.normalize_db && !(*o.normalize_db <= 0.0 && std::isfinite(*o.normalize_db))) {
+        throw usage_error(printf_str("--normalize-db %g: must be at most 0 dBFS", *o.normalize_db));
+    }
+    const std::filesystem::path inputs[] = {o.patch_path};
+    refuse_overwriting_input(o.out_path, inputs);
+
+    const patch_read_result r = read_patch_file(o.patch_path);
+    for (const std::string& w : r.warnings) warn(w);
+    const patch& p = r.value;
+    const render_params params{.sample_rate_hz = o.rate_hz, .length_s = o.length_s.value_or(0.0),
+                               .gain_db = o.gain_db};
+    const std::string patch_name = o.patch_path.string();
+    if (static_cast<double>(render_frames(p, params)) > max_length_s * o.rate_hz) {
+        throw std::runtime_error(patch_name + ": render would last longer than the " +
+                                 printf_str("%.0f", max_length_s) + " s limit");
+    }
+
+    const render_summary summary = summarize_render(p, params);
+    if (summary.noise_bands_not_rendered > 0) {
+        warn(patch_name + ": " + std::to_string(summary.noise_bands_not_rendered) +
+             " noise band(s) not rendered: the noise model is not built yet, rendering the partials only");
+    }
+    if (summary.partials_above_nyquist > 0) {
+        warn(printf_str("%zu of %zu partials are at or above the output Nyquist frequency (%.0f Hz) and "
+                        "are left out; raise --rate to keep them",
+                        summary.partials_above_nyquist, p.partials.size(), 0.5 * o.rate_hz));
+    }
+
+    std::vector<float> y = render_patch(p, params);
+    const double peak = peak_of(y);
+    const double max_peak = to_amp(level_db{max_over_full_scale_db}).lin;
+    if (!(peak <= max_peak)) {
+        throw std::runtime_error(patch_name + ": the render would peak at " +
+                                 (std::isfinite(peak) ? dbfs_text(peak) : std::string("a non-finite level")) +
+                                 printf_str(", more than %.0f dB over full scale; check the patch's "
+                                            "peak_db, gain_db and rising segments (negative t60_s)",
+                                            max_over_full_scale_db));
+    }
+
+    double out_peak = peak;
+    if (o.normalize_db) {
+        if (peak == 0.0) throw std::runtime_error(patch_name + ": the render is silent; nothing to normalize");
+        const double target = to_amp(level_db{*o.normalize_db}).lin;
+        const double scale = target / peak;
+        for (float& v : y) v = static_cast<float>(static_cast<double>(v) * scale);
+        out_peak = peak_of(y);
+        if (out_peak > 1.0) {  // 0 dBFS target, one float rounding over: take it back one step
+            for (float& v : y) v = std::nextafter(v, 0.0F);
+            out_peak = peak_of(y);
+        }
+        say(printf_str("normalized: peak %s -> %s (gain %+.2f dB)", dbfs_text(peak).c_str(),
+                       dbfs_text(out_peak).c_str(), to_level(amp_lin{scale}).db));
+    } else if (peak > 1.0) {
+        const double peak_db = to_level(amp_lin{peak}).db;
+        const double advice_gain_db = o.gain_db - std::ceil((peak_db + advice_headroom_db) * 10.0) / 10.0;
+        throw std::runtime_error(patch_name + ": the render would peak at " + dbfs_text(peak) +
+                                 ", over full scale; use --normalize-db -1 or " +
+                                 printf_str("--gain-db %.1f", advice_gain_db));
+    } else if (peak == 0.0) {
+        warn(patch_name + ": the render is silent");
+    }
+
+    audio_write_options wopts{.format = *format};
+    if (p.note.f0_hz > 0.0) {
+        const double midi = std::round(hz_to_midi(p.note.f0_hz));
+        if (midi >= 0.0 && midi <= 127.0) wopts.root_midi = static_cast<int>(midi);
+    }
+    write_audio(o.out_path, y, o.rate_hz, wopts);
+
+    std::string partials = printf_str("%zu partials", summary.partials_rendered);
+    if (summary.partials_above_nyquist > 0) {
+        partials += printf_str(" (%zu above Nyquist left out)", summary.partials_above_nyquist);
+    }
+    say(printf_str("%s: %.3f s at %.0f Hz, %s, %s, peak %s", o.out_path.string().c_str(),
+                   static_cast<double>(y.size()) / o.rate_hz, o.rate_hz, format_text(*format),
+                   partials.c_str(), dbfs_text(out_peak).c_str()));
+    return exit_ok;
+}
+
+}  // namespace
+
 void add_render_command(CLI::App& app, command_registry& reg) {
-    CLI::App* sub = app.add_subcommand("render", "(not built yet)");
-    sub->allow_extras();
-    reg.add(sub, [] {
-        print_error("'render' is not built yet");
-        return exit_failure;
-    });
+    CLI::App* sub = app.add_subcommand("render", "Render audio from a patch (oscillator bank of damped partials)");
+    static render_options o;
+    sub->add_option("PATCH", o.patch_path, "Patch file (.toml) to render")->required();
+    sub->add_option("-o,--output", o.out_path, "Audio file to write (.wav, .aif/.aiff, .flac)")->required();
+    sub->add_option("--rate", o.rate_hz, "Output sample rate in Hz, 8000 to 192000")->default_val(default_rate_hz);
+    sub->add_option("--bits", o.bits, "Sample format: 16 (with TPDF dither), 24 or 32f")->default_val("24");
+    sub->add_option("--length-s", o.length_s, "Render length in seconds, at most 600 (default: the patch's note.length_s)");
+    sub->add_option("--gain-db", o.gain_db, "Gain in dB, added to the patch's note.gain_db")->default_val(0.0);
+    sub->add_option("--normalize-db", o.normalize_db,
+                    "Scale the render so its peak is at this level in dBFS (at most 0), e.g. -1");
+    sub->footer(
+        "The end of every render fades out over 10 ms (raised cosine). A peak over 0 dBFS is an error\n"
+        "unless --normalize-db is given; one more than 40 dB over full scale is always an error.\n"
+        "Examples:\n"
+        "  wane render patches/steel-pluck.toml -o pluck.wav\n"
+        "  wane render note.toml -o note-44k.wav --rate 44100 --bits 16 --normalize-db -1");
+    reg.add(sub, [] { return run_render(o); });
 }
 
 }  // namespace wane::cli

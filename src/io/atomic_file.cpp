@@ -22,8 +22,13 @@ namespace {
 fs::path temp_sibling(const fs::path& dest) {
     static std::atomic<unsigned> counter{0};
     const fs::path folder = dest.has_parent_path() ? dest.parent_path() : fs::path(".");
-    const std::string name = "." + dest.filename().string() + "." + std::to_string(::getpid()) + "." +
-                             std::to_string(counter.fetch_add(1)) + ".tmp";
+    std::string name = ".";
+    name += dest.filename().string();
+    name += '.';
+    name += std::to_string(::getpid());
+    name += '.';
+    name += std::to_string(counter.fetch_add(1));
+    name += ".tmp";
     return folder / name;
 }
 
@@ -41,7 +46,9 @@ atomic_output::atomic_output(fs::path destination) : dest_(std::move(destination
     const fs::path folder = dest_.has_parent_path() ? dest_.parent_path() : fs::path(".");
     std::error_code ec;
     if (!fs::is_directory(folder, ec)) {
-        throw io_error(dest_.string() + ": output folder '" + folder.string() + "' does not exist");
+        const bool exists = fs::exists(folder, ec);
+        throw io_error(dest_.string() + ": output folder '" + folder.string() +
+                       (exists ? "' is not a folder" : "' does not exist"));
     }
     if (fs::is_directory(dest_, ec)) throw io_error(dest_.string() + ": is a directory");
 }

@@ -7,18 +7,21 @@
 #include <optional>
 #include <span>
 #include <string>
+#include <string_view>
 #include <vector>
 
 namespace wane {
 
 struct audio_read_options {
     /// 1-based channel to take; empty mixes all channels to mono (mean).
-    std::optional<int> channel;
+    std::optional<int> channel{};
     /// Longest input accepted, in seconds (refused with the limit named beyond it).
     double max_length_s = 1800.0;
 };
 
 struct mono_audio {
+    /// Integer PCM reads into [-1, 1) (v / 2^(bits-1)); float files are passed on unchanged and
+    /// may exceed full scale.
     std::vector<float> samples;
     double sample_rate_hz = 0.0;
     int source_channels = 0;
@@ -35,18 +38,29 @@ enum class sample_format { pcm16, pcm24, float32 };
 struct audio_write_options {
     sample_format format = sample_format::pcm24;
     /// MIDI root note stored in the file's instrument chunk (WAV/AIFF), when set.
-    std::optional<int> root_midi;
+    std::optional<int> root_midi{};
     /// Seed of the TPDF dither applied when writing 16-bit PCM (deterministic output).
     std::uint64_t dither_seed = 0x77616e65;
+    /// TPDF dither for 16-bit PCM (on by default). Off rounds to the nearest step, so samples
+    /// already on the 16-bit grid come back bit-exact.
+    bool dither = true;
 };
 
 /// Writes mono samples; the container follows the extension (.wav, .aif/.aiff, .flac). Atomic.
-/// Samples beyond full scale are the caller's business: check the peak first (never clip silently).
+/// Samples beyond full scale are the caller's business: check the peak first (never clip silently);
+/// as the last guard, a peak above 1.0 (or a NaN/Inf sample) throws io_error stating the peak in
+/// dBFS and writes nothing. Scaling follows libsndfile's: 16-bit v = x * 2^15, 24-bit v = x * 2^23
+/// (x = +1.0 lands on the top step, 2^15 - 1 resp. 2^23 - 1). The root note is stored for WAV and
+/// AIFF only (FLAC has no instrument chunk).
 void write_audio(const std::filesystem::path& path, std::span<const float> samples,
                  double sample_rate_hz, const audio_write_options& options = {});
 
+/// The root note of a file's instrument chunk (WAV smpl / AIFF INST), if it has one. Throws
+/// io_error naming the file when it cannot be opened.
+std::optional<int> read_root_midi(const std::filesystem::path& path);
+
 /// Best-quality sinc resampling (libsamplerate SRC_SINC_BEST_QUALITY). Returns the input
-/// unchanged when the rates are equal.
+/// unchanged when the rates are equal. The output has round(n * to / from) samples.
 std::vector<float> resample(std::span<const float> samples, double from_rate_hz, double to_rate_hz);
 
 /// Parses "16", "24", "32f" (the --bits option). Empty for anything else.

@@ -1,7 +1,15 @@
 // Rendering a patch to samples: an oscillator bank of exponentially damped sinusoids (plus the
 // noise bands, once the noise model lands). Owned by the renderer work.
+//
+// What a render is (the patch format v1 formula, evaluated at t = n / sample_rate_hz, n = 0, 1, ...):
+//   y(t) = G * sum over partials k of  band_limit_gain(f_k) * A_k(t) * cos(2 pi f_k t + phase_k)
+//   A_k(t): the partial's envelope (core/envelope.hpp): linear attack ramp from 0 at t = 0 to the
+//           peak at attack_s, then straight dB segments;
+//   G = 10^((note.gain_db + params.gain_db) / 20);
+// then the last end_fade_s of the render is multiplied by a raised-cosine fade to 0.
 #pragma once
 
+#include <cstddef>
 #include <cstdint>
 #include <vector>
 
@@ -18,7 +26,56 @@ struct render_params {
     std::uint64_t noise_seed = 1;
 };
 
-/// Renders the patch to mono float samples at params.sample_rate_hz. Deterministic.
+/// Output rates the renderer accepts (the CLI validates --rate against these).
+inline constexpr double min_render_rate_hz = 8000.0;
+inline constexpr double max_render_rate_hz = 192000.0;
+
+/// Band limiting: a partial at or above the output Nyquist frequency is left out; from this
+/// fraction of Nyquist up to Nyquist its amplitude is faded by a raised cosine (1 -> 0).
+inline constexpr double band_fade_start_fraction = 0.95;
+/// Length of the raised-cosine fade at the end of every render.
+inline constexpr double end_fade_s = 0.010;
+/// The oscillator state is re-anchored from exact double-precision values at least this often
+/// (and at every envelope segment boundary).
+inline constexpr std::size_t render_anchor_frames = 1024;
+/// Independent oscillator lanes per partial: lane l holds z_(n+l), all advanced by m^render_lanes,
+/// so a lane runs render_anchor_frames / render_lanes float steps between exact anchors.
+inline constexpr std::size_t render_lanes = 32;
+/// Below this level a partial's stretch of samples is left out: far below any output format's
+/// resolution (float32 output of a full-scale signal resolves ~ -150 dB).
+inline constexpr level_db render_silence_level{-300.0};
+
+/// Gain of the band-limit fade for a partial at freq_hz (one home of the formula):
+///   1 below band_fade_start_fraction * nyquist, 0 at or above nyquist, and between them
+///   0.5 * (1 + cos(pi * (f - f_start) / (nyquist - f_start))), continuous with continuous slope.
+double band_limit_gain(double freq_hz, double sample_rate_hz);
+
+/// Gain of the end fade at frame n of a render of total_frames (one home of the formula): 1
+/// before the last fade_frames = min(total, round(end_fade_s * rate)); for the k-th of them
+/// (k = 0 .. fade_frames - 1): 0.5 * (1 + cos(pi * (k + 1) / fade_frames)), so the last sample is 0.
+double end_fade_gain(std::size_t n, std::size_t total_frames, double sample_rate_hz);
+
+/// Number of frames a render lasts: round(length_s * sample_rate_hz), length_s from params or the
+/// patch's note.length_s.
+std::size_t render_frames(const patch& p, const render_params& params);
+
+/// Renders the patch to mono float samples at params.sample_rate_hz. Deterministic: the same
+/// patch and params give bit-identical samples (also across the vectorized and generic kernels:
+/// the kernels use no fused multiply-add and no reassociation).
+/// Preconditions (asserted): a valid patch, rate in [min_render_rate_hz, max_render_rate_hz],
+/// render length in (0, max_length_s].
+/// Noise bands (patch.noise) are not rendered yet: see render_summary::noise_bands_not_rendered.
 std::vector<float> render_patch(const patch& p, const render_params& params);
+
+/// What a render will contain, for messages (cheap: no samples computed).
+struct render_summary {
+    std::size_t frames = 0;
+    std::size_t partials_rendered = 0;      ///< below Nyquist, with a non-zero peak
+    std::size_t partials_above_nyquist = 0; ///< left out: at or above the output Nyquist
+    std::size_t partials_faded = 0;         ///< inside the band-limit fade zone (attenuated)
+    /// Noise bands in the patch that this renderer leaves out (the noise model is a later issue).
+    std::size_t noise_bands_not_rendered = 0;
+};
+render_summary summarize_render(const patch& p, const render_params& params);
 
 }  // namespace wane

@@ -1,0 +1,375 @@
+// The oscillator bank. Each partial's samples are cut into spans with one closed form each: the
+// attack (linear ramp times a unit phasor) and one span per decay segment (exponential times a
+// phasor). Within a span the partial is Re(z_n) with z_{n+1} = m z_n, m = r e^(j w) constant.
+//
+// Layout: the output is computed in blocks of render_anchor_frames. For every block and span the
+// oscillator is anchored from the exact double-precision value (std::exp and std::cos/sin of the
+// formula at the block's first frame), split into `lanes` independent lanes holding z * m^l
+// (l = 0 .. lanes-1, m^l precomputed in double at plan time), and each lane is advanced by m^lanes
+// (rounded to float). The lane loop has no dependency between lanes, so the compiler vectorizes
+// it; there is no branch and no libm call per sample. Partials add into a float block buffer,
+// flushed every partials_per_flush partials into a double block accumulator.
+//
+// Float error budget (bounded, does not grow with render length): a lane runs at most
+// render_anchor_frames / render_lanes = 32 steps from its exact anchor, each step one float complex
+// multiply (relative error ~ 2^-24 each) with the float-rounded m^lanes (~ 2^-24 systematic), so
+// the relative error stays below ~32 * 2 * 2^-24 ~ 3.8e-6 (-108 dB) in the worst case and is far
+// smaller on average (error energy -128 dB in tests/unit/test_render.cpp).
+#include "synthesis/render.hpp"
+
+#include <algorithm>
+#include <array>
+#include <cassert>
+#include <cmath>
+#include <complex>
+#include <cstring>
+#include <numbers>
+
+namespace wane {
+
+namespace {
+
+/// Independent oscillator lanes per partial: 4 vectors of 8 floats per component, i.e. four
+/// independent dependency chains, enough to keep the multipliers busy.
+constexpr std::size_t lanes = render_lanes;
+static_assert(render_anchor_frames % lanes == 0);
+/// Partials summed in the float block buffer before it is added to the double accumulator.
+constexpr std::size_t partials_per_flush = 32;
+/// Nepers of amplitude per dB: ln(10) / 20.
+constexpr double neper_per_db = 1.0 / db_per_neper;
+/// The silence floor in nepers of amplitude.
+constexpr double ln_silence_amp = render_silence_level.db * neper_per_db;
+
+#if defined(__x86_64__) && defined(__has_attribute)
+#if __has_attribute(target_clones)
+// AVX2 without FMA on purpose: both clones then do the same IEEE operations, bit for bit.
+#define WANE_KERNEL_CLONES __attribute__((target_clones("avx2", "default")))
+#endif
+#endif
+#ifndef WANE_KERNEL_CLONES
+#define WANE_KERNEL_CLONES
+#endif
+
+/// The kernels' vector type: 8 floats (one AVX register, two SSE registers in the generic clone).
+/// GCC/Clang vector extensions: the lane arithmetic is written once and each clone gets the
+/// instructions of its target; element-wise IEEE operations, so every clone gives the same bits.
+using vfloat = float __attribute__((vector_size(32)));
+constexpr std::size_t vfloat_width = 8;
+static_assert(lanes % vfloat_width == 0);
+constexpr std::size_t lane_vectors = lanes / vfloat_width;
+
+// Unaligned load/store of a vfloat (through references: no vector passes by value, so no ABI
+// question between the clones).
+[[gnu::always_inline]] inline void load_v(vfloat& v, const float* p) { std::memcpy(&v, p, sizeof v); }
+[[gnu::always_inline]] inline void store_v(float* p, const vfloat& v) { std::memcpy(p, &v, sizeof v); }
+
+// Hot kernel, decay span: out[k] += Re(z_k) for k < frames; lane l holds z_{s*lanes+l} at step s
+// and is advanced by the complex factor step = m^lanes after use. re0/im0: initial lane states.
+WANE_KERNEL_CLONES
+void add_damped(float* __restrict out, std::size_t frames, const float* __restrict re0,
+                const float* __restrict im0, float step_re, float step_im) {
+    vfloat re[lane_vectors];
+    vfloat im[lane_vectors];
+    for (std::size_t v = 0; v < lane_vectors; ++v) {
+        load_v(re[v], re0 + v * vfloat_width);
+        load_v(im[v], im0 + v * vfloat_width);
+    }
+    const std::size_t steps = frames / lanes;
+    for (std::size_t s = 0; s < steps; ++s) {
+        float* o = out + s * lanes;
+        for (std::size_t v = 0; v < lane_vectors; ++v) {
+            vfloat acc;
+            load_v(acc, o + v * vfloat_width);
+            store_v(o + v * vfloat_width, acc + re[v]);
+            const vfloat nr = re[v] * step_re - im[v] * step_im;
+            const vfloat ni = re[v] * step_im + im[v] * step_re;
+            re[v] = nr;
+            im[v] = ni;
+        }
+    }
+    float tail[lanes];
+    std::memcpy(tail, re, sizeof tail);
+    float* o = out + steps * lanes;
+    for (std::size_t l = 0; l < frames - steps * lanes; ++l) o[l] += tail[l];
+}
+
+// Hot kernel, attack span: out[k] += a_k Re(z_k) with a unit phasor z and a linear amplitude a;
+// lane amplitudes advance by the additive increment amp_step (= lanes * amplitude per frame).
+WANE_KERNEL_CLONES
+void add_ramped(float* __restrict out, std::size_t frames, const float* __restrict re0,
+                const float* __restrict im0, const float* __restrict amp0, float step_re,
+                float step_im, float amp_step) {
+    vfloat re[lane_vectors];
+    vfloat im[lane_vectors];
+    vfloat amp[lane_vectors];
+    for (std::size_t v = 0; v < lane_vectors; ++v) {
+        load_v(re[v], re0 + v * vfloat_width);
+        load_v(im[v], im0 + v * vfloat_width);
+        load_v(amp[v], amp0 + v * vfloat_width);
+    }
+    const std::size_t steps = frames / lanes;
+    for (std::size_t s = 0; s < steps; ++s) {
+        float* o = out + s * lanes;
+        for (std::size_t v = 0; v < lane_vectors; ++v) {
+            vfloat acc;
+            load_v(acc, o + v * vfloat_width);
+            store_v(o + v * vfloat_width, acc + amp[v] * re[v]);
+            const vfloat nr = re[v] * step_re - im[v] * step_im;
+            const vfloat ni = re[v] * step_im + im[v] * step_re;
+            re[v] = nr;
+            im[v] = ni;
+            amp[v] += amp_step;
+        }
+    }
+    float tail_re[lanes];
+    float tail_amp[lanes];
+    std::memcpy(tail_re, re, sizeof tail_re);
+    std::memcpy(tail_amp, amp, sizeof tail_amp);
+    float* o = out + steps * lanes;
+    for (std::size_t l = 0; l < frames - steps * lanes; ++l) o[l] += tail_amp[l] * tail_re[l];
+}
+
+enum class span_kind : unsigned char { ramp, decay };
+
+/// One stretch of frames [begin, end) of a partial with a single closed form.
+///   ramp:  A(n) = amp_per_frame * n                          (the attack; A(0) = 0)
+///   decay: ln A(n) = ln_amp_begin + ln_amp_per_frame * (n - begin)    (nepers)
+/// The per-frame phasor factor is m = exp(ln_amp_per_frame) e^(j 2 pi f / rate); m_pow holds m^l
+/// for l < lanes (exact double, as re/im arrays), step = m^lanes rounded to float.
+struct span {
+    std::size_t begin = 0;
+    std::size_t end = 0;
+    span_kind kind = span_kind::decay;
+    double amp_per_frame = 0.0;
+    double ln_amp_begin = 0.0;
+    double ln_amp_per_frame = 0.0;
+    std::array<double, lanes> m_pow_re{};
+    std::array<double, lanes> m_pow_im{};
+    float step_re = 1.0F;
+    float step_im = 0.0F;
+};
+
+/// First frame n with n / rate >= time_s (the frame that a boundary at time_s belongs to), with
+/// t = n / rate evaluated exactly as the formula's definition does. time_s >= 0.
+std::size_t first_frame_at_or_after(double time_s, double rate_hz, std::size_t total_frames) {
+    if (!(time_s * rate_hz < static_cast<double>(total_frames))) return total_frames;
+    auto n = static_cast<std::size_t>(std::ceil(time_s * rate_hz));
+    while (n > 0 && static_cast<double>(n - 1) / rate_hz >= time_s) --n;
+    while (static_cast<double>(n) / rate_hz < time_s) ++n;
+    return std::min(n, total_frames);
+}
+
+/// Exact per-frame powers m^l, l < lanes, and m^lanes in float, for a phasor rotating
+/// w = 2 pi cycles_per_frame rad per frame and changing by ln_amp_per_frame nepers per frame.
+void set_phasor_powers(span& s, double cycles_per_frame, double ln_amp_per_frame) {
+    const double w_rad = two_pi * cycles_per_frame;
+    for (std::size_t l = 0; l < lanes; ++l) {
+        const double dl = static_cast<double>(l);
+        const std::complex<double> m_l = std::polar(std::exp(ln_amp_per_frame * dl), w_rad * dl);
+        s.m_pow_re[l] = m_l.real();
+        s.m_pow_im[l] = m_l.imag();
+    }
+    const double dl = static_cast<double>(lanes);
+    const std::complex<double> step = std::polar(std::exp(ln_amp_per_frame * dl), w_rad * dl);
+    s.step_re = static_cast<float>(step.real());
+    s.step_im = static_cast<float>(step.imag());
+}
+
+/// The render plan: per partial (structs of arrays) and the flat list of spans.
+struct render_plan {
+    std::size_t frames = 0;
+    std::vector<double> gain_lin;          ///< overall gain times band-limit gain
+    std::vector<double> ln_gain;           ///< ln(gain_lin), nepers
+    std::vector<double> cycles_per_frame;  ///< f / rate
+    std::vector<double> phase_rad;
+    std::vector<std::size_t> span_first;
+    std::vector<std::size_t> span_last;    ///< one past the partial's last span
+    std::vector<span> spans;
+};
+
+render_plan make_plan(const patch& p, const render_params& params) {
+    const double rate = params.sample_rate_hz;
+    render_plan plan;
+    plan.frames = render_frames(p, params);
+    const double total_gain = to_amp(level_db{p.note.gain_db + params.gain_db}).lin;
+    for (const partial& part : p.partials) {
+        const double band_gain = band_limit_gain(part.freq_hz, rate);
+        const double peak_amp = to_amp(part.env.peak).lin;
+        if (band_gain <= 0.0 || !(peak_amp > 0.0)) continue;
+        const double cpf = part.freq_hz / rate;
+        plan.gain_lin.push_back(total_gain * band_gain);
+        plan.ln_gain.push_back(std::log(total_gain * band_gain));
+        plan.cycles_per_frame.push_back(cpf);
+        plan.phase_rad.push_back(part.phase_rad);
+        plan.span_first.push_back(plan.spans.size());
+
+        const std::size_t attack_end = first_frame_at_or_after(part.env.attack_s, rate, plan.frames);
+        if (attack_end > 0) {
+            span s{.begin = 0, .end = attack_end, .kind = span_kind::ramp,
+                   // A(t) = peak * t / attack_s with t = n / rate
+                   .amp_per_frame = peak_amp / (part.env.attack_s * rate)};
+            set_phasor_powers(s, cpf, 0.0);
+            plan.spans.push_back(s);
+        }
+        for (const envelope_piece& piece : envelope_pieces(part.env)) {
+            const std::size_t begin = first_frame_at_or_after(piece.start_s, rate, plan.frames);
+            const std::size_t end = std::isinf(piece.end_s)
+                                        ? plan.frames
+                                        : first_frame_at_or_after(piece.end_s, rate, plan.frames);
+            if (begin >= end) continue;
+            // level(t) = start_level + slope (t - start_s) in dB; ln A = level * ln(10) / 20.
+            const double t_begin_s = static_cast<double>(begin) / rate;
+            span s{.begin = begin, .end = end, .kind = span_kind::decay,
+                   .ln_amp_begin = neper_per_db *
+                                   (piece.start_level.db + piece.slope_db_per_s * (t_begin_s - piece.start_s)),
+                   .ln_amp_per_frame = neper_per_db * piece.slope_db_per_s / rate};
+            set_phasor_powers(s, cpf, s.ln_amp_per_frame);
+            plan.spans.push_back(s);
+        }
+        plan.span_last.push_back(plan.spans.size());
+    }
+    return plan;
+}
+
+/// Exact unit phasor e^(j (2 pi f n / rate + phase)) at frame n; the phase in cycles is reduced
+/// modulo 1 before scaling so it keeps full double precision over long renders.
+std::complex<double> exact_phasor(double cycles_per_frame, double phase_rad, std::size_t n) {
+    double cycles = static_cast<double>(n) * cycles_per_frame;
+    cycles -= std::floor(cycles);
+    return std::polar(1.0, two_pi * cycles + phase_rad);
+}
+
+/// Lane anchors z m^l (l < lanes) in double from the exact anchor z = (z_re, z_im), rounded to float.
+void set_lane_anchors(const span& s, double z_re, double z_im, float* re, float* im) {
+    for (std::size_t l = 0; l < lanes; ++l) {
+        re[l] = static_cast<float>(z_re * s.m_pow_re[l] - z_im * s.m_pow_im[l]);
+        im[l] = static_cast<float>(z_re * s.m_pow_im[l] + z_im * s.m_pow_re[l]);
+    }
+}
+
+/// Adds one partial's frames [from, to) (inside span s) to block (block[0] is frame block_begin).
+/// Anchors every lane from exact double values at `from`.
+void add_span_part(const render_plan& plan, std::size_t k, const span& s, std::size_t from,
+                   std::size_t to, std::size_t block_begin, float* block) {
+    alignas(32) float re[lanes];
+    alignas(32) float im[lanes];
+    const std::complex<double> z = exact_phasor(plan.cycles_per_frame[k], plan.phase_rad[k], from);
+    if (s.kind == span_kind::decay) {
+        const double ln_from = plan.ln_gain[k] + s.ln_amp_begin +
+                               s.ln_amp_per_frame * static_cast<double>(from - s.begin);
+        const double ln_last = ln_from + s.ln_amp_per_frame * static_cast<double>(to - 1 - from);
+        // Skip stretches entirely below the silence floor (the envelope is monotone in a span).
+        if (std::max(ln_from, ln_last) < ln_silence_amp) return;
+        const double amp = std::exp(ln_from);
+        set_lane_anchors(s, amp * z.real(), amp * z.imag(), re, im);
+        add_damped(block + (from - block_begin), to - from, re, im, s.step_re, s.step_im);
+    } else {
+        alignas(32) float amp[lanes];
+        const double amp_per_frame = plan.gain_lin[k] * s.amp_per_frame;
+        set_lane_anchors(s, z.real(), z.imag(), re, im);
+        for (std::size_t l = 0; l < lanes; ++l) {
+            amp[l] = static_cast<float>(amp_per_frame * static_cast<double>(from + l));
+        }
+        add_ramped(block + (from - block_begin), to - from, re, im, amp, s.step_re, s.step_im,
+                   static_cast<float>(amp_per_frame * static_cast<double>(lanes)));
+    }
+}
+
+}  // namespace
+
+double band_limit_gain(double freq_hz, double sample_rate_hz) {
+    const double nyquist_hz = 0.5 * sample_rate_hz;
+    const double fade_start_hz = band_fade_start_fraction * nyquist_hz;
+    if (freq_hz >= nyquist_hz) return 0.0;
+    if (freq_hz <= fade_start_hz) return 1.0;
+    return 0.5 * (1.0 + std::cos(pi * (freq_hz - fade_start_hz) / (nyquist_hz - fade_start_hz)));
+}
+
+double end_fade_gain(std::size_t n, std::size_t total_frames, double sample_rate_hz) {
+    const auto fade_frames = std::min(total_frames,
+                                      static_cast<std::size_t>(std::llround(end_fade_s * sample_rate_hz)));
+    assert(n < total_frames);
+    const std::size_t fade_begin = total_frames - fade_frames;
+    if (n < fade_begin) return 1.0;
+    const double k = static_cast<double>(n - fade_begin);
+    return 0.5 * (1.0 + std::cos(pi * (k + 1.0) / static_cast<double>(fade_frames)));
+}
+
+std::size_t render_frames(const patch& p, const render_params& params) {
+    const double length_s = params.length_s > 0.0 ? params.length_s : p.note.length_s;
+    return static_cast<std::size_t>(std::llround(length_s * params.sample_rate_hz));
+}
+
+std::vector<float> render_patch(const patch& p, const render_params& params) {
+    assert(params.sample_rate_hz >= min_render_rate_hz && params.sample_rate_hz <= max_render_rate_hz);
+    assert(p.partials.size() <= max_partials);
+    const render_plan plan = make_plan(p, params);
+    assert(plan.frames > 0 &&
+           static_cast<double>(plan.frames) <= max_length_s * params.sample_rate_hz + 1.0);
+
+    std::vector<float> out(plan.frames);
+    const std::size_t partial_count = plan.gain_lin.size();
+    std::vector<std::size_t> cursor(plan.span_first);  // first span not yet finished
+    alignas(64) std::array<float, render_anchor_frames> block_f{};
+    alignas(64) std::array<double, render_anchor_frames> block_d{};
+
+    for (std::size_t b0 = 0; b0 < plan.frames; b0 += render_anchor_frames) {
+        const std::size_t b1 = std::min(b0 + render_anchor_frames, plan.frames);
+        const std::size_t n = b1 - b0;
+        block_f.fill(0.0F);
+        std::size_t since_flush = 0;
+        bool first_flush = true;
+        auto flush = [&] {
+            if (first_flush) {
+                for (std::size_t i = 0; i < n; ++i) block_d[i] = static_cast<double>(block_f[i]);
+            } else {
+                for (std::size_t i = 0; i < n; ++i) block_d[i] += static_cast<double>(block_f[i]);
+            }
+            first_flush = false;
+            block_f.fill(0.0F);
+            since_flush = 0;
+        };
+        for (std::size_t k = 0; k < partial_count; ++k) {
+            std::size_t& c = cursor[k];
+            while (c < plan.span_last[k] && plan.spans[c].end <= b0) ++c;
+            for (std::size_t si = c; si < plan.span_last[k] && plan.spans[si].begin < b1; ++si) {
+                const span& s = plan.spans[si];
+                const std::size_t from = std::max(s.begin, b0);
+                const std::size_t to = std::min(s.end, b1);
+                if (from < to) add_span_part(plan, k, s, from, to, b0, block_f.data());
+            }
+            if (++since_flush == partials_per_flush) flush();
+        }
+        if (since_flush > 0 || first_flush) flush();
+        for (std::size_t i = 0; i < n; ++i) out[b0 + i] = static_cast<float>(block_d[i]);
+    }
+
+    // Hook for the noise bands (patch.noise): the noise model is a later issue; until it lands the
+    // bands are not rendered and summarize_render().noise_bands_not_rendered says how many.
+
+    const auto fade_frames = std::min(plan.frames,
+                                      static_cast<std::size_t>(std::llround(end_fade_s * params.sample_rate_hz)));
+    for (std::size_t i = plan.frames - fade_frames; i < plan.frames; ++i) {
+        out[i] = static_cast<float>(static_cast<double>(out[i]) * end_fade_gain(i, plan.frames, params.sample_rate_hz));
+    }
+    return out;
+}
+
+render_summary summarize_render(const patch& p, const render_params& params) {
+    render_summary s;
+    s.frames = render_frames(p, params);
+    for (const partial& part : p.partials) {
+        const double g = band_limit_gain(part.freq_hz, params.sample_rate_hz);
+        if (g <= 0.0) {
+            ++s.partials_above_nyquist;
+            continue;
+        }
+        if (!(to_amp(part.env.peak).lin > 0.0)) continue;
+        ++s.partials_rendered;
+        if (g < 1.0) ++s.partials_faded;
+    }
+    s.noise_bands_not_rendered = params.include_noise ? p.noise.size() : 0;
+    return s;
+}
+
+}  // namespace wane
