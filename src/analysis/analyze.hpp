@@ -4,6 +4,7 @@
 #include <span>
 #include <string>
 
+#include "analysis/noise_model.hpp"
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "tracking/tracker.hpp"
@@ -17,6 +18,8 @@ struct analysis_params {
     double end_s = 0.0;       ///< 0 = to the end
     std::string source_file;  ///< recorded in [source].file
     std::string note_name;    ///< [note].name
+    bool noise_model = true;  ///< fit [[noise]] bands to the residual (analysis/noise_model.hpp)
+    noise_model_params noise{};
 };
 
 struct analysis_summary {
