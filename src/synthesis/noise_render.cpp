@@ -28,6 +28,9 @@ struct splitmix64 {
     }
 };
 
+/// Frames overlap four times: Hann^2 windows sum to a constant at hop N/4, so the power follows
+/// the envelopes without ripple, and Hann's low sidelobes keep the bands' skirts steep.
+constexpr int synthesis_overlap = 4;
 constexpr int phase_table_bits = 12;
 constexpr std::size_t phase_table_size = std::size_t{1} << phase_table_bits;
 /// Frames whose every band is this far below full scale are skipped (silent, costs nothing).
@@ -66,16 +69,16 @@ void add_noise_bands(std::span<const noise_band> bands, const noise_render_param
     if (bands.empty() || out.empty()) return;
     static const unit_phasors phasors;
     const int n_fft = noise_frame_size(params.sample_rate_hz, params.frame_s);
-    const int hop = n_fft / 2;
+    const int hop = n_fft / synthesis_overlap;
     const int n_bins = n_fft / 2 + 1;
     const double bin_hz = params.sample_rate_hz / n_fft;
     const double nyquist_hz = params.sample_rate_hz / 2.0;
 
-    // Sine window; sum(w^2) = N/2, and w^2 overlap-added at hop N/2 is exactly 1.
+    // Periodic Hann window; w^2 overlap-added at hop N/4 is exactly 3/2 = sum(w^2) / hop.
     std::vector<float> window(static_cast<std::size_t>(n_fft));
     double window_power_sum = 0.0;
     for (int n = 0; n < n_fft; ++n) {
-        const double w = std::sin(pi * (n + 0.5) / n_fft);
+        const double w = 0.5 - 0.5 * std::cos(two_pi * n / n_fft);
         window[static_cast<std::size_t>(n)] = static_cast<float>(w);
         window_power_sum += w * w;
     }

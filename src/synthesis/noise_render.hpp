@@ -1,8 +1,10 @@
 // Band noise of a patch's [[noise]] tables, by spectral shaping: short frames of random-phase
-// spectra whose bin magnitudes follow each band's envelope, inverse real FFT (KissFFT), sine
-// window, overlap-add at half the frame (sine^2 windows at 50% overlap sum to exactly 1, so the
+// spectra whose bin magnitudes follow each band's envelope, inverse real FFT (KissFFT), Hann
+// window, overlap-add at a quarter frame (Hann^2 windows at 75% overlap sum to a constant, so the
 // power follows the envelopes without ripple). Band-limited by construction: only bins inside a
-// band carry energy. Seeded and deterministic.
+// band carry energy, and the Hann window's sidelobes keep the skirts low (measured in
+// tests/unit/test_noise.cpp). Seeded and deterministic; frames where every band is below
+// -160 dB are skipped, so attack noise costs only while it sounds.
 #pragma once
 
 #include <cstdint>
