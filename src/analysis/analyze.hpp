@@ -5,6 +5,7 @@
 #include <string>
 
 #include "core/patch.hpp"
+#include "fitting/envelope_fit.hpp"
 #include "tracking/tracker.hpp"
 
 namespace wane {
@@ -21,7 +22,9 @@ struct analysis_params {
 struct analysis_summary {
     int partials = 0;
     int segments = 0;          ///< total decay segments over all partials
-    double fit_error_db = 0.0; ///< RMS error of the envelope fits, dB
+    double fit_error_db = 0.0; ///< RMS error of the envelope fits over all fitted frames, dB
+    int tracks = 0;            ///< tracks the tracker returned
+    int unfitted = 0;          ///< tracks dropped: fewer than two frames clear of the floor
 };
 
 struct analysis_result {
@@ -29,6 +32,9 @@ struct analysis_result {
     tracking_result tracking;
     analysis_summary summary;
 };
+
+/// Largest number of decay segments per partial the fit supports (--max-segments).
+inline constexpr int max_decay_segments = max_fit_segments;
 
 /// Throws std::invalid_argument with a user-facing reason when the sound cannot be analyzed.
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,

@@ -1,15 +1,224 @@
-// wane analyze: placeholder until its issue lands; refuses to run rather than pretend.
+// wane analyze IN... -o OUT: recordings -> patches. One input writes the patch file OUT; several
+// write OUT/<stem>.toml each, files processed in parallel (a pool of std::threads over the files).
+// A file that fails is reported on one line and skipped; the exit code is 1 if any failed.
+#include <algorithm>
+#include <atomic>
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <map>
+#include <mutex>
+#include <optional>
+#include <sstream>
+#include <string>
+#include <thread>
+#include <vector>
+
+#include "analysis/analyze.hpp"
 #include "cli/common.hpp"
+#include "core/patch.hpp"
+#include "io/atomic_file.hpp"
+#include "io/audio_file.hpp"
+#include "io/errors.hpp"
+#include "io/patch_toml.hpp"
+#include "io/progress.hpp"
 
 namespace wane::cli {
 
+namespace {
+
+namespace fs = std::filesystem;
+
+/// Bounds of the options (validated before any work).
+constexpr double max_f0_hz = 20000.0;
+constexpr int min_fft_size = 16;
+constexpr int max_fft_size = 1 << 20;
+constexpr double max_window_s = 10.0;
+constexpr int max_jobs = 256;
+constexpr const char* patch_extension = ".toml";
+
+struct analyze_options {
+    std::vector<std::string> inputs;
+    std::string output;
+    std::optional<double> f0_hz;
+    int max_partials = tracking_params{}.max_partials;
+    int max_segments = analysis_params{}.max_segments;
+    double start_s = 0.0;
+    std::optional<double> end_s;
+    std::optional<int> channel;
+    std::optional<double> window_s;
+    std::optional<int> fft_size;
+    std::optional<double> hop_s;
+    std::optional<std::string> name;
+    std::optional<int> jobs;
+};
+
+std::string num(double v) {
+    std::ostringstream os;
+    os << v;
+    return os.str();
+}
+
+void validate(const analyze_options& o) {
+    if (o.f0_hz && !(*o.f0_hz > 0.0 && *o.f0_hz <= max_f0_hz))
+        throw usage_error("--f0 " + num(*o.f0_hz) + ": must be above 0 and at most " + num(max_f0_hz) + " Hz");
+    if (o.max_partials < 1 || o.max_partials > static_cast<int>(max_partials))
+        throw usage_error("--max-partials " + std::to_string(o.max_partials) + ": must be 1.." +
+                          std::to_string(max_partials));
+    if (o.max_segments < 1 || o.max_segments > max_decay_segments)
+        throw usage_error("--max-segments " + std::to_string(o.max_segments) + ": must be 1.." +
+                          std::to_string(max_decay_segments));
+    if (!(o.start_s >= 0.0 && std::isfinite(o.start_s)))
+        throw usage_error("--start-s " + num(o.start_s) + ": must be 0 or more");
+    if (o.end_s && !(*o.end_s > o.start_s))
+        throw usage_error("--end-s " + num(*o.end_s) + ": must be after --start-s (" + num(o.start_s) + ")");
+    if (o.channel && *o.channel < 1) throw usage_error("--channel " + std::to_string(*o.channel) + ": channels count from 1");
+    if (o.window_s && !(*o.window_s > 0.0 && *o.window_s <= max_window_s))
+        throw usage_error("--window-s " + num(*o.window_s) + ": must be above 0 and at most " + num(max_window_s) + " s");
+    if (o.fft_size) {
+        const int n = *o.fft_size;
+        if (n < min_fft_size || n > max_fft_size || n % 2 != 0)
+            throw usage_error("--fft-size " + std::to_string(n) + ": must be even, from " +
+                              std::to_string(min_fft_size) + " to " + std::to_string(max_fft_size));
+    }
+    if (o.hop_s && !(*o.hop_s > 0.0 && *o.hop_s <= max_window_s))
+        throw usage_error("--hop-s " + num(*o.hop_s) + ": must be above 0 and at most " + num(max_window_s) + " s");
+    if (o.window_s && o.hop_s && *o.hop_s > *o.window_s)
+        throw usage_error("--hop-s " + num(*o.hop_s) + ": must not exceed --window-s " + num(*o.window_s));
+    if (o.jobs && (*o.jobs < 1 || *o.jobs > max_jobs))
+        throw usage_error("--jobs " + std::to_string(*o.jobs) + ": must be 1.." + std::to_string(max_jobs));
+    if (o.name && o.inputs.size() > 1) throw usage_error("--name applies to one input only (several given)");
+}
+
+struct job {
+    fs::path input;
+    fs::path output;
+};
+
+/// Output path of each input: OUT itself for one input (OUT/<stem>.toml when OUT is a folder),
+/// OUT/<stem>.toml for several (OUT is created when missing; its parent must exist).
+std::vector<job> plan_jobs(const analyze_options& o) {
+    const fs::path out(o.output);
+    std::vector<fs::path> inputs(o.inputs.begin(), o.inputs.end());
+    std::vector<job> jobs;
+    std::error_code ec;
+    const bool out_is_dir = fs::is_directory(out, ec);
+    if (inputs.size() == 1 && !out_is_dir) {
+        jobs.push_back({inputs[0], out});
+    } else {
+        if (!out_is_dir) {
+            if (fs::exists(out, ec)) throw io_error(out.string() + ": several inputs need an output folder, this is a file");
+            const fs::path parent = out.has_parent_path() ? out.parent_path() : fs::path(".");
+            if (!fs::is_directory(parent, ec))
+                throw io_error(out.string() + ": output folder's parent '" + parent.string() + "' does not exist");
+        }
+        std::map<std::string, fs::path> seen;
+        for (const fs::path& in : inputs) {
+            const std::string stem = in.stem().string();
+            if (auto it = seen.find(stem); it != seen.end())
+                throw usage_error("inputs '" + it->second.string() + "' and '" + in.string() + "' would both write " +
+                                  (out / (stem + patch_extension)).string());
+            seen.emplace(stem, in);
+            jobs.push_back({in, out / (stem + patch_extension)});
+        }
+        if (!out_is_dir) {
+            fs::create_directory(out, ec);
+            if (ec) throw io_error(out.string() + ": cannot create the output folder: " + ec.message());
+        }
+    }
+    for (const job& j : jobs) refuse_overwriting_input(j.output, inputs);
+    return jobs;
+}
+
+std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t bytes) {
+    char buf[128];
+    std::snprintf(buf, sizeof buf, ": %d partials, %d segments, fit error %.2f dB, %ju bytes", s.partials,
+                  s.segments, s.fit_error_db, bytes);
+    return j.input.string() + " -> " + j.output.string() + buf;
+}
+
+/// Analyzes one file and writes its patch; returns the summary line. Throws with a message that
+/// names the file.
+std::string run_one(const job& j, const analyze_options& o) {
+    const mono_audio audio = read_audio(j.input, {.channel = o.channel});
+    analysis_params ap{.tracking = {.f0_hz = o.f0_hz, .window_s = o.window_s, .fft_size = o.fft_size,
+                                    .hop_s = o.hop_s, .max_partials = o.max_partials},
+                       .max_segments = o.max_segments,
+                       .start_s = o.start_s,
+                       .end_s = o.end_s.value_or(0.0),
+                       .source_file = j.input.filename().string(),
+                       .note_name = o.name.value_or(j.input.stem().string())};
+    if (o.f0_hz && *o.f0_hz >= 0.5 * audio.sample_rate_hz)
+        throw io_error(j.input.string() + ": --f0 " + num(*o.f0_hz) + " Hz is not below half the sample rate (" +
+                       num(audio.sample_rate_hz) + " Hz)");
+    analysis_result r;
+    try {
+        r = analyze_note(audio.samples, audio.sample_rate_hz, ap);
+    } catch (const std::invalid_argument& e) {
+        throw io_error(j.input.string() + ": " + e.what());
+    }
+    write_patch_file(j.output, r.value);
+    std::error_code ec;
+    const std::uintmax_t bytes = fs::file_size(j.output, ec);
+    return summary_line(j, r.summary, ec ? 0 : bytes);
+}
+
+int run(const analyze_options& o) {
+    validate(o);
+    const std::vector<job> jobs = plan_jobs(o);
+    const unsigned hw = std::max(1u, std::thread::hardware_concurrency());
+    const std::size_t threads =
+        std::min<std::size_t>(jobs.size(), o.jobs ? static_cast<std::size_t>(*o.jobs) : hw);
+    progress_bar bar("analyze", jobs.size(), globals().quiet || jobs.size() < 2);
+    std::atomic<std::size_t> next{0};
+    std::atomic<int> failed{0};
+    std::mutex out_mutex;
+    auto worker = [&] {
+        for (std::size_t i = next++; i < jobs.size(); i = next++) {
+            try {
+                const std::string line = run_one(jobs[i], o);
+                std::lock_guard lock(out_mutex);
+                say(line);
+            } catch (const std::exception& e) {
+                ++failed;
+                std::lock_guard lock(out_mutex);
+                print_error(e.what());
+            }
+            bar.advance();
+        }
+    };
+    std::vector<std::thread> pool;
+    for (std::size_t t = 1; t < threads; ++t) pool.emplace_back(worker);
+    worker();
+    for (std::thread& t : pool) t.join();
+    bar.finish();
+    return failed > 0 ? exit_failure : exit_ok;
+}
+
+}  // namespace
+
 void add_analyze_command(CLI::App& app, command_registry& reg) {
-    CLI::App* sub = app.add_subcommand("analyze", "(not built yet)");
-    sub->allow_extras();
-    reg.add(sub, [] {
-        print_error("'analyze' is not built yet");
-        return exit_failure;
-    });
+    auto o = std::make_shared<analyze_options>();
+    CLI::App* sub = app.add_subcommand("analyze", "Analyze recorded notes into patches of damped partials");
+    sub->add_option("inputs", o->inputs, "Audio files (WAV, AIFF, FLAC, ...)")->required();
+    sub->add_option("-o,--output", o->output,
+                    "Patch file for one input; folder for several (one <stem>.toml each)")
+        ->required();
+    sub->add_option("--f0", o->f0_hz, "Fundamental in Hz (default: estimated)");
+    sub->add_option("--max-partials", o->max_partials, "Keep at most this many partials, strongest first")
+        ->capture_default_str();
+    sub->add_option("--max-segments", o->max_segments, "Decay segments per partial, at most")->capture_default_str();
+    sub->add_option("--start-s", o->start_s, "Analyze from this time in the file, seconds")->capture_default_str();
+    sub->add_option("--end-s", o->end_s, "Analyze up to this time in the file, seconds (default: the end)");
+    sub->add_option("--channel", o->channel, "Take this channel (from 1; default: mix all to mono)");
+    sub->add_option("--window-s", o->window_s, "STFT window length, seconds (default: from the sound)");
+    sub->add_option("--fft-size", o->fft_size, "FFT size in samples, even, at least the window (default: from the window)");
+    sub->add_option("--hop-s", o->hop_s, "STFT hop, seconds (default: from the window)");
+    sub->add_option("--name", o->name, "Note name in the patch (default: the file's stem; one input only)");
+    sub->add_option("-j,--jobs", o->jobs, "Files analyzed at once (default: all cores)");
+    sub->footer("Examples:\n  wane analyze pluck.wav -o pluck.toml\n"
+                "  wane analyze notes/*.wav -o patches --max-segments 2");
+    reg.add(sub, [o] { return run(*o); });
 }
 
 }  // namespace wane::cli

@@ -4,12 +4,17 @@
 
 #include <CLI/CLI.hpp>
 
+#include <filesystem>
 #include <functional>
 #include <stdexcept>
 #include <string>
 #include <string_view>
 #include <utility>
 #include <vector>
+
+namespace wane {
+struct patch;
+}
 
 namespace wane::cli {
 
@@ -42,6 +47,9 @@ void warn(std::string_view msg);
 void print_error(std::string_view msg);
 /// Informational line on stdout unless --quiet.
 void say(std::string_view msg);
+
+/// The text `wane info` prints for a patch read from path (also embedded in reports).
+std::string patch_info_text(const patch& p, const std::filesystem::path& path);
 
 /// Each command file adds its subcommand (with options, help and examples footer) here.
 void add_analyze_command(CLI::App& app, command_registry& reg);

@@ -29,7 +29,8 @@ namespace {
 /// no single source); anything outside is a corrupt or hostile header.
 constexpr double min_sample_rate_hz = 1.0;
 constexpr double max_sample_rate_hz = 768000.0;
-/// Frames per block when reading or writing (bounded memory per call).
+/// Frames per block when writing mono, and samples per block when reading (any channel count):
+/// bounded memory per call.
 constexpr sf_count_t io_block_frames = 65536;
 /// Full-scale integer magnitudes of the PCM grids, matching libsndfile's float normalization
 /// (a 16-bit value v reads as v / 2^15, a 24-bit value as v / 2^23).
@@ -42,7 +43,8 @@ constexpr std::uint32_t chunk_size_unknown = 0xFFFFFFFFu;
 /// How many chunks to walk when looking for the data chunk (a bound against looping headers).
 constexpr int max_chunks_scanned = 4096;
 
-std::string quoted(const fs::path& path) { return path.string(); }
+/// How a path appears in messages.
+std::string path_text(const fs::path& path) { return path.string(); }
 
 /// Owns a SNDFILE* (sf_close in the destructor).
 class sndfile_handle {
@@ -115,7 +117,7 @@ void check_data_chunk_fits(const fs::path& path, std::uintmax_t file_size) {
         if (std::memcmp(chunk.data(), data_id, 4) == 0) {
             if (size == chunk_size_unknown || size == 0) return;
             if (body + size > file_size) {
-                throw io_error(quoted(path) + ": truncated: the " + data_id + " chunk claims " +
+                throw io_error(path_text(path) + ": truncated: the " + data_id + " chunk claims " +
                                std::to_string(size) + " bytes but the file holds only " +
                                std::to_string(file_size > body ? file_size - body : 0));
             }
@@ -134,11 +136,11 @@ std::string peak_dbfs_text(double peak) {
 }
 
 /// xorshift64* (Vigna 2016, "An experimental exploration of Marsaglia's xorshift generators,
-/// scrambled"), seeded through splitmix64 so any seed (also 0) gives a good state.
+/// scrambled", from memory), seeded through splitmix64 so any seed (also 0) gives a good state.
 class dither_rng {
 public:
     explicit dither_rng(std::uint64_t seed) {
-        std::uint64_t z = seed + 0x9E3779B97F4A7C15ull;  // splitmix64 (Steele, Lea, Flood 2014)
+        std::uint64_t z = seed + 0x9E3779B97F4A7C15ull;  // splitmix64 (Steele, Lea, Flood 2014, from memory)
         z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ull;
         z = (z ^ (z >> 27)) * 0x94D049BB133111EBull;
         state_ = z ^ (z >> 31);
@@ -159,22 +161,21 @@ private:
 };
 
 struct container {
-    int major = 0;
-    std::string extension;
+    int major = 0;  ///< libsndfile's SF_FORMAT_* container
 };
 
 container container_for(const fs::path& path) {
     std::string ext = path.extension().string();
     std::transform(ext.begin(), ext.end(), ext.begin(), [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
-    if (ext == ".wav") return {SF_FORMAT_WAV, ext};
-    if (ext == ".aif" || ext == ".aiff") return {SF_FORMAT_AIFF, ext};
-    if (ext == ".flac") return {SF_FORMAT_FLAC, ext};
-    throw io_error(quoted(path) + ": unsupported output extension '" + path.extension().string() +
+    if (ext == ".wav") return {SF_FORMAT_WAV};
+    if (ext == ".aif" || ext == ".aiff") return {SF_FORMAT_AIFF};
+    if (ext == ".flac") return {SF_FORMAT_FLAC};
+    throw io_error(path_text(path) + ": unsupported output extension '" + path.extension().string() +
                    "' (use .wav, .aif, .aiff or .flac)");
 }
 
 /// Appends an AIFF INST chunk holding the root note to a finished AIFF file and fixes the FORM
-/// size. Layout (Apple, "Audio Interchange File Format: AIFF", version 1.3, 1989): ckID 'INST',
+/// size. Layout (Apple, "Audio Interchange File Format: AIFF", version 1.3, 1989, from memory): ckID 'INST',
 /// ckSize 20, then baseNote, detune, lowNote, highNote, lowVelocity, highVelocity (one byte
 /// each), gain (int16 dB), sustainLoop and releaseLoop (playMode, beginLoop, endLoop: int16 each;
 /// playMode 0 = no looping). Chunks start on even offsets, so an odd file gets a pad byte first.
@@ -183,7 +184,7 @@ void append_aiff_inst_chunk(const fs::path& file, const fs::path& dest, int root
     constexpr unsigned char full_range_top = 127;
     std::error_code ec;
     std::uintmax_t size = fs::file_size(file, ec);
-    if (ec) throw io_error(quoted(dest) + ": cannot store the root note: " + ec.message());
+    if (ec) throw io_error(path_text(dest) + ": cannot store the root note: " + ec.message());
     std::string bytes;
     if (size % 2 != 0) bytes.push_back('\0');
     bytes += "INST";
@@ -205,7 +206,7 @@ void append_aiff_inst_chunk(const fs::path& file, const fs::path& dest, int root
     f.seekp(4);
     f.write(form_be.data(), form_be.size());
     f.flush();
-    if (!f) throw io_error(quoted(dest) + ": write failed while storing the root note");
+    if (!f) throw io_error(path_text(dest) + ": write failed while storing the root note");
 }
 
 }  // namespace
@@ -213,37 +214,37 @@ void append_aiff_inst_chunk(const fs::path& file, const fs::path& dest, int root
 mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
     std::error_code ec;
     const fs::file_status st = fs::status(path, ec);
-    if (ec || !fs::exists(st)) throw io_error(quoted(path) + ": no such file");
-    if (fs::is_directory(st)) throw io_error(quoted(path) + ": is a directory, not an audio file");
+    if (ec || !fs::exists(st)) throw io_error(path_text(path) + ": no such file");
+    if (fs::is_directory(st)) throw io_error(path_text(path) + ": is a directory, not an audio file");
     const std::uintmax_t file_size = fs::file_size(path, ec);
-    if (ec) throw io_error(quoted(path) + ": cannot read: " + ec.message());
-    if (file_size == 0) throw io_error(quoted(path) + ": empty file (0 bytes)");
+    if (ec) throw io_error(path_text(path) + ": cannot read: " + ec.message());
+    if (file_size == 0) throw io_error(path_text(path) + ": empty file (0 bytes)");
 
     SF_INFO info{};
     sndfile_handle file(sf_open(path.c_str(), SFM_READ, &info));
     if (file.get() == nullptr) {
-        throw io_error(quoted(path) + ": not a readable audio file: " + sf_strerror(nullptr));
+        throw io_error(path_text(path) + ": not a readable audio file: " + sf_strerror(nullptr));
     }
-    if (info.channels <= 0) throw io_error(quoted(path) + ": header gives no channels");
+    if (info.channels <= 0) throw io_error(path_text(path) + ": header gives no channels");
     const double rate_hz = static_cast<double>(info.samplerate);
     if (!(rate_hz >= min_sample_rate_hz && rate_hz <= max_sample_rate_hz)) {
-        throw io_error(quoted(path) + ": sample rate " + std::to_string(info.samplerate) +
+        throw io_error(path_text(path) + ": sample rate " + std::to_string(info.samplerate) +
                        " Hz is outside 1 Hz..768 kHz (corrupt header?)");
     }
     if (options.channel) {
         const int ch = *options.channel;
         if (ch < 1 || ch > info.channels) {
-            throw io_error(quoted(path) + ": --channel " + std::to_string(ch) + " but file has " +
+            throw io_error(path_text(path) + ": --channel " + std::to_string(ch) + " but file has " +
                            std::to_string(info.channels) + (info.channels == 1 ? " channel" : " channels"));
         }
     }
-    if (info.frames <= 0) throw io_error(quoted(path) + ": no audio frames (zero length)");
+    if (info.frames <= 0) throw io_error(path_text(path) + ": no audio frames (zero length)");
     check_data_chunk_fits(path, file_size);
     const double claimed_s = static_cast<double>(info.frames) / rate_hz;
     if (claimed_s > options.max_length_s) {
         char buf[160];
         std::snprintf(buf, sizeof buf, ": %.4g s long, longer than the %g s limit", claimed_s, options.max_length_s);
-        throw io_error(quoted(path) + buf);
+        throw io_error(path_text(path) + buf);
     }
 
     mono_audio out;
@@ -259,18 +260,19 @@ mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
     const auto channels = static_cast<std::size_t>(info.channels);
     const std::size_t pick = options.channel ? static_cast<std::size_t>(*options.channel - 1) : 0;
     const double inv_channels = 1.0 / static_cast<double>(channels);
-    std::vector<float> block(static_cast<std::size_t>(io_block_frames) * channels);
+    const sf_count_t block_frames = std::max<sf_count_t>(1, io_block_frames / info.channels);
+    std::vector<float> block(static_cast<std::size_t>(block_frames) * channels);
     std::size_t frames_done = 0;
     while (frames_done < total_frames) {
         const sf_count_t want =
-            std::min<sf_count_t>(io_block_frames, static_cast<sf_count_t>(total_frames - frames_done));
+            std::min<sf_count_t>(block_frames, static_cast<sf_count_t>(total_frames - frames_done));
         const sf_count_t got = sf_readf_float(file.get(), block.data(), want);
         if (got <= 0) break;
         const auto got_frames = static_cast<std::size_t>(got);
         for (std::size_t i = 0; i < got_frames * channels; ++i) {
             if (!std::isfinite(block[i])) {
                 const std::size_t frame = frames_done + i / channels;
-                throw io_error(quoted(path) + ": " + (std::isnan(block[i]) ? "NaN" : "infinite") +
+                throw io_error(path_text(path) + ": " + (std::isnan(block[i]) ? "NaN" : "infinite") +
                                " sample at frame " + std::to_string(frame) + " (channel " +
                                std::to_string(i % channels + 1) + ")");
             }
@@ -288,7 +290,7 @@ mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
     }
     if (frames_done < total_frames) {
         const int err = sf_error(file.get());
-        throw io_error(quoted(path) + ": truncated: read " + std::to_string(frames_done) + " of " +
+        throw io_error(path_text(path) + ": truncated: read " + std::to_string(frames_done) + " of " +
                        std::to_string(total_frames) + " frames" +
                        (err != 0 ? std::string(" (") + sf_strerror(file.get()) + ")" : std::string()));
     }
@@ -299,16 +301,18 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
                  const audio_write_options& options) {
     const container cont = container_for(path);
     if (options.format == sample_format::float32 && cont.major == SF_FORMAT_FLAC) {
-        throw io_error(quoted(path) + ": FLAC has no 32-bit float format (use 16 or 24 bits, or .wav/.aiff)");
+        throw io_error(path_text(path) + ": FLAC has no 32-bit float format (use 16 or 24 bits, or .wav/.aiff)");
     }
     if (!(sample_rate_hz >= min_sample_rate_hz && sample_rate_hz <= max_sample_rate_hz) ||
         sample_rate_hz != std::round(sample_rate_hz)) {
-        throw io_error(quoted(path) + ": cannot write at sample rate " + std::to_string(sample_rate_hz) +
+        char buf[64];
+        std::snprintf(buf, sizeof buf, "%.10g", sample_rate_hz);
+        throw io_error(path_text(path) + ": cannot write at sample rate " + buf +
                        " Hz (needs a whole number in 1 Hz..768 kHz)");
     }
-    if (samples.empty()) throw io_error(quoted(path) + ": no samples to write");
+    if (samples.empty()) throw io_error(path_text(path) + ": no samples to write");
     if (options.root_midi && (*options.root_midi < 0 || *options.root_midi > 127)) {
-        throw io_error(quoted(path) + ": root MIDI note " + std::to_string(*options.root_midi) +
+        throw io_error(path_text(path) + ": root MIDI note " + std::to_string(*options.root_midi) +
                        " is outside 0..127");
     }
     // The last guard against silent clipping: callers normalize or scale before this.
@@ -316,13 +320,13 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
     for (std::size_t i = 0; i < samples.size(); ++i) {
         const float s = samples[i];
         if (!std::isfinite(s)) {
-            throw io_error(quoted(path) + ": refusing to write a " + (std::isnan(s) ? "NaN" : "infinite") +
+            throw io_error(path_text(path) + ": refusing to write a " + (std::isnan(s) ? "NaN" : "infinite") +
                            " sample at frame " + std::to_string(i));
         }
         peak = std::max(peak, std::fabs(static_cast<double>(s)));
     }
     if (peak > 1.0) {
-        throw io_error(quoted(path) + ": peak " + peak_dbfs_text(peak) +
+        throw io_error(path_text(path) + ": peak " + peak_dbfs_text(peak) +
                        " exceeds full scale; refusing to clip (scale the signal down first)");
     }
 
@@ -335,13 +339,13 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
         case sample_format::float32: info.format = cont.major | SF_FORMAT_FLOAT; break;
     }
     if (sf_format_check(&info) == 0) {
-        throw io_error(quoted(path) + ": libsndfile cannot write " + format_name_of(info.format));
+        throw io_error(path_text(path) + ": libsndfile cannot write " + format_name_of(info.format));
     }
 
     atomic_output out(path);  // declared before the handle: the handle closes before the temp is removed
     sndfile_handle file(sf_open(out.temp_path().c_str(), SFM_WRITE, &info));
     if (file.get() == nullptr) {
-        throw io_error(quoted(path) + ": cannot write: " + sf_strerror(nullptr));
+        throw io_error(path_text(path) + ": cannot write: " + sf_strerror(nullptr));
     }
     if (options.root_midi) {
         SF_INSTRUMENT inst{};
@@ -355,12 +359,12 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
         // FLAC has no instrument chunk; nothing is stored.
         if (cont.major == SF_FORMAT_WAV &&
             sf_command(file.get(), SFC_SET_INSTRUMENT, &inst, sizeof inst) != SF_TRUE) {
-            throw io_error(quoted(path) + ": cannot store the root note: " + sf_strerror(file.get()));
+            throw io_error(path_text(path) + ": cannot store the root note: " + sf_strerror(file.get()));
         }
     }
 
     const auto fail_write = [&] {
-        throw io_error(quoted(path) + ": write failed: " + sf_strerror(file.get()));
+        throw io_error(path_text(path) + ": write failed: " + sf_strerror(file.get()));
     };
     const std::size_t n = samples.size();
     const auto block_len = static_cast<std::size_t>(io_block_frames);
@@ -372,8 +376,9 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
     } else if (options.format == sample_format::pcm16) {
         // TPDF dither: the sum of two independent uniform values of +-0.5 LSB each, added before
         // rounding (Lipshitz, Wannamaker, Vanderkooy 1992, J. AES 40(5): renders the first two
-        // moments of the total error independent of the signal). Values are clamped to the
-        // integer range only at the asymmetric top of the grid (+1.0 is 32768, one past 32767).
+        // moments of the total error independent of the signal). Clamping to the integer range
+        // acts only within a step of full scale: +1.0 maps to 32768, one past the top, 32767,
+        // and dither may push -1.0 one step below -32768.
         dither_rng rng(options.dither_seed);
         std::vector<short> block(block_len);
         constexpr double lo = -pcm16_full_scale;
@@ -408,7 +413,7 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
             }
         }
     }
-    if (file.close() != 0) throw io_error(quoted(path) + ": write failed while closing the file");
+    if (file.close() != 0) throw io_error(path_text(path) + ": write failed while closing the file");
     if (options.root_midi && cont.major == SF_FORMAT_AIFF) {
         append_aiff_inst_chunk(out.temp_path(), path, *options.root_midi);
     }
@@ -417,11 +422,11 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
 
 std::optional<int> read_root_midi(const fs::path& path) {
     std::error_code ec;
-    if (!fs::is_regular_file(path, ec)) throw io_error(quoted(path) + ": no such file");
+    if (!fs::is_regular_file(path, ec)) throw io_error(path_text(path) + ": no such file");
     SF_INFO info{};
     sndfile_handle file(sf_open(path.c_str(), SFM_READ, &info));
     if (file.get() == nullptr) {
-        throw io_error(quoted(path) + ": not a readable audio file: " + sf_strerror(nullptr));
+        throw io_error(path_text(path) + ": not a readable audio file: " + sf_strerror(nullptr));
     }
     SF_INSTRUMENT inst{};
     if (sf_command(file.get(), SFC_GET_INSTRUMENT, &inst, sizeof inst) != SF_TRUE) return std::nullopt;

@@ -20,6 +20,8 @@ struct audio_read_options {
 };
 
 struct mono_audio {
+    /// Integer PCM reads into [-1, 1) (v / 2^(bits-1)); float files are passed on unchanged and
+    /// may exceed full scale.
     std::vector<float> samples;
     double sample_rate_hz = 0.0;
     int source_channels = 0;

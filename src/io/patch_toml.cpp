@@ -2,9 +2,11 @@
 //
 // Reading: toml++ parses the text; every key is then read with its type checked, its source position
 // recorded under a path like "partial[3].decay[2].t60_s" (1-based, as `wane info` numbers them),
-// and the whole model goes through one validator (validate_model). Errors carry
-// "file:line:col: partial 3: decay[2].t60_s must not be 0". Unknown keys are the only findings that
-// do not stop the read: they come back as warnings naming the nearest known key.
+// and the whole model goes through one validator (struct validator), once as written and once
+// rounded to the file's precision. Errors carry "file:line:col: partial 3: decay[2].t60_s must not
+// be 0". Unknown keys are the only findings that do not stop the read: they come back as warnings
+// naming the nearest known key. The model returned is rounded and in canonical order, so
+// parse(format(p)) == p for every patch the reader returns.
 //
 // Writing: the text is produced here, not by toml++'s formatter, with one fixed number format per
 // quantity (see the `fmt_*` helpers for the precision each needs and why), so that reading a file the
@@ -494,6 +496,21 @@ constexpr std::string_view partial_keys[] = {"freq_hz", "harmonic", "phase_rad",
 constexpr std::string_view noise_keys[] = {"low_hz", "high_hz", "attack_s", "peak_db", "decay"};
 constexpr std::string_view segment_keys[] = {"t60_s", "until_s"};
 
+/// The table a known key belongs to, for a key written in the wrong table (nullptr if none).
+const char* home_of(std::string_view key) {
+    const auto in = [key](std::span<const std::string_view> keys) {
+        return std::find(keys.begin(), keys.end(), key) != keys.end();
+    };
+    if (in(top_keys)) return "the top level, before [note]";
+    if (in(note_keys)) return "[note]";
+    if (in(source_keys)) return "[source]";
+    if (in(analysis_keys)) return "[source.analysis]";
+    if (in(partial_keys)) return "a [[partial]]";
+    if (in(noise_keys)) return "a [[noise]]";
+    if (in(segment_keys)) return "a decay segment";
+    return nullptr;
+}
+
 const char* type_name(toml::node_type t) {
     switch (t) {
         case toml::node_type::string: return "a string";
@@ -575,6 +592,9 @@ public:
         });
 
         validate_and_round(p, [this](const std::string& path, const std::string& what) { fail(path, what); });
+        // Messages above count partials in file order; the model is handed out in canonical order
+        // (the same for any file wane wrote), so that parse(format(p)) == p for every p read.
+        canonicalize(p);
         return patch_read_result{.value = std::move(p), .warnings = std::move(warnings_)};
     }
 
@@ -651,7 +671,9 @@ private:
             (void)node;
             if (std::find(known.begin(), known.end(), k.str()) != known.end()) continue;
             const std::string shown = display(table_path);
-            warnings_.push_back(at(pos_of(k)) + (shown.empty() ? "" : shown + ": ") + unknown_key_text(k.str(), known));
+            std::string text = at(pos_of(k)) + (shown.empty() ? "" : shown + ": ") + unknown_key_text(k.str(), known);
+            if (const char* home = home_of(k.str())) text += "; '" + std::string(k.str()) + "' belongs in " + home;
+            warnings_.push_back(std::move(text));
         }
     }
 

@@ -75,7 +75,7 @@ void put_u32(std::string& s, std::uint32_t v) {
 }
 
 /// A canonical 44-byte-header WAV assembled by hand from the RIFF WAVE layout (Microsoft/IBM
-/// "Multimedia Programming Interface and Data Specifications 1.0", 1991): format tag 1 = PCM,
+/// "Multimedia Programming Interface and Data Specifications 1.0", 1991, from memory): format tag 1 = PCM,
 /// 3 = IEEE float. `data` is the raw little-endian sample bytes.
 std::string wav_bytes(std::uint32_t format_tag, std::uint32_t channels, std::uint32_t rate_hz,
                       std::uint32_t bits, const std::string& data) {
@@ -373,6 +373,28 @@ TEST_CASE("other formats: 8-bit, 32-bit int, OGG Vorbis, multichannel mixing", "
         CHECK(right.samples == std::vector<float>{3000.0f / 32768.0f, 0.0f, -1.0f});
         const mono_audio left = read_audio(dir / "st.wav", {.channel = 1});
         CHECK(left.samples == std::vector<float>{1000.0f / 32768.0f, -400.0f / 32768.0f, 32767.0f / 32768.0f});
+    }
+    SECTION("64 channels over several read blocks: the mean of all channels, or one channel") {
+        // Frame f, channel c (0-based) holds (f % 100) * 8 + c, so the mean is (f % 100) * 8 + 31.5.
+        constexpr int channels = 64, frames = 5000;
+        std::vector<int> values;
+        for (int f = 0; f < frames; ++f) {
+            for (int c = 0; c < channels; ++c) values.push_back((f % 100) * 8 + c);
+        }
+        write_bytes(dir / "many.wav", wav_bytes(1, channels, 48000, 16, pcm16_data(values)));
+        const mono_audio mix = read_audio(dir / "many.wav");
+        const mono_audio ch40 = read_audio(dir / "many.wav", {.channel = 40});
+        CHECK(mix.source_channels == channels);
+        REQUIRE(mix.samples.size() == frames);
+        REQUIRE(ch40.samples.size() == frames);
+        std::size_t mix_bad = 0, ch_bad = 0;
+        for (int f = 0; f < frames; ++f) {
+            const auto i = static_cast<std::size_t>(f);
+            mix_bad += mix.samples[i] != static_cast<float>(((f % 100) * 8 + 31.5) / 32768.0) ? 1 : 0;
+            ch_bad += ch40.samples[i] != static_cast<float>(((f % 100) * 8 + 39) / 32768.0) ? 1 : 0;
+        }
+        CHECK(mix_bad == 0);
+        CHECK(ch_bad == 0);
     }
     SECTION("OGG Vorbis written by sox") {
         const fs::path file = dir / "t.ogg";

@@ -1,0 +1,86 @@
+#include "analysis/analyze.hpp"
+
+#include <cassert>
+#include <cmath>
+#include <cstdio>
+#include <stdexcept>
+#include <string>
+
+#include "fitting/envelope_fit.hpp"
+#include "spectrum/window.hpp"
+
+namespace wane {
+
+namespace {
+
+/// note.length_s is the analysed length after the onset, rounded up to this step (seconds).
+constexpr double length_step_s = 0.01;
+
+std::string seconds_text(double s) {
+    char buf[64];
+    std::snprintf(buf, sizeof buf, "%.3f s", s);
+    return buf;
+}
+
+}  // namespace
+
+analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
+                             const analysis_params& params) {
+    assert(sample_rate_hz > 0.0);
+    assert(params.max_segments >= 1 && params.max_segments <= max_decay_segments);
+    const double file_s = static_cast<double>(samples.size()) / sample_rate_hz;
+    if (params.start_s < 0.0 || params.end_s < 0.0)
+        throw std::invalid_argument("start and end times must not be negative");
+    if (params.start_s >= file_s)
+        throw std::invalid_argument("start " + seconds_text(params.start_s) + " is not before the end of the audio (" +
+                                    seconds_text(file_s) + ")");
+    if (params.end_s > 0.0 && params.end_s <= params.start_s)
+        throw std::invalid_argument("end " + seconds_text(params.end_s) + " is not after the start " +
+                                    seconds_text(params.start_s));
+    const auto first = static_cast<std::size_t>(std::llround(params.start_s * sample_rate_hz));
+    std::size_t last = samples.size();
+    if (params.end_s > 0.0)
+        last = std::min(last, static_cast<std::size_t>(std::llround(params.end_s * sample_rate_hz)));
+    const std::span<const float> part = samples.subspan(first, last - first);
+
+    analysis_result out;
+    out.tracking = track_note(part, sample_rate_hz, params.tracking);
+    const tracking_result& tr = out.tracking;
+
+    const envelope_fit_params fit_params{.max_segments = params.max_segments, .window_s = tr.window_s};
+    patch& p = out.value;
+    double sq_error = 0.0, frames = 0.0;
+    for (const partial_track& track : tr.tracks) {
+        const auto fit = fit_partial(track, fit_params);
+        // A fit whose peak lies beyond what the format holds is no partial of this note.
+        if (!fit || fit->env.peak.db > max_peak_db) {
+            ++out.summary.unfitted;
+            continue;
+        }
+        p.partials.push_back({.freq_hz = fit->freq_hz, .harmonic = track.harmonic, .phase_rad = fit->phase_rad,
+                              .env = fit->env});
+        out.summary.segments += static_cast<int>(fit->env.decay.size());
+        sq_error += fit->weighted_sq_error_db2;
+        frames += fit->weight_sum;
+    }
+    out.summary.tracks = static_cast<int>(tr.tracks.size());
+    out.summary.partials = static_cast<int>(p.partials.size());
+    if (p.partials.empty()) throw std::invalid_argument("no partial stays clear of the noise floor long enough to fit");
+    out.summary.fit_error_db = frames > 0.0 ? std::sqrt(sq_error / frames) : 0.0;
+
+    const double analysed_s = static_cast<double>(part.size()) / sample_rate_hz - tr.onset_s;
+    p.note.name = params.note_name;
+    p.note.f0_hz = tr.f0_hz;
+    p.note.inharmonicity_b = tr.inharmonicity_b;
+    p.note.length_s = std::max(length_step_s, std::ceil(analysed_s / length_step_s - 1e-9) * length_step_s);
+    p.source.file = params.source_file;
+    p.source.sample_rate_hz = sample_rate_hz;
+    p.source.onset_s = params.start_s + tr.onset_s;
+    // The tracker analyses with the 4-term Blackman-Harris window (tracking/tracker.cpp).
+    p.source.analysis = analysis_settings{.window = std::string(window_name(window_kind::blackman_harris_4)),
+                                          .fft_size = tr.fft_size, .window_s = tr.window_s, .hop_s = tr.hop_s};
+    canonicalize(p);
+    return out;
+}
+
+}  // namespace wane

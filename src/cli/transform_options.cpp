@@ -1,0 +1,176 @@
+#include "cli/transform_options.hpp"
+
+#include <cmath>
+#include <map>
+
+#include "cli/common.hpp"
+#include "core/pitch_names.hpp"
+
+namespace wane::cli {
+
+namespace {
+
+constexpr const char* group_name = "Sound design";
+
+/// The largest transposition accepted: +-10 octaves spans every audible pitch from any other.
+constexpr double max_transpose_semitones = 120.0;
+/// Tuning references accepted by --a4-hz (a generous band around concert pitch).
+constexpr double min_a4_hz = 300.0;
+constexpr double max_a4_hz = 600.0;
+
+const std::map<std::string, std::string>& option_names() {
+    static const std::map<std::string, std::string> names{
+        {"transpose_semitones", "--transpose"},
+        {"to_midi", "--to-note"},
+        {"a4_hz", "--a4-hz"},
+        {"decay_follows_pitch", "--decay-follows-pitch"},
+        {"decay_pitch_exponent", "--decay-pitch-exponent"},
+        {"decay_scale", "--decay-scale"},
+        {"decay_tilt", "--decay-tilt"},
+        {"brightness_db_per_oct", "--brightness-db-oct"},
+        {"parity", "--odd-only/--even-only"},
+        {"max_freq_hz", "--max-freq-hz"},
+        {"keep_strongest", "--keep-strongest"},
+        {"set_b", "--set-b"},
+        {"scale_b", "--scale-b"},
+        {"variation.level_jitter_db", "--level-jitter-db"},
+        {"sample_rate_hz", "--rate"},
+    };
+    return names;
+}
+
+void require_finite(double v, const char* option) {
+    if (!std::isfinite(v)) throw usage_error(std::string(option) + ": must be a finite number");
+}
+
+}  // namespace
+
+void add_transform_options(CLI::App* sub, transform_cli& o) {
+    sub->add_option("--transpose", o.transpose_semitones, "Transpose by this many semitones (may be fractional)")
+        ->group(group_name);
+    sub->add_option("--to-note", o.to_note, "Transpose so f0 lands on this note (C4, F#3, Bb2 or a MIDI number)")
+        ->group(group_name);
+    sub->add_option("--a4-hz", o.a4_hz, "Tuning of A4 for --to-note, Hz")
+        ->capture_default_str()->group(group_name);
+    sub->add_flag("--decay-follows-pitch", o.decay_follows_pitch,
+                  "When transposing by a ratio r, scale every T60 by r^(-p) (rule of thumb: higher notes "
+                  "decay faster; p from --decay-pitch-exponent)")
+        ->group(group_name);
+    sub->add_option("--decay-pitch-exponent", o.decay_pitch_exponent,
+                    "p of --decay-follows-pitch (1: an octave up rings half as long; a rule of thumb)")
+        ->capture_default_str()->group(group_name);
+    sub->add_option("--decay-scale", o.decay_scale,
+                    "Multiply every T60 by X; segment ends move so each segment keeps its share; attack unchanged")
+        ->capture_default_str()->group(group_name);
+    sub->add_option("--decay-tilt", o.decay_tilt,
+                    "Scale each partial's T60 by 2^(K * octaves above f0): K < 0 makes highs die sooner")
+        ->capture_default_str()->group(group_name);
+    sub->add_option("--brightness-db-oct", o.brightness_db_per_oct,
+                    "Level tilt in dB per octave above f0 (negative = darker)")
+        ->capture_default_str()->group(group_name);
+    sub->add_option("--keep-strongest", o.keep_strongest, "Keep only the N partials with the highest peak level")
+        ->group(group_name);
+    sub->add_flag("--odd-only", o.odd_only, "Keep only odd harmonics (partials off the series stay)")->group(group_name);
+    sub->add_flag("--even-only", o.even_only, "Keep only even harmonics (partials off the series stay)")->group(group_name);
+    sub->add_option("--max-freq-hz", o.max_freq_hz, "Drop partials at or above this frequency")->group(group_name);
+    sub->add_option("--set-b", o.set_b,
+                    "Set the inharmonicity B and place harmonic partials exactly at n f0 sqrt(1 + B n^2)")
+        ->group(group_name);
+    sub->add_option("--scale-b", o.scale_b, "Multiply B by this factor and place harmonic partials exactly at n f0 sqrt(1 + B n^2)")
+        ->group(group_name);
+    sub->add_option("--seed", o.seed, "Seed of the random variation (same seed, same variant)")
+        ->capture_default_str()->group(group_name);
+    sub->add_option("--detune-cents", o.detune_cents, "Detune each partial by a random amount within +-C cents")
+        ->capture_default_str()->group(group_name);
+    sub->add_option("--level-jitter-db", o.level_jitter_db, "Move each partial's level by a random amount within +-D dB")
+        ->capture_default_str()->group(group_name);
+    sub->add_option("--decay-jitter", o.decay_jitter,
+                    "Scale each partial's decay by a random factor within 1 +- F (F in [0, 1))")
+        ->capture_default_str()->group(group_name);
+    sub->add_flag("--random-phase", o.random_phase, "Give each partial a random start phase")->group(group_name);
+}
+
+transform_params to_params(const transform_cli& o) {
+    transform_params t;
+    if (o.transpose_semitones && !o.to_note.empty()) throw usage_error("--transpose and --to-note exclude each other");
+    if (o.transpose_semitones) {
+        require_finite(*o.transpose_semitones, "--transpose");
+        if (std::abs(*o.transpose_semitones) > max_transpose_semitones) {
+            throw usage_error("--transpose: " + std::to_string(*o.transpose_semitones) + " is beyond +-" +
+                              std::to_string(static_cast<int>(max_transpose_semitones)) + " semitones");
+        }
+        t.transpose_semitones = *o.transpose_semitones;
+    }
+    if (!o.to_note.empty()) {
+        const auto midi = parse_note(o.to_note);
+        if (!midi) {
+            throw usage_error("--to-note: unknown note name '" + o.to_note +
+                              "' (expected a name like C4, F#3, Bb2 or a MIDI number 0..127)");
+        }
+        t.to_midi = *midi;
+    }
+    require_finite(o.a4_hz, "--a4-hz");
+    if (o.a4_hz < min_a4_hz || o.a4_hz > max_a4_hz) throw usage_error("--a4-hz: must be between 300 and 600 Hz");
+    t.a4_hz = o.a4_hz;
+    t.decay_follows_pitch = o.decay_follows_pitch;
+    require_finite(o.decay_pitch_exponent, "--decay-pitch-exponent");
+    t.decay_pitch_exponent = o.decay_pitch_exponent;
+    require_finite(o.decay_scale, "--decay-scale");
+    if (!(o.decay_scale > 0.0)) throw usage_error("--decay-scale: must be greater than 0");
+    t.decay_scale = o.decay_scale;
+    require_finite(o.decay_tilt, "--decay-tilt");
+    t.decay_tilt = o.decay_tilt;
+    require_finite(o.brightness_db_per_oct, "--brightness-db-oct");
+    t.brightness_db_per_oct = o.brightness_db_per_oct;
+    if (o.keep_strongest) {
+        if (*o.keep_strongest < 1) throw usage_error("--keep-strongest: must be at least 1");
+        t.keep_strongest = static_cast<std::size_t>(*o.keep_strongest);
+    }
+    if (o.odd_only && o.even_only) throw usage_error("--odd-only and --even-only exclude each other");
+    t.parity = o.odd_only ? harmonic_parity::odd_only : o.even_only ? harmonic_parity::even_only : harmonic_parity::all;
+    if (o.max_freq_hz) {
+        require_finite(*o.max_freq_hz, "--max-freq-hz");
+        if (!(*o.max_freq_hz > 0.0)) throw usage_error("--max-freq-hz: must be greater than 0");
+        t.max_freq_hz = *o.max_freq_hz;
+    }
+    if (o.set_b && o.scale_b) throw usage_error("--set-b and --scale-b exclude each other");
+    if (o.set_b) {
+        require_finite(*o.set_b, "--set-b");
+        if (*o.set_b < 0.0) throw usage_error("--set-b: B must not be negative");
+        t.set_b = *o.set_b;
+    }
+    if (o.scale_b) {
+        require_finite(*o.scale_b, "--scale-b");
+        if (*o.scale_b < 0.0) throw usage_error("--scale-b: must not be negative");
+        t.scale_b = *o.scale_b;
+    }
+    t.variation.seed = o.seed;
+    require_finite(o.detune_cents, "--detune-cents");
+    if (o.detune_cents < 0.0) throw usage_error("--detune-cents: must not be negative");
+    t.variation.detune_cents = o.detune_cents;
+    require_finite(o.level_jitter_db, "--level-jitter-db");
+    if (o.level_jitter_db < 0.0) throw usage_error("--level-jitter-db: must not be negative");
+    t.variation.level_jitter_db = o.level_jitter_db;
+    require_finite(o.decay_jitter, "--decay-jitter");
+    if (o.decay_jitter < 0.0 || o.decay_jitter >= 1.0) throw usage_error("--decay-jitter: must be in [0, 1)");
+    t.variation.decay_jitter = o.decay_jitter;
+    t.variation.random_phase = o.random_phase;
+    return t;
+}
+
+std::string transform_option_name(const std::string& param) {
+    const auto& names = option_names();
+    const auto it = names.find(param);
+    return it == names.end() ? param : it->second;
+}
+
+patch apply_transforms_checked(const patch& p, const transform_params& params, double sample_rate_hz,
+                               const std::string& patch_name) {
+    try {
+        return apply_transforms(p, params, sample_rate_hz);
+    } catch (const transform_error& e) {
+        throw std::runtime_error(patch_name + ": " + transform_option_name(e.param) + ": " + e.what());
+    }
+}
+
+}  // namespace wane::cli

@@ -1,0 +1,120 @@
+#include "spectrum/peaks.hpp"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+
+#include "core/units.hpp"
+
+namespace wane {
+
+namespace {
+double db_of_power(double power) { return 10.0 * std::log10(std::max(power, 1e-30)); }
+double wrap_phase(double phase) { return std::remainder(phase, two_pi); }
+constexpr std::size_t bin_stride = 2;  ///< the floor looks at every 2nd bin (zero padding >= 2)
+}  // namespace
+
+noise_floor::noise_floor(int bin_count, double bin_hz, double hop_s, const noise_floor_params& params)
+    : bin_count_(bin_count),
+      bin_hz_(bin_hz),
+      band_bins_(std::max(params.min_band_bins, static_cast<int>(std::lround(params.band_hz / bin_hz)))),
+      update_interval_(std::max(1, static_cast<int>(params.max_update_s / hop_s))),
+      alpha_(1.0 - std::exp(-hop_s * update_interval_ / params.smoothing_s)),
+      quantile_(params.quantile),
+      mean_over_quantile_(1.0 / -std::log(1.0 - params.quantile)) {
+    const int bands = (bin_count + band_bins_ - 1) / band_bins_;
+    bands_db_.assign(static_cast<std::size_t>(bands), -300.0);
+    bands_power_.assign(bands_db_.size(), 0.0);
+    measured_db_.assign(bands_db_.size(), -300.0);
+    scratch_.resize(static_cast<std::size_t>(band_bins_));
+}
+
+void noise_floor::measure(std::span<const float> power) {
+    assert(static_cast<int>(power.size()) == bin_count_);
+    for (std::size_t b = 0; b < bands_db_.size(); ++b) {
+        const std::size_t lo = b * band_bins_;
+        const std::size_t hi = std::min(power.size(), lo + band_bins_);
+        // Every bin_stride-th bin: with zero padding neighbours are correlated, so this loses little.
+        std::size_t count = 0;
+        for (std::size_t k = lo; k < hi; k += bin_stride) scratch_[count++] = power[k];
+        const auto q = static_cast<std::size_t>(quantile_ * double(count - 1));
+        std::nth_element(scratch_.begin(), scratch_.begin() + q, scratch_.begin() + count);
+        measured_db_[b] = db_of_power(double(scratch_[q]) * mean_over_quantile_);
+    }
+}
+
+void noise_floor::reset(std::span<const float> power) {
+    measure(power);
+    bands_db_ = measured_db_;
+    started_ = true;
+    refresh_power();
+}
+
+void noise_floor::refresh_power() {
+    for (std::size_t b = 0; b < bands_db_.size(); ++b) bands_power_[b] = std::pow(10.0, bands_db_[b] / 10.0);
+}
+
+void noise_floor::update(std::span<const float> power) {
+    if (!started_) return reset(power);
+    // Re-measured every update_interval-th frame; the running average moves slowly anyway.
+    if (++frames_since_ < update_interval_) return;
+    frames_since_ = 0;
+    measure(power);
+    for (std::size_t b = 0; b < bands_db_.size(); ++b)
+        bands_db_[b] += alpha_ * (measured_db_[b] - bands_db_[b]);
+    refresh_power();
+}
+
+std::size_t noise_floor::band_of(double freq_hz) const {
+    return static_cast<std::size_t>(std::clamp(freq_hz / bin_hz_ / band_bins_, 0.0, double(bands_db_.size() - 1)));
+}
+
+double noise_floor::floor_db_at(double freq_hz) const { return bands_db_[band_of(freq_hz)]; }
+
+void find_peaks(std::span<const float> power, std::span<const kiss_fft_cpx> bins,
+                const qifft_correction& correction, int fft_size, double sample_rate_hz,
+                const noise_floor* floor, const peak_params& params, std::vector<spectral_peak>& out) {
+    out.clear();
+    const double bin_hz = sample_rate_hz / fft_size;
+    const double max_freq_hz = params.max_freq_hz > 0.0 ? params.max_freq_hz : 0.475 * sample_rate_hz;
+    const auto last = static_cast<std::size_t>(
+        std::min(double(power.size() - 2), std::floor(max_freq_hz / bin_hz)));
+    const auto first = static_cast<std::size_t>(std::max(1.0, std::ceil(params.min_freq_hz / bin_hz)));
+    if (first > last) return;
+    const float frame_max = *std::max_element(power.begin() + first, power.begin() + last + 1);
+    const double base_thr = std::max(double(frame_max) * std::pow(10.0, -params.below_max_db / 10.0),
+                                     std::pow(10.0, params.abs_floor_db / 10.0));
+    const double above_floor = std::pow(10.0, params.above_floor_db / 10.0);
+    // Power threshold per floor band (the floor's bands are whole multiples of FFT bins).
+    const double band_hz = floor != nullptr ? floor->band_hz() : sample_rate_hz;
+    const auto band_bins = std::max<std::size_t>(1, static_cast<std::size_t>(std::lround(band_hz / bin_hz)));
+    for (std::size_t band_lo = (first / band_bins) * band_bins; band_lo <= last; band_lo += band_bins) {
+        const std::size_t lo = std::max(band_lo, first);
+        const std::size_t hi = std::min(band_lo + band_bins, last + 1);
+        const std::size_t band = floor != nullptr ? floor->band_of((double(band_lo) + 0.5 * double(band_bins)) * bin_hz) : 0;
+        const double band_floor_db = floor != nullptr ? floor->bands_db()[band] : -300.0;
+        const auto thr = static_cast<float>(
+            floor != nullptr ? std::max(base_thr, floor->band_power(band) * above_floor) : base_thr);
+        for (std::size_t k = lo; k < hi; ++k) {
+            const float p = power[k];
+            if (p <= thr || !(p > power[k - 1] && p >= power[k + 1])) continue;
+            const auto fit = correction.interpolate(db_of_power(power[k - 1]), db_of_power(p),
+                                                    db_of_power(power[k + 1]));
+            spectral_peak peak{.freq_hz = (double(k) + fit.offset_bins) * bin_hz,
+                               .level_db = fit.level_db,
+                               .phase_rad = 0.0,
+                               .floor_db = band_floor_db};
+            if (!bins.empty()) {
+                // Zero-phase frame: the phase is nearly flat over the main lobe; interpolate linearly
+                // toward the neighbour on the side of the true peak.
+                const std::size_t k2 = fit.offset_bins >= 0.0 ? k + 1 : k - 1;
+                const double ph0 = std::atan2(double(bins[k].i), double(bins[k].r));
+                const double ph1 = std::atan2(double(bins[k2].i), double(bins[k2].r));
+                peak.phase_rad = wrap_phase(ph0 + std::abs(fit.offset_bins) * wrap_phase(ph1 - ph0));
+            }
+            out.push_back(peak);
+        }
+    }
+}
+
+}  // namespace wane

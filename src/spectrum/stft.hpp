@@ -1,0 +1,66 @@
+// Short-time Fourier transform of real samples on KissFFT's real FFT, zero-phase windowed.
+#pragma once
+
+#include <kiss_fftr.h>
+
+#include <cstdint>
+#include <span>
+#include <vector>
+
+#include "spectrum/window.hpp"
+
+namespace wane {
+
+struct stft_config {
+    window_kind window = window_kind::blackman_harris_4;
+    int window_length = 2049;  ///< samples, odd (a centre sample)
+    int fft_size = 4096;       ///< even, >= 2 x window_length (zero padding >= 2)
+};
+
+/// Smallest even FFT size >= min_size whose factors are only 2, 3 and 5 (KissFFT's fast radices).
+int fast_fft_size(int min_size);
+
+/// One STFT frame at a time. Made once per thread: the FFT state, window and buffers are allocated
+/// here and reused, so analyzing a frame allocates nothing.
+///
+/// Frame at centre sample c: buffer[m mod M] = w[h + m] x[c + m], m = -h..h (zero phase), so the
+/// phase of bin k is the phase of the signal at the centre sample. Samples outside the input read
+/// as 0. Amplitude scale: |X[k]| * 2 / sum(w) = A for a sinusoid A cos(...) centred on bin k, so a
+/// full-scale sinusoid reads 0 dBFS at its peak.
+class stft_plan {
+public:
+    explicit stft_plan(const stft_config& config);
+    ~stft_plan();
+    stft_plan(const stft_plan&) = delete;
+    stft_plan& operator=(const stft_plan&) = delete;
+
+    /// Transforms the frame centred at sample `centre` (dc_offset subtracted from every sample);
+    /// then bins() and power() describe it.
+    void analyze(std::span<const float> samples, std::int64_t centre, float dc_offset = 0.0f);
+
+    /// Raw FFT bins (fft_size / 2 + 1), unscaled.
+    std::span<const kiss_fft_cpx> bins() const { return bins_; }
+    /// |X[k]|^2 * amp_scale()^2: squared amplitude of a sinusoid centred on bin k (fft_size/2 + 1).
+    std::span<const float> power() const { return power_; }
+
+    int fft_size() const { return config_.fft_size; }
+    int window_length() const { return config_.window_length; }
+    int half_length() const { return config_.window_length / 2; }
+    window_kind window() const { return config_.window; }
+    std::span<const float> window_samples() const { return window_; }
+    /// 2 / sum(w): FFT magnitude to sinusoid amplitude.
+    double amp_scale() const { return amp_scale_; }
+    const qifft_correction& correction() const { return correction_; }
+
+private:
+    stft_config config_;
+    std::vector<float> window_;
+    double amp_scale_ = 0.0;
+    qifft_correction correction_;
+    kiss_fftr_cfg cfg_ = nullptr;
+    std::vector<float> frame_;
+    std::vector<kiss_fft_cpx> bins_;
+    std::vector<float> power_;
+};
+
+}  // namespace wane

@@ -1,0 +1,270 @@
+// Windows, STFT and spectral peaks, checked against published window tables, FFTW, sox and the
+// Cramer-Rao bound.
+#include <catch2/catch.hpp>
+
+#include <fftw3.h>
+#include <sndfile.h>
+
+#include <algorithm>
+#include <cmath>
+#include <complex>
+#include <cstdlib>
+#include <filesystem>
+#include <random>
+#include <string>
+#include <vector>
+
+#include "core/units.hpp"
+#include "spectrum/peaks.hpp"
+#include "spectrum/stft.hpp"
+#include "spectrum/window.hpp"
+
+using Catch::Matchers::WithinAbs;
+using Catch::Matchers::WithinRel;
+using namespace wane;
+
+namespace {
+
+// |W(nu)| of a window's samples, nu in bins of its own length (DTFT, double precision).
+double dtft_magnitude(const std::vector<float>& w, double nu_bins) {
+    std::complex<double> sum{0.0, 0.0};
+    const double step = -two_pi * nu_bins / double(w.size());
+    for (std::size_t n = 0; n < w.size(); ++n) sum += double(w[n]) * std::polar(1.0, step * double(n));
+    return std::abs(sum);
+}
+
+struct window_figures {
+    double highest_sidelobe_db;
+    double enbw_bins;
+    double bandwidth_3db_bins;
+    double scalloping_loss_db;
+};
+
+// The 3 dB bandwidth is the full width where the power response is half its peak:
+// 10 log10(1/2) = -3.0103 dB.
+constexpr double half_power_db = -3.0102999566;
+
+window_figures measure_window(window_kind kind) {
+    constexpr int length = 1024;
+    const auto w = make_window(kind, length, window_symmetry::periodic);  // Harris's DFT-even form
+    double sum = 0.0, sum2 = 0.0;
+    for (float v : w) {
+        sum += double(v);
+        sum2 += double(v) * double(v);
+    }
+    const double w0 = dtft_magnitude(w, 0.0);
+    const auto rel_db = [&](double nu) { return 20.0 * std::log10(dtft_magnitude(w, nu) / w0); };
+    window_figures out{};
+    out.enbw_bins = length * sum2 / (sum * sum);
+    out.scalloping_loss_db = -rel_db(0.5);
+    double lo = 0.0, hi = 2.0;  // the half-power point lies in the main lobe, below 2 bins here
+    for (int i = 0; i < 60; ++i) {
+        const double mid = 0.5 * (lo + hi);
+        (rel_db(mid) > half_power_db ? lo : hi) = mid;
+    }
+    out.bandwidth_3db_bins = 2.0 * lo;
+    // Highest sidelobe: past the first null of the main lobe, scan finely to 40 bins.
+    constexpr double step = 0.005;
+    double nu = step;
+    double prev = rel_db(0.0);
+    while (rel_db(nu) < prev) prev = rel_db(nu), nu += step;
+    double highest = -infinity;
+    for (; nu < 40.0; nu += step) highest = std::max(highest, rel_db(nu));
+    out.highest_sidelobe_db = highest;
+    return out;
+}
+
+}  // namespace
+
+TEST_CASE("window figures match the published tables", "[spectrum][window]") {
+    struct published {
+        window_kind kind;
+        // Heinzel, Ruediger and Schilling 2002, "Spectrum and spectral density estimation by the
+        // DFT", window appendix: PSLL, NENBW, W3dB, emax (values from memory).
+        double sidelobe_db, enbw_bins, bw3_bins, scallop_db;
+        // Harris 1978, Table 1: highest sidelobe (rounded to 1 dB there, so not compared),
+        // ENBW, 3.0 dB BW, scallop loss (values from memory).
+        double harris_enbw, harris_bw3, harris_scallop_db;
+    };
+    const auto ref = GENERATE(
+        published{window_kind::hann, -31.5, 1.5000, 1.4382, 1.4236, 1.50, 1.44, 1.42},
+        published{window_kind::hamming, -42.7, 1.3628, 1.3008, 1.7514, 1.36, 1.30, 1.78},
+        published{window_kind::blackman_harris_4, -92.0, 2.0044, 1.8962, 0.8256, 2.00, 1.90, 0.83});
+    const window_figures got = measure_window(ref.kind);
+    INFO("window " << window_name(ref.kind) << ": sidelobe " << got.highest_sidelobe_db << " dB, ENBW "
+                   << got.enbw_bins << ", 3 dB BW " << got.bandwidth_3db_bins << ", scallop "
+                   << got.scalloping_loss_db << " dB");
+    CHECK_THAT(got.highest_sidelobe_db, WithinAbs(ref.sidelobe_db, 0.1));  // Heinzel et al. 2002
+    CHECK_THAT(got.enbw_bins, WithinAbs(ref.enbw_bins, 0.01));              // Heinzel et al. 2002
+    CHECK_THAT(got.bandwidth_3db_bins, WithinAbs(ref.bw3_bins, 0.01));      // Heinzel et al. 2002
+    CHECK_THAT(got.scalloping_loss_db, WithinAbs(ref.scallop_db, 0.1));     // Heinzel et al. 2002
+    CHECK_THAT(got.enbw_bins, WithinAbs(ref.harris_enbw, 0.01));            // Harris 1978, Table 1
+    CHECK_THAT(got.bandwidth_3db_bins, WithinAbs(ref.harris_bw3, 0.01));    // Harris 1978, Table 1
+    CHECK_THAT(got.scalloping_loss_db, WithinAbs(ref.harris_scallop_db, 0.1));  // Harris 1978, Table 1
+}
+
+TEST_CASE("STFT frame equals FFTW's transform of the same zero-phase frame", "[spectrum][stft]") {
+    const int fft_size = GENERATE(2048, 2400, 4096);
+    constexpr int window_length = 1001;
+    constexpr std::int64_t centre = 1500;
+    std::mt19937 rng(12345);
+    std::uniform_real_distribution<float> uni(-1.0f, 1.0f);
+    std::vector<float> x(4000);
+    for (float& v : x) v = uni(rng);
+
+    stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = window_length, .fft_size = fft_size});
+    plan.analyze(x, centre);
+
+    // Reference: FFTW (double) of buf[m mod M] = w[h + m] x[c + m], m = -h..h.
+    const auto w = make_window(window_kind::blackman_harris_4, window_length, window_symmetry::symmetric);
+    const int h = window_length / 2;
+    double* in = fftw_alloc_real(static_cast<std::size_t>(fft_size));
+    fftw_complex* out = fftw_alloc_complex(static_cast<std::size_t>(fft_size / 2 + 1));
+    fftw_plan p = fftw_plan_dft_r2c_1d(fft_size, in, out, FFTW_ESTIMATE);
+    std::fill(in, in + fft_size, 0.0);
+    for (int m = -h; m <= h; ++m) in[(m + fft_size) % fft_size] = double(w[h + m]) * double(x[centre + m]);
+    fftw_execute(p);
+    double max_ref = 0.0, max_diff = 0.0;
+    const auto bins = plan.bins();
+    REQUIRE(bins.size() == static_cast<std::size_t>(fft_size / 2 + 1));
+    for (std::size_t k = 0; k < bins.size(); ++k) {
+        const std::complex<double> ref{out[k][0], out[k][1]};
+        const std::complex<double> got{bins[k].r, bins[k].i};
+        max_ref = std::max(max_ref, std::abs(ref));
+        max_diff = std::max(max_diff, std::abs(got - ref));
+    }
+    fftw_destroy_plan(p);
+    fftw_free(in);
+    fftw_free(out);
+    CAPTURE(fft_size, max_diff, max_ref);
+    CHECK(max_diff / max_ref < 1e-5);
+    // And the power array is |X|^2 (2 / sum w)^2.
+    const double k_scale = plan.amp_scale() * plan.amp_scale();
+    CHECK_THAT(double(plan.power()[100]),
+               WithinRel(k_scale * (double(bins[100].r) * double(bins[100].r) + double(bins[100].i) * double(bins[100].i)), 1e-5));
+}
+
+TEST_CASE("a sinusoid written by sox is found at its frequency and level", "[spectrum][sox]") {
+    const auto kind = GENERATE(window_kind::hann, window_kind::hamming, window_kind::blackman_harris_4);
+    const auto dir = std::filesystem::temp_directory_path() / ("wane_test_spectrum_" + std::to_string(::getpid()));
+    std::filesystem::create_directories(dir);
+    const auto path = dir / "s.wav";
+    const std::string cmd = "sox -n -r 48000 -b 24 '" + path.string() + "' synth 2 sine 1234.5";
+    REQUIRE(std::system(cmd.c_str()) == 0);
+    SF_INFO info{};
+    SNDFILE* f = sf_open(path.c_str(), SFM_READ, &info);
+    REQUIRE(f != nullptr);
+    std::vector<float> x(static_cast<std::size_t>(info.frames));
+    REQUIRE(sf_readf_float(f, x.data(), info.frames) == info.frames);
+    sf_close(f);
+    std::filesystem::remove_all(dir);
+    REQUIRE(info.samplerate == 48000);
+    // sox's synth writes full scale; the true amplitude is the samples' peak (24-bit: 1 - 2^-23).
+    float peak = 0.0f;
+    for (float v : x) peak = std::max(peak, std::abs(v));
+    const double expected_db = 20.0 * std::log10(double(peak));
+    CAPTURE(peak, expected_db);
+    CHECK(expected_db > -0.01);
+
+    constexpr int window_length = 4801;  // 0.1 s
+    const int fft_size = fast_fft_size(2 * window_length);
+    stft_plan plan({.window = kind, .window_length = window_length, .fft_size = fft_size});
+    plan.analyze(x, 48000);
+    std::vector<spectral_peak> peaks;
+    find_peaks(plan.power(), plan.bins(), plan.correction(), fft_size, 48000.0, nullptr,
+               {.below_max_db = 30.0}, peaks);
+    INFO("window " << window_name(kind) << ", fft " << fft_size);
+    REQUIRE(peaks.size() == 1);
+    CAPTURE(peaks[0].freq_hz, peaks[0].level_db);
+    CHECK_THAT(peaks[0].freq_hz, WithinAbs(1234.5, 0.01));   // sox synth frequency
+    CHECK_THAT(peaks[0].level_db, WithinAbs(expected_db, 0.05));
+    // sox starts the sine at phase 0 (sin), i.e. cos phase -pi/2 at t = 0.
+    const double expected_phase = std::remainder(two_pi * 1234.5 * 1.0 - pi / 2.0, two_pi);
+    CAPTURE(peaks[0].phase_rad, expected_phase);
+    CHECK_THAT(std::remainder(peaks[0].phase_rad - expected_phase, two_pi), WithinAbs(0.0, 0.01));
+}
+
+TEST_CASE("frequency error of a sinusoid in white noise stays within 2x the Cramer-Rao bound",
+          "[spectrum][crb]") {
+    // Hann and Hamming within 2x the bound. The Blackman-Harris window's own loss of precision is
+    // sqrt(sum w^2 n^2 (N^3 / 12)) / sum w n^2 = 2.16 (high-SNR variance of the windowed peak
+    // estimate, from memory; computed for this window), so it gets 2.5x. Hamming's far sidelobes
+    // (-43 dB, falling 6 dB/octave) let the negative-frequency image bias the estimate by about
+    // 0.005 Hz here, which exceeds the bound above 40 dB SNR, so Hamming is checked up to 40 dB.
+    struct case_t {
+        window_kind kind;
+        double max_ratio;
+        double snr_db;
+    };
+    const auto c = GENERATE(
+        case_t{window_kind::hann, 2.0, 20.0}, case_t{window_kind::hann, 2.0, 30.0},
+        case_t{window_kind::hann, 2.0, 40.0}, case_t{window_kind::hann, 2.0, 50.0},
+        case_t{window_kind::hann, 2.0, 60.0}, case_t{window_kind::hamming, 2.0, 20.0},
+        case_t{window_kind::hamming, 2.0, 30.0}, case_t{window_kind::hamming, 2.0, 40.0},
+        case_t{window_kind::blackman_harris_4, 2.5, 20.0}, case_t{window_kind::blackman_harris_4, 2.5, 30.0},
+        case_t{window_kind::blackman_harris_4, 2.5, 40.0}, case_t{window_kind::blackman_harris_4, 2.5, 50.0},
+        case_t{window_kind::blackman_harris_4, 2.5, 60.0});
+    const double snr_db = c.snr_db;
+    constexpr int length = 1025;
+    constexpr double fs = 48000.0;
+    constexpr int trials = 200;
+    const auto kind = c.kind;
+    const int fft_size = fast_fft_size(2 * length);
+    stft_plan plan({.window = kind, .window_length = length, .fft_size = fft_size});
+    std::mt19937_64 rng(20260101u + static_cast<unsigned>(snr_db));
+    std::normal_distribution<double> gauss(0.0, 1.0);
+    std::uniform_real_distribution<double> uni(0.0, 1.0);
+    const double amp = 0.5;
+    // SNR = A^2 / (2 sigma^2).
+    const double sigma = amp / std::sqrt(2.0 * std::pow(10.0, snr_db / 10.0));
+    std::vector<float> x(length);
+    std::vector<spectral_peak> peaks;
+    double sum_sq = 0.0;
+    int found = 0;
+    for (int t = 0; t < trials; ++t) {
+        const double f = 4000.0 + 500.0 * uni(rng);
+        const double phi = two_pi * uni(rng);
+        for (int n = 0; n < length; ++n)
+            x[n] = static_cast<float>(amp * std::cos(two_pi * f * n / fs + phi) + sigma * gauss(rng));
+        plan.analyze(x, length / 2);
+        find_peaks(plan.power(), plan.bins(), plan.correction(), fft_size, fs, nullptr,
+                   {.below_max_db = 10.0}, peaks);
+        if (peaks.empty()) continue;
+        const auto best = std::max_element(peaks.begin(), peaks.end(),
+                                           [](auto& a, auto& b) { return a.level_db < b.level_db; });
+        sum_sq += (best->freq_hz - f) * (best->freq_hz - f);
+        ++found;
+    }
+    REQUIRE(found == trials);
+    const double rms_hz = std::sqrt(sum_sq / trials);
+    // Rife and Boorstyn 1974: var(omega) >= 12 / (SNR N (N^2 - 1)), omega in rad/sample.
+    const double snr = std::pow(10.0, snr_db / 10.0);
+    const double crb_hz = std::sqrt(12.0 / (snr * length * (double(length) * length - 1.0))) * fs / two_pi;
+    INFO("window " << window_name(kind));
+    CAPTURE(snr_db, rms_hz, crb_hz, rms_hz / crb_hz);
+    CHECK(rms_hz <= c.max_ratio * crb_hz);
+}
+
+TEST_CASE("noise floor reads the mean noise power of white noise", "[spectrum][floor]") {
+    // White Gaussian noise of variance s^2: E|X_k|^2 = s^2 sum w^2, on the sinusoid scale
+    // (2 / sum w)^2 that is 4 s^2 sum w^2 / (sum w)^2 (exact ground truth of the estimator's target).
+    constexpr int length = 2049;
+    const int fft_size = fast_fft_size(2 * length);
+    stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = length, .fft_size = fft_size});
+    std::mt19937 rng(777);
+    std::normal_distribution<float> gauss(0.0f, 0.01f);
+    std::vector<float> x(48000);
+    for (float& v : x) v = gauss(rng);
+    double sw = 0.0, sw2 = 0.0;
+    for (float v : plan.window_samples()) sw += double(v), sw2 += double(v) * double(v);
+    const double expected_db = 10.0 * std::log10(4.0 * 1e-4 * sw2 / (sw * sw));
+    noise_floor floor(fft_size / 2 + 1, 48000.0 / fft_size, 0.01);
+    for (std::int64_t c = length; c + length < 48000; c += 480) {
+        plan.analyze(x, c);
+        floor.update(plan.power());
+    }
+    for (double f_hz : {500.0, 5000.0, 15000.0}) {
+        CAPTURE(f_hz, floor.floor_db_at(f_hz), expected_db);
+        CHECK_THAT(floor.floor_db_at(f_hz), WithinAbs(expected_db, 1.5));
+    }
+}
