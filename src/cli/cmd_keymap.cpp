@@ -1,15 +1,277 @@
-// wane keymap: placeholder until its issue lands; refuses to run rather than pretend.
+// wane keymap: render a multisample set from one patch (notes x velocity layers x round-robin
+// variants) on all cores, and write an SFZ file that maps it onto the keyboard. The plan (which
+// notes, file names, key and velocity ranges, the SFZ text) is transform/keymap.hpp; this file
+// renders, levels and writes.
+//
+// Levels: all renders share one gain so the layers keep their relative levels. If the loudest
+// render would exceed full scale, every render is scaled by the same gain so that it peaks at
+// keymap_peak_target_db, and a warning says so with the peak found.
+// Memory: the renders are kept in memory between measuring the peak and writing when they fit in
+// keymap_memory_budget_bytes; otherwise each is rendered twice (once for the peak, once to write).
+#include <algorithm>
+#include <atomic>
+#include <chrono>
+#include <cmath>
+#include <exception>
+#include <filesystem>
+#include <mutex>
+#include <sstream>
+#include <thread>
+#include <vector>
+
 #include "cli/common.hpp"
+#include "cli/transform_options.hpp"
+#include "io/atomic_file.hpp"
+#include "io/audio_file.hpp"
+#include "io/errors.hpp"
+#include "io/patch_toml.hpp"
+#include "io/progress.hpp"
+#include "synthesis/render.hpp"
+#include "transform/keymap.hpp"
+#include "transform/rng.hpp"
 
 namespace wane::cli {
 
-void add_keymap_command(CLI::App& app, command_registry& reg) {
-    CLI::App* sub = app.add_subcommand("keymap", "(not built yet)");
-    sub->allow_extras();
-    reg.add(sub, [] {
-        print_error("'keymap' is not built yet");
-        return exit_failure;
+namespace {
+
+constexpr double default_keymap_rate_hz = 48000.0;
+/// Peak of the loudest render after a common gain was needed: 1 dB below full scale leaves room
+/// for the reconstruction peaks between samples (common practice, no source).
+constexpr double keymap_peak_target_db = -1.0;
+constexpr std::size_t keymap_memory_budget_bytes = std::size_t{1} << 30;  // 1 GiB of float samples
+constexpr int max_keymap_variants = 64;
+/// Threads of the write phase when the renders are kept in memory: writing is bound by the
+/// latency of each file's fsync (atomic output), not by the CPU, so more writes in flight than
+/// cores shorten the wall time (measured: see tools/bench_keymap.cpp).
+constexpr int keymap_writer_threads = 8;
+/// Mixed into a job's variation seed to seed its noise bands (any constant; "noise" in ASCII).
+constexpr std::uint64_t noise_seed_salt = 0x6e6f697365;
+
+/// Variation used for round-robin variants when none is given (our choice, no source: small
+/// enough that the variants sound like the same instrument, large enough to avoid the
+/// machine-gun effect of identical repeats).
+constexpr double rr_default_detune_cents = 2.0;
+constexpr double rr_default_level_jitter_db = 0.5;
+constexpr double rr_default_decay_jitter = 0.05;
+
+struct keymap_options {
+    std::string input;
+    std::string output_dir;
+    std::string notes;
+    int every = 1;
+    int layers = 1;
+    int variants = 1;
+    double layer_step_db = default_layer_step_db;
+    double layer_brightness_step = default_layer_brightness_step_db_per_oct;
+    double rate_hz = default_keymap_rate_hz;
+    std::string bits = "24";
+    int threads = 0;
+    transform_cli transforms;
+};
+
+double peak_abs(const std::vector<float>& x) {
+    float m = 0.0f;
+    for (float v : x) m = std::max(m, std::abs(v));
+    return static_cast<double>(m);
+}
+
+std::string fmt(double v, int precision = 3) {
+    std::ostringstream s;
+    s.setf(std::ios::fixed);
+    s.precision(precision);
+    s << v;
+    return s.str();
+}
+
+/// Runs work(i) for i in [0, count) on `threads` threads; the first exception stops the rest and
+/// is rethrown here.
+template <class Work>
+void parallel_for(std::size_t count, int threads, Work work) {
+    std::atomic<std::size_t> next{0};
+    std::atomic<bool> failed{false};
+    std::exception_ptr error;
+    std::mutex error_mutex;
+    auto worker = [&] {
+        while (!failed.load()) {
+            const std::size_t i = next.fetch_add(1);
+            if (i >= count) return;
+            try {
+                work(i);
+            } catch (...) {
+                std::lock_guard lock(error_mutex);
+                if (!error) error = std::current_exception();
+                failed = true;
+            }
+        }
+    };
+    const std::size_t n = std::min<std::size_t>(static_cast<std::size_t>(std::max(threads, 1)), count);
+    std::vector<std::thread> pool;
+    for (std::size_t t = 1; t < n; ++t) pool.emplace_back(worker);
+    worker();
+    for (std::thread& t : pool) t.join();
+    if (error) std::rethrow_exception(error);
+}
+
+int run_keymap(keymap_options o) {
+    const auto start = std::chrono::steady_clock::now();
+    // ---- Options (all checked before anything is read or written).
+    if (o.transforms.transpose_semitones || !o.transforms.to_note.empty()) {
+        throw usage_error(std::string(o.transforms.transpose_semitones ? "--transpose" : "--to-note") +
+                          ": not available with keymap, which moves the patch to each note of --notes");
+    }
+    transform_params base = to_params(o.transforms);
+    note_range range;
+    try {
+        range = parse_note_range(o.notes);
+    } catch (const transform_error& e) {
+        throw usage_error(std::string("--notes: ") + e.what());
+    }
+    if (o.every < 1) throw usage_error("--every: must be at least 1");
+    if (o.layers < 1 || o.layers > max_keymap_layers) throw usage_error("--layers: must be between 1 and 127");
+    if (o.variants < 1 || o.variants > max_keymap_variants) throw usage_error("--variants: must be between 1 and 64");
+    if (!std::isfinite(o.layer_step_db) || o.layer_step_db < 0.0) throw usage_error("--layer-step-db: must be >= 0");
+    if (!std::isfinite(o.layer_brightness_step)) throw usage_error("--layer-tilt-db-oct: must be a finite number");
+    if (!std::isfinite(o.rate_hz) || o.rate_hz < min_render_rate_hz || o.rate_hz > max_render_rate_hz) {
+        throw usage_error("--rate: must be between 8000 and 192000 Hz");
+    }
+    const auto format = parse_sample_format(o.bits);
+    if (!format) throw usage_error("--bits: must be 16, 24 or 32f, not '" + o.bits + "'");
+    if (o.threads < 0) throw usage_error("--threads: must be 0 (all cores) or more");
+    const int threads = o.threads > 0 ? o.threads : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
+
+    const std::filesystem::path in{o.input};
+    const patch_read_result read = read_patch_file(in);
+    for (const std::string& w : read.warnings) warn(w);
+    const patch& source = read.value;
+    if (!(source.note.f0_hz > 0.0)) {
+        throw std::runtime_error(o.input + ": keymap needs a pitched patch (note.f0_hz > 0) to move it to each note");
+    }
+    if (o.variants > 1 && !varies(base.variation)) {
+        base.variation.detune_cents = rr_default_detune_cents;
+        base.variation.level_jitter_db = rr_default_level_jitter_db;
+        base.variation.decay_jitter = rr_default_decay_jitter;
+        base.variation.random_phase = true;
+        say("round-robin variants without a variation option: using --detune-cents " + fmt(rr_default_detune_cents, 1) +
+            " --level-jitter-db " + fmt(rr_default_level_jitter_db, 1) + " --decay-jitter " +
+            fmt(rr_default_decay_jitter, 2) + " --random-phase");
+    }
+
+    const keymap_params plan_params{.notes = range,
+                                    .every = o.every,
+                                    .layers = o.layers,
+                                    .variants = o.variants,
+                                    .layer_step_db = o.layer_step_db,
+                                    .layer_brightness_step_db_per_oct = o.layer_brightness_step,
+                                    .seed = base.variation.seed};
+    const std::vector<keymap_job> jobs = plan_keymap(plan_params);
+
+    // ---- Every job's patch, before any output exists (a note that leaves no partial below
+    // Nyquist stops here with its name).
+    std::vector<patch> patches;
+    patches.reserve(jobs.size());
+    std::vector<render_params> renders;
+    renders.reserve(jobs.size());
+    for (const keymap_job& j : jobs) {
+        try {
+            patches.push_back(apply_transforms(source, keymap_job_transform(base, j), o.rate_hz));
+        } catch (const transform_error& e) {
+            const std::string option = e.param == "to_midi" ? "--notes" : transform_option_name(e.param);
+            throw std::runtime_error(o.input + ": " + option + ": note " + note_name(j.root_midi) + ": " + e.what());
+        }
+        renders.push_back({.sample_rate_hz = o.rate_hz, .noise_seed = derive_seed(j.seed, noise_seed_salt)});
+    }
+    const render_summary summary = summarize_render(patches.front(), renders.front());
+    if (summary.noise_bands_not_rendered > 0) {
+        warn(o.input + ": " + std::to_string(summary.noise_bands_not_rendered) +
+             " noise band(s) are not rendered by this version of the renderer");
+    }
+
+    const std::filesystem::path dir{o.output_dir};
+    std::error_code ec;
+    std::filesystem::create_directories(dir, ec);
+    if (ec || !std::filesystem::is_directory(dir)) {
+        throw wane::io_error(o.output_dir + ": cannot create the output folder" + (ec ? ": " + ec.message() : std::string()));
+    }
+    const std::filesystem::path sfz_path = dir / (in.stem().string() + ".sfz");
+    const std::vector<std::filesystem::path> inputs{in};
+    refuse_overwriting_input(sfz_path, inputs);
+    for (const keymap_job& j : jobs) refuse_overwriting_input(dir / j.sample, inputs);
+
+    // ---- Render (peaks), then level and write.
+    std::size_t total_frames = 0;
+    for (std::size_t i = 0; i < jobs.size(); ++i) total_frames += render_frames(patches[i], renders[i]);
+    const bool keep = total_frames <= keymap_memory_budget_bytes / sizeof(float);
+    std::vector<std::vector<float>> kept(keep ? jobs.size() : 0);
+    std::vector<double> peaks(jobs.size(), 0.0);
+    progress_bar bar("keymap", 2 * jobs.size(), globals().quiet);
+    parallel_for(jobs.size(), threads, [&](std::size_t i) {
+        std::vector<float> x = render_patch(patches[i], renders[i]);
+        peaks[i] = peak_abs(x);
+        if (keep) kept[i] = std::move(x);
+        bar.advance();
     });
+    const auto loudest = static_cast<std::size_t>(std::max_element(peaks.begin(), peaks.end()) - peaks.begin());
+    const double peak = peaks[loudest];
+    double gain = 1.0;
+    if (peak > 1.0) {
+        gain = to_amp(level_db{keymap_peak_target_db}).lin / peak;
+        warn("the loudest render (" + jobs[loudest].sample + ") peaks at " + fmt(to_level(amp_lin{peak}).db, 2) +
+             " dBFS: all " + std::to_string(jobs.size()) + " renders are scaled by one common gain of " +
+             fmt(to_level(amp_lin{gain}).db, 2) + " dB (layers keep their levels) so it peaks at " +
+             fmt(keymap_peak_target_db, 1) + " dBFS");
+    }
+    const auto gain_f = static_cast<float>(gain);
+    const int write_threads = keep ? std::max(threads, keymap_writer_threads) : threads;
+    parallel_for(jobs.size(), write_threads, [&](std::size_t i) {
+        std::vector<float> x = keep ? std::move(kept[i]) : render_patch(patches[i], renders[i]);
+        if (gain != 1.0) {
+            for (float& v : x) v *= gain_f;
+        }
+        write_audio(dir / jobs[i].sample, x, o.rate_hz, {.format = *format, .root_midi = jobs[i].root_midi});
+        bar.advance();
+    });
+    bar.finish();
+    std::string title = "wane keymap of " + in.filename().string();
+    if (!source.note.name.empty()) title += " (" + source.note.name + ")";
+    write_file_atomic(sfz_path, keymap_sfz(jobs, plan_params, title));
+
+    const double elapsed_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+    const std::size_t notes = jobs.size() / static_cast<std::size_t>(o.layers * o.variants);
+    say("wrote " + std::to_string(jobs.size()) + " WAV files (" + std::to_string(notes) + " notes x " +
+        std::to_string(o.layers) + " layers x " + std::to_string(o.variants) + " variants) and " + sfz_path.string() +
+        "; loudest peak " + fmt(to_level(amp_lin{peak * gain}).db, 2) + " dBFS; " + fmt(elapsed_s, 2) + " s on " +
+        std::to_string(threads) + " threads");
+    return exit_ok;
+}
+
+}  // namespace
+
+void add_keymap_command(CLI::App& app, command_registry& reg) {
+    auto opts = std::make_shared<keymap_options>();
+    CLI::App* sub = app.add_subcommand(
+        "keymap", "Render a multisample set (notes x velocity layers x round-robin variants) and its SFZ file");
+    sub->add_option("patch", opts->input, "Patch to render (TOML; must have an f0)")->required();
+    sub->add_option("-o,--output", opts->output_dir, "Folder for the WAV files and the SFZ file (created if needed)")
+        ->required();
+    sub->add_option("--notes", opts->notes, "Key range LOW..HIGH, names or MIDI numbers, e.g. C2..C6")->required();
+    sub->add_option("--every", opts->every,
+                    "Render every N-th note (and the top one); each region covers the keys nearest it")
+        ->capture_default_str();
+    sub->add_option("--layers", opts->layers, "Velocity layers (1..127), each step softer and darker")
+        ->capture_default_str();
+    sub->add_option("--variants", opts->variants, "Round-robin variants per note and layer (1..64)")
+        ->capture_default_str();
+    sub->add_option("--layer-step-db", opts->layer_step_db, "Level difference between neighbouring layers, dB")
+        ->capture_default_str();
+    sub->add_option("--layer-tilt-db-oct", opts->layer_brightness_step,
+                    "Brightness difference between neighbouring layers, dB per octave above f0 (softer = darker)")
+        ->capture_default_str();
+    sub->add_option("--rate", opts->rate_hz, "Sample rate of the WAV files, Hz")->capture_default_str();
+    sub->add_option("--bits", opts->bits, "Sample format: 16, 24 or 32f")->capture_default_str();
+    sub->add_option("--threads", opts->threads, "Render threads (0 = all cores)")->capture_default_str();
+    add_transform_options(sub, opts->transforms);
+    sub->footer("Examples:\n  wane keymap pluck.toml -o pluck-set --notes C2..C6 --every 3 --layers 3 --variants 2");
+    reg.add(sub, [opts] { return run_keymap(*opts); });
 }
 
 }  // namespace wane::cli

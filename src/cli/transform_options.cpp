@@ -74,9 +74,9 @@ void add_transform_options(CLI::App* sub, transform_cli& o) {
     sub->add_flag("--even-only", o.even_only, "Keep only even harmonics (partials off the series stay)")->group(group_name);
     sub->add_option("--max-freq-hz", o.max_freq_hz, "Drop partials at or above this frequency")->group(group_name);
     sub->add_option("--set-b", o.set_b,
-                    "Set the inharmonicity B and move harmonic partials to n f0 sqrt(1 + B n^2)")
+                    "Set the inharmonicity B and place harmonic partials exactly at n f0 sqrt(1 + B n^2)")
         ->group(group_name);
-    sub->add_option("--scale-b", o.scale_b, "Multiply B by this factor and move the harmonic partials accordingly")
+    sub->add_option("--scale-b", o.scale_b, "Multiply B by this factor and place harmonic partials exactly at n f0 sqrt(1 + B n^2)")
         ->group(group_name);
     sub->add_option("--seed", o.seed, "Seed of the random variation (same seed, same variant)")
         ->capture_default_str()->group(group_name);

@@ -2,7 +2,9 @@
 #include "tracking/tracker.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
+#include <cstdio>
 #include <cstdint>
 #include <numeric>
 #include <stdexcept>
@@ -14,6 +16,7 @@
 #include "spectrum/stft.hpp"
 #include "tracking/onset.hpp"
 #include "tracking/pitch.hpp"
+#include "tracking/signal_checks.hpp"
 
 namespace wane {
 
@@ -40,8 +43,11 @@ constexpr double dev_min_bins = 2.0;             ///< ... but at least this many
 constexpr double dev_max_f0 = 0.3;               ///< ... and at most this fraction of f0
 constexpr int max_gap_frames = 3;                ///< gaps up to this many frames are bridged
 constexpr int min_track_frames = 5;
+constexpr double max_join_gap_s = 0.3;           ///< fragments of one partial this close are joined
+constexpr double join_rel_tol = 0.005;           ///< ... when their frequencies meet within this
 constexpr double min_track_windows = 1.5;        ///< ... and at least this many window lengths
 constexpr double harmonic_tolerance_rel = 0.02;  ///< labelling tracks with harmonic numbers
+constexpr double guide_tolerance_rel = 0.04;     ///< harmonic tracks stay this close to n f0 s_n
 constexpr int b_fit_rounds = 3;
 /// f0 is fitted on harmonics 1..this (given B from all): real strings stray from the ideal law
 /// more at high n (bridge coupling, tension modulation), and the low partials carry the pitch.
@@ -118,9 +124,91 @@ double resolve_spacing_hz(const std::vector<pitch_peak>& peaks, double f0_hz) {
     return std::max(spacing, min_spacing_hz);
 }
 
+/// Appends `frames` interpolated points after the track's last one, toward `next` (the next real
+/// point, one hop after the last inserted): frequency, level and floor linear, the phase advanced
+/// by 2 pi f hop at the mean frequency of each step.
+void bridge_gap(partial_track& track, int frames, const track_point& next, double hop_s) {
+    const track_point before = track.points.back();
+    for (int g = 1; g <= frames; ++g) {
+        const double a = double(g) / (frames + 1);
+        const track_point& prev = track.points.back();
+        const double f = before.freq_hz + a * (next.freq_hz - before.freq_hz);
+        track.points.push_back(
+            {.time_s = before.time_s + g * hop_s,
+             .freq_hz = f,
+             .level_db = before.level_db + a * (next.level_db - before.level_db),
+             .phase_rad = std::remainder(prev.phase_rad + two_pi * 0.5 * (prev.freq_hz + f) * hop_s, two_pi),
+             .floor_db = before.floor_db + a * (next.floor_db - before.floor_db)});
+    }
+}
+
+/// Median frequency of the first (or last) few points of a track: its ends can sit on a fading or
+/// rising edge where a single frame reads off.
+double edge_freq_hz(const partial_track& t, bool at_start) {
+    constexpr std::size_t edge_points = 5;
+    const std::size_t k = std::min(edge_points, t.points.size());
+    std::array<double, edge_points> f{};
+    for (std::size_t i = 0; i < k; ++i) f[i] = t.points[at_start ? i : t.points.size() - 1 - i].freq_hz;
+    for (std::size_t i = 1; i < k; ++i)  // insertion sort of <= 5 values
+        for (std::size_t j = i; j > 0 && f[j - 1] > f[j]; --j) std::swap(f[j - 1], f[j]);
+    return f[k / 2];
+}
+
+/// Joins fragments of one partial: a track starting within max_gap_s after another ended, at a
+/// frequency within rel_tol of where that one stopped, continues it (the gap bridged). Fragments
+/// come from a partial dipping into the noise (beating) for longer than the frame bridging allows.
+void join_fragments(std::vector<partial_track>& tracks, std::vector<double>& peak_db, double hop_s,
+                    double max_gap_s, double rel_tol) {
+    std::vector<std::size_t> order(tracks.size());
+    std::iota(order.begin(), order.end(), std::size_t{0});
+    std::sort(order.begin(), order.end(),
+              [&](auto a, auto c) { return tracks[a].points.front().time_s < tracks[c].points.front().time_s; });
+    std::vector<bool> absorbed(tracks.size(), false);
+    for (std::size_t oi = 0; oi < order.size(); ++oi) {
+        const std::size_t later = order[oi];
+        const track_point& first = tracks[later].points.front();
+        std::size_t best = tracks.size();
+        double best_dist = rel_tol;
+        for (std::size_t oj = 0; oj < oi; ++oj) {
+            const std::size_t earlier = order[oj];
+            if (absorbed[earlier] || tracks[earlier].cut_by_end) continue;
+            const track_point& last = tracks[earlier].points.back();
+            const double gap_s = first.time_s - last.time_s;
+            if (gap_s <= 0.5 * hop_s || gap_s > max_gap_s) continue;
+            const double dist = std::abs(edge_freq_hz(tracks[later], true) / edge_freq_hz(tracks[earlier], false) - 1.0);
+            if (dist < best_dist) best_dist = dist, best = earlier;
+        }
+        if (best == tracks.size()) continue;
+        partial_track& into = tracks[best];
+        const int gap_frames =
+            static_cast<int>(std::lround((first.time_s - into.points.back().time_s) / hop_s)) - 1;
+        bridge_gap(into, gap_frames, first, hop_s);
+        into.points.insert(into.points.end(), tracks[later].points.begin(), tracks[later].points.end());
+        into.cut_by_end = tracks[later].cut_by_end;
+        peak_db[best] = std::max(peak_db[best], peak_db[later]);
+        absorbed[later] = true;
+        // The joined track now ends where `later` ended: let it be found again by later fragments.
+        order[oi] = best;
+        absorbed[best] = false;
+    }
+    std::size_t keep = 0;
+    for (std::size_t i = 0; i < tracks.size(); ++i) {
+        if (absorbed[i]) continue;
+        if (keep != i) {
+            tracks[keep] = std::move(tracks[i]);
+            peak_db[keep] = peak_db[i];
+        }
+        ++keep;
+    }
+    tracks.resize(keep);
+    peak_db.resize(keep);
+}
+
 struct live_track {
     partial_track track;
     int harmonic = 0;
+    double guide_lo_hz = 0.0;  ///< a harmonic track takes peaks only in [lo, hi]
+    double guide_hi_hz = 0.0;
     int missed = 0;
     double peak_db = -infinity;
 };
@@ -150,6 +238,12 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
     float max_dev = 0.0f;
     for (float v : x) max_dev = std::max(max_dev, std::abs(v - dc));
     if (max_dev < min_signal) refuse("no signal: the samples are constant (silence or DC only)");
+    if (const clipping_report clip = find_clipping(x); clip.clipped) {
+        char peak_text[32];
+        std::snprintf(peak_text, sizeof peak_text, "%.2f", 20.0 * std::log10(clip.peak_lin));
+        refuse("clipped: the waveform is flattened at its peak (" + std::string(peak_text) + " dBFS) in " +
+               std::to_string(clip.runs) + " places; the partial levels would be wrong");
+    }
 
     tracking_result result;
     const std::int64_t onset = detect_onset(x, fs);
@@ -267,8 +361,7 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
             auto it = std::lower_bound(peaks.begin(), peaks.end(), last.freq_hz - d,
                                        [](const spectral_peak& p, double f) { return p.freq_hz < f; });
             for (; it != peaks.end() && it->freq_hz <= last.freq_hz + d; ++it) {
-                if (live[ti].harmonic > 0 &&
-                    harmonic_number(it->freq_hz, f0_hz, b, harmonic_tolerance_rel * 2.0) != live[ti].harmonic)
+                if (live[ti].harmonic > 0 && (it->freq_hz < live[ti].guide_lo_hz || it->freq_hz > live[ti].guide_hi_hz))
                     continue;  // harmonic guidance: stay on the series member n f0 sqrt(1 + B n^2)
                 matches.push_back({std::abs(it->freq_hz - last.freq_hz) / d, ti,
                                    static_cast<std::uint32_t>(it - peaks.begin())});
@@ -282,19 +375,8 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
             peak_used[mt.peak] = track_used[mt.track] = true;
             live_track& t = live[mt.track];
             const spectral_peak& p = peaks[mt.peak];
-            // Bridge a gap: interpolate frequency and level, advance the phase at that frequency.
-            const track_point before = t.track.points.back();
-            for (int g = 1; g <= t.missed; ++g) {
-                const double a = double(g) / (t.missed + 1);
-                const track_point& prev = t.track.points.back();
-                const double f = before.freq_hz + a * (p.freq_hz - before.freq_hz);
-                t.track.points.push_back(
-                    {.time_s = before.time_s + g * hop_time_s,
-                     .freq_hz = f,
-                     .level_db = before.level_db + a * (p.level_db - before.level_db),
-                     .phase_rad = std::remainder(prev.phase_rad + two_pi * 0.5 * (prev.freq_hz + f) * hop_time_s, two_pi),
-                     .floor_db = before.floor_db + a * (p.floor_db - before.floor_db)});
-            }
+            bridge_gap(t.track, t.missed, {.freq_hz = p.freq_hz, .level_db = p.level_db, .floor_db = p.floor_db},
+                       hop_time_s);
             t.missed = 0;
             t.track.points.push_back({.time_s = time_s, .freq_hz = p.freq_hz, .level_db = p.level_db,
                                       .phase_rad = p.phase_rad, .floor_db = p.floor_db});
@@ -319,6 +401,14 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
                 continue;
             live_track t;
             t.harmonic = harmonic_number(p.freq_hz, f0_hz, b, harmonic_tolerance_rel);
+            if (t.harmonic > 0) {
+                // The band harmonic_number(f, f0, B, 2 x tolerance) maps to this n.
+                const double nd = t.harmonic;
+                const double guide_hz = nd * f0_hz * std::sqrt(1.0 + b * nd * nd);
+                const double tol = std::min(guide_tolerance_rel, 0.25 / nd);
+                t.guide_lo_hz = guide_hz * (1.0 - tol);
+                t.guide_hi_hz = guide_hz * (1.0 + tol);
+            }
             t.peak_db = p.level_db;
             t.track.points.push_back({.time_s = time_s, .freq_hz = p.freq_hz, .level_db = p.level_db,
                                       .phase_rad = p.phase_rad, .floor_db = p.floor_db});
@@ -334,6 +424,7 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
     result.floor_db.resize(floor_sum.size());
     for (std::size_t bnd = 0; bnd < floor_sum.size(); ++bnd) result.floor_db[bnd] = floor_sum[bnd] / frames;
     if (done.empty()) refuse("no partials above the noise floor");
+    join_fragments(done, done_peak_db, result.hop_s, max_join_gap_s, join_rel_tol);
 
     // ---- keep the strongest, label harmonics, fit B ----
     std::vector<double> strength(done.size()), rep_freq(done.size()), weight(done.size()),
@@ -384,6 +475,24 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
         }
         for (std::size_t i = 0; i < order.size(); ++i)
             harmonic[i] = harmonic_number(freqs[i], f0_hz, b, harmonic_tolerance_rel);
+        // Real strings drift from the law at high n, so the global series can miss a partial or
+        // be a whole number off there. Walking up in frequency, each track is numbered from the
+        // nearest numbered track below (the series through it, same B) when that works, else by
+        // the global series if that keeps the numbers rising; each new number anchors the next.
+        std::size_t anchor = order.size();
+        for (std::size_t i = 0; i < order.size(); ++i) {
+            const int global = harmonic[i];
+            int label = global;
+            if (anchor != order.size()) {
+                const int n_anchor = harmonic[anchor];
+                const double na = n_anchor;
+                const double local_f0 = freqs[anchor] / (na * std::sqrt(1.0 + b * na * na));
+                const int chained = harmonic_number(freqs[i], local_f0, b, harmonic_tolerance_rel);
+                label = chained >= n_anchor ? chained : (global > n_anchor ? global : 0);
+            }
+            harmonic[i] = label;
+            if (label > 0 && (anchor == order.size() || label > harmonic[anchor])) anchor = i;
+        }
     }
     result.series_f0_hz = f0_hz;
     result.inharmonicity_b = f0_hz > 0.0 ? b : 0.0;

@@ -216,6 +216,20 @@ TEST_CASE("bad input is refused with a clear message", "[tracking][bad]") {
         short_file[i] = static_cast<float>(0.5 * std::sin(two_pi * 440.0 * double(i) / fs));
     CHECK_THROWS_WITH(track_note(short_file, fs, {}), Contains("too short"));
     CHECK_THROWS_AS(track_note(short_file, fs, {}), std::invalid_argument);
+    // Clipped: a 220 Hz sine of amplitude 1.5 cut at +-1 (flat tops every half period).
+    std::vector<float> clipped(48000);
+    for (std::size_t i = 0; i < clipped.size(); ++i)
+        clipped[i] = static_cast<float>(std::clamp(1.5 * std::sin(two_pi * 220.0 * double(i) / fs), -1.0, 1.0));
+    CHECK_THROWS_WITH(track_note(clipped, fs, {}), Contains("clipped") && Contains("0.00 dBFS"));
+    // The same sine unclipped at full scale, and a 16-bit-quantized 40 Hz sine (its peak value
+    // repeats over several samples), are not clipped.
+    std::vector<float> clean(48000), slow(48000);
+    for (std::size_t i = 0; i < clean.size(); ++i) {
+        clean[i] = static_cast<float>(std::sin(two_pi * 220.0 * double(i) / fs));
+        slow[i] = static_cast<float>(std::round(32767.0 * std::sin(two_pi * 40.0 * double(i) / fs)) / 32768.0);
+    }
+    CHECK_NOTHROW(track_note(clean, fs, {}));
+    CHECK_NOTHROW(track_note(slow, fs, {}));
     CHECK_THROWS_AS(track_note(noise, fs, {}), std::invalid_argument);
 }
 
@@ -283,4 +297,78 @@ TEST_CASE("a high, very stiff string keeps its harmonic numbers", "[tracking][st
         ++labelled;
     }
     CHECK(labelled == 12);
+}
+
+TEST_CASE("a partial that dips into the noise stays one track", "[tracking][join]") {
+    // 440 Hz, silent from 0.5 to 0.7 s (amplitude 0 there, raised-cosine edges of 20 ms), with a
+    // steady 660 Hz partial beside it. Ground truth: one 440 Hz partial over the whole note.
+    constexpr double fs = 48000.0;
+    const auto count = static_cast<std::size_t>(1.5 * fs);
+    std::vector<float> x(count);
+    std::mt19937 rng(13);
+    std::normal_distribution<double> gauss(0.0, 1e-5);
+    for (std::size_t i = 0; i < count; ++i) {
+        const double t = double(i) / fs;
+        double gate = 1.0;
+        constexpr double edge_s = 0.02;
+        if (t > 0.5 - edge_s && t < 0.7 + edge_s) {
+            if (t < 0.5) gate = 0.5 + 0.5 * std::cos(pi * (t - (0.5 - edge_s)) / edge_s);
+            else if (t > 0.7) gate = 0.5 - 0.5 * std::cos(pi * (t - 0.7) / edge_s);
+            else gate = 0.0;
+        }
+        x[i] = static_cast<float>(0.3 * gate * std::cos(two_pi * 440.0 * t) + 0.2 * std::cos(two_pi * 660.0 * t + 1.0) +
+                                  gauss(rng));
+    }
+    const tracking_result r = track_note(x, fs, {});
+    int at_440 = 0;
+    for (const auto& t : r.tracks) {
+        if (std::abs(track_freq_hz(t) - 440.0) > 1.0) continue;
+        ++at_440;
+        CAPTURE(t.points.front().time_s, t.points.back().time_s, t.points.size());
+        CHECK(t.points.front().time_s < 0.05);
+        CHECK(t.points.back().time_s > 1.3);
+        // Consecutive frames: the gap is bridged, one point per hop.
+        CHECK_THAT(t.points.back().time_s - t.points.front().time_s,
+                   WithinAbs(double(t.points.size() - 1) * r.hop_s, 1e-9));
+    }
+    CHECK(at_440 == 1);
+}
+
+TEST_CASE("partials straying from the stiff-string law keep their numbers", "[tracking][labels]") {
+    // f_n = n f0 sqrt(1 + B n^2) (1 + 1.5e-6 n^3): 4% sharp of the law at n = 30, which the
+    // single-B series cannot follow; the true numbers are the ground truth.
+    constexpr double fs = 48000.0, f0 = 100.0, b = 1e-4;
+    std::vector<synth_partial> partials;
+    for (int n = 1; n <= 30; ++n) {
+        const double nd = n;
+        partials.push_back({nd * f0 * std::sqrt(1.0 + b * nd * nd) * (1.0 + 1.5e-6 * nd * nd * nd), 0.3 / nd, 3.0, 0.4 * nd});
+    }
+    const auto x = synth(partials, fs, 1.0, 0.0, 1e-5, 17);
+    const tracking_result r = track_note(x, fs, {});
+    CAPTURE(r.f0_hz, r.series_f0_hz, r.inharmonicity_b);
+    CHECK(r.tracks.size() == 30);
+    for (const auto& t : r.tracks) {
+        const double f = track_freq_hz(t);
+        const auto it = std::min_element(partials.begin(), partials.end(), [&](auto& a, auto& c) {
+            return std::abs(a.freq_hz - f) < std::abs(c.freq_hz - f);
+        });
+        CAPTURE(f, t.harmonic);
+        CHECK(t.harmonic == static_cast<int>(it - partials.begin()) + 1);
+    }
+}
+
+TEST_CASE("odd harmonics only, falling as 1/n^2 (a triangle wave): f0 and B = 0", "[tracking][f0]") {
+    constexpr double fs = 44100.0, f0 = 300.0;
+    std::vector<synth_partial> partials;
+    for (int n = 1; n <= 31; n += 2) partials.push_back({n * f0, 0.8 / (n * n), 4.0, 0.0});  // exact series
+    const auto x = synth(partials, fs, 1.0, 0.0, 1e-6, 23);
+    const tracking_result r = track_note(x, fs, {});
+    CAPTURE(r.f0_hz, r.inharmonicity_b, r.tracks.size());
+    CHECK(std::abs(cents_between(r.f0_hz, f0)) < 0.1);
+    CHECK(r.inharmonicity_b < 1e-6);
+    for (const auto& t : r.tracks) {
+        CAPTURE(track_freq_hz(t), t.harmonic);
+        CHECK(t.harmonic % 2 == 1);
+        CHECK(std::abs(cents_between(track_freq_hz(t), t.harmonic * f0)) < 0.2);
+    }
 }

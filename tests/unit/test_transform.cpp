@@ -1,9 +1,16 @@
 // Tests of the patch edits, blending and keymap planning (src/transform).
 // References: the definitions these edits implement (exact ground truth on synthetic patches),
-// ISO 16 / equal temperament for note frequencies, and the SFZ opcode grammar.
+// ISO 16 / equal temperament for note frequencies, FFTW as the reference FFT for renders,
+// Schroeder integration (ISO 3382-1, src/measure) for T30, libsndfile to read the WAV instrument
+// chunk back, and the SFZ opcode grammar (<header> and opcode=value tokens, // comments).
 #include <catch2/catch.hpp>
+#include <fftw3.h>
+#include <sndfile.h>
 
 #include <cmath>
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
 #include <map>
 #include <regex>
 #include <set>
@@ -13,6 +20,9 @@
 
 #include "core/patch.hpp"
 #include "core/pitch_names.hpp"
+#include "io/patch_toml.hpp"
+#include "measure/decay.hpp"
+#include "synthesis/render.hpp"
 #include "transform/blend.hpp"
 #include "transform/keymap.hpp"
 #include "transform/rng.hpp"
@@ -385,4 +395,209 @@ TEST_CASE("keymap sample names and layer steps", "[transform][keymap]") {
     CHECK(t.to_midi == 60);
     CHECK(t.decay_scale == 2.0);
     CHECK(t.gain_db == -10.0);
+}
+
+// ---------------------------------------------------------------- on renders
+
+namespace {
+
+constexpr double test_rate_hz = 48000.0;
+
+/// A patch of steady partials (T60 = inf: the level holds), so a long FFT shows clean peaks.
+patch steady_patch(double f0_hz, int n, double b) {
+    patch p = harmonic_patch(f0_hz, n, b);
+    for (partial& q : p.partials) q.env.decay = {{.t60_s = infinity, .until_s = {}}};
+    p.note.length_s = 3.0;
+    return p;
+}
+
+struct spectrum_peak {
+    double freq_hz = 0.0;
+    double level_db = 0.0;  ///< of the windowed, zero-padded FFT magnitude (relative use only)
+};
+
+/// Reference long FFT (FFTW): Hann window, zero padding to fft_size, then a parabola through the
+/// log magnitudes of the largest bin near want_hz and its neighbours (quadratic interpolation).
+class long_fft {
+public:
+    explicit long_fft(const std::vector<float>& x, std::size_t fft_size = std::size_t{1} << 22) : size_(fft_size) {
+        REQUIRE(x.size() <= fft_size);
+        double* in = fftw_alloc_real(fft_size);
+        fftw_complex* out = fftw_alloc_complex(fft_size / 2 + 1);
+        fftw_plan plan = fftw_plan_dft_r2c_1d(static_cast<int>(fft_size), in, out, FFTW_ESTIMATE);
+        const std::size_t n = x.size();
+        for (std::size_t i = 0; i < fft_size; ++i) {
+            // Hann window w[i] = 0.5 (1 - cos(2 pi i / (n - 1))) (Harris 1978, symmetric form).
+            in[i] = i < n ? static_cast<double>(x[i]) * 0.5 * (1.0 - std::cos(two_pi * static_cast<double>(i) / static_cast<double>(n - 1))) : 0.0;
+        }
+        fftw_execute(plan);
+        mag_db_.resize(fft_size / 2 + 1);
+        for (std::size_t k = 0; k < mag_db_.size(); ++k) mag_db_[k] = 10.0 * std::log10(out[k][0] * out[k][0] + out[k][1] * out[k][1] + 1e-300);
+        fftw_destroy_plan(plan);
+        fftw_free(in);
+        fftw_free(out);
+    }
+
+    /// The largest peak within +-search_hz of want_hz.
+    spectrum_peak peak_near(double want_hz, double search_hz = 20.0) const {
+        const double bin_hz = test_rate_hz / static_cast<double>(size_);
+        const auto lo = static_cast<std::size_t>(std::max(1.0, (want_hz - search_hz) / bin_hz));
+        const auto hi = std::min(mag_db_.size() - 2, static_cast<std::size_t>((want_hz + search_hz) / bin_hz));
+        std::size_t k = lo;
+        for (std::size_t i = lo; i <= hi; ++i) {
+            if (mag_db_[i] > mag_db_[k]) k = i;
+        }
+        const double a = mag_db_[k - 1], b = mag_db_[k], c = mag_db_[k + 1];
+        const double d = 0.5 * (a - c) / (a - 2.0 * b + c);  // vertex offset in bins
+        return {.freq_hz = (static_cast<double>(k) + d) * bin_hz, .level_db = b - 0.25 * (a - c) * d};
+    }
+
+private:
+    std::size_t size_;
+    std::vector<double> mag_db_;
+};
+
+std::vector<float> render(const patch& p, double length_s = 0.0) {
+    return render_patch(p, {.sample_rate_hz = test_rate_hz, .length_s = length_s, .include_noise = false});
+}
+
+}  // namespace
+
+TEST_CASE("render: transpose +12 puts every partial at twice its frequency (FFTW)", "[transform][render]") {
+    const patch p = steady_patch(440.0, 8, 2e-4);
+    const patch t = apply_transforms(p, {.transpose_semitones = 12.0}, test_rate_hz);
+    const long_fft before(render(p));
+    const long_fft after(render(t));
+    for (const partial& q : p.partials) {
+        const spectrum_peak a = before.peak_near(q.freq_hz);
+        const spectrum_peak b = after.peak_near(2.0 * q.freq_hz);
+        const double cents = cents_between(b.freq_hz, 2.0 * a.freq_hz);
+        CAPTURE(q.harmonic, q.freq_hz, a.freq_hz, b.freq_hz, cents);
+        CHECK(std::abs(cents) < 0.01);
+        CHECK(std::abs(cents_between(b.freq_hz, 2.0 * q.freq_hz)) < 0.01);  // and where the model puts it
+    }
+}
+
+TEST_CASE("render: to-note C4 puts f0 at 261.6256 Hz (FFTW)", "[transform][render]") {
+    const patch p = steady_patch(146.832, 4, 0.0);
+    const patch t = apply_transforms(p, {.to_midi = 60}, test_rate_hz);
+    const spectrum_peak f0 = long_fft(render(t)).peak_near(261.6256);
+    CAPTURE(f0.freq_hz);
+    CHECK(std::abs(cents_between(f0.freq_hz, 261.6256)) < 0.01);  // ISO 16: A4 = 440 Hz, equal temperament
+}
+
+TEST_CASE("render: brightness -6 dB/octave lowers the 4th harmonic by 12 dB (FFTW)", "[transform][render]") {
+    const patch p = steady_patch(440.0, 6, 0.0);
+    const patch t = apply_transforms(p, {.brightness_db_per_oct = -6.0}, test_rate_hz);
+    const long_fft before(render(p));
+    const long_fft after(render(t));
+    const double d1 = after.peak_near(440.0).level_db - before.peak_near(440.0).level_db;
+    const double d4 = after.peak_near(1760.0).level_db - before.peak_near(1760.0).level_db;
+    CAPTURE(d1, d4);
+    CHECK_THAT(d1, WithinAbs(0.0, 0.1));
+    CHECK_THAT(d4, WithinAbs(-12.0, 0.1));
+}
+
+TEST_CASE("render: decay scale 2 doubles T30 (Schroeder integration, ISO 3382-1)", "[transform][render]") {
+    patch p = harmonic_patch(220.0, 5);
+    for (partial& q : p.partials) q.env.decay = {{.t60_s = 0.6, .until_s = 0.2}, {.t60_s = 1.2, .until_s = {}}};
+    const patch t = apply_transforms(p, {.decay_scale = 2.0}, test_rate_hz);
+    const decay_times a = measure_decay(render(p, 4.0), test_rate_hz);
+    const decay_times b = measure_decay(render(t, 4.0), test_rate_hz);
+    CAPTURE(a.t30_s, b.t30_s);
+    REQUIRE(std::isfinite(a.t30_s));
+    REQUIRE(std::isfinite(b.t30_s));
+    CHECK_THAT(b.t30_s / a.t30_s, WithinRel(2.0, 0.02));
+}
+
+TEST_CASE("render: same seed gives the same samples, another seed differs", "[transform][render]") {
+    const patch p = harmonic_patch(220.0, 12);
+    const transform_params v{.variation = {.seed = 7, .detune_cents = 3.0, .level_jitter_db = 1.0, .decay_jitter = 0.1, .random_phase = true}};
+    transform_params w = v;
+    w.variation.seed = 8;
+    const auto a = render(apply_transforms(p, v, test_rate_hz), 1.0);
+    const auto b = render(apply_transforms(p, v, test_rate_hz), 1.0);
+    const auto c = render(apply_transforms(p, w, test_rate_hz), 1.0);
+    CHECK(a == b);
+    double diff = 0.0;
+    for (std::size_t i = 0; i < a.size(); ++i) diff = std::max(diff, static_cast<double>(std::abs(a[i] - c[i])));
+    CAPTURE(diff);
+    CHECK(diff > 1e-3);
+}
+
+// ---------------------------------------------------------------- wane keymap output
+
+namespace {
+
+std::map<std::string, std::string> sfz_opcodes(const std::string& line) {
+    std::map<std::string, std::string> ops;
+    std::istringstream words(line);
+    std::string w;
+    while (words >> w) {
+        const auto eq = w.find('=');
+        if (eq != std::string::npos) ops[w.substr(0, eq)] = w.substr(eq + 1);
+    }
+    return ops;
+}
+
+}  // namespace
+
+TEST_CASE("wane keymap: SFZ parses, samples exist, ranges tile, root notes match (libsndfile)", "[transform][keymap][cli]") {
+    const char* exe = std::getenv("WANE_EXE");
+    REQUIRE(exe != nullptr);
+    const std::filesystem::path dir = std::filesystem::temp_directory_path() / "wane-test-transform-keymap";
+    std::filesystem::remove_all(dir);
+    std::filesystem::create_directories(dir);
+    patch p = harmonic_patch(196.0, 10);
+    p.note.length_s = 0.5;
+    write_patch_file(dir / "pluck.toml", p);
+    const std::string cmd = std::string("'") + exe + "' --quiet keymap '" + (dir / "pluck.toml").string() + "' -o '" +
+                            (dir / "set").string() + "' --notes A2..D4 --every 4 --layers 3 --variants 2 --bits 16";
+    INFO(cmd);
+    REQUIRE(std::system(cmd.c_str()) == 0);
+
+    std::ifstream sfz(dir / "set" / "pluck.sfz");
+    REQUIRE(sfz.good());
+    const keymap_params params{.notes = parse_note_range("A2..D4"), .every = 4, .layers = 3, .variants = 2};
+    std::vector<keymap_job> regions;
+    std::string line;
+    int variant = 0;
+    while (std::getline(sfz, line)) {
+        CAPTURE(line);
+        CHECK(sfz_line_parses(line));
+        const auto ops = sfz_opcodes(line);
+        if (line.rfind("<group>", 0) == 0) {
+            REQUIRE(ops.count("seq_position") == 1);
+            CHECK(ops.at("seq_length") == "2");
+            variant = std::stoi(ops.at("seq_position"));
+        }
+        if (line.rfind("<region>", 0) != 0) continue;
+        for (const char* key : {"sample", "lokey", "hikey", "pitch_keycenter", "lovel", "hivel"}) REQUIRE(ops.count(key) == 1);
+        keymap_job j;
+        j.sample = ops.at("sample");
+        j.lokey = std::stoi(ops.at("lokey"));
+        j.hikey = std::stoi(ops.at("hikey"));
+        j.root_midi = std::stoi(ops.at("pitch_keycenter"));
+        j.lovel = std::stoi(ops.at("lovel"));
+        j.hivel = std::stoi(ops.at("hivel"));
+        j.variant = variant;
+        regions.push_back(j);
+
+        const std::filesystem::path wav = dir / "set" / j.sample;
+        REQUIRE(std::filesystem::exists(wav));
+        SF_INFO info{};
+        SNDFILE* f = sf_open(wav.string().c_str(), SFM_READ, &info);
+        REQUIRE(f != nullptr);
+        SF_INSTRUMENT inst{};
+        const int has_inst = sf_command(f, SFC_GET_INSTRUMENT, &inst, sizeof inst);
+        sf_close(f);
+        CAPTURE(j.sample, has_inst, inst.basenote);
+        CHECK(has_inst == SF_TRUE);
+        CHECK(static_cast<int>(inst.basenote) == j.root_midi);
+        CHECK(info.samplerate == 48000);
+        CHECK((info.format & SF_FORMAT_SUBMASK) == SF_FORMAT_PCM_16);
+    }
+    CHECK(regions.size() == 6 * 3 * 2);  // A2 C#3 F3 A3 C#4 and D4 (the top), 3 layers, 2 variants
+    check_tiling(regions, params);
+    std::filesystem::remove_all(dir);
 }
