@@ -146,8 +146,9 @@ int run_render(const render_options& o) {
     write_audio(o.out_path, y, o.rate_hz, wopts);
 
     std::string partials = printf_str("%zu partials", summary.partials_rendered);
+    if (summary.partials_faded > 0) partials += printf_str(", %zu faded near Nyquist", summary.partials_faded);
     if (summary.partials_above_nyquist > 0) {
-        partials += printf_str(" (%zu above Nyquist left out)", summary.partials_above_nyquist);
+        partials += printf_str(", %zu above Nyquist left out", summary.partials_above_nyquist);
     }
     say(printf_str("%s: %.3f s at %.0f Hz, %s, %s, peak %s", o.out_path.string().c_str(),
                    static_cast<double>(y.size()) / o.rate_hz, o.rate_hz, format_text(*format),

@@ -60,8 +60,9 @@ double end_fade_gain(std::size_t n, std::size_t total_frames, double sample_rate
 std::size_t render_frames(const patch& p, const render_params& params);
 
 /// Renders the patch to mono float samples at params.sample_rate_hz. Deterministic: the same
-/// patch and params give bit-identical samples (also across the vectorized and generic kernels:
-/// the kernels use no fused multiply-add and no reassociation).
+/// patch and params give bit-identical samples, also across the AVX2 and generic kernel clones
+/// (element-wise IEEE operations, no fused multiply-add, no reassociation; this holds for builds
+/// without -march flags that enable FMA, as the project builds).
 /// Preconditions (asserted): a valid patch, rate in [min_render_rate_hz, max_render_rate_hz],
 /// render length in (0, max_length_s].
 /// Noise bands (patch.noise) are added when params.include_noise (synthesis/noise_render.hpp).

@@ -47,6 +47,7 @@ constexpr double max_join_gap_s = 0.3;           ///< fragments of one partial t
 constexpr double join_rel_tol = 0.005;           ///< ... when their frequencies meet within this
 constexpr double min_track_windows = 1.5;        ///< ... and at least this many window lengths
 constexpr double harmonic_tolerance_rel = 0.02;  ///< labelling tracks with harmonic numbers
+constexpr double guide_tolerance_rel = 0.04;     ///< harmonic tracks stay this close to n f0 s_n
 constexpr int b_fit_rounds = 3;
 /// f0 is fitted on harmonics 1..this (given B from all): real strings stray from the ideal law
 /// more at high n (bridge coupling, tension modulation), and the low partials carry the pitch.
@@ -206,6 +207,8 @@ void join_fragments(std::vector<partial_track>& tracks, std::vector<double>& pea
 struct live_track {
     partial_track track;
     int harmonic = 0;
+    double guide_lo_hz = 0.0;  ///< a harmonic track takes peaks only in [lo, hi]
+    double guide_hi_hz = 0.0;
     int missed = 0;
     double peak_db = -infinity;
 };
@@ -358,8 +361,7 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
             auto it = std::lower_bound(peaks.begin(), peaks.end(), last.freq_hz - d,
                                        [](const spectral_peak& p, double f) { return p.freq_hz < f; });
             for (; it != peaks.end() && it->freq_hz <= last.freq_hz + d; ++it) {
-                if (live[ti].harmonic > 0 &&
-                    harmonic_number(it->freq_hz, f0_hz, b, harmonic_tolerance_rel * 2.0) != live[ti].harmonic)
+                if (live[ti].harmonic > 0 && (it->freq_hz < live[ti].guide_lo_hz || it->freq_hz > live[ti].guide_hi_hz))
                     continue;  // harmonic guidance: stay on the series member n f0 sqrt(1 + B n^2)
                 matches.push_back({std::abs(it->freq_hz - last.freq_hz) / d, ti,
                                    static_cast<std::uint32_t>(it - peaks.begin())});
@@ -399,6 +401,14 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
                 continue;
             live_track t;
             t.harmonic = harmonic_number(p.freq_hz, f0_hz, b, harmonic_tolerance_rel);
+            if (t.harmonic > 0) {
+                // The band harmonic_number(f, f0, B, 2 x tolerance) maps to this n.
+                const double nd = t.harmonic;
+                const double guide_hz = nd * f0_hz * std::sqrt(1.0 + b * nd * nd);
+                const double tol = std::min(guide_tolerance_rel, 0.25 / nd);
+                t.guide_lo_hz = guide_hz * (1.0 - tol);
+                t.guide_hi_hz = guide_hz * (1.0 + tol);
+            }
             t.peak_db = p.level_db;
             t.track.points.push_back({.time_s = time_s, .freq_hz = p.freq_hz, .level_db = p.level_db,
                                       .phase_rad = p.phase_rad, .floor_db = p.floor_db});

@@ -356,3 +356,19 @@ TEST_CASE("partials straying from the stiff-string law keep their numbers", "[tr
         CHECK(t.harmonic == static_cast<int>(it - partials.begin()) + 1);
     }
 }
+
+TEST_CASE("odd harmonics only, falling as 1/n^2 (a triangle wave): f0 and B = 0", "[tracking][f0]") {
+    constexpr double fs = 44100.0, f0 = 300.0;
+    std::vector<synth_partial> partials;
+    for (int n = 1; n <= 31; n += 2) partials.push_back({n * f0, 0.8 / (n * n), 4.0, 0.0});  // exact series
+    const auto x = synth(partials, fs, 1.0, 0.0, 1e-6, 23);
+    const tracking_result r = track_note(x, fs, {});
+    CAPTURE(r.f0_hz, r.inharmonicity_b, r.tracks.size());
+    CHECK(std::abs(cents_between(r.f0_hz, f0)) < 0.1);
+    CHECK(r.inharmonicity_b < 1e-6);
+    for (const auto& t : r.tracks) {
+        CAPTURE(track_freq_hz(t), t.harmonic);
+        CHECK(t.harmonic % 2 == 1);
+        CHECK(std::abs(cents_between(track_freq_hz(t), t.harmonic * f0)) < 0.2);
+    }
+}
