@@ -344,8 +344,10 @@ std::vector<float> render_patch(const patch& p, const render_params& params) {
         for (std::size_t i = 0; i < n; ++i) out[b0 + i] = static_cast<float>(block_d[i]);
     }
 
-    // Hook for the noise bands (patch.noise): the noise model is a later issue; until it lands the
-    // bands are not rendered and summarize_render().noise_bands_not_rendered says how many.
+    // Hook for the noise bands (patch.noise, issue 8): they join here, before the end fade, when
+    // params.include_noise (add_noise_bands of synthesis/noise_render.hpp with params.noise_seed
+    // and note.gain_db + params.gain_db + params.noise_gain_db). Until that issue wires it, the bands
+    // are not rendered and summarize_render().noise_bands_not_rendered says how many.
 
     const auto fade_frames = std::min(plan.frames,
                                       static_cast<std::size_t>(std::llround(end_fade_s * params.sample_rate_hz)));
