@@ -544,6 +544,9 @@ std::map<std::string, std::string> sfz_opcodes(const std::string& line) {
 
 TEST_CASE("wane keymap: SFZ parses, samples exist, ranges tile, root notes match (libsndfile)", "[transform][keymap][cli]") {
     const char* exe = std::getenv("WANE_EXE");
+#ifdef WANE_EXE
+    if (exe == nullptr) exe = WANE_EXE;  // the build's wane, when run outside CTest
+#endif
     REQUIRE(exe != nullptr);
     const std::filesystem::path dir = std::filesystem::temp_directory_path() / "wane-test-transform-keymap";
     std::filesystem::remove_all(dir);
