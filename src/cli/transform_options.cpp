@@ -166,11 +166,21 @@ std::string transform_option_name(const std::string& param) {
 
 patch apply_transforms_checked(const patch& p, const transform_params& params, double sample_rate_hz,
                                const std::string& patch_name) {
+    transform_report report;
+    patch out;
     try {
-        return apply_transforms(p, params, sample_rate_hz);
+        out = apply_transforms(p, params, sample_rate_hz, &report);
     } catch (const transform_error& e) {
         throw std::runtime_error(patch_name + ": " + transform_option_name(e.param) + ": " + e.what());
     }
+    const auto tell = [&](std::size_t n, const std::string& why) {
+        if (n > 0) say(patch_name + ": " + std::to_string(n) + " partial(s) " + why + " left out");
+    };
+    tell(report.dropped_by_parity, "off the chosen parity (--odd-only/--even-only)");
+    if (params.max_freq_hz) tell(report.dropped_above_ceiling, "at or above --max-freq-hz " + std::to_string(static_cast<long>(*params.max_freq_hz)) + " Hz");
+    tell(report.dropped_above_nyquist, "at or above the Nyquist frequency " + std::to_string(static_cast<long>(0.5 * sample_rate_hz)) + " Hz (--rate)");
+    tell(report.dropped_weakest, "weaker than the strongest N (--keep-strongest)");
+    return out;
 }
 
 }  // namespace wane::cli
