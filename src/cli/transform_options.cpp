@@ -2,6 +2,7 @@
 
 #include <cmath>
 #include <map>
+#include <sstream>
 
 #include "cli/common.hpp"
 #include "core/pitch_names.hpp"
@@ -96,8 +97,9 @@ transform_params to_params(const transform_cli& o) {
     if (o.transpose_semitones) {
         require_finite(*o.transpose_semitones, "--transpose");
         if (std::abs(*o.transpose_semitones) > max_transpose_semitones) {
-            throw usage_error("--transpose: " + std::to_string(*o.transpose_semitones) + " is beyond +-" +
-                              std::to_string(static_cast<int>(max_transpose_semitones)) + " semitones");
+            std::ostringstream msg;
+            msg << "--transpose: " << *o.transpose_semitones << " is beyond +-" << max_transpose_semitones << " semitones";
+            throw usage_error(msg.str());
         }
         t.transpose_semitones = *o.transpose_semitones;
     }
