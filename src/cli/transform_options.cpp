@@ -15,6 +15,12 @@ constexpr const char* group_name = "Sound design";
 
 /// The largest transposition accepted: +-10 octaves spans every audible pitch from any other.
 constexpr double max_transpose_semitones = 120.0;
+/// Bounds of the decay and level edits: far beyond any musical use, they keep every T60 and level
+/// finite (2^(8 * 12 octaves) is still a finite double).
+constexpr double max_decay_scale = 100.0;
+constexpr double max_abs_decay_tilt = 8.0;
+constexpr double max_abs_decay_pitch_exponent = 4.0;
+constexpr double max_abs_brightness_db_per_oct = 48.0;
 /// Tuning references accepted by --a4-hz (a generous band around concert pitch).
 constexpr double min_a4_hz = 300.0;
 constexpr double max_a4_hz = 600.0;
@@ -116,13 +122,22 @@ transform_params to_params(const transform_cli& o) {
     t.a4_hz = o.a4_hz;
     t.decay_follows_pitch = o.decay_follows_pitch;
     require_finite(o.decay_pitch_exponent, "--decay-pitch-exponent");
+    if (std::abs(o.decay_pitch_exponent) > max_abs_decay_pitch_exponent) {
+        throw usage_error("--decay-pitch-exponent: must be within +-4");
+    }
     t.decay_pitch_exponent = o.decay_pitch_exponent;
     require_finite(o.decay_scale, "--decay-scale");
-    if (!(o.decay_scale > 0.0)) throw usage_error("--decay-scale: must be greater than 0");
+    if (!(o.decay_scale > 0.0) || o.decay_scale > max_decay_scale) {
+        throw usage_error("--decay-scale: must be greater than 0 and at most 100");
+    }
     t.decay_scale = o.decay_scale;
     require_finite(o.decay_tilt, "--decay-tilt");
+    if (std::abs(o.decay_tilt) > max_abs_decay_tilt) throw usage_error("--decay-tilt: must be within +-8");
     t.decay_tilt = o.decay_tilt;
     require_finite(o.brightness_db_per_oct, "--brightness-db-oct");
+    if (std::abs(o.brightness_db_per_oct) > max_abs_brightness_db_per_oct) {
+        throw usage_error("--brightness-db-oct: must be within +-48 dB per octave");
+    }
     t.brightness_db_per_oct = o.brightness_db_per_oct;
     if (o.keep_strongest) {
         if (*o.keep_strongest < 1) throw usage_error("--keep-strongest: must be at least 1");
