@@ -2,6 +2,7 @@
 //   bench_track FILE [repeats] [f0_hz]
 #include <chrono>
 #include <ctime>
+#include <algorithm>
 #include <cstdio>
 #include <cstdlib>
 #include <exception>
@@ -21,11 +22,19 @@ int main(int argc, char** argv) {
         std::fprintf(stderr, "bench_track: cannot open %s\n", argv[1]);
         return 1;
     }
-    std::vector<float> inter(static_cast<std::size_t>(info.frames * info.channels));
-    sf_readf_float(f, inter.data(), info.frames);
-    sf_close(f);
+    // First channel, read in blocks so the peak memory is the mono samples plus the tracker's.
     std::vector<float> mono(static_cast<std::size_t>(info.frames));
-    for (sf_count_t i = 0; i < info.frames; ++i) mono[i] = inter[i * info.channels];
+    {
+        constexpr sf_count_t block = 65536;
+        std::vector<float> inter(static_cast<std::size_t>(block * info.channels));
+        for (sf_count_t pos = 0; pos < info.frames;) {
+            const sf_count_t got = sf_readf_float(f, inter.data(), std::min(block, info.frames - pos));
+            if (got <= 0) break;
+            for (sf_count_t i = 0; i < got; ++i) mono[pos + i] = inter[i * info.channels];
+            pos += got;
+        }
+    }
+    sf_close(f);
     const int repeats = argc > 2 ? std::atoi(argv[2]) : 5;
     wane::tracking_params params;
     if (argc > 3) params.f0_hz = std::atof(argv[3]);

@@ -317,7 +317,11 @@ inline string_loop design_string_loop(const string_params& p, const string_polar
     constexpr double spare_frames = 4.0;
     const double max_section_delay = (p.sample_rate_hz / p.f1_hz - spare_frames) / static_cast<double>(p.dispersion_sections);
     const double golden = (std::sqrt(5.0) - 1.0) / 2.0;
-    double lo = std::max(-0.95, (1.0 - max_section_delay) / (1.0 + max_section_delay)), hi = 0.0;
+    // Stiffness needs a < 0; a small positive a is allowed so that for B near 0 the loss filter's
+    // own dispersion (it too sharpens the upper partials a little) can be undone.
+    constexpr double most_negative_a = -0.95, most_positive_a = 0.5;
+    double lo = std::max(most_negative_a, (1.0 - max_section_delay) / (1.0 + max_section_delay));
+    double hi = most_positive_a;
     double x1 = hi - golden * (hi - lo), x2 = lo + golden * (hi - lo);
     double e1 = error_for(x1), e2 = error_for(x2);
     constexpr int golden_steps = 60;

@@ -1,12 +1,16 @@
 #include "analysis/analyze.hpp"
 
 #include <cassert>
+#include <algorithm>
 #include <cmath>
+#include <vector>
 #include <cstdio>
 #include <stdexcept>
 #include <string>
 
+#include "analysis/noise_model.hpp"
 #include "fitting/envelope_fit.hpp"
+#include "synthesis/render.hpp"
 #include "spectrum/window.hpp"
 
 namespace wane {
@@ -20,6 +24,29 @@ std::string seconds_text(double s) {
     char buf[64];
     std::snprintf(buf, sizeof buf, "%.3f s", s);
     return buf;
+}
+
+/// The stochastic part (Serra and Smith 1990): the source minus the partials' resynthesis, from
+/// the onset on, measured and fitted in noise bands (analysis/noise_model.hpp).
+void add_noise_model(patch& p, std::span<const float> part, double sample_rate_hz, double onset_s,
+                     const noise_model_params& noise_params) {
+    const auto onset = static_cast<std::size_t>(std::llround(onset_s * sample_rate_hz));
+    if (onset >= part.size()) return;
+    const std::span<const float> note = part.subspan(onset);
+    const std::vector<float> partials_only =
+        render_patch(p, {.sample_rate_hz = sample_rate_hz,
+                         .length_s = static_cast<double>(note.size()) / sample_rate_hz,
+                         .include_noise = false});
+    std::vector<float> residual(note.begin(), note.end());
+    const std::size_t common = std::min(residual.size(), partials_only.size());
+    for (std::size_t i = 0; i < common; ++i) residual[i] -= partials_only[i];
+    std::vector<double> freqs_hz;
+    double loudest_db = -infinity;
+    for (const partial& q : p.partials) {
+        freqs_hz.push_back(q.freq_hz);
+        loudest_db = std::max(loudest_db, q.env.peak.db);
+    }
+    p.noise = fit_noise_bands(residual, sample_rate_hz, freqs_hz, loudest_db, noise_params);
 }
 
 }  // namespace
@@ -52,7 +79,8 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     double sq_error = 0.0, frames = 0.0;
     for (const partial_track& track : tr.tracks) {
         const auto fit = fit_partial(track, fit_params);
-        if (!fit) {
+        // A fit whose peak lies beyond what the format holds is no partial of this note.
+        if (!fit || fit->env.peak.db > max_peak_db) {
             ++out.summary.unfitted;
             continue;
         }
@@ -78,6 +106,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     // The tracker analyses with the 4-term Blackman-Harris window (tracking/tracker.cpp).
     p.source.analysis = analysis_settings{.window = std::string(window_name(window_kind::blackman_harris_4)),
                                           .fft_size = tr.fft_size, .window_s = tr.window_s, .hop_s = tr.hop_s};
+    if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);
     canonicalize(p);
     return out;
 }

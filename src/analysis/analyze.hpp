@@ -4,7 +4,9 @@
 #include <span>
 #include <string>
 
+#include "analysis/noise_model.hpp"
 #include "core/patch.hpp"
+#include "fitting/envelope_fit.hpp"
 #include "tracking/tracker.hpp"
 
 namespace wane {
@@ -16,6 +18,8 @@ struct analysis_params {
     double end_s = 0.0;       ///< 0 = to the end
     std::string source_file;  ///< recorded in [source].file
     std::string note_name;    ///< [note].name
+    bool noise_model = true;  ///< fit [[noise]] bands to the residual (analysis/noise_model.hpp)
+    noise_model_params noise{};
 };
 
 struct analysis_summary {
@@ -33,7 +37,7 @@ struct analysis_result {
 };
 
 /// Largest number of decay segments per partial the fit supports (--max-segments).
-inline constexpr int max_decay_segments = 8;
+inline constexpr int max_decay_segments = max_fit_segments;
 
 /// Throws std::invalid_argument with a user-facing reason when the sound cannot be analyzed.
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,

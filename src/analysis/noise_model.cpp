@@ -36,7 +36,7 @@ std::vector<noise_band_track> measure_noise_bands(std::span<const float> residua
     const int n_bins = n_fft / 2 + 1;
     const double bin_hz = sample_rate_hz / n_fft;
     double window_power_sum = 0.0;
-    for (float w : plan.window_samples()) window_power_sum += static_cast<double>(w) * w;
+    for (float w : plan.window_samples()) window_power_sum += static_cast<double>(w) * static_cast<double>(w);
     const double amp_scale_sq = plan.amp_scale() * plan.amp_scale();
 
     // Bins that carry a band's noise: inside the band, away from every partial's main lobe.
@@ -67,7 +67,7 @@ std::vector<noise_band_track> measure_noise_bands(std::span<const float> residua
         for (std::size_t b = 0; b < layout.size(); ++b) {
             if (band_bins[b].empty()) continue;
             double sum = 0.0;
-            for (int k : band_bins[b]) sum += power[static_cast<std::size_t>(k)];
+            for (int k : band_bins[b]) sum += static_cast<double>(power[static_cast<std::size_t>(k)]);
             const double mean_bin_power = sum / static_cast<double>(band_bins[b].size()) / amp_scale_sq;
             const double band_power = band_power_from_bins(mean_bin_power, band_total_bins[b], n_fft, window_power_sum);
             tracks[b].time_s.push_back(static_cast<double>(centre) / sample_rate_hz);

@@ -210,9 +210,6 @@ int run_compare(const compare_options& opt) {
     } catch (const std::invalid_argument& e) {
         throw std::runtime_error(opt.a_path.string() + ": " + e.what());
     }
-    // TODO(lead): the f0 difference in cents needs the f0 estimator of src/tracking (h-track).
-    // Wire it here: r.f0_difference_cents = cents_between(f0_of(b), f0_of(a)); both printers
-    // show it only when set, so nothing is printed until then.
     if (r.early_window_s < opt.early_s) {
         warn(opt.a_path.string() + " ends " + num(1000.0 * r.early_window_s, "%.1f", "?") +
              " ms after its onset: the early figures cover only that");

@@ -4,10 +4,12 @@
 #include <cstdio>
 #include <filesystem>
 #include <iostream>
+#include <sstream>
 #include <string>
 #include <vector>
 
 #include "cli/common.hpp"
+#include "core/harmonics.hpp"
 #include "core/patch.hpp"
 #include "core/pitch_names.hpp"
 #include "core/units.hpp"
@@ -37,13 +39,6 @@ std::string size_text(double bytes) {
     return printf_str("%.1f MiB", bytes / (bytes_per_kib * bytes_per_kib));
 }
 
-/// Ideal frequency of harmonic n of a stiff string: f_n = n f0 sqrt(1 + B n^2) (the patch format's
-/// definition of B, patches/README.md).
-double ideal_harmonic_hz(double f0_hz, double b, int n) {
-    const double nd = n;
-    return nd * f0_hz * std::sqrt(1.0 + b * nd * nd);
-}
-
 /// "1.900 s to 0.800 s" for a segment with an end, "6.400 s to end" for the last.
 std::string segment_text(const decay_segment& seg) {
     const std::string t60 = std::isinf(seg.t60_s) ? (seg.t60_s > 0 ? "inf" : "-inf") : printf_str("%.3f", seg.t60_s);
@@ -51,19 +46,19 @@ std::string segment_text(const decay_segment& seg) {
 }
 
 /// Prints the envelope's segments after a fixed-width row prefix, wrapping at the table width.
-void print_segments(const std::string& prefix, const envelope& env) {
+void print_segments(std::ostream& os, const std::string& prefix, const envelope& env) {
     std::string line = prefix;
     const std::string indent(prefix.size(), ' ');
     for (std::size_t i = 0; i < env.decay.size(); ++i) {
         const std::string cell = segment_text(env.decay[i]) + (i + 1 < env.decay.size() ? "," : "");
         if (line.size() > prefix.size() && line.size() + 1 + cell.size() > table_width_chars) {
-            std::cout << line << '\n';
+            os << line << '\n';
             line = indent;
         }
         if (line.size() > prefix.size()) line += ' ';
         line += cell;
     }
-    std::cout << line << '\n';
+    os << line << '\n';
 }
 
 /// "+1.25" with `decimals` digits; a value that rounds to zero prints as "+0.00", never "-0.00".
@@ -87,64 +82,69 @@ std::string pitch_text(double f0_hz) {
 int run_info(const std::filesystem::path& path) {
     const patch_read_result r = read_patch_file(path);
     for (const std::string& w : r.warnings) warn(w);
-    const patch& p = r.value;
+    std::cout << patch_info_text(r.value, path);
+    return exit_ok;
+}
+
+}  // namespace
+
+std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
+    std::ostringstream os;
     const note_info& n = p.note;
 
-    std::cout << path.string() << " (" << patch_format_name << " version " << p.version << ")\n";
-    std::cout << "  name      " << (n.name.empty() ? "(none)" : n.name) << '\n';
-    std::cout << "  f0        " << pitch_text(n.f0_hz) << '\n';
-    std::cout << "  B         " << printf_str("%.4e", n.inharmonicity_b) << '\n';
-    std::cout << "  length    " << printf_str("%.4f s, gain %.2f dB", n.length_s, n.gain_db) << '\n';
-    std::cout << "  content   " << p.partials.size() << (p.partials.size() == 1 ? " partial, " : " partials, ")
+    os << path.string() << " (" << patch_format_name << " version " << p.version << ")\n";
+    os << "  name      " << (n.name.empty() ? "(none)" : n.name) << '\n';
+    os << "  f0        " << pitch_text(n.f0_hz) << '\n';
+    os << "  B         " << printf_str("%.4e", n.inharmonicity_b) << '\n';
+    os << "  length    " << printf_str("%.4f s, gain %.2f dB", n.length_s, n.gain_db) << '\n';
+    os << "  content   " << p.partials.size() << (p.partials.size() == 1 ? " partial, " : " partials, ")
               << p.noise.size() << (p.noise.size() == 1 ? " noise band" : " noise bands") << '\n';
     const source_info& s = p.source;
-    std::cout << "  source    " << (s.file.empty() ? "(none)" : s.file)
+    os << "  source    " << (s.file.empty() ? "(none)" : s.file)
               << (s.sample_rate_hz > 0.0 ? printf_str(", %.0f Hz", s.sample_rate_hz) : std::string(", rate unknown"))
               << printf_str(", onset %.6f s", s.onset_s) << '\n';
     if (s.analysis) {
         const analysis_settings& a = *s.analysis;
-        std::cout << "  analysis  " << (a.window.empty() ? "(window unnamed)" : a.window)
+        os << "  analysis  " << (a.window.empty() ? "(window unnamed)" : a.window)
                   << printf_str(", FFT %d, window %.3f ms, hop %.3f ms", a.fft_size, a.window_s * ms_per_s,
                                 a.hop_s * ms_per_s)
                   << '\n';
     }
     std::error_code ec;
     const double patch_bytes = static_cast<double>(std::filesystem::file_size(path, ec));
-    std::cout << "  size      " << size_text(patch_bytes) << " as a patch";
+    os << "  size      " << size_text(patch_bytes) << " as a patch";
     if (s.sample_rate_hz > 0.0) {
         const double wav_bytes = wav_header_bytes + std::ceil(n.length_s * s.sample_rate_hz) * wav_24bit_bytes_per_sample;
-        std::cout << "; " << size_text(wav_bytes) << printf_str(" as a 24-bit mono WAV of %.4f s at %.0f Hz (%.0fx)",
+        os << "; " << size_text(wav_bytes) << printf_str(" as a 24-bit mono WAV of %.4f s at %.0f Hz (%.0fx)",
                                                                  n.length_s, s.sample_rate_hz, wav_bytes / patch_bytes);
     }
-    std::cout << "\n";
+    os << "\n";
 
     if (!p.partials.empty()) {
-        std::cout << "\n     #  harm        freq_hz    cents  peak_db  att_ms  decay: T60 to segment end\n";
+        os << "\n     #  harm        freq_hz    cents  peak_db  att_ms  decay: T60 to segment end\n";
         for (std::size_t i = 0; i < p.partials.size(); ++i) {
             const partial& q = p.partials[i];
             std::string cents = "";
             if (q.harmonic > 0 && n.f0_hz > 0.0) {
-                cents = signed_text(cents_between(q.freq_hz, ideal_harmonic_hz(n.f0_hz, n.inharmonicity_b, q.harmonic)), 2);
+                cents = signed_text(cents_between(q.freq_hz, stiff_partial_hz(n.f0_hz, n.inharmonicity_b, q.harmonic)), 2);
             }
             const std::string prefix = printf_str("  %4zu  %4d  %13.6f  %7s  %7.2f  %6.2f  ", i + 1, q.harmonic,
                                                   q.freq_hz, cents.c_str(), q.env.peak.db, q.env.attack_s * ms_per_s);
-            print_segments(prefix, q.env);
+            print_segments(os, prefix, q.env);
         }
-        std::cout << "  cents: off the ideal harmonic n f0 sqrt(1 + B n^2); blank for harmonic 0\n";
+        os << "  cents: off the ideal harmonic n f0 sqrt(1 + B n^2); blank for harmonic 0\n";
     }
     if (!p.noise.empty()) {
-        std::cout << "\n  noise     low_hz     high_hz  peak_db  att_ms  decay: T60 to segment end\n";
+        os << "\n  noise     low_hz     high_hz  peak_db  att_ms  decay: T60 to segment end\n";
         for (std::size_t i = 0; i < p.noise.size(); ++i) {
             const noise_band& b = p.noise[i];
             const std::string prefix = printf_str("  %5zu  %9.2f  %10.2f  %7.2f  %6.2f  ", i + 1, b.low_hz, b.high_hz,
                                                   b.env.peak.db, b.env.attack_s * ms_per_s);
-            print_segments(prefix, b.env);
+            print_segments(os, prefix, b.env);
         }
     }
-    return exit_ok;
+    return os.str();
 }
-
-}  // namespace
 
 void add_info_command(CLI::App& app, command_registry& reg) {
     CLI::App* sub = app.add_subcommand("info", "Show what a patch holds: the note, its partials and noise bands");

@@ -98,10 +98,6 @@ int run_render(const render_options& o) {
     }
 
     const render_summary summary = summarize_render(p, params);
-    if (summary.noise_bands_not_rendered > 0) {
-        warn(patch_name + ": " + std::to_string(summary.noise_bands_not_rendered) +
-             " noise band(s) not rendered: the noise model is not built yet, rendering the partials only");
-    }
     if (summary.partials_above_nyquist > 0) {
         warn(printf_str("%zu of %zu partials are at or above the output Nyquist frequency (%.0f Hz) and "
                         "are left out; raise --rate to keep them",

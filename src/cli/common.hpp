@@ -4,12 +4,19 @@
 
 #include <CLI/CLI.hpp>
 
+#include <filesystem>
 #include <functional>
 #include <stdexcept>
 #include <string>
 #include <string_view>
 #include <utility>
 #include <vector>
+
+namespace wane {
+struct patch;
+struct mono_audio;
+struct tracking_result;
+}
 
 namespace wane::cli {
 
@@ -42,6 +49,14 @@ void warn(std::string_view msg);
 void print_error(std::string_view msg);
 /// Informational line on stdout unless --quiet.
 void say(std::string_view msg);
+
+/// The text `wane info` prints for a patch read from path (also embedded in reports).
+std::string patch_info_text(const patch& p, const std::filesystem::path& path);
+
+/// Writes the HTML report of a source and its patch (tracking may be null: no overlay).
+void write_analysis_report(const mono_audio& source, const std::filesystem::path& source_path, const patch& p,
+                           const tracking_result* tracking, const std::filesystem::path& patch_path,
+                           const std::filesystem::path& out_path);
 
 /// Each command file adds its subcommand (with options, help and examples footer) here.
 void add_analyze_command(CLI::App& app, command_registry& reg);

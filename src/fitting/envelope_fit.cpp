@@ -4,7 +4,6 @@
 #include <array>
 #include <cassert>
 #include <cmath>
-#include <limits>
 #include <vector>
 
 namespace wane {
@@ -12,8 +11,10 @@ namespace wane {
 namespace {
 
 /// Largest number of segments the fixed-size normal equations hold.
-constexpr int max_supported_segments = 8;
+constexpr int max_supported_segments = max_fit_segments;
 constexpr int max_unknowns = max_supported_segments + 1;
+/// The dynamic program places run boundaries on at most this many grid points.
+constexpr std::size_t dp_grid_points = 32;
 /// A segment needs at least this many fit points so its slope is determined by data.
 constexpr int min_points_per_segment = 3;
 /// Residuals above the line count at most this much in the power-mean level offset, dB
@@ -24,6 +25,16 @@ constexpr int variance_bisection_steps = 40;
 constexpr double offset_sigma_db = 0.5;
 /// Frames in the running mean that gives the first pass its expected level above the floor.
 constexpr int excess_smoothing_frames = 9;
+/// Frames over which the local roughness of the level is measured (odd).
+constexpr std::size_t roughness_frames = 17;
+constexpr std::size_t roughness_stride = 4;
+/// Median absolute value of a zero-mean Gaussian = 0.6745 sigma, so sigma = 1.4826 median|x|.
+constexpr double mad_to_sigma = 1.4826;
+/// The noise term may be at most this many times the roughness estimate (overlapping frames
+/// smooth the noise, so the roughness understates it).
+constexpr double roughness_cap = 2.0;
+/// Furthest the first decay line may be run back before the first frame of a late-born track, dB.
+constexpr double max_backward_rise_db = 6.0;
 /// Refits after moving the fit's end to where the fitted envelope meets the floor margin.
 constexpr int end_refit_passes = 2;
 /// Frames in the running median that decides where the track reaches the floor.
@@ -31,10 +42,14 @@ constexpr int floor_median_frames = 5;
 /// Residual lag-1 correlation is clamped to this before the effective sample count is formed.
 constexpr double max_residual_correlation = 0.9;
 /// Golden-section steps when a knot is refined between grid points.
-constexpr int knot_refine_steps = 24;
+constexpr int knot_refine_steps = 12;
 constexpr double golden = 0.6180339887498949;  // (sqrt(5) - 1) / 2
 /// Coordinate-descent sweeps over the knots.
-constexpr int knot_sweeps = 3;
+constexpr int knot_sweeps = 2;
+/// With more than one knot, each knot is scanned over this many grid points either side of
+/// where it is (the dynamic program already placed it near its optimum); a lone knot is
+/// scanned over the whole grid.
+constexpr std::size_t knot_scan_halfwidth = 6;
 
 /// Standard deviation of a frame's level in dB from additive noise, for a sinusoid whose level
 /// exceeds the floor (mean noise power at the peak) by excess_db: the level error is
@@ -204,18 +219,25 @@ std::vector<std::vector<std::size_t>> segmented_least_squares(const point_sums& 
                                                               double min_run_s) {
     const std::size_t n = ps.size();
     const std::size_t min_pts = min_points_per_segment;
-    std::vector<std::vector<double>> cost(kmax + 1, std::vector<double>(n + 1, infinity));
-    std::vector<std::vector<std::size_t>> from(kmax + 1, std::vector<std::size_t>(n + 1, 0));
+    // Run boundaries on a coarse grid: every stride-th point (and the end); run costs stay exact.
+    const std::size_t stride = (n + dp_grid_points - 1) / dp_grid_points;
+    std::vector<std::size_t> cand;
+    for (std::size_t i = 0; i < n; i += stride) cand.push_back(i);
+    cand.push_back(n);
+    const std::size_t nc = cand.size();
+    std::vector<std::vector<double>> cost(kmax + 1, std::vector<double>(nc, infinity));
+    std::vector<std::vector<std::size_t>> from(kmax + 1, std::vector<std::size_t>(nc, 0));
     auto run_ok = [&](std::size_t a, std::size_t b) {
         return b - a >= min_pts && ps.x[b - 1] - ps.x[a] >= min_run_s;
     };
-    for (std::size_t j = min_pts; j <= n; ++j)
-        if (run_ok(0, j)) cost[1][j] = ps.line_cost(0, j);
+    for (std::size_t j = 1; j < nc; ++j)
+        if (run_ok(0, cand[j])) cost[1][j] = ps.line_cost(0, cand[j]);
     for (int k = 2; k <= kmax; ++k) {
-        for (std::size_t j = k * min_pts; j <= n; ++j) {
-            for (std::size_t i = (k - 1) * min_pts; i + min_pts <= j; ++i) {
-                if (!std::isfinite(cost[k - 1][i]) || !run_ok(i, j)) continue;
-                const double c = cost[k - 1][i] + ps.line_cost(i, j);
+        // The last layer only needs the full run (j = the end).
+        for (std::size_t j = k == kmax ? nc - 1 : 1; j < nc; ++j) {
+            for (std::size_t i = 1; i < j; ++i) {
+                if (!std::isfinite(cost[k - 1][i]) || !run_ok(cand[i], cand[j])) continue;
+                const double c = cost[k - 1][i] + ps.line_cost(cand[i], cand[j]);
                 if (c < cost[k][j]) {
                     cost[k][j] = c;
                     from[k][j] = i;
@@ -225,14 +247,14 @@ std::vector<std::vector<std::size_t>> segmented_least_squares(const point_sums& 
     }
     std::vector<std::vector<std::size_t>> starts(kmax + 1);
     for (int k = 2; k <= kmax; ++k) {
-        if (!std::isfinite(cost[k][n])) continue;
-        std::vector<std::size_t> s(k - 1);
-        std::size_t j = n;
+        if (!std::isfinite(cost[k][nc - 1])) continue;
+        std::vector<std::size_t> st(k - 1);
+        std::size_t j = nc - 1;
         for (int kk = k; kk >= 2; --kk) {
             j = from[kk][j];
-            s[kk - 2] = j;
+            st[kk - 2] = cand[j];
         }
-        starts[k] = std::move(s);
+        starts[k] = std::move(st);
     }
     return starts;
 }
@@ -256,7 +278,13 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
             std::vector<double> trial = best.knots;
             double best_rss = best.sol.rss;
             std::size_t best_i = n;
-            for (std::size_t i = 1; i + 1 < n; ++i) {
+            std::size_t scan_lo = 1, scan_hi = n - 1;
+            if (knots.size() > 1) {
+                const std::size_t at = ps.first_after(best.knots[j]);
+                scan_lo = std::max<std::size_t>(1, at > knot_scan_halfwidth ? at - knot_scan_halfwidth : 0);
+                scan_hi = std::min(n - 1, at + knot_scan_halfwidth);
+            }
+            for (std::size_t i = scan_lo; i < scan_hi; ++i) {
                 trial[j] = ps.x[i];
                 if (!knots_feasible(ps, trial, min_segment_s)) continue;
                 const continuous_solution s = solve_continuous(ps, trial);
@@ -307,7 +335,8 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
                 moved = true;
             }
         }
-        if (!moved) break;
+        // A lone knot has converged after one sweep (its scan covered the whole grid).
+        if (!moved || knots.size() == 1) break;
     }
     return best;
 }
@@ -361,6 +390,14 @@ bool changes_significant(const point_sums& ps, const knot_fit& f, double inflati
         if (std::abs(f.sol.theta[2 + j]) < min_z * std::sqrt(var)) return false;
     }
     return true;
+}
+
+/// Level of the decay pieces at time t >= the first piece's start (envelope_level without
+/// rebuilding the pieces at every call).
+double decay_level_db(std::span<const envelope_piece> pieces, double t) {
+    for (const envelope_piece& p : pieces)
+        if (t < p.end_s) return p.start_level.db + p.slope_db_per_s * (t - p.start_s);
+    return -infinity;
 }
 
 double wrap_phase(double phase_rad) { return std::remainder(phase_rad, two_pi); }
@@ -425,10 +462,8 @@ level_line_fit fit_level_lines(std::span<const double> times_s, std::span<const 
     const double dof = std::max(static_cast<double>(n) - 2.0 * kbig, 1.0);
     double chi2 = 0.0;
     for (std::size_t i = 0; i < n; ++i) chi2 += weights[i] * resid[i] * resid[i];
-    std::vector<double> w2(n);
-    if (chi2 <= dof) {
-        for (std::size_t i = 0; i < n; ++i) w2[i] = weights[i];
-    } else {
+    std::vector<double> w2(weights.begin(), weights.end());
+    if (chi2 > dof) {
         double lo = 0.0, hi = 0.0;
         for (double r : resid) hi = std::max(hi, r * r);
         auto excess_chi2 = [&](double s2) {
@@ -442,11 +477,11 @@ level_line_fit fit_level_lines(std::span<const double> times_s, std::span<const 
         }
         const double s2 = 0.5 * (lo + hi);
         for (std::size_t i = 0; i < n; ++i) w2[i] = 1.0 / (1.0 / weights[i] + s2);
+        // Pass 2 with the calibrated weights.
+        ps = point_sums(times_s, levels_db, w2);
+        fits = fit_all_k(ps, kmax, params);
+        kbig = largest_feasible(fits);
     }
-    // Pass 2 with the calibrated weights.
-    ps = point_sums(times_s, levels_db, w2);
-    fits = fit_all_k(ps, kmax, params);
-    kbig = largest_feasible(fits);
 
     // Effective number of independent points from the residual lag-1 correlation of the largest
     // feasible model (beating leaves slow, correlated residuals; noise leaves white ones):
@@ -488,10 +523,35 @@ level_line_fit fit_level_lines(std::span<const double> times_s, std::span<const 
 
 namespace {
 
+/// The floor can overstate the noise a frame carries (a floor raised by the attack's noise, a
+/// band floor far from the partial), so the weights cap the noise term at a multiple of the
+/// level's local roughness: sigma ~ 1.4826 median|second difference| / sqrt(6) (for white noise
+/// the second difference has variance 6 sigma^2), the median over roughness_frames frames,
+/// evaluated every roughness_stride frames and held in between. Infinite on short tracks.
+std::vector<double> level_roughness_db(const std::vector<track_point>& pts) {
+    const std::size_t n = pts.size();
+    std::vector<double> rough(n, infinity);
+    if (n < roughness_frames) return rough;
+    std::vector<double> d2(n, 0.0);
+    for (std::size_t i = 1; i + 1 < n; ++i)
+        d2[i] = std::abs(pts[i + 1].level_db - 2.0 * pts[i].level_db + pts[i - 1].level_db);
+    d2[0] = d2[1];
+    d2[n - 1] = d2[n - 2];
+    std::array<double, roughness_frames> win{};
+    for (std::size_t i = 0; i < n; i += roughness_stride) {
+        const std::size_t a = std::min(i >= roughness_frames / 2 ? i - roughness_frames / 2 : 0, n - roughness_frames);
+        std::copy_n(d2.begin() + static_cast<std::ptrdiff_t>(a), roughness_frames, win.begin());
+        std::nth_element(win.begin(), win.begin() + roughness_frames / 2, win.end());
+        const double sigma = mad_to_sigma * win[roughness_frames / 2] / std::sqrt(6.0);
+        for (std::size_t k = i; k < std::min(n, i + roughness_stride); ++k) rough[k] = sigma;
+    }
+    return rough;
+}
+
 /// Envelope of frames [first, end) of a track: weights, decimation, the line fit, the attack and
 /// the power-mean offset. Frequency and phase are filled by the caller.
 partial_fit fit_region(const std::vector<track_point>& pts, std::span<const double> expected_excess_db,
-                       std::size_t peak, std::size_t first, std::size_t end, const envelope_fit_params& params) {
+                       std::span<const double> rough_db, std::size_t peak, std::size_t first, std::size_t end, const envelope_fit_params& params) {
     const std::size_t m = end - first;
     // Frame weight 1 / (model^2 + noise^2), the noise term from the expected (not the measured)
     // level above the floor: weights from the measured level would favour frames that noise
@@ -500,10 +560,11 @@ partial_fit fit_region(const std::vector<track_point>& pts, std::span<const doub
     // ln|1 + z| over a circle of radius < 1 is 0), so the dB level is unbiased down to the floor.
     std::vector<double> level(m), weight(m), time(m);
     for (std::size_t i = 0; i < m; ++i) {
-        const track_point& p = pts[first + i];
-        const double sn = noise_sigma_db(expected_excess_db[first + i]);
-        level[i] = p.level_db;
-        time[i] = p.time_s;
+        level[i] = pts[first + i].level_db;
+        time[i] = pts[first + i].time_s;
+    }
+    for (std::size_t i = 0; i < m; ++i) {
+        const double sn = std::min(noise_sigma_db(expected_excess_db[first + i]), roughness_cap * rough_db[first + i]);
         weight[i] = 1.0 / (params.model_sigma_db * params.model_sigma_db + sn * sn);
     }
 
@@ -530,10 +591,16 @@ partial_fit fit_region(const std::vector<track_point>& pts, std::span<const doub
 
     // Envelope: the attack ends half a window before the level peak (the frame centred there is
     // the first whose window lies wholly after an abrupt onset); the first line runs back to it.
+    // A track whose first frame is already its peak shows no rise at all (it was born late, e.g.
+    // under the noise of the attack): its decay line runs back to the onset, attack 0.
     partial_fit out;
     envelope& env = out.env;
     const double t_peak = pts[peak].time_s;
-    env.attack_s = std::clamp(t_peak - 0.5 * params.window_s, 0.0, t_peak);
+    // Running back is trusted over a short way only: when it would climb more than
+    // max_backward_rise_db above the first fitted point, the regular attack rule applies.
+    const double smeared_attack_s = std::clamp(t_peak - 0.5 * params.window_s, 0.0, t_peak);
+    env.attack_s = peak == 0 ? 0.0 : smeared_attack_s;
+    if (lines.slopes_db_per_s[0] * (env.attack_s - gx[0]) > max_backward_rise_db) env.attack_s = smeared_attack_s;
     env.peak = level_db{lines.start_level_db + lines.slopes_db_per_s[0] * (env.attack_s - gx[0])};
     const std::size_t k = lines.slopes_db_per_s.size();
     for (std::size_t j = 0; j < k; ++j) {
@@ -547,20 +614,22 @@ partial_fit fit_region(const std::vector<track_point>& pts, std::span<const doub
     {
         // Reliability weights here carry a fixed model error so the strongest frames do not
         // decide alone: 1 / (offset_sigma^2 + noise^2).
+        const auto pieces = envelope_pieces(env);
         double sw = 0.0, sp = 0.0;
         for (std::size_t i = 0; i < m; ++i) {
             const double sn = noise_sigma_db(expected_excess_db[first + i]);
             const double w = 1.0 / (offset_sigma_db * offset_sigma_db + sn * sn);
-            const double r = level[i] - envelope_level(env, time[i]).db;
+            const double r = level[i] - decay_level_db(pieces, time[i]);
             sp += w * std::pow(10.0, std::min(r, max_offset_residual_db) / 10.0);
             sw += w;
         }
         env.peak.db += power_to_db(sp / sw);
     }
     // Fit error: plain RMS over the fitted frames.
+    const auto pieces = envelope_pieces(env);
     double se = 0.0;
     for (std::size_t i = 0; i < m; ++i) {
-        const double r = level[i] - envelope_level(env, time[i]).db;
+        const double r = level[i] - decay_level_db(pieces, time[i]);
         se += r * r;
     }
     out.weighted_sq_error_db2 = se;
@@ -634,16 +703,21 @@ std::optional<partial_fit> fit_partial(const partial_track& track, const envelop
             expected[i] = sum / count;
         }
     }
-    partial_fit out = fit_region(pts, expected, peak, peak, end, params);
+    const std::vector<double> rough = level_roughness_db(pts);
+    // The first pass only finds the region and the expected levels: a coarser grid will do.
+    envelope_fit_params coarse = params;
+    coarse.max_fit_points = std::max(min_points_per_segment * params.max_segments, params.max_fit_points / 2);
+    partial_fit out = fit_region(pts, expected, rough, peak, peak, end, coarse);
     for (int pass = 0; pass < end_refit_passes; ++pass) {
         std::size_t model_end = n;
+        const auto pieces = envelope_pieces(out.env);
         for (std::size_t i = peak; i < n; ++i) {
-            expected[i] = envelope_level(out.env, pts[i].time_s).db - pts[i].floor_db;
+            expected[i] = decay_level_db(pieces, pts[i].time_s) - pts[i].floor_db;
             if (model_end == n && expected[i] < params.floor_margin_db) model_end = i;
         }
-        if (model_end < peak + 2) break;
+        if (model_end < peak + 2 || (pass > 0 && model_end == end)) break;
         end = model_end;
-        out = fit_region(pts, expected, peak, peak, end, params);
+        out = fit_region(pts, expected, rough, peak, peak, end, params);
     }
 
     // Frequency: amplitude-weighted mean over the fitted frames.

@@ -1,6 +1,22 @@
 // Envelope fit of one partial track: an attack, then K >= 1 continuous straight segments of the
 // level in dB (patch format v1), breakpoints by segmented least squares (Bellman 1961) refined
 // under the continuity constraint, K by a penalized likelihood (BIC, Schwarz 1978).
+//
+// How (fit_partial):
+//  - the attack ends at the level peak less half a window (frame smearing of an abrupt onset);
+//  - the fit runs from the peak to where the level comes within floor_margin_db of the noise
+//    floor (first from the smoothed data, then from the fitted envelope itself), or to the end;
+//  - frame weights are 1 / (model^2 + noise^2), the noise term from the expected level above
+//    the floor (capped by the level's local roughness); frames are averaged in groups to at most
+//    max_fit_points points;
+//  - for each K: Bellman's dynamic program (discontinuous runs, on a coarse boundary grid) gives
+//    starting knots; the continuous hinge-basis least squares is then minimized over the knots by
+//    coordinate scans and golden-section search;
+//  - the noise scale is calibrated from the richest model's residuals (extra model error such as
+//    beating), residual correlation shrinks the effective sample count, and K minimizes BIC among
+//    fits whose every knee is both statistically (Wald z) and practically significant;
+//  - the level is then offset to the power mean of the frames about the dB line, so a beating
+//    pair is fitted through its mean energy, not its dips; the last slope runs on past the fit.
 #pragma once
 
 #include <optional>
@@ -11,8 +27,11 @@
 
 namespace wane {
 
+/// Most decay segments one fit can have.
+inline constexpr int max_fit_segments = 8;
+
 struct envelope_fit_params {
-    int max_segments = 3;
+    int max_segments = 3;  ///< 1..max_fit_segments
     /// The fit stops where the (smoothed) level comes within this many dB of the noise floor.
     double floor_margin_db = 8.0;
     /// Shortest decay segment, seconds (keeps breakpoints from chasing beats and noise).
@@ -45,16 +64,18 @@ struct partial_fit {
     double fit_end_s = 0.0;    ///< last frame time in the fit
     int fitted_frames = 0;
     /// Sum over the fitted frames of (level - envelope)^2 and their count, so errors pool.
-    double weighted_sq_error_db2 = 0.0;
-    double weight_sum = 0.0;
-    double rms_error_db = 0.0;  ///< sqrt(weighted_sq_error_db2 / weight_sum)
+    double weighted_sq_error_db2 = 0.0;  ///< unweighted: every fitted frame counts once
+    double weight_sum = 0.0;             ///< number of fitted frames
+    double rms_error_db = 0.0;           ///< sqrt(weighted_sq_error_db2 / weight_sum)
 };
 
 /// Fits one track. Empty when fewer than two frames are above the noise floor by the margin.
 std::optional<partial_fit> fit_partial(const partial_track& track, const envelope_fit_params& params);
 
-/// The continuous piecewise-linear fit of points (time_s, level_db, weight), times ascending:
-/// returns the knots (segment boundaries, K - 1 of them), the level at times[0] and the K slopes.
+/// The continuous piecewise-linear fit of points (time_s, level_db, weight), times ascending,
+/// weights the inverse noise variances of the points (the fit adds model error when the residuals
+/// call for it): K, the knots (segment boundaries, K - 1 of them), the level at times[0] and the
+/// K slopes. Uses max_segments, min_segment_s and the significance settings of params.
 struct level_line_fit {
     std::vector<double> knots_s;
     double start_level_db = 0.0;

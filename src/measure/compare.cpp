@@ -5,6 +5,7 @@
 #include <stdexcept>
 
 #include "core/units.hpp"
+#include "tracking/tracker.hpp"
 
 namespace wane {
 
@@ -63,6 +64,14 @@ compare_result compare_signals(std::span<const float> a, std::span<const float> 
         r.bands.push_back(band_decay_pair{.band = band,
                                           .a = measure_decay(fa, sample_rate_hz, params.decay),
                                           .b = measure_decay(fb, sample_rate_hz, params.decay)});
+    }
+    // f0 of both by the analysis's own estimator (default settings); left empty when either
+    // sound has no pitch centre or cannot be tracked.
+    try {
+        const tracking_result ta = track_note(a, sample_rate_hz, {});
+        const tracking_result tb = track_note(b, sample_rate_hz, {});
+        if (ta.f0_hz > 0.0 && tb.f0_hz > 0.0) r.f0_difference_cents = cents_between(tb.f0_hz, ta.f0_hz);
+    } catch (const std::invalid_argument&) {
     }
     return r;
 }

@@ -12,6 +12,7 @@
 
 #include "core/units.hpp"
 #include "io/errors.hpp"
+#include "spectrum/stft.hpp"
 
 namespace wane {
 
@@ -191,6 +192,30 @@ std::string wav_bytes(std::span<const float> samples, double sample_rate_hz) {
     sf_write_float(snd, scaled.data(), static_cast<sf_count_t>(scaled.size()));
     sf_close(snd);
     return file.bytes;
+}
+
+spectrogram_db make_spectrogram(std::span<const float> samples, double sample_rate_hz, double window_s,
+                                int max_frames) {
+    constexpr int zero_padding = 2;
+    constexpr double power_floor = 1e-20;  // -200 dB, keeps log10 finite in digital silence
+    const int window_length = std::max(33, static_cast<int>(std::lround(window_s * sample_rate_hz)) | 1);
+    stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = window_length,
+                    .fft_size = fast_fft_size(zero_padding * window_length)});
+    const auto total = static_cast<std::int64_t>(samples.size());
+    const std::int64_t hop = std::max<std::int64_t>(window_length / 4, (total + max_frames - 1) / std::max(1, max_frames));
+    spectrogram_db s;
+    s.bins = plan.fft_size() / 2 + 1;
+    s.bin_hz = sample_rate_hz / plan.fft_size();
+    s.hop_s = static_cast<double>(hop) / sample_rate_hz;
+    s.start_s = 0.0;
+    for (std::int64_t c = 0; c < total; c += hop) {
+        plan.analyze(samples, c);
+        for (float pw : plan.power()) {
+            s.level_db.push_back(static_cast<float>(power_to_db(std::max(static_cast<double>(pw), power_floor))));
+        }
+        ++s.frames;
+    }
+    return s;
 }
 
 std::string spectrogram_png(const spectrogram_db& s, double max_freq_hz, double range_db) {

@@ -43,6 +43,11 @@ struct report_inputs {
 /// The whole HTML page.
 std::string make_report_html(const report_inputs& in);
 
+/// Spectrogram of a whole recording for the report: Blackman-Harris window of window_s, at most
+/// max_frames frames spread evenly over the file (levels in dBFS re a full-scale sinusoid).
+spectrogram_db make_spectrogram(std::span<const float> samples, double sample_rate_hz, double window_s = 0.046,
+                                int max_frames = 960);
+
 /// PNG bytes of a spectrogram (libpng), width = frames, height = bins up to max_freq_hz,
 /// levels mapped from (peak - range_db) .. peak through the cubehelix colour scheme.
 std::string spectrogram_png(const spectrogram_db& s, double max_freq_hz, double range_db);

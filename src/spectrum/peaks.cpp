@@ -24,6 +24,7 @@ noise_floor::noise_floor(int bin_count, double bin_hz, double hop_s, const noise
       mean_over_quantile_(1.0 / -std::log(1.0 - params.quantile)) {
     const int bands = (bin_count + band_bins_ - 1) / band_bins_;
     bands_db_.assign(static_cast<std::size_t>(bands), -300.0);
+    bands_power_.assign(bands_db_.size(), 0.0);
     measured_db_.assign(bands_db_.size(), -300.0);
     scratch_.resize(static_cast<std::size_t>(band_bins_));
 }
@@ -46,6 +47,11 @@ void noise_floor::reset(std::span<const float> power) {
     measure(power);
     bands_db_ = measured_db_;
     started_ = true;
+    refresh_power();
+}
+
+void noise_floor::refresh_power() {
+    for (std::size_t b = 0; b < bands_db_.size(); ++b) bands_power_[b] = std::pow(10.0, bands_db_[b] / 10.0);
 }
 
 void noise_floor::update(std::span<const float> power) {
@@ -56,13 +62,14 @@ void noise_floor::update(std::span<const float> power) {
     measure(power);
     for (std::size_t b = 0; b < bands_db_.size(); ++b)
         bands_db_[b] += alpha_ * (measured_db_[b] - bands_db_[b]);
+    refresh_power();
 }
 
-double noise_floor::floor_db_at(double freq_hz) const {
-    const auto b = static_cast<std::size_t>(std::clamp(freq_hz / bin_hz_ / band_bins_, 0.0,
-                                                       double(bands_db_.size() - 1)));
-    return bands_db_[b];
+std::size_t noise_floor::band_of(double freq_hz) const {
+    return static_cast<std::size_t>(std::clamp(freq_hz / bin_hz_ / band_bins_, 0.0, double(bands_db_.size() - 1)));
 }
+
+double noise_floor::floor_db_at(double freq_hz) const { return bands_db_[band_of(freq_hz)]; }
 
 void find_peaks(std::span<const float> power, std::span<const kiss_fft_cpx> bins,
                 const qifft_correction& correction, int fft_size, double sample_rate_hz,
@@ -84,9 +91,10 @@ void find_peaks(std::span<const float> power, std::span<const kiss_fft_cpx> bins
     for (std::size_t band_lo = (first / band_bins) * band_bins; band_lo <= last; band_lo += band_bins) {
         const std::size_t lo = std::max(band_lo, first);
         const std::size_t hi = std::min(band_lo + band_bins, last + 1);
-        const double band_floor_db = floor != nullptr ? floor->floor_db_at((double(band_lo) + 0.5 * double(band_bins)) * bin_hz) : -300.0;
+        const std::size_t band = floor != nullptr ? floor->band_of((double(band_lo) + 0.5 * double(band_bins)) * bin_hz) : 0;
+        const double band_floor_db = floor != nullptr ? floor->bands_db()[band] : -300.0;
         const auto thr = static_cast<float>(
-            floor != nullptr ? std::max(base_thr, std::pow(10.0, band_floor_db / 10.0) * above_floor) : base_thr);
+            floor != nullptr ? std::max(base_thr, floor->band_power(band) * above_floor) : base_thr);
         for (std::size_t k = lo; k < hi; ++k) {
             const float p = power[k];
             if (p <= thr || !(p > power[k - 1] && p >= power[k + 1])) continue;

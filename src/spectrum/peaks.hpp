@@ -33,6 +33,9 @@ public:
     void reset(std::span<const float> power);
 
     double floor_db_at(double freq_hz) const;
+    /// The floor of band b as a power (10^(dB / 10)), kept beside the dB values.
+    double band_power(std::size_t b) const { return bands_power_[b]; }
+    std::size_t band_of(double freq_hz) const;
     double band_hz() const { return band_bins_ * bin_hz_; }
     std::span<const double> bands_db() const { return bands_db_; }
 
@@ -47,7 +50,9 @@ private:
     double quantile_;
     double mean_over_quantile_;  ///< exponential distribution: mean = q-quantile / -ln(1 - q)
     bool started_ = false;
+    void refresh_power();
     std::vector<double> bands_db_;
+    std::vector<double> bands_power_;
     std::vector<double> measured_db_;
     std::vector<float> scratch_;
 };

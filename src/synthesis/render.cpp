@@ -16,6 +16,7 @@
 // the relative error stays below ~32 * 2 * 2^-24 ~ 3.8e-6 (-108 dB) in the worst case and is far
 // smaller on average (error energy -128 dB in tests/unit/test_render.cpp).
 #include "synthesis/render.hpp"
+#include "synthesis/noise_render.hpp"
 
 #include <algorithm>
 #include <array>
@@ -344,8 +345,14 @@ std::vector<float> render_patch(const patch& p, const render_params& params) {
         for (std::size_t i = 0; i < n; ++i) out[b0 + i] = static_cast<float>(block_d[i]);
     }
 
-    // Hook for the noise bands (patch.noise): the noise model is a later issue; until it lands the
-    // bands are not rendered and summarize_render().noise_bands_not_rendered says how many.
+    // The noise bands (deterministic-plus-stochastic model), band-limited by construction.
+    if (params.include_noise && !p.noise.empty()) {
+        add_noise_bands(p.noise,
+                        {.sample_rate_hz = params.sample_rate_hz,
+                         .gain_db = p.note.gain_db + params.gain_db + params.noise_gain_db,
+                         .seed = params.noise_seed},
+                        out);
+    }
 
     const auto fade_frames = std::min(plan.frames,
                                       static_cast<std::size_t>(std::llround(end_fade_s * params.sample_rate_hz)));
@@ -368,7 +375,7 @@ render_summary summarize_render(const patch& p, const render_params& params) {
         ++s.partials_rendered;
         if (g < 1.0) ++s.partials_faded;
     }
-    s.noise_bands_not_rendered = params.include_noise ? p.noise.size() : 0;
+    s.noise_bands_rendered = params.include_noise ? p.noise.size() : 0;
     return s;
 }
 

@@ -1,5 +1,5 @@
 // Rendering a patch to samples: an oscillator bank of exponentially damped sinusoids (plus the
-// noise bands, once the noise model lands). Owned by the renderer work.
+// noise bands of synthesis/noise_render.hpp).
 //
 // What a render is (the patch format v1 formula, evaluated at t = n / sample_rate_hz, n = 0, 1, ...):
 //   y(t) = G * sum over partials k of  band_limit_gain(f_k) * A_k(t) * cos(2 pi f_k t + phase_k)
@@ -64,7 +64,7 @@ std::size_t render_frames(const patch& p, const render_params& params);
 /// the kernels use no fused multiply-add and no reassociation).
 /// Preconditions (asserted): a valid patch, rate in [min_render_rate_hz, max_render_rate_hz],
 /// render length in (0, max_length_s].
-/// Noise bands (patch.noise) are not rendered yet: see render_summary::noise_bands_not_rendered.
+/// Noise bands (patch.noise) are added when params.include_noise (synthesis/noise_render.hpp).
 std::vector<float> render_patch(const patch& p, const render_params& params);
 
 /// What a render will contain, for messages (cheap: no samples computed).
@@ -73,8 +73,8 @@ struct render_summary {
     std::size_t partials_rendered = 0;      ///< below Nyquist, with a non-zero peak
     std::size_t partials_above_nyquist = 0; ///< left out: at or above the output Nyquist
     std::size_t partials_faded = 0;         ///< inside the band-limit fade zone (attenuated)
-    /// Noise bands in the patch that this renderer leaves out (the noise model is a later issue).
-    std::size_t noise_bands_not_rendered = 0;
+    /// Noise bands rendered (0 with include_noise off).
+    std::size_t noise_bands_rendered = 0;
 };
 render_summary summarize_render(const patch& p, const render_params& params);
 

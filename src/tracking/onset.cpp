@@ -25,8 +25,9 @@ std::int64_t detect_onset(std::span<const float> samples, double sample_rate_hz,
     const auto q = static_cast<std::size_t>(params.quiet_quantile * double(sorted.size() - 1));
     std::nth_element(sorted.begin(), sorted.begin() + q, sorted.end());
     const double quiet_db = sorted[q];
-    const double threshold_db =
-        std::min(peak_db, std::max(peak_db - params.below_peak_db, quiet_db + params.above_noise_db));
+    // Never above peak - min_below_peak_db: a steady sound starts at its first loud block.
+    const double threshold_db = std::min(peak_db - params.min_below_peak_db,
+                                         std::max(peak_db - params.below_peak_db, quiet_db + params.above_noise_db));
     std::int64_t b = 0;
     while (b < blocks && energy_db[b] < threshold_db) ++b;
     const auto max_back = static_cast<std::int64_t>(params.max_backtrack_s / params.block_s);

@@ -10,6 +10,7 @@ struct onset_params {
     double block_s = 0.002;        ///< energy measured in blocks of this length
     double below_peak_db = 30.0;   ///< the onset block reaches at least peak - this
     double above_noise_db = 20.0;  ///< ... and at least the quiet level + this
+    double min_below_peak_db = 10.0; ///< ... but the threshold never exceeds peak - this
     double quiet_quantile = 0.1;   ///< the quiet level: this quantile of the block energies (dB)
     double max_backtrack_s = 0.01; ///< walk back at most this far while the energy keeps falling
 };

@@ -73,7 +73,7 @@ pitch_estimate estimate_pitch(std::span<const pitch_peak> all_peaks, const pitch
     double total = 0.0;
     for (std::size_t i = 0; i < peaks.size(); ++i) total += amp[i] = std::pow(10.0, peaks[i].level_db / 20.0);
 
-    constexpr std::array<double, 4> b_grid_fraction{0.0, 0.1, 0.3, 1.0};
+    constexpr std::array<double, 5> b_grid_fraction{0.0, 1.0 / 30.0, 0.1, 1.0 / 3.0, 1.0};
     pitch_estimate best;
     double best_score = -1.0;
     const std::size_t seeds = std::min<std::size_t>(peaks.size(), 8);
@@ -133,6 +133,43 @@ inharmonicity_fit fit_inharmonicity(std::span<const int> harmonic, std::span<con
     }
     // B = 0: f0^2 = weighted mean of (f/n)^2.
     return {std::sqrt(sy / sw), 0.0, used};
+}
+
+double fit_f0_given_b(std::span<const int> harmonic, std::span<const double> freq_hz,
+                      std::span<const double> weight, double inharmonicity_b, int max_harmonic) {
+    double num = 0.0, den = 0.0;
+    for (std::size_t i = 0; i < harmonic.size(); ++i) {
+        if (harmonic[i] < 1 || harmonic[i] > max_harmonic || weight[i] <= 0.0) continue;
+        const double ns = series_freq(harmonic[i], 1.0, inharmonicity_b);
+        num += weight[i] * freq_hz[i] * ns;
+        den += weight[i] * ns * ns;
+    }
+    return den > 0.0 ? num / den : 0.0;
+}
+
+inharmonicity_fit fit_harmonic_series(std::span<const int> harmonic, std::span<const double> freq_hz,
+                                      std::span<const double> weight, int low_harmonics) {
+    // One partial per label: the one of largest weight.
+    std::vector<int> n;
+    std::vector<double> f, w;
+    for (std::size_t i = 0; i < harmonic.size(); ++i) {
+        if (harmonic[i] < 1 || weight[i] <= 0.0) continue;
+        const auto it = std::find(n.begin(), n.end(), harmonic[i]);
+        if (it == n.end()) {
+            n.push_back(harmonic[i]);
+            f.push_back(freq_hz[i]);
+            w.push_back(weight[i]);
+        } else if (const auto j = static_cast<std::size_t>(it - n.begin()); weight[i] > w[j]) {
+            f[j] = freq_hz[i];
+            w[j] = weight[i];
+        }
+    }
+    if (n.empty()) return {};
+    const std::vector<double> equal(n.size(), 1.0);
+    inharmonicity_fit fit = fit_inharmonicity(n, f, equal);
+    const double low_f0 = fit_f0_given_b(n, f, w, fit.inharmonicity_b, low_harmonics);
+    if (low_f0 > 0.0) fit.f0_hz = low_f0;
+    return fit;
 }
 
 }  // namespace wane

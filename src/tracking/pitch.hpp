@@ -20,7 +20,7 @@ struct pitch_params {
     int max_harmonic = 40;
     double tolerance_rel = 0.012;       ///< |f / (n f0 s_n) - 1| allowed, plus the stiffness slack
     /// Largest B allowed for while sieving, s_n = sqrt(1 + B n^2) (grid 0 .. this).
-    double max_inharmonicity = 1e-3;
+    double max_inharmonicity = 3e-3;
     /// A sound is harmonic when the best candidate explains this fraction of the strong peaks'
     /// amplitude (sum of linear amplitudes).
     double min_explained = 0.8;
@@ -55,5 +55,17 @@ struct inharmonicity_fit {
 /// with f0 refitted for B = 0. Needs >= 2 distinct harmonic numbers, else f0 from the mean ratio.
 inharmonicity_fit fit_inharmonicity(std::span<const int> harmonic, std::span<const double> freq_hz,
                                     std::span<const double> weight);
+
+/// f0 given B from the partials with 1 <= n <= max_harmonic: weighted least squares of
+/// f_n = n f0 sqrt(1 + B n^2), f0 = sum w f_n n s_n / sum w (n s_n)^2. 0 when none qualifies.
+double fit_f0_given_b(std::span<const int> harmonic, std::span<const double> freq_hz,
+                      std::span<const double> weight, double inharmonicity_b, int max_harmonic);
+
+/// The stiff-string series of a set of labelled partials: B from all of them (fit_inharmonicity,
+/// equal weights: each partial's relative deviation counts alike), then f0 given that B from the
+/// pitch-carrying low partials n <= low_harmonics (weights as given). Labels <= 0 are ignored;
+/// where several partials carry one label only the one of largest weight counts.
+inharmonicity_fit fit_harmonic_series(std::span<const int> harmonic, std::span<const double> freq_hz,
+                                      std::span<const double> weight, int low_harmonics);
 
 }  // namespace wane

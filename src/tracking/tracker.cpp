@@ -2,7 +2,9 @@
 #include "tracking/tracker.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
+#include <cstdio>
 #include <cstdint>
 #include <numeric>
 #include <stdexcept>
@@ -14,6 +16,7 @@
 #include "spectrum/stft.hpp"
 #include "tracking/onset.hpp"
 #include "tracking/pitch.hpp"
+#include "tracking/signal_checks.hpp"
 
 namespace wane {
 
@@ -40,18 +43,33 @@ constexpr double dev_min_bins = 2.0;             ///< ... but at least this many
 constexpr double dev_max_f0 = 0.3;               ///< ... and at most this fraction of f0
 constexpr int max_gap_frames = 3;                ///< gaps up to this many frames are bridged
 constexpr int min_track_frames = 5;
+constexpr double max_join_gap_s = 0.3;           ///< fragments of one partial this close are joined
+constexpr double join_rel_tol = 0.005;           ///< ... when their frequencies meet within this
 constexpr double min_track_windows = 1.5;        ///< ... and at least this many window lengths
 constexpr double harmonic_tolerance_rel = 0.02;  ///< labelling tracks with harmonic numbers
 constexpr int b_fit_rounds = 3;
+/// f0 is fitted on harmonics 1..this (given B from all): real strings stray from the ideal law
+/// more at high n (bridge coupling, tension modulation), and the low partials carry the pitch.
+constexpr int pitch_harmonics = 8;
+constexpr double fundamental_snr_db = 20.0;      ///< partial 1 sets the pitch when this far up
+constexpr double fundamental_below_max_db = 40.0; ///< ... and within this of the strongest track
 constexpr double max_snr_weight_db = 40.0;       ///< B fit: weight by SNR, capped here
-constexpr double representative_range_db = 20.0; ///< a track's frequency: median within this of its peak
+constexpr double attack_skip_s = 0.1;             ///< a track's frequency: median after this,
+constexpr double attack_skip_windows = 2.0;       ///< ... and after this many windows,
+constexpr double settled_snr_db = 20.0;           ///< ... over points this far above the floor
 
 int odd_length(double samples) { return std::max(3, 2 * static_cast<int>(std::lround(samples / 2.0)) + 1); }
 
-double median(std::vector<double> v) {
-    const auto mid = v.begin() + static_cast<std::ptrdiff_t>(v.size() / 2);
-    std::nth_element(v.begin(), mid, v.end());
-    return *mid;
+/// Value where the cumulative weight (values sorted) first reaches half the total.
+double weighted_median(std::vector<double> v, std::vector<double> w) {
+    std::vector<std::size_t> idx(v.size());
+    std::iota(idx.begin(), idx.end(), std::size_t{0});
+    std::sort(idx.begin(), idx.end(), [&](auto a, auto c) { return v[a] < v[c]; });
+    const double half = 0.5 * std::accumulate(w.begin(), w.end(), 0.0);
+    double acc = 0.0;
+    for (std::size_t i : idx)
+        if ((acc += w[i]) >= half) return v[i];
+    return v[idx.back()];
 }
 
 [[noreturn]] void refuse(const std::string& why) { throw std::invalid_argument(why); }
@@ -105,6 +123,86 @@ double resolve_spacing_hz(const std::vector<pitch_peak>& peaks, double f0_hz) {
     return std::max(spacing, min_spacing_hz);
 }
 
+/// Appends `frames` interpolated points after the track's last one, toward `next` (the next real
+/// point, one hop after the last inserted): frequency, level and floor linear, the phase advanced
+/// by 2 pi f hop at the mean frequency of each step.
+void bridge_gap(partial_track& track, int frames, const track_point& next, double hop_s) {
+    const track_point before = track.points.back();
+    for (int g = 1; g <= frames; ++g) {
+        const double a = double(g) / (frames + 1);
+        const track_point& prev = track.points.back();
+        const double f = before.freq_hz + a * (next.freq_hz - before.freq_hz);
+        track.points.push_back(
+            {.time_s = before.time_s + g * hop_s,
+             .freq_hz = f,
+             .level_db = before.level_db + a * (next.level_db - before.level_db),
+             .phase_rad = std::remainder(prev.phase_rad + two_pi * 0.5 * (prev.freq_hz + f) * hop_s, two_pi),
+             .floor_db = before.floor_db + a * (next.floor_db - before.floor_db)});
+    }
+}
+
+/// Median frequency of the first (or last) few points of a track: its ends can sit on a fading or
+/// rising edge where a single frame reads off.
+double edge_freq_hz(const partial_track& t, bool at_start) {
+    constexpr std::size_t edge_points = 5;
+    const std::size_t k = std::min(edge_points, t.points.size());
+    std::array<double, edge_points> f{};
+    for (std::size_t i = 0; i < k; ++i) f[i] = t.points[at_start ? i : t.points.size() - 1 - i].freq_hz;
+    for (std::size_t i = 1; i < k; ++i)  // insertion sort of <= 5 values
+        for (std::size_t j = i; j > 0 && f[j - 1] > f[j]; --j) std::swap(f[j - 1], f[j]);
+    return f[k / 2];
+}
+
+/// Joins fragments of one partial: a track starting within max_gap_s after another ended, at a
+/// frequency within rel_tol of where that one stopped, continues it (the gap bridged). Fragments
+/// come from a partial dipping into the noise (beating) for longer than the frame bridging allows.
+void join_fragments(std::vector<partial_track>& tracks, std::vector<double>& peak_db, double hop_s,
+                    double max_gap_s, double rel_tol) {
+    std::vector<std::size_t> order(tracks.size());
+    std::iota(order.begin(), order.end(), std::size_t{0});
+    std::sort(order.begin(), order.end(),
+              [&](auto a, auto c) { return tracks[a].points.front().time_s < tracks[c].points.front().time_s; });
+    std::vector<bool> absorbed(tracks.size(), false);
+    for (std::size_t oi = 0; oi < order.size(); ++oi) {
+        const std::size_t later = order[oi];
+        const track_point& first = tracks[later].points.front();
+        std::size_t best = tracks.size();
+        double best_dist = rel_tol;
+        for (std::size_t oj = 0; oj < oi; ++oj) {
+            const std::size_t earlier = order[oj];
+            if (absorbed[earlier] || tracks[earlier].cut_by_end) continue;
+            const track_point& last = tracks[earlier].points.back();
+            const double gap_s = first.time_s - last.time_s;
+            if (gap_s <= 0.5 * hop_s || gap_s > max_gap_s) continue;
+            const double dist = std::abs(edge_freq_hz(tracks[later], true) / edge_freq_hz(tracks[earlier], false) - 1.0);
+            if (dist < best_dist) best_dist = dist, best = earlier;
+        }
+        if (best == tracks.size()) continue;
+        partial_track& into = tracks[best];
+        const int gap_frames =
+            static_cast<int>(std::lround((first.time_s - into.points.back().time_s) / hop_s)) - 1;
+        bridge_gap(into, gap_frames, first, hop_s);
+        into.points.insert(into.points.end(), tracks[later].points.begin(), tracks[later].points.end());
+        into.cut_by_end = tracks[later].cut_by_end;
+        peak_db[best] = std::max(peak_db[best], peak_db[later]);
+        absorbed[later] = true;
+        // The joined track now ends where `later` ended: let it be found again by later fragments.
+        order[oi] = best;
+        absorbed[best] = false;
+    }
+    std::size_t keep = 0;
+    for (std::size_t i = 0; i < tracks.size(); ++i) {
+        if (absorbed[i]) continue;
+        if (keep != i) {
+            tracks[keep] = std::move(tracks[i]);
+            peak_db[keep] = peak_db[i];
+        }
+        ++keep;
+    }
+    tracks.resize(keep);
+    peak_db.resize(keep);
+}
+
 struct live_track {
     partial_track track;
     int harmonic = 0;
@@ -137,6 +235,12 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
     float max_dev = 0.0f;
     for (float v : x) max_dev = std::max(max_dev, std::abs(v - dc));
     if (max_dev < min_signal) refuse("no signal: the samples are constant (silence or DC only)");
+    if (const clipping_report clip = find_clipping(x); clip.clipped) {
+        char peak_text[32];
+        std::snprintf(peak_text, sizeof peak_text, "%.2f", 20.0 * std::log10(clip.peak_lin));
+        refuse("clipped: the waveform is flattened at its peak (" + std::string(peak_text) + " dBFS) in " +
+               std::to_string(clip.runs) + " places; the partial levels would be wrong");
+    }
 
     tracking_result result;
     const std::int64_t onset = detect_onset(x, fs);
@@ -154,6 +258,23 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
         const pitch_estimate pe = estimate_pitch(sv.peaks);
         f0_hz = pe.f0_hz;
         b = pe.inharmonicity_b;
+    }
+    if (f0_hz > 0.0) {
+        // Refine f0 and B on the survey peaks (Fletcher fit), for the harmonic guidance.
+        std::vector<int> hn(sv.peaks.size());
+        std::vector<double> freqs(sv.peaks.size()), weights(sv.peaks.size());
+        for (int round = 0; round < b_fit_rounds; ++round) {
+            for (std::size_t i = 0; i < sv.peaks.size(); ++i) {
+                hn[i] = harmonic_number(sv.peaks[i].freq_hz, f0_hz, b, harmonic_tolerance_rel);
+                freqs[i] = sv.peaks[i].freq_hz;
+                weights[i] = std::pow(10.0, sv.peaks[i].level_db / 10.0);
+            }
+            const inharmonicity_fit fit = fit_harmonic_series(hn, freqs, weights, pitch_harmonics);
+            if (fit.used < 2) break;
+            // An override keeps its f0 (the user's octave); only B is taken from the fit then.
+            if (!params.f0_hz) f0_hz = fit.f0_hz;
+            b = fit.inharmonicity_b;
+        }
     }
     const double spacing_hz = resolve_spacing_hz(sv.peaks, f0_hz);
     const double window_s = params.window_s.value_or(
@@ -194,8 +315,28 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
         if (f0_hz > 0.0) d = std::min(d, dev_max_f0 * f0_hz);
         return d;
     };
+    // Finished tracks; when they pile up (long or noisy files) only the strongest are kept. Exact:
+    // a track among the final max_partials strongest is among the strongest of any subset.
+    std::vector<double> done_peak_db;
+    const std::size_t keep_at_most = 2 * static_cast<std::size_t>(std::max(params.max_partials, 1));
     const auto finish = [&](live_track& t) {
-        if (static_cast<int>(t.track.points.size()) >= min_frames) done.push_back(std::move(t.track));
+        if (static_cast<int>(t.track.points.size()) < min_frames) return;
+        done.push_back(std::move(t.track));
+        done_peak_db.push_back(t.peak_db);
+        if (done.size() < 2 * keep_at_most) return;
+        std::vector<std::size_t> idx(done.size());
+        std::iota(idx.begin(), idx.end(), std::size_t{0});
+        std::nth_element(idx.begin(), idx.begin() + static_cast<std::ptrdiff_t>(keep_at_most), idx.end(),
+                         [&](auto a, auto c) { return done_peak_db[a] > done_peak_db[c]; });
+        idx.resize(keep_at_most);
+        std::sort(idx.begin(), idx.end());
+        for (std::size_t i = 0; i < idx.size(); ++i) {
+            if (idx[i] == i) continue;  // idx is sorted, so idx[i] >= i: no self-move
+            done[i] = std::move(done[idx[i]]);
+            done_peak_db[i] = done_peak_db[idx[i]];
+        }
+        done.resize(keep_at_most);
+        done_peak_db.resize(keep_at_most);
     };
     const double hop_time_s = result.hop_s;
     int frames = 0;
@@ -232,19 +373,8 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
             peak_used[mt.peak] = track_used[mt.track] = true;
             live_track& t = live[mt.track];
             const spectral_peak& p = peaks[mt.peak];
-            // Bridge a gap: interpolate frequency and level, advance the phase at that frequency.
-            const track_point before = t.track.points.back();
-            for (int g = 1; g <= t.missed; ++g) {
-                const double a = double(g) / (t.missed + 1);
-                const track_point& prev = t.track.points.back();
-                const double f = before.freq_hz + a * (p.freq_hz - before.freq_hz);
-                t.track.points.push_back(
-                    {.time_s = before.time_s + g * hop_time_s,
-                     .freq_hz = f,
-                     .level_db = before.level_db + a * (p.level_db - before.level_db),
-                     .phase_rad = std::remainder(prev.phase_rad + two_pi * 0.5 * (prev.freq_hz + f) * hop_time_s, two_pi),
-                     .floor_db = before.floor_db + a * (p.floor_db - before.floor_db)});
-            }
+            bridge_gap(t.track, t.missed, {.freq_hz = p.freq_hz, .level_db = p.level_db, .floor_db = p.floor_db},
+                       hop_time_s);
             t.missed = 0;
             t.track.points.push_back({.time_s = time_s, .freq_hz = p.freq_hz, .level_db = p.level_db,
                                       .phase_rad = p.phase_rad, .floor_db = p.floor_db});
@@ -284,9 +414,11 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
     result.floor_db.resize(floor_sum.size());
     for (std::size_t bnd = 0; bnd < floor_sum.size(); ++bnd) result.floor_db[bnd] = floor_sum[bnd] / frames;
     if (done.empty()) refuse("no partials above the noise floor");
+    join_fragments(done, done_peak_db, result.hop_s, max_join_gap_s, join_rel_tol);
 
     // ---- keep the strongest, label harmonics, fit B ----
-    std::vector<double> strength(done.size()), rep_freq(done.size()), weight(done.size());
+    std::vector<double> strength(done.size()), rep_freq(done.size()), weight(done.size()),
+        peak_snr_db(done.size());
     for (std::size_t i = 0; i < done.size(); ++i) {
         std::vector<double> f;
         double best = -infinity, best_snr = -infinity;
@@ -294,11 +426,21 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
             best = std::max(best, pt.level_db);
             best_snr = std::max(best_snr, pt.level_db - pt.floor_db);
         }
-        // The track's frequency: median over its strong part (beating and the noisy tail aside).
+        // The track's frequency: amplitude-weighted median over its settled part (after the
+        // attack's glide, clear of the noise), so the loud early part, where the pitch is heard,
+        // counts most; all points when that part is empty.
+        const double settle_s = std::max(attack_skip_s, attack_skip_windows * result.window_s);
+        std::vector<double> w;
         for (const auto& pt : done[i].points)
-            if (pt.level_db >= best - representative_range_db) f.push_back(pt.freq_hz);
-        rep_freq[i] = median(std::move(f));
+            if (pt.time_s >= settle_s && pt.level_db >= pt.floor_db + settled_snr_db) {
+                f.push_back(pt.freq_hz);
+                w.push_back(std::pow(10.0, pt.level_db / 20.0));
+            }
+        if (f.empty())
+            for (const auto& pt : done[i].points) f.push_back(pt.freq_hz), w.push_back(1.0);
+        rep_freq[i] = weighted_median(std::move(f), std::move(w));
         strength[i] = best;
+        peak_snr_db[i] = best_snr;
         weight[i] = std::pow(10.0, std::min(best_snr, max_snr_weight_db) / 10.0) * double(done[i].points.size());
     }
     std::vector<std::size_t> order(done.size());
@@ -316,16 +458,49 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
                 harmonic[i] = harmonic_number(freqs[i], f0_hz, b, harmonic_tolerance_rel);
                 weights[i] = weight[order[i]];
             }
-            const inharmonicity_fit fit = fit_inharmonicity(harmonic, freqs, weights);
+            const inharmonicity_fit fit = fit_harmonic_series(harmonic, freqs, weights, pitch_harmonics);
             if (fit.used == 0) break;
             f0_hz = fit.f0_hz;
             b = fit.inharmonicity_b;
         }
         for (std::size_t i = 0; i < order.size(); ++i)
             harmonic[i] = harmonic_number(freqs[i], f0_hz, b, harmonic_tolerance_rel);
+        // Real strings drift from the law at high n, so the global series can miss a partial or
+        // be a whole number off there. Walking up in frequency, each track is numbered from the
+        // nearest numbered track below (the series through it, same B) when that works, else by
+        // the global series if that keeps the numbers rising; each new number anchors the next.
+        std::size_t anchor = order.size();
+        for (std::size_t i = 0; i < order.size(); ++i) {
+            const int global = harmonic[i];
+            int label = global;
+            if (anchor != order.size()) {
+                const int n_anchor = harmonic[anchor];
+                const double na = n_anchor;
+                const double local_f0 = freqs[anchor] / (na * std::sqrt(1.0 + b * na * na));
+                const int chained = harmonic_number(freqs[i], local_f0, b, harmonic_tolerance_rel);
+                label = chained >= n_anchor ? chained : (global > n_anchor ? global : 0);
+            }
+            harmonic[i] = label;
+            if (label > 0 && (anchor == order.size() || label > harmonic[anchor])) anchor = i;
+        }
     }
-    result.f0_hz = f0_hz;
+    result.series_f0_hz = f0_hz;
     result.inharmonicity_b = f0_hz > 0.0 ? b : 0.0;
+    result.f0_hz = f0_hz;
+    if (f0_hz > 0.0 && !params.f0_hz) {
+        // The pitch is the fundamental's: partial 1's frequency / sqrt(1 + B) when it is tracked
+        // clearly (real strings can put partial 1 off the series of the upper partials).
+        double strongest_db = -infinity;
+        for (std::size_t i = 0; i < order.size(); ++i) strongest_db = std::max(strongest_db, strength[order[i]]);
+        double best_db = -infinity;
+        for (std::size_t i = 0; i < order.size(); ++i) {
+            const std::size_t k = order[i];
+            if (harmonic[i] != 1 || strength[k] <= best_db) continue;
+            if (strength[k] < strongest_db - fundamental_below_max_db || peak_snr_db[k] < fundamental_snr_db) continue;
+            best_db = strength[k];
+            result.f0_hz = freqs[i] / std::sqrt(1.0 + b);
+        }
+    }
     for (std::size_t i = 0; i < order.size(); ++i) {
         partial_track t = std::move(done[order[i]]);
         t.harmonic = harmonic[i];

@@ -6,12 +6,20 @@
 
 #include <cmath>
 #include <complex>
+#include <fstream>
+#include <iterator>
+#include <regex>
 #include <random>
 #include <sstream>
 #include <vector>
 
 #include "core/envelope.hpp"
 #include "fitting/envelope_fit.hpp"
+#include "tracking/tracker.hpp"
+#include "analysis/analyze.hpp"
+#include "io/audio_file.hpp"
+#include "io/patch_toml.hpp"
+#include "synthesis/render.hpp"
 
 using Catch::Matchers::WithinAbs;
 using Catch::Matchers::WithinRel;
@@ -165,4 +173,263 @@ TEST_CASE("two-stage partials choose two segments", "[fitting]") {
     INFO(misses.str());
     CAPTURE(two);
     CHECK(two >= 90);  // issue 5 acceptance
+}
+
+// ---- Real signals through the tracker (tracking/tracker.hpp) and the whole analysis ----
+
+namespace {
+
+constexpr double test_rate_hz = 48000.0;
+constexpr double lead_s = 0.1;  // noise alone before the note, so the onset has something to find
+
+struct mode {
+    double freq_hz;
+    double amp_lin;    // peak amplitude at the onset
+    double phase_rad;  // of cos at the onset
+    std::vector<stage> stages;
+};
+
+/// Sum of damped cosines starting at lead_s, plus white Gaussian noise of the given RMS.
+std::vector<float> make_signal(const std::vector<mode>& modes, double length_s, double noise_rms, unsigned seed) {
+    const auto n = static_cast<std::size_t>((lead_s + length_s) * test_rate_hz);
+    std::vector<double> acc(n, 0.0);
+    for (const mode& m : modes) {
+        const db_track_spec shape{.peak_db = 0.0, .stages = m.stages};
+        for (std::size_t i = static_cast<std::size_t>(lead_s * test_rate_hz); i < n; ++i) {
+            const double t = static_cast<double>(i) / test_rate_hz - lead_s;
+            acc[i] += m.amp_lin * std::pow(10.0, true_level_db(shape, t) / 20.0) *
+                      std::cos(two_pi * m.freq_hz * t + m.phase_rad);
+        }
+    }
+    std::mt19937 rng(seed);
+    std::normal_distribution<double> gauss(0.0, noise_rms);
+    std::vector<float> out(n);
+    for (std::size_t i = 0; i < n; ++i) out[i] = static_cast<float>(acc[i] + gauss(rng));
+    return out;
+}
+
+/// The track nearest freq_hz.
+const partial_track* nearest_track(const tracking_result& tr, double freq_hz) {
+    const partial_track* best = nullptr;
+    double best_d = infinity;
+    for (const partial_track& t : tr.tracks) {
+        if (t.points.empty()) continue;
+        const double d = std::abs(t.points.front().freq_hz - freq_hz);
+        if (d < best_d) {
+            best_d = d;
+            best = &t;
+        }
+    }
+    return best;
+}
+
+envelope_fit_params fit_params_for(const tracking_result& tr) {
+    return {.window_s = tr.window_s};
+}
+
+}  // namespace
+
+TEST_CASE("two-stage decay through the tracker", "[fitting][tracker]") {
+    // Ground truth: 440 Hz at -6.02 dBFS (amplitude 0.5), T60 = 1.0 s until 0.6 s, then 6.0 s;
+    // white noise with RMS 70 dB below the partial's peak RMS.
+    const double amp = 0.5;
+    const double noise_rms = amp / std::sqrt(2.0) * std::pow(10.0, -70.0 / 20.0);
+    const auto x = make_signal({{440.0, amp, 0.7, {{1.0, 0.6}, {6.0, infinity}}}}, 4.0, noise_rms, 11);
+    const tracking_result tr = track_note(x, test_rate_hz, {});
+    const partial_track* t = nearest_track(tr, 440.0);
+    REQUIRE(t);
+    const auto fit = fit_partial(*t, fit_params_for(tr));
+    REQUIRE(fit);
+    const envelope& env = fit->env;
+    const double onset_error_s = tr.onset_s - lead_s;
+    CAPTURE(tr.onset_s, tr.window_s, tr.hop_s, describe(env), fit->fit_end_s, fit->rms_error_db);
+    REQUIRE(env.decay.size() == 2);
+    CHECK_THAT(env.decay[0].t60_s, WithinRel(1.0, 0.03));        // issue 5 acceptance: 3 %
+    CHECK_THAT(env.decay[1].t60_s, WithinRel(6.0, 0.03));
+    CHECK_THAT(*env.decay[0].until_s + onset_error_s, WithinAbs(0.6, 0.030));  // 30 ms, source time
+    CHECK_THAT(env.peak.db, WithinAbs(20.0 * std::log10(amp), 0.3));            // 0.3 dB
+    CHECK_THAT(fit->freq_hz, WithinAbs(440.0, 0.01));
+    // Phase at the detected onset: the source's 0.7 rad advanced by 2 pi f (onset error).
+    const double expected_phase = std::remainder(0.7 + two_pi * 440.0 * onset_error_s, two_pi);
+    CAPTURE(fit->phase_rad, expected_phase);
+    CHECK_THAT(std::remainder(fit->phase_rad - expected_phase, two_pi), WithinAbs(0.0, 0.05));
+}
+
+TEST_CASE("beating pair through the tracker is fitted through its mean level", "[fitting][tracker]") {
+    // Two modes 1.5 Hz apart, both T60 = 4 s, in phase at the onset, the second as strong as the
+    // first or weaker: far too close for the window to part them, so one track beats. Mean level
+    // of the pair: 10 log10(a1^2 + a2^2) - 60 t / T60 (power sum, dBFS on the sinusoid peak scale).
+    const double a1 = 0.3, t60 = 4.0;
+    const double a2 = GENERATE(0.3, 0.18);
+    const auto x = make_signal({{440.0, a1, 0.0, {{t60, infinity}}}, {441.5, a2, 0.0, {{t60, infinity}}}}, 4.0,
+                               1e-5, 12);
+    const tracking_result tr = track_note(x, test_rate_hz, {});
+    const partial_track* t = nearest_track(tr, 440.75);
+    REQUIRE(t);
+    const auto fit = fit_partial(*t, fit_params_for(tr));
+    REQUIRE(fit);
+    const envelope& env = fit->env;
+    const double mean0_db = 10.0 * std::log10(a1 * a1 + a2 * a2);
+    CAPTURE(a2, describe(env), fit->fit_start_s, fit->fit_end_s, t->points.size(), mean0_db);
+    // The track does beat: its level dips well below the mean curve between the beat maxima.
+    double deepest_dip_db = 0.0;
+    for (const track_point& p : t->points) {
+        if (p.time_s < fit->fit_start_s || p.time_s > fit->fit_end_s) continue;
+        deepest_dip_db = std::min(deepest_dip_db, p.level_db - (mean0_db - 60.0 * (p.time_s + tr.onset_s - lead_s) / t60));
+    }
+    CAPTURE(deepest_dip_db);
+    CHECK(deepest_dip_db < -6.0);
+    double worst_db = 0.0;
+    for (double ts = fit->fit_start_s; ts <= fit->fit_end_s; ts += 0.01) {
+        const double truth = mean0_db - 60.0 * (ts + tr.onset_s - lead_s) / t60;
+        worst_db = std::max(worst_db, std::abs(envelope_level(env, ts).db - truth));
+    }
+    CAPTURE(worst_db);
+    CHECK(worst_db <= 3.0);  // issue 5 acceptance: within 3 dB of the mean level curve
+    for (const decay_segment& d : env.decay) CHECK_THAT(d.t60_s, WithinRel(t60, 0.10));  // T60 within 10 %
+    CHECK(env.decay.size() == 1);
+}
+
+TEST_CASE("a 4 s note with 40 partials gives a patch under 10 KB", "[fitting][analysis]") {
+    // 40 harmonics of 110 Hz, levels falling 0.8 dB per harmonic, T60 from 6 s down, the lower
+    // ten decaying in two stages; seeded random phases; scaled to a 0.9 peak.
+    std::mt19937 rng(40);
+    std::uniform_real_distribution<double> phase(-pi, pi);
+    std::vector<mode> modes;
+    for (int n = 1; n <= 40; ++n) {
+        const double t60 = 6.0 / (1.0 + 0.08 * n);
+        std::vector<stage> st = {{t60, infinity}};
+        if (n <= 10) st = {{0.4 * t60, 0.3}, {t60, infinity}};
+        modes.push_back({110.0 * n, 0.1 * std::pow(10.0, -0.8 * (n - 1) / 20.0), phase(rng), st});
+    }
+    auto x = make_signal(modes, 4.0, 1e-5, 13);
+    float peak = 0.0f;
+    for (float v : x) peak = std::max(peak, std::abs(v));
+    for (float& v : x) v *= 0.9f / peak;
+    const analysis_result r = analyze_note(x, test_rate_hz, {.tracking = {}, .source_file = "note40.wav", .note_name = "note40"});
+    const std::string text = format_patch(r.value);
+    CAPTURE(r.summary.partials, r.summary.segments, r.summary.fit_error_db, text.size());
+    // Every harmonic is in the patch (the tracker may add a stray track; the size must hold anyway).
+    for (int n = 1; n <= 40; ++n) {
+        bool found = false;
+        for (const partial& q : r.value.partials) found = found || std::abs(q.freq_hz - 110.0 * n) < 0.5;
+        CAPTURE(n);
+        CHECK(found);
+    }
+    CHECK(r.summary.partials >= 40);
+    CHECK(text.size() < 10000);  // issue 5 acceptance: under 10 KB (the 24-bit WAV is ~576 KB)
+    // The patch reads back to the same values (h-patch's reader; canonical text round trip).
+    CHECK(format_patch(parse_patch(text, "note40.toml").value) == text);
+}
+
+// ---- The demo notes (demo-data/, physical models of our own; README.md there) ----
+
+namespace {
+
+std::string demo_path(const char* name) { return std::string(WANE_SOURCE_DIR) + "/demo-data/" + name; }
+
+analysis_result analyze_demo(const char* name) {
+    const mono_audio a = read_audio(demo_path(name));
+    return analyze_note(a.samples, a.sample_rate_hz, {.tracking = {}, .source_file = name, .note_name = name});
+}
+
+}  // namespace
+
+TEST_CASE("demo bar: modal frequencies and T60s from the model's ground truth", "[fitting][analysis][demo]") {
+    // demo-data/tuned-bar-a3.json: the six modes of the model (freq_hz, t60_s), read here.
+    std::ifstream in(demo_path("tuned-bar-a3.json"));
+    REQUIRE(in);
+    const std::string json((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+    const std::regex mode_re(R"re("freq_hz":\s*([0-9.]+),\s*"t60_s":\s*([0-9.]+))re");
+    std::vector<std::pair<double, double>> modes;
+    for (auto it = std::sregex_iterator(json.begin(), json.end(), mode_re); it != std::sregex_iterator(); ++it)
+        modes.emplace_back(std::stod((*it)[1]), std::stod((*it)[2]));
+    REQUIRE(modes.size() == 6);
+    const analysis_result r = analyze_demo("tuned-bar-a3.wav");
+    for (const auto& [freq_hz, t60_s] : modes) {
+        const partial* best = nullptr;
+        for (const partial& q : r.value.partials)
+            if (!best || std::abs(q.freq_hz - freq_hz) < std::abs(best->freq_hz - freq_hz)) best = &q;
+        REQUIRE(best);
+        CAPTURE(freq_hz, t60_s, best->freq_hz, describe(best->env));
+        CHECK_THAT(best->freq_hz, WithinAbs(freq_hz, 0.1));
+        REQUIRE(best->env.decay.size() == 1);  // the model's modes decay in one stage
+        CHECK_THAT(best->env.decay[0].t60_s, WithinRel(t60_s, 0.03));
+    }
+}
+
+TEST_CASE("demo pluck resynthesis starts in phase with the source", "[fitting][analysis][demo]") {
+    // Render the patch of the demo string (h-render's oscillator bank) and compare it with the
+    // source over the first 100 ms after the onset: time-domain SNR = 10 log10(sum x^2 / sum (x - y)^2).
+    const mono_audio a = read_audio(demo_path("steel-string-d3.wav"));
+    const analysis_result r = analyze_note(a.samples, a.sample_rate_hz, {.tracking = {}, .source_file = "s", .note_name = "s"});
+    const std::vector<float> y = render_patch(r.value, {.sample_rate_hz = a.sample_rate_hz, .include_noise = false});
+    const auto onset = static_cast<std::size_t>(std::llround(r.value.source.onset_s * a.sample_rate_hz));
+    const auto span = static_cast<std::size_t>(0.1 * a.sample_rate_hz);
+    REQUIRE(onset + span <= a.samples.size());
+    REQUIRE(span <= y.size());
+    double sig = 0.0, err = 0.0;
+    for (std::size_t i = 0; i < span; ++i) {
+        const double x = a.samples[onset + i];
+        sig += x * x;
+        const double e = x - static_cast<double>(y[i]);
+        err += e * e;
+    }
+    const double snr_db = 10.0 * std::log10(sig / err);
+    CAPTURE(r.value.source.onset_s, r.summary.partials, snr_db);
+    CHECK(snr_db >= 15.0);  // issue 5 acceptance
+}
+
+TEST_CASE("segment count through the tracker over random partials", "[fitting][tracker]") {
+    // The same sweeps as on the dB tracks, as signals through the tracker: one damped cosine at
+    // 16 kHz (fast enough for 200 notes), 4 s, random frequency 200-2000 Hz and phase; SNR is the
+    // partial's peak RMS over the RMS of white noise across the band. Seeded.
+    constexpr double rate_hz = 16000.0;
+    std::mt19937 rng(4242);
+    std::uniform_real_distribution<double> freq(200.0, 2000.0), ph(-pi, pi), unit(0.0, 1.0);
+    auto run = [&](const std::vector<stage>& stages, double snr_db, unsigned seed) {
+        const double amp = 0.5;
+        const double noise_rms = amp / std::sqrt(2.0) * std::pow(10.0, -snr_db / 20.0);
+        const double f = freq(rng), phase0 = ph(rng);
+        const db_track_spec shape{.peak_db = 0.0, .stages = stages};
+        const auto n = static_cast<std::size_t>((lead_s + 4.0) * rate_hz);
+        std::mt19937 nrng(seed);
+        std::normal_distribution<double> gauss(0.0, noise_rms);
+        std::vector<float> x(n);
+        for (std::size_t i = 0; i < n; ++i) {
+            const double t = static_cast<double>(i) / rate_hz - lead_s;
+            const double s = t < 0.0 ? 0.0 : amp * std::pow(10.0, true_level_db(shape, t) / 20.0) * std::cos(two_pi * f * t + phase0);
+            x[i] = static_cast<float>(s + gauss(nrng));
+        }
+        const tracking_result tr = track_note(x, rate_hz, {});
+        const partial_track* t = nearest_track(tr, f);
+        REQUIRE(t);
+        return fit_partial(*t, fit_params_for(tr));
+    };
+    std::ostringstream misses;
+    int one = 0, two = 0;
+    const int trials = 100;
+    for (int i = 0; i < trials; ++i) {
+        const double t60 = log_uniform(rng, 0.2, 20.0);
+        const double snr_db = 30.0 + 40.0 * unit(rng);
+        const auto fit = run({{t60, infinity}}, snr_db, static_cast<unsigned>(100 + i));
+        REQUIRE(fit);
+        if (fit->env.decay.size() == 1) ++one;
+        else misses << "single " << i << ": T60 " << t60 << " s, SNR " << snr_db << " dB -> " << describe(fit->env) << "\n";
+    }
+    for (int i = 0; i < trials; ++i) {
+        const double t60a = log_uniform(rng, 0.3, 2.0);
+        const double t60b = t60a * (3.0 + 5.0 * unit(rng));
+        const double knee_s = (12.0 + 18.0 * unit(rng)) * t60a / 60.0;
+        const double snr_db = 60.0 + 10.0 * unit(rng);
+        const auto fit = run({{t60a, knee_s}, {t60b, infinity}}, snr_db, static_cast<unsigned>(300 + i));
+        REQUIRE(fit);
+        if (fit->env.decay.size() == 2) ++two;
+        else misses << "two-stage " << i << ": T60 " << t60a << " -> " << t60b << " at " << knee_s << " s -> "
+                    << describe(fit->env) << "\n";
+    }
+    INFO(misses.str());
+    CAPTURE(one, two);
+    CHECK(one >= 95);  // issue 5 acceptance
+    CHECK(two >= 90);
 }
