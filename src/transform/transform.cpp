@@ -6,6 +6,7 @@
 #include <numeric>
 #include <sstream>
 
+#include "core/harmonics.hpp"
 #include "transform/rng.hpp"
 
 namespace wane {
@@ -178,9 +179,7 @@ patch set_inharmonicity(const patch& p, double b) {
     out.note.inharmonicity_b = b;
     for (partial& q : out.partials) {
         if (q.harmonic <= 0) continue;
-        // Stiff-string partials: f_n = n f0 sqrt(1 + B n^2) (the patch format's definition of B).
-        const double n = q.harmonic;
-        q.freq_hz = n * p.note.f0_hz * std::sqrt(1.0 + b * n * n);
+        q.freq_hz = stiff_partial_hz(p.note.f0_hz, b, q.harmonic);  // f_n = n f0 sqrt(1 + B n^2)
     }
     canonicalize(out);
     return out;
