@@ -313,6 +313,12 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
     const auto size = static_cast<std::int64_t>(x.size());
     const int min_frames = std::max(min_track_frames,
                                     static_cast<int>(std::ceil(min_track_windows * result.window_s / result.hop_s)));
+    if (const std::int64_t fitting = size - h - onset; fitting < 0 || fitting / hop + 1 < min_frames) {
+        const double need_s = double(2 * h + (min_frames - 1) * hop) / fs;
+        refuse("too short after the onset: " + std::to_string(std::lround(double(size - onset) / fs * 1000.0)) +
+               " ms of sound, the " + std::to_string(std::lround(result.window_s * 1000.0)) +
+               " ms analysis window needs at least " + std::to_string(std::lround(need_s * 1000.0)) + " ms");
+    }
     const auto dev_hz = [&](double f) {
         double d = std::max(dev_min_bins * bin_hz, dev_rel * f);
         if (f0_hz > 0.0) d = std::min(d, dev_max_f0 * f0_hz);
