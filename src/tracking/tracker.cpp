@@ -42,10 +42,10 @@ constexpr double dev_rel = 0.01;                 ///< frequency deviation per ho
 constexpr double dev_min_bins = 2.0;             ///< ... but at least this many FFT bins
 constexpr double dev_max_f0 = 0.3;               ///< ... and at most this fraction of f0
 constexpr int max_gap_frames = 3;                ///< gaps up to this many frames are bridged
-constexpr int min_track_frames = 5;
+constexpr int min_track_frames = 5;              ///< a track lasts at least this many frames
+constexpr double min_track_windows = 1.5;        ///< ... and at least this many window lengths
 constexpr double max_join_gap_s = 0.3;           ///< fragments of one partial this close are joined
 constexpr double join_rel_tol = 0.005;           ///< ... when their frequencies meet within this
-constexpr double min_track_windows = 1.5;        ///< ... and at least this many window lengths
 constexpr double harmonic_tolerance_rel = 0.02;  ///< labelling tracks with harmonic numbers
 constexpr double guide_tolerance_rel = 0.04;     ///< harmonic tracks stay this close to n f0 s_n
 constexpr int b_fit_rounds = 3;
@@ -223,6 +223,9 @@ struct match {
 
 tracking_result track_note(std::span<const float> x, double fs, const tracking_params& params) {
     if (!(fs > 0.0) || !std::isfinite(fs)) refuse("sample rate must be positive");
+    if (params.max_partials < 1) refuse("at most " + std::to_string(params.max_partials) + " partials: must be at least 1");
+    if (params.window_s && !(*params.window_s > 0.0)) refuse("window length must be positive");
+    if (params.hop_s && !(*params.hop_s > 0.0)) refuse("hop must be positive");
     const double duration_s = double(x.size()) / fs;
     if (duration_s < min_duration_s)
         refuse("too short: " + std::to_string(std::lround(duration_s * 1000.0)) +
@@ -324,8 +327,8 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
         if (f0_hz > 0.0) d = std::min(d, dev_max_f0 * f0_hz);
         return d;
     };
-    // Finished tracks; when they pile up (long or noisy files) only the strongest are kept. Exact:
-    // a track among the final max_partials strongest is among the strongest of any subset.
+    // Finished tracks; when they pile up (long or noisy files) only the 2 x max_partials strongest
+    // are kept, so memory follows max_partials. (A weak fragment dropped here is not joined later.)
     std::vector<double> done_peak_db;
     const std::size_t keep_at_most = 2 * static_cast<std::size_t>(std::max(params.max_partials, 1));
     const auto finish = [&](live_track& t) {
@@ -502,7 +505,7 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
     }
     result.series_f0_hz = f0_hz;
     result.inharmonicity_b = f0_hz > 0.0 ? b : 0.0;
-    result.f0_hz = f0_hz;
+    result.f0_hz = params.f0_hz.value_or(f0_hz);
     if (f0_hz > 0.0 && !params.f0_hz) {
         // The pitch is the fundamental's: partial 1's frequency / sqrt(1 + B) when it is tracked
         // clearly (real strings can put partial 1 off the series of the upper partials).
