@@ -231,6 +231,11 @@ TEST_CASE("bad input is refused with a clear message", "[tracking][bad]") {
     CHECK_NOTHROW(track_note(clean, fs, {}));
     CHECK_NOTHROW(track_note(slow, fs, {}));
     CHECK_THROWS_AS(track_note(noise, fs, {}), std::invalid_argument);
+    // 80 ms of a 110 Hz tone: long enough to read, too short for the 73 ms window to slide.
+    std::vector<float> brief(static_cast<std::size_t>(0.08 * fs));
+    for (std::size_t i = 0; i < brief.size(); ++i)
+        brief[i] = static_cast<float>(0.5 * std::sin(two_pi * 110.0 * double(i) / fs));
+    CHECK_THROWS_WITH(track_note(brief, fs, {}), Contains("too short after the onset"));
 }
 
 TEST_CASE("inharmonicity fit recovers Fletcher's B from exact partials", "[tracking][fletcher]") {
