@@ -434,8 +434,9 @@ TEST_CASE("rendering is deterministic and leaves out what it should", "[render]"
     CHECK(std::all_of(z.begin(), z.end(), [](float v) { return v == 0.0F; }));
     CHECK(summarize_render(q, {.sample_rate_hz = 48000.0}).partials_above_nyquist == 1);
 
-    // A patch with noise bands: the summary says they are not rendered.
+    // A patch with noise bands: the summary counts them, and none with the noise left out.
     patch with_noise = q;
     with_noise.noise.push_back({.low_hz = 100.0, .high_hz = 200.0, .env = q.partials[0].env});
-    CHECK(summarize_render(with_noise, {.sample_rate_hz = 48000.0}).noise_bands_not_rendered == 1);
+    CHECK(summarize_render(with_noise, {.sample_rate_hz = 48000.0}).noise_bands_rendered == 1);
+    CHECK(summarize_render(with_noise, {.sample_rate_hz = 48000.0, .include_noise = false}).noise_bands_rendered == 0);
 }
