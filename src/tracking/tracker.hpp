@@ -24,7 +24,7 @@ struct tracking_params {
 /// rise of the 2 ms block energy (tracking/onset.hpp); a 0.2 s Blackman-Harris survey after the
 /// onset gives peaks for the pitch sieve (tracking/pitch.hpp) unless f0_hz is given; the window is
 /// 8 periods of f0 (or of the closest strong pair / lowest strong partial when not harmonic),
-/// 8 ms..0.25 s, the FFT the next 2/3/5-smooth size >= 2 windows, the hop window/4 in 4..10 ms;
+/// 8 ms..0.25 s, the FFT the next 2/3/5-smooth size >= 2 windows, the hop window/4 in 4..12.5 ms;
 /// frames centred at onset + k hop while the window fits in the file. Peaks (spectrum/peaks.hpp)
 /// 6 dB above the running noise floor continue tracks, 12 dB above start them; tracks match
 /// greedily by frequency distance within max(2 bins, 1% of f) (<= 0.3 f0), harmonic tracks keep

@@ -3,8 +3,11 @@
 #include <catch2/catch.hpp>
 
 #include <sndfile.h>
+#include <unistd.h>
 
 #include <algorithm>
+#include <cstdlib>
+#include <filesystem>
 #include <cmath>
 #include <random>
 #include <stdexcept>
@@ -230,6 +233,15 @@ TEST_CASE("bad input is refused with a clear message", "[tracking][bad]") {
     }
     CHECK_NOTHROW(track_note(clean, fs, {}));
     CHECK_NOTHROW(track_note(slow, fs, {}));
+    // Silence written by sox at 16 bits carries its dither (+-1 LSB): noise, not clipping.
+    const auto dir = std::filesystem::temp_directory_path() / ("wane_test_tracking_" + std::to_string(::getpid()));
+    std::filesystem::create_directories(dir);
+    const std::string path = (dir / "silence.wav").string();
+    REQUIRE(std::system(("sox -n -r 48000 -b 16 '" + path + "' trim 0 1").c_str()) == 0);
+    double sox_fs = 0.0;
+    const auto dithered = read_mono(path, sox_fs);
+    std::filesystem::remove_all(dir);
+    CHECK_THROWS_WITH(track_note(dithered, sox_fs, {}), Contains("no partials above the noise floor") || Contains("no signal"));
     CHECK_THROWS_AS(track_note(noise, fs, {}), std::invalid_argument);
     // 80 ms of a 110 Hz tone: long enough to read, too short for the 73 ms window to slide.
     std::vector<float> brief(static_cast<std::size_t>(0.08 * fs));
