@@ -3,6 +3,7 @@
 #include <cmath>
 #include <cstdio>
 #include <memory>
+#include <optional>
 #include <string>
 
 #include "cli/common.hpp"
@@ -25,33 +26,6 @@ std::string num(const char* format, double v) {
     return buf;
 }
 
-/// The comparison rows of the report: what `wane compare SOURCE RENDER` prints, in brief.
-std::vector<std::pair<std::string, std::string>> compare_rows(std::span<const float> source, std::span<const float> render,
-                                                              double sample_rate_hz) {
-    std::vector<std::pair<std::string, std::string>> rows;
-    compare_result r;
-    try {
-        r = compare_signals(source, render, sample_rate_hz, {});
-    } catch (const std::invalid_argument& e) {
-        rows.emplace_back("comparison", std::string("not possible: ") + e.what());
-        return rows;
-    }
-    std::string sizes;
-    for (const auto& res : r.whole.per_resolution) sizes += (sizes.empty() ? "" : ", ") + std::to_string(res.fft_size);
-    rows.emplace_back("log-spectral distance, whole note (STFT sizes " + sizes + ")",
-                      num("%.2f dB", r.whole.log_spectral_distance_db));
-    rows.emplace_back("log-spectral distance, first 100 ms", num("%.2f dB", r.early.log_spectral_distance_db));
-    rows.emplace_back("spectral convergence, whole note", num("%.4f", r.whole.spectral_convergence));
-    rows.emplace_back("time-domain SNR, first 100 ms", num("%.2f dB", r.early_snr_db));
-    rows.emplace_back("alignment lag of the render", std::to_string(r.align.lag_frames) + " samples");
-    if (r.f0_difference_cents) rows.emplace_back("f0 of render against source", num("%+.2f cents", *r.f0_difference_cents));
-    for (const band_decay_pair& b : r.bands) {
-        rows.emplace_back(num("T30 in the %.0f Hz octave band (source / render)", b.band.nominal_hz),
-                          num("%.3f s", b.a.t30_s) + " / " + num("%.3f s", b.b.t30_s));
-    }
-    return rows;
-}
-
 struct report_options {
     std::filesystem::path source_path;
     std::filesystem::path patch_path;
@@ -64,7 +38,14 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
                            const tracking_result* tracking, const std::filesystem::path& patch_path,
                            const std::filesystem::path& out_path) {
     const std::vector<float> render = render_patch(p, {.sample_rate_hz = source.sample_rate_hz});
-    // The render starts at the onset; the source's onset is at source.onset_s.
+    // The render starts at the onset, the source at its file start: compare_signals aligns them.
+    std::optional<compare_result> comparison;
+    std::string comparison_note;
+    try {
+        comparison = compare_signals(source.samples, render, source.sample_rate_hz, {});
+    } catch (const std::invalid_argument& e) {
+        comparison_note = std::string("No comparison: ") + e.what() + ".";
+    }
     report_inputs in{.title = "wane report: " + source_path.filename().string(),
                      .value = &p,
                      .tracking = tracking,
@@ -73,8 +54,10 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
                      .source_rate_hz = source.sample_rate_hz,
                      .render_audio = render,
                      .render_rate_hz = source.sample_rate_hz,
+                     .source_name = source_path.filename().string(),
                      .info_table = patch_info_text(p, patch_path),
-                     .compare_rows = compare_rows(source.samples, render, source.sample_rate_hz)};
+                     .comparison = comparison ? &*comparison : nullptr,
+                     .comparison_note = comparison_note};
     write_file_atomic(out_path, make_report_html(in));
 }
 

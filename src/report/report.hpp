@@ -6,10 +6,10 @@
 
 #include <span>
 #include <string>
-#include <utility>
 #include <vector>
 
 #include "core/patch.hpp"
+#include "measure/compare.hpp"
 #include "tracking/track.hpp"
 
 namespace wane {
@@ -34,13 +34,22 @@ struct report_inputs {
     double source_rate_hz = 0.0;
     std::span<const float> render_audio;
     double render_rate_hz = 0.0;
-    std::string info_table;  ///< the text of `wane info`
-    std::vector<std::pair<std::string, std::string>> compare_rows;  ///< label, value
+    std::string source_name;  ///< file name shown beside the source player
+    std::string info_table;   ///< the text of `wane info`
+    /// Source (a) against render (b) with the default compare_params (the page states their
+    /// ranges); null: none.
+    const compare_result* comparison = nullptr;
+    std::string comparison_note;                 ///< why there is no comparison, when null
     int envelope_plots = 12;  ///< strongest partials drawn with their fitted envelopes
+    /// Top of the spectrogram: a little above the highest partial within spectrogram_range_db of
+    /// the loudest, never above this.
     double max_plot_freq_hz = 8000.0;
 };
 
-/// The whole HTML page.
+/// The whole HTML page. Sections in order, by id: summary, spectrogram, envelopes, patch,
+/// compare, listen. Each envelope plot is an <svg class='envelope'> with data-freq-hz (the
+/// partial) and data-track-freq-hz (mean frequency of the measured track drawn, absent when no
+/// track matched).
 std::string make_report_html(const report_inputs& in);
 
 /// Spectrogram of a whole recording for the report: Blackman-Harris window of window_s, at most
@@ -51,6 +60,11 @@ spectrogram_db make_spectrogram(std::span<const float> samples, double sample_ra
 /// PNG bytes of a spectrogram (libpng), width = frames, height = bins up to max_freq_hz,
 /// levels mapped from (peak - range_db) .. peak through the cubehelix colour scheme.
 std::string spectrogram_png(const spectrogram_db& s, double max_freq_hz, double range_db);
+
+/// The measured track of a partial: same harmonic number when both carry one, mean frequency
+/// within max(2 bins, 1% of the partial's frequency) (the tracker's continuation tolerance), the
+/// nearest such track. Index into tracking.tracks, or -1.
+int matching_track(const partial& part, const tracking_result& tracking, double sample_rate_hz);
 
 /// 16-bit PCM WAV bytes in memory (libsndfile virtual I/O), for embedding; peak-normalized
 /// copies are not made: samples beyond full scale are scaled down to avoid clipping.
