@@ -61,9 +61,10 @@ spectrogram_db make_spectrogram(std::span<const float> samples, double sample_ra
 /// levels mapped from (peak - range_db) .. peak through the cubehelix colour scheme.
 std::string spectrogram_png(const spectrogram_db& s, double max_freq_hz, double range_db);
 
-/// The measured track of a partial: same harmonic number when both carry one, mean frequency
-/// within max(2 bins, 1% of the partial's frequency) (the tracker's continuation tolerance), the
-/// nearest such track. Index into tracking.tracks, or -1.
+/// The measured track of a partial: the track with mean frequency nearest the partial's, within
+/// max(2 bins, 1% of the partial's frequency) (the tracker's continuation tolerance), taken first
+/// among tracks with the partial's harmonic number, else among tracks where one of the two has no
+/// number. Index into tracking.tracks, or -1.
 int matching_track(const partial& part, const tracking_result& tracking, double sample_rate_hz);
 
 /// 16-bit PCM WAV bytes in memory (libsndfile virtual I/O), for embedding; peak-normalized
