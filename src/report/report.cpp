@@ -315,7 +315,8 @@ namespace {
 
 // Page layout (SVG user units = CSS pixels at 100% zoom).
 constexpr double spectrogram_width = 1060, spectrogram_height = 470, colour_bar_margin = 84;
-constexpr double envelope_width = 352, envelope_height = 264, envelope_title_margin = 46;
+constexpr double envelope_width = 352, envelope_height = 280, envelope_title_margin = 62;
+constexpr std::size_t envelope_line_chars = 46, envelope_t60_lines = 2;  // more lines end in "..."
 constexpr double spectrogram_range_db = 90.0;
 constexpr double envelope_range_db = 80.0;   // plotted below each partial's peak
 constexpr double envelope_headroom_db = 6.0;
@@ -327,17 +328,24 @@ const char* const fitted_colour = "#b0171f";
 
 std::string seconds_text(double s) { return fmt(s < 10.0 ? "%.2f s" : "%.1f s", s); }
 
-/// "3.14 s to 0.65 s, then 7.68 s": each segment's T60 and where it ends.
-std::string t60_text(const envelope& env) {
-    std::string out;
+/// "T60 3.14 s to 0.65 s, then 7.68 s": each segment's T60 and where it ends, wrapped at segment
+/// boundaries into lines of at most max_chars (a segment never splits).
+std::vector<std::string> t60_lines(const envelope& env, std::size_t max_chars) {
+    std::vector<std::string> lines{"T60"};
+    bool first = true;
     for (const decay_segment& seg : env.decay) {
-        if (!out.empty()) out += ", then ";
-        if (std::isinf(seg.t60_s)) out += "hold";
-        else if (seg.t60_s < 0.0) out += "rise " + fmt("%.2f s", -seg.t60_s);
-        else out += seconds_text(seg.t60_s);
-        if (seg.until_s) out += " to " + fmt("%.2f s", *seg.until_s);
+        std::string piece;
+        if (std::isinf(seg.t60_s)) piece = "hold";
+        else if (seg.t60_s < 0.0) piece = "rise " + fmt("%.2f s", -seg.t60_s);
+        else piece = seconds_text(seg.t60_s);
+        if (seg.until_s) piece += " to " + fmt("%.2f s", *seg.until_s);
+        if (!first) lines.back() += ",";
+        const std::string joined = lines.back() + (first ? " " : " then ") + piece;
+        if (joined.size() <= max_chars || first) lines.back() = joined;
+        else lines.push_back("then " + piece);
+        first = false;
     }
-    return out;
+    return lines;
 }
 
 /// Top frequency of the spectrogram: top_freq_margin above the highest partial within
@@ -490,7 +498,15 @@ void write_envelopes(std::ostringstream& h, const report_inputs& in) {
         h << "<text x='4' y='16' class='title'>partial " << idx + 1;
         if (part.harmonic > 0) h << " (harmonic " << part.harmonic << ")";
         h << ", " << fmt("%.1f Hz", part.freq_hz) << "</text>"
-          << "<text x='4' y='34'>T60 " << escape_html(t60_text(part.env)) << "</text>";
+          ;
+        std::vector<std::string> t60 = t60_lines(part.env, envelope_line_chars);
+        if (t60.size() > envelope_t60_lines) {
+            t60.resize(envelope_t60_lines);
+            t60.back() += " ...";
+        }
+        for (std::size_t i = 0; i < t60.size() && i < envelope_t60_lines; ++i) {
+            h << "<text x='4' y='" << 34 + 16 * static_cast<double>(i) << "'>" << escape_html(t60[i]) << "</text>";
+        }
         h << "<clipPath id='c" << idx << "'><rect x='" << f.left << "' y='" << f.top << "' width='"
           << f.width - f.left - f.right << "' height='" << f.height - f.top - f.bottom << "'/></clipPath>";
         h << "<g clip-path='url(#c" << idx << ")'>";
