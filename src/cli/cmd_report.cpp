@@ -1,4 +1,5 @@
 // wane report SOURCE PATCH -o report.html: one self-contained HTML page showing the fit.
+#include <algorithm>
 #include <chrono>
 #include <cmath>
 #include <cstdio>
@@ -26,6 +27,17 @@ std::string num(const char* format, double v) {
     return buf;
 }
 
+/// Audio before the patch's onset kept when the report re-tracks or compares the source: as
+/// much as the demo notes and most recordings have before the attack (common practice, no source).
+constexpr double lead_in_s = 0.1;
+
+/// The source from lead_in_s before the patch's onset (or the file start) to the end.
+std::span<const float> from_patch_onset(const mono_audio& source, const patch& p) {
+    const double from_s = std::max(0.0, p.source.onset_s - lead_in_s);
+    const auto from = std::min(source.samples.size(), static_cast<std::size_t>(std::llround(from_s * source.sample_rate_hz)));
+    return std::span<const float>(source.samples).subspan(from);
+}
+
 struct report_options {
     std::filesystem::path source_path;
     std::filesystem::path patch_path;
@@ -38,11 +50,13 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
                            const tracking_result* tracking, const std::filesystem::path& patch_path,
                            const std::filesystem::path& out_path) {
     const std::vector<float> render = render_patch(p, {.sample_rate_hz = source.sample_rate_hz});
-    // The render starts at the onset, the source at its file start: compare_signals aligns them.
+    // The render starts at the onset; the source is compared from just before the patch's onset
+    // (so a patch made with --start-s meets its own note), and compare_signals aligns the two.
+    const std::span<const float> note = from_patch_onset(source, p);
     std::optional<compare_result> comparison;
     std::string comparison_note;
     try {
-        comparison = compare_signals(source.samples, render, source.sample_rate_hz, {});
+        comparison = compare_signals(note, render, source.sample_rate_hz, {});
     } catch (const std::invalid_argument& e) {
         comparison_note = std::string("No comparison: ") + e.what() + ".";
     }
@@ -57,7 +71,8 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
                      .source_name = source_path.filename().string(),
                      .info_table = patch_info_text(p, patch_path),
                      .comparison = comparison ? &*comparison : nullptr,
-                     .comparison_note = comparison_note};
+                     .comparison_note = comparison_note,
+                     .comparison_from_s = static_cast<double>(source.samples.size() - note.size()) / source.sample_rate_hz};
     write_file_atomic(out_path, make_report_html(in));
 }
 
@@ -90,7 +105,9 @@ void add_report_command(CLI::App& app, command_registry& reg) {
         }
         std::unique_ptr<tracking_result> tracking;
         try {
-            tracking = std::make_unique<tracking_result>(track_note(source.samples, source.sample_rate_hz, tp));
+            // From just before the patch's onset, so the tracks are those of the patch's note even
+            // when it was analyzed with --start-s; track times count from the onset found there.
+            tracking = std::make_unique<tracking_result>(track_note(from_patch_onset(source, p), source.sample_rate_hz, tp));
         } catch (const std::invalid_argument& e) {
             warn(opt->source_path.string() + ": no tracks drawn: " + e.what());
         }

@@ -431,12 +431,12 @@ void write_spectrogram(std::ostringstream& h, const report_inputs& in) {
             if (t.points.empty() || track_mean_freq_hz(t) > top_hz) continue;
             h << "<polyline fill='none' stroke='" << track_colour << "' stroke-width='1.3' points='";
             for (const track_point& pt : t.points) {
-                h << fmt("%.1f", f.px(pt.time_s + in.tracking->onset_s)) << ',' << fmt("%.1f", f.py(pt.freq_hz)) << ' ';
+                h << fmt("%.1f", f.px(pt.time_s + p.source.onset_s)) << ',' << fmt("%.1f", f.py(pt.freq_hz)) << ' ';
             }
             h << "'/>";
         }
     }
-    const double onset_x = f.px(in.tracking != nullptr ? in.tracking->onset_s : p.source.onset_s);
+    const double onset_x = f.px(p.source.onset_s);
     h << "<line x1='" << onset_x << "' x2='" << onset_x << "' y1='" << f.top << "' y2='" << f.top + plot_h
       << "' stroke='#2a7' stroke-width='1.5' stroke-dasharray='5,4'/><text x='" << onset_x + 4 << "' y='"
       << f.top + 14 << "' fill='#1a6'>onset</text></g>";
@@ -578,10 +578,10 @@ void write_compare(std::ostringstream& h, const report_inputs& in) {
         h << "<tr><td>f0 of the render against the source</td><td>" << value_or_dash("%+.2f cents", *r.f0_difference_cents)
           << "</td><td></td></tr>";
     }
-    const double lag_ms = 1000.0 * static_cast<double>(r.align.lag_frames) / r.sample_rate_hz;
-    h << "<tr><td>alignment lag of the render</td><td>" << fmt("%+.1f ms", lag_ms)
-      << (r.align.lag_frames < 0 ? " (it starts that much sooner)" : r.align.lag_frames > 0 ? " (it starts that much later)" : "")
-      << "</td><td></td></tr></table>\n";
+    // b[n + lag] lines up with a[n] (measure/align.hpp): the render's first sample with a[-lag].
+    const double aligned_s = in.comparison_from_s - static_cast<double>(r.align.lag_frames) / r.sample_rate_hz;
+    h << "<tr><td>start of the render aligned to the source at</td><td>" << fmt("%.3f s", aligned_s)
+      << " (patch onset " << fmt("%.3f s", in.value->source.onset_s) << ")</td><td></td></tr></table>\n";
     h << "<table><tr><th>octave band</th><th>T20 source</th><th>T20 render</th><th>T30 source</th><th>T30 render</th></tr>";
     for (const band_decay_pair& b : r.bands) {
         h << "<tr><td>" << fmt("%.0f Hz", b.band.nominal_hz) << "</td><td>" << decay_cell_t20(b.a) << "</td><td>"

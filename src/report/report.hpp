@@ -28,7 +28,9 @@ struct spectrogram_db {
 struct report_inputs {
     std::string title;
     const patch* value = nullptr;               ///< the fitted patch (required)
-    const tracking_result* tracking = nullptr;  ///< measured tracks (may be null)
+    /// Measured tracks (may be null); their times count from the patch's source.onset_s, which
+    /// places them in the source file (tracking->onset_s is not used: it may count from --start-s).
+    const tracking_result* tracking = nullptr;
     spectrogram_db spectrogram;                 ///< of the source
     std::span<const float> source_audio;
     double source_rate_hz = 0.0;
@@ -40,6 +42,7 @@ struct report_inputs {
     /// ranges); null: none.
     const compare_result* comparison = nullptr;
     std::string comparison_note;                 ///< why there is no comparison, when null
+    double comparison_from_s = 0.0;  ///< where in the source file the compared audio (a) starts
     int envelope_plots = 12;  ///< strongest partials drawn with their fitted envelopes
     /// Top of the spectrogram: a little above the highest partial within spectrogram_range_db of
     /// the loudest, never above this.

@@ -220,7 +220,8 @@ const built_report& the_report() {
                          .source_name = "synthetic.wav",
                          .info_table = "name <test> & \"table\"",
                          .comparison = &b.comparison,
-                         .comparison_note = {}};
+                         .comparison_note = {},
+                         .comparison_from_s = 0.0};
         b.html = make_report_html(in);
         return b;
     }();
@@ -409,6 +410,9 @@ TEST_CASE("the comparison shows the 3 dB quieter render", "[report]") {
     REQUIRE(row != std::string::npos);
     CHECK(compare.find("<td>3.0", row) != std::string::npos);
     CHECK(count(compare, "<tr><td>") >= r.comparison.bands.size() + 4);
+    // The render's first sample lines up with the source's onset after the 0.1 s lead-in
+    // (ground truth: the source is the render's patch behind 4800 samples of silence).
+    CHECK(compare.find("aligned to the source at</td><td>0.100 s (patch onset 0.100 s)") != std::string::npos);
 }
 
 TEST_CASE("tracks are matched to partials by harmonic number and frequency", "[report]") {
