@@ -168,6 +168,10 @@ double track_mean_freq_hz(const partial_track& t) {
 
 }  // namespace
 
+/// Spectrogram power floor: -200 dB keeps log10 finite in digital silence.
+constexpr double spectrogram_power_floor = 1e-20;
+constexpr double spectrogram_floor_db = -200.0;
+
 std::string base64_encode(std::string_view bytes) {
     static constexpr char alphabet[] = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
     std::string out;
@@ -216,7 +220,6 @@ std::string wav_bytes(std::span<const float> samples, double sample_rate_hz) {
 spectrogram_db make_spectrogram(std::span<const float> samples, double sample_rate_hz, double window_s,
                                 int max_frames) {
     constexpr int zero_padding = 2;
-    constexpr double power_floor = 1e-20;  // -200 dB, keeps log10 finite in digital silence
     const int window_length = std::max(33, static_cast<int>(std::lround(window_s * sample_rate_hz)) | 1);
     stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = window_length,
                     .fft_size = fast_fft_size(zero_padding * window_length)});
@@ -233,7 +236,7 @@ spectrogram_db make_spectrogram(std::span<const float> samples, double sample_ra
     for (std::int64_t c = 0; c < total; c += hop) {
         plan.analyze(samples, c);
         for (float pw : plan.power()) {
-            s.level_db.push_back(static_cast<float>(power_to_db(std::max(static_cast<double>(pw), power_floor))));
+            s.level_db.push_back(static_cast<float>(power_to_db(std::max(static_cast<double>(pw), spectrogram_power_floor))));
         }
         ++s.frames;
     }
@@ -247,6 +250,8 @@ std::string spectrogram_png(const spectrogram_db& s, double max_freq_hz, double 
     const int height = std::min(used_bins, max_height);
     float peak = -std::numeric_limits<float>::infinity();
     for (float v : s.level_db) peak = std::max(peak, v);
+    // Digital silence stays white: the scale's top is at least range_db above the floor.
+    peak = std::max(peak, static_cast<float>(spectrogram_floor_db + range_db));
     // Max-pool frames and bins into pixels; row 0 is the top (highest frequency).
     std::vector<unsigned char> pixels(static_cast<std::size_t>(width) * static_cast<std::size_t>(height) * 3);
     for (int x = 0; x < width; ++x) {

@@ -435,3 +435,25 @@ TEST_CASE("tracks are matched to partials by harmonic number and frequency", "[r
     CHECK(matching_track(part(1025.0, 0), tr, rate_hz) == -1); // 25 Hz off: beyond max(20 Hz, 10.25 Hz)
     CHECK(matching_track(part(600.0, 0), tr, rate_hz) == -1);
 }
+
+TEST_CASE("a silent source gives a blank spectrogram, a sine one dark row", "[report]") {
+    const std::vector<float> silence(static_cast<std::size_t>(rate_hz / 2), 0.0f);
+    const decoded_png blank = decode_png(spectrogram_png(make_spectrogram(silence, rate_hz), 4000.0, 90.0));
+    double darkest = 1.0;
+    for (int y = 0; y < blank.height; ++y)
+        for (int x = 0; x < blank.width; ++x) darkest = std::min(darkest, blank.lightness(x, y));
+    CAPTURE(blank.width, blank.height, darkest);
+    CHECK(darkest == 1.0);
+
+    // A 1 kHz sine at -6 dBFS (exact ground truth): its row is the darkest, rows far from it white.
+    std::vector<float> sine(silence.size());
+    for (std::size_t i = 0; i < sine.size(); ++i) sine[i] = static_cast<float>(0.5 * std::sin(two_pi * 1000.0 * static_cast<double>(i) / rate_hz));
+    const spectrogram_db s = make_spectrogram(sine, rate_hz);
+    const decoded_png img = decode_png(spectrogram_png(s, 4000.0, 90.0));
+    const int x = img.width / 2;
+    const int tone_row = img.height - 1 - static_cast<int>(1000.0 / s.bin_hz);
+    const int far_row = img.height - 1 - static_cast<int>(3000.0 / s.bin_hz);
+    CAPTURE(img.width, img.height, tone_row, img.lightness(x, tone_row), img.lightness(x, far_row));
+    CHECK(img.lightness(x, tone_row) < 0.1);
+    CHECK(img.lightness(x, far_row) > 0.9);
+}
