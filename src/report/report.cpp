@@ -328,7 +328,7 @@ constexpr double envelope_headroom_db = 6.0;
 constexpr double top_freq_margin = 1.1;       // spectrogram top over the highest partial shown
 constexpr int envelope_curve_points = 240;
 const char* const track_colour = "#ff5a1f";
-const char* const measured_colour = "#7fb2e5";
+const char* const measured_colour = "#79afe6";
 const char* const fitted_colour = "#b0171f";
 
 std::string seconds_text(double s) { return fmt(s < 10.0 ? "%.2f s" : "%.1f s", s); }
@@ -516,7 +516,7 @@ void write_envelopes(std::ostringstream& h, const report_inputs& in) {
           << f.width - f.left - f.right << "' height='" << f.height - f.top - f.bottom << "'/></clipPath>";
         h << "<g clip-path='url(#c" << idx << ")'>";
         if (track != nullptr) {
-            h << "<polyline fill='none' stroke='" << measured_colour << "' stroke-width='4' stroke-linejoin='round' points='";
+            h << "<polyline fill='none' stroke='" << measured_colour << "' stroke-width='6' stroke-linejoin='round' stroke-linecap='round' points='";
             for (const track_point& pt : track->points) {
                 h << fmt("%.1f", f.px(pt.time_s)) << ',' << fmt("%.1f", f.py(std::max(pt.level_db, f.y0 - 10.0))) << ' ';
             }
