@@ -128,6 +128,8 @@ struct plot_frame {
     double py(double y) const { return top + (y1 - y) / (y1 - y0) * (height - top - bottom); }
 };
 
+constexpr int axis_x_ticks = 8, axis_y_ticks = 6;  // about this many ticks per axis
+
 /// Decimals that show a tick step exactly (0.5 -> 1, 0.05 -> 2, 200 -> 0).
 int tick_decimals(double step) { return std::max(0, static_cast<int>(-std::floor(std::log10(step) + 1e-9))); }
 
@@ -142,13 +144,13 @@ std::string svg_axes(const plot_frame& f, const std::string& x_label, const std:
     const double bottom = f.height - f.bottom;
     o << "<rect x='" << f.left << "' y='" << f.top << "' width='" << (f.width - f.left - f.right)
       << "' height='" << (bottom - f.top) << "' fill='none' stroke='#444'/>";
-    const double xs = tick_step(f.x1 - f.x0, 8);
+    const double xs = tick_step(f.x1 - f.x0, axis_x_ticks);
     for (double x = std::ceil(f.x0 / xs - 1e-9) * xs; x <= f.x1 + 1e-9 * xs; x += xs) {
         o << "<line x1='" << f.px(x) << "' x2='" << f.px(x) << "' y1='" << bottom << "' y2='" << bottom + 5
           << "' stroke='#444'/><text x='" << f.px(x) << "' y='" << bottom + 19 << "' text-anchor='middle'>"
           << tick_text(x, xs) << "</text>";
     }
-    const double ys = tick_step(f.y1 - f.y0, 6);
+    const double ys = tick_step(f.y1 - f.y0, axis_y_ticks);
     for (double y = std::ceil(f.y0 / ys - 1e-9) * ys; y <= f.y1 + 1e-9 * ys; y += ys) {
         o << "<line x1='" << f.left - 5 << "' x2='" << f.left << "' y1='" << f.py(y) << "' y2='" << f.py(y)
           << "' stroke='#444'/><text x='" << f.left - 8 << "' y='" << f.py(y) + 4.5 << "' text-anchor='end'>"
@@ -233,6 +235,7 @@ spectrogram_db make_spectrogram(std::span<const float> samples, double sample_ra
     s.bin_hz = sample_rate_hz / plan.fft_size();
     s.hop_s = static_cast<double>(hop) / sample_rate_hz;
     s.start_s = 0.0;
+    s.level_db.reserve(static_cast<std::size_t>((total + hop - 1) / hop) * static_cast<std::size_t>(s.bins));
     for (std::int64_t c = 0; c < total; c += hop) {
         plan.analyze(samples, c);
         for (float pw : plan.power()) {
@@ -327,6 +330,8 @@ constexpr double envelope_range_db = 80.0;   // plotted below each partial's pea
 constexpr double envelope_headroom_db = 6.0;
 constexpr double top_freq_margin = 1.1;       // spectrogram top over the highest partial shown
 constexpr int envelope_curve_points = 240;
+constexpr int spectrogram_freq_ticks = 8;     // about this many frequency ticks
+constexpr double cents_per_semitone = 100.0;  // by definition of the cent
 const char* const track_colour = "#ff5a1f";
 const char* const measured_colour = "#79afe6";
 const char* const fitted_colour = "#b0171f";
@@ -363,7 +368,7 @@ double spectrogram_top_hz(const patch& p, double limit_hz) {
         if (q.env.peak.db >= loudest_db - spectrogram_range_db) highest_hz = std::max(highest_hz, q.freq_hz);
     }
     if (highest_hz <= 0.0) return limit_hz;
-    const double step = tick_step(top_freq_margin * highest_hz, 8);
+    const double step = tick_step(top_freq_margin * highest_hz, spectrogram_freq_ticks);
     return std::min(limit_hz, std::ceil(top_freq_margin * highest_hz / step) * step);
 }
 
@@ -389,7 +394,7 @@ void write_summary(std::ostringstream& h, const report_inputs& in) {
         const double midi = hz_to_midi(p.note.f0_hz);
         const int nearest = static_cast<int>(std::lround(midi));
         row("pitch", fmt("%.3f Hz", p.note.f0_hz) + " = " + note_name(nearest) + " " +
-                         fmt("%+.1f cents", 100.0 * (midi - nearest)) + (p.note.inharmonicity_b > 0.0
+                         fmt("%+.1f cents", cents_per_semitone * (midi - nearest)) + (p.note.inharmonicity_b > 0.0
                                                                              ? ", inharmonicity B " + fmt("%.3g", p.note.inharmonicity_b)
                                                                              : std::string()));
     } else {
