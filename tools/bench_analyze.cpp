@@ -126,7 +126,7 @@ void bench_note(const std::string& name, const std::vector<float>& x, double fs,
                 repeats, 1e3 * cpu_med, 1e3 * wall_med, audio_s / cpu_med, audio_s / wall_med);
 
     // The stages alone, as analyze.cpp runs them (default settings: the whole file).
-    std::vector<double> track_t, fit_t, noise_t;
+    std::vector<double> track_t, fit_t, noise_t, resynth_t, measure_t, stream_t;
     for (int i = 0; i < repeats; ++i) {
         double c0 = thread_cpu_s();
         const wane::tracking_result t = wane::track_note(x, fs, params.tracking);
@@ -150,6 +150,7 @@ void bench_note(const std::string& name, const std::vector<float>& x, double fs,
             p, {.sample_rate_hz = fs, .length_s = static_cast<double>(note.size()) / fs, .include_noise = false});
         std::vector<float> residual(note.begin(), note.end());
         for (std::size_t k = 0; k < std::min(residual.size(), partials_only.size()); ++k) residual[k] -= partials_only[k];
+        resynth_t.push_back(thread_cpu_s() - c0);
         std::vector<double> freqs_hz;
         double loudest_db = -wane::infinity;
         for (const auto& q : p.partials) {
@@ -158,13 +159,32 @@ void bench_note(const std::string& name, const std::vector<float>& x, double fs,
         }
         const auto bands = wane::fit_noise_bands(residual, fs, freqs_hz, loudest_db, params.noise);
         noise_t.push_back(thread_cpu_s() - c0);
+        // The band measurement alone (fit_noise_bands runs it first, then fits the 9 bands).
+        const double m0 = thread_cpu_s();
+        (void)wane::measure_noise_bands(residual, fs, freqs_hz, params.noise);
+        measure_t.push_back(thread_cpu_s() - m0);
         if (bands.size() != r.value.noise.size()) std::printf("  (stage run gave %zu noise bands)\n", bands.size());
+        // The streamed noise model (fit_note_noise: the residual formed a block at a time).
+        const double s0 = thread_cpu_s();
+        const auto streamed = wane::fit_note_noise(note, fs, p, params.noise);
+        stream_t.push_back(thread_cpu_s() - s0);
+        if (i == 0 && !(streamed == bands)) {
+            std::printf("  streamed noise model differs from the held residual's:\n");
+            for (std::size_t b = 0; b < std::min(streamed.size(), bands.size()); ++b)
+                std::printf("    band %.0f Hz: peak %.6f vs %.6f dB, t60 %.6f vs %.6f s\n", bands[b].low_hz,
+                            streamed[b].env.peak.db, bands[b].env.peak.db, streamed[b].env.decay.front().t60_s,
+                            bands[b].env.decay.front().t60_s);
+        }
     }
     const double sum = median(track_t) + median(fit_t) + median(noise_t);
     std::printf("  stages, median thread CPU: track_note %.2f ms (%.0f%%), envelope fits %.2f ms (%.0f%%), "
                 "noise model %.2f ms (%.0f%%)\n",
                 1e3 * median(track_t), 100.0 * median(track_t) / sum, 1e3 * median(fit_t), 100.0 * median(fit_t) / sum,
                 1e3 * median(noise_t), 100.0 * median(noise_t) / sum);
+    std::printf("  noise model: partials' resynthesis and residual %.2f ms, band measurement %.2f ms, band fits ~%.2f ms\n",
+                1e3 * median(resynth_t), 1e3 * median(measure_t),
+                1e3 * (median(noise_t) - median(resynth_t) - median(measure_t)));
+    std::printf("  noise model streamed (fit_note_noise): %.2f ms\n", 1e3 * median(stream_t));
 }
 
 }  // namespace
