@@ -15,6 +15,7 @@
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <cstdint>
 #include <cstring>
 #include <ctime>
 #include <exception>
@@ -91,7 +92,21 @@ double median(std::vector<double> v) {
     return v.size() % 2 ? v[m] : 0.5 * (v[m - 1] + v[m]);
 }
 
-double time_noise(const std::vector<wane::noise_band>& bands, int repeats, double& rms_out) {
+/// FNV-1a 64 over the samples' bits: shows whether two builds render the same noise bit for bit.
+std::uint64_t fnv1a(const std::vector<float>& x) {
+    std::uint64_t h = 0xcbf29ce484222325ULL;
+    for (float v : x) {
+        std::uint32_t bits = 0;
+        std::memcpy(&bits, &v, sizeof bits);
+        for (int b = 0; b < 4; ++b) {
+            h ^= (bits >> (8 * b)) & 0xffU;
+            h *= 0x100000001b3ULL;
+        }
+    }
+    return h;
+}
+
+double time_noise(const std::vector<wane::noise_band>& bands, int repeats, double& rms_out, std::uint64_t& hash_out) {
     const auto frames = static_cast<std::size_t>(std::llround(length_s * rate_hz));
     std::vector<float> out(frames);
     std::vector<double> t;
@@ -104,6 +119,7 @@ double time_noise(const std::vector<wane::noise_band>& bands, int repeats, doubl
     double sq = 0.0;
     for (float v : out) sq += static_cast<double>(v) * static_cast<double>(v);
     rms_out = std::sqrt(sq / static_cast<double>(frames));
+    hash_out = fnv1a(out);
     return median(t);
 }
 
@@ -151,9 +167,10 @@ int main(int argc, char** argv) {
         }
         for (const noise_case& c : cases) {
             double rms = 0.0;
-            const double s = time_noise(c.bands, repeats, rms);
-            std::printf("  %-44s %9.3f ms  ratio %.2f  (output RMS %.1f dB)\n", c.name.c_str(), 1e3 * s, s / partials_s,
-                        20.0 * std::log10(std::max(rms, 1e-30)));
+            std::uint64_t hash = 0;
+            const double s = time_noise(c.bands, repeats, rms, hash);
+            std::printf("  %-44s %9.3f ms  ratio %.2f  (output RMS %.1f dB, FNV-1a %016llx)\n", c.name.c_str(), 1e3 * s,
+                        s / partials_s, 20.0 * std::log10(std::max(rms, 1e-30)), static_cast<unsigned long long>(hash));
         }
     } catch (const std::exception& e) {
         std::fprintf(stderr, "bench_noise: %s\n", e.what());
