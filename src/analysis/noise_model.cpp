@@ -16,9 +16,7 @@ namespace {
 /// Main-lobe half-width of the Hann window in bins of the unpadded window (common practice:
 /// the Hann main lobe spans +-2 bins).
 constexpr double hann_half_lobe_bins = 2.0;
-/// No zero padding: a band level is a mean over the band's bins, which needs no interpolation
-/// between them (the power formula of core/noise_bands.hpp holds for any FFT size).
-constexpr int zero_padding = 1;
+constexpr int zero_padding = 2;
 /// A level floor that stands for digital silence, dB.
 constexpr double silence_db = -200.0;
 /// The band's floor is the median level over the last quarter of the residual.
