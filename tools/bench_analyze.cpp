@@ -11,7 +11,9 @@
 // wall time counts the other processes too), the FFT size / window / hop the tracker chose, and
 // the median CPU time of the stages timed separately: track_note, the envelope fits of all
 // tracks, and the noise model (the partials' resynthesis plus fit_noise_bands), as analyze.cpp
-// runs them.
+// runs them; the noise model split into the resynthesis, the band measurement and the band fits;
+// and the streamed noise model (fit_note_noise, which never holds the residual whole), checked
+// to give the same bands.
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
