@@ -13,7 +13,7 @@ namespace wane {
 
 struct noise_model_params {
     double window_s = 0.0213;  ///< Hann analysis window, seconds (same scale as the renderer's frames)
-    double hop_s = 0.0025;     ///< analysis hop, seconds (resolves a T60 of 50 ms over ~20 frames)
+    double hop_s = 0.005;      ///< analysis hop, seconds (a T60 of 50 ms spans ~10 frames)
     /// Bins this close to a partial (in window main-lobe half-widths) are left out of a band's
     /// mean, so partial energy the subtraction missed is not counted again as noise.
     double partial_guard_lobes = 1.0;
