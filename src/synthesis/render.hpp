@@ -11,6 +11,8 @@
 
 #include <cstddef>
 #include <cstdint>
+#include <memory>
+#include <span>
 #include <vector>
 
 #include "core/patch.hpp"
@@ -67,6 +69,29 @@ std::size_t render_frames(const patch& p, const render_params& params);
 /// render length in (0, max_length_s].
 /// Noise bands (patch.noise) are added when params.include_noise (synthesis/noise_render.hpp).
 std::vector<float> render_patch(const patch& p, const render_params& params);
+
+/// The partials of a render, one stretch of frames at a time: what render_patch gives with
+/// include_noise off (end fade included), without holding the whole render (the analysis forms
+/// the residual of a long file this way). A stretch starting at a multiple of
+/// render_anchor_frames is bit-identical to the same frames of render_patch; others differ only
+/// by float rounding (the oscillators are anchored at the stretch's first frame).
+/// Preconditions as render_patch's (asserted).
+class partial_renderer {
+public:
+    partial_renderer(const patch& p, const render_params& params);
+    ~partial_renderer();
+    partial_renderer(const partial_renderer&) = delete;
+    partial_renderer& operator=(const partial_renderer&) = delete;
+    std::size_t frames() const;  ///< render_frames(p, params)
+    /// Writes frames [first_frame, first_frame + out.size()) into out; that range must lie
+    /// inside [0, frames()).
+    void render(std::size_t first_frame, std::span<float> out) const;
+
+private:
+    struct state;
+    std::unique_ptr<state> state_;
+    double sample_rate_hz_ = 0.0;
+};
 
 /// What a render will contain, for messages (cheap: no samples computed).
 struct render_summary {
