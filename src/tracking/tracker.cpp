@@ -361,6 +361,7 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
     const std::size_t keep_at_most = 2 * static_cast<std::size_t>(std::max(params.max_partials, 1));
     const auto finish = [&](live_track& t) {
         if (static_cast<int>(t.track.points.size()) < min_frames) return;
+        t.track.points.shrink_to_fit();  // a long track grew by doubling: give the slack back
         done.push_back(std::move(t.track));
         done_peak_db.push_back(t.peak_db);
         if (done.size() < 2 * keep_at_most) return;
