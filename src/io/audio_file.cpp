@@ -267,18 +267,24 @@ void check_ogg_pages(std::ifstream& in, const fs::path& path, std::uintmax_t fil
     }
 }
 
-/// Container checks libsndfile leaves out (see check_chunk_list and check_ogg_pages); other
-/// containers are left to libsndfile and the frames-read check.
-void check_container(const fs::path& path, std::uintmax_t file_size) {
+/// Container checks libsndfile leaves out; other containers are left to libsndfile and the
+/// frames-read check. Ogg files are checked before libsndfile opens them (check_ogg_pages):
+/// libvorbis leaks its header state on some damaged streams (found by fuzz_audio). RIFF and AIFF
+/// are checked after libsndfile has opened them (check_chunk_list), so its own reason comes first.
+enum class container_check_stage { before_open, after_open };
+void check_container(const fs::path& path, std::uintmax_t file_size, container_check_stage stage) {
     std::ifstream in(path, std::ios::binary);
     if (!in) return;
     std::array<unsigned char, 12> head{};
     if (!in.read(reinterpret_cast<char*>(head.data()), head.size())) return;
+    if (stage == container_check_stage::before_open) {
+        if (std::memcmp(head.data(), "OggS", 4) == 0) check_ogg_pages(in, path, file_size);
+        return;
+    }
     const bool riff = std::memcmp(head.data(), "RIFF", 4) == 0 && std::memcmp(head.data() + 8, "WAVE", 4) == 0;
     const bool aiff = std::memcmp(head.data(), "FORM", 4) == 0 &&
                       (std::memcmp(head.data() + 8, "AIFF", 4) == 0 || std::memcmp(head.data() + 8, "AIFC", 4) == 0);
     if (riff || aiff) check_chunk_list(in, path, file_size, riff);
-    if (std::memcmp(head.data(), "OggS", 4) == 0) check_ogg_pages(in, path, file_size);
 }
 
 /// A byte count for messages: "2 GiB (2147483648 bytes)", or just the bytes below 1 MiB.
@@ -392,6 +398,7 @@ mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
                        bytes_text(options.max_file_bytes) + " limit on input files (raise it with --max-input-mib)");
     }
 
+    check_container(path, file_size, container_check_stage::before_open);
     SF_INFO info{};
     sndfile_handle file(sf_open(path.c_str(), SFM_READ, &info));
     if (file.get() == nullptr) {
@@ -410,7 +417,7 @@ mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
                            std::to_string(info.channels) + (info.channels == 1 ? " channel" : " channels"));
         }
     }
-    check_container(path, file_size);
+    check_container(path, file_size, container_check_stage::after_open);
     if (info.frames <= 0) throw io_error(path_text(path) + ": no audio frames (zero length)");
     const double claimed_s = static_cast<double>(info.frames) / rate_hz;
     if (claimed_s > options.max_length_s) {

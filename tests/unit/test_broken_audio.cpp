@@ -318,17 +318,26 @@ TEST_CASE("broken FLAC and OGG files are refused naming the file", "[broken_audi
         expect_refused(f, "truncated", {.max_length_s = 1e9});
     }
     SECTION("OGG Vorbis") {
+        // Ogg pages are checked before libsndfile sees the file (RFC 3533: capture pattern,
+        // checksum, page sequence, end-of-stream flag), so the messages are ours.
         const std::string good = read_bytes(sox_make(dir / "good.ogg", "-c 1", "1 whitenoise vol 0.5"));
         REQUIRE(!read_audio(dir / "good.ogg").samples.empty());
         REQUIRE(good.compare(0, 4, "OggS") == 0);
-        expect_refused(save("cut_in_half.ogg", good.substr(0, good.size() / 2)), "");
-        expect_refused_with_libsndfile_reason(save("cut_in_header.ogg", good.substr(0, 40)), "");
+        expect_refused(save("cut_in_half.ogg", good.substr(0, good.size() / 2)), "damaged Ogg stream");
+        expect_refused(save("cut_in_header.ogg", good.substr(0, 40)), "cut short");
         std::string s = good;
         s.replace(s.size() / 3, s.size() / 3, garbage(s.size() / 3, 777));
-        expect_refused(save("garbage_middle.ogg", s), "");
+        expect_refused(save("garbage_middle.ogg", s), "damaged Ogg stream");
         s = good;
         s.replace(4, s.size() - 4, garbage(s.size() - 4, 4242));  // capture pattern, then garbage
-        expect_refused_with_libsndfile_reason(save("garbage_after_capture.ogg", s), "");
+        expect_refused(save("garbage_after_capture.ogg", s), "damaged Ogg stream");
+        s = good;
+        s[s.size() / 2] = static_cast<char>(s[s.size() / 2] ^ 0x10);  // one bit flipped
+        expect_refused(save("one_bit_flipped.ogg", s), "bad checksum");
+        // Cut exactly at a page boundary: every page is intact, but the stream has no end.
+        const std::size_t last_page = good.rfind("OggS");
+        REQUIRE(last_page > 0);
+        expect_refused(save("last_page_missing.ogg", good.substr(0, last_page)), "no end-of-stream page");
     }
 }
 
