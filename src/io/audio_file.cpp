@@ -220,7 +220,9 @@ void check_ogg_pages(std::ifstream& in, const fs::path& path, std::uintmax_t fil
         std::uint32_t next_sequence;
     };
     std::vector<live_stream> live;
-    std::vector<unsigned char> page(header_bytes + 255 + 255 * 255);
+    constexpr std::size_t max_segments = 255;       // the segment count is one byte
+    constexpr std::size_t max_segment_bytes = 255;  // and so is each segment's length
+    std::vector<unsigned char> page(header_bytes + max_segments + max_segments * max_segment_bytes);
     const auto damaged = [&](std::uintmax_t at, const std::string& what) {
         throw io_error(path_text(path) + ": damaged Ogg stream: the page at byte " + std::to_string(at) + " " + what);
     };
