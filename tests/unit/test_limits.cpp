@@ -52,7 +52,7 @@ TEST_CASE("4096 partials x 600 s x 192 kHz is refused with the numbers and the b
     INFO(msg);
     CHECK_THAT(msg, Contains("big.toml: render refused"));
     CHECK_THAT(msg, Contains("4096 partials x 600 s x 192000 Hz = 4.72e+11 partial-samples"));
-    CHECK_THAT(msg, Contains("over the budget of 2e+10"));
+    CHECK_THAT(msg, Contains("over the budget of 1e+11"));
     CHECK_THAT(msg, Contains("output buffer would take 439 MiB"));
 }
 
@@ -65,13 +65,13 @@ TEST_CASE("4096 partials x 60 s x 48 kHz is within the budget", "[limits]") {
 }
 
 TEST_CASE("the budget edge: one frame more crosses it", "[limits]") {
-    // 2e10 / 4096 = 4882812.5 frames: 4882812 is inside, 4882813 outside. At 1 kHz a frame is 1 ms.
+    // 1e11 / 4096 = 24414062.5 frames: 24414062 is inside, 24414063 outside. At 1 kHz a frame is 1 ms.
     const patch p = patch_of(max_partials);
     const double rate_hz = 1000.0;
-    CHECK(render_cost_of(p, rate_hz, 4882.812).frames == 4882812);
-    CHECK_NOTHROW(check_render_budget(p, rate_hz, 4882.812));
-    CHECK(render_cost_of(p, rate_hz, 4882.813).frames == 4882813);
-    CHECK_THAT(refusal(p, rate_hz, 4882.813), Contains("over the budget"));
+    CHECK(render_cost_of(p, rate_hz, 24414.062).frames == 24414062);
+    CHECK_NOTHROW(check_render_budget(p, rate_hz, 24414.062));
+    CHECK(render_cost_of(p, rate_hz, 24414.063).frames == 24414063);
+    CHECK_THAT(refusal(p, rate_hz, 24414.063), Contains("over the budget"));
 }
 
 TEST_CASE("only rendered partials count; length 0 means the patch's own length", "[limits]") {
@@ -82,11 +82,11 @@ TEST_CASE("only rendered partials count; length 0 means the patch's own length",
     // ...but at 192 kHz they are all rendered, and 600 s of them is refused.
     CHECK(render_cost_of(high, 192000.0, 600.0).partials == 4096);
     CHECK_THAT(refusal(high, 192000.0, 600.0), Contains("4096 partials"));
-    // length_s = 0: the patch's note.length_s (here 500 s) decides.
+    // length_s = 0: the patch's note.length_s (here 500 s: 4096 x 9.6e7 = 3.9e11) decides.
     const patch long_note = patch_of(max_partials, 440.0, 500.0);
-    CHECK(render_cost_of(long_note, 48000.0, 0.0).frames == 24000000);
-    CHECK_THAT(refusal(long_note, 48000.0, 0.0), Contains("x 500 s x 48000 Hz"));
-    CHECK_NOTHROW(check_render_budget(long_note, 48000.0, 10.0));
+    CHECK(render_cost_of(long_note, 192000.0, 0.0).frames == 96000000);
+    CHECK_THAT(refusal(long_note, 192000.0, 0.0), Contains("x 500 s x 192000 Hz"));
+    CHECK_NOTHROW(check_render_budget(long_note, 192000.0, 10.0));
 }
 
 TEST_CASE("an output buffer over 1 GiB is refused naming its size", "[limits]") {
