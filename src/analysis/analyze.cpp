@@ -32,21 +32,8 @@ void add_noise_model(patch& p, std::span<const float> part, double sample_rate_h
                      const noise_model_params& noise_params) {
     const auto onset = static_cast<std::size_t>(std::llround(onset_s * sample_rate_hz));
     if (onset >= part.size()) return;
-    const std::span<const float> note = part.subspan(onset);
-    const std::vector<float> partials_only =
-        render_patch(p, {.sample_rate_hz = sample_rate_hz,
-                         .length_s = static_cast<double>(note.size()) / sample_rate_hz,
-                         .include_noise = false});
-    std::vector<float> residual(note.begin(), note.end());
-    const std::size_t common = std::min(residual.size(), partials_only.size());
-    for (std::size_t i = 0; i < common; ++i) residual[i] -= partials_only[i];
-    std::vector<double> freqs_hz;
-    double loudest_db = -infinity;
-    for (const partial& q : p.partials) {
-        freqs_hz.push_back(q.freq_hz);
-        loudest_db = std::max(loudest_db, q.env.peak.db);
-    }
-    p.noise = fit_noise_bands(residual, sample_rate_hz, freqs_hz, loudest_db, noise_params);
+    // Streamed: the residual is formed a block at a time, never held whole (long files).
+    p.noise = fit_note_noise(part.subspan(onset), sample_rate_hz, p, noise_params);
 }
 
 }  // namespace

@@ -13,7 +13,7 @@ namespace wane {
 
 struct noise_model_params {
     double window_s = 0.0213;  ///< Hann analysis window, seconds (same scale as the renderer's frames)
-    double hop_s = 0.0025;     ///< analysis hop, seconds (resolves a T60 of 50 ms over ~20 frames)
+    double hop_s = 0.005;      ///< analysis hop, seconds (a T60 of 50 ms spans ~10 frames)
     /// Bins this close to a partial (in window main-lobe half-widths) are left out of a band's
     /// mean, so partial energy the subtraction missed is not counted again as noise.
     double partial_guard_lobes = 1.0;
@@ -25,8 +25,8 @@ struct noise_model_params {
 struct noise_band_track {
     double low_hz = 0.0;
     double high_hz = 0.0;
-    std::vector<double> time_s;    ///< frame centres, seconds from the onset
-    std::vector<double> level_db;  ///< band level, dB re RMS 1 (core/noise_bands.hpp)
+    double hop_s = 0.0;           ///< frame i is centred at i * hop_s, seconds from the onset
+    std::vector<float> level_db;  ///< band level per frame, dB re RMS 1 (core/noise_bands.hpp)
 };
 
 /// Band levels of a residual over time (residual[0] is the onset).
@@ -39,5 +39,13 @@ std::vector<noise_band_track> measure_noise_bands(std::span<const float> residua
 std::vector<noise_band> fit_noise_bands(std::span<const float> residual, double sample_rate_hz,
                                         std::span<const double> partial_freqs_hz, double loudest_partial_db,
                                         const noise_model_params& params);
+
+/// The noise model of a note (note[0] is the onset): the residual note - partials (the render of
+/// p's partials, synthesis/render.hpp partial_renderer) is formed a block at a time and measured
+/// as it goes, so it is never held whole (a long file costs the band levels only: 4 bytes per band
+/// and hop), then fitted as fit_noise_bands does. Same bands as fit_noise_bands on the residual
+/// held whole (the blocks start at multiples of the renderer's anchor length: the same samples).
+std::vector<noise_band> fit_note_noise(std::span<const float> note, double sample_rate_hz, const patch& p,
+                                       const noise_model_params& params);
 
 }  // namespace wane

@@ -51,6 +51,9 @@ struct analyze_options {
     std::optional<double> hop_s;
     std::optional<std::string> name;
     std::optional<int> jobs;
+    bool report = false;
+    bool no_noise = false;
+    double max_input_s = audio_read_options{}.max_length_s;
 };
 
 std::string num(double v) {
@@ -60,6 +63,8 @@ std::string num(double v) {
 }
 
 void validate(const analyze_options& o) {
+    if (!(o.max_input_s > 0.0 && std::isfinite(o.max_input_s)))
+        throw usage_error("--max-input-s " + num(o.max_input_s) + ": must be a positive number of seconds");
     if (o.f0_hz && !(*o.f0_hz > 0.0 && *o.f0_hz <= max_f0_hz))
         throw usage_error("--f0 " + num(*o.f0_hz) + ": must be above 0 and at most " + num(max_f0_hz) + " Hz");
     if (o.max_partials < 1 || o.max_partials > static_cast<int>(max_partials))
@@ -140,14 +145,15 @@ std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t
 /// Analyzes one file and writes its patch; returns the summary line. Throws with a message that
 /// names the file.
 std::string run_one(const job& j, const analyze_options& o) {
-    const mono_audio audio = read_audio(j.input, {.channel = o.channel});
+    const mono_audio audio = read_audio(j.input, {.channel = o.channel, .max_length_s = o.max_input_s});
     analysis_params ap{.tracking = {.f0_hz = o.f0_hz, .window_s = o.window_s, .fft_size = o.fft_size,
                                     .hop_s = o.hop_s, .max_partials = o.max_partials},
                        .max_segments = o.max_segments,
                        .start_s = o.start_s,
                        .end_s = o.end_s.value_or(0.0),
                        .source_file = j.input.filename().string(),
-                       .note_name = o.name.value_or(j.input.stem().string())};
+                       .note_name = o.name.value_or(j.input.stem().string()),
+                       .noise_model = !o.no_noise};
     if (o.f0_hz && *o.f0_hz >= 0.5 * audio.sample_rate_hz)
         throw io_error(j.input.string() + ": --f0 " + num(*o.f0_hz) + " Hz is not below half the sample rate (" +
                        num(audio.sample_rate_hz) + " Hz)");
@@ -160,7 +166,14 @@ std::string run_one(const job& j, const analyze_options& o) {
     write_patch_file(j.output, r.value);
     std::error_code ec;
     const std::uintmax_t bytes = fs::file_size(j.output, ec);
-    return summary_line(j, r.summary, ec ? 0 : bytes);
+    std::string line = summary_line(j, r.summary, ec ? 0 : bytes);
+    if (o.report) {
+        fs::path html = j.output;
+        html.replace_extension(".html");
+        write_analysis_report(audio, j.input, r.value, &r.tracking, j.output, html);
+        line += "; report " + html.string();
+    }
+    return line;
 }
 
 int run(const analyze_options& o) {
@@ -216,6 +229,10 @@ void add_analyze_command(CLI::App& app, command_registry& reg) {
     sub->add_option("--hop-s", o->hop_s, "STFT hop, seconds (default: from the window)");
     sub->add_option("--name", o->name, "Note name in the patch (default: the file's stem; one input only)");
     sub->add_option("-j,--jobs", o->jobs, "Files analyzed at once (default: all cores)");
+    sub->add_flag("--report", o->report, "Also write an HTML report beside each patch (<stem>.html)");
+    sub->add_flag("--no-noise", o->no_noise, "Fit partials only: no [[noise]] bands for the residual");
+    sub->add_option("--max-input-s", o->max_input_s, "Refuse input files longer than this, seconds")
+        ->capture_default_str();
     sub->footer("Examples:\n  wane analyze pluck.wav -o pluck.toml\n"
                 "  wane analyze notes/*.wav -o patches --max-segments 2");
     reg.add(sub, [o] { return run(*o); });

@@ -180,7 +180,6 @@ int run_keymap(keymap_options o) {
         }
         renders.push_back({.sample_rate_hz = o.rate_hz, .noise_seed = derive_seed(j.seed, noise_seed_salt)});
     }
-    const render_summary summary = summarize_render(patches.front(), renders.front());
 
     const std::filesystem::path dir{o.output_dir};
     std::error_code ec;

@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "cli/common.hpp"
+#include "cli/transform_options.hpp"
 #include "core/patch.hpp"
 #include "core/pitch_names.hpp"
 #include "core/units.hpp"
@@ -38,6 +39,9 @@ struct render_options {
     std::optional<double> length_s;
     double gain_db = 0.0;
     std::optional<double> normalize_db;
+    bool no_noise = false;
+    double noise_db = 0.0;
+    transform_cli transforms;
 };
 
 std::string printf_str(const char* fmt, auto... args) {
@@ -86,11 +90,15 @@ int run_render(const render_options& o) {
     const std::filesystem::path inputs[] = {o.patch_path};
     refuse_overwriting_input(o.out_path, inputs);
 
+    if (!std::isfinite(o.noise_db)) throw usage_error("--noise-db: must be a finite number of dB");
+    const transform_params tp = to_params(o.transforms);
     const patch_read_result r = read_patch_file(o.patch_path);
     for (const std::string& w : r.warnings) warn(w);
-    const patch& p = r.value;
+    const patch p = apply_transforms_checked(r.value, tp, o.rate_hz, o.patch_path.string());
+    // The noise bands' seed is the variation seed, so one --seed fixes the whole variant.
     const render_params params{.sample_rate_hz = o.rate_hz, .length_s = o.length_s.value_or(0.0),
-                               .gain_db = o.gain_db};
+                               .gain_db = o.gain_db, .include_noise = !o.no_noise, .noise_gain_db = o.noise_db,
+                               .noise_seed = o.transforms.seed};
     const std::string patch_name = o.patch_path.string();
     if (static_cast<double>(render_frames(p, params)) > max_length_s * o.rate_hz) {
         throw std::runtime_error(patch_name + ": render would last longer than the " +
@@ -146,8 +154,9 @@ int run_render(const render_options& o) {
     write_audio(o.out_path, y, o.rate_hz, wopts);
 
     std::string partials = printf_str("%zu partials", summary.partials_rendered);
+    if (summary.partials_faded > 0) partials += printf_str(", %zu faded near Nyquist", summary.partials_faded);
     if (summary.partials_above_nyquist > 0) {
-        partials += printf_str(" (%zu above Nyquist left out)", summary.partials_above_nyquist);
+        partials += printf_str(", %zu above Nyquist left out", summary.partials_above_nyquist);
     }
     say(printf_str("%s: %.3f s at %.0f Hz, %s, %s, peak %s", o.out_path.string().c_str(),
                    static_cast<double>(y.size()) / o.rate_hz, o.rate_hz, format_text(*format),
@@ -168,12 +177,16 @@ void add_render_command(CLI::App& app, command_registry& reg) {
     sub->add_option("--gain-db", o.gain_db, "Gain in dB, added to the patch's note.gain_db")->default_val(0.0);
     sub->add_option("--normalize-db", o.normalize_db,
                     "Scale the render so its peak is at this level in dBFS (at most 0), e.g. -1");
+    sub->add_flag("--no-noise", o.no_noise, "Leave the noise bands ([[noise]]) out: partials only");
+    sub->add_option("--noise-db", o.noise_db, "Gain of the noise bands in dB, on top of --gain-db")->default_val(0.0);
+    add_transform_options(sub, o.transforms);
     sub->footer(
         "The end of every render fades out over 10 ms (raised cosine). A peak over 0 dBFS is an error\n"
         "unless --normalize-db is given; one more than 40 dB over full scale is always an error.\n"
         "Examples:\n"
         "  wane render patches/steel-pluck.toml -o pluck.wav\n"
-        "  wane render note.toml -o note-44k.wav --rate 44100 --bits 16 --normalize-db -1");
+        "  wane render note.toml -o note-44k.wav --rate 44100 --bits 16 --normalize-db -1\n"
+        "  wane render note.toml -o fifth-up.wav --transpose 7 --decay-follows-pitch");
     reg.add(sub, [] { return run_render(o); });
 }
 

@@ -1,8 +1,10 @@
 // wane report SOURCE PATCH -o report.html: one self-contained HTML page showing the fit.
+#include <algorithm>
 #include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <memory>
+#include <optional>
 #include <string>
 
 #include "cli/common.hpp"
@@ -25,31 +27,15 @@ std::string num(const char* format, double v) {
     return buf;
 }
 
-/// The comparison rows of the report: what `wane compare SOURCE RENDER` prints, in brief.
-std::vector<std::pair<std::string, std::string>> compare_rows(std::span<const float> source, std::span<const float> render,
-                                                              double sample_rate_hz) {
-    std::vector<std::pair<std::string, std::string>> rows;
-    compare_result r;
-    try {
-        r = compare_signals(source, render, sample_rate_hz, {});
-    } catch (const std::invalid_argument& e) {
-        rows.emplace_back("comparison", std::string("not possible: ") + e.what());
-        return rows;
-    }
-    std::string sizes;
-    for (const auto& res : r.whole.per_resolution) sizes += (sizes.empty() ? "" : ", ") + std::to_string(res.fft_size);
-    rows.emplace_back("log-spectral distance, whole note (STFT sizes " + sizes + ")",
-                      num("%.2f dB", r.whole.log_spectral_distance_db));
-    rows.emplace_back("log-spectral distance, first 100 ms", num("%.2f dB", r.early.log_spectral_distance_db));
-    rows.emplace_back("spectral convergence, whole note", num("%.4f", r.whole.spectral_convergence));
-    rows.emplace_back("time-domain SNR, first 100 ms", num("%.2f dB", r.early_snr_db));
-    rows.emplace_back("alignment lag of the render", std::to_string(r.align.lag_frames) + " samples");
-    if (r.f0_difference_cents) rows.emplace_back("f0 of render against source", num("%+.2f cents", *r.f0_difference_cents));
-    for (const band_decay_pair& b : r.bands) {
-        rows.emplace_back(num("T30 in the %.0f Hz octave band (source / render)", b.band.nominal_hz),
-                          num("%.3f s", b.a.t30_s) + " / " + num("%.3f s", b.b.t30_s));
-    }
-    return rows;
+/// Audio before the patch's onset kept when the report re-tracks or compares the source: as
+/// much as the demo notes and most recordings have before the attack (common practice, no source).
+constexpr double lead_in_s = 0.1;
+
+/// The source from lead_in_s before the patch's onset (or the file start) to the end.
+std::span<const float> from_patch_onset(const mono_audio& source, const patch& p) {
+    const double from_s = std::max(0.0, p.source.onset_s - lead_in_s);
+    const auto from = std::min(source.samples.size(), static_cast<std::size_t>(std::llround(from_s * source.sample_rate_hz)));
+    return std::span<const float>(source.samples).subspan(from);
 }
 
 struct report_options {
@@ -64,7 +50,16 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
                            const tracking_result* tracking, const std::filesystem::path& patch_path,
                            const std::filesystem::path& out_path) {
     const std::vector<float> render = render_patch(p, {.sample_rate_hz = source.sample_rate_hz});
-    // The render starts at the onset; the source's onset is at source.onset_s.
+    // The render starts at the onset; the source is compared from just before the patch's onset
+    // (so a patch made with --start-s meets its own note), and compare_signals aligns the two.
+    const std::span<const float> note = from_patch_onset(source, p);
+    std::optional<compare_result> comparison;
+    std::string comparison_note;
+    try {
+        comparison = compare_signals(note, render, source.sample_rate_hz, {});
+    } catch (const std::invalid_argument& e) {
+        comparison_note = std::string("No comparison: ") + e.what() + ".";
+    }
     report_inputs in{.title = "wane report: " + source_path.filename().string(),
                      .value = &p,
                      .tracking = tracking,
@@ -73,8 +68,11 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
                      .source_rate_hz = source.sample_rate_hz,
                      .render_audio = render,
                      .render_rate_hz = source.sample_rate_hz,
+                     .source_name = source_path.filename().string(),
                      .info_table = patch_info_text(p, patch_path),
-                     .compare_rows = compare_rows(source.samples, render, source.sample_rate_hz)};
+                     .comparison = comparison ? &*comparison : nullptr,
+                     .comparison_note = comparison_note,
+                     .comparison_from_s = static_cast<double>(source.samples.size() - note.size()) / source.sample_rate_hz};
     write_file_atomic(out_path, make_report_html(in));
 }
 
@@ -107,7 +105,9 @@ void add_report_command(CLI::App& app, command_registry& reg) {
         }
         std::unique_ptr<tracking_result> tracking;
         try {
-            tracking = std::make_unique<tracking_result>(track_note(source.samples, source.sample_rate_hz, tp));
+            // From just before the patch's onset, so the tracks are those of the patch's note even
+            // when it was analyzed with --start-s; track times count from the onset found there.
+            tracking = std::make_unique<tracking_result>(track_note(from_patch_onset(source, p), source.sample_rate_hz, tp));
         } catch (const std::invalid_argument& e) {
             warn(opt->source_path.string() + ": no tracks drawn: " + e.what());
         }

@@ -2,6 +2,7 @@
 
 #include <cmath>
 #include <map>
+#include <sstream>
 
 #include "cli/common.hpp"
 #include "core/pitch_names.hpp"
@@ -14,6 +15,12 @@ constexpr const char* group_name = "Sound design";
 
 /// The largest transposition accepted: +-10 octaves spans every audible pitch from any other.
 constexpr double max_transpose_semitones = 120.0;
+/// Bounds of the decay and level edits: far beyond any musical use, they keep every T60 and level
+/// finite (2^(8 * 12 octaves) is still a finite double).
+constexpr double max_decay_scale = 100.0;
+constexpr double max_abs_decay_tilt = 8.0;
+constexpr double max_abs_decay_pitch_exponent = 4.0;
+constexpr double max_abs_brightness_db_per_oct = 48.0;
 /// Tuning references accepted by --a4-hz (a generous band around concert pitch).
 constexpr double min_a4_hz = 300.0;
 constexpr double max_a4_hz = 600.0;
@@ -96,8 +103,9 @@ transform_params to_params(const transform_cli& o) {
     if (o.transpose_semitones) {
         require_finite(*o.transpose_semitones, "--transpose");
         if (std::abs(*o.transpose_semitones) > max_transpose_semitones) {
-            throw usage_error("--transpose: " + std::to_string(*o.transpose_semitones) + " is beyond +-" +
-                              std::to_string(static_cast<int>(max_transpose_semitones)) + " semitones");
+            std::ostringstream msg;
+            msg << "--transpose: " << *o.transpose_semitones << " is beyond +-" << max_transpose_semitones << " semitones";
+            throw usage_error(msg.str());
         }
         t.transpose_semitones = *o.transpose_semitones;
     }
@@ -114,13 +122,22 @@ transform_params to_params(const transform_cli& o) {
     t.a4_hz = o.a4_hz;
     t.decay_follows_pitch = o.decay_follows_pitch;
     require_finite(o.decay_pitch_exponent, "--decay-pitch-exponent");
+    if (std::abs(o.decay_pitch_exponent) > max_abs_decay_pitch_exponent) {
+        throw usage_error("--decay-pitch-exponent: must be within +-4");
+    }
     t.decay_pitch_exponent = o.decay_pitch_exponent;
     require_finite(o.decay_scale, "--decay-scale");
-    if (!(o.decay_scale > 0.0)) throw usage_error("--decay-scale: must be greater than 0");
+    if (!(o.decay_scale > 0.0) || o.decay_scale > max_decay_scale) {
+        throw usage_error("--decay-scale: must be greater than 0 and at most 100");
+    }
     t.decay_scale = o.decay_scale;
     require_finite(o.decay_tilt, "--decay-tilt");
+    if (std::abs(o.decay_tilt) > max_abs_decay_tilt) throw usage_error("--decay-tilt: must be within +-8");
     t.decay_tilt = o.decay_tilt;
     require_finite(o.brightness_db_per_oct, "--brightness-db-oct");
+    if (std::abs(o.brightness_db_per_oct) > max_abs_brightness_db_per_oct) {
+        throw usage_error("--brightness-db-oct: must be within +-48 dB per octave");
+    }
     t.brightness_db_per_oct = o.brightness_db_per_oct;
     if (o.keep_strongest) {
         if (*o.keep_strongest < 1) throw usage_error("--keep-strongest: must be at least 1");
@@ -166,11 +183,21 @@ std::string transform_option_name(const std::string& param) {
 
 patch apply_transforms_checked(const patch& p, const transform_params& params, double sample_rate_hz,
                                const std::string& patch_name) {
+    transform_report report;
+    patch out;
     try {
-        return apply_transforms(p, params, sample_rate_hz);
+        out = apply_transforms(p, params, sample_rate_hz, &report);
     } catch (const transform_error& e) {
         throw std::runtime_error(patch_name + ": " + transform_option_name(e.param) + ": " + e.what());
     }
+    const auto tell = [&](std::size_t n, const std::string& why) {
+        if (n > 0) say(patch_name + ": " + std::to_string(n) + " partial(s) " + why + " left out");
+    };
+    tell(report.dropped_by_parity, "off the chosen parity (--odd-only/--even-only)");
+    if (params.max_freq_hz) tell(report.dropped_above_ceiling, "at or above --max-freq-hz " + std::to_string(static_cast<long>(*params.max_freq_hz)) + " Hz");
+    tell(report.dropped_above_nyquist, "at or above the Nyquist frequency " + std::to_string(static_cast<long>(0.5 * sample_rate_hz)) + " Hz (--rate)");
+    tell(report.dropped_weakest, "weaker than the strongest N (--keep-strongest)");
+    return out;
 }
 
 }  // namespace wane::cli

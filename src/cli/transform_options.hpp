@@ -50,6 +50,8 @@ std::string transform_option_name(const std::string& param);
 
 /// apply_transforms, with a transform_error turned into a one-line error naming the option and
 /// the patch file: "note.toml: --transpose: no partial is left below the Nyquist limit ...".
+/// Partials the Nyquist limit, the ceiling, the parity or keep-strongest removed are reported on
+/// stdout ("note.toml: 3 partials at or above the Nyquist frequency 24000 Hz (--rate) left out").
 patch apply_transforms_checked(const patch& p, const transform_params& params, double sample_rate_hz,
                                const std::string& patch_name);
 

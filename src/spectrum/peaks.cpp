@@ -51,7 +51,8 @@ void noise_floor::reset(std::span<const float> power) {
 }
 
 void noise_floor::refresh_power() {
-    for (std::size_t b = 0; b < bands_db_.size(); ++b) bands_power_[b] = std::pow(10.0, bands_db_[b] / 10.0);
+    constexpr double ln10_over_10 = 0.23025850929940457;  // 10^(dB / 10) = exp(dB ln(10) / 10)
+    for (std::size_t b = 0; b < bands_db_.size(); ++b) bands_power_[b] = std::exp(bands_db_[b] * ln10_over_10);
 }
 
 void noise_floor::update(std::span<const float> power) {

@@ -4,7 +4,8 @@
 // power follows the envelopes without ripple). Band-limited by construction: only bins inside a
 // band carry energy, and the Hann window's sidelobes keep the skirts low (measured in
 // tests/unit/test_noise.cpp). Seeded and deterministic; frames where every band is below
-// -160 dB are skipped, so attack noise costs only while it sounds.
+// -160 dB are skipped, and in the others the bins of bands below it are left empty (their random
+// phases skipped, not drawn), so attack noise costs only while it sounds.
 #pragma once
 
 #include <cstdint>

@@ -301,21 +301,21 @@ std::size_t render_frames(const patch& p, const render_params& params) {
     return static_cast<std::size_t>(std::llround(length_s * params.sample_rate_hz));
 }
 
-std::vector<float> render_patch(const patch& p, const render_params& params) {
-    assert(params.sample_rate_hz >= min_render_rate_hz && params.sample_rate_hz <= max_render_rate_hz);
-    assert(p.partials.size() <= max_partials);
-    const render_plan plan = make_plan(p, params);
-    assert(plan.frames > 0 &&
-           static_cast<double>(plan.frames) <= max_length_s * params.sample_rate_hz + 1.0);
+namespace {
 
-    std::vector<float> out(plan.frames);
+/// The partials of frames [first, first + out.size()) into out (overwritten), block by block from
+/// `first`: each block anchors every oscillator from exact values, so a stretch starting at a
+/// multiple of render_anchor_frames gives the same bits as the whole render.
+void render_partials_range(const render_plan& plan, std::size_t first, std::span<float> out) {
+    assert(first + out.size() <= plan.frames);
+    const std::size_t end = first + out.size();
     const std::size_t partial_count = plan.gain_lin.size();
     std::vector<std::size_t> cursor(plan.span_first);  // first span not yet finished
     alignas(64) std::array<float, render_anchor_frames> block_f{};
     alignas(64) std::array<double, render_anchor_frames> block_d{};
 
-    for (std::size_t b0 = 0; b0 < plan.frames; b0 += render_anchor_frames) {
-        const std::size_t b1 = std::min(b0 + render_anchor_frames, plan.frames);
+    for (std::size_t b0 = first; b0 < end; b0 += render_anchor_frames) {
+        const std::size_t b1 = std::min(b0 + render_anchor_frames, end);
         const std::size_t n = b1 - b0;
         block_f.fill(0.0F);
         std::size_t since_flush = 0;
@@ -342,8 +342,30 @@ std::vector<float> render_patch(const patch& p, const render_params& params) {
             if (++since_flush == partials_per_flush) flush();
         }
         if (since_flush > 0 || first_flush) flush();
-        for (std::size_t i = 0; i < n; ++i) out[b0 + i] = static_cast<float>(block_d[i]);
+        for (std::size_t i = 0; i < n; ++i) out[b0 - first + i] = static_cast<float>(block_d[i]);
     }
+}
+
+/// The end fade (end_fade_gain) on frames [first, first + out.size()) of a render of total frames.
+void apply_end_fade(std::size_t first, std::span<float> out, std::size_t total, double sample_rate_hz) {
+    const auto fade_frames = std::min(total, static_cast<std::size_t>(std::llround(end_fade_s * sample_rate_hz)));
+    for (std::size_t i = std::max(first, total - fade_frames); i < first + out.size(); ++i) {
+        float& v = out[i - first];
+        v = static_cast<float>(static_cast<double>(v) * end_fade_gain(i, total, sample_rate_hz));
+    }
+}
+
+}  // namespace
+
+std::vector<float> render_patch(const patch& p, const render_params& params) {
+    assert(params.sample_rate_hz >= min_render_rate_hz && params.sample_rate_hz <= max_render_rate_hz);
+    assert(p.partials.size() <= max_partials);
+    const render_plan plan = make_plan(p, params);
+    assert(plan.frames > 0 &&
+           static_cast<double>(plan.frames) <= max_length_s * params.sample_rate_hz + 1.0);
+
+    std::vector<float> out(plan.frames);
+    render_partials_range(plan, 0, out);
 
     // The noise bands (deterministic-plus-stochastic model), band-limited by construction.
     if (params.include_noise && !p.noise.empty()) {
@@ -353,13 +375,30 @@ std::vector<float> render_patch(const patch& p, const render_params& params) {
                          .seed = params.noise_seed},
                         out);
     }
-
-    const auto fade_frames = std::min(plan.frames,
-                                      static_cast<std::size_t>(std::llround(end_fade_s * params.sample_rate_hz)));
-    for (std::size_t i = plan.frames - fade_frames; i < plan.frames; ++i) {
-        out[i] = static_cast<float>(static_cast<double>(out[i]) * end_fade_gain(i, plan.frames, params.sample_rate_hz));
-    }
+    apply_end_fade(0, out, plan.frames, params.sample_rate_hz);
     return out;
+}
+
+struct partial_renderer::state {
+    render_plan plan;
+};
+
+partial_renderer::partial_renderer(const patch& p, const render_params& params)
+    : state_(std::make_unique<state>(state{make_plan(p, params)})), sample_rate_hz_(params.sample_rate_hz) {
+    assert(params.sample_rate_hz >= min_render_rate_hz && params.sample_rate_hz <= max_render_rate_hz);
+    assert(p.partials.size() <= max_partials);
+    assert(state_->plan.frames > 0 &&
+           static_cast<double>(state_->plan.frames) <= max_length_s * params.sample_rate_hz + 1.0);
+}
+
+partial_renderer::~partial_renderer() = default;
+
+std::size_t partial_renderer::frames() const { return state_->plan.frames; }
+
+void partial_renderer::render(std::size_t first_frame, std::span<float> out) const {
+    assert(first_frame + out.size() <= state_->plan.frames);
+    render_partials_range(state_->plan, first_frame, out);
+    apply_end_fade(first_frame, out, state_->plan.frames, sample_rate_hz_);
 }
 
 render_summary summarize_render(const patch& p, const render_params& params) {

@@ -11,6 +11,8 @@
 
 #include <cstddef>
 #include <cstdint>
+#include <memory>
+#include <span>
 #include <vector>
 
 #include "core/patch.hpp"
@@ -60,12 +62,36 @@ double end_fade_gain(std::size_t n, std::size_t total_frames, double sample_rate
 std::size_t render_frames(const patch& p, const render_params& params);
 
 /// Renders the patch to mono float samples at params.sample_rate_hz. Deterministic: the same
-/// patch and params give bit-identical samples (also across the vectorized and generic kernels:
-/// the kernels use no fused multiply-add and no reassociation).
+/// patch and params give bit-identical samples, also across the AVX2 and generic kernel clones
+/// (element-wise IEEE operations, no fused multiply-add, no reassociation; this holds for builds
+/// without -march flags that enable FMA, as the project builds).
 /// Preconditions (asserted): a valid patch, rate in [min_render_rate_hz, max_render_rate_hz],
 /// render length in (0, max_length_s].
 /// Noise bands (patch.noise) are added when params.include_noise (synthesis/noise_render.hpp).
 std::vector<float> render_patch(const patch& p, const render_params& params);
+
+/// The partials of a render, one stretch of frames at a time: what render_patch gives with
+/// include_noise off (end fade included), without holding the whole render (the analysis forms
+/// the residual of a long file this way). A stretch starting at a multiple of
+/// render_anchor_frames is bit-identical to the same frames of render_patch; others differ only
+/// by float rounding (the oscillators are anchored at the stretch's first frame).
+/// Preconditions as render_patch's (asserted).
+class partial_renderer {
+public:
+    partial_renderer(const patch& p, const render_params& params);
+    ~partial_renderer();
+    partial_renderer(const partial_renderer&) = delete;
+    partial_renderer& operator=(const partial_renderer&) = delete;
+    std::size_t frames() const;  ///< render_frames(p, params)
+    /// Writes frames [first_frame, first_frame + out.size()) into out; that range must lie
+    /// inside [0, frames()).
+    void render(std::size_t first_frame, std::span<float> out) const;
+
+private:
+    struct state;
+    std::unique_ptr<state> state_;
+    double sample_rate_hz_ = 0.0;
+};
 
 /// What a render will contain, for messages (cheap: no samples computed).
 struct render_summary {

@@ -22,7 +22,7 @@ struct sieve_result {
 };
 
 sieve_result sieve(std::span<const pitch_peak> peaks, std::span<const double> amp, double total_amp,
-                   double f0_hz, double b, const pitch_params& params) {
+                   double max_peak_hz, double f0_hz, double b, const pitch_params& params) {
     std::vector<bool> hit(static_cast<std::size_t>(params.max_harmonic + 1), false);
     double matched_amp = 0.0;
     double num = 0.0;
@@ -40,8 +40,15 @@ sieve_result sieve(std::span<const pitch_peak> peaks, std::span<const double> am
         den += amp[i] * ns * ns;
     }
     if (n_top == 0) return {};
-    const auto present = std::count(hit.begin() + 1, hit.begin() + n_top + 1, true);
-    return {matched_amp / total_amp, double(present) / n_top, num / den};
+    // Coverage over the harmonics up to the highest strong peak (a candidate that leaves peaks
+    // unexplained up there loses coverage too), and over the low harmonics only: the upper ones
+    // of real sounds are often weak or missing.
+    int n_range = 0;
+    while (n_range < params.max_harmonic && series_freq(n_range + 1, f0_hz, b) <= max_peak_hz * (1.0 + params.tolerance_rel))
+        ++n_range;
+    const int n_cov = std::max(1, std::min(std::max(n_top, n_range), params.coverage_harmonics));
+    const auto present = std::count(hit.begin() + 1, hit.begin() + n_cov + 1, true);
+    return {matched_amp / total_amp, double(present) / n_cov, num / den};
 }
 
 }  // namespace
@@ -73,6 +80,8 @@ pitch_estimate estimate_pitch(std::span<const pitch_peak> all_peaks, const pitch
     double total = 0.0;
     for (std::size_t i = 0; i < peaks.size(); ++i) total += amp[i] = std::pow(10.0, peaks[i].level_db / 20.0);
 
+    double max_peak_hz = 0.0;
+    for (const auto& p : peaks) max_peak_hz = std::max(max_peak_hz, p.freq_hz);
     constexpr std::array<double, 5> b_grid_fraction{0.0, 1.0 / 30.0, 0.1, 1.0 / 3.0, 1.0};
     pitch_estimate best;
     double best_score = -1.0;
@@ -84,24 +93,25 @@ pitch_estimate estimate_pitch(std::span<const pitch_peak> all_peaks, const pitch
                 // The seed is harmonic k of the candidate.
                 const double f0 = peaks[s].freq_hz / series_freq(k, 1.0, b);
                 if (f0 < params.min_f0_hz || f0 > params.max_f0_hz) continue;
-                auto r = sieve(peaks, amp, total, f0, b, params);
+                auto r = sieve(peaks, amp, total, max_peak_hz, f0, b, params);
                 if (r.refined_f0_hz <= 0.0) continue;
-                r = sieve(peaks, amp, total, r.refined_f0_hz, b, params);  // re-sieve at the LS f0
+                r = sieve(peaks, amp, total, max_peak_hz, r.refined_f0_hz, b, params);  // at the LS f0
                 if (r.refined_f0_hz <= 0.0) continue;
+                // Only series that explain most of the amplitude and cover enough of their low
+                // harmonics count as a pitch.
+                if (r.explained < params.min_explained || r.coverage < params.min_coverage) continue;
                 const double score = r.explained * std::sqrt(r.coverage);
                 // Ties (within 1e-9) go to the higher f0 and then to the smaller B.
                 if (score > best_score + 1e-9 ||
                     (std::abs(score - best_score) <= 1e-9 && r.refined_f0_hz > best.f0_hz * 1.5)) {
                     best_score = score;
                     best = {.f0_hz = r.refined_f0_hz, .inharmonicity_b = b, .explained = r.explained,
-                            .coverage = r.coverage, .harmonic = false};
+                            .coverage = r.coverage, .harmonic = true};
                 }
             }
         }
     }
-    best.harmonic = best.f0_hz > 0.0 && best.explained >= params.min_explained;
-    if (!best.harmonic) best.f0_hz = 0.0;
-    return best;
+    return best;  // f0 = 0, harmonic = false when no candidate qualified
 }
 
 inharmonicity_fit fit_inharmonicity(std::span<const int> harmonic, std::span<const double> freq_hz,

@@ -13,17 +13,22 @@ struct pitch_peak {
 
 struct pitch_params {
     double min_f0_hz = 25.0;
-    double max_f0_hz = 2500.0;
+    double max_f0_hz = 4500.0;          ///< above C8 (4186 Hz)
     double strong_below_max_db = 40.0;  ///< peaks within this of the strongest take part
     int max_peaks = 24;                 ///< at most this many strongest peaks
     int max_divisor = 6;                ///< candidates f / k, k = 1..max_divisor, f a strong peak
     int max_harmonic = 40;
+    int coverage_harmonics = 12;        ///< coverage counts harmonics 1..this (or the top match)
     double tolerance_rel = 0.012;       ///< |f / (n f0 s_n) - 1| allowed, plus the stiffness slack
     /// Largest B allowed for while sieving, s_n = sqrt(1 + B n^2) (grid 0 .. this).
     double max_inharmonicity = 3e-3;
     /// A sound is harmonic when the best candidate explains this fraction of the strong peaks'
     /// amplitude (sum of linear amplitudes).
     double min_explained = 0.8;
+    /// ... and has peaks on this fraction of its harmonics up to the highest strong peak (at most
+    /// coverage_harmonics): a low f0 bent by B can explain a few inharmonic partials, but then
+    /// most of its series is empty (a free bar's 1 : 2.756 : 5.404 as harmonics 4, 11, 22).
+    double min_coverage = 0.3;
 };
 
 struct pitch_estimate {
@@ -36,8 +41,8 @@ struct pitch_estimate {
 
 /// Harmonic sieve over candidates f / k: score = explained x sqrt(coverage), where explained is the
 /// amplitude fraction of strong peaks within tolerance of n f0 sqrt(1 + B n^2) (peaks -> series)
-/// and coverage the fraction of the series up to the highest matched harmonic that has a peak
-/// (series -> peaks), in the spirit of the two-way mismatch of Maher and Beauchamp 1994.
+/// and coverage the fraction of the series up to the highest matched harmonic (at most
+/// coverage_harmonics) that has a peak (series -> peaks), in the spirit of the two-way mismatch of Maher and Beauchamp 1994.
 pitch_estimate estimate_pitch(std::span<const pitch_peak> peaks, const pitch_params& params = {});
 
 /// Harmonic number of freq_hz on the series n f0 sqrt(1 + B n^2), 0 when farther than tolerance_rel

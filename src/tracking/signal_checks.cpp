@@ -15,7 +15,7 @@ clipping_report find_clipping(std::span<const float> x, const clipping_params& p
     if (r.peak_lin == 0.0) return r;
     const double min_step = params.min_entry_step * r.peak_lin;
     for (const float extreme : {hi, lo}) {
-        if (extreme == 0.0f) continue;
+        if (std::abs(double(extreme)) < params.min_level_lin) continue;
         std::size_t i = 1;
         while (i < x.size()) {
             if (x[i] != extreme || x[i - 1] == extreme) {

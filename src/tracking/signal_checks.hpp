@@ -11,6 +11,9 @@ struct clipping_params {
     /// down before its peak (a 16-bit low sine may repeat its peak value, but by 1 LSB steps).
     double min_entry_step = 0.002;
     int min_runs = 3;         ///< the file counts as clipped from this many flat tops on
+    /// Only extremes at least this loud count (-6 dBFS): quiet, coarsely quantized or dithered
+    /// signals repeat their extreme values without being clipped.
+    double min_level_lin = 0.5;
 };
 
 struct clipping_report {
@@ -19,8 +22,8 @@ struct clipping_report {
     bool clipped = false;
 };
 
-/// Flat tops: runs of >= min_run_samples samples equal to the file's maximum (or minimum), entered
-/// by a step of >= min_entry_step x peak.
+/// Flat tops: runs of >= min_run_samples samples equal to the file's maximum (or minimum), when
+/// that extreme is at least min_level_lin, entered by a step of >= min_entry_step x peak.
 clipping_report find_clipping(std::span<const float> samples, const clipping_params& params = {});
 
 }  // namespace wane

@@ -32,22 +32,25 @@ constexpr double min_window_s = 0.008;
 constexpr double max_window_s = 0.25;
 constexpr int zero_padding = 2;                ///< FFT size >= this x window length
 constexpr double min_hop_s = 0.004;
-constexpr double max_hop_s = 0.010;
+constexpr double max_hop_s = 0.0125;          ///< the FFTs are most of the cost: 12.5 ms keeps 83% overlap at 8 periods of 110 Hz
 constexpr double hop_per_window = 0.25;
 constexpr double continue_above_floor_db = 6.0;  ///< a track continues on peaks this far up
 constexpr double birth_above_floor_db = 12.0;    ///< a track is born only this far up
 constexpr double birth_below_max_db = 80.0;      ///< ... and within this of the frame's strongest
 constexpr double cut_above_floor_db = 10.0;      ///< still sounding at the end: cut, not decayed
+constexpr double quiet_stop_s = 0.5;             ///< stop after this long with no track alive
 constexpr double dev_rel = 0.01;                 ///< frequency deviation per hop, relative
 constexpr double dev_min_bins = 2.0;             ///< ... but at least this many FFT bins
 constexpr double dev_max_f0 = 0.3;               ///< ... and at most this fraction of f0
 constexpr int max_gap_frames = 3;                ///< gaps up to this many frames are bridged
-constexpr int min_track_frames = 5;
+constexpr int min_track_frames = 5;              ///< a track lasts at least this many frames
+constexpr double min_track_windows = 1.5;        ///< ... and at least this many window lengths
 constexpr double max_join_gap_s = 0.3;           ///< fragments of one partial this close are joined
 constexpr double join_rel_tol = 0.005;           ///< ... when their frequencies meet within this
-constexpr double min_track_windows = 1.5;        ///< ... and at least this many window lengths
 constexpr double harmonic_tolerance_rel = 0.02;  ///< labelling tracks with harmonic numbers
+constexpr double guide_tolerance_rel = 0.04;     ///< harmonic tracks stay this close to n f0 s_n
 constexpr int b_fit_rounds = 3;
+constexpr double first_label_harmonics = 10.0;   ///< the series is first fitted up to 10 f0
 /// f0 is fitted on harmonics 1..this (given B from all): real strings stray from the ideal law
 /// more at high n (bridge coupling, tension modulation), and the low partials carry the pitch.
 constexpr int pitch_harmonics = 8;
@@ -203,9 +206,37 @@ void join_fragments(std::vector<partial_track>& tracks, std::vector<double>& pea
     peak_db.resize(keep);
 }
 
+/// Harmonic numbers of tracks at ascending frequencies freqs (0 = none), up to limit_hz. The
+/// lowest is numbered on the series n f0 sqrt(1 + B n^2); walking up, each next one from the
+/// nearest numbered track below (the series through it, same B), since real strings drift from
+/// the law at high n and the global series can be a whole number off there. Equal numbers are
+/// kept (two tracks of one partial); a track that fits no number above its anchor gets 0.
+void label_harmonics(const std::vector<double>& freqs, double f0_hz, double b, double limit_hz,
+                     std::vector<int>& harmonic) {
+    std::size_t anchor = freqs.size();
+    for (std::size_t i = 0; i < freqs.size(); ++i) {
+        harmonic[i] = 0;
+        if (freqs[i] > limit_hz) continue;
+        if (anchor == freqs.size()) {
+            harmonic[i] = harmonic_number(freqs[i], f0_hz, b, harmonic_tolerance_rel);
+            if (harmonic[i] > 0) anchor = i;
+            continue;
+        }
+        const int n_anchor = harmonic[anchor];
+        const double na = n_anchor;
+        const double local_f0 = freqs[anchor] / (na * std::sqrt(1.0 + b * na * na));
+        const int chained = harmonic_number(freqs[i], local_f0, b, harmonic_tolerance_rel);
+        if (chained < n_anchor) continue;
+        harmonic[i] = chained;
+        if (chained > n_anchor) anchor = i;
+    }
+}
+
 struct live_track {
     partial_track track;
     int harmonic = 0;
+    double guide_lo_hz = 0.0;  ///< a harmonic track takes peaks only in [lo, hi]
+    double guide_hi_hz = 0.0;
     int missed = 0;
     double peak_db = -infinity;
 };
@@ -220,6 +251,9 @@ struct match {
 
 tracking_result track_note(std::span<const float> x, double fs, const tracking_params& params) {
     if (!(fs > 0.0) || !std::isfinite(fs)) refuse("sample rate must be positive");
+    if (params.max_partials < 1) refuse("at most " + std::to_string(params.max_partials) + " partials: must be at least 1");
+    if (params.window_s && !(*params.window_s > 0.0)) refuse("window length must be positive");
+    if (params.hop_s && !(*params.hop_s > 0.0)) refuse("hop must be positive");
     const double duration_s = double(x.size()) / fs;
     if (duration_s < min_duration_s)
         refuse("too short: " + std::to_string(std::lround(duration_s * 1000.0)) +
@@ -310,17 +344,24 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
     const auto size = static_cast<std::int64_t>(x.size());
     const int min_frames = std::max(min_track_frames,
                                     static_cast<int>(std::ceil(min_track_windows * result.window_s / result.hop_s)));
+    if (const std::int64_t fitting = size - h - onset; fitting < 0 || fitting / hop + 1 < min_frames) {
+        const double need_s = double(2 * h + (min_frames - 1) * hop) / fs;
+        refuse("too short after the onset: " + std::to_string(std::lround(double(size - onset) / fs * 1000.0)) +
+               " ms of sound, the " + std::to_string(std::lround(result.window_s * 1000.0)) +
+               " ms analysis window needs at least " + std::to_string(std::lround(need_s * 1000.0)) + " ms");
+    }
     const auto dev_hz = [&](double f) {
         double d = std::max(dev_min_bins * bin_hz, dev_rel * f);
         if (f0_hz > 0.0) d = std::min(d, dev_max_f0 * f0_hz);
         return d;
     };
-    // Finished tracks; when they pile up (long or noisy files) only the strongest are kept. Exact:
-    // a track among the final max_partials strongest is among the strongest of any subset.
+    // Finished tracks; when they pile up (long or noisy files) only the 2 x max_partials strongest
+    // are kept, so memory follows max_partials. (A weak fragment dropped here is not joined later.)
     std::vector<double> done_peak_db;
     const std::size_t keep_at_most = 2 * static_cast<std::size_t>(std::max(params.max_partials, 1));
     const auto finish = [&](live_track& t) {
         if (static_cast<int>(t.track.points.size()) < min_frames) return;
+        t.track.points.shrink_to_fit();  // a long track grew by doubling: give the slack back
         done.push_back(std::move(t.track));
         done_peak_db.push_back(t.peak_db);
         if (done.size() < 2 * keep_at_most) return;
@@ -340,6 +381,7 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
     };
     const double hop_time_s = result.hop_s;
     int frames = 0;
+    int quiet_frames = 0;
     for (std::int64_t centre = onset; centre + h <= size || frames == 0; centre += hop, ++frames) {
         const double time_s = double(centre - onset) / fs;
         plan.analyze(x, centre, dc);
@@ -358,8 +400,7 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
             auto it = std::lower_bound(peaks.begin(), peaks.end(), last.freq_hz - d,
                                        [](const spectral_peak& p, double f) { return p.freq_hz < f; });
             for (; it != peaks.end() && it->freq_hz <= last.freq_hz + d; ++it) {
-                if (live[ti].harmonic > 0 &&
-                    harmonic_number(it->freq_hz, f0_hz, b, harmonic_tolerance_rel * 2.0) != live[ti].harmonic)
+                if (live[ti].harmonic > 0 && (it->freq_hz < live[ti].guide_lo_hz || it->freq_hz > live[ti].guide_hi_hz))
                     continue;  // harmonic guidance: stay on the series member n f0 sqrt(1 + B n^2)
                 matches.push_back({std::abs(it->freq_hz - last.freq_hz) / d, ti,
                                    static_cast<std::uint32_t>(it - peaks.begin())});
@@ -399,10 +440,25 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
                 continue;
             live_track t;
             t.harmonic = harmonic_number(p.freq_hz, f0_hz, b, harmonic_tolerance_rel);
+            if (t.harmonic > 0) {
+                // The band harmonic_number(f, f0, B, 2 x tolerance) maps to this n.
+                const double nd = t.harmonic;
+                const double guide_hz = nd * f0_hz * std::sqrt(1.0 + b * nd * nd);
+                const double tol = std::min(guide_tolerance_rel, 0.25 / nd);
+                t.guide_lo_hz = guide_hz * (1.0 - tol);
+                t.guide_hi_hz = guide_hz * (1.0 + tol);
+            }
             t.peak_db = p.level_db;
             t.track.points.push_back({.time_s = time_s, .freq_hz = p.freq_hz, .level_db = p.level_db,
                                       .phase_rad = p.phase_rad, .floor_db = p.floor_db});
             live.push_back(std::move(t));
+        }
+        // The note is over once every track has ended and nothing new stood up for a while: the
+        // rest of the file is noise (or silence) and would only cost frames.
+        quiet_frames = live.empty() ? quiet_frames + 1 : 0;
+        if (!done.empty() && double(quiet_frames) * result.hop_s >= quiet_stop_s) {
+            ++frames;  // this frame is counted in floor_sum
+            break;
         }
     }
     for (auto& t : live) {
@@ -453,40 +509,27 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
     std::vector<double> freqs(order.size()), weights(order.size());
     for (std::size_t i = 0; i < order.size(); ++i) freqs[i] = rep_freq[order[i]];
     if (f0_hz > 0.0) {
-        for (int round = 0; round < b_fit_rounds; ++round) {
-            for (std::size_t i = 0; i < order.size(); ++i) {
-                harmonic[i] = harmonic_number(freqs[i], f0_hz, b, harmonic_tolerance_rel);
-                weights[i] = weight[order[i]];
-            }
+        for (std::size_t i = 0; i < order.size(); ++i) weights[i] = weight[order[i]];
+        // Grow the numbered range: fit the series on the partials up to a limit, then double it.
+        // A stiff string's upper partials drift by whole harmonics from a B = 0 guess, so they
+        // are numbered only once the lower ones have fixed f0 and B.
+        const double top_hz = freqs.empty() ? 0.0 : freqs.back();
+        double limit_hz = first_label_harmonics * f0_hz;
+        for (int round = 0;; ++round) {
+            label_harmonics(freqs, f0_hz, b, limit_hz, harmonic);
             const inharmonicity_fit fit = fit_harmonic_series(harmonic, freqs, weights, pitch_harmonics);
-            if (fit.used == 0) break;
-            f0_hz = fit.f0_hz;
-            b = fit.inharmonicity_b;
-        }
-        for (std::size_t i = 0; i < order.size(); ++i)
-            harmonic[i] = harmonic_number(freqs[i], f0_hz, b, harmonic_tolerance_rel);
-        // Real strings drift from the law at high n, so the global series can miss a partial or
-        // be a whole number off there. Walking up in frequency, each track is numbered from the
-        // nearest numbered track below (the series through it, same B) when that works, else by
-        // the global series if that keeps the numbers rising; each new number anchors the next.
-        std::size_t anchor = order.size();
-        for (std::size_t i = 0; i < order.size(); ++i) {
-            const int global = harmonic[i];
-            int label = global;
-            if (anchor != order.size()) {
-                const int n_anchor = harmonic[anchor];
-                const double na = n_anchor;
-                const double local_f0 = freqs[anchor] / (na * std::sqrt(1.0 + b * na * na));
-                const int chained = harmonic_number(freqs[i], local_f0, b, harmonic_tolerance_rel);
-                label = chained >= n_anchor ? chained : (global > n_anchor ? global : 0);
+            if (fit.used > 0) {
+                f0_hz = fit.f0_hz;
+                b = fit.inharmonicity_b;
             }
-            harmonic[i] = label;
-            if (label > 0 && (anchor == order.size() || label > harmonic[anchor])) anchor = i;
+            if (limit_hz >= top_hz && round >= b_fit_rounds) break;
+            limit_hz *= 2.0;
         }
+        label_harmonics(freqs, f0_hz, b, infinity, harmonic);
     }
     result.series_f0_hz = f0_hz;
     result.inharmonicity_b = f0_hz > 0.0 ? b : 0.0;
-    result.f0_hz = f0_hz;
+    result.f0_hz = params.f0_hz.value_or(f0_hz);
     if (f0_hz > 0.0 && !params.f0_hz) {
         // The pitch is the fundamental's: partial 1's frequency / sqrt(1 + B) when it is tracked
         // clearly (real strings can put partial 1 off the series of the upper partials).

@@ -6,6 +6,7 @@
 #include <numeric>
 #include <sstream>
 
+#include "core/harmonics.hpp"
 #include "transform/rng.hpp"
 
 namespace wane {
@@ -178,9 +179,7 @@ patch set_inharmonicity(const patch& p, double b) {
     out.note.inharmonicity_b = b;
     for (partial& q : out.partials) {
         if (q.harmonic <= 0) continue;
-        // Stiff-string partials: f_n = n f0 sqrt(1 + B n^2) (the patch format's definition of B).
-        const double n = q.harmonic;
-        q.freq_hz = n * p.note.f0_hz * std::sqrt(1.0 + b * n * n);
+        q.freq_hz = stiff_partial_hz(p.note.f0_hz, b, q.harmonic);  // f_n = n f0 sqrt(1 + B n^2)
     }
     canonicalize(out);
     return out;
@@ -226,12 +225,16 @@ void check_peaks(const patch& p, const char* param, const char* what) {
 
 }  // namespace
 
-patch apply_transforms(const patch& p, const transform_params& params, double sample_rate_hz) {
+patch apply_transforms(const patch& p, const transform_params& params, double sample_rate_hz,
+                       transform_report* report) {
     assert(params.decay_scale > 0.0 && params.a4_hz > 0.0 && sample_rate_hz >= 0.0);
     const bool had_partials = !p.partials.empty();
+    transform_report counts;
+    std::size_t before = 0;
 
     // 1. Parity.
     patch out = select_parity(p, params.parity);
+    counts.dropped_by_parity = p.partials.size() - out.partials.size();
     if (had_partials && out.partials.empty()) {
         throw transform_error("parity", std::string("no partial is left after keeping only the ") +
                                             (params.parity == harmonic_parity::odd_only ? "odd" : "even") + " harmonics");
@@ -269,7 +272,9 @@ patch apply_transforms(const patch& p, const transform_params& params, double sa
 
     // 6. Frequency ceiling, then Nyquist.
     if (params.max_freq_hz) {
+        before = out.partials.size();
         out = drop_above(out, *params.max_freq_hz);
+        counts.dropped_above_ceiling = before - out.partials.size();
         if (had_partials && out.partials.empty()) {
             throw transform_error("max_freq_hz", "no partial is left below the ceiling of " +
                                                      format_hz(*params.max_freq_hz));
@@ -277,7 +282,9 @@ patch apply_transforms(const patch& p, const transform_params& params, double sa
     }
     const double nyquist_hz = 0.5 * sample_rate_hz;
     if (sample_rate_hz > 0.0) {
+        before = out.partials.size();
         out = drop_above(out, nyquist_hz);
+        counts.dropped_above_nyquist = before - out.partials.size();
         if (had_partials && out.partials.empty()) {
             std::ostringstream s;
             s.precision(6);
@@ -292,18 +299,25 @@ patch apply_transforms(const patch& p, const transform_params& params, double sa
     // 7. Keep the strongest.
     if (params.keep_strongest) {
         assert(*params.keep_strongest >= 1);
+        before = out.partials.size();
         out = keep_strongest(out, *params.keep_strongest);
+        counts.dropped_weakest = before - out.partials.size();
     }
 
     // 8. Variation.
     if (varies(params.variation)) {
         out = vary(out, params.variation);
         check_peaks(out, "variation.level_jitter_db", "the level jitter");
-        if (sample_rate_hz > 0.0) out = drop_above(out, nyquist_hz);
+        if (sample_rate_hz > 0.0) {
+            before = out.partials.size();
+            out = drop_above(out, nyquist_hz);
+            counts.dropped_above_nyquist += before - out.partials.size();
+        }
     }
 
     // 9. Canonical order.
     canonicalize(out);
+    if (report) *report = counts;
     return out;
 }
 

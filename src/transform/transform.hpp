@@ -136,6 +136,14 @@ patch vary(const patch& p, const variation_params& v);
 /// Throws transform_error when an edit does not fit the patch: a transposition or ceiling that
 /// leaves no partial, to_midi or set_b on an unpitched patch, or a level edit that pushes a peak
 /// above the format's max_peak_db.
-patch apply_transforms(const patch& p, const transform_params& params, double sample_rate_hz);
+/// What apply_transforms removed, for messages (so nothing is dropped silently).
+struct transform_report {
+    std::size_t dropped_by_parity = 0;
+    std::size_t dropped_above_ceiling = 0;  ///< by max_freq_hz
+    std::size_t dropped_above_nyquist = 0;  ///< at or above sample_rate_hz / 2 (also after detune)
+    std::size_t dropped_weakest = 0;        ///< by keep_strongest
+};
+patch apply_transforms(const patch& p, const transform_params& params, double sample_rate_hz,
+                       transform_report* report = nullptr);
 
 }  // namespace wane

@@ -433,3 +433,30 @@ TEST_CASE("segment count through the tracker over random partials", "[fitting][t
     CHECK(one >= 95);  // issue 5 acceptance
     CHECK(two >= 90);
 }
+
+TEST_CASE("the fit stops at the noise floor and the last slope runs on", "[fitting]") {
+    // T60 = 2 s from -6 dBFS, floor 50 dB down: the level reaches floor + 8 dB (the default
+    // margin) at t = (50 - 8) / 30 = 1.4 s; beyond it the envelope continues the fitted slope.
+    db_track_spec spec{.peak_db = -6.0, .snr_db = 50.0, .stages = {{2.0, infinity}}, .seed = 9};
+    const auto fit = fit_partial(make_db_track(spec), {});
+    REQUIRE(fit);
+    CAPTURE(fit->fit_end_s, describe(fit->env));
+    CHECK_THAT(fit->fit_end_s, WithinAbs(1.4, 0.05));
+    REQUIRE(fit->env.decay.size() == 1);
+    CHECK(!fit->env.decay.back().until_s);
+    // At 3 s, far past the fit, the envelope is on the true line (-6 - 90 = -96 dBFS).
+    CHECK_THAT(envelope_level(fit->env, 3.0).db, WithinAbs(-96.0, 1.0));
+}
+
+TEST_CASE("tracks with nothing to fit give no envelope", "[fitting]") {
+    CHECK(!fit_partial(partial_track{}, {}));
+    partial_track one;
+    one.points.push_back({.time_s = 0.0, .freq_hz = 440.0, .level_db = -20.0, .phase_rad = 0.0, .floor_db = -80.0});
+    CHECK(!fit_partial(one, {}));
+    // Every frame within 3 dB of the floor: nothing is clear of it by the 8 dB margin.
+    partial_track buried;
+    for (int i = 0; i < 50; ++i)
+        buried.points.push_back({.time_s = 0.01 * i, .freq_hz = 440.0, .level_db = -77.0, .phase_rad = 0.0,
+                                 .floor_db = -80.0});
+    CHECK(!fit_partial(buried, {}));
+}

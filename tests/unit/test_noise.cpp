@@ -187,3 +187,65 @@ TEST_CASE("a patch with noise bands renders bit-identically with the same seed",
     CHECK(a != c);
     CHECK(a != quiet);
 }
+
+TEST_CASE("the partials rendered a stretch at a time equal the whole render bit for bit", "[noise]") {
+    // partial_renderer (how the analysis forms a long residual) against render_patch without
+    // noise: stretches starting at multiples of render_anchor_frames, the last one through the
+    // end fade, must give the same samples.
+    patch p;
+    p.note.length_s = 1.3;
+    for (int h = 1; h <= 12; ++h) {
+        p.partials.push_back({.freq_hz = 196.0 * h, .harmonic = h, .phase_rad = 0.1 * h,
+                              .env = {.attack_s = 0.003, .peak = level_db{-10.0 - 2.0 * h},
+                                      .decay = {{.t60_s = 0.3, .until_s = 0.2}, {.t60_s = 2.5, .until_s = {}}}}});
+    }
+    canonicalize(p);
+    const render_params params{.sample_rate_hz = rate_hz, .include_noise = false};
+    const std::vector<float> whole = render_patch(p, params);
+    const partial_renderer stream(p, params);
+    REQUIRE(stream.frames() == whole.size());
+    const std::size_t stretch = 5 * render_anchor_frames;
+    std::vector<float> pieces;
+    for (std::size_t first = 0; first < whole.size(); first += stretch) {
+        std::vector<float> part(std::min(stretch, whole.size() - first));
+        stream.render(first, part);
+        pieces.insert(pieces.end(), part.begin(), part.end());
+    }
+    std::size_t differing = 0;
+    for (std::size_t i = 0; i < whole.size(); ++i) differing += whole[i] != pieces[i] ? 1 : 0;
+    CAPTURE(whole.size(), differing);
+    CHECK(differing == 0);
+}
+
+TEST_CASE("the noise model with the residual streamed gives the bands of the residual held whole", "[noise]") {
+    // One band of decaying noise (1 kHz octave, T60 0.3 s, -30 dB) under a partial at 440 Hz.
+    const auto n = static_cast<std::size_t>(1.5 * rate_hz);
+    const double g = std::sqrt(octave_ratio_base10);
+    const auto noise = band_noise(n, 1000.0 / g, 1000.0 * g, 21);
+    patch p;
+    p.note.length_s = 1.5;
+    p.partials.push_back({.freq_hz = 440.0, .harmonic = 1, .phase_rad = 0.0,
+                          .env = {.attack_s = 0.0, .peak = level_db{-12.0}, .decay = {{.t60_s = 3.0, .until_s = {}}}}});
+    canonicalize(p);
+    const std::vector<float> partials = render_patch(p, {.sample_rate_hz = rate_hz, .include_noise = false});
+    std::vector<float> note(n);
+    for (std::size_t i = 0; i < n; ++i) {
+        const double t = static_cast<double>(i) / rate_hz;
+        note[i] = static_cast<float>(static_cast<double>(partials[i]) +
+                                     std::pow(10.0, -30.0 / 20.0) * std::exp(-ln1000 * t / 0.3) * noise[i]);
+    }
+    std::vector<float> residual(note);
+    for (std::size_t i = 0; i < n; ++i) residual[i] -= partials[i];
+    const double freqs[] = {440.0};
+    const noise_model_params params{};
+    const auto held = fit_noise_bands(residual, rate_hz, freqs, -12.0, params);
+    const auto streamed = fit_note_noise(note, rate_hz, p, params);
+    CAPTURE(held.size(), streamed.size());
+    const noise_band* band = nullptr;
+    for (const noise_band& b : streamed)
+        if (b.low_hz < 1000.0 && 1000.0 < b.high_hz) band = &b;
+    REQUIRE(band != nullptr);
+    CAPTURE(band->env.peak.db, band->env.decay.front().t60_s);
+    CHECK_THAT(band->env.decay.front().t60_s, WithinRel(0.3, 0.10));  // ground truth of the signal
+    CHECK(streamed == held);
+}

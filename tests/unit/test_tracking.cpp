@@ -3,8 +3,11 @@
 #include <catch2/catch.hpp>
 
 #include <sndfile.h>
+#include <unistd.h>
 
 #include <algorithm>
+#include <cstdlib>
+#include <filesystem>
 #include <cmath>
 #include <random>
 #include <stdexcept>
@@ -230,7 +233,21 @@ TEST_CASE("bad input is refused with a clear message", "[tracking][bad]") {
     }
     CHECK_NOTHROW(track_note(clean, fs, {}));
     CHECK_NOTHROW(track_note(slow, fs, {}));
+    // Silence written by sox at 16 bits carries its dither (+-1 LSB): noise, not clipping.
+    const auto dir = std::filesystem::temp_directory_path() / ("wane_test_tracking_" + std::to_string(::getpid()));
+    std::filesystem::create_directories(dir);
+    const std::string path = (dir / "silence.wav").string();
+    REQUIRE(std::system(("sox -n -r 48000 -b 16 '" + path + "' trim 0 1").c_str()) == 0);
+    double sox_fs = 0.0;
+    const auto dithered = read_mono(path, sox_fs);
+    std::filesystem::remove_all(dir);
+    CHECK_THROWS_WITH(track_note(dithered, sox_fs, {}), Contains("no partials above the noise floor") || Contains("no signal"));
     CHECK_THROWS_AS(track_note(noise, fs, {}), std::invalid_argument);
+    // 80 ms of a 110 Hz tone: long enough to read, too short for the 73 ms window to slide.
+    std::vector<float> brief(static_cast<std::size_t>(0.08 * fs));
+    for (std::size_t i = 0; i < brief.size(); ++i)
+        brief[i] = static_cast<float>(0.5 * std::sin(two_pi * 110.0 * double(i) / fs));
+    CHECK_THROWS_WITH(track_note(brief, fs, {}), Contains("too short after the onset"));
 }
 
 TEST_CASE("inharmonicity fit recovers Fletcher's B from exact partials", "[tracking][fletcher]") {
@@ -354,5 +371,21 @@ TEST_CASE("partials straying from the stiff-string law keep their numbers", "[tr
         });
         CAPTURE(f, t.harmonic);
         CHECK(t.harmonic == static_cast<int>(it - partials.begin()) + 1);
+    }
+}
+
+TEST_CASE("odd harmonics only, falling as 1/n^2 (a triangle wave): f0 and B = 0", "[tracking][f0]") {
+    constexpr double fs = 44100.0, f0 = 300.0;
+    std::vector<synth_partial> partials;
+    for (int n = 1; n <= 31; n += 2) partials.push_back({n * f0, 0.8 / (n * n), 4.0, 0.0});  // exact series
+    const auto x = synth(partials, fs, 1.0, 0.0, 1e-6, 23);
+    const tracking_result r = track_note(x, fs, {});
+    CAPTURE(r.f0_hz, r.inharmonicity_b, r.tracks.size());
+    CHECK(std::abs(cents_between(r.f0_hz, f0)) < 0.1);
+    CHECK(r.inharmonicity_b < 1e-6);
+    for (const auto& t : r.tracks) {
+        CAPTURE(track_freq_hz(t), t.harmonic);
+        CHECK(t.harmonic % 2 == 1);
+        CHECK(std::abs(cents_between(track_freq_hz(t), t.harmonic * f0)) < 0.2);
     }
 }
