@@ -4,6 +4,7 @@
 #include <iostream>
 
 #include "cli/common.hpp"
+#include "io/atomic_file.hpp"
 
 namespace wane::cli {
 
@@ -22,6 +23,7 @@ void say(std::string_view msg) {
 
 int main(int argc, char** argv) {
     using namespace wane::cli;
+    wane::install_interrupt_cleanup();
     CLI::App app{"wane: analyze a plucked or struck note into an editable patch of damped partials, "
                  "and render faithful copies and variants from it.",
                  "wane"};

@@ -12,11 +12,20 @@
 
 namespace wane {
 
+/// Input limits (common practice, no source: 30 minutes is far longer than any single note, and
+/// 2 GiB is the largest size a plain RIFF WAV can describe with signed 32-bit sizes).
+inline constexpr double default_max_input_s = 1800.0;
+inline constexpr std::uintmax_t default_max_input_bytes = std::uintmax_t{2} << 30;
+
 struct audio_read_options {
     /// 1-based channel to take; empty mixes all channels to mono (mean).
     std::optional<int> channel{};
-    /// Longest input accepted, in seconds (refused with the limit named beyond it).
-    double max_length_s = 1800.0;
+    /// Longest input accepted, in seconds (refused with the limit named beyond it; the CLI
+    /// option that raises it is --max-input-s).
+    double max_length_s = default_max_input_s;
+    /// Largest input file accepted, in bytes, checked before libsndfile opens it (refused with the
+    /// limit named beyond it; the CLI option that raises it is --max-input-mib).
+    std::uintmax_t max_file_bytes = default_max_input_bytes;
 };
 
 struct mono_audio {
@@ -28,9 +37,13 @@ struct mono_audio {
     std::string format_name;  ///< e.g. "WAV (Microsoft) / Signed 24 bit PCM"
 };
 
-/// Reads any file libsndfile reads. Throws io_error naming the file: missing, a directory, not
-/// audio (libsndfile's message passed on), zero frames, NaN/Inf samples, rate outside
-/// 1 Hz..768 kHz, --channel beyond the channel count, longer than max_length_s.
+/// Reads any file libsndfile reads. Throws io_error naming the file: missing, a directory, larger
+/// than max_file_bytes, not audio (libsndfile's message passed on), zero frames or channels,
+/// NaN/Inf samples, rate outside 1 Hz..768 kHz, --channel beyond the channel count, longer than
+/// max_length_s, and damaged containers: a RIFF/FORM header or a data/SSND chunk claiming more
+/// bytes than the file holds, an AIFF COMM chunk claiming more frames than its SSND chunk holds,
+/// an Ogg stream whose pages do not chain to the end of the file with valid checksums and an
+/// end-of-stream mark, fewer frames decoded than the header claims.
 mono_audio read_audio(const std::filesystem::path& path, const audio_read_options& options = {});
 
 enum class sample_format { pcm16, pcm24, float32 };
