@@ -53,7 +53,8 @@ struct analyze_options {
     std::optional<int> jobs;
     bool report = false;
     bool no_noise = false;
-    double max_input_s = audio_read_options{}.max_length_s;
+    double max_input_s = default_max_input_s;
+    std::uintmax_t max_input_mib = default_max_input_bytes >> 20;
 };
 
 std::string num(double v) {
@@ -65,6 +66,8 @@ std::string num(double v) {
 void validate(const analyze_options& o) {
     if (!(o.max_input_s > 0.0 && std::isfinite(o.max_input_s)))
         throw usage_error("--max-input-s " + num(o.max_input_s) + ": must be a positive number of seconds");
+    if (o.max_input_mib == 0 || o.max_input_mib > (std::uintmax_t{1} << 40))
+        throw usage_error("--max-input-mib " + std::to_string(o.max_input_mib) + ": must be 1 to 2^40 MiB");
     if (o.f0_hz && !(*o.f0_hz > 0.0 && *o.f0_hz <= max_f0_hz))
         throw usage_error("--f0 " + num(*o.f0_hz) + ": must be above 0 and at most " + num(max_f0_hz) + " Hz");
     if (o.max_partials < 1 || o.max_partials > static_cast<int>(max_partials))
@@ -145,7 +148,7 @@ std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t
 /// Analyzes one file and writes its patch; returns the summary line. Throws with a message that
 /// names the file.
 std::string run_one(const job& j, const analyze_options& o) {
-    const mono_audio audio = read_audio(j.input, {.channel = o.channel, .max_length_s = o.max_input_s});
+    const mono_audio audio = read_audio(j.input, {.channel = o.channel, .max_length_s = o.max_input_s, .max_file_bytes = o.max_input_mib << 20});
     analysis_params ap{.tracking = {.f0_hz = o.f0_hz, .window_s = o.window_s, .fft_size = o.fft_size,
                                     .hop_s = o.hop_s, .max_partials = o.max_partials},
                        .max_segments = o.max_segments,
@@ -232,6 +235,8 @@ void add_analyze_command(CLI::App& app, command_registry& reg) {
     sub->add_flag("--report", o->report, "Also write an HTML report beside each patch (<stem>.html)");
     sub->add_flag("--no-noise", o->no_noise, "Fit partials only: no [[noise]] bands for the residual");
     sub->add_option("--max-input-s", o->max_input_s, "Refuse input files longer than this, seconds")
+        ->capture_default_str();
+    sub->add_option("--max-input-mib", o->max_input_mib, "Refuse input files larger than this, MiB")
         ->capture_default_str();
     sub->footer("Examples:\n  wane analyze pluck.wav -o pluck.toml\n"
                 "  wane analyze notes/*.wav -o patches --max-segments 2");

@@ -24,6 +24,7 @@
 #include "io/atomic_file.hpp"
 #include "io/audio_file.hpp"
 #include "io/errors.hpp"
+#include "io/limits.hpp"
 #include "io/patch_toml.hpp"
 #include "io/progress.hpp"
 #include "synthesis/render.hpp"
@@ -179,6 +180,7 @@ int run_keymap(keymap_options o) {
             throw std::runtime_error(o.input + ": " + option + ": note " + note_name(j.root_midi) + ": " + e.what());
         }
         renders.push_back({.sample_rate_hz = o.rate_hz, .noise_seed = derive_seed(j.seed, noise_seed_salt)});
+        check_render_budget(patches.back(), o.rate_hz, 0.0, in);
     }
 
     const std::filesystem::path dir{o.output_dir};

@@ -12,6 +12,7 @@
 
 #include "cli/common.hpp"
 #include "cli/transform_options.hpp"
+#include "io/limits.hpp"
 #include "core/patch.hpp"
 #include "core/pitch_names.hpp"
 #include "core/units.hpp"
@@ -104,6 +105,7 @@ int run_render(const render_options& o) {
         throw std::runtime_error(patch_name + ": render would last longer than the " +
                                  printf_str("%.0f", max_length_s) + " s limit");
     }
+    check_render_budget(p, o.rate_hz, o.length_s.value_or(0.0), o.patch_path);
 
     const render_summary summary = summarize_render(p, params);
     if (summary.partials_above_nyquist > 0) {

@@ -12,6 +12,7 @@
 // quantity (see the `fmt_*` helpers for the precision each needs and why), so that reading a file the
 // writer wrote and writing it again gives the same bytes.
 #include "io/patch_toml.hpp"
+#include "io/toml_guard.hpp"
 
 #include <toml++/toml.h>
 
@@ -950,6 +951,7 @@ patch_read_result parse_patch(std::string_view text, std::string_view source_nam
         throw patch_error(name + ": " + std::to_string(text.size()) + " bytes is larger than the " +
                           max_patch_file_text + " a patch may have");
     }
+    refuse_non_ascii_outside_strings(text, name);
     prescan_counts(text, name);
     toml::table root;
     try {
