@@ -21,7 +21,9 @@ void say(std::string_view msg) {
 
 }  // namespace wane::cli
 
-int main(int argc, char** argv) {
+namespace {
+
+int run_main(int argc, char** argv) {
     using namespace wane::cli;
     wane::install_interrupt_cleanup();
     CLI::App app{"wane: analyze a plucked or struck note into an editable patch of damped partials, "
@@ -70,4 +72,17 @@ int main(int argc, char** argv) {
         print_error(e.what());
         return exit_failure;
     }
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+    try {
+        return run_main(argc, argv);
+    } catch (const std::exception& e) {
+        wane::cli::print_error(e.what());
+    } catch (...) {
+        wane::cli::print_error("unexpected failure");
+    }
+    return wane::cli::exit_failure;
 }

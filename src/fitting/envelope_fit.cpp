@@ -13,6 +13,7 @@ namespace {
 /// Largest number of segments the fixed-size normal equations hold.
 constexpr int max_supported_segments = max_fit_segments;
 constexpr int max_unknowns = max_supported_segments + 1;
+constexpr std::size_t max_unknowns_sq = static_cast<std::size_t>(max_unknowns) * max_unknowns;
 /// The dynamic program places run boundaries on at most this many grid points.
 constexpr std::size_t dp_grid_points = 32;
 /// A segment needs at least this many fit points so its slope is determined by data.
@@ -120,7 +121,7 @@ struct continuous_solution {
 
 /// Solves the small symmetric system g theta = b (Gaussian elimination with partial pivoting).
 /// Returns false when singular.
-bool solve_small(int m, std::array<double, max_unknowns * max_unknowns>& g,
+bool solve_small(int m, std::array<double, max_unknowns_sq>& g,
                  std::array<double, max_unknowns>& b) {
     for (int c = 0; c < m; ++c) {
         int piv = c;
@@ -150,7 +151,7 @@ bool solve_small(int m, std::array<double, max_unknowns * max_unknowns>& g,
 /// Continuous piecewise-linear weighted least squares with the given knots (ascending, relative
 /// times). Model: y = theta0 + theta1 x + sum_j theta_{1+j} (x - knot_j)_+ (hinge basis).
 /// Normal equations from the suffix sums: for x > k, sum w (x - a)(x - k) = Sxx - (a + k) Sx + a k Sw.
-using normal_matrix = std::array<double, max_unknowns * max_unknowns>;
+using normal_matrix = std::array<double, max_unknowns_sq>;
 using normal_vector = std::array<double, max_unknowns>;
 
 void build_normal(const point_sums& ps, std::span<const double> knots, normal_matrix& g, normal_vector& b) {

@@ -220,7 +220,8 @@ std::size_t decode_utf8(std::string_view s, std::size_t i, char32_t& cp) {
     if (b0 < 0x80) {
         cp = b0;
         return 1;
-    } else if ((b0 & 0xE0) == 0xC0) {
+    }
+    if ((b0 & 0xE0) == 0xC0) {
         len = 2, cp = b0 & 0x1Fu, min_cp = 0x80;
     } else if ((b0 & 0xF0) == 0xE0) {
         len = 3, cp = b0 & 0x0Fu, min_cp = 0x800;

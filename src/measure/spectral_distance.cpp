@@ -80,12 +80,12 @@ spectral_distance_result spectral_distance(std::span<const float> reference, std
         }
         stft_plan& plan = plan_for(size);
         const std::size_t hop = static_cast<std::size_t>(std::max(1, size / params.hop_divisor));
-        const std::size_t all_bins = static_cast<std::size_t>(size / 2 + 1);
+        const std::size_t all_bins = static_cast<std::size_t>(size) / 2 + 1;
         std::vector<double> pa(all_bins), pb(all_bins);
         // Bins k = 0 .. n_bins - 1 lie at or below band_limit_fraction of Nyquist (bin N/2).
         assert(params.band_limit_fraction > 0.0 && params.band_limit_fraction <= 1.0);
         const std::size_t n_bins = std::min(
-            all_bins, static_cast<std::size_t>(std::floor(params.band_limit_fraction * (size / 2))) + 1);
+            all_bins, static_cast<std::size_t>(std::floor(params.band_limit_fraction * (0.5 * size))) + 1);
 
         // Pass 1: the reference's peak bin power over the range.
         double peak_power = 0.0;

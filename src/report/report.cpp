@@ -145,13 +145,19 @@ std::string svg_axes(const plot_frame& f, const std::string& x_label, const std:
     o << "<rect x='" << f.left << "' y='" << f.top << "' width='" << (f.width - f.left - f.right)
       << "' height='" << (bottom - f.top) << "' fill='none' stroke='#444'/>";
     const double xs = tick_step(f.x1 - f.x0, axis_x_ticks);
-    for (double x = std::ceil(f.x0 / xs - 1e-9) * xs; x <= f.x1 + 1e-9 * xs; x += xs) {
+    const long x_first = std::lround(std::ceil(f.x0 / xs - 1e-9));
+    const long x_last = std::lround(std::floor(f.x1 / xs + 1e-9));
+    for (long i = x_first; i <= x_last; ++i) {
+        const double x = static_cast<double>(i) * xs;
         o << "<line x1='" << f.px(x) << "' x2='" << f.px(x) << "' y1='" << bottom << "' y2='" << bottom + 5
           << "' stroke='#444'/><text x='" << f.px(x) << "' y='" << bottom + 19 << "' text-anchor='middle'>"
           << tick_text(x, xs) << "</text>";
     }
     const double ys = tick_step(f.y1 - f.y0, axis_y_ticks);
-    for (double y = std::ceil(f.y0 / ys - 1e-9) * ys; y <= f.y1 + 1e-9 * ys; y += ys) {
+    const long y_first = std::lround(std::ceil(f.y0 / ys - 1e-9));
+    const long y_last = std::lround(std::floor(f.y1 / ys + 1e-9));
+    for (long i = y_first; i <= y_last; ++i) {
+        const double y = static_cast<double>(i) * ys;
         o << "<line x1='" << f.left - 5 << "' x2='" << f.left << "' y1='" << f.py(y) << "' y2='" << f.py(y)
           << "' stroke='#444'/><text x='" << f.left - 8 << "' y='" << f.py(y) + 4.5 << "' text-anchor='end'>"
           << tick_text(y, ys) << "</text>";
@@ -461,7 +467,9 @@ void write_spectrogram(std::ostringstream& h, const report_inputs& in) {
     h << "</linearGradient><rect x='" << bar_x << "' y='" << f.top << "' width='" << bar_w << "' height='" << plot_h
       << "' fill='url(#level-bar)' stroke='#444'/>";
     constexpr double bar_tick_db = 15.0;
-    for (double db = 0.0; db >= -spectrogram_range_db - 1e-9; db -= bar_tick_db) {
+    const long bar_ticks = std::lround(std::floor(spectrogram_range_db / bar_tick_db + 1e-9));
+    for (long i = 0; i <= bar_ticks; ++i) {
+        const double db = -static_cast<double>(i) * bar_tick_db;
         const double y = f.top + (-db / spectrogram_range_db) * plot_h;
         h << "<text x='" << bar_x + bar_w + 4 << "' y='" << y + 4.5 << "'>" << fmt("%.0f", db) << "</text>";
     }

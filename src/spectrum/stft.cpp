@@ -29,7 +29,7 @@ stft_plan::stft_plan(const stft_config& config)
     cfg_ = kiss_fftr_alloc(config.fft_size, 0, nullptr, nullptr);
     if (cfg_ == nullptr) throw std::bad_alloc();
     frame_.assign(static_cast<std::size_t>(config.fft_size), 0.0f);
-    bins_.resize(static_cast<std::size_t>(config.fft_size / 2 + 1));
+    bins_.resize(static_cast<std::size_t>(config.fft_size) / 2 + 1);
     power_.resize(bins_.size());
 }
 

@@ -6,7 +6,8 @@
 
 namespace wane {
 
-clipping_report find_clipping(std::span<const float> x, const clipping_params& params) {
+clipping_report find_clipping(std::span<const float> samples, const clipping_params& params) {
+    const std::span<const float> x = samples;
     clipping_report r;
     if (x.empty()) return r;
     const auto [lo_it, hi_it] = std::minmax_element(x.begin(), x.end());

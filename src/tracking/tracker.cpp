@@ -249,7 +249,9 @@ struct match {
 
 }  // namespace
 
-tracking_result track_note(std::span<const float> x, double fs, const tracking_params& params) {
+tracking_result track_note(std::span<const float> samples, double sample_rate_hz, const tracking_params& params) {
+    const std::span<const float> x = samples;  // short names for the formulas below
+    const double fs = sample_rate_hz;
     if (!(fs > 0.0) || !std::isfinite(fs)) refuse("sample rate must be positive");
     if (params.max_partials < 1) refuse("at most " + std::to_string(params.max_partials) + " partials: must be at least 1");
     if (params.window_s && !(*params.window_s > 0.0)) refuse("window length must be positive");
@@ -534,7 +536,7 @@ tracking_result track_note(std::span<const float> x, double fs, const tracking_p
         // The pitch is the fundamental's: partial 1's frequency / sqrt(1 + B) when it is tracked
         // clearly (real strings can put partial 1 off the series of the upper partials).
         double strongest_db = -infinity;
-        for (std::size_t i = 0; i < order.size(); ++i) strongest_db = std::max(strongest_db, strength[order[i]]);
+        for (const std::size_t k : order) strongest_db = std::max(strongest_db, strength[k]);
         double best_db = -infinity;
         for (std::size_t i = 0; i < order.size(); ++i) {
             const std::size_t k = order[i];
