@@ -23,6 +23,7 @@
 #include "core/units.hpp"
 #include "io/audio_file.hpp"
 #include "io/errors.hpp"
+#include "test_support.hpp"
 
 using Catch::Matchers::Contains;
 using Catch::Matchers::WithinAbs;
@@ -31,22 +32,6 @@ namespace fs = std::filesystem;
 
 namespace {
 
-/// A fresh folder under the system temp dir, removed at the end of the test.
-struct scratch_dir {
-    fs::path path;
-    scratch_dir() {
-        static std::atomic<int> counter{0};
-        path = fs::temp_directory_path() /
-               ("wane_test_audio_io_" + std::to_string(::getpid()) + "_" + std::to_string(counter++));
-        fs::remove_all(path);
-        fs::create_directories(path);
-    }
-    ~scratch_dir() {
-        std::error_code ec;
-        fs::remove_all(path, ec);
-    }
-    fs::path operator/(const std::string& name) const { return path / name; }
-};
 
 std::set<std::string> entries(const fs::path& dir) {
     std::set<std::string> names;
@@ -181,7 +166,7 @@ TEST_CASE("PCM round trip is bit-exact in WAV, AIFF and FLAC at 16 and 24 bits",
     const std::string ext = GENERATE(as<std::string>{}, ".wav", ".aiff", ".aif", ".flac");
     const int bits = GENERATE(16, 24);
     CAPTURE(ext, bits);
-    scratch_dir dir;
+    wane::test::scratch_dir dir{"audio_io"};
     const double full_scale = bits == 16 ? 32768.0 : 8388608.0;
     const auto top = static_cast<std::int64_t>(full_scale);
     // Values on the grid, covering both extremes and zero (exact ground truth).
@@ -218,7 +203,7 @@ TEST_CASE("PCM round trip is bit-exact in WAV, AIFF and FLAC at 16 and 24 bits",
 TEST_CASE("float32 round trip is exact in WAV and AIFF", "[audio_io]") {
     const std::string ext = GENERATE(as<std::string>{}, ".wav", ".aiff");
     CAPTURE(ext);
-    scratch_dir dir;
+    wane::test::scratch_dir dir{"audio_io"};
     test_rng rng;
     std::vector<float> x = {1.0f, -1.0f, 0.0f, std::numeric_limits<float>::min(), 1e-30f};
     for (int i = 0; i < 5000; ++i) {
@@ -235,7 +220,7 @@ TEST_CASE("float32 round trip is exact in WAV and AIFF", "[audio_io]") {
 }
 
 TEST_CASE("16-bit TPDF dither: grid values move at most 1 LSB, error moments as published", "[audio_io]") {
-    scratch_dir dir;
+    wane::test::scratch_dir dir{"audio_io"};
     constexpr double lsb = 1.0 / 32768.0;
     // Grid values: dither of two uniform +-0.5 LSB values sums to (-1, 1) LSB, so after rounding
     // a value on the grid lands on itself or a neighbour.
@@ -287,7 +272,7 @@ TEST_CASE("16-bit TPDF dither: grid values move at most 1 LSB, error moments as 
 }
 
 TEST_CASE("24-bit rounds to the nearest step", "[audio_io]") {
-    scratch_dir dir;
+    wane::test::scratch_dir dir{"audio_io"};
     constexpr double lsb = 1.0 / 8388608.0;
     // k + 0.25 and k - 0.3 steps: nearest is k (exact ground truth).
     std::vector<float> x;
@@ -309,7 +294,7 @@ TEST_CASE("24-bit rounds to the nearest step", "[audio_io]") {
 TEST_CASE("the root note is stored and read back (WAV, AIFF)", "[audio_io]") {
     const std::string ext = GENERATE(as<std::string>{}, ".wav", ".aiff");
     CAPTURE(ext);
-    scratch_dir dir;
+    wane::test::scratch_dir dir{"audio_io"};
     // 1001 frames of 24 bits: an odd-length sample chunk, so the AIFF INST chunk needs a pad byte.
     const std::vector<float> x(1001, 0.25f);
     write_audio(dir / ("with" + ext), x, 48000.0, {.root_midi = 62});
@@ -324,7 +309,7 @@ TEST_CASE("the root note is stored and read back (WAV, AIFF)", "[audio_io]") {
 }
 
 TEST_CASE("a 24-bit WAVE_FORMAT_EXTENSIBLE file written by sox reads back", "[audio_io]") {
-    scratch_dir dir;
+    wane::test::scratch_dir dir{"audio_io"};
     const fs::path file = dir / "t.wav";
     const std::string cmd = "sox -n -r 48000 -b 24 '" + file.string() + "' synth 1 sine 1000";
     REQUIRE(std::system(cmd.c_str()) == 0);
@@ -348,7 +333,7 @@ TEST_CASE("a 24-bit WAVE_FORMAT_EXTENSIBLE file written by sox reads back", "[au
 }
 
 TEST_CASE("other formats: 8-bit, 32-bit int, OGG Vorbis, multichannel mixing", "[audio_io]") {
-    scratch_dir dir;
+    wane::test::scratch_dir dir{"audio_io"};
     SECTION("8-bit unsigned WAV: v reads as (v - 128) / 128") {
         const std::string data = {static_cast<char>(0), static_cast<char>(128), static_cast<char>(255),
                                   static_cast<char>(192)};
@@ -478,7 +463,7 @@ TEST_CASE("parse_sample_format", "[audio_io]") {
 }
 
 TEST_CASE("bad inputs give an io_error naming the file", "[audio_io]") {
-    scratch_dir dir;
+    wane::test::scratch_dir dir{"audio_io"};
     // A valid 1000-frame 16-bit mono WAV at 48 kHz, and a stereo one.
     std::vector<int> ramp;
     for (int i = 0; i < 1000; ++i) ramp.push_back(i * 16 - 8000);
@@ -552,7 +537,7 @@ TEST_CASE("bad inputs give an io_error naming the file", "[audio_io]") {
 }
 
 TEST_CASE("a failed write names the path and leaves nothing behind", "[audio_io]") {
-    scratch_dir dir;
+    wane::test::scratch_dir dir{"audio_io"};
     fs::create_directory(dir / "out");
     write_bytes(dir / "a_file", "x");
     const fs::path out = dir / "out";

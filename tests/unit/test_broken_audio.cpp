@@ -25,6 +25,7 @@
 
 #include "io/audio_file.hpp"
 #include "io/errors.hpp"
+#include "test_support.hpp"
 
 using Catch::Matchers::Contains;
 using namespace wane;
@@ -32,21 +33,6 @@ namespace fs = std::filesystem;
 
 namespace {
 
-struct scratch_dir {
-    fs::path path;
-    scratch_dir() {
-        static std::atomic<int> counter{0};
-        path = fs::temp_directory_path() /
-               ("wane_test_broken_audio_" + std::to_string(::getpid()) + "_" + std::to_string(counter++));
-        fs::remove_all(path);
-        fs::create_directories(path);
-    }
-    ~scratch_dir() {
-        std::error_code ec;
-        fs::remove_all(path, ec);
-    }
-    fs::path operator/(const std::string& name) const { return path / name; }
-};
 
 std::string read_bytes(const fs::path& p) {
     std::ifstream f(p, std::ios::binary);
@@ -172,7 +158,7 @@ constexpr std::uint32_t billion_frames = 1000000000u;
 }  // namespace
 
 TEST_CASE("broken WAV files are refused naming the file", "[broken_audio]") {
-    scratch_dir dir;
+    wane::test::scratch_dir dir{"broken_audio"};
     // 0.1 s of 16-bit mono at 48 kHz: 4800 frames, 9600 data bytes.
     const std::string good = read_bytes(sox_make(dir / "good.wav", "-b 16 -c 1", "0.1 sine 440"));
     REQUIRE(read_audio(dir / "good.wav").samples.size() == 4800);
@@ -245,7 +231,7 @@ TEST_CASE("broken WAV files are refused naming the file", "[broken_audio]") {
 }
 
 TEST_CASE("broken AIFF files are refused naming the file", "[broken_audio]") {
-    scratch_dir dir;
+    wane::test::scratch_dir dir{"broken_audio"};
     const std::string good = read_bytes(sox_make(dir / "good.aiff", "-b 16 -c 1", "0.1 sine 440"));
     REQUIRE(read_audio(dir / "good.aiff").samples.size() == 4800);
     const std::size_t comm = chunk_offset(good, "COMM", true);
@@ -288,7 +274,7 @@ TEST_CASE("broken AIFF files are refused naming the file", "[broken_audio]") {
 }
 
 TEST_CASE("broken FLAC and OGG files are refused naming the file", "[broken_audio]") {
-    scratch_dir dir;
+    wane::test::scratch_dir dir{"broken_audio"};
     const auto save = [&](const std::string& name, const std::string& bytes) {
         write_bytes(dir / name, bytes);
         return dir / name;
@@ -342,7 +328,7 @@ TEST_CASE("broken FLAC and OGG files are refused naming the file", "[broken_audi
 }
 
 TEST_CASE("inputs over the size and length limits are refused naming the limit and its option", "[broken_audio]") {
-    scratch_dir dir;
+    wane::test::scratch_dir dir{"broken_audio"};
     const fs::path good = sox_make(dir / "good.wav", "-b 16 -c 1", "0.1 sine 440");  // 4800 frames, 9644 bytes
     const auto size = static_cast<std::uintmax_t>(fs::file_size(good));
     CAPTURE(size);
