@@ -5,15 +5,14 @@
 #include <cmath>
 #include <vector>
 
+#include "core/harmonics.hpp"
+
 namespace wane {
 
 namespace {
 
-/// Stiff-string partial n: n f0 sqrt(1 + B n^2) (Fletcher 1964).
-double series_freq(int n, double f0_hz, double b) {
-    const double nd = n;
-    return nd * f0_hz * std::sqrt(1.0 + b * nd * nd);
-}
+/// Stiff-string partial n (core/harmonics.hpp), argument order of this file.
+double series_freq(int n, double f0_hz, double b) { return stiff_partial_hz(f0_hz, b, n); }
 
 struct sieve_result {
     double explained = 0.0;

@@ -11,6 +11,7 @@
 #include <string>
 #include <vector>
 
+#include "core/harmonics.hpp"
 #include "core/units.hpp"
 #include "spectrum/peaks.hpp"
 #include "spectrum/stft.hpp"
@@ -445,7 +446,7 @@ tracking_result track_note(std::span<const float> samples, double sample_rate_hz
             if (t.harmonic > 0) {
                 // The band harmonic_number(f, f0, B, 2 x tolerance) maps to this n.
                 const double nd = t.harmonic;
-                const double guide_hz = nd * f0_hz * std::sqrt(1.0 + b * nd * nd);
+                const double guide_hz = stiff_partial_hz(f0_hz, b, t.harmonic);
                 const double tol = std::min(guide_tolerance_rel, 0.25 / nd);
                 t.guide_lo_hz = guide_hz * (1.0 - tol);
                 t.guide_hi_hz = guide_hz * (1.0 + tol);
