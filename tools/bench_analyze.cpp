@@ -31,6 +31,11 @@
 #include "io/audio_file.hpp"
 #include "synthesis/render.hpp"
 #include "tracking/tracker.hpp"
+#include "bench_timing.hpp"
+
+using wane::bench::median;
+using wane::bench::thread_cpu_s;
+using wane::bench::wall_s;
 
 namespace {
 
@@ -86,24 +91,6 @@ std::vector<float> make_synthetic_note() {
         }
     }
     return {acc.begin(), acc.end()};
-}
-
-double thread_cpu_s() {
-    timespec ts{};
-    clock_gettime(CLOCK_THREAD_CPUTIME_ID, &ts);
-    return static_cast<double>(ts.tv_sec) + 1e-9 * static_cast<double>(ts.tv_nsec);
-}
-
-double wall_s() {
-    timespec ts{};
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return static_cast<double>(ts.tv_sec) + 1e-9 * static_cast<double>(ts.tv_nsec);
-}
-
-double median(std::vector<double> v) {
-    std::sort(v.begin(), v.end());
-    const std::size_t m = v.size() / 2;
-    return v.size() % 2 ? v[m] : 0.5 * (v[m - 1] + v[m]);
 }
 
 void bench_note(const std::string& name, const std::vector<float>& x, double fs, int repeats) {

@@ -29,6 +29,11 @@
 #include "io/audio_file.hpp"
 #include "synthesis/noise_render.hpp"
 #include "synthesis/render.hpp"
+#include "bench_timing.hpp"
+
+using wane::bench::median;
+using wane::bench::thread_cpu_s;
+using wane::bench::wall_s;
 
 namespace {
 
@@ -78,18 +83,6 @@ std::vector<wane::noise_band> octave_bands(bool held) {
         bands.push_back(b);
     }
     return bands;
-}
-
-double thread_cpu_s() {
-    timespec ts{};
-    clock_gettime(CLOCK_THREAD_CPUTIME_ID, &ts);
-    return static_cast<double>(ts.tv_sec) + 1e-9 * static_cast<double>(ts.tv_nsec);
-}
-
-double median(std::vector<double> v) {
-    std::sort(v.begin(), v.end());
-    const std::size_t m = v.size() / 2;
-    return v.size() % 2 ? v[m] : 0.5 * (v[m - 1] + v[m]);
 }
 
 /// FNV-1a 64 over the samples' bits: shows whether two builds render the same noise bit for bit.

@@ -21,6 +21,11 @@
 #include "core/envelope.hpp"
 #include "core/patch.hpp"
 #include "synthesis/render.hpp"
+#include "bench_timing.hpp"
+
+using wane::bench::median;
+using wane::bench::thread_cpu_s;
+using wane::bench::wall_s;
 
 namespace {
 
@@ -73,20 +78,6 @@ std::vector<double> render_naive(const wane::patch& p, double rate_hz, std::size
         }
     }
     return out;
-}
-
-/// CPU time of this thread in seconds (CLOCK_THREAD_CPUTIME_ID): on a shared machine it leaves
-/// out the time the thread waits for a core, so it measures one core's throughput.
-double thread_cpu_s() {
-    timespec ts{};
-    clock_gettime(CLOCK_THREAD_CPUTIME_ID, &ts);
-    return static_cast<double>(ts.tv_sec) + 1e-9 * static_cast<double>(ts.tv_nsec);
-}
-
-double median(std::vector<double> v) {
-    std::sort(v.begin(), v.end());
-    const std::size_t m = v.size() / 2;
-    return v.size() % 2 ? v[m] : 0.5 * (v[m - 1] + v[m]);
 }
 
 }  // namespace
