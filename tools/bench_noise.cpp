@@ -1,6 +1,6 @@
 // Benchmark of a render's noise part against its partials (the budget: the noise part
 // costs no more than the partials of a 40-partial note). One thread, 4 s at 48 kHz, median thread
-// CPU time of several repeats, all cases measured in the same run:
+// CPU time of several repeats, all cases measured in the same run (48 kHz unless --rate):
 //   partials  - render_patch of 40 harmonics of 110 Hz (B = 1e-4, attack 2 ms, two decay
 //               segments with T60s like a plucked string's), include_noise off;
 //   typical   - add_noise_bands of the 9 octave bands of core/noise_bands.hpp with an attack
@@ -10,7 +10,7 @@
 //               when that file is readable (run from the source folder, or pass its path).
 // It prints each time and its ratio to the partials' time.
 //
-//   bench_noise [--repeats N] [DEMO_WAV]
+//   bench_noise [--repeats N] [--rate HZ] [DEMO_WAV]
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
@@ -37,7 +37,7 @@ using wane::bench::wall_s;
 
 namespace {
 
-constexpr double rate_hz = 48000.0;
+double rate_hz = 48000.0;  ///< --rate HZ
 constexpr double length_s = 4.0;
 constexpr int partial_count = 40;
 constexpr double f0_hz = 110.0;
@@ -124,8 +124,10 @@ int main(int argc, char** argv) {
     for (int i = 1; i < argc; ++i) {
         if (std::strcmp(argv[i], "--repeats") == 0 && i + 1 < argc) {
             repeats = std::max(1, std::atoi(argv[++i]));
+        } else if (std::strcmp(argv[i], "--rate") == 0 && i + 1 < argc) {
+            rate_hz = std::clamp(std::atof(argv[++i]), 8000.0, 192000.0);
         } else if (argv[i][0] == '-') {
-            std::fprintf(stderr, "usage: bench_noise [--repeats N] [DEMO_WAV]\n");
+            std::fprintf(stderr, "usage: bench_noise [--repeats N] [--rate HZ] [DEMO_WAV]\n");
             return 2;
         } else {
             demo = argv[i];

@@ -11,6 +11,7 @@
 
 #include "core/noise_bands.hpp"
 #include "core/units.hpp"
+#include "synthesis/kernel_clones.hpp"
 
 namespace wane {
 
@@ -35,6 +36,8 @@ struct splitmix64 {
 /// Frames overlap four times: Hann^2 windows sum to a constant at hop N/4, so the power follows
 /// the envelopes without ripple, and Hann's low sidelobes keep the bands' skirts steep.
 constexpr int synthesis_overlap = 4;
+/// Unit frames per band: one per overlapping frame, so frames that overlap never share one.
+constexpr int pool_frames = synthesis_overlap;
 constexpr int phase_table_bits = 12;
 constexpr std::size_t phase_table_size = std::size_t{1} << phase_table_bits;
 /// Frames whose every band is this far below full scale are skipped (silent, costs nothing).
@@ -64,6 +67,8 @@ struct band_bins {
     std::vector<envelope_piece> pieces;
     double peak_lin = 0.0;
     std::size_t piece = 0;
+    std::uint64_t pool_seed = 0;  ///< seed of this band's unit frames
+    bool pool_ready = false;
 };
 
 /// The band's level at time_s >= 0, the same arithmetic as envelope_level (core/envelope.cpp)
@@ -77,6 +82,41 @@ level_db band_level(band_bins& b, double time_s) {
     return level_db{p.start_level.db + p.slope_db_per_s * (time_s - p.start_s)};
 }
 
+// acc[n] += gain * src[n], n < count (a multiply, then an add: the same bits in every clone).
+WANE_KERNEL_CLONES
+void add_scaled(float* __restrict acc, const float* __restrict src, float gain, std::size_t count) {
+    for (std::size_t n = 0; n < count; ++n) acc[n] += gain * src[n];
+}
+
+// out[n] += frame[n] * window[n], n < count.
+WANE_KERNEL_CLONES
+void add_windowed(float* __restrict out, const float* __restrict frame, const float* __restrict window,
+                  std::size_t count) {
+    for (std::size_t n = 0; n < count; ++n) out[n] += frame[n] * window[n];
+}
+
+/// The band's pool: pool_frames periodic unit frames of n_fft samples, each stored twice in a row
+/// (2 n_fft floats), so a frame at any circular shift s is the contiguous [s, s + n_fft).
+/// Each is the unnormalized inverse real FFT of unit-magnitude bins with random phases inside the
+/// band (bins first .. first + count - 1), zero elsewhere.
+void make_pool(const band_bins& b, int n_fft, kiss_fftr_cfg plan, std::span<kiss_fft_cpx> spectrum,
+               std::span<float> pool) {
+    static const unit_phasors phasors;
+    const auto n = static_cast<std::size_t>(n_fft);
+    assert(pool.size() == static_cast<std::size_t>(pool_frames) * 2 * n);
+    splitmix64 rng{b.pool_seed};
+    for (int j = 0; j < pool_frames; ++j) {
+        std::fill(spectrum.begin(), spectrum.end(), kiss_fft_cpx{0.0f, 0.0f});
+        for (int k = 0; k < b.count; ++k) {
+            const std::size_t idx = static_cast<std::size_t>(rng.next() >> (64 - phase_table_bits));
+            spectrum[static_cast<std::size_t>(b.first) + static_cast<std::size_t>(k)] = {phasors.re[idx], phasors.im[idx]};
+        }
+        float* unit = pool.data() + static_cast<std::size_t>(j) * 2 * n;
+        kiss_fftri(plan, spectrum.data(), unit);
+        std::copy(unit, unit + n, unit + n);
+    }
+}
+
 }  // namespace
 
 int noise_frame_size(double sample_rate_hz, double frame_s) {
@@ -87,12 +127,14 @@ int noise_frame_size(double sample_rate_hz, double frame_s) {
 
 void add_noise_bands(std::span<const noise_band> bands, const noise_render_params& params, std::span<float> out) {
     if (bands.empty() || out.empty()) return;
-    static const unit_phasors phasors;
     const int n_fft = noise_frame_size(params.sample_rate_hz, params.frame_s);
     const int hop = n_fft / synthesis_overlap;
     const int n_bins = n_fft / 2 + 1;
     const double bin_hz = params.sample_rate_hz / n_fft;
     const double nyquist_hz = params.sample_rate_hz / 2.0;
+    int shift_bits = 0;  // n_fft = 2^shift_bits
+    while ((1 << shift_bits) < n_fft) ++shift_bits;
+    assert((1 << shift_bits) == n_fft);
 
     // Periodic Hann window; w^2 overlap-added at hop N/4 is exactly 3/2 = sum(w^2) / hop.
     std::vector<float> window(static_cast<std::size_t>(n_fft));
@@ -103,9 +145,14 @@ void add_noise_bands(std::span<const noise_band> bands, const noise_render_param
         window_power_sum += w * w;
     }
 
+    // Random streams: one seed per band for its pool, then the frames' shifts. Drawn in band
+    // order up front, so a band's noise does not depend on when (or whether) others sound.
+    splitmix64 rng{params.seed};
+
     // Bins of each band: centres in [low, high), DC and Nyquist excluded; at least one bin.
     std::vector<band_bins> layout;
     for (const noise_band& b : bands) {
+        const std::uint64_t pool_seed = rng.next();
         const double high_hz = std::min(b.high_hz, nyquist_hz);
         if (b.low_hz >= high_hz) continue;
         int first = std::max(1, static_cast<int>(std::ceil(b.low_hz / bin_hz)));
@@ -115,61 +162,58 @@ void add_noise_bands(std::span<const noise_band> bands, const noise_render_param
             last = first;
         }
         layout.push_back({.first = first, .count = last - first + 1, .band = &b, .pieces = envelope_pieces(b.env),
-                          .peak_lin = to_amp(b.env.peak).lin});
+                          .peak_lin = to_amp(b.env.peak).lin, .pool_seed = pool_seed});
     }
     if (layout.empty()) return;
 
+    const auto n = static_cast<std::size_t>(n_fft);
+    const std::size_t pool_floats = static_cast<std::size_t>(pool_frames) * 2 * n;
     const double gain_lin = to_amp(level_db{params.gain_db}).lin;
     const double inverse_scale = 1.0 / n_fft;  // kiss_fftri is unnormalized
     std::unique_ptr<kiss_fftr_state, kiss_cfg_deleter> plan(kiss_fftr_alloc(n_fft, 1, nullptr, nullptr));
     std::vector<kiss_fft_cpx> spectrum(static_cast<std::size_t>(n_bins));
-    std::vector<float> frame(static_cast<std::size_t>(n_fft));
+    std::vector<float> pools(layout.size() * pool_floats);  // filled when a band first sounds
+    std::vector<float> frame(n);
     std::vector<float> bin_amp(layout.size());
-    std::vector<bool> band_audible(layout.size());
-    std::uint64_t draws_per_frame = 0;
-    for (const band_bins& b : layout) draws_per_frame += static_cast<std::uint64_t>(b.count);
-    splitmix64 rng{params.seed};
 
     const auto total = static_cast<long>(out.size());
-    // Frame m is centred on sample m * hop and spans [m hop - N/2, m hop + N/2).
+    // Frame m is centred on sample m * hop and spans [m hop - N/2, m hop + N/2); it draws one
+    // shift per band (sounding or not), so a frame's noise does not depend on the others.
     for (long m = 0; m * hop - n_fft / 2 < total; ++m) {
         const double centre_s = static_cast<double>(m * hop) / params.sample_rate_hz;
         bool audible = false;
         for (std::size_t i = 0; i < layout.size(); ++i) {
             const level_db level = band_level(layout[i], centre_s);
-            band_audible[i] = level.db > silent_level_db;
-            audible = audible || band_audible[i];
-            const double amp = to_amp(level).lin;
-            const double band_power = amp * amp;
-            const double bin_power = bin_power_for_band(band_power, layout[i].count, n_fft, hop, window_power_sum);
-            bin_amp[i] = static_cast<float>(std::sqrt(bin_power) * gain_lin * inverse_scale);
-        }
-        // Every frame uses its own stretch of the random sequence (draws_per_frame phases, silent
-        // bands and frames skip theirs), so a frame's noise does not depend on the others.
-        if (!audible) {
-            rng.skip(draws_per_frame);
-            continue;
-        }
-        std::fill(spectrum.begin(), spectrum.end(), kiss_fft_cpx{0.0f, 0.0f});
-        for (std::size_t i = 0; i < layout.size(); ++i) {
-            if (!band_audible[i]) {  // below silent_level_db: left out, as whole silent frames are
-                rng.skip(static_cast<std::uint64_t>(layout[i].count));
+            if (!(level.db > silent_level_db)) {  // left out, as whole silent frames are
+                bin_amp[i] = 0.0f;
                 continue;
             }
-            const float a = bin_amp[i];
-            kiss_fft_cpx* bins = spectrum.data() + layout[i].first;
-            for (int k = 0; k < layout[i].count; ++k) {
-                const std::size_t idx = static_cast<std::size_t>(rng.next() >> (64 - phase_table_bits));
-                bins[k] = {a * phasors.re[idx], a * phasors.im[idx]};
-            }
+            audible = true;
+            const double amp = to_amp(level).lin;
+            const double bin_power = bin_power_for_band(amp * amp, layout[i].count, n_fft, hop, window_power_sum);
+            bin_amp[i] = static_cast<float>(std::sqrt(bin_power) * gain_lin * inverse_scale);
         }
-        kiss_fftri(plan.get(), spectrum.data(), frame.data());
+        if (!audible) {
+            rng.skip(layout.size());
+            continue;
+        }
+        std::fill(frame.begin(), frame.end(), 0.0f);
+        const auto pool_index = static_cast<std::size_t>(m % pool_frames);
+        for (std::size_t i = 0; i < layout.size(); ++i) {
+            const auto shift = static_cast<std::size_t>(rng.next() >> (64 - shift_bits));
+            if (bin_amp[i] == 0.0f) continue;
+            const std::span<float> pool(pools.data() + i * pool_floats, pool_floats);
+            if (!layout[i].pool_ready) {
+                make_pool(layout[i], n_fft, plan.get(), spectrum, pool);
+                layout[i].pool_ready = true;
+            }
+            add_scaled(frame.data(), pool.data() + pool_index * 2 * n + shift, bin_amp[i], n);
+        }
         const long start = m * hop - n_fft / 2;
         const long from = std::max(0L, -start);
         const long to = std::min<long>(n_fft, total - start);
-        for (long n = from; n < to; ++n) {
-            out[static_cast<std::size_t>(start + n)] += frame[static_cast<std::size_t>(n)] * window[static_cast<std::size_t>(n)];
-        }
+        add_windowed(out.data() + start + from, frame.data() + from, window.data() + from,
+                     static_cast<std::size_t>(to - from));
     }
 }
 

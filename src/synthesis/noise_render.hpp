@@ -1,11 +1,21 @@
-// Band noise of a patch's [[noise]] tables, by spectral shaping: short frames of random-phase
-// spectra whose bin magnitudes follow each band's envelope, inverse real FFT (KissFFT), Hann
-// window, overlap-add at a quarter frame (Hann^2 windows at 75% overlap sum to a constant, so the
-// power follows the envelopes without ripple). Band-limited by construction: only bins inside a
-// band carry energy, and the Hann window's sidelobes keep the skirts low (measured in
-// tests/unit/test_noise.cpp). Seeded and deterministic; frames where every band is below
-// -160 dB are skipped, and in the others the bins of bands below it are left empty (their random
-// phases skipped, not drawn), so attack noise costs only while it sounds.
+// Band noise of a patch's [[noise]] tables, by spectral shaping: short frames whose spectrum is
+// random-phase noise in each band's bins, with the bins' magnitude following the band's envelope,
+// Hann-windowed and overlap-added at a quarter frame (Hann^2 windows at 75% overlap sum to a
+// constant, so the power follows the envelopes without ripple). Band-limited by construction:
+// only bins inside a band carry energy, and the Hann window's sidelobes keep the skirts low
+// (measured in tests/unit/test_noise.cpp).
+//
+// Cost: a frame's band noise is not drawn and inverse-transformed afresh. Each band gets a pool
+// of `synthesis_overlap` periodic unit frames (inverse real FFT, KissFFT, of unit-magnitude bins
+// with seeded random phases inside the band), made once per render when the band first sounds.
+// Frame m takes pool frame m mod synthesis_overlap of every sounding band at a random circular
+// shift (a shift by s multiplies bin k by e^(j 2 pi k s / N): still unit magnitude, only the
+// band's bins), scaled by the band's bin magnitude at the frame's centre. So a frame is still a
+// random-phase spectrum with exactly the bins and magnitudes of the per-frame method, at N
+// multiply-adds per band instead of an inverse FFT per frame, and the frames that overlap never
+// share a pool frame (no coherent sums). Seeded and deterministic; frames where every band is
+// below -160 dB are skipped, and bands below it are left out of a frame, so attack noise costs
+// only while it sounds.
 #pragma once
 
 #include <cstdint>

@@ -17,6 +17,7 @@
 // smaller on average (error energy -128 dB in tests/unit/test_render.cpp).
 #include "synthesis/render.hpp"
 #include "synthesis/noise_render.hpp"
+#include "synthesis/kernel_clones.hpp"
 
 #include <algorithm>
 #include <array>
@@ -40,16 +41,6 @@ constexpr std::size_t partials_per_flush = 32;
 constexpr double neper_per_db = 1.0 / db_per_neper;
 /// The silence floor in nepers of amplitude.
 constexpr double ln_silence_amp = render_silence_level.db * neper_per_db;
-
-#if defined(__x86_64__) && defined(__has_attribute)
-#if __has_attribute(target_clones)
-// AVX2 without FMA on purpose: both clones then do the same IEEE operations, bit for bit.
-#define WANE_KERNEL_CLONES __attribute__((target_clones("avx2", "default")))
-#endif
-#endif
-#ifndef WANE_KERNEL_CLONES
-#define WANE_KERNEL_CLONES
-#endif
 
 /// The kernels' vector type: 8 floats (one AVX register, two SSE registers in the generic clone).
 /// GCC/Clang vector extensions: the lane arithmetic is written once and each clone gets the

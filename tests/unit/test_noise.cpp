@@ -170,6 +170,87 @@ TEST_CASE("a rendered band has the asked level inside its edges and nothing outs
     CHECK(10.0 * std::log10(outside / inside) < -75.0);  // measured -81.5 dB (seed 5)
 }
 
+TEST_CASE("a held band is noise without lines or repeats: periodogram statistics, autocorrelation", "[noise]") {
+    // The renderer reuses a few unit frames per band at random circular shifts (synthesis/
+    // noise_render.hpp); the sum must still be a stationary Gaussian-like noise. Two checks:
+    // 1. Rectangular-window periodogram at 0.5 Hz resolution inside the band: for Gaussian noise
+    //    with a flat spectrum each bin is exponentially distributed (chi-square, 2 degrees of
+    //    freedom), so ln(P / mean P) has mean -gamma (Euler-Mascheroni) and variance pi^2 / 6 (the
+    //    log of an exponential variable is Gumbel-distributed; from memory). Spectral lines (a
+    //    repeating frame) or a deterministic comb would move both far away.
+    // 2. Normalized autocorrelation at lags from one frame to half the stretch: no peak (a
+    //    repeated stretch of noise shows as a peak near 1). Bound: 2000 Hz x 2 s = 4000
+    //    independent samples give a standard deviation of about 1/sqrt(4000) = 0.016 per lag.
+    const double low_hz = 1000.0, high_hz = 2000.0;
+    const std::uint64_t seed = GENERATE(as<std::uint64_t>{}, 3, 17);
+    CAPTURE(seed);
+    const noise_band band{.low_hz = low_hz, .high_hz = high_hz,
+                          .env = {.attack_s = 0.0, .peak = level_db{-20.0}, .decay = {{.t60_s = infinity, .until_s = {}}}}};
+    std::vector<float> out(static_cast<std::size_t>(rate_hz * 3.0), 0.0f);
+    add_noise_bands(std::span(&band, 1), {.sample_rate_hz = rate_hz, .seed = seed}, out);
+    const std::size_t n = static_cast<std::size_t>(rate_hz * 2.0);  // the steady middle 2 s
+    std::vector<double> x(2 * n, 0.0);                                   // zero-padded for the autocorrelation
+    for (std::size_t i = 0; i < n; ++i) x[i] = static_cast<double>(out[out.size() / 6 + i]);
+
+    // 1. Periodogram of the 2 s (rectangular window, bins rate / n = 0.5 Hz), 1.1 .. 1.9 kHz.
+    std::vector<double> head(x.begin(), x.begin() + static_cast<std::ptrdiff_t>(n));
+    auto* spec = static_cast<fftw_complex*>(fftw_malloc(sizeof(fftw_complex) * (n + 1)));
+    fftw_plan p = fftw_plan_dft_r2c_1d(static_cast<int>(n), head.data(), spec, FFTW_ESTIMATE);
+    fftw_execute(p);
+    fftw_destroy_plan(p);
+    std::vector<double> bins;
+    for (std::size_t k = 0; k <= n / 2; ++k) {
+        const double f = static_cast<double>(k) * rate_hz / static_cast<double>(n);
+        if (f >= 1100.0 && f < 1900.0) bins.push_back(spec[k][0] * spec[k][0] + spec[k][1] * spec[k][1]);
+    }
+    fftw_free(spec);
+    double mean_power = 0.0;
+    for (double b : bins) mean_power += b;
+    mean_power /= static_cast<double>(bins.size());
+    double mean_log = 0.0, mean_log_sq = 0.0;
+    for (double b : bins) {
+        const double l = std::log(b / mean_power);
+        mean_log += l;
+        mean_log_sq += l * l;
+    }
+    mean_log /= static_cast<double>(bins.size());
+    const double var_log = mean_log_sq / static_cast<double>(bins.size()) - mean_log * mean_log;
+    const double euler_gamma = 0.5772156649015329;
+    const double pi = 3.141592653589793;
+    CAPTURE(bins.size(), mean_log, var_log);
+    // 1600 bins: standard errors about 0.032 (mean) and 0.09 (variance); tolerances ~3.5 of them.
+    CHECK_THAT(mean_log, WithinAbs(-euler_gamma, 0.11));
+    CHECK_THAT(var_log, WithinAbs(pi * pi / 6.0, 0.3));
+
+    // 2. Autocorrelation by FFTW (|X|^2 of the zero-padded stretch, inverse), normalized by lag 0.
+    auto* full = static_cast<fftw_complex*>(fftw_malloc(sizeof(fftw_complex) * (n + 1)));
+    fftw_plan fwd = fftw_plan_dft_r2c_1d(static_cast<int>(2 * n), x.data(), full, FFTW_ESTIMATE);
+    fftw_execute(fwd);
+    for (std::size_t k = 0; k <= n; ++k) {
+        full[k][0] = full[k][0] * full[k][0] + full[k][1] * full[k][1];
+        full[k][1] = 0.0;
+    }
+    std::vector<double> r(2 * n);
+    fftw_plan inv = fftw_plan_dft_c2r_1d(static_cast<int>(2 * n), full, r.data(), FFTW_ESTIMATE);
+    fftw_execute(inv);
+    fftw_destroy_plan(fwd);
+    fftw_destroy_plan(inv);
+    fftw_free(full);
+    const auto first_lag = static_cast<std::size_t>(noise_frame_size(rate_hz, noise_render_params{}.frame_s));
+    double worst = 0.0;
+    std::size_t worst_lag = 0;
+    for (std::size_t lag = first_lag; lag < n / 2; ++lag) {
+        // Unbiased: each lag's sum has n - lag products.
+        const double rho = (r[lag] / static_cast<double>(n - lag)) / (r[0] / static_cast<double>(n));
+        if (std::abs(rho) > worst) {
+            worst = std::abs(rho);
+            worst_lag = lag;
+        }
+    }
+    CAPTURE(worst, worst_lag);
+    CHECK(worst < 0.12);
+}
+
 TEST_CASE("a patch with noise bands renders bit-identically with the same seed", "[noise]") {
     patch p;
     p.note.length_s = 1.0;
