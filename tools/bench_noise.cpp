@@ -125,7 +125,11 @@ int main(int argc, char** argv) {
         if (std::strcmp(argv[i], "--repeats") == 0 && i + 1 < argc) {
             repeats = std::max(1, std::atoi(argv[++i]));
         } else if (std::strcmp(argv[i], "--rate") == 0 && i + 1 < argc) {
-            rate_hz = std::clamp(std::atof(argv[++i]), 8000.0, 192000.0);
+            rate_hz = std::atof(argv[++i]);
+            if (!(rate_hz >= 8000.0 && rate_hz <= 192000.0)) {
+                std::fprintf(stderr, "bench_noise: --rate %s: need 8000 .. 192000 Hz\n", argv[i]);
+                return 2;
+            }
         } else if (argv[i][0] == '-') {
             std::fprintf(stderr, "usage: bench_noise [--repeats N] [--rate HZ] [DEMO_WAV]\n");
             return 2;

@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <array>
+#include <bit>
 #include <cassert>
 #include <cmath>
 #include <memory>
@@ -132,9 +133,8 @@ void add_noise_bands(std::span<const noise_band> bands, const noise_render_param
     const int n_bins = n_fft / 2 + 1;
     const double bin_hz = params.sample_rate_hz / n_fft;
     const double nyquist_hz = params.sample_rate_hz / 2.0;
-    int shift_bits = 0;  // n_fft = 2^shift_bits
-    while ((1 << shift_bits) < n_fft) ++shift_bits;
-    assert((1 << shift_bits) == n_fft);
+    assert(std::has_single_bit(static_cast<unsigned>(n_fft)));
+    const int shift_bits = std::countr_zero(static_cast<unsigned>(n_fft));  // n_fft = 2^shift_bits
 
     // Periodic Hann window; w^2 overlap-added at hop N/4 is exactly 3/2 = sum(w^2) / hop.
     std::vector<float> window(static_cast<std::size_t>(n_fft));
