@@ -20,6 +20,7 @@
 #include <vector>
 
 #include "cli/common.hpp"
+#include "cli/length_options.hpp"
 #include "cli/transform_options.hpp"
 #include "io/atomic_file.hpp"
 #include "io/audio_file.hpp"
@@ -67,6 +68,7 @@ struct keymap_options {
     double rate_hz = default_keymap_rate_hz;
     std::string bits = "24";
     int threads = 0;
+    length_cli length;
     transform_cli transforms;
 };
 
@@ -138,6 +140,7 @@ int run_keymap(keymap_options o) {
     const auto format = parse_sample_format(o.bits);
     if (!format) throw usage_error("--bits: must be 16, 24 or 32f, not '" + o.bits + "'");
     if (o.threads < 0) throw usage_error("--threads: must be 0 (all cores) or more");
+    check_length_options(o.length);
     const int threads = o.threads > 0 ? o.threads : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
 
     const std::filesystem::path in{o.input};
@@ -179,8 +182,10 @@ int run_keymap(keymap_options o) {
             const std::string option = e.param == "to_midi" ? "--notes" : transform_option_name(e.param);
             throw std::runtime_error(o.input + ": " + option + ": note " + note_name(j.root_midi) + ": " + e.what());
         }
-        renders.push_back({.sample_rate_hz = o.rate_hz, .noise_seed = derive_seed(j.seed, noise_seed_salt)});
-        check_render_budget(patches.back(), o.rate_hz, 0.0, in);
+        const double length_s = chosen_length_s(patches.back(), o.length, o.input + ": note " + note_name(j.root_midi));
+        renders.push_back({.sample_rate_hz = o.rate_hz, .length_s = length_s,
+                           .noise_seed = derive_seed(j.seed, noise_seed_salt)});
+        check_render_budget(patches.back(), o.rate_hz, length_s, in);
     }
 
     const std::filesystem::path dir{o.output_dir};
@@ -266,8 +271,10 @@ void add_keymap_command(CLI::App& app, command_registry& reg) {
     sub->add_option("--rate", opts->rate_hz, "Sample rate of the WAV files, Hz")->capture_default_str();
     sub->add_option("--bits", opts->bits, "Sample format: 16, 24 or 32f")->capture_default_str();
     sub->add_option("--threads", opts->threads, "Render threads (0 = all cores)")->capture_default_str();
+    add_length_options(sub, opts->length);
     add_transform_options(sub, opts->transforms);
-    sub->footer("Examples:\n  wane keymap pluck.toml -o pluck-set --notes C2..C6 --every 3 --layers 3 --variants 2");
+    sub->footer("Examples:\n  wane keymap pluck.toml -o pluck-set --notes C2..C6 --every 3 --layers 3 --variants 2\n"
+                "  wane keymap pluck.toml -o pluck-set --notes C2..C6 --every 3 --until-db -90");
     reg.add(sub, [opts] { return run_keymap(*opts); });
 }
 

@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "cli/common.hpp"
+#include "cli/length_options.hpp"
 #include "cli/transform_options.hpp"
 #include "io/limits.hpp"
 #include "core/patch.hpp"
@@ -37,7 +38,7 @@ struct render_options {
     std::filesystem::path out_path;
     double rate_hz = default_rate_hz;
     std::string bits = "24";
-    std::optional<double> length_s;
+    length_cli length;
     double gain_db = 0.0;
     std::optional<double> normalize_db;
     bool no_noise = false;
@@ -80,10 +81,7 @@ int run_render(const render_options& o) {
         throw std::runtime_error(printf_str("--rate %g: must be a whole number of Hz from %.0f to %.0f",
                                             o.rate_hz, min_render_rate_hz, max_render_rate_hz));
     }
-    if (o.length_s && !(*o.length_s > 0.0 && *o.length_s <= max_length_s)) {
-        throw std::runtime_error(printf_str("--length-s %g: must be more than 0 and at most %.0f s",
-                                            *o.length_s, max_length_s));
-    }
+    check_length_options(o.length);
     if (!std::isfinite(o.gain_db)) throw usage_error("--gain-db: must be a finite number of dB");
     if (o.normalize_db && !(*o.normalize_db <= 0.0 && std::isfinite(*o.normalize_db))) {
         throw usage_error(printf_str("--normalize-db %g: must be at most 0 dBFS", *o.normalize_db));
@@ -97,15 +95,16 @@ int run_render(const render_options& o) {
     for (const std::string& w : r.warnings) warn(w);
     const patch p = apply_transforms_checked(r.value, tp, o.rate_hz, o.patch_path.string());
     // The noise bands' seed is the variation seed, so one --seed fixes the whole variant.
-    const render_params params{.sample_rate_hz = o.rate_hz, .length_s = o.length_s.value_or(0.0),
+    const std::string patch_name = o.patch_path.string();
+    const double length_s = chosen_length_s(p, o.length, patch_name);
+    const render_params params{.sample_rate_hz = o.rate_hz, .length_s = length_s,
                                .gain_db = o.gain_db, .include_noise = !o.no_noise, .noise_gain_db = o.noise_db,
                                .noise_seed = o.transforms.seed};
-    const std::string patch_name = o.patch_path.string();
     if (static_cast<double>(render_frames(p, params)) > max_length_s * o.rate_hz) {
         throw std::runtime_error(patch_name + ": render would last longer than the " +
                                  printf_str("%.0f", max_length_s) + " s limit");
     }
-    check_render_budget(p, o.rate_hz, o.length_s.value_or(0.0), o.patch_path);
+    check_render_budget(p, o.rate_hz, length_s, o.patch_path);
 
     const render_summary summary = summarize_render(p, params);
     if (summary.partials_above_nyquist > 0) {
@@ -175,7 +174,7 @@ void add_render_command(CLI::App& app, command_registry& reg) {
     sub->add_option("-o,--output", o.out_path, "Audio file to write (.wav, .aif/.aiff, .flac)")->required();
     sub->add_option("--rate", o.rate_hz, "Output sample rate in Hz, 8000 to 192000")->default_val(default_rate_hz);
     sub->add_option("--bits", o.bits, "Sample format: 16 (with TPDF dither), 24 or 32f")->default_val("24");
-    sub->add_option("--length-s", o.length_s, "Render length in seconds, at most 600 (default: the patch's note.length_s)");
+    add_length_options(sub, o.length);
     sub->add_option("--gain-db", o.gain_db, "Gain in dB, added to the patch's note.gain_db")->default_val(0.0);
     sub->add_option("--normalize-db", o.normalize_db,
                     "Scale the render so its peak is at this level in dBFS (at most 0), e.g. -1");
@@ -188,6 +187,7 @@ void add_render_command(CLI::App& app, command_registry& reg) {
         "Examples:\n"
         "  wane render patches/steel-pluck.toml -o pluck.wav\n"
         "  wane render note.toml -o note-44k.wav --rate 44100 --bits 16 --normalize-db -1\n"
+        "  wane render note.toml -o tail.wav --until-db -90\n"
         "  wane render note.toml -o fifth-up.wav --transpose 7 --decay-follows-pitch");
     reg.add(sub, [] { return run_render(o); });
 }
