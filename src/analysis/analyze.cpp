@@ -36,6 +36,26 @@ void add_noise_model(patch& p, std::span<const float> part, double sample_rate_h
     p.noise = fit_note_noise(part.subspan(onset), sample_rate_hz, p, noise_params);
 }
 
+/// A recording cut while the note sounds: every partial's and band's decay runs on past the cut,
+/// and the patch says where the cut was (analysis/recording_end.hpp, analysis/cut_tail.hpp).
+/// fitted[i] is partial i's track and fitted stretch.
+void apply_recording_end(analysis_result& out, std::span<const float> part, double sample_rate_hz,
+                         std::vector<cut_part> fitted, const analysis_params& params) {
+    const auto onset = static_cast<std::size_t>(std::llround(out.tracking.onset_s * sample_rate_hz));
+    if (onset >= part.size()) return;
+    out.summary.end = classify_recording_end(part.subspan(onset), sample_rate_hz, params.recording_end);
+    if (out.summary.end.kind != end_kind::cut) return;
+    patch& p = out.value;
+    p.source.cut_s = out.summary.end.length_s;
+    assert(fitted.size() == p.partials.size());
+    for (std::size_t i = 0; i < fitted.size(); ++i) fitted[i].env = &p.partials[i].env;
+    for (noise_band& b : p.noise)
+        fitted.push_back({.env = &b.env, .track = nullptr, .fit_start_s = 0.0, .fit_end_s = out.summary.end.length_s});
+    out.summary.continued_past_cut = continue_decays_past_cut(fitted, out.summary.end.length_s, params.cut_tail);
+    out.summary.segments = 0;
+    for (const partial& q : p.partials) out.summary.segments += static_cast<int>(q.env.decay.size());
+}
+
 }  // namespace
 
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
@@ -64,6 +84,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     const envelope_fit_params fit_params{.max_segments = params.max_segments, .window_s = tr.window_s};
     patch& p = out.value;
     double sq_error = 0.0, frames = 0.0;
+    std::vector<cut_part> fitted;  // per partial: its track and fitted stretch (env set later)
     for (const partial_track& track : tr.tracks) {
         const auto fit = fit_partial(track, fit_params);
         // A fit whose peak lies beyond what the format holds is no partial of this note.
@@ -73,6 +94,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         }
         p.partials.push_back({.freq_hz = fit->freq_hz, .harmonic = track.harmonic, .phase_rad = fit->phase_rad,
                               .env = fit->env});
+        fitted.push_back({.env = nullptr, .track = &track, .fit_start_s = fit->fit_start_s, .fit_end_s = fit->fit_end_s});
         out.summary.segments += static_cast<int>(fit->env.decay.size());
         sq_error += fit->weighted_sq_error_db2;
         frames += fit->weight_sum;
@@ -94,6 +116,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     p.source.analysis = analysis_settings{.window = std::string(window_name(window_kind::blackman_harris_4)),
                                           .fft_size = tr.fft_size, .window_s = tr.window_s, .hop_s = tr.hop_s};
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);
+    apply_recording_end(out, part, sample_rate_hz, fitted, params);
     canonicalize(p);
     return out;
 }

@@ -4,7 +4,9 @@
 #include <span>
 #include <string>
 
+#include "analysis/cut_tail.hpp"
 #include "analysis/noise_model.hpp"
+#include "analysis/recording_end.hpp"
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "tracking/tracker.hpp"
@@ -20,6 +22,8 @@ struct analysis_params {
     std::string note_name;    ///< [note].name
     bool noise_model = true;  ///< fit [[noise]] bands to the residual (analysis/noise_model.hpp)
     noise_model_params noise{};
+    recording_end_params recording_end{};
+    cut_tail_params cut_tail{};
 };
 
 struct analysis_summary {
@@ -28,6 +32,8 @@ struct analysis_summary {
     double fit_error_db = 0.0; ///< RMS error of the envelope fits over all fitted frames, dB
     int tracks = 0;            ///< tracks the tracker returned
     int unfitted = 0;          ///< tracks dropped: fewer than two frames clear of the floor
+    recording_end end{};       ///< how the recording ends (analysis/recording_end.hpp)
+    int continued_past_cut = 0;  ///< partials and bands whose last segment was made to fall (cut_tail.hpp)
 };
 
 struct analysis_result {

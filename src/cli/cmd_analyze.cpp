@@ -142,7 +142,16 @@ std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t
     char buf[128];
     std::snprintf(buf, sizeof buf, ": %d partials, %d segments, fit error %.2f dB, %ju bytes", s.partials,
                   s.segments, s.fit_error_db, bytes);
-    return j.input.string() + " -> " + j.output.string() + buf;
+    std::string line = j.input.string() + " -> " + j.output.string() + buf;
+    if (s.end.kind == end_kind::cut) {
+        std::snprintf(buf, sizeof buf, "; cut at %.3f s while sounding (%.1f dB under the peak): %d decays run on past it",
+                      s.end.length_s, s.end.end_below_peak_db, s.continued_past_cut);
+        line += buf;
+    } else if (s.end.kind == end_kind::holds) {
+        std::snprintf(buf, sizeof buf, "; holds its level for the last %.2f s", s.end.held_s);
+        line += buf;
+    }
+    return line;
 }
 
 /// Analyzes one file and writes its patch; returns the summary line. Throws with a message that

@@ -36,6 +36,9 @@ struct source_info {
     std::string file;
     double sample_rate_hz = 0.0;
     double onset_s = 0.0;  ///< where the note starts in the source
+    /// Seconds from the onset at which the recording stops while the note still sounds (key cut_s);
+    /// empty when the note decays, or holds, to the recording's end.
+    std::optional<double> cut_s;
     std::optional<analysis_settings> analysis;
     friend bool operator==(const source_info&, const source_info&) = default;
 };

@@ -163,6 +163,7 @@ void round_to_file_precision(patch& p) {
     p.note.gain_db = rounded(p.note.gain_db, fmt_level);
     p.source.sample_rate_hz = rounded(p.source.sample_rate_hz, fmt_rate);
     p.source.onset_s = rounded(p.source.onset_s, fmt_align);
+    if (p.source.cut_s) p.source.cut_s = rounded(*p.source.cut_s, fmt_time);
     if (p.source.analysis) {
         p.source.analysis->window_s = rounded(p.source.analysis->window_s, fmt_align);
         p.source.analysis->hop_s = rounded(p.source.analysis->hop_s, fmt_align);
@@ -387,6 +388,7 @@ struct validator {
         text("source.file", p.source.file);
         within("source.sample_rate_hz", p.source.sample_rate_hz, 0.0, max_sample_rate_hz, " Hz");
         within("source.onset_s", p.source.onset_s, 0.0, max_onset_s, " s");
+        if (p.source.cut_s) within("source.cut_s", *p.source.cut_s, 0.0, max_onset_s, " s", true);
         if (p.source.analysis) {
             const analysis_settings& a = *p.source.analysis;
             text("source.analysis.window", a.window);
@@ -492,7 +494,7 @@ std::string unknown_key_text(std::string_view key, std::span<const std::string_v
 
 constexpr std::string_view top_keys[] = {"format", "version", "note", "source", "partial", "noise"};
 constexpr std::string_view note_keys[] = {"name", "f0_hz", "length_s", "inharmonicity_b", "gain_db"};
-constexpr std::string_view source_keys[] = {"file", "sample_rate_hz", "onset_s", "analysis"};
+constexpr std::string_view source_keys[] = {"file", "sample_rate_hz", "onset_s", "cut_s", "analysis"};
 constexpr std::string_view analysis_keys[] = {"window", "fft_size", "window_s", "hop_s"};
 constexpr std::string_view partial_keys[] = {"freq_hz", "harmonic", "phase_rad", "attack_s", "peak_db", "decay"};
 constexpr std::string_view noise_keys[] = {"low_hz", "high_hz", "attack_s", "peak_db", "decay"};
@@ -560,6 +562,7 @@ public:
             p.source.file = get_string(*src, "file", "source.file").value_or("");
             p.source.sample_rate_hz = get_number(*src, "sample_rate_hz", "source.sample_rate_hz").value_or(0.0);
             p.source.onset_s = get_number(*src, "onset_s", "source.onset_s").value_or(0.0);
+            p.source.cut_s = get_number(*src, "cut_s", "source.cut_s");
             if (const toml::table* an = optional_table(*src, "analysis", "source.analysis")) {
                 expect_keys(*an, analysis_keys);
                 analysis_settings a;
@@ -867,6 +870,7 @@ std::string format_text(const patch& p) {
     out << "file = " << toml_string(p.source.file) << '\n';
     out << "sample_rate_hz = " << fmt_rate(p.source.sample_rate_hz) << '\n';
     out << "onset_s = " << fmt_align(p.source.onset_s) << '\n';
+    if (p.source.cut_s) out << "cut_s = " << fmt_time(*p.source.cut_s) << '\n';
     if (p.source.analysis) {
         const analysis_settings& a = *p.source.analysis;
         out << "\n[source.analysis]\n";

@@ -1,0 +1,95 @@
+#include "analysis/cut_tail.hpp"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+#include <optional>
+#include <vector>
+
+namespace wane {
+
+namespace {
+
+bool steep_enough(double slope_db_per_s, const cut_tail_params& params) {
+    return slope_db_per_s <= -params.min_decay_db_per_s;
+}
+
+double last_segment_start_s(const envelope& env) {
+    return env.decay.size() > 1 ? env.decay[env.decay.size() - 2].until_s.value_or(env.attack_s) : env.attack_s;
+}
+
+/// Whether the part's last segment falls: steep enough, and by min_fall_db over its fitted stretch.
+bool last_segment_falls(const cut_part& part, const cut_tail_params& params) {
+    const double slope = t60_to_slope_db_per_s(part.env->decay.back().t60_s);
+    if (!steep_enough(slope, params)) return false;
+    return -slope * std::max(0.0, part.fit_end_s - last_segment_start_s(*part.env)) >= params.min_fall_db;
+}
+
+/// Least-squares slope of the track's level (dB) over the part's fitted stretch, dB per second.
+std::optional<double> level_slope(const cut_part& part) {
+    if (part.track == nullptr) return std::nullopt;
+    double n = 0.0, st = 0.0, sl = 0.0, stt = 0.0, stl = 0.0;
+    for (const track_point& q : part.track->points) {
+        if (q.time_s < part.fit_start_s || q.time_s > part.fit_end_s) continue;
+        n += 1.0;
+        st += q.time_s;
+        sl += q.level_db;
+        stt += q.time_s * q.time_s;
+        stl += q.time_s * q.level_db;
+    }
+    if (n < 3.0) return std::nullopt;
+    const double var = stt - st * st / n;
+    if (!(var > 0.0)) return std::nullopt;
+    return (stl - st * sl / n) / var;
+}
+
+/// Rules 1 and 2: the slope the part falls at after the cut, when its own data show one.
+std::optional<double> own_decay(const cut_part& part, const cut_tail_params& params) {
+    const envelope& env = *part.env;
+    if (env.decay.size() >= 2) {
+        const double before = t60_to_slope_db_per_s(env.decay[env.decay.size() - 2].t60_s);
+        if (steep_enough(before, params)) return before;
+    }
+    const auto slope = level_slope(part);
+    if (slope && steep_enough(*slope, params)) return slope;
+    return std::nullopt;
+}
+
+/// Keeps the plateau up to the cut and falls at slope_db_per_s after it.
+void fall_after(envelope& env, double cut_s, double slope_db_per_s) {
+    const double t60_s = slope_db_per_s_to_t60(slope_db_per_s);
+    if (cut_s > last_segment_start_s(env)) {
+        env.decay.back().until_s = cut_s;
+        env.decay.push_back({.t60_s = t60_s, .until_s = {}});
+    } else {
+        env.decay.back().t60_s = t60_s;
+    }
+}
+
+}  // namespace
+
+int continue_decays_past_cut(std::span<const cut_part> parts, double cut_s, const cut_tail_params& params) {
+    std::vector<const cut_part*> plateaus;
+    std::vector<std::optional<double>> own;
+    std::vector<double> falling;
+    for (const cut_part& part : parts) {
+        assert(part.env != nullptr && !part.env->decay.empty());
+        if (last_segment_falls(part, params)) {
+            falling.push_back(t60_to_slope_db_per_s(part.env->decay.back().t60_s));
+            continue;
+        }
+        plateaus.push_back(&part);
+        own.push_back(own_decay(part, params));
+        if (own.back()) falling.push_back(*own.back());
+    }
+    double median = -params.min_decay_db_per_s;  // rule 4
+    if (!falling.empty()) {                      // rule 3
+        std::nth_element(falling.begin(), falling.begin() + static_cast<std::ptrdiff_t>(falling.size() / 2),
+                         falling.end());
+        median = falling[falling.size() / 2];
+    }
+    for (std::size_t i = 0; i < plateaus.size(); ++i) fall_after(*plateaus[i]->env, cut_s, own[i].value_or(median));
+    return static_cast<int>(plateaus.size());
+}
+
+}  // namespace wane

@@ -1,0 +1,44 @@
+// Decays that run on past a cut. When a recording stops while the note still sounds
+// (analysis/recording_end.hpp), the level at its end is neither a hold nor the end of the decay:
+// every partial's and noise band's last segment must keep falling after the cut.
+//
+// A last segment falls when its slope is at least min_decay_db_per_s down AND it fell at least
+// min_fall_db over the stretch it was fitted on; otherwise it is a plateau (the level an unfinished
+// or looped recording leaves at its end, or a rising stretch). The plateau is kept up to the cut
+// (the copy stays faithful to what was recorded) and a segment after the cut falls at, in this order,
+//  1. the slope of the segment before the plateau, when that one falls: the part that decays;
+//  2. the least-squares slope of the partial's measured level over its fitted stretch, when it falls;
+//  3. the median last slope of the note's falling partials and bands (one resonator, one damping);
+//  4. min_decay_db_per_s.
+#pragma once
+
+#include <span>
+
+#include "core/envelope.hpp"
+#include "tracking/track.hpp"
+
+namespace wane {
+
+struct cut_tail_params {
+    /// Slowest fall a part of a cut note is given, dB per second (T60 = 60 s). Reasoned choice: a
+    /// recording of a few seconds cannot establish a longer T60, and a longer one renders as a drone.
+    double min_decay_db_per_s = 1.0;
+    /// Least fall of a last segment over its fitted stretch, dB. Reasoned choice: level wobbles of
+    /// beating partials and noise reach a few dB, so a smaller fall does not show a decay.
+    double min_fall_db = 3.0;
+};
+
+/// One part of the note whose decay may need to run on: its envelope, the track it was fitted to
+/// (null for a noise band) and the stretch of time the fit used, seconds from the onset.
+struct cut_part {
+    envelope* env = nullptr;
+    const partial_track* track = nullptr;
+    double fit_start_s = 0.0;
+    double fit_end_s = 0.0;
+};
+
+/// Makes every part's last segment fall after cut_s, seconds from the onset (rules above). Returns
+/// how many parts were changed.
+int continue_decays_past_cut(std::span<const cut_part> parts, double cut_s, const cut_tail_params& params = {});
+
+}  // namespace wane

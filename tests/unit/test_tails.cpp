@@ -1,0 +1,192 @@
+// Tails: recordings cut while the note sounds (analysis/recording_end, analysis/cut_tail) and the
+// render length that follows the sound (synthesis/render_length). References: exact ground truth
+// of synthetic notes (exponential decays written here, independently of the renderer), and the
+// real notes in tests/data/real-notes (their README says which recordings were cut).
+#include <catch2/catch.hpp>
+
+#include <cmath>
+#include <string>
+#include <vector>
+
+#include "analysis/analyze.hpp"
+#include "io/audio_file.hpp"
+#include "synthesis/render.hpp"
+#include "synthesis/render_length.hpp"
+
+using Catch::Matchers::WithinAbs;
+using Catch::Matchers::WithinRel;
+using namespace wane;
+
+namespace {
+
+constexpr double rate_hz = 48000.0;
+constexpr double pi = 3.141592653589793;
+
+/// splitmix64 -> uniform (0, 1) -> Gaussian by Box-Muller: a fixed-seed white noise of our own.
+struct test_rng {
+    std::uint64_t s;
+    double uniform() {
+        std::uint64_t z = (s += 0x9e3779b97f4a7c15ULL);
+        z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
+        z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
+        z ^= z >> 31;
+        return (static_cast<double>(z >> 11) + 0.5) / 9007199254740992.0;
+    }
+    double gauss() { return std::sqrt(-2.0 * std::log(uniform())) * std::cos(2.0 * pi * uniform()); }
+};
+
+struct mode_truth {
+    double freq_hz;
+    double peak_db;
+    double t60_s;
+};
+
+/// Harmonics of 220 Hz, each a pure exponential decay from t = lead_s, plus white noise at
+/// -100 dB RMS; the recording stops at cut_s after the onset.
+std::vector<float> decaying_note(const std::vector<mode_truth>& modes, double lead_s, double cut_s) {
+    const auto lead = static_cast<std::size_t>(lead_s * rate_hz);
+    const auto n = lead + static_cast<std::size_t>(cut_s * rate_hz);
+    test_rng rng{5};
+    std::vector<float> x(n);
+    for (std::size_t i = 0; i < n; ++i) {
+        double v = 1e-5 * rng.gauss();
+        if (i >= lead) {
+            const double t = static_cast<double>(i - lead) / rate_hz;
+            for (const mode_truth& m : modes)
+                v += std::pow(10.0, (m.peak_db - 60.0 * t / m.t60_s) / 20.0) * std::cos(2.0 * pi * m.freq_hz * t);
+        }
+        x[i] = static_cast<float>(v);
+    }
+    return x;
+}
+
+/// Level of the summed modes (powers add for distinct frequencies) at time t, dB.
+double total_level_db(const std::vector<mode_truth>& modes, double t) {
+    double p = 0.0;
+    for (const mode_truth& m : modes) p += std::pow(10.0, (m.peak_db - 60.0 * t / m.t60_s) / 10.0);
+    return 10.0 * std::log10(p);
+}
+
+const partial* partial_near(const patch& p, double freq_hz) {
+    for (const partial& q : p.partials)
+        if (std::abs(q.freq_hz - freq_hz) < 2.0) return &q;
+    return nullptr;
+}
+
+}  // namespace
+
+TEST_CASE("a note cut 40 dB below its peak: cut found, every last segment decays, T60 within 10%", "[tails]") {
+    const std::vector<mode_truth> modes = {
+        {220.0, -8.0, 2.0}, {440.0, -12.0, 1.6}, {660.0, -15.0, 1.3}, {880.0, -19.0, 1.1}, {1100.0, -22.0, 0.9}};
+    // The cut: where the summed level has fallen 40 dB below its value at the onset.
+    double cut_s = 0.0;
+    while (total_level_db(modes, cut_s) > total_level_db(modes, 0.0) - 40.0) cut_s += 0.001;
+    CAPTURE(cut_s);
+    const auto x = decaying_note(modes, 0.05, cut_s);
+    const analysis_result r = analyze_note(x, rate_hz, {});
+    const patch& p = r.value;
+    CHECK(r.summary.end.kind == end_kind::cut);
+    REQUIRE(p.source.cut_s.has_value());
+    CHECK_THAT(*p.source.cut_s, WithinAbs(cut_s, 0.01));
+    for (const mode_truth& m : modes) {
+        const partial* q = partial_near(p, m.freq_hz);
+        INFO("mode at " << m.freq_hz << " Hz");
+        REQUIRE(q != nullptr);
+        const double last_t60 = q->env.decay.back().t60_s;
+        CAPTURE(last_t60, m.t60_s, q->env.decay.size());
+        CHECK(std::isfinite(last_t60));
+        CHECK(last_t60 > 0.0);
+        CHECK_THAT(last_t60, WithinRel(m.t60_s, 0.10));  // ground truth of the signal
+    }
+}
+
+TEST_CASE("a note that decays into its floor is not called cut", "[tails]") {
+    const std::vector<mode_truth> modes = {{220.0, -8.0, 0.5}, {440.0, -12.0, 0.4}};
+    const auto x = decaying_note(modes, 0.05, 1.5);  // 180 dB of decay: ends in the -100 dB floor
+    const analysis_result r = analyze_note(x, rate_hz, {});
+    CAPTURE(r.summary.end.end_below_peak_db);
+    CHECK(r.summary.end.kind == end_kind::decays);
+    CHECK_FALSE(r.value.source.cut_s.has_value());
+}
+
+TEST_CASE("a steady tone holds: no cut, its level held", "[tails]") {
+    const std::vector<mode_truth> modes = {{220.0, -10.0, infinity}, {440.0, -14.0, infinity}};
+    const auto x = decaying_note(modes, 0.05, 3.0);
+    const analysis_result r = analyze_note(x, rate_hz, {});
+    CAPTURE(r.summary.end.held_s, r.summary.end.end_below_peak_db);
+    CHECK(r.summary.end.kind == end_kind::holds);
+    CHECK_FALSE(r.value.source.cut_s.has_value());
+    for (const mode_truth& m : modes) {
+        const partial* q = partial_near(r.value, m.freq_hz);
+        REQUIRE(q != nullptr);
+        // Held: the level 10 s on is within 1 dB of the level at the recording's end.
+        const double at_end = envelope_level(q->env, 3.0).db;
+        const double later = envelope_level(q->env, 13.0).db;
+        CAPTURE(m.freq_hz, at_end, later);
+        CHECK_THAT(later, WithinAbs(at_end, 1.0));
+    }
+}
+
+TEST_CASE("real notes: the cut recordings are found cut and their copies fall 20 dB past 3x", "[tails][real]") {
+    // tests/data/real-notes/README.md: banjo, steel guitar and piano D2 were cut while sounding,
+    // the marimba decays naturally (56 dB below its peak).
+    struct note_case {
+        const char* file;
+        bool cut;
+    };
+    const note_case cases[] = {{"banjo_g3.wav", true}, {"guitar_steel_a2.wav", true}, {"piano_d2.wav", true},
+                               {"marimba_c3.wav", false}};
+    for (const note_case& c : cases) {
+        const mono_audio a = read_audio(std::string(WANE_TEST_DATA_DIR) + "/real-notes/" + c.file);
+        const analysis_result r = analyze_note(a.samples, a.sample_rate_hz, {});
+        const patch& p = r.value;
+        INFO(c.file << ": end " << r.summary.end.end_below_peak_db << " dB under the peak");
+        CHECK(p.source.cut_s.has_value() == c.cut);
+        if (!c.cut) continue;
+        for (const partial& q : p.partials) {
+            CAPTURE(q.freq_hz, q.env.decay.back().t60_s);
+            CHECK(std::isfinite(q.env.decay.back().t60_s));
+            CHECK(q.env.decay.back().t60_s > 0.0);
+        }
+        // Render 3x the recorded length: the last second at least 20 dB under the 100 ms before the cut.
+        const double cut_s = *p.source.cut_s;
+        const auto y = render_patch(p, {.sample_rate_hz = a.sample_rate_hz, .length_s = 3.0 * cut_s});
+        auto rms_db = [&](double from_s, double to_s) {
+            double s = 0.0;
+            const auto i0 = static_cast<std::size_t>(from_s * a.sample_rate_hz);
+            const auto i1 = std::min(y.size(), static_cast<std::size_t>(to_s * a.sample_rate_hz));
+            for (std::size_t i = i0; i < i1; ++i) s += static_cast<double>(y[i]) * static_cast<double>(y[i]);
+            return 10.0 * std::log10(s / static_cast<double>(i1 - i0));
+        };
+        const double at_cut = rms_db(cut_s - 0.1, cut_s);
+        const double last = rms_db(3.0 * cut_s - 1.0, 3.0 * cut_s - 0.02);  // before the 10 ms end fade
+        CAPTURE(at_cut, last);
+        CHECK(at_cut - last >= 20.0);
+    }
+}
+
+TEST_CASE("sound length: the exact time every part falls below the peak less the stated dB", "[tails][render]") {
+    patch p;
+    p.note.length_s = 1.0;
+    // Partial 1: -6 dB, 2 s T60 (30 dB/s); partial 2: -20 dB, falls 6 dB/s until 1 s, then 20 dB/s.
+    p.partials.push_back({.freq_hz = 200.0, .harmonic = 1, .phase_rad = 0.0,
+                          .env = {.attack_s = 0.01, .peak = level_db{-6.0}, .decay = {{.t60_s = 2.0, .until_s = {}}}}});
+    p.partials.push_back({.freq_hz = 400.0, .harmonic = 2, .phase_rad = 0.0,
+                          .env = {.attack_s = 0.0, .peak = level_db{-20.0},
+                                  .decay = {{.t60_s = 10.0, .until_s = 1.0}, {.t60_s = 3.0, .until_s = {}}}}});
+    // Threshold -6 - 60 = -66 dB. Partial 1: 0.01 + 60 / 30 = 2.01 s. Partial 2: -26 dB at 1 s,
+    // then 40 dB more at 20 dB/s: 3.0 s.
+    const sound_length s = sound_length_s(p, -60.0);
+    REQUIRE(s.length_s.has_value());
+    CHECK_THAT(*s.length_s, WithinAbs(3.0, 1e-9));
+    // Threshold -6 - 20 = -26 dB: partial 1 at 0.01 + 20 / 30 s; partial 2 reaches -26 dB at 1 s.
+    CHECK_THAT(*sound_length_s(p, -20.0).length_s, WithinAbs(1.0, 1e-9));
+    // A held partial above the threshold never falls: it is named.
+    p.partials[1].env.decay.back().t60_s = infinity;
+    const sound_length held = sound_length_s(p, -60.0);
+    CHECK_FALSE(held.length_s.has_value());
+    CHECK(held.holding == "partial 2");
+    // ... but one held below the threshold does not matter.
+    p.partials[1].env.peak = level_db{-80.0};
+    CHECK_THAT(*sound_length_s(p, -60.0).length_s, WithinAbs(2.01, 1e-9));
+}
