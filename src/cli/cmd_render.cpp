@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "cli/common.hpp"
+#include "cli/loudness.hpp"
 #include "cli/transform_options.hpp"
 #include "io/limits.hpp"
 #include "core/patch.hpp"
@@ -26,9 +27,6 @@ namespace wane::cli {
 namespace {
 
 constexpr double default_rate_hz = 48000.0;
-/// A render peaking more than this over full scale is refused even with --normalize-db: no sane
-/// patch is that loud, so something in it (peak_db, gain_db, a rising segment) is wrong.
-constexpr double max_over_full_scale_db = 40.0;
 /// Headroom the clipping advice suggests below full scale.
 constexpr double advice_headroom_db = 1.0;
 
@@ -51,8 +49,6 @@ std::string printf_str(const char* fmt, auto... args) {
     return buf;
 }
 
-std::string dbfs_text(double amp) { return printf_str("%+.2f dBFS", to_level(amp_lin{amp}).db); }
-
 const char* format_text(sample_format f) {
     switch (f) {
         case sample_format::pcm16: return "16-bit";
@@ -60,15 +56,6 @@ const char* format_text(sample_format f) {
         case sample_format::float32: return "32-bit float";
     }
     return "?";
-}
-
-double peak_of(const std::vector<float>& y) {
-    double peak = 0.0;
-    for (const float v : y) {
-        const double a = std::fabs(static_cast<double>(v));
-        if (!(a <= peak)) peak = a;  // also takes NaN, so a broken render cannot hide
-    }
-    return peak;
 }
 
 int run_render(const render_options& o) {
@@ -115,15 +102,8 @@ int run_render(const render_options& o) {
     }
 
     std::vector<float> y = render_patch(p, params);
-    const double peak = peak_of(y);
-    const double max_peak = to_amp(level_db{max_over_full_scale_db}).lin;
-    if (!(peak <= max_peak)) {
-        throw std::runtime_error(patch_name + ": the render would peak at " +
-                                 (std::isfinite(peak) ? dbfs_text(peak) : std::string("a non-finite level")) +
-                                 printf_str(", more than %.0f dB over full scale; check the patch's "
-                                            "peak_db, gain_db and rising segments (negative t60_s)",
-                                            max_over_full_scale_db));
-    }
+    const double peak = peak_abs(y);
+    refuse_too_loud(peak, patch_name);
 
     double out_peak = peak;
     if (o.normalize_db) {
@@ -131,10 +111,10 @@ int run_render(const render_options& o) {
         const double target = to_amp(level_db{*o.normalize_db}).lin;
         const double scale = target / peak;
         for (float& v : y) v = static_cast<float>(static_cast<double>(v) * scale);
-        out_peak = peak_of(y);
+        out_peak = peak_abs(y);
         if (out_peak > 1.0) {  // 0 dBFS target, one float rounding over: take it back one step
             for (float& v : y) v = std::nextafter(v, 0.0F);
-            out_peak = peak_of(y);
+            out_peak = peak_abs(y);
         }
         say(printf_str("normalized: peak %s -> %s (gain %+.2f dB)", dbfs_text(peak).c_str(),
                        dbfs_text(out_peak).c_str(), to_level(amp_lin{scale}).db));
