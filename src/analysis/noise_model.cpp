@@ -233,7 +233,7 @@ std::optional<noise_band> fit_attack_band(const noise_band_track& attack, const 
     fit.window_s = params.attack_window_s;
     const auto result = fit_partial(as_track(burst, 0, after_db), fit);
     const double t60_s = result ? result->env.decay.back().t60_s : 0.0;
-    if (!(t60_s > 0.0 && t60_s <= params.max_attack_t60_s)) return std::nullopt;
+    if (!(t60_s >= params.min_attack_t60_s && t60_s <= params.max_attack_t60_s)) return std::nullopt;
     return noise_band{.low_hz = attack.low_hz, .high_hz = attack.high_hz, .env = result->env};
 }
 

@@ -317,7 +317,14 @@ TEST_CASE("a 4 s note with 40 partials gives a patch under 10 KB", "[fitting][an
         CHECK(found);
     }
     CHECK(r.summary.partials >= 40);
-    CHECK(text.size() < 10000);  // issue 5 acceptance: under 10 KB (the 24-bit WAV is ~576 KB)
+    // Issue 5 acceptance: the partials under 10 KB (the 24-bit WAV is ~576 KB). The one-third-octave
+    // noise bands (issue 16) come on top: the whole patch stays under 12 KB.
+    patch partials_only = r.value;
+    partials_only.noise.clear();
+    const std::size_t partials_size = format_patch(partials_only).size();
+    CAPTURE(partials_size, r.value.noise.size());
+    CHECK(partials_size < 10000);
+    CHECK(text.size() < 12000);
     // The patch reads back to the same values (h-patch's reader; canonical text round trip).
     CHECK(format_patch(parse_patch(text, "note40.toml").value) == text);
 }

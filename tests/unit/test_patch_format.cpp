@@ -192,7 +192,7 @@ TEST_CASE("parse(format(p)) == p for a generated patch with noise bands and inf 
               .length_s = grid(1.0 + 9.0 * u(rng), 4),
               .inharmonicity_b = std::round(10000.0 + 89999.0 * u(rng)) / 1e9,  // 5 significant digits
               .gain_db = grid(-6.0 * u(rng), 2)};
-    p.source = {.file = "dir/note one.wav", .sample_rate_hz = 44100.0, .onset_s = grid(u(rng), 6),
+    p.source = {.file = "dir/note one.wav", .sample_rate_hz = 44100.0, .onset_s = grid(u(rng), 6), .cut_s = grid(1.0 + u(rng), 4),
                 .analysis = analysis_settings{.window = "hann", .fft_size = 4096, .window_s = 0.046440, .hop_s = 0.011610}};
     for (int i = 0; i < 40; ++i) {
         partial q;
