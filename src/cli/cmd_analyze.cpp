@@ -139,19 +139,20 @@ std::vector<job> plan_jobs(const analyze_options& o) {
 }
 
 std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t bytes) {
-    char buf[128];
-    std::snprintf(buf, sizeof buf, ": %d partials, %d segments, fit error %.2f dB, %ju bytes", s.partials,
-                  s.segments, s.fit_error_db, bytes);
-    std::string line = j.input.string() + " -> " + j.output.string() + buf;
+    char buf[160];
+    // How the recording ends comes first; the line ends with the patch size.
+    std::string end;
     if (s.end.kind == end_kind::cut) {
-        std::snprintf(buf, sizeof buf, "; cut at %.3f s while sounding (%.1f dB under the peak): %d decays run on past it",
+        std::snprintf(buf, sizeof buf, " cut at %.3f s while sounding (%.1f dB under the peak, %d decays run on past it);",
                       s.end.length_s, s.end.end_below_peak_db, s.continued_past_cut);
-        line += buf;
+        end = buf;
     } else if (s.end.kind == end_kind::holds) {
-        std::snprintf(buf, sizeof buf, "; holds its level for the last %.2f s", s.end.held_s);
-        line += buf;
+        std::snprintf(buf, sizeof buf, " holds its level for the last %.2f s;", s.end.held_s);
+        end = buf;
     }
-    return line;
+    std::snprintf(buf, sizeof buf, " %d partials, %d segments, fit error %.2f dB, %ju bytes", s.partials, s.segments,
+                  s.fit_error_db, bytes);
+    return j.input.string() + " -> " + j.output.string() + ":" + end + buf;
 }
 
 /// Analyzes one file and writes its patch; returns the summary line. Throws with a message that
