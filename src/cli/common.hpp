@@ -50,6 +50,9 @@ void print_error(std::string_view msg);
 /// Informational line on stdout unless --quiet.
 void say(std::string_view msg);
 
+/// A number in short form for messages ("1e+308", "0.25", "48000"): at most 6 significant digits.
+std::string short_num(double v);
+
 /// The text `wane info` prints for a patch read from path (also embedded in reports).
 std::string patch_info_text(const patch& p, const std::filesystem::path& path);
 

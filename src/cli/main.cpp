@@ -15,6 +15,12 @@ global_flags& globals() {
 
 void warn(std::string_view msg) { std::cerr << "wane: warning: " << msg << '\n'; }
 void print_error(std::string_view msg) { std::cerr << "wane: error: " << msg << '\n'; }
+std::string short_num(double v) {
+    char buf[32];
+    std::snprintf(buf, sizeof buf, "%.6g", v);
+    return buf;
+}
+
 void say(std::string_view msg) {
     if (!globals().quiet) std::cout << msg << '\n';
 }
@@ -32,6 +38,7 @@ int run_main(int argc, char** argv) {
     app.set_version_flag("--version", std::string("wane ") + WANE_VERSION);
     app.add_flag("-q,--quiet", globals().quiet, "No progress bars or summaries (warnings still shown)");
     app.require_subcommand(1);
+    app.fallthrough();  // global options (-q) also after the subcommand
     app.footer("Examples:\n  wane analyze note.wav -o note.toml\n  wane render note.toml -o copy.wav\n"
                "Run 'wane COMMAND --help' for each command's options.");
 
