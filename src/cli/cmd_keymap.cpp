@@ -161,7 +161,7 @@ int run_keymap(keymap_options o) {
 
     const std::filesystem::path in{o.input};
     const patch_read_result read = read_patch_file(in);
-    for (const std::string& w : read.warnings) warn(w);
+    warn_all(read.warnings);
     const patch& source = read.value;
     if (!(source.note.f0_hz > 0.0)) {
         throw std::runtime_error(o.input + ": keymap needs a pitched patch (note.f0_hz > 0) to move it to each note");

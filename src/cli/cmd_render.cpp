@@ -88,7 +88,7 @@ int run_render(const render_options& o) {
 
     const transform_params tp = to_params(o.transforms);
     const patch_read_result r = read_patch_file(o.patch_path);
-    for (const std::string& w : r.warnings) warn(w);
+    warn_all(r.warnings);
     const patch p = apply_transforms_checked(r.value, tp, o.rate_hz, o.patch_path.string());
     // The noise bands' seed is the variation seed, so one --seed fixes the whole variant.
     const render_params params{.sample_rate_hz = o.rate_hz, .length_s = o.length_s.value_or(0.0),

@@ -1,5 +1,7 @@
 #include "io/toml_guard.hpp"
 
+#include <algorithm>
+
 #include "io/errors.hpp"
 
 namespace wane {
@@ -29,8 +31,16 @@ void guard_toml_text(std::string_view text, const std::string& source_name, cons
     const auto starts = [&](std::size_t i, std::string_view what) { return text.substr(i, what.size()) == what; };
     const auto check_line_length = [&](std::size_t end) {
         if (limits.max_line_bytes > 0 && end - line_start > limits.max_line_bytes) {
+            // Name the key the line starts with, when it has a short one.
+            constexpr std::size_t max_key_shown = 64;
+            const std::string_view head = text.substr(line_start, std::min(end - line_start, max_key_shown + 1));
+            const std::size_t eq = head.find('=');
+            std::string key(head.substr(0, eq == std::string_view::npos ? 0 : eq));
+            while (!key.empty() && (key.back() == ' ' || key.back() == '\t')) key.pop_back();
+            const bool plain = !key.empty() && key.find_first_of("\"'\t") == std::string::npos;
             throw patch_error(source_name + ":" + std::to_string(line) + ": line of " +
-                              std::to_string(end - line_start) + " bytes, longer than the " +
+                              std::to_string(end - line_start) + " bytes" + (plain ? " (key '" + key + "')" : "") +
+                              ", longer than the " +
                               std::to_string(limits.max_line_bytes) + " a patch may have");
         }
     };
