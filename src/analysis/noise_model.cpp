@@ -263,9 +263,11 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
         envelope_fit_params fit = params.fit;
         fit.window_s = window_s;
         const auto result = fit_partial(as_track(t, first, silence_db), fit);
-        if (result && result->env.peak.db >= keep_db)
-            bands.push_back({.low_hz = t.low_hz, .high_hz = t.high_hz, .env = result->env});
-        if (attack && attack->env.peak.db >= keep_db) bands.push_back(*attack);
+        // Bounded like the partials' fits (analyze.cpp): a peak beyond what the format holds (an
+        // attack extrapolated far above the measured levels) is no band of this note.
+        auto keep = [&](const envelope& env) { return env.peak.db >= keep_db && env.peak.db <= max_peak_db; };
+        if (result && keep(result->env)) bands.push_back({.low_hz = t.low_hz, .high_hz = t.high_hz, .env = result->env});
+        if (attack && keep(attack->env)) bands.push_back(*attack);
     }
     return bands;
 }

@@ -33,11 +33,11 @@ void add_length_options(CLI::App* sub, length_cli& o) {
 void check_length_options(const length_cli& o) {
     if (o.length_s && o.until_db) throw usage_error("--length-s and --until-db: give one or the other");
     if (o.length_s && !(*o.length_s > 0.0 && *o.length_s <= max_length_s)) {
-        throw std::runtime_error("--length-s " + number_text("%g", *o.length_s) + ": must be more than 0 and at most " +
+        throw usage_error("--length-s " + number_text("%.6g", *o.length_s) + ": must be more than 0 and at most " +
                                  number_text("%.0f", max_length_s) + " s");
     }
     if (o.until_db && !(*o.until_db >= min_until_db && *o.until_db < 0.0)) {
-        throw std::runtime_error("--until-db " + number_text("%g", *o.until_db) + ": must be from " +
+        throw usage_error("--until-db " + number_text("%.6g", *o.until_db) + ": must be from " +
                                  number_text("%.0f", min_until_db) + " to below 0 dB");
     }
 }

@@ -23,8 +23,8 @@ struct length_cli {
 /// Adds --length-s and --until-db to sub.
 void add_length_options(CLI::App* sub, length_cli& o);
 
-/// Refuses bad values before anything is read: --length-s outside (0, max_length_s] or --until-db
-/// outside [min_until_db, 0) (run-time errors, exit 1), both options at once (bad usage, exit 2).
+/// Refuses bad values before anything is read (bad usage, exit 2, naming the option): --length-s
+/// outside (0, max_length_s], --until-db outside [min_until_db, 0), both options at once.
 void check_length_options(const length_cli& o);
 
 /// The render length for p in seconds (the value for render_params::length_s): --length-s, or the

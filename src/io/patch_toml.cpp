@@ -63,6 +63,9 @@ constexpr std::size_t max_string_bytes = 4096;
 /// a patch nests at most 4 levels (root > partial array > partial > decay array > segment); deeper
 /// structures are refused before they are walked.
 constexpr int max_nesting_depth = 4;
+/// Longest line: a [[partial]] with 64 decay segments takes about 3 KB, a 4096-byte string
+/// written with \uXXXX escapes 25 KB; 64 KiB bounds the parser's work on one line (our choice).
+constexpr std::size_t max_line_bytes = std::size_t{64} << 10;
 
 // ---------------------------------------------------------------------------------------------
 // Number formatting (locale independent: std::to_chars).
@@ -1016,7 +1019,7 @@ patch_read_result parse_patch(std::string_view text, std::string_view source_nam
         throw patch_error(name + ": " + std::to_string(text.size()) + " bytes is larger than the " +
                           max_patch_file_text + " a patch may have");
     }
-    refuse_non_ascii_outside_strings(text, name);
+    guard_toml_text(text, name, {.max_nesting_depth = max_nesting_depth, .max_line_bytes = max_line_bytes});
     prescan_counts(text, name);
     toml::table root;
     try {

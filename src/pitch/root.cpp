@@ -24,8 +24,10 @@ std::optional<root_mode> mode_near(std::span<const root_mode> strong, double tar
 }
 
 /// Strike note of a bell: the nominal N, twelfth 1.5 N and upper octave 2 N all strong, with the
-/// tierce at 0.6 N (a minor third above N / 2) strong too. The strike is the least-squares
-/// missing fundamental of the three, s = sum k f_k / sum k^2 over k = 2, 3, 4.
+/// tierce at 0.6 N (a minor third above N / 2) strong too; the strike note is N / 2, an octave
+/// below the nominal, as bell tuners name it (Fletcher and Rossing 1998, ch. 21), taken as the
+/// prime's own frequency when a strong prime sits there (a tuned bell). Where several modes could
+/// be the nominal, the strongest one is.
 std::optional<double> strike_note_hz(std::span<const root_mode> strong, double tol_rel) {
     // Ideal partial ratios of a tuned church bell relative to the strike note (prime): hum 0.5,
     // prime 1, tierce 1.2, quint 1.5, nominal 2, twelfth 3, upper octave 4 (Fletcher and Rossing
@@ -42,9 +44,10 @@ std::optional<double> strike_note_hz(std::span<const root_mode> strong, double t
         // The hum, an octave below the strike, is the lowest partial of a bell: a strong mode
         // below it means a series of which these are upper members (a string's harmonics 5..20).
         if (strong.front().freq_hz < 0.5 * s * (1.0 - tol_rel)) continue;
-        const double fitted = (2.0 * n.freq_hz + 3.0 * t->freq_hz + 4.0 * u->freq_hz) / (4.0 + 9.0 + 16.0);
-        const double level = std::max({n.level_db, t->level_db, u->level_db});
-        if (level > best_db) best_db = level, best = fitted;
+        // Bell-tuning practice names the strike note an octave below the nominal; a tuned bell
+        // has its prime there, and then the prime is the note.
+        const auto prime = mode_near(strong, s, tol_rel);
+        if (n.level_db > best_db) best_db = n.level_db, best = prime ? prime->freq_hz : s;
     }
     return best;
 }

@@ -38,9 +38,11 @@ struct root_estimate {
 /// more than unpitched_min_strong_modes strong modes, like a cymbal, is unpitched before step 1):
 /// 1. bells: strong modes at 2 : 3 : 4 times a strike note s (nominal, twelfth, upper octave)
 ///    with the minor-third tierce at 1.2 s also strong and nothing strong below the hum s / 2:
-///    the root is s, the strike note, the
-///    virtual pitch of the nominal, twelfth and upper octave (Terhardt and Seewann 1984), close to
-///    the prime of a well-tuned bell (Fletcher and Rossing 1998, ch. 21);
+///    the root is s = nominal / 2, the strike note as bell tuners name it, an octave below the
+///    nominal and at the prime of a well-tuned bell (Fletcher and Rossing 1998, ch. 21: the
+///    prime's own frequency when a strong prime lies within bell_tolerance_rel of s); the
+///    ear hears it as the missing fundamental of the nominal, twelfth and upper octave (Terhardt
+///    and Seewann 1984);
 /// 2. a harmonic or stretched series: its fundamental as measured, the strongest partial numbered
 ///    1 when within fundamental_below_max_db of the strongest partial, else series_f0_hz
 ///    (harmonic_series, or f0_hint when the series was started from the user's --f0);

@@ -4,9 +4,10 @@
 # the README's measured fundamental; an --f0 hint 1% off the fundamental changes the partial count
 # by at most 1; --to-note a fifth up and an octave down puts the 5 strongest partials of the
 # recording, times the pitch ratio, within 1 cent in the render (numpy FFT: tests/cli/pitch_check.py).
-# The to-note check holds so far on the notes listed in to_note_holds; on the other ten the patch's
-# partial frequencies differ from the recording's long-FFT peaks by 1.0 to 44 cents (measured;
-# gliding, beating or split partials), which issue 17 leaves open: they are not checked here.
+# The to-note check holds on the 13 notes in to_note_holds; on dulcimer_g4, pizzicato_c2,
+# timpani_d2 and xylophone_fs3 one or two of the five strongest long-FFT peaks of the recording have
+# no partial in the patch within 7 cents (measured 4.6 to 42 cents off: partials the analysis does
+# not keep, a string section's detuned strings): issue 17 leaves these open, they are not checked.
 set -u
 wane=$1
 src=$2
@@ -25,7 +26,7 @@ done < <($py -c 'import sys; sys.path.insert(0, sys.argv[1]); import pitch_check
 for k, (f, _) in p.MEASURED.items(): print(k, f)' "$src/tests/cli")
 $py "$src/tests/cli/pitch_check.py" roots plain hint || fail=1
 
-to_note_holds="bass_ds2 glockenspiel_g6 marimba_fs4_stereo piano_as4 piano_d2 piano_fs3_stereo rhodes_c3"
+to_note_holds="${TO_NOTE_ALL:-banjo_g3 bass_ds2 glockenspiel_g6 guitar_nylon_d3 guitar_steel_a2 harp_gs2_stereo harpsichord_d2 marimba_c3 marimba_fs4_stereo piano_as4 piano_d2 piano_fs3_stereo rhodes_c3}"
 for name in $to_note_holds; do
     patch="plain/$name.toml"
     midi=$($py -c 'import sys, tomllib; sys.path.insert(0, sys.argv[2]); import pitch_check as p
@@ -38,6 +39,26 @@ print(p.midi_of(tomllib.load(open(sys.argv[1], "rb"))["note"]["root"]))' "$patch
         $py "$src/tests/cli/pitch_check.py" to-note "$data/$name.wav" "$patch" "$out" "$to" || fail=1
     done
 done
+
+# The demo notes keep their exact pitch: ground truth from their physical models (tools/demo_models.hpp:
+# string f1 146.83238395870379 Hz, bar f1 220 Hz, bell prime 440 Hz).
+mkdir -p demo && "$wane" --quiet analyze "$src"/demo-data/*.wav -o demo || fail=1
+$py - demo <<'PY' || fail=1
+import math, sys, tomllib
+sys.path.insert(0, sys.argv[0].rsplit("/", 1)[0])
+truth = {"steel-string-d3": 146.83238395870379, "tuned-bar-a3": 220.0, "garden-bell-a4": 440.0}
+names = ["C", "C#", "D", "D#", "E", "F", "F#", "G", "G#", "A", "A#", "B"]
+bad = 0
+for name, f in truth.items():
+    n = tomllib.load(open(f"{sys.argv[1]}/{name}.toml", "rb"))["note"]
+    letter = n["root"].rstrip("-0123456789")
+    midi = names.index(letter) + 12 * (int(n["root"][len(letter):]) + 1) + n["tuning_cents"] / 100
+    c = 1200 * math.log2(n["a4_hz"] * 2 ** ((midi - 69) / 12) / f)
+    ok = abs(c) <= 0.01
+    bad |= not ok
+    print(("ok   " if ok else "FAIL ") + f"demo {name}: root {n['root']} {n['tuning_cents']:+.3f} cents ({n['root_found_by']}), {c:+.4f} cents from {f} Hz")
+sys.exit(bad)
+PY
 
 # edit --root sets only the root: everything after [note]'s root keys is byte-identical.
 "$wane" edit plain/xylophone_fs3.toml -o edited.toml --root F#3 --tuning-cents -2.5 > /dev/null || { echo "FAIL: edit --root"; fail=1; }

@@ -76,7 +76,7 @@ for args in "--length-s 0" "--length-s -1" "--length-s 601" "--until-db 0" "--un
             "--until-db nan"; do
   rm -f bad.wav
   # shellcheck disable=SC2086
-  expect_error 1 "${args%% *}" "$wane" render pluck.toml -o bad.wav $args
+  expect_error 2 "${args%% *}" "$wane" render pluck.toml -o bad.wav $args
   check '[ ! -e bad.wav ]'
 done
 expect_error 2 "--length-s and --until-db" "$wane" render pluck.toml -o bad.wav --length-s 2 --until-db -60
@@ -97,7 +97,7 @@ done
 check '[ $n -eq 3 ]'
 "$wane" -q keymap pluck.toml -o set-len --notes C3..C4 --every 6 --length-s 1.5
 for f in set-len/*.wav; do check 'near "$(length_of "$f")" 1.5 0.0001'; done
-expect_error 1 "--until-db 5" "$wane" keymap pluck.toml -o set-bad --notes C3..C4 --until-db 5
+expect_error 2 "--until-db 5" "$wane" keymap pluck.toml -o set-bad --notes C3..C4 --until-db 5
 check '[ ! -e set-bad ] || [ -z "$(ls set-bad)" ]'
 expect_error 2 "--length-s and --until-db" "$wane" keymap pluck.toml -o set-bad --notes C3..C4 --length-s 1 --until-db -60
 
