@@ -231,9 +231,11 @@ std::optional<noise_band> fit_attack_band(const noise_band_track& attack, const 
     if (peak_db < after_db + params.attack_above_floor_db) return std::nullopt;
     envelope_fit_params fit = params.attack_fit;
     fit.window_s = params.attack_window_s;
-    const auto result = fit_partial(as_track(burst, 0, after_db), fit);
+    auto result = fit_partial(as_track(burst, 0, after_db), fit);
     const double t60_s = result ? result->env.decay.back().t60_s : 0.0;
     if (!(t60_s >= params.min_attack_t60_s && t60_s <= params.max_attack_t60_s)) return std::nullopt;
+    // The 1 ms hop sees the burst's peak: a fitted line run back above it is not trusted.
+    if (result->env.peak.db > peak_db) result->env.peak = level_db{peak_db};
     return noise_band{.low_hz = attack.low_hz, .high_hz = attack.high_hz, .env = result->env};
 }
 
@@ -272,20 +274,22 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
     return bands;
 }
 
-/// source: the residual of the partials as fitted; abrupt: of the partials started at their peak
-/// (attack_s = 0). The partials' true rise is known only to a frame, and what a wrong rise leaves
-/// of a partial is a broadband click; the bands take, frame by frame, the lower of the two
-/// residuals' levels: what neither rise explains.
-std::vector<noise_band> model_from(std::size_t total, const residual_source& source, const residual_source& abrupt,
+/// sources: the residual of the partials as fitted, of the partials started at their peak
+/// (attack_s = 0), and the recording itself. The partials' true rise is known only to a frame, and
+/// what a wrong rise leaves of a partial is a broadband click; and a residual louder than the
+/// recording is the subtraction's error, not noise. The bands take, frame by frame, the lowest of
+/// the levels: what neither rise explains, and never more than was recorded.
+std::vector<noise_band> model_from(std::size_t total, std::span<const residual_source* const> sources,
                                    double sample_rate_hz, std::span<const double> partial_freqs_hz, double f0_hz,
                                    double loudest_partial_db, const noise_model_params& params) {
     auto lower_of_both = [&](const band_plan& plan) {
-        auto tracks = measure_bands(total, source, sample_rate_hz, plan);
-        if (&source == &abrupt) return tracks;
-        const auto other = measure_bands(total, abrupt, sample_rate_hz, plan);
-        for (std::size_t b = 0; b < tracks.size(); ++b)
-            for (std::size_t i = 0; i < tracks[b].level_db.size(); ++i)
-                tracks[b].level_db[i] = std::min(tracks[b].level_db[i], other[b].level_db[i]);
+        auto tracks = measure_bands(total, *sources[0], sample_rate_hz, plan);
+        for (std::size_t k = 1; k < sources.size(); ++k) {
+            const auto other = measure_bands(total, *sources[k], sample_rate_hz, plan);
+            for (std::size_t b = 0; b < tracks.size(); ++b)
+                for (std::size_t i = 0; i < tracks[b].level_db.size(); ++i)
+                    tracks[b].level_db[i] = std::min(tracks[b].level_db[i], other[b].level_db[i]);
+        }
         return tracks;
     };
     const band_plan floor = floor_plan(sample_rate_hz, partial_freqs_hz, f0_hz, params);
@@ -327,8 +331,8 @@ std::vector<noise_band> fit_noise_bands(std::span<const float> residual, double 
     const residual_source source = [&](std::size_t first, std::span<float> dest) {
         std::copy_n(residual.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
     };
-    return model_from(residual.size(), source, source, sample_rate_hz, partial_freqs_hz, 0.0, loudest_partial_db,
-                      params);
+    const residual_source* sources[] = {&source};
+    return model_from(residual.size(), sources, sample_rate_hz, partial_freqs_hz, 0.0, loudest_partial_db, params);
 }
 
 std::vector<noise_band> fit_note_noise(std::span<const float> note, double sample_rate_hz, const patch& p,
@@ -363,7 +367,11 @@ std::vector<noise_band> fit_note_noise(std::span<const float> note, double sampl
     };
     const residual_source source = residual_of(partials);
     const residual_source abrupt = residual_of(abrupt_partials);
-    return model_from(note.size(), source, abrupt, sample_rate_hz, freqs_hz, p.note.f0_hz, loudest_db, params);
+    const residual_source recording = [&](std::size_t first, std::span<float> dest) {
+        std::copy_n(note.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
+    };
+    const residual_source* sources[] = {&source, &abrupt, &recording};
+    return model_from(note.size(), sources, sample_rate_hz, freqs_hz, p.note.f0_hz, loudest_db, params);
 }
 
 }  // namespace wane
