@@ -327,11 +327,15 @@ std::vector<noise_band_track> measure_noise_bands(std::span<const float> residua
 
 std::vector<noise_band> fit_noise_bands(std::span<const float> residual, double sample_rate_hz,
                                         std::span<const double> partial_freqs_hz, double loudest_partial_db,
-                                        const noise_model_params& params) {
+                                        const noise_model_params& params, std::span<const float> recording) {
     const residual_source source = [&](std::size_t first, std::span<float> dest) {
         std::copy_n(residual.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
     };
-    const residual_source* sources[] = {&source};
+    const residual_source original = [&](std::size_t first, std::span<float> dest) {
+        std::copy_n(recording.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
+    };
+    const residual_source* both[] = {&source, &original};
+    const auto sources = std::span<const residual_source* const>(both).first(recording.empty() ? 1 : 2);
     return model_from(residual.size(), sources, sample_rate_hz, partial_freqs_hz, 0.0, loudest_partial_db, params);
 }
 

@@ -71,11 +71,12 @@ std::vector<noise_band_track> measure_noise_bands(std::span<const float> residua
                                                   std::span<const double> partial_freqs_hz,
                                                   const noise_model_params& params);
 
-/// Fits the floor and attack bands of a residual (of partials that start at their peak); drops bands too quiet to matter (keep_within_db
-/// re loudest_partial_db). Bands come out in ascending frequency.
+/// Fits the floor and attack bands of a residual (of partials that start at their peak; with the
+/// recording, never above its levels); drops bands too quiet to matter (keep_within_db re
+/// loudest_partial_db). Bands come out in ascending frequency.
 std::vector<noise_band> fit_noise_bands(std::span<const float> residual, double sample_rate_hz,
                                         std::span<const double> partial_freqs_hz, double loudest_partial_db,
-                                        const noise_model_params& params);
+                                        const noise_model_params& params, std::span<const float> recording = {});
 
 /// The noise model of a note (note[0] is the onset): the residual note - partials (the render of
 /// p's partials, synthesis/render.hpp partial_renderer; for the attack bands also with the partials

@@ -329,7 +329,7 @@ TEST_CASE("the noise model with the residual streamed gives the bands of the res
     for (std::size_t i = 0; i < n; ++i) residual[i] -= partials[i];
     const double freqs[] = {440.0};
     const noise_model_params params{};
-    const auto held = fit_noise_bands(residual, rate_hz, freqs, -12.0, params);
+    const auto held = fit_noise_bands(residual, rate_hz, freqs, -12.0, params, note);
     const auto streamed = fit_note_noise(note, rate_hz, p, params);
     CAPTURE(held.size(), streamed.size());
     const noise_band* band = nullptr;
