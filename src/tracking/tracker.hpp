@@ -38,4 +38,10 @@ struct tracking_params {
 tracking_result track_note(std::span<const float> samples, double sample_rate_hz,
                            const tracking_params& params);
 
+/// A track's frequency: the amplitude-weighted median over its settled part (from
+/// max(0.1 s, 2 windows) after the onset, points 20 dB above the floor), so the loud early part,
+/// where the pitch is heard, counts most; the plain median of all points when that part is empty.
+/// window_s is the analysis window the track was measured with (tracking_result::window_s).
+double track_frequency_hz(const partial_track& track, double window_s);
+
 }  // namespace wane
