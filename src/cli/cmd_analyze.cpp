@@ -21,7 +21,7 @@
 #include "io/audio_file.hpp"
 #include "io/errors.hpp"
 #include "io/patch_toml.hpp"
-#include "io/progress.hpp"
+#include "platform/progress.hpp"
 
 namespace wane::cli {
 

@@ -12,7 +12,7 @@
 
 #include "cli/common.hpp"
 #include "cli/transform_options.hpp"
-#include "io/limits.hpp"
+#include "synthesis/render_budget.hpp"
 #include "core/patch.hpp"
 #include "core/pitch_names.hpp"
 #include "core/units.hpp"

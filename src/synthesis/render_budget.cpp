@@ -1,4 +1,4 @@
-#include "io/limits.hpp"
+#include "synthesis/render_budget.hpp"
 
 #include <cmath>
 #include <cstdio>
