@@ -29,7 +29,7 @@
 #include "platform/progress.hpp"
 #include "synthesis/render.hpp"
 #include "transform/keymap.hpp"
-#include "transform/rng.hpp"
+#include "core/rng.hpp"
 
 namespace wane::cli {
 

@@ -13,6 +13,7 @@
 #include <string>
 #include <system_error>
 
+#include "core/rng.hpp"
 #include "core/units.hpp"
 #include "io/atomic_file.hpp"
 #include "io/errors.hpp"
@@ -37,10 +38,7 @@ std::string peak_dbfs_text(double peak) {
 class dither_rng {
 public:
     explicit dither_rng(std::uint64_t seed) {
-        std::uint64_t z = seed + 0x9E3779B97F4A7C15ull;  // splitmix64 (Steele, Lea, Flood 2014, from memory)
-        z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9ull;
-        z = (z ^ (z >> 27)) * 0x94D049BB133111EBull;
-        state_ = z ^ (z >> 31);
+        state_ = splitmix64{seed}.next();
         if (state_ == 0) state_ = 1;
     }
     /// Uniform in [-0.5, 0.5) with 2^-53 resolution.

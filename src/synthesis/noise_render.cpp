@@ -11,28 +11,13 @@
 #include <vector>
 
 #include "core/noise_bands.hpp"
+#include "core/rng.hpp"
 #include "core/units.hpp"
 #include "synthesis/kernel_clones.hpp"
 
 namespace wane {
 
 namespace {
-
-/// splitmix64 (Steele, Lea and Flood 2014): small, fast, fully specified, so the noise is the
-/// same on every platform (std:: distributions are implementation-defined).
-struct splitmix64 {
-    static constexpr std::uint64_t increment = 0x9e3779b97f4a7c15ULL;
-    std::uint64_t state;
-    std::uint64_t next() {
-        std::uint64_t z = (state += increment);
-        z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
-        z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
-        return z ^ (z >> 31);
-    }
-    /// Skips `draws` values: the state only ever advances by the increment, so this leaves it
-    /// exactly where `draws` calls of next() would.
-    void skip(std::uint64_t draws) { state += draws * increment; }
-};
 
 /// Frames overlap four times: Hann^2 windows sum to a constant at hop N/4, so the power follows
 /// the envelopes without ripple, and Hann's low sidelobes keep the bands' skirts steep.

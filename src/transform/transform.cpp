@@ -7,7 +7,7 @@
 #include <sstream>
 
 #include "core/harmonics.hpp"
-#include "transform/rng.hpp"
+#include "core/rng.hpp"
 
 namespace wane {
 

@@ -7,6 +7,7 @@
 #include <chrono>
 #include <string>
 
+#include "core/rng.hpp"
 #include "io/errors.hpp"
 #include "io/patch_toml.hpp"
 
@@ -143,14 +144,8 @@ TEST_CASE("an unterminated file is refused", "[hostile]") {
 
 TEST_CASE("binary garbage is refused", "[hostile]") {
     std::string garbage(4096, '\0');
-    std::uint64_t state = 0x9e3779b97f4a7c15ULL;  // fixed seed, splitmix64 steps
-    for (char& c : garbage) {
-        state += 0x9e3779b97f4a7c15ULL;
-        std::uint64_t z = state;
-        z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
-        z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
-        c = static_cast<char>(z >> 56);
-    }
+    wane::splitmix64 rng{wane::splitmix64_gamma};  // fixed seed (core/rng.hpp)
+    for (char& c : garbage) c = static_cast<char>(rng.next() >> 56);
     expect_rejected(garbage, "hostile.toml");
     expect_rejected(std::string("\x89PNG\r\n\x1a\n", 8) + garbage, "hostile.toml");
 }
