@@ -12,6 +12,7 @@
 #include "analysis/analyze.hpp"
 #include "core/noise_bands.hpp"
 #include "core/rng.hpp"
+#include "measure/octave_filter.hpp"  // with core/noise_bands.hpp: one octave_ratio_base10
 #include "synthesis/noise_render.hpp"
 #include "synthesis/render.hpp"
 
@@ -76,6 +77,22 @@ const noise_band* band_containing(const patch& p, double freq_hz) {
 }
 
 }  // namespace
+
+TEST_CASE("noise bands from 125 Hz up have the edges of the IEC octave bands the measurement filters use", "[noise]") {
+    // One band definition (core/octave_bands.hpp): the noise layout's octave bands are
+    // octave_band_at(-3 .. 4) (nominal 125 Hz .. 16 kHz), below them one band from 20 Hz.
+    const std::vector<band_edges> layout = noise_band_layout(24000.0);
+    REQUIRE(layout.size() == 9);
+    CHECK(layout[0].low_hz == 20.0);
+    CHECK_THAT(layout[0].high_hz, Catch::Matchers::WithinRel(octave_band_at(-3).lower_edge_hz, 1e-12));
+    for (int x = -3; x <= 4; ++x) {
+        const band_edges& b = layout[static_cast<std::size_t>(x + 4)];
+        const octave_band iec = octave_band_at(x);
+        CAPTURE(x, b.low_hz, b.high_hz, iec.lower_edge_hz, iec.upper_edge_hz);
+        CHECK_THAT(b.low_hz, Catch::Matchers::WithinRel(iec.lower_edge_hz, 1e-12));
+        CHECK_THAT(b.high_hz, Catch::Matchers::WithinRel(iec.upper_edge_hz, 1e-12));
+    }
+}
 
 TEST_CASE("band noise with known decays plus two partials: band T60s within 10%, partials unchanged", "[noise]") {
     // Three octave bands of the layout (1000 G^k, k = -6, 0, 6: 251 Hz, 1 kHz, 3981 Hz) with
