@@ -9,6 +9,7 @@
 #include <string>
 
 #include "analysis/noise_model.hpp"
+#include "core/analysis_error.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "synthesis/render.hpp"
 #include "spectrum/window.hpp"
@@ -44,13 +45,13 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     assert(params.max_segments >= 1 && params.max_segments <= max_decay_segments);
     const double file_s = static_cast<double>(samples.size()) / sample_rate_hz;
     if (params.start_s < 0.0 || params.end_s < 0.0)
-        throw std::invalid_argument("start and end times must not be negative");
+        throw analysis_error("start and end times must not be negative");
     if (params.start_s >= file_s)
-        throw std::invalid_argument("start " + seconds_text(params.start_s) + " is not before the end of the audio (" +
-                                    seconds_text(file_s) + ")");
+        throw analysis_error("start " + seconds_text(params.start_s) + " is not before the end of the audio (" +
+                               seconds_text(file_s) + ")");
     if (params.end_s > 0.0 && params.end_s <= params.start_s)
-        throw std::invalid_argument("end " + seconds_text(params.end_s) + " is not after the start " +
-                                    seconds_text(params.start_s));
+        throw analysis_error("end " + seconds_text(params.end_s) + " is not after the start " +
+                               seconds_text(params.start_s));
     const auto first = static_cast<std::size_t>(std::llround(params.start_s * sample_rate_hz));
     std::size_t last = samples.size();
     if (params.end_s > 0.0)
@@ -79,7 +80,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     }
     out.summary.tracks = static_cast<int>(tr.tracks.size());
     out.summary.partials = static_cast<int>(p.partials.size());
-    if (p.partials.empty()) throw std::invalid_argument("no partial stays clear of the noise floor long enough to fit");
+    if (p.partials.empty()) throw analysis_error("no partial stays clear of the noise floor long enough to fit");
     out.summary.fit_error_db = frames > 0.0 ? std::sqrt(sq_error / frames) : 0.0;
 
     const double analysed_s = static_cast<double>(part.size()) / sample_rate_hz - tr.onset_s;
@@ -90,8 +91,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     p.source.file = params.source_file;
     p.source.sample_rate_hz = sample_rate_hz;
     p.source.onset_s = params.start_s + tr.onset_s;
-    // The tracker analyses with the 4-term Blackman-Harris window (tracking/tracker.cpp).
-    p.source.analysis = analysis_settings{.window = std::string(window_name(window_kind::blackman_harris_4)),
+    p.source.analysis = analysis_settings{.window = std::string(window_name(tr.window)),
                                           .fft_size = tr.fft_size, .window_s = tr.window_s, .hop_s = tr.hop_s};
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);
     canonicalize(p);

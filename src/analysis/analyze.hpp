@@ -5,6 +5,7 @@
 #include <string>
 
 #include "analysis/noise_model.hpp"
+#include "core/analysis_error.hpp"
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "tracking/tracker.hpp"
@@ -39,7 +40,7 @@ struct analysis_result {
 /// Largest number of decay segments per partial the fit supports (--max-segments).
 inline constexpr int max_decay_segments = max_fit_segments;
 
-/// Throws std::invalid_argument with a user-facing reason when the sound cannot be analyzed.
+/// Throws analysis_error with a user-facing reason when the sound cannot be analyzed.
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
                              const analysis_params& params);
 

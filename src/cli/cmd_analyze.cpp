@@ -163,7 +163,7 @@ std::string run_one(const job& j, const analyze_options& o) {
     analysis_result r;
     try {
         r = analyze_note(audio.samples, audio.sample_rate_hz, ap);
-    } catch (const std::invalid_argument& e) {
+    } catch (const analysis_error& e) {
         throw io_error(j.input.string() + ": " + e.what());
     }
     write_patch_file(j.output, r.value);

@@ -207,7 +207,7 @@ int run_compare(const compare_options& opt) {
     compare_result r;
     try {
         r = compare_signals(a.samples, b.samples, a.sample_rate_hz, params);
-    } catch (const std::invalid_argument& e) {
+    } catch (const analysis_error& e) {
         throw std::runtime_error(opt.a_path.string() + ": " + e.what());
     }
     if (r.early_window_s < opt.early_s) {

@@ -57,7 +57,7 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
     std::string comparison_note;
     try {
         comparison = compare_signals(note, render, source.sample_rate_hz, {});
-    } catch (const std::invalid_argument& e) {
+    } catch (const analysis_error& e) {
         comparison_note = std::string("No comparison: ") + e.what() + ".";
     }
     report_inputs in{.title = "wane report: " + source_path.filename().string(),
@@ -108,7 +108,7 @@ void add_report_command(CLI::App& app, command_registry& reg) {
             // From just before the patch's onset, so the tracks are those of the patch's note even
             // when it was analyzed with --start-s; track times count from the onset found there.
             tracking = std::make_unique<tracking_result>(track_note(from_patch_onset(source, p), source.sample_rate_hz, tp));
-        } catch (const std::invalid_argument& e) {
+        } catch (const analysis_error& e) {
             warn(opt->source_path.string() + ": no tracks drawn: " + e.what());
         }
         write_analysis_report(source, opt->source_path, p, tracking.get(), opt->patch_path, opt->out_path);

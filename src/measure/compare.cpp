@@ -25,7 +25,7 @@ double snr_db(std::span<const float> a, std::span<const float> b, std::size_t be
 compare_result compare_signals(std::span<const float> a, std::span<const float> b, double sample_rate_hz,
                                const compare_params& params) {
     const bool silent = std::all_of(a.begin(), a.end(), [](float v) { return v == 0.0f; });
-    if (silent) throw std::invalid_argument("the reference is silent");
+    if (silent) throw analysis_error("the reference is silent");
     compare_result r;
     r.sample_rate_hz = sample_rate_hz;
     r.align = align_onsets(a, b, sample_rate_hz, params.onset);
@@ -35,7 +35,7 @@ compare_result compare_signals(std::span<const float> a, std::span<const float> 
     const std::size_t onset = r.align.onset_a_frames;
     const std::size_t early_end =
         std::min(a.size(), onset + static_cast<std::size_t>(std::llround(params.early_window_s * sample_rate_hz)));
-    if (early_end <= onset) throw std::invalid_argument("the reference ends at its onset");
+    if (early_end <= onset) throw analysis_error("the reference ends at its onset");
     r.early_window_s = static_cast<double>(early_end - onset) / sample_rate_hz;
 
     spectral_distance_params spectral = params.spectral;
@@ -71,7 +71,7 @@ compare_result compare_signals(std::span<const float> a, std::span<const float> 
         const tracking_result ta = track_note(a, sample_rate_hz, {});
         const tracking_result tb = track_note(b, sample_rate_hz, {});
         if (ta.f0_hz > 0.0 && tb.f0_hz > 0.0) r.f0_difference_cents = cents_between(tb.f0_hz, ta.f0_hz);
-    } catch (const std::invalid_argument&) {
+    } catch (const analysis_error&) {
     }
     return r;
 }

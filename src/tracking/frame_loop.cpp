@@ -194,7 +194,7 @@ frame_tracks run_frames(std::span<const float> x, double fs, std::int64_t onset,
     const int n = grid.window_length;
     const int m = grid.fft_size;
     const std::int64_t hop = grid.hop;
-    stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = n, .fft_size = m});
+    stft_plan plan({.window = result.window, .window_length = n, .fft_size = m});
     const int bin_count = m / 2 + 1;
     const double bin_hz = fs / m;
     noise_floor floor(bin_count, bin_hz, result.hop_s);

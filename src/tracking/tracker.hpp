@@ -5,6 +5,7 @@
 #include <optional>
 #include <span>
 
+#include "core/analysis_error.hpp"
 #include "tracking/track.hpp"
 
 namespace wane {
@@ -17,7 +18,7 @@ struct tracking_params {
     int max_partials = 80;              ///< keep at most this many tracks, strongest first
 };
 
-/// Finds the onset, f0 and the partial tracks of a mono note. Throws std::invalid_argument with
+/// Finds the onset, f0 and the partial tracks of a mono note. Throws analysis_error with
 /// a user-facing message when there is nothing to track (e.g. "no partials above the noise floor").
 ///
 /// Steps (tracking/tracker.cpp): the DC offset (file mean) is removed; the onset is the first
@@ -32,7 +33,7 @@ struct tracking_params {
 /// max(5 frames, 1.5 windows) are dropped; fragments of one partial up to 0.3 s apart are joined
 /// (gap interpolated); frames stop 0.5 s after the last track ended. Harmonic numbers and B are
 /// refitted on the tracks (range grown from 10 f0, numbers chained upward), f0_hz taken from
-/// partial 1 when it is clearly tracked (see tracking_result). Refuses (std::invalid_argument):
+/// partial 1 when it is clearly tracked (see tracking_result). Refuses (analysis_error):
 /// too short, NaN/Inf, constant (silence/DC), clipped, nothing above the noise floor.
 /// Tracks come out sorted by frequency; time_s of their points counts from onset_s.
 tracking_result track_note(std::span<const float> samples, double sample_rate_hz,

@@ -6,15 +6,15 @@
 #include <cstdint>
 #include <optional>
 #include <span>
-#include <stdexcept>
 #include <string>
 #include <vector>
 
+#include "core/analysis_error.hpp"
 #include "tracking/track.hpp"
 
 namespace wane::tracker_steps {
 
-[[noreturn]] inline void refuse(const std::string& why) { throw std::invalid_argument(why); }
+[[noreturn]] inline void refuse(const std::string& why) { throw analysis_error(why); }
 
 /// The frames' layout: window length and FFT size in samples, hop in samples.
 struct frame_grid {

@@ -218,7 +218,7 @@ TEST_CASE("bad input is refused with a clear message", "[tracking][bad]") {
     for (std::size_t i = 0; i < short_file.size(); ++i)
         short_file[i] = static_cast<float>(0.5 * std::sin(two_pi * 440.0 * double(i) / fs));
     CHECK_THROWS_WITH(track_note(short_file, fs, {}), Contains("too short"));
-    CHECK_THROWS_AS(track_note(short_file, fs, {}), std::invalid_argument);
+    CHECK_THROWS_AS(track_note(short_file, fs, {}), analysis_error);
     // Clipped: a 220 Hz sine of amplitude 1.5 cut at +-1 (flat tops every half period).
     std::vector<float> clipped(48000);
     for (std::size_t i = 0; i < clipped.size(); ++i)
@@ -242,7 +242,7 @@ TEST_CASE("bad input is refused with a clear message", "[tracking][bad]") {
     const auto dithered = read_mono(path, sox_fs);
     std::filesystem::remove_all(dir);
     CHECK_THROWS_WITH(track_note(dithered, sox_fs, {}), Contains("no partials above the noise floor") || Contains("no signal"));
-    CHECK_THROWS_AS(track_note(noise, fs, {}), std::invalid_argument);
+    CHECK_THROWS_AS(track_note(noise, fs, {}), analysis_error);
     // 80 ms of a 110 Hz tone: long enough to read, too short for the 73 ms window to slide.
     std::vector<float> brief(static_cast<std::size_t>(0.08 * fs));
     for (std::size_t i = 0; i < brief.size(); ++i)
