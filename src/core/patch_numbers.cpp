@@ -67,7 +67,8 @@ std::string fmt_b(double v) { return fmt_sci(v, b_digits); }
 /// A sample rate: an integer when it is one (at 1e-6 Hz resolution), e.g. "48000".
 std::string fmt_rate(double v) {
     std::string s = fmt_fixed(v, freq_decimals);
-    const std::string zeros = "." + std::string(freq_decimals, '0');
+    std::string zeros(freq_decimals + 1, '0');  // ".000000"
+    zeros[0] = '.';
     if (s.size() > zeros.size() && s.compare(s.size() - zeros.size(), zeros.size(), zeros) == 0) {
         s.erase(s.size() - zeros.size());
     }
