@@ -55,9 +55,9 @@ std::string bytes_text(std::uintmax_t bytes) {
     return buf;
 }
 
-}  // namespace
-
-mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
+/// The checks before libsndfile opens the file: it exists, is no directory, is not empty and not
+/// over the size limit. Returns its size in bytes.
+std::uintmax_t check_input_file(const fs::path& path, const audio_read_options& options) {
     std::error_code ec;
     const fs::file_status st = fs::status(path, ec);
     if (ec || !fs::exists(st)) throw io_error(path_text(path) + ": no such file");
@@ -69,13 +69,13 @@ mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
         throw io_error(path_text(path) + ": " + std::to_string(file_size) + " bytes, larger than the " +
                        bytes_text(options.max_file_bytes) + " limit on input files (raise it with --max-input-mib)");
     }
+    return file_size;
+}
 
-    check_container(path, file_size, container_check_stage::before_open);
-    SF_INFO info{};
-    sndfile_handle file(sf_open(path.c_str(), SFM_READ, &info));
-    if (file.get() == nullptr) {
-        throw io_error(path_text(path) + ": not a readable audio file: " + sf_strerror(nullptr));
-    }
+/// The checks of an opened file's header: channels, rate, --channel, the container (after
+/// libsndfile's own reason), frames and the length limit.
+void check_header(const fs::path& path, const SF_INFO& info, const audio_read_options& options,
+                  std::uintmax_t file_size) {
     if (info.channels <= 0) throw io_error(path_text(path) + ": header gives no channels");
     const double rate_hz = static_cast<double>(info.samplerate);
     if (!(rate_hz >= min_sample_rate_hz && rate_hz <= max_sample_rate_hz)) {
@@ -98,17 +98,13 @@ mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
                       claimed_s, options.max_length_s);
         throw io_error(path_text(path) + buf);
     }
+}
 
-    mono_audio out;
-    out.sample_rate_hz = rate_hz;
-    out.source_channels = info.channels;
-    out.format_name = format_name_of(info.format);
-
-    // A header may lie about its length: reserve no more than the file could hold at one byte
-    // per frame; the vector grows if a compressed format really decodes to more.
+/// Reads info.frames frames block by block into out.samples (the channel picked, or the mean of
+/// all), refusing NaN/Inf samples and fewer frames than the header claims.
+void read_frames(SNDFILE* file, const SF_INFO& info, const audio_read_options& options, const fs::path& path,
+                 mono_audio& out) {
     const auto total_frames = static_cast<std::size_t>(info.frames);
-    out.samples.reserve(std::min<std::size_t>(total_frames, static_cast<std::size_t>(file_size)));
-
     const auto channels = static_cast<std::size_t>(info.channels);
     const std::size_t pick = options.channel ? static_cast<std::size_t>(*options.channel - 1) : 0;
     const double inv_channels = 1.0 / static_cast<double>(channels);
@@ -118,7 +114,7 @@ mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
     while (frames_done < total_frames) {
         const sf_count_t want =
             std::min<sf_count_t>(block_frames, static_cast<sf_count_t>(total_frames - frames_done));
-        const sf_count_t got = sf_readf_float(file.get(), block.data(), want);
+        const sf_count_t got = sf_readf_float(file, block.data(), want);
         if (got <= 0) break;
         const auto got_frames = static_cast<std::size_t>(got);
         for (std::size_t i = 0; i < got_frames * channels; ++i) {
@@ -141,11 +137,35 @@ mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
         frames_done += got_frames;
     }
     if (frames_done < total_frames) {
-        const int err = sf_error(file.get());
+        const int err = sf_error(file);
         throw io_error(path_text(path) + ": truncated or damaged: decoded " + std::to_string(frames_done) + " of the " +
                        std::to_string(total_frames) + " frames the header claims" +
-                       (err != 0 ? std::string(" (") + sf_strerror(file.get()) + ")" : std::string()));
+                       (err != 0 ? std::string(" (") + sf_strerror(file) + ")" : std::string()));
     }
+}
+
+}  // namespace
+
+mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
+    const std::uintmax_t file_size = check_input_file(path, options);
+    check_container(path, file_size, container_check_stage::before_open);
+    SF_INFO info{};
+    sndfile_handle file(sf_open(path.c_str(), SFM_READ, &info));
+    if (file.get() == nullptr) {
+        throw io_error(path_text(path) + ": not a readable audio file: " + sf_strerror(nullptr));
+    }
+    check_header(path, info, options, file_size);
+
+    mono_audio out;
+    out.sample_rate_hz = static_cast<double>(info.samplerate);
+    out.source_channels = info.channels;
+    out.format_name = format_name_of(info.format);
+
+    // A header may lie about its length: reserve no more than the file could hold at one byte
+    // per frame; the vector grows if a compressed format really decodes to more.
+    const auto total_frames = static_cast<std::size_t>(info.frames);
+    out.samples.reserve(std::min<std::size_t>(total_frames, static_cast<std::size_t>(file_size)));
+    read_frames(file.get(), info, options, path, out);
     return out;
 }
 

@@ -106,9 +106,14 @@ void append_aiff_inst_chunk(const fs::path& file, const fs::path& dest, int root
 
 }  // namespace
 
-void write_audio(const fs::path& path, std::span<const float> samples, double sample_rate_hz,
-                 const audio_write_options& options) {
-    const container cont = container_for(path);
+namespace {
+
+/// Refuses what cannot be written before any file is made: a format the container lacks, a rate
+/// that is not a whole number in range, no samples, a root note outside MIDI, a NaN/Inf sample,
+/// and a peak above full scale (the last guard against silent clipping: callers normalize or
+/// scale before this).
+void check_write_request(const fs::path& path, std::span<const float> samples, double sample_rate_hz,
+                         const audio_write_options& options, const container& cont) {
     if (options.format == sample_format::float32 && cont.major == SF_FORMAT_FLAC) {
         throw io_error(path_text(path) + ": FLAC has no 32-bit float format (use 16 or 24 bits, or .wav/.aiff)");
     }
@@ -124,7 +129,6 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
         throw io_error(path_text(path) + ": root MIDI note " + std::to_string(*options.root_midi) +
                        " is outside 0..127");
     }
-    // The last guard against silent clipping: callers normalize or scale before this.
     double peak = 0.0;
     for (std::size_t i = 0; i < samples.size(); ++i) {
         const float s = samples[i];
@@ -138,6 +142,76 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
         throw io_error(path_text(path) + ": peak " + peak_dbfs_text(peak) +
                        " exceeds full scale; refusing to clip (scale the signal down first)");
     }
+}
+
+/// Stores the root note in the instrument chunk. WAV: libsndfile writes the smpl chunk. AIFF:
+/// libsndfile (1.2) accepts the instrument but writes no INST chunk, so write_audio appends one
+/// after closing (append_aiff_inst_chunk). FLAC has no instrument chunk; nothing is stored.
+void store_root_note(SNDFILE* file, const container& cont, int root_midi, const fs::path& path) {
+    SF_INSTRUMENT inst{};
+    inst.basenote = static_cast<char>(root_midi);
+    inst.velocity_lo = 0;
+    inst.velocity_hi = 127;
+    inst.key_lo = 0;
+    inst.key_hi = 127;
+    if (cont.major == SF_FORMAT_WAV && sf_command(file, SFC_SET_INSTRUMENT, &inst, sizeof inst) != SF_TRUE) {
+        throw io_error(path_text(path) + ": cannot store the root note: " + sf_strerror(file));
+    }
+}
+
+/// Writes samples in blocks of io_block_frames: quantize(x) gives the value sf_write (libsndfile's
+/// sf_write_short / sf_write_int) takes for sample x. Throws naming path on a short write.
+template <class Value, class Quantize, class Write>
+void write_blocks(SNDFILE* file, std::span<const float> samples, const fs::path& path, Quantize&& quantize,
+                  Write sf_write) {
+    const std::size_t n = samples.size();
+    const auto block_len = static_cast<std::size_t>(io_block_frames);
+    std::vector<Value> block(block_len);
+    for (std::size_t start = 0; start < n; start += block_len) {
+        const std::size_t len = std::min(block_len, n - start);
+        for (std::size_t i = 0; i < len; ++i) block[i] = quantize(samples[start + i]);
+        if (sf_write(file, block.data(), static_cast<sf_count_t>(len)) != static_cast<sf_count_t>(len)) {
+            throw io_error(path_text(path) + ": write failed: " + sf_strerror(file));
+        }
+    }
+}
+
+void write_samples(SNDFILE* file, std::span<const float> samples, const audio_write_options& options,
+                   const fs::path& path) {
+    if (options.format == sample_format::float32) {
+        write_blocks<float>(file, samples, path, [](float x) { return x; }, sf_write_float);
+    } else if (options.format == sample_format::pcm16) {
+        // TPDF dither: the sum of two independent uniform values of +-0.5 LSB each, added before
+        // rounding (Lipshitz, Wannamaker, Vanderkooy 1992, J. AES 40(5): renders the first two
+        // moments of the total error independent of the signal). Clamping to the integer range
+        // acts only within a step of full scale: +1.0 maps to 32768, one past the top, 32767,
+        // and dither may push -1.0 one step below -32768.
+        dither_rng rng(options.dither_seed);
+        constexpr double lo = -pcm16_full_scale;
+        constexpr double hi = pcm16_full_scale - 1.0;
+        write_blocks<short>(file, samples, path, [&](float x) {
+            double v = static_cast<double>(x) * pcm16_full_scale;
+            if (options.dither) v += rng.uniform_half() + rng.uniform_half();
+            return static_cast<short>(std::clamp(std::nearbyint(v), lo, hi));
+        }, sf_write_short);
+    } else {
+        // 24-bit: round to the nearest step, no dither (a float's 24-bit mantissa lands exactly).
+        write_blocks<int>(file, samples, path, [](float x) {
+            constexpr double lo = -pcm24_full_scale;
+            constexpr double hi = pcm24_full_scale - 1.0;
+            const double v = static_cast<double>(x) * pcm24_full_scale;
+            const auto q = static_cast<int>(std::clamp(std::nearbyint(v), lo, hi));
+            return static_cast<int>(static_cast<unsigned>(q) << pcm24_in_int_shift);
+        }, sf_write_int);
+    }
+}
+
+}  // namespace
+
+void write_audio(const fs::path& path, std::span<const float> samples, double sample_rate_hz,
+                 const audio_write_options& options) {
+    const container cont = container_for(path);
+    check_write_request(path, samples, sample_rate_hz, options, cont);
 
     SF_INFO info{};
     info.samplerate = static_cast<int>(sample_rate_hz);
@@ -156,72 +230,8 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
     if (file.get() == nullptr) {
         throw io_error(path_text(path) + ": cannot write: " + sf_strerror(nullptr));
     }
-    if (options.root_midi) {
-        SF_INSTRUMENT inst{};
-        inst.basenote = static_cast<char>(*options.root_midi);
-        inst.velocity_lo = 0;
-        inst.velocity_hi = 127;
-        inst.key_lo = 0;
-        inst.key_hi = 127;
-        // WAV: libsndfile writes the smpl chunk. AIFF: libsndfile (1.2) accepts the instrument
-        // but writes no INST chunk, so we append one after closing (append_aiff_inst_chunk).
-        // FLAC has no instrument chunk; nothing is stored.
-        if (cont.major == SF_FORMAT_WAV &&
-            sf_command(file.get(), SFC_SET_INSTRUMENT, &inst, sizeof inst) != SF_TRUE) {
-            throw io_error(path_text(path) + ": cannot store the root note: " + sf_strerror(file.get()));
-        }
-    }
-
-    const auto fail_write = [&] {
-        throw io_error(path_text(path) + ": write failed: " + sf_strerror(file.get()));
-    };
-    const std::size_t n = samples.size();
-    const auto block_len = static_cast<std::size_t>(io_block_frames);
-    if (options.format == sample_format::float32) {
-        for (std::size_t start = 0; start < n; start += block_len) {
-            const auto len = static_cast<sf_count_t>(std::min(block_len, n - start));
-            if (sf_write_float(file.get(), samples.data() + start, len) != len) fail_write();
-        }
-    } else if (options.format == sample_format::pcm16) {
-        // TPDF dither: the sum of two independent uniform values of +-0.5 LSB each, added before
-        // rounding (Lipshitz, Wannamaker, Vanderkooy 1992, J. AES 40(5): renders the first two
-        // moments of the total error independent of the signal). Clamping to the integer range
-        // acts only within a step of full scale: +1.0 maps to 32768, one past the top, 32767,
-        // and dither may push -1.0 one step below -32768.
-        dither_rng rng(options.dither_seed);
-        std::vector<short> block(block_len);
-        constexpr double lo = -pcm16_full_scale;
-        constexpr double hi = pcm16_full_scale - 1.0;
-        for (std::size_t start = 0; start < n; start += block_len) {
-            const std::size_t len = std::min(block_len, n - start);
-            for (std::size_t i = 0; i < len; ++i) {
-                double v = static_cast<double>(samples[start + i]) * pcm16_full_scale;
-                if (options.dither) v += rng.uniform_half() + rng.uniform_half();
-                block[i] = static_cast<short>(std::clamp(std::nearbyint(v), lo, hi));
-            }
-            if (sf_write_short(file.get(), block.data(), static_cast<sf_count_t>(len)) !=
-                static_cast<sf_count_t>(len)) {
-                fail_write();
-            }
-        }
-    } else {
-        // 24-bit: round to the nearest step, no dither (a float's 24-bit mantissa lands exactly).
-        std::vector<int> block(block_len);
-        constexpr double lo = -pcm24_full_scale;
-        constexpr double hi = pcm24_full_scale - 1.0;
-        for (std::size_t start = 0; start < n; start += block_len) {
-            const std::size_t len = std::min(block_len, n - start);
-            for (std::size_t i = 0; i < len; ++i) {
-                const double v = static_cast<double>(samples[start + i]) * pcm24_full_scale;
-                const auto q = static_cast<int>(std::clamp(std::nearbyint(v), lo, hi));
-                block[i] = static_cast<int>(static_cast<unsigned>(q) << pcm24_in_int_shift);
-            }
-            if (sf_write_int(file.get(), block.data(), static_cast<sf_count_t>(len)) !=
-                static_cast<sf_count_t>(len)) {
-                fail_write();
-            }
-        }
-    }
+    if (options.root_midi) store_root_note(file.get(), cont, *options.root_midi, path);
+    write_samples(file.get(), samples, options, path);
     if (file.close() != 0) throw io_error(path_text(path) + ": write failed while closing the file");
     if (options.root_midi && cont.major == SF_FORMAT_AIFF) {
         append_aiff_inst_chunk(out.temp_path(), path, *options.root_midi);
