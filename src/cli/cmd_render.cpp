@@ -71,8 +71,8 @@ double peak_of(const std::vector<float>& y) {
     return peak;
 }
 
-int run_render(const render_options& o) {
-    // Options first (nothing is read or written before they are all good).
+/// Checks the options before anything is read or written; returns the sample format.
+sample_format check_render_options(const render_options& o) {
     const std::optional<sample_format> format = parse_sample_format(o.bits);
     if (!format) throw usage_error("--bits " + o.bits + ": must be 16, 24 or 32f");
     if (!(o.rate_hz >= min_render_rate_hz && o.rate_hz <= max_render_rate_hz) ||
@@ -90,31 +90,12 @@ int run_render(const render_options& o) {
     }
     const std::filesystem::path inputs[] = {o.patch_path};
     refuse_overwriting_input(o.out_path, inputs);
+    return *format;
+}
 
-    if (!std::isfinite(o.noise_db)) throw usage_error("--noise-db: must be a finite number of dB");
-    const transform_params tp = to_params(o.transforms);
-    const patch_read_result r = read_patch_file(o.patch_path);
-    for (const std::string& w : r.warnings) warn(w);
-    const patch p = apply_transforms_checked(r.value, tp, o.rate_hz, o.patch_path.string());
-    // The noise bands' seed is the variation seed, so one --seed fixes the whole variant.
-    const render_params params{.sample_rate_hz = o.rate_hz, .length_s = o.length_s.value_or(0.0),
-                               .gain_db = o.gain_db, .include_noise = !o.no_noise, .noise_gain_db = o.noise_db,
-                               .noise_seed = o.transforms.seed};
-    const std::string patch_name = o.patch_path.string();
-    if (static_cast<double>(render_frames(p, params)) > max_length_s * o.rate_hz) {
-        throw std::runtime_error(patch_name + ": render would last longer than the " +
-                                 printf_str("%.0f", max_length_s) + " s limit");
-    }
-    check_render_budget(p, o.rate_hz, o.length_s.value_or(0.0), o.patch_path);
-
-    const render_summary summary = summarize_render(p, params);
-    if (summary.partials_above_nyquist > 0) {
-        warn(printf_str("%zu of %zu partials are at or above the output Nyquist frequency (%.0f Hz) and "
-                        "are left out; raise --rate to keep them",
-                        summary.partials_above_nyquist, p.partials.size(), 0.5 * o.rate_hz));
-    }
-
-    std::vector<float> y = render_patch(p, params);
+/// Refuses a render that would clip (or peak beyond any normalizing), or scales it to
+/// --normalize-db; returns the peak of y as written (amplitude).
+double level_output(std::vector<float>& y, const render_options& o, const std::string& patch_name) {
     const double peak = peak_of(y);
     const double max_peak = to_amp(level_db{max_over_full_scale_db}).lin;
     if (!(peak <= max_peak)) {
@@ -147,8 +128,38 @@ int run_render(const render_options& o) {
     } else if (peak == 0.0) {
         warn(patch_name + ": the render is silent");
     }
+    return out_peak;
+}
 
-    audio_write_options wopts{.format = *format};
+int run_render(const render_options& o) {
+    const sample_format format = check_render_options(o);
+    if (!std::isfinite(o.noise_db)) throw usage_error("--noise-db: must be a finite number of dB");
+    const transform_params tp = to_params(o.transforms);
+    const patch_read_result r = read_patch_file(o.patch_path);
+    for (const std::string& w : r.warnings) warn(w);
+    const patch p = apply_transforms_checked(r.value, tp, o.rate_hz, o.patch_path.string());
+    // The noise bands' seed is the variation seed, so one --seed fixes the whole variant.
+    const render_params params{.sample_rate_hz = o.rate_hz, .length_s = o.length_s.value_or(0.0),
+                               .gain_db = o.gain_db, .include_noise = !o.no_noise, .noise_gain_db = o.noise_db,
+                               .noise_seed = o.transforms.seed};
+    const std::string patch_name = o.patch_path.string();
+    if (static_cast<double>(render_frames(p, params)) > max_length_s * o.rate_hz) {
+        throw std::runtime_error(patch_name + ": render would last longer than the " +
+                                 printf_str("%.0f", max_length_s) + " s limit");
+    }
+    check_render_budget(p, o.rate_hz, o.length_s.value_or(0.0), o.patch_path);
+
+    const render_summary summary = summarize_render(p, params);
+    if (summary.partials_above_nyquist > 0) {
+        warn(printf_str("%zu of %zu partials are at or above the output Nyquist frequency (%.0f Hz) and "
+                        "are left out; raise --rate to keep them",
+                        summary.partials_above_nyquist, p.partials.size(), 0.5 * o.rate_hz));
+    }
+
+    std::vector<float> y = render_patch(p, params);
+    const double out_peak = level_output(y, o, patch_name);
+
+    audio_write_options wopts{.format = format};
     if (p.note.f0_hz > 0.0) {
         const double midi = std::round(hz_to_midi(p.note.f0_hz));
         if (midi >= 0.0 && midi <= 127.0) wopts.root_midi = static_cast<int>(midi);
@@ -161,7 +172,7 @@ int run_render(const render_options& o) {
         partials += printf_str(", %zu above Nyquist left out", summary.partials_above_nyquist);
     }
     say(printf_str("%s: %.3f s at %.0f Hz, %s, %s, peak %s", o.out_path.string().c_str(),
-                   static_cast<double>(y.size()) / o.rate_hz, o.rate_hz, format_text(*format),
+                   static_cast<double>(y.size()) / o.rate_hz, o.rate_hz, format_text(format),
                    partials.c_str(), dbfs_text(out_peak).c_str()));
     return exit_ok;
 }
