@@ -9,7 +9,6 @@
 #include <fstream>
 #include <iterator>
 #include <regex>
-#include <random>
 #include <sstream>
 #include <vector>
 
@@ -20,6 +19,7 @@
 #include "io/audio_file.hpp"
 #include "io/patch_toml.hpp"
 #include "synthesis/render.hpp"
+#include "test_signals.hpp"
 
 using Catch::Matchers::WithinAbs;
 using Catch::Matchers::WithinRel;
@@ -57,10 +57,10 @@ double true_level_db(const db_track_spec& s, double t) {
 }
 
 partial_track make_db_track(const db_track_spec& s) {
-    std::mt19937 rng(s.seed);
+    splitmix64 rng{s.seed};
     const double floor_db = s.peak_db - s.snr_db;
     // Complex Gaussian noise whose mean power is the floor's: each part has variance N / 2.
-    std::normal_distribution<double> gauss(0.0, std::sqrt(std::pow(10.0, floor_db / 10.0) / 2.0));
+    const test::gaussian_draw<double> gauss{0.0, std::sqrt(std::pow(10.0, floor_db / 10.0) / 2.0)};
     partial_track tr;
     const int frames = static_cast<int>(s.length_s / s.hop_s);
     for (int i = 0; i < frames; ++i) {
@@ -75,8 +75,8 @@ partial_track make_db_track(const db_track_spec& s) {
     return tr;
 }
 
-double log_uniform(std::mt19937& rng, double lo, double hi) {
-    std::uniform_real_distribution<double> u(std::log(lo), std::log(hi));
+double log_uniform(splitmix64& rng, double lo, double hi) {
+    const test::uniform_draw<double> u{std::log(lo), std::log(hi)};
     return std::exp(u(rng));
 }
 
@@ -123,8 +123,8 @@ TEST_CASE("frequency and phase at t = 0 from the track", "[fitting]") {
 
 TEST_CASE("single-slope partials choose one segment", "[fitting]") {
     // 100 seeded random partials: T60 0.2-20 s (log-uniform), SNR 30-70 dB, peak -40..0 dBFS.
-    std::mt19937 rng(20261201);
-    std::uniform_real_distribution<double> snr(30.0, 70.0), peak(-40.0, 0.0);
+    splitmix64 rng{20261201};
+    const test::uniform_draw<double> snr{30.0, 70.0}, peak{-40.0, 0.0};
     std::ostringstream misses;
     int one = 0;
     int t60_ok = 0;
@@ -151,8 +151,8 @@ TEST_CASE("single-slope partials choose one segment", "[fitting]") {
 TEST_CASE("two-stage partials choose two segments", "[fitting]") {
     // 100 seeded random two-stage partials: first T60 0.3-2 s, second 3-8 times longer, the knee
     // 12-30 dB below the peak, SNR 60-70 dB (both stages clearly above the floor).
-    std::mt19937 rng(777);
-    std::uniform_real_distribution<double> snr(60.0, 70.0), ratio(3.0, 8.0), drop(12.0, 30.0);
+    splitmix64 rng{777};
+    const test::uniform_draw<double> snr{60.0, 70.0}, ratio{3.0, 8.0}, drop{12.0, 30.0};
     std::ostringstream misses;
     int two = 0;
     const int trials = 100;
@@ -201,8 +201,8 @@ std::vector<float> make_signal(const std::vector<mode>& modes, double length_s, 
                       std::cos(two_pi * m.freq_hz * t + m.phase_rad);
         }
     }
-    std::mt19937 rng(seed);
-    std::normal_distribution<double> gauss(0.0, noise_rms);
+    splitmix64 rng{seed};
+    const test::gaussian_draw<double> gauss{0.0, noise_rms};
     std::vector<float> out(n);
     for (std::size_t i = 0; i < n; ++i) out[i] = static_cast<float>(acc[i] + gauss(rng));
     return out;
@@ -293,8 +293,8 @@ TEST_CASE("beating pair through the tracker is fitted through its mean level", "
 TEST_CASE("a 4 s note with 40 partials gives a patch under 10 KB", "[fitting][analysis]") {
     // 40 harmonics of 110 Hz, levels falling 0.8 dB per harmonic, T60 from 6 s down, the lower
     // ten decaying in two stages; seeded random phases; scaled to a 0.9 peak.
-    std::mt19937 rng(40);
-    std::uniform_real_distribution<double> phase(-pi, pi);
+    splitmix64 rng{40};
+    const test::uniform_draw<double> phase{-pi, pi};
     std::vector<mode> modes;
     for (int n = 1; n <= 40; ++n) {
         const double t60 = 6.0 / (1.0 + 0.08 * n);
@@ -385,16 +385,16 @@ TEST_CASE("segment count through the tracker over random partials", "[fitting][t
     // 16 kHz (fast enough for 200 notes), 4 s, random frequency 200-2000 Hz and phase; SNR is the
     // partial's peak RMS over the RMS of white noise across the band. Seeded.
     constexpr double rate_hz = 16000.0;
-    std::mt19937 rng(4242);
-    std::uniform_real_distribution<double> freq(200.0, 2000.0), ph(-pi, pi), unit(0.0, 1.0);
+    splitmix64 rng{4242};
+    const test::uniform_draw<double> freq{200.0, 2000.0}, ph{-pi, pi}, unit{0.0, 1.0};
     auto run = [&](const std::vector<stage>& stages, double snr_db, unsigned seed) {
         const double amp = 0.5;
         const double noise_rms = amp / std::sqrt(2.0) * std::pow(10.0, -snr_db / 20.0);
         const double f = freq(rng), phase0 = ph(rng);
         const db_track_spec shape{.peak_db = 0.0, .stages = stages};
         const auto n = static_cast<std::size_t>((lead_s + 4.0) * rate_hz);
-        std::mt19937 nrng(seed);
-        std::normal_distribution<double> gauss(0.0, noise_rms);
+        splitmix64 nrng{seed};
+        const test::gaussian_draw<double> gauss{0.0, noise_rms};
         std::vector<float> x(n);
         for (std::size_t i = 0; i < n; ++i) {
             const double t = static_cast<double>(i) / rate_hz - lead_s;

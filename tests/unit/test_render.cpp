@@ -8,11 +8,11 @@
 #include <algorithm>
 #include <cmath>
 #include <cstring>
-#include <random>
 #include <vector>
 
 #include "core/patch.hpp"
 #include "synthesis/render.hpp"
+#include "test_signals.hpp"
 
 using Catch::Matchers::WithinAbs;
 using Catch::Matchers::WithinRel;
@@ -114,8 +114,8 @@ patch make_patch(std::vector<partial> parts, double length_s) {
 /// 200 random partials with 1-4 decay segments (falling, held and rising), attacks 0-30 ms; most
 /// below the fade zone, a few inside it and a few above Nyquist.
 patch random_patch(std::uint32_t seed, double rate_hz, double length_s) {
-    std::mt19937 rng(seed);
-    std::uniform_real_distribution<double> unit(0.0, 1.0);
+    splitmix64 rng{seed};
+    const test::uniform_draw<double> unit{0.0, 1.0};
     const double nyquist_hz = 0.5 * rate_hz;
     std::vector<partial> parts;
     for (int k = 0; k < 200; ++k) {
