@@ -54,8 +54,31 @@ struct reference_envelope {
     }
 };
 
+/// The band-limit fade from its definition in render.hpp (written here, not the renderer's
+/// band_limit_gain): 1 up to band_fade_start_fraction of Nyquist, 0 from Nyquist on, a raised
+/// cosine 1 -> 0 between them.
+double reference_band_gain(double freq_hz, double rate_hz) {
+    const double nyquist_hz = rate_hz / 2.0;
+    const double start_hz = nyquist_hz * band_fade_start_fraction;
+    if (freq_hz < start_hz) return 1.0;
+    if (freq_hz >= nyquist_hz) return 0.0;
+    const double x = (freq_hz - start_hz) / (nyquist_hz - start_hz);  // 0 .. 1 across the fade
+    return (1.0 + std::cos(pi * x)) / 2.0;
+}
+
+/// The end fade from its definition in render.hpp (written here, not the renderer's
+/// end_fade_gain): the last L = min(total, round(end_fade_s * rate)) frames are multiplied by
+/// (1 + cos(pi (k + 1) / L)) / 2, k = 0 .. L - 1 counted from the first of them.
+double reference_end_fade(std::size_t n, std::size_t total, double rate_hz) {
+    const double fade_len = std::min(static_cast<double>(total), std::round(end_fade_s * rate_hz));
+    const double from_end = static_cast<double>(total) - static_cast<double>(n);  // 1 for the last frame
+    if (from_end > fade_len) return 1.0;
+    const double k = fade_len - from_end;
+    return (1.0 + std::cos(pi * (k + 1.0) / fade_len)) / 2.0;
+}
+
 /// Direct evaluation of a render at frame n: G * sum_k band_gain(f_k) A_k(t) cos(2 pi f_k t + phi_k)
-/// times the end fade, t = n / rate, all in double, term by term.
+/// times the end fade, t = n / rate, all in double, term by term, every part written here.
 struct direct_render {
     double rate_hz;
     std::size_t frames;
@@ -70,7 +93,7 @@ struct direct_render {
         for (const partial& part : p.partials) {
             parts.push_back(&part);
             envs.emplace_back(part.env);
-            band_gain.push_back(band_limit_gain(part.freq_hz, rate_hz));
+            band_gain.push_back(reference_band_gain(part.freq_hz, rate_hz));
         }
     }
     double at(std::size_t n) const {
@@ -80,7 +103,7 @@ struct direct_render {
             if (band_gain[k] == 0.0) continue;
             sum += band_gain[k] * envs[k].amp(t_s) * std::cos(two_pi * parts[k]->freq_hz * t_s + parts[k]->phase_rad);
         }
-        return gain_lin * sum * end_fade_gain(n, frames, rate_hz);
+        return gain_lin * sum * reference_end_fade(n, frames, rate_hz);
     }
 };
 
@@ -348,7 +371,7 @@ TEST_CASE("a transposed partial crossing the fade zone gives no click", "[render
         const double freq_hz = base_hz * ratio;
         const patch p = make_patch({make_partial(freq_hz, 1.1, attack_s, -1.0, {{.t60_s = 3.0, .until_s = {}}})}, 0.1);
         const std::vector<float> y = render_patch(p, {.sample_rate_hz = rate_hz});
-        const double a_eff = peak_amp * band_limit_gain(freq_hz, rate_hz);
+        const double a_eff = peak_amp * reference_band_gain(freq_hz, rate_hz);
         const double bound = (2.0 * std::sin(pi * std::min(freq_hz, 0.5 * rate_hz) / rate_hz) * a_eff +
                               a_eff / (attack_s * rate_hz) + a_eff * pi / (2.0 * fade_frames)) * (1.0 + 1e-5) + 1e-7;
         double max_step = std::abs(static_cast<double>(y[0]));
