@@ -41,7 +41,7 @@ for b in self_["octave_bands"]:
         expect(b["a"][t] == b["b"][t], f"self: {b['nominal_hz']} Hz {t} {b['a'][t]} == {b['b'][t]}")
         measured += t in ("t20_s", "t30_s") and b["a"][t] is not None
 expect(measured >= 2, f"self: {measured} decay times measured (>= 2)")
-# sox vol -6dB: every bin 6 dB down (issue acceptance: 6.0 dB within 0.05 dB).
+# sox vol -6dB: every bin 6 dB down (project requirement: 6.0 dB within 0.05 dB).
 for part in ("whole", "early"):
     d = quiet[part]["log_spectral_distance_db"]
     expect(abs(d - 6.0) <= 0.05, f"quiet: {part} log-spectral distance {d} = 6.0 +- 0.05")

@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Issue "noise model" acceptance on our demo notes (pick and mallet noise): the multi-resolution
+# The noise bands bring the render closer to the source on our demo notes (pick and mallet noise): the multi-resolution
 # log-spectral distance between source and render over the first 100 ms after onset (wane
 # compare: STFT sizes 512, 1024, 2048, 4096, Hann, hop size/4, bins within 60 dB of the peak)
 # improves by at least 2 dB with the noise bands compared to without them.

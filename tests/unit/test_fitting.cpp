@@ -103,7 +103,7 @@ TEST_CASE("two-stage decay: T60s, breakpoint and peak", "[fitting]") {
     CAPTURE(seed, describe(env), fit->rms_error_db, fit->fit_end_s);
     REQUIRE(env.decay.size() == 2);
     CAPTURE(env.decay[0].t60_s, *env.decay[0].until_s, env.decay[1].t60_s);
-    CHECK_THAT(env.decay[0].t60_s, WithinRel(1.0, 0.03));   // issue 5 acceptance: 3 %
+    CHECK_THAT(env.decay[0].t60_s, WithinRel(1.0, 0.03));   // the project's requirement for T60: within 3 %
     CHECK_THAT(env.decay[1].t60_s, WithinRel(6.0, 0.03));
     CHECK_THAT(*env.decay[0].until_s, WithinAbs(0.6, 0.030));  // 30 ms
     CHECK_THAT(env.peak.db, WithinAbs(-6.0, 0.3));           // 0.3 dB
@@ -144,7 +144,7 @@ TEST_CASE("single-slope partials choose one segment", "[fitting]") {
     }
     INFO(misses.str());
     CAPTURE(one, t60_ok);
-    CHECK(one >= 95);     // issue 5 acceptance
+    CHECK(one >= 95);     // project requirement: at least 95 of 100 single-decay tracks
     CHECK(t60_ok >= 95);  // first-segment T60 within 10 % (our own check)
 }
 
@@ -172,7 +172,7 @@ TEST_CASE("two-stage partials choose two segments", "[fitting]") {
     }
     INFO(misses.str());
     CAPTURE(two);
-    CHECK(two >= 90);  // issue 5 acceptance
+    CHECK(two >= 90);  // project requirement: at least 90 of 100 two-stage tracks
 }
 
 // ---- Real signals through the tracker (tracking/tracker.hpp) and the whole analysis ----
@@ -244,7 +244,7 @@ TEST_CASE("two-stage decay through the tracker", "[fitting][tracker]") {
     const double onset_error_s = tr.onset_s - lead_s;
     CAPTURE(tr.onset_s, tr.window_s, tr.hop_s, describe(env), fit->fit_end_s, fit->rms_error_db);
     REQUIRE(env.decay.size() == 2);
-    CHECK_THAT(env.decay[0].t60_s, WithinRel(1.0, 0.03));        // issue 5 acceptance: 3 %
+    CHECK_THAT(env.decay[0].t60_s, WithinRel(1.0, 0.03));        // the project's requirement for T60: within 3 %
     CHECK_THAT(env.decay[1].t60_s, WithinRel(6.0, 0.03));
     CHECK_THAT(*env.decay[0].until_s + onset_error_s, WithinAbs(0.6, 0.030));  // 30 ms, source time
     CHECK_THAT(env.peak.db, WithinAbs(20.0 * std::log10(amp), 0.3));            // 0.3 dB
@@ -285,7 +285,7 @@ TEST_CASE("beating pair through the tracker is fitted through its mean level", "
         worst_db = std::max(worst_db, std::abs(envelope_level(env, ts).db - truth));
     }
     CAPTURE(worst_db);
-    CHECK(worst_db <= 3.0);  // issue 5 acceptance: within 3 dB of the mean level curve
+    CHECK(worst_db <= 3.0);  // project requirement: within 3 dB of the mean level curve
     for (const decay_segment& d : env.decay) CHECK_THAT(d.t60_s, WithinRel(t60, 0.10));  // T60 within 10 %
     CHECK(env.decay.size() == 1);
 }
@@ -317,8 +317,8 @@ TEST_CASE("a 4 s note with 40 partials gives a patch under 10 KB", "[fitting][an
         CHECK(found);
     }
     CHECK(r.summary.partials >= 40);
-    CHECK(text.size() < 10000);  // issue 5 acceptance: under 10 KB (the 24-bit WAV is ~576 KB)
-    // The patch reads back to the same values (h-patch's reader; canonical text round trip).
+    CHECK(text.size() < 10000);  // project requirement: under 10 KB (the 24-bit WAV is ~576 KB)
+    // The patch reads back to the same values (io/patch_toml's reader; canonical text round trip).
     CHECK(format_patch(parse_patch(text, "note40.toml").value) == text);
 }
 
@@ -359,7 +359,7 @@ TEST_CASE("demo bar: modal frequencies and T60s from the model's ground truth", 
 }
 
 TEST_CASE("demo pluck resynthesis starts in phase with the source", "[fitting][analysis][demo]") {
-    // Render the patch of the demo string (h-render's oscillator bank) and compare it with the
+    // Render the patch of the demo string (synthesis/render's oscillator bank) and compare it with the
     // source over the first 100 ms after the onset: time-domain SNR = 10 log10(sum x^2 / sum (x - y)^2).
     const mono_audio a = read_audio(demo_path("steel-string-d3.wav"));
     const analysis_result r = analyze_note(a.samples, a.sample_rate_hz, {.tracking = {}, .source_file = "s", .note_name = "s"});
@@ -377,7 +377,7 @@ TEST_CASE("demo pluck resynthesis starts in phase with the source", "[fitting][a
     }
     const double snr_db = 10.0 * std::log10(sig / err);
     CAPTURE(r.value.source.onset_s, r.summary.partials, snr_db);
-    CHECK(snr_db >= 15.0);  // issue 5 acceptance
+    CHECK(snr_db >= 15.0);  // project requirement: render within 15 dB SNR of the source
 }
 
 TEST_CASE("segment count through the tracker over random partials", "[fitting][tracker]") {
@@ -430,7 +430,7 @@ TEST_CASE("segment count through the tracker over random partials", "[fitting][t
     }
     INFO(misses.str());
     CAPTURE(one, two);
-    CHECK(one >= 95);  // issue 5 acceptance
+    CHECK(one >= 95);  // project requirement: at least 95 of 100 tracks
     CHECK(two >= 90);
 }
 

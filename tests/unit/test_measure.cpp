@@ -248,7 +248,7 @@ std::vector<double> periodic_white_noise(int period_frames, std::size_t length_f
 TEST_CASE("T30 of decaying white noise in octave bands 250 Hz .. 4 kHz", "[measure][decay]") {
     // Periodic pseudo-random white noise (period 0.1 s) under an exponential envelope with
     // T60 = 1.5 s, and a steady Gaussian floor 80 dB below the start: every octave band decays at
-    // the same known rate, so T30 = 1.5 s within 2 % (issue acceptance). Periodic noise has the
+    // the same known rate, so T30 = 1.5 s within 2 % (project requirement). Periodic noise has the
     // same band power in every period, so no realisation-to-realisation spread enters.
     const double t60_s = 1.5;
     const std::uint32_t seed = GENERATE(1u, 2u, 3u);
@@ -324,7 +324,7 @@ TEST_CASE("spectral distance: self 0, a copy 6 dB quieter 6.0 dB", "[measure][sp
     for (std::size_t i = 0; i < a.size(); ++i) b[i] = static_cast<float>(gain * static_cast<double>(a[i]));
     const spectral_distance_result quieter = spectral_distance(a, b);
     CAPTURE(quieter.log_spectral_distance_db, quieter.spectral_convergence);
-    // Every bin is 6 dB lower: exactly 6 dB and |1 - gain| = 0.49881 (issue acceptance: within 0.05 dB).
+    // Every bin is 6 dB lower: exactly 6 dB and |1 - gain| = 0.49881 (project requirement: within 0.05 dB).
     CHECK_THAT(quieter.log_spectral_distance_db, WithinAbs(6.0, 0.05));
     CHECK_THAT(quieter.spectral_convergence, WithinAbs(1.0 - gain, 1e-5));
     for (const auto& r : quieter.per_resolution) {

@@ -1,6 +1,6 @@
 // The patch format (version 1): canonical writing, byte-identical round trips, and validation
 // errors that name file, line and key. The reference for each rule is the format definition
-// (issue 3, patches/README.md); TOML syntax facts cite the TOML v1.0.0 specification.
+// (patches/README.md); TOML syntax facts cite the TOML v1.0.0 specification.
 #include <catch2/catch.hpp>
 
 #include <algorithm>

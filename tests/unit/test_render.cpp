@@ -1,5 +1,5 @@
 // The renderer (src/synthesis/render.cpp) against references outside it: a direct double-precision
-// evaluation of the patch formula written here from the format's definition (issue 3), Schroeder
+// evaluation of the patch formula written here from the format's definition (patches/README.md), Schroeder
 // backward integration (ISO 3382-1) written here, and FFTW as the reference FFT.
 #include <catch2/catch.hpp>
 
@@ -276,7 +276,7 @@ TEST_CASE("a 1000 Hz partial with T60 = 2 s: Schroeder T30 and FFT frequency", "
 
     const double t30_s = schroeder_t30_s(y, rate_hz);
     CAPTURE(t30_s);
-    CHECK_THAT(t30_s, WithinRel(2.0, 0.01));  // exact ground truth T60 = 2 s; issue 6 tolerance 1 %
+    CHECK_THAT(t30_s, WithinRel(2.0, 0.01));  // exact ground truth T60 = 2 s; project tolerance 1 %
 
     // Long FFT (FFTW), zero padded 7x to 2^21 points (bin 0.0229 Hz), parabolic interpolation of
     // the log magnitude around the peak bin.
@@ -288,7 +288,7 @@ TEST_CASE("a 1000 Hz partial with T60 = 2 s: Schroeder T30 and FFT frequency", "
     const double offset_bins = 0.5 * (a - c) / (a - 2.0 * b + c);
     const double freq_hz = (static_cast<double>(k) + offset_bins) * bin_hz;
     CAPTURE(freq_hz, k, offset_bins);
-    CHECK_THAT(freq_hz, WithinAbs(1000.0, 0.001));  // issue 6 acceptance: within 0.001 Hz
+    CHECK_THAT(freq_hz, WithinAbs(1000.0, 0.001));  // project requirement: within 0.001 Hz
 }
 
 TEST_CASE("a partial above the output Nyquist is left out: no alias at 12 kHz", "[render]") {
@@ -408,7 +408,7 @@ TEST_CASE("the attack follows the format's definition", "[render]") {
     double max_err = 0.0;
     for (std::size_t n = 0; n < 960; ++n) {
         const double t = static_cast<double>(n) / rate_hz;
-        const double expected = peak_amp * t / attack_s * std::cos(two_pi * 440.0 * t + 0.7);  // issue 3
+        const double expected = peak_amp * t / attack_s * std::cos(two_pi * 440.0 * t + 0.7);  // the format's linear attack
         max_err = std::max(max_err, std::abs(static_cast<double>(y[n]) - expected));
     }
     // At the end of the attack the level is the peak, then falls 60 dB per 1.5 s.
