@@ -169,6 +169,23 @@ struct validator {
 
 void validate(const patch& p, const fail_fn& fail) { validator{fail}.check(p); }
 
+std::optional<std::string> first_broken_rule(const patch& p) {
+    struct broken {
+        std::string message;
+    };
+    patch copy = p;
+    canonicalize(copy);
+    try {
+        validate_and_round(copy, [](const std::string& path, const std::string& what) {
+            const std::string shown = display(path);
+            throw broken{shown.empty() ? what : shown + " " + what};
+        });
+    } catch (const broken& b) {
+        return b.message;
+    }
+    return std::nullopt;
+}
+
 void validate_and_round(patch& p, const fail_fn& fail) {
     validator{fail}.check(p);
     patch_numbers::round_to_file_precision(p);

@@ -5,6 +5,7 @@
 
 #include <cstddef>
 #include <functional>
+#include <optional>
 #include <string>
 #include <string_view>
 
@@ -51,6 +52,11 @@ std::string display(const std::string& path);
 
 /// Checks every rule of the format on p; calls fail (which must throw) on the first broken one.
 void validate(const patch& p, const fail_fn& fail);
+/// The first rule p breaks, as given or once rounded to the file's precision, as a message
+/// ("partial 3: decay[2].t60_s must not be 0"); empty when p is a valid patch. p is not changed.
+/// For `edit` and `blend`, which check their result before writing it.
+std::optional<std::string> first_broken_rule(const patch& p);
+
 /// Validates p as given, then rounded to the file's precision (rounding can merge two breakpoints
 /// or turn a tiny T60 into 0). Leaves p rounded.
 void validate_and_round(patch& p, const fail_fn& fail);
