@@ -1,3 +1,4 @@
+#include "core/text_format.hpp"
 #include "analysis/analyze.hpp"
 
 #include <cassert>
@@ -21,11 +22,7 @@ namespace {
 /// note.length_s is the analysed length after the onset, rounded up to this step (seconds).
 constexpr double length_step_s = 0.01;
 
-std::string seconds_text(double s) {
-    char buf[64];
-    std::snprintf(buf, sizeof buf, "%.3f s", s);
-    return buf;
-}
+std::string seconds_text(double s) { return printf_text("%.3f s", s); }
 
 /// The stochastic part (Serra and Smith 1990): the source minus the partials' resynthesis, from
 /// the onset on, measured and fitted in noise bands (analysis/noise_model.hpp).

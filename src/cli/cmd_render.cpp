@@ -10,6 +10,7 @@
 #include <string>
 #include <vector>
 
+#include "core/text_format.hpp"
 #include "cli/common.hpp"
 #include "cli/transform_options.hpp"
 #include "synthesis/render_budget.hpp"
@@ -45,13 +46,7 @@ struct render_options {
     transform_cli transforms;
 };
 
-std::string printf_str(const char* fmt, auto... args) {
-    char buf[512];
-    std::snprintf(buf, sizeof buf, fmt, args...);
-    return buf;
-}
-
-std::string dbfs_text(double amp) { return printf_str("%+.2f dBFS", to_level(amp_lin{amp}).db); }
+std::string dbfs_text(double amp) { return printf_text("%+.2f dBFS", to_level(amp_lin{amp}).db); }
 
 const char* format_text(sample_format f) {
     switch (f) {
@@ -77,16 +72,16 @@ sample_format check_render_options(const render_options& o) {
     if (!format) throw usage_error("--bits " + o.bits + ": must be 16, 24 or 32f");
     if (!(o.rate_hz >= min_render_rate_hz && o.rate_hz <= max_render_rate_hz) ||
         o.rate_hz != std::round(o.rate_hz)) {
-        throw std::runtime_error(printf_str("--rate %g: must be a whole number of Hz from %.0f to %.0f",
+        throw std::runtime_error(printf_text("--rate %g: must be a whole number of Hz from %.0f to %.0f",
                                             o.rate_hz, min_render_rate_hz, max_render_rate_hz));
     }
     if (o.length_s && !(*o.length_s > 0.0 && *o.length_s <= max_length_s)) {
-        throw std::runtime_error(printf_str("--length-s %g: must be more than 0 and at most %.0f s",
+        throw std::runtime_error(printf_text("--length-s %g: must be more than 0 and at most %.0f s",
                                             *o.length_s, max_length_s));
     }
     if (!std::isfinite(o.gain_db)) throw usage_error("--gain-db: must be a finite number of dB");
     if (o.normalize_db && !(*o.normalize_db <= 0.0 && std::isfinite(*o.normalize_db))) {
-        throw usage_error(printf_str("--normalize-db %g: must be at most 0 dBFS", *o.normalize_db));
+        throw usage_error(printf_text("--normalize-db %g: must be at most 0 dBFS", *o.normalize_db));
     }
     const std::filesystem::path inputs[] = {o.patch_path};
     refuse_overwriting_input(o.out_path, inputs);
@@ -101,7 +96,7 @@ double level_output(std::vector<float>& y, const render_options& o, const std::s
     if (!(peak <= max_peak)) {
         throw std::runtime_error(patch_name + ": the render would peak at " +
                                  (std::isfinite(peak) ? dbfs_text(peak) : std::string("a non-finite level")) +
-                                 printf_str(", more than %.0f dB over full scale; check the patch's "
+                                 printf_text(", more than %.0f dB over full scale; check the patch's "
                                             "peak_db, gain_db and rising segments (negative t60_s)",
                                             max_over_full_scale_db));
     }
@@ -117,14 +112,14 @@ double level_output(std::vector<float>& y, const render_options& o, const std::s
             for (float& v : y) v = std::nextafter(v, 0.0F);
             out_peak = peak_of(y);
         }
-        say(printf_str("normalized: peak %s -> %s (gain %+.2f dB)", dbfs_text(peak).c_str(),
+        say(printf_text("normalized: peak %s -> %s (gain %+.2f dB)", dbfs_text(peak).c_str(),
                        dbfs_text(out_peak).c_str(), to_level(amp_lin{scale}).db));
     } else if (peak > 1.0) {
         const double peak_db = to_level(amp_lin{peak}).db;
         const double advice_gain_db = o.gain_db - std::ceil((peak_db + advice_headroom_db) * 10.0) / 10.0;
         throw std::runtime_error(patch_name + ": the render would peak at " + dbfs_text(peak) +
                                  ", over full scale; use --normalize-db -1 or " +
-                                 printf_str("--gain-db %.1f", advice_gain_db));
+                                 printf_text("--gain-db %.1f", advice_gain_db));
     } else if (peak == 0.0) {
         warn(patch_name + ": the render is silent");
     }
@@ -145,13 +140,13 @@ int run_render(const render_options& o) {
     const std::string patch_name = o.patch_path.string();
     if (static_cast<double>(render_frames(p, params)) > max_length_s * o.rate_hz) {
         throw std::runtime_error(patch_name + ": render would last longer than the " +
-                                 printf_str("%.0f", max_length_s) + " s limit");
+                                 printf_text("%.0f", max_length_s) + " s limit");
     }
     check_render_budget(p, o.rate_hz, o.length_s.value_or(0.0), o.patch_path);
 
     const render_summary summary = summarize_render(p, params);
     if (summary.partials_above_nyquist > 0) {
-        warn(printf_str("%zu of %zu partials are at or above the output Nyquist frequency (%.0f Hz) and "
+        warn(printf_text("%zu of %zu partials are at or above the output Nyquist frequency (%.0f Hz) and "
                         "are left out; raise --rate to keep them",
                         summary.partials_above_nyquist, p.partials.size(), 0.5 * o.rate_hz));
     }
@@ -166,12 +161,12 @@ int run_render(const render_options& o) {
     }
     write_audio(o.out_path, y, o.rate_hz, wopts);
 
-    std::string partials = printf_str("%zu partials", summary.partials_rendered);
-    if (summary.partials_faded > 0) partials += printf_str(", %zu faded near Nyquist", summary.partials_faded);
+    std::string partials = printf_text("%zu partials", summary.partials_rendered);
+    if (summary.partials_faded > 0) partials += printf_text(", %zu faded near Nyquist", summary.partials_faded);
     if (summary.partials_above_nyquist > 0) {
-        partials += printf_str(", %zu above Nyquist left out", summary.partials_above_nyquist);
+        partials += printf_text(", %zu above Nyquist left out", summary.partials_above_nyquist);
     }
-    say(printf_str("%s: %.3f s at %.0f Hz, %s, %s, peak %s", o.out_path.string().c_str(),
+    say(printf_text("%s: %.3f s at %.0f Hz, %s, %s, peak %s", o.out_path.string().c_str(),
                    static_cast<double>(y.size()) / o.rate_hz, o.rate_hz, format_text(format),
                    partials.c_str(), dbfs_text(out_peak).c_str()));
     return exit_ok;

@@ -7,6 +7,7 @@
 #include <optional>
 #include <string>
 
+#include "core/text_format.hpp"
 #include "cli/common.hpp"
 #include "io/atomic_file.hpp"
 #include "io/audio_file.hpp"
@@ -22,9 +23,7 @@ namespace {
 
 std::string num(const char* format, double v) {
     if (!std::isfinite(v)) return v > 0 ? "inf" : "-";
-    char buf[64];
-    std::snprintf(buf, sizeof buf, format, v);
-    return buf;
+    return printf_text(format, v);
 }
 
 /// Audio before the patch's onset kept when the report re-tracks or compares the source: as

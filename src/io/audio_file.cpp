@@ -12,6 +12,7 @@
 #include <string>
 #include <system_error>
 
+#include "core/text_format.hpp"
 #include "core/units.hpp"
 #include "io/audio_container.hpp"
 #include "io/errors.hpp"
@@ -44,15 +45,9 @@ namespace {
 std::string bytes_text(std::uintmax_t bytes) {
     constexpr std::uintmax_t mib = std::uintmax_t{1} << 20;
     constexpr double bytes_per_gib = 1073741824.0;
-    char buf[96];
-    if (bytes >= (mib << 10)) {
-        std::snprintf(buf, sizeof buf, "%.4g GiB (%ju bytes)", static_cast<double>(bytes) / bytes_per_gib, bytes);
-    } else if (bytes >= mib) {
-        std::snprintf(buf, sizeof buf, "%.4g MiB (%ju bytes)", static_cast<double>(bytes) / static_cast<double>(mib), bytes);
-    } else {
-        std::snprintf(buf, sizeof buf, "%ju bytes", bytes);
-    }
-    return buf;
+    if (bytes >= (mib << 10)) return printf_text("%.4g GiB (%ju bytes)", static_cast<double>(bytes) / bytes_per_gib, bytes);
+    if (bytes >= mib) return printf_text("%.4g MiB (%ju bytes)", static_cast<double>(bytes) / static_cast<double>(mib), bytes);
+    return printf_text("%ju bytes", bytes);
 }
 
 /// The checks before libsndfile opens the file: it exists, is no directory, is not empty and not
@@ -93,10 +88,9 @@ void check_header(const fs::path& path, const SF_INFO& info, const audio_read_op
     if (info.frames <= 0) throw io_error(path_text(path) + ": no audio frames (zero length)");
     const double claimed_s = static_cast<double>(info.frames) / rate_hz;
     if (claimed_s > options.max_length_s) {
-        char buf[192];
-        std::snprintf(buf, sizeof buf, ": %.4g s long, longer than the %g s limit on input length (raise it with --max-input-s)",
-                      claimed_s, options.max_length_s);
-        throw io_error(path_text(path) + buf);
+        throw io_error(path_text(path) + printf_text(": %.4g s long, longer than the %g s limit on input length "
+                                                     "(raise it with --max-input-s)",
+                                                     claimed_s, options.max_length_s));
     }
 }
 

@@ -1,5 +1,6 @@
 // Writing audio files (libsndfile): 16-bit with TPDF dither, 24-bit, 32-bit float; the root note
 // in the instrument chunk; atomic.
+#include "core/text_format.hpp"
 #include "io/audio_file.hpp"
 
 #include <sndfile.h>
@@ -27,11 +28,7 @@ using namespace sndfile_common;
 namespace {
 
 /// 20 log10(peak), for messages.
-std::string peak_dbfs_text(double peak) {
-    char buf[64];
-    std::snprintf(buf, sizeof buf, "%+.2f dBFS", to_level(amp_lin{peak}).db);
-    return buf;
-}
+std::string peak_dbfs_text(double peak) { return printf_text("%+.2f dBFS", to_level(amp_lin{peak}).db); }
 
 /// xorshift64* (Vigna 2016, "An experimental exploration of Marsaglia's xorshift generators,
 /// scrambled", from memory), seeded through splitmix64 so any seed (also 0) gives a good state.
@@ -119,9 +116,7 @@ void check_write_request(const fs::path& path, std::span<const float> samples, d
     }
     if (!(sample_rate_hz >= min_sample_rate_hz && sample_rate_hz <= max_sample_rate_hz) ||
         sample_rate_hz != std::round(sample_rate_hz)) {
-        char buf[64];
-        std::snprintf(buf, sizeof buf, "%.10g", sample_rate_hz);
-        throw io_error(path_text(path) + ": cannot write at sample rate " + buf +
+        throw io_error(path_text(path) + ": cannot write at sample rate " + printf_text("%.10g", sample_rate_hz) +
                        " Hz (needs a whole number in 1 Hz..768 kHz)");
     }
     if (samples.empty()) throw io_error(path_text(path) + ": no samples to write");

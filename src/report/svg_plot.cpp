@@ -1,4 +1,5 @@
 // SVG plot pieces and text helpers for the report (see svg_plot.hpp).
+#include "core/text_format.hpp"
 #include "report/svg_plot.hpp"
 
 #include <algorithm>
@@ -26,17 +27,9 @@ rgb cubehelix(double lightness) {
 
 rgb level_colour(double fraction) { return cubehelix(1.0 - std::clamp(fraction, 0.0, 1.0)); }
 
-std::string hex_colour(rgb c) {
-    char buf[8];
-    std::snprintf(buf, sizeof buf, "#%02x%02x%02x", c.r, c.g, c.b);
-    return buf;
-}
+std::string hex_colour(rgb c) { return printf_text("#%02x%02x%02x", c.r, c.g, c.b); }
 
-std::string fmt(const char* format, double v) {
-    char buf[64];
-    std::snprintf(buf, sizeof buf, format, v);
-    return buf;
-}
+std::string fmt(const char* format, double v) { return printf_text(format, v); }
 
 std::string escape_html(std::string_view text) {
     std::string out;
@@ -70,9 +63,7 @@ constexpr int axis_x_ticks = 8, axis_y_ticks = 6;  // about this many ticks per 
 int tick_decimals(double step) { return std::max(0, static_cast<int>(-std::floor(std::log10(step) + 1e-9))); }
 
 std::string tick_text(double v, double step) {
-    char buf[64];
-    std::snprintf(buf, sizeof buf, "%.*f", tick_decimals(step), std::abs(v) < 1e-9 * step ? 0.0 : v);
-    return buf;
+    return printf_text("%.*f", tick_decimals(step), std::abs(v) < 1e-9 * step ? 0.0 : v);
 }
 
 }  // namespace

@@ -1,4 +1,5 @@
 // track_note: onset -> survey spectrum -> f0 and window -> STFT frames -> peaks -> tracks -> B.
+#include "core/text_format.hpp"
 #include "tracking/tracker.hpp"
 
 #include <algorithm>
@@ -100,9 +101,7 @@ float check_input(std::span<const float> x, double fs, const tracking_params& pa
     for (float v : x) max_dev = std::max(max_dev, std::abs(v - dc));
     if (max_dev < min_signal) refuse("no signal: the samples are constant (silence or DC only)");
     if (const clipping_report clip = find_clipping(x); clip.clipped) {
-        char peak_text[32];
-        std::snprintf(peak_text, sizeof peak_text, "%.2f", 20.0 * std::log10(clip.peak_lin));
-        refuse("clipped: the waveform is flattened at its peak (" + std::string(peak_text) + " dBFS) in " +
+        refuse("clipped: the waveform is flattened at its peak (" + printf_text("%.2f", 20.0 * std::log10(clip.peak_lin)) + " dBFS) in " +
                std::to_string(clip.runs) + " places; the partial levels would be wrong");
     }
     return dc;
