@@ -42,7 +42,7 @@ constexpr int floor_median_frames = 5;
 /// exceeds the floor (mean noise power at the peak) by excess_db: the level error is
 /// 20 log10 |1 + n / A| ~ db_per_neper Re(n / A), with Var = db_per_neper^2 N / (2 A^2).
 double noise_sigma_db(double excess_db) {
-    return db_per_neper / std::sqrt(2.0) * std::pow(10.0, -excess_db / 20.0);
+    return db_per_neper / std::sqrt(2.0) * to_amp(level_db{-excess_db}).lin;
 }
 
 /// Level of the decay pieces at time t >= the first piece's start (envelope_level without
@@ -156,7 +156,7 @@ partial_fit fit_region(const std::vector<track_point>& pts, std::span<const doub
             const double sn = noise_sigma_db(expected_excess_db[first + i]);
             const double w = 1.0 / (offset_sigma_db * offset_sigma_db + sn * sn);
             const double r = level[i] - decay_level_db(pieces, time[i]);
-            sp += w * std::pow(10.0, std::min(r, max_offset_residual_db) / 10.0);
+            sp += w * db_to_power(std::min(r, max_offset_residual_db));
             sw += w;
         }
         env.peak.db += power_to_db(sp / sw);
@@ -259,7 +259,7 @@ std::optional<partial_fit> fit_partial(const partial_track& track, const envelop
     // Frequency: amplitude-weighted mean over the fitted frames.
     double fa = 0.0, fw = 0.0;
     for (std::size_t i = peak; i < end; ++i) {
-        const double a = std::pow(10.0, pts[i].level_db / 20.0);
+        const double a = to_amp(level_db{pts[i].level_db}).lin;
         fa += a * pts[i].freq_hz;
         fw += a;
     }
@@ -271,7 +271,7 @@ std::optional<partial_fit> fit_partial(const partial_track& track, const envelop
     int used = 0;
     for (std::size_t i = peak; i < end && used < params.phase_frames; ++i) {
         if (excess[i] < params.floor_margin_db) continue;
-        const double a = std::pow(10.0, pts[i].level_db / 20.0);
+        const double a = to_amp(level_db{pts[i].level_db}).lin;
         const double phi = pts[i].phase_rad - two_pi * out.freq_hz * pts[i].time_s;
         re += a * std::cos(phi);
         im += a * std::sin(phi);

@@ -42,7 +42,7 @@ double track_frequency_hz(const partial_track& track, double window_s) {
     for (const auto& pt : track.points)
         if (pt.time_s >= settle_s && pt.level_db >= pt.floor_db + settled_snr_db) {
             f.push_back(pt.freq_hz);
-            w.push_back(std::pow(10.0, pt.level_db / 20.0));
+            w.push_back(to_amp(level_db{pt.level_db}).lin);
         }
     if (f.empty())
         for (const auto& pt : track.points) f.push_back(pt.freq_hz), w.push_back(1.0);
@@ -106,7 +106,7 @@ track_ranking rank_tracks(const std::vector<partial_track>& done, double window_
         rep_freq[i] = track_frequency_hz(done[i], window_s);
         strength[i] = best;
         peak_snr_db[i] = best_snr;
-        weight[i] = std::pow(10.0, std::min(best_snr, max_snr_weight_db) / 10.0) * double(done[i].points.size());
+        weight[i] = db_to_power(std::min(best_snr, max_snr_weight_db)) * double(done[i].points.size());
     }
     std::vector<std::size_t>& order = r.order;
     order.resize(done.size());

@@ -132,7 +132,7 @@ series_guess guess_series(const survey_result& sv, const tracking_params& params
             for (std::size_t i = 0; i < sv.peaks.size(); ++i) {
                 hn[i] = harmonic_number(sv.peaks[i].freq_hz, f0_hz, b, harmonic_tolerance_rel);
                 freqs[i] = sv.peaks[i].freq_hz;
-                weights[i] = std::pow(10.0, sv.peaks[i].level_db / 10.0);
+                weights[i] = db_to_power(sv.peaks[i].level_db);
             }
             const inharmonicity_fit fit = fit_harmonic_series(hn, freqs, weights, pitch_harmonics);
             if (fit.used < 2) break;
