@@ -39,7 +39,7 @@ void add_noise_model(patch& p, std::span<const float> part, double sample_rate_h
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
                              const analysis_params& params) {
     assert(sample_rate_hz > 0.0);
-    assert(params.max_segments >= 1 && params.max_segments <= max_decay_segments);
+    assert(params.max_segments >= 1 && params.max_segments <= max_fit_decay_segments);
     const double file_s = static_cast<double>(samples.size()) / sample_rate_hz;
     if (params.start_s < 0.0 || params.end_s < 0.0)
         throw analysis_error("start and end times must not be negative");

@@ -73,7 +73,7 @@ void check_header(const fs::path& path, const SF_INFO& info, const audio_read_op
                   std::uintmax_t file_size) {
     if (info.channels <= 0) throw io_error(path_text(path) + ": header gives no channels");
     const double rate_hz = static_cast<double>(info.samplerate);
-    if (!(rate_hz >= min_sample_rate_hz && rate_hz <= max_sample_rate_hz)) {
+    if (!(rate_hz >= min_file_rate_hz && rate_hz <= max_file_rate_hz)) {
         throw io_error(path_text(path) + ": sample rate " + std::to_string(info.samplerate) +
                        " Hz is outside 1 Hz..768 kHz (corrupt header?)");
     }

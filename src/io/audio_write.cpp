@@ -114,7 +114,7 @@ void check_write_request(const fs::path& path, std::span<const float> samples, d
     if (options.format == sample_format::float32 && cont.major == SF_FORMAT_FLAC) {
         throw io_error(path_text(path) + ": FLAC has no 32-bit float format (use 16 or 24 bits, or .wav/.aiff)");
     }
-    if (!(sample_rate_hz >= min_sample_rate_hz && sample_rate_hz <= max_sample_rate_hz) ||
+    if (!(sample_rate_hz >= min_file_rate_hz && sample_rate_hz <= max_file_rate_hz) ||
         sample_rate_hz != std::round(sample_rate_hz)) {
         throw io_error(path_text(path) + ": cannot write at sample rate " + printf_text("%.10g", sample_rate_hz) +
                        " Hz (needs a whole number in 1 Hz..768 kHz)");

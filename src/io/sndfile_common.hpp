@@ -11,10 +11,11 @@ namespace wane::sndfile_common {
 
 namespace fs = std::filesystem;
 
-/// Accepted sample rates (inclusive). 768 kHz is the highest rate in common use (common practice,
+/// Sample rates of the audio files read and written (inclusive; the patch format's own bound on
+/// source.sample_rate_hz is patch_rules::max_sample_rate_hz). 768 kHz is the highest rate in common use (common practice,
 /// no single source); anything outside is a corrupt or hostile header.
-inline constexpr double min_sample_rate_hz = 1.0;
-inline constexpr double max_sample_rate_hz = 768000.0;
+inline constexpr double min_file_rate_hz = 1.0;
+inline constexpr double max_file_rate_hz = 768000.0;
 /// Frames per block when writing mono, and samples per block when reading (any channel count):
 /// bounded memory per call.
 inline constexpr sf_count_t io_block_frames = 65536;
