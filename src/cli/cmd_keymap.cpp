@@ -20,6 +20,7 @@
 #include <vector>
 
 #include "cli/common.hpp"
+#include "cli/loudness.hpp"
 #include "cli/transform_options.hpp"
 #include "io/atomic_file.hpp"
 #include "io/audio_file.hpp"
@@ -70,12 +71,6 @@ struct keymap_options {
     transform_cli transforms;
 };
 
-double peak_abs(const std::vector<float>& x) {
-    float m = 0.0f;
-    for (float v : x) m = std::max(m, std::abs(v));
-    return static_cast<double>(m);
-}
-
 std::string fmt(double v, int precision = 3) {
     std::ostringstream s;
     s.setf(std::ios::fixed);
@@ -111,6 +106,17 @@ void parallel_for(std::size_t count, int threads, Work work) {
     worker();
     for (std::thread& t : pool) t.join();
     if (error) std::rethrow_exception(error);
+}
+
+/// A write error from the staging folder, told as the destination's: the staging path replaced
+/// by the output folder, and what became of the folder.
+std::string staged_message(std::string what, const std::filesystem::path& stage, const std::filesystem::path& dir) {
+    const std::string from = stage.string();
+    for (std::size_t at = what.find(from); at != std::string::npos; at = what.find(from, at)) {
+        what.replace(at, from.size(), dir.string());
+    }
+    while (!what.empty() && (what.back() == '.' || what.back() == ' ')) what.pop_back();
+    return what + "; nothing of the new set was written (" + dir.string() + " is as it was)";
 }
 
 int run_keymap(keymap_options o) {
@@ -183,16 +189,37 @@ int run_keymap(keymap_options o) {
         check_render_budget(patches.back(), o.rate_hz, 0.0, in);
     }
 
+    // ---- The set is built in a staging folder inside the output folder and moved into place when
+    // complete: a failure or an interrupt leaves the previous set (if any) untouched.
     const std::filesystem::path dir{o.output_dir};
+    const std::filesystem::path sfz_path = dir / (in.stem().string() + ".sfz");
+    const std::vector<std::filesystem::path> inputs{in};
+    std::vector<std::string> names;
+    names.reserve(jobs.size() + 1);
+    for (const keymap_job& j : jobs) names.push_back(j.sample);
+    names.push_back(sfz_path.filename().string());  // moved last
     std::error_code ec;
+    for (const std::string& name : names) {
+        refuse_overwriting_input(dir / name, inputs);
+        if (std::filesystem::is_directory(dir / name, ec)) {
+            throw wane::io_error((dir / name).string() + ": is a folder; the set needs this name for a file");
+        }
+    }
+    const bool dir_existed = std::filesystem::exists(dir, ec);
     std::filesystem::create_directories(dir, ec);
     if (ec || !std::filesystem::is_directory(dir)) {
         throw wane::io_error(o.output_dir + ": cannot create the output folder" + (ec ? ": " + ec.message() : std::string()));
     }
-    const std::filesystem::path sfz_path = dir / (in.stem().string() + ".sfz");
-    const std::vector<std::filesystem::path> inputs{in};
-    refuse_overwriting_input(sfz_path, inputs);
-    for (const keymap_job& j : jobs) refuse_overwriting_input(dir / j.sample, inputs);
+    // A folder this run created is removed again when the run fails.
+    struct remove_new_folder {
+        std::filesystem::path dir;
+        bool armed;
+        ~remove_new_folder() {
+            std::error_code ignored;
+            if (armed) std::filesystem::remove(dir, ignored);  // only when empty
+        }
+    } new_folder{dir, !dir_existed};
+    staging_folder stage(dir);
 
     // ---- Render (peaks), then level and write.
     std::size_t total_frames = 0;
@@ -207,8 +234,12 @@ int run_keymap(keymap_options o) {
         if (keep) kept[i] = std::move(x);
         bar.advance();
     });
-    const auto loudest = static_cast<std::size_t>(std::max_element(peaks.begin(), peaks.end()) - peaks.begin());
+    std::size_t loudest = 0;
+    for (std::size_t i = 1; i < peaks.size(); ++i) {
+        if (!(peaks[i] <= peaks[loudest])) loudest = i;  // NaN counts as loudest
+    }
     const double peak = peaks[loudest];
+    refuse_too_loud(peak, o.input + ": " + jobs[loudest].sample);
     double gain = 1.0;
     if (peak > 1.0) {
         gain = to_amp(level_db{keymap_peak_target_db}).lin / peak;
@@ -224,13 +255,23 @@ int run_keymap(keymap_options o) {
         if (gain != 1.0) {
             for (float& v : x) v *= gain_f;
         }
-        write_audio(dir / jobs[i].sample, x, o.rate_hz, {.format = *format, .root_midi = jobs[i].root_midi});
+        try {
+            write_audio(stage.path() / jobs[i].sample, x, o.rate_hz, {.format = *format, .root_midi = jobs[i].root_midi});
+        } catch (const std::exception& e) {
+            throw wane::io_error(staged_message(e.what(), stage.path(), dir));
+        }
         bar.advance();
     });
     bar.finish();
     std::string title = "wane keymap of " + in.filename().string();
     if (!source.note.name.empty()) title += " (" + source.note.name + ")";
-    write_file_atomic(sfz_path, keymap_sfz(jobs, plan_params, title));
+    try {
+        write_file_atomic(stage.path() / sfz_path.filename(), keymap_sfz(jobs, plan_params, title));
+    } catch (const std::exception& e) {
+        throw wane::io_error(staged_message(e.what(), stage.path(), dir));
+    }
+    stage.move_into_target(names);
+    new_folder.armed = false;
 
     const double elapsed_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     const std::size_t notes = jobs.size() / static_cast<std::size_t>(o.layers * o.variants);

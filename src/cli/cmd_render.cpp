@@ -12,6 +12,7 @@
 
 #include "core/text_format.hpp"
 #include "cli/common.hpp"
+#include "cli/loudness.hpp"
 #include "cli/transform_options.hpp"
 #include "synthesis/render_budget.hpp"
 #include "core/patch.hpp"
@@ -27,9 +28,6 @@ namespace wane::cli {
 namespace {
 
 constexpr double default_rate_hz = 48000.0;
-/// A render peaking more than this over full scale is refused even with --normalize-db: no sane
-/// patch is that loud, so something in it (peak_db, gain_db, a rising segment) is wrong.
-constexpr double max_over_full_scale_db = 40.0;
 /// Headroom the clipping advice suggests below full scale.
 constexpr double advice_headroom_db = 1.0;
 
@@ -46,7 +44,6 @@ struct render_options {
     transform_cli transforms;
 };
 
-std::string dbfs_text(double amp) { return printf_text("%+.2f dBFS", to_level(amp_lin{amp}).db); }
 
 const char* format_text(sample_format f) {
     switch (f) {
@@ -55,15 +52,6 @@ const char* format_text(sample_format f) {
         case sample_format::float32: return "32-bit float";
     }
     return "?";
-}
-
-double peak_of(const std::vector<float>& y) {
-    double peak = 0.0;
-    for (const float v : y) {
-        const double a = std::fabs(static_cast<double>(v));
-        if (!(a <= peak)) peak = a;  // also takes NaN, so a broken render cannot hide
-    }
-    return peak;
 }
 
 /// Checks the options before anything is read or written; returns the sample format.
@@ -91,15 +79,8 @@ sample_format check_render_options(const render_options& o) {
 /// Refuses a render that would clip (or peak beyond any normalizing), or scales it to
 /// --normalize-db; returns the peak of y as written (amplitude).
 double level_output(std::vector<float>& y, const render_options& o, const std::string& patch_name) {
-    const double peak = peak_of(y);
-    const double max_peak = to_amp(level_db{max_over_full_scale_db}).lin;
-    if (!(peak <= max_peak)) {
-        throw std::runtime_error(patch_name + ": the render would peak at " +
-                                 (std::isfinite(peak) ? dbfs_text(peak) : std::string("a non-finite level")) +
-                                 printf_text(", more than %.0f dB over full scale; check the patch's "
-                                            "peak_db, gain_db and rising segments (negative t60_s)",
-                                            max_over_full_scale_db));
-    }
+    const double peak = peak_abs(y);
+    refuse_too_loud(peak, patch_name);
 
     double out_peak = peak;
     if (o.normalize_db) {
@@ -107,10 +88,10 @@ double level_output(std::vector<float>& y, const render_options& o, const std::s
         const double target = to_amp(level_db{*o.normalize_db}).lin;
         const double scale = target / peak;
         for (float& v : y) v = static_cast<float>(static_cast<double>(v) * scale);
-        out_peak = peak_of(y);
+        out_peak = peak_abs(y);
         if (out_peak > 1.0) {  // 0 dBFS target, one float rounding over: take it back one step
             for (float& v : y) v = std::nextafter(v, 0.0F);
-            out_peak = peak_of(y);
+            out_peak = peak_abs(y);
         }
         say(printf_text("normalized: peak %s -> %s (gain %+.2f dB)", dbfs_text(peak).c_str(),
                        dbfs_text(out_peak).c_str(), to_level(amp_lin{scale}).db));
