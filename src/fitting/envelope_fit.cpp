@@ -84,6 +84,26 @@ std::vector<double> level_roughness_db(const std::vector<track_point>& pts) {
     return rough;
 }
 
+/// Level offset to the power mean: the dB line is the geometric mean of the frames (for beating
+/// modes, the stronger mode's level); the power mean keeps the partial's energy.
+/// offset = 10 log10(sum w 10^(r / 10) / sum w), r = level - line (clipped above), over the m
+/// frames from `first`.
+double power_mean_offset_db(const envelope& env, std::span<const double> level, std::span<const double> time,
+                            std::span<const double> expected_excess_db, std::size_t first, std::size_t m) {
+    // Reliability weights here carry a fixed model error so the strongest frames do not
+    // decide alone: 1 / (offset_sigma^2 + noise^2).
+    const auto pieces = envelope_pieces(env);
+    double sw = 0.0, sp = 0.0;
+    for (std::size_t i = 0; i < m; ++i) {
+        const double sn = noise_sigma_db(expected_excess_db[first + i]);
+        const double w = 1.0 / (offset_sigma_db * offset_sigma_db + sn * sn);
+        const double r = level[i] - decay_level_db(pieces, time[i]);
+        sp += w * db_to_power(std::min(r, max_offset_residual_db));
+        sw += w;
+    }
+    return power_to_db(sp / sw);
+}
+
 /// Envelope of frames [first, end) of a track: weights, decimation, the line fit, the attack and
 /// the power-mean offset. Frequency and phase are filled by the caller.
 partial_fit fit_region(const std::vector<track_point>& pts, std::span<const double> expected_excess_db,
@@ -144,23 +164,7 @@ partial_fit fit_region(const std::vector<track_point>& pts, std::span<const doub
         if (j + 1 < k) seg.until_s = lines.knots_s[j];
         env.decay.push_back(seg);
     }
-    // Level offset to the power mean: the dB line is the geometric mean of the frames (for
-    // beating modes, the stronger mode's level); the power mean keeps the partial's energy.
-    // offset = 10 log10(sum w 10^(r / 10) / sum w), r = level - line (clipped above).
-    {
-        // Reliability weights here carry a fixed model error so the strongest frames do not
-        // decide alone: 1 / (offset_sigma^2 + noise^2).
-        const auto pieces = envelope_pieces(env);
-        double sw = 0.0, sp = 0.0;
-        for (std::size_t i = 0; i < m; ++i) {
-            const double sn = noise_sigma_db(expected_excess_db[first + i]);
-            const double w = 1.0 / (offset_sigma_db * offset_sigma_db + sn * sn);
-            const double r = level[i] - decay_level_db(pieces, time[i]);
-            sp += w * db_to_power(std::min(r, max_offset_residual_db));
-            sw += w;
-        }
-        env.peak.db += power_to_db(sp / sw);
-    }
+    env.peak.db += power_mean_offset_db(env, level, time, expected_excess_db, first, m);
     // Fit error: plain RMS over the fitted frames.
     const auto pieces = envelope_pieces(env);
     double se = 0.0;
@@ -177,14 +181,9 @@ partial_fit fit_region(const std::vector<track_point>& pts, std::span<const doub
     return out;
 }
 
-}  // namespace
-
-std::optional<partial_fit> fit_partial(const partial_track& track, const envelope_fit_params& params) {
-    const auto& pts = track.points;
+/// Index of the level's peak, smoothed over three frames (mean in dB).
+std::size_t smoothed_peak(const std::vector<track_point>& pts) {
     const std::size_t n = pts.size();
-    if (n < 2) return std::nullopt;
-
-    // Peak: maximum of the level smoothed over three frames (mean in dB).
     std::size_t peak = 0;
     double peak_level = -infinity;
     for (std::size_t i = 0; i < n; ++i) {
@@ -197,65 +196,54 @@ std::optional<partial_fit> fit_partial(const partial_track& track, const envelop
             peak = i;
         }
     }
+    return peak;
+}
 
-    // End of the fit, first pass: where the running median of (level - floor) first drops below
-    // the margin. Second pass: where the fitted envelope itself comes within the margin of the
-    // floor, so the end does not depend on which noisy frames happened to lie high.
-    std::vector<double> excess(n);
-    for (std::size_t i = 0; i < n; ++i) excess[i] = pts[i].level_db - pts[i].floor_db;
+/// First frame from the peak where the running median of (level - floor) drops below the margin
+/// (n when it never does).
+std::size_t first_end_below_margin(const std::vector<double>& excess, std::size_t peak, const envelope_fit_params& params) {
+    const std::size_t n = excess.size();
     std::size_t end = n;
-    {
-        std::array<double, floor_median_frames> win{};
-        const int half = floor_median_frames / 2;
-        for (std::size_t i = peak; i < n; ++i) {
-            int m = 0;
-            for (int d = -half; d <= half; ++d) {
-                const auto k = static_cast<std::ptrdiff_t>(i) + d;
-                if (k < 0 || k >= static_cast<std::ptrdiff_t>(n)) continue;
-                win[m++] = excess[static_cast<std::size_t>(k)];
-            }
-            std::nth_element(win.begin(), win.begin() + m / 2, win.begin() + m);
-            if (win[m / 2] < params.floor_margin_db) {
-                end = i;
-                break;
-            }
+    std::array<double, floor_median_frames> win{};
+    const int half = floor_median_frames / 2;
+    for (std::size_t i = peak; i < n; ++i) {
+        int m = 0;
+        for (int d = -half; d <= half; ++d) {
+            const auto k = static_cast<std::ptrdiff_t>(i) + d;
+            if (k < 0 || k >= static_cast<std::ptrdiff_t>(n)) continue;
+            win[m++] = excess[static_cast<std::size_t>(k)];
+        }
+        std::nth_element(win.begin(), win.begin() + m / 2, win.begin() + m);
+        if (win[m / 2] < params.floor_margin_db) {
+            end = i;
+            break;
         }
     }
-    if (end < peak + 2) return std::nullopt;
-    // Expected level above the floor: first a centred running mean of the measured excess, then
-    // the fitted envelope's.
-    std::vector<double> expected(n);
-    {
-        const auto half = static_cast<std::ptrdiff_t>(excess_smoothing_frames / 2);
-        for (std::size_t i = 0; i < n; ++i) {
-            double sum = 0.0;
-            int count = 0;
-            for (std::ptrdiff_t d = -half; d <= half; ++d) {
-                const auto k = static_cast<std::ptrdiff_t>(i) + d;
-                if (k < 0 || k >= static_cast<std::ptrdiff_t>(n)) continue;
-                sum += excess[static_cast<std::size_t>(k)];
-                ++count;
-            }
-            expected[i] = sum / count;
-        }
-    }
-    const std::vector<double> rough = level_roughness_db(pts);
-    // The first pass only finds the region and the expected levels: a coarser grid will do.
-    envelope_fit_params coarse = params;
-    coarse.max_fit_points = std::max(min_points_per_segment * params.max_segments, params.max_fit_points / 2);
-    partial_fit out = fit_region(pts, expected, rough, peak, peak, end, coarse);
-    for (int pass = 0; pass < end_refit_passes; ++pass) {
-        std::size_t model_end = n;
-        const auto pieces = envelope_pieces(out.env);
-        for (std::size_t i = peak; i < n; ++i) {
-            expected[i] = decay_level_db(pieces, pts[i].time_s) - pts[i].floor_db;
-            if (model_end == n && expected[i] < params.floor_margin_db) model_end = i;
-        }
-        if (model_end < peak + 2 || (pass > 0 && model_end == end)) break;
-        end = model_end;
-        out = fit_region(pts, expected, rough, peak, peak, end, params);
-    }
+    return end;
+}
 
+/// Centred running mean of the measured excess over excess_smoothing_frames frames.
+std::vector<double> running_mean_excess(const std::vector<double>& excess) {
+    const std::size_t n = excess.size();
+    std::vector<double> expected(n);
+    const auto half = static_cast<std::ptrdiff_t>(excess_smoothing_frames / 2);
+    for (std::size_t i = 0; i < n; ++i) {
+        double sum = 0.0;
+        int count = 0;
+        for (std::ptrdiff_t d = -half; d <= half; ++d) {
+            const auto k = static_cast<std::ptrdiff_t>(i) + d;
+            if (k < 0 || k >= static_cast<std::ptrdiff_t>(n)) continue;
+            sum += excess[static_cast<std::size_t>(k)];
+            ++count;
+        }
+        expected[i] = sum / count;
+    }
+    return expected;
+}
+
+/// Frequency (amplitude-weighted mean over the fitted frames [peak, end)) and phase at t = 0 of out.
+void fit_frequency_and_phase(const std::vector<track_point>& pts, const std::vector<double>& excess, std::size_t peak,
+                             std::size_t end, const envelope_fit_params& params, partial_fit& out) {
     // Frequency: amplitude-weighted mean over the fitted frames.
     double fa = 0.0, fw = 0.0;
     for (std::size_t i = peak; i < end; ++i) {
@@ -278,6 +266,45 @@ std::optional<partial_fit> fit_partial(const partial_track& track, const envelop
         ++used;
     }
     out.phase_rad = used > 0 ? wrap_phase(std::atan2(im, re)) : 0.0;
+}
+
+}  // namespace
+
+std::optional<partial_fit> fit_partial(const partial_track& track, const envelope_fit_params& params) {
+    const auto& pts = track.points;
+    const std::size_t n = pts.size();
+    if (n < 2) return std::nullopt;
+
+    const std::size_t peak = smoothed_peak(pts);
+
+    // End of the fit, first pass: where the running median of (level - floor) first drops below
+    // the margin. Second pass: where the fitted envelope itself comes within the margin of the
+    // floor, so the end does not depend on which noisy frames happened to lie high.
+    std::vector<double> excess(n);
+    for (std::size_t i = 0; i < n; ++i) excess[i] = pts[i].level_db - pts[i].floor_db;
+    std::size_t end = first_end_below_margin(excess, peak, params);
+    if (end < peak + 2) return std::nullopt;
+    // Expected level above the floor: first a centred running mean of the measured excess, then
+    // the fitted envelope's.
+    std::vector<double> expected = running_mean_excess(excess);
+    const std::vector<double> rough = level_roughness_db(pts);
+    // The first pass only finds the region and the expected levels: a coarser grid will do.
+    envelope_fit_params coarse = params;
+    coarse.max_fit_points = std::max(min_points_per_segment * params.max_segments, params.max_fit_points / 2);
+    partial_fit out = fit_region(pts, expected, rough, peak, peak, end, coarse);
+    for (int pass = 0; pass < end_refit_passes; ++pass) {
+        std::size_t model_end = n;
+        const auto pieces = envelope_pieces(out.env);
+        for (std::size_t i = peak; i < n; ++i) {
+            expected[i] = decay_level_db(pieces, pts[i].time_s) - pts[i].floor_db;
+            if (model_end == n && expected[i] < params.floor_margin_db) model_end = i;
+        }
+        if (model_end < peak + 2 || (pass > 0 && model_end == end)) break;
+        end = model_end;
+        out = fit_region(pts, expected, rough, peak, peak, end, params);
+    }
+
+    fit_frequency_and_phase(pts, excess, peak, end, params, out);
     return out;
 }
 

@@ -41,6 +41,39 @@ int largest_feasible(const std::vector<knot_fit>& fits) {
     return 1;
 }
 
+/// s2 solving sum r_i^2 / (1 / w_i + s2) = dof, by bisection on [0, max r_i^2] (the left side
+/// falls with s2).
+double model_error_variance(const std::vector<double>& resid, std::span<const double> weights, double dof) {
+    const std::size_t n = resid.size();
+    double lo = 0.0, hi = 0.0;
+    for (double r : resid) hi = std::max(hi, r * r);
+    auto excess_chi2 = [&](double s2) {
+        double sum = 0.0;
+        for (std::size_t i = 0; i < n; ++i) sum += resid[i] * resid[i] / (1.0 / weights[i] + s2);
+        return sum - dof;
+    };
+    for (int it = 0; it < variance_bisection_steps; ++it) {
+        const double mid = 0.5 * (lo + hi);
+        (excess_chi2(mid) > 0.0 ? lo : hi) = mid;
+    }
+    return 0.5 * (lo + hi);
+}
+
+/// Lag-1 correlation of the weighted residuals of fit f, clamped to [0, max_residual_correlation].
+double residual_correlation(std::span<const double> levels_db, const point_sums& ps, const knot_fit& f,
+                            const std::vector<double>& w2) {
+    const std::size_t n = levels_db.size();
+    double r_prev = 0.0, num = 0.0, den = 0.0;
+    for (std::size_t i = 0; i < n; ++i) {
+        const double r =
+            (levels_db[i] - ps.y_shift - line_value(f.sol, f.knots, ps.x[i])) * std::sqrt(w2[i]);
+        if (i > 0) num += r * r_prev;
+        den += r * r;
+        r_prev = r;
+    }
+    return den > 0.0 ? std::clamp(num / den, 0.0, max_residual_correlation) : 0.0;
+}
+
 }  // namespace
 
 level_line_fit fit_level_lines(std::span<const double> times_s, std::span<const double> levels_db,
@@ -75,18 +108,7 @@ level_line_fit fit_level_lines(std::span<const double> times_s, std::span<const 
     for (std::size_t i = 0; i < n; ++i) chi2 += weights[i] * resid[i] * resid[i];
     std::vector<double> w2(weights.begin(), weights.end());
     if (chi2 > dof) {
-        double lo = 0.0, hi = 0.0;
-        for (double r : resid) hi = std::max(hi, r * r);
-        auto excess_chi2 = [&](double s2) {
-            double sum = 0.0;
-            for (std::size_t i = 0; i < n; ++i) sum += resid[i] * resid[i] / (1.0 / weights[i] + s2);
-            return sum - dof;
-        };
-        for (int it = 0; it < variance_bisection_steps; ++it) {
-            const double mid = 0.5 * (lo + hi);
-            (excess_chi2(mid) > 0.0 ? lo : hi) = mid;
-        }
-        const double s2 = 0.5 * (lo + hi);
+        const double s2 = model_error_variance(resid, weights, dof);
         for (std::size_t i = 0; i < n; ++i) w2[i] = 1.0 / (1.0 / weights[i] + s2);
         // Pass 2 with the calibrated weights.
         ps = point_sums(times_s, levels_db, w2);
@@ -97,15 +119,7 @@ level_line_fit fit_level_lines(std::span<const double> times_s, std::span<const 
     // Effective number of independent points from the residual lag-1 correlation of the largest
     // feasible model (beating leaves slow, correlated residuals; noise leaves white ones):
     // n_eff = n (1 - rho) / (1 + rho), the variance inflation of the mean of an AR(1) sequence.
-    double r_prev = 0.0, num = 0.0, den = 0.0;
-    for (std::size_t i = 0; i < n; ++i) {
-        const double r =
-            (levels_db[i] - ps.y_shift - line_value(fits[kbig].sol, fits[kbig].knots, ps.x[i])) * std::sqrt(w2[i]);
-        if (i > 0) num += r * r_prev;
-        den += r * r;
-        r_prev = r;
-    }
-    const double rho = den > 0.0 ? std::clamp(num / den, 0.0, max_residual_correlation) : 0.0;
+    const double rho = residual_correlation(levels_db, ps, fits[kbig], w2);
     const double nd = static_cast<double>(n);
     const double n_eff = std::max(nd * (1.0 - rho) / (1.0 + rho), 2.0);
     // BIC (Schwarz 1978) with the calibrated noise: chi2 (deflated by n_eff / n for correlated
