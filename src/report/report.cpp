@@ -133,7 +133,7 @@ void write_spectrogram(std::ostringstream& h, const report_inputs& in) {
       << "' height='" << plot_h << "'/></clipPath><g clip-path='url(#spectrogram-clip)'>";
     if (in.tracking != nullptr) {
         for (const partial_track& t : in.tracking->tracks) {
-            if (t.points.empty() || track_mean_freq_hz(t) > top_hz) continue;
+            if (t.points.empty() || track_frequency_hz(t, in.tracking->window_s) > top_hz) continue;
             h << "<polyline fill='none' stroke='" << track_colour << "' stroke-width='1.3' points='";
             for (const track_point& pt : t.points) {
                 h << fmt("%.1f", f.px(pt.time_s + p.source.onset_s)) << ',' << fmt("%.1f", f.py(pt.freq_hz)) << ' ';
@@ -200,7 +200,7 @@ void write_envelopes(std::ostringstream& h, const report_inputs& in) {
                      .y1 = std::ceil((peak + envelope_headroom_db) / 10.0) * 10.0};
         h << "<svg class='envelope' width='" << f.width << "' height='" << f.height << "' data-freq-hz='"
           << fmt("%.3f", part.freq_hz) << "'";
-        if (track != nullptr) h << " data-track-freq-hz='" << fmt("%.3f", track_mean_freq_hz(*track)) << "'";
+        if (track != nullptr) h << " data-track-freq-hz='" << fmt("%.3f", track_frequency_hz(*track, in.tracking->window_s)) << "'";
         h << " xmlns='http://www.w3.org/2000/svg'>";
         h << "<text x='4' y='16' class='title'>partial " << idx + 1;
         if (part.harmonic > 0) h << " (harmonic " << part.harmonic << ")";

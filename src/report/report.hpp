@@ -14,6 +14,7 @@
 #include "spectrum/spectrogram.hpp"
 #include "tracking/track.hpp"
 #include "tracking/track_match.hpp"
+#include "tracking/tracker.hpp"
 
 namespace wane {
 
@@ -43,7 +44,7 @@ struct report_inputs {
 
 /// The whole HTML page. Sections in order, by id: summary, spectrogram, envelopes, patch,
 /// compare, listen. Each envelope plot is an <svg class='envelope'> with data-freq-hz (the
-/// partial) and data-track-freq-hz (mean frequency of the measured track drawn, absent when no
+/// partial) and data-track-freq-hz (track_frequency_hz of the measured track drawn, absent when no
 /// track matched).
 std::string make_report_html(const report_inputs& in);
 

@@ -5,20 +5,15 @@
 #include <cmath>
 
 #include "core/units.hpp"
+#include "tracking/tracker.hpp"
+#include "tracking/tracker_tuning.hpp"
 
 namespace wane {
 
-double track_mean_freq_hz(const partial_track& t) {
-    double sum = 0.0;
-    for (const track_point& p : t.points) sum += p.freq_hz;
-    return t.points.empty() ? 0.0 : sum / static_cast<double>(t.points.size());
-}
-
 int matching_track(const partial& part, const tracking_result& tracking, double sample_rate_hz) {
-    // The tracker's continuation tolerance (tracking/tracker.hpp): max(2 bins, 1% of f).
-    constexpr double tolerance_bins = 2.0, tolerance_fraction = 0.01;
+    // The tracker's continuation tolerance: max(2 bins, 1% of f) (tracker_tuning.hpp).
     const double bin_hz = tracking.fft_size > 0 && sample_rate_hz > 0.0 ? sample_rate_hz / tracking.fft_size : 0.0;
-    const double tolerance_hz = std::max(tolerance_bins * bin_hz, tolerance_fraction * part.freq_hz);
+    const double tolerance_hz = std::max(tracker_tuning::dev_min_bins * bin_hz, tracker_tuning::dev_rel * part.freq_hz);
     // First a track with the partial's own harmonic number, else one carrying no number.
     for (const bool same_number : {true, false}) {
         if (same_number && part.harmonic <= 0) continue;
@@ -28,7 +23,7 @@ int matching_track(const partial& part, const tracking_result& tracking, double 
             const partial_track& t = tracking.tracks[i];
             const bool eligible = same_number ? t.harmonic == part.harmonic : (t.harmonic == 0 || part.harmonic == 0);
             if (!eligible) continue;
-            const double d = std::abs(track_mean_freq_hz(t) - part.freq_hz);
+            const double d = std::abs(track_frequency_hz(t, tracking.window_s) - part.freq_hz);
             if (d <= tolerance_hz && d < best_distance_hz) {
                 best_distance_hz = d;
                 best = static_cast<int>(i);

@@ -374,7 +374,7 @@ TEST_CASE("SVG plots are balanced and each envelope plot shows its own partial's
         CAPTURE(freq, track);
         REQUIRE(!freq.empty());
         REQUIRE(!track.empty());
-        // Ground truth: the synthetic partial sits at exactly n f0; its track's mean is within 0.1%.
+        // Ground truth: the synthetic partial sits at exactly n f0; its track's frequency is within 0.1%.
         CHECK_THAT(std::stod(track), WithinRel(std::stod(freq), 0.001));
         track_freqs_hz.push_back(std::stod(track));
         const std::size_t end = envelopes.find("</svg>", at);
