@@ -4,12 +4,7 @@
 # spread over the run (after 1 to 20 of the new WAVs exist in the staging folder, or before any).
 # Checks each time: exit 128 + signal, no hidden temporary or staging folder anywhere under the
 # output folder, and the folder still holds exactly the previous set, byte for byte (cmp).
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
+source "$(dirname "$0")/preamble.sh"
 runs=20
 patch="$src/patches/steel-pluck.toml"
 args=(--notes C2..C6 --layers 2 --rate 16000 --bits 16 --threads 2)
