@@ -220,7 +220,7 @@ void add_analyze_command(CLI::App& app, command_registry& reg) {
     sub->add_option("-o,--output", o->output,
                     "Patch file for one input; folder for several (one <stem>.toml each)")
         ->required();
-    sub->add_option("--f0", o->f0_hz, "Fundamental in Hz (default: estimated)");
+    sub->add_option("--f0", o->f0_hz, "Hint of the fundamental in Hz: numbers the harmonics and starts the series fit; the partials found are the same as without it");
     sub->add_option("--max-partials", o->max_partials, "Keep at most this many partials, strongest first")
         ->capture_default_str();
     sub->add_option("--max-segments", o->max_segments, "Decay segments per partial, at most")->capture_default_str();

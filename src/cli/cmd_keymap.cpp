@@ -268,8 +268,8 @@ int run_keymap(keymap_options o) {
     const patch_read_result read = read_patch_file(in);
     for (const std::string& w : read.warnings) warn(w);
     const patch& source = read.value;
-    if (!(source.note.f0_hz > 0.0)) {
-        throw std::runtime_error(o.input + ": keymap needs a pitched patch (note.f0_hz > 0) to move it to each note");
+    if (!(root_hz(source.note) > 0.0)) {
+        throw std::runtime_error(o.input + ": keymap needs a pitched patch (a [note] root, or note.f0_hz > 0) to move it to each note");
     }
     if (o.variants > 1) use_round_robin_defaults(base);
 
@@ -342,7 +342,7 @@ void add_keymap_command(CLI::App& app, command_registry& reg) {
     auto opts = std::make_shared<keymap_options>();
     CLI::App* sub = app.add_subcommand(
         "keymap", "Render a multisample set (notes x velocity layers x round-robin variants) and its SFZ file");
-    sub->add_option("patch", opts->input, "Patch to render (TOML; must have an f0)")->required();
+    sub->add_option("patch", opts->input, "Patch to render (TOML; must have a root note)")->required();
     sub->add_option("-o,--output", opts->output_dir, "Folder for the WAV files and the SFZ file (created if needed)")
         ->required();
     sub->add_option("--notes", opts->notes, "Key range LOW..HIGH, names or MIDI numbers, e.g. C2..C6")->required();

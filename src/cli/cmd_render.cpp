@@ -136,8 +136,8 @@ int run_render(const render_options& o) {
     const double out_peak = level_output(y, o, patch_name);
 
     audio_write_options wopts{.format = format};
-    if (p.note.f0_hz > 0.0) {
-        const double midi = std::round(hz_to_midi(p.note.f0_hz));
+    if (const double root = root_hz(p.note); root > 0.0) {
+        const double midi = std::round(hz_to_midi(root));
         if (midi >= 0.0 && midi <= 127.0) wopts.root_midi = static_cast<int>(midi);
     }
     write_audio(o.out_path, y, o.rate_hz, wopts);

@@ -57,7 +57,7 @@ void add_transform_options(CLI::App* sub, transform_cli& o) {
         ->group(group_name);
     sub->add_option("--to-note", o.to_note, "Transpose so f0 lands on this note (C4, F#3, Bb2 or a MIDI number)")
         ->group(group_name);
-    sub->add_option("--a4-hz", o.a4_hz, "Tuning of A4 for --to-note, Hz")
+    sub->add_option("--a4-hz", o.a4_hz, "Tuning of A4 for --to-note (and edit --root), Hz")
         ->capture_default_str()->group(group_name);
     sub->add_flag("--decay-follows-pitch", o.decay_follows_pitch,
                   "When transposing by a ratio r, scale every T60 by r^(-p) (rule of thumb: higher notes "

@@ -53,6 +53,10 @@ constexpr int level_decimals = 2;
 constexpr int t60_decimals = 4;
 /// Inharmonicity B: 5 significant digits in scientific notation (B spans 1e-6..1e-2).
 constexpr int b_digits = 4;
+/// Root tuning: 0.001 cent, so placing the root on a note leaves at most 0.0005 cent of rounding.
+constexpr int cents_decimals = 3;
+/// A4 of the root's equal temperament: 0.001 Hz (0.004 cent at 440 Hz).
+constexpr int a4_decimals = 3;
 
 // One formatter per quantity; the writer prints with them and the reader rounds with them.
 std::string fmt_freq(double v) { return fmt_fixed(v, freq_decimals); }
@@ -63,6 +67,8 @@ std::string fmt_align(double v) { return fmt_fixed(v, align_decimals); }
 std::string fmt_level(double v) { return fmt_fixed(v, level_decimals); }
 std::string fmt_t60(double v) { return fmt_fixed(v, t60_decimals); }
 std::string fmt_b(double v) { return fmt_sci(v, b_digits); }
+std::string fmt_cents(double v) { return fmt_fixed(v, cents_decimals); }
+std::string fmt_a4(double v) { return fmt_fixed(v, a4_decimals); }
 
 /// A sample rate: an integer when it is one (at 1e-6 Hz resolution), e.g. "48000".
 std::string fmt_rate(double v) {
@@ -108,6 +114,8 @@ void round_to_file_precision(patch& p) {
     p.note.length_s = rounded(p.note.length_s, fmt_time);
     p.note.inharmonicity_b = rounded(p.note.inharmonicity_b, fmt_b);
     p.note.gain_db = rounded(p.note.gain_db, fmt_level);
+    p.note.root.tuning_cents = rounded(p.note.root.tuning_cents, fmt_cents);
+    p.note.root.a4_hz = rounded(p.note.root.a4_hz, fmt_a4);
     p.source.sample_rate_hz = rounded(p.source.sample_rate_hz, fmt_rate);
     p.source.onset_s = rounded(p.source.onset_s, fmt_align);
     if (p.source.analysis) {

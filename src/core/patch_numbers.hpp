@@ -23,6 +23,8 @@ std::string fmt_align(double v);      ///< onset in the source, window and hop, 
 std::string fmt_level(double v);      ///< levels and gains, 0.01 dB
 std::string fmt_t60(double v);        ///< T60s, 0.1 ms
 std::string fmt_b(double v);          ///< inharmonicity B, 5 significant digits
+std::string fmt_cents(double v);      ///< the root's tuning, 0.001 cent
+std::string fmt_a4(double v);         ///< A4 of the root's temperament, 0.001 Hz
 /// A sample rate: an integer when it is one (at 1e-6 Hz resolution), e.g. "48000".
 std::string fmt_rate(double v);
 

@@ -117,6 +117,10 @@ struct validator {
         within("note.length_s", n.length_s, 0.0, max_length_s, " s", true);
         within("note.inharmonicity_b", n.inharmonicity_b, 0.0, max_inharmonicity_b, "");
         within("note.gain_db", n.gain_db, min_level_db, max_peak_db, " dB");
+        if (n.root.method != root_method::unstated && n.root.method != root_method::unpitched) {
+            within("note.tuning_cents", n.root.tuning_cents, -max_tuning_cents, max_tuning_cents, " cents");
+            within("note.a4_hz", n.root.a4_hz, min_a4_hz, max_a4_hz, " Hz");
+        }
 
         text("source.file", p.source.file);
         within("source.sample_rate_hz", p.source.sample_rate_hz, 0.0, max_sample_rate_hz, " Hz");

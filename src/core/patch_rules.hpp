@@ -41,6 +41,11 @@ constexpr std::size_t max_string_bytes = 4096;
 /// a patch nests at most 4 levels (root > partial array > partial > decay array > segment); deeper
 /// structures are refused before they are walked.
 constexpr int max_nesting_depth = 4;
+/// Range of the root's tuning and of A4 (a root is the nearest note, so |cents| <= 50 when wane
+/// writes it; by hand up to a semitone either way).
+constexpr double max_tuning_cents = 100.0;
+constexpr double min_a4_hz = 100.0;
+constexpr double max_a4_hz = 1000.0;
 
 /// Reports a rule broken at `path`; `what` continues the sentence ("must not be 0"). Throws.
 using fail_fn = std::function<void(const std::string& path, const std::string& what)>;

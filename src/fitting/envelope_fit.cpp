@@ -9,6 +9,7 @@
 #include <vector>
 
 #include "fitting/knot_search.hpp"
+#include "fitting/partial_freq.hpp"
 
 namespace wane {
 
@@ -241,17 +242,11 @@ std::vector<double> running_mean_excess(const std::vector<double>& excess) {
     return expected;
 }
 
-/// Frequency (amplitude-weighted mean over the fitted frames [peak, end)) and phase at t = 0 of out.
+/// Frequency (heard_freq_hz, fitting/partial_freq.hpp) and phase at t = 0 of out, from the fitted
+/// frames [peak, end).
 void fit_frequency_and_phase(const std::vector<track_point>& pts, const std::vector<double>& excess, std::size_t peak,
                              std::size_t end, const envelope_fit_params& params, partial_fit& out) {
-    // Frequency: amplitude-weighted mean over the fitted frames.
-    double fa = 0.0, fw = 0.0;
-    for (std::size_t i = peak; i < end; ++i) {
-        const double a = to_amp(level_db{pts[i].level_db}).lin;
-        fa += a * pts[i].freq_hz;
-        fw += a;
-    }
-    out.freq_hz = fa / fw;
+    out.freq_hz = heard_freq_hz(pts, peak, end);
 
     // Phase at t = 0: phi0 = phase - 2 pi f t_c from the first reliable frames after the peak,
     // averaged on the circle with amplitude weights.

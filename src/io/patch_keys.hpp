@@ -9,7 +9,8 @@
 namespace wane::patch_keys {
 
 inline constexpr std::string_view top_keys[] = {"format", "version", "note", "source", "partial", "noise"};
-inline constexpr std::string_view note_keys[] = {"name", "f0_hz", "length_s", "inharmonicity_b", "gain_db"};
+inline constexpr std::string_view note_keys[] = {"name", "f0_hz", "length_s", "inharmonicity_b", "gain_db",
+                                                 "root", "tuning_cents", "a4_hz", "root_found_by"};
 inline constexpr std::string_view source_keys[] = {"file", "sample_rate_hz", "onset_s", "analysis"};
 inline constexpr std::string_view analysis_keys[] = {"window", "fft_size", "window_s", "hop_s"};
 inline constexpr std::string_view partial_keys[] = {"freq_hz", "harmonic", "phase_rad", "attack_s", "peak_db", "decay"};

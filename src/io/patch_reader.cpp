@@ -11,6 +11,7 @@
 #include <string>
 
 #include "core/patch_rules.hpp"
+#include "core/pitch_names.hpp"
 #include "io/errors.hpp"
 #include "io/patch_keys.hpp"
 
@@ -62,6 +63,7 @@ public:
         p.note.length_s = required_number(note, "length_s", "note.length_s");
         p.note.inharmonicity_b = get_number(note, "inharmonicity_b", "note.inharmonicity_b").value_or(0.0);
         p.note.gain_db = get_number(note, "gain_db", "note.gain_db").value_or(0.0);
+        read_root(note, p.note);
         warn_unknown(note, "note", note_keys);
 
         if (const toml::table* src = optional_table(root, "source", "source")) {
@@ -167,13 +169,46 @@ private:
         if (!iv) fail("version", std::string("must be an integer, not ") + type_name(v->type()));
         const std::int64_t version = iv->get();
         if (version > patch_format_version) {
-            fail("version", "is " + std::to_string(version) + ": this patch was made by a newer wane; this one reads version " +
-                                std::to_string(patch_format_version));
+            fail("version", "is " + std::to_string(version) + ": this patch was made by a newer wane; this one reads versions " +
+                                std::to_string(oldest_patch_format_version) + " to " + std::to_string(patch_format_version));
         }
-        if (version < patch_format_version) {
-            fail("version", "is " + std::to_string(version) + "; the only version is " +
-                                std::to_string(patch_format_version));
+        if (version < oldest_patch_format_version) {
+            fail("version", "is " + std::to_string(version) + "; the versions are " +
+                                std::to_string(oldest_patch_format_version) + " to " + std::to_string(patch_format_version));
         }
+    }
+
+    /// The root keys of [note] (version 2): root (a note name), tuning_cents, a4_hz, root_found_by.
+    /// A root without root_found_by was set by hand; "unpitched" takes no root; the other methods
+    /// need one. Without any of them the root is unstated (version 1): f0_hz serves.
+    void read_root(const toml::table& note, note_info& n) {
+        const auto name = get_string(note, "root", "note.root");
+        const auto found_by = get_string(note, "root_found_by", "note.root_found_by");
+        const auto cents = get_number(note, "tuning_cents", "note.tuning_cents");
+        const auto a4 = get_number(note, "a4_hz", "note.a4_hz");
+        if (found_by) {
+            const auto m = parse_root_method(*found_by);
+            if (!m || *m == root_method::unstated)
+                fail("note.root_found_by", "is '" + *found_by + "'; one of harmonic-series, lowest-mode, strike-note, "
+                                           "f0-hint, by-hand, unpitched");
+            n.root.method = *m;
+        }
+        if (n.root.method == root_method::unpitched) {
+            if (name) fail("note.root", "is given, but root_found_by = \"unpitched\" says the note has no root");
+            if (cents || a4) fail(cents ? "note.tuning_cents" : "note.a4_hz", "needs a root; root_found_by = \"unpitched\"");
+            return;
+        }
+        if (!name) {
+            if (found_by) fail_in("note", "root_found_by = \"" + *found_by + "\" needs the key root (a note name such as C4)");
+            if (cents || a4) fail(cents ? "note.tuning_cents" : "note.a4_hz", "needs the key root (a note name such as C4)");
+            return;
+        }
+        const auto midi = parse_note_name(*name);
+        if (!midi) fail("note.root", "is '" + *name + "'; a root is a note name such as C4, F#3 or Bb2 (C-1 to G9)");
+        if (!found_by) n.root.method = root_method::by_hand;
+        n.root.midi = *midi;
+        n.root.tuning_cents = cents.value_or(0.0);
+        n.root.a4_hz = a4.value_or(default_a4_hz);
     }
 
     void warn_unknown(const toml::table& t, const std::string& table_path, std::span<const std::string_view> known) {

@@ -1,4 +1,4 @@
-// The patch format's TOML mapping (format "wane-patch", version 1): the entry points. The jobs live
+// The patch format's TOML mapping (format "wane-patch", version 2; version 1 is read too): the entry points. The jobs live
 // apart: the format's number formats (core/patch_numbers) and rules (core/patch_rules), the reader
 // (io/patch_reader) with its key hints (io/patch_keys), the writer (io/patch_writer). Here: the
 // checks on hostile input before the TOML tree is built or walked, and file reading and writing.

@@ -5,6 +5,7 @@
 #include <sstream>
 
 #include "core/patch_numbers.hpp"
+#include "core/pitch_names.hpp"
 
 namespace wane {
 
@@ -133,6 +134,14 @@ std::string format_text(const patch& p) {
     out << "length_s = " << fmt_time(p.note.length_s) << '\n';
     out << "inharmonicity_b = " << fmt_b(p.note.inharmonicity_b) << '\n';
     out << "gain_db = " << fmt_level(p.note.gain_db) << '\n';
+    if (p.note.root.method == root_method::unpitched) {
+        out << "root_found_by = " << toml_string(root_method_name(p.note.root.method)) << '\n';
+    } else if (p.note.root.method != root_method::unstated) {
+        out << "root = " << toml_string(note_name(p.note.root.midi)) << '\n';
+        out << "tuning_cents = " << fmt_cents(p.note.root.tuning_cents) << '\n';
+        out << "a4_hz = " << fmt_a4(p.note.root.a4_hz) << '\n';
+        out << "root_found_by = " << toml_string(root_method_name(p.note.root.method)) << '\n';
+    }
     out << "\n[source]\n";
     out << "file = " << toml_string(p.source.file) << '\n';
     out << "sample_rate_hz = " << fmt_rate(p.source.sample_rate_hz) << '\n';

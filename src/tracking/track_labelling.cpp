@@ -81,9 +81,9 @@ void label_harmonics(const std::vector<double>& freqs, double f0_hz, double b, d
     }
 }
 
-/// The tracks' strength (peak level), frequency, fit weight and peak SNR, by index.
+/// The tracks' strength (peak level), frequency and fit weight, by index.
 struct track_ranking {
-    std::vector<double> strength, rep_freq, weight, peak_snr_db;
+    std::vector<double> strength, rep_freq, weight;
     std::vector<std::size_t> order;  ///< the strongest max_partials, by frequency
 };
 
@@ -92,11 +92,9 @@ track_ranking rank_tracks(const std::vector<partial_track>& done, double window_
     std::vector<double>& strength = r.strength;
     std::vector<double>& rep_freq = r.rep_freq;
     std::vector<double>& weight = r.weight;
-    std::vector<double>& peak_snr_db = r.peak_snr_db;
     strength.resize(done.size());
     rep_freq.resize(done.size());
     weight.resize(done.size());
-    peak_snr_db.resize(done.size());
     for (std::size_t i = 0; i < done.size(); ++i) {
         double best = -infinity, best_snr = -infinity;
         for (const auto& pt : done[i].points) {
@@ -105,7 +103,6 @@ track_ranking rank_tracks(const std::vector<partial_track>& done, double window_
         }
         rep_freq[i] = track_frequency_hz(done[i], window_s);
         strength[i] = best;
-        peak_snr_db[i] = best_snr;
         weight[i] = db_to_power(std::min(best_snr, max_snr_weight_db)) * double(done[i].points.size());
     }
     std::vector<std::size_t>& order = r.order;
@@ -128,7 +125,7 @@ void label_series(const std::vector<double>& freqs, const std::vector<double>& w
     double limit_hz = first_label_harmonics * f0_hz;
     for (int round = 0;; ++round) {
         label_harmonics(freqs, f0_hz, b, limit_hz, harmonic);
-        const inharmonicity_fit fit = fit_harmonic_series(harmonic, freqs, weights, pitch_harmonics);
+        const series_fit fit = fit_labelled_series(harmonic, freqs, weights);
         if (fit.used > 0) {
             f0_hz = fit.f0_hz;
             b = fit.inharmonicity_b;
@@ -141,36 +138,38 @@ void label_series(const std::vector<double>& freqs, const std::vector<double>& w
 
 }  // namespace
 
+series_fit fit_labelled_series(const std::vector<int>& harmonic, const std::vector<double>& freq_hz,
+                               const std::vector<double>& weight) {
+    std::vector<series_point> pts;
+    for (std::size_t i = 0; i < harmonic.size(); ++i) {
+        if (harmonic[i] < 1 || weight[i] <= 0.0) continue;
+        auto it = std::find_if(pts.begin(), pts.end(), [&](const series_point& p) { return p.harmonic == harmonic[i]; });
+        if (it == pts.end()) pts.push_back({harmonic[i], freq_hz[i], weight[i]});
+        else if (weight[i] > it->weight) *it = {harmonic[i], freq_hz[i], weight[i]};
+    }
+    return fit_series(pts);
+}
+
 void label_tracks(std::vector<partial_track>& done, double f0_hz, double b, std::optional<double> f0_override,
                   int max_partials, tracking_result& result) {
     const track_ranking r = rank_tracks(done, result.window_s, max_partials);
     const std::vector<std::size_t>& order = r.order;
-    const std::vector<double>& strength = r.strength;
-    const std::vector<double>& peak_snr_db = r.peak_snr_db;
     std::vector<int> harmonic(order.size(), 0);
     std::vector<double> freqs(order.size()), weights(order.size());
     for (std::size_t i = 0; i < order.size(); ++i) freqs[i] = r.rep_freq[order[i]];
+    if (f0_override) {
+        // The hint numbers the partials: B of the survey only when the hint agrees with its f0.
+        constexpr double same_f0_rel = 0.03;
+        if (!(f0_hz > 0.0 && std::abs(*f0_override / f0_hz - 1.0) < same_f0_rel)) b = 0.0;
+        f0_hz = *f0_override;
+    }
     if (f0_hz > 0.0) {
         for (std::size_t i = 0; i < order.size(); ++i) weights[i] = r.weight[order[i]];
         label_series(freqs, weights, f0_hz, b, harmonic);
     }
     result.series_f0_hz = f0_hz;
     result.inharmonicity_b = f0_hz > 0.0 ? b : 0.0;
-    result.f0_hz = f0_override.value_or(f0_hz);
-    if (f0_hz > 0.0 && !f0_override) {
-        // The pitch is the fundamental's: partial 1's frequency / sqrt(1 + B) when it is tracked
-        // clearly (real strings can put partial 1 off the series of the upper partials).
-        double strongest_db = -infinity;
-        for (const std::size_t k : order) strongest_db = std::max(strongest_db, strength[k]);
-        double best_db = -infinity;
-        for (std::size_t i = 0; i < order.size(); ++i) {
-            const std::size_t k = order[i];
-            if (harmonic[i] != 1 || strength[k] <= best_db) continue;
-            if (strength[k] < strongest_db - fundamental_below_max_db || peak_snr_db[k] < fundamental_snr_db) continue;
-            best_db = strength[k];
-            result.f0_hz = freqs[i] / std::sqrt(1.0 + b);
-        }
-    }
+    result.f0_hz = f0_hz;  // the fundamental of the fitted series (pitch/series_fit.hpp)
     for (std::size_t i = 0; i < order.size(); ++i) {
         partial_track t = std::move(done[order[i]]);
         t.harmonic = harmonic[i];

@@ -12,6 +12,7 @@
 
 #include "core/harmonics.hpp"
 #include "core/units.hpp"
+#include "pitch/series_fit.hpp"
 #include "spectrum/peaks.hpp"
 #include "spectrum/stft.hpp"
 #include "tracking/onset.hpp"
@@ -114,16 +115,12 @@ struct series_guess {
 
 /// f0 (the pitch sieve on the survey peaks, or the override) and B, refined by a Fletcher fit.
 series_guess guess_series(const survey_result& sv, const tracking_params& params) {
-    double f0_hz = 0.0;
-    double b = 0.0;
-    if (params.f0_hz) {
-        if (!(*params.f0_hz > 0.0)) refuse("f0 must be positive");
-        f0_hz = *params.f0_hz;
-    } else {
-        const pitch_estimate pe = estimate_pitch(sv.peaks);
-        f0_hz = pe.f0_hz;
-        b = pe.inharmonicity_b;
-    }
+    // The f0 hint (--f0) does not steer the tracking (window, guidance): the same tracks come out
+    // with or without it; it only numbers them and starts the series fit (label_tracks).
+    if (params.f0_hz && !(*params.f0_hz > 0.0)) refuse("f0 must be positive");
+    const pitch_estimate pe = estimate_pitch(sv.peaks);
+    double f0_hz = pe.f0_hz;
+    double b = pe.inharmonicity_b;
     if (f0_hz > 0.0) {
         // Refine f0 and B on the survey peaks (Fletcher fit), for the harmonic guidance.
         std::vector<int> hn(sv.peaks.size());
@@ -134,10 +131,9 @@ series_guess guess_series(const survey_result& sv, const tracking_params& params
                 freqs[i] = sv.peaks[i].freq_hz;
                 weights[i] = db_to_power(sv.peaks[i].level_db);
             }
-            const inharmonicity_fit fit = fit_harmonic_series(hn, freqs, weights, pitch_harmonics);
+            const series_fit fit = tracker_steps::fit_labelled_series(hn, freqs, weights);
             if (fit.used < 2) break;
-            // An override keeps its f0 (the user's octave); only B is taken from the fit then.
-            if (!params.f0_hz) f0_hz = fit.f0_hz;
+            f0_hz = fit.f0_hz;
             b = fit.inharmonicity_b;
         }
     }

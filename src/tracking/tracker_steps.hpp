@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "core/analysis_error.hpp"
+#include "pitch/series_fit.hpp"
 #include "tracking/track.hpp"
 
 namespace wane::tracker_steps {
@@ -45,6 +46,12 @@ void bridge_gap(partial_track& track, int frames, const track_point& next, doubl
 /// come from a partial dipping into the noise (beating) for longer than the frame bridging allows.
 void join_fragments(std::vector<partial_track>& tracks, std::vector<double>& peak_db, double hop_s,
                     double max_gap_s, double rel_tol);
+
+/// The robust series fit (pitch/series_fit.hpp) over labelled partials; where several partials
+/// carry one number only the one of largest weight counts (the others are a fragment or a
+/// neighbour of it).
+series_fit fit_labelled_series(const std::vector<int>& harmonic, const std::vector<double>& freq_hz,
+                               const std::vector<double>& weight);
 
 /// Keeps the max_partials strongest tracks, labels them with harmonic numbers on the refitted
 /// series, and fills result.tracks (by frequency), series_f0_hz, inharmonicity_b and f0_hz.

@@ -32,11 +32,6 @@ inline constexpr double harmonic_tolerance_rel = 0.02;  ///< labelling tracks wi
 inline constexpr double guide_tolerance_rel = 0.04;     ///< harmonic tracks stay this close to n f0 s_n
 inline constexpr int b_fit_rounds = 3;
 inline constexpr double first_label_harmonics = 10.0;   ///< the series is first fitted up to 10 f0
-/// f0 is fitted on harmonics 1..this (given B from all): real strings stray from the ideal law
-/// more at high n (bridge coupling, tension modulation), and the low partials carry the pitch.
-inline constexpr int pitch_harmonics = 8;
-inline constexpr double fundamental_snr_db = 20.0;      ///< partial 1 sets the pitch when this far up
-inline constexpr double fundamental_below_max_db = 40.0; ///< ... and within this of the strongest track
 inline constexpr double max_snr_weight_db = 40.0;       ///< B fit: weight by SNR, capped here
 inline constexpr double attack_skip_s = 0.1;             ///< a track's frequency: median after this,
 inline constexpr double attack_skip_windows = 2.0;       ///< ... and after this many windows,
