@@ -103,6 +103,13 @@ struct job {
     fs::path output;
 };
 
+/// Where --report writes the report of a patch: beside it, extension .html.
+fs::path report_path_of(const fs::path& patch_path) {
+    fs::path html = patch_path;
+    html.replace_extension(".html");
+    return html;
+}
+
 /// Output path of each input: OUT itself for one input (OUT/<stem>.toml when OUT is a folder),
 /// OUT/<stem>.toml for several (OUT is created when missing; its parent must exist).
 std::vector<job> plan_jobs(const analyze_options& o) {
@@ -134,7 +141,16 @@ std::vector<job> plan_jobs(const analyze_options& o) {
             if (ec) throw io_error(out.string() + ": cannot create the output folder: " + ec.message());
         }
     }
-    for (const job& j : jobs) refuse_overwriting_input(j.output, inputs);
+    for (const job& j : jobs) {
+        refuse_overwriting_input(j.output, inputs);
+        if (o.report) {  // the report beside the patch is an output too
+            const fs::path html = report_path_of(j.output);
+            refuse_overwriting_input(html, inputs);
+            const fs::path patch_path[] = {j.output};
+            if (html == j.output) throw io_error(html.string() + ": the report would overwrite the patch; name the patch .toml");
+            refuse_overwriting_input(html, patch_path);
+        }
+    }
     return jobs;
 }
 
@@ -166,13 +182,16 @@ std::string run_one(const job& j, const analyze_options& o) {
     } catch (const analysis_error& e) {
         throw io_error(j.input.string() + ": " + e.what());
     }
-    write_patch_file(j.output, r.value);
+    try {
+        write_patch_file(j.output, r.value);
+    } catch (const patch_error& e) {
+        throw io_error(j.input.string() + " -> " + j.output.string() + ": " + e.what());
+    }
     std::error_code ec;
     const std::uintmax_t bytes = fs::file_size(j.output, ec);
     std::string line = summary_line(j, r.summary, ec ? 0 : bytes);
     if (o.report) {
-        fs::path html = j.output;
-        html.replace_extension(".html");
+        const fs::path html = report_path_of(j.output);
         write_analysis_report(audio, j.input, r.value, &r.tracking, j.output, html);
         line += "; report " + html.string();
     }
@@ -197,8 +216,11 @@ int run(const analyze_options& o) {
                 say(line);
             } catch (const std::exception& e) {
                 ++failed;
+                // Every error names the input (most already start with it).
+                const std::string what = e.what();
+                const std::string input = jobs[i].input.string();
                 std::lock_guard lock(out_mutex);
-                print_error(e.what());
+                print_error(what.find(input) == std::string::npos ? input + ": " + what : what);
             }
             bar.advance();
         }

@@ -194,14 +194,20 @@ void print_table(const compare_options& opt, const compare_result& r, const spec
 
 int run_compare(const compare_options& opt) {
     if (!(opt.early_s > 0.0) || !std::isfinite(opt.early_s)) {
-        throw usage_error("--early-s must be a positive number of seconds, got " + std::to_string(opt.early_s));
+        throw usage_error("--early-s " + short_num(opt.early_s) + ": must be a positive number of seconds");
     }
     const mono_audio a = read_audio(opt.a_path);
     mono_audio b = read_audio(opt.b_path);
     std::optional<double> b_rate_before_hz;
     if (b.sample_rate_hz != a.sample_rate_hz) {
         b_rate_before_hz = b.sample_rate_hz;
-        b.samples = resample(b.samples, b.sample_rate_hz, a.sample_rate_hz);
+        try {
+            b.samples = resample(b.samples, b.sample_rate_hz, a.sample_rate_hz);
+        } catch (const std::exception& e) {
+            throw std::runtime_error(opt.b_path.string() + ": cannot resample from " + short_num(b.sample_rate_hz) +
+                                     " Hz to the rate of " + opt.a_path.string() + " (" +
+                                     short_num(a.sample_rate_hz) + " Hz): " + e.what());
+        }
         b.sample_rate_hz = a.sample_rate_hz;
     }
     compare_params params{};

@@ -56,7 +56,7 @@ int run_edit(const edit_options& o) {
     refuse_overwriting_input(out, inputs);
 
     const patch_read_result read = read_patch_file(in);
-    for (const std::string& w : read.warnings) warn(w);
+    warn_all(read.warnings);
     patch edited = apply_transforms_checked(read.value, params, o.rate_hz, o.input);
     set_root_by_hand(o, edited.note);
 

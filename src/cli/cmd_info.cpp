@@ -88,7 +88,7 @@ std::string root_text(const note_info& n) {
 
 int run_info(const std::filesystem::path& path) {
     const patch_read_result r = read_patch_file(path);
-    for (const std::string& w : r.warnings) warn(w);
+    warn_all(r.warnings);
     std::cout << patch_info_text(r.value, path);
     return exit_ok;
 }
@@ -99,8 +99,8 @@ std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
     std::ostringstream os;
     const note_info& n = p.note;
 
-    os << path.string() << " (" << patch_format_name << " version " << p.version << ")\n";
-    os << "  name      " << (n.name.empty() ? "(none)" : n.name) << '\n';
+    os << printable(path.string()) << " (" << patch_format_name << " version " << p.version << ")\n";
+    os << "  name      " << (n.name.empty() ? "(none)" : printable(n.name)) << '\n';
     os << "  f0        " << pitch_text(n.f0_hz) << '\n';
     os << "  B         " << printf_text("%.4e", n.inharmonicity_b) << '\n';
     os << "  root      " << root_text(n) << '\n';
@@ -108,12 +108,12 @@ std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
     os << "  content   " << p.partials.size() << (p.partials.size() == 1 ? " partial, " : " partials, ")
               << p.noise.size() << (p.noise.size() == 1 ? " noise band" : " noise bands") << '\n';
     const source_info& s = p.source;
-    os << "  source    " << (s.file.empty() ? "(none)" : s.file)
+    os << "  source    " << (s.file.empty() ? "(none)" : printable(s.file))
               << (s.sample_rate_hz > 0.0 ? printf_text(", %.0f Hz", s.sample_rate_hz) : std::string(", rate unknown"))
               << printf_text(", onset %.6f s", s.onset_s) << '\n';
     if (s.analysis) {
         const analysis_settings& a = *s.analysis;
-        os << "  analysis  " << (a.window.empty() ? "(window unnamed)" : a.window)
+        os << "  analysis  " << (a.window.empty() ? "(window unnamed)" : printable(a.window))
                   << printf_text(", FFT %d, window %.3f ms, hop %.3f ms", a.fft_size, a.window_s * ms_per_s,
                                 a.hop_s * ms_per_s)
                   << '\n';

@@ -20,6 +20,7 @@
 #include <vector>
 
 #include "cli/common.hpp"
+#include "core/text_format.hpp"
 #include "cli/loudness.hpp"
 #include "cli/transform_options.hpp"
 #include "io/atomic_file.hpp"
@@ -42,6 +43,10 @@ constexpr double default_keymap_rate_hz = 48000.0;
 constexpr double keymap_peak_target_db = -1.0;
 constexpr std::size_t keymap_memory_budget_bytes = std::size_t{1} << 30;  // 1 GiB of float samples
 constexpr int max_keymap_variants = 64;
+/// How far the softest layer may lie below the loudest, and how much darker it may be (our
+/// choice, no source: 96 dB is a 16-bit file's range; 48 dB per octave matches --brightness-db-oct).
+constexpr double max_layer_span_db = 96.0;
+constexpr double max_layer_tilt_span_db_per_oct = 48.0;
 /// Threads of the write phase when the renders are kept in memory: writing is bound by the
 /// latency of each file's fsync (atomic output), not by the CPU, so more writes in flight than
 /// cores shorten the wall time (measured: see tools/bench_keymap.cpp).
@@ -72,11 +77,7 @@ struct keymap_options {
 };
 
 std::string fmt(double v, int precision = 3) {
-    std::ostringstream s;
-    s.setf(std::ios::fixed);
-    s.precision(precision);
-    s << v;
-    return s.str();
+    return std::fabs(v) < 1e9 ? printf_text("%.*f", precision, v) : short_num(v);
 }
 
 /// Runs work(i) for i in [0, count) on `threads` threads; the first exception stops the rest and
@@ -142,10 +143,20 @@ keymap_settings check_keymap_options(const keymap_options& o) {
     if (o.every < 1) throw usage_error("--every: must be at least 1");
     if (o.layers < 1 || o.layers > max_keymap_layers) throw usage_error("--layers: must be between 1 and 127");
     if (o.variants < 1 || o.variants > max_keymap_variants) throw usage_error("--variants: must be between 1 and 64");
-    if (!std::isfinite(o.layer_step_db) || o.layer_step_db < 0.0) throw usage_error("--layer-step-db: must be >= 0");
-    if (!std::isfinite(o.layer_brightness_step)) throw usage_error("--layer-tilt-db-oct: must be a finite number");
-    if (!std::isfinite(o.rate_hz) || o.rate_hz < min_render_rate_hz || o.rate_hz > max_render_rate_hz) {
-        throw usage_error("--rate: must be between 8000 and 192000 Hz");
+    const double steps = o.layers - 1;
+    if (!(o.layer_step_db >= 0.0 && o.layer_step_db * steps <= max_layer_span_db)) {
+        throw usage_error("--layer-step-db " + short_num(o.layer_step_db) +
+                          ": must be 0 or more, and the softest layer at most " + short_num(max_layer_span_db) +
+                          " dB below the loudest (--layers " + std::to_string(o.layers) + ")");
+    }
+    if (!(std::fabs(o.layer_brightness_step) * steps <= max_layer_tilt_span_db_per_oct)) {
+        throw usage_error("--layer-tilt-db-oct " + short_num(o.layer_brightness_step) +
+                          ": the softest layer may differ from the loudest by at most " +
+                          short_num(max_layer_tilt_span_db_per_oct) + " dB per octave (--layers " +
+                          std::to_string(o.layers) + ")");
+    }
+    if (!(o.rate_hz >= min_render_rate_hz && o.rate_hz <= max_render_rate_hz) || o.rate_hz != std::round(o.rate_hz)) {
+        throw usage_error("--rate " + short_num(o.rate_hz) + ": must be a whole number of Hz from 8000 to 192000");
     }
     const auto format = parse_sample_format(o.bits);
     if (!format) throw usage_error("--bits: must be 16, 24 or 32f, not '" + o.bits + "'");
@@ -266,7 +277,7 @@ int run_keymap(keymap_options o) {
 
     const std::filesystem::path in{o.input};
     const patch_read_result read = read_patch_file(in);
-    for (const std::string& w : read.warnings) warn(w);
+    warn_all(read.warnings);
     const patch& source = read.value;
     if (!(root_hz(source.note) > 0.0)) {
         throw std::runtime_error(o.input + ": keymap needs a pitched patch (a [note] root, or note.f0_hz > 0) to move it to each note");

@@ -1,7 +1,7 @@
 // wane render PATCH -o OUT: audio from a patch (the oscillator bank of src/synthesis/render.hpp).
-// Bad values of --rate and --length-s, and an output that would exceed full scale by more than
-// max_over_full_scale_db, are run-time errors (exit 1, no file written); an unknown --bits or a
-// positive --normalize-db is bad usage (exit 2). Clipping is never silent: a peak over 0 dBFS
+// Out-of-range option values are bad usage (exit 2, naming the option); an output that would
+// exceed full scale by more than max_over_full_scale_db is a run-time error (exit 1, no file).
+// Clipping is never silent: a peak over 0 dBFS
 // fails with advice unless --normalize-db scales the render (and says so).
 #include <cmath>
 #include <cstdio>
@@ -28,6 +28,9 @@ namespace wane::cli {
 namespace {
 
 constexpr double default_rate_hz = 48000.0;
+/// Largest |--gain-db|, |--noise-db| and -(--normalize-db): 120 dB spans a 24-bit file's whole
+/// range and a few bits more (our choice, no source); past it the render is silence or overload.
+constexpr double max_abs_gain_db = 120.0;
 /// Headroom the clipping advice suggests below full scale.
 constexpr double advice_headroom_db = 1.0;
 
@@ -60,16 +63,22 @@ sample_format check_render_options(const render_options& o) {
     if (!format) throw usage_error("--bits " + o.bits + ": must be 16, 24 or 32f");
     if (!(o.rate_hz >= min_render_rate_hz && o.rate_hz <= max_render_rate_hz) ||
         o.rate_hz != std::round(o.rate_hz)) {
-        throw std::runtime_error(printf_text("--rate %g: must be a whole number of Hz from %.0f to %.0f",
-                                            o.rate_hz, min_render_rate_hz, max_render_rate_hz));
+        throw usage_error(printf_text("--rate %.6g: must be a whole number of Hz from %.0f to %.0f",
+                                      o.rate_hz, min_render_rate_hz, max_render_rate_hz));
     }
     if (o.length_s && !(*o.length_s > 0.0 && *o.length_s <= max_length_s)) {
-        throw std::runtime_error(printf_text("--length-s %g: must be more than 0 and at most %.0f s",
-                                            *o.length_s, max_length_s));
+        throw usage_error(printf_text("--length-s %.6g: must be more than 0 and at most %.0f s",
+                                      *o.length_s, max_length_s));
     }
-    if (!std::isfinite(o.gain_db)) throw usage_error("--gain-db: must be a finite number of dB");
-    if (o.normalize_db && !(*o.normalize_db <= 0.0 && std::isfinite(*o.normalize_db))) {
-        throw usage_error(printf_text("--normalize-db %g: must be at most 0 dBFS", *o.normalize_db));
+    if (!(std::fabs(o.gain_db) <= max_abs_gain_db)) {
+        throw usage_error(printf_text("--gain-db %.6g: must be within +-%.0f dB", o.gain_db, max_abs_gain_db));
+    }
+    if (!(std::fabs(o.noise_db) <= max_abs_gain_db)) {
+        throw usage_error(printf_text("--noise-db %.6g: must be within +-%.0f dB", o.noise_db, max_abs_gain_db));
+    }
+    if (o.normalize_db && !(*o.normalize_db <= 0.0 && *o.normalize_db >= -max_abs_gain_db)) {
+        throw usage_error(printf_text("--normalize-db %.6g: must be from -%.0f to 0 dBFS", *o.normalize_db,
+                                      max_abs_gain_db));
     }
     const std::filesystem::path inputs[] = {o.patch_path};
     refuse_overwriting_input(o.out_path, inputs);
@@ -109,10 +118,9 @@ double level_output(std::vector<float>& y, const render_options& o, const std::s
 
 int run_render(const render_options& o) {
     const sample_format format = check_render_options(o);
-    if (!std::isfinite(o.noise_db)) throw usage_error("--noise-db: must be a finite number of dB");
     const transform_params tp = to_params(o.transforms);
     const patch_read_result r = read_patch_file(o.patch_path);
-    for (const std::string& w : r.warnings) warn(w);
+    warn_all(r.warnings);
     const patch p = apply_transforms_checked(r.value, tp, o.rate_hz, o.patch_path.string());
     // The noise bands' seed is the variation seed, so one --seed fixes the whole variant.
     const render_params params{.sample_rate_hz = o.rate_hz, .length_s = o.length_s.value_or(0.0),

@@ -41,6 +41,9 @@ constexpr std::size_t max_string_bytes = 4096;
 /// a patch nests at most 4 levels (root > partial array > partial > decay array > segment); deeper
 /// structures are refused before they are walked.
 constexpr int max_nesting_depth = 4;
+/// Longest line: a [[partial]] with 64 decay segments takes about 3 KB, a 4096-byte string
+/// written with \uXXXX escapes 25 KB; 64 KiB bounds the parser's work on one line (our choice).
+constexpr std::size_t max_line_bytes = std::size_t{64} << 10;
 /// Range of the root's tuning and of A4 (a root is the nearest note, so |cents| <= 50 when wane
 /// writes it; by hand up to a semitone either way).
 constexpr double max_tuning_cents = 100.0;

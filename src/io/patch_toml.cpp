@@ -84,7 +84,7 @@ patch_read_result parse_patch(std::string_view text, std::string_view source_nam
         throw patch_error(name + ": " + std::to_string(text.size()) + " bytes is larger than the " +
                           max_patch_file_text + " a patch may have");
     }
-    refuse_non_ascii_outside_strings(text, name);
+    guard_toml_text(text, name, {.max_nesting_depth = max_nesting_depth, .max_line_bytes = max_line_bytes});
     prescan_counts(text, name);
     toml::table root;
     try {
