@@ -263,8 +263,18 @@ TEST_CASE("noise floor reads the mean noise power of white noise", "[spectrum][f
         plan.analyze(x, c);
         floor.update(plan.power());
     }
+    // One band's reading scatters: the 20% quantile of ~24 bins' powers has a relative standard
+    // deviation of about sqrt(0.2 * 0.8 / 24) / 0.8 / 0.223 = 46 % (1.9 dB), and the running
+    // average spans only a few independent frames (heavily overlapped windows), so about 1.2 dB
+    // remain: 3 dB is 2.5 of those. The mean over many bands averages the scatter away: 0.5 dB.
     for (double f_hz : {500.0, 5000.0, 15000.0}) {
         CAPTURE(f_hz, floor.floor_db_at(f_hz), expected_db);
-        CHECK_THAT(floor.floor_db_at(f_hz), WithinAbs(expected_db, 1.5));
+        CHECK_THAT(floor.floor_db_at(f_hz), WithinAbs(expected_db, 3.0));
     }
+    double sum_db = 0.0;
+    int bands = 0;
+    for (double f_hz = 250.0; f_hz < 20000.0; f_hz += 250.0, ++bands) sum_db += floor.floor_db_at(f_hz);
+    const double mean_db = sum_db / bands;
+    CAPTURE(bands, mean_db, expected_db);
+    CHECK_THAT(mean_db, WithinAbs(expected_db, 0.5));
 }
