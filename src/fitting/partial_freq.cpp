@@ -20,7 +20,7 @@ double heard_freq_hz(std::span<const track_point> pts, std::size_t peak, std::si
     for (const track_point& p : pts) {
         const double u = (p.time_s - span_start_s) / span_s;
         if (u <= 0.0 || u >= 1.0 || p.level_db < p.floor_db + clear_above_floor_db) continue;
-        const double a = (0.5 - 0.5 * std::cos(two_pi * u)) * std::pow(10.0, p.level_db / 20.0);
+        const double a = (0.5 - 0.5 * std::cos(two_pi * u)) * to_amp(level_db{p.level_db}).lin;
         w.push_back(a);
         t.push_back(p.time_s);
         phi.push_back(p.phase_rad);
@@ -60,7 +60,7 @@ double heard_freq_hz(std::span<const track_point> pts, std::size_t peak, std::si
     }
     fa = 0.0, fw = 0.0;
     for (std::size_t i = peak; i < end; ++i) {
-        const double a = std::pow(10.0, pts[i].level_db / 20.0);
+        const double a = to_amp(level_db{pts[i].level_db}).lin;
         fa += a * pts[i].freq_hz;
         fw += a;
     }
