@@ -8,7 +8,9 @@
 #include <stdexcept>
 #include <string>
 
+#include "analysis/beating_pairs.hpp"
 #include "analysis/noise_model.hpp"
+#include "analysis/onset_refine.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "synthesis/render.hpp"
 #include "spectrum/window.hpp"
@@ -36,7 +38,30 @@ void add_noise_model(patch& p, std::span<const float> part, double sample_rate_h
     p.noise = fit_note_noise(part.subspan(onset), sample_rate_hz, p, noise_params);
 }
 
+/// Peak |sample| of x as a level (0 dBFS = 1).
+double peak_level_db(std::span<const float> x) {
+    float peak = 0.0f;
+    for (float v : x) peak = std::max(peak, std::abs(v));
+    return to_level(amp_lin{static_cast<double>(peak)}).db;
+}
+
 }  // namespace
+
+double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz) {
+    // The copy's peak as the default render makes it (noise seed 1), over the whole note at the
+    // source rate and, where peaks between samples matter most, over the first second at four
+    // times the rate (capped at the renderer's top rate).
+    patch q = p;
+    q.note.gain_db = 0.0;
+    const double fast_rate = std::min(4.0 * sample_rate_hz, max_render_rate_hz);
+    double copy_db = -infinity;
+    if (sample_rate_hz >= min_render_rate_hz && sample_rate_hz <= max_render_rate_hz)
+        copy_db = peak_level_db(render_patch(q, {.sample_rate_hz = sample_rate_hz}));
+    q.note.length_s = std::min(q.note.length_s, peak_check_s);
+    if (fast_rate >= min_render_rate_hz) copy_db = std::max(copy_db, peak_level_db(render_patch(q, {.sample_rate_hz = fast_rate})));
+    const double target_db = std::min(peak_level_db(note), -peak_headroom_db);
+    return copy_db > target_db ? target_db - copy_db : 0.0;
+}
 
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
                              const analysis_params& params) {
@@ -93,8 +118,28 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     // The tracker analyses with the 4-term Blackman-Harris window (tracking/tracker.cpp).
     p.source.analysis = analysis_settings{.window = std::string(window_name(window_kind::blackman_harris_4)),
                                           .fft_size = tr.fft_size, .window_s = tr.window_s, .hop_s = tr.hop_s};
+    const auto onset_frame = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
+    if (params.split_pairs && onset_frame < part.size()) {
+        out.summary.pairs_split = split_beating_pairs(p, part.subspan(onset_frame), sample_rate_hz, params.pairs);
+        out.summary.partials = static_cast<int>(p.partials.size());
+    }
+    if (params.refine_onset) {
+        const auto onset = onset_frame;
+        if (onset < part.size()) {
+            const auto refined = refine_onset(p, part.subspan(onset), sample_rate_hz, tr.f0_hz, params.onset);
+            out.summary.new_modes = refined.new_modes;
+            out.summary.partials = static_cast<int>(p.partials.size());
+            out.summary.onset_explained_db = refined.explained_db;
+            out.summary.segments = 0;
+            for (const partial& q : p.partials) out.summary.segments += static_cast<int>(q.env.decay.size());
+        }
+    }
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);
     canonicalize(p);
+    if (params.match_peak) {
+        const auto onset = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
+        p.note.gain_db = peak_matching_gain_db(p, part.subspan(std::min(onset, part.size())), sample_rate_hz);
+    }
     return out;
 }
 

@@ -4,7 +4,9 @@
 #include <span>
 #include <string>
 
+#include "analysis/beating_pairs.hpp"
 #include "analysis/noise_model.hpp"
+#include "analysis/onset_refine.hpp"
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "tracking/tracker.hpp"
@@ -20,6 +22,15 @@ struct analysis_params {
     std::string note_name;    ///< [note].name
     bool noise_model = true;  ///< fit [[noise]] bands to the residual (analysis/noise_model.hpp)
     noise_model_params noise{};
+    /// Refit every partial's start on the waveform and add the short-lived modes
+    /// (analysis/onset_refine.hpp).
+    bool refine_onset = true;
+    /// Split partials that beat into two (analysis/beating_pairs.hpp).
+    bool split_pairs = true;
+    beating_pair_params pairs{};
+    /// Set note.gain_db so the copy does not peak above the recording (peak_matching_gain_db).
+    bool match_peak = true;
+    onset_refine_params onset{};
 };
 
 struct analysis_summary {
@@ -28,6 +39,10 @@ struct analysis_summary {
     double fit_error_db = 0.0; ///< RMS error of the envelope fits over all fitted frames, dB
     int tracks = 0;            ///< tracks the tracker returned
     int unfitted = 0;          ///< tracks dropped: fewer than two frames clear of the floor
+    int pairs_split = 0;       ///< partials split into beating pairs
+    int new_modes = 0;         ///< partials added by the onset refinement (short-lived modes)
+    /// Energy of the first fit span explained by the partials, dB (onset refinement).
+    double onset_explained_db = 0.0;
 };
 
 struct analysis_result {
@@ -38,6 +53,17 @@ struct analysis_result {
 
 /// Largest number of decay segments per partial the fit supports (--max-segments).
 inline constexpr int max_decay_segments = max_fit_segments;
+
+/// The copy's peak is checked over its first peak_check_s at four times the rate (peaks between
+/// samples), and kept this far under full scale at least.
+inline constexpr double peak_check_s = 1.0;
+inline constexpr double peak_headroom_db = 0.1;
+
+/// Gain (dB, <= 0) that brings the default render of p (all of it, noise seed 1) down to the peak
+/// of the recording note (note[0] at the onset), or to -peak_headroom_db dBFS when that is lower;
+/// 0 when the copy already peaks lower. Levels that add up: the partials' fitted starts sum to
+/// the waveform, but a copy may still overshoot by the noise or by where its peaks fall.
+double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz);
 
 /// Throws std::invalid_argument with a user-facing reason when the sound cannot be analyzed.
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,

@@ -53,6 +53,8 @@ struct analyze_options {
     std::optional<int> jobs;
     bool report = false;
     bool no_noise = false;
+    bool no_onset_refine = false;
+    bool no_pairs = false;
     double max_input_s = default_max_input_s;
     std::uintmax_t max_input_mib = default_max_input_bytes >> 20;
 };
@@ -139,9 +141,9 @@ std::vector<job> plan_jobs(const analyze_options& o) {
 }
 
 std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t bytes) {
-    char buf[128];
-    std::snprintf(buf, sizeof buf, ": %d partials, %d segments, fit error %.2f dB, %ju bytes", s.partials,
-                  s.segments, s.fit_error_db, bytes);
+    char buf[192];
+    std::snprintf(buf, sizeof buf, ": %d partials (%d short-lived, %d pairs split), %d segments, fit error %.2f dB, onset %.1f dB explained, %ju bytes",
+                  s.partials, s.new_modes, s.pairs_split, s.segments, s.fit_error_db, s.onset_explained_db, bytes);
     return j.input.string() + " -> " + j.output.string() + buf;
 }
 
@@ -156,7 +158,9 @@ std::string run_one(const job& j, const analyze_options& o) {
                        .end_s = o.end_s.value_or(0.0),
                        .source_file = j.input.filename().string(),
                        .note_name = o.name.value_or(j.input.stem().string()),
-                       .noise_model = !o.no_noise};
+                       .noise_model = !o.no_noise,
+                       .refine_onset = !o.no_onset_refine,
+                       .split_pairs = !o.no_pairs};
     if (o.f0_hz && *o.f0_hz >= 0.5 * audio.sample_rate_hz)
         throw io_error(j.input.string() + ": --f0 " + num(*o.f0_hz) + " Hz is not below half the sample rate (" +
                        num(audio.sample_rate_hz) + " Hz)");
@@ -234,6 +238,9 @@ void add_analyze_command(CLI::App& app, command_registry& reg) {
     sub->add_option("-j,--jobs", o->jobs, "Files analyzed at once (default: all cores)");
     sub->add_flag("--report", o->report, "Also write an HTML report beside each patch (<stem>.html)");
     sub->add_flag("--no-noise", o->no_noise, "Fit partials only: no [[noise]] bands for the residual");
+    sub->add_flag("--no-onset-refine", o->no_onset_refine,
+                  "Keep the STFT envelopes' starts: no waveform fit of the onset, no short-lived modes");
+    sub->add_flag("--no-pair-split", o->no_pairs, "Keep beating partials as one partial each (no split into pairs)");
     sub->add_option("--max-input-s", o->max_input_s, "Refuse input files longer than this, seconds")
         ->capture_default_str();
     sub->add_option("--max-input-mib", o->max_input_mib, "Refuse input files larger than this, MiB")
