@@ -48,17 +48,14 @@ double peak_level_db(std::span<const float> x) {
 }  // namespace
 
 double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz) {
-    // The copy's peak as the default render makes it (noise seed 1), over the whole note at the
-    // source rate and, where peaks between samples matter most, over the first second at four
-    // times the rate (capped at the renderer's top rate).
+    // The copy's peak as the default render makes it (noise seed 1), at the source rate and at
+    // the usual output rate (noise bands are drawn per rate, so their peaks differ by rate).
     patch q = p;
     q.note.gain_db = 0.0;
-    const double fast_rate = std::min(4.0 * sample_rate_hz, max_render_rate_hz);
     double copy_db = -infinity;
-    if (sample_rate_hz >= min_render_rate_hz && sample_rate_hz <= max_render_rate_hz)
-        copy_db = peak_level_db(render_patch(q, {.sample_rate_hz = sample_rate_hz}));
-    q.note.length_s = std::min(q.note.length_s, peak_check_s);
-    if (fast_rate >= min_render_rate_hz) copy_db = std::max(copy_db, peak_level_db(render_patch(q, {.sample_rate_hz = fast_rate})));
+    for (const double rate : {sample_rate_hz, 48000.0})
+        if (rate >= min_render_rate_hz && rate <= max_render_rate_hz)
+            copy_db = std::max(copy_db, peak_level_db(render_patch(q, {.sample_rate_hz = rate})));
     const double target_db = std::min(peak_level_db(note), -peak_headroom_db);
     return copy_db > target_db ? target_db - copy_db : 0.0;
 }

@@ -54,12 +54,12 @@ struct analysis_result {
 /// Largest number of decay segments per partial the fit supports (--max-segments).
 inline constexpr int max_decay_segments = max_fit_segments;
 
-/// The copy's peak is checked over its first peak_check_s at four times the rate (peaks between
-/// samples), and kept this far under full scale at least.
-inline constexpr double peak_check_s = 1.0;
-inline constexpr double peak_headroom_db = 0.1;
+/// The copy's peak is kept this far under full scale at least (peaks between samples and other
+/// output rates).
+inline constexpr double peak_headroom_db = 0.3;
 
-/// Gain (dB, <= 0) that brings the default render of p (all of it, noise seed 1) down to the peak
+/// Gain (dB, <= 0) that brings the default render of p (at the source rate and at 48 kHz, noise
+/// seed 1) down to the peak
 /// of the recording note (note[0] at the onset), or to -peak_headroom_db dBFS when that is lower;
 /// 0 when the copy already peaks lower. Levels that add up: the partials' fitted starts sum to
 /// the waveform, but a copy may still overshoot by the noise or by where its peaks fall.

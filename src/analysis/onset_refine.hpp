@@ -22,13 +22,25 @@ struct onset_refine_params {
     double bands_per_f0 = 6.0;
     double min_band_hz = 300.0;
     double max_band_hz = 2000.0;
-    /// A subband mode this close to a fitted partial (Hz, or this many cents) is that partial.
+    /// A subband mode this close to a fitted partial (Hz, or this many cents) is that partial ...
+    /// and a new mode keeps this many resolution cells (1 / fit span) from every partial.
+    double new_mode_clearance_cells = 2.0;
     double same_mode_hz = 3.0;
     double same_mode_cents = 15.0;
     /// A new mode is kept when its energy over the fit span is within this many dB of the
     /// strongest mode's, and its T60 is at least min_new_t60_s.
     double new_mode_range_db = 45.0;
     double min_new_t60_s = 0.006;
+    /// ... and is a resonance, not a burst of noise: quality factor pi f / decay (f over its
+    /// bandwidth) at least this ...
+    double min_new_q = 10.0;
+    /// ... and carries at least this share of the span's energy in its band (main lobe) ...
+    double new_mode_share = 0.5;
+    /// ... and is stable: found again on stable_span_fraction of the subband span, within
+    /// stable_freq_cells resolution cells and stable_decay_rel of its decay.
+    double stable_span_fraction = 0.6;
+    double stable_freq_cells = 0.5;
+    double stable_decay_rel = 0.3;
     /// ... and at most max_new_t60_s: a mode that lives longer is seen by the STFT tracker, and
     /// poles that fit the attack noise ring on as tones.
     double max_new_t60_s = 0.2;
@@ -39,6 +51,8 @@ struct onset_refine_params {
     /// without one, a bridge of bridge_s joins them after the fit span.
     double join_search_s = 0.3;
     double bridge_s = 0.05;
+    /// An envelope with an instant onset that agrees with the early line within this is kept.
+    double agree_db = 1.0;
 };
 
 struct onset_refine_summary {

@@ -142,8 +142,8 @@ std::vector<job> plan_jobs(const analyze_options& o) {
 
 std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t bytes) {
     char buf[192];
-    std::snprintf(buf, sizeof buf, ": %d partials (%d short-lived, %d pairs split), %d segments, fit error %.2f dB, onset %.1f dB explained, %ju bytes",
-                  s.partials, s.new_modes, s.pairs_split, s.segments, s.fit_error_db, s.onset_explained_db, bytes);
+    std::snprintf(buf, sizeof buf, ": %d partials, %d short-lived, %d pairs split, onset fit explains %.1f dB, %d segments, fit error %.2f dB, %ju bytes",
+                  s.partials, s.new_modes, s.pairs_split, s.onset_explained_db, s.segments, s.fit_error_db, bytes);
     return j.input.string() + " -> " + j.output.string() + buf;
 }
 

@@ -3,6 +3,7 @@
 #include <kiss_fft.h>
 #include <kiss_fftr.h>
 
+#include <algorithm>
 #include <cassert>
 #include <cmath>
 
@@ -38,6 +39,21 @@ double note_spectrum::duration_s() const {
     return static_cast<double>(state_->signal_frames) / state_->sample_rate_hz;
 }
 
+double note_spectrum::energy_between(double low_hz, double high_hz) const {
+    const state& s = *state_;
+    const double bin_hz = s.sample_rate_hz / static_cast<double>(s.fft_size);
+    const auto last_bin = static_cast<long>(s.bins.size()) - 1;
+    const long lo = std::clamp(static_cast<long>(std::ceil(low_hz / bin_hz)), 1L, last_bin);
+    const long hi = std::clamp(static_cast<long>(std::floor(high_hz / bin_hz)), 1L, last_bin);
+    double sum = 0.0;
+    for (long k = lo; k <= hi; ++k) {
+        const kiss_fft_cpx b = s.bins[static_cast<std::size_t>(k)];
+        sum += double(b.r) * double(b.r) + double(b.i) * double(b.i);
+    }
+    // sum_n x^2 = (1 / M) sum over all M bins |X_k|^2: each positive bin stands for two.
+    return 2.0 * sum / static_cast<double>(s.fft_size);
+}
+
 narrowband note_spectrum::band(double centre_hz, double half_width_hz, double min_rate_hz) const {
     const state& s = *state_;
     const double bin_hz = s.sample_rate_hz / static_cast<double>(s.fft_size);
@@ -56,7 +72,7 @@ narrowband note_spectrum::band(double centre_hz, double half_width_hz, double mi
         const double taper = r <= 0.5 ? 1.0 : 0.5 * (1.0 + std::cos(pi * (r - 0.5) / 0.5));
         const kiss_fft_cpx b = s.bins[static_cast<std::size_t>(kc + j)];
         const auto slot = static_cast<std::size_t>((j + points) % points);
-        in[slot] = {static_cast<float>(b.r * taper * scale), static_cast<float>(b.i * taper * scale)};
+        in[slot] = {static_cast<float>(double(b.r) * taper * scale), static_cast<float>(double(b.i) * taper * scale)};
     }
     std::vector<kiss_fft_cpx> out(static_cast<std::size_t>(points));
     kiss_fft_cfg cfg = kiss_fft_alloc(points, 1, nullptr, nullptr);  // inverse: exp(+i ...)

@@ -34,6 +34,9 @@ public:
     /// The band of half-width half_width_hz around centre_hz, sampled at no less than
     /// min_rate_hz (rounded up to a fast FFT size); empty when the band leaves [0, fs/2].
     narrowband band(double centre_hz, double half_width_hz, double min_rate_hz) const;
+    /// Energy of the signal between low_hz and high_hz (sum of x^2 over time by Parseval,
+    /// positive frequencies counted twice).
+    double energy_between(double low_hz, double high_hz) const;
     /// Length of the analysed signal, seconds.
     double duration_s() const;
 
