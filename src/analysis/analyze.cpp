@@ -12,6 +12,7 @@
 #include "analysis/noise_model.hpp"
 #include "analysis/onset_refine.hpp"
 #include "fitting/envelope_fit.hpp"
+#include "pitch/root.hpp"
 #include "synthesis/render.hpp"
 #include "spectrum/window.hpp"
 
@@ -108,6 +109,9 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     p.note.name = params.note_name;
     p.note.f0_hz = tr.f0_hz;
     p.note.inharmonicity_b = tr.inharmonicity_b;
+    p.note.root = note_root_of(p.partials, tr.series_f0_hz, params.tracking.f0_hz.has_value());
+    // Without a harmonic series (a bar, a bell) f0 is the root: the note's pitch centre.
+    if (!(p.note.f0_hz > 0.0)) p.note.f0_hz = root_hz(p.note);
     p.note.length_s = std::max(length_step_s, std::ceil(analysed_s / length_step_s - 1e-9) * length_step_s);
     p.source.file = params.source_file;
     p.source.sample_rate_hz = sample_rate_hz;

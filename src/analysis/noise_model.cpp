@@ -137,7 +137,9 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& tracks, d
         envelope_fit_params fit = params.fit;
         fit.window_s = params.window_s;
         const auto result = fit_partial(track, fit);
-        if (!result) continue;
+        // Bounded like the partials' fits (analyze.cpp): a peak beyond what the format holds (an
+        // attack extrapolated far above the measured levels) is no band of this note.
+        if (!result || result->env.peak.db > max_peak_db) continue;
         if (result->env.peak.db < loudest_partial_db - params.keep_within_db) continue;
         bands.push_back({.low_hz = t.low_hz, .high_hz = t.high_hz, .env = result->env});
     }

@@ -105,6 +105,13 @@ struct job {
     fs::path output;
 };
 
+/// Where --report writes the report of a patch: beside it, extension .html.
+fs::path report_path_of(const fs::path& patch_path) {
+    fs::path html = patch_path;
+    html.replace_extension(".html");
+    return html;
+}
+
 /// Output path of each input: OUT itself for one input (OUT/<stem>.toml when OUT is a folder),
 /// OUT/<stem>.toml for several (OUT is created when missing; its parent must exist).
 std::vector<job> plan_jobs(const analyze_options& o) {
@@ -136,7 +143,16 @@ std::vector<job> plan_jobs(const analyze_options& o) {
             if (ec) throw io_error(out.string() + ": cannot create the output folder: " + ec.message());
         }
     }
-    for (const job& j : jobs) refuse_overwriting_input(j.output, inputs);
+    for (const job& j : jobs) {
+        refuse_overwriting_input(j.output, inputs);
+        if (o.report) {  // the report beside the patch is an output too
+            const fs::path html = report_path_of(j.output);
+            refuse_overwriting_input(html, inputs);
+            const fs::path patch_path[] = {j.output};
+            if (html == j.output) throw io_error(html.string() + ": the report would overwrite the patch; name the patch .toml");
+            refuse_overwriting_input(html, patch_path);
+        }
+    }
     return jobs;
 }
 
@@ -170,13 +186,16 @@ std::string run_one(const job& j, const analyze_options& o) {
     } catch (const std::invalid_argument& e) {
         throw io_error(j.input.string() + ": " + e.what());
     }
-    write_patch_file(j.output, r.value);
+    try {
+        write_patch_file(j.output, r.value);
+    } catch (const patch_error& e) {
+        throw io_error(j.input.string() + " -> " + j.output.string() + ": " + e.what());
+    }
     std::error_code ec;
     const std::uintmax_t bytes = fs::file_size(j.output, ec);
     std::string line = summary_line(j, r.summary, ec ? 0 : bytes);
     if (o.report) {
-        fs::path html = j.output;
-        html.replace_extension(".html");
+        const fs::path html = report_path_of(j.output);
         write_analysis_report(audio, j.input, r.value, &r.tracking, j.output, html);
         line += "; report " + html.string();
     }
@@ -201,8 +220,11 @@ int run(const analyze_options& o) {
                 say(line);
             } catch (const std::exception& e) {
                 ++failed;
+                // Every error names the input (most already start with it).
+                const std::string what = e.what();
+                const std::string input = jobs[i].input.string();
                 std::lock_guard lock(out_mutex);
-                print_error(e.what());
+                print_error(what.find(input) == std::string::npos ? input + ": " + what : what);
             }
             bar.advance();
         }
@@ -224,7 +246,7 @@ void add_analyze_command(CLI::App& app, command_registry& reg) {
     sub->add_option("-o,--output", o->output,
                     "Patch file for one input; folder for several (one <stem>.toml each)")
         ->required();
-    sub->add_option("--f0", o->f0_hz, "Fundamental in Hz (default: estimated)");
+    sub->add_option("--f0", o->f0_hz, "Hint of the fundamental in Hz: numbers the harmonics and starts the series fit; the partials found are the same as without it");
     sub->add_option("--max-partials", o->max_partials, "Keep at most this many partials, strongest first")
         ->capture_default_str();
     sub->add_option("--max-segments", o->max_segments, "Decay segments per partial, at most")->capture_default_str();

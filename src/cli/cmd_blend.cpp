@@ -32,9 +32,9 @@ int run_blend(const blend_options& o) {
     refuse_overwriting_input(out, inputs);
 
     const patch_read_result a = read_patch_file(o.input_a);
-    for (const std::string& w : a.warnings) warn(w);
+    warn_all(a.warnings);
     const patch_read_result b = read_patch_file(o.input_b);
-    for (const std::string& w : b.warnings) warn(w);
+    warn_all(b.warnings);
 
     patch blended;
     try {

@@ -111,6 +111,10 @@ void print_json(const compare_options& opt, const compare_result& r, const spect
     o << "  \"early_snr_db\": " << jnum(r.early_snr_db) << ",\n";
     o << "  \"early_identical\": " << (std::isinf(r.early_snr_db) && r.early_snr_db > 0 ? "true" : "false") << ",\n";
     if (r.f0_difference_cents) o << "  \"f0_difference_cents\": " << jnum(*r.f0_difference_cents) << ",\n";
+    if (r.tuning_difference_cents) {
+        o << "  \"tuning_difference_cents\": " << jnum(*r.tuning_difference_cents) << ",\n";
+        o << "  \"tuning_partials\": " << r.tuning_pairs << ",\n";
+    }
     o << "  \"octave_bands\": [";
     for (std::size_t i = 0; i < r.bands.size(); ++i) {
         const band_decay_pair& b = r.bands[i];
@@ -165,6 +169,10 @@ void print_table(const compare_options& opt, const compare_result& r, const spec
         o << num(r.early_snr_db, "%.2f dB", "not measurable (silent)") << "\n";
     }
     if (r.f0_difference_cents) o << "f0 of B against A: " << num(*r.f0_difference_cents, "%+.2f", "?") << " cents\n";
+    if (r.tuning_difference_cents) {
+        o << "tuning of B against A: " << num(*r.tuning_difference_cents, "%+.2f", "?") << " cents (median of the "
+          << r.tuning_pairs << " strongest partials of A paired with B's)\n";
+    }
 
     o << "\noctave-band decay times from A's onset, in s (Schroeder integration; T20 fits -5..-25 dB,\n"
          "T30 -5..-35 dB, by least squares, extrapolated to 60 dB; (x) = less than 10 dB between the\n"
@@ -187,14 +195,20 @@ void print_table(const compare_options& opt, const compare_result& r, const spec
 
 int run_compare(const compare_options& opt) {
     if (!(opt.early_s > 0.0) || !std::isfinite(opt.early_s)) {
-        throw usage_error("--early-s must be a positive number of seconds, got " + std::to_string(opt.early_s));
+        throw usage_error("--early-s " + short_num(opt.early_s) + ": must be a positive number of seconds");
     }
     const mono_audio a = read_audio(opt.a_path);
     mono_audio b = read_audio(opt.b_path);
     std::optional<double> b_rate_before_hz;
     if (b.sample_rate_hz != a.sample_rate_hz) {
         b_rate_before_hz = b.sample_rate_hz;
-        b.samples = resample(b.samples, b.sample_rate_hz, a.sample_rate_hz);
+        try {
+            b.samples = resample(b.samples, b.sample_rate_hz, a.sample_rate_hz);
+        } catch (const std::exception& e) {
+            throw std::runtime_error(opt.b_path.string() + ": cannot resample from " + short_num(b.sample_rate_hz) +
+                                     " Hz to the rate of " + opt.a_path.string() + " (" +
+                                     short_num(a.sample_rate_hz) + " Hz): " + e.what());
+        }
         b.sample_rate_hz = a.sample_rate_hz;
     }
     compare_params params{};

@@ -1,6 +1,8 @@
 // wane edit: apply sound-design edits to a patch and write the result as a new patch, so scripted
 // and hand edits compose (edit, open the TOML, edit again).
+#include <cmath>
 #include <filesystem>
+#include <optional>
 #include <sstream>
 #include <vector>
 
@@ -8,19 +10,41 @@
 #include "cli/transform_options.hpp"
 #include "io/atomic_file.hpp"
 #include "io/patch_toml.hpp"
+#include "core/pitch_names.hpp"
 
 namespace wane::cli {
 
 namespace {
 
 constexpr double default_edit_rate_hz = 48000.0;
+/// --tuning-cents range: a root is a note and at most a semitone off it.
+constexpr double max_root_tuning_cents = 100.0;
 
 struct edit_options {
     std::string input;
     std::string output;
     double rate_hz = default_edit_rate_hz;
     transform_cli transforms;
+    std::string root;                     ///< --root: a note name, a MIDI number, or "none"
+    std::optional<double> tuning_cents{};  ///< --tuning-cents (needs --root)
 };
+
+/// Sets the root by hand (--root, --tuning-cents, A4 from --a4-hz); nothing else changes.
+void set_root_by_hand(const edit_options& o, note_info& n) {
+    if (o.tuning_cents && o.root.empty()) throw usage_error("--tuning-cents: needs --root (the note it tunes)");
+    if (o.root.empty()) return;
+    if (o.root == "none") {
+        if (o.tuning_cents) throw usage_error("--tuning-cents: --root none has no tuning");
+        n.root = {.method = root_method::unpitched};
+        return;
+    }
+    const auto midi = parse_note(o.root);
+    if (!midi) throw usage_error("--root: unknown note '" + o.root + "' (a name like C4, F#3, Bb2, a MIDI number 0-127, or none)");
+    const double cents = o.tuning_cents.value_or(0.0);
+    if (!std::isfinite(cents) || std::abs(cents) > max_root_tuning_cents)
+        throw usage_error("--tuning-cents: must be within +-100 cents");
+    n.root = {.midi = *midi, .tuning_cents = cents, .a4_hz = o.transforms.a4_hz, .method = root_method::by_hand};
+}
 
 int run_edit(const edit_options& o) {
     const transform_params params = to_params(o.transforms);
@@ -31,8 +55,9 @@ int run_edit(const edit_options& o) {
     refuse_overwriting_input(out, inputs);
 
     const patch_read_result read = read_patch_file(in);
-    for (const std::string& w : read.warnings) warn(w);
-    const patch edited = apply_transforms_checked(read.value, params, o.rate_hz, o.input);
+    warn_all(read.warnings);
+    patch edited = apply_transforms_checked(read.value, params, o.rate_hz, o.input);
+    set_root_by_hand(o, edited.note);
 
     // Check the result as a reader would before anything is written.
     const std::string text = format_patch(edited);
@@ -46,7 +71,7 @@ int run_edit(const edit_options& o) {
     std::ostringstream s;
     s.precision(6);
     s << "wrote " << o.output << ": " << edited.partials.size() << " partials (was " << read.value.partials.size()
-      << "), f0 " << edited.note.f0_hz << " Hz";
+      << "), f0 " << edited.note.f0_hz << " Hz, root " << root_hz(edited.note) << " Hz";
     say(s.str());
     return exit_ok;
 }
@@ -62,8 +87,15 @@ void add_edit_command(CLI::App& app, command_registry& reg) {
                     "Sample rate the patch is meant for, Hz: partials at or above its Nyquist are dropped (0 keeps all)")
         ->capture_default_str();
     add_transform_options(sub, opts->transforms);
+    sub->add_option("--root", opts->root,
+                    "Set the root note by hand (C4, F#3, a MIDI number, or none for unpitched); partials unchanged; "
+                    "applied after the other edits, equal temperament with --a4-hz")
+        ->group("Root");
+    sub->add_option("--tuning-cents", opts->tuning_cents, "Tuning of --root in cents from equal temperament (default 0)")
+        ->group("Root");
     sub->footer("Examples:\n  wane edit pluck.toml -o fifth-up.toml --transpose 7 --decay-follows-pitch\n"
-                "  wane edit pluck.toml -o dark.toml --brightness-db-oct -3 --decay-scale 2");
+                "  wane edit pluck.toml -o dark.toml --brightness-db-oct -3 --decay-scale 2\n"
+                "  wane edit bell.toml -o bell-a.toml --root A3 --tuning-cents -12.5");
     reg.add(sub, [opts] { return run_edit(*opts); });
 }
 

@@ -79,9 +79,21 @@ std::string pitch_text(double f0_hz) {
            signed_text((midi - nearest) * cents_per_semitone, 1) + printf_str(" cents (MIDI %d)", static_cast<int>(nearest));
 }
 
+/// "F#3 -1.87 cents (184.744 Hz, A4 = 440 Hz), found by harmonic-series"; "none: unpitched".
+std::string root_text(const note_info& n) {
+    if (n.root.method == root_method::unpitched) return "none: unpitched (no pitch centre)";
+    const double hz = root_hz(n);
+    if (n.root.method == root_method::unstated) {
+        return hz > 0.0 ? "not stated; f0 serves (" + pitch_text(hz) + ")" : "not stated, and no f0";
+    }
+    return note_name(n.root.midi) + " " + signed_text(n.root.tuning_cents, 2) +
+           printf_str(" cents (%.3f Hz, A4 = %g Hz), found by ", hz, n.root.a4_hz) +
+           std::string(root_method_name(n.root.method));
+}
+
 int run_info(const std::filesystem::path& path) {
     const patch_read_result r = read_patch_file(path);
-    for (const std::string& w : r.warnings) warn(w);
+    warn_all(r.warnings);
     std::cout << patch_info_text(r.value, path);
     return exit_ok;
 }
@@ -92,20 +104,21 @@ std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
     std::ostringstream os;
     const note_info& n = p.note;
 
-    os << path.string() << " (" << patch_format_name << " version " << p.version << ")\n";
-    os << "  name      " << (n.name.empty() ? "(none)" : n.name) << '\n';
+    os << printable(path.string()) << " (" << patch_format_name << " version " << p.version << ")\n";
+    os << "  name      " << (n.name.empty() ? "(none)" : printable(n.name)) << '\n';
     os << "  f0        " << pitch_text(n.f0_hz) << '\n';
     os << "  B         " << printf_str("%.4e", n.inharmonicity_b) << '\n';
+    os << "  root      " << root_text(n) << '\n';
     os << "  length    " << printf_str("%.4f s, gain %.2f dB", n.length_s, n.gain_db) << '\n';
     os << "  content   " << p.partials.size() << (p.partials.size() == 1 ? " partial, " : " partials, ")
               << p.noise.size() << (p.noise.size() == 1 ? " noise band" : " noise bands") << '\n';
     const source_info& s = p.source;
-    os << "  source    " << (s.file.empty() ? "(none)" : s.file)
+    os << "  source    " << (s.file.empty() ? "(none)" : printable(s.file))
               << (s.sample_rate_hz > 0.0 ? printf_str(", %.0f Hz", s.sample_rate_hz) : std::string(", rate unknown"))
               << printf_str(", onset %.6f s", s.onset_s) << '\n';
     if (s.analysis) {
         const analysis_settings& a = *s.analysis;
-        os << "  analysis  " << (a.window.empty() ? "(window unnamed)" : a.window)
+        os << "  analysis  " << (a.window.empty() ? "(window unnamed)" : printable(a.window))
                   << printf_str(", FFT %d, window %.3f ms, hop %.3f ms", a.fft_size, a.window_s * ms_per_s,
                                 a.hop_s * ms_per_s)
                   << '\n';
@@ -132,7 +145,7 @@ std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
                                                   q.freq_hz, cents.c_str(), q.env.peak.db, q.env.attack_s * ms_per_s);
             print_segments(os, prefix, q.env);
         }
-        os << "  cents: off the ideal harmonic n f0 sqrt(1 + B n^2); blank for harmonic 0\n";
+        os << "  cents: residual from the fitted series n f0 sqrt(1 + B n^2); blank for harmonic 0\n";
     }
     if (!p.noise.empty()) {
         os << "\n  noise     low_hz     high_hz  peak_db  att_ms  decay: T60 to segment end\n";

@@ -11,6 +11,7 @@
 #include <algorithm>
 #include <atomic>
 #include <chrono>
+#include <cstdio>
 #include <cmath>
 #include <exception>
 #include <filesystem>
@@ -20,6 +21,7 @@
 #include <vector>
 
 #include "cli/common.hpp"
+#include "cli/loudness.hpp"
 #include "cli/transform_options.hpp"
 #include "io/atomic_file.hpp"
 #include "io/audio_file.hpp"
@@ -41,6 +43,10 @@ constexpr double default_keymap_rate_hz = 48000.0;
 constexpr double keymap_peak_target_db = -1.0;
 constexpr std::size_t keymap_memory_budget_bytes = std::size_t{1} << 30;  // 1 GiB of float samples
 constexpr int max_keymap_variants = 64;
+/// How far the softest layer may lie below the loudest, and how much darker it may be (our
+/// choice, no source: 96 dB is a 16-bit file's range; 48 dB per octave matches --brightness-db-oct).
+constexpr double max_layer_span_db = 96.0;
+constexpr double max_layer_tilt_span_db_per_oct = 48.0;
 /// Threads of the write phase when the renders are kept in memory: writing is bound by the
 /// latency of each file's fsync (atomic output), not by the CPU, so more writes in flight than
 /// cores shorten the wall time (measured: see tools/bench_keymap.cpp).
@@ -70,18 +76,10 @@ struct keymap_options {
     transform_cli transforms;
 };
 
-double peak_abs(const std::vector<float>& x) {
-    float m = 0.0f;
-    for (float v : x) m = std::max(m, std::abs(v));
-    return static_cast<double>(m);
-}
-
 std::string fmt(double v, int precision = 3) {
-    std::ostringstream s;
-    s.setf(std::ios::fixed);
-    s.precision(precision);
-    s << v;
-    return s.str();
+    char buf[64];
+    std::snprintf(buf, sizeof buf, "%.*f", precision, v);
+    return std::fabs(v) < 1e9 ? std::string(buf) : short_num(v);
 }
 
 /// Runs work(i) for i in [0, count) on `threads` threads; the first exception stops the rest and
@@ -113,6 +111,17 @@ void parallel_for(std::size_t count, int threads, Work work) {
     if (error) std::rethrow_exception(error);
 }
 
+/// A write error from the staging folder, told as the destination's: the staging path replaced
+/// by the output folder, and what became of the folder.
+std::string staged_message(std::string what, const std::filesystem::path& stage, const std::filesystem::path& dir) {
+    const std::string from = stage.string();
+    for (std::size_t at = what.find(from); at != std::string::npos; at = what.find(from, at)) {
+        what.replace(at, from.size(), dir.string());
+    }
+    while (!what.empty() && (what.back() == '.' || what.back() == ' ')) what.pop_back();
+    return what + "; nothing of the new set was written (" + dir.string() + " is as it was)";
+}
+
 int run_keymap(keymap_options o) {
     const auto start = std::chrono::steady_clock::now();
     // ---- Options (all checked before anything is read or written).
@@ -130,10 +139,20 @@ int run_keymap(keymap_options o) {
     if (o.every < 1) throw usage_error("--every: must be at least 1");
     if (o.layers < 1 || o.layers > max_keymap_layers) throw usage_error("--layers: must be between 1 and 127");
     if (o.variants < 1 || o.variants > max_keymap_variants) throw usage_error("--variants: must be between 1 and 64");
-    if (!std::isfinite(o.layer_step_db) || o.layer_step_db < 0.0) throw usage_error("--layer-step-db: must be >= 0");
-    if (!std::isfinite(o.layer_brightness_step)) throw usage_error("--layer-tilt-db-oct: must be a finite number");
-    if (!std::isfinite(o.rate_hz) || o.rate_hz < min_render_rate_hz || o.rate_hz > max_render_rate_hz) {
-        throw usage_error("--rate: must be between 8000 and 192000 Hz");
+    const double steps = o.layers - 1;
+    if (!(o.layer_step_db >= 0.0 && o.layer_step_db * steps <= max_layer_span_db)) {
+        throw usage_error("--layer-step-db " + short_num(o.layer_step_db) +
+                          ": must be 0 or more, and the softest layer at most " + short_num(max_layer_span_db) +
+                          " dB below the loudest (--layers " + std::to_string(o.layers) + ")");
+    }
+    if (!(std::fabs(o.layer_brightness_step) * steps <= max_layer_tilt_span_db_per_oct)) {
+        throw usage_error("--layer-tilt-db-oct " + short_num(o.layer_brightness_step) +
+                          ": the softest layer may differ from the loudest by at most " +
+                          short_num(max_layer_tilt_span_db_per_oct) + " dB per octave (--layers " +
+                          std::to_string(o.layers) + ")");
+    }
+    if (!(o.rate_hz >= min_render_rate_hz && o.rate_hz <= max_render_rate_hz) || o.rate_hz != std::round(o.rate_hz)) {
+        throw usage_error("--rate " + short_num(o.rate_hz) + ": must be a whole number of Hz from 8000 to 192000");
     }
     const auto format = parse_sample_format(o.bits);
     if (!format) throw usage_error("--bits: must be 16, 24 or 32f, not '" + o.bits + "'");
@@ -142,10 +161,10 @@ int run_keymap(keymap_options o) {
 
     const std::filesystem::path in{o.input};
     const patch_read_result read = read_patch_file(in);
-    for (const std::string& w : read.warnings) warn(w);
+    warn_all(read.warnings);
     const patch& source = read.value;
-    if (!(source.note.f0_hz > 0.0)) {
-        throw std::runtime_error(o.input + ": keymap needs a pitched patch (note.f0_hz > 0) to move it to each note");
+    if (!(root_hz(source.note) > 0.0)) {
+        throw std::runtime_error(o.input + ": keymap needs a pitched patch (a [note] root, or note.f0_hz > 0) to move it to each note");
     }
     if (o.variants > 1 && !varies(base.variation)) {
         base.variation.detune_cents = rr_default_detune_cents;
@@ -183,16 +202,37 @@ int run_keymap(keymap_options o) {
         check_render_budget(patches.back(), o.rate_hz, 0.0, in);
     }
 
+    // ---- The set is built in a staging folder inside the output folder and moved into place when
+    // complete: a failure or an interrupt leaves the previous set (if any) untouched.
     const std::filesystem::path dir{o.output_dir};
+    const std::filesystem::path sfz_path = dir / (in.stem().string() + ".sfz");
+    const std::vector<std::filesystem::path> inputs{in};
+    std::vector<std::string> names;
+    names.reserve(jobs.size() + 1);
+    for (const keymap_job& j : jobs) names.push_back(j.sample);
+    names.push_back(sfz_path.filename().string());  // moved last
     std::error_code ec;
+    for (const std::string& name : names) {
+        refuse_overwriting_input(dir / name, inputs);
+        if (std::filesystem::is_directory(dir / name, ec)) {
+            throw wane::io_error((dir / name).string() + ": is a folder; the set needs this name for a file");
+        }
+    }
+    const bool dir_existed = std::filesystem::exists(dir, ec);
     std::filesystem::create_directories(dir, ec);
     if (ec || !std::filesystem::is_directory(dir)) {
         throw wane::io_error(o.output_dir + ": cannot create the output folder" + (ec ? ": " + ec.message() : std::string()));
     }
-    const std::filesystem::path sfz_path = dir / (in.stem().string() + ".sfz");
-    const std::vector<std::filesystem::path> inputs{in};
-    refuse_overwriting_input(sfz_path, inputs);
-    for (const keymap_job& j : jobs) refuse_overwriting_input(dir / j.sample, inputs);
+    // A folder this run created is removed again when the run fails.
+    struct remove_new_folder {
+        std::filesystem::path dir;
+        bool armed;
+        ~remove_new_folder() {
+            std::error_code ignored;
+            if (armed) std::filesystem::remove(dir, ignored);  // only when empty
+        }
+    } new_folder{dir, !dir_existed};
+    staging_folder stage(dir);
 
     // ---- Render (peaks), then level and write.
     std::size_t total_frames = 0;
@@ -207,8 +247,12 @@ int run_keymap(keymap_options o) {
         if (keep) kept[i] = std::move(x);
         bar.advance();
     });
-    const auto loudest = static_cast<std::size_t>(std::max_element(peaks.begin(), peaks.end()) - peaks.begin());
+    std::size_t loudest = 0;
+    for (std::size_t i = 1; i < peaks.size(); ++i) {
+        if (!(peaks[i] <= peaks[loudest])) loudest = i;  // NaN counts as loudest
+    }
     const double peak = peaks[loudest];
+    refuse_too_loud(peak, o.input + ": " + jobs[loudest].sample);
     double gain = 1.0;
     if (peak > 1.0) {
         gain = to_amp(level_db{keymap_peak_target_db}).lin / peak;
@@ -224,13 +268,23 @@ int run_keymap(keymap_options o) {
         if (gain != 1.0) {
             for (float& v : x) v *= gain_f;
         }
-        write_audio(dir / jobs[i].sample, x, o.rate_hz, {.format = *format, .root_midi = jobs[i].root_midi});
+        try {
+            write_audio(stage.path() / jobs[i].sample, x, o.rate_hz, {.format = *format, .root_midi = jobs[i].root_midi});
+        } catch (const std::exception& e) {
+            throw wane::io_error(staged_message(e.what(), stage.path(), dir));
+        }
         bar.advance();
     });
     bar.finish();
     std::string title = "wane keymap of " + in.filename().string();
     if (!source.note.name.empty()) title += " (" + source.note.name + ")";
-    write_file_atomic(sfz_path, keymap_sfz(jobs, plan_params, title));
+    try {
+        write_file_atomic(stage.path() / sfz_path.filename(), keymap_sfz(jobs, plan_params, title));
+    } catch (const std::exception& e) {
+        throw wane::io_error(staged_message(e.what(), stage.path(), dir));
+    }
+    stage.move_into_target(names);
+    new_folder.armed = false;
 
     const double elapsed_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     const std::size_t notes = jobs.size() / static_cast<std::size_t>(o.layers * o.variants);
@@ -247,7 +301,7 @@ void add_keymap_command(CLI::App& app, command_registry& reg) {
     auto opts = std::make_shared<keymap_options>();
     CLI::App* sub = app.add_subcommand(
         "keymap", "Render a multisample set (notes x velocity layers x round-robin variants) and its SFZ file");
-    sub->add_option("patch", opts->input, "Patch to render (TOML; must have an f0)")->required();
+    sub->add_option("patch", opts->input, "Patch to render (TOML; must have a root note)")->required();
     sub->add_option("-o,--output", opts->output_dir, "Folder for the WAV files and the SFZ file (created if needed)")
         ->required();
     sub->add_option("--notes", opts->notes, "Key range LOW..HIGH, names or MIDI numbers, e.g. C2..C6")->required();

@@ -1,7 +1,6 @@
 // wane render PATCH -o OUT: audio from a patch (the oscillator bank of src/synthesis/render.hpp).
-// Bad values of --rate and --length-s, and an output that would exceed full scale by more than
-// max_over_full_scale_db, are run-time errors (exit 1, no file written); an unknown --bits or a
-// positive --normalize-db is bad usage (exit 2). Clipping is never silent: a peak over 0 dBFS
+// Out-of-range option values are bad usage (exit 2, naming the option); an output that would
+// exceed full scale by more than max_over_full_scale_db is a run-time error (exit 1, no file). Clipping is never silent: a peak over 0 dBFS
 // fails with advice unless --normalize-db scales the render (and says so).
 #include <cmath>
 #include <cstdio>
@@ -11,6 +10,7 @@
 #include <vector>
 
 #include "cli/common.hpp"
+#include "cli/loudness.hpp"
 #include "cli/transform_options.hpp"
 #include "io/limits.hpp"
 #include "core/patch.hpp"
@@ -26,9 +26,9 @@ namespace wane::cli {
 namespace {
 
 constexpr double default_rate_hz = 48000.0;
-/// A render peaking more than this over full scale is refused even with --normalize-db: no sane
-/// patch is that loud, so something in it (peak_db, gain_db, a rising segment) is wrong.
-constexpr double max_over_full_scale_db = 40.0;
+/// Largest |--gain-db|, |--noise-db| and -(--normalize-db): 120 dB spans a 24-bit file's whole
+/// range and a few bits more (our choice, no source); past it the render is silence or overload.
+constexpr double max_abs_gain_db = 120.0;
 /// Headroom the clipping advice suggests below full scale.
 constexpr double advice_headroom_db = 1.0;
 
@@ -51,8 +51,6 @@ std::string printf_str(const char* fmt, auto... args) {
     return buf;
 }
 
-std::string dbfs_text(double amp) { return printf_str("%+.2f dBFS", to_level(amp_lin{amp}).db); }
-
 const char* format_text(sample_format f) {
     switch (f) {
         case sample_format::pcm16: return "16-bit";
@@ -62,39 +60,35 @@ const char* format_text(sample_format f) {
     return "?";
 }
 
-double peak_of(const std::vector<float>& y) {
-    double peak = 0.0;
-    for (const float v : y) {
-        const double a = std::fabs(static_cast<double>(v));
-        if (!(a <= peak)) peak = a;  // also takes NaN, so a broken render cannot hide
-    }
-    return peak;
-}
-
 int run_render(const render_options& o) {
     // Options first (nothing is read or written before they are all good).
     const std::optional<sample_format> format = parse_sample_format(o.bits);
     if (!format) throw usage_error("--bits " + o.bits + ": must be 16, 24 or 32f");
     if (!(o.rate_hz >= min_render_rate_hz && o.rate_hz <= max_render_rate_hz) ||
         o.rate_hz != std::round(o.rate_hz)) {
-        throw std::runtime_error(printf_str("--rate %g: must be a whole number of Hz from %.0f to %.0f",
-                                            o.rate_hz, min_render_rate_hz, max_render_rate_hz));
+        throw usage_error(printf_str("--rate %.6g: must be a whole number of Hz from %.0f to %.0f",
+                                     o.rate_hz, min_render_rate_hz, max_render_rate_hz));
     }
     if (o.length_s && !(*o.length_s > 0.0 && *o.length_s <= max_length_s)) {
-        throw std::runtime_error(printf_str("--length-s %g: must be more than 0 and at most %.0f s",
-                                            *o.length_s, max_length_s));
+        throw usage_error(printf_str("--length-s %.6g: must be more than 0 and at most %.0f s",
+                                     *o.length_s, max_length_s));
     }
-    if (!std::isfinite(o.gain_db)) throw usage_error("--gain-db: must be a finite number of dB");
-    if (o.normalize_db && !(*o.normalize_db <= 0.0 && std::isfinite(*o.normalize_db))) {
-        throw usage_error(printf_str("--normalize-db %g: must be at most 0 dBFS", *o.normalize_db));
+    if (!(std::fabs(o.gain_db) <= max_abs_gain_db)) {
+        throw usage_error(printf_str("--gain-db %.6g: must be within +-%.0f dB", o.gain_db, max_abs_gain_db));
+    }
+    if (!(std::fabs(o.noise_db) <= max_abs_gain_db)) {
+        throw usage_error(printf_str("--noise-db %.6g: must be within +-%.0f dB", o.noise_db, max_abs_gain_db));
+    }
+    if (o.normalize_db && !(*o.normalize_db <= 0.0 && *o.normalize_db >= -max_abs_gain_db)) {
+        throw usage_error(printf_str("--normalize-db %.6g: must be from -%.0f to 0 dBFS", *o.normalize_db,
+                                     max_abs_gain_db));
     }
     const std::filesystem::path inputs[] = {o.patch_path};
     refuse_overwriting_input(o.out_path, inputs);
 
-    if (!std::isfinite(o.noise_db)) throw usage_error("--noise-db: must be a finite number of dB");
     const transform_params tp = to_params(o.transforms);
     const patch_read_result r = read_patch_file(o.patch_path);
-    for (const std::string& w : r.warnings) warn(w);
+    warn_all(r.warnings);
     const patch p = apply_transforms_checked(r.value, tp, o.rate_hz, o.patch_path.string());
     // The noise bands' seed is the variation seed, so one --seed fixes the whole variant.
     const render_params params{.sample_rate_hz = o.rate_hz, .length_s = o.length_s.value_or(0.0),
@@ -115,15 +109,8 @@ int run_render(const render_options& o) {
     }
 
     std::vector<float> y = render_patch(p, params);
-    const double peak = peak_of(y);
-    const double max_peak = to_amp(level_db{max_over_full_scale_db}).lin;
-    if (!(peak <= max_peak)) {
-        throw std::runtime_error(patch_name + ": the render would peak at " +
-                                 (std::isfinite(peak) ? dbfs_text(peak) : std::string("a non-finite level")) +
-                                 printf_str(", more than %.0f dB over full scale; check the patch's "
-                                            "peak_db, gain_db and rising segments (negative t60_s)",
-                                            max_over_full_scale_db));
-    }
+    const double peak = peak_abs(y);
+    refuse_too_loud(peak, patch_name);
 
     double out_peak = peak;
     if (o.normalize_db) {
@@ -131,10 +118,10 @@ int run_render(const render_options& o) {
         const double target = to_amp(level_db{*o.normalize_db}).lin;
         const double scale = target / peak;
         for (float& v : y) v = static_cast<float>(static_cast<double>(v) * scale);
-        out_peak = peak_of(y);
+        out_peak = peak_abs(y);
         if (out_peak > 1.0) {  // 0 dBFS target, one float rounding over: take it back one step
             for (float& v : y) v = std::nextafter(v, 0.0F);
-            out_peak = peak_of(y);
+            out_peak = peak_abs(y);
         }
         say(printf_str("normalized: peak %s -> %s (gain %+.2f dB)", dbfs_text(peak).c_str(),
                        dbfs_text(out_peak).c_str(), to_level(amp_lin{scale}).db));
@@ -149,8 +136,8 @@ int run_render(const render_options& o) {
     }
 
     audio_write_options wopts{.format = *format};
-    if (p.note.f0_hz > 0.0) {
-        const double midi = std::round(hz_to_midi(p.note.f0_hz));
+    if (const double root = root_hz(p.note); root > 0.0) {
+        const double midi = std::round(hz_to_midi(root));
         if (midi >= 0.0 && midi <= 127.0) wopts.root_midi = static_cast<int>(midi);
     }
     write_audio(o.out_path, y, o.rate_hz, wopts);

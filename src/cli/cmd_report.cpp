@@ -92,7 +92,7 @@ void add_report_command(CLI::App& app, command_registry& reg) {
         const auto t0 = std::chrono::steady_clock::now();
         const mono_audio source = read_audio(opt->source_path);
         const patch_read_result r = read_patch_file(opt->patch_path);
-        for (const std::string& w : r.warnings) warn(w);
+        warn_all(r.warnings);
         const patch& p = r.value;
         // Re-track the source with the settings the patch records, so the overlay shows what the
         // analysis saw.

@@ -45,10 +45,20 @@ global_flags& globals();
 
 /// "wane: warning: <msg>" on stderr (always shown: warnings are never silenced).
 void warn(std::string_view msg);
+/// The warnings of one reading: the first max_warnings_shown with warn(), then one line saying how
+/// many more there were.
+void warn_all(const std::vector<std::string>& warnings);
+inline constexpr std::size_t max_warnings_shown = 10;
+/// Text safe for a terminal: control characters (C0, DEL, and C1 as UTF-8) written as \xNN or
+/// \u00NN, so a patch name cannot move the cursor or change colours.
+std::string printable(std::string_view text);
 /// "wane: error: <msg>" on stderr.
 void print_error(std::string_view msg);
 /// Informational line on stdout unless --quiet.
 void say(std::string_view msg);
+
+/// A number in short form for messages ("1e+308", "0.25", "48000"): at most 6 significant digits.
+std::string short_num(double v);
 
 /// The text `wane info` prints for a patch read from path (also embedded in reports).
 std::string patch_info_text(const patch& p, const std::filesystem::path& path);

@@ -13,10 +13,50 @@ global_flags& globals() {
     return flags;
 }
 
-void warn(std::string_view msg) { std::cerr << "wane: warning: " << msg << '\n'; }
-void print_error(std::string_view msg) { std::cerr << "wane: error: " << msg << '\n'; }
+std::string printable(std::string_view text) {
+    constexpr unsigned char space = 0x20;
+    constexpr unsigned char del = 0x7f;
+    constexpr unsigned char utf8_c1_lead = 0xc2;  // U+0080..U+009F are C2 80..C2 9F in UTF-8
+    constexpr unsigned char c1_first = 0x80;
+    constexpr unsigned char c1_last = 0x9f;
+    std::string out;
+    out.reserve(text.size());
+    char buf[8];
+    for (std::size_t i = 0; i < text.size(); ++i) {
+        const auto c = static_cast<unsigned char>(text[i]);
+        if (c < space || c == del) {
+            std::snprintf(buf, sizeof buf, "\\x%02x", c);
+            out += buf;
+        } else if (c == utf8_c1_lead && i + 1 < text.size() && static_cast<unsigned char>(text[i + 1]) >= c1_first &&
+                   static_cast<unsigned char>(text[i + 1]) <= c1_last) {
+            std::snprintf(buf, sizeof buf, "\\u%04x", static_cast<unsigned char>(text[i + 1]));
+            out += buf;
+            ++i;
+        } else {
+            out += static_cast<char>(c);
+        }
+    }
+    return out;
+}
+
+void warn(std::string_view msg) { std::cerr << "wane: warning: " << printable(msg) << '\n'; }
+void print_error(std::string_view msg) { std::cerr << "wane: error: " << printable(msg) << '\n'; }
+
+void warn_all(const std::vector<std::string>& warnings) {
+    for (std::size_t i = 0; i < warnings.size() && i < max_warnings_shown; ++i) warn(warnings[i]);
+    if (warnings.size() > max_warnings_shown) {
+        warn("... and " + std::to_string(warnings.size() - max_warnings_shown) + " more warnings (" +
+             std::to_string(warnings.size()) + " in all), not shown");
+    }
+}
+std::string short_num(double v) {
+    char buf[32];
+    std::snprintf(buf, sizeof buf, "%.6g", v);
+    return buf;
+}
+
 void say(std::string_view msg) {
-    if (!globals().quiet) std::cout << msg << '\n';
+    if (!globals().quiet) std::cout << printable(msg) << '\n';
 }
 
 }  // namespace wane::cli
@@ -32,6 +72,7 @@ int run_main(int argc, char** argv) {
     app.set_version_flag("--version", std::string("wane ") + WANE_VERSION);
     app.add_flag("-q,--quiet", globals().quiet, "No progress bars or summaries (warnings still shown)");
     app.require_subcommand(1);
+    app.fallthrough();  // global options (-q) also after the subcommand
     app.footer("Examples:\n  wane analyze note.wav -o note.toml\n  wane render note.toml -o copy.wav\n"
                "Run 'wane COMMAND --help' for each command's options.");
 

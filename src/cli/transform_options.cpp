@@ -21,6 +21,13 @@ constexpr double max_decay_scale = 100.0;
 constexpr double max_abs_decay_tilt = 8.0;
 constexpr double max_abs_decay_pitch_exponent = 4.0;
 constexpr double max_abs_brightness_db_per_oct = 48.0;
+/// Upper bounds of the variation and B options (our choice, no source): a detune of a semitone
+/// and a level jitter of 24 dB are far past any round-robin use; B = 1 is the patch format's
+/// own bound (patches/README.md), and --scale-b 1000 takes a guitar's B of about 1e-5 to 1e-2.
+constexpr double max_detune_cents = 100.0;
+constexpr double max_level_jitter_db = 24.0;
+constexpr double max_set_b = 1.0;
+constexpr double max_scale_b = 1000.0;
 /// Tuning references accepted by --a4-hz (a generous band around concert pitch).
 constexpr double min_a4_hz = 300.0;
 constexpr double max_a4_hz = 600.0;
@@ -57,7 +64,7 @@ void add_transform_options(CLI::App* sub, transform_cli& o) {
         ->group(group_name);
     sub->add_option("--to-note", o.to_note, "Transpose so f0 lands on this note (C4, F#3, Bb2 or a MIDI number)")
         ->group(group_name);
-    sub->add_option("--a4-hz", o.a4_hz, "Tuning of A4 for --to-note, Hz")
+    sub->add_option("--a4-hz", o.a4_hz, "Tuning of A4 for --to-note (and edit --root), Hz")
         ->capture_default_str()->group(group_name);
     sub->add_flag("--decay-follows-pitch", o.decay_follows_pitch,
                   "When transposing by a ratio r, scale every T60 by r^(-p) (rule of thumb: higher notes "
@@ -153,20 +160,24 @@ transform_params to_params(const transform_cli& o) {
     if (o.set_b && o.scale_b) throw usage_error("--set-b and --scale-b exclude each other");
     if (o.set_b) {
         require_finite(*o.set_b, "--set-b");
-        if (*o.set_b < 0.0) throw usage_error("--set-b: B must not be negative");
+        if (*o.set_b < 0.0 || *o.set_b > max_set_b) throw usage_error("--set-b: B must be from 0 to 1");
         t.set_b = *o.set_b;
     }
     if (o.scale_b) {
         require_finite(*o.scale_b, "--scale-b");
-        if (*o.scale_b < 0.0) throw usage_error("--scale-b: must not be negative");
+        if (*o.scale_b < 0.0 || *o.scale_b > max_scale_b) throw usage_error("--scale-b: must be from 0 to 1000");
         t.scale_b = *o.scale_b;
     }
     t.variation.seed = o.seed;
     require_finite(o.detune_cents, "--detune-cents");
-    if (o.detune_cents < 0.0) throw usage_error("--detune-cents: must not be negative");
+    if (o.detune_cents < 0.0 || o.detune_cents > max_detune_cents) {
+        throw usage_error("--detune-cents: must be from 0 to 100 cents");
+    }
     t.variation.detune_cents = o.detune_cents;
     require_finite(o.level_jitter_db, "--level-jitter-db");
-    if (o.level_jitter_db < 0.0) throw usage_error("--level-jitter-db: must not be negative");
+    if (o.level_jitter_db < 0.0 || o.level_jitter_db > max_level_jitter_db) {
+        throw usage_error("--level-jitter-db: must be from 0 to 24 dB");
+    }
     t.variation.level_jitter_db = o.level_jitter_db;
     require_finite(o.decay_jitter, "--decay-jitter");
     if (o.decay_jitter < 0.0 || o.decay_jitter >= 1.0) throw usage_error("--decay-jitter: must be in [0, 1)");

@@ -1,4 +1,4 @@
-// The patch model (format "wane-patch", version 1) as plain data. The TOML mapping lives in
+// The patch model (format "wane-patch", version 2; version 1 is read too) as plain data. The TOML mapping lives in
 // src/io/patch_toml.*; the core only sees these structs. Times are seconds from the note's onset,
 // levels dBFS, frequencies Hz.
 #pragma once
@@ -8,11 +8,38 @@
 #include <vector>
 
 #include "core/envelope.hpp"
+#include "core/pitch_names.hpp"
 
 namespace wane {
 
-inline constexpr int patch_format_version = 1;
+inline constexpr int patch_format_version = 2;
+/// Oldest version the reader accepts (version 1 has no root keys; its root is f0_hz).
+inline constexpr int oldest_patch_format_version = 1;
 inline constexpr const char* patch_format_name = "wane-patch";
+
+/// How a note's root was found (pitch/root.hpp); written as the [note] key root_found_by.
+enum class root_method {
+    unstated,         ///< no root keys (version 1 or hand-made): the root is f0_hz
+    harmonic_series,  ///< fundamental of the fitted stiff-string series
+    lowest_mode,      ///< lowest strong mode (tuned bars, timpani, tines)
+    strike_note,      ///< strike note of a bell (virtual pitch of nominal, twelfth, upper octave)
+    f0_hint,          ///< the series started from the user's --f0
+    by_hand,          ///< set by `wane edit --root` or written by hand
+    unpitched,        ///< no pitch centre
+};
+std::string_view root_method_name(root_method m);
+std::optional<root_method> parse_root_method(std::string_view name);
+
+/// The root note: the MIDI note a sampler maps the sound to and its tuning in cents from that
+/// note's equal-tempered frequency with the given A4. Meaningful unless method is unstated or
+/// unpitched.
+struct note_root {
+    int midi = a4_midi;
+    double tuning_cents = 0.0;
+    double a4_hz = default_a4_hz;
+    root_method method = root_method::unstated;
+    friend bool operator==(const note_root&, const note_root&) = default;
+};
 
 struct note_info {
     std::string name;
@@ -20,6 +47,7 @@ struct note_info {
     double length_s = 4.0;         ///< how long a render lasts
     double inharmonicity_b = 0.0;  ///< B in f_n = n f0 sqrt(1 + B n^2); 0 if not fitted
     double gain_db = 0.0;
+    note_root root{};
     friend bool operator==(const note_info&, const note_info&) = default;
 };
 
@@ -64,6 +92,13 @@ struct patch {
     std::vector<noise_band> noise;  ///< canonical order: ascending low_hz
     friend bool operator==(const patch&, const patch&) = default;
 };
+
+/// The root's frequency: midi_to_hz(midi + cents / 100, a4_hz); note.f0_hz when the root is
+/// unstated; 0 when unpitched.
+double root_hz(const note_info& n);
+/// Moves a stated, pitched root to freq_hz (> 0): the nearest MIDI note under the root's A4 and
+/// the rest in cents; keeps the method and A4. Does nothing to an unstated or unpitched root.
+void set_root_hz(note_info& n, double freq_hz);
 
 /// Sorts partials by frequency and noise bands by low edge (the canonical order).
 void canonicalize(patch& p);

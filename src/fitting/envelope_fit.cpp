@@ -1,4 +1,5 @@
 #include "fitting/envelope_fit.hpp"
+#include "fitting/partial_freq.hpp"
 
 #include <algorithm>
 #include <array>
@@ -403,6 +404,7 @@ double decay_level_db(std::span<const envelope_piece> pieces, double t) {
 
 double wrap_phase(double phase_rad) { return std::remainder(phase_rad, two_pi); }
 
+
 }  // namespace
 
 namespace {
@@ -721,14 +723,7 @@ std::optional<partial_fit> fit_partial(const partial_track& track, const envelop
         out = fit_region(pts, expected, rough, peak, peak, end, params);
     }
 
-    // Frequency: amplitude-weighted mean over the fitted frames.
-    double fa = 0.0, fw = 0.0;
-    for (std::size_t i = peak; i < end; ++i) {
-        const double a = std::pow(10.0, pts[i].level_db / 20.0);
-        fa += a * pts[i].freq_hz;
-        fw += a;
-    }
-    out.freq_hz = fa / fw;
+    out.freq_hz = heard_freq_hz(pts, peak, end);
 
     // Phase at t = 0: phi0 = phase - 2 pi f t_c from the first reliable frames after the peak,
     // averaged on the circle with amplitude weights.

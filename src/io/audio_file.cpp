@@ -525,7 +525,8 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
     }
 
     atomic_output out(path);  // declared before the handle: the handle closes before the temp is removed
-    sndfile_handle file(sf_open(out.temp_path().c_str(), SFM_WRITE, &info));
+    // Through the temporary's descriptor: the path is never created again (see atomic_output).
+    sndfile_handle file(sf_open_fd(out.fd(), SFM_WRITE, &info, SF_FALSE));
     if (file.get() == nullptr) {
         throw io_error(path_text(path) + ": cannot write: " + sf_strerror(nullptr));
     }

@@ -1,4 +1,4 @@
-// The patch format's TOML mapping (format "wane-patch", version 1).
+// The patch format's TOML mapping (format "wane-patch", version 2; version 1 is read too).
 //
 // Reading: toml++ parses the text; every key is then read with its type checked, its source position
 // recorded under a path like "partial[3].decay[2].t60_s" (1-based, as `wane info` numbers them),
@@ -63,6 +63,9 @@ constexpr std::size_t max_string_bytes = 4096;
 /// a patch nests at most 4 levels (root > partial array > partial > decay array > segment); deeper
 /// structures are refused before they are walked.
 constexpr int max_nesting_depth = 4;
+/// Longest line: a [[partial]] with 64 decay segments takes about 3 KB, a 4096-byte string
+/// written with \uXXXX escapes 25 KB; 64 KiB bounds the parser's work on one line (our choice).
+constexpr std::size_t max_line_bytes = std::size_t{64} << 10;
 
 // ---------------------------------------------------------------------------------------------
 // Number formatting (locale independent: std::to_chars).
@@ -111,6 +114,15 @@ constexpr int level_decimals = 2;
 constexpr int t60_decimals = 4;
 /// Inharmonicity B: 5 significant digits in scientific notation (B spans 1e-6..1e-2).
 constexpr int b_digits = 4;
+/// Root tuning: 0.001 cent, so placing the root on a note leaves at most 0.0005 cent of rounding.
+constexpr int cents_decimals = 3;
+/// A4 of the root's equal temperament: 0.001 Hz (0.004 cent at 440 Hz).
+constexpr int a4_decimals = 3;
+/// Range of the root's tuning and of A4 (a root is the nearest note, so |cents| <= 50 when wane
+/// writes it; by hand up to a semitone either way).
+constexpr double max_tuning_cents = 100.0;
+constexpr double min_a4_hz = 100.0;
+constexpr double max_a4_hz = 1000.0;
 
 // One formatter per quantity; the writer prints with them and the reader rounds with them.
 std::string fmt_freq(double v) { return fmt_fixed(v, freq_decimals); }
@@ -121,6 +133,8 @@ std::string fmt_align(double v) { return fmt_fixed(v, align_decimals); }
 std::string fmt_level(double v) { return fmt_fixed(v, level_decimals); }
 std::string fmt_t60(double v) { return fmt_fixed(v, t60_decimals); }
 std::string fmt_b(double v) { return fmt_sci(v, b_digits); }
+std::string fmt_cents(double v) { return fmt_fixed(v, cents_decimals); }
+std::string fmt_a4(double v) { return fmt_fixed(v, a4_decimals); }
 
 /// A sample rate: an integer when it is one (at 1e-6 Hz resolution), e.g. "48000".
 std::string fmt_rate(double v) {
@@ -161,6 +175,8 @@ void round_to_file_precision(patch& p) {
     p.note.length_s = rounded(p.note.length_s, fmt_time);
     p.note.inharmonicity_b = rounded(p.note.inharmonicity_b, fmt_b);
     p.note.gain_db = rounded(p.note.gain_db, fmt_level);
+    p.note.root.tuning_cents = rounded(p.note.root.tuning_cents, fmt_cents);
+    p.note.root.a4_hz = rounded(p.note.root.a4_hz, fmt_a4);
     p.source.sample_rate_hz = rounded(p.source.sample_rate_hz, fmt_rate);
     p.source.onset_s = rounded(p.source.onset_s, fmt_align);
     if (p.source.analysis) {
@@ -383,6 +399,10 @@ struct validator {
         within("note.length_s", n.length_s, 0.0, max_length_s, " s", true);
         within("note.inharmonicity_b", n.inharmonicity_b, 0.0, max_inharmonicity_b, "");
         within("note.gain_db", n.gain_db, min_level_db, max_peak_db, " dB");
+        if (n.root.method != root_method::unstated && n.root.method != root_method::unpitched) {
+            within("note.tuning_cents", n.root.tuning_cents, -max_tuning_cents, max_tuning_cents, " cents");
+            within("note.a4_hz", n.root.a4_hz, min_a4_hz, max_a4_hz, " Hz");
+        }
 
         text("source.file", p.source.file);
         within("source.sample_rate_hz", p.source.sample_rate_hz, 0.0, max_sample_rate_hz, " Hz");
@@ -491,7 +511,8 @@ std::string unknown_key_text(std::string_view key, std::span<const std::string_v
 }
 
 constexpr std::string_view top_keys[] = {"format", "version", "note", "source", "partial", "noise"};
-constexpr std::string_view note_keys[] = {"name", "f0_hz", "length_s", "inharmonicity_b", "gain_db"};
+constexpr std::string_view note_keys[] = {"name", "f0_hz", "length_s", "inharmonicity_b", "gain_db",
+                                          "root", "tuning_cents", "a4_hz", "root_found_by"};
 constexpr std::string_view source_keys[] = {"file", "sample_rate_hz", "onset_s", "analysis"};
 constexpr std::string_view analysis_keys[] = {"window", "fft_size", "window_s", "hop_s"};
 constexpr std::string_view partial_keys[] = {"freq_hz", "harmonic", "phase_rad", "attack_s", "peak_db", "decay"};
@@ -554,6 +575,7 @@ public:
         p.note.length_s = required_number(note, "length_s", "note.length_s");
         p.note.inharmonicity_b = get_number(note, "inharmonicity_b", "note.inharmonicity_b").value_or(0.0);
         p.note.gain_db = get_number(note, "gain_db", "note.gain_db").value_or(0.0);
+        read_root(note, p.note);
         warn_unknown(note, "note", note_keys);
 
         if (const toml::table* src = optional_table(root, "source", "source")) {
@@ -659,13 +681,46 @@ private:
         if (!iv) fail("version", std::string("must be an integer, not ") + type_name(v->type()));
         const std::int64_t version = iv->get();
         if (version > patch_format_version) {
-            fail("version", "is " + std::to_string(version) + ": this patch was made by a newer wane; this one reads version " +
-                                std::to_string(patch_format_version));
+            fail("version", "is " + std::to_string(version) + ": this patch was made by a newer wane; this one reads versions " +
+                                std::to_string(oldest_patch_format_version) + " to " + std::to_string(patch_format_version));
         }
-        if (version < patch_format_version) {
-            fail("version", "is " + std::to_string(version) + "; the only version is " +
-                                std::to_string(patch_format_version));
+        if (version < oldest_patch_format_version) {
+            fail("version", "is " + std::to_string(version) + "; the versions are " +
+                                std::to_string(oldest_patch_format_version) + " to " + std::to_string(patch_format_version));
         }
+    }
+
+    /// The root keys of [note] (version 2): root (a note name), tuning_cents, a4_hz, root_found_by.
+    /// A root without root_found_by was set by hand; "unpitched" takes no root; the other methods
+    /// need one. Without any of them the root is unstated (version 1): f0_hz serves.
+    void read_root(const toml::table& note, note_info& n) {
+        const auto name = get_string(note, "root", "note.root");
+        const auto found_by = get_string(note, "root_found_by", "note.root_found_by");
+        const auto cents = get_number(note, "tuning_cents", "note.tuning_cents");
+        const auto a4 = get_number(note, "a4_hz", "note.a4_hz");
+        if (found_by) {
+            const auto m = parse_root_method(*found_by);
+            if (!m || *m == root_method::unstated)
+                fail("note.root_found_by", "is '" + *found_by + "'; one of harmonic-series, lowest-mode, strike-note, "
+                                           "f0-hint, by-hand, unpitched");
+            n.root.method = *m;
+        }
+        if (n.root.method == root_method::unpitched) {
+            if (name) fail("note.root", "is given, but root_found_by = \"unpitched\" says the note has no root");
+            if (cents || a4) fail(cents ? "note.tuning_cents" : "note.a4_hz", "needs a root; root_found_by = \"unpitched\"");
+            return;
+        }
+        if (!name) {
+            if (found_by) fail_in("note", "root_found_by = \"" + *found_by + "\" needs the key root (a note name such as C4)");
+            if (cents || a4) fail(cents ? "note.tuning_cents" : "note.a4_hz", "needs the key root (a note name such as C4)");
+            return;
+        }
+        const auto midi = parse_note_name(*name);
+        if (!midi) fail("note.root", "is '" + *name + "'; a root is a note name such as C4, F#3 or Bb2 (C-1 to G9)");
+        if (!found_by) n.root.method = root_method::by_hand;
+        n.root.midi = *midi;
+        n.root.tuning_cents = cents.value_or(0.0);
+        n.root.a4_hz = a4.value_or(default_a4_hz);
     }
 
     void warn_unknown(const toml::table& t, const std::string& table_path, std::span<const std::string_view> known) {
@@ -863,6 +918,14 @@ std::string format_text(const patch& p) {
     out << "length_s = " << fmt_time(p.note.length_s) << '\n';
     out << "inharmonicity_b = " << fmt_b(p.note.inharmonicity_b) << '\n';
     out << "gain_db = " << fmt_level(p.note.gain_db) << '\n';
+    if (p.note.root.method == root_method::unpitched) {
+        out << "root_found_by = " << toml_string(root_method_name(p.note.root.method)) << '\n';
+    } else if (p.note.root.method != root_method::unstated) {
+        out << "root = " << toml_string(note_name(p.note.root.midi)) << '\n';
+        out << "tuning_cents = " << fmt_cents(p.note.root.tuning_cents) << '\n';
+        out << "a4_hz = " << fmt_a4(p.note.root.a4_hz) << '\n';
+        out << "root_found_by = " << toml_string(root_method_name(p.note.root.method)) << '\n';
+    }
     out << "\n[source]\n";
     out << "file = " << toml_string(p.source.file) << '\n';
     out << "sample_rate_hz = " << fmt_rate(p.source.sample_rate_hz) << '\n';
@@ -952,7 +1015,7 @@ patch_read_result parse_patch(std::string_view text, std::string_view source_nam
         throw patch_error(name + ": " + std::to_string(text.size()) + " bytes is larger than the " +
                           max_patch_file_text + " a patch may have");
     }
-    refuse_non_ascii_outside_strings(text, name);
+    guard_toml_text(text, name, {.max_nesting_depth = max_nesting_depth, .max_line_bytes = max_line_bytes});
     prescan_counts(text, name);
     toml::table root;
     try {

@@ -1,10 +1,22 @@
 #include "io/toml_guard.hpp"
 
+#include <algorithm>
+
 #include "io/errors.hpp"
 
 namespace wane {
 
-void refuse_non_ascii_outside_strings(std::string_view text, const std::string& source_name) {
+namespace {
+
+[[noreturn]] void too_deep(const std::string& source_name, std::size_t line, std::size_t column, int max_depth) {
+    throw patch_error(source_name + ":" + std::to_string(line) + ":" + std::to_string(column) +
+                      ": tables and arrays nest more than " + std::to_string(max_depth) +
+                      " levels deep here, deeper than any patch");
+}
+
+}  // namespace
+
+void guard_toml_text(std::string_view text, const std::string& source_name, const toml_text_limits& limits) {
     enum class state { code, comment, basic, literal, multi_basic, multi_literal };
     constexpr unsigned char first_non_ascii = 0x80;
     // A multi-line string may end with up to two quotes of content before its closing three.
@@ -12,12 +24,33 @@ void refuse_non_ascii_outside_strings(std::string_view text, const std::string& 
     state s = state::code;
     std::size_t line = 1;
     std::size_t line_start = 0;
+    // Dots since the last character that ends a key or a value ('=', ',', a bracket, a brace, a
+    // newline): a dotted key or header has one per level; a value has at most one (1.5, 00.999).
+    int dots = 0;
+    int brackets = 0;  // [ and { open in code, minus ] and }
     const auto starts = [&](std::size_t i, std::string_view what) { return text.substr(i, what.size()) == what; };
+    const auto check_line_length = [&](std::size_t end) {
+        if (limits.max_line_bytes > 0 && end - line_start > limits.max_line_bytes) {
+            // Name the key the line starts with, when it has a short one.
+            constexpr std::size_t max_key_shown = 64;
+            const std::string_view head = text.substr(line_start, std::min(end - line_start, max_key_shown + 1));
+            const std::size_t eq = head.find('=');
+            std::string key(head.substr(0, eq == std::string_view::npos ? 0 : eq));
+            while (!key.empty() && (key.back() == ' ' || key.back() == '\t')) key.pop_back();
+            const bool plain = !key.empty() && key.find_first_of("\"'\t") == std::string::npos;
+            throw patch_error(source_name + ":" + std::to_string(line) + ": line of " +
+                              std::to_string(end - line_start) + " bytes" + (plain ? " (key '" + key + "')" : "") +
+                              ", longer than the " +
+                              std::to_string(limits.max_line_bytes) + " a patch may have");
+        }
+    };
     for (std::size_t i = 0; i < text.size(); ++i) {
         const char c = text[i];
         if (c == '\n') {
+            check_line_length(i);
             ++line;
             line_start = i + 1;
+            dots = 0;
             if (s == state::comment || s == state::basic || s == state::literal) s = state::code;
             continue;
         }
@@ -26,6 +59,21 @@ void refuse_non_ascii_outside_strings(std::string_view text, const std::string& 
                 if (static_cast<unsigned char>(c) >= first_non_ascii) {
                     throw patch_error(source_name + ":" + std::to_string(line) + ":" + std::to_string(i - line_start + 1) +
                                       ": not valid TOML: a non-ASCII character outside a string or a comment");
+                }
+                if (limits.max_nesting_depth > 0) {
+                    if (c == '.') {
+                        if (++dots > limits.max_nesting_depth) too_deep(source_name, line, i - line_start + 1, limits.max_nesting_depth);
+                    } else if (c == '[' || c == '{') {
+                        dots = 0;
+                        if (++brackets > 2 * limits.max_nesting_depth) {
+                            too_deep(source_name, line, i - line_start + 1, limits.max_nesting_depth);
+                        }
+                    } else if (c == ']' || c == '}') {
+                        dots = 0;
+                        brackets = brackets > 0 ? brackets - 1 : 0;
+                    } else if (c == '=' || c == ',') {
+                        dots = 0;
+                    }
                 }
                 if (c == '#') {
                     s = state::comment;
@@ -63,6 +111,7 @@ void refuse_non_ascii_outside_strings(std::string_view text, const std::string& 
             }
         }
     }
+    check_line_length(text.size());
 }
 
 }  // namespace wane

@@ -1,4 +1,5 @@
 #include "measure/compare.hpp"
+#include "measure/tuning.hpp"
 
 #include <algorithm>
 #include <cmath>
@@ -71,6 +72,10 @@ compare_result compare_signals(std::span<const float> a, std::span<const float> 
         const tracking_result ta = track_note(a, sample_rate_hz, {});
         const tracking_result tb = track_note(b, sample_rate_hz, {});
         if (ta.f0_hz > 0.0 && tb.f0_hz > 0.0) r.f0_difference_cents = cents_between(tb.f0_hz, ta.f0_hz);
+        if (const auto t = tuning_between(ta.tracks, tb.tracks)) {
+            r.tuning_difference_cents = t->cents;
+            r.tuning_pairs = t->pairs;
+        }
     } catch (const std::invalid_argument&) {
     }
     return r;

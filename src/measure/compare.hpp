@@ -48,6 +48,10 @@ struct compare_result {
     /// f0 of b against f0 of a in cents (cents_between(f0_b, f0_a)). compare_signals leaves it
     /// empty: the caller that has an f0 estimator fills it.
     std::optional<double> f0_difference_cents;
+    /// Tuning of b against a in cents from the strongest partials (measure/tuning.hpp); empty
+    /// when either cannot be tracked or no partial pairs.
+    std::optional<double> tuning_difference_cents;
+    std::size_t tuning_pairs = 0;  ///< strongest partials of a that paired with one of b
 };
 
 /// a is the reference; b is aligned to it first. Same sample rate (resample at the edge).

@@ -24,11 +24,11 @@ struct partial_track {
 struct tracking_result {
     std::vector<partial_track> tracks;
     double onset_s = 0.0;      ///< note onset in the source, seconds from the file start
-    /// The pitch: partial 1's frequency / sqrt(1 + B) when partial 1 is clearly tracked, else
-    /// series_f0_hz; the --f0 override when given. 0 when the sound has no pitch centre.
+    /// The fundamental of the fitted series (= series_f0_hz); 0 when the sound has no harmonic
+    /// series. With an f0 hint the series is started from the hint.
     double f0_hz = 0.0;
-    /// f0 of the stiff-string series n f0 sqrt(1 + B n^2) fitted to the labelled tracks (B from
-    /// all of them, f0 from harmonics 1..8); the harmonic numbers follow this series.
+    /// f0 of the stiff-string series n f0 sqrt(1 + B n^2) fitted to the labelled tracks (robust
+    /// weighted fit, pitch/series_fit.hpp); the harmonic numbers follow this series.
     double series_f0_hz = 0.0;
     double inharmonicity_b = 0.0;  ///< Fletcher's B of that series (0 when not harmonic)
     double hop_s = 0.0;

@@ -13,6 +13,7 @@
 
 #include "core/harmonics.hpp"
 #include "core/units.hpp"
+#include "pitch/series_fit.hpp"
 #include "spectrum/peaks.hpp"
 #include "spectrum/stft.hpp"
 #include "tracking/onset.hpp"
@@ -52,11 +53,6 @@ constexpr double harmonic_tolerance_rel = 0.02;  ///< labelling tracks with harm
 constexpr double guide_tolerance_rel = 0.04;     ///< harmonic tracks stay this close to n f0 s_n
 constexpr int b_fit_rounds = 3;
 constexpr double first_label_harmonics = 10.0;   ///< the series is first fitted up to 10 f0
-/// f0 is fitted on harmonics 1..this (given B from all): real strings stray from the ideal law
-/// more at high n (bridge coupling, tension modulation), and the low partials carry the pitch.
-constexpr int pitch_harmonics = 8;
-constexpr double fundamental_snr_db = 20.0;      ///< partial 1 sets the pitch when this far up
-constexpr double fundamental_below_max_db = 40.0; ///< ... and within this of the strongest track
 constexpr double max_snr_weight_db = 40.0;       ///< B fit: weight by SNR, capped here
 constexpr double attack_skip_s = 0.1;             ///< a track's frequency: median after this,
 constexpr double attack_skip_windows = 2.0;       ///< ... and after this many windows,
@@ -233,6 +229,21 @@ void label_harmonics(const std::vector<double>& freqs, double f0_hz, double b, d
     }
 }
 
+/// The robust series fit (pitch/series_fit.hpp) over labelled partials; where several partials
+/// carry one number only the one of largest weight counts (the others are a fragment or a
+/// neighbour of it).
+series_fit fit_labelled_series(const std::vector<int>& harmonic, const std::vector<double>& freq_hz,
+                               const std::vector<double>& weight) {
+    std::vector<series_point> pts;
+    for (std::size_t i = 0; i < harmonic.size(); ++i) {
+        if (harmonic[i] < 1 || weight[i] <= 0.0) continue;
+        auto it = std::find_if(pts.begin(), pts.end(), [&](const series_point& p) { return p.harmonic == harmonic[i]; });
+        if (it == pts.end()) pts.push_back({harmonic[i], freq_hz[i], weight[i]});
+        else if (weight[i] > it->weight) *it = {harmonic[i], freq_hz[i], weight[i]};
+    }
+    return fit_series(pts);
+}
+
 struct live_track {
     partial_track track;
     int harmonic = 0;
@@ -286,16 +297,12 @@ tracking_result track_note(std::span<const float> samples, double sample_rate_hz
     // ---- f0 and the window ----
     const survey_result sv = survey(x, fs, onset, dc);
     if (sv.peaks.empty()) refuse("no partials above the noise floor");
-    double f0_hz = 0.0;
-    double b = 0.0;
-    if (params.f0_hz) {
-        if (!(*params.f0_hz > 0.0)) refuse("f0 must be positive");
-        f0_hz = *params.f0_hz;
-    } else {
-        const pitch_estimate pe = estimate_pitch(sv.peaks);
-        f0_hz = pe.f0_hz;
-        b = pe.inharmonicity_b;
-    }
+    // The f0 hint (--f0) does not steer the tracking (window, guidance): the same tracks come out
+    // with or without it; it only numbers them and starts the series fit below.
+    if (params.f0_hz && !(*params.f0_hz > 0.0)) refuse("f0 must be positive");
+    const pitch_estimate pe = estimate_pitch(sv.peaks);
+    double f0_hz = pe.f0_hz;
+    double b = pe.inharmonicity_b;
     if (f0_hz > 0.0) {
         // Refine f0 and B on the survey peaks (Fletcher fit), for the harmonic guidance.
         std::vector<int> hn(sv.peaks.size());
@@ -306,10 +313,9 @@ tracking_result track_note(std::span<const float> samples, double sample_rate_hz
                 freqs[i] = sv.peaks[i].freq_hz;
                 weights[i] = std::pow(10.0, sv.peaks[i].level_db / 10.0);
             }
-            const inharmonicity_fit fit = fit_harmonic_series(hn, freqs, weights, pitch_harmonics);
+            const series_fit fit = fit_labelled_series(hn, freqs, weights);
             if (fit.used < 2) break;
-            // An override keeps its f0 (the user's octave); only B is taken from the fit then.
-            if (!params.f0_hz) f0_hz = fit.f0_hz;
+            f0_hz = fit.f0_hz;
             b = fit.inharmonicity_b;
         }
     }
@@ -476,8 +482,7 @@ tracking_result track_note(std::span<const float> samples, double sample_rate_hz
     join_fragments(done, done_peak_db, result.hop_s, max_join_gap_s, join_rel_tol);
 
     // ---- keep the strongest, label harmonics, fit B ----
-    std::vector<double> strength(done.size()), rep_freq(done.size()), weight(done.size()),
-        peak_snr_db(done.size());
+    std::vector<double> strength(done.size()), rep_freq(done.size()), weight(done.size());
     for (std::size_t i = 0; i < done.size(); ++i) {
         std::vector<double> f;
         double best = -infinity, best_snr = -infinity;
@@ -499,7 +504,6 @@ tracking_result track_note(std::span<const float> samples, double sample_rate_hz
             for (const auto& pt : done[i].points) f.push_back(pt.freq_hz), w.push_back(1.0);
         rep_freq[i] = weighted_median(std::move(f), std::move(w));
         strength[i] = best;
-        peak_snr_db[i] = best_snr;
         weight[i] = std::pow(10.0, std::min(best_snr, max_snr_weight_db) / 10.0) * double(done[i].points.size());
     }
     std::vector<std::size_t> order(done.size());
@@ -511,6 +515,12 @@ tracking_result track_note(std::span<const float> samples, double sample_rate_hz
     std::vector<int> harmonic(order.size(), 0);
     std::vector<double> freqs(order.size()), weights(order.size());
     for (std::size_t i = 0; i < order.size(); ++i) freqs[i] = rep_freq[order[i]];
+    if (params.f0_hz) {
+        // The hint numbers the partials: B of the survey only when the hint agrees with its f0.
+        constexpr double same_f0_rel = 0.03;
+        if (!(f0_hz > 0.0 && std::abs(*params.f0_hz / f0_hz - 1.0) < same_f0_rel)) b = 0.0;
+        f0_hz = *params.f0_hz;
+    }
     if (f0_hz > 0.0) {
         for (std::size_t i = 0; i < order.size(); ++i) weights[i] = weight[order[i]];
         // Grow the numbered range: fit the series on the partials up to a limit, then double it.
@@ -520,7 +530,7 @@ tracking_result track_note(std::span<const float> samples, double sample_rate_hz
         double limit_hz = first_label_harmonics * f0_hz;
         for (int round = 0;; ++round) {
             label_harmonics(freqs, f0_hz, b, limit_hz, harmonic);
-            const inharmonicity_fit fit = fit_harmonic_series(harmonic, freqs, weights, pitch_harmonics);
+            const series_fit fit = fit_labelled_series(harmonic, freqs, weights);
             if (fit.used > 0) {
                 f0_hz = fit.f0_hz;
                 b = fit.inharmonicity_b;
@@ -532,21 +542,7 @@ tracking_result track_note(std::span<const float> samples, double sample_rate_hz
     }
     result.series_f0_hz = f0_hz;
     result.inharmonicity_b = f0_hz > 0.0 ? b : 0.0;
-    result.f0_hz = params.f0_hz.value_or(f0_hz);
-    if (f0_hz > 0.0 && !params.f0_hz) {
-        // The pitch is the fundamental's: partial 1's frequency / sqrt(1 + B) when it is tracked
-        // clearly (real strings can put partial 1 off the series of the upper partials).
-        double strongest_db = -infinity;
-        for (const std::size_t k : order) strongest_db = std::max(strongest_db, strength[k]);
-        double best_db = -infinity;
-        for (std::size_t i = 0; i < order.size(); ++i) {
-            const std::size_t k = order[i];
-            if (harmonic[i] != 1 || strength[k] <= best_db) continue;
-            if (strength[k] < strongest_db - fundamental_below_max_db || peak_snr_db[k] < fundamental_snr_db) continue;
-            best_db = strength[k];
-            result.f0_hz = freqs[i] / std::sqrt(1.0 + b);
-        }
-    }
+    result.f0_hz = f0_hz;  // the fundamental of the fitted series (pitch/series_fit.hpp)
     for (std::size_t i = 0; i < order.size(); ++i) {
         partial_track t = std::move(done[order[i]]);
         t.harmonic = harmonic[i];

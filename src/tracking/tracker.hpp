@@ -10,7 +10,9 @@
 namespace wane {
 
 struct tracking_params {
-    std::optional<double> f0_hz;        ///< override the pitch estimate (--f0)
+    /// Hint of the fundamental (--f0): numbers the harmonics and starts the series fit; the
+    /// window, the tracking and so the partials found are the same with or without it.
+    std::optional<double> f0_hz;
     std::optional<double> window_s;     ///< override the automatic window length (--window-s)
     std::optional<int> fft_size;        ///< override the FFT size (--fft-size)
     std::optional<double> hop_s;        ///< override the hop (--hop-s)
@@ -22,7 +24,7 @@ struct tracking_params {
 ///
 /// Steps (tracking/tracker.cpp): the DC offset (file mean) is removed; the onset is the first
 /// rise of the 2 ms block energy (tracking/onset.hpp); a 0.2 s Blackman-Harris survey after the
-/// onset gives peaks for the pitch sieve (tracking/pitch.hpp) unless f0_hz is given; the window is
+/// onset gives peaks for the pitch sieve (tracking/pitch.hpp); the window is
 /// 8 periods of f0 (or of the closest strong pair / lowest strong partial when not harmonic),
 /// 8 ms..0.25 s, the FFT the next 2/3/5-smooth size >= 2 windows, the hop window/4 in 4..12.5 ms;
 /// frames centred at onset + k hop while the window fits in the file. Peaks (spectrum/peaks.hpp)
@@ -31,8 +33,8 @@ struct tracking_params {
 /// their number on n f0 sqrt(1 + B n^2); gaps up to 3 frames are bridged; tracks shorter than
 /// max(5 frames, 1.5 windows) are dropped; fragments of one partial up to 0.3 s apart are joined
 /// (gap interpolated); frames stop 0.5 s after the last track ended. Harmonic numbers and B are
-/// refitted on the tracks (range grown from 10 f0, numbers chained upward), f0_hz taken from
-/// partial 1 when it is clearly tracked (see tracking_result). Refuses (std::invalid_argument):
+/// refitted on the tracks (range grown from 10 f0, numbers chained upward; started from the hint
+/// when given) by the robust series fit of pitch/series_fit.hpp. Refuses (std::invalid_argument):
 /// too short, NaN/Inf, constant (silence/DC), clipped, nothing above the noise floor.
 /// Tracks come out sorted by frequency; time_s of their points counts from onset_s.
 tracking_result track_note(std::span<const float> samples, double sample_rate_hz,

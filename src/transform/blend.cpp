@@ -128,6 +128,10 @@ patch blend(const patch& a, const patch& b, const blend_params& params) {
     out.note.f0_hz = both_pitched ? geometric_lerp(a.note.f0_hz, b.note.f0_hz, mix) : dominant.note.f0_hz;
     out.note.inharmonicity_b =
         both_pitched ? lerp(a.note.inharmonicity_b, b.note.inharmonicity_b, mix) : dominant.note.inharmonicity_b;
+    // The root: the dominant patch's, moved to the geometric mean of both roots when both have one.
+    out.note.root = dominant.note.root;
+    if (const double ra = root_hz(a.note), rb = root_hz(b.note); ra > 0.0 && rb > 0.0)
+        set_root_hz(out.note, geometric_lerp(ra, rb, mix));
     out.note.length_s = lerp(a.note.length_s, b.note.length_s, mix);
     out.note.gain_db = lerp(a.note.gain_db, b.note.gain_db, mix);
 

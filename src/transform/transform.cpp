@@ -57,6 +57,7 @@ patch transpose_by_ratio(const patch& p, double ratio) {
     assert(ratio > 0.0 && std::isfinite(ratio));
     patch out = p;
     out.note.f0_hz *= ratio;
+    if (const double root = root_hz(p.note); root > 0.0) set_root_hz(out.note, root * ratio);
     for (partial& q : out.partials) q.freq_hz *= ratio;
     for (noise_band& b : out.noise) {
         b.low_hz *= ratio;
@@ -71,17 +72,31 @@ patch transpose_semitones(const patch& p, double semitones) {
 
 patch transpose_to_note(const patch& p, int midi, double a4_hz) {
     transform_params params{.to_midi = midi, .a4_hz = a4_hz};
-    return transpose_by_ratio(p, transpose_ratio(p, params));
+    patch out = transpose_by_ratio(p, transpose_ratio(p, params));
+    place_root_on(out.note, midi, a4_hz);
+    return out;
+}
+
+void place_root_on(note_info& n, int midi, double a4_hz) {
+    if (n.root.method == root_method::unstated || n.root.method == root_method::unpitched) return;
+    if (n.root.a4_hz == a4_hz) {
+        n.root.midi = midi;  // exactly on the note: no rounding left in the cents
+        n.root.tuning_cents = 0.0;
+    } else {
+        set_root_hz(n, midi_to_hz(midi, a4_hz));
+    }
 }
 
 double transpose_ratio(const patch& p, const transform_params& params) {
     if (params.to_midi) {
-        if (!(p.note.f0_hz > 0.0)) {
-            throw transform_error("to_midi", "the patch has no pitch centre (note.f0_hz = 0), so it "
+        const double root = root_hz(p.note);
+        if (!(root > 0.0)) {
+            throw transform_error("to_midi", "the patch has no pitch centre (no root note and note.f0_hz = 0), so it "
                                              "cannot be moved to a note; use a transposition in semitones");
         }
         // Equal temperament, f = a4_hz 2^((midi - 69) / 12) (ISO 16 for a4_hz = 440): core/pitch_names.
-        return midi_to_hz(*params.to_midi, params.a4_hz) / p.note.f0_hz;
+        // The root lands on the note exactly; every partial keeps its own offset from the series.
+        return midi_to_hz(*params.to_midi, params.a4_hz) / root;
     }
     return std::exp2(params.transpose_semitones / semitones_per_octave);
 }
@@ -254,6 +269,7 @@ patch apply_transforms(const patch& p, const transform_params& params, double sa
     // 3. Transposition, and the rule-of-thumb decay that follows it.
     const double ratio = transpose_ratio(out, params);
     if (ratio != 1.0) out = transpose_by_ratio(out, ratio);
+    if (params.to_midi) place_root_on(out.note, *params.to_midi, params.a4_hz);
     if (params.decay_follows_pitch && ratio != 1.0) {
         // Rule of thumb (no source): T60 scales as (f_new / f_old)^(-p).
         out = scale_decay(out, std::pow(ratio, -params.decay_pitch_exponent));

@@ -59,7 +59,7 @@ bool varies(const variation_params& v);
 struct transform_params {
     // Pitch.
     double transpose_semitones = 0.0;  ///< ignored when to_midi is set
-    std::optional<int> to_midi{};      ///< transpose so f0 lands on this MIDI note (equal temperament)
+    std::optional<int> to_midi{};      ///< transpose so the root lands on this MIDI note (equal temperament)
     double a4_hz = default_a4_hz;      ///< tuning reference for to_midi
     bool decay_follows_pitch = false;  ///< apply the rule of thumb T60 *= r^(-p) when transposing
     double decay_pitch_exponent = rule_of_thumb_decay_exponent;  ///< p
@@ -90,8 +90,12 @@ double transpose_ratio(const patch& p, const transform_params& params);
 patch transpose_by_ratio(const patch& p, double ratio);
 /// Transposes by a number of equal-tempered semitones: ratio 2^(semitones / 12).
 patch transpose_semitones(const patch& p, double semitones);
-/// Transposes so that f0 becomes midi_to_hz(midi, a4_hz). Throws transform_error if f0 = 0.
+/// Transposes so that the root (root_hz: the stated root, else f0) becomes midi_to_hz(midi, a4_hz);
+/// every frequency is scaled by one ratio, so each partial keeps its offset from the series. Throws
+/// transform_error when the patch has no root.
 patch transpose_to_note(const patch& p, int midi, double a4_hz = default_a4_hz);
+/// Puts a stated root exactly on `midi` (tuning 0 cents when its A4 is a4_hz).
+void place_root_on(note_info& n, int midi, double a4_hz);
 
 /// Stretches one envelope's decay by factor (> 0), as described under "Decay stretching".
 envelope stretch_decay(const envelope& env, double factor);

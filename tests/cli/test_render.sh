@@ -1,8 +1,9 @@
 #!/usr/bin/env bash
 # wane render: renders the example patches and a patch written here; sox (an independent reader)
 # checks the written files' rate, format, length, peak and frequency; the same command twice gives
-# the same bytes; bad input (rate outside 8-192 kHz, longer than 600 s, more than 40 dB over full
-# scale) fails with exit 1, one "wane: error:" line naming the option or file, and no file written.
+# the same bytes; bad options (rate outside 8-192 kHz, --length-s over 600 s) fail with exit 2 and
+# bad input (a patch longer than 600 s, more than 40 dB over full scale) with exit 1, each with one
+# "wane: error:" line naming the option or file, and no file written.
 set -u
 wane=$1
 src=$2
@@ -109,10 +110,10 @@ expect_error() {  # expect_error CODE PATTERN ARGS...
   check 'grep -q -- "$pattern" err.txt'
   check '[ ! -e bad.wav ]'
 }
-expect_error 1 "--rate 7999" tone.toml --rate 7999
-expect_error 1 "--rate 192001" tone.toml --rate 192001
-expect_error 1 "--rate 44100.5" tone.toml --rate 44100.5
-expect_error 1 "--length-s 600.5" tone.toml --length-s 600.5
+expect_error 2 "--rate 7999" tone.toml --rate 7999
+expect_error 2 "--rate 192001" tone.toml --rate 192001
+expect_error 2 "--rate 44100.5" tone.toml --rate 44100.5
+expect_error 2 "--length-s 600.5" tone.toml --length-s 600.5
 sed -e 's/^length_s = .*/length_s = 700.0/' tone.toml > long.toml
 expect_error 1 "long.toml" long.toml
 expect_error 1 "more than 40 dB over full scale" loud.toml

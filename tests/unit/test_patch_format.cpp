@@ -319,11 +319,43 @@ TEST_CASE("format and version", "[patch][validate]") {
     const std::string no_format = with(base_text, "format = \"wane-patch\"\n", "");
     CHECK_THAT(error_of(no_format), StartsWith("pluck.toml:1:1: not a wane patch"));
     expect_error(with(base_text, "\"wane-patch\"", "\"other-patch\""), "format =", "format", "'other-patch'");
-    expect_error(with(base_text, "version = 1", "version = 2"), "version = 2", "version",
-                 "made by a newer wane; this one reads version 1");
+    expect_error(with(base_text, "version = 1", "version = 3"), "version = 3", "version",
+                 "made by a newer wane; this one reads versions 1 to 2");
     expect_error(with(base_text, "version = 1", "version = 0"), "version = 0", "version");
     expect_error(with(base_text, "version = 1", "version = 1.0"), "version = 1.0", "version", "must be an integer");
     CHECK_THAT(error_of(with(base_text, "version = 1\n", "")), Contains("version"));
+}
+
+TEST_CASE("root keys: version 1 has none (f0 serves), version 2 round-trips them, bad ones are refused",
+          "[patch][validate][pitch]") {
+    // Version 1 (no root keys): the root is unstated and f0_hz is the root's frequency.
+    const patch v1 = parse_patch(base_text, "pluck.toml").value;
+    CHECK(v1.note.root.method == root_method::unstated);
+    CHECK(root_hz(v1.note) == v1.note.f0_hz);
+    // Version 2 with a root: read, then written byte for byte the same.
+    const std::string v2 = with(with(base_text, "version = 1", "version = 2"), "f0_hz = 146.832\n",
+                                "f0_hz = 146.832\nroot = \"D3\"\ntuning_cents = -1.25\na4_hz = 442\n"
+                                "root_found_by = \"harmonic-series\"\n");
+    const patch p = parse_patch(v2, "pluck.toml").value;
+    CHECK(p.note.root.midi == 50);
+    CHECK(p.note.root.tuning_cents == -1.25);
+    CHECK(p.note.root.method == root_method::harmonic_series);
+    // 442 x 2^((50 - 1.25 / 100 - 69) / 12): equal temperament (ISO 16 with A4 = 442 Hz).
+    CHECK_THAT(root_hz(p.note), Catch::Matchers::WithinRel(442.0 * std::exp2((50.0 - 0.0125 - 69.0) / 12.0), 1e-12));
+    const std::string written = format_patch(p);
+    CHECK(format_patch(parse_patch(written, "again").value) == written);
+    CHECK(parse_patch(written, "again").value == p);
+    // A root alone was set by hand.
+    CHECK(parse_patch(with(base_text, "f0_hz = 146.832\n", "f0_hz = 146.832\nroot = \"C4\"\n"), "x").value.note.root.method ==
+          root_method::by_hand);
+    expect_error(with(v2, "root = \"D3\"", "root = \"H3\""), "root = \"H3\"", "note.root", "note name");
+    expect_error(with(v2, "\"harmonic-series\"", "\"guessed\""), "\"guessed\"", "note.root_found_by");
+    expect_error(with(v2, "\"harmonic-series\"", "\"unpitched\""), "root = \"D3\"", "note.root", "unpitched");
+    expect_error(with(v2, "tuning_cents = -1.25", "tuning_cents = 250"), "tuning_cents = 250", "note.tuning_cents");
+    expect_error(with(v2, "a4_hz = 442", "a4_hz = 44"), "a4_hz = 44", "note.a4_hz");
+    const std::string unpitched = with(base_text, "f0_hz = 146.832\n", "f0_hz = 0\nroot_found_by = \"unpitched\"\n");
+    CHECK(parse_patch(unpitched, "x").value.note.root.method == root_method::unpitched);
+    CHECK(root_hz(parse_patch(unpitched, "x").value.note) == 0.0);
 }
 
 TEST_CASE("decay segments: until_s increasing and after attack_s, t60_s not 0", "[patch][validate]") {

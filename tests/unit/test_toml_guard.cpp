@@ -60,3 +60,52 @@ TEST_CASE("the fuzz finding is refused by the guard and the example patches pass
     }
     CHECK(examples > 0);
 }
+
+namespace {
+std::string shape_error(const std::string& text) {
+    try {
+        wane::guard_toml_text(text, "g.toml", {.max_nesting_depth = 4, .max_line_bytes = 1000});
+    } catch (const wane::patch_error& e) {
+        return e.what();
+    }
+    return {};
+}
+std::string repeat(const std::string& s, int n) {
+    std::string out;
+    for (int i = 0; i < n; ++i) out += s;
+    return out;
+}
+}  // namespace
+
+// Issue 21, item 1: structures deeper than a patch are refused before the parser recurses into
+// them (a 50,000-level dotted key overflowed its stack), with the reader's one-line depth message.
+TEST_CASE("deep dotted keys, headers and nesting are refused before parsing", "[toml_guard]") {
+    const std::string depth_message = "tables and arrays nest more than 4 levels deep here, deeper than any patch";
+    const int levels = GENERATE(5, 50, 50000);
+    CAPTURE(levels);
+    std::string key = "x";
+    key += repeat(".a", levels);
+    CHECK_THAT(shape_error("a = 1\n" + key + " = 1\n"), Contains("g.toml:2:") && Contains(depth_message));
+    CHECK_THAT(shape_error("[" + key + "]\n"), Contains("g.toml:1:") && Contains(depth_message));
+    CHECK_THAT(shape_error("[[" + key + "]]\n"), Contains(depth_message));
+    CHECK_THAT(shape_error("t = { " + key + " = 1 }\n"), Contains(depth_message));
+    CHECK_THAT(shape_error("\"q\"" + repeat(".\"a\"", levels) + " = 1\n"), Contains(depth_message));
+    CHECK_THAT(shape_error("x = " + repeat("[", levels + 4) + repeat("]", levels + 4) + "\n"), Contains(depth_message));
+    CHECK_THAT(shape_error("x = " + repeat("{a=", levels + 4) + "1" + repeat("}", levels + 4) + "\n"),
+               Contains(depth_message));
+}
+
+TEST_CASE("a long line is refused, the shapes of a patch pass", "[toml_guard]") {
+    CHECK(shape_error("s = \"" + std::string(2000, 'a') + "\"\n") == "g.toml:1: line of 2006 bytes (key 's'), longer than the 1000 a patch may have");
+    // What patches hold: dotted keys within the depth, floats, times, decay arrays of inline tables.
+    CHECK(shape_error("a.b.c.d.e = 1\n[source.analysis]\nx = 1.5e-3\nt = 07:32:00.999\n"
+                      "decay = [ { t60_s = 1.9, until_s = 0.80 }, { t60_s = 6.4 } ]\n"
+                      "s = \"a.b.c.d.e.f.g [[[[[[[[[[\" # ...... [[[[[[[[[[\n")
+              .empty());
+    // Every example patch passes with the reader's limits (it reads them).
+    for (const auto& entry : std::filesystem::directory_iterator(std::filesystem::path(WANE_SOURCE_DIR) / "patches")) {
+        if (entry.path().extension() != ".toml") continue;
+        CAPTURE(entry.path().string());
+        CHECK_NOTHROW(wane::read_patch_file(entry.path()));
+    }
+}

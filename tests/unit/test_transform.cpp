@@ -273,7 +273,7 @@ TEST_CASE("blend: paired partials interpolate, unpaired fade, versions must agre
     CHECK(blend(a, b, {.mix = 0.0}) == a);
     CHECK(blend(a, b, {.mix = 1.0}) == b);
     patch newer = b;
-    newer.version = 2;
+    newer.version = patch_format_version + 1;
     CHECK_THROWS_AS(blend(a, newer, {.mix = 0.5}), transform_error);
 }
 

@@ -1,0 +1,69 @@
+#include "fitting/partial_freq.hpp"
+
+#include <cmath>
+#include <vector>
+
+#include "core/units.hpp"
+
+namespace wane {
+
+double heard_freq_hz(std::span<const track_point> pts, std::size_t peak, std::size_t end) {
+    constexpr double span_start_s = 0.1;
+    constexpr double span_s = 1.0;
+    constexpr std::size_t min_frames = 4;
+    constexpr double search_hz = 3.0;   ///< well inside the frame rate's alias range (+-40 Hz at 12.5 ms)
+    constexpr double step_hz = 0.05;    ///< about 1/20 of the main lobe of a 1 s Hann window
+    constexpr double fine_refinement = 50.0;
+    std::vector<double> w, t, phi;
+    double fa = 0.0, fw = 0.0;
+    for (const track_point& p : pts) {
+        const double u = (p.time_s - span_start_s) / span_s;
+        if (u <= 0.0 || u >= 1.0) continue;
+        const double a = (0.5 - 0.5 * std::cos(two_pi * u)) * std::pow(10.0, p.level_db / 20.0);
+        w.push_back(a);
+        t.push_back(p.time_s);
+        phi.push_back(p.phase_rad);
+        fa += a * p.freq_hz;
+        fw += a;
+    }
+    if (w.size() >= min_frames && fw > 0.0) {
+        const double centre_hz = fa / fw;
+        const auto power = [&](double f) {
+            double re = 0.0, im = 0.0;
+            for (std::size_t k = 0; k < w.size(); ++k) {
+                const double arg = phi[k] - two_pi * f * t[k];
+                re += w[k] * std::cos(arg);
+                im += w[k] * std::sin(arg);
+            }
+            return re * re + im * im;
+        };
+        const int steps = static_cast<int>(std::lround(search_hz / step_hz));
+        int best = -steps;
+        double best_p = -1.0;
+        for (int j = -steps; j <= steps; ++j)
+            if (const double pw = power(centre_hz + j * step_hz); pw > best_p) best_p = pw, best = j;
+        (void)best_p;
+        if (best > -steps && best < steps) {
+            // Parabolas through the log power at the peak and its neighbours: on the grid, then
+            // again at a step 50 times finer around the first vertex (removes its bias).
+            double f = centre_hz + best * step_hz;
+            for (const double h : {step_hz, step_hz / fine_refinement}) {
+                const double a = std::log(power(f - h));
+                const double b = std::log(power(f));
+                const double c = std::log(power(f + h));
+                const double den = a - 2.0 * b + c;
+                if (den < 0.0) f += 0.5 * (a - c) / den * h;
+            }
+            return f;
+        }
+    }
+    fa = 0.0, fw = 0.0;
+    for (std::size_t i = peak; i < end; ++i) {
+        const double a = std::pow(10.0, pts[i].level_db / 20.0);
+        fa += a * pts[i].freq_hz;
+        fw += a;
+    }
+    return fa / fw;
+}
+
+}  // namespace wane

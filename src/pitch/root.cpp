@@ -1,0 +1,104 @@
+#include "pitch/root.hpp"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+#include <optional>
+#include <vector>
+
+#include "core/pitch_names.hpp"
+
+namespace wane {
+
+namespace {
+
+/// The strong mode nearest target_hz within tol_rel, or none.
+std::optional<root_mode> mode_near(std::span<const root_mode> strong, double target_hz, double tol_rel) {
+    std::optional<root_mode> best;
+    double best_dist = tol_rel;
+    for (const root_mode& m : strong) {
+        const double dist = std::abs(m.freq_hz / target_hz - 1.0);
+        if (dist <= best_dist) best_dist = dist, best = m;
+    }
+    return best;
+}
+
+/// Strike note of a bell: the nominal N, twelfth 1.5 N and upper octave 2 N all strong, with the
+/// tierce at 0.6 N (a minor third above N / 2) strong too; the strike note is N / 2, an octave
+/// below the nominal, as bell tuners name it (Fletcher and Rossing 1998, ch. 21), taken as the
+/// prime's own frequency when a strong prime sits there (a tuned bell). Where several modes could
+/// be the nominal, the strongest one is.
+std::optional<double> strike_note_hz(std::span<const root_mode> strong, double tol_rel) {
+    // Ideal partial ratios of a tuned church bell relative to the strike note (prime): hum 0.5,
+    // prime 1, tierce 1.2, quint 1.5, nominal 2, twelfth 3, upper octave 4 (Fletcher and Rossing
+    // 1998, ch. 21).
+    constexpr double tierce = 1.2, nominal = 2.0, twelfth = 3.0, upper_octave = 4.0;
+    std::optional<double> best;
+    double best_db = -1e300;
+    for (const root_mode& n : strong) {
+        const double s = n.freq_hz / nominal;
+        const auto t = mode_near(strong, twelfth * s, tol_rel);
+        const auto u = mode_near(strong, upper_octave * s, tol_rel);
+        const auto m3 = mode_near(strong, tierce * s, tol_rel);
+        if (!t || !u || !m3) continue;
+        // The hum, an octave below the strike, is the lowest partial of a bell: a strong mode
+        // below it means a series of which these are upper members (a string's harmonics 5..20).
+        if (strong.front().freq_hz < 0.5 * s * (1.0 - tol_rel)) continue;
+        // Bell-tuning practice names the strike note an octave below the nominal; a tuned bell
+        // has its prime there, and then the prime is the note.
+        const auto prime = mode_near(strong, s, tol_rel);
+        if (n.level_db > best_db) best_db = n.level_db, best = prime ? prime->freq_hz : s;
+    }
+    return best;
+}
+
+/// The fundamental of a series as measured: the strongest partial numbered 1 when it is within
+/// fundamental_below_max_db of the strongest partial (real strings put partial 1 a few cents off
+/// the series of the upper partials, and partial 1 is the pitch heard); else the series' f0 (a
+/// missing or very weak fundamental).
+double fundamental_hz(std::span<const root_mode> modes, double series_f0_hz, double max_db, const root_params& params) {
+    double best_db = max_db - params.fundamental_below_max_db;
+    double f = series_f0_hz;
+    for (const root_mode& m : modes)
+        if (m.harmonic == 1 && m.level_db >= best_db) best_db = m.level_db, f = m.freq_hz;
+    return f;
+}
+
+}  // namespace
+
+root_estimate find_root(std::span<const root_mode> modes, double series_f0_hz, bool from_hint,
+                        const root_params& params) {
+    if (modes.empty()) return {};
+    double max_db = -1e300;
+    for (const root_mode& m : modes) max_db = std::max(max_db, m.level_db);
+    std::vector<root_mode> strong;
+    for (const root_mode& m : modes)
+        if (m.level_db >= max_db - params.strong_below_max_db && m.freq_hz > 0.0) strong.push_back(m);
+    std::sort(strong.begin(), strong.end(), [](auto& a, auto& b) { return a.freq_hz < b.freq_hz; });
+    if (from_hint && series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, max_db, params), root_method::f0_hint};
+    // A dense wash of modes with no series has no pitch; ratios found in it are chance.
+    if (series_f0_hz <= 0.0 && static_cast<int>(strong.size()) > params.unpitched_min_strong_modes) return {};
+    if (const auto s = strike_note_hz(strong, params.bell_tolerance_rel)) return {*s, root_method::strike_note};
+    if (series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, max_db, params), root_method::harmonic_series};
+    return {strong.front().freq_hz, root_method::lowest_mode};
+}
+
+note_root note_root_of(std::span<const partial> partials, double series_f0_hz, bool from_hint) {
+    std::vector<root_mode> modes;
+    modes.reserve(partials.size());
+    for (const partial& q : partials) modes.push_back({q.freq_hz, q.env.peak.db, q.harmonic});
+    const root_estimate r = find_root(modes, series_f0_hz, from_hint);
+    if (r.method == root_method::unpitched || !(r.freq_hz > 0.0)) return {.method = root_method::unpitched};
+    return root_from_hz(r.freq_hz, r.method);
+}
+
+note_root root_from_hz(double freq_hz, root_method method, double a4_hz) {
+    assert(freq_hz > 0.0 && a4_hz > 0.0);
+    const double midi = hz_to_midi(freq_hz, a4_hz);
+    const double nearest = std::round(midi);
+    constexpr double cents_per_semitone = 100.0;
+    return {.midi = static_cast<int>(nearest), .tuning_cents = (midi - nearest) * cents_per_semitone,
+            .a4_hz = a4_hz, .method = method};
+}
+
+}  // namespace wane

@@ -1,0 +1,60 @@
+// The root note of an analysed sound: the pitch a sampler maps it to, stated apart from the
+// analysis model (which may number no harmonics at all, as for a bar or a bell).
+#pragma once
+
+#include <span>
+
+#include "core/patch.hpp"
+
+namespace wane {
+
+/// One partial as the root finder sees it.
+struct root_mode {
+    double freq_hz = 0.0;
+    double level_db = 0.0;  ///< peak level, dBFS
+    int harmonic = 0;       ///< its number on the fitted series, 0 when off it
+};
+
+struct root_params {
+    /// Modes within this of the strongest count as strong (lowest strong mode, bell partials).
+    double strong_below_max_db = 20.0;
+    /// A sound without a harmonic series and more strong modes than this has no pitch centre
+    /// (a cymbal or a gong's wash; common practice, not from a source).
+    int unpitched_min_strong_modes = 16;
+    /// A harmonic note's partial 1 is its root when within this of the strongest partial, else the
+    /// series' f0 is (common practice: a fundamental 30 dB down is still heard as the pitch).
+    double fundamental_below_max_db = 30.0;
+    /// Relative tolerance of the bell partial ratios (bells are seldom tuned closer than this).
+    double bell_tolerance_rel = 0.025;
+};
+
+struct root_estimate {
+    double freq_hz = 0.0;  ///< 0 when unpitched
+    root_method method = root_method::unpitched;
+};
+
+/// The root of a sound from its partials and its fitted series (series_f0_hz = 0 when the analysis
+/// found no harmonic series). In this order (with an f0 hint, step 2 comes first; no series and
+/// more than unpitched_min_strong_modes strong modes, like a cymbal, is unpitched before step 1):
+/// 1. bells: strong modes at 2 : 3 : 4 times a strike note s (nominal, twelfth, upper octave)
+///    with the minor-third tierce at 1.2 s also strong and nothing strong below the hum s / 2:
+///    the root is s = nominal / 2, the strike note as bell tuners name it, an octave below the
+///    nominal and at the prime of a well-tuned bell (Fletcher and Rossing 1998, ch. 21: the
+///    prime's own frequency when a strong prime lies within bell_tolerance_rel of s); the
+///    ear hears it as the missing fundamental of the nominal, twelfth and upper octave (Terhardt
+///    and Seewann 1984);
+/// 2. a harmonic or stretched series: its fundamental as measured, the strongest partial numbered
+///    1 when within fundamental_below_max_db of the strongest partial, else series_f0_hz
+///    (harmonic_series, or f0_hint when the series was started from the user's --f0);
+/// 3. otherwise (tuned bars, timpani, tines): the lowest strong mode, the note's nominal pitch.
+root_estimate find_root(std::span<const root_mode> modes, double series_f0_hz, bool from_hint,
+                        const root_params& params = {});
+
+/// The root of analysed partials (find_root over their peak levels), as a note under A4 = 440 Hz.
+note_root note_root_of(std::span<const partial> partials, double series_f0_hz, bool from_hint);
+
+/// The root as a note: nearest MIDI note of freq_hz under equal temperament with this A4, and the
+/// tuning in cents from it.
+note_root root_from_hz(double freq_hz, root_method method, double a4_hz = default_a4_hz);
+
+}  // namespace wane
