@@ -127,7 +127,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     if (params.refine_onset) {
         const auto onset = onset_frame;
         if (onset < part.size()) {
-            const auto refined = refine_onset(p, part.subspan(onset), sample_rate_hz, tr.f0_hz, params.onset);
+            const auto refined = refine_onset(p, part.subspan(onset), sample_rate_hz, params.onset);
             out.summary.new_modes = refined.new_modes;
             out.summary.partials = static_cast<int>(p.partials.size());
             out.summary.onset_explained_db = refined.explained_db;

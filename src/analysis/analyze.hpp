@@ -25,8 +25,9 @@ struct analysis_params {
     /// Refit every partial's start on the waveform and add the short-lived modes
     /// (analysis/onset_refine.hpp).
     bool refine_onset = true;
-    /// Split partials that beat into two (analysis/beating_pairs.hpp).
-    bool split_pairs = true;
+    /// Split partials that beat into two (analysis/beating_pairs.hpp); off by default: on real
+    /// notes a pitch glide can still pass for a pair (analyze --split-pairs turns it on).
+    bool split_pairs = false;
     beating_pair_params pairs{};
     /// Set note.gain_db so the copy does not peak above the recording (peak_matching_gain_db).
     bool match_peak = true;

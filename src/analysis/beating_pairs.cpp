@@ -91,6 +91,12 @@ int split_beating_pairs(patch& p, std::span<const float> note, double sample_rat
         }
         const double weaker_db = to_level(amp_lin{std::min(amp[0], amp[1]) / std::max(amp[0], amp[1])}).db;
         if (!ok || std::abs(freq[0] - freq[1]) < params.min_separation_hz || weaker_db < -params.max_weaker_db) continue;
+        // A pair keeps the partial's long-term frequency: its power-weighted mean frequency stays
+        // within centroid_tolerance of the separation from it. A pitch glide fitted by two poles
+        // (a strong one at the early pitch) does not, and stays one partial.
+        const double power0 = amp[0] * amp[0], power1 = amp[1] * amp[1];
+        const double centroid = (power0 * freq[0] + power1 * freq[1]) / (power0 + power1);
+        if (std::abs(centroid - q.freq_hz) > params.centroid_tolerance * std::abs(freq[0] - freq[1])) continue;
         out.pop_back();
         for (std::size_t i = 0; i < 2; ++i) {
             const double t60 = decay[i] > 1e-6 ? ln1000 / decay[i] : infinity;

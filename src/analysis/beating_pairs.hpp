@@ -22,6 +22,9 @@ struct beating_pair_params {
     double min_separation_hz = 0.15; ///< closer modes are one (a decay change, not a beat)
     double max_weaker_db = 30.0;     ///< the weaker mode is within this of the stronger
     double keep_within_db = 40.0;    ///< partials this far under the strongest are not tried
+    /// The pair's power-weighted mean frequency lies within this fraction of its separation of
+    /// the partial's frequency.
+    double centroid_tolerance = 0.5;
 };
 
 /// Splits the beating partials of p in place (note[0] at p's onset); returns how many were split.

@@ -122,8 +122,10 @@ namespace {
 /// rendered and subtracted (left alone).
 enum class role { exponential, shaped, fixed };
 
-/// The partials the waveform fit may change: below Nyquist, and the strongest of any group closer
-/// than cluster_hz (the others keep their envelopes and are subtracted as rendered).
+/// The partials the waveform fit may change: below Nyquist and with no other partial closer than
+/// cluster_hz. A group of close partials (a beating pair) is left as it is, subtracted as
+/// rendered: the span cannot tell its members apart, and refitting one of them would change the
+/// pair's relative phase, so where its beats fall and where its long-term spectral peak lies.
 std::vector<role> initial_roles(const patch& p, double sample_rate_hz, double cluster_hz) {
     const std::size_t count = p.partials.size();
     std::vector<role> roles(count, role::exponential);
@@ -132,9 +134,7 @@ std::vector<role> initial_roles(const patch& p, double sample_rate_hz, double cl
         if (a.freq_hz >= 0.5 * sample_rate_hz) roles[k] = role::fixed;
         for (std::size_t j = 0; j < count && roles[k] != role::fixed; ++j) {
             const partial& b = p.partials[j];
-            if (j != k && std::abs(a.freq_hz - b.freq_hz) < cluster_hz &&
-                (b.env.peak.db > a.env.peak.db || (b.env.peak.db == a.env.peak.db && j < k)))
-                roles[k] = role::fixed;
+            if (j != k && std::abs(a.freq_hz - b.freq_hz) < cluster_hz) roles[k] = role::fixed;
         }
     }
     return roles;
@@ -301,7 +301,7 @@ void apply_fit(patch& p, const waveform_fit& f, std::span<const role> roles, con
 
 }  // namespace
 
-onset_refine_summary refine_onset(patch& p, std::span<const float> note, double sample_rate_hz, double f0_hz,
+onset_refine_summary refine_onset(patch& p, std::span<const float> note, double sample_rate_hz,
                                   const onset_refine_params& params) {
     assert(sample_rate_hz > 0.0);
     onset_refine_summary summary;
@@ -310,8 +310,7 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
     // Modes closer than this cannot be told apart on the span (one Fourier resolution cell).
     const double cluster_hz = sample_rate_hz / static_cast<double>(fit_n);
 
-    subband_mode_params sub = params.subbands;
-    sub.band_hz = f0_hz > 0.0 ? std::clamp(params.bands_per_f0 * f0_hz, params.min_band_hz, params.max_band_hz) : 1000.0;
+    const subband_mode_params& sub = params.subbands;
     const std::vector<damped_mode> found = find_subband_modes(note, sample_rate_hz, sub);
     // The stability check of modal analysis: a resonance is found again, at the same frequency and
     // decay, on a shorter span; poles that fit noise move.

@@ -16,12 +16,9 @@ namespace wane {
 struct onset_refine_params {
     /// Waveform after the onset on which the complex amplitudes are fitted, seconds.
     double fit_span_s = 0.15;
-    /// Subband search for modes (span, band layout, ESPRIT); band_hz is scaled to the pitch:
-    /// bands_per_f0 * f0 within [min_band_hz, max_band_hz] (1000 Hz without a pitch).
+    /// Subband search for modes (span, band layout, ESPRIT). The layout does not follow the
+    /// pitch, so a pitch given as a hint (--f0) finds the same modes.
     subband_mode_params subbands{};
-    double bands_per_f0 = 6.0;
-    double min_band_hz = 300.0;
-    double max_band_hz = 2000.0;
     /// A subband mode this close to a fitted partial (Hz, or this many cents) is that partial ...
     /// and a new mode keeps this many resolution cells (1 / fit span) from every partial.
     double new_mode_clearance_cells = 2.0;
@@ -62,8 +59,7 @@ struct onset_refine_summary {
 };
 
 /// Refines p's partials on note (note[0] at p's onset), in place, and adds the new modes.
-/// f0_hz (0 = none) sets the subband width.
-onset_refine_summary refine_onset(patch& p, std::span<const float> note, double sample_rate_hz, double f0_hz,
+onset_refine_summary refine_onset(patch& p, std::span<const float> note, double sample_rate_hz,
                                   const onset_refine_params& params);
 
 }  // namespace wane

@@ -86,13 +86,15 @@ TEST_CASE("a short mode of a struck bar (-10 dB, T60 30 ms) is found with its le
     CHECK_THAT(t60, WithinRel(0.03, 0.10));
 }
 
-TEST_CASE("a pair 1.5 Hz apart (T60 3 s and 6 s) comes out as two partials", "[analysis][pairs]") {
+TEST_CASE("with pair splitting on, a pair 1.5 Hz apart (T60 3 s and 6 s) comes out as two partials", "[analysis][pairs]") {
     const double fs = 48000.0;
     const std::vector<true_mode> modes{{.freq_hz = 220.0, .level_db = -10.0, .t60_s = 3.0},
                                        {.freq_hz = 221.5, .level_db = -13.0, .t60_s = 6.0, .phase_rad = 0.5},
                                        {.freq_hz = 661.0, .level_db = -20.0, .t60_s = 2.0}};
     const auto x = make_note(modes, fs, 4.0, -90.0);
-    const analysis_result r = analyze_note(x, fs, no_noise());
+    analysis_params params = no_noise();
+    params.split_pairs = true;
+    const analysis_result r = analyze_note(x, fs, params);
     std::vector<const partial*> near;
     for (const auto& q : r.value.partials)
         if (std::abs(q.freq_hz - 220.75) < 3.0) near.push_back(&q);
