@@ -20,6 +20,7 @@
 #include "io/atomic_file.hpp"
 #include "io/audio_file.hpp"
 #include "io/errors.hpp"
+#include "io/patch_checksum.hpp"
 #include "io/patch_toml.hpp"
 #include "io/progress.hpp"
 
@@ -52,6 +53,7 @@ struct analyze_options {
     std::optional<std::string> name;
     std::optional<int> jobs;
     bool report = false;
+    bool overwrite_edited = false;
     bool no_noise = false;
     double max_input_s = default_max_input_s;
     std::uintmax_t max_input_mib = default_max_input_bytes >> 20;
@@ -143,6 +145,7 @@ std::vector<job> plan_jobs(const analyze_options& o) {
     }
     for (const job& j : jobs) {
         refuse_overwriting_input(j.output, inputs);
+        refuse_overwriting_edited_patch(j.output, o.overwrite_edited, "--overwrite-edited");
         if (o.report) {  // the report beside the patch is an output too
             const fs::path html = report_path_of(j.output);
             refuse_overwriting_input(html, inputs);
@@ -183,7 +186,7 @@ std::string run_one(const job& j, const analyze_options& o) {
         throw io_error(j.input.string() + ": " + e.what());
     }
     try {
-        write_patch_file(j.output, r.value);
+        write_file_atomic(j.output, with_checksum(format_patch(r.value)));
     } catch (const patch_error& e) {
         throw io_error(j.input.string() + " -> " + j.output.string() + ": " + e.what());
     }
@@ -255,6 +258,8 @@ void add_analyze_command(CLI::App& app, command_registry& reg) {
     sub->add_option("--name", o->name, "Note name in the patch (default: the file's stem; one input only)");
     sub->add_option("-j,--jobs", o->jobs, "Files analyzed at once (default: all cores)");
     sub->add_flag("--report", o->report, "Also write an HTML report beside each patch (<stem>.html)");
+    sub->add_flag("--overwrite-edited", o->overwrite_edited,
+                  "Replace an existing patch even if it was edited since wane wrote it (or not written by wane)");
     sub->add_flag("--no-noise", o->no_noise, "Fit partials only: no [[noise]] bands for the residual");
     sub->add_option("--max-input-s", o->max_input_s, "Refuse input files longer than this, seconds")
         ->capture_default_str();

@@ -9,6 +9,7 @@
 #include "cli/common.hpp"
 #include "cli/transform_options.hpp"
 #include "io/atomic_file.hpp"
+#include "io/patch_checksum.hpp"
 #include "io/patch_toml.hpp"
 #include "core/pitch_names.hpp"
 
@@ -21,6 +22,7 @@ constexpr double default_edit_rate_hz = 48000.0;
 constexpr double max_root_tuning_cents = 100.0;
 
 struct edit_options {
+    bool overwrite_edited = false;
     std::string input;
     std::string output;
     double rate_hz = default_edit_rate_hz;
@@ -53,6 +55,7 @@ int run_edit(const edit_options& o) {
     const std::filesystem::path out{o.output};
     const std::vector<std::filesystem::path> inputs{in};
     refuse_overwriting_input(out, inputs);
+    refuse_overwriting_edited_patch(out, o.overwrite_edited, "--overwrite-edited");
 
     const patch_read_result read = read_patch_file(in);
     warn_all(read.warnings);
@@ -66,7 +69,7 @@ int run_edit(const edit_options& o) {
     } catch (const std::exception& e) {
         throw std::runtime_error(std::string("the edited patch would not be valid, nothing written: ") + e.what());
     }
-    write_file_atomic(out, text);
+    write_file_atomic(out, with_checksum(text));
 
     std::ostringstream s;
     s.precision(6);
@@ -83,6 +86,8 @@ void add_edit_command(CLI::App& app, command_registry& reg) {
     CLI::App* sub = app.add_subcommand("edit", "Apply sound-design edits to a patch and write a new patch");
     sub->add_option("patch", opts->input, "Patch to edit (TOML)")->required();
     sub->add_option("-o,--output", opts->output, "The edited patch (TOML); must differ from the input")->required();
+    sub->add_flag("--overwrite-edited", opts->overwrite_edited,
+                  "Replace an existing patch even if it was edited since wane wrote it (or not written by wane)");
     sub->add_option("--rate", opts->rate_hz,
                     "Sample rate the patch is meant for, Hz: partials at or above its Nyquist are dropped (0 keeps all)")
         ->capture_default_str();
