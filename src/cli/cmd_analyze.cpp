@@ -54,6 +54,7 @@ struct analyze_options {
     std::optional<int> jobs;
     bool report = false;
     bool overwrite_edited = false;
+    double max_report_s = max_report_input_s();
     bool no_noise = false;
     double max_input_s = default_max_input_s;
     std::uintmax_t max_input_mib = default_max_input_bytes >> 20;
@@ -97,6 +98,8 @@ void validate(const analyze_options& o) {
         throw usage_error("--hop-s " + num(*o.hop_s) + ": must not exceed --window-s " + num(*o.window_s));
     if (o.jobs && (*o.jobs < 1 || *o.jobs > max_jobs))
         throw usage_error("--jobs " + std::to_string(*o.jobs) + ": must be 1.." + std::to_string(max_jobs));
+    if (!(o.max_report_s > 0.0 && std::isfinite(o.max_report_s)))
+        throw usage_error("--max-report-s " + num(o.max_report_s) + ": must be a positive number of seconds");
     if (o.name && o.inputs.size() > 1) throw usage_error("--name applies to one input only (several given)");
 }
 
@@ -195,6 +198,12 @@ std::string run_one(const job& j, const analyze_options& o) {
     std::string line = summary_line(j, r.summary, ec ? 0 : bytes);
     if (o.report) {
         const fs::path html = report_path_of(j.output);
+        const double length_s = static_cast<double>(audio.samples.size()) / audio.sample_rate_hz;
+        if (length_s > o.max_report_s) {
+            throw io_error(j.input.string() + ": patch " + j.output.string() + " written, but no report: " +
+                           short_num(length_s) + " s is longer than the " + short_num(o.max_report_s) +
+                           " s a report draws (raise it with --max-report-s)");
+        }
         write_analysis_report(audio, j.input, r.value, &r.tracking, j.output, html);
         line += "; report " + html.string();
     }
@@ -260,6 +269,8 @@ void add_analyze_command(CLI::App& app, command_registry& reg) {
     sub->add_flag("--report", o->report, "Also write an HTML report beside each patch (<stem>.html)");
     sub->add_flag("--overwrite-edited", o->overwrite_edited,
                   "Replace an existing patch even if it was edited since wane wrote it (or not written by wane)");
+    sub->add_option("--max-report-s", o->max_report_s, "With --report: no report for inputs longer than this, seconds")
+        ->capture_default_str();
     sub->add_flag("--no-noise", o->no_noise, "Fit partials only: no [[noise]] bands for the residual");
     sub->add_option("--max-input-s", o->max_input_s, "Refuse input files longer than this, seconds")
         ->capture_default_str();
