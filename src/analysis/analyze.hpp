@@ -5,6 +5,7 @@
 #include <string>
 
 #include "analysis/noise_model.hpp"
+#include "core/analysis_error.hpp"
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "tracking/tracker.hpp"
@@ -36,10 +37,11 @@ struct analysis_result {
     analysis_summary summary;
 };
 
-/// Largest number of decay segments per partial the fit supports (--max-segments).
-inline constexpr int max_decay_segments = max_fit_segments;
+/// Largest number of decay segments per partial the analysis fits (--max-segments): an analysis
+/// setting, well inside the format's limit patch_rules::max_decay_segments.
+inline constexpr int max_fit_decay_segments = max_fit_segments;
 
-/// Throws std::invalid_argument with a user-facing reason when the sound cannot be analyzed.
+/// Throws analysis_error with a user-facing reason when the sound cannot be analyzed.
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
                              const analysis_params& params);
 

@@ -22,7 +22,7 @@
 #include "io/errors.hpp"
 #include "io/patch_checksum.hpp"
 #include "io/patch_toml.hpp"
-#include "io/progress.hpp"
+#include "platform/progress.hpp"
 
 namespace wane::cli {
 
@@ -33,7 +33,7 @@ namespace fs = std::filesystem;
 /// Bounds of the options (validated before any work).
 constexpr double max_f0_hz = 20000.0;
 constexpr int min_fft_size = 16;
-constexpr int max_fft_size = 1 << 20;
+constexpr int max_analysis_fft_size = 1 << 20;
 constexpr double max_window_s = 10.0;
 constexpr int max_jobs = 256;
 constexpr const char* patch_extension = ".toml";
@@ -76,9 +76,9 @@ void validate(const analyze_options& o) {
     if (o.max_partials < 1 || o.max_partials > static_cast<int>(max_partials))
         throw usage_error("--max-partials " + std::to_string(o.max_partials) + ": must be 1.." +
                           std::to_string(max_partials));
-    if (o.max_segments < 1 || o.max_segments > max_decay_segments)
+    if (o.max_segments < 1 || o.max_segments > max_fit_decay_segments)
         throw usage_error("--max-segments " + std::to_string(o.max_segments) + ": must be 1.." +
-                          std::to_string(max_decay_segments));
+                          std::to_string(max_fit_decay_segments));
     if (!(o.start_s >= 0.0 && std::isfinite(o.start_s)))
         throw usage_error("--start-s " + num(o.start_s) + ": must be 0 or more");
     if (o.end_s && !(*o.end_s > o.start_s))
@@ -88,9 +88,9 @@ void validate(const analyze_options& o) {
         throw usage_error("--window-s " + num(*o.window_s) + ": must be above 0 and at most " + num(max_window_s) + " s");
     if (o.fft_size) {
         const int n = *o.fft_size;
-        if (n < min_fft_size || n > max_fft_size || n % 2 != 0)
+        if (n < min_fft_size || n > max_analysis_fft_size || n % 2 != 0)
             throw usage_error("--fft-size " + std::to_string(n) + ": must be even, from " +
-                              std::to_string(min_fft_size) + " to " + std::to_string(max_fft_size));
+                              std::to_string(min_fft_size) + " to " + std::to_string(max_analysis_fft_size));
     }
     if (o.hop_s && !(*o.hop_s > 0.0 && *o.hop_s <= max_window_s))
         throw usage_error("--hop-s " + num(*o.hop_s) + ": must be above 0 and at most " + num(max_window_s) + " s");
@@ -185,7 +185,7 @@ std::string run_one(const job& j, const analyze_options& o) {
     analysis_result r;
     try {
         r = analyze_note(audio.samples, audio.sample_rate_hz, ap);
-    } catch (const std::invalid_argument& e) {
+    } catch (const analysis_error& e) {
         throw io_error(j.input.string() + ": " + e.what());
     }
     try {

@@ -5,6 +5,7 @@
 #include <vector>
 
 #include "cli/common.hpp"
+#include "core/patch_rules.hpp"
 #include "io/atomic_file.hpp"
 #include "io/patch_checksum.hpp"
 #include "io/patch_toml.hpp"
@@ -50,13 +51,10 @@ int run_blend(const blend_options& o) {
                                  std::to_string(blended.partials.size()) + " partials, more than the format's " +
                                  std::to_string(max_partials) + "; thin the inputs first (wane edit --keep-strongest)");
     }
-    const std::string text = format_patch(blended);
-    try {
-        (void)parse_patch(text, o.output);
-    } catch (const std::exception& e) {
-        throw std::runtime_error(std::string("the blended patch would not be valid, nothing written: ") + e.what());
+    if (const auto broken = patch_rules::first_broken_rule(blended)) {
+        throw std::runtime_error(o.output + ": the blended patch would not be valid, nothing written: " + *broken);
     }
-    write_file_atomic(out, with_checksum(text));
+    write_patch_file(out, blended);
 
     std::ostringstream s;
     s << "wrote " << o.output << ": " << blended.partials.size() << " partials from " << a.value.partials.size()

@@ -8,6 +8,7 @@
 
 #include "cli/common.hpp"
 #include "cli/transform_options.hpp"
+#include "core/patch_rules.hpp"
 #include "io/atomic_file.hpp"
 #include "io/patch_checksum.hpp"
 #include "io/patch_toml.hpp"
@@ -62,14 +63,11 @@ int run_edit(const edit_options& o) {
     patch edited = apply_transforms_checked(read.value, params, o.rate_hz, o.input);
     set_root_by_hand(o, edited.note);
 
-    // Check the result as a reader would before anything is written.
-    const std::string text = format_patch(edited);
-    try {
-        (void)parse_patch(text, o.output);
-    } catch (const std::exception& e) {
-        throw std::runtime_error(std::string("the edited patch would not be valid, nothing written: ") + e.what());
+    // Check the result against the format's rules before anything is written.
+    if (const auto broken = patch_rules::first_broken_rule(edited)) {
+        throw std::runtime_error(o.output + ": the edited patch would not be valid, nothing written: " + *broken);
     }
-    write_file_atomic(out, with_checksum(text));
+    write_patch_file(out, edited);
 
     std::ostringstream s;
     s.precision(6);

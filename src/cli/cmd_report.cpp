@@ -7,6 +7,7 @@
 #include <optional>
 #include <string>
 
+#include "core/text_format.hpp"
 #include "cli/common.hpp"
 #include "io/atomic_file.hpp"
 #include "io/audio_file.hpp"
@@ -22,9 +23,7 @@ namespace {
 
 std::string num(const char* format, double v) {
     if (!std::isfinite(v)) return v > 0 ? "inf" : "-";
-    char buf[64];
-    std::snprintf(buf, sizeof buf, format, v);
-    return buf;
+    return printf_text(format, v);
 }
 
 /// Audio before the patch's onset kept when the report re-tracks or compares the source: as
@@ -65,7 +64,7 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
     std::string comparison_note;
     try {
         comparison = compare_signals(note, render, source.sample_rate_hz, {});
-    } catch (const std::invalid_argument& e) {
+    } catch (const analysis_error& e) {
         comparison_note = std::string("No comparison: ") + e.what() + ".";
     }
     report_inputs in{.title = "wane report: " + source_path.filename().string(),
@@ -121,7 +120,7 @@ void add_report_command(CLI::App& app, command_registry& reg) {
             // From just before the patch's onset, so the tracks are those of the patch's note even
             // when it was analyzed with --start-s; track times count from the onset found there.
             tracking = std::make_unique<tracking_result>(track_note(from_patch_onset(source, p), source.sample_rate_hz, tp));
-        } catch (const std::invalid_argument& e) {
+        } catch (const analysis_error& e) {
             warn(opt->source_path.string() + ": no tracks drawn: " + e.what());
         }
         write_analysis_report(source, opt->source_path, p, tracking.get(), opt->patch_path, opt->out_path);

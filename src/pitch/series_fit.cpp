@@ -81,9 +81,9 @@ double series_residual_cents(double freq_hz, int harmonic, double f0_hz, double 
     return cents_per_ln * (std::log(freq_hz / (n * f0_hz)) - 0.5 * std::log1p(inharmonicity_b * n * n));
 }
 
-series_fit fit_series(std::span<const series_point> all, const series_fit_params& params) {
+series_fit fit_series(std::span<const series_point> points, const series_fit_params& params) {
     std::vector<series_point> pts;
-    for (const auto& p : all)
+    for (const auto& p : points)
         if (p.harmonic >= 1 && p.weight > 0.0 && p.freq_hz > 0.0) pts.push_back(p);
     if (pts.empty()) return {};
     const bool fit_b = std::any_of(pts.begin(), pts.end(), [&](auto& p) { return p.harmonic != pts[0].harmonic; });
@@ -112,9 +112,8 @@ series_fit fit_series(std::span<const series_point> all, const series_fit_params
     }
     series_fit out{.f0_hz = std::exp(s.ln_f0), .inharmonicity_b = std::max(0.0, s.b), .scale_cents = scale,
                    .used = static_cast<int>(pts.size()), .b_fitted = fit_b && s.b > 0.0};
-    for (std::size_t i = 0; i < pts.size(); ++i)
-        if (std::abs(series_residual_cents(pts[i].freq_hz, pts[i].harmonic, out.f0_hz, out.inharmonicity_b)) >=
-            params.tukey_c * scale)
+    for (const series_point& p : pts)
+        if (std::abs(series_residual_cents(p.freq_hz, p.harmonic, out.f0_hz, out.inharmonicity_b)) >= params.tukey_c * scale)
             ++out.rejected;
     return out;
 }

@@ -8,14 +8,10 @@
 # timpani_d2 and xylophone_fs3 one or two of the five strongest long-FFT peaks of the recording have
 # no partial in the patch within 7 cents (measured 4.6 to 42 cents off: partials the analysis does
 # not keep, a string section's detuned strings): issue 17 leaves these open, they are not checked.
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work/plain" "$work/hint" "$work/render" && cd "$work" || exit 1
+source "$(dirname "$0")/preamble.sh"
+mkdir -p plain hint render
 py=/usr/bin/python3
 data="$src/tests/data/real-notes"
-fail=0
 
 "$wane" analyze "$data"/*.wav -o plain > analyze.txt || { cat analyze.txt; exit 1; }
 # The hint: 1% above the measured fundamental (README), rounded.

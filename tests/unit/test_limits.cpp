@@ -1,4 +1,4 @@
-// Render budget (io/limits.hpp): partials x frames against max_render_partial_samples, and the
+// Render budget (synthesis/render_budget.hpp): partials x frames against max_render_partial_samples, and the
 // output buffer against max_render_buffer_bytes. The expected figures are exact arithmetic on the
 // chosen sizes (ground truth: frames = round(length_s * rate_hz), 4 bytes per float frame).
 #include <catch2/catch.hpp>
@@ -9,7 +9,7 @@
 #include <string>
 
 #include "core/patch.hpp"
-#include "io/limits.hpp"
+#include "synthesis/render_budget.hpp"
 
 using Catch::Matchers::Contains;
 using namespace wane;

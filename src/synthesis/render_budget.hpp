@@ -1,5 +1,5 @@
-// Resource limits checked at the edge before any work starts, so a hostile or mistaken patch
-// cannot make a render run for hours or take all memory. (Input-file limits live with the reader:
+// The render budget: limits checked (by the CLI, before any work starts) so a hostile or
+// mistaken patch cannot make a render run for hours or take all memory. (Input-file limits live with the reader:
 // audio_read_options in io/audio_file.hpp.)
 #pragma once
 
