@@ -26,6 +26,7 @@
 
 #include "analysis/analyze.hpp"
 #include "analysis/noise_model.hpp"
+#include "core/rng.hpp"
 #include "core/units.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "io/audio_file.hpp"
@@ -36,6 +37,7 @@
 using wane::bench::median;
 using wane::bench::thread_cpu_s;
 using wane::bench::wall_s;
+using wane::splitmix64;
 
 namespace {
 
@@ -50,19 +52,6 @@ constexpr double synth_burst_amp = 0.02;      ///< attack noise RMS, linear
 constexpr double synth_floor_amp = 1e-5;      ///< noise floor RMS, linear (-100 dB)
 constexpr const char* default_demo_note = "demo-data/steel-string-d3.wav";
 
-/// splitmix64 (Steele, Lea and Flood 2014): fixed, platform-independent noise.
-struct splitmix64 {
-    std::uint64_t state;
-    std::uint64_t next() {
-        std::uint64_t z = (state += 0x9e3779b97f4a7c15ULL);
-        z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
-        z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
-        return z ^ (z >> 31);
-    }
-    /// Uniform in [-1, 1): RMS 1/sqrt(3).
-    double uniform() { return static_cast<double>(next() >> 11) * 0x1.0p-52 - 1.0; }
-};
-
 std::vector<float> make_synthetic_note() {
     const auto n = static_cast<std::size_t>(synth_length_s * synth_rate_hz);
     const auto onset = static_cast<std::size_t>(synth_onset_s * synth_rate_hz);
@@ -72,7 +61,7 @@ std::vector<float> make_synthetic_note() {
         const double t60_s = 6.0 / (1.0 + 0.08 * h);
         const double amp = 0.02 * std::pow(10.0, -0.8 * (h - 1) / 20.0);
         const double freq_hz = h * synth_f0_hz * std::sqrt(1.0 + synth_b * h * h);
-        const double phase = wane::pi * rng.uniform();
+        const double phase = wane::pi * rng.uniform_pm1();
         for (std::size_t i = onset; i < n; ++i) {
             const double t = static_cast<double>(i - onset) / synth_rate_hz;
             double level_db = -60.0 * t / t60_s;
@@ -84,10 +73,10 @@ std::vector<float> make_synthetic_note() {
     const double sqrt3 = std::sqrt(3.0);
     const auto burst = static_cast<std::size_t>(synth_burst_s * synth_rate_hz);
     for (std::size_t i = 0; i < n; ++i) {
-        acc[i] += synth_floor_amp * sqrt3 * rng.uniform();
+        acc[i] += synth_floor_amp * sqrt3 * rng.uniform_pm1();
         if (i >= onset && i < onset + burst) {
             const double fade = 1.0 - static_cast<double>(i - onset) / static_cast<double>(burst);
-            acc[i] += synth_burst_amp * sqrt3 * fade * rng.uniform();
+            acc[i] += synth_burst_amp * sqrt3 * fade * rng.uniform_pm1();
         }
     }
     return {acc.begin(), acc.end()};

@@ -9,9 +9,9 @@
 #include <cstdlib>
 #include <ctime>
 #include <exception>
-#include <random>
 #include <vector>
 
+#include "core/rng.hpp"
 #include "core/units.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "io/audio_file.hpp"
@@ -25,15 +25,14 @@ constexpr int harmonics = 40;
 constexpr double f0_hz = 110.0;
 
 std::vector<float> make_note() {
-    std::mt19937 rng(40);
-    std::uniform_real_distribution<double> phase(-wane::pi, wane::pi);
-    std::normal_distribution<double> noise(0.0, 1e-5);
+    wane::splitmix64 rng{40};  // the project's generator (core/rng.hpp)
+    constexpr double noise_rms = 1e-5;
     const auto n = static_cast<std::size_t>(length_s * rate_hz);
     std::vector<double> acc(n, 0.0);
     for (int h = 1; h <= harmonics; ++h) {
         const double t60 = 6.0 / (1.0 + 0.08 * h);
         const double amp = 0.02 * std::pow(10.0, -0.8 * (h - 1) / 20.0);
-        const double ph = phase(rng);
+        const double ph = rng.uniform(-wane::pi, wane::pi);
         for (std::size_t i = 0; i < n; ++i) {
             const double t = static_cast<double>(i) / rate_hz;
             // Two stages for the lower ten: 2.5 times faster until 0.3 s.
@@ -43,7 +42,7 @@ std::vector<float> make_note() {
         }
     }
     std::vector<float> out(n);
-    for (std::size_t i = 0; i < n; ++i) out[i] = static_cast<float>(acc[i] + noise(rng));
+    for (std::size_t i = 0; i < n; ++i) out[i] = static_cast<float>(acc[i] + noise_rms * rng.gaussian());
     return out;
 }
 

@@ -14,10 +14,10 @@
 #include <cstdio>
 #include <cstdlib>
 #include <cstring>
-#include <random>
 #include <string>
 #include <vector>
 
+#include "core/rng.hpp"
 #include "core/envelope.hpp"
 #include "core/patch.hpp"
 #include "synthesis/render.hpp"
@@ -36,9 +36,9 @@ constexpr std::uint32_t bench_seed = 20261201;
 /// N partials between 40 Hz and 18 kHz (below the fade zone at 48 kHz), attack 1..10 ms, two
 /// decay segments: the shape of a real analyzed note.
 wane::patch make_bench_patch(int partial_count) {
-    std::mt19937 rng(bench_seed);
-    std::uniform_real_distribution<double> log_freq(std::log(40.0), std::log(18000.0));
-    std::uniform_real_distribution<double> unit(0.0, 1.0);
+    wane::splitmix64 rng{bench_seed};  // the project's generator (core/rng.hpp)
+    const auto log_freq = [](wane::splitmix64& r) { return r.uniform(std::log(40.0), std::log(18000.0)); };
+    const auto unit = [](wane::splitmix64& r) { return r.unit(); };
     wane::patch p;
     p.note.length_s = bench_length_s;
     for (int k = 0; k < partial_count; ++k) {

@@ -16,6 +16,7 @@
 #include <span>
 #include <vector>
 
+#include "core/rng.hpp"
 #include "core/units.hpp"
 
 namespace wane::demo {
@@ -26,23 +27,8 @@ inline constexpr double demo_sample_rate_hz = 48000.0;
 // Small deterministic building blocks
 // ---------------------------------------------------------------------------------------------
 
-/// splitmix64 (Steele, Lea and Flood 2014, "Fast splittable pseudorandom number generators"):
-/// a 64-bit state advanced by the golden-ratio increment, output through a 64-bit mixer.
-struct splitmix64 {
-    std::uint64_t state;
-    std::uint64_t next() {
-        state += 0x9e3779b97f4a7c15ULL;
-        std::uint64_t z = state;
-        z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
-        z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
-        return z ^ (z >> 31);
-    }
-    /// Uniform in [-1, 1): the top 53 bits as a fraction, mapped linearly.
-    double uniform_pm1() {
-        constexpr double two_pow_minus_53 = 1.0 / 9007199254740992.0;
-        return 2.0 * static_cast<double>(next() >> 11) * two_pow_minus_53 - 1.0;
-    }
-};
+/// The project's splitmix64 (core/rng.hpp): uniform_pm1() is the top 53 bits mapped to [-1, 1).
+using wane::splitmix64;
 
 /// Phase lag in radians at w (rad/sample) of the first-order allpass
 /// A(z) = (a + z^-1) / (1 + a z^-1): w - 2 atan(a sin w / (1 + a cos w)).

@@ -1,3 +1,4 @@
+#include "core/text_format.hpp"
 #include "analysis/analyze.hpp"
 
 #include <cassert>
@@ -11,6 +12,7 @@
 #include "analysis/beating_pairs.hpp"
 #include "analysis/noise_model.hpp"
 #include "analysis/onset_refine.hpp"
+#include "core/analysis_error.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "pitch/root.hpp"
 #include "synthesis/render.hpp"
@@ -23,11 +25,7 @@ namespace {
 /// note.length_s is the analysed length after the onset, rounded up to this step (seconds).
 constexpr double length_step_s = 0.01;
 
-std::string seconds_text(double s) {
-    char buf[64];
-    std::snprintf(buf, sizeof buf, "%.3f s", s);
-    return buf;
-}
+std::string seconds_text(double s) { return printf_text("%.3f s", s); }
 
 /// The stochastic part (Serra and Smith 1990): the source minus the partials' resynthesis, from
 /// the onset on, measured and fitted in noise bands (analysis/noise_model.hpp).
@@ -64,16 +62,16 @@ double peak_matching_gain_db(const patch& p, std::span<const float> note, double
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
                              const analysis_params& params) {
     assert(sample_rate_hz > 0.0);
-    assert(params.max_segments >= 1 && params.max_segments <= max_decay_segments);
+    assert(params.max_segments >= 1 && params.max_segments <= max_fit_decay_segments);
     const double file_s = static_cast<double>(samples.size()) / sample_rate_hz;
     if (params.start_s < 0.0 || params.end_s < 0.0)
-        throw std::invalid_argument("start and end times must not be negative");
+        throw analysis_error("start and end times must not be negative");
     if (params.start_s >= file_s)
-        throw std::invalid_argument("start " + seconds_text(params.start_s) + " is not before the end of the audio (" +
-                                    seconds_text(file_s) + ")");
+        throw analysis_error("start " + seconds_text(params.start_s) + " is not before the end of the audio (" +
+                               seconds_text(file_s) + ")");
     if (params.end_s > 0.0 && params.end_s <= params.start_s)
-        throw std::invalid_argument("end " + seconds_text(params.end_s) + " is not after the start " +
-                                    seconds_text(params.start_s));
+        throw analysis_error("end " + seconds_text(params.end_s) + " is not after the start " +
+                               seconds_text(params.start_s));
     const auto first = static_cast<std::size_t>(std::llround(params.start_s * sample_rate_hz));
     std::size_t last = samples.size();
     if (params.end_s > 0.0)
@@ -102,7 +100,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     }
     out.summary.tracks = static_cast<int>(tr.tracks.size());
     out.summary.partials = static_cast<int>(p.partials.size());
-    if (p.partials.empty()) throw std::invalid_argument("no partial stays clear of the noise floor long enough to fit");
+    if (p.partials.empty()) throw analysis_error("no partial stays clear of the noise floor long enough to fit");
     out.summary.fit_error_db = frames > 0.0 ? std::sqrt(sq_error / frames) : 0.0;
 
     const double analysed_s = static_cast<double>(part.size()) / sample_rate_hz - tr.onset_s;
@@ -116,8 +114,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     p.source.file = params.source_file;
     p.source.sample_rate_hz = sample_rate_hz;
     p.source.onset_s = params.start_s + tr.onset_s;
-    // The tracker analyses with the 4-term Blackman-Harris window (tracking/tracker.cpp).
-    p.source.analysis = analysis_settings{.window = std::string(window_name(window_kind::blackman_harris_4)),
+    p.source.analysis = analysis_settings{.window = std::string(window_name(tr.window)),
                                           .fft_size = tr.fft_size, .window_s = tr.window_s, .hop_s = tr.hop_s};
     const auto onset_frame = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
     if (params.split_pairs && onset_frame < part.size()) {

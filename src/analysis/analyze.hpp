@@ -7,6 +7,7 @@
 #include "analysis/beating_pairs.hpp"
 #include "analysis/noise_model.hpp"
 #include "analysis/onset_refine.hpp"
+#include "core/analysis_error.hpp"
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "tracking/tracker.hpp"
@@ -52,8 +53,9 @@ struct analysis_result {
     analysis_summary summary;
 };
 
-/// Largest number of decay segments per partial the fit supports (--max-segments).
-inline constexpr int max_decay_segments = max_fit_segments;
+/// Largest number of decay segments per partial the analysis fits (--max-segments): an analysis
+/// setting, well inside the format's limit patch_rules::max_decay_segments.
+inline constexpr int max_fit_decay_segments = max_fit_segments;
 
 /// The copy's peak is kept this far under full scale at least (peaks between samples and other
 /// output rates).
@@ -66,7 +68,7 @@ inline constexpr double peak_headroom_db = 0.3;
 /// the waveform, but a copy may still overshoot by the noise or by where its peaks fall.
 double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz);
 
-/// Throws std::invalid_argument with a user-facing reason when the sound cannot be analyzed.
+/// Throws analysis_error with a user-facing reason when the sound cannot be analyzed.
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
                              const analysis_params& params);
 

@@ -27,6 +27,23 @@ constexpr std::size_t residual_blocks = 64;
 /// Fills dest with residual samples [first, first + dest.size()) (all inside the residual).
 using residual_source = std::function<void(std::size_t first, std::span<float> dest)>;
 
+/// The bins of each band (centres in [low, high), DC and Nyquist excluded): band_total_bins[b]
+/// counts them all, band_bins[b] lists those farther than guard_hz from every partial.
+void select_band_bins(const std::vector<band_edges>& layout, int n_bins, double bin_hz,
+                      std::span<const double> partial_freqs_hz, double guard_hz,
+                      std::vector<std::vector<int>>& band_bins, std::vector<int>& band_total_bins) {
+    for (std::size_t b = 0; b < layout.size(); ++b) {
+        for (int k = 1; k < n_bins - 1; ++k) {
+            const double f = k * bin_hz;
+            if (f < layout[b].low_hz || f >= layout[b].high_hz) continue;
+            ++band_total_bins[b];
+            const bool near_partial = std::any_of(partial_freqs_hz.begin(), partial_freqs_hz.end(),
+                                                  [&](double pf) { return std::abs(pf - f) < guard_hz; });
+            if (!near_partial) band_bins[b].push_back(k);
+        }
+    }
+}
+
 /// The band measurement over a residual of `total` samples read through `source`. Frames are
 /// analysed in order; the samples each needs are fetched into a buffer that slides forward, so
 /// only one buffer of residual is held. Frames near the ends read zeros outside the residual,
@@ -52,16 +69,7 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
     const double guard_hz = params.partial_guard_lobes * hann_half_lobe_bins * sample_rate_hz / window_length;
     std::vector<std::vector<int>> band_bins(layout.size());
     std::vector<int> band_total_bins(layout.size(), 0);
-    for (std::size_t b = 0; b < layout.size(); ++b) {
-        for (int k = 1; k < n_bins - 1; ++k) {
-            const double f = k * bin_hz;
-            if (f < layout[b].low_hz || f >= layout[b].high_hz) continue;
-            ++band_total_bins[b];
-            const bool near_partial = std::any_of(partial_freqs_hz.begin(), partial_freqs_hz.end(),
-                                                  [&](double pf) { return std::abs(pf - f) < guard_hz; });
-            if (!near_partial) band_bins[b].push_back(k);
-        }
-    }
+    select_band_bins(layout, n_bins, bin_hz, partial_freqs_hz, guard_hz, band_bins, band_total_bins);
 
     const auto hop = static_cast<std::size_t>(std::max<std::int64_t>(1, std::llround(params.hop_s * sample_rate_hz)));
     const std::size_t frame_count = total == 0 ? 0 : (total - 1) / hop + 1;

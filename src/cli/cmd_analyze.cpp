@@ -20,8 +20,9 @@
 #include "io/atomic_file.hpp"
 #include "io/audio_file.hpp"
 #include "io/errors.hpp"
+#include "io/patch_checksum.hpp"
 #include "io/patch_toml.hpp"
-#include "io/progress.hpp"
+#include "platform/progress.hpp"
 
 namespace wane::cli {
 
@@ -32,7 +33,7 @@ namespace fs = std::filesystem;
 /// Bounds of the options (validated before any work).
 constexpr double max_f0_hz = 20000.0;
 constexpr int min_fft_size = 16;
-constexpr int max_fft_size = 1 << 20;
+constexpr int max_analysis_fft_size = 1 << 20;
 constexpr double max_window_s = 10.0;
 constexpr int max_jobs = 256;
 constexpr const char* patch_extension = ".toml";
@@ -52,6 +53,8 @@ struct analyze_options {
     std::optional<std::string> name;
     std::optional<int> jobs;
     bool report = false;
+    bool overwrite_edited = false;
+    double max_report_s = max_report_input_s();
     bool no_noise = false;
     bool no_onset_refine = false;
     bool split_pairs = false;
@@ -75,9 +78,9 @@ void validate(const analyze_options& o) {
     if (o.max_partials < 1 || o.max_partials > static_cast<int>(max_partials))
         throw usage_error("--max-partials " + std::to_string(o.max_partials) + ": must be 1.." +
                           std::to_string(max_partials));
-    if (o.max_segments < 1 || o.max_segments > max_decay_segments)
+    if (o.max_segments < 1 || o.max_segments > max_fit_decay_segments)
         throw usage_error("--max-segments " + std::to_string(o.max_segments) + ": must be 1.." +
-                          std::to_string(max_decay_segments));
+                          std::to_string(max_fit_decay_segments));
     if (!(o.start_s >= 0.0 && std::isfinite(o.start_s)))
         throw usage_error("--start-s " + num(o.start_s) + ": must be 0 or more");
     if (o.end_s && !(*o.end_s > o.start_s))
@@ -87,9 +90,9 @@ void validate(const analyze_options& o) {
         throw usage_error("--window-s " + num(*o.window_s) + ": must be above 0 and at most " + num(max_window_s) + " s");
     if (o.fft_size) {
         const int n = *o.fft_size;
-        if (n < min_fft_size || n > max_fft_size || n % 2 != 0)
+        if (n < min_fft_size || n > max_analysis_fft_size || n % 2 != 0)
             throw usage_error("--fft-size " + std::to_string(n) + ": must be even, from " +
-                              std::to_string(min_fft_size) + " to " + std::to_string(max_fft_size));
+                              std::to_string(min_fft_size) + " to " + std::to_string(max_analysis_fft_size));
     }
     if (o.hop_s && !(*o.hop_s > 0.0 && *o.hop_s <= max_window_s))
         throw usage_error("--hop-s " + num(*o.hop_s) + ": must be above 0 and at most " + num(max_window_s) + " s");
@@ -97,6 +100,8 @@ void validate(const analyze_options& o) {
         throw usage_error("--hop-s " + num(*o.hop_s) + ": must not exceed --window-s " + num(*o.window_s));
     if (o.jobs && (*o.jobs < 1 || *o.jobs > max_jobs))
         throw usage_error("--jobs " + std::to_string(*o.jobs) + ": must be 1.." + std::to_string(max_jobs));
+    if (!(o.max_report_s > 0.0 && std::isfinite(o.max_report_s)))
+        throw usage_error("--max-report-s " + num(o.max_report_s) + ": must be a positive number of seconds");
     if (o.name && o.inputs.size() > 1) throw usage_error("--name applies to one input only (several given)");
 }
 
@@ -145,6 +150,7 @@ std::vector<job> plan_jobs(const analyze_options& o) {
     }
     for (const job& j : jobs) {
         refuse_overwriting_input(j.output, inputs);
+        refuse_overwriting_edited_patch(j.output, o.overwrite_edited, "--overwrite-edited");
         if (o.report) {  // the report beside the patch is an output too
             const fs::path html = report_path_of(j.output);
             refuse_overwriting_input(html, inputs);
@@ -183,11 +189,11 @@ std::string run_one(const job& j, const analyze_options& o) {
     analysis_result r;
     try {
         r = analyze_note(audio.samples, audio.sample_rate_hz, ap);
-    } catch (const std::invalid_argument& e) {
+    } catch (const analysis_error& e) {
         throw io_error(j.input.string() + ": " + e.what());
     }
     try {
-        write_patch_file(j.output, r.value);
+        write_file_atomic(j.output, with_checksum(format_patch(r.value)));
     } catch (const patch_error& e) {
         throw io_error(j.input.string() + " -> " + j.output.string() + ": " + e.what());
     }
@@ -196,6 +202,12 @@ std::string run_one(const job& j, const analyze_options& o) {
     std::string line = summary_line(j, r.summary, ec ? 0 : bytes);
     if (o.report) {
         const fs::path html = report_path_of(j.output);
+        const double length_s = static_cast<double>(audio.samples.size()) / audio.sample_rate_hz;
+        if (length_s > o.max_report_s) {
+            throw io_error(j.input.string() + ": patch " + j.output.string() + " written, but no report: " +
+                           short_num(length_s) + " s is longer than the " + short_num(o.max_report_s) +
+                           " s a report draws (raise it with --max-report-s)");
+        }
         write_analysis_report(audio, j.input, r.value, &r.tracking, j.output, html);
         line += "; report " + html.string();
     }
@@ -259,6 +271,10 @@ void add_analyze_command(CLI::App& app, command_registry& reg) {
     sub->add_option("--name", o->name, "Note name in the patch (default: the file's stem; one input only)");
     sub->add_option("-j,--jobs", o->jobs, "Files analyzed at once (default: all cores)");
     sub->add_flag("--report", o->report, "Also write an HTML report beside each patch (<stem>.html)");
+    sub->add_flag("--overwrite-edited", o->overwrite_edited,
+                  "Replace an existing patch even if it was edited since wane wrote it (or not written by wane)");
+    sub->add_option("--max-report-s", o->max_report_s, "With --report: no report for inputs longer than this, seconds")
+        ->capture_default_str();
     sub->add_flag("--no-noise", o->no_noise, "Fit partials only: no [[noise]] bands for the residual");
     sub->add_flag("--no-onset-refine", o->no_onset_refine,
                   "Keep the STFT envelopes' starts: no waveform fit of the onset, no short-lived modes");

@@ -5,7 +5,9 @@
 #include <vector>
 
 #include "cli/common.hpp"
+#include "core/patch_rules.hpp"
 #include "io/atomic_file.hpp"
+#include "io/patch_checksum.hpp"
 #include "io/patch_toml.hpp"
 #include "transform/blend.hpp"
 #include "transform/transform.hpp"
@@ -15,6 +17,7 @@ namespace wane::cli {
 namespace {
 
 struct blend_options {
+    bool overwrite_edited = false;
     std::string input_a;
     std::string input_b;
     std::string output;
@@ -30,6 +33,7 @@ int run_blend(const blend_options& o) {
     const std::filesystem::path out{o.output};
     const std::vector<std::filesystem::path> inputs{o.input_a, o.input_b};
     refuse_overwriting_input(out, inputs);
+    refuse_overwriting_edited_patch(out, o.overwrite_edited, "--overwrite-edited");
 
     const patch_read_result a = read_patch_file(o.input_a);
     warn_all(a.warnings);
@@ -47,13 +51,10 @@ int run_blend(const blend_options& o) {
                                  std::to_string(blended.partials.size()) + " partials, more than the format's " +
                                  std::to_string(max_partials) + "; thin the inputs first (wane edit --keep-strongest)");
     }
-    const std::string text = format_patch(blended);
-    try {
-        (void)parse_patch(text, o.output);
-    } catch (const std::exception& e) {
-        throw std::runtime_error(std::string("the blended patch would not be valid, nothing written: ") + e.what());
+    if (const auto broken = patch_rules::first_broken_rule(blended)) {
+        throw std::runtime_error(o.output + ": the blended patch would not be valid, nothing written: " + *broken);
     }
-    write_file_atomic(out, text);
+    write_patch_file(out, blended);
 
     std::ostringstream s;
     s << "wrote " << o.output << ": " << blended.partials.size() << " partials from " << a.value.partials.size()
@@ -70,6 +71,8 @@ void add_blend_command(CLI::App& app, command_registry& reg) {
     sub->add_option("a", opts->input_a, "First patch (mix 0)")->required();
     sub->add_option("b", opts->input_b, "Second patch (mix 1)")->required();
     sub->add_option("-o,--output", opts->output, "The blended patch (TOML)")->required();
+    sub->add_flag("--overwrite-edited", opts->overwrite_edited,
+                  "Replace an existing patch even if it was edited since wane wrote it (or not written by wane)");
     sub->add_option("--mix", opts->mix, "0 = only the first patch, 1 = only the second")->capture_default_str();
     sub->add_option("--tolerance-cents", opts->tolerance_cents,
                     "Partials off the harmonic series pair with the nearest one of the other patch within this")

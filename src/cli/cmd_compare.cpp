@@ -12,6 +12,7 @@
 #include <stdexcept>
 #include <string>
 
+#include "core/text_format.hpp"
 #include "cli/common.hpp"
 #include "io/audio_file.hpp"
 #include "measure/compare.hpp"
@@ -34,9 +35,7 @@ struct compare_options {
 /// printf-style formatting of one number; non-finite values as `nan_text`.
 std::string num(double v, const char* fmt, const char* nan_text) {
     if (!std::isfinite(v)) return nan_text;
-    char buf[64];
-    std::snprintf(buf, sizeof buf, fmt, v);
-    return buf;
+    return printf_text(fmt, v);
 }
 
 /// A JSON number (17 significant digits is more than the measures carry; 6 is plenty), or null.
@@ -221,7 +220,7 @@ int run_compare(const compare_options& opt) {
     compare_result r;
     try {
         r = compare_signals(a.samples, b.samples, a.sample_rate_hz, params);
-    } catch (const std::invalid_argument& e) {
+    } catch (const analysis_error& e) {
         throw std::runtime_error(opt.a_path.string() + ": " + e.what());
     }
     if (r.early_window_s < opt.early_s) {

@@ -8,6 +8,7 @@
 #include <string>
 #include <vector>
 
+#include "core/text_format.hpp"
 #include "cli/common.hpp"
 #include "core/harmonics.hpp"
 #include "core/patch.hpp"
@@ -27,22 +28,16 @@ constexpr double cents_per_semitone = 100.0;
 constexpr double ms_per_s = 1000.0;
 constexpr double bytes_per_kib = 1024.0;
 
-std::string printf_str(const char* fmt, auto... args) {
-    char buf[256];
-    std::snprintf(buf, sizeof buf, fmt, args...);
-    return buf;
-}
-
 std::string size_text(double bytes) {
-    if (bytes < bytes_per_kib) return printf_str("%.0f B", bytes);
-    if (bytes < bytes_per_kib * bytes_per_kib) return printf_str("%.1f KiB", bytes / bytes_per_kib);
-    return printf_str("%.1f MiB", bytes / (bytes_per_kib * bytes_per_kib));
+    if (bytes < bytes_per_kib) return printf_text("%.0f B", bytes);
+    if (bytes < bytes_per_kib * bytes_per_kib) return printf_text("%.1f KiB", bytes / bytes_per_kib);
+    return printf_text("%.1f MiB", bytes / (bytes_per_kib * bytes_per_kib));
 }
 
 /// "1.900 s to 0.800 s" for a segment with an end, "6.400 s to end" for the last.
 std::string segment_text(const decay_segment& seg) {
-    const std::string t60 = std::isinf(seg.t60_s) ? (seg.t60_s > 0 ? "inf" : "-inf") : printf_str("%.3f", seg.t60_s);
-    return t60 + " s to " + (seg.until_s ? printf_str("%.3f s", *seg.until_s) : std::string("end"));
+    const std::string t60 = std::isinf(seg.t60_s) ? (seg.t60_s > 0 ? "inf" : "-inf") : printf_text("%.3f", seg.t60_s);
+    return t60 + " s to " + (seg.until_s ? printf_text("%.3f s", *seg.until_s) : std::string("end"));
 }
 
 /// Prints the envelope's segments after a fixed-width row prefix, wrapping at the table width.
@@ -66,17 +61,17 @@ std::string signed_text(double v, int decimals) {
     const double scale = std::pow(10.0, decimals);
     double r = std::round(v * scale) / scale;
     if (r == 0.0) r = 0.0;
-    return printf_str("%+.*f", decimals, r);
+    return printf_text("%+.*f", decimals, r);
 }
 
 std::string pitch_text(double f0_hz) {
     if (f0_hz <= 0.0) return "0 (no pitch centre)";
     const double midi = hz_to_midi(f0_hz);
     const double nearest = std::round(midi);
-    std::string out = printf_str("%.6f Hz", f0_hz);
+    std::string out = printf_text("%.6f Hz", f0_hz);
     if (nearest < 0.0 || nearest > 127.0) return out + " (outside the MIDI note range)";
     return out + " = " + note_name(static_cast<int>(nearest)) + " " +
-           signed_text((midi - nearest) * cents_per_semitone, 1) + printf_str(" cents (MIDI %d)", static_cast<int>(nearest));
+           signed_text((midi - nearest) * cents_per_semitone, 1) + printf_text(" cents (MIDI %d)", static_cast<int>(nearest));
 }
 
 /// "F#3 -1.87 cents (184.744 Hz, A4 = 440 Hz), found by harmonic-series"; "none: unpitched".
@@ -87,7 +82,7 @@ std::string root_text(const note_info& n) {
         return hz > 0.0 ? "not stated; f0 serves (" + pitch_text(hz) + ")" : "not stated, and no f0";
     }
     return note_name(n.root.midi) + " " + signed_text(n.root.tuning_cents, 2) +
-           printf_str(" cents (%.3f Hz, A4 = %g Hz), found by ", hz, n.root.a4_hz) +
+           printf_text(" cents (%.3f Hz, A4 = %g Hz), found by ", hz, n.root.a4_hz) +
            std::string(root_method_name(n.root.method));
 }
 
@@ -107,19 +102,19 @@ std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
     os << printable(path.string()) << " (" << patch_format_name << " version " << p.version << ")\n";
     os << "  name      " << (n.name.empty() ? "(none)" : printable(n.name)) << '\n';
     os << "  f0        " << pitch_text(n.f0_hz) << '\n';
-    os << "  B         " << printf_str("%.4e", n.inharmonicity_b) << '\n';
+    os << "  B         " << printf_text("%.4e", n.inharmonicity_b) << '\n';
     os << "  root      " << root_text(n) << '\n';
-    os << "  length    " << printf_str("%.4f s, gain %.2f dB", n.length_s, n.gain_db) << '\n';
+    os << "  length    " << printf_text("%.4f s, gain %.2f dB", n.length_s, n.gain_db) << '\n';
     os << "  content   " << p.partials.size() << (p.partials.size() == 1 ? " partial, " : " partials, ")
               << p.noise.size() << (p.noise.size() == 1 ? " noise band" : " noise bands") << '\n';
     const source_info& s = p.source;
     os << "  source    " << (s.file.empty() ? "(none)" : printable(s.file))
-              << (s.sample_rate_hz > 0.0 ? printf_str(", %.0f Hz", s.sample_rate_hz) : std::string(", rate unknown"))
-              << printf_str(", onset %.6f s", s.onset_s) << '\n';
+              << (s.sample_rate_hz > 0.0 ? printf_text(", %.0f Hz", s.sample_rate_hz) : std::string(", rate unknown"))
+              << printf_text(", onset %.6f s", s.onset_s) << '\n';
     if (s.analysis) {
         const analysis_settings& a = *s.analysis;
         os << "  analysis  " << (a.window.empty() ? "(window unnamed)" : printable(a.window))
-                  << printf_str(", FFT %d, window %.3f ms, hop %.3f ms", a.fft_size, a.window_s * ms_per_s,
+                  << printf_text(", FFT %d, window %.3f ms, hop %.3f ms", a.fft_size, a.window_s * ms_per_s,
                                 a.hop_s * ms_per_s)
                   << '\n';
     }
@@ -128,7 +123,7 @@ std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
     os << "  size      " << size_text(patch_bytes) << " as a patch";
     if (s.sample_rate_hz > 0.0) {
         const double wav_bytes = wav_header_bytes + std::ceil(n.length_s * s.sample_rate_hz) * wav_24bit_bytes_per_sample;
-        os << "; " << size_text(wav_bytes) << printf_str(" as a 24-bit mono WAV of %.4f s at %.0f Hz (%.0fx)",
+        os << "; " << size_text(wav_bytes) << printf_text(" as a 24-bit mono WAV of %.4f s at %.0f Hz (%.0fx)",
                                                                  n.length_s, s.sample_rate_hz, wav_bytes / patch_bytes);
     }
     os << "\n";
@@ -141,7 +136,7 @@ std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
             if (q.harmonic > 0 && n.f0_hz > 0.0) {
                 cents = signed_text(cents_between(q.freq_hz, stiff_partial_hz(n.f0_hz, n.inharmonicity_b, q.harmonic)), 2);
             }
-            const std::string prefix = printf_str("  %4zu  %4d  %13.6f  %7s  %7.2f  %6.2f  ", i + 1, q.harmonic,
+            const std::string prefix = printf_text("  %4zu  %4d  %13.6f  %7s  %7.2f  %6.2f  ", i + 1, q.harmonic,
                                                   q.freq_hz, cents.c_str(), q.env.peak.db, q.env.attack_s * ms_per_s);
             print_segments(os, prefix, q.env);
         }
@@ -151,7 +146,7 @@ std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
         os << "\n  noise     low_hz     high_hz  peak_db  att_ms  decay: T60 to segment end\n";
         for (std::size_t i = 0; i < p.noise.size(); ++i) {
             const noise_band& b = p.noise[i];
-            const std::string prefix = printf_str("  %5zu  %9.2f  %10.2f  %7.2f  %6.2f  ", i + 1, b.low_hz, b.high_hz,
+            const std::string prefix = printf_text("  %5zu  %9.2f  %10.2f  %7.2f  %6.2f  ", i + 1, b.low_hz, b.high_hz,
                                                   b.env.peak.db, b.env.attack_s * ms_per_s);
             print_segments(os, prefix, b.env);
         }

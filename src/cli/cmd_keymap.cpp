@@ -11,7 +11,6 @@
 #include <algorithm>
 #include <atomic>
 #include <chrono>
-#include <cstdio>
 #include <cmath>
 #include <exception>
 #include <filesystem>
@@ -21,17 +20,18 @@
 #include <vector>
 
 #include "cli/common.hpp"
+#include "core/text_format.hpp"
 #include "cli/loudness.hpp"
 #include "cli/transform_options.hpp"
 #include "io/atomic_file.hpp"
 #include "io/audio_file.hpp"
 #include "io/errors.hpp"
-#include "io/limits.hpp"
+#include "synthesis/render_budget.hpp"
 #include "io/patch_toml.hpp"
-#include "io/progress.hpp"
+#include "platform/progress.hpp"
 #include "synthesis/render.hpp"
 #include "transform/keymap.hpp"
-#include "transform/rng.hpp"
+#include "core/rng.hpp"
 
 namespace wane::cli {
 
@@ -43,6 +43,10 @@ constexpr double default_keymap_rate_hz = 48000.0;
 constexpr double keymap_peak_target_db = -1.0;
 constexpr std::size_t keymap_memory_budget_bytes = std::size_t{1} << 30;  // 1 GiB of float samples
 constexpr int max_keymap_variants = 64;
+/// Whole-set limits (our choice, no source): 1e12 partial-samples is about 3 minutes of one core
+/// (5.8e9 per second, synthesis/render_budget.hpp); 10,000 files are 49 notes x 127 layers.
+constexpr double default_max_set_work = 1e12;
+constexpr int default_max_files = 10000;
 /// How far the softest layer may lie below the loudest, and how much darker it may be (our
 /// choice, no source: 96 dB is a 16-bit file's range; 48 dB per octave matches --brightness-db-oct).
 constexpr double max_layer_span_db = 96.0;
@@ -73,13 +77,14 @@ struct keymap_options {
     double rate_hz = default_keymap_rate_hz;
     std::string bits = "24";
     int threads = 0;
+    double max_work = max_render_partial_samples;
+    double max_set_work = default_max_set_work;
+    int max_files = default_max_files;
     transform_cli transforms;
 };
 
 std::string fmt(double v, int precision = 3) {
-    char buf[64];
-    std::snprintf(buf, sizeof buf, "%.*f", precision, v);
-    return std::fabs(v) < 1e9 ? std::string(buf) : short_num(v);
+    return std::fabs(v) < 1e9 ? printf_text("%.*f", precision, v) : short_num(v);
 }
 
 /// Runs work(i) for i in [0, count) on `threads` threads; the first exception stops the rest and
@@ -122,17 +127,23 @@ std::string staged_message(std::string what, const std::filesystem::path& stage,
     return what + "; nothing of the new set was written (" + dir.string() + " is as it was)";
 }
 
-int run_keymap(keymap_options o) {
-    const auto start = std::chrono::steady_clock::now();
-    // ---- Options (all checked before anything is read or written).
+/// The options keymap checks before anything is read or written.
+struct keymap_settings {
+    transform_params base;
+    note_range range;
+    sample_format format = sample_format::pcm24;
+    int threads = 1;
+};
+
+keymap_settings check_keymap_options(const keymap_options& o) {
+    keymap_settings k;
     if (o.transforms.transpose_semitones || !o.transforms.to_note.empty()) {
         throw usage_error(std::string(o.transforms.transpose_semitones ? "--transpose" : "--to-note") +
                           ": not available with keymap, which moves the patch to each note of --notes");
     }
-    transform_params base = to_params(o.transforms);
-    note_range range;
+    k.base = to_params(o.transforms);
     try {
-        range = parse_note_range(o.notes);
+        k.range = parse_note_range(o.notes);
     } catch (const transform_error& e) {
         throw usage_error(std::string("--notes: ") + e.what());
     }
@@ -156,40 +167,43 @@ int run_keymap(keymap_options o) {
     }
     const auto format = parse_sample_format(o.bits);
     if (!format) throw usage_error("--bits: must be 16, 24 or 32f, not '" + o.bits + "'");
+    k.format = *format;
     if (o.threads < 0) throw usage_error("--threads: must be 0 (all cores) or more");
-    const int threads = o.threads > 0 ? o.threads : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
+    if (!(o.max_work > 0.0 && std::isfinite(o.max_work))) throw usage_error("--max-work " + short_num(o.max_work) + ": must be positive");
+    if (!(o.max_set_work > 0.0 && std::isfinite(o.max_set_work))) {
+        throw usage_error("--max-set-work " + short_num(o.max_set_work) + ": must be positive");
+    }
+    if (o.max_files < 1) throw usage_error("--max-files " + std::to_string(o.max_files) + ": must be at least 1");
+    k.threads = o.threads > 0 ? o.threads : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
+    return k;
+}
 
+/// Refuses a set of more files than --max-files, or more work than --max-set-work in all, before
+/// any patch is built: every job costs at most what the source patch does (moving it to a note
+/// keeps the length and can only drop partials above Nyquist).
+void check_set_size(const patch& source, const std::vector<keymap_job>& jobs, const keymap_options& o) {
+    if (jobs.size() > static_cast<std::size_t>(o.max_files)) {
+        throw std::runtime_error(o.input + ": keymap refused: " + std::to_string(jobs.size()) + " WAV files (notes x " +
+                                 std::to_string(o.layers) + " layers x " + std::to_string(o.variants) +
+                                 " variants), more than the " + std::to_string(o.max_files) +
+                                 " of --max-files; use fewer notes (--every), layers or variants");
+    }
+    const render_cost one = render_cost_of(source, o.rate_hz, 0.0);
+    const double set_work = one.partial_samples * static_cast<double>(jobs.size());
+    if (set_work > o.max_set_work) {
+        throw std::runtime_error(o.input + ": keymap refused: " + std::to_string(jobs.size()) + " renders x up to " +
+                                 short_num(one.partial_samples) + " partial-samples = " + short_num(set_work) +
+                                 " of work, over the set budget of " + short_num(o.max_set_work) +
+                                 " (--max-set-work raises it); use fewer notes, layers or variants, or a lower --rate");
+    }
+}
+
+/// Every job's patch and render settings, before any output exists (a note that leaves no
+/// partial below Nyquist stops here with its name).
+void make_job_patches(const patch& source, const transform_params& base, const std::vector<keymap_job>& jobs,
+                      const keymap_options& o, std::vector<patch>& patches, std::vector<render_params>& renders) {
     const std::filesystem::path in{o.input};
-    const patch_read_result read = read_patch_file(in);
-    warn_all(read.warnings);
-    const patch& source = read.value;
-    if (!(root_hz(source.note) > 0.0)) {
-        throw std::runtime_error(o.input + ": keymap needs a pitched patch (a [note] root, or note.f0_hz > 0) to move it to each note");
-    }
-    if (o.variants > 1 && !varies(base.variation)) {
-        base.variation.detune_cents = rr_default_detune_cents;
-        base.variation.level_jitter_db = rr_default_level_jitter_db;
-        base.variation.decay_jitter = rr_default_decay_jitter;
-        base.variation.random_phase = true;
-        say("round-robin variants without a variation option: using --detune-cents " + fmt(rr_default_detune_cents, 1) +
-            " --level-jitter-db " + fmt(rr_default_level_jitter_db, 1) + " --decay-jitter " +
-            fmt(rr_default_decay_jitter, 2) + " --random-phase");
-    }
-
-    const keymap_params plan_params{.notes = range,
-                                    .every = o.every,
-                                    .layers = o.layers,
-                                    .variants = o.variants,
-                                    .layer_step_db = o.layer_step_db,
-                                    .layer_brightness_step_db_per_oct = o.layer_brightness_step,
-                                    .seed = base.variation.seed};
-    const std::vector<keymap_job> jobs = plan_keymap(plan_params);
-
-    // ---- Every job's patch, before any output exists (a note that leaves no partial below
-    // Nyquist stops here with its name).
-    std::vector<patch> patches;
     patches.reserve(jobs.size());
-    std::vector<render_params> renders;
     renders.reserve(jobs.size());
     for (const keymap_job& j : jobs) {
         try {
@@ -199,18 +213,14 @@ int run_keymap(keymap_options o) {
             throw std::runtime_error(o.input + ": " + option + ": note " + note_name(j.root_midi) + ": " + e.what());
         }
         renders.push_back({.sample_rate_hz = o.rate_hz, .noise_seed = derive_seed(j.seed, noise_seed_salt)});
-        check_render_budget(patches.back(), o.rate_hz, 0.0, in);
+        check_render_budget(patches.back(), o.rate_hz, 0.0, in, o.max_work);
     }
+}
 
-    // ---- The set is built in a staging folder inside the output folder and moved into place when
-    // complete: a failure or an interrupt leaves the previous set (if any) untouched.
-    const std::filesystem::path dir{o.output_dir};
-    const std::filesystem::path sfz_path = dir / (in.stem().string() + ".sfz");
+/// Refuses a set whose names would overwrite the input or a folder.
+void check_set_names(const std::filesystem::path& dir, const std::filesystem::path& in,
+                     const std::vector<std::string>& names) {
     const std::vector<std::filesystem::path> inputs{in};
-    std::vector<std::string> names;
-    names.reserve(jobs.size() + 1);
-    for (const keymap_job& j : jobs) names.push_back(j.sample);
-    names.push_back(sfz_path.filename().string());  // moved last
     std::error_code ec;
     for (const std::string& name : names) {
         refuse_overwriting_input(dir / name, inputs);
@@ -218,6 +228,118 @@ int run_keymap(keymap_options o) {
             throw wane::io_error((dir / name).string() + ": is a folder; the set needs this name for a file");
         }
     }
+}
+
+/// The one common gain of the set: 1, or what brings the loudest render to keymap_peak_target_db
+/// (said in a warning). Refuses a set too loud to scale. peak is set to the loudest peak.
+double common_gain(const std::vector<double>& peaks, const std::vector<keymap_job>& jobs, const std::string& input,
+                   double& peak) {
+    std::size_t loudest = 0;
+    for (std::size_t i = 1; i < peaks.size(); ++i) {
+        if (!(peaks[i] <= peaks[loudest])) loudest = i;  // NaN counts as loudest
+    }
+    peak = peaks[loudest];
+    refuse_too_loud(peak, input + ": " + jobs[loudest].sample);
+    double gain = 1.0;
+    if (peak > 1.0) {
+        gain = to_amp(level_db{keymap_peak_target_db}).lin / peak;
+        warn("the loudest render (" + jobs[loudest].sample + ") peaks at " + fmt(to_level(amp_lin{peak}).db, 2) +
+             " dBFS: all " + std::to_string(jobs.size()) + " renders are scaled by one common gain of " +
+             fmt(to_level(amp_lin{gain}).db, 2) + " dB (layers keep their levels) so it peaks at " +
+             fmt(keymap_peak_target_db, 1) + " dBFS");
+    }
+    return gain;
+}
+
+/// Renders every job (keeping the renders when they fit keymap_memory_budget_bytes), levels the
+/// set by one common gain and writes the WAVs into the staging folder. Returns the gain; peak is
+/// set to the loudest render's peak.
+double render_set(const std::vector<patch>& patches, const std::vector<render_params>& renders,
+                  const std::vector<keymap_job>& jobs, const keymap_options& o, const keymap_settings& k,
+                  const std::filesystem::path& stage_dir, const std::filesystem::path& dir, progress_bar& bar,
+                  double& peak) {
+    const int threads = k.threads;
+    std::size_t total_frames = 0;
+    for (std::size_t i = 0; i < jobs.size(); ++i) total_frames += render_frames(patches[i], renders[i]);
+    const bool keep = total_frames <= keymap_memory_budget_bytes / sizeof(float);
+    std::vector<std::vector<float>> kept(keep ? jobs.size() : 0);
+    std::vector<double> peaks(jobs.size(), 0.0);
+    parallel_for(jobs.size(), threads, [&](std::size_t i) {
+        std::vector<float> x = render_patch(patches[i], renders[i]);
+        peaks[i] = peak_abs(x);
+        if (keep) kept[i] = std::move(x);
+        bar.advance();
+    });
+    const double gain = common_gain(peaks, jobs, o.input, peak);
+    const auto gain_f = static_cast<float>(gain);
+    const int write_threads = keep ? std::max(threads, keymap_writer_threads) : threads;
+    parallel_for(jobs.size(), write_threads, [&](std::size_t i) {
+        std::vector<float> x = keep ? std::move(kept[i]) : render_patch(patches[i], renders[i]);
+        if (gain != 1.0) {
+            for (float& v : x) v *= gain_f;
+        }
+        try {
+            write_audio(stage_dir / jobs[i].sample, x, o.rate_hz, {.format = k.format, .root_midi = jobs[i].root_midi});
+        } catch (const std::exception& e) {
+            throw wane::io_error(staged_message(e.what(), stage_dir, dir));
+        }
+        bar.advance();
+    });
+    return gain;
+}
+
+/// Round-robin variants need a variation: without a variation option, the defaults (said).
+void use_round_robin_defaults(transform_params& base) {
+    if (varies(base.variation)) return;
+    base.variation.detune_cents = rr_default_detune_cents;
+    base.variation.level_jitter_db = rr_default_level_jitter_db;
+    base.variation.decay_jitter = rr_default_decay_jitter;
+    base.variation.random_phase = true;
+    say("round-robin variants without a variation option: using --detune-cents " + fmt(rr_default_detune_cents, 1) +
+        " --level-jitter-db " + fmt(rr_default_level_jitter_db, 1) + " --decay-jitter " +
+        fmt(rr_default_decay_jitter, 2) + " --random-phase");
+}
+
+int run_keymap(keymap_options o) {
+    const auto start = std::chrono::steady_clock::now();
+    const keymap_settings k = check_keymap_options(o);
+    transform_params base = k.base;
+    const note_range& range = k.range;
+    const int threads = k.threads;
+
+    const std::filesystem::path in{o.input};
+    const patch_read_result read = read_patch_file(in);
+    warn_all(read.warnings);
+    const patch& source = read.value;
+    if (!(root_hz(source.note) > 0.0)) {
+        throw std::runtime_error(o.input + ": keymap needs a pitched patch (a [note] root, or note.f0_hz > 0) to move it to each note");
+    }
+    if (o.variants > 1) use_round_robin_defaults(base);
+
+    const keymap_params plan_params{.notes = range,
+                                    .every = o.every,
+                                    .layers = o.layers,
+                                    .variants = o.variants,
+                                    .layer_step_db = o.layer_step_db,
+                                    .layer_brightness_step_db_per_oct = o.layer_brightness_step,
+                                    .seed = base.variation.seed};
+    const std::vector<keymap_job> jobs = plan_keymap(plan_params);
+    check_set_size(source, jobs, o);
+
+    std::vector<patch> patches;
+    std::vector<render_params> renders;
+    make_job_patches(source, base, jobs, o, patches, renders);
+
+    // ---- The set is built in a staging folder inside the output folder and moved into place when
+    // complete: a failure or an interrupt leaves the previous set (if any) untouched.
+    const std::filesystem::path dir{o.output_dir};
+    const std::filesystem::path sfz_path = dir / (in.stem().string() + ".sfz");
+    std::vector<std::string> names;
+    names.reserve(jobs.size() + 1);
+    for (const keymap_job& j : jobs) names.push_back(j.sample);
+    names.push_back(sfz_path.filename().string());  // moved last
+    check_set_names(dir, in, names);
+    std::error_code ec;
     const bool dir_existed = std::filesystem::exists(dir, ec);
     std::filesystem::create_directories(dir, ec);
     if (ec || !std::filesystem::is_directory(dir)) {
@@ -235,46 +357,9 @@ int run_keymap(keymap_options o) {
     staging_folder stage(dir);
 
     // ---- Render (peaks), then level and write.
-    std::size_t total_frames = 0;
-    for (std::size_t i = 0; i < jobs.size(); ++i) total_frames += render_frames(patches[i], renders[i]);
-    const bool keep = total_frames <= keymap_memory_budget_bytes / sizeof(float);
-    std::vector<std::vector<float>> kept(keep ? jobs.size() : 0);
-    std::vector<double> peaks(jobs.size(), 0.0);
     progress_bar bar("keymap", 2 * jobs.size(), globals().quiet);
-    parallel_for(jobs.size(), threads, [&](std::size_t i) {
-        std::vector<float> x = render_patch(patches[i], renders[i]);
-        peaks[i] = peak_abs(x);
-        if (keep) kept[i] = std::move(x);
-        bar.advance();
-    });
-    std::size_t loudest = 0;
-    for (std::size_t i = 1; i < peaks.size(); ++i) {
-        if (!(peaks[i] <= peaks[loudest])) loudest = i;  // NaN counts as loudest
-    }
-    const double peak = peaks[loudest];
-    refuse_too_loud(peak, o.input + ": " + jobs[loudest].sample);
-    double gain = 1.0;
-    if (peak > 1.0) {
-        gain = to_amp(level_db{keymap_peak_target_db}).lin / peak;
-        warn("the loudest render (" + jobs[loudest].sample + ") peaks at " + fmt(to_level(amp_lin{peak}).db, 2) +
-             " dBFS: all " + std::to_string(jobs.size()) + " renders are scaled by one common gain of " +
-             fmt(to_level(amp_lin{gain}).db, 2) + " dB (layers keep their levels) so it peaks at " +
-             fmt(keymap_peak_target_db, 1) + " dBFS");
-    }
-    const auto gain_f = static_cast<float>(gain);
-    const int write_threads = keep ? std::max(threads, keymap_writer_threads) : threads;
-    parallel_for(jobs.size(), write_threads, [&](std::size_t i) {
-        std::vector<float> x = keep ? std::move(kept[i]) : render_patch(patches[i], renders[i]);
-        if (gain != 1.0) {
-            for (float& v : x) v *= gain_f;
-        }
-        try {
-            write_audio(stage.path() / jobs[i].sample, x, o.rate_hz, {.format = *format, .root_midi = jobs[i].root_midi});
-        } catch (const std::exception& e) {
-            throw wane::io_error(staged_message(e.what(), stage.path(), dir));
-        }
-        bar.advance();
-    });
+    double peak = 0.0;
+    const double gain = render_set(patches, renders, jobs, o, k, stage.path(), dir, bar, peak);
     bar.finish();
     std::string title = "wane keymap of " + in.filename().string();
     if (!source.note.name.empty()) title += " (" + source.note.name + ")";
@@ -320,6 +405,13 @@ void add_keymap_command(CLI::App& app, command_registry& reg) {
     sub->add_option("--rate", opts->rate_hz, "Sample rate of the WAV files, Hz")->capture_default_str();
     sub->add_option("--bits", opts->bits, "Sample format: 16, 24 or 32f")->capture_default_str();
     sub->add_option("--threads", opts->threads, "Render threads (0 = all cores)")->capture_default_str();
+    sub->add_option("--max-work", opts->max_work,
+                    "Refuse a note whose render costs more than this many partial-samples ((partials + 4 x noise "
+                    "bands) x frames)")
+        ->capture_default_str();
+    sub->add_option("--max-set-work", opts->max_set_work, "Refuse a set whose renders cost more than this in all")
+        ->capture_default_str();
+    sub->add_option("--max-files", opts->max_files, "Refuse a set of more WAV files than this")->capture_default_str();
     add_transform_options(sub, opts->transforms);
     sub->footer("Examples:\n  wane keymap pluck.toml -o pluck-set --notes C2..C6 --every 3 --layers 3 --variants 2");
     reg.add(sub, [opts] { return run_keymap(*opts); });

@@ -7,6 +7,7 @@
 #include <optional>
 #include <string>
 
+#include "core/text_format.hpp"
 #include "cli/common.hpp"
 #include "io/atomic_file.hpp"
 #include "io/audio_file.hpp"
@@ -22,9 +23,7 @@ namespace {
 
 std::string num(const char* format, double v) {
     if (!std::isfinite(v)) return v > 0 ? "inf" : "-";
-    char buf[64];
-    std::snprintf(buf, sizeof buf, format, v);
-    return buf;
+    return printf_text(format, v);
 }
 
 /// Audio before the patch's onset kept when the report re-tracks or compares the source: as
@@ -38,13 +37,21 @@ std::span<const float> from_patch_onset(const mono_audio& source, const patch& p
     return std::span<const float>(source.samples).subspan(from);
 }
 
+/// Longest source a report draws (our choice, no source): the page embeds the source and the
+/// render as audio and a spectrogram, about 8 MB and 40 MB of memory per minute at 48 kHz (a
+/// 30-minute input took 1.04 GB and wrote a 231 MB page); 300 s keeps a page under about 40 MB.
+constexpr double default_max_report_s = 300.0;
+
 struct report_options {
+    double max_input_s = default_max_report_s;
     std::filesystem::path source_path;
     std::filesystem::path patch_path;
     std::filesystem::path out_path;
 };
 
 }  // namespace
+
+double max_report_input_s() { return default_max_report_s; }
 
 void write_analysis_report(const mono_audio& source, const std::filesystem::path& source_path, const patch& p,
                            const tracking_result* tracking, const std::filesystem::path& patch_path,
@@ -57,7 +64,7 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
     std::string comparison_note;
     try {
         comparison = compare_signals(note, render, source.sample_rate_hz, {});
-    } catch (const std::invalid_argument& e) {
+    } catch (const analysis_error& e) {
         comparison_note = std::string("No comparison: ") + e.what() + ".";
     }
     report_inputs in{.title = "wane report: " + source_path.filename().string(),
@@ -84,13 +91,18 @@ void add_report_command(CLI::App& app, command_registry& reg) {
     sub->add_option("SOURCE", opt->source_path, "The recording the patch was made from")->required();
     sub->add_option("PATCH", opt->patch_path, "The patch (.toml)")->required();
     sub->add_option("-o,--output", opt->out_path, "HTML file to write")->required();
+    sub->add_option("--max-input-s", opt->max_input_s, "Refuse sources longer than this, seconds (the page embeds them)")
+        ->capture_default_str();
     sub->footer("Examples:\n  wane report pluck.wav pluck.toml -o pluck.html\n"
                 "  wane analyze pluck.wav -o pluck.toml --report   (writes pluck.html beside the patch)");
     reg.add(sub, [opt] {
         const std::filesystem::path inputs[] = {opt->source_path, opt->patch_path};
         refuse_overwriting_input(opt->out_path, inputs);
         const auto t0 = std::chrono::steady_clock::now();
-        const mono_audio source = read_audio(opt->source_path);
+        if (!(opt->max_input_s > 0.0 && std::isfinite(opt->max_input_s))) {
+            throw usage_error("--max-input-s " + short_num(opt->max_input_s) + ": must be a positive number of seconds");
+        }
+        const mono_audio source = read_audio(opt->source_path, {.max_length_s = opt->max_input_s});
         const patch_read_result r = read_patch_file(opt->patch_path);
         warn_all(r.warnings);
         const patch& p = r.value;
@@ -108,7 +120,7 @@ void add_report_command(CLI::App& app, command_registry& reg) {
             // From just before the patch's onset, so the tracks are those of the patch's note even
             // when it was analyzed with --start-s; track times count from the onset found there.
             tracking = std::make_unique<tracking_result>(track_note(from_patch_onset(source, p), source.sample_rate_hz, tp));
-        } catch (const std::invalid_argument& e) {
+        } catch (const analysis_error& e) {
             warn(opt->source_path.string() + ": no tracks drawn: " + e.what());
         }
         write_analysis_report(source, opt->source_path, p, tracking.get(), opt->patch_path, opt->out_path);

@@ -4,6 +4,7 @@
 #include <iostream>
 
 #include "cli/common.hpp"
+#include "core/analysis_error.hpp"
 #include "io/atomic_file.hpp"
 
 namespace wane::cli {
@@ -109,6 +110,10 @@ int run_main(int argc, char** argv) {
     } catch (const usage_error& e) {
         print_error(e.what());
         return exit_usage;
+    } catch (const wane::analysis_error& e) {
+        // A sound the analysis cannot work on: a run-time failure (the command named the file).
+        print_error(e.what());
+        return exit_failure;
     } catch (const std::exception& e) {
         print_error(e.what());
         return exit_failure;

@@ -104,6 +104,32 @@ void add_transform_options(CLI::App* sub, transform_cli& o) {
     sub->add_flag("--random-phase", o.random_phase, "Give each partial a random start phase")->group(group_name);
 }
 
+namespace {
+
+/// The variation options (--seed, --detune-cents, --level-jitter-db, --decay-jitter,
+/// --random-phase), checked.
+variation_params to_variation(const transform_cli& o) {
+    variation_params v;
+    v.seed = o.seed;
+    require_finite(o.detune_cents, "--detune-cents");
+    if (o.detune_cents < 0.0 || o.detune_cents > max_detune_cents) {
+        throw usage_error("--detune-cents: must be from 0 to 100 cents");
+    }
+    v.detune_cents = o.detune_cents;
+    require_finite(o.level_jitter_db, "--level-jitter-db");
+    if (o.level_jitter_db < 0.0 || o.level_jitter_db > max_level_jitter_db) {
+        throw usage_error("--level-jitter-db: must be from 0 to 24 dB");
+    }
+    v.level_jitter_db = o.level_jitter_db;
+    require_finite(o.decay_jitter, "--decay-jitter");
+    if (o.decay_jitter < 0.0 || o.decay_jitter >= 1.0) throw usage_error("--decay-jitter: must be in [0, 1)");
+    v.decay_jitter = o.decay_jitter;
+    v.random_phase = o.random_phase;
+    return v;
+}
+
+}  // namespace
+
 transform_params to_params(const transform_cli& o) {
     transform_params t;
     if (o.transpose_semitones && !o.to_note.empty()) throw usage_error("--transpose and --to-note exclude each other");
@@ -168,21 +194,7 @@ transform_params to_params(const transform_cli& o) {
         if (*o.scale_b < 0.0 || *o.scale_b > max_scale_b) throw usage_error("--scale-b: must be from 0 to 1000");
         t.scale_b = *o.scale_b;
     }
-    t.variation.seed = o.seed;
-    require_finite(o.detune_cents, "--detune-cents");
-    if (o.detune_cents < 0.0 || o.detune_cents > max_detune_cents) {
-        throw usage_error("--detune-cents: must be from 0 to 100 cents");
-    }
-    t.variation.detune_cents = o.detune_cents;
-    require_finite(o.level_jitter_db, "--level-jitter-db");
-    if (o.level_jitter_db < 0.0 || o.level_jitter_db > max_level_jitter_db) {
-        throw usage_error("--level-jitter-db: must be from 0 to 24 dB");
-    }
-    t.variation.level_jitter_db = o.level_jitter_db;
-    require_finite(o.decay_jitter, "--decay-jitter");
-    if (o.decay_jitter < 0.0 || o.decay_jitter >= 1.0) throw usage_error("--decay-jitter: must be in [0, 1)");
-    t.variation.decay_jitter = o.decay_jitter;
-    t.variation.random_phase = o.random_phase;
+    t.variation = to_variation(o);
     return t;
 }
 

@@ -23,15 +23,14 @@
 #include <cmath>
 #include <vector>
 
+#include "core/octave_bands.hpp"  // octave_ratio_base10
+
 namespace wane {
 
 struct band_edges {
     double low_hz = 0.0;
     double high_hz = 0.0;
 };
-
-/// Base-10 octave ratio G = 10^(3/10) (IEC 61260-1:2014, 5.2).
-inline const double octave_ratio_base10 = std::pow(10.0, 0.3);
 
 /// The noise-band layout above, keeping the bands whose lower edge is below max_hz (upper edges
 /// clipped to max_hz).

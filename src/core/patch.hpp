@@ -103,7 +103,9 @@ void set_root_hz(note_info& n, double freq_hz);
 /// Sorts partials by frequency and noise bands by low edge (the canonical order).
 void canonicalize(patch& p);
 
-/// Limits the format enforces (validated in the reader, asserted by the core).
+/// Limits the format enforces (validated in the reader, asserted by the core); the rest of the
+/// format's limits are in core/patch_rules.hpp. Analysis defaults (tracking_params::max_partials,
+/// max_fit_decay_segments) are settings, named apart.
 inline constexpr std::size_t max_partials = 4096;
 inline constexpr double max_length_s = 600.0;
 inline constexpr double max_peak_db = 24.0;

@@ -37,6 +37,8 @@ inline level_db to_level(amp_lin a) { return level_db{20.0 * std::log10(a.lin)};
 
 /// Power ratio to dB: 10 log10(p).
 inline double power_to_db(double power) { return 10.0 * std::log10(power); }
+/// Power (mean square) ratio of a level in dB: 10^(db / 10).
+inline double db_to_power(double db) { return std::pow(10.0, db / 10.0); }
 
 /// T60 in seconds to the slope of the level line in dB per second (-60 / T60).
 /// T60 = inf holds the level (slope 0); a negative T60 rises at 60 / |T60| dB/s.

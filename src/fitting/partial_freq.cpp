@@ -10,7 +10,8 @@ namespace wane {
 double heard_freq_hz(std::span<const track_point> pts, std::size_t peak, std::size_t end) {
     constexpr double span_start_s = 0.1;
     constexpr double span_s = 1.0;
-    constexpr std::size_t min_frames = 4;
+    constexpr std::size_t min_frames = 8;   ///< 0.1 s of frames at a 12.5 ms hop
+    constexpr double clear_above_floor_db = 20.0;  ///< frames whose phase is trusted
     constexpr double search_hz = 3.0;   ///< well inside the frame rate's alias range (+-40 Hz at 12.5 ms)
     constexpr double step_hz = 0.05;    ///< about 1/20 of the main lobe of a 1 s Hann window
     constexpr double fine_refinement = 50.0;
@@ -18,8 +19,8 @@ double heard_freq_hz(std::span<const track_point> pts, std::size_t peak, std::si
     double fa = 0.0, fw = 0.0;
     for (const track_point& p : pts) {
         const double u = (p.time_s - span_start_s) / span_s;
-        if (u <= 0.0 || u >= 1.0) continue;
-        const double a = (0.5 - 0.5 * std::cos(two_pi * u)) * std::pow(10.0, p.level_db / 20.0);
+        if (u <= 0.0 || u >= 1.0 || p.level_db < p.floor_db + clear_above_floor_db) continue;
+        const double a = (0.5 - 0.5 * std::cos(two_pi * u)) * to_amp(level_db{p.level_db}).lin;
         w.push_back(a);
         t.push_back(p.time_s);
         phi.push_back(p.phase_rad);
@@ -59,7 +60,7 @@ double heard_freq_hz(std::span<const track_point> pts, std::size_t peak, std::si
     }
     fa = 0.0, fw = 0.0;
     for (std::size_t i = peak; i < end; ++i) {
-        const double a = std::pow(10.0, pts[i].level_db / 20.0);
+        const double a = to_amp(level_db{pts[i].level_db}).lin;
         fa += a * pts[i].freq_hz;
         fw += a;
     }

@@ -15,8 +15,9 @@ namespace wane {
 /// refined by a parabola through the peak. Real partials wander by several cents (a string pulled
 /// sharp by the pluck, beating with a neighbour), so one constant frequency can match only one
 /// span; this is the one where a plucked or struck note's pitch is heard, after the strike's
-/// transient (common practice, not from a source). With fewer than min_frames frames there: the
-/// amplitude-weighted mean frequency over the fitted frames [peak, end).
+/// transient (common practice, not from a source). Only frames 20 dB or more above the noise floor
+/// count (a noisy phase would move the peak); with fewer than 8 of them in the span (a weak or
+/// short-lived partial): the amplitude-weighted mean frequency over the fitted frames [peak, end).
 double heard_freq_hz(std::span<const track_point> pts, std::size_t peak, std::size_t end);
 
 }  // namespace wane

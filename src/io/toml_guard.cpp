@@ -14,6 +14,41 @@ namespace {
                       " levels deep here, deeper than any patch");
 }
 
+/// Refuses the line [line_start, end) (number `line`) when it is longer than limits.max_line_bytes.
+void check_line_length(std::string_view text, std::size_t line_start, std::size_t end, std::size_t line,
+                       const std::string& source_name, const toml_text_limits& limits) {
+    if (limits.max_line_bytes > 0 && end - line_start > limits.max_line_bytes) {
+        // Name the key the line starts with, when it has a short one.
+        constexpr std::size_t max_key_shown = 64;
+        const std::string_view head = text.substr(line_start, std::min(end - line_start, max_key_shown + 1));
+        const std::size_t eq = head.find('=');
+        std::string key(head.substr(0, eq == std::string_view::npos ? 0 : eq));
+        while (!key.empty() && (key.back() == ' ' || key.back() == '\t')) key.pop_back();
+        const bool plain = !key.empty() && key.find_first_of("\"'\t") == std::string::npos;
+        throw patch_error(source_name + ":" + std::to_string(line) + ": line of " +
+                          std::to_string(end - line_start) + " bytes" + (plain ? " (key '" + key + "')" : "") +
+                          ", longer than the " +
+                          std::to_string(limits.max_line_bytes) + " a patch may have");
+    }
+}
+
+/// Counts one code character toward the nesting bounds: dots of a dotted key or header (reset by
+/// '=', ',', brackets and braces) and open brackets and braces; refuses beyond max_depth.
+void count_nesting(char c, int& dots, int& brackets, int max_depth, const std::string& source_name, std::size_t line,
+                   std::size_t column) {
+    if (c == '.') {
+        if (++dots > max_depth) too_deep(source_name, line, column, max_depth);
+    } else if (c == '[' || c == '{') {
+        dots = 0;
+        if (++brackets > 2 * max_depth) too_deep(source_name, line, column, max_depth);
+    } else if (c == ']' || c == '}') {
+        dots = 0;
+        brackets = brackets > 0 ? brackets - 1 : 0;
+    } else if (c == '=' || c == ',') {
+        dots = 0;
+    }
+}
+
 }  // namespace
 
 void guard_toml_text(std::string_view text, const std::string& source_name, const toml_text_limits& limits) {
@@ -29,25 +64,10 @@ void guard_toml_text(std::string_view text, const std::string& source_name, cons
     int dots = 0;
     int brackets = 0;  // [ and { open in code, minus ] and }
     const auto starts = [&](std::size_t i, std::string_view what) { return text.substr(i, what.size()) == what; };
-    const auto check_line_length = [&](std::size_t end) {
-        if (limits.max_line_bytes > 0 && end - line_start > limits.max_line_bytes) {
-            // Name the key the line starts with, when it has a short one.
-            constexpr std::size_t max_key_shown = 64;
-            const std::string_view head = text.substr(line_start, std::min(end - line_start, max_key_shown + 1));
-            const std::size_t eq = head.find('=');
-            std::string key(head.substr(0, eq == std::string_view::npos ? 0 : eq));
-            while (!key.empty() && (key.back() == ' ' || key.back() == '\t')) key.pop_back();
-            const bool plain = !key.empty() && key.find_first_of("\"'\t") == std::string::npos;
-            throw patch_error(source_name + ":" + std::to_string(line) + ": line of " +
-                              std::to_string(end - line_start) + " bytes" + (plain ? " (key '" + key + "')" : "") +
-                              ", longer than the " +
-                              std::to_string(limits.max_line_bytes) + " a patch may have");
-        }
-    };
     for (std::size_t i = 0; i < text.size(); ++i) {
         const char c = text[i];
         if (c == '\n') {
-            check_line_length(i);
+            check_line_length(text, line_start, i, line, source_name, limits);
             ++line;
             line_start = i + 1;
             dots = 0;
@@ -61,19 +81,7 @@ void guard_toml_text(std::string_view text, const std::string& source_name, cons
                                       ": not valid TOML: a non-ASCII character outside a string or a comment");
                 }
                 if (limits.max_nesting_depth > 0) {
-                    if (c == '.') {
-                        if (++dots > limits.max_nesting_depth) too_deep(source_name, line, i - line_start + 1, limits.max_nesting_depth);
-                    } else if (c == '[' || c == '{') {
-                        dots = 0;
-                        if (++brackets > 2 * limits.max_nesting_depth) {
-                            too_deep(source_name, line, i - line_start + 1, limits.max_nesting_depth);
-                        }
-                    } else if (c == ']' || c == '}') {
-                        dots = 0;
-                        brackets = brackets > 0 ? brackets - 1 : 0;
-                    } else if (c == '=' || c == ',') {
-                        dots = 0;
-                    }
+                    count_nesting(c, dots, brackets, limits.max_nesting_depth, source_name, line, i - line_start + 1);
                 }
                 if (c == '#') {
                     s = state::comment;
@@ -111,7 +119,7 @@ void guard_toml_text(std::string_view text, const std::string& source_name, cons
             }
         }
     }
-    check_line_length(text.size());
+    check_line_length(text, line_start, text.size(), line, source_name, limits);
 }
 
 }  // namespace wane

@@ -38,7 +38,7 @@ std::vector<double> level_envelope_db(std::span<const float> x, double sample_ra
     const double peak = ms.empty() ? 0.0 : *std::max_element(ms.begin(), ms.end());
     std::vector<double> level(count);
     if (!(peak > 0.0)) return level;  // silent: a flat envelope
-    const double floor_ms = peak * std::pow(10.0, -params.floor_below_peak_db / 10.0);
+    const double floor_ms = peak * db_to_power(-params.floor_below_peak_db);
     for (std::size_t f = 0; f < count; ++f) level[f] = power_to_db(std::max(ms[f], floor_ms));
     return level;
 }

@@ -26,7 +26,7 @@ double snr_db(std::span<const float> a, std::span<const float> b, std::size_t be
 compare_result compare_signals(std::span<const float> a, std::span<const float> b, double sample_rate_hz,
                                const compare_params& params) {
     const bool silent = std::all_of(a.begin(), a.end(), [](float v) { return v == 0.0f; });
-    if (silent) throw std::invalid_argument("the reference is silent");
+    if (silent) throw analysis_error("the reference is silent");
     compare_result r;
     r.sample_rate_hz = sample_rate_hz;
     r.align = align_onsets(a, b, sample_rate_hz, params.onset);
@@ -36,7 +36,7 @@ compare_result compare_signals(std::span<const float> a, std::span<const float> 
     const std::size_t onset = r.align.onset_a_frames;
     const std::size_t early_end =
         std::min(a.size(), onset + static_cast<std::size_t>(std::llround(params.early_window_s * sample_rate_hz)));
-    if (early_end <= onset) throw std::invalid_argument("the reference ends at its onset");
+    if (early_end <= onset) throw analysis_error("the reference ends at its onset");
     r.early_window_s = static_cast<double>(early_end - onset) / sample_rate_hz;
 
     spectral_distance_params spectral = params.spectral;
@@ -76,7 +76,7 @@ compare_result compare_signals(std::span<const float> a, std::span<const float> 
             r.tuning_difference_cents = t->cents;
             r.tuning_pairs = t->pairs;
         }
-    } catch (const std::invalid_argument&) {
+    } catch (const analysis_error&) {
     }
     return r;
 }

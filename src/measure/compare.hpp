@@ -7,6 +7,7 @@
 #include <span>
 #include <vector>
 
+#include "core/analysis_error.hpp"
 #include "measure/align.hpp"
 #include "measure/decay.hpp"
 #include "measure/octave_filter.hpp"
@@ -55,7 +56,7 @@ struct compare_result {
 };
 
 /// a is the reference; b is aligned to it first. Same sample rate (resample at the edge).
-/// Throws std::invalid_argument when a is silent or shorter than the early window.
+/// Throws analysis_error when a is silent or shorter than the early window.
 compare_result compare_signals(std::span<const float> a, std::span<const float> b, double sample_rate_hz,
                                const compare_params& params = {});
 

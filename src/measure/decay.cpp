@@ -199,7 +199,7 @@ noise_crosspoint find_noise_crosspoint(std::span<const float> x, double sample_r
     }
     out.found = true;
     out.crosspoint_frames = frames_of(cross_s);
-    out.noise_mean_square = std::pow(10.0, noise_db / 10.0);
+    out.noise_mean_square = db_to_power(noise_db);
     out.late_slope_db_per_s = fit.slope;
     out.iterations = iter;
     return out;

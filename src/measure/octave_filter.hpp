@@ -1,8 +1,4 @@
-// Octave-band filters with the band edges of IEC 61260-1:2014 (base-ten system; clause numbers
-// from memory):
-//   octave frequency ratio G = 10^(3/10)                        (IEC 61260-1:2014, 5.2)
-//   exact mid-band frequency f_m = f_r * G^x, f_r = 1000 Hz      (IEC 61260-1:2014, 5.4, b = 1)
-//   band edges f_1 = f_m * G^(-1/2), f_2 = f_m * G^(+1/2)        (IEC 61260-1:2014, 5.6)
+// Octave-band filters with the band edges of IEC 61260-1:2014 (the bands: core/octave_bands.hpp).
 // The filter is a Butterworth bandpass: an order-N Butterworth lowpass prototype mapped to a
 // bandpass of order 2N (s -> (s^2 + W0^2) / (B s)), whose -3.01 dB points are the band edges,
 // then the bilinear transform with both edges prewarped, realised as N cascaded biquads.
@@ -11,28 +7,9 @@
 #include <span>
 #include <vector>
 
+#include "core/octave_bands.hpp"
+
 namespace wane {
-
-/// 10^(3/10): the base-ten octave frequency ratio (IEC 61260-1:2014, 5.2).
-inline constexpr double octave_ratio_base10 = 1.9952623149688795;
-/// f_r: the reference frequency of the band series (IEC 61260-1:2014, 5.4).
-inline constexpr double octave_reference_hz = 1000.0;
-
-struct octave_band {
-    int index = 0;                ///< x in f_m = f_r * G^x (0 is the 1 kHz band)
-    double nominal_hz = 0.0;      ///< nominal mid-band frequency (31.5, 63, 125, ... 16000)
-    double exact_mid_hz = 0.0;    ///< f_m
-    double lower_edge_hz = 0.0;   ///< f_m * G^(-1/2)
-    double upper_edge_hz = 0.0;   ///< f_m * G^(+1/2)
-};
-
-/// The octave band with index x (x = -5 .. 4: nominal 31.5 Hz .. 16 kHz).
-octave_band octave_band_at(int index);
-
-/// The bands with nominal mid-band frequency in [lowest_nominal_hz, highest_nominal_hz] whose
-/// upper edge lies below max_edge_fraction of the Nyquist frequency, lowest first.
-std::vector<octave_band> octave_bands_within(double sample_rate_hz, double lowest_nominal_hz,
-                                             double highest_nominal_hz, double max_edge_fraction = 0.9);
 
 /// One second-order section, normalised so a0 = 1:
 ///   y[n] = b0 x[n] + b1 x[n-1] + b2 x[n-2] - a1 y[n-1] - a2 y[n-2].

@@ -93,8 +93,8 @@ spectral_distance_result spectral_distance(std::span<const float> reference, std
             plan.power_spectrum(reference, static_cast<std::ptrdiff_t>(c), pa);
             peak_power = std::max(peak_power, *std::max_element(pa.begin(), pa.begin() + static_cast<std::ptrdiff_t>(n_bins)));
         }
-        const double used_threshold = peak_power * std::pow(10.0, -params.range_db / 10.0);
-        const double floor_power = peak_power * std::pow(10.0, -params.floor_db / 10.0);
+        const double used_threshold = peak_power * db_to_power(-params.range_db);
+        const double floor_power = peak_power * db_to_power(-params.floor_db);
 
         // Pass 2: accumulate the squared dB differences and the magnitude errors.
         resolution_distance r{.fft_size = size, .hop_frames = static_cast<int>(hop)};

@@ -5,6 +5,8 @@
 #include <numeric>
 #include <vector>
 
+#include "core/units.hpp"
+
 namespace wane {
 
 namespace {
@@ -22,13 +24,13 @@ summary summarize(const partial_track& t) {
     double fa = 0.0, w = 0.0;
     summary s;
     for (const track_point& p : t.points) {
-        const double a = std::pow(10.0, p.level_db / 20.0);
+        const double a = to_amp(level_db{p.level_db}).lin;
         fa += a * p.freq_hz;
         w += a;
         s.peak_db = std::max(s.peak_db, p.level_db);
     }
     s.freq_hz = w > 0.0 ? fa / w : 0.0;
-    s.amp = std::pow(10.0, s.peak_db / 20.0);
+    s.amp = to_amp(level_db{s.peak_db}).lin;
     return s;
 }
 

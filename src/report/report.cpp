@@ -1,331 +1,20 @@
+// The HTML report page: its sections, in order (see report.hpp).
 #include "report/report.hpp"
-
-#include <png.h>
-#include <sndfile.h>
 
 #include <algorithm>
 #include <cassert>
 #include <cmath>
-#include <cstdio>
-#include <cstring>
-#include <limits>
 #include <sstream>
 
 #include "core/pitch_names.hpp"
 #include "core/units.hpp"
-#include "io/errors.hpp"
-#include "spectrum/stft.hpp"
+#include "report/svg_plot.hpp"
 
 namespace wane {
 
 namespace {
 
-// ---- encodings ----------------------------------------------------------------------------
-
-struct memory_file {
-    std::string bytes;
-    sf_count_t pos = 0;
-};
-
-sf_count_t vio_length(void* user) { return static_cast<sf_count_t>(static_cast<memory_file*>(user)->bytes.size()); }
-sf_count_t vio_seek(sf_count_t offset, int whence, void* user) {
-    auto* f = static_cast<memory_file*>(user);
-    const auto size = static_cast<sf_count_t>(f->bytes.size());
-    sf_count_t base = 0;
-    if (whence == SEEK_CUR) base = f->pos;
-    if (whence == SEEK_END) base = size;
-    f->pos = std::max<sf_count_t>(0, base + offset);
-    return f->pos;
-}
-sf_count_t vio_read(void* ptr, sf_count_t count, void* user) {
-    auto* f = static_cast<memory_file*>(user);
-    const auto size = static_cast<sf_count_t>(f->bytes.size());
-    const sf_count_t n = std::clamp<sf_count_t>(size - f->pos, 0, count);
-    std::memcpy(ptr, f->bytes.data() + f->pos, static_cast<std::size_t>(n));
-    f->pos += n;
-    return n;
-}
-sf_count_t vio_write(const void* ptr, sf_count_t count, void* user) {
-    auto* f = static_cast<memory_file*>(user);
-    const auto end = static_cast<std::size_t>(f->pos + count);
-    if (f->bytes.size() < end) f->bytes.resize(end);
-    std::memcpy(f->bytes.data() + f->pos, ptr, static_cast<std::size_t>(count));
-    f->pos += count;
-    return count;
-}
-sf_count_t vio_tell(void* user) { return static_cast<memory_file*>(user)->pos; }
-
-void png_append(png_structp png, png_bytep data, png_size_t length) {
-    auto* out = static_cast<std::string*>(png_get_io_ptr(png));
-    out->append(reinterpret_cast<const char*>(data), length);
-}
-void png_noop_flush(png_structp) {}
-
-struct rgb {
-    unsigned char r, g, b;
-};
-
-/// Cubehelix colour scheme (Green 2011, Bull. Astr. Soc. India 39, 289; constants from memory):
-/// lightness l runs 0 (black) .. 1 (white) with a helical hue; start 0.5, rotations -0.5, hue 0.9
-/// keep it a blue-violet ramp, monotone in perceived lightness, so red-orange tracks stand out.
-rgb cubehelix(double lightness) {
-    constexpr double start = 0.5, rotations = -0.5, hue = 0.9;
-    const double l = std::clamp(lightness, 0.0, 1.0);
-    const double angle = two_pi * (start / 3.0 + 1.0 + rotations * l);
-    const double amp = hue * l * (1.0 - l) / 2.0;
-    const double c = std::cos(angle), s = std::sin(angle);
-    auto to_byte = [](double v) { return static_cast<unsigned char>(std::lround(255.0 * std::clamp(v, 0.0, 1.0))); };
-    return {to_byte(l + amp * (-0.14861 * c + 1.78277 * s)), to_byte(l + amp * (-0.29227 * c - 0.90649 * s)),
-            to_byte(l + amp * (1.97294 * c))};
-}
-
-/// Spectrogram colour of a level fraction (0 = range_db below the peak or quieter, 1 = the peak):
-/// quiet is white paper, loud is dark ink.
-rgb level_colour(double fraction) { return cubehelix(1.0 - std::clamp(fraction, 0.0, 1.0)); }
-
-std::string hex_colour(rgb c) {
-    char buf[8];
-    std::snprintf(buf, sizeof buf, "#%02x%02x%02x", c.r, c.g, c.b);
-    return buf;
-}
-
-std::string fmt(const char* format, double v) {
-    char buf[64];
-    std::snprintf(buf, sizeof buf, format, v);
-    return buf;
-}
-
-std::string escape_html(std::string_view text) {
-    std::string out;
-    out.reserve(text.size());
-    for (char ch : text) {
-        switch (ch) {
-            case '<': out += "&lt;"; break;
-            case '>': out += "&gt;"; break;
-            case '&': out += "&amp;"; break;
-            case '"': out += "&quot;"; break;
-            default: out += ch;
-        }
-    }
-    return out;
-}
-
-/// "Nice" tick step for an axis span (1, 2 or 5 times a power of ten).
-double tick_step(double span, int target_ticks) {
-    const double raw = span / std::max(1, target_ticks);
-    const double mag = std::pow(10.0, std::floor(std::log10(raw)));
-    for (double m : {1.0, 2.0, 5.0, 10.0}) {
-        if (m * mag >= raw) return m * mag;
-    }
-    return 10.0 * mag;
-}
-
-/// Plot frame: maps data (x, y) to SVG pixels inside margins.
-struct plot_frame {
-    double width, height, left = 64, right = 16, top = 16, bottom = 48;
-    double x0, x1, y0, y1;
-    double px(double x) const { return left + (x - x0) / (x1 - x0) * (width - left - right); }
-    double py(double y) const { return top + (y1 - y) / (y1 - y0) * (height - top - bottom); }
-};
-
-constexpr int axis_x_ticks = 8, axis_y_ticks = 6;  // about this many ticks per axis
-
-/// Decimals that show a tick step exactly (0.5 -> 1, 0.05 -> 2, 200 -> 0).
-int tick_decimals(double step) { return std::max(0, static_cast<int>(-std::floor(std::log10(step) + 1e-9))); }
-
-std::string tick_text(double v, double step) {
-    char buf[64];
-    std::snprintf(buf, sizeof buf, "%.*f", tick_decimals(step), std::abs(v) < 1e-9 * step ? 0.0 : v);
-    return buf;
-}
-
-std::string svg_axes(const plot_frame& f, const std::string& x_label, const std::string& y_label) {
-    std::ostringstream o;
-    const double bottom = f.height - f.bottom;
-    o << "<rect x='" << f.left << "' y='" << f.top << "' width='" << (f.width - f.left - f.right)
-      << "' height='" << (bottom - f.top) << "' fill='none' stroke='#444'/>";
-    const double xs = tick_step(f.x1 - f.x0, axis_x_ticks);
-    const long x_first = std::lround(std::ceil(f.x0 / xs - 1e-9));
-    const long x_last = std::lround(std::floor(f.x1 / xs + 1e-9));
-    for (long i = x_first; i <= x_last; ++i) {
-        const double x = static_cast<double>(i) * xs;
-        o << "<line x1='" << f.px(x) << "' x2='" << f.px(x) << "' y1='" << bottom << "' y2='" << bottom + 5
-          << "' stroke='#444'/><text x='" << f.px(x) << "' y='" << bottom + 19 << "' text-anchor='middle'>"
-          << tick_text(x, xs) << "</text>";
-    }
-    const double ys = tick_step(f.y1 - f.y0, axis_y_ticks);
-    const long y_first = std::lround(std::ceil(f.y0 / ys - 1e-9));
-    const long y_last = std::lround(std::floor(f.y1 / ys + 1e-9));
-    for (long i = y_first; i <= y_last; ++i) {
-        const double y = static_cast<double>(i) * ys;
-        o << "<line x1='" << f.left - 5 << "' x2='" << f.left << "' y1='" << f.py(y) << "' y2='" << f.py(y)
-          << "' stroke='#444'/><text x='" << f.left - 8 << "' y='" << f.py(y) + 4.5 << "' text-anchor='end'>"
-          << tick_text(y, ys) << "</text>";
-    }
-    o << "<text x='" << (f.left + f.width - f.right) / 2 << "' y='" << f.height - 6 << "' text-anchor='middle'>"
-      << escape_html(x_label) << "</text><text transform='translate(15," << (f.top + bottom) / 2
-      << ") rotate(-90)' text-anchor='middle'>" << escape_html(y_label) << "</text>";
-    return o.str();
-}
-
-double track_mean_freq_hz(const partial_track& t) {
-    double sum = 0.0;
-    for (const track_point& p : t.points) sum += p.freq_hz;
-    return t.points.empty() ? 0.0 : sum / static_cast<double>(t.points.size());
-}
-
-}  // namespace
-
-/// Spectrogram power floor: -200 dB keeps log10 finite in digital silence.
-constexpr double spectrogram_power_floor = 1e-20;
-constexpr double spectrogram_floor_db = -200.0;
-
-std::string base64_encode(std::string_view bytes) {
-    static constexpr char alphabet[] = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
-    std::string out;
-    out.reserve((bytes.size() + 2) / 3 * 4);
-    std::size_t i = 0;
-    for (; i + 2 < bytes.size(); i += 3) {
-        const auto v = (static_cast<unsigned>(static_cast<unsigned char>(bytes[i])) << 16) |
-                       (static_cast<unsigned>(static_cast<unsigned char>(bytes[i + 1])) << 8) |
-                       static_cast<unsigned>(static_cast<unsigned char>(bytes[i + 2]));
-        out += alphabet[(v >> 18) & 63];
-        out += alphabet[(v >> 12) & 63];
-        out += alphabet[(v >> 6) & 63];
-        out += alphabet[v & 63];
-    }
-    const std::size_t rest = bytes.size() - i;
-    if (rest > 0) {
-        unsigned v = static_cast<unsigned>(static_cast<unsigned char>(bytes[i])) << 16;
-        if (rest == 2) v |= static_cast<unsigned>(static_cast<unsigned char>(bytes[i + 1])) << 8;
-        out += alphabet[(v >> 18) & 63];
-        out += alphabet[(v >> 12) & 63];
-        out += rest == 2 ? alphabet[(v >> 6) & 63] : '=';
-        out += '=';
-    }
-    return out;
-}
-
-std::string wav_bytes(std::span<const float> samples, double sample_rate_hz) {
-    float peak = 0.0f;
-    for (float s : samples) peak = std::max(peak, std::abs(s));
-    const float scale = peak > 1.0f ? 1.0f / peak : 1.0f;
-    memory_file file;
-    SF_VIRTUAL_IO vio{vio_length, vio_seek, vio_read, vio_write, vio_tell};
-    SF_INFO info{};
-    info.samplerate = static_cast<int>(std::lround(sample_rate_hz));
-    info.channels = 1;
-    info.format = SF_FORMAT_WAV | SF_FORMAT_PCM_16;
-    SNDFILE* snd = sf_open_virtual(&vio, SFM_WRITE, &info, &file);
-    if (snd == nullptr) throw io_error(std::string("report: cannot encode audio: ") + sf_strerror(nullptr));
-    std::vector<float> scaled(samples.begin(), samples.end());
-    for (float& s : scaled) s *= scale;
-    sf_write_float(snd, scaled.data(), static_cast<sf_count_t>(scaled.size()));
-    sf_close(snd);
-    return file.bytes;
-}
-
-spectrogram_db make_spectrogram(std::span<const float> samples, double sample_rate_hz, double window_s,
-                                int max_frames) {
-    constexpr int zero_padding = 2;
-    const int window_length = std::max(33, static_cast<int>(std::lround(window_s * sample_rate_hz)) | 1);
-    stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = window_length,
-                    .fft_size = fast_fft_size(zero_padding * window_length)});
-    const auto total = static_cast<std::int64_t>(samples.size());
-    // At least window/8 apart: finer than that adds pixels but no detail.
-    constexpr int min_hops_per_window = 8;
-    const std::int64_t hop = std::max<std::int64_t>(window_length / min_hops_per_window,
-                                                    (total + max_frames - 1) / std::max(1, max_frames));
-    spectrogram_db s;
-    s.bins = plan.fft_size() / 2 + 1;
-    s.bin_hz = sample_rate_hz / plan.fft_size();
-    s.hop_s = static_cast<double>(hop) / sample_rate_hz;
-    s.start_s = 0.0;
-    s.level_db.reserve(static_cast<std::size_t>((total + hop - 1) / hop) * static_cast<std::size_t>(s.bins));
-    for (std::int64_t c = 0; c < total; c += hop) {
-        plan.analyze(samples, c);
-        for (float pw : plan.power()) {
-            s.level_db.push_back(static_cast<float>(power_to_db(std::max(static_cast<double>(pw), spectrogram_power_floor))));
-        }
-        ++s.frames;
-    }
-    return s;
-}
-
-std::string spectrogram_png(const spectrogram_db& s, double max_freq_hz, double range_db) {
-    constexpr int max_width = 960, max_height = 400;
-    const int used_bins = std::clamp(static_cast<int>(max_freq_hz / s.bin_hz), 1, s.bins);
-    const int width = std::min(s.frames, max_width);
-    const int height = std::min(used_bins, max_height);
-    float peak = -std::numeric_limits<float>::infinity();
-    for (float v : s.level_db) peak = std::max(peak, v);
-    // Digital silence stays white: the scale's top is at least range_db above the floor.
-    peak = std::max(peak, static_cast<float>(spectrogram_floor_db + range_db));
-    // Max-pool frames and bins into pixels; row 0 is the top (highest frequency).
-    std::vector<unsigned char> pixels(static_cast<std::size_t>(width) * static_cast<std::size_t>(height) * 3);
-    for (int x = 0; x < width; ++x) {
-        const int f0 = x * s.frames / width, f1 = std::max(f0 + 1, (x + 1) * s.frames / width);
-        for (int y = 0; y < height; ++y) {
-            const int row_from_bottom = height - 1 - y;
-            const int b0 = row_from_bottom * used_bins / height;
-            const int b1 = std::max(b0 + 1, (row_from_bottom + 1) * used_bins / height);
-            float v = -std::numeric_limits<float>::infinity();
-            for (int f = f0; f < f1; ++f) {
-                for (int b = b0; b < b1; ++b) v = std::max(v, s.level_db[static_cast<std::size_t>(f) * static_cast<std::size_t>(s.bins) + static_cast<std::size_t>(b)]);
-            }
-            const rgb c = level_colour((static_cast<double>(v) - (static_cast<double>(peak) - range_db)) / range_db);
-            const std::size_t at = (static_cast<std::size_t>(y) * static_cast<std::size_t>(width) + static_cast<std::size_t>(x)) * 3;
-            pixels[at] = c.r;
-            pixels[at + 1] = c.g;
-            pixels[at + 2] = c.b;
-        }
-    }
-    std::string out;
-    png_structp png = png_create_write_struct(PNG_LIBPNG_VER_STRING, nullptr, nullptr, nullptr);
-    png_infop info = png ? png_create_info_struct(png) : nullptr;
-    if (png == nullptr || info == nullptr) throw io_error("report: libpng could not start");
-    if (setjmp(png_jmpbuf(png))) {
-        png_destroy_write_struct(&png, &info);
-        throw io_error("report: libpng failed to encode the spectrogram");
-    }
-    png_set_write_fn(png, &out, png_append, png_noop_flush);
-    png_set_IHDR(png, info, static_cast<png_uint_32>(width), static_cast<png_uint_32>(height), 8, PNG_COLOR_TYPE_RGB,
-                 PNG_INTERLACE_NONE, PNG_COMPRESSION_TYPE_DEFAULT, PNG_FILTER_TYPE_DEFAULT);
-    png_write_info(png, info);
-    for (int y = 0; y < height; ++y) {
-        png_write_row(png, pixels.data() + static_cast<std::size_t>(y) * static_cast<std::size_t>(width) * 3);
-    }
-    png_write_end(png, nullptr);
-    png_destroy_write_struct(&png, &info);
-    return out;
-}
-
-int matching_track(const partial& part, const tracking_result& tracking, double sample_rate_hz) {
-    // The tracker's continuation tolerance (tracking/tracker.hpp): max(2 bins, 1% of f).
-    constexpr double tolerance_bins = 2.0, tolerance_fraction = 0.01;
-    const double bin_hz = tracking.fft_size > 0 && sample_rate_hz > 0.0 ? sample_rate_hz / tracking.fft_size : 0.0;
-    const double tolerance_hz = std::max(tolerance_bins * bin_hz, tolerance_fraction * part.freq_hz);
-    // First a track with the partial's own harmonic number, else one carrying no number.
-    for (const bool same_number : {true, false}) {
-        if (same_number && part.harmonic <= 0) continue;
-        int best = -1;
-        double best_distance_hz = infinity;
-        for (std::size_t i = 0; i < tracking.tracks.size(); ++i) {
-            const partial_track& t = tracking.tracks[i];
-            const bool eligible = same_number ? t.harmonic == part.harmonic : (t.harmonic == 0 || part.harmonic == 0);
-            if (!eligible) continue;
-            const double d = std::abs(track_mean_freq_hz(t) - part.freq_hz);
-            if (d <= tolerance_hz && d < best_distance_hz) {
-                best_distance_hz = d;
-                best = static_cast<int>(i);
-            }
-        }
-        if (best >= 0) return best;
-    }
-    return -1;
-}
-
-namespace {
+using namespace report_plot;
 
 // Page layout (SVG user units = CSS pixels at 100% zoom).
 constexpr double spectrogram_width = 1060, spectrogram_height = 470, colour_bar_margin = 84;
@@ -444,7 +133,7 @@ void write_spectrogram(std::ostringstream& h, const report_inputs& in) {
       << "' height='" << plot_h << "'/></clipPath><g clip-path='url(#spectrogram-clip)'>";
     if (in.tracking != nullptr) {
         for (const partial_track& t : in.tracking->tracks) {
-            if (t.points.empty() || track_mean_freq_hz(t) > top_hz) continue;
+            if (t.points.empty() || track_frequency_hz(t, in.tracking->window_s) > top_hz) continue;
             h << "<polyline fill='none' stroke='" << track_colour << "' stroke-width='1.3' points='";
             for (const track_point& pt : t.points) {
                 h << fmt("%.1f", f.px(pt.time_s + p.source.onset_s)) << ',' << fmt("%.1f", f.py(pt.freq_hz)) << ' ';
@@ -511,7 +200,7 @@ void write_envelopes(std::ostringstream& h, const report_inputs& in) {
                      .y1 = std::ceil((peak + envelope_headroom_db) / 10.0) * 10.0};
         h << "<svg class='envelope' width='" << f.width << "' height='" << f.height << "' data-freq-hz='"
           << fmt("%.3f", part.freq_hz) << "'";
-        if (track != nullptr) h << " data-track-freq-hz='" << fmt("%.3f", track_mean_freq_hz(*track)) << "'";
+        if (track != nullptr) h << " data-track-freq-hz='" << fmt("%.3f", track_frequency_hz(*track, in.tracking->window_s)) << "'";
         h << " xmlns='http://www.w3.org/2000/svg'>";
         h << "<text x='4' y='16' class='title'>partial " << idx + 1;
         if (part.harmonic > 0) h << " (harmonic " << part.harmonic << ")";

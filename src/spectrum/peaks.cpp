@@ -83,9 +83,9 @@ void find_peaks(std::span<const float> power, std::span<const kiss_fft_cpx> bins
     const auto first = static_cast<std::size_t>(std::max(1.0, std::ceil(params.min_freq_hz / bin_hz)));
     if (first > last) return;
     const float frame_max = *std::max_element(power.begin() + first, power.begin() + last + 1);
-    const double base_thr = std::max(double(frame_max) * std::pow(10.0, -params.below_max_db / 10.0),
-                                     std::pow(10.0, params.abs_floor_db / 10.0));
-    const double above_floor = std::pow(10.0, params.above_floor_db / 10.0);
+    const double base_thr = std::max(double(frame_max) * db_to_power(-params.below_max_db),
+                                     db_to_power(params.abs_floor_db));
+    const double above_floor = db_to_power(params.above_floor_db);
     // Power threshold per floor band (the floor's bands are whole multiples of FFT bins).
     const double band_hz = floor != nullptr ? floor->band_hz() : sample_rate_hz;
     const auto band_bins = std::max<std::size_t>(1, static_cast<std::size_t>(std::lround(band_hz / bin_hz)));

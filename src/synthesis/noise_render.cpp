@@ -11,28 +11,13 @@
 #include <vector>
 
 #include "core/noise_bands.hpp"
+#include "core/rng.hpp"
 #include "core/units.hpp"
 #include "synthesis/kernel_clones.hpp"
 
 namespace wane {
 
 namespace {
-
-/// splitmix64 (Steele, Lea and Flood 2014): small, fast, fully specified, so the noise is the
-/// same on every platform (std:: distributions are implementation-defined).
-struct splitmix64 {
-    static constexpr std::uint64_t increment = 0x9e3779b97f4a7c15ULL;
-    std::uint64_t state;
-    std::uint64_t next() {
-        std::uint64_t z = (state += increment);
-        z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
-        z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
-        return z ^ (z >> 31);
-    }
-    /// Skips `draws` values: the state only ever advances by the increment, so this leaves it
-    /// exactly where `draws` calls of next() would.
-    void skip(std::uint64_t draws) { state += draws * increment; }
-};
 
 /// Frames overlap four times: Hann^2 windows sum to a constant at hop N/4, so the power follows
 /// the envelopes without ripple, and Hann's low sidelobes keep the bands' skirts steep.
@@ -118,6 +103,40 @@ void make_pool(const band_bins& b, int n_fft, kiss_fftr_cfg plan, std::span<kiss
     }
 }
 
+/// Periodic Hann window of n_fft samples; window_power_sum = sum(w^2). Overlap-added at hop
+/// N/4, w^2 sums to exactly 3/2 = sum(w^2) / hop.
+std::vector<float> periodic_hann(int n_fft, double& window_power_sum) {
+    std::vector<float> window(static_cast<std::size_t>(n_fft));
+    window_power_sum = 0.0;
+    for (int n = 0; n < n_fft; ++n) {
+        const double w = 0.5 - 0.5 * std::cos(two_pi * n / n_fft);
+        window[static_cast<std::size_t>(n)] = static_cast<float>(w);
+        window_power_sum += w * w;
+    }
+    return window;
+}
+
+/// Bins of each band: centres in [low, high), DC and Nyquist excluded; at least one bin. Draws
+/// one pool seed per band from rng, in band order (also for a band left out above Nyquist).
+std::vector<band_bins> band_layout(std::span<const noise_band> bands, splitmix64& rng, double bin_hz,
+                                   double nyquist_hz, int n_bins) {
+    std::vector<band_bins> layout;
+    for (const noise_band& b : bands) {
+        const std::uint64_t pool_seed = rng.next();
+        const double high_hz = std::min(b.high_hz, nyquist_hz);
+        if (b.low_hz >= high_hz) continue;
+        int first = std::max(1, static_cast<int>(std::ceil(b.low_hz / bin_hz)));
+        int last = std::min(n_bins - 2, static_cast<int>(std::ceil(high_hz / bin_hz)) - 1);
+        if (last < first) {
+            first = std::clamp(static_cast<int>(std::lround(0.5 * (b.low_hz + high_hz) / bin_hz)), 1, n_bins - 2);
+            last = first;
+        }
+        layout.push_back({.first = first, .count = last - first + 1, .band = &b, .pieces = envelope_pieces(b.env),
+                          .peak_lin = to_amp(b.env.peak).lin, .pool_seed = pool_seed});
+    }
+    return layout;
+}
+
 }  // namespace
 
 int noise_frame_size(double sample_rate_hz, double frame_s) {
@@ -136,34 +155,14 @@ void add_noise_bands(std::span<const noise_band> bands, const noise_render_param
     assert(std::has_single_bit(static_cast<unsigned>(n_fft)));
     const int shift_bits = std::countr_zero(static_cast<unsigned>(n_fft));  // n_fft = 2^shift_bits
 
-    // Periodic Hann window; w^2 overlap-added at hop N/4 is exactly 3/2 = sum(w^2) / hop.
-    std::vector<float> window(static_cast<std::size_t>(n_fft));
     double window_power_sum = 0.0;
-    for (int n = 0; n < n_fft; ++n) {
-        const double w = 0.5 - 0.5 * std::cos(two_pi * n / n_fft);
-        window[static_cast<std::size_t>(n)] = static_cast<float>(w);
-        window_power_sum += w * w;
-    }
+    const std::vector<float> window = periodic_hann(n_fft, window_power_sum);
 
     // Random streams: one seed per band for its pool, then the frames' shifts. Drawn in band
     // order up front, so a band's noise does not depend on when (or whether) others sound.
     splitmix64 rng{params.seed};
 
-    // Bins of each band: centres in [low, high), DC and Nyquist excluded; at least one bin.
-    std::vector<band_bins> layout;
-    for (const noise_band& b : bands) {
-        const std::uint64_t pool_seed = rng.next();
-        const double high_hz = std::min(b.high_hz, nyquist_hz);
-        if (b.low_hz >= high_hz) continue;
-        int first = std::max(1, static_cast<int>(std::ceil(b.low_hz / bin_hz)));
-        int last = std::min(n_bins - 2, static_cast<int>(std::ceil(high_hz / bin_hz)) - 1);
-        if (last < first) {
-            first = std::clamp(static_cast<int>(std::lround(0.5 * (b.low_hz + high_hz) / bin_hz)), 1, n_bins - 2);
-            last = first;
-        }
-        layout.push_back({.first = first, .count = last - first + 1, .band = &b, .pieces = envelope_pieces(b.env),
-                          .peak_lin = to_amp(b.env.peak).lin, .pool_seed = pool_seed});
-    }
+    std::vector<band_bins> layout = band_layout(bands, rng, bin_hz, nyquist_hz, n_bins);
     if (layout.empty()) return;
 
     const auto n = static_cast<std::size_t>(n_fft);

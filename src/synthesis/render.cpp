@@ -17,6 +17,7 @@
 // smaller on average (error energy -128 dB in tests/unit/test_render.cpp).
 #include "synthesis/render.hpp"
 #include "synthesis/noise_render.hpp"
+#include "synthesis/damped_kernels.hpp"
 #include "synthesis/kernel_clones.hpp"
 
 #include <algorithm>
@@ -42,83 +43,18 @@ constexpr double neper_per_db = 1.0 / db_per_neper;
 /// The silence floor in nepers of amplitude.
 constexpr double ln_silence_amp = render_silence_level.db * neper_per_db;
 
-/// The kernels' vector type: 8 floats (one AVX register, two SSE registers in the generic clone).
-/// GCC/Clang vector extensions: the lane arithmetic is written once and each clone gets the
-/// instructions of its target; element-wise IEEE operations, so every clone gives the same bits.
-using vfloat = float __attribute__((vector_size(32)));
-constexpr std::size_t vfloat_width = 8;
-static_assert(lanes % vfloat_width == 0);
-constexpr std::size_t lane_vectors = lanes / vfloat_width;
-
-// Unaligned load/store of a vfloat (through references: no vector passes by value, so no ABI
-// question between the clones).
-[[gnu::always_inline]] inline void load_v(vfloat& v, const float* p) { std::memcpy(&v, p, sizeof v); }
-[[gnu::always_inline]] inline void store_v(float* p, const vfloat& v) { std::memcpy(p, &v, sizeof v); }
-
-// Hot kernel, decay span: out[k] += Re(z_k) for k < frames; lane l holds z_{s*lanes+l} at step s
-// and is advanced by the complex factor step = m^lanes after use. re0/im0: initial lane states.
+// The hot kernels: one body each (damped_kernels.hpp), compiled for AVX2 and for the baseline.
 WANE_KERNEL_CLONES
 void add_damped(float* __restrict out, std::size_t frames, const float* __restrict re0,
                 const float* __restrict im0, float step_re, float step_im) {
-    vfloat re[lane_vectors];
-    vfloat im[lane_vectors];
-    for (std::size_t v = 0; v < lane_vectors; ++v) {
-        load_v(re[v], re0 + v * vfloat_width);
-        load_v(im[v], im0 + v * vfloat_width);
-    }
-    const std::size_t steps = frames / lanes;
-    for (std::size_t s = 0; s < steps; ++s) {
-        float* o = out + s * lanes;
-        for (std::size_t v = 0; v < lane_vectors; ++v) {
-            vfloat acc;
-            load_v(acc, o + v * vfloat_width);
-            store_v(o + v * vfloat_width, acc + re[v]);
-            const vfloat nr = re[v] * step_re - im[v] * step_im;
-            const vfloat ni = re[v] * step_im + im[v] * step_re;
-            re[v] = nr;
-            im[v] = ni;
-        }
-    }
-    float tail[lanes];
-    std::memcpy(tail, re, sizeof tail);
-    float* o = out + steps * lanes;
-    for (std::size_t l = 0; l < frames - steps * lanes; ++l) o[l] += tail[l];
+    damped_kernels::add_damped_lanes(out, frames, re0, im0, step_re, step_im);
 }
 
-// Hot kernel, attack span: out[k] += a_k Re(z_k) with a unit phasor z and a linear amplitude a;
-// lane amplitudes advance by the additive increment amp_step (= lanes * amplitude per frame).
 WANE_KERNEL_CLONES
 void add_ramped(float* __restrict out, std::size_t frames, const float* __restrict re0,
                 const float* __restrict im0, const float* __restrict amp0, float step_re,
                 float step_im, float amp_step) {
-    vfloat re[lane_vectors];
-    vfloat im[lane_vectors];
-    vfloat amp[lane_vectors];
-    for (std::size_t v = 0; v < lane_vectors; ++v) {
-        load_v(re[v], re0 + v * vfloat_width);
-        load_v(im[v], im0 + v * vfloat_width);
-        load_v(amp[v], amp0 + v * vfloat_width);
-    }
-    const std::size_t steps = frames / lanes;
-    for (std::size_t s = 0; s < steps; ++s) {
-        float* o = out + s * lanes;
-        for (std::size_t v = 0; v < lane_vectors; ++v) {
-            vfloat acc;
-            load_v(acc, o + v * vfloat_width);
-            store_v(o + v * vfloat_width, acc + amp[v] * re[v]);
-            const vfloat nr = re[v] * step_re - im[v] * step_im;
-            const vfloat ni = re[v] * step_im + im[v] * step_re;
-            re[v] = nr;
-            im[v] = ni;
-            amp[v] += amp_step;
-        }
-    }
-    float tail_re[lanes];
-    float tail_amp[lanes];
-    std::memcpy(tail_re, re, sizeof tail_re);
-    std::memcpy(tail_amp, amp, sizeof tail_amp);
-    float* o = out + steps * lanes;
-    for (std::size_t l = 0; l < frames - steps * lanes; ++l) o[l] += tail_amp[l] * tail_re[l];
+    damped_kernels::add_ramped_lanes(out, frames, re0, im0, amp0, step_re, step_im, amp_step);
 }
 
 enum class span_kind : unsigned char { ramp, decay };

@@ -6,6 +6,7 @@
 #include <vector>
 
 #include "core/harmonics.hpp"
+#include "core/units.hpp"
 
 namespace wane {
 
@@ -77,7 +78,7 @@ pitch_estimate estimate_pitch(std::span<const pitch_peak> all_peaks, const pitch
     if (peaks.size() > static_cast<std::size_t>(params.max_peaks)) peaks.resize(params.max_peaks);
     std::vector<double> amp(peaks.size());
     double total = 0.0;
-    for (std::size_t i = 0; i < peaks.size(); ++i) total += amp[i] = std::pow(10.0, peaks[i].level_db / 20.0);
+    for (std::size_t i = 0; i < peaks.size(); ++i) total += amp[i] = to_amp(level_db{peaks[i].level_db}).lin;
 
     double max_peak_hz = 0.0;
     for (const auto& p : peaks) max_peak_hz = std::max(max_peak_hz, p.freq_hz);

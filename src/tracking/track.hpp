@@ -3,6 +3,8 @@
 
 #include <vector>
 
+#include "spectrum/window.hpp"
+
 namespace wane {
 
 /// One frame of a partial track. time_s counts from the note's onset (frame centre).
@@ -31,6 +33,7 @@ struct tracking_result {
     /// weighted fit, pitch/series_fit.hpp); the harmonic numbers follow this series.
     double series_f0_hz = 0.0;
     double inharmonicity_b = 0.0;  ///< Fletcher's B of that series (0 when not harmonic)
+    window_kind window = window_kind::blackman_harris_4;  ///< the analysis window of the frames
     double hop_s = 0.0;
     double window_s = 0.0;
     int fft_size = 0;

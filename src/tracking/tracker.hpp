@@ -5,6 +5,7 @@
 #include <optional>
 #include <span>
 
+#include "core/analysis_error.hpp"
 #include "tracking/track.hpp"
 
 namespace wane {
@@ -19,7 +20,7 @@ struct tracking_params {
     int max_partials = 80;              ///< keep at most this many tracks, strongest first
 };
 
-/// Finds the onset, f0 and the partial tracks of a mono note. Throws std::invalid_argument with
+/// Finds the onset, f0 and the partial tracks of a mono note. Throws analysis_error with
 /// a user-facing message when there is nothing to track (e.g. "no partials above the noise floor").
 ///
 /// Steps (tracking/tracker.cpp): the DC offset (file mean) is removed; the onset is the first
@@ -34,10 +35,16 @@ struct tracking_params {
 /// max(5 frames, 1.5 windows) are dropped; fragments of one partial up to 0.3 s apart are joined
 /// (gap interpolated); frames stop 0.5 s after the last track ended. Harmonic numbers and B are
 /// refitted on the tracks (range grown from 10 f0, numbers chained upward; started from the hint
-/// when given) by the robust series fit of pitch/series_fit.hpp. Refuses (std::invalid_argument):
+/// when given) by the robust series fit of pitch/series_fit.hpp. Refuses (analysis_error):
 /// too short, NaN/Inf, constant (silence/DC), clipped, nothing above the noise floor.
 /// Tracks come out sorted by frequency; time_s of their points counts from onset_s.
 tracking_result track_note(std::span<const float> samples, double sample_rate_hz,
                            const tracking_params& params);
+
+/// A track's frequency: the amplitude-weighted median over its settled part (from
+/// max(0.1 s, 2 windows) after the onset, points 20 dB above the floor), so the loud early part,
+/// where the pitch is heard, counts most; the plain median of all points when that part is empty.
+/// window_s is the analysis window the track was measured with (tracking_result::window_s).
+double track_frequency_hz(const partial_track& track, double window_s);
 
 }  // namespace wane

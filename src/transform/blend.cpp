@@ -74,21 +74,14 @@ envelope blend_envelopes(const envelope& ea, const envelope& eb, double mix) {
     return out;
 }
 
-patch blend(const patch& a, const patch& b, const blend_params& params) {
-    assert(params.mix >= 0.0 && params.mix <= 1.0 && params.match_tolerance_cents >= 0.0);
-    if (a.version != b.version) {
-        throw transform_error("version", "cannot blend patches of different format versions (" +
-                                             std::to_string(a.version) + " and " + std::to_string(b.version) + ")");
-    }
-    const double mix = params.mix;
-    if (mix == 0.0) return a;
-    if (mix == 1.0) return b;
-    const bool a_dominant = mix <= 0.5;
-    const bool both_pitched = a.note.f0_hz > 0.0 && b.note.f0_hz > 0.0;
+namespace {
 
-    // Pairing: pair_of_a[i] = index into b.partials or unpaired.
+/// Pairs the partials of a with those of b: equal harmonic numbers first (when both are pitched),
+/// then the nearest frequencies within the tolerance, closest pairs first (ties: lower indices).
+/// Returns, per partial of a, the index into b.partials or unpaired; b_taken marks b's paired ones.
+std::vector<std::size_t> pair_partials(const patch& a, const patch& b, const blend_params& params, bool both_pitched,
+                                       std::vector<bool>& b_taken) {
     std::vector<std::size_t> pair_of_a(a.partials.size(), unpaired);
-    std::vector<bool> b_taken(b.partials.size(), false);
     if (both_pitched) {
         for (std::size_t i = 0; i < a.partials.size(); ++i) {
             if (a.partials[i].harmonic <= 0) continue;
@@ -117,6 +110,26 @@ patch blend(const patch& a, const patch& b, const blend_params& params) {
         pair_of_a[i] = j;
         b_taken[j] = true;
     }
+    return pair_of_a;
+}
+
+}  // namespace
+
+patch blend(const patch& a, const patch& b, const blend_params& params) {
+    assert(params.mix >= 0.0 && params.mix <= 1.0 && params.match_tolerance_cents >= 0.0);
+    if (a.version != b.version) {
+        throw transform_error("version", "cannot blend patches of different format versions (" +
+                                             std::to_string(a.version) + " and " + std::to_string(b.version) + ")");
+    }
+    const double mix = params.mix;
+    if (mix == 0.0) return a;
+    if (mix == 1.0) return b;
+    const bool a_dominant = mix <= 0.5;
+    const bool both_pitched = a.note.f0_hz > 0.0 && b.note.f0_hz > 0.0;
+
+    // Pairing: pair_of_a[i] = index into b.partials or unpaired.
+    std::vector<bool> b_taken(b.partials.size(), false);
+    const std::vector<std::size_t> pair_of_a = pair_partials(a, b, params, both_pitched, b_taken);
 
     const patch& dominant = a_dominant ? a : b;
     patch out;

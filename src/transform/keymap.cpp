@@ -3,7 +3,7 @@
 #include <cassert>
 #include <sstream>
 
-#include "transform/rng.hpp"
+#include "core/rng.hpp"
 
 namespace wane {
 

@@ -7,7 +7,7 @@
 #include <sstream>
 
 #include "core/harmonics.hpp"
-#include "transform/rng.hpp"
+#include "core/rng.hpp"
 
 namespace wane {
 
@@ -240,16 +240,15 @@ void check_peaks(const patch& p, const char* param, const char* what) {
 
 }  // namespace
 
-patch apply_transforms(const patch& p, const transform_params& params, double sample_rate_hz,
-                       transform_report* report) {
-    assert(params.decay_scale > 0.0 && params.a4_hz > 0.0 && sample_rate_hz >= 0.0);
-    const bool had_partials = !p.partials.empty();
-    transform_report counts;
-    std::size_t before = 0;
+namespace {
 
+/// Steps 1-3 of apply_transforms: parity, inharmonicity, transposition (and the decay that
+/// follows it). Returns the transposition ratio.
+double apply_pitch_steps(patch& out, const transform_params& params, bool had_partials, transform_report& counts) {
     // 1. Parity.
-    patch out = select_parity(p, params.parity);
-    counts.dropped_by_parity = p.partials.size() - out.partials.size();
+    const std::size_t before = out.partials.size();
+    out = select_parity(out, params.parity);
+    counts.dropped_by_parity = before - out.partials.size();
     if (had_partials && out.partials.empty()) {
         throw transform_error("parity", std::string("no partial is left after keeping only the ") +
                                             (params.parity == harmonic_parity::odd_only ? "odd" : "even") + " harmonics");
@@ -274,19 +273,14 @@ patch apply_transforms(const patch& p, const transform_params& params, double sa
         // Rule of thumb (no source): T60 scales as (f_new / f_old)^(-p).
         out = scale_decay(out, std::pow(ratio, -params.decay_pitch_exponent));
     }
+    return ratio;
+}
 
-    // 4. Decay.
-    if (params.decay_scale != 1.0) out = scale_decay(out, params.decay_scale);
-    if (params.decay_tilt != 0.0) out = tilt_decay(out, params.decay_tilt);
-
-    // 5. Level.
-    if (params.brightness_db_per_oct != 0.0) {
-        out = tilt_brightness(out, params.brightness_db_per_oct);
-        check_peaks(out, "brightness_db_per_oct", "the brightness tilt");
-    }
-    out.note.gain_db += params.gain_db;
-
-    // 6. Frequency ceiling, then Nyquist.
+/// Step 6 of apply_transforms: the frequency ceiling, then the Nyquist limit of sample_rate_hz
+/// (0: none). ratio names the transposition in the message when nothing is left.
+void drop_out_of_band(patch& out, const transform_params& params, double sample_rate_hz, double ratio,
+                      bool had_partials, transform_report& counts) {
+    std::size_t before = 0;
     if (params.max_freq_hz) {
         before = out.partials.size();
         out = drop_above(out, *params.max_freq_hz);
@@ -311,6 +305,34 @@ patch apply_transforms(const patch& p, const transform_params& params, double sa
             throw transform_error(params.to_midi ? "to_midi" : "transpose_semitones", s.str());
         }
     }
+}
+
+}  // namespace
+
+patch apply_transforms(const patch& p, const transform_params& params, double sample_rate_hz,
+                       transform_report* report) {
+    assert(params.decay_scale > 0.0 && params.a4_hz > 0.0 && sample_rate_hz >= 0.0);
+    const bool had_partials = !p.partials.empty();
+    transform_report counts;
+    std::size_t before = 0;
+
+    // 1-3. Parity, inharmonicity, transposition.
+    patch out = p;
+    const double ratio = apply_pitch_steps(out, params, had_partials, counts);
+
+    // 4. Decay.
+    if (params.decay_scale != 1.0) out = scale_decay(out, params.decay_scale);
+    if (params.decay_tilt != 0.0) out = tilt_decay(out, params.decay_tilt);
+
+    // 5. Level.
+    if (params.brightness_db_per_oct != 0.0) {
+        out = tilt_brightness(out, params.brightness_db_per_oct);
+        check_peaks(out, "brightness_db_per_oct", "the brightness tilt");
+    }
+    out.note.gain_db += params.gain_db;
+
+    // 6. Frequency ceiling, then Nyquist.
+    drop_out_of_band(out, params, sample_rate_hz, ratio, had_partials, counts);
 
     // 7. Keep the strongest.
     if (params.keep_strongest) {
@@ -326,7 +348,7 @@ patch apply_transforms(const patch& p, const transform_params& params, double sa
         check_peaks(out, "variation.level_jitter_db", "the level jitter");
         if (sample_rate_hz > 0.0) {
             before = out.partials.size();
-            out = drop_above(out, nyquist_hz);
+            out = drop_above(out, 0.5 * sample_rate_hz);
             counts.dropped_above_nyquist += before - out.partials.size();
         }
     }

@@ -28,7 +28,7 @@ MEASURED = {
     "timpani_d2": (73.31, 5), "xylophone_fs3": (184.93, 5),
 }
 # Measured to fall short of issue 17 and left open (printed, not failed): pizzicato_c2 is a string
-# section (several detuned strings); its root, the strongest partial numbered 1, sits 4.7 cents
+# section (several detuned strings); its root, the strongest partial numbered 1, sits 4.4 cents
 # under the long-FFT peak, which blends it with a second partial 1.1 Hz above.
 ROOT_SHORT = {"pizzicato_c2"}
 NAMES = ["C", "C#", "D", "D#", "E", "F", "F#", "G", "G#", "A", "A#", "B"]

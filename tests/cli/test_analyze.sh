@@ -3,13 +3,8 @@
 # patch; a folder of inputs with one corrupt file writes every good patch, names the bad file on
 # one error line and exits 1; bad options exit 2 naming the option; an output equal to an input
 # is refused.
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work/in" && cd "$work" || exit 1
-fail=0
-check() { if ! eval "$1"; then echo "FAIL: $1"; fail=1; fi; }
+source "$(dirname "$0")/preamble.sh"
+mkdir -p in
 
 sox -n -r 48000 -b 24 in/a220.wav synth 3 pluck 220 || { echo "FAIL: sox"; exit 1; }
 sox -n -r 48000 -b 24 in/b330.wav synth 3 pluck 330 || { echo "FAIL: sox"; exit 1; }

@@ -4,11 +4,7 @@
 # failed with "patch to write is invalid: noise 5: peak_db must be <= +24 dB": now it is analyzed
 # (exit 0) and every peak_db in the patch is at most +24 dB; two notes in a row (sox plucks) are
 # analyzed too. A recording with no partial to fit fails with exit 1 and a line naming the file.
-set -u
-wane=$1
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
+source "$(dirname "$0")/preamble.sh"
 sox -n -r 48000 -b 24 chirp.wav synth 3 sine 100-8000
 sox -n -r 48000 -b 24 a.wav synth 1 pluck 220 && sox -n -r 48000 -b 24 b.wav synth 2 pluck 330 && sox a.wav b.wav two.wav
 for f in chirp two; do

@@ -3,12 +3,8 @@
 # line "wane: error: ..." naming the bad file (and saying what is wrong), and no output file.
 # The bad files are made here: a good 16-bit WAV from sox (an independent writer), cut, patched
 # or replaced by bytes laid out by hand (RIFF WAVE layout, 44-byte canonical header).
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work/bad" && cd "$work" || exit 1
-fail=0
+source "$(dirname "$0")/preamble.sh"
+mkdir -p bad
 
 le16() { printf "\\x$(printf %02x $(($1 & 255)))\\x$(printf %02x $((($1 >> 8) & 255)))"; }
 le32() { le16 $(($1 & 65535)); le16 $((($1 >> 16) & 65535)); }

@@ -3,13 +3,7 @@
 # a note against itself gives distance 0 and equal decay times; against a copy 6 dB quieter
 # (sox vol -6dB) 6.0 dB within 0.05 dB; a copy padded by 12.5 ms aligns at 600 samples;
 # a copy at 44.1 kHz is resampled; bad input gives one error line and the right exit code.
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
-check() { if ! eval "$1"; then echo "FAIL: $1"; fail=1; fi; }
+source "$(dirname "$0")/preamble.sh"
 
 sox -n -r 48000 -b 24 a.wav synth 2 pluck 220 || exit 1
 sox a.wav b.wav vol -6dB || exit 1
@@ -47,7 +41,7 @@ for b in self_["octave_bands"]:
         expect(b["a"][t] == b["b"][t], f"self: {b['nominal_hz']} Hz {t} {b['a'][t]} == {b['b'][t]}")
         measured += t in ("t20_s", "t30_s") and b["a"][t] is not None
 expect(measured >= 2, f"self: {measured} decay times measured (>= 2)")
-# sox vol -6dB: every bin 6 dB down (issue acceptance: 6.0 dB within 0.05 dB).
+# sox vol -6dB: every bin 6 dB down (project requirement: 6.0 dB within 0.05 dB).
 for part in ("whole", "early"):
     d = quiet[part]["log_spectral_distance_db"]
     expect(abs(d - 6.0) <= 0.05, f"quiet: {part} log-spectral distance {d} = 6.0 +- 0.05")

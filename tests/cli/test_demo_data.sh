@@ -1,14 +1,9 @@
 #!/usr/bin/env bash
 # The committed demo notes are what the generator makes: regenerate them into the work folder
 # with the built tools/make_demo_notes and compare byte for byte with demo-data/.
-set -u
-wane=$1
-src=$2
-work=$3
+source "$(dirname "$0")/preamble.sh"
+mkdir -p notes
 gen="$(cd "$(dirname "$wane")" && pwd)/tools/make_demo_notes"  # the build folder's tools/
-src=$(cd "$src" && pwd)
-rm -rf "$work" && mkdir -p "$work/notes" && cd "$work" || exit 1
-fail=0
 [ -x "$gen" ] || { echo "FAIL: generator not built: $gen"; exit 1; }
 "$gen" notes || { echo "FAIL: $gen notes exited $?"; exit 1; }
 files=(steel-string-d3.wav tuned-bar-a3.wav tuned-bar-a3.json garden-bell-a4.wav)

@@ -1,13 +1,7 @@
 #!/usr/bin/env bash
 # The CLI skeleton: --help and --version work, every subcommand's help ends with examples,
 # bad usage exits 2 with a one-line "wane: error:" message.
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
-check() { if ! eval "$1"; then echo "FAIL: $1"; fail=1; fi; }
+source "$(dirname "$0")/preamble.sh"
 
 check '"$wane" --version | grep -q "^wane [0-9]"'
 check '"$wane" --help | grep -q "analyze"'

@@ -2,13 +2,7 @@
 # wane info: prints the note summary and the partial table of an example patch; a broken patch
 # exits 1 with one "wane: error:" line naming file:line:col; an unknown key warns and goes on.
 # Python's tomllib (an independent TOML parser) cross-checks the partial counts when present.
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
-check() { if ! eval "$1"; then echo "FAIL: $1"; fail=1; fi; }
+source "$(dirname "$0")/preamble.sh"
 
 pluck="$src/patches/steel-pluck.toml"
 "$wane" info "$pluck" >out.txt 2>err.txt; rc=$?

@@ -3,11 +3,8 @@
 # an input (directly, spelled differently, through a symbolic link, through a hard link) must
 # refuse with one "wane: error:" line and exit 1, and the input's bytes must not change (cmp
 # against a copy made first). The note is made by sox (an independent generator).
-set -u
-wane=$1
-work=$3
-rm -rf "$work" && mkdir -p "$work/sub" && cd "$work" || exit 1
-fail=0
+source "$(dirname "$0")/preamble.sh"
+mkdir -p sub
 
 sox -n -r 48000 -b 24 note.wav synth 2 pluck 220 || { echo "FAIL: sox"; exit 1; }
 "$wane" -q analyze note.wav -o patch.toml || { echo "FAIL: analyze of the test note"; exit 1; }

@@ -4,11 +4,7 @@
 # patch has appeared. Checks: exit code 128 + signal (130, 143), the one interrupt line on stderr,
 # no temporary file left in the output folder, every patch left there parses (`wane info`), and
 # every patch reported on stdout as written is there.
-set -u
-wane=$1
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
+source "$(dirname "$0")/preamble.sh"
 inputs=40
 for i in $(seq 1 $inputs); do
   sox -n -r 48000 -b 24 "n$i.wav" synth 3 pluck $((100 + i * 10)) || { echo "FAIL: sox"; exit 1; }

@@ -1,13 +1,7 @@
 #!/usr/bin/env bash
 # wane edit / blend / keymap from the command line: outputs, determinism and bad input (clear
 # one-line error naming the option, exit code, nothing written).
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
-check() { if ! eval "$1"; then echo "FAIL: $1"; fail=1; else echo "ok: $1"; fi; }
+source "$(dirname "$0")/preamble.sh"
 # expect_error CODE PATTERN cmd...: exit code CODE, stderr one line matching PATTERN.
 expect_error() {
   local code=$1 pattern=$2; shift 2

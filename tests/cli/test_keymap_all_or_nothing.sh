@@ -6,14 +6,10 @@
 # byte for byte (diff -r against a copy) and no hidden file; a set into a new folder on a full
 # disk fails and leaves no folder. Part (b) is skipped (exit 77, reported by CTest as skipped)
 # when the test is not root or cannot mount, since only root can mount a small file system.
-set -u
-wane=$1
-work=$3
+source "$(dirname "$0")/preamble.sh"
 mounted=""
 cleanup() { [ -n "$mounted" ] && umount "$mounted"; }
 trap cleanup EXIT
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
 cat > pluck.toml <<'TOML'
 format = "wane-patch"
 version = 1

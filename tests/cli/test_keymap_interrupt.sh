@@ -6,12 +6,7 @@
 # output folder, and the folder holds either exactly the previous set, byte for byte (cmp), or,
 # when the signal came during the final move (signals are held back then), every WAV of the new
 # set: never a mix.
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
+source "$(dirname "$0")/preamble.sh"
 runs=20
 patch="$src/patches/steel-pluck.toml"
 args=(--notes C2..C6 --layers 2 --rate 16000 --bits 16 --threads 2)

@@ -4,11 +4,7 @@
 # error line with the peak or "non-finite", no folder left) instead of being scaled by -240 dB or
 # failing on a NaN sample; a patch 6 dB over full scale is still scaled by one common gain (exit 0,
 # a warning naming the gain) and the loudest WAV then peaks at -1 dBFS as sox measures it.
-set -u
-wane=$1
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
+source "$(dirname "$0")/preamble.sh"
 write_patch() {  # NAME PEAK_DB T60_S
   cat > "$1.toml" <<TOML
 format = "wane-patch"

@@ -3,12 +3,7 @@
 # by render, edit, analyze and keymap, with no temporary left; (b) info escapes a patch name's
 # control characters (an ESC sequence shows as \x1b, no raw control byte reaches the terminal);
 # (c) 200,000 unknown keys give at most 11 warning lines, the last saying how many more there were.
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
+source "$(dirname "$0")/preamble.sh"
 patch="$src/patches/steel-pluck.toml"
 long=$(printf 'n%.0s' $(seq 1 246))   # 246 + ".wav" = 250 bytes
 "$wane" -q render "$patch" -o "$long.wav" --length-s 0.2 2>err.txt || { echo "FAIL: render to a 250-byte name: $(cat err.txt)"; fail=1; }

@@ -1,12 +1,9 @@
 #!/usr/bin/env bash
-# Issue "noise model" acceptance on our demo notes (pick and mallet noise): the multi-resolution
+# The noise bands bring the render closer to the source on our demo notes (pick and mallet noise): the multi-resolution
 # log-spectral distance between source and render over the first 100 ms after onset (wane
 # compare: STFT sizes 512, 1024, 2048, 4096, Hann, hop size/4, bins within 60 dB of the peak)
 # improves by at least 2 dB with the noise bands compared to without them.
-set -u
-wane=$1; src=$2; work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
+source "$(dirname "$0")/preamble.sh"
 early_lsd() { "$wane" compare "$1" "$2" --json | python3 -c 'import json,sys; print(json.load(sys.stdin)["early"]["log_spectral_distance_db"])'; }
 for note in steel-string-d3 tuned-bar-a3; do
   "$wane" -q analyze "$src/demo-data/$note.wav" -o "$note.toml" || { echo "FAIL: analyze $note"; fail=1; continue; }

@@ -3,12 +3,7 @@
 # "wane: error:" line naming the option that is wrong (not another one), numbers in short form
 # (no run of more than 12 digits), and no output written. Also: compare of two files whose rates
 # libsamplerate cannot convert names both files (exit 1); global -q works after the subcommand.
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
+source "$(dirname "$0")/preamble.sh"
 patch="$src/patches/steel-pluck.toml"
 # usage OPTION ARGS...: exit 2, one line naming OPTION, short numbers, out.* not written.
 usage() {

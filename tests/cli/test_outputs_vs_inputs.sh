@@ -2,11 +2,8 @@
 # Issue 21, item 2: every output path is checked against every input, reports included. Each case
 # must exit 1 with one "wane: error:" line saying what would be overwritten, and the input's bytes
 # must not change (cmp against a copy made first). The note is made by sox (independent generator).
-set -u
-wane=$1
-work=$3
-rm -rf "$work" && mkdir -p "$work/set" && cd "$work" || exit 1
-fail=0
+source "$(dirname "$0")/preamble.sh"
+mkdir -p set
 sox -n -r 48000 -b 24 note.wav synth 1 pluck 220 || { echo "FAIL: sox"; exit 1; }
 cp note.wav note.html && cp note.wav note.copy
 "$wane" -q analyze note.wav -o patch.toml || { echo "FAIL: analyze of the test note"; exit 1; }

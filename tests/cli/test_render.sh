@@ -4,13 +4,7 @@
 # the same bytes; bad options (rate outside 8-192 kHz, --length-s over 600 s) fail with exit 2 and
 # bad input (a patch longer than 600 s, more than 40 dB over full scale) with exit 1, each with one
 # "wane: error:" line naming the option or file, and no file written.
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
-check() { if ! eval "$1"; then echo "FAIL: $1"; fail=1; fi; }
+source "$(dirname "$0")/preamble.sh"
 
 # A single partial at 1000 Hz, -6.02 dBFS (amplitude 0.5), held (t60 = inf), phase 0, no attack:
 # sox must see a peak of 0.5 and a 1000 Hz tone.

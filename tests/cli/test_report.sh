@@ -1,16 +1,10 @@
 #!/usr/bin/env bash
 # wane report through the CLI on a demo note: exit 0, one self-contained HTML file under 3 MB
-# (issue 9) with every section; when Chromium is installed, the page rendered headless to a PNG
+# with every section; when Chromium is installed, the page rendered headless to a PNG
 # has non-trivial content (many colours, the orange track overlay, ink and paper); bad input
 # gives exit 1, one `wane: error:` line and no HTML left behind.
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
-check() { if ! eval "$1"; then echo "FAIL: $1"; fail=1; else echo "ok   $1"; fi; }
-max_bytes=3000000  # issue 9 acceptance: under 3 MB for a 4 s note
+source "$(dirname "$0")/preamble.sh"
+max_bytes=3000000  # project requirement: under 3 MB for a 4 s note
 
 cp "$src/demo-data/steel-string-d3.wav" note.wav || exit 1
 "$wane" analyze note.wav -o note.toml > analyze.txt 2>&1; check '[ $? -eq 0 ]'

@@ -3,16 +3,14 @@
 // Interface and Data Specifications 1.0", 1991; AIFF: Apple "Audio Interchange File Format 1.3",
 // 1989; FLAC STREAMINFO: xiph.org FLAC format description; all from memory). Each must give an
 // io_error naming the file on one line (libsndfile's own reason passed on when libsndfile refuses
-// to open it), never a crash or another exception type, in well under a second and with bounded
-// memory.
+// to open it), never a crash or another exception type, with a bounded number of bytes allocated
+// (counted through operator new: tests/unit/allocation_count.hpp).
 #include <catch2/catch.hpp>
 
 #include <sndfile.h>
-#include <sys/resource.h>
 #include <unistd.h>
 
 #include <atomic>
-#include <chrono>
 #include <cstdint>
 #include <cstdlib>
 #include <cstring>
@@ -23,6 +21,7 @@
 #include <string>
 #include <vector>
 
+#include "allocation_count.hpp"
 #include "io/audio_file.hpp"
 #include "io/errors.hpp"
 #include "test_support.hpp"
@@ -82,22 +81,15 @@ std::size_t chunk_offset(const std::string& file, const char* id, bool big_endia
     return 0;
 }
 
-long max_rss_kib() {
-    rusage usage{};
-    getrusage(RUSAGE_SELF, &usage);
-    return usage.ru_maxrss;
-}
-
-/// Longest a refusal may take (generous: these files are a few kB and the checks are header walks).
-constexpr double max_refusal_s = 1.0;
-/// Peak resident memory the whole test program may reach (KiB). The files are at most ~100 kB; a
-/// reader that believed a header claiming 1e9 frames would need 4 GB for the samples alone.
-constexpr long max_rss_allowed_kib = 256L * 1024L;
+/// Most bytes a refusal may allocate (through operator new; counted, not timed). The files are at
+/// most ~100 kB; a reader that believed a header claiming 1e9 frames would allocate 4 GB for the
+/// samples alone.
+constexpr std::size_t max_refusal_bytes = std::size_t{256} << 20;
 
 /// The message read_audio throws for this file, checked for: io_error (no other exception), one
-/// line naming the file and containing `expect`, time and memory bounds.
+/// line naming the file and containing `expect`, and the bytes allocated on the way.
 std::string expect_refused(const fs::path& file, const std::string& expect, const audio_read_options& options = {}) {
-    const auto t0 = std::chrono::steady_clock::now();
+    const test::allocation_peak_scope counted;
     std::string message;
     std::string other;
     try {
@@ -108,16 +100,14 @@ std::string expect_refused(const fs::path& file, const std::string& expect, cons
     } catch (const std::exception& e) {
         other = std::string("wrong exception type: ") + e.what();
     }
-    const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-    const long rss_kib = max_rss_kib();
+    const std::size_t allocated_bytes = counted.peak_bytes();
     INFO("file " << file.filename().string() << ": message '" << message << "' " << other);
-    CAPTURE(seconds, rss_kib, expect);
+    CAPTURE(allocated_bytes, expect);
     REQUIRE(other.empty());
     CHECK_THAT(message, Contains(file.string()));
     CHECK_THAT(message, Contains(expect));
     CHECK(message.find('\n') == std::string::npos);
-    CHECK(seconds < max_refusal_s);
-    CHECK(rss_kib < max_rss_allowed_kib);
+    CHECK(allocated_bytes < max_refusal_bytes);
     return message;
 }
 

@@ -7,7 +7,6 @@
 
 #include <cmath>
 #include <cstdint>
-#include <random>
 #include <vector>
 
 #include "core/units.hpp"
@@ -16,6 +15,7 @@
 #include "measure/decay.hpp"
 #include "measure/octave_filter.hpp"
 #include "measure/spectral_distance.hpp"
+#include "test_signals.hpp"
 
 using Catch::Matchers::WithinAbs;
 using Catch::Matchers::WithinRel;
@@ -28,9 +28,9 @@ constexpr double rate_hz = 48000.0;
 /// White Gaussian noise with an exponential amplitude envelope falling 60 dB in t60_s, plus an
 /// optional steady noise floor (separate seed) floor_db below the initial RMS.
 std::vector<float> decaying_noise(double t60_s, double length_s, std::uint32_t seed, double floor_db = -infinity) {
-    std::mt19937 gen(seed);
-    std::mt19937 gen_floor(seed ^ 0x5a5a5a5au);
-    std::normal_distribution<double> normal(0.0, 1.0);
+    splitmix64 gen{seed};
+    splitmix64 gen_floor{seed ^ 0x5a5a5a5au};
+    const test::gaussian_draw<double> normal{0.0, 1.0};
     const std::size_t n = static_cast<std::size_t>(length_s * rate_hz);
     const double amp0 = 0.1;
     const double floor_amp = amp0 * std::pow(10.0, floor_db / 20.0);
@@ -45,8 +45,8 @@ std::vector<float> decaying_noise(double t60_s, double length_s, std::uint32_t s
 
 /// A plucked-note stand-in: three partials with their own T60s and a short noise burst.
 std::vector<float> test_note(double length_s) {
-    std::mt19937 gen(1234);
-    std::normal_distribution<double> normal(0.0, 1.0);
+    splitmix64 gen{1234};
+    const test::gaussian_draw<double> normal{0.0, 1.0};
     const std::size_t n = static_cast<std::size_t>(length_s * rate_hz);
     const std::size_t pre = 2400;  // 50 ms of silence before the onset
     std::vector<float> x(n, 0.0f);
@@ -200,8 +200,8 @@ TEST_CASE("Schroeder curve of an exact exponential decay is a straight line", "[
 TEST_CASE("decay of an exponentially decaying sine", "[measure][decay]") {
     // 440 Hz, T60 = 1.2 s, 4 s long, steady noise floor 90 dB below the start.
     const double t60_s = 1.2;
-    std::mt19937 gen(7);
-    std::normal_distribution<double> normal(0.0, 1.0);
+    splitmix64 gen{7};
+    const test::gaussian_draw<double> normal{0.0, 1.0};
     std::vector<float> x(static_cast<std::size_t>(4.0 * rate_hz));
     for (std::size_t i = 0; i < x.size(); ++i) {
         const double t = static_cast<double>(i) / rate_hz;
@@ -222,8 +222,8 @@ TEST_CASE("decay of an exponentially decaying sine", "[measure][decay]") {
 /// spectrum (every bin 1 .. N/2 at magnitude 1, seeded uniform random phases, DC 0) made with
 /// FFTW's inverse real FFT, normalised to RMS 1, repeated to length_frames.
 std::vector<double> periodic_white_noise(int period_frames, std::size_t length_frames, std::uint32_t seed) {
-    std::mt19937 gen(seed);
-    std::uniform_real_distribution<double> phase(0.0, two_pi);
+    splitmix64 gen{seed};
+    const test::uniform_draw<double> phase{0.0, two_pi};
     std::vector<double> period(static_cast<std::size_t>(period_frames));
     fftw_complex* spec = fftw_alloc_complex(static_cast<std::size_t>(period_frames / 2 + 1));
     fftw_plan plan = fftw_plan_dft_c2r_1d(period_frames, spec, period.data(), FFTW_ESTIMATE);
@@ -248,7 +248,7 @@ std::vector<double> periodic_white_noise(int period_frames, std::size_t length_f
 TEST_CASE("T30 of decaying white noise in octave bands 250 Hz .. 4 kHz", "[measure][decay]") {
     // Periodic pseudo-random white noise (period 0.1 s) under an exponential envelope with
     // T60 = 1.5 s, and a steady Gaussian floor 80 dB below the start: every octave band decays at
-    // the same known rate, so T30 = 1.5 s within 2 % (issue acceptance). Periodic noise has the
+    // the same known rate, so T30 = 1.5 s within 2 % (project requirement). Periodic noise has the
     // same band power in every period, so no realisation-to-realisation spread enters.
     const double t60_s = 1.5;
     const std::uint32_t seed = GENERATE(1u, 2u, 3u);
@@ -324,7 +324,7 @@ TEST_CASE("spectral distance: self 0, a copy 6 dB quieter 6.0 dB", "[measure][sp
     for (std::size_t i = 0; i < a.size(); ++i) b[i] = static_cast<float>(gain * static_cast<double>(a[i]));
     const spectral_distance_result quieter = spectral_distance(a, b);
     CAPTURE(quieter.log_spectral_distance_db, quieter.spectral_convergence);
-    // Every bin is 6 dB lower: exactly 6 dB and |1 - gain| = 0.49881 (issue acceptance: within 0.05 dB).
+    // Every bin is 6 dB lower: exactly 6 dB and |1 - gain| = 0.49881 (project requirement: within 0.05 dB).
     CHECK_THAT(quieter.log_spectral_distance_db, WithinAbs(6.0, 0.05));
     CHECK_THAT(quieter.spectral_convergence, WithinAbs(1.0 - gain, 1e-5));
     for (const auto& r : quieter.per_resolution) {
@@ -337,8 +337,8 @@ TEST_CASE("spectral distance: self 0, a copy 6 dB quieter 6.0 dB", "[measure][sp
 TEST_CASE("spectral distance matches a direct FFTW computation", "[measure][spectral]") {
     // Two different random signals, one resolution (N = 1024, hop 256, periodic Hann), frames
     // centred at 0, 256, ... < length; the definitions of spectral_distance.hpp computed with FFTW.
-    std::mt19937 gen(99);
-    std::normal_distribution<double> normal(0.0, 1.0);
+    splitmix64 gen{99};
+    const test::gaussian_draw<double> normal{0.0, 1.0};
     const std::size_t len = 20000;
     std::vector<float> a(len), b(len);
     for (std::size_t i = 0; i < len; ++i) {
@@ -462,8 +462,8 @@ TEST_CASE("spectral distance: bins above the band limit do not count", "[measure
     // over the whole band the tone's bins (far above a's level there) dominate. Frames are kept
     // inside the signal (centres 2048 .. N - 2048): a frame reaching past the ends cuts the tone
     // off abruptly, and that leaks everywhere.
-    std::mt19937 gen(5);
-    std::normal_distribution<double> normal(0.0, 1.0);
+    splitmix64 gen{5};
+    const test::gaussian_draw<double> normal{0.0, 1.0};
     std::vector<float> a(24000), b(24000);
     for (std::size_t i = 0; i < a.size(); ++i) {
         a[i] = static_cast<float>(0.05 * normal(gen));

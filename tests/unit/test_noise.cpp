@@ -11,6 +11,8 @@
 
 #include "analysis/analyze.hpp"
 #include "core/noise_bands.hpp"
+#include "core/rng.hpp"
+#include "measure/octave_filter.hpp"  // with core/noise_bands.hpp: one octave_ratio_base10
 #include "synthesis/noise_render.hpp"
 #include "synthesis/render.hpp"
 
@@ -22,24 +24,12 @@ namespace {
 
 constexpr double rate_hz = 48000.0;
 
-/// splitmix64 -> uniform (0, 1) -> Gaussian by Box-Muller: a fixed-seed white noise of our own.
-struct test_rng {
-    std::uint64_t s;
-    double uniform() {
-        std::uint64_t z = (s += 0x9e3779b97f4a7c15ULL);
-        z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
-        z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
-        z ^= z >> 31;
-        return (static_cast<double>(z >> 11) + 0.5) / 9007199254740992.0;
-    }
-    double gauss() { return std::sqrt(-2.0 * std::log(uniform())) * std::cos(2.0 * 3.141592653589793 * uniform()); }
-};
 
 /// White noise band-passed by FFTW (bins outside [low, high) zeroed), scaled to unit power.
 std::vector<double> band_noise(std::size_t n, double low_hz, double high_hz, std::uint64_t seed) {
-    test_rng rng{seed};
+    splitmix64 rng{seed};  // the project's generator (core/rng.hpp)
     std::vector<double> x(n);
-    for (double& v : x) v = rng.gauss();
+    for (double& v : x) v = rng.gaussian();
     const std::size_t bins = n / 2 + 1;
     auto* spec = static_cast<fftw_complex*>(fftw_malloc(sizeof(fftw_complex) * bins));
     fftw_plan fwd = fftw_plan_dft_r2c_1d(static_cast<int>(n), x.data(), spec, FFTW_ESTIMATE);
@@ -88,6 +78,22 @@ const noise_band* band_containing(const patch& p, double freq_hz) {
 
 }  // namespace
 
+TEST_CASE("noise bands from 125 Hz up have the edges of the IEC octave bands the measurement filters use", "[noise]") {
+    // One band definition (core/octave_bands.hpp): the noise layout's octave bands are
+    // octave_band_at(-3 .. 4) (nominal 125 Hz .. 16 kHz), below them one band from 20 Hz.
+    const std::vector<band_edges> layout = noise_band_layout(24000.0);
+    REQUIRE(layout.size() == 9);
+    CHECK(layout[0].low_hz == 20.0);
+    CHECK_THAT(layout[0].high_hz, Catch::Matchers::WithinRel(octave_band_at(-3).lower_edge_hz, 1e-12));
+    for (int x = -3; x <= 4; ++x) {
+        const band_edges& b = layout[static_cast<std::size_t>(x + 4)];
+        const octave_band iec = octave_band_at(x);
+        CAPTURE(x, b.low_hz, b.high_hz, iec.lower_edge_hz, iec.upper_edge_hz);
+        CHECK_THAT(b.low_hz, Catch::Matchers::WithinRel(iec.lower_edge_hz, 1e-12));
+        CHECK_THAT(b.high_hz, Catch::Matchers::WithinRel(iec.upper_edge_hz, 1e-12));
+    }
+}
+
 TEST_CASE("band noise with known decays plus two partials: band T60s within 10%, partials unchanged", "[noise]") {
     // Three octave bands of the layout (1000 G^k, k = -6, 0, 6: 251 Hz, 1 kHz, 3981 Hz) with
     // T60 0.05 s, 0.2 s and 1 s; partials at 523.25 Hz and 2093 Hz (outside those bands), T60 3 s.
@@ -115,9 +121,9 @@ TEST_CASE("band noise with known decays plus two partials: band T60s within 10%,
                     std::cos(2.0 * 3.141592653589793 * f * t);
         }
     }
-    test_rng floor_rng{99};
+    splitmix64 floor_rng{99};
     std::vector<float> samples(n);
-    for (std::size_t i = 0; i < n; ++i) samples[i] = static_cast<float>(x[i] + 1e-5 * floor_rng.gauss());
+    for (std::size_t i = 0; i < n; ++i) samples[i] = static_cast<float>(x[i] + 1e-5 * floor_rng.gaussian());
 
     const analysis_result r = analyze_note(samples, rate_hz, {});
     const patch& p = r.value;

@@ -1,13 +1,12 @@
 // The patch format (version 1): canonical writing, byte-identical round trips, and validation
 // errors that name file, line and key. The reference for each rule is the format definition
-// (issue 3, patches/README.md); TOML syntax facts cite the TOML v1.0.0 specification.
+// (patches/README.md); TOML syntax facts cite the TOML v1.0.0 specification.
 #include <catch2/catch.hpp>
 
 #include <algorithm>
 #include <cmath>
 #include <filesystem>
 #include <fstream>
-#include <random>
 #include <sstream>
 #include <string>
 #include <vector>
@@ -16,6 +15,7 @@
 #include "core/patch.hpp"
 #include "io/errors.hpp"
 #include "io/patch_toml.hpp"
+#include "test_signals.hpp"
 
 using Catch::Matchers::Contains;
 using Catch::Matchers::StartsWith;
@@ -179,8 +179,8 @@ TEST_CASE("writing is canonical: comment block, key order, sorted partials and b
 }
 
 TEST_CASE("parse(format(p)) == p for a generated patch with noise bands and inf T60", "[patch]") {
-    std::mt19937 rng(12345);  // fixed seed
-    std::uniform_real_distribution<double> u(0.0, 1.0);
+    splitmix64 rng{12345};  // fixed seed
+    const test::uniform_draw<double> u{0.0, 1.0};
     // Values on the file's grid (k / 10^d is the double nearest that decimal, as strtod gives).
     const auto grid = [](double v, int decimals) {
         const double s = std::pow(10.0, decimals);
@@ -230,8 +230,8 @@ TEST_CASE("parse(format(p)) == p for a generated patch with noise bands and inf 
 }
 
 TEST_CASE("values off the file's grid are rounded on load, so the writer round-trips them", "[patch]") {
-    std::mt19937 rng(777);  // fixed seed
-    std::uniform_real_distribution<double> u(0.0, 1.0);
+    splitmix64 rng{777};  // fixed seed
+    const test::uniform_draw<double> u{0.0, 1.0};
     patch p = parse_patch(base_text, "pluck.toml").value;
     for (partial& q : p.partials) q.freq_hz *= 1.0 + 1e-3 * u(rng);  // full double precision
     const std::string text = format_patch(p);

@@ -13,7 +13,7 @@
 #include "pitch/root.hpp"
 #include "pitch/series_fit.hpp"
 #include "synthesis/render.hpp"
-#include "transform/rng.hpp"
+#include "core/rng.hpp"
 #include "transform/transform.hpp"
 
 using Catch::Matchers::WithinAbs;

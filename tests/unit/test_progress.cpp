@@ -13,7 +13,7 @@
 #include <thread>
 #include <vector>
 
-#include "io/progress.hpp"
+#include "platform/progress.hpp"
 
 using namespace wane;
 

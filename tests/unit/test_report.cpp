@@ -30,8 +30,8 @@ constexpr double rate_hz = 48000.0;
 constexpr double f0_hz = 220.0;
 constexpr int harmonics = 8;
 constexpr double lead_in_s = 0.1;  // silence before the onset, as in a recording
-constexpr double note_s = 4.0;     // "a 4 s note" (issue 9 acceptance)
-constexpr std::size_t max_report_bytes = 3'000'000;  // issue 9 acceptance: under 3 MB
+constexpr double note_s = 4.0;     // the size requirement is stated for a 4 s note
+constexpr std::size_t max_report_bytes = 3'000'000;  // project requirement: under 3 MB
 
 /// A plucked-string-like patch: harmonics 1..8 of 220 Hz, falling 4 dB per harmonic, each
 /// decaying in two stages (faster first), as in patch format v1.
@@ -374,7 +374,7 @@ TEST_CASE("SVG plots are balanced and each envelope plot shows its own partial's
         CAPTURE(freq, track);
         REQUIRE(!freq.empty());
         REQUIRE(!track.empty());
-        // Ground truth: the synthetic partial sits at exactly n f0; its track's mean is within 0.1%.
+        // Ground truth: the synthetic partial sits at exactly n f0; its track's frequency is within 0.1%.
         CHECK_THAT(std::stod(track), WithinRel(std::stod(freq), 0.001));
         track_freqs_hz.push_back(std::stod(track));
         const std::size_t end = envelopes.find("</svg>", at);

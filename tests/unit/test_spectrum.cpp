@@ -10,7 +10,6 @@
 #include <complex>
 #include <cstdlib>
 #include <filesystem>
-#include <random>
 #include <string>
 #include <vector>
 
@@ -18,6 +17,7 @@
 #include "spectrum/peaks.hpp"
 #include "spectrum/stft.hpp"
 #include "spectrum/window.hpp"
+#include "test_signals.hpp"
 
 using Catch::Matchers::WithinAbs;
 using Catch::Matchers::WithinRel;
@@ -107,8 +107,8 @@ TEST_CASE("STFT frame equals FFTW's transform of the same zero-phase frame", "[s
     const int fft_size = GENERATE(2048, 2400, 4096);
     constexpr int window_length = 1001;
     constexpr std::int64_t centre = 1500;
-    std::mt19937 rng(12345);
-    std::uniform_real_distribution<float> uni(-1.0f, 1.0f);
+    splitmix64 rng{12345};
+    const test::uniform_draw<float> uni{-1.0f, 1.0f};
     std::vector<float> x(4000);
     for (float& v : x) v = uni(rng);
 
@@ -211,9 +211,9 @@ TEST_CASE("frequency error of a sinusoid in white noise stays within 2x the Cram
     const auto kind = c.kind;
     const int fft_size = fast_fft_size(2 * length);
     stft_plan plan({.window = kind, .window_length = length, .fft_size = fft_size});
-    std::mt19937_64 rng(20260101u + static_cast<unsigned>(snr_db));
-    std::normal_distribution<double> gauss(0.0, 1.0);
-    std::uniform_real_distribution<double> uni(0.0, 1.0);
+    splitmix64 rng{20260101u + static_cast<unsigned>(snr_db)};
+    const test::gaussian_draw<double> gauss{0.0, 1.0};
+    const test::uniform_draw<double> uni{0.0, 1.0};
     const double amp = 0.5;
     // SNR = A^2 / (2 sigma^2).
     const double sigma = amp / std::sqrt(2.0 * std::pow(10.0, snr_db / 10.0));
@@ -251,8 +251,8 @@ TEST_CASE("noise floor reads the mean noise power of white noise", "[spectrum][f
     constexpr int length = 2049;
     const int fft_size = fast_fft_size(2 * length);
     stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = length, .fft_size = fft_size});
-    std::mt19937 rng(777);
-    std::normal_distribution<float> gauss(0.0f, 0.01f);
+    splitmix64 rng{777};
+    const test::gaussian_draw<float> gauss{0.0f, 0.01f};
     std::vector<float> x(48000);
     for (float& v : x) v = gauss(rng);
     double sw = 0.0, sw2 = 0.0;
@@ -263,8 +263,18 @@ TEST_CASE("noise floor reads the mean noise power of white noise", "[spectrum][f
         plan.analyze(x, c);
         floor.update(plan.power());
     }
+    // One band's reading scatters: the 20% quantile of ~24 bins' powers has a relative standard
+    // deviation of about sqrt(0.2 * 0.8 / 24) / 0.8 / 0.223 = 46 % (1.9 dB), and the running
+    // average spans only a few independent frames (heavily overlapped windows), so about 1.2 dB
+    // remain: 3 dB is 2.5 of those. The mean over many bands averages the scatter away: 0.5 dB.
     for (double f_hz : {500.0, 5000.0, 15000.0}) {
         CAPTURE(f_hz, floor.floor_db_at(f_hz), expected_db);
-        CHECK_THAT(floor.floor_db_at(f_hz), WithinAbs(expected_db, 1.5));
+        CHECK_THAT(floor.floor_db_at(f_hz), WithinAbs(expected_db, 3.0));
     }
+    double sum_db = 0.0;
+    int bands = 0;
+    for (double f_hz = 250.0; f_hz < 20000.0; f_hz += 250.0, ++bands) sum_db += floor.floor_db_at(f_hz);
+    const double mean_db = sum_db / bands;
+    CAPTURE(bands, mean_db, expected_db);
+    CHECK_THAT(mean_db, WithinAbs(expected_db, 0.5));
 }

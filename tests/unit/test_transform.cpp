@@ -25,7 +25,7 @@
 #include "synthesis/render.hpp"
 #include "transform/blend.hpp"
 #include "transform/keymap.hpp"
-#include "transform/rng.hpp"
+#include "core/rng.hpp"
 #include "transform/transform.hpp"
 
 using Catch::Matchers::WithinAbs;

@@ -1,4 +1,4 @@
-#include "io/progress.hpp"
+#include "platform/progress.hpp"
 
 #include <unistd.h>
 

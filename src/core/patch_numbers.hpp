@@ -1,0 +1,38 @@
+// The patch file's number formats: one fixed format per quantity (the precision each needs and why
+// is in patch_numbers.cpp). The writer prints with them and the reader rounds with them, so that
+// reading a file the writer wrote and writing it again gives the same bytes. Locale independent.
+#pragma once
+
+#include <string>
+
+#include "core/patch.hpp"
+
+namespace wane::patch_numbers {
+
+/// Fixed notation with `decimals` digits after the point; "inf"/"-inf" for infinities (TOML
+/// spelling); a negative zero prints without its sign so "-0.000" never appears.
+std::string fmt_fixed(double v, int decimals);
+/// Scientific notation with `digits` digits after the point, e.g. "2.1000e-04" (valid TOML).
+std::string fmt_sci(double v, int digits);
+
+std::string fmt_freq(double v);       ///< partial and f0 frequencies, 1e-6 Hz
+std::string fmt_band_edge(double v);  ///< noise band edges, 0.01 Hz
+std::string fmt_phase(double v);      ///< phases, 1e-5 rad
+std::string fmt_time(double v);       ///< envelope times and length, 0.1 ms
+std::string fmt_align(double v);      ///< onset in the source, window and hop, 1 us
+std::string fmt_level(double v);      ///< levels and gains, 0.01 dB
+std::string fmt_t60(double v);        ///< T60s, 0.1 ms
+std::string fmt_b(double v);          ///< inharmonicity B, 5 significant digits
+std::string fmt_cents(double v);      ///< the root's tuning, 0.001 cent
+std::string fmt_a4(double v);         ///< A4 of the root's temperament, 0.001 Hz
+/// A sample rate: an integer when it is one (at 1e-6 Hz resolution), e.g. "48000".
+std::string fmt_rate(double v);
+
+/// Rounds every number to the precision the file keeps, so that reading a patch gives exactly the
+/// model the writer would write: parse(format(p)) == p for every patch the reader returns.
+void round_to_file_precision(patch& p);
+
+/// Shortest round-trip text of a number, for messages.
+std::string show(double v);
+
+}  // namespace wane::patch_numbers

@@ -1,0 +1,201 @@
+// The patch format's rules (see patch_rules.hpp).
+#include "core/patch_rules.hpp"
+
+#include <cmath>
+
+#include "core/patch_numbers.hpp"
+
+namespace wane::patch_rules {
+
+using patch_numbers::show;
+
+// ---------------------------------------------------------------------------------------------
+// Paths and messages.
+//
+// A path names a value: "note.length_s", "source.analysis.hop_s", "partial[3].decay[2].t60_s",
+// "noise[1].low_hz" (indices 1-based). Messages show it as "partial 3: decay[2].t60_s ...".
+
+std::string indexed(std::string_view name, std::size_t index0) {
+    return std::string(name) + "[" + std::to_string(index0 + 1) + "]";
+}
+
+/// "partial[3].decay[2].t60_s" -> "partial 3: decay[2].t60_s"; "note.f0_hz" stays.
+std::string display(const std::string& path) {
+    for (const char* list : {"partial[", "noise["}) {
+        const std::string_view prefix(list);
+        if (path.compare(0, prefix.size(), prefix) == 0) {
+            const std::size_t close = path.find(']');
+            std::string out = std::string(prefix.substr(0, prefix.size() - 1)) + " " +
+                              path.substr(prefix.size(), close - prefix.size());
+            if (close + 1 < path.size()) out += ": " + path.substr(close + 2);
+            return out;
+        }
+    }
+    return path;
+}
+
+namespace {
+
+// ---------------------------------------------------------------------------------------------
+// The rules, over the model (used by the reader with source positions, by the writer without).
+
+struct validator {
+    fail_fn fail;
+
+    void not_nan(const std::string& path, double v) const {
+        if (std::isnan(v)) fail(path, "must not be NaN");
+    }
+    void finite(const std::string& path, double v) const {
+        not_nan(path, v);
+        if (std::isinf(v)) fail(path, "must be finite, not " + show(v));
+    }
+    /// lo <= v <= hi (lo < v when open_low).
+    void within(const std::string& path, double v, double lo, double hi, const char* unit,
+                bool open_low = false) const {
+        finite(path, v);
+        const bool low_ok = open_low ? v > lo : v >= lo;
+        if (!low_ok || !(v <= hi)) {
+            fail(path, std::string("must be in ") + (open_low ? "(" : "[") + show(lo) + ", " + show(hi) + "]" + unit +
+                           ", not " + show(v));
+        }
+    }
+    void text(const std::string& path, const std::string& s) const {
+        if (s.size() > max_string_bytes) {
+            fail(path, "is " + std::to_string(s.size()) + " bytes long; at most " + std::to_string(max_string_bytes) +
+                           " are allowed");
+        }
+    }
+
+    void check_envelope(const std::string& base, const envelope& env) const {
+        not_nan(base + ".attack_s", env.attack_s);
+        if (env.attack_s < 0.0) fail(base + ".attack_s", "must be >= 0, not " + show(env.attack_s));
+        within(base + ".attack_s", env.attack_s, 0.0, max_length_s, " s");
+        finite(base + ".peak_db", env.peak.db);
+        if (env.peak.db > max_peak_db) {
+            fail(base + ".peak_db", "must be <= +" + show(max_peak_db) + " dB, not " + show(env.peak.db));
+        }
+        within(base + ".peak_db", env.peak.db, min_level_db, max_peak_db, " dB");
+        if (env.decay.empty()) fail(base + ".decay", "needs at least one segment, e.g. [ { t60_s = 2.0 } ]");
+        if (env.decay.size() > max_decay_segments) {
+            fail(base + ".decay", "has " + std::to_string(env.decay.size()) + " segments; at most " +
+                                      std::to_string(max_decay_segments) + " are allowed");
+        }
+        double prev_end_s = env.attack_s;
+        std::string prev_name = "attack_s";
+        for (std::size_t i = 0; i < env.decay.size(); ++i) {
+            const decay_segment& seg = env.decay[i];
+            const std::string seg_path = base + "." + indexed("decay", i);
+            not_nan(seg_path + ".t60_s", seg.t60_s);
+            if (seg.t60_s == 0.0) fail(seg_path + ".t60_s", "must not be 0 (use inf to hold the level)");
+            const bool last = i + 1 == env.decay.size();
+            if (last) {
+                if (seg.until_s) {
+                    fail(seg_path + ".until_s",
+                         "is not allowed on the last segment, which runs to the end of the note");
+                }
+                break;
+            }
+            if (!seg.until_s) {
+                fail(seg_path, "needs until_s (every segment but the last ends at its until_s)");
+            }
+            const double until_s = *seg.until_s;
+            finite(seg_path + ".until_s", until_s);
+            if (!(until_s > prev_end_s)) {
+                fail(seg_path + ".until_s", "(" + show(until_s) + ") must be after " + prev_name + " (" +
+                                                show(prev_end_s) + ")");
+            }
+            within(seg_path + ".until_s", until_s, 0.0, max_length_s, " s");
+            prev_end_s = until_s;
+            prev_name = indexed("decay", i) + ".until_s";
+        }
+    }
+
+    void check(const patch& p) const {
+        const note_info& n = p.note;
+        text("note.name", n.name);
+        within("note.f0_hz", n.f0_hz, 0.0, max_freq_hz, " Hz");
+        within("note.length_s", n.length_s, 0.0, max_length_s, " s", true);
+        within("note.inharmonicity_b", n.inharmonicity_b, 0.0, max_inharmonicity_b, "");
+        within("note.gain_db", n.gain_db, min_level_db, max_peak_db, " dB");
+        if (n.root.method != root_method::unstated && n.root.method != root_method::unpitched) {
+            within("note.tuning_cents", n.root.tuning_cents, -max_tuning_cents, max_tuning_cents, " cents");
+            within("note.a4_hz", n.root.a4_hz, min_a4_hz, max_a4_hz, " Hz");
+        }
+
+        text("source.file", p.source.file);
+        within("source.sample_rate_hz", p.source.sample_rate_hz, 0.0, max_sample_rate_hz, " Hz");
+        within("source.onset_s", p.source.onset_s, 0.0, max_onset_s, " s");
+        if (p.source.analysis) {
+            const analysis_settings& a = *p.source.analysis;
+            text("source.analysis.window", a.window);
+            within("source.analysis.fft_size", a.fft_size, 1.0, max_fft_size, "");
+            within("source.analysis.window_s", a.window_s, 0.0, max_length_s, " s", true);
+            within("source.analysis.hop_s", a.hop_s, 0.0, max_length_s, " s", true);
+        }
+
+        if (p.partials.size() > max_partials) {
+            fail("partial", "has " + std::to_string(p.partials.size()) + " entries; at most " +
+                                std::to_string(max_partials) + " partials are allowed");
+        }
+        if (p.noise.size() > max_noise_bands) {
+            fail("noise", "has " + std::to_string(p.noise.size()) + " entries; at most " +
+                              std::to_string(max_noise_bands) + " noise bands are allowed");
+        }
+        if (p.partials.empty() && p.noise.empty()) {
+            fail("", "the patch has no [[partial]] and no [[noise]] tables: nothing to render");
+        }
+        for (std::size_t i = 0; i < p.partials.size(); ++i) {
+            const partial& q = p.partials[i];
+            const std::string base = indexed("partial", i);
+            not_nan(base + ".freq_hz", q.freq_hz);
+            if (!(q.freq_hz > 0.0)) fail(base + ".freq_hz", "must be > 0, not " + show(q.freq_hz));
+            within(base + ".freq_hz", q.freq_hz, 0.0, max_freq_hz, " Hz", true);
+            if (q.harmonic < 0) fail(base + ".harmonic", "must be >= 0 (0 = not on the harmonic series), not " +
+                                                             std::to_string(q.harmonic));
+            within(base + ".phase_rad", q.phase_rad, -max_abs_phase_rad, max_abs_phase_rad, " rad");
+            check_envelope(base, q.env);
+        }
+        for (std::size_t i = 0; i < p.noise.size(); ++i) {
+            const noise_band& b = p.noise[i];
+            const std::string base = indexed("noise", i);
+            within(base + ".low_hz", b.low_hz, 0.0, max_freq_hz, " Hz");
+            finite(base + ".high_hz", b.high_hz);
+            if (!(b.high_hz > b.low_hz)) {
+                fail(base + ".high_hz", "(" + show(b.high_hz) + ") must be above low_hz (" + show(b.low_hz) + ")");
+            }
+            within(base + ".high_hz", b.high_hz, 0.0, max_freq_hz, " Hz");
+            check_envelope(base, b.env);
+        }
+    }
+};
+
+}  // namespace
+
+void validate(const patch& p, const fail_fn& fail) { validator{fail}.check(p); }
+
+std::optional<std::string> first_broken_rule(const patch& p) {
+    struct broken {
+        std::string message;
+    };
+    patch copy = p;
+    canonicalize(copy);
+    try {
+        validate_and_round(copy, [](const std::string& path, const std::string& what) {
+            const std::string shown = display(path);
+            throw broken{shown.empty() ? what : shown + " " + what};
+        });
+    } catch (const broken& b) {
+        return b.message;
+    }
+    return std::nullopt;
+}
+
+void validate_and_round(patch& p, const fail_fn& fail) {
+    validator{fail}.check(p);
+    patch_numbers::round_to_file_precision(p);
+    validator{[&fail](const std::string& path, const std::string& what) {
+        fail(path, what + " once rounded to the precision the file keeps");
+    }}.check(p);
+}
+
+}  // namespace wane::patch_rules

@@ -1,0 +1,290 @@
+// The continuous piecewise-linear least squares behind fit_level_lines (see knot_search.hpp).
+#include "fitting/knot_search.hpp"
+
+#include <cmath>
+
+namespace wane::knot_search {
+
+namespace {
+
+/// The dynamic program places run boundaries on at most this many grid points.
+constexpr std::size_t dp_grid_points = 32;
+/// Golden-section steps when a knot is refined between grid points.
+constexpr int knot_refine_steps = 12;
+constexpr double golden = 0.6180339887498949;  // (sqrt(5) - 1) / 2
+/// Coordinate-descent sweeps over the knots.
+constexpr int knot_sweeps = 2;
+/// With more than one knot, each knot is scanned over this many grid points either side of
+/// where it is (the dynamic program already placed it near its optimum); a lone knot is
+/// scanned over the whole grid.
+constexpr std::size_t knot_scan_halfwidth = 6;
+
+/// Solves the small symmetric system g theta = b (Gaussian elimination with partial pivoting).
+/// Returns false when singular.
+bool solve_small(int m, std::array<double, max_unknowns_sq>& g,
+                 std::array<double, max_unknowns>& b) {
+    for (int c = 0; c < m; ++c) {
+        int piv = c;
+        for (int r = c + 1; r < m; ++r)
+            if (std::abs(g[r * max_unknowns + c]) > std::abs(g[piv * max_unknowns + c])) piv = r;
+        const double pv = g[piv * max_unknowns + c];
+        if (!(std::abs(pv) > 1e-12)) return false;
+        if (piv != c) {
+            for (int k = 0; k < m; ++k) std::swap(g[c * max_unknowns + k], g[piv * max_unknowns + k]);
+            std::swap(b[c], b[piv]);
+        }
+        for (int r = c + 1; r < m; ++r) {
+            const double f = g[r * max_unknowns + c] / pv;
+            if (f == 0.0) continue;
+            for (int k = c; k < m; ++k) g[r * max_unknowns + k] -= f * g[c * max_unknowns + k];
+            b[r] -= f * b[c];
+        }
+    }
+    for (int r = m - 1; r >= 0; --r) {
+        double s = b[r];
+        for (int k = r + 1; k < m; ++k) s -= g[r * max_unknowns + k] * b[k];
+        b[r] = s / g[r * max_unknowns + r];
+    }
+    return true;
+}
+
+/// Continuous piecewise-linear weighted least squares with the given knots (ascending, relative
+/// times). Model: y = theta0 + theta1 x + sum_j theta_{1+j} (x - knot_j)_+ (hinge basis).
+/// Normal equations from the suffix sums: for x > k, sum w (x - a)(x - k) = Sxx - (a + k) Sx + a k Sw.
+using normal_matrix = std::array<double, max_unknowns_sq>;
+using normal_vector = std::array<double, max_unknowns>;
+
+void build_normal(const point_sums& ps, std::span<const double> knots, normal_matrix& g, normal_vector& b) {
+    const int nk = static_cast<int>(knots.size());
+    const std::size_t n = ps.size();
+    g.fill(0.0);
+    b.fill(0.0);
+    std::array<std::size_t, max_supported_segments> idx{};
+    auto at = [&](int r, int c) -> double& { return g[r * max_unknowns + c]; };
+    at(0, 0) = ps.w[n];
+    at(0, 1) = at(1, 0) = ps.wx[n];
+    at(1, 1) = ps.wxx[n];
+    b[0] = ps.wy[n];
+    b[1] = ps.wxy[n];
+    for (int j = 0; j < nk; ++j) idx[j] = ps.first_after(knots[j]);
+    for (int j = 0; j < nk; ++j) {
+        const std::size_t i = idx[j];
+        const double k = knots[j];
+        const double sw = ps.w[n] - ps.w[i], sx = ps.wx[n] - ps.wx[i], sxx = ps.wxx[n] - ps.wxx[i];
+        const double sy = ps.wy[n] - ps.wy[i], sxy = ps.wxy[n] - ps.wxy[i];
+        at(0, 2 + j) = at(2 + j, 0) = sx - k * sw;
+        at(1, 2 + j) = at(2 + j, 1) = sxx - k * sx;
+        b[2 + j] = sxy - k * sy;
+        for (int l = 0; l <= j; ++l) {
+            const double a = knots[l];
+            at(2 + l, 2 + j) = at(2 + j, 2 + l) = sxx - (a + k) * sx + a * k * sw;
+        }
+    }
+}
+
+}  // namespace
+
+continuous_solution solve_continuous(const point_sums& ps, std::span<const double> knots) {
+    const int m = static_cast<int>(knots.size()) + 2;
+    normal_matrix g;
+    normal_vector b;
+    build_normal(ps, knots, g, b);
+    continuous_solution out;
+    std::array<double, max_unknowns> rhs = b;
+    if (!solve_small(m, g, rhs)) return out;
+    double fitted = 0.0;
+    for (int r = 0; r < m; ++r) fitted += rhs[r] * b[r];
+    out.rss = std::max(ps.wyy[ps.size()] - fitted, 0.0);
+    out.theta = rhs;
+    return out;
+}
+
+/// Feasible range for knot j given its neighbours: every segment lasts min_segment_s and holds
+/// min_points_per_segment points.
+bool knots_feasible(const point_sums& ps, std::span<const double> knots, double min_segment_s) {
+    const double end = ps.x.back();
+    double prev = 0.0;
+    std::size_t prev_idx = 0;
+    for (std::size_t j = 0; j <= knots.size(); ++j) {
+        const double k = j < knots.size() ? knots[j] : end;
+        const std::size_t idx = j < knots.size() ? ps.first_after(k) : ps.size();
+        if (k - prev < min_segment_s) return false;
+        if (idx - prev_idx < static_cast<std::size_t>(min_points_per_segment)) return false;
+        prev = k;
+        prev_idx = idx;
+    }
+    return true;
+}
+
+/// Bellman's dynamic program for segmented least squares (no continuity): the best split of the
+/// points into k runs, for every k up to kmax. Returns, per k, the run starts (k - 1 of them).
+std::vector<std::vector<std::size_t>> segmented_least_squares(const point_sums& ps, int kmax,
+                                                              double min_run_s) {
+    const std::size_t n = ps.size();
+    const std::size_t min_pts = min_points_per_segment;
+    // Run boundaries on a coarse grid: every stride-th point (and the end); run costs stay exact.
+    const std::size_t stride = (n + dp_grid_points - 1) / dp_grid_points;
+    std::vector<std::size_t> cand;
+    for (std::size_t i = 0; i < n; i += stride) cand.push_back(i);
+    cand.push_back(n);
+    const std::size_t nc = cand.size();
+    std::vector<std::vector<double>> cost(kmax + 1, std::vector<double>(nc, infinity));
+    std::vector<std::vector<std::size_t>> from(kmax + 1, std::vector<std::size_t>(nc, 0));
+    auto run_ok = [&](std::size_t a, std::size_t b) {
+        return b - a >= min_pts && ps.x[b - 1] - ps.x[a] >= min_run_s;
+    };
+    for (std::size_t j = 1; j < nc; ++j)
+        if (run_ok(0, cand[j])) cost[1][j] = ps.line_cost(0, cand[j]);
+    for (int k = 2; k <= kmax; ++k) {
+        // The last layer only needs the full run (j = the end).
+        for (std::size_t j = k == kmax ? nc - 1 : 1; j < nc; ++j) {
+            for (std::size_t i = 1; i < j; ++i) {
+                if (!std::isfinite(cost[k - 1][i]) || !run_ok(cand[i], cand[j])) continue;
+                const double c = cost[k - 1][i] + ps.line_cost(cand[i], cand[j]);
+                if (c < cost[k][j]) {
+                    cost[k][j] = c;
+                    from[k][j] = i;
+                }
+            }
+        }
+    }
+    std::vector<std::vector<std::size_t>> starts(kmax + 1);
+    for (int k = 2; k <= kmax; ++k) {
+        if (!std::isfinite(cost[k][nc - 1])) continue;
+        std::vector<std::size_t> st(k - 1);
+        std::size_t j = nc - 1;
+        for (int kk = k; kk >= 2; --kk) {
+            j = from[kk][j];
+            st[kk - 2] = cand[j];
+        }
+        starts[k] = std::move(st);
+    }
+    return starts;
+}
+
+knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double min_segment_s) {
+    knot_fit best{knots, solve_continuous(ps, knots)};
+    if (knots.empty()) return best;
+    if (!knots_feasible(ps, knots, min_segment_s)) best.sol.rss = infinity;
+    const std::size_t n = ps.size();
+    for (int sweep = 0; sweep < knot_sweeps; ++sweep) {
+        bool moved = false;
+        for (std::size_t j = 0; j < knots.size(); ++j) {
+            std::vector<double> trial = best.knots;
+            double best_rss = best.sol.rss;
+            std::size_t best_i = n;
+            std::size_t scan_lo = 1, scan_hi = n - 1;
+            if (knots.size() > 1) {
+                const std::size_t at = ps.first_after(best.knots[j]);
+                scan_lo = std::max<std::size_t>(1, at > knot_scan_halfwidth ? at - knot_scan_halfwidth : 0);
+                scan_hi = std::min(n - 1, at + knot_scan_halfwidth);
+            }
+            for (std::size_t i = scan_lo; i < scan_hi; ++i) {
+                trial[j] = ps.x[i];
+                if (!knots_feasible(ps, trial, min_segment_s)) continue;
+                const continuous_solution s = solve_continuous(ps, trial);
+                if (s.rss < best_rss) {
+                    best_rss = s.rss;
+                    best_i = i;
+                }
+            }
+            double center = best.knots[j];
+            if (best_i < n) center = ps.x[best_i];
+            // Golden section on [left grid point, right grid point] around the best position.
+            const std::size_t after = ps.first_after(center);
+            const std::size_t ci = after > 0 ? after - 1 : 0;  // grid point at or before center
+            double lo = ps.x[ci > 0 ? ci - 1 : 0];
+            double hi = ps.x[std::min(ci + 1, n - 1)];
+            auto eval = [&](double t) {
+                trial[j] = t;
+                if (!knots_feasible(ps, trial, min_segment_s)) return infinity;
+                return solve_continuous(ps, trial).rss;
+            };
+            double a = hi - golden * (hi - lo), c = lo + golden * (hi - lo);
+            double fa = eval(a), fc = eval(c);
+            for (int step = 0; step < knot_refine_steps; ++step) {
+                if (fa < fc) {
+                    hi = c;
+                    c = a;
+                    fc = fa;
+                    a = hi - golden * (hi - lo);
+                    fa = eval(a);
+                } else {
+                    lo = a;
+                    a = c;
+                    fa = fc;
+                    c = lo + golden * (hi - lo);
+                    fc = eval(c);
+                }
+            }
+            double cand = fa < fc ? a : c;
+            double cand_rss = std::min(fa, fc);
+            if (best_i < n && best_rss <= cand_rss) {
+                cand = ps.x[best_i];
+                cand_rss = best_rss;
+            }
+            if (cand_rss < best.sol.rss) {
+                trial[j] = cand;
+                best.knots = trial;
+                best.sol = solve_continuous(ps, trial);
+                moved = true;
+            }
+        }
+        // A lone knot has converged after one sweep (its scan covered the whole grid).
+        if (!moved || knots.size() == 1) break;
+    }
+    return best;
+}
+
+std::vector<double> slopes_of(const continuous_solution& s, int k) {
+    std::vector<double> slopes(k);
+    double slope = s.theta[1];
+    for (int j = 0; j < k; ++j) {
+        if (j > 0) slope += s.theta[1 + j];
+        slopes[j] = slope;
+    }
+    return slopes;
+}
+
+/// Level of the continuous fit at relative time x.
+double line_value(const continuous_solution& s, std::span<const double> knots, double x) {
+    double v = s.theta[0] + s.theta[1] * x;
+    for (std::size_t j = 0; j < knots.size(); ++j) v += s.theta[2 + j] * std::max(x - knots[j], 0.0);
+    return v;
+}
+
+/// Practical significance of each knee: the slopes differ by a fraction and an absolute amount,
+/// and the change moves the level by min_knee_effect_db over the shorter neighbouring segment.
+bool slopes_distinct(std::span<const double> slopes, std::span<const double> knots, double start_x,
+                     double end_x, const envelope_fit_params& p) {
+    for (std::size_t j = 1; j < slopes.size(); ++j) {
+        const double d = std::abs(slopes[j] - slopes[j - 1]);
+        const double steeper = std::max(std::abs(slopes[j]), std::abs(slopes[j - 1]));
+        if (d < p.min_slope_change_db_per_s || d < p.min_slope_change_rel * steeper) return false;
+        const double before = knots[j - 1] - (j >= 2 ? knots[j - 2] : start_x);
+        const double after = (j < knots.size() ? knots[j] : end_x) - knots[j - 1];
+        if (d * std::min(before, after) < p.min_knee_effect_db) return false;
+    }
+    return true;
+}
+
+/// Wald test of each slope change: the hinge coefficient theta_{2+j} is the change of slope at
+/// knot j; its variance is [G^-1]_{jj} under the calibrated weights, inflated by n / n_eff for
+/// correlated residuals. True when every |change| / SE reaches min_z.
+bool changes_significant(const point_sums& ps, const knot_fit& f, double inflation, double min_z) {
+    const int m = static_cast<int>(f.knots.size()) + 2;
+    for (int j = 0; j < static_cast<int>(f.knots.size()); ++j) {
+        normal_matrix g;
+        normal_vector b;
+        build_normal(ps, f.knots, g, b);
+        normal_vector e{};
+        e[2 + j] = 1.0;
+        if (!solve_small(m, g, e)) return false;
+        const double var = e[2 + j] * inflation;
+        if (!(var > 0.0)) return false;
+        if (std::abs(f.sol.theta[2 + j]) < min_z * std::sqrt(var)) return false;
+    }
+    return true;
+}
+
+}  // namespace wane::knot_search
