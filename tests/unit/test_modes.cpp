@@ -14,7 +14,7 @@
 #include "modes/damped_mode.hpp"
 #include "modes/esprit.hpp"
 #include "modes/subband_modes.hpp"
-#include "transform/rng.hpp"
+#include "core/rng.hpp"
 
 using namespace wane;
 using Catch::Matchers::WithinAbs;

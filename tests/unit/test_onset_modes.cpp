@@ -12,7 +12,7 @@
 #include "core/envelope.hpp"
 #include "core/units.hpp"
 #include "synthesis/render.hpp"
-#include "transform/rng.hpp"
+#include "core/rng.hpp"
 
 using namespace wane;
 using Catch::Matchers::WithinAbs;
