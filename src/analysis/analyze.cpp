@@ -9,7 +9,9 @@
 #include <stdexcept>
 #include <string>
 
+#include "analysis/beating_pairs.hpp"
 #include "analysis/noise_model.hpp"
+#include "analysis/onset_refine.hpp"
 #include "core/analysis_error.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "pitch/root.hpp"
@@ -46,7 +48,9 @@ void apply_recording_end(analysis_result& out, std::span<const float> part, doub
     if (out.summary.end.kind != end_kind::cut) return;
     patch& p = out.value;
     p.source.cut_s = out.summary.end.length_s;
-    assert(fitted.size() == p.partials.size());
+    // The partials fitted from tracks keep their places; the onset refinement and the pair split
+    // only append partials (short-lived modes, second members of pairs), which decay on their own.
+    assert(fitted.size() <= p.partials.size());
     for (std::size_t i = 0; i < fitted.size(); ++i) fitted[i].env = &p.partials[i].env;
     for (noise_band& b : p.noise)
         fitted.push_back({.env = &b.env, .track = nullptr, .fit_start_s = 0.0, .fit_end_s = out.summary.end.length_s});
@@ -55,7 +59,27 @@ void apply_recording_end(analysis_result& out, std::span<const float> part, doub
     for (const partial& q : p.partials) out.summary.segments += static_cast<int>(q.env.decay.size());
 }
 
+/// Peak |sample| of x as a level (0 dBFS = 1).
+double peak_level_db(std::span<const float> x) {
+    float peak = 0.0f;
+    for (float v : x) peak = std::max(peak, std::abs(v));
+    return to_level(amp_lin{static_cast<double>(peak)}).db;
+}
+
 }  // namespace
+
+double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz) {
+    // The copy's peak as the default render makes it (noise seed 1), at the source rate and at
+    // the usual output rate (noise bands are drawn per rate, so their peaks differ by rate).
+    patch q = p;
+    q.note.gain_db = 0.0;
+    double copy_db = -infinity;
+    for (const double rate : {sample_rate_hz, 48000.0})
+        if (rate >= min_render_rate_hz && rate <= max_render_rate_hz)
+            copy_db = std::max(copy_db, peak_level_db(render_patch(q, {.sample_rate_hz = rate})));
+    const double target_db = std::min(peak_level_db(note), -peak_headroom_db);
+    return copy_db > target_db ? target_db - copy_db : 0.0;
+}
 
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
                              const analysis_params& params) {
@@ -116,9 +140,29 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     p.source.onset_s = params.start_s + tr.onset_s;
     p.source.analysis = analysis_settings{.window = std::string(window_name(tr.window)),
                                           .fft_size = tr.fft_size, .window_s = tr.window_s, .hop_s = tr.hop_s};
+    const auto onset_frame = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
+    if (params.split_pairs && onset_frame < part.size()) {
+        out.summary.pairs_split = split_beating_pairs(p, part.subspan(onset_frame), sample_rate_hz, params.pairs);
+        out.summary.partials = static_cast<int>(p.partials.size());
+    }
+    if (params.refine_onset) {
+        const auto onset = onset_frame;
+        if (onset < part.size()) {
+            const auto refined = refine_onset(p, part.subspan(onset), sample_rate_hz, params.onset);
+            out.summary.new_modes = refined.new_modes;
+            out.summary.partials = static_cast<int>(p.partials.size());
+            out.summary.onset_explained_db = refined.explained_db;
+            out.summary.segments = 0;
+            for (const partial& q : p.partials) out.summary.segments += static_cast<int>(q.env.decay.size());
+        }
+    }
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);
     apply_recording_end(out, part, sample_rate_hz, fitted, params);
     canonicalize(p);
+    if (params.match_peak) {
+        const auto onset = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
+        p.note.gain_db = peak_matching_gain_db(p, part.subspan(std::min(onset, part.size())), sample_rate_hz);
+    }
     return out;
 }
 

@@ -7,6 +7,8 @@
 #include "analysis/cut_tail.hpp"
 #include "analysis/noise_model.hpp"
 #include "analysis/recording_end.hpp"
+#include "analysis/beating_pairs.hpp"
+#include "analysis/onset_refine.hpp"
 #include "core/analysis_error.hpp"
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
@@ -25,6 +27,16 @@ struct analysis_params {
     noise_model_params noise{};
     recording_end_params recording_end{};
     cut_tail_params cut_tail{};
+    /// Refit every partial's start on the waveform and add the short-lived modes
+    /// (analysis/onset_refine.hpp).
+    bool refine_onset = true;
+    /// Split partials that beat into two (analysis/beating_pairs.hpp); off by default: on real
+    /// notes a pitch glide can still pass for a pair (analyze --split-pairs turns it on).
+    bool split_pairs = false;
+    beating_pair_params pairs{};
+    /// Set note.gain_db so the copy does not peak above the recording (peak_matching_gain_db).
+    bool match_peak = true;
+    onset_refine_params onset{};
 };
 
 struct analysis_summary {
@@ -35,6 +47,10 @@ struct analysis_summary {
     int unfitted = 0;          ///< tracks dropped: fewer than two frames clear of the floor
     recording_end end{};       ///< how the recording ends (analysis/recording_end.hpp)
     int continued_past_cut = 0;  ///< partials and bands whose last segment was made to fall (cut_tail.hpp)
+    int pairs_split = 0;       ///< partials split into beating pairs
+    int new_modes = 0;         ///< partials added by the onset refinement (short-lived modes)
+    /// Energy of the first fit span explained by the partials, dB (onset refinement).
+    double onset_explained_db = 0.0;
 };
 
 struct analysis_result {
@@ -46,6 +62,17 @@ struct analysis_result {
 /// Largest number of decay segments per partial the analysis fits (--max-segments): an analysis
 /// setting, well inside the format's limit patch_rules::max_decay_segments.
 inline constexpr int max_fit_decay_segments = max_fit_segments;
+
+/// The copy's peak is kept this far under full scale at least (peaks between samples and other
+/// output rates).
+inline constexpr double peak_headroom_db = 0.3;
+
+/// Gain (dB, <= 0) that brings the default render of p (at the source rate and at 48 kHz, noise
+/// seed 1) down to the peak
+/// of the recording note (note[0] at the onset), or to -peak_headroom_db dBFS when that is lower;
+/// 0 when the copy already peaks lower. Levels that add up: the partials' fitted starts sum to
+/// the waveform, but a copy may still overshoot by the noise or by where its peaks fall.
+double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz);
 
 /// Throws analysis_error with a user-facing reason when the sound cannot be analyzed.
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,

@@ -20,6 +20,7 @@
 #include "io/atomic_file.hpp"
 #include "io/audio_file.hpp"
 #include "io/errors.hpp"
+#include "io/patch_checksum.hpp"
 #include "io/patch_toml.hpp"
 #include "platform/progress.hpp"
 
@@ -52,7 +53,11 @@ struct analyze_options {
     std::optional<std::string> name;
     std::optional<int> jobs;
     bool report = false;
+    bool overwrite_edited = false;
+    double max_report_s = max_report_input_s();
     bool no_noise = false;
+    bool no_onset_refine = false;
+    bool split_pairs = false;
     double max_input_s = default_max_input_s;
     std::uintmax_t max_input_mib = default_max_input_bytes >> 20;
 };
@@ -95,6 +100,8 @@ void validate(const analyze_options& o) {
         throw usage_error("--hop-s " + num(*o.hop_s) + ": must not exceed --window-s " + num(*o.window_s));
     if (o.jobs && (*o.jobs < 1 || *o.jobs > max_jobs))
         throw usage_error("--jobs " + std::to_string(*o.jobs) + ": must be 1.." + std::to_string(max_jobs));
+    if (!(o.max_report_s > 0.0 && std::isfinite(o.max_report_s)))
+        throw usage_error("--max-report-s " + num(o.max_report_s) + ": must be a positive number of seconds");
     if (o.name && o.inputs.size() > 1) throw usage_error("--name applies to one input only (several given)");
 }
 
@@ -143,6 +150,7 @@ std::vector<job> plan_jobs(const analyze_options& o) {
     }
     for (const job& j : jobs) {
         refuse_overwriting_input(j.output, inputs);
+        refuse_overwriting_edited_patch(j.output, o.overwrite_edited, "--overwrite-edited");
         if (o.report) {  // the report beside the patch is an output too
             const fs::path html = report_path_of(j.output);
             refuse_overwriting_input(html, inputs);
@@ -155,7 +163,7 @@ std::vector<job> plan_jobs(const analyze_options& o) {
 }
 
 std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t bytes) {
-    char buf[160];
+    char buf[192];
     // How the recording ends comes first; the line ends with the patch size.
     std::string end;
     if (s.end.kind == end_kind::cut) {
@@ -166,8 +174,8 @@ std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t
         std::snprintf(buf, sizeof buf, " holds its level for the last %.2f s;", s.end.held_s);
         end = buf;
     }
-    std::snprintf(buf, sizeof buf, " %d partials, %d segments, fit error %.2f dB, %ju bytes", s.partials, s.segments,
-                  s.fit_error_db, bytes);
+    std::snprintf(buf, sizeof buf, " %d partials, %d short-lived, %d pairs split, onset fit explains %.1f dB, %d segments, fit error %.2f dB, %ju bytes",
+                  s.partials, s.new_modes, s.pairs_split, s.onset_explained_db, s.segments, s.fit_error_db, bytes);
     return j.input.string() + " -> " + j.output.string() + ":" + end + buf;
 }
 
@@ -182,7 +190,9 @@ std::string run_one(const job& j, const analyze_options& o) {
                        .end_s = o.end_s.value_or(0.0),
                        .source_file = j.input.filename().string(),
                        .note_name = o.name.value_or(j.input.stem().string()),
-                       .noise_model = !o.no_noise};
+                       .noise_model = !o.no_noise,
+                       .refine_onset = !o.no_onset_refine,
+                       .split_pairs = o.split_pairs};
     if (o.f0_hz && *o.f0_hz >= 0.5 * audio.sample_rate_hz)
         throw io_error(j.input.string() + ": --f0 " + num(*o.f0_hz) + " Hz is not below half the sample rate (" +
                        num(audio.sample_rate_hz) + " Hz)");
@@ -193,7 +203,7 @@ std::string run_one(const job& j, const analyze_options& o) {
         throw io_error(j.input.string() + ": " + e.what());
     }
     try {
-        write_patch_file(j.output, r.value);
+        write_file_atomic(j.output, with_checksum(format_patch(r.value)));
     } catch (const patch_error& e) {
         throw io_error(j.input.string() + " -> " + j.output.string() + ": " + e.what());
     }
@@ -202,6 +212,12 @@ std::string run_one(const job& j, const analyze_options& o) {
     std::string line = summary_line(j, r.summary, ec ? 0 : bytes);
     if (o.report) {
         const fs::path html = report_path_of(j.output);
+        const double length_s = static_cast<double>(audio.samples.size()) / audio.sample_rate_hz;
+        if (length_s > o.max_report_s) {
+            throw io_error(j.input.string() + ": patch " + j.output.string() + " written, but no report: " +
+                           short_num(length_s) + " s is longer than the " + short_num(o.max_report_s) +
+                           " s a report draws (raise it with --max-report-s)");
+        }
         write_analysis_report(audio, j.input, r.value, &r.tracking, j.output, html);
         line += "; report " + html.string();
     }
@@ -265,7 +281,15 @@ void add_analyze_command(CLI::App& app, command_registry& reg) {
     sub->add_option("--name", o->name, "Note name in the patch (default: the file's stem; one input only)");
     sub->add_option("-j,--jobs", o->jobs, "Files analyzed at once (default: all cores)");
     sub->add_flag("--report", o->report, "Also write an HTML report beside each patch (<stem>.html)");
+    sub->add_flag("--overwrite-edited", o->overwrite_edited,
+                  "Replace an existing patch even if it was edited since wane wrote it (or not written by wane)");
+    sub->add_option("--max-report-s", o->max_report_s, "With --report: no report for inputs longer than this, seconds")
+        ->capture_default_str();
     sub->add_flag("--no-noise", o->no_noise, "Fit partials only: no [[noise]] bands for the residual");
+    sub->add_flag("--no-onset-refine", o->no_onset_refine,
+                  "Keep the STFT envelopes' starts: no waveform fit of the onset, no short-lived modes");
+    sub->add_flag("--split-pairs", o->split_pairs,
+                  "Split a partial that beats into two close partials, each with its own decay");
     sub->add_option("--max-input-s", o->max_input_s, "Refuse input files longer than this, seconds")
         ->capture_default_str();
     sub->add_option("--max-input-mib", o->max_input_mib, "Refuse input files larger than this, MiB")

@@ -7,6 +7,7 @@
 #include "cli/common.hpp"
 #include "core/patch_rules.hpp"
 #include "io/atomic_file.hpp"
+#include "io/patch_checksum.hpp"
 #include "io/patch_toml.hpp"
 #include "transform/blend.hpp"
 #include "transform/transform.hpp"
@@ -16,6 +17,7 @@ namespace wane::cli {
 namespace {
 
 struct blend_options {
+    bool overwrite_edited = false;
     std::string input_a;
     std::string input_b;
     std::string output;
@@ -31,6 +33,7 @@ int run_blend(const blend_options& o) {
     const std::filesystem::path out{o.output};
     const std::vector<std::filesystem::path> inputs{o.input_a, o.input_b};
     refuse_overwriting_input(out, inputs);
+    refuse_overwriting_edited_patch(out, o.overwrite_edited, "--overwrite-edited");
 
     const patch_read_result a = read_patch_file(o.input_a);
     warn_all(a.warnings);
@@ -68,6 +71,8 @@ void add_blend_command(CLI::App& app, command_registry& reg) {
     sub->add_option("a", opts->input_a, "First patch (mix 0)")->required();
     sub->add_option("b", opts->input_b, "Second patch (mix 1)")->required();
     sub->add_option("-o,--output", opts->output, "The blended patch (TOML)")->required();
+    sub->add_flag("--overwrite-edited", opts->overwrite_edited,
+                  "Replace an existing patch even if it was edited since wane wrote it (or not written by wane)");
     sub->add_option("--mix", opts->mix, "0 = only the first patch, 1 = only the second")->capture_default_str();
     sub->add_option("--tolerance-cents", opts->tolerance_cents,
                     "Partials off the harmonic series pair with the nearest one of the other patch within this")

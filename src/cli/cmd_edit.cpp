@@ -10,6 +10,7 @@
 #include "cli/transform_options.hpp"
 #include "core/patch_rules.hpp"
 #include "io/atomic_file.hpp"
+#include "io/patch_checksum.hpp"
 #include "io/patch_toml.hpp"
 #include "core/pitch_names.hpp"
 
@@ -22,6 +23,7 @@ constexpr double default_edit_rate_hz = 48000.0;
 constexpr double max_root_tuning_cents = 100.0;
 
 struct edit_options {
+    bool overwrite_edited = false;
     std::string input;
     std::string output;
     double rate_hz = default_edit_rate_hz;
@@ -54,6 +56,7 @@ int run_edit(const edit_options& o) {
     const std::filesystem::path out{o.output};
     const std::vector<std::filesystem::path> inputs{in};
     refuse_overwriting_input(out, inputs);
+    refuse_overwriting_edited_patch(out, o.overwrite_edited, "--overwrite-edited");
 
     const patch_read_result read = read_patch_file(in);
     warn_all(read.warnings);
@@ -81,6 +84,8 @@ void add_edit_command(CLI::App& app, command_registry& reg) {
     CLI::App* sub = app.add_subcommand("edit", "Apply sound-design edits to a patch and write a new patch");
     sub->add_option("patch", opts->input, "Patch to edit (TOML)")->required();
     sub->add_option("-o,--output", opts->output, "The edited patch (TOML); must differ from the input")->required();
+    sub->add_flag("--overwrite-edited", opts->overwrite_edited,
+                  "Replace an existing patch even if it was edited since wane wrote it (or not written by wane)");
     sub->add_option("--rate", opts->rate_hz,
                     "Sample rate the patch is meant for, Hz: partials at or above its Nyquist are dropped (0 keeps all)")
         ->capture_default_str();

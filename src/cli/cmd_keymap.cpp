@@ -44,6 +44,10 @@ constexpr double default_keymap_rate_hz = 48000.0;
 constexpr double keymap_peak_target_db = -1.0;
 constexpr std::size_t keymap_memory_budget_bytes = std::size_t{1} << 30;  // 1 GiB of float samples
 constexpr int max_keymap_variants = 64;
+/// Whole-set limits (our choice, no source): 1e12 partial-samples is about 3 minutes of one core
+/// (5.8e9 per second, synthesis/render_budget.hpp); 10,000 files are 49 notes x 127 layers.
+constexpr double default_max_set_work = 1e12;
+constexpr int default_max_files = 10000;
 /// How far the softest layer may lie below the loudest, and how much darker it may be (our
 /// choice, no source: 96 dB is a 16-bit file's range; 48 dB per octave matches --brightness-db-oct).
 constexpr double max_layer_span_db = 96.0;
@@ -75,6 +79,9 @@ struct keymap_options {
     std::string bits = "24";
     int threads = 0;
     length_cli length;
+    double max_work = max_render_partial_samples;
+    double max_set_work = default_max_set_work;
+    int max_files = default_max_files;
     transform_cli transforms;
 };
 
@@ -165,8 +172,33 @@ keymap_settings check_keymap_options(const keymap_options& o) {
     k.format = *format;
     if (o.threads < 0) throw usage_error("--threads: must be 0 (all cores) or more");
     check_length_options(o.length);
+    if (!(o.max_work > 0.0 && std::isfinite(o.max_work))) throw usage_error("--max-work " + short_num(o.max_work) + ": must be positive");
+    if (!(o.max_set_work > 0.0 && std::isfinite(o.max_set_work))) {
+        throw usage_error("--max-set-work " + short_num(o.max_set_work) + ": must be positive");
+    }
+    if (o.max_files < 1) throw usage_error("--max-files " + std::to_string(o.max_files) + ": must be at least 1");
     k.threads = o.threads > 0 ? o.threads : static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
     return k;
+}
+
+/// Refuses a set of more files than --max-files, or more work than --max-set-work in all, before
+/// any patch is built: every job costs at most what the source patch does (moving it to a note
+/// keeps the length and can only drop partials above Nyquist).
+void check_set_size(const patch& source, const std::vector<keymap_job>& jobs, const keymap_options& o) {
+    if (jobs.size() > static_cast<std::size_t>(o.max_files)) {
+        throw std::runtime_error(o.input + ": keymap refused: " + std::to_string(jobs.size()) + " WAV files (notes x " +
+                                 std::to_string(o.layers) + " layers x " + std::to_string(o.variants) +
+                                 " variants), more than the " + std::to_string(o.max_files) +
+                                 " of --max-files; use fewer notes (--every), layers or variants");
+    }
+    const render_cost one = render_cost_of(source, o.rate_hz, 0.0);
+    const double set_work = one.partial_samples * static_cast<double>(jobs.size());
+    if (set_work > o.max_set_work) {
+        throw std::runtime_error(o.input + ": keymap refused: " + std::to_string(jobs.size()) + " renders x up to " +
+                                 short_num(one.partial_samples) + " partial-samples = " + short_num(set_work) +
+                                 " of work, over the set budget of " + short_num(o.max_set_work) +
+                                 " (--max-set-work raises it); use fewer notes, layers or variants, or a lower --rate");
+    }
 }
 
 /// Every job's patch and render settings, before any output exists (a note that leaves no
@@ -186,7 +218,7 @@ void make_job_patches(const patch& source, const transform_params& base, const s
         const double length_s = chosen_length_s(patches.back(), o.length, o.input + ": note " + note_name(j.root_midi));
         renders.push_back({.sample_rate_hz = o.rate_hz, .length_s = length_s,
                            .noise_seed = derive_seed(j.seed, noise_seed_salt)});
-        check_render_budget(patches.back(), o.rate_hz, length_s, in);
+        check_render_budget(patches.back(), o.rate_hz, length_s, in, o.max_work);
     }
 }
 
@@ -297,6 +329,7 @@ int run_keymap(keymap_options o) {
                                     .layer_brightness_step_db_per_oct = o.layer_brightness_step,
                                     .seed = base.variation.seed};
     const std::vector<keymap_job> jobs = plan_keymap(plan_params);
+    check_set_size(source, jobs, o);
 
     std::vector<patch> patches;
     std::vector<render_params> renders;
@@ -378,6 +411,13 @@ void add_keymap_command(CLI::App& app, command_registry& reg) {
     sub->add_option("--bits", opts->bits, "Sample format: 16, 24 or 32f")->capture_default_str();
     sub->add_option("--threads", opts->threads, "Render threads (0 = all cores)")->capture_default_str();
     add_length_options(sub, opts->length);
+    sub->add_option("--max-work", opts->max_work,
+                    "Refuse a note whose render costs more than this many partial-samples ((partials + 4 x noise "
+                    "bands) x frames)")
+        ->capture_default_str();
+    sub->add_option("--max-set-work", opts->max_set_work, "Refuse a set whose renders cost more than this in all")
+        ->capture_default_str();
+    sub->add_option("--max-files", opts->max_files, "Refuse a set of more WAV files than this")->capture_default_str();
     add_transform_options(sub, opts->transforms);
     sub->footer("Examples:\n  wane keymap pluck.toml -o pluck-set --notes C2..C6 --every 3 --layers 3 --variants 2\n"
                 "  wane keymap pluck.toml -o pluck-set --notes C2..C6 --every 3 --until-db -90");

@@ -45,6 +45,7 @@ struct render_options {
     std::optional<double> normalize_db;
     bool no_noise = false;
     double noise_db = 0.0;
+    double max_work = max_render_partial_samples;
     transform_cli transforms;
 };
 
@@ -77,6 +78,9 @@ sample_format check_render_options(const render_options& o) {
     if (o.normalize_db && !(*o.normalize_db <= 0.0 && *o.normalize_db >= -max_abs_gain_db)) {
         throw usage_error(printf_text("--normalize-db %.6g: must be from -%.0f to 0 dBFS", *o.normalize_db,
                                       max_abs_gain_db));
+    }
+    if (!(o.max_work > 0.0 && std::isfinite(o.max_work))) {
+        throw usage_error("--max-work " + short_num(o.max_work) + ": must be a positive number of partial-samples");
     }
     const std::filesystem::path inputs[] = {o.patch_path};
     refuse_overwriting_input(o.out_path, inputs);
@@ -130,7 +134,7 @@ int run_render(const render_options& o) {
         throw std::runtime_error(patch_name + ": render would last longer than the " +
                                  printf_text("%.0f", max_length_s) + " s limit");
     }
-    check_render_budget(p, o.rate_hz, length_s, o.patch_path);
+    check_render_budget(p, o.rate_hz, length_s, o.patch_path, o.max_work);
 
     const render_summary summary = summarize_render(p, params);
     if (summary.partials_above_nyquist > 0) {
@@ -175,6 +179,10 @@ void add_render_command(CLI::App& app, command_registry& reg) {
                     "Scale the render so its peak is at this level in dBFS (at most 0), e.g. -1");
     sub->add_flag("--no-noise", o.no_noise, "Leave the noise bands ([[noise]]) out: partials only");
     sub->add_option("--noise-db", o.noise_db, "Gain of the noise bands in dB, on top of --gain-db")->default_val(0.0);
+    sub->add_option("--max-work", o.max_work,
+                    "Refuse renders costing more than this many partial-samples ((partials + 4 x noise bands) x "
+                    "frames; 1e11 is about 17 s of one core)")
+        ->default_val(max_render_partial_samples);
     add_transform_options(sub, o.transforms);
     sub->footer(
         "The end of every render fades out over 10 ms (raised cosine). A peak over 0 dBFS is an error\n"

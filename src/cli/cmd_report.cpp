@@ -37,13 +37,21 @@ std::span<const float> from_patch_onset(const mono_audio& source, const patch& p
     return std::span<const float>(source.samples).subspan(from);
 }
 
+/// Longest source a report draws (our choice, no source): the page embeds the source and the
+/// render as audio and a spectrogram, about 8 MB and 40 MB of memory per minute at 48 kHz (a
+/// 30-minute input took 1.04 GB and wrote a 231 MB page); 300 s keeps a page under about 40 MB.
+constexpr double default_max_report_s = 300.0;
+
 struct report_options {
+    double max_input_s = default_max_report_s;
     std::filesystem::path source_path;
     std::filesystem::path patch_path;
     std::filesystem::path out_path;
 };
 
 }  // namespace
+
+double max_report_input_s() { return default_max_report_s; }
 
 void write_analysis_report(const mono_audio& source, const std::filesystem::path& source_path, const patch& p,
                            const tracking_result* tracking, const std::filesystem::path& patch_path,
@@ -83,13 +91,18 @@ void add_report_command(CLI::App& app, command_registry& reg) {
     sub->add_option("SOURCE", opt->source_path, "The recording the patch was made from")->required();
     sub->add_option("PATCH", opt->patch_path, "The patch (.toml)")->required();
     sub->add_option("-o,--output", opt->out_path, "HTML file to write")->required();
+    sub->add_option("--max-input-s", opt->max_input_s, "Refuse sources longer than this, seconds (the page embeds them)")
+        ->capture_default_str();
     sub->footer("Examples:\n  wane report pluck.wav pluck.toml -o pluck.html\n"
                 "  wane analyze pluck.wav -o pluck.toml --report   (writes pluck.html beside the patch)");
     reg.add(sub, [opt] {
         const std::filesystem::path inputs[] = {opt->source_path, opt->patch_path};
         refuse_overwriting_input(opt->out_path, inputs);
         const auto t0 = std::chrono::steady_clock::now();
-        const mono_audio source = read_audio(opt->source_path);
+        if (!(opt->max_input_s > 0.0 && std::isfinite(opt->max_input_s))) {
+            throw usage_error("--max-input-s " + short_num(opt->max_input_s) + ": must be a positive number of seconds");
+        }
+        const mono_audio source = read_audio(opt->source_path, {.max_length_s = opt->max_input_s});
         const patch_read_result r = read_patch_file(opt->patch_path);
         warn_all(r.warnings);
         const patch& p = r.value;

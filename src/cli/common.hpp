@@ -63,6 +63,9 @@ std::string short_num(double v);
 /// The text `wane info` prints for a patch read from path (also embedded in reports).
 std::string patch_info_text(const patch& p, const std::filesystem::path& path);
 
+/// Default of report's --max-input-s and analyze's --max-report-s: the longest source a report draws.
+double max_report_input_s();
+
 /// Writes the HTML report of a source and its patch (tracking may be null: no overlay).
 void write_analysis_report(const mono_audio& source, const std::filesystem::path& source_path, const patch& p,
                            const tracking_result* tracking, const std::filesystem::path& patch_path,

@@ -3,6 +3,7 @@
 // (io/patch_reader) with its key hints (io/patch_keys), the writer (io/patch_writer). Here: the
 // checks on hostile input before the TOML tree is built or walked, and file reading and writing.
 #include "io/patch_toml.hpp"
+#include "io/patch_checksum.hpp"
 #include "io/toml_guard.hpp"
 
 #include <toml++/toml.h>
@@ -126,7 +127,7 @@ std::string format_patch(const patch& p) {
 }
 
 void write_patch_file(const std::filesystem::path& path, const patch& p) {
-    write_file_atomic(path, format_patch(p));
+    write_file_atomic(path, with_checksum(format_patch(p)));
 }
 
 }  // namespace wane

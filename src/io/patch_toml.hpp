@@ -24,7 +24,7 @@ patch_read_result parse_patch(std::string_view text, std::string_view source_nam
 patch_read_result read_patch_file(const std::filesystem::path& path);
 /// Canonical text of a patch (with the explanatory comment block at the top).
 std::string format_patch(const patch& p);
-/// Writes format_patch(p) atomically.
+/// Writes format_patch(p) atomically, with the checksum line of io/patch_checksum.hpp.
 void write_patch_file(const std::filesystem::path& path, const patch& p);
 
 }  // namespace wane

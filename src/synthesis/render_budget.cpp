@@ -15,8 +15,11 @@ render_cost render_cost_of(const patch& p, double rate_hz, double length_s) {
     const render_summary s = summarize_render(p, params);
     render_cost c;
     c.partials = s.partials_rendered;
+    c.noise_bands = s.noise_bands_rendered;
     c.frames = s.frames;
-    c.partial_samples = static_cast<double>(c.partials) * static_cast<double>(c.frames);
+    c.partial_samples = (static_cast<double>(c.partials) +
+                         noise_band_work_partial_samples * static_cast<double>(c.noise_bands)) *
+                        static_cast<double>(c.frames);
     c.buffer_bytes = static_cast<std::uintmax_t>(c.frames) * sizeof(float);
     return c;
 }
@@ -30,21 +33,23 @@ std::string mib_text(std::uintmax_t bytes) {
 
 }  // namespace
 
-void check_render_budget(const patch& p, double rate_hz, double length_s, const std::filesystem::path& patch_path) {
+void check_render_budget(const patch& p, double rate_hz, double length_s, const std::filesystem::path& patch_path,
+                         double budget_partial_samples) {
     if (!(rate_hz > 0.0 && std::isfinite(rate_hz)) || !std::isfinite(length_s)) {
         throw std::invalid_argument("check_render_budget: rate and length must be finite, rate above 0");
     }
     const render_cost c = render_cost_of(p, rate_hz, length_s);
-    const bool too_much_work = c.partial_samples > max_render_partial_samples;
+    const bool too_much_work = c.partial_samples > budget_partial_samples;
     const bool too_much_memory = c.buffer_bytes > max_render_buffer_bytes;
     if (!too_much_work && !too_much_memory) return;
     const double seconds = static_cast<double>(c.frames) / rate_hz;
     std::string text;
     if (too_much_work) {
-        text = printf_text("render refused: %zu partials x %.4g s x %.0f Hz = %.3g partial-samples, over the budget of "
-                      "%.3g (the output buffer would take %s); shorten the render, lower the rate or keep fewer partials",
-                      c.partials, seconds, rate_hz, c.partial_samples, max_render_partial_samples,
-                      mib_text(c.buffer_bytes).c_str());
+        text = printf_text("render refused: (%zu partials + %zu noise bands x %.0f) x %.4g s x %.0f Hz = %.3g "
+                           "partial-samples of work, over the budget of %.3g (--max-work raises it; the output buffer "
+                           "would take %s); shorten the render, lower the rate or keep fewer partials",
+                           c.partials, c.noise_bands, noise_band_work_partial_samples, seconds, rate_hz, c.partial_samples,
+                           budget_partial_samples, mib_text(c.buffer_bytes).c_str());
     } else {
         text = printf_text("render refused: %.4g s x %.0f Hz = %zu frames, the output buffer would take %s, over the "
                       "%s limit; shorten the render or lower the rate",

@@ -51,7 +51,7 @@ TEST_CASE("4096 partials x 600 s x 192 kHz is refused with the numbers and the b
     const std::string msg = refusal(p, 192000.0, 600.0, "big.toml");
     INFO(msg);
     CHECK_THAT(msg, Contains("big.toml: render refused"));
-    CHECK_THAT(msg, Contains("4096 partials x 600 s x 192000 Hz = 4.72e+11 partial-samples"));
+    CHECK_THAT(msg, Contains("(4096 partials + 0 noise bands x 4) x 600 s x 192000 Hz = 4.72e+11 partial-samples"));
     CHECK_THAT(msg, Contains("over the budget of 1e+11"));
     CHECK_THAT(msg, Contains("output buffer would take 439 MiB"));
 }

@@ -1,0 +1,338 @@
+#include "analysis/onset_refine.hpp"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+#include <vector>
+
+#include "core/units.hpp"
+#include "modes/narrowband.hpp"
+#include "synthesis/render.hpp"
+
+namespace wane {
+
+namespace {
+
+/// Energy of a mode over its first count samples: |amp|^2 / 2 * sum exp(-2 d n / fs).
+double mode_energy(const damped_mode& m, double sample_rate_hz, double count) {
+    return 0.5 * std::norm(m.amp) * geometric_sum({-2.0 * m.decay_per_s / sample_rate_hz, 0.0}, count).real();
+}
+
+/// The decay segments of env from time_s on (absolute until_s kept), as straight pieces.
+std::vector<decay_segment> segments_from(const envelope& env, double time_s) {
+    std::vector<decay_segment> out;
+    for (const envelope_piece& piece : envelope_pieces(env)) {
+        if (piece.end_s <= time_s) continue;
+        decay_segment seg{.t60_s = slope_db_per_s_to_t60(piece.slope_db_per_s), .until_s = std::nullopt};
+        if (std::isfinite(piece.end_s)) seg.until_s = piece.end_s;
+        out.push_back(seg);
+    }
+    if (!out.empty()) out.back().until_s.reset();
+    return out;
+}
+
+/// First time in [from_s, to_s] (1 ms steps) where the line level0 + slope t crosses env's level.
+std::optional<double> crossing_time(const envelope& env, double level0_db, double slope_db_per_s, double from_s,
+                                    double to_s) {
+    constexpr double step_s = 0.001;
+    const auto diff = [&](double t) { return level0_db + slope_db_per_s * t - envelope_level(env, t).db; };
+    double prev = diff(from_s);
+    for (double t = from_s + step_s; t <= to_s; t += step_s) {
+        const double d = diff(t);
+        if ((prev > 0.0) != (d > 0.0)) {
+            // Linear interpolation between the two samples of the difference.
+            return t - step_s * d / (d - prev);
+        }
+        prev = d;
+    }
+    return std::nullopt;
+}
+
+/// New envelope: instant onset at level0_db with the early slope, joined to the old envelope where
+/// the two cross before params.join_search_s; else the early line runs to the end of the fit span
+/// and a bridge reaches the old envelope bridge_s later.
+envelope joined_envelope(const envelope& old, double level0_db, double slope_db_per_s, const onset_refine_params& params) {
+    // An instant onset the STFT fit already has, within agree_db of the early line over the fit
+    // span, stays as it is (no extra segments for a difference that small).
+    if (old.attack_s == 0.0) {
+        double worst = 0.0;
+        for (double t = 0.0; t <= params.fit_span_s; t += 0.005)
+            worst = std::max(worst, std::abs(level0_db + slope_db_per_s * t - envelope_level(old, t).db));
+        if (worst <= params.agree_db) return old;
+    }
+    envelope env{.attack_s = 0.0, .peak = level_db{level0_db}, .decay = {}};
+    const double from_s = std::max(old.attack_s, 0.002);
+    const double early_t60 = slope_db_per_s_to_t60(slope_db_per_s);
+    if (const auto t = crossing_time(old, level0_db, slope_db_per_s, from_s, params.join_search_s)) {
+        env.decay.push_back({.t60_s = early_t60, .until_s = *t});
+        for (const auto& seg : segments_from(old, *t)) env.decay.push_back(seg);
+    } else {
+        const double early_end_s = params.fit_span_s;
+        const double join_s = std::max(old.attack_s, early_end_s) + params.bridge_s;
+        const double early_end_db = level0_db + slope_db_per_s * early_end_s;
+        const double bridge_slope = (envelope_level(old, join_s).db - early_end_db) / (join_s - early_end_s);
+        env.decay.push_back({.t60_s = early_t60, .until_s = early_end_s});
+        env.decay.push_back({.t60_s = slope_db_per_s_to_t60(bridge_slope), .until_s = join_s});
+        for (const auto& seg : segments_from(old, join_s)) env.decay.push_back(seg);
+    }
+    if (env.decay.size() == 1) env.decay.back().until_s.reset();
+    return env;
+}
+
+/// Slope of the envelope's first decay segment (dB/s).
+double first_slope_db_per_s(const envelope& env) {
+    return env.decay.empty() ? 0.0 : t60_to_slope_db_per_s(env.decay.front().t60_s);
+}
+
+bool same_mode(double a_hz, double b_hz, const onset_refine_params& params) {
+    const double tol = std::max(params.same_mode_hz, std::min(a_hz, b_hz) * (std::exp2(params.same_mode_cents / 1200.0) - 1.0));
+    return std::abs(a_hz - b_hz) <= tol;
+}
+
+}  // namespace
+
+namespace {
+
+double signal_energy(std::span<const float> x) {
+    double e = 0.0;
+    for (float v : x) e += double(v) * double(v);
+    return e;
+}
+
+/// The partials of p (by index) rendered over the first count samples at sample_rate_hz, with
+/// their envelopes as they are (the ones the waveform fit leaves alone).
+std::vector<float> render_fixed(const patch& p, std::span<const std::size_t> which, double sample_rate_hz,
+                                std::size_t count) {
+    patch fixed{.note = p.note, .source = p.source, .partials = {}, .noise = {}};
+    fixed.note.gain_db = 0.0;
+    for (std::size_t k : which) fixed.partials.push_back(p.partials[k]);
+    // Longer than the span so the render's end fade falls outside it.
+    fixed.note.length_s = static_cast<double>(count) / sample_rate_hz + 2.0 * end_fade_s + 0.01;
+    std::vector<float> out = render_patch(fixed, {.sample_rate_hz = sample_rate_hz, .include_noise = false});
+    out.resize(count);
+    return out;
+}
+
+}  // namespace
+
+namespace {
+
+/// How a partial enters the waveform fit: as a damped exponential from t = 0 (an instant onset),
+/// with the shape of its fitted envelope (a slow rise: only its level and phase are fitted), or as
+/// rendered and subtracted (left alone).
+enum class role { exponential, shaped, fixed };
+
+/// The partials the waveform fit may change: below Nyquist and with no other partial closer than
+/// cluster_hz. A group of close partials (a beating pair) is left as it is, subtracted as
+/// rendered: the span cannot tell its members apart, and refitting one of them would change the
+/// pair's relative phase, so where its beats fall and where its long-term spectral peak lies.
+std::vector<role> initial_roles(const patch& p, double sample_rate_hz, double cluster_hz) {
+    const std::size_t count = p.partials.size();
+    std::vector<role> roles(count, role::exponential);
+    for (std::size_t k = 0; k < count; ++k) {
+        const partial& a = p.partials[k];
+        if (a.freq_hz >= 0.5 * sample_rate_hz) roles[k] = role::fixed;
+        for (std::size_t j = 0; j < count && roles[k] != role::fixed; ++j) {
+            const partial& b = p.partials[j];
+            if (j != k && std::abs(a.freq_hz - b.freq_hz) < cluster_hz) roles[k] = role::fixed;
+        }
+    }
+    return roles;
+}
+
+/// Early decay of each partial: a subband mode at the same frequency (marked taken), else the
+/// envelope's first segment.
+std::vector<double> early_decays(const patch& p, std::span<const role> roles, std::span<const damped_mode> found,
+                                 std::vector<bool>& taken, const onset_refine_params& params) {
+    std::vector<double> decay(p.partials.size());
+    for (std::size_t k = 0; k < p.partials.size(); ++k) {
+        const partial& part = p.partials[k];
+        decay[k] = -first_slope_db_per_s(part.env) / db_per_neper;
+        if (roles[k] == role::fixed) continue;
+        std::size_t best = found.size();
+        for (std::size_t j = 0; j < found.size(); ++j) {
+            if (taken[j] || !same_mode(found[j].freq_hz, part.freq_hz, params)) continue;
+            if (best == found.size() ||
+                std::abs(found[j].freq_hz - part.freq_hz) < std::abs(found[best].freq_hz - part.freq_hz))
+                best = j;
+        }
+        if (best < found.size()) {
+            taken[best] = true;
+            decay[k] = found[best].decay_per_s;
+        }
+    }
+    return decay;
+}
+
+/// Candidate new modes: not taken by a partial, clear of every partial, decaying, with a T60 in
+/// [min_new_t60_s, max_new_t60_s], a quality factor pi f / d of at least min_new_q, and found
+/// again on the shorter span (stable).
+std::vector<damped_mode> new_mode_candidates(const patch& p, std::span<const damped_mode> found,
+                                             std::span<const damped_mode> again, const std::vector<bool>& taken,
+                                             double cluster_hz, const onset_refine_params& params) {
+    std::vector<damped_mode> out;
+    for (std::size_t j = 0; j < found.size(); ++j) {
+        const double d = found[j].decay_per_s;
+        if (taken[j] || d <= 0.0 || ln1000 / d < params.min_new_t60_s || ln1000 / d > params.max_new_t60_s) continue;
+        if (pi * found[j].freq_hz / d < params.min_new_q) continue;
+        const bool stable = std::any_of(again.begin(), again.end(), [&](const damped_mode& m) {
+            return std::abs(m.freq_hz - found[j].freq_hz) < params.stable_freq_cells * cluster_hz &&
+                   std::abs(m.decay_per_s - d) <= params.stable_decay_rel * d;
+        });
+        if (!stable) continue;
+        const bool near_partial = std::any_of(p.partials.begin(), p.partials.end(), [&](const partial& q) {
+            return std::abs(q.freq_hz - found[j].freq_hz) < params.new_mode_clearance_cells * cluster_hz;
+        });
+        if (!near_partial) out.push_back(found[j]);
+    }
+    return out;
+}
+
+/// One least-squares fit of the first fit_n samples with the partials in their roles plus the new
+/// modes (appended after the partials' modes); the fixed partials are rendered and subtracted.
+struct waveform_fit {
+    std::vector<damped_mode> modes;
+
+    std::vector<std::size_t> partial_of;  ///< partial index of modes[i], i < partial_of.size()
+    double residual_energy = 0.0;
+};
+
+waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sample_rate_hz, std::size_t fit_n,
+                          std::span<const role> roles, std::span<const double> decay,
+                          std::span<const damped_mode> new_modes) {
+    waveform_fit f;
+    std::vector<std::vector<double>> shapes;
+    std::vector<std::size_t> fixed;
+    for (std::size_t k = 0; k < p.partials.size(); ++k) {
+        const partial& part = p.partials[k];
+        if (roles[k] == role::fixed) {
+            fixed.push_back(k);
+            continue;
+        }
+        f.modes.push_back({.freq_hz = part.freq_hz, .decay_per_s = decay[k]});
+        shapes.emplace_back();
+        if (roles[k] == role::shaped) {
+            const double peak_amp = to_amp(part.env.peak).lin;
+            shapes.back().resize(fit_n);
+            for (std::size_t n = 0; n < fit_n; ++n)
+                shapes.back()[n] = envelope_amp(part.env, static_cast<double>(n) / sample_rate_hz).lin / peak_amp;
+        }
+        f.partial_of.push_back(k);
+    }
+    f.modes.insert(f.modes.end(), new_modes.begin(), new_modes.end());
+    shapes.resize(f.modes.size());
+    std::vector<float> target(note.begin(), note.begin() + static_cast<std::ptrdiff_t>(fit_n));
+    if (!fixed.empty()) {
+        const std::vector<float> known = render_fixed(p, fixed, sample_rate_hz, fit_n);
+        for (std::size_t n = 0; n < fit_n; ++n) target[n] -= known[n];
+    }
+    f.residual_energy = fit_shaped_amplitudes(target, sample_rate_hz, f.modes, shapes) * signal_energy(target);
+    return f;
+}
+
+/// After a pass: exponential starts that came out as a slow rise (far under the STFT peak) or
+/// implausibly loud become shaped; shaped ones whose level would move by more than slow_rise_db
+/// become fixed; new modes too weak or too loud are dropped. True when anything changed.
+bool revise_roles(const patch& p, std::span<const float> note, const waveform_fit& f, std::vector<role>& roles,
+                  std::vector<damped_mode>& new_modes, double sample_rate_hz, std::size_t fit_n,
+                  const onset_refine_params& params) {
+    bool changed = false;
+    for (std::size_t i = 0; i < f.partial_of.size(); ++i) {
+        const std::size_t k = f.partial_of[i];
+        const partial& part = p.partials[k];
+        const double level0 = to_level(amp_lin{std::abs(f.modes[i].amp)}).db;
+        if (roles[k] == role::shaped) {
+            if (std::abs(level0) > params.slow_rise_db) roles[k] = role::fixed, changed = true;
+            continue;
+        }
+        const bool slow_rise = level0 < part.env.peak.db - params.slow_rise_db && part.env.attack_s > 0.0;
+        if (slow_rise || !(level0 <= std::min(part.env.peak.db + 12.0, max_peak_db))) roles[k] = role::shaped, changed = true;
+    }
+    const auto count = static_cast<double>(fit_n);
+    double strongest = 0.0;
+    for (const auto& m : f.modes) strongest = std::max(strongest, mode_energy(m, sample_rate_hz, count));
+    const double keep = strongest * std::pow(10.0, -params.new_mode_range_db / 10.0);
+    // A new mode must carry most of the energy of the span in its band (its main lobe, at least
+    // two resolution cells each side): a resonance does, while each of the many poles that fit a
+    // burst of noise carries a small part of it.
+    const note_spectrum spectrum(note.first(fit_n), sample_rate_hz);
+    const double cell_hz = sample_rate_hz / count;
+    std::vector<damped_mode> kept;
+    for (std::size_t i = f.partial_of.size(); i < f.modes.size(); ++i) {
+        const damped_mode& m = f.modes[i];
+        const double energy = mode_energy(m, sample_rate_hz, count);
+        const double half_width_hz = std::max(2.0 * cell_hz, m.decay_per_s / pi);
+        const double band = spectrum.energy_between(m.freq_hz - half_width_hz, m.freq_hz + half_width_hz);
+        if (energy >= keep && std::abs(m.amp) <= 1.0 && energy >= params.new_mode_share * band) kept.push_back(m);
+    }
+    changed = changed || kept.size() != new_modes.size();
+    new_modes = std::move(kept);
+    return changed;
+}
+
+/// Writes the fitted starts into the partials and appends the new modes as partials.
+void apply_fit(patch& p, const waveform_fit& f, std::span<const role> roles, const onset_refine_params& params,
+               onset_refine_summary& summary) {
+    for (std::size_t i = 0; i < f.partial_of.size(); ++i) {
+        partial& part = p.partials[f.partial_of[i]];
+        const damped_mode& m = f.modes[i];
+        if (std::abs(m.amp) <= 0.0) continue;
+        if (roles[f.partial_of[i]] == role::shaped) {
+            const double scale_db = to_level(amp_lin{std::abs(m.amp)}).db;
+            const double level = part.env.peak.db + scale_db;
+            if (std::abs(scale_db) > params.slow_rise_db || !(level <= max_peak_db)) continue;
+            part.env.peak = level_db{level};
+        } else {
+            part.env = joined_envelope(part.env, to_level(amp_lin{std::abs(m.amp)}).db, -db_per_neper * m.decay_per_s, params);
+        }
+        part.phase_rad = std::arg(m.amp);
+        ++summary.refined;
+    }
+    for (std::size_t i = f.partial_of.size(); i < f.modes.size(); ++i) {
+        const damped_mode& m = f.modes[i];
+        const double level0 = to_level(amp_lin{std::abs(m.amp)}).db;
+        if (!(level0 < max_peak_db)) continue;
+        p.partials.push_back({.freq_hz = m.freq_hz, .harmonic = 0, .phase_rad = std::arg(m.amp),
+                              .env = {.attack_s = 0.0, .peak = level_db{level0},
+                                      .decay = {{.t60_s = ln1000 / m.decay_per_s, .until_s = std::nullopt}}}});
+        ++summary.new_modes;
+    }
+}
+
+}  // namespace
+
+onset_refine_summary refine_onset(patch& p, std::span<const float> note, double sample_rate_hz,
+                                  const onset_refine_params& params) {
+    assert(sample_rate_hz > 0.0);
+    onset_refine_summary summary;
+    const auto fit_n = std::min(note.size(), static_cast<std::size_t>(params.fit_span_s * sample_rate_hz));
+    if (fit_n < 64 || p.partials.empty()) return summary;
+    // Modes closer than this cannot be told apart on the span (one Fourier resolution cell).
+    const double cluster_hz = sample_rate_hz / static_cast<double>(fit_n);
+
+    const subband_mode_params& sub = params.subbands;
+    const std::vector<damped_mode> found = find_subband_modes(note, sample_rate_hz, sub);
+    // The stability check of modal analysis: a resonance is found again, at the same frequency and
+    // decay, on a shorter span; poles that fit noise move.
+    subband_mode_params shorter = sub;
+    shorter.span_s = params.stable_span_fraction * sub.span_s;
+    const std::vector<damped_mode> again = find_subband_modes(note, sample_rate_hz, shorter);
+
+    std::vector<role> roles = initial_roles(p, sample_rate_hz, cluster_hz);
+    std::vector<bool> taken(found.size(), false);
+    const std::vector<double> decay = early_decays(p, roles, found, taken, params);
+    std::vector<damped_mode> new_modes = new_mode_candidates(p, found, again, taken, cluster_hz, params);
+    // Up to three passes, each revising the roles and the new modes from the last.
+    constexpr int passes = 3;
+    waveform_fit f;
+    for (int pass = 0; pass < passes; ++pass) {
+        f = fit_waveform(p, note, sample_rate_hz, fit_n, roles, decay, new_modes);
+        if (pass == passes - 1 || !revise_roles(p, note, f, roles, new_modes, sample_rate_hz, fit_n, params)) break;
+    }
+    const double energy = signal_energy(note.first(fit_n));
+    summary.explained_db = energy > 0.0 ? power_to_db(energy / std::max(f.residual_energy, 1e-30 * energy)) : 0.0;
+    apply_fit(p, f, roles, params, summary);
+    return summary;
+}
+
+}  // namespace wane

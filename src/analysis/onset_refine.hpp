@@ -1,0 +1,65 @@
+// Onset-anchored refinement of a fitted patch in the time domain: the STFT fits know each
+// partial's frequency and later decay but blur its first tens of milliseconds over a window. Here
+// the first span_s of the waveform decides the start of every partial (level and phase at t = 0,
+// early decay) by least squares on the samples (modes/damped_mode.hpp), and modes the tracker
+// missed (short-lived ones, found in subbands by ESPRIT, modes/subband_modes.hpp) join the patch
+// as partials of their own.
+#pragma once
+
+#include <span>
+
+#include "core/patch.hpp"
+#include "modes/subband_modes.hpp"
+
+namespace wane {
+
+struct onset_refine_params {
+    /// Waveform after the onset on which the complex amplitudes are fitted, seconds.
+    double fit_span_s = 0.15;
+    /// Subband search for modes (span, band layout, ESPRIT). The layout does not follow the
+    /// pitch, so a pitch given as a hint (--f0) finds the same modes.
+    subband_mode_params subbands{};
+    /// A subband mode this close to a fitted partial (Hz, or this many cents) is that partial ...
+    /// and a new mode keeps this many resolution cells (1 / fit span) from every partial.
+    double new_mode_clearance_cells = 2.0;
+    double same_mode_hz = 3.0;
+    double same_mode_cents = 15.0;
+    /// A new mode is kept when its energy over the fit span is within this many dB of the
+    /// strongest mode's, and its T60 is at least min_new_t60_s.
+    double new_mode_range_db = 45.0;
+    double min_new_t60_s = 0.006;
+    /// ... and is a resonance, not a burst of noise: quality factor pi f / decay (f over its
+    /// bandwidth) at least this ...
+    double min_new_q = 10.0;
+    /// ... and carries at least this share of the span's energy in its band (main lobe) ...
+    double new_mode_share = 0.5;
+    /// ... and is stable: found again on stable_span_fraction of the subband span, within
+    /// stable_freq_cells resolution cells and stable_decay_rel of its decay.
+    double stable_span_fraction = 0.6;
+    double stable_freq_cells = 0.5;
+    double stable_decay_rel = 0.3;
+    /// ... and at most max_new_t60_s: a mode that lives longer is seen by the STFT tracker, and
+    /// poles that fit the attack noise ring on as tones.
+    double max_new_t60_s = 0.2;
+    /// A partial whose fitted onset level is this far below its STFT peak rises slowly: it keeps
+    /// its fitted attack ramp and only its level (by at most this much) and phase are fitted.
+    double slow_rise_db = 6.0;
+    /// The early line is joined to the STFT envelope at their crossing, searched up to this time;
+    /// without one, a bridge of bridge_s joins them after the fit span.
+    double join_search_s = 0.3;
+    double bridge_s = 0.05;
+    /// An envelope with an instant onset that agrees with the early line within this is kept.
+    double agree_db = 1.0;
+};
+
+struct onset_refine_summary {
+    int new_modes = 0;            ///< partials added from the subband search
+    int refined = 0;              ///< partials given an instant onset and a fitted start
+    double explained_db = 0.0;    ///< -10 log10(residual / signal energy) over the fit span
+};
+
+/// Refines p's partials on note (note[0] at p's onset), in place, and adds the new modes.
+onset_refine_summary refine_onset(patch& p, std::span<const float> note, double sample_rate_hz,
+                                  const onset_refine_params& params);
+
+}  // namespace wane

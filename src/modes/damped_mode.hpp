@@ -1,0 +1,43 @@
+// Damped complex exponentials ("modes") and their complex amplitudes by least squares on the
+// waveform: the onset of a note in the time domain, where an STFT frame cannot see it.
+//
+// A mode k is  x_k(t) = Re( amp_k * exp((-decay_k + i 2 pi f_k) t) ),  t in seconds from the
+// note's onset, so |amp_k| is its amplitude at t = 0 (1 = a full-scale sinusoid, the patch's
+// 0 dBFS), arg(amp_k) the phase of cos(2 pi f t + phase), and T60 = ln(1000) / decay_k.
+#pragma once
+
+#include <complex>
+#include <span>
+#include <vector>
+
+namespace wane {
+
+struct damped_mode {
+    double freq_hz = 0.0;
+    double decay_per_s = 0.0;      ///< d of exp(-d t), 1/s; T60 = ln1000 / d (0 holds the level)
+    std::complex<double> amp{};    ///< complex amplitude at t = 0
+};
+
+/// Sum over n = 0 .. count-1 of exp(n a), a complex (the geometric series of z = exp(a)), computed
+/// as expm1(count a) / expm1(a) so that it stays exact as |a| -> 0 (then it tends to count).
+std::complex<double> geometric_sum(std::complex<double> a, double count);
+
+/// Least-squares complex amplitudes of the modes (their freq_hz and decay_per_s given) on
+/// x[0 .. x.size()), sampled at sample_rate_hz, x[0] at t = 0: minimizes
+///   sum_n ( x[n] - sum_k Re(amp_k z_k^n) )^2,   z_k = exp((-d_k + i 2 pi f_k) / fs),
+/// over the 2K real unknowns (Re, Im of each amp). The Gram matrix has a closed form for every pair
+/// (geometric series, geometric_sum), so it costs O(K^2) whatever the length; the projections cost
+/// O(K N). A ridge of ridge_rel times the mean diagonal keeps near-equal modes solvable.
+/// Writes amp into every mode; returns the residual energy over the signal energy (0..1; 1 when
+/// x is all zero). Preconditions (asserted): sample_rate_hz > 0, every freq in [0, fs/2].
+double fit_mode_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
+                           double ridge_rel = 1e-9);
+
+/// The same fit where mode k may have a shape of its own instead of exp(-d t): when shapes[k] is
+/// not empty it holds the real amplitude envelope a_k[n] (n < x.size(), a_k is the mode's level
+/// relative to its amp), and the mode is Re(amp_k a_k[n] exp(i 2 pi f_k n / fs)) (decay ignored).
+/// Pairs with a shaped mode are summed directly (O(N) each); shapes.size() == modes.size().
+double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
+                             std::span<const std::vector<double>> shapes, double ridge_rel = 1e-9);
+
+}  // namespace wane
