@@ -104,7 +104,7 @@ void bench_note(const std::string& name, const std::vector<float>& x, double fs,
                 repeats, 1e3 * cpu_med, 1e3 * wall_med, audio_s / cpu_med, audio_s / wall_med);
 
     // The stages alone, as analyze.cpp runs them (default settings: the whole file).
-    std::vector<double> track_t, fit_t, noise_t, resynth_t, measure_t, stream_t;
+    std::vector<double> track_t, fit_t, noise_t, resynth_t, measure_t, stream_t, refine_t, peak_t;
     for (int i = 0; i < repeats; ++i) {
         double c0 = thread_cpu_s();
         const wane::tracking_result t = wane::track_note(x, fs, params.tracking);
@@ -120,10 +120,21 @@ void bench_note(const std::string& name, const std::vector<float>& x, double fs,
         }
         fit_t.push_back(thread_cpu_s() - c0);
 
-        c0 = thread_cpu_s();
         const auto onset = static_cast<std::size_t>(std::llround(t.onset_s * fs));
         const std::span<const float> note = std::span<const float>(x).subspan(onset);
         p.note.length_s = r.value.note.length_s;
+        {
+            // The onset refinement and the peak match on a copy (the stages below see the
+            // partials as the fits gave them, as before).
+            wane::patch refined = p;
+            c0 = thread_cpu_s();
+            (void)wane::refine_onset(refined, note, fs, params.onset);
+            refine_t.push_back(thread_cpu_s() - c0);
+            c0 = thread_cpu_s();
+            (void)wane::peak_matching_gain_db(refined, note, fs);
+            peak_t.push_back(thread_cpu_s() - c0);
+        }
+        c0 = thread_cpu_s();
         const std::vector<float> partials_only = wane::render_patch(
             p, {.sample_rate_hz = fs, .length_s = static_cast<double>(note.size()) / fs, .include_noise = false});
         std::vector<float> residual(note.begin(), note.end());
@@ -163,6 +174,8 @@ void bench_note(const std::string& name, const std::vector<float>& x, double fs,
                 1e3 * median(resynth_t), 1e3 * median(measure_t),
                 1e3 * (median(noise_t) - median(resynth_t) - median(measure_t)));
     std::printf("  noise model streamed (fit_note_noise): %.2f ms\n", 1e3 * median(stream_t));
+    std::printf("  onset refinement (least squares at the onset, subband ESPRIT) %.2f ms, peak match %.2f ms\n",
+                1e3 * median(refine_t), 1e3 * median(peak_t));
 }
 
 }  // namespace
