@@ -37,7 +37,9 @@ std::optional<double> crossing_time(const envelope& env, double level0_db, doubl
     constexpr double step_s = 0.001;
     const auto diff = [&](double t) { return level0_db + slope_db_per_s * t - envelope_level(env, t).db; };
     double prev = diff(from_s);
-    for (double t = from_s + step_s; t <= to_s; t += step_s) {
+    const auto steps = static_cast<int>(std::floor((to_s - from_s) / step_s));
+    for (int i = 1; i <= steps; ++i) {
+        const double t = from_s + step_s * i;
         const double d = diff(t);
         if ((prev > 0.0) != (d > 0.0)) {
             // Linear interpolation between the two samples of the difference.
@@ -56,8 +58,12 @@ envelope joined_envelope(const envelope& old, double level0_db, double slope_db_
     // span, stays as it is (no extra segments for a difference that small).
     if (old.attack_s == 0.0) {
         double worst = 0.0;
-        for (double t = 0.0; t <= params.fit_span_s; t += 0.005)
+        constexpr double step_s = 0.005;
+        const auto steps = static_cast<int>(std::floor(params.fit_span_s / step_s));
+        for (int i = 0; i <= steps; ++i) {
+            const double t = step_s * i;
             worst = std::max(worst, std::abs(level0_db + slope_db_per_s * t - envelope_level(old, t).db));
+        }
         if (worst <= params.agree_db) return old;
     }
     envelope env{.attack_s = 0.0, .peak = level_db{level0_db}, .decay = {}};

@@ -21,7 +21,7 @@ std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<doub
     const cmatrix cov = data * data.adjoint();
     const Eigen::SelfAdjointEigenSolver<cmatrix> eig(cov);
     if (eig.info() != Eigen::Success) return {};
-    const Eigen::VectorXd values = eig.eigenvalues();  // ascending
+    const Eigen::VectorXd& values = eig.eigenvalues();  // ascending
     const double largest = values(dim - 1);
     if (!(largest > 0.0)) return {};
     std::vector<double> lower(values.data(), values.data() + dim / 2);

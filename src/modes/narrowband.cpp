@@ -27,7 +27,7 @@ note_spectrum::note_spectrum(std::span<const float> x, double sample_rate_hz) : 
     state_->fft_size = size;
     std::vector<float> buffer(static_cast<std::size_t>(size), 0.0f);
     std::copy(x.begin(), x.end(), buffer.begin());
-    state_->bins.resize(static_cast<std::size_t>(size / 2 + 1));
+    state_->bins.resize(static_cast<std::size_t>(size) / 2 + 1);
     kiss_fftr_cfg cfg = kiss_fftr_alloc(size, 0, nullptr, nullptr);
     kiss_fftr(cfg, buffer.data(), state_->bins.data());
     kiss_fftr_free(cfg);
