@@ -9,6 +9,7 @@
 
 #include "core/text_format.hpp"
 #include "cli/common.hpp"
+#include "cli/loudness.hpp"
 #include "io/atomic_file.hpp"
 #include "io/audio_file.hpp"
 #include "io/patch_toml.hpp"
@@ -57,6 +58,8 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
                            const tracking_result* tracking, const std::filesystem::path& patch_path,
                            const std::filesystem::path& out_path) {
     const std::vector<float> render = render_patch(p, {.sample_rate_hz = source.sample_rate_hz});
+    // The loudness rule of every command that renders (cli/loudness.hpp).
+    refuse_too_loud(peak_abs(render), patch_path.string());
     // The render starts at the onset; the source is compared from just before the patch's onset
     // (so a patch made with --start-s meets its own note), and compare_signals aligns the two.
     const std::span<const float> note = from_patch_onset(source, p);

@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Issue 21, item 6: the +40 dB rule in keymap as in render. A patch whose rising segment takes it to
+# The +40 dB rule in keymap and report as in render. A patch whose rising segment takes it to
 # about +240 dBFS, and one whose level overflows to infinity, are refused by keymap (exit 1, one
 # error line with the peak or "non-finite", no folder left) instead of being scaled by -240 dB or
 # failing on a NaN sample; a patch 6 dB over full scale is still scaled by one common gain (exit 0,
@@ -51,5 +51,14 @@ loudest=$(for f in set-hot/*.wav; do sox "$f" -n stat 2>&1 | awk '/(Maximum|Mini
 peak_db=$(awk -v a="$loudest" 'BEGIN { printf "%.2f", 20 * log(a) / log(10) }')
 echo "hot: loudest sample $loudest = $peak_db dBFS (sox stat), want -1.00 +- 0.01"
 awk -v p="$peak_db" 'BEGIN { exit !(p > -1.01 && p < -0.99) }' || { echo "FAIL: hot: peak $peak_db dBFS"; fail=1; }
+# The same rule in report, which renders the patch to compare it with its source.
+sox -n -r 48000 -b 16 source.wav synth 2 sine 220 vol 0.5 || { echo "FAIL: sox"; fail=1; }
+for name in rising overflow; do
+  "$wane" report source.wav $name.toml -o report-$name.html >out.txt 2>err.txt; rc=$?
+  echo "report $name: exit $rc: $(cat err.txt)"
+  [ $rc -eq 1 ] || { echo "FAIL: report $name: exit $rc, want 1"; fail=1; }
+  grep -q '^wane: error: .*more than 40 dB over full scale' err.txt || { echo "FAIL: report $name: message"; fail=1; }
+  [ ! -e report-$name.html ] || { echo "FAIL: report $name: page written"; fail=1; }
+done
 [ $fail -eq 0 ] && echo "PASS"
 exit $fail
