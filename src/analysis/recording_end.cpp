@@ -38,10 +38,10 @@ recording_end classify_recording_end(std::span<const float> note, double sample_
     // Held stretch: frames back from the end whose level stays within the tolerance of the end's.
     const double end_db = power_to_db(std::max(end_power, 1e-30));
     std::size_t held_frames = 0;
-    for (auto it = power.rbegin(); it != power.rend(); ++it) {
-        if (std::abs(power_to_db(std::max(*it, 1e-30)) - end_db) > params.hold_tolerance_db) break;
+    while (held_frames < power.size() &&
+           std::abs(power_to_db(std::max(power[power.size() - 1 - held_frames], 1e-30)) - end_db) <=
+               params.hold_tolerance_db)
         ++held_frames;
-    }
     out.held_s = held_frames == 0 ? 0.0 : (static_cast<double>(held_frames - 1) * static_cast<double>(hop) +
                                            static_cast<double>(frame)) / sample_rate_hz;
     if (out.end_below_peak_db < params.cut_within_db) {

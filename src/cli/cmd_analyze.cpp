@@ -246,7 +246,10 @@ int run(const analyze_options& o) {
                 const std::string what = e.what();
                 const std::string input = jobs[i].input.string();
                 std::lock_guard lock(out_mutex);
-                print_error(what.find(input) == std::string::npos ? input + ": " + what : what);
+                std::string message;
+                if (what.find(input) == std::string::npos) message.append(input).append(": ");
+                message.append(what);
+                print_error(message);
             }
             bar.advance();
         }

@@ -305,7 +305,7 @@ void use_round_robin_defaults(transform_params& base) {
         fmt(rr_default_decay_jitter, 2) + " --random-phase");
 }
 
-int run_keymap(keymap_options o) {
+int run_keymap(const keymap_options& o) {
     const auto start = std::chrono::steady_clock::now();
     const keymap_settings k = check_keymap_options(o);
     transform_params base = k.base;
