@@ -9,6 +9,8 @@
 #include <cstdlib>
 #include <new>
 
+#include <malloc.h>
+
 namespace wane::test {
 
 /// Bytes allocated through operator new and not yet freed, and the highest value it reached.
@@ -37,32 +39,38 @@ private:
 };
 
 namespace allocation_detail {
-/// Each block carries its size in a header of max_align_t size.
-inline constexpr std::size_t header = alignof(std::max_align_t) > sizeof(std::size_t) ? alignof(std::max_align_t)
-                                                                                      : sizeof(std::size_t);
+/// Each block is counted by the size its allocator gives it (malloc_usable_size: glibc's and the
+/// sanitizers' allocators both answer it), so no header is written in front of a block and a
+/// block that some other path allocated can still be freed here.
 inline void* allocate(std::size_t n) {
-    void* raw = std::malloc(n + header);
-    if (raw == nullptr) throw std::bad_alloc();
-    *static_cast<std::size_t*>(raw) = n;
-    const std::size_t now = allocations().live.fetch_add(n) + n;
-    std::size_t p = allocations().peak.load();
-    while (now > p && !allocations().peak.compare_exchange_weak(p, now)) {
+    void* p = std::malloc(n == 0 ? 1 : n);
+    if (p == nullptr) throw std::bad_alloc();
+    const std::size_t size = malloc_usable_size(p);
+    const std::size_t now = allocations().live.fetch_add(size) + size;
+    std::size_t peak = allocations().peak.load();
+    while (now > peak && !allocations().peak.compare_exchange_weak(peak, now)) {
     }
-    return static_cast<char*>(raw) + header;
+    return p;
 }
 inline void release(void* p) noexcept {
     if (p == nullptr) return;
-    void* raw = static_cast<char*>(p) - header;
-    allocations().live.fetch_sub(*static_cast<std::size_t*>(raw));
-    std::free(raw);
+    const std::size_t size = malloc_usable_size(p);
+    std::size_t live = allocations().live.load();
+    while (!allocations().live.compare_exchange_weak(live, live > size ? live - size : 0)) {
+    }
+    std::free(p);
 }
 }  // namespace allocation_detail
 
 }  // namespace wane::test
 
+#if !defined(__SANITIZE_ADDRESS__)
+// Under AddressSanitizer the sanitizer's allocator owns operator new and delete: nothing is
+// counted there (peak_bytes() reads 0) and the byte bounds are checked by the plain build.
 void* operator new(std::size_t n) { return wane::test::allocation_detail::allocate(n); }
 void* operator new[](std::size_t n) { return wane::test::allocation_detail::allocate(n); }
 void operator delete(void* p) noexcept { wane::test::allocation_detail::release(p); }
 void operator delete[](void* p) noexcept { wane::test::allocation_detail::release(p); }
 void operator delete(void* p, std::size_t) noexcept { wane::test::allocation_detail::release(p); }
 void operator delete[](void* p, std::size_t) noexcept { wane::test::allocation_detail::release(p); }
+#endif
