@@ -88,7 +88,9 @@ bool make_job_patches(const patch& source, const transform_params& base, const s
             patches.push_back(apply_transforms(source, keymap_job_transform(base, j), o.rate_hz));
         } catch (const transform_error& e) {
             const std::string option = e.param == "to_midi" ? "--notes" : transform_option_name(e.param);
-            throw std::runtime_error(input + ": " + option + ": note " + note_name(j.root_midi) + ": " + e.what());
+            std::string message = input;
+            message.append(": ").append(option).append(": note ").append(note_name(j.root_midi)).append(": ").append(e.what());
+            throw std::runtime_error(message);
         }
         const double length_s = keymap_length_s(patches.back(), o.length, input + ": note " + note_name(j.root_midi), held);
         renders.push_back({.sample_rate_hz = o.rate_hz, .length_s = length_s,
@@ -206,6 +208,7 @@ int run_keymap(const keymap_options& o) {
     const std::filesystem::path dir{o.output_dir};
     const std::filesystem::path sfz_path = dir / (in.stem().string() + ".sfz");
     std::vector<std::string> names;
+    names.reserve(jobs.size() + 1);
     for (const keymap_job& j : jobs) names.push_back(j.sample);
     names.push_back(sfz_path.filename().string());  // moved last
     check_set_names(dir, {in}, names);
