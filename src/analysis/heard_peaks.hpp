@@ -1,0 +1,70 @@
+// Each partial's constant frequency from the recording's own long spectrum: where a long FFT of the
+// note's first second finds the partial, so a copy (and a transposed copy) puts its partials where
+// the recording's were.
+//
+// fitting/partial_freq gives each partial the peak of its track's own spectrum over the same span.
+// That spectrum is built from STFT frames a few tens of ms long, so when a partial is a group of
+// components closer than the STFT window resolves (a course of two or three strings, a string
+// section in unison, a drum head's split mode), the track follows a mixture and its peak can sit on
+// a weaker member of the group. Here the recording itself is transformed over the span, and a
+// partial that stands alone for its neighbourhood moves to the strongest peak of that
+// neighbourhood.
+#pragma once
+
+#include <span>
+
+#include "core/patch.hpp"
+#include "fitting/envelope_fit.hpp"
+#include "tracking/track.hpp"
+
+namespace wane {
+
+struct heard_peak_params {
+    /// The span: 0.1 s to 1.1 s after the onset; a note shorter than span_end_s + 0.1 s uses
+    /// short_start_s to its end (the span the real notes' README measures f0 over; common
+    /// practice: after the strike's transient, where a plucked or struck note's pitch is heard).
+    double span_start_s = 0.1;
+    double span_s = 1.0;
+    double short_start_s = 0.05;
+    double min_span_s = 0.25;       ///< shorter: nothing is moved
+    /// How far a partial may move, in main-lobe half-widths (2 / T Hz for a Hann window over T s):
+    /// two, the distance inside which a span of T s cannot tell two components apart cleanly.
+    double capture_half_widths = 2.0;
+    double max_move_cents = 50.0;   ///< never more than a quarter tone: the partial keeps its note
+    /// The peak must carry the partial's own level over the span within this (dB): a peak much
+    /// stronger or weaker than the partial is another partial's.
+    double level_gate_db = 12.0;
+    int zero_padding = 8;           ///< FFT size >= zero_padding x span length
+    /// Peaks the tracks missed (add_heard_peaks): within this many dB of the span's strongest
+    /// peak, ...
+    double add_within_db = 50.0;
+    /// ... the highest point within +-add_isolation_reaches capture distances (a side lobe or a
+    /// skirt of a stronger peak is not a partial), ...
+    double add_isolation_reaches = 2.0;
+    /// ... standing this far above the median of the span's spectrum within +-add_floor_hz ...
+    double add_clear_db = 15.0;
+    double add_floor_hz = 50.0;
+    /// ... and with no partial within one main-lobe half-width (2 / T Hz: a partial further off
+    /// makes a peak of its own) carrying its level within level_gate_db; at most this many per
+    /// note, strongest first.
+    int max_added = 8;
+    double band_rate_hz = 80.0;     ///< the narrow band's rate: points 12.5 ms apart, as the STFT hop
+    double floor_quantile = 0.1;    ///< the band's noise floor: this quantile of its level over the note
+};
+
+/// Moves partial i (tracks[i] its track; nullptr: left alone) to the strongest local peak of the
+/// Hann-windowed spectrum of note (samples from the onset on) within the capture distance, when
+/// no partial stronger over the span lies within that distance of it, and re-anchors its phase
+/// at t = 0 to the new frequency. Returns how many partials moved by more than 0.01 cents.
+int move_to_heard_peaks(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
+                        double sample_rate_hz, const heard_peak_params& params);
+
+/// Adds a partial for each strong peak of the same span spectrum that no partial accounts for
+/// (a mode the tracker missed or fitted far below its level): its level over the whole note from
+/// a narrow band of half-width = the capture distance around the peak (modes/narrowband, note zero
+/// padded so the band's circular wrap falls on silence), fitted like a track (fit_partial with
+/// fit_params), at the peak's frequency. Returns how many were added (appended, harmonic 0).
+int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz, const heard_peak_params& params,
+                    const envelope_fit_params& fit_params);
+
+}  // namespace wane
