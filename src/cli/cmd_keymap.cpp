@@ -262,6 +262,18 @@ void write_set_texts(const staging_folder& stage, const std::filesystem::path& d
     }
 }
 
+/// Size of the set's files in MiB.
+double set_mib(const std::filesystem::path& dir, const std::vector<std::string>& names) {
+    constexpr double bytes_per_mib = 1024.0 * 1024.0;
+    std::uintmax_t bytes = 0;
+    for (const std::string& name : names) {
+        std::error_code ec;
+        const std::uintmax_t size = std::filesystem::file_size(dir / name, ec);
+        if (!ec) bytes += size;
+    }
+    return static_cast<double>(bytes) / bytes_per_mib;
+}
+
 int run_keymap(const keymap_options& o) {
     const auto start = std::chrono::steady_clock::now();
     const keymap_settings k = check_keymap_options(o);
@@ -313,7 +325,8 @@ int run_keymap(const keymap_options& o) {
     }
     const double elapsed_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     const std::size_t notes = jobs.size() / static_cast<std::size_t>(o.layers * o.variants);
-    say("wrote " + std::to_string(jobs.size()) + " WAV files (" + std::to_string(notes) + " notes x " +
+    say("wrote " + std::to_string(jobs.size()) + " WAV files of " + fmt(set_mib(dir, names), 1) + " MiB in all (" +
+        std::to_string(notes) + " notes x " +
         std::to_string(o.layers) + " layers x " + std::to_string(o.variants) + " variants from " +
         std::to_string(src.patches.size()) + " patch(es) at " + std::to_string(roots.size()) + " key(s)), " +
         (dir / sfz_name).string() + " and " + (dir / plan_name).string() + "; loudest peak " +
