@@ -90,7 +90,7 @@ TEST_CASE("a partial present in one root only fades across the interval", "[tran
     CHECK(find_harmonic(interpolate_patches(lo, hi, 1.0, midi_to_hz(60)), 4) == nullptr);
 }
 
-TEST_CASE("inharmonic notes match partials by frequency ratio; decays with holds stay within their roots",
+TEST_CASE("inharmonic notes match partials by frequency ratio, and decays with holds stay within their roots",
           "[transform][keymap_roots]") {
     // A bar: modes at 1, 3.93, 9.7 (ratios of a tuned bar, common practice); unmatched mode 6.1 in one.
     patch lo = root_patch(200.0, 0.0, {1, 2, 3}, -10.0, 2.0);
