@@ -38,6 +38,17 @@ std::span<const float> from_patch_onset(const mono_audio& source, const patch& p
     return std::span<const float>(source.samples).subspan(from);
 }
 
+/// x (starting at the note's onset) placed at at_s in a signal as long as the source, zero elsewhere.
+std::vector<float> placed_in_source(std::span<const float> x, double at_s, const mono_audio& source) {
+    std::vector<float> out(source.samples.size(), 0.0f);
+    const auto at = static_cast<std::ptrdiff_t>(std::llround(at_s * source.sample_rate_hz));
+    for (std::size_t n = 0; n < x.size(); ++n) {
+        const std::ptrdiff_t k = at + static_cast<std::ptrdiff_t>(n);
+        if (k >= 0 && k < static_cast<std::ptrdiff_t>(out.size())) out[static_cast<std::size_t>(k)] = x[n];
+    }
+    return out;
+}
+
 /// Longest source a report draws (our choice, no source): the page embeds the source and the
 /// render as audio and a spectrogram, about 8 MB and 40 MB of memory per minute at 48 kHz (a
 /// 30-minute input took 1.04 GB and wrote a 231 MB page); 300 s keeps a page under about 40 MB.
@@ -70,6 +81,16 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
     } catch (const analysis_error& e) {
         comparison_note = std::string("No comparison: ") + e.what() + ".";
     }
+    const double from_s = static_cast<double>(source.samples.size() - note.size()) / source.sample_rate_hz;
+    // b[n + lag] lines up with a[n] (measure/align.hpp): the render's first sample sits at
+    // from_s - lag in the source file; without a comparison, at the patch's onset.
+    const double copy_at_s = comparison ? from_s - static_cast<double>(comparison->align.lag_frames) / source.sample_rate_hz
+                                        : p.source.onset_s;
+    const std::vector<float> partials = render_patch(p, {.sample_rate_hz = source.sample_rate_hz, .include_noise = false});
+    std::vector<float> noise(render.size());
+    for (std::size_t n = 0; n < render.size(); ++n) noise[n] = render[n] - partials[n];
+    const std::vector<float> copy_in_source = placed_in_source(render, copy_at_s, source);
+    const std::vector<float> partials_in_source = placed_in_source(partials, copy_at_s, source);
     report_inputs in{.title = "wane report: " + source_path.filename().string(),
                      .value = &p,
                      .tracking = tracking,
@@ -78,11 +99,15 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
                      .source_rate_hz = source.sample_rate_hz,
                      .render_audio = render,
                      .render_rate_hz = source.sample_rate_hz,
+                     .copy_in_source = copy_in_source,
+                     .partials_in_source = partials_in_source,
+                     .partials_audio = partials,
+                     .noise_audio = noise,
                      .source_name = source_path.filename().string(),
                      .info_table = patch_info_text(p, patch_path),
                      .comparison = comparison ? &*comparison : nullptr,
                      .comparison_note = comparison_note,
-                     .comparison_from_s = static_cast<double>(source.samples.size() - note.size()) / source.sample_rate_hz};
+                     .comparison_from_s = from_s};
     write_file_atomic(out_path, make_report_html(in));
 }
 
