@@ -41,7 +41,9 @@ void colour_bar(std::ostringstream& h, const plot_frame& f, const std::string& i
       << "' fill='url(#" << id << "-bar)' stroke='#444'/>";
     const double top_db = difference ? diff_range_db : 0.0, span_db = difference ? 2.0 * diff_range_db : range_db;
     const double step = difference ? 12.0 : 15.0;
-    for (double db = top_db; db >= top_db - span_db - 1e-9; db -= step) {
+    const long ticks = std::lround(std::floor(span_db / step + 1e-9));
+    for (long i = 0; i <= ticks; ++i) {
+        const double db = top_db - static_cast<double>(i) * step;
         const double y = f.top + (top_db - db) / span_db * plot_h;
         h << "<text x='" << bar_x + bar_w + 4 << "' y='" << y + 4.5 << "'>" << fmt(difference ? "%+.0f" : "%.0f", db) << "</text>";
     }

@@ -103,9 +103,10 @@ std::string svg_axes(const plot_frame& f, const std::string& x_label, const std:
           << text << "</text>";
     };
     if (f.log_y) {
-        for (double decade = std::pow(10.0, std::floor(std::log10(f.y0))); decade <= f.y1; decade *= 10.0) {
+        const long first = std::lround(std::floor(std::log10(f.y0))), last = std::lround(std::ceil(std::log10(f.y1)));
+        for (long e = first; e <= last; ++e) {
             for (const double m : {1.0, 2.0, 5.0}) {
-                const double y = m * decade;
+                const double y = m * std::pow(10.0, static_cast<double>(e));
                 if (y >= f.y0 && y <= f.y1) y_tick(y, printf_text("%g", y));
             }
         }
