@@ -77,6 +77,12 @@ constexpr const char* solo_script = R"JS(
   });
   const tracks = document.getElementById('show-tracks');
   if (tracks) tracks.addEventListener('change', function () { document.body.dataset.tracks = tracks.checked ? 'on' : 'off'; });
+  if (location.hash === '#check-solo' && data.partials.length > 0) {
+    // For tests: the peak of partial 1 as rendered here, in dBFS (page opened as file.html#check-solo).
+    let peak = 0;
+    for (const v of render(data.partials[0])) peak = Math.max(peak, Math.abs(v));
+    document.body.dataset.soloPeakDb = (20 * Math.log10(Math.max(peak, 1e-10))).toFixed(2);
+  }
   document.body.dataset.ready = 'yes';
 })();
 )JS";

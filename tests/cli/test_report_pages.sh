@@ -47,4 +47,16 @@ for wav in "$src"/demo-data/*.wav; do
         echo "note: $chromium not found; the headless rendering checks are skipped"
     fi
 done
+# The page's partial renderer: partial 1 of patches/glass-tine.toml (peak -10.00 dBFS after a
+# 0.5 ms attack, 1046.5 Hz, gain 0 dB) rendered by the script in Chromium peaks at -10.00 dBFS
+# within 0.05 dB (the sample grid misses the cosine's crest by at most 1 - cos(pi f / rate):
+# 0.02 dB; the decay over the first period: 0.01 dB).
+if [ -x "$chromium" ]; then
+    "$wane" -q render "$src/patches/glass-tine.toml" -o tine.wav; check '[ $? -eq 0 ]'
+    "$wane" -q report tine.wav "$src/patches/glass-tine.toml" -o tine.html; check '[ $? -eq 0 ]'
+    run_chromium --dump-dom "$work/tine.html#check-solo" > tine.dom
+    peak=$(grep -o 'data-solo-peak-db="[-0-9.]*"' tine.dom | grep -o '[-0-9.]*' | head -1)
+    echo "partial 1 of glass-tine rendered in the page: peak ${peak:-none} dBFS (patch: -10.00)"
+    check '[ -n "$peak" ] && awk -v p="$peak" "BEGIN { exit !(p > -10.05 && p < -9.95) }"'
+fi
 exit $fail
