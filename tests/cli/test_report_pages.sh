@@ -55,7 +55,7 @@ if [ -x "$chromium" ]; then
     "$wane" -q render "$src/patches/glass-tine.toml" -o tine.wav; check '[ $? -eq 0 ]'
     "$wane" -q report tine.wav "$src/patches/glass-tine.toml" -o tine.html; check '[ $? -eq 0 ]'
     run_chromium --dump-dom "$work/tine.html#check-solo" > tine.dom
-    peak=$(grep -o 'data-solo-peak-db="[-0-9.]*"' tine.dom | grep -o '[-0-9.]*' | head -1)
+    peak=$(sed -n 's/.*data-solo-peak-db="\([-0-9.]*\)".*/\1/p' tine.dom | head -1)
     echo "partial 1 of glass-tine rendered in the page: peak ${peak:-none} dBFS (patch: -10.00)"
     check '[ -n "$peak" ] && awk -v p="$peak" "BEGIN { exit !(p > -10.05 && p < -9.95) }"'
 fi
