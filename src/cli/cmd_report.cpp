@@ -59,6 +59,7 @@ struct report_options {
     std::filesystem::path source_path;
     std::filesystem::path patch_path;
     std::filesystem::path out_path;
+    double top_hz = 0.0;
 };
 
 }  // namespace
@@ -67,7 +68,7 @@ double max_report_input_s() { return default_max_report_s; }
 
 void write_analysis_report(const mono_audio& source, const std::filesystem::path& source_path, const patch& p,
                            const tracking_result* tracking, const std::filesystem::path& patch_path,
-                           const std::filesystem::path& out_path) {
+                           const std::filesystem::path& out_path, double top_hz) {
     const std::vector<float> render = render_patch(p, {.sample_rate_hz = source.sample_rate_hz});
     // The loudness rule of every command that renders (cli/loudness.hpp).
     refuse_too_loud(peak_abs(render), patch_path.string());
@@ -107,7 +108,8 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
                      .info_table = patch_info_text(p, patch_path),
                      .comparison = comparison ? &*comparison : nullptr,
                      .comparison_note = comparison_note,
-                     .comparison_from_s = from_s};
+                     .comparison_from_s = from_s,
+                     .max_plot_freq_hz = top_hz};
     write_file_atomic(out_path, make_report_html(in));
 }
 
@@ -121,7 +123,10 @@ void add_report_command(CLI::App& app, command_registry& reg) {
     sub->add_option("-o,--output", opt->out_path, "HTML file to write")->required();
     sub->add_option("--max-input-s", opt->max_input_s, "Refuse sources longer than this, seconds (the page embeds them)")
         ->capture_default_str();
+    sub->add_option("--top-hz", opt->top_hz,
+                    "Top of the spectrograms in Hz (default: the source's Nyquist frequency)");
     sub->footer("Examples:\n  wane report pluck.wav pluck.toml -o pluck.html\n"
+                "  wane report pluck.wav pluck.toml -o pluck.html --top-hz 8000\n"
                 "  wane analyze pluck.wav -o pluck.toml --report   (writes pluck.html beside the patch)");
     reg.add(sub, [opt] {
         const std::filesystem::path inputs[] = {opt->source_path, opt->patch_path};
@@ -129,6 +134,9 @@ void add_report_command(CLI::App& app, command_registry& reg) {
         const auto t0 = std::chrono::steady_clock::now();
         if (!(opt->max_input_s > 0.0 && std::isfinite(opt->max_input_s))) {
             throw usage_error("--max-input-s " + short_num(opt->max_input_s) + ": must be a positive number of seconds");
+        }
+        if (!(opt->top_hz >= 0.0 && std::isfinite(opt->top_hz))) {
+            throw usage_error("--top-hz " + short_num(opt->top_hz) + ": must be 0 (the Nyquist frequency) or a positive frequency in Hz");
         }
         const mono_audio source = read_audio(opt->source_path, {.max_length_s = opt->max_input_s});
         const patch_read_result r = read_patch_file(opt->patch_path);
@@ -151,7 +159,7 @@ void add_report_command(CLI::App& app, command_registry& reg) {
         } catch (const analysis_error& e) {
             warn(opt->source_path.string() + ": no tracks drawn: " + e.what());
         }
-        write_analysis_report(source, opt->source_path, p, tracking.get(), opt->patch_path, opt->out_path);
+        write_analysis_report(source, opt->source_path, p, tracking.get(), opt->patch_path, opt->out_path, opt->top_hz);
         const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
         say(opt->out_path.string() + ": report written in " + num("%.2f s", seconds) + ", " +
             std::to_string(std::filesystem::file_size(opt->out_path)) + " bytes");

@@ -31,6 +31,14 @@ check '[ "$(grep -o "https\?://[^'"'"'\" ]*" note.html | sort -u)" = "http://www
 # The patch table of `wane info` is embedded.
 check 'grep -q "$("$wane" info note.toml | sed -n 2p | sed "s/[[:space:]]\+/ /g; s/^ //" | cut -c1-20)" <(sed "s/[[:space:]]\+/ /g" note.html)'
 
+# --top-hz: the spectrograms stop there (the linear axes' top tick 8000 Hz, no 20 kHz tick);
+# a negative one is refused with exit 2.
+"$wane" -q report note.wav note.toml -o top.html --top-hz 8000; check '[ $? -eq 0 ]'
+sed -n "/<section id='spectrogram'/,/<section id='onset'/p" top.html > top-spectrograms.html
+check 'grep -q ">8000</text>" top-spectrograms.html && ! grep -q ">20000</text>" top-spectrograms.html'
+"$wane" report note.wav note.toml -o bad-top.html --top-hz -1 > /dev/null 2> top.err; rc=$?
+check '[ $rc -eq 2 ] && grep -q "^wane: error: --top-hz -1" top.err'
+
 # The rendered page (headless Chromium) is checked for every demo note in test_report_pages.sh.
 
 # Bad input: exit 1, one error line, no HTML (and no temporary file) left behind.
