@@ -99,7 +99,7 @@ std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
     std::ostringstream os;
     const note_info& n = p.note;
 
-    os << printable(path.string()) << " (" << patch_format_name << " version " << p.version << ")\n";
+    os << printable(path.string()) << " (" << patch_format_name << " version " << written_format_version(p) << ")\n";
     os << "  name      " << (n.name.empty() ? "(none)" : printable(n.name)) << '\n';
     os << "  f0        " << pitch_text(n.f0_hz) << '\n';
     os << "  B         " << printf_text("%.4e", n.inharmonicity_b) << '\n';
