@@ -134,7 +134,7 @@ int main(int argc, char** argv) {
         const std::filesystem::path out = dir / (std::string(label) + "-set");
         const std::string cmd = "'" + wane_exe + "' --quiet keymap '" + patch_path.string() + "' -o '" + out.string() +
                                 "' --notes " + bench_notes + " --layers " + std::to_string(bench_layers) +
-                                " --rate 48000 --bits 24 --threads " + std::to_string(threads);
+                                " --length-s " + std::to_string(bench_length_s) + " --rate 48000 --bits 24 --threads " + std::to_string(threads);
         std::vector<double> times;
         const double cpu_before_s = children_cpu_s();
         for (int r = 0; r < repeats; ++r) {

@@ -127,6 +127,14 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     if (p.partials.empty()) throw analysis_error("no partial stays clear of the noise floor long enough to fit");
     out.summary.fit_error_db = frames > 0.0 ? std::sqrt(sq_error / frames) : 0.0;
 
+    const auto onset_frame = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
+    if (onset_frame < part.size()) {
+        std::vector<const partial_track*> tracks(fitted.size());
+        for (std::size_t i = 0; i < fitted.size(); ++i) tracks[i] = fitted[i].track;
+        out.summary.moved_to_heard_peaks =
+            move_to_heard_peaks(p, tracks, part.subspan(onset_frame), sample_rate_hz, params.heard_peaks);
+    }
+
     const double analysed_s = static_cast<double>(part.size()) / sample_rate_hz - tr.onset_s;
     p.note.name = params.note_name;
     p.note.f0_hz = tr.f0_hz;
@@ -140,7 +148,6 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     p.source.onset_s = params.start_s + tr.onset_s;
     p.source.analysis = analysis_settings{.window = std::string(window_name(tr.window)),
                                           .fft_size = tr.fft_size, .window_s = tr.window_s, .hop_s = tr.hop_s};
-    const auto onset_frame = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
     if (params.split_pairs && onset_frame < part.size()) {
         out.summary.pairs_split = split_beating_pairs(p, part.subspan(onset_frame), sample_rate_hz, params.pairs);
         out.summary.partials = static_cast<int>(p.partials.size());

@@ -8,6 +8,7 @@
 #include "analysis/noise_model.hpp"
 #include "analysis/recording_end.hpp"
 #include "analysis/beating_pairs.hpp"
+#include "analysis/heard_peaks.hpp"
 #include "analysis/onset_refine.hpp"
 #include "core/analysis_error.hpp"
 #include "core/patch.hpp"
@@ -37,6 +38,8 @@ struct analysis_params {
     /// Set note.gain_db so the copy does not peak above the recording (peak_matching_gain_db).
     bool match_peak = true;
     onset_refine_params onset{};
+    /// Partial frequencies from the recording's own long spectrum (analysis/heard_peaks.hpp).
+    heard_peak_params heard_peaks{};
 };
 
 struct analysis_summary {
@@ -48,7 +51,8 @@ struct analysis_summary {
     recording_end end{};       ///< how the recording ends (analysis/recording_end.hpp)
     int continued_past_cut = 0;  ///< partials and bands whose last segment was made to fall (cut_tail.hpp)
     int pairs_split = 0;       ///< partials split into beating pairs
-    int new_modes = 0;         ///< partials added by the onset refinement (short-lived modes)
+    int new_modes = 0;
+    int moved_to_heard_peaks = 0;  ///< partials moved to the recording's long-spectrum peak         ///< partials added by the onset refinement (short-lived modes)
     /// Energy of the first fit span explained by the partials, dB (onset refinement).
     double onset_explained_db = 0.0;
 };

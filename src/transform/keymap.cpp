@@ -1,7 +1,6 @@
 #include "transform/keymap.hpp"
 
 #include <cassert>
-#include <sstream>
 
 #include "core/rng.hpp"
 
@@ -98,30 +97,6 @@ std::vector<keymap_job> plan_keymap(const keymap_params& params) {
         }
     }
     return jobs;
-}
-
-std::string keymap_sfz(const std::vector<keymap_job>& jobs, const keymap_params& params, std::string_view title) {
-    std::string clean_title(title);
-    for (char& c : clean_title) {
-        if (c == '\n' || c == '\r') c = ' ';
-    }
-    std::ostringstream s;
-    s << "// " << clean_title << "\n";
-    s << "// wane keymap: " << note_name(params.notes.low_midi) << ".." << note_name(params.notes.high_midi)
-      << ", every " << params.every << " note(s), " << params.layers << " velocity layer(s), " << params.variants
-      << " round-robin variant(s)\n";
-    int current_variant = 0;
-    for (const keymap_job& j : jobs) {
-        if (j.variant != current_variant) {
-            current_variant = j.variant;
-            s << "\n<group>";
-            if (params.variants > 1) s << " seq_length=" << params.variants << " seq_position=" << j.variant;
-            s << "\n";
-        }
-        s << "<region> sample=" << j.sample << " lokey=" << j.lokey << " hikey=" << j.hikey
-          << " pitch_keycenter=" << j.root_midi << " lovel=" << j.lovel << " hivel=" << j.hivel << "\n";
-    }
-    return s.str();
 }
 
 transform_params keymap_job_transform(const transform_params& base, const keymap_job& job) {

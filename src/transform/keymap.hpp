@@ -70,11 +70,6 @@ std::string keymap_sample_name(int midi, int layer, int variant);
 /// The render jobs, ordered by variant, then note, then layer (the order of the SFZ text).
 std::vector<keymap_job> plan_keymap(const keymap_params& params);
 
-/// The SFZ mapping of the jobs: a comment header, then one <group> per variant (with seq_length
-/// and seq_position when there are several) holding one <region> per job. title is put in a
-/// comment (line breaks replaced by spaces).
-std::string keymap_sfz(const std::vector<keymap_job>& jobs, const keymap_params& params, std::string_view title);
-
 /// The transforms of one job: base plus the move to the job's note, its layer's level and
 /// brightness, and its variation seed.
 transform_params keymap_job_transform(const transform_params& base, const keymap_job& job);

@@ -37,7 +37,7 @@ TOML
 
 # (a) A folder where a sample goes.
 mkdir -p set-a/C3_v1_rr1.wav
-"$wane" keymap pluck.toml -o set-a --notes C3..C4 >out.txt 2>err.txt
+"$wane" keymap pluck.toml -o set-a --notes C3..C4 --length-s 0.25 >out.txt 2>err.txt
 rc=$?
 echo "(a) exit $rc: $(cat err.txt)"
 [ $rc -eq 1 ] || { echo "FAIL: (a) exit $rc, want 1"; fail=1; }
@@ -59,11 +59,11 @@ if ! mount -t tmpfs -o size=2m tmpfs full 2>mount.err; then
 fi
 mounted=$PWD/full
 # 13 notes x 0.25 s x 48 kHz x 3 bytes: about 0.5 MB, fits in 2 MiB.
-"$wane" -q keymap pluck.toml -o full/set --notes C3..C4 || { echo "FAIL: (b) first set"; fail=1; }
+"$wane" -q keymap pluck.toml -o full/set --notes C3..C4 --length-s 0.25 || { echo "FAIL: (b) first set"; fail=1; }
 cp -a full/set first
 echo "(b) first set: $(ls full/set | wc -l) files, $(du -sk full | cut -f1) KiB used"
 # 3 layers x 3 variants of 25 notes: about 8 MB, cannot fit.
-"$wane" keymap pluck.toml -o full/set --notes C3..C5 --layers 3 --variants 3 >out.txt 2>err.txt
+"$wane" keymap pluck.toml -o full/set --notes C3..C5 --layers 3 --variants 3 --length-s 0.25 >out.txt 2>err.txt
 rc=$?
 echo "(b) second set: exit $rc: $(head -c 300 err.txt)"
 [ $rc -eq 1 ] || { echo "FAIL: (b) exit $rc, want 1"; fail=1; }
@@ -73,7 +73,7 @@ left=$(find full -name '.*')
 [ -z "$left" ] || { echo "FAIL: (b) left behind: $left"; fail=1; }
 # A new folder on the full disk: fails, and the folder it would have created is gone.
 dd if=/dev/zero of=full/filler bs=64k 2>/dev/null
-"$wane" keymap pluck.toml -o full/new-set --notes C3..C4 >out.txt 2>err.txt
+"$wane" keymap pluck.toml -o full/new-set --notes C3..C4 --length-s 0.25 >out.txt 2>err.txt
 rc=$?
 echo "(b) new folder on a full disk: exit $rc: $(head -c 300 err.txt)"
 [ $rc -eq 1 ] || { echo "FAIL: (b) new folder: exit $rc, want 1"; fail=1; }

@@ -25,6 +25,7 @@
 #include "synthesis/render.hpp"
 #include "transform/blend.hpp"
 #include "transform/keymap.hpp"
+#include "transform/keymap_sfz.hpp"
 #include "core/rng.hpp"
 #include "transform/transform.hpp"
 
@@ -605,4 +606,25 @@ TEST_CASE("wane keymap: SFZ parses, samples exist, ranges tile, root notes match
     CHECK(regions.size() == 6 * 3 * 2);  // A2 C#3 F3 A3 C#4 and D4 (the top), 3 layers, 2 variants
     check_tiling(regions, params);
     std::filesystem::remove_all(dir);
+}
+
+TEST_CASE("amp_veltrack: the SFZ default curve, and the fit to the rendered layers", "[transform][keymap]") {
+    // SFZ specification (sfzformat.com, amp_veltrack): at 100, gain = 20 log10((v/127)^2).
+    CHECK_THAT(sfz_velocity_gain_db(127, 100), WithinAbs(0.0, 1e-12));
+    CHECK_THAT(sfz_velocity_gain_db(64, 100), WithinAbs(40.0 * std::log10(64.0 / 127.0), 1e-12));
+    CHECK_THAT(sfz_velocity_gain_db(1, 0), WithinAbs(0.0, 1e-12));
+    // One layer, or layers at one level: the sampler's tracking does all, the default 100.
+    const std::vector<layer_level> one{{.lovel = 1, .hivel = 127, .level_db = 0.0}};
+    CHECK(fit_amp_veltrack_pct(one) == 100);
+    const std::vector<layer_level> flat{{1, 63, 0.0}, {64, 127, 0.0}};
+    CHECK(fit_amp_veltrack_pct(flat) == 100);
+    // Layers whose levels already carry the default curve's difference to tracking p0: the fit finds p0.
+    const int p0 = GENERATE(0, 30, 60, 90);
+    std::vector<layer_level> layers{{1, 42, 0.0}, {43, 84, 0.0}, {85, 127, 0.0}};
+    for (layer_level& l : layers) {
+        const int mid = (l.lovel + l.hivel) / 2;
+        l.level_db = sfz_velocity_gain_db(mid, 100) - sfz_velocity_gain_db(mid, p0);
+    }
+    CAPTURE(p0, layers[0].level_db, layers[1].level_db);
+    CHECK(fit_amp_veltrack_pct(layers) == p0);
 }

@@ -1,0 +1,147 @@
+#include "analysis/heard_peaks.hpp"
+
+#include <kiss_fftr.h>
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+#include <vector>
+
+#include "core/units.hpp"
+#include "spectrum/stft.hpp"
+
+namespace wane {
+
+namespace {
+
+struct span_spectrum {
+    std::vector<double> mag;  ///< |X[k]| * 2 / sum(w): a steady sinusoid's amplitude at its peak bin
+    double bin_hz = 0.0;
+    double start_s = 0.0;     ///< the span, seconds after the onset
+    double end_s = 0.0;
+};
+
+/// Magnitude spectrum of note over [start_s, end_s) under a periodic Hann window, zero padded.
+span_spectrum spectrum_over(std::span<const float> note, double fs, double start_s, double end_s, int zero_padding) {
+    span_spectrum s{.mag = {}, .bin_hz = 0.0, .start_s = start_s, .end_s = end_s};
+    const auto a = static_cast<std::size_t>(std::llround(start_s * fs));
+    const auto b = std::min(note.size(), static_cast<std::size_t>(std::llround(end_s * fs)));
+    assert(a < b);
+    const std::size_t n = b - a;
+    const int size = fast_fft_size(zero_padding * static_cast<int>(n));
+    std::vector<float> buffer(static_cast<std::size_t>(size), 0.0f);
+    double wsum = 0.0;
+    for (std::size_t i = 0; i < n; ++i) {
+        // Hann: w = 0.5 - 0.5 cos(2 pi i / n) (periodic form)
+        const double w = 0.5 - 0.5 * std::cos(two_pi * static_cast<double>(i) / static_cast<double>(n));
+        buffer[i] = static_cast<float>(w * static_cast<double>(note[a + i]));
+        wsum += w;
+    }
+    std::vector<kiss_fft_cpx> bins(static_cast<std::size_t>(size) / 2 + 1);
+    kiss_fftr_cfg cfg = kiss_fftr_alloc(size, 0, nullptr, nullptr);
+    kiss_fftr(cfg, buffer.data(), bins.data());
+    kiss_fftr_free(cfg);
+    s.mag.resize(bins.size());
+    for (std::size_t k = 0; k < bins.size(); ++k)
+        s.mag[k] = 2.0 / wsum * std::hypot(double(bins[k].r), double(bins[k].i));
+    s.bin_hz = fs / static_cast<double>(size);
+    return s;
+}
+
+/// The partial's amplitude over the span as the span's spectrum weighs it: the Hann-weighted mean
+/// of its track's amplitudes (0 without frames in the span).
+double span_amplitude(const partial_track& track, const span_spectrum& s) {
+    double sum = 0.0, wsum = 0.0;
+    for (const track_point& q : track.points) {
+        const double u = (q.time_s - s.start_s) / (s.end_s - s.start_s);
+        if (u <= 0.0 || u >= 1.0) continue;
+        const double w = 0.5 - 0.5 * std::cos(two_pi * u);
+        sum += w * to_amp(level_db{q.level_db}).lin;
+        wsum += w;
+    }
+    return wsum > 0.0 ? sum / wsum : 0.0;
+}
+
+/// Index of the strongest local maximum of s.mag within [low_hz, high_hz]; 0 when there is none.
+std::size_t strongest_peak(const span_spectrum& s, double low_hz, double high_hz) {
+    const auto last = s.mag.size() - 1;
+    const auto lo = std::clamp<std::size_t>(static_cast<std::size_t>(std::ceil(low_hz / s.bin_hz)), 1, last - 1);
+    const auto hi = std::clamp<std::size_t>(static_cast<std::size_t>(std::floor(high_hz / s.bin_hz)), 1, last - 1);
+    std::size_t best = 0;
+    for (std::size_t k = lo; k <= hi; ++k)
+        if (s.mag[k] > s.mag[k - 1] && s.mag[k] >= s.mag[k + 1] && (best == 0 || s.mag[k] > s.mag[best])) best = k;
+    return best;
+}
+
+/// Frequency of the peak at bin k: vertex of the parabola through the log magnitudes of k - 1, k,
+/// k + 1 (with zero padding of 8 or more the bias is far below a hundredth of a bin).
+double peak_freq_hz(const span_spectrum& s, std::size_t k) {
+    const double a = std::log(s.mag[k - 1]), b = std::log(s.mag[k]), c = std::log(s.mag[k + 1]);
+    const double den = a - 2.0 * b + c;
+    const double offset = den < 0.0 ? 0.5 * (a - c) / den : 0.0;
+    return (static_cast<double>(k) + offset) * s.bin_hz;
+}
+
+/// Phase at t = 0 for freq_hz: phase - 2 pi f t averaged on the circle (amplitude weights) over
+/// the track's loudest frame and the three after it (fitting/envelope_fit anchors at the peak too).
+double phase_at_zero(const partial_track& track, double freq_hz, double fallback_rad) {
+    constexpr std::size_t frames = 4;
+    const auto& pts = track.points;
+    if (pts.empty()) return fallback_rad;
+    const auto loudest = static_cast<std::size_t>(std::distance(
+        pts.begin(), std::max_element(pts.begin(), pts.end(),
+                                      [](const track_point& x, const track_point& y) { return x.level_db < y.level_db; })));
+    double re = 0.0, im = 0.0;
+    for (std::size_t i = loudest; i < std::min(pts.size(), loudest + frames); ++i) {
+        const double a = to_amp(level_db{pts[i].level_db}).lin;
+        const double phi = pts[i].phase_rad - two_pi * freq_hz * pts[i].time_s;
+        re += a * std::cos(phi);
+        im += a * std::sin(phi);
+    }
+    return std::remainder(std::atan2(im, re), two_pi);
+}
+
+}  // namespace
+
+int move_to_heard_peaks(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
+                        double sample_rate_hz, const heard_peak_params& params) {
+    assert(tracks.size() <= p.partials.size());
+    const double note_s = static_cast<double>(note.size()) / sample_rate_hz;
+    const double long_end_s = params.span_start_s + params.span_s;
+    const bool long_note = note_s >= long_end_s + params.span_start_s;
+    const double start_s = long_note ? params.span_start_s : params.short_start_s;
+    const double end_s = long_note ? long_end_s : note_s;
+    if (end_s - start_s < params.min_span_s) return 0;
+    const span_spectrum s = spectrum_over(note, sample_rate_hz, start_s, end_s, params.zero_padding);
+    const double capture_hz = params.capture_half_widths * 2.0 / (end_s - start_s);
+    const double max_ratio = std::pow(2.0, params.max_move_cents / 1200.0);
+
+    std::vector<double> amp(tracks.size(), 0.0);
+    for (std::size_t i = 0; i < tracks.size(); ++i)
+        if (tracks[i] != nullptr) amp[i] = span_amplitude(*tracks[i], s);
+    std::vector<double> old_hz(tracks.size());
+    for (std::size_t i = 0; i < tracks.size(); ++i) old_hz[i] = p.partials[i].freq_hz;
+
+    int moved = 0;
+    for (std::size_t i = 0; i < tracks.size(); ++i) {
+        if (!(amp[i] > 0.0)) continue;
+        const double f = old_hz[i];
+        const double reach_hz = std::min(capture_hz, f * (max_ratio - 1.0));
+        // Only a partial that stands alone for its neighbourhood: none stronger over the span within reach.
+        bool alone = true;
+        for (std::size_t j = 0; j < tracks.size() && alone; ++j)
+            alone = j == i || std::abs(old_hz[j] - f) > reach_hz || amp[j] <= amp[i];
+        if (!alone) continue;
+        const std::size_t k = strongest_peak(s, f - reach_hz, f + reach_hz);
+        if (k == 0 || std::abs(20.0 * std::log10(s.mag[k] / amp[i])) > params.level_gate_db) continue;
+        const double g = peak_freq_hz(s, k);
+        if (std::abs(g - f) > reach_hz) continue;
+        partial& q = p.partials[i];
+        q.freq_hz = g;
+        q.phase_rad = phase_at_zero(*tracks[i], g, q.phase_rad);
+        if (std::abs(1200.0 * std::log2(g / f)) > 0.01) ++moved;
+    }
+    return moved;
+}
+
+}  // namespace wane
