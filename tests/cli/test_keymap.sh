@@ -53,7 +53,7 @@ attack_s = 0.004
 peak_db = -20.0
 decay = [ { t60_s = 0.9 } ]
 TOML
-sed -e "s/^version = 1/version = 3/" pluck.toml > newer.toml
+sed -e "s/^version = 1/version = 4/" pluck.toml > newer.toml  # one past the newest version read (3: stereo)
 # Loud: three in-phase partials at -3 dBFS each peak near +6.5 dBFS together.
 sed -e 's/^peak_db = .*/peak_db = -3.0/' -e 's/^phase_rad = .*/phase_rad = 0.0/' pluck.toml > loud.toml
 
