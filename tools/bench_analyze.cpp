@@ -148,7 +148,7 @@ void bench_note(const std::string& name, const std::vector<float>& x, double fs,
         }
         const auto bands = wane::fit_noise_bands(residual, fs, freqs_hz, loudest_db, params.noise);
         noise_t.push_back(thread_cpu_s() - c0);
-        // The band measurement alone (fit_noise_bands runs it first, then fits the 9 bands).
+        // The band measurement alone (fit_noise_bands runs it first, then fits the bands).
         const double m0 = thread_cpu_s();
         (void)wane::measure_noise_bands(residual, fs, freqs_hz, params.noise);
         measure_t.push_back(thread_cpu_s() - m0);

@@ -142,6 +142,13 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     p.note.root = note_root_of(p.partials, tr.series_f0_hz, params.tracking.f0_hz.has_value());
     // Without a harmonic series (a bar, a bell) f0 is the root: the note's pitch centre.
     if (!(p.note.f0_hz > 0.0)) p.note.f0_hz = root_hz(p.note);
+    // Strong peaks of the recording's long spectrum no track accounts for, after the root (which
+    // the tracks decide) and before the onset refinement (which refits their starts too).
+    if (onset_frame < part.size()) {
+        out.summary.added_heard_peaks = add_heard_peaks(p, part.subspan(onset_frame), sample_rate_hz,
+                                                        params.heard_peaks, fit_params);
+        out.summary.partials = static_cast<int>(p.partials.size());
+    }
     p.note.length_s = std::max(length_step_s, std::ceil(analysed_s / length_step_s - 1e-9) * length_step_s);
     p.source.file = params.source_file;
     p.source.sample_rate_hz = sample_rate_hz;

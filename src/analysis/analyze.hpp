@@ -52,7 +52,8 @@ struct analysis_summary {
     int continued_past_cut = 0;  ///< partials and bands whose last segment was made to fall (cut_tail.hpp)
     int pairs_split = 0;       ///< partials split into beating pairs
     int new_modes = 0;
-    int moved_to_heard_peaks = 0;  ///< partials moved to the recording's long-spectrum peak         ///< partials added by the onset refinement (short-lived modes)
+    int moved_to_heard_peaks = 0;  ///< partials moved to the recording's long-spectrum peak
+    int added_heard_peaks = 0;     ///< partials added for long-spectrum peaks no track accounts for         ///< partials added by the onset refinement (short-lived modes)
     /// Energy of the first fit span explained by the partials, dB (onset refinement).
     double onset_explained_db = 0.0;
 };

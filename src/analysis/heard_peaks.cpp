@@ -8,6 +8,7 @@
 #include <vector>
 
 #include "core/units.hpp"
+#include "modes/narrowband.hpp"
 #include "spectrum/stft.hpp"
 
 namespace wane {
@@ -101,19 +102,53 @@ double phase_at_zero(const partial_track& track, double freq_hz, double fallback
     return std::remainder(std::atan2(im, re), two_pi);
 }
 
+/// The span (seconds after the onset) of a note note_s long; empty (end <= start) when too short.
+std::pair<double, double> span_of(double note_s, const heard_peak_params& params) {
+    const double long_end_s = params.span_start_s + params.span_s;
+    if (note_s >= long_end_s + params.span_start_s) return {params.span_start_s, long_end_s};
+    if (note_s - params.short_start_s < params.min_span_s) return {0.0, 0.0};
+    return {params.short_start_s, note_s};
+}
+
+/// Capture distance of a span spectrum: capture_half_widths main-lobe half-widths (2 / T Hz).
+double capture_hz_of(const span_spectrum& s, const heard_peak_params& params) {
+    return params.capture_half_widths * 2.0 / (s.end_s - s.start_s);
+}
+
+/// Hann-weighted mean amplitude of an envelope over the span (what the span's spectrum shows of
+/// a partial at its peak).
+double envelope_span_amplitude(const envelope& env, const span_spectrum& s) {
+    constexpr int steps = 200;
+    double sum = 0.0, wsum = 0.0;
+    for (int j = 1; j < steps; ++j) {
+        const double u = static_cast<double>(j) / steps;
+        const double w = 0.5 - 0.5 * std::cos(two_pi * u);
+        sum += w * envelope_amp(env, s.start_s + u * (s.end_s - s.start_s)).lin;
+        wsum += w;
+    }
+    return sum / wsum;
+}
+
+/// Median of s.mag over [low_hz, high_hz].
+double median_mag(const span_spectrum& s, double low_hz, double high_hz) {
+    const auto last = s.mag.size() - 1;
+    const auto lo = std::min(last, static_cast<std::size_t>(std::max(0.0, low_hz / s.bin_hz)));
+    const auto hi = std::min(last, static_cast<std::size_t>(std::max(0.0, high_hz / s.bin_hz)));
+    std::vector<double> v(s.mag.begin() + static_cast<std::ptrdiff_t>(lo), s.mag.begin() + static_cast<std::ptrdiff_t>(hi) + 1);
+    const auto mid = v.begin() + static_cast<std::ptrdiff_t>(v.size() / 2);
+    std::nth_element(v.begin(), mid, v.end());
+    return *mid;
+}
+
 }  // namespace
 
 int move_to_heard_peaks(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
                         double sample_rate_hz, const heard_peak_params& params) {
     assert(tracks.size() <= p.partials.size());
-    const double note_s = static_cast<double>(note.size()) / sample_rate_hz;
-    const double long_end_s = params.span_start_s + params.span_s;
-    const bool long_note = note_s >= long_end_s + params.span_start_s;
-    const double start_s = long_note ? params.span_start_s : params.short_start_s;
-    const double end_s = long_note ? long_end_s : note_s;
-    if (end_s - start_s < params.min_span_s) return 0;
+    const auto [start_s, end_s] = span_of(static_cast<double>(note.size()) / sample_rate_hz, params);
+    if (!(end_s > start_s)) return 0;
     const span_spectrum s = spectrum_over(note, sample_rate_hz, start_s, end_s, params.zero_padding);
-    const double capture_hz = params.capture_half_widths * 2.0 / (end_s - start_s);
+    const double capture_hz = capture_hz_of(s, params);
     const double max_ratio = std::pow(2.0, params.max_move_cents / 1200.0);
 
     std::vector<double> amp(tracks.size(), 0.0);
@@ -142,6 +177,103 @@ int move_to_heard_peaks(patch& p, std::span<const partial_track* const> tracks, 
         if (std::abs(1200.0 * std::log2(g / f)) > 0.01) ++moved;
     }
     return moved;
+}
+
+
+namespace {
+
+/// Peaks of s that look like partials (add_heard_peaks' rules), strongest first.
+std::vector<std::size_t> partial_like_peaks(const span_spectrum& s, const heard_peak_params& params) {
+    constexpr double lowest_hz = 20.0;  ///< below hearing: no partial
+    const double capture_hz = capture_hz_of(s, params);
+    const auto isolation = static_cast<std::ptrdiff_t>(std::ceil(params.add_isolation_reaches * capture_hz / s.bin_hz));
+    const auto n = static_cast<std::ptrdiff_t>(s.mag.size());
+    std::vector<std::size_t> peaks;
+    double top = 0.0;
+    for (auto k = static_cast<std::ptrdiff_t>(std::ceil(lowest_hz / s.bin_hz)); k + 1 < n; ++k) {
+        const auto u = static_cast<std::size_t>(k);
+        if (!(s.mag[u] > s.mag[u - 1] && s.mag[u] >= s.mag[u + 1])) continue;
+        const auto lo = static_cast<std::size_t>(std::max<std::ptrdiff_t>(0, k - isolation));
+        const auto hi = static_cast<std::size_t>(std::min(n - 1, k + isolation));
+        if (*std::max_element(s.mag.begin() + static_cast<std::ptrdiff_t>(lo),
+                              s.mag.begin() + static_cast<std::ptrdiff_t>(hi) + 1) > s.mag[u])
+            continue;
+        peaks.push_back(u);
+        top = std::max(top, s.mag[u]);
+    }
+    const double within = std::pow(10.0, -params.add_within_db / 20.0);
+    const double clear = std::pow(10.0, params.add_clear_db / 20.0);
+    std::erase_if(peaks, [&](std::size_t k) {
+        const double f = static_cast<double>(k) * s.bin_hz;
+        return s.mag[k] < top * within || s.mag[k] < clear * median_mag(s, f - params.add_floor_hz, f + params.add_floor_hz);
+    });
+    std::sort(peaks.begin(), peaks.end(), [&](std::size_t a, std::size_t b) { return s.mag[a] > s.mag[b]; });
+    return peaks;
+}
+
+/// The narrow band around freq_hz as a track: one point per band sample from t = 0 to note_s,
+/// level of A cos (A = 2 |y|), phase of cos at freq_hz, floor a quantile of the band's level.
+partial_track band_track(const note_spectrum& spectrum, double freq_hz, double half_width_hz, double note_s,
+                         const heard_peak_params& params) {
+    const narrowband b = spectrum.band(freq_hz, half_width_hz, params.band_rate_hz);
+    partial_track t;
+    if (b.y.empty()) return t;
+    const auto count = std::min(b.y.size(), static_cast<std::size_t>(note_s * b.sample_rate_hz));
+    std::vector<double> levels;
+    for (std::size_t m = 0; m < count; ++m) {
+        const double time_s = static_cast<double>(m) / b.sample_rate_hz;
+        const double level = to_level(amp_lin{2.0 * std::abs(b.y[m]) + 1e-30}).db;
+        // y = (A / 2) exp(i (phi + 2 pi (f - f_c) t)): the phase of cos at f, at t.
+        const double phase = std::arg(b.y[m]) + two_pi * (b.centre_hz - freq_hz) * time_s;
+        t.points.push_back({.time_s = time_s, .freq_hz = freq_hz, .level_db = level,
+                            .phase_rad = std::remainder(phase, two_pi), .floor_db = 0.0});
+        levels.push_back(level);
+    }
+    if (levels.empty()) return t;
+    const auto q = levels.begin() + static_cast<std::ptrdiff_t>(params.floor_quantile * static_cast<double>(levels.size() - 1));
+    std::nth_element(levels.begin(), q, levels.end());
+    for (track_point& pt : t.points) pt.floor_db = *q;
+    return t;
+}
+
+}  // namespace
+
+int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz, const heard_peak_params& params,
+                    const envelope_fit_params& fit_params) {
+    const double note_s = static_cast<double>(note.size()) / sample_rate_hz;
+    const auto [start_s, end_s] = span_of(note_s, params);
+    if (!(end_s > start_s) || params.max_added <= 0) return 0;
+    const span_spectrum s = spectrum_over(note, sample_rate_hz, start_s, end_s, params.zero_padding);
+    const double capture_hz = capture_hz_of(s, params);
+    const double lobe_hz = 2.0 / (s.end_s - s.start_s);  // Hann main-lobe half-width
+    std::vector<double> amp;
+    for (const partial& q : p.partials) amp.push_back(envelope_span_amplitude(q.env, s));
+    const double gate = std::pow(10.0, -params.level_gate_db / 20.0);
+
+    std::vector<std::size_t> missing;
+    for (const std::size_t k : partial_like_peaks(s, params)) {
+        const double f = static_cast<double>(k) * s.bin_hz;
+        bool accounted = false;
+        for (std::size_t i = 0; i < p.partials.size() && !accounted; ++i)
+            accounted = std::abs(p.partials[i].freq_hz - f) <= lobe_hz && amp[i] >= gate * s.mag[k];
+        if (!accounted) missing.push_back(k);
+        if (static_cast<int>(missing.size()) == params.max_added) break;
+    }
+    if (missing.empty()) return 0;
+    // Zero padded by more than the band's wrap (1 / half-width s), so the wrap reads silence.
+    std::vector<float> padded(note.begin(), note.end());
+    padded.resize(note.size() + static_cast<std::size_t>(std::ceil(2.0 / capture_hz * sample_rate_hz)), 0.0f);
+    const note_spectrum spectrum(padded, sample_rate_hz);
+    int added = 0;
+    for (const std::size_t k : missing) {
+        const double f = peak_freq_hz(s, k);
+        const partial_track t = band_track(spectrum, f, capture_hz, note_s, params);
+        const auto fit = fit_partial(t, fit_params);
+        if (!fit || !(fit->env.peak.db < 0.0)) continue;
+        p.partials.push_back({.freq_hz = f, .harmonic = 0, .phase_rad = fit->phase_rad, .env = fit->env});
+        ++added;
+    }
+    return added;
 }
 
 }  // namespace wane

@@ -14,6 +14,7 @@
 #include <span>
 
 #include "core/patch.hpp"
+#include "fitting/envelope_fit.hpp"
 #include "tracking/track.hpp"
 
 namespace wane {
@@ -34,6 +35,21 @@ struct heard_peak_params {
     /// stronger or weaker than the partial is another partial's.
     double level_gate_db = 12.0;
     int zero_padding = 8;           ///< FFT size >= zero_padding x span length
+    /// Peaks the tracks missed (add_heard_peaks): within this many dB of the span's strongest
+    /// peak, ...
+    double add_within_db = 50.0;
+    /// ... the highest point within +-add_isolation_reaches capture distances (a side lobe or a
+    /// skirt of a stronger peak is not a partial), ...
+    double add_isolation_reaches = 2.0;
+    /// ... standing this far above the median of the span's spectrum within +-add_floor_hz ...
+    double add_clear_db = 15.0;
+    double add_floor_hz = 50.0;
+    /// ... and with no partial within one main-lobe half-width (2 / T Hz: a partial further off
+    /// makes a peak of its own) carrying its level within level_gate_db; at most this many per
+    /// note, strongest first.
+    int max_added = 8;
+    double band_rate_hz = 80.0;     ///< the narrow band's rate: points 12.5 ms apart, as the STFT hop
+    double floor_quantile = 0.1;    ///< the band's noise floor: this quantile of its level over the note
 };
 
 /// Moves partial i (tracks[i] its track; nullptr: left alone) to the strongest local peak of the
@@ -42,5 +58,13 @@ struct heard_peak_params {
 /// at t = 0 to the new frequency. Returns how many partials moved by more than 0.01 cents.
 int move_to_heard_peaks(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
                         double sample_rate_hz, const heard_peak_params& params);
+
+/// Adds a partial for each strong peak of the same span spectrum that no partial accounts for
+/// (a mode the tracker missed or fitted far below its level): its level over the whole note from
+/// a narrow band of half-width = the capture distance around the peak (modes/narrowband, note zero
+/// padded so the band's circular wrap falls on silence), fitted like a track (fit_partial with
+/// fit_params), at the peak's frequency. Returns how many were added (appended, harmonic 0).
+int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz, const heard_peak_params& params,
+                    const envelope_fit_params& fit_params);
 
 }  // namespace wane

@@ -1,6 +1,22 @@
 // The stochastic part of a note (Serra and Smith 1990): what is left after the partials'
-// resynthesis is subtracted from the source, measured as energy over time in the noise bands of
+// resynthesis is subtracted from the source, measured in the one-third-octave noise bands of
 // core/noise_bands.hpp and fitted with the same envelope form and fit as a partial.
+//
+// Two measurements, two kinds of band:
+//  - the floor between the partials: a Blackman-Harris STFT long enough to resolve the partials
+//    (floor_window_s), and in each band the median power of the bins away from every partial's
+//    main lobe, scaled to the mean (for noise each bin's power is exponentially distributed, so
+//    the median of n bins is the mean times the expected median of n unit exponentials). The median
+//    ignores what the subtraction left of a partial and any peak the tracker did not keep, so only
+//    the noise between the partials is measured. Hop 5 ms. Fitted on the frames whose window lies
+//    wholly inside the recording (the first line run back to the onset), over the floor of what
+//    the neighbouring bands leak into the band through the window (analysis/band_leakage.hpp).
+//  - the attack: a short Hann STFT (4 ms, hop 1 ms) over the first 2 attack_span_s, mean power of
+//    all the band's bins, in the bands at least attack_min_bins bins of that window wide. Where the
+//    first attack_span_s stands attack_above_floor_db over the median of the second (what the
+//    short window sees of the partials' remainder and the floor once the burst is over), the burst
+//    is fitted as a band of its own (same edges, a short envelope), played on top of the floor
+//    band, which then starts after the floor window's smear of the onset.
 #pragma once
 
 #include <span>
@@ -12,14 +28,38 @@
 namespace wane {
 
 struct noise_model_params {
-    double window_s = 0.0213;  ///< Hann analysis window, seconds (same scale as the renderer's frames)
-    double hop_s = 0.005;      ///< analysis hop, seconds (a T60 of 50 ms spans ~10 frames)
-    /// Bins this close to a partial (in window main-lobe half-widths) are left out of a band's
-    /// mean, so partial energy the subtraction missed is not counted again as noise.
-    double partial_guard_lobes = 1.0;
-    /// Bands whose fitted peak is further than this below the loudest partial are dropped.
-    double keep_within_db = 60.0;
-    envelope_fit_params fit{.max_segments = 2, .min_segment_s = 0.03};
+    double hop_s = 0.005;  ///< floor analysis hop, seconds
+    /// The floor window lasts floor_window_spacings / f0 (or, without one, / the median spacing of
+    /// neighbouring partials), so a partial's main lobe (+-4 bins of Blackman-Harris) leaves bins
+    /// free between partials;
+    /// clamped to [min_floor_window_s, max_floor_window_s].
+    double floor_window_spacings = 24.0;
+    double min_floor_window_s = 0.06;
+    double max_floor_window_s = 0.3;
+    /// Bins this close to a partial (in window main-lobe half-widths) are left out of a band.
+    double partial_guard_lobes = 1.25;
+    /// A band with fewer free bins takes this many free bins nearest its centre (log frequency).
+    int min_free_bins = 5;
+    /// Attack bands whose fitted peak is further than this below the loudest partial are dropped
+    /// (reasoned choice: about the dynamic range of 16-bit audio).
+    double keep_within_db = 95.0;
+    /// Floor bands are kept down to this level, dB: below the noise of a 24-bit recording's
+    /// quantization (-146 dBFS over the whole band; reasoned choice), so what is dropped is
+    /// digital silence, while a 16-bit recording's hiss (about -100 dB per band) stays.
+    double least_floor_band_db = -140.0;
+    // The attack measurement.
+    double attack_window_s = 0.004;
+    double attack_hop_s = 0.001;
+    double attack_span_s = 0.08;
+    int attack_min_bins = 2;
+    double attack_above_floor_db = 6.0;
+    /// An attack band is a burst: one that rings longer than this is left to the floor band ...
+    double max_attack_t60_s = 0.5;
+    /// ... and one that dies within two short windows (T60 under 8 ms) cannot be told from what
+    /// the partials' onset leaves in the residual, so it is not kept.
+    double min_attack_t60_s = 0.008;
+    envelope_fit_params fit{.max_segments = 3, .min_segment_s = 0.05};
+    envelope_fit_params attack_fit{.max_segments = 1, .min_segment_s = 0.004};
 };
 
 struct noise_band_track {
@@ -27,21 +67,29 @@ struct noise_band_track {
     double high_hz = 0.0;
     double hop_s = 0.0;           ///< frame i is centred at i * hop_s, seconds from the onset
     std::vector<float> level_db;  ///< band level per frame, dB re RMS 1 (core/noise_bands.hpp)
+    /// What the other bands leak into this one per frame, dB as level_db (analysis/band_leakage.hpp;
+    /// filled by the noise model before the fit, empty from measure_noise_bands).
+    std::vector<float> leak_db;
 };
 
-/// Band levels of a residual over time (residual[0] is the onset).
+/// Floor window length for a note with this f0 (0: none) and these partials (rule above), seconds.
+double floor_window_s(std::span<const double> partial_freqs_hz, double f0_hz, const noise_model_params& params);
+
+/// Floor band levels of a residual over time (residual[0] is the onset).
 std::vector<noise_band_track> measure_noise_bands(std::span<const float> residual, double sample_rate_hz,
                                                   std::span<const double> partial_freqs_hz,
                                                   const noise_model_params& params);
 
-/// Fits every band's level track; drops bands too quiet to matter (keep_within_db re
-/// loudest_partial_db). Bands come out in ascending frequency.
+/// Fits the floor and attack bands of a residual (of partials that start at their peak; with the
+/// recording, never above its levels); drops attack bands too quiet to matter (keep_within_db re
+/// loudest_partial_db) and floor bands under least_floor_band_db. Bands come out in ascending frequency.
 std::vector<noise_band> fit_noise_bands(std::span<const float> residual, double sample_rate_hz,
                                         std::span<const double> partial_freqs_hz, double loudest_partial_db,
-                                        const noise_model_params& params);
+                                        const noise_model_params& params, std::span<const float> recording = {});
 
 /// The noise model of a note (note[0] is the onset): the residual note - partials (the render of
-/// p's partials, synthesis/render.hpp partial_renderer) is formed a block at a time and measured
+/// p's partials, synthesis/render.hpp partial_renderer; for the attack bands also with the partials
+/// started at their peak, see model_from in the .cpp) is formed a block at a time and measured
 /// as it goes, so it is never held whole (a long file costs the band levels only: 4 bytes per band
 /// and hop), then fitted as fit_noise_bands does. Same bands as fit_noise_bands on the residual
 /// held whole (the blocks start at multiples of the renderer's anchor length: the same samples).

@@ -171,21 +171,15 @@ std::vector<double> early_decays(const patch& p, std::span<const role> roles, st
 }
 
 /// Candidate new modes: not taken by a partial, clear of every partial, decaying, with a T60 in
-/// [min_new_t60_s, max_new_t60_s], a quality factor pi f / d of at least min_new_q, and found
-/// again on the shorter span (stable).
+/// [min_new_t60_s, max_new_t60_s] and a quality factor pi f / d of at least min_new_q.
 std::vector<damped_mode> new_mode_candidates(const patch& p, std::span<const damped_mode> found,
-                                             std::span<const damped_mode> again, const std::vector<bool>& taken,
-                                             double cluster_hz, const onset_refine_params& params) {
+                                             const std::vector<bool>& taken, double cluster_hz,
+                                             const onset_refine_params& params) {
     std::vector<damped_mode> out;
     for (std::size_t j = 0; j < found.size(); ++j) {
         const double d = found[j].decay_per_s;
         if (taken[j] || d <= 0.0 || ln1000 / d < params.min_new_t60_s || ln1000 / d > params.max_new_t60_s) continue;
         if (pi * found[j].freq_hz / d < params.min_new_q) continue;
-        const bool stable = std::any_of(again.begin(), again.end(), [&](const damped_mode& m) {
-            return std::abs(m.freq_hz - found[j].freq_hz) < params.stable_freq_cells * cluster_hz &&
-                   std::abs(m.decay_per_s - d) <= params.stable_decay_rel * d;
-        });
-        if (!stable) continue;
         const bool near_partial = std::any_of(p.partials.begin(), p.partials.end(), [&](const partial& q) {
             return std::abs(q.freq_hz - found[j].freq_hz) < params.new_mode_clearance_cells * cluster_hz;
         });
@@ -194,10 +188,26 @@ std::vector<damped_mode> new_mode_candidates(const patch& p, std::span<const dam
     return out;
 }
 
+/// The candidates found again on the shorter span (stable): within stable_freq_cells cells and
+/// stable_decay_rel of their decay.
+std::vector<damped_mode> stable_modes(std::span<const damped_mode> candidates, std::span<const damped_mode> again,
+                                      double cluster_hz, const onset_refine_params& params) {
+    std::vector<damped_mode> out;
+    for (const damped_mode& c : candidates) {
+        const bool stable = std::any_of(again.begin(), again.end(), [&](const damped_mode& m) {
+            return std::abs(m.freq_hz - c.freq_hz) < params.stable_freq_cells * cluster_hz &&
+                   std::abs(m.decay_per_s - c.decay_per_s) <= params.stable_decay_rel * c.decay_per_s;
+        });
+        if (stable) out.push_back(c);
+    }
+    return out;
+}
+
 /// One least-squares fit of the first fit_n samples with the partials in their roles plus the new
 /// modes (appended after the partials' modes); the fixed partials are rendered and subtracted.
 struct waveform_fit {
     std::vector<damped_mode> modes;
+    std::vector<double> energy;  ///< of each fitted mode over the span: sum of its samples squared
 
     std::vector<std::size_t> partial_of;  ///< partial index of modes[i], i < partial_of.size()
     double residual_energy = 0.0;
@@ -207,7 +217,7 @@ waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sa
                           std::span<const role> roles, std::span<const double> decay,
                           std::span<const damped_mode> new_modes) {
     waveform_fit f;
-    std::vector<std::vector<double>> shapes;
+    std::vector<mode_shape> shapes;
     std::vector<std::size_t> fixed;
     for (std::size_t k = 0; k < p.partials.size(); ++k) {
         const partial& part = p.partials[k];
@@ -216,13 +226,8 @@ waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sa
             continue;
         }
         f.modes.push_back({.freq_hz = part.freq_hz, .decay_per_s = decay[k]});
-        shapes.emplace_back();
-        if (roles[k] == role::shaped) {
-            const double peak_amp = to_amp(part.env.peak).lin;
-            shapes.back().resize(fit_n);
-            for (std::size_t n = 0; n < fit_n; ++n)
-                shapes.back()[n] = envelope_amp(part.env, static_cast<double>(n) / sample_rate_hz).lin / peak_amp;
-        }
+        // A shaped partial's amplitude is its envelope's, so its fitted amp is a scale (1: as fitted).
+        shapes.push_back(roles[k] == role::shaped ? envelope_shape(part.env, sample_rate_hz, fit_n) : mode_shape{});
         f.partial_of.push_back(k);
     }
     f.modes.insert(f.modes.end(), new_modes.begin(), new_modes.end());
@@ -233,6 +238,10 @@ waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sa
         for (std::size_t n = 0; n < fit_n; ++n) target[n] -= known[n];
     }
     f.residual_energy = fit_shaped_amplitudes(target, sample_rate_hz, f.modes, shapes) * signal_energy(target);
+    const auto count = static_cast<double>(fit_n);
+    for (std::size_t i = 0; i < f.modes.size(); ++i)
+        f.energy.push_back(shapes[i].empty() ? mode_energy(f.modes[i], sample_rate_hz, count)
+                                             : 0.5 * std::norm(f.modes[i].amp) * shape_pair_sum(shapes[i], shapes[i], {}).real());
     return f;
 }
 
@@ -256,7 +265,7 @@ bool revise_roles(const patch& p, std::span<const float> note, const waveform_fi
     }
     const auto count = static_cast<double>(fit_n);
     double strongest = 0.0;
-    for (const auto& m : f.modes) strongest = std::max(strongest, mode_energy(m, sample_rate_hz, count));
+    for (const double e : f.energy) strongest = std::max(strongest, e);
     const double keep = strongest * std::pow(10.0, -params.new_mode_range_db / 10.0);
     // A new mode must carry most of the energy of the span in its band (its main lobe, at least
     // two resolution cells each side): a resonance does, while each of the many poles that fit a
@@ -266,7 +275,7 @@ bool revise_roles(const patch& p, std::span<const float> note, const waveform_fi
     std::vector<damped_mode> kept;
     for (std::size_t i = f.partial_of.size(); i < f.modes.size(); ++i) {
         const damped_mode& m = f.modes[i];
-        const double energy = mode_energy(m, sample_rate_hz, count);
+        const double energy = f.energy[i];
         const double half_width_hz = std::max(2.0 * cell_hz, m.decay_per_s / pi);
         const double band = spectrum.energy_between(m.freq_hz - half_width_hz, m.freq_hz + half_width_hz);
         if (energy >= keep && std::abs(m.amp) <= 1.0 && energy >= params.new_mode_share * band) kept.push_back(m);
@@ -318,17 +327,22 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
     const double cluster_hz = sample_rate_hz / static_cast<double>(fit_n);
 
     const subband_mode_params& sub = params.subbands;
-    const std::vector<damped_mode> found = find_subband_modes(note, sample_rate_hz, sub);
-    // The stability check of modal analysis: a resonance is found again, at the same frequency and
-    // decay, on a shorter span; poles that fit noise move.
-    subband_mode_params shorter = sub;
-    shorter.span_s = params.stable_span_fraction * sub.span_s;
-    const std::vector<damped_mode> again = find_subband_modes(note, sample_rate_hz, shorter);
-
+    const subband_signals signals = make_subband_signals(note, sample_rate_hz, sub);
+    const std::vector<damped_mode> found = subband_modes(signals, sub, sub.span_s);
     std::vector<role> roles = initial_roles(p, sample_rate_hz, cluster_hz);
     std::vector<bool> taken(found.size(), false);
     const std::vector<double> decay = early_decays(p, roles, found, taken, params);
-    std::vector<damped_mode> new_modes = new_mode_candidates(p, found, again, taken, cluster_hz, params);
+    const std::vector<damped_mode> candidates = new_mode_candidates(p, found, taken, cluster_hz, params);
+    // The stability check of modal analysis: a resonance is found again, at the same frequency and
+    // decay, on a shorter span; poles that fit noise move. Only the candidates' bands are searched.
+    std::vector<double> near_hz;
+    near_hz.reserve(candidates.size());
+    for (const damped_mode& c : candidates) near_hz.push_back(c.freq_hz);
+    const double tol_hz = params.stable_freq_cells * cluster_hz;
+    const std::vector<damped_mode> again =
+        near_hz.empty() ? std::vector<damped_mode>{}
+                        : subband_modes(signals, sub, params.stable_span_fraction * sub.span_s, near_hz, tol_hz);
+    std::vector<damped_mode> new_modes = stable_modes(candidates, again, cluster_hz, params);
     // Up to three passes, each revising the roles and the new modes from the last.
     constexpr int passes = 3;
     waveform_fit f;

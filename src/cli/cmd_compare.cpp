@@ -17,6 +17,7 @@
 #include "cli/compare_stereo.hpp"
 #include "io/audio_file.hpp"
 #include "measure/compare.hpp"
+#include "measure/fidelity.hpp"
 
 namespace wane::cli {
 
@@ -115,6 +116,13 @@ void print_json(const compare_options& opt, const compare_result& r, const spect
         o << "  \"tuning_difference_cents\": " << jnum(*r.tuning_difference_cents) << ",\n";
         o << "  \"tuning_partials\": " << r.tuning_pairs << ",\n";
     }
+    o << "  \"headline\": " << json_string(fidelity_headline(r)) << ",\n";
+    o << "  \"differences\": [";
+    for (std::size_t i = 0; i < r.remarks.sentences.size(); ++i) {
+        o << (i ? ", " : "") << json_string(r.remarks.sentences[i]);
+    }
+    o << "],\n";
+    o << "  \"onset_rise_s\": {\"a\": " << jnum(r.remarks.rise_a_s) << ", \"b\": " << jnum(r.remarks.rise_b_s) << "},\n";
     o << "  \"octave_bands\": [";
     for (std::size_t i = 0; i < r.bands.size(); ++i) {
         const band_decay_pair& b = r.bands[i];
@@ -140,6 +148,11 @@ void print_table(const compare_options& opt, const compare_result& r, const spec
       << num(1000.0 * static_cast<double>(r.align.lag_frames) / fs, "%.3f", "?") << " ms), waveform correlation "
       << num(r.align.waveform_correlation, "%.4f", "-") << "; onset of A at "
       << num(static_cast<double>(r.align.onset_a_frames) / fs, "%.3f", "?") << " s\n\n";
+    o << fidelity_headline(r) << "\n";
+    if (r.remarks.sentences.empty()) o << "differences: none of the checked kinds (see --help)\n";
+    else o << "differences, largest first:\n";
+    for (const std::string& s : r.remarks.sentences) o << "  - " << s << "\n";
+    o << "\n";
 
     const std::string early_label = "first " + num(1000.0 * r.early_window_s, "%.0f", "?") + " ms";
     o << "spectral distances (STFT, Hann window, hop = size/" << sp.hop_divisor
@@ -260,7 +273,10 @@ void add_compare_command(CLI::App& app, command_registry& reg) {
         ->required();
     sub->add_flag("--json", opt->json, "Print the figures as JSON instead of a table");
     sub->add_option("--early-s", opt->early_s, "Length of the early window after the onset, in s (default 0.1)");
-    sub->footer("Examples:\n  wane compare note.wav copy.wav\n  wane compare note.wav copy.wav --json > figures.json");
+    std::string footer = "Figures (A = the recording, B = the copy):\n";
+    for (const auto& [name, definition] : figure_definitions()) footer.append("  ").append(name).append(": ").append(definition).append(".\n");
+    footer += "\nExamples:\n  wane compare note.wav copy.wav\n  wane compare note.wav copy.wav --json > figures.json";
+    sub->footer(footer);
     reg.add(sub, [opt] { return run_compare(*opt); });
 }
 

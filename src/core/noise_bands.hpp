@@ -1,11 +1,12 @@
 // Noise bands of the deterministic-plus-stochastic model (Serra and Smith 1990): the part of a
 // note that partials cannot carry, kept as band-limited noise with an envelope per band.
 //
-// Band layout: octave bands with base-10 octave ratio G = 10^(3/10) and exact mid-band
-// frequencies f_m = 1000 G^k (IEC 61260-1:2014, nominal centres ISO 266), edges f_m G^(+-1/2),
-// 125 Hz .. 16 kHz, plus one band from 20 Hz to the 125 Hz band's lower edge. Reasoned choice:
-// attack noise is broadband and heard coarsely, so octave resolution keeps the patch small (at
-// most 9 bands) and each band holds several STFT bins even at the low end.
+// Band layout: one-third-octave bands with the base-10 octave ratio G = 10^(3/10), exact mid-band
+// frequencies f_m = 1000 G^(k/3) (IEC 61260-1:2014, nominal centres ISO 266) and edges
+// f_m G^(+-1/6), 125 Hz .. 20 kHz, plus one band from 20 Hz to the 125 Hz band's lower edge.
+// Reasoned choice: a third octave follows the spectral shape of a hammer, pick or mallet (above
+// 500 Hz it is about one critical band: ERB = 24.7 (4.37 f / 1 kHz + 1) Hz, Glasberg and Moore
+// 1990), while below 125 Hz third-octave bands would hold too few analysis bins to measure.
 //
 // Level: a band's level in dB is 10 log10 of the band-limited noise signal's mean power (so a
 // band at 0 dB has RMS 1.0), i.e. dB re an RMS of full scale; the envelope's peak_db is that level.
@@ -23,7 +24,7 @@
 #include <cmath>
 #include <vector>
 
-#include "core/octave_bands.hpp"  // octave_ratio_base10
+#include "core/octave_bands.hpp"  // octave_ratio_base10, octave_reference_hz
 
 namespace wane {
 
@@ -32,8 +33,8 @@ struct band_edges {
     double high_hz = 0.0;
 };
 
-/// The noise-band layout above, keeping the bands whose lower edge is below max_hz (upper edges
-/// clipped to max_hz).
+/// The noise-band layout above (one-third octaves), keeping the bands whose lower edge is below
+/// max_hz (upper edges clipped to max_hz).
 std::vector<band_edges> noise_band_layout(double max_hz);
 
 /// Band power from the mean bin power of a band's bins (formula above).

@@ -11,6 +11,7 @@
 #include "measure/align.hpp"
 #include "measure/decay.hpp"
 #include "measure/octave_filter.hpp"
+#include "measure/remarks.hpp"
 #include "measure/spectral_distance.hpp"
 
 namespace wane {
@@ -28,6 +29,7 @@ struct compare_params {
     double highest_band_nominal_hz = 16000.0;
     /// Spectral distances count bins up to this frequency only; 0 = up to Nyquist.
     double spectral_max_freq_hz = 0.0;
+    remark_params remarks{};  ///< difference cells, missing partials, onset rise
 };
 
 struct band_decay_pair {
@@ -53,6 +55,7 @@ struct compare_result {
     /// when either cannot be tracked or no partial pairs.
     std::optional<double> tuning_difference_cents;
     std::size_t tuning_pairs = 0;  ///< strongest partials of a that paired with one of b
+    copy_remarks remarks;          ///< where b differs from a, in cells and sentences
 };
 
 /// a is the reference; b is aligned to it first. Same sample rate (resample at the edge).

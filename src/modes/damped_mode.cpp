@@ -8,18 +8,15 @@
 #include <Eigen/Dense>
 
 #include "core/units.hpp"
+#include "modes/mode_shape.hpp"
 
 namespace wane {
 
-namespace {
-
-/// exp(a) - 1 without cancellation for small |a|: expm1(re) cos(im) - 2 sin^2(im / 2) + i e^re sin(im).
 std::complex<double> complex_expm1(std::complex<double> a) {
+    // expm1(re) cos(im) - 2 sin^2(im / 2) + i e^re sin(im): no cancellation for small |a|.
     const double s = std::sin(0.5 * a.imag());
     return {std::expm1(a.real()) * std::cos(a.imag()) - 2.0 * s * s, std::exp(a.real()) * std::sin(a.imag())};
 }
-
-}  // namespace
 
 std::complex<double> geometric_sum(std::complex<double> a, double count) {
     // A multiple of 2 pi in the imaginary part is the same z; fold it so expm1(a) is not 0 there.
@@ -31,12 +28,12 @@ std::complex<double> geometric_sum(std::complex<double> a, double count) {
 
 double fit_mode_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
                            double ridge_rel) {
-    const std::vector<std::vector<double>> none(modes.size());
+    const std::vector<mode_shape> none(modes.size());
     return fit_shaped_amplitudes(x, sample_rate_hz, modes, none, ridge_rel);
 }
 
 double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
-                             std::span<const std::vector<double>> shapes, double ridge_rel) {
+                             std::span<const mode_shape> shapes, double ridge_rel) {
     assert(sample_rate_hz > 0.0);
     assert(shapes.size() == modes.size());
     const auto k_count = modes.size();
@@ -47,62 +44,27 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
         for (auto& m : modes) m.amp = {};
         return 1.0;
     }
-    // log z_k = (-d_k + i w_k) / fs
-    std::vector<std::complex<double>> log_z(k_count);
+    // Mode k is p_k[n] = a_k[n] exp(i w_k n): a_k its shape, or exp(-d_k n / fs) when none is given.
+    std::vector<mode_shape> own(k_count);
+    std::vector<double> omega(k_count);
     for (std::size_t k = 0; k < k_count; ++k) {
         assert(modes[k].freq_hz >= 0.0 && modes[k].freq_hz <= 0.5 * sample_rate_hz);
-        assert(shapes[k].empty() || shapes[k].size() >= n_count);
-        log_z[k] = {shapes[k].empty() ? -modes[k].decay_per_s / sample_rate_hz : 0.0,
-                    two_pi * modes[k].freq_hz / sample_rate_hz};
+        omega[k] = two_pi * modes[k].freq_hz / sample_rate_hz;
+        own[k] = shapes[k].empty() ? exponential_shape(-modes[k].decay_per_s / sample_rate_hz, n_count) : shapes[k];
+        assert(std::all_of(own[k].begin(), own[k].end(),
+                           [&](const shape_piece& piece) { return piece.start + piece.count <= n_count; }));
     }
-    // The sequence p_k[n] of every mode: z_k^n, times a_k[n] for a shaped mode. Exponential ones are
-    // made on the fly (re-anchored from the exact power every anchor samples); shaped ones are
-    // stored, since their pair sums are direct.
-    constexpr std::size_t anchor = 512;
-    const auto sequence = [&](std::size_t k, std::vector<std::complex<double>>& out) {
-        out.resize(n_count);
-        const std::complex<double> z = std::exp(log_z[k]);
-        std::complex<double> p{1.0, 0.0};
-        for (std::size_t n = 0; n < n_count; ++n) {
-            if (n % anchor == 0) p = std::exp(static_cast<double>(n) * log_z[k]);
-            out[n] = shapes[k].empty() ? p : shapes[k][n] * p;
-            p *= z;
-        }
-    };
-    std::vector<std::vector<std::complex<double>>> stored(k_count);
-    for (std::size_t k = 0; k < k_count; ++k)
-        if (!shapes[k].empty()) sequence(k, stored[k]);
-    std::vector<std::complex<double>> scratch;
     // Unknowns: theta = [a_0, b_0, a_1, b_1, ...] with amp_k = a_k + i b_k, so the model's columns
     // are u_k[n] = Re p_k[n] and v_k[n] = -Im p_k[n]. With p = p_j[n], q = p_k[n]:
     //   Re p Re q = Re(p q + p conj q) / 2,  Im p Im q = Re(p conj q - p q) / 2,
-    //   Re p Im q = Im(p q - p conj q) / 2,  Im p Re q = Im(p q + p conj q) / 2.
+    //   Re p Im q = Im(p q - p conj q) / 2,  Im p Re q = Im(p q + p conj q) / 2,
+    // and sum p q = sum a_j a_k exp(i (w_j + w_k) n), sum p conj q the same with w_j - w_k.
     const auto dim = static_cast<Eigen::Index>(2 * k_count);
     Eigen::MatrixXd gram(dim, dim);
-    const auto count = static_cast<double>(n_count);
     for (std::size_t j = 0; j < k_count; ++j) {
         for (std::size_t k = j; k < k_count; ++k) {
-            std::complex<double> s_pq, s_pcq;
-            if (shapes[j].empty() && shapes[k].empty()) {
-                s_pq = geometric_sum(log_z[j] + log_z[k], count);
-                s_pcq = geometric_sum(log_z[j] + std::conj(log_z[k]), count);
-            } else {
-                const std::size_t shaped = shapes[j].empty() ? k : j;
-                const std::size_t other = shaped == j ? k : j;
-                const std::vector<std::complex<double>>* q = &stored[other];
-                if (shapes[other].empty()) {
-                    sequence(other, scratch);
-                    q = &scratch;
-                }
-                std::complex<double> a{}, b{};
-                for (std::size_t n = 0; n < n_count; ++n) {
-                    a += stored[shaped][n] * (*q)[n];
-                    b += stored[shaped][n] * std::conj((*q)[n]);
-                }
-                s_pq = a;
-                // sum p_j conj p_k: conj of the sum when the shaped one is k
-                s_pcq = shaped == j ? b : std::conj(b);
-            }
+            const std::complex<double> s_pq = shape_pair_sum(own[j], own[k], {0.0, omega[j] + omega[k]});
+            const std::complex<double> s_pcq = shape_pair_sum(own[j], own[k], {0.0, omega[j] - omega[k]});
             const double uu = 0.5 * (s_pq.real() + s_pcq.real());
             const double vv = 0.5 * (s_pcq.real() - s_pq.real());
             const double u_j_im_k = 0.5 * (s_pq.imag() - s_pcq.imag());  // sum Re p_j Im p_k
@@ -118,16 +80,22 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
             gram(a_k, a_j + 1) = -im_j_u_k;
         }
     }
-    // Projections sum_n x[n] u_k[n], sum_n x[n] v_k[n].
+    // Projections sum_n x[n] u_k[n], sum_n x[n] v_k[n]: sum x[n] a_k[n] exp(i w_k n), the phasor
+    // re-anchored from the exact power every anchor samples.
+    constexpr std::size_t anchor = 512;
     Eigen::VectorXd rhs(dim);
+    std::vector<double> weighted(n_count);
+    std::vector<double> amp;
     for (std::size_t k = 0; k < k_count; ++k) {
-        const std::vector<std::complex<double>>* seq = &stored[k];
-        if (shapes[k].empty()) {
-            sequence(k, scratch);
-            seq = &scratch;
+        shape_samples(own[k], n_count, amp);
+        for (std::size_t n = 0; n < n_count; ++n) weighted[n] = double(x[n]) * amp[n];
+        const std::complex<double> z = std::polar(1.0, omega[k]);
+        std::complex<double> p{1.0, 0.0}, acc{};
+        for (std::size_t n = 0; n < n_count; ++n) {
+            if (n % anchor == 0) p = std::polar(1.0, std::remainder(omega[k] * static_cast<double>(n), two_pi));
+            acc += weighted[n] * p;
+            p *= z;
         }
-        std::complex<double> acc{};
-        for (std::size_t n = 0; n < n_count; ++n) acc += double(x[n]) * (*seq)[n];
         rhs(static_cast<Eigen::Index>(2 * k)) = acc.real();
         rhs(static_cast<Eigen::Index>(2 * k + 1)) = -acc.imag();
     }

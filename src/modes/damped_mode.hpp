@@ -10,6 +10,8 @@
 #include <span>
 #include <vector>
 
+#include "modes/mode_shape.hpp"
+
 namespace wane {
 
 struct damped_mode {
@@ -21,6 +23,9 @@ struct damped_mode {
 /// Sum over n = 0 .. count-1 of exp(n a), a complex (the geometric series of z = exp(a)), computed
 /// as expm1(count a) / expm1(a) so that it stays exact as |a| -> 0 (then it tends to count).
 std::complex<double> geometric_sum(std::complex<double> a, double count);
+
+/// exp(a) - 1, without cancellation for small |a|.
+std::complex<double> complex_expm1(std::complex<double> a);
 
 /// Least-squares complex amplitudes of the modes (their freq_hz and decay_per_s given) on
 /// x[0 .. x.size()), sampled at sample_rate_hz, x[0] at t = 0: minimizes
@@ -34,10 +39,10 @@ double fit_mode_amplitudes(std::span<const float> x, double sample_rate_hz, std:
                            double ridge_rel = 1e-9);
 
 /// The same fit where mode k may have a shape of its own instead of exp(-d t): when shapes[k] is
-/// not empty it holds the real amplitude envelope a_k[n] (n < x.size(), a_k is the mode's level
-/// relative to its amp), and the mode is Re(amp_k a_k[n] exp(i 2 pi f_k n / fs)) (decay ignored).
-/// Pairs with a shaped mode are summed directly (O(N) each); shapes.size() == modes.size().
+/// not empty it gives the real amplitude a_k[n] (modes/mode_shape.hpp; every piece within
+/// [0, x.size())), and the mode is Re(amp_k a_k[n] exp(i 2 pi f_k n / fs)) (decay ignored), so
+/// amp_k scales the shape. The Gram matrix stays closed-form (pieces); shapes.size() == modes.size().
 double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
-                             std::span<const std::vector<double>> shapes, double ridge_rel = 1e-9);
+                             std::span<const mode_shape> shapes, double ridge_rel = 1e-9);
 
 }  // namespace wane

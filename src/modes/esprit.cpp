@@ -14,11 +14,22 @@ std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<doub
     const Eigen::Index dim = std::min<Eigen::Index>(params.dimension, n / 3);
     if (dim < 3) return {};
     const Eigen::Index cols = n - dim + 1;
-    const Eigen::Map<const Eigen::VectorXcd> samples(y.data(), n);
-    // R = sum over columns m of y[m..m+L-1] y[m..m+L-1]^H, built from the Hankel data matrix.
-    cmatrix data(dim, cols);
-    for (Eigen::Index m = 0; m < cols; ++m) data.col(m) = samples.segment(m, dim);
-    const cmatrix cov = data * data.adjoint();
+    // R(i, j) = sum_{m < cols} y[m + i] conj y[m + j] (the Hankel data matrix times its adjoint):
+    // the first column directly, then along each diagonal
+    //   R(i + 1, j + 1) = R(i, j) - y[i] conj y[j] + y[cols + i] conj y[cols + j],
+    // O(L N + L^2) instead of O(L^2 N).
+    cmatrix cov(dim, dim);
+    const auto at = [&](Eigen::Index k) { return y[static_cast<std::size_t>(k)]; };
+    for (Eigen::Index i = 0; i < dim; ++i) {
+        std::complex<double> acc{};
+        for (Eigen::Index m = 0; m < cols; ++m) acc += at(m + i) * std::conj(at(m));
+        cov(i, 0) = acc;
+    }
+    for (Eigen::Index j = 1; j < dim; ++j)
+        for (Eigen::Index i = j; i < dim; ++i)
+            cov(i, j) = cov(i - 1, j - 1) - at(i - 1) * std::conj(at(j - 1)) + at(cols + i - 1) * std::conj(at(cols + j - 1));
+    for (Eigen::Index j = 1; j < dim; ++j)
+        for (Eigen::Index i = 0; i < j; ++i) cov(i, j) = std::conj(cov(j, i));
     const Eigen::SelfAdjointEigenSolver<cmatrix> eig(cov);
     if (eig.info() != Eigen::Success) return {};
     const Eigen::VectorXd& values = eig.eigenvalues();  // ascending

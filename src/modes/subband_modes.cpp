@@ -29,65 +29,88 @@ std::vector<double> lowpass_taps(std::size_t taps, double cutoff_hz, double samp
     return h;
 }
 
+bool wanted_band(double centre_hz, double band_hz, std::span<const double> near_hz, double near_tol_hz) {
+    if (near_hz.empty()) return true;
+    const double lo = centre_hz - 0.25 * band_hz - near_tol_hz, hi = centre_hz + 0.25 * band_hz + near_tol_hz;
+    return std::any_of(near_hz.begin(), near_hz.end(), [&](double f) { return f >= lo && f < hi; });
+}
+
 }  // namespace
 
-std::vector<damped_mode> find_subband_modes(std::span<const float> x, double sample_rate_hz,
-                                            const subband_mode_params& params) {
+subband_signals make_subband_signals(std::span<const float> x, double sample_rate_hz, const subband_mode_params& params) {
     assert(sample_rate_hz > 0.0 && params.band_hz > 0.0);
     const double fs = sample_rate_hz;
     const auto seg_n = std::min(x.size(), static_cast<std::size_t>(params.span_s * fs));
     const auto decim = std::max<std::size_t>(1, static_cast<std::size_t>(fs / (2.0 * params.band_hz)));
     const auto taps = std::max<std::size_t>(8, static_cast<std::size_t>(std::lround(8.0 * fs / params.band_hz)));
-    if (seg_n < taps + 9 * decim) return {};
+    subband_signals out{.rate_hz = fs / static_cast<double>(decim), .input_rate_hz = fs, .decimation = decim,
+                        .taps = taps, .band_hz = params.band_hz, .bands = {}};
+    if (seg_n < taps + 9 * decim) return out;
     const std::size_t outputs = (seg_n - taps) / decim + 1;
     const std::vector<double> h = lowpass_taps(taps, 0.5 * params.band_hz, fs);
     const double top_hz = std::min(params.max_freq_hz, 0.45 * fs);
     const double step_hz = 0.5 * params.band_hz;
-
     // The heterodyne of band i at sample n is w_i^n with w_i = exp(-i 2 pi c_i / fs); the windowed
     // taps are shared by all bands, so each output is sum_j (h[j] x[mD + j]) w_i^(mD + j).
-    struct band_signal {
-        double centre_hz;
-        std::vector<std::complex<double>> y;
-        double energy;
-    };
-    std::vector<band_signal> bands;
     std::vector<std::complex<double>> phasor(taps);
     for (int i = 0; static_cast<double>(i) * step_hz - 0.25 * params.band_hz < top_hz; ++i) {
         const double centre = static_cast<double>(i) * step_hz;
         const double w = -two_pi * centre / fs;
-        band_signal b{.centre_hz = centre, .y = std::vector<std::complex<double>>(outputs), .energy = 0.0};
+        subband_signals::band b{.centre_hz = centre, .y = std::vector<std::complex<double>>(outputs)};
         for (std::size_t j = 0; j < taps; ++j) phasor[j] = h[j] * std::polar(1.0, w * static_cast<double>(j));
+        // w^(mD) by a rotation per output, re-anchored every 64 outputs.
+        const std::complex<double> turn = std::polar(1.0, std::fmod(w * static_cast<double>(decim), two_pi));
+        std::complex<double> at{1.0, 0.0};
         for (std::size_t m = 0; m < outputs; ++m) {
             const std::size_t start = m * decim;
+            if (m % 64 == 0) at = std::polar(1.0, std::fmod(w * static_cast<double>(start), two_pi));
             std::complex<double> acc{};
             for (std::size_t j = 0; j < taps; ++j) acc += double(x[start + j]) * phasor[j];
-            acc *= std::polar(1.0, std::fmod(w * static_cast<double>(start), two_pi));
-            b.y[m] = acc;
-            b.energy += std::norm(acc);
+            b.y[m] = acc * at;
+            at *= turn;
         }
-        bands.push_back(std::move(b));
+        out.bands.push_back(std::move(b));
     }
-    double loudest = 0.0;
-    for (const auto& b : bands) loudest = std::max(loudest, b.energy);
+    return out;
+}
+
+std::vector<damped_mode> subband_modes(const subband_signals& s, const subband_mode_params& params, double span_s,
+                                       std::span<const double> near_hz, double near_tol_hz) {
+    const double fs = s.input_rate_hz;
+    const auto seg_n = static_cast<std::size_t>(span_s * fs);
     std::vector<damped_mode> out;
+    if (s.bands.empty() || seg_n < s.taps + 9 * s.decimation) return out;
+    // The outputs whose taps lie within the first span_s: the band signals of that span.
+    const std::size_t outputs = std::min(s.bands.front().y.size(), (seg_n - s.taps) / s.decimation + 1);
+    std::vector<double> energy(s.bands.size(), 0.0);
+    double loudest = 0.0;
+    for (std::size_t i = 0; i < s.bands.size(); ++i) {
+        for (std::size_t m = 0; m < outputs; ++m) energy[i] += std::norm(s.bands[i].y[m]);
+        loudest = std::max(loudest, energy[i]);
+    }
     if (!(loudest > 0.0)) return out;
     const double keep = loudest * std::pow(10.0, -params.band_range_db / 10.0);
-    const double fs_d = fs / static_cast<double>(decim);
+    const double fs_d = s.rate_hz;
     const double max_decay = ln1000 / params.min_t60_s;
-    for (const auto& b : bands) {
-        if (b.energy < keep) continue;
-        for (const std::complex<double> z : esprit_poles(b.y, params.esprit)) {
+    for (std::size_t i = 0; i < s.bands.size(); ++i) {
+        const subband_signals::band& b = s.bands[i];
+        if (energy[i] < keep || !wanted_band(b.centre_hz, s.band_hz, near_hz, near_tol_hz)) continue;
+        for (const std::complex<double> z : esprit_poles(std::span(b.y).first(outputs), params.esprit)) {
             if (std::abs(z) <= 0.0) continue;
             const double freq = b.centre_hz + std::arg(z) * fs_d / two_pi;
             const double decay = -std::log(std::abs(z)) * fs_d;
-            if (freq < b.centre_hz - 0.25 * params.band_hz || freq >= b.centre_hz + 0.25 * params.band_hz) continue;
+            if (freq < b.centre_hz - 0.25 * s.band_hz || freq >= b.centre_hz + 0.25 * s.band_hz) continue;
             if (freq < params.min_freq_hz || freq >= 0.5 * fs || decay > max_decay) continue;
             out.push_back({.freq_hz = freq, .decay_per_s = decay});
         }
     }
     std::sort(out.begin(), out.end(), [](const damped_mode& a, const damped_mode& b) { return a.freq_hz < b.freq_hz; });
     return out;
+}
+
+std::vector<damped_mode> find_subband_modes(std::span<const float> x, double sample_rate_hz,
+                                            const subband_mode_params& params) {
+    return subband_modes(make_subband_signals(x, sample_rate_hz, params), params, params.span_s);
 }
 
 }  // namespace wane

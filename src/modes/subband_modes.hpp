@@ -3,6 +3,11 @@
 // few hundred samples, and ESPRIT (modes/esprit.hpp) finds their poles there. What the STFT
 // tracker cannot see: modes that live 10-100 ms.
 //
+// Computed from one FFT of the segment: each band is the bins within band_hz of c_i (rounded to
+// a bin), weighted by the taps' zero-phase response and inverse transformed at a small size
+// (modes/narrowband.hpp), which equals the filtered, decimated signal below up to a constant phase
+// and a time shift of (T - 1) / 2 samples.
+//
 // Bands: centres c_i = i * band_hz / 2 (i = 0, 1, ...), so neighbours overlap by half; a band keeps
 // only the modes in its central half [c_i - band_hz / 4, c_i + band_hz / 4), so each frequency
 // belongs to one band. Baseband signal of band i (n counts samples from the segment start):
@@ -13,6 +18,8 @@
 // a pole z_b of y_i maps back to f = c_i + arg(z_b) fs / (2 pi D), decay = -ln|z_b| fs / D.
 #pragma once
 
+#include <complex>
+#include <cstddef>
 #include <span>
 #include <vector>
 
@@ -32,8 +39,30 @@ struct subband_mode_params {
     esprit_params esprit{};
 };
 
-/// Poles (freq_hz, decay_per_s; amp left 0) of the modes of x (x[0] at the onset), ascending in
-/// frequency. Growing poles (decay < 0) are kept: the caller decides what they mean.
+/// The band signals y_i of the first params.span_s of x (x[0] at the onset).
+struct subband_signals {
+    double rate_hz = 0.0;        ///< of y: fs / D
+    double input_rate_hz = 0.0;  ///< fs
+    std::size_t decimation = 1;  ///< D
+    std::size_t taps = 0;        ///< T
+    double band_hz = 0.0;
+    struct band {
+        double centre_hz = 0.0;
+        std::vector<std::complex<double>> y;
+    };
+    std::vector<band> bands;     ///< every band, ascending centres
+};
+subband_signals make_subband_signals(std::span<const float> x, double sample_rate_hz, const subband_mode_params& params);
+
+/// Poles (freq_hz, decay_per_s; amp left 0) of the modes of the first span_s of the signals'
+/// segment (the outputs whose taps lie within it: the same signals as a segment of span_s alone
+/// gives), ascending in frequency. Growing poles (decay < 0) are kept: the caller decides what they
+/// mean. With near_hz given, only the bands whose central half comes within near_tol_hz of one of
+/// its frequencies are searched (the same poles there as a search of all bands).
+std::vector<damped_mode> subband_modes(const subband_signals& signals, const subband_mode_params& params, double span_s,
+                                       std::span<const double> near_hz = {}, double near_tol_hz = 0.0);
+
+/// subband_modes of make_subband_signals(x, ..) over params.span_s.
 std::vector<damped_mode> find_subband_modes(std::span<const float> x, double sample_rate_hz,
                                             const subband_mode_params& params);
 

@@ -76,6 +76,20 @@ PY
 check 'grep -q "LSD dB, first 100 ms" quiet.txt'
 check 'grep -q "hop = size/4" quiet.txt'
 check 'grep -q "T30 A" quiet.txt'
+# The headline and the difference sentences: itself gets no sentence; 6 dB quieter is named as
+# "6.0 dB too quiet" (sox vol -6dB, an independent gain).
+"$wane" compare a.wav a.wav > self.txt
+check 'grep -q "^fidelity: log-spectral distance 0.00 dB (whole note), onset SNR identical" self.txt'
+check 'grep -q "^differences: none" self.txt'
+grep -A3 "^differences" quiet.txt
+check 'grep -q "^  - the copy is 6.0 dB too quiet .* throughout the note" quiet.txt'
+check '[ "$(python3 -c "import json,sys; print(len(json.load(open(sys.argv[1]))[\"differences\"]))" self.json)" = 0 ]'
+# --help defines every figure it prints.
+"$wane" compare --help > help.txt
+for figure in "log-spectral distance (the headline)" "onset SNR" "spectral convergence" "T20, T30" \
+              "difference cells" "missing partial" "smeared onset"; do
+    check "grep -q \"^  $figure: \" help.txt"
+done
 
 "$wane" compare a.wav missing.wav > /dev/null 2> err.txt; rc=$?
 check '[ $rc -eq 1 ]'

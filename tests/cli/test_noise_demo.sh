@@ -18,7 +18,10 @@ for note in steel-string-d3 tuned-bar-a3; do
   # Same seed, same bytes; another seed, other noise.
   "$wane" -q render "$note.toml" -o again.wav --rate 48000 || fail=1
   cmp -s with.wav again.wav || { echo "FAIL: $note render not bit-identical with the same seed"; fail=1; }
-  "$wane" -q render "$note.toml" -o other.wav --rate 48000 --seed 2 || fail=1
-  cmp -s with.wav other.wav && { echo "FAIL: $note: seed 2 gave the same noise"; fail=1; }
+  # 6 dB down: the copy's peak is matched to the recording for seed 1 only, and the tuned bar's
+  # mallet bands can peak a few tenths of a dB higher with another seed.
+  "$wane" -q render "$note.toml" -o quiet.wav --rate 48000 --gain-db -6 || fail=1
+  "$wane" -q render "$note.toml" -o other.wav --rate 48000 --gain-db -6 --seed 2 || fail=1
+  cmp -s quiet.wav other.wav && { echo "FAIL: $note: seed 2 gave the same noise"; fail=1; }
 done
 exit $fail

@@ -13,6 +13,8 @@
 #include "core/units.hpp"
 #include "modes/damped_mode.hpp"
 #include "modes/esprit.hpp"
+#include "modes/mode_shape.hpp"
+#include "core/envelope.hpp"
 #include "modes/subband_modes.hpp"
 #include "core/rng.hpp"
 
@@ -134,4 +136,83 @@ TEST_CASE("subband search finds a short mode of a struck bar among long partials
         CHECK_THAT(best->freq_hz, WithinAbs(want.freq_hz, 0.5));
         CHECK_THAT(best->decay_per_s, WithinRel(want.decay_per_s, 0.05));
     }
+}
+
+TEST_CASE("moment sums m^p exp(m mu) equal direct summation, also near mu = 0 and across 2 pi", "[modes]") {
+    const int power = GENERATE(0, 1, 2);
+    const double re = GENERATE(0.0, -1e-9, -1e-6, -0.01, 0.002);
+    const double im = GENERATE(0.0, 1e-10, 1e-7, 0.3, 3.1, two_pi + 1e-8, -2.0);
+    const int count = 777;
+    std::complex<long double> direct = 0.0L;
+    for (int m = 0; m < count; ++m)
+        direct += std::pow(static_cast<long double>(m), power) *
+                  std::exp(std::complex<long double>(static_cast<long double>(re) * m, static_cast<long double>(im) * m));
+    const std::complex<double> got = moment_geometric_sum(power, {re, im}, count);
+    const std::complex<double> want(static_cast<double>(direct.real()), static_cast<double>(direct.imag()));
+    CAPTURE(power, re, im, got, want);
+    CHECK(std::abs(got - want) <= 1e-9 * std::max(1.0, std::abs(want)));
+}
+
+TEST_CASE("closed-form sums of two envelope shapes equal direct summation of their samples", "[modes]") {
+    const double fs = 48000.0;
+    const std::size_t count = 7200;
+    // An attack ramp then two straight dB segments (one rising), and a plain decaying mode.
+    const envelope slow{.attack_s = 0.0312, .peak = level_db{-12.0},
+                        .decay = {{.t60_s = 0.4, .until_s = 0.07}, {.t60_s = -3.0, .until_s = 0.11}, {.t60_s = 2.0, .until_s = std::nullopt}}};
+    const envelope quick{.attack_s = 0.004, .peak = level_db{-3.0}, .decay = {{.t60_s = 0.05, .until_s = std::nullopt}}};
+    const mode_shape a = envelope_shape(slow, fs, count);
+    const mode_shape b = GENERATE(0, 1) == 0 ? envelope_shape(quick, fs, count) : exponential_shape(-ln1000 / (0.2 * fs), count);
+    std::vector<double> sa, sb;
+    shape_samples(a, count, sa);
+    shape_samples(b, count, sb);
+    // The samples themselves against the envelope's own amplitude (core/envelope.hpp).
+    for (std::size_t n = 0; n < count; n += 97)
+        CHECK_THAT(sa[n], WithinRel(envelope_amp(slow, static_cast<double>(n) / fs).lin, 1e-9));
+    const double omega = GENERATE(0.0, 1e-6, 0.02, 1.5);
+    std::complex<long double> direct = 0.0L;
+    for (std::size_t n = 0; n < count; ++n)
+        direct += static_cast<long double>(sa[n]) * static_cast<long double>(sb[n]) *
+                  std::exp(std::complex<long double>(0.0L, static_cast<long double>(omega) * static_cast<long double>(n)));
+    const std::complex<double> got = shape_pair_sum(a, b, {0.0, omega});
+    const std::complex<double> want(static_cast<double>(direct.real()), static_cast<double>(direct.imag()));
+    CAPTURE(omega, got, want);
+    CHECK(std::abs(got - want) <= 1e-9 * std::max(1.0, std::abs(want)));
+}
+
+TEST_CASE("shaped amplitudes match a dense QR least squares on the shaped columns", "[modes]") {
+    const double fs = 32000.0;
+    const std::size_t count = 3000;
+    const envelope env{.attack_s = 0.02, .peak = level_db{-6.0}, .decay = {{.t60_s = 0.5, .until_s = std::nullopt}}};
+    std::vector<damped_mode> modes{{.freq_hz = 311.0, .decay_per_s = 0.0}, {.freq_hz = 330.0, .decay_per_s = 40.0},
+                                   {.freq_hz = 2900.0, .decay_per_s = 300.0}};
+    const std::vector<mode_shape> shapes{envelope_shape(env, fs, count), {}, {}};
+    const std::vector<damped_mode> truth{{.freq_hz = 330.0, .decay_per_s = 40.0, .amp = std::polar(0.3, 1.0)},
+                                         {.freq_hz = 2900.0, .decay_per_s = 300.0, .amp = std::polar(0.1, -2.0)}};
+    std::vector<float> x = render_modes(truth, fs, count, 1e-3, 7);
+    std::vector<double> a0;
+    shape_samples(shapes[0], count, a0);
+    for (std::size_t n = 0; n < count; ++n)  // the shaped mode at scale 0.7, phase 0.4
+        x[n] += static_cast<float>(0.7 * a0[n] * std::cos(two_pi * 311.0 * static_cast<double>(n) / fs + 0.4));
+    fit_shaped_amplitudes(x, fs, modes, shapes);
+    // Reference: the explicit columns Re p_k, -Im p_k and Householder QR.
+    Eigen::MatrixXd cols(static_cast<Eigen::Index>(count), 6);
+    Eigen::VectorXd rhs(static_cast<Eigen::Index>(count));
+    for (std::size_t n = 0; n < count; ++n) {
+        const auto row = static_cast<Eigen::Index>(n);
+        const double t = static_cast<double>(n) / fs;
+        for (std::size_t k = 0; k < 3; ++k) {
+            const double amp = k == 0 ? a0[n] : std::exp(-modes[k].decay_per_s * t);
+            const std::complex<double> p = amp * std::polar(1.0, two_pi * modes[k].freq_hz * t);
+            cols(row, static_cast<Eigen::Index>(2 * k)) = p.real();
+            cols(row, static_cast<Eigen::Index>(2 * k + 1)) = -p.imag();
+        }
+        rhs(row) = x[n];
+    }
+    const Eigen::VectorXd theta = cols.householderQr().solve(rhs);
+    for (std::size_t k = 0; k < 3; ++k) {
+        const std::complex<double> want{theta(static_cast<Eigen::Index>(2 * k)), theta(static_cast<Eigen::Index>(2 * k + 1))};
+        CAPTURE(k, modes[k].amp, want);
+        CHECK(std::abs(modes[k].amp - want) <= 1e-6 * std::max(1.0, std::abs(want)));
+    }
+    CHECK(std::abs(modes[0].amp - std::polar(0.7, 0.4)) < 0.01);  // the truth, under the noise
 }

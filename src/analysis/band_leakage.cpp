@@ -1,0 +1,98 @@
+#include "analysis/band_leakage.hpp"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+
+#include "core/units.hpp"
+
+namespace wane {
+
+namespace {
+
+/// Padded offsets over which the power response is summed: 16 unpadded bins each side holds the
+/// main lobe and the loud first sidelobes of the windows used (Hann: -31 dB first sidelobe falling
+/// 18 dB per octave; Blackman-Harris: main lobe +-4 bins, sidelobes under -92 dB; Harris 1978).
+constexpr double reach_unpadded_bins = 16.0;
+/// Couplings below this are left out (-120 dB).
+constexpr double least_coefficient = 1e-12;
+/// Level that stands for no leakage at all, dB.
+constexpr float no_leak_db = -200.0F;
+
+/// P(d) = |sum_n w[n] e^{-j 2 pi d n / N}|^2 for d = 0 .. reach (symmetric in d for a real window).
+std::vector<double> power_response(std::span<const float> window, int fft_size, int reach) {
+    std::vector<double> p(static_cast<std::size_t>(reach) + 1);
+    for (int d = 0; d <= reach; ++d) {
+        double re = 0.0, im = 0.0;
+        const double step = two_pi * d / fft_size;
+        for (std::size_t n = 0; n < window.size(); ++n) {
+            re += static_cast<double>(window[n]) * std::cos(step * static_cast<double>(n));
+            im -= static_cast<double>(window[n]) * std::sin(step * static_cast<double>(n));
+        }
+        p[static_cast<std::size_t>(d)] = re * re + im * im;
+    }
+    return p;
+}
+
+}  // namespace
+
+std::vector<std::vector<band_leak>> band_leakage(std::span<const float> window, int fft_size,
+                                                 const std::vector<std::vector<int>>& bins,
+                                                 const std::vector<std::pair<int, int>>& ranges, bool median) {
+    assert(bins.size() == ranges.size() && !window.empty());
+    const int reach = std::min(fft_size / 2, static_cast<int>(std::ceil(reach_unpadded_bins * fft_size /
+                                                                         static_cast<double>(window.size()))));
+    const std::vector<double> p = power_response(window, fft_size, reach);
+    double total = p[0];
+    for (int d = 1; d <= reach; ++d) total += 2.0 * p[static_cast<std::size_t>(d)];
+    auto response = [&](int d) { return std::abs(d) <= reach ? p[static_cast<std::size_t>(std::abs(d))] : 0.0; };
+
+    std::vector<std::vector<band_leak>> leak(bins.size());
+    std::vector<double> per_bin;
+    for (std::size_t b = 0; b < bins.size(); ++b) {
+        for (std::size_t n = 0; n < ranges.size(); ++n) {
+            if (n == b || bins[b].empty()) continue;
+            per_bin.clear();
+            for (int k : bins[b]) {
+                double s = 0.0;
+                const int lo = std::max(ranges[n].first, k - reach);
+                const int hi = std::min(ranges[n].second, k + reach);
+                for (int j = lo; j <= hi; ++j) s += response(k - j);
+                per_bin.push_back(s / total);
+            }
+            double c = 0.0;
+            if (median) {
+                const auto mid = per_bin.begin() + static_cast<std::ptrdiff_t>(per_bin.size() / 2);
+                std::nth_element(per_bin.begin(), mid, per_bin.end());
+                c = *mid;
+            } else {
+                for (double v : per_bin) c += v;
+                c /= static_cast<double>(per_bin.size());
+            }
+            if (c > least_coefficient) leak[b].push_back({.from = n, .coefficient = c});
+        }
+    }
+    return leak;
+}
+
+std::vector<std::vector<float>> leakage_levels_db(const std::vector<std::vector<band_leak>>& leak,
+                                                  const std::vector<std::span<const float>>& level_db,
+                                                  std::span<const int> band_total_bins) {
+    assert(leak.size() == level_db.size() && leak.size() == band_total_bins.size());
+    std::vector<std::vector<float>> out(leak.size());
+    for (std::size_t b = 0; b < leak.size(); ++b) {
+        out[b].assign(level_db[b].size(), no_leak_db);
+        for (std::size_t i = 0; i < level_db[b].size(); ++i) {
+            double power = 0.0;
+            for (const band_leak& l : leak[b]) {
+                if (i >= level_db[l.from].size()) continue;
+                const double ratio_k = static_cast<double>(band_total_bins[b]) / band_total_bins[l.from];
+                power += l.coefficient * db_to_power(level_db[l.from][i]) * ratio_k;
+            }
+            if (power > 0.0) out[b][i] = std::max(no_leak_db, static_cast<float>(power_to_db(power)));
+        }
+    }
+    return out;
+}
+
+}  // namespace wane
