@@ -14,6 +14,7 @@
 #include "core/envelope.hpp"
 #include "core/stereo.hpp"
 #include "modes/damped_mode.hpp"
+#include "modes/mode_shape.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -32,46 +33,51 @@ struct channel_fit {
 };
 
 /// The partials' modes over the span: damped modes where the envelope is one straight dB piece
-/// over the span, shaped modes elsewhere; model[k] is the mix model's complex amplitude at t0.
+/// over the span, shaped modes (modes/mode_shape.hpp) elsewhere; model[k] is the mix model's
+/// complex amplitude at t0 (for a shaped mode the shape carries the level: model is the phase).
 struct span_model {
     std::vector<damped_mode> modes;
-    std::vector<std::vector<double>> shapes;
+    std::vector<mode_shape> shapes;
     std::vector<cplx> model;
     std::vector<bool> usable;
 };
 
+/// env seen from t0_s on (t0_s becomes t = 0); empty when t0_s falls inside the attack.
+std::optional<envelope> envelope_from(const envelope& env, double t0_s) {
+    if (t0_s == 0.0) return env;
+    if (t0_s < env.attack_s) return std::nullopt;
+    envelope out;
+    out.peak = envelope_level(env, t0_s);
+    for (const decay_segment& seg : env.decay) {
+        if (seg.until_s && *seg.until_s <= t0_s) continue;
+        decay_segment moved = seg;
+        if (moved.until_s) moved.until_s = *moved.until_s - t0_s;
+        out.decay.push_back(moved);
+    }
+    return out;
+}
+
 span_model model_span(const patch& p, double t0_s, std::size_t n, double sample_rate_hz, double min_shape) {
     span_model m;
     const double span_s = static_cast<double>(n) / sample_rate_hz;
+    constexpr int shape_probes = 16;  // points where the envelope is looked at for usable
     for (const partial& q : p.partials) {
-        const double a0 = envelope_amp(q.env, t0_s).lin;
         const double peak = to_amp(q.env.peak).lin;
         const double phase = q.phase_rad + two_pi * q.freq_hz * t0_s;
-        bool exponential = t0_s >= q.env.attack_s && a0 > 0.0;
-        double slope_db_per_s = 0.0;
-        if (exponential) {
-            exponential = false;
-            for (const envelope_piece& piece : envelope_pieces(q.env)) {
-                if (piece.start_s <= t0_s && piece.end_s >= t0_s + span_s) {
-                    exponential = true;
-                    slope_db_per_s = piece.slope_db_per_s;
-                }
-            }
-        }
-        double shape_max = a0;
-        std::vector<double> shape;
-        if (!exponential) {
-            // Shape relative to the peak amplitude; the model's amplitude is the peak's.
-            shape.resize(n);
-            for (std::size_t i = 0; i < n; ++i) {
-                shape[i] = peak > 0.0 ? envelope_amp(q.env, t0_s + static_cast<double>(i) / sample_rate_hz).lin / peak : 0.0;
-                shape_max = std::max(shape_max, shape[i] * peak);
-            }
-        }
-        m.modes.push_back({.freq_hz = q.freq_hz, .decay_per_s = -slope_db_per_s * ln10_over_20, .amp = {}});
-        m.model.push_back(std::polar(exponential ? a0 : peak, phase));
-        m.usable.push_back(peak > 0.0 && shape_max >= min_shape * peak && q.freq_hz < sample_rate_hz / 2.0);
-        m.shapes.push_back(std::move(shape));
+        const std::optional<envelope> env = envelope_from(q.env, t0_s);
+        double shape_max = 0.0;
+        for (int i = 0; i <= shape_probes; ++i)
+            shape_max = std::max(shape_max, envelope_amp(q.env, t0_s + span_s * i / shape_probes).lin);
+        const std::vector<envelope_piece> pieces = env ? envelope_pieces(*env) : std::vector<envelope_piece>{};
+        const bool exponential = env && env->attack_s == 0.0 && !pieces.empty() && pieces.front().end_s >= span_s;
+        const double a0 = env ? to_amp(env->peak).lin : 0.0;
+        m.modes.push_back({.freq_hz = q.freq_hz,
+                           .decay_per_s = exponential ? -pieces.front().slope_db_per_s * ln10_over_20 : 0.0,
+                           .amp = {}});
+        m.model.push_back(std::polar(exponential ? a0 : 1.0, phase));
+        m.usable.push_back(env && peak > 0.0 && a0 >= 0.0 && shape_max >= min_shape * peak &&
+                           q.freq_hz < sample_rate_hz / 2.0);
+        m.shapes.push_back(env && !exponential ? envelope_shape(*env, sample_rate_hz, n) : mode_shape{});
     }
     return m;
 }
@@ -81,7 +87,7 @@ channel_fit fit_channel(const span_model& m, std::span<const float> x, double sa
     channel_fit out;
     // Modes at or above Nyquist are left out of the fit (their ratio stays 0, unusable).
     std::vector<damped_mode> fit_modes;
-    std::vector<std::vector<double>> fit_shapes;
+    std::vector<mode_shape> fit_shapes;
     std::vector<std::size_t> index;
     for (std::size_t k = 0; k < modes.size(); ++k) {
         if (!(modes[k].freq_hz < sample_rate_hz / 2.0)) continue;
