@@ -3,9 +3,9 @@
 // CPU time of several repeats, all cases measured in the same run (48 kHz unless --rate):
 //   partials  - render_patch of 40 harmonics of 110 Hz (B = 1e-4, attack 2 ms, two decay
 //               segments with T60s like a plucked string's), include_noise off;
-//   typical   - add_noise_bands of the 9 octave bands of core/noise_bands.hpp with an attack
+//   typical   - add_noise_bands of the 24 one-third-octave bands of core/noise_bands.hpp with an attack
 //               envelope (attack 2 ms, peak -30..-54 dB, T60 60..200 ms then 0.5..1 s);
-//   held      - the worst case: the same 9 bands with t60 = inf, held at -40 dB for the whole note;
+//   held      - the worst case: the same 24 bands with t60 = inf, held at -40 dB for the whole note;
 //   demo      - the [[noise]] bands the analysis fits to the demo pluck (demo-data/steel-string-d3.wav),
 //               when that file is readable (run from the source folder, or pass its path).
 // It prints each time and its ratio to the partials' time.
@@ -154,8 +154,8 @@ int main(int argc, char** argv) {
             std::string name;
             std::vector<wane::noise_band> bands;
         };
-        std::vector<noise_case> cases{{"noise, typical: 9 bands, attack envelope", octave_bands(false)},
-                                      {"noise, worst: 9 bands held (t60 = inf)", octave_bands(true)}};
+        std::vector<noise_case> cases{{"noise, typical: 24 bands, attack envelope", octave_bands(false)},
+                                      {"noise, worst: 24 bands held (t60 = inf)", octave_bands(true)}};
         if (std::filesystem::exists(demo)) {
             const wane::mono_audio a = wane::read_audio(demo);
             const wane::analysis_result r = wane::analyze_note(a.samples, a.sample_rate_hz, {});
