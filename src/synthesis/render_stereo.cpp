@@ -28,7 +28,7 @@ std::vector<noise_band> noise_share(const std::vector<noise_band>& bands, bool s
 
 /// A seed of a channel's own noise, apart from the shared seed and from the other channel's.
 std::uint64_t own_noise_seed(std::uint64_t seed, channel_side side) {
-    splitmix64 rng(seed ^ (side == channel_side::left ? 0x6c656674ULL : 0x72696768ULL));
+    splitmix64 rng{seed ^ (side == channel_side::left ? 0x6c656674ULL : 0x72696768ULL)};
     return rng.next();
 }
 

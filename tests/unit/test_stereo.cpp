@@ -64,7 +64,7 @@ std::vector<std::vector<float>> synth_channels(const std::vector<known_partial>&
                                                double noise_db, std::uint64_t seed) {
     const auto n = static_cast<std::size_t>(length_s * fs);
     std::vector<std::vector<float>> ch(2, std::vector<float>(n));
-    splitmix64 rng(seed);
+    splitmix64 rng{seed};
     const double noise_rms = std::pow(10.0, noise_db / 20.0);
     for (std::size_t i = 0; i < n; ++i) {
         const double t = static_cast<double>(i) / fs - onset_s;
