@@ -46,6 +46,16 @@ for spec in "48 72 3 3 2" "45 45 1 1 1" "48 62 2 4 3"; do
   check '"$wane" -q keymap pluck.toml -o "$out" --notes "$low..$high" --every "$every" --layers "$layers" --variants "$variants" --rate 16000'
   check "$py $src/tests/cli/sfz_check.py $out/pluck.sfz $low $high"
 done
+# Several patches: roots A3 (the pluck) and E4 (the pluck a fifth up, written by edit), keys
+# between interpolated; the plan names both; the same checks hold.
+check '"$wane" -q edit pluck.toml -o fifth.toml --to-note E4'
+check '"$wane" -q keymap pluck.toml fifth.toml -o multi --notes 52..67 --every 3 --layers 2 --variants 2 --rate 16000'
+check "$py $src/tests/cli/sfz_check.py multi/multi.sfz 52 67"
+check 'grep -q "^Cs4_v2_rr1.wav .*0.429 x pluck.toml at A3 + 0.571 x fifth.toml at E4" multi/multi.plan.txt'
+check '"$wane" -q keymap pluck.toml fifth.toml -o multi2 --notes 52..67 --every 3 --layers 2 --variants 2 --rate 16000'
+# Deterministic: the same samples and the same plan (the set is named after its folder).
+check '! for f in multi/*.wav; do cmp -s "$f" "multi2/$(basename "$f")" || echo differs; done | grep -q differs'
+check 'cmp -s multi/multi.plan.txt multi2/multi2.plan.txt'
 # Default length: the render runs until the sound is 80 dB below the patch's peak, so its end is
 # far below its start (a cut at the patch's 0.5 s would leave the end only ~20 dB down).
 check '$py - set_45_45/A2_v1_rr1.wav <<PY
