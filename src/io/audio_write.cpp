@@ -231,6 +231,9 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
     if (file.get() == nullptr) {
         throw io_error(path_text(path) + ": cannot write: " + sf_strerror(nullptr));
     }
+    // No PEAK chunk in float files: libsndfile stamps it with the wall-clock time, so the same
+    // render would give different bytes from one second to the next (the chunk is optional).
+    sf_command(file.get(), SFC_SET_ADD_PEAK_CHUNK, nullptr, SF_FALSE);
     if (options.root_midi) store_root_note(file.get(), cont, *options.root_midi, path);
     write_samples(file.get(), samples, options, path);
     if (file.close() != 0) throw io_error(path_text(path) + ": write failed while closing the file");
