@@ -161,8 +161,9 @@ int run_render(const render_options& o) {
     if (summary.partials_above_nyquist > 0) {
         partials += printf_text(", %zu above Nyquist left out", summary.partials_above_nyquist);
     }
+    const std::size_t frames = y.size() / channels.size();  // interleaved samples -> frames
     say(printf_text("%s: %.3f s at %.0f Hz%s, %s, %s, peak %s", o.out_path.string().c_str(),
-                   static_cast<double>(y.size() / channels.size()) / o.rate_hz, o.rate_hz,
+                   static_cast<double>(frames) / o.rate_hz, o.rate_hz,
                    channels.size() == 2 ? " stereo" : "", format_text(format),
                    partials.c_str(), dbfs_text(out_peak).c_str()));
     return exit_ok;
