@@ -119,7 +119,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
             continue;
         }
         p.partials.push_back({.freq_hz = fit->freq_hz, .harmonic = track.harmonic, .phase_rad = fit->phase_rad,
-                              .env = fit->env});
+                              .env = fit->env, .place = {}});
         fitted.push_back({.env = nullptr, .track = &track, .fit_start_s = fit->fit_start_s, .fit_end_s = fit->fit_end_s});
         out.summary.segments += static_cast<int>(fit->env.decay.size());
         sq_error += fit->weighted_sq_error_db2;

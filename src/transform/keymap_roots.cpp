@@ -102,7 +102,7 @@ job_recipe recipe_for(std::span<const recorded_root> roots, int key, int layer, 
 }
 
 patch recipe_patch(std::span<const patch> patches, const job_recipe& recipe, const keymap_job& job, double a4_hz) {
-    const patch lower = layer_patch(patches, recipe.lower, job);
+    patch lower = layer_patch(patches, recipe.lower, job);
     if (recipe.weight_upper == 0.0) return lower;
     const patch upper = layer_patch(patches, recipe.upper, job);
     return interpolate_patches(lower, upper, recipe.weight_upper, midi_to_hz(job.root_midi, a4_hz));

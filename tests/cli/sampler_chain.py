@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""The sampler chain of issue 18, checked on audio (numpy; independent of wane's code).
+"""The sampler chain of a keymap set, checked on audio (numpy; independent of wane's code).
 
 midi OUT.mid KEY VELOCITY NOTE_ON_S NOTE_OFF_S END_S
     writes a one-track standard MIDI file (format 0, 480 ticks per quarter at the default

@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Issue 18: a keymap set plays right in a third-party sampler chain. The set (two real notes from
+# A keymap set plays right in a third-party sampler chain. The set (two real notes from
 # tests/data/real-notes, licence beside them, keys between them interpolated) is converted to SF2 by the Debian package polyphone
 # (its SFZ importer) and played by the Debian package fluidsynth from MIDI files written here
 # (tests/cli/sampler_chain.py). Checked on the audio: a held note has one onset (no re-trigger); a
