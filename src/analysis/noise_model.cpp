@@ -74,8 +74,9 @@ void add_leakage(band_plan& plan, double sample_rate_hz) {
 /// The floor measurement: bins away from every partial, borrowed from nearby when too few.
 band_plan floor_plan(double sample_rate_hz, std::span<const double> partial_freqs_hz, double f0_hz,
                      const noise_model_params& params) {
-    band_plan plan{.window = window_kind::blackman_harris_4, .window_s = floor_window_s(partial_freqs_hz, f0_hz, params),
-                   .hop_s = params.hop_s, .median = true, .bands = {}, .bins = {}, .band_total_bins = {}, .ranges = {}, .leak = {}};
+    const double window_s = floor_window_s(partial_freqs_hz, f0_hz, params);
+    band_plan plan{.window = window_kind::blackman_harris_4, .window_s = window_s,
+                   .hop_s = std::max(params.hop_s, window_s / params.floor_hops_per_window), .median = true, .bands = {}, .bins = {}, .band_total_bins = {}, .ranges = {}, .leak = {}};
     const stft_config config = plan_config(plan, sample_rate_hz);
     const int n_bins = config.fft_size / 2 + 1;
     const double bin_hz = sample_rate_hz / config.fft_size;
