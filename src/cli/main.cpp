@@ -6,6 +6,7 @@
 #include "cli/common.hpp"
 #include "core/analysis_error.hpp"
 #include "io/atomic_file.hpp"
+#include "platform/interrupt_cleanup.hpp"
 
 namespace wane::cli {
 

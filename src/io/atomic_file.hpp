@@ -9,14 +9,16 @@
 #include <string>
 #include <string_view>
 
+#include "platform/interrupt_cleanup.hpp"
+
 namespace wane {
 
 /// Temporary sibling of a destination, created (empty) by the constructor and open for writing
 /// as fd(); removed in the destructor unless commit() succeeded. While it exists, its temporary
-/// path is in a process-wide registry that the interrupt handler (install_interrupt_cleanup)
-/// empties on SIGINT/SIGTERM/SIGHUP. Creating the temporary and renaming it are "file-system
-/// changes" that an interrupt waits for and that never start after an interrupt began, so no
-/// thread can leave a file behind the handler's cleanup. Write through fd() (or reopen
+/// path is registered with platform/interrupt_cleanup, whose handler removes it on
+/// SIGINT/SIGTERM/SIGHUP. Creating the temporary and renaming it are change_scopes there: an
+/// interrupt waits for them and they never start after it began, so no thread can leave a file
+/// behind the handler's cleanup. Write through fd() (or reopen
 /// temp_path() without creating it). Throws io_error when the destination folder is missing, the
 /// destination is a folder, the temporary cannot be created, or the registry is full
 /// (max_live_outputs temporaries at once).
@@ -74,19 +76,6 @@ private:
     int slot_ = -1;
     bool moved_ = false;
 };
-
-/// Most temporaries alive at once (each holds a registry slot of max_temp_path_bytes).
-inline constexpr std::size_t max_live_outputs = 1024;
-/// Longest temporary path the registry holds, with its terminating NUL (PATH_MAX on Linux).
-inline constexpr std::size_t max_temp_path_bytes = 4096;
-
-/// Installs handlers for SIGINT, SIGTERM and SIGHUP that remove every live temporary output
-/// (async-signal-safe: unlink over the registry's fixed slots), write the one line
-/// "wane: interrupted; only the files reported as written are complete" to stderr with write(2),
-/// and end the process with _exit(128 + signal number) (130 for SIGINT, 143 for SIGTERM). Also
-/// makes std::cout flush after every output, so the lines that report finished files are out
-/// before any interrupt. Call once, early in main.
-void install_interrupt_cleanup();
 
 /// Number of temporaries registered now (for tests).
 std::size_t live_output_count();

@@ -8,3 +8,7 @@ work=$3
 rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
 fail=0
 check() { if ! eval "$1"; then echo "FAIL: $1"; fail=1; else echo "ok: $1"; fi; }
+# sox seeds its random generators (pluck, noise, dither) from the clock unless -R is given: every
+# test's sox runs repeatable, so a test sees the same input on every run.
+# (`sox --i` reads a header: it takes no other option first.)
+sox() { if [ "${1:-}" = --i ]; then command sox "$@"; else command sox -R "$@"; fi; }

@@ -105,7 +105,7 @@ expect_error 2 "--length-s and --until-db" "$wane" keymap pluck.toml -o set-bad 
 # a render three times as long keeps falling after the cut (no hold): each half second quieter
 # than the one before, and the last second at least 10 dB under the 100 ms before the cut (the
 # recording fell 10 dB over its one second).
-sox -n -r 44100 -b 16 pluck.wav synth 1.0 pluck 220
+sox -R -n -r 44100 -b 16 pluck.wav synth 1.0 pluck 220
 "$wane" analyze pluck.wav -o cut.toml > out.txt 2>&1
 cat out.txt
 check 'grep -q "cut at 1.000 s while sounding" out.txt'
@@ -127,8 +127,8 @@ echo "cut pluck x3: $at_cut dB before the cut, $last dB in the last second"
 check 'awk -v a="$at_cut" -v b="$last" "BEGIN { exit !(a - b >= 10) }"'
 
 # 6. A steady tone (three sines, sox): it holds, no cut, and its copy holds its level past the end.
-sox -n -r 44100 -b 16 -c 3 sines.wav synth 3 sine 220 sine 440 sine 660
-sox sines.wav organ.wav remix - gain -n -6 fade 0.01
+sox -R -n -r 44100 -b 16 -c 3 sines.wav synth 3 sine 220 sine 440 sine 660
+sox -R sines.wav organ.wav remix - gain -n -6 fade 0.01
 "$wane" analyze organ.wav -o organ.toml > out.txt 2>&1
 cat out.txt
 check 'grep -q "holds its level" out.txt'
