@@ -116,7 +116,7 @@ void bench_note(const std::string& name, const std::vector<float>& x, double fs,
         for (const wane::partial_track& track : t.tracks) {
             const auto f = wane::fit_partial(track, fp);
             if (f && f->env.peak.db <= wane::max_peak_db)
-                p.partials.push_back({.freq_hz = f->freq_hz, .harmonic = track.harmonic, .phase_rad = f->phase_rad, .env = f->env});
+                p.partials.push_back({.freq_hz = f->freq_hz, .harmonic = track.harmonic, .phase_rad = f->phase_rad, .env = f->env, .place = {}});
         }
         fit_t.push_back(thread_cpu_s() - c0);
 

@@ -70,7 +70,7 @@ std::vector<wane::noise_band> octave_bands(bool held) {
     const auto layout = wane::noise_band_layout(rate_hz / 2.0);
     for (std::size_t i = 0; i < layout.size(); ++i) {
         const double k = static_cast<double>(i) / static_cast<double>(layout.size() - 1);  // 0 low .. 1 high
-        wane::noise_band b{.low_hz = layout[i].low_hz, .high_hz = layout[i].high_hz, .env = {}};
+        wane::noise_band b{.low_hz = layout[i].low_hz, .high_hz = layout[i].high_hz, .env = {}, .place = {}, .coherence = 1.0};
         b.env.attack_s = attack_s;
         if (held) {
             b.env.peak = wane::level_db{held_level_db};

@@ -74,11 +74,14 @@ double peak_matching_gain_db(const patch& p, std::span<const float> note, double
     patch q = p;
     q.note.gain_db = 0.0;
     double copy_db = -infinity;
-    for (const double rate : {sample_rate_hz, 48000.0})
-        if (rate >= min_render_rate_hz && rate <= max_render_rate_hz)
-            copy_db = std::max(copy_db, peak_level_db(render_patch(q, {.sample_rate_hz = rate})));
+    for (const double rate : {sample_rate_hz, default_output_rate_hz}) {
+        if (rate < min_render_rate_hz || rate > max_render_rate_hz) continue;
+        if (rate == default_output_rate_hz && rate == sample_rate_hz && std::isfinite(copy_db)) continue;
+        copy_db = std::max(copy_db, peak_level_db(render_patch(q, {.sample_rate_hz = rate})));
+    }
+    if (!std::isfinite(copy_db)) return 0.0;
     const double target_db = std::min(peak_level_db(note), -peak_headroom_db);
-    return copy_db > target_db ? target_db - copy_db : 0.0;
+    return std::min(target_db - copy_db, max_peak_raise_db);
 }
 
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
@@ -116,7 +119,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
             continue;
         }
         p.partials.push_back({.freq_hz = fit->freq_hz, .harmonic = track.harmonic, .phase_rad = fit->phase_rad,
-                              .env = fit->env});
+                              .env = fit->env, .place = {}});
         fitted.push_back({.env = nullptr, .track = &track, .fit_start_s = fit->fit_start_s, .fit_end_s = fit->fit_end_s});
         out.summary.segments += static_cast<int>(fit->env.decay.size());
         sq_error += fit->weighted_sq_error_db2;

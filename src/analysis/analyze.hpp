@@ -35,7 +35,7 @@ struct analysis_params {
     /// notes a pitch glide can still pass for a pair (analyze --split-pairs turns it on).
     bool split_pairs = false;
     beating_pair_params pairs{};
-    /// Set note.gain_db so the copy does not peak above the recording (peak_matching_gain_db).
+    /// Set note.gain_db so the copy peaks with the recording (peak_matching_gain_db).
     bool match_peak = true;
     onset_refine_params onset{};
     /// Partial frequencies from the recording's own long spectrum (analysis/heard_peaks.hpp).
@@ -72,11 +72,17 @@ inline constexpr int max_fit_decay_segments = max_fit_segments;
 /// output rates).
 inline constexpr double peak_headroom_db = 0.3;
 
-/// Gain (dB, <= 0) that brings the default render of p (at the source rate and at 48 kHz, noise
-/// seed 1) down to the peak
-/// of the recording note (note[0] at the onset), or to -peak_headroom_db dBFS when that is lower;
-/// 0 when the copy already peaks lower. Levels that add up: the partials' fitted starts sum to
-/// the waveform, but a copy may still overshoot by the noise or by where its peaks fall.
+/// A copy that peaks lower than its recording is raised by at most this (dB): further under, the
+/// fit has missed the note's loudest part, and a gain would only hide it.
+inline constexpr double max_peak_raise_db = 6.0;
+/// The output rate of a render at default settings, Hz.
+inline constexpr double default_output_rate_hz = 48000.0;
+
+/// Gain (dB) that brings the default render of p (the louder of its renders at the source rate
+/// and at 48 kHz, noise seed 1) to the peak of the recording note (note[0] at the onset), or to
+/// -peak_headroom_db dBFS when that is lower: down when the copy overshoots (the noise, or where
+/// its peaks fall), up by at most max_peak_raise_db when it falls short (an onset transient the
+/// partials carry only in part). Levels that add up: the copy peaks with the recording.
 double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz);
 
 /// Throws analysis_error with a user-facing reason when the sound cannot be analyzed.

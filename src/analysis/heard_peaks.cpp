@@ -270,7 +270,7 @@ int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz
         const partial_track t = band_track(spectrum, f, capture_hz, note_s, params);
         const auto fit = fit_partial(t, fit_params);
         if (!fit || !(fit->env.peak.db < 0.0)) continue;
-        p.partials.push_back({.freq_hz = f, .harmonic = 0, .phase_rad = fit->phase_rad, .env = fit->env});
+        p.partials.push_back({.freq_hz = f, .harmonic = 0, .phase_rad = fit->phase_rad, .env = fit->env, .place = {}});
         ++added;
     }
     return added;

@@ -265,7 +265,7 @@ std::optional<noise_band> fit_attack_band(const noise_band_track& attack, const 
     if (!(t60_s >= params.min_attack_t60_s && t60_s <= params.max_attack_t60_s)) return std::nullopt;
     // The 1 ms hop sees the burst's peak: a fitted line run back above it is not trusted.
     if (result->env.peak.db > peak_db) result->env.peak = level_db{peak_db};
-    return noise_band{.low_hz = attack.low_hz, .high_hz = attack.high_hz, .env = result->env};
+    return noise_band{.low_hz = attack.low_hz, .high_hz = attack.high_hz, .env = result->env, .place = {}, .coherence = 1.0};
 }
 
 std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
@@ -304,7 +304,7 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
         // A floor band is kept down to digital silence (the recording's own hiss is part of its
         // sound between the partials); an attack band only within keep_within_db of the partials.
         auto keep = [&](const envelope& env, double least_db) { return env.peak.db >= least_db && env.peak.db <= max_peak_db; };
-        if (result && keep(result->env, params.least_floor_band_db)) bands.push_back({.low_hz = t.low_hz, .high_hz = t.high_hz, .env = result->env});
+        if (result && keep(result->env, params.least_floor_band_db)) bands.push_back({.low_hz = t.low_hz, .high_hz = t.high_hz, .env = result->env, .place = {}, .coherence = 1.0});
         if (attack && keep(attack->env, keep_db)) bands.push_back(*attack);
     }
     return bands;

@@ -309,7 +309,8 @@ void apply_fit(patch& p, const waveform_fit& f, std::span<const role> roles, con
         if (!(level0 < max_peak_db)) continue;
         p.partials.push_back({.freq_hz = m.freq_hz, .harmonic = 0, .phase_rad = std::arg(m.amp),
                               .env = {.attack_s = 0.0, .peak = level_db{level0},
-                                      .decay = {{.t60_s = ln1000 / m.decay_per_s, .until_s = std::nullopt}}}});
+                                      .decay = {{.t60_s = ln1000 / m.decay_per_s, .until_s = std::nullopt}}},
+                              .place = {}});
         ++summary.new_modes;
     }
 }

@@ -15,6 +15,7 @@
 #include <vector>
 
 #include "analysis/analyze.hpp"
+#include "analysis/stereo_place.hpp"
 #include "cli/common.hpp"
 #include "core/patch.hpp"
 #include "io/atomic_file.hpp"
@@ -47,6 +48,7 @@ struct analyze_options {
     double start_s = 0.0;
     std::optional<double> end_s;
     std::optional<int> channel;
+    bool mono = false;
     std::optional<double> window_s;
     std::optional<int> fft_size;
     std::optional<double> hop_s;
@@ -86,6 +88,7 @@ void validate(const analyze_options& o) {
     if (o.end_s && !(*o.end_s > o.start_s))
         throw usage_error("--end-s " + num(*o.end_s) + ": must be after --start-s (" + num(o.start_s) + ")");
     if (o.channel && *o.channel < 1) throw usage_error("--channel " + std::to_string(*o.channel) + ": channels count from 1");
+    if (o.channel && o.mono) throw usage_error("--channel and --mono: give one (--channel takes one channel, --mono mixes them)");
     if (o.window_s && !(*o.window_s > 0.0 && *o.window_s <= max_window_s))
         throw usage_error("--window-s " + num(*o.window_s) + ": must be above 0 and at most " + num(max_window_s) + " s");
     if (o.fft_size) {
@@ -182,7 +185,14 @@ std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t
 /// Analyzes one file and writes its patch; returns the summary line. Throws with a message that
 /// names the file.
 std::string run_one(const job& j, const analyze_options& o) {
-    const mono_audio audio = read_audio(j.input, {.channel = o.channel, .max_length_s = o.max_input_s, .max_file_bytes = o.max_input_mib << 20});
+    const mono_audio audio = read_audio(j.input, {.channel = o.channel, .keep_stereo = !o.mono, .max_length_s = o.max_input_s,
+                                                  .max_file_bytes = o.max_input_mib << 20});
+    // Two channels are kept, one is analyzed as it is; more must be chosen from or mixed.
+    if (audio.source_channels > 2 && !o.channel && !o.mono) {
+        throw io_error(j.input.string() + ": has " + std::to_string(audio.source_channels) +
+                       " channels; choose one with --channel N (1 to " + std::to_string(audio.source_channels) +
+                       ") or mix them all with --mono");
+    }
     analysis_params ap{.tracking = {.f0_hz = o.f0_hz, .window_s = o.window_s, .fft_size = o.fft_size,
                                     .hop_s = o.hop_s, .max_partials = o.max_partials},
                        .max_segments = o.max_segments,
@@ -198,7 +208,9 @@ std::string run_one(const job& j, const analyze_options& o) {
                        num(audio.sample_rate_hz) + " Hz)");
     analysis_result r;
     try {
-        r = analyze_note(audio.samples, audio.sample_rate_hz, ap);
+        r = audio.channels.size() == 2
+                ? analyze_stereo_note(audio.samples, audio.channels[0], audio.channels[1], audio.sample_rate_hz, ap, {})
+                : analyze_note(audio.samples, audio.sample_rate_hz, ap);
     } catch (const analysis_error& e) {
         throw io_error(j.input.string() + ": " + e.what());
     }
@@ -277,7 +289,9 @@ void add_analyze_command(CLI::App& app, command_registry& reg) {
     sub->add_option("--max-segments", o->max_segments, "Decay segments per partial, at most")->capture_default_str();
     sub->add_option("--start-s", o->start_s, "Analyze from this time in the file, seconds")->capture_default_str();
     sub->add_option("--end-s", o->end_s, "Analyze up to this time in the file, seconds (default: the end)");
-    sub->add_option("--channel", o->channel, "Take this channel (from 1; default: mix all to mono)");
+    sub->add_option("--channel", o->channel,
+                    "Take this channel (from 1; default: a stereo patch from two channels; more need this or --mono)");
+    sub->add_flag("--mono", o->mono, "Mix all channels to mono (a mono patch from a stereo file)");
     sub->add_option("--window-s", o->window_s, "STFT window length, seconds (default: from the sound)");
     sub->add_option("--fft-size", o->fft_size, "FFT size in samples, even, at least the window (default: from the window)");
     sub->add_option("--hop-s", o->hop_s, "STFT hop, seconds (default: from the window)");

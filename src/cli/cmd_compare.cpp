@@ -14,6 +14,7 @@
 
 #include "core/text_format.hpp"
 #include "cli/common.hpp"
+#include "cli/compare_stereo.hpp"
 #include "io/audio_file.hpp"
 #include "measure/compare.hpp"
 #include "measure/fidelity.hpp"
@@ -89,7 +90,7 @@ std::string json_decay(const decay_times& d) {
 }
 
 void print_json(const compare_options& opt, const compare_result& r, const spectral_distance_params& sp,
-                std::optional<double> b_rate_before_hz) {
+                std::optional<double> b_rate_before_hz, const std::string& stereo) {
     std::ostringstream o;
     o << "{\n";
     o << "  \"a\": " << json_string(opt.a_path.string()) << ",\n";
@@ -129,7 +130,9 @@ void print_json(const compare_options& opt, const compare_result& r, const spect
           << ", \"low_hz\": " << jnum(b.band.lower_edge_hz) << ", \"high_hz\": " << jnum(b.band.upper_edge_hz)
           << ", \"a\": " << json_decay(b.a) << ", \"b\": " << json_decay(b.b) << "}";
     }
-    o << "\n  ]\n}\n";
+    o << "\n  ]";
+    if (!stereo.empty()) o << ",\n  \"stereo\": " << stereo;
+    o << "\n}\n";
     std::cout << o.str();
 }
 
@@ -209,13 +212,14 @@ int run_compare(const compare_options& opt) {
     if (!(opt.early_s > 0.0) || !std::isfinite(opt.early_s)) {
         throw usage_error("--early-s " + short_num(opt.early_s) + ": must be a positive number of seconds");
     }
-    const mono_audio a = read_audio(opt.a_path);
-    mono_audio b = read_audio(opt.b_path);
+    const mono_audio a = read_audio(opt.a_path, {.keep_stereo = true});
+    mono_audio b = read_audio(opt.b_path, {.keep_stereo = true});
     std::optional<double> b_rate_before_hz;
     if (b.sample_rate_hz != a.sample_rate_hz) {
         b_rate_before_hz = b.sample_rate_hz;
         try {
             b.samples = resample(b.samples, b.sample_rate_hz, a.sample_rate_hz);
+            for (std::vector<float>& c : b.channels) c = resample(c, b.sample_rate_hz, a.sample_rate_hz);
         } catch (const std::exception& e) {
             throw std::runtime_error(opt.b_path.string() + ": cannot resample from " + short_num(b.sample_rate_hz) +
                                      " Hz to the rate of " + opt.a_path.string() + " (" +
@@ -240,10 +244,20 @@ int run_compare(const compare_options& opt) {
         warn(opt.a_path.string() + " ends " + num(1000.0 * r.early_window_s, "%.1f", "?") +
              " ms after its onset: the early figures cover only that");
     }
+    // Two stereo files: each channel against its own, and the figures between the channels.
+    std::optional<stereo_compare> stereo;
+    if (a.channels.size() == 2 && b.channels.size() == 2) {
+        try {
+            stereo = compare_stereo(a, b, r, params);
+        } catch (const analysis_error& e) {
+            throw std::runtime_error(opt.a_path.string() + ": one channel: " + e.what());
+        }
+    }
     if (opt.json) {
-        print_json(opt, r, params.spectral, b_rate_before_hz);
+        print_json(opt, r, params.spectral, b_rate_before_hz, stereo ? stereo_json(*stereo) : std::string());
     } else {
         print_table(opt, r, params.spectral, b_rate_before_hz);
+        if (stereo) std::cout << stereo_table(*stereo);
     }
     return exit_ok;
 }

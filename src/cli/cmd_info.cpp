@@ -13,6 +13,7 @@
 #include "core/harmonics.hpp"
 #include "core/patch.hpp"
 #include "core/pitch_names.hpp"
+#include "core/stereo.hpp"
 #include "core/units.hpp"
 #include "io/patch_toml.hpp"
 
@@ -93,13 +94,35 @@ int run_info(const std::filesystem::path& path) {
     return exit_ok;
 }
 
+/// Where each part sits between the channels (stereo patches): pan, the level difference it
+/// means under the pan law (core/stereo.hpp), delay and spread; bands' pan and coherence.
+void write_stereo_table(std::ostringstream& os, const patch& p) {
+    os << "\n  stereo: pan -1 left .. +1 right (constant power, 0 dB per channel at centre); R-L level difference\n";
+    os << "     #        freq_hz      pan   R-L dB  delay_us  spread dB/s\n";
+    const auto diff_text = [](double pan) {
+        const double d = pan_level_difference_db(pan);
+        return std::isinf(d) ? std::string(d > 0 ? "  R only" : "  L only") : printf_text("%+8.2f", d);
+    };
+    for (std::size_t i = 0; i < p.partials.size(); ++i) {
+        const partial& q = p.partials[i];
+        os << printf_text("  %4zu  %13.6f  %+7.4f  %s  %8.2f  %+11.3f\n", i + 1, q.freq_hz, q.place.pan,
+                          diff_text(q.place.pan).c_str(), q.place.delay_us, q.place.spread_db_per_s);
+    }
+    for (std::size_t i = 0; i < p.noise.size(); ++i) {
+        const noise_band& b = p.noise[i];
+        os << printf_text("  noise %zu  %.0f-%.0f Hz  pan %+7.4f  R-L %s dB  coherence %.3f  spread %+.3f dB/s\n", i + 1,
+                          b.low_hz, b.high_hz, b.place.pan, diff_text(b.place.pan).c_str(), b.coherence,
+                          b.place.spread_db_per_s);
+    }
+}
+
 }  // namespace
 
 std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
     std::ostringstream os;
     const note_info& n = p.note;
 
-    os << printable(path.string()) << " (" << patch_format_name << " version " << p.version << ")\n";
+    os << printable(path.string()) << " (" << patch_format_name << " version " << written_format_version(p) << ")\n";
     os << "  name      " << (n.name.empty() ? "(none)" : printable(n.name)) << '\n';
     os << "  f0        " << pitch_text(n.f0_hz) << '\n';
     os << "  B         " << printf_text("%.4e", n.inharmonicity_b) << '\n';
@@ -122,8 +145,9 @@ std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
     const double patch_bytes = static_cast<double>(std::filesystem::file_size(path, ec));
     os << "  size      " << size_text(patch_bytes) << " as a patch";
     if (s.sample_rate_hz > 0.0) {
-        const double wav_bytes = wav_header_bytes + std::ceil(n.length_s * s.sample_rate_hz) * wav_24bit_bytes_per_sample;
-        os << "; " << size_text(wav_bytes) << printf_text(" as a 24-bit mono WAV of %.4f s at %.0f Hz (%.0fx)",
+        const double wav_bytes = wav_header_bytes + std::ceil(n.length_s * s.sample_rate_hz) * wav_24bit_bytes_per_sample *
+                                                        static_cast<double>(n.channels);
+        os << "; " << size_text(wav_bytes) << printf_text(" as a 24-bit %s WAV of %.4f s at %.0f Hz (%.0fx)", is_stereo(p) ? "stereo" : "mono",
                                                                  n.length_s, s.sample_rate_hz, wav_bytes / patch_bytes);
     }
     os << "\n";
@@ -142,6 +166,7 @@ std::string patch_info_text(const patch& p, const std::filesystem::path& path) {
         }
         os << "  cents: residual from the fitted series n f0 sqrt(1 + B n^2); blank for harmonic 0\n";
     }
+    if (is_stereo(p)) write_stereo_table(os, p);
     if (!p.noise.empty()) {
         os << "\n  noise     low_hz     high_hz  peak_db  att_ms  decay: T60 to segment end\n";
         for (std::size_t i = 0; i < p.noise.size(); ++i) {

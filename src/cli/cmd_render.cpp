@@ -143,10 +143,13 @@ int run_render(const render_options& o) {
                         summary.partials_above_nyquist, p.partials.size(), 0.5 * o.rate_hz));
     }
 
-    std::vector<float> y = render_patch(p, params);
+    // A stereo patch renders both channels (interleaved frames); the peak and --normalize-db
+    // take them together, so the balance between the channels is kept.
+    const std::vector<std::vector<float>> channels = render_channels(p, params);
+    std::vector<float> y = channels.size() == 1 ? channels[0] : interleave(channels);
     const double out_peak = level_output(y, o, patch_name);
 
-    audio_write_options wopts{.format = format};
+    audio_write_options wopts{.format = format, .channels = static_cast<int>(channels.size())};
     if (const double root = root_hz(p.note); root > 0.0) {
         const double midi = std::round(hz_to_midi(root));
         if (midi >= 0.0 && midi <= 127.0) wopts.root_midi = static_cast<int>(midi);
@@ -158,8 +161,10 @@ int run_render(const render_options& o) {
     if (summary.partials_above_nyquist > 0) {
         partials += printf_text(", %zu above Nyquist left out", summary.partials_above_nyquist);
     }
-    say(printf_text("%s: %.3f s at %.0f Hz, %s, %s, peak %s", o.out_path.string().c_str(),
-                   static_cast<double>(y.size()) / o.rate_hz, o.rate_hz, format_text(format),
+    const std::size_t frames = y.size() / channels.size();  // interleaved samples -> frames
+    say(printf_text("%s: %.3f s at %.0f Hz%s, %s, %s, peak %s", o.out_path.string().c_str(),
+                   static_cast<double>(frames) / o.rate_hz, o.rate_hz,
+                   channels.size() == 2 ? " stereo" : "", format_text(format),
                    partials.c_str(), dbfs_text(out_peak).c_str()));
     return exit_ok;
 }

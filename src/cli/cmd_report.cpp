@@ -38,6 +38,17 @@ std::span<const float> from_patch_onset(const mono_audio& source, const patch& p
     return std::span<const float>(source.samples).subspan(from);
 }
 
+/// x (starting at the note's onset) placed at at_s in a signal as long as the source, zero elsewhere.
+std::vector<float> placed_in_source(std::span<const float> x, double at_s, const mono_audio& source) {
+    std::vector<float> out(source.samples.size(), 0.0f);
+    const auto at = static_cast<std::ptrdiff_t>(std::llround(at_s * source.sample_rate_hz));
+    for (std::size_t n = 0; n < x.size(); ++n) {
+        const std::ptrdiff_t k = at + static_cast<std::ptrdiff_t>(n);
+        if (k >= 0 && k < static_cast<std::ptrdiff_t>(out.size())) out[static_cast<std::size_t>(k)] = x[n];
+    }
+    return out;
+}
+
 /// Longest source a report draws (our choice, no source): the page embeds the source and the
 /// render as audio and a spectrogram, about 8 MB and 40 MB of memory per minute at 48 kHz (a
 /// 30-minute input took 1.04 GB and wrote a 231 MB page); 300 s keeps a page under about 40 MB.
@@ -48,6 +59,7 @@ struct report_options {
     std::filesystem::path source_path;
     std::filesystem::path patch_path;
     std::filesystem::path out_path;
+    double top_hz = 0.0;
 };
 
 }  // namespace
@@ -56,7 +68,7 @@ double max_report_input_s() { return default_max_report_s; }
 
 void write_analysis_report(const mono_audio& source, const std::filesystem::path& source_path, const patch& p,
                            const tracking_result* tracking, const std::filesystem::path& patch_path,
-                           const std::filesystem::path& out_path) {
+                           const std::filesystem::path& out_path, double top_hz) {
     const std::vector<float> render = render_patch(p, {.sample_rate_hz = source.sample_rate_hz});
     // The loudness rule of every command that renders (cli/loudness.hpp).
     refuse_too_loud(peak_abs(render), patch_path.string());
@@ -70,6 +82,16 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
     } catch (const analysis_error& e) {
         comparison_note = std::string("No comparison: ") + e.what() + ".";
     }
+    const double from_s = static_cast<double>(source.samples.size() - note.size()) / source.sample_rate_hz;
+    // b[n + lag] lines up with a[n] (measure/align.hpp): the render's first sample sits at
+    // from_s - lag in the source file; without a comparison, at the patch's onset.
+    const double copy_at_s = comparison ? from_s - static_cast<double>(comparison->align.lag_frames) / source.sample_rate_hz
+                                        : p.source.onset_s;
+    const std::vector<float> partials = render_patch(p, {.sample_rate_hz = source.sample_rate_hz, .include_noise = false});
+    std::vector<float> noise(render.size());
+    for (std::size_t n = 0; n < render.size(); ++n) noise[n] = render[n] - partials[n];
+    const std::vector<float> copy_in_source = placed_in_source(render, copy_at_s, source);
+    const std::vector<float> partials_in_source = placed_in_source(partials, copy_at_s, source);
     report_inputs in{.title = "wane report: " + source_path.filename().string(),
                      .value = &p,
                      .tracking = tracking,
@@ -78,11 +100,16 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
                      .source_rate_hz = source.sample_rate_hz,
                      .render_audio = render,
                      .render_rate_hz = source.sample_rate_hz,
+                     .copy_in_source = copy_in_source,
+                     .partials_in_source = partials_in_source,
+                     .partials_audio = partials,
+                     .noise_audio = noise,
                      .source_name = source_path.filename().string(),
                      .info_table = patch_info_text(p, patch_path),
                      .comparison = comparison ? &*comparison : nullptr,
                      .comparison_note = comparison_note,
-                     .comparison_from_s = static_cast<double>(source.samples.size() - note.size()) / source.sample_rate_hz};
+                     .comparison_from_s = from_s,
+                     .max_plot_freq_hz = top_hz};
     write_file_atomic(out_path, make_report_html(in));
 }
 
@@ -96,7 +123,10 @@ void add_report_command(CLI::App& app, command_registry& reg) {
     sub->add_option("-o,--output", opt->out_path, "HTML file to write")->required();
     sub->add_option("--max-input-s", opt->max_input_s, "Refuse sources longer than this, seconds (the page embeds them)")
         ->capture_default_str();
+    sub->add_option("--top-hz", opt->top_hz,
+                    "Top of the spectrograms in Hz (default: the source's Nyquist frequency)");
     sub->footer("Examples:\n  wane report pluck.wav pluck.toml -o pluck.html\n"
+                "  wane report pluck.wav pluck.toml -o pluck.html --top-hz 8000\n"
                 "  wane analyze pluck.wav -o pluck.toml --report   (writes pluck.html beside the patch)");
     reg.add(sub, [opt] {
         const std::filesystem::path inputs[] = {opt->source_path, opt->patch_path};
@@ -104,6 +134,9 @@ void add_report_command(CLI::App& app, command_registry& reg) {
         const auto t0 = std::chrono::steady_clock::now();
         if (!(opt->max_input_s > 0.0 && std::isfinite(opt->max_input_s))) {
             throw usage_error("--max-input-s " + short_num(opt->max_input_s) + ": must be a positive number of seconds");
+        }
+        if (!(opt->top_hz >= 0.0 && std::isfinite(opt->top_hz))) {
+            throw usage_error("--top-hz " + short_num(opt->top_hz) + ": must be 0 (the Nyquist frequency) or a positive frequency in Hz");
         }
         const mono_audio source = read_audio(opt->source_path, {.max_length_s = opt->max_input_s});
         const patch_read_result r = read_patch_file(opt->patch_path);
@@ -126,7 +159,7 @@ void add_report_command(CLI::App& app, command_registry& reg) {
         } catch (const analysis_error& e) {
             warn(opt->source_path.string() + ": no tracks drawn: " + e.what());
         }
-        write_analysis_report(source, opt->source_path, p, tracking.get(), opt->patch_path, opt->out_path);
+        write_analysis_report(source, opt->source_path, p, tracking.get(), opt->patch_path, opt->out_path, opt->top_hz);
         const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
         say(opt->out_path.string() + ": report written in " + num("%.2f s", seconds) + ", " +
             std::to_string(std::filesystem::file_size(opt->out_path)) + " bytes");

@@ -66,10 +66,11 @@ std::string patch_info_text(const patch& p, const std::filesystem::path& path);
 /// Default of report's --max-input-s and analyze's --max-report-s: the longest source a report draws.
 double max_report_input_s();
 
-/// Writes the HTML report of a source and its patch (tracking may be null: no overlay).
+/// Writes the HTML report of a source and its patch (tracking may be null: no overlay); the
+/// spectrograms reach top_hz (0: the source's Nyquist frequency).
 void write_analysis_report(const mono_audio& source, const std::filesystem::path& source_path, const patch& p,
                            const tracking_result* tracking, const std::filesystem::path& patch_path,
-                           const std::filesystem::path& out_path);
+                           const std::filesystem::path& out_path, double top_hz = 0.0);
 
 /// Each command file adds its subcommand (with options, help and examples footer) here.
 void add_analyze_command(CLI::App& app, command_registry& reg);

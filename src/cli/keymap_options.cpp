@@ -42,11 +42,17 @@ keymap_settings check_keymap_options(const keymap_options& o) {
                           ": not available with keymap, which moves the patch to each note of --notes");
     }
     k.base = to_params(o.transforms);
-    try {
-        k.range = parse_note_range(o.notes);
-    } catch (const transform_error& e) {
-        throw usage_error(std::string("--notes: ") + e.what());
+    if (o.notes) {
+        try {
+            k.range = parse_note_range(*o.notes);
+        } catch (const transform_error& e) {
+            throw usage_error(std::string("--notes: ") + e.what());
+        }
     }
+    if (o.between != "nearest" && o.between != "interpolated") {
+        throw usage_error("--between: must be nearest or interpolated, not '" + o.between + "'");
+    }
+    k.mode = o.between == "nearest" ? between_roots::nearest : between_roots::interpolated;
     check_layer_options(o);
     if (!(o.rate_hz >= min_render_rate_hz && o.rate_hz <= max_render_rate_hz) || o.rate_hz != std::round(o.rate_hz)) {
         throw usage_error("--rate " + short_num(o.rate_hz) + ": must be a whole number of Hz from 8000 to 192000");

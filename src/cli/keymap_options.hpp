@@ -1,6 +1,7 @@
 // The options of `wane keymap`, checked once at the edge (errors name the option, exit 2).
 #pragma once
 
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -9,6 +10,7 @@
 #include "io/audio_file.hpp"
 #include "synthesis/render_budget.hpp"
 #include "transform/keymap.hpp"
+#include "transform/keymap_roots.hpp"
 
 namespace wane::cli {
 
@@ -24,9 +26,10 @@ inline constexpr int max_keymap_variants = 64;
 inline constexpr double default_keymap_until_db = -80.0;
 
 struct keymap_options {
-    std::vector<std::string> inputs;
+    std::vector<std::string> inputs;  ///< patch files or folders of patches
     std::string output_dir;
-    std::string notes;
+    std::optional<std::string> notes;  ///< not given: the recorded roots' span
+    std::string between = "interpolated";
     int every = 1;
     int layers = 1;
     int variants = 1;
@@ -45,7 +48,8 @@ struct keymap_options {
 /// The options keymap checks before anything is read or written.
 struct keymap_settings {
     transform_params base;
-    note_range range;
+    std::optional<note_range> range;  ///< empty: the recorded roots' span
+    between_roots mode = between_roots::interpolated;
     sample_format format = sample_format::pcm24;
     int threads = 1;
 };

@@ -50,17 +50,29 @@ std::string staged_message(std::string what, const std::filesystem::path& stage,
     return what + "; nothing of the new set was written (" + dir.string() + " is as it was)";
 }
 
+namespace {
+
+/// A sample as its file holds it: the render of a mono patch, or a stereo patch's two channels
+/// interleaved (a stereo set's SFZ references these stereo WAVs as it does mono ones).
+std::vector<float> render_for_file(const patch& p, const render_params& params) {
+    if (!is_stereo(p)) return render_patch(p, params);
+    return interleave(render_channels(p, params));
+}
+
+}  // namespace
+
 keymap_render_result render_set(const keymap_render_request& r, const std::filesystem::path& stage_dir,
                                 const std::filesystem::path& dir, progress_bar& bar) {
     const std::vector<keymap_job>& jobs = r.jobs;
     std::size_t total_frames = 0;
-    for (std::size_t i = 0; i < jobs.size(); ++i) total_frames += render_frames(r.patches[i], r.renders[i]);
+    for (std::size_t i = 0; i < jobs.size(); ++i)
+        total_frames += render_frames(r.patches[i], r.renders[i]) * static_cast<std::size_t>(r.patches[i].note.channels);
     const bool keep = total_frames <= keymap_memory_budget_bytes / sizeof(float);
     std::vector<std::vector<float>> kept(keep ? jobs.size() : 0);
     keymap_render_result result;
     result.peaks.assign(jobs.size(), 0.0);
     parallel_for(jobs.size(), r.threads, [&](std::size_t i) {
-        std::vector<float> x = render_patch(r.patches[i], r.renders[i]);
+        std::vector<float> x = render_for_file(r.patches[i], r.renders[i]);
         result.peaks[i] = peak_abs(x);
         if (keep) kept[i] = std::move(x);
         bar.advance();
@@ -70,12 +82,13 @@ keymap_render_result render_set(const keymap_render_request& r, const std::files
     const auto gain_f = static_cast<float>(gain);
     const int write_threads = keep ? std::max(r.threads, keymap_writer_threads) : r.threads;
     parallel_for(jobs.size(), write_threads, [&](std::size_t i) {
-        std::vector<float> x = keep ? std::move(kept[i]) : render_patch(r.patches[i], r.renders[i]);
+        std::vector<float> x = keep ? std::move(kept[i]) : render_for_file(r.patches[i], r.renders[i]);
         if (gain != 1.0) {
             for (float& v : x) v *= gain_f;
         }
         try {
-            write_audio(stage_dir / jobs[i].sample, x, r.rate_hz, {.format = r.format, .root_midi = jobs[i].root_midi});
+            write_audio(stage_dir / jobs[i].sample, x, r.rate_hz, {.format = r.format, .root_midi = jobs[i].root_midi,
+                                                                   .channels = r.patches[i].note.channels});
         } catch (const std::exception& e) {
             throw wane::io_error(staged_message(e.what(), stage_dir, dir));
         }

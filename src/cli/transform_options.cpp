@@ -26,6 +26,8 @@ constexpr double max_abs_brightness_db_per_oct = 48.0;
 /// own bound (patches/README.md), and --scale-b 1000 takes a guitar's B of about 1e-5 to 1e-2.
 constexpr double max_detune_cents = 100.0;
 constexpr double max_level_jitter_db = 24.0;
+/// Widest stereo width: four times the recorded differences (our choice; more is rarely useful).
+constexpr double max_width = 4.0;
 constexpr double max_set_b = 1.0;
 constexpr double max_scale_b = 1000.0;
 /// Tuning references accepted by --a4-hz (a generous band around concert pitch).
@@ -102,6 +104,12 @@ void add_transform_options(CLI::App* sub, transform_cli& o) {
                     "Scale each partial's decay by a random factor within 1 +- F (F in [0, 1))")
         ->capture_default_str()->group(group_name);
     sub->add_flag("--random-phase", o.random_phase, "Give each partial a random start phase")->group(group_name);
+    sub->add_option("--width", o.width,
+                    "Stereo: scale the differences between the channels (0 alike, 1 as is, 2 twice; 0 to 4)")
+        ->capture_default_str()->group(group_name);
+    sub->add_option("--pan", o.pan,
+                    "Place the whole note from -1 (left) to +1 (right); makes a mono patch stereo")
+        ->group(group_name);
 }
 
 namespace {
@@ -195,6 +203,14 @@ transform_params to_params(const transform_cli& o) {
         t.scale_b = *o.scale_b;
     }
     t.variation = to_variation(o);
+    require_finite(o.width, "--width");
+    if (o.width < 0.0 || o.width > max_width) throw usage_error("--width: must be from 0 to 4");
+    t.width = o.width;
+    if (o.pan) {
+        require_finite(*o.pan, "--pan");
+        if (*o.pan < -1.0 || *o.pan > 1.0) throw usage_error("--pan: must be from -1 (left) to +1 (right)");
+        t.pan = *o.pan;
+    }
     return t;
 }
 

@@ -35,6 +35,8 @@ struct transform_cli {
     double level_jitter_db = 0.0;
     double decay_jitter = 0.0;
     bool random_phase = false;
+    double width = 1.0;
+    std::optional<double> pan{};
 };
 
 /// Adds the options (in a "Sound design" help group) to sub, storing into opts.

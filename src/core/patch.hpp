@@ -12,7 +12,11 @@
 
 namespace wane {
 
-inline constexpr int patch_format_version = 2;
+/// Newest version the reader accepts and the one a stereo patch is written as (version 3 added
+/// [note] channels and the per-part stereo keys); a mono patch is written as version 2, which
+/// wane versions that predate stereo read unchanged.
+inline constexpr int patch_format_version = 3;
+inline constexpr int mono_patch_format_version = 2;
 /// Oldest version the reader accepts (version 1 has no root keys; its root is f0_hz).
 inline constexpr int oldest_patch_format_version = 1;
 inline constexpr const char* patch_format_name = "wane-patch";
@@ -47,6 +51,7 @@ struct note_info {
     double length_s = 4.0;         ///< how long a render lasts
     double inharmonicity_b = 0.0;  ///< B in f_n = n f0 sqrt(1 + B n^2); 0 if not fitted
     double gain_db = 0.0;
+    int channels = 1;  ///< 1 (mono) or 2 (stereo: left, right); key channels, version 3
     note_root root{};
     friend bool operator==(const note_info&, const note_info&) = default;
 };
@@ -71,11 +76,27 @@ struct source_info {
     friend bool operator==(const source_info&, const source_info&) = default;
 };
 
+/// Where a partial or noise band sits between the two channels of a stereo patch (all zero in a
+/// mono patch). Channel levels follow the constant-power sine pan law normalized to 0 dB at
+/// centre (core/stereo.hpp): pan -1 is left only (+3.01 dB there), 0 both channels at peak_db,
+/// +1 right only. The right channel lags the left by delay_us (negative: leads); for a partial
+/// that is a phase difference, the left channel at phase_rad + pi f delay, the right at
+/// phase_rad - pi f delay. spread_db_per_s gives the channels their own decays: the right minus
+/// left level difference grows by that many dB per second after the attack (each channel's
+/// segments fall spread/2 dB per second slower or faster than the shared envelope).
+struct stereo_place {
+    double pan = 0.0;
+    double delay_us = 0.0;
+    double spread_db_per_s = 0.0;
+    friend bool operator==(const stereo_place&, const stereo_place&) = default;
+};
+
 struct partial {
     double freq_hz = 0.0;
     int harmonic = 0;  ///< 0 = not on the harmonic series
     double phase_rad = 0.0;  ///< phase at t = 0 of cos(2 pi f t + phase)
     envelope env;
+    stereo_place place;  ///< keys pan, delay_us, spread_db_per_s (stereo patches only)
     friend bool operator==(const partial&, const partial&) = default;
 };
 
@@ -84,6 +105,12 @@ struct noise_band {
     double low_hz = 0.0;
     double high_hz = 0.0;
     envelope env;  ///< peak level is the band's RMS level in dBFS
+    /// Stereo patches only: pan and spread_db_per_s as for a partial (delay_us stays 0: a band is
+    /// noise, it has no phase to delay), and how alike the two channels' noise is: coherence 1
+    /// plays the same noise in both, 0 independent noise in each, c between a sqrt(c) : sqrt(1-c)
+    /// amplitude mix of shared and own noise (so the channels correlate at c).
+    stereo_place place;
+    double coherence = 1.0;
     friend bool operator==(const noise_band&, const noise_band&) = default;
 };
 
@@ -95,6 +122,13 @@ struct patch {
     std::vector<noise_band> noise;  ///< canonical order: ascending low_hz
     friend bool operator==(const patch&, const patch&) = default;
 };
+
+/// Whether p has two channels ([note] channels = 2).
+inline bool is_stereo(const patch& p) { return p.note.channels == 2; }
+/// The version a patch is written as: patch_format_version for stereo, 2 for mono.
+inline int written_format_version(const patch& p) {
+    return is_stereo(p) ? patch_format_version : mono_patch_format_version;
+}
 
 /// The root's frequency: midi_to_hz(midi + cents / 100, a4_hz); note.f0_hz when the root is
 /// unstated; 0 when unpitched.

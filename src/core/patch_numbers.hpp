@@ -25,6 +25,10 @@ std::string fmt_t60(double v);        ///< T60s, 0.1 ms
 std::string fmt_b(double v);          ///< inharmonicity B, 5 significant digits
 std::string fmt_cents(double v);      ///< the root's tuning, 0.001 cent
 std::string fmt_a4(double v);         ///< A4 of the root's temperament, 0.001 Hz
+std::string fmt_pan(double v);        ///< pan, 1e-4 (0.0014 dB of level difference at centre)
+std::string fmt_delay_us(double v);   ///< inter-channel delay, 0.01 us
+std::string fmt_spread(double v);     ///< per-channel decay difference, 0.001 dB/s
+std::string fmt_coherence(double v);  ///< noise coherence between channels, 0.001
 /// A sample rate: an integer when it is one (at 1e-6 Hz resolution), e.g. "48000".
 std::string fmt_rate(double v);
 

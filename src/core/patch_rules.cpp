@@ -4,6 +4,7 @@
 #include <cmath>
 
 #include "core/patch_numbers.hpp"
+#include "core/stereo.hpp"
 
 namespace wane::patch_rules {
 
@@ -110,6 +111,20 @@ struct validator {
         }
     }
 
+    /// The stereo keys: in range in a stereo patch, absent (at their defaults) in a mono one.
+    void check_place(const std::string& base, const stereo_place& place, bool stereo) const {
+        if (!stereo) {
+            const char* key = place.pan != 0.0 ? "pan" : place.delay_us != 0.0 ? "delay_us"
+                              : place.spread_db_per_s != 0.0 ? "spread_db_per_s" : nullptr;
+            if (key) fail(base + "." + key, "is a stereo key; this patch is mono (stereo patches have channels = 2 in [note])");
+            return;
+        }
+        within(base + ".pan", place.pan, -1.0, 1.0, "");
+        within(base + ".delay_us", place.delay_us, -max_abs_delay_us, max_abs_delay_us, " us");
+        within(base + ".spread_db_per_s", place.spread_db_per_s, -max_abs_spread_db_per_s, max_abs_spread_db_per_s,
+               " dB/s");
+    }
+
     void check(const patch& p) const {
         const note_info& n = p.note;
         text("note.name", n.name);
@@ -117,6 +132,10 @@ struct validator {
         within("note.length_s", n.length_s, 0.0, max_length_s, " s", true);
         within("note.inharmonicity_b", n.inharmonicity_b, 0.0, max_inharmonicity_b, "");
         within("note.gain_db", n.gain_db, min_level_db, max_peak_db, " dB");
+        if (n.channels != 1 && n.channels != 2) {
+            fail("note.channels", "must be 1 (mono) or 2 (stereo: left, right), not " + std::to_string(n.channels));
+        }
+        const bool stereo = is_stereo(p);
         if (n.root.method != root_method::unstated && n.root.method != root_method::unpitched) {
             within("note.tuning_cents", n.root.tuning_cents, -max_tuning_cents, max_tuning_cents, " cents");
             within("note.a4_hz", n.root.a4_hz, min_a4_hz, max_a4_hz, " Hz");
@@ -155,6 +174,7 @@ struct validator {
                                                              std::to_string(q.harmonic));
             within(base + ".phase_rad", q.phase_rad, -max_abs_phase_rad, max_abs_phase_rad, " rad");
             check_envelope(base, q.env);
+            check_place(base, q.place, stereo);
         }
         for (std::size_t i = 0; i < p.noise.size(); ++i) {
             const noise_band& b = p.noise[i];
@@ -166,6 +186,12 @@ struct validator {
             }
             within(base + ".high_hz", b.high_hz, 0.0, max_freq_hz, " Hz");
             check_envelope(base, b.env);
+            check_place(base, b.place, stereo);
+            if (b.place.delay_us != 0.0) fail(base + ".delay_us", "is not a key of a noise band (noise has no phase to delay)");
+            if (!stereo && b.coherence != 1.0) {
+                fail(base + ".coherence", "is a stereo key; this patch is mono (stereo patches have channels = 2 in [note])");
+            }
+            if (stereo) within(base + ".coherence", b.coherence, 0.0, 1.0, "");
         }
     }
 };

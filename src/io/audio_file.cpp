@@ -119,6 +119,10 @@ void read_frames(SNDFILE* file, const SF_INFO& info, const audio_read_options& o
                                std::to_string(i % channels + 1) + ")");
             }
         }
+        if (!out.channels.empty()) {
+            for (std::size_t c = 0; c < channels; ++c)
+                for (std::size_t f = 0; f < got_frames; ++f) out.channels[c].push_back(block[f * channels + c]);
+        }
         if (options.channel || channels == 1) {
             for (std::size_t f = 0; f < got_frames; ++f) out.samples.push_back(block[f * channels + pick]);
         } else {
@@ -159,6 +163,7 @@ mono_audio read_audio(const fs::path& path, const audio_read_options& options) {
     // per frame; the vector grows if a compressed format really decodes to more.
     const auto total_frames = static_cast<std::size_t>(info.frames);
     out.samples.reserve(std::min<std::size_t>(total_frames, static_cast<std::size_t>(file_size)));
+    if (options.keep_stereo && !options.channel && info.channels == 2) out.channels.resize(2);
     read_frames(file.get(), info, options, path, out);
     return out;
 }

@@ -20,6 +20,8 @@ inline constexpr std::uintmax_t default_max_input_bytes = std::uintmax_t{2} << 3
 struct audio_read_options {
     /// 1-based channel to take; empty mixes all channels to mono (mean).
     std::optional<int> channel{};
+    /// With no channel picked, also keep a two-channel file's channels apart (mono_audio::channels).
+    bool keep_stereo = false;
     /// Longest input accepted, in seconds (refused with the limit named beyond it; the CLI
     /// option that raises it is --max-input-s).
     double max_length_s = default_max_input_s;
@@ -34,6 +36,9 @@ struct mono_audio {
     std::vector<float> samples;
     double sample_rate_hz = 0.0;
     int source_channels = 0;
+    /// Left and right of a two-channel file when keep_stereo asked for them (samples is then their
+    /// mean); empty otherwise.
+    std::vector<std::vector<float>> channels;
     std::string format_name;  ///< e.g. "WAV (Microsoft) / Signed 24 bit PCM"
 };
 
@@ -57,9 +62,14 @@ struct audio_write_options {
     /// TPDF dither for 16-bit PCM (on by default). Off rounds to the nearest step, so samples
     /// already on the 16-bit grid come back bit-exact.
     bool dither = true;
+    /// Samples per frame in the span given to write_audio (interleaved: left, right, left, ...).
+    int channels = 1;
 };
 
-/// Writes mono samples; the container follows the extension (.wav, .aif/.aiff, .flac). Atomic.
+/// Interleaves equal-length channels into frames (left, right, left, ...) for write_audio.
+std::vector<float> interleave(std::span<const std::vector<float>> channels);
+
+/// Writes mono samples (or, with channels > 1, frames of interleaved samples); the container follows the extension (.wav, .aif/.aiff, .flac). Atomic.
 /// Samples beyond full scale are the caller's business: check the peak first (never clip silently);
 /// as the last guard, a peak above 1.0 (or a NaN/Inf sample) throws io_error stating the peak in
 /// dBFS and writes nothing. Scaling follows libsndfile's: 16-bit v = x * 2^15, 24-bit v = x * 2^23

@@ -11,6 +11,7 @@
 #include <cmath>
 #include <cstdio>
 #include <fstream>
+#include <stdexcept>
 #include <string>
 #include <system_error>
 
@@ -120,6 +121,10 @@ void check_write_request(const fs::path& path, std::span<const float> samples, d
                        " Hz (needs a whole number in 1 Hz..768 kHz)");
     }
     if (samples.empty()) throw io_error(path_text(path) + ": no samples to write");
+    if (options.channels < 1 || samples.size() % static_cast<std::size_t>(options.channels) != 0) {
+        throw io_error(path_text(path) + ": " + std::to_string(samples.size()) + " samples are not whole frames of " +
+                       std::to_string(options.channels) + " channels");
+    }
     if (options.root_midi && (*options.root_midi < 0 || *options.root_midi > 127)) {
         throw io_error(path_text(path) + ": root MIDI note " + std::to_string(*options.root_midi) +
                        " is outside 0..127");
@@ -129,7 +134,7 @@ void check_write_request(const fs::path& path, std::span<const float> samples, d
         const float s = samples[i];
         if (!std::isfinite(s)) {
             throw io_error(path_text(path) + ": refusing to write a " + (std::isnan(s) ? "NaN" : "infinite") +
-                           " sample at frame " + std::to_string(i));
+                           " sample at frame " + std::to_string(i / static_cast<std::size_t>(options.channels)));
         }
         peak = std::max(peak, std::fabs(static_cast<double>(s)));
     }
@@ -158,9 +163,9 @@ void store_root_note(SNDFILE* file, const container& cont, int root_midi, const 
 /// sf_write_short / sf_write_int) takes for sample x. Throws naming path on a short write.
 template <class Value, class Quantize, class Write>
 void write_blocks(SNDFILE* file, std::span<const float> samples, const fs::path& path, Quantize&& quantize,
-                  Write sf_write) {
+                  Write sf_write, int channels) {
     const std::size_t n = samples.size();
-    const auto block_len = static_cast<std::size_t>(io_block_frames);
+    const auto block_len = static_cast<std::size_t>(io_block_frames) * static_cast<std::size_t>(channels);
     std::vector<Value> block(block_len);
     for (std::size_t start = 0; start < n; start += block_len) {
         const std::size_t len = std::min(block_len, n - start);
@@ -174,7 +179,7 @@ void write_blocks(SNDFILE* file, std::span<const float> samples, const fs::path&
 void write_samples(SNDFILE* file, std::span<const float> samples, const audio_write_options& options,
                    const fs::path& path) {
     if (options.format == sample_format::float32) {
-        write_blocks<float>(file, samples, path, [](float x) { return x; }, sf_write_float);
+        write_blocks<float>(file, samples, path, [](float x) { return x; }, sf_write_float, options.channels);
     } else if (options.format == sample_format::pcm16) {
         // TPDF dither: the sum of two independent uniform values of +-0.5 LSB each, added before
         // rounding (Lipshitz, Wannamaker, Vanderkooy 1992, J. AES 40(5): renders the first two
@@ -188,7 +193,7 @@ void write_samples(SNDFILE* file, std::span<const float> samples, const audio_wr
             double v = static_cast<double>(x) * pcm16_full_scale;
             if (options.dither) v += rng.uniform_half() + rng.uniform_half();
             return static_cast<short>(std::clamp(std::nearbyint(v), lo, hi));
-        }, sf_write_short);
+        }, sf_write_short, options.channels);
     } else {
         // 24-bit: round to the nearest step, no dither (a float's 24-bit mantissa lands exactly).
         write_blocks<int>(file, samples, path, [](float x) {
@@ -197,7 +202,7 @@ void write_samples(SNDFILE* file, std::span<const float> samples, const audio_wr
             const double v = static_cast<double>(x) * pcm24_full_scale;
             const auto q = static_cast<int>(std::clamp(std::nearbyint(v), lo, hi));
             return static_cast<int>(static_cast<unsigned>(q) << pcm24_in_int_shift);
-        }, sf_write_int);
+        }, sf_write_int, options.channels);
     }
 }
 
@@ -210,7 +215,7 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
 
     SF_INFO info{};
     info.samplerate = static_cast<int>(sample_rate_hz);
-    info.channels = 1;
+    info.channels = options.channels;
     switch (options.format) {
         case sample_format::pcm16: info.format = cont.major | SF_FORMAT_PCM_16; break;
         case sample_format::pcm24: info.format = cont.major | SF_FORMAT_PCM_24; break;
@@ -226,6 +231,9 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
     if (file.get() == nullptr) {
         throw io_error(path_text(path) + ": cannot write: " + sf_strerror(nullptr));
     }
+    // No PEAK chunk in float files: libsndfile stamps it with the wall-clock time, so the same
+    // render would give different bytes from one second to the next (the chunk is optional).
+    sf_command(file.get(), SFC_SET_ADD_PEAK_CHUNK, nullptr, SF_FALSE);
     if (options.root_midi) store_root_note(file.get(), cont, *options.root_midi, path);
     write_samples(file.get(), samples, options, path);
     if (file.close() != 0) throw io_error(path_text(path) + ": write failed while closing the file");
@@ -233,6 +241,17 @@ void write_audio(const fs::path& path, std::span<const float> samples, double sa
         append_aiff_inst_chunk(out.temp_path(), path, *options.root_midi);
     }
     out.commit();
+}
+
+std::vector<float> interleave(std::span<const std::vector<float>> channels) {
+    if (channels.empty()) return {};
+    const std::size_t frames = channels[0].size();
+    std::vector<float> out(frames * channels.size());
+    for (std::size_t c = 0; c < channels.size(); ++c) {
+        if (channels[c].size() != frames) throw std::invalid_argument("interleave: channels of different lengths");
+        for (std::size_t f = 0; f < frames; ++f) out[f * channels.size() + c] = channels[c][f];
+    }
+    return out;
 }
 
 std::optional<sample_format> parse_sample_format(std::string_view text) {

@@ -10,11 +10,13 @@ namespace wane::patch_keys {
 
 inline constexpr std::string_view top_keys[] = {"format", "version", "note", "source", "partial", "noise"};
 inline constexpr std::string_view note_keys[] = {"name", "f0_hz", "length_s", "inharmonicity_b", "gain_db",
-                                                 "root", "tuning_cents", "a4_hz", "root_found_by"};
+                                                 "root", "tuning_cents", "a4_hz", "root_found_by", "channels"};
 inline constexpr std::string_view source_keys[] = {"file", "sample_rate_hz", "onset_s", "cut_s", "analysis"};
 inline constexpr std::string_view analysis_keys[] = {"window", "fft_size", "window_s", "hop_s"};
-inline constexpr std::string_view partial_keys[] = {"freq_hz", "harmonic", "phase_rad", "attack_s", "peak_db", "decay"};
-inline constexpr std::string_view noise_keys[] = {"low_hz", "high_hz", "attack_s", "peak_db", "decay"};
+inline constexpr std::string_view partial_keys[] = {"freq_hz", "harmonic", "phase_rad", "attack_s", "peak_db", "decay",
+                                                    "pan", "delay_us", "spread_db_per_s"};
+inline constexpr std::string_view noise_keys[] = {"low_hz", "high_hz", "attack_s", "peak_db", "decay",
+                                                  "pan", "spread_db_per_s", "coherence"};
 inline constexpr std::string_view segment_keys[] = {"t60_s", "until_s"};
 
 /// Whether `typed` is plausibly a misspelling of `known`: the unit suffix left out ("t60" for

@@ -63,6 +63,11 @@ public:
         p.note.length_s = required_number(note, "length_s", "note.length_s");
         p.note.inharmonicity_b = get_number(note, "inharmonicity_b", "note.inharmonicity_b").value_or(0.0);
         p.note.gain_db = get_number(note, "gain_db", "note.gain_db").value_or(0.0);
+        p.note.channels = get_int(note, "channels", "note.channels").value_or(1);
+        if (p.note.channels == 2 && file_version_ < patch_format_version) {
+            fail("note.channels", "= 2 (stereo) needs version = " + std::to_string(patch_format_version) +
+                                      " (this file says version = " + std::to_string(file_version_) + ")");
+        }
         read_root(note, p.note);
         warn_unknown(note, "note", note_keys);
 
@@ -91,6 +96,8 @@ public:
             q.harmonic = get_int(t, "harmonic", base + ".harmonic").value_or(0);
             q.phase_rad = get_number(t, "phase_rad", base + ".phase_rad").value_or(0.0);
             q.env = read_envelope(t, base);
+            q.place = read_place(t, base);
+            q.place.delay_us = get_number(t, "delay_us", base + ".delay_us").value_or(0.0);
             warn_unknown(t, base, partial_keys);
             p.partials.push_back(std::move(q));
         });
@@ -100,6 +107,8 @@ public:
             b.low_hz = required_number(t, "low_hz", base + ".low_hz");
             b.high_hz = required_number(t, "high_hz", base + ".high_hz");
             b.env = read_envelope(t, base);
+            b.place = read_place(t, base);
+            b.coherence = get_number(t, "coherence", base + ".coherence").value_or(1.0);
             warn_unknown(t, base, noise_keys);
             p.noise.push_back(std::move(b));
         });
@@ -116,6 +125,7 @@ private:
     std::map<std::string, position> where_;
     position root_pos_{1, 1};
     std::vector<std::string> warnings_;
+    std::int64_t file_version_ = patch_format_version;
 
     static position pos_of(const toml::node& n) { return {n.source().begin.line, n.source().begin.column}; }
     static position pos_of(const toml::key& k) { return {k.source().begin.line, k.source().begin.column}; }
@@ -169,6 +179,7 @@ private:
         const auto* iv = v->as_integer();
         if (!iv) fail("version", std::string("must be an integer, not ") + type_name(v->type()));
         const std::int64_t version = iv->get();
+        file_version_ = version;
         if (version > patch_format_version) {
             fail("version", "is " + std::to_string(version) + ": this patch was made by a newer wane; this one reads versions " +
                                 std::to_string(oldest_patch_format_version) + " to " + std::to_string(patch_format_version));
@@ -335,6 +346,14 @@ private:
             if (!t) fail_in(base, std::string("must be a table, not ") + type_name(e.type()));
             fn(*t, base);
         }
+    }
+
+    /// pan and spread_db_per_s (a partial's delay_us is read by the caller: noise has none).
+    stereo_place read_place(const toml::table& t, const std::string& base) {
+        stereo_place place;
+        place.pan = get_number(t, "pan", base + ".pan").value_or(0.0);
+        place.spread_db_per_s = get_number(t, "spread_db_per_s", base + ".spread_db_per_s").value_or(0.0);
+        return place;
     }
 
     envelope read_envelope(const toml::table& t, const std::string& base) {

@@ -127,13 +127,14 @@ std::string format_text(const patch& p) {
     std::ostringstream out;
     out << header_comment << '\n';
     out << "format = " << toml_string(patch_format_name) << '\n';
-    out << "version = " << patch_format_version << '\n';
+    out << "version = " << written_format_version(p) << '\n';
     out << "\n[note]\n";
     out << "name = " << toml_string(p.note.name) << '\n';
     out << "f0_hz = " << fmt_freq(p.note.f0_hz) << '\n';
     out << "length_s = " << fmt_time(p.note.length_s) << '\n';
     out << "inharmonicity_b = " << fmt_b(p.note.inharmonicity_b) << '\n';
     out << "gain_db = " << fmt_level(p.note.gain_db) << '\n';
+    if (is_stereo(p)) out << "channels = " << p.note.channels << '\n';
     if (p.note.root.method == root_method::unpitched) {
         out << "root_found_by = " << toml_string(root_method_name(p.note.root.method)) << '\n';
     } else if (p.note.root.method != root_method::unstated) {
@@ -160,12 +161,22 @@ std::string format_text(const patch& p) {
         out << "freq_hz = " << fmt_freq(q.freq_hz) << '\n';
         out << "harmonic = " << q.harmonic << '\n';
         out << "phase_rad = " << fmt_phase(q.phase_rad) << '\n';
+        if (is_stereo(p)) {
+            out << "pan = " << fmt_pan(q.place.pan) << '\n';
+            out << "delay_us = " << fmt_delay_us(q.place.delay_us) << '\n';
+            if (q.place.spread_db_per_s != 0.0) out << "spread_db_per_s = " << fmt_spread(q.place.spread_db_per_s) << '\n';
+        }
         write_envelope(out, q.env);
     }
     for (const noise_band& b : p.noise) {
         out << "\n[[noise]]\n";
         out << "low_hz = " << fmt_band_edge(b.low_hz) << '\n';
         out << "high_hz = " << fmt_band_edge(b.high_hz) << '\n';
+        if (is_stereo(p)) {
+            out << "pan = " << fmt_pan(b.place.pan) << '\n';
+            out << "coherence = " << fmt_coherence(b.coherence) << '\n';
+            if (b.place.spread_db_per_s != 0.0) out << "spread_db_per_s = " << fmt_spread(b.place.spread_db_per_s) << '\n';
+        }
         write_envelope(out, b.env);
     }
     return out.str();

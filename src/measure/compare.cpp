@@ -54,7 +54,9 @@ compare_result compare_signals(std::span<const float> a, std::span<const float> 
     early.end_frames = early_end;
     r.early = spectral_distance(a, b_aligned, early);
     r.early_snr_db = snr_db(a, b_aligned, onset, early_end);
-    r.remarks = remark_on_copy(a, b_aligned, sample_rate_hz, onset, params.remarks);
+    remark_params remarks = params.remarks;
+    if (params.spectral_max_freq_hz > 0.0) remarks.cells.max_freq_hz = r.spectral_max_freq_hz;
+    r.remarks = remark_on_copy(a, b_aligned, sample_rate_hz, onset, remarks);
 
     const std::span<const float> a_decay = a.subspan(onset);
     const std::span<const float> b_decay = std::span<const float>(b_aligned).subspan(onset);

@@ -89,9 +89,11 @@ difference_cells difference_grid(std::span<const float> a, std::span<const float
     const double floor_db = c.loudest_db - params.floor_db, counted_db = c.loudest_db - params.range_db;
     c.diff_db.resize(cells);
     c.counted.resize(cells);
+    const double top_hz = params.max_freq_hz > 0.0 ? params.max_freq_hz : infinity;
     for (std::size_t i = 0; i < cells; ++i) {
         c.diff_db[i] = std::max(c.b_db[i], floor_db) - std::max(c.a_db[i], floor_db);
-        c.counted[i] = std::max(c.a_db[i], c.b_db[i]) >= counted_db ? 1 : 0;
+        const bool in_band = c.band_edges_hz[i % static_cast<std::size_t>(c.bands)] < top_hz;
+        c.counted[i] = in_band && std::max(c.a_db[i], c.b_db[i]) >= counted_db ? 1 : 0;
     }
     return c;
 }

@@ -24,6 +24,9 @@ struct difference_params {
     /// A region is reported when its cells differ by at least this much (common practice for "clearly
     /// audible level difference" in listening tests, no source).
     double threshold_db = 3.0;
+    /// Bands starting at or above this are not counted (a copy made at a lower rate holds nothing
+    /// there); 0 = up to the Nyquist frequency.
+    double max_freq_hz = 0.0;
 };
 
 /// Power per cell. Cell (band i, time j) at index j * bands + i. Bands are third-octave bands

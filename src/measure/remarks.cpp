@@ -61,7 +61,8 @@ std::vector<missing_partial> missing_partials(std::span<const float> a, std::spa
     const auto bins = static_cast<int>(sa.size());
     const double bin_hz = sample_rate_hz / plan.fft_size();
     std::vector<missing_partial> out;
-    for (int k = 1; k + 1 < bins; ++k) {
+    const double top_hz = params.cells.max_freq_hz > 0.0 ? params.cells.max_freq_hz : infinity;
+    for (int k = 1; k + 1 < bins && k * bin_hz < top_hz; ++k) {
         const double level = sa[static_cast<std::size_t>(k)];
         if (level < loudest - params.partial_range_db) continue;
         const int lo = std::max(0, k - main_lobe_half_bins), hi = std::min(bins - 1, k + main_lobe_half_bins);

@@ -80,19 +80,27 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
             gram(a_k, a_j + 1) = -im_j_u_k;
         }
     }
-    // Projections sum_n x[n] u_k[n], sum_n x[n] v_k[n]: sum x[n] a_k[n] exp(i w_k n), the phasor
-    // re-anchored from the exact power every anchor samples.
+    // Projections sum_n x[n] u_k[n], sum_n x[n] v_k[n]: sum x[n] a_k[n] exp(i w_k n).
     constexpr std::size_t anchor = 512;
     Eigen::VectorXd rhs(dim);
     std::vector<double> weighted(n_count);
     std::vector<double> amp;
     for (std::size_t k = 0; k < k_count; ++k) {
-        shape_samples(own[k], n_count, amp);
-        for (std::size_t n = 0; n < n_count; ++n) weighted[n] = double(x[n]) * amp[n];
-        const std::complex<double> z = std::polar(1.0, omega[k]);
+        // A decaying mode: x times its damped phasor; a shaped one: x times its samples, times the
+        // phasor. The phasor is re-anchored from the exact power every anchor samples.
+        const bool plain = shapes[k].empty();
+        const double rho = plain ? -modes[k].decay_per_s / sample_rate_hz : 0.0;
+        if (plain) {
+            for (std::size_t n = 0; n < n_count; ++n) weighted[n] = double(x[n]);
+        } else {
+            shape_samples(own[k], n_count, amp);
+            for (std::size_t n = 0; n < n_count; ++n) weighted[n] = double(x[n]) * amp[n];
+        }
+        const std::complex<double> z = std::exp(std::complex<double>{rho, omega[k]});
         std::complex<double> p{1.0, 0.0}, acc{};
         for (std::size_t n = 0; n < n_count; ++n) {
-            if (n % anchor == 0) p = std::polar(1.0, std::remainder(omega[k] * static_cast<double>(n), two_pi));
+            if (n % anchor == 0)
+                p = std::exp(std::complex<double>{rho * static_cast<double>(n), std::remainder(omega[k] * static_cast<double>(n), two_pi)});
             acc += weighted[n] * p;
             p *= z;
         }

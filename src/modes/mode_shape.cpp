@@ -73,7 +73,9 @@ std::complex<double> piece_sum(const shape_piece& p, std::complex<double> lambda
     const auto len = static_cast<double>(p.count);
     const std::complex<double> mu = p.rho + lambda;
     // exp(lambda start) with the imaginary part folded (an integer start).
-    const std::complex<double> at_start = std::exp(std::complex<double>{lambda.real() * s, std::remainder(lambda.imag() * s, two_pi)});
+    const std::complex<double> at_start =
+        p.start == 0 ? std::complex<double>{1.0, 0.0}
+                     : std::exp(std::complex<double>{lambda.real() * s, std::remainder(lambda.imag() * s, two_pi)});
     // sum_m (s + m)^p exp(mu m), expanded in powers of m.
     const std::complex<double> g = moment_geometric_sum(0, mu, len);
     if (p.power == 0) return p.scale * at_start * g;

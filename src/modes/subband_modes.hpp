@@ -33,7 +33,7 @@ struct subband_mode_params {
     double band_hz = 1000.0;      ///< subband width (the caller scales it to the partial density)
     double max_freq_hz = 20000.0; ///< no band above this (nor above 0.45 fs)
     /// Bands whose baseband energy is further than this below the strongest band's are skipped.
-    double band_range_db = 70.0;
+    double band_range_db = 55.0;
     double min_freq_hz = 20.0;    ///< modes below are dropped (DC and rumble)
     double min_t60_s = 0.004;     ///< modes dying faster are dropped (the filter cannot see them)
     esprit_params esprit{};

@@ -137,13 +137,17 @@ std::string spectrogram_png(const spectrogram_db& s, double max_freq_hz, double 
             pixels[at + 2] = c.b;
         }
     }
+    return png_bytes(pixels, width, height);
+}
+
+std::string png_bytes(const std::vector<unsigned char>& pixels, int width, int height) {
     std::string out;
     png_structp png = png_create_write_struct(PNG_LIBPNG_VER_STRING, nullptr, nullptr, nullptr);
     png_infop info = png ? png_create_info_struct(png) : nullptr;
     if (png == nullptr || info == nullptr) throw io_error("report: libpng could not start");
     if (setjmp(png_jmpbuf(png))) {
         png_destroy_write_struct(&png, &info);
-        throw io_error("report: libpng failed to encode the spectrogram");
+        throw io_error("report: libpng failed to encode an image");
     }
     png_set_write_fn(png, &out, png_append, png_noop_flush);
     png_set_IHDR(png, info, static_cast<png_uint_32>(width), static_cast<png_uint_32>(height), 8, PNG_COLOR_TYPE_RGB,

@@ -4,6 +4,7 @@
 #include <span>
 #include <string>
 #include <string_view>
+#include <vector>
 
 #include "spectrum/spectrogram.hpp"
 
@@ -12,6 +13,9 @@ namespace wane {
 /// PNG bytes of a spectrogram (libpng), width = frames, height = bins up to max_freq_hz,
 /// levels mapped from (peak - range_db) .. peak through the cubehelix colour scheme.
 std::string spectrogram_png(const spectrogram_db& s, double max_freq_hz, double range_db);
+
+/// PNG bytes (libpng) of 8-bit RGB pixels, row 0 at the top, width * height * 3 bytes.
+std::string png_bytes(const std::vector<unsigned char>& pixels, int width, int height);
 
 /// 16-bit PCM WAV bytes in memory (libsndfile virtual I/O), for embedding; peak-normalized
 /// copies are not made: samples beyond full scale are scaled down to avoid clipping.

@@ -27,6 +27,21 @@ rgb cubehelix(double lightness) {
 
 rgb level_colour(double fraction) { return cubehelix(1.0 - std::clamp(fraction, 0.0, 1.0)); }
 
+rgb diverging_colour(double fraction) {
+    // sRGB transfer function (IEC 61966-2-1) both ways, so the blend is even in light.
+    auto to_linear = [](double v) { return v <= 0.04045 ? v / 12.92 : std::pow((v + 0.055) / 1.055, 2.4); };
+    auto to_byte = [](double v) {
+        const double e = v <= 0.0031308 ? 12.92 * v : 1.055 * std::pow(v, 1.0 / 2.4) - 0.055;
+        return static_cast<unsigned char>(std::lround(255.0 * std::clamp(e, 0.0, 1.0)));
+    };
+    constexpr rgb blue{0x00, 0x72, 0xb2}, vermilion{0xd5, 0x5e, 0x00};  // okabe_ito::blue, vermilion
+    const double f = std::clamp(fraction, -1.0, 1.0);
+    const rgb end = f < 0.0 ? blue : vermilion;
+    const double w = std::abs(f);
+    auto mix = [&](unsigned char c) { return to_byte((1.0 - w) + w * to_linear(c / 255.0)); };
+    return {mix(end.r), mix(end.g), mix(end.b)};
+}
+
 std::string hex_colour(rgb c) { return printf_text("#%02x%02x%02x", c.r, c.g, c.b); }
 
 std::string fmt(const char* format, double v) { return printf_text(format, v); }
@@ -82,14 +97,24 @@ std::string svg_axes(const plot_frame& f, const std::string& x_label, const std:
           << "' stroke='#444'/><text x='" << f.px(x) << "' y='" << bottom + 19 << "' text-anchor='middle'>"
           << tick_text(x, xs) << "</text>";
     }
-    const double ys = tick_step(f.y1 - f.y0, axis_y_ticks);
-    const long y_first = std::lround(std::ceil(f.y0 / ys - 1e-9));
-    const long y_last = std::lround(std::floor(f.y1 / ys + 1e-9));
-    for (long i = y_first; i <= y_last; ++i) {
-        const double y = static_cast<double>(i) * ys;
+    auto y_tick = [&](double y, const std::string& text) {
         o << "<line x1='" << f.left - 5 << "' x2='" << f.left << "' y1='" << f.py(y) << "' y2='" << f.py(y)
           << "' stroke='#444'/><text x='" << f.left - 8 << "' y='" << f.py(y) + 4.5 << "' text-anchor='end'>"
-          << tick_text(y, ys) << "</text>";
+          << text << "</text>";
+    };
+    if (f.log_y) {
+        const long first = std::lround(std::floor(std::log10(f.y0))), last = std::lround(std::ceil(std::log10(f.y1)));
+        for (long e = first; e <= last; ++e) {
+            for (const double m : {1.0, 2.0, 5.0}) {
+                const double y = m * std::pow(10.0, static_cast<double>(e));
+                if (y >= f.y0 && y <= f.y1) y_tick(y, printf_text("%g", y));
+            }
+        }
+    } else {
+        const double ys = tick_step(f.y1 - f.y0, axis_y_ticks);
+        const long y_first = std::lround(std::ceil(f.y0 / ys - 1e-9));
+        const long y_last = std::lround(std::floor(f.y1 / ys + 1e-9));
+        for (long i = y_first; i <= y_last; ++i) y_tick(static_cast<double>(i) * ys, tick_text(static_cast<double>(i) * ys, ys));
     }
     o << "<text x='" << (f.left + f.width - f.right) / 2 << "' y='" << f.height - 6 << "' text-anchor='middle'>"
       << escape_html(x_label) << "</text><text transform='translate(15," << (f.top + bottom) / 2

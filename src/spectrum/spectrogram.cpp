@@ -37,4 +37,21 @@ spectrogram_db make_spectrogram(std::span<const float> samples, double sample_ra
     return s;
 }
 
+spectrogram_db stretch_spectrum(std::span<const float> x, double sample_rate_hz, std::size_t start_frames,
+                                std::size_t length_frames) {
+    constexpr int zero_padding = 2;
+    const int window_length = std::max(33, static_cast<int>(length_frames) | 1);
+    stft_plan plan({.window = window_kind::hann, .window_length = window_length,
+                    .fft_size = fast_fft_size(zero_padding * window_length)});
+    plan.analyze(x, static_cast<std::int64_t>(start_frames) + window_length / 2);
+    spectrogram_db s{.frames = 1, .bins = plan.fft_size() / 2 + 1, .bin_hz = sample_rate_hz / plan.fft_size(),
+                     .hop_s = static_cast<double>(window_length) / sample_rate_hz,
+                     .start_s = static_cast<double>(start_frames) / sample_rate_hz + 0.5 * window_length / sample_rate_hz,
+                     .level_db = {}};
+    for (const float pw : plan.power()) {
+        s.level_db.push_back(static_cast<float>(power_to_db(std::max(static_cast<double>(pw), spectrogram_power_floor))));
+    }
+    return s;
+}
+
 }  // namespace wane

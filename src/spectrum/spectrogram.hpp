@@ -1,6 +1,7 @@
 // A magnitude spectrogram of a whole recording (for the report's picture): STFT levels in dB.
 #pragma once
 
+#include <cstddef>
 #include <span>
 #include <vector>
 
@@ -25,5 +26,11 @@ struct spectrogram_db {
 /// max_frames frames spread evenly over the file (levels in dBFS re a full-scale sinusoid).
 spectrogram_db make_spectrogram(std::span<const float> samples, double sample_rate_hz, double window_s = 0.046,
                                 int max_frames = 960);
+
+/// Spectrum of one stretch x[start, start + length) (Hann window over the stretch, zero padded
+/// to at least twice its length), as a spectrogram of one frame centred on the stretch's middle;
+/// levels in dBFS re a full-scale sinusoid. Samples outside x read as 0.
+spectrogram_db stretch_spectrum(std::span<const float> x, double sample_rate_hz, std::size_t start_frames,
+                                std::size_t length_frames);
 
 }  // namespace wane

@@ -70,6 +70,14 @@ std::size_t render_frames(const patch& p, const render_params& params);
 /// Noise bands (patch.noise) are added when params.include_noise (synthesis/noise_render.hpp).
 std::vector<float> render_patch(const patch& p, const render_params& params);
 
+/// Renders every channel of a patch: one vector for a mono patch (render_patch's samples), left
+/// and right for a stereo one. Each channel is the render of channel_patch(p, side)
+/// (core/stereo.hpp): the same kernels, per-channel levels, phases and decays. A noise band of
+/// coherence c plays shared noise (seed params.noise_seed, the same in both channels) scaled by
+/// sqrt(c) plus the channel's own noise (a seed of its own) scaled by sqrt(1 - c).
+/// Preconditions as render_patch's.
+std::vector<std::vector<float>> render_channels(const patch& p, const render_params& params);
+
 /// The partials of a render, one stretch of frames at a time: what render_patch gives with
 /// include_noise off (end fade included), without holding the whole render (the analysis forms
 /// the residual of a long file this way). A stretch starting at a multiple of

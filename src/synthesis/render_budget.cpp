@@ -19,8 +19,9 @@ render_cost render_cost_of(const patch& p, double rate_hz, double length_s) {
     c.frames = s.frames;
     c.partial_samples = (static_cast<double>(c.partials) +
                          noise_band_work_partial_samples * static_cast<double>(c.noise_bands)) *
-                        static_cast<double>(c.frames);
-    c.buffer_bytes = static_cast<std::uintmax_t>(c.frames) * sizeof(float);
+                        static_cast<double>(c.frames) * static_cast<double>(p.note.channels);
+    // A stereo patch renders every channel (render_channels): twice the work and the buffer.
+    c.buffer_bytes = static_cast<std::uintmax_t>(c.frames) * sizeof(float) * static_cast<std::uintmax_t>(p.note.channels);
     return c;
 }
 

@@ -147,6 +147,9 @@ patch blend(const patch& a, const patch& b, const blend_params& params) {
         set_root_hz(out.note, geometric_lerp(ra, rb, mix));
     out.note.length_s = lerp(a.note.length_s, b.note.length_s, mix);
     out.note.gain_db = lerp(a.note.gain_db, b.note.gain_db, mix);
+    // Stereo when either is: a mono patch's parts sit at the centre (pan 0, no delay, coherent
+    // noise), and a paired partial's pan, delay and spread are interpolated like its level.
+    out.note.channels = std::max(a.note.channels, b.note.channels);
 
     const double weight_a = 1.0 - mix;
     const double weight_b = mix;
@@ -163,7 +166,10 @@ patch blend(const patch& a, const patch& b, const blend_params& params) {
         out.partials.push_back({.freq_hz = geometric_lerp(pa.freq_hz, pb.freq_hz, mix),
                                 .harmonic = pd.harmonic,
                                 .phase_rad = pd.phase_rad,
-                                .env = blend_envelopes(pa.env, pb.env, mix)});
+                                .env = blend_envelopes(pa.env, pb.env, mix),
+                                .place = {.pan = lerp(pa.place.pan, pb.place.pan, mix),
+                                          .delay_us = lerp(pa.place.delay_us, pb.place.delay_us, mix),
+                                          .spread_db_per_s = lerp(pa.place.spread_db_per_s, pb.place.spread_db_per_s, mix)}});
     }
     for (std::size_t j = 0; j < b.partials.size(); ++j) {
         if (b_taken[j]) continue;

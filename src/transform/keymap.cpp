@@ -1,5 +1,6 @@
 #include "transform/keymap.hpp"
 
+#include <algorithm>
 #include <cassert>
 
 #include "core/rng.hpp"
@@ -62,6 +63,11 @@ std::vector<keymap_job> plan_keymap(const keymap_params& params) {
     std::vector<int> roots;
     for (int m = r.low_midi; m <= r.high_midi; m += params.every) roots.push_back(m);
     if (roots.back() != r.high_midi) roots.push_back(r.high_midi);
+    for (const int key : params.recorded_keys) {
+        if (key >= r.low_midi && key <= r.high_midi) roots.push_back(key);
+    }
+    std::sort(roots.begin(), roots.end());
+    roots.erase(std::unique(roots.begin(), roots.end()), roots.end());
 
     struct key_span {
         int root, lokey, hikey;

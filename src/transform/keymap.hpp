@@ -3,7 +3,8 @@
 // Pure: the CLI (`wane keymap`) does the rendering and the writing.
 //
 // Keys: the notes low, low + every, low + 2 every, ... up to high are rendered, and high itself
-// always is (so the top of the range is never stretched). Each rendered note's region covers the
+// always is (so the top of the range is never stretched), and so is every recorded root's key in
+// the range. Each rendered note's region covers the
 // keys nearer to it than to its neighbours; a key exactly between two notes goes to the lower one
 // (played by shifting that sample up). The first region starts at low, the last ends at high: the
 // regions tile the range without gaps or overlaps.
@@ -48,6 +49,9 @@ struct keymap_params {
     double layer_step_db = default_layer_step_db;
     double layer_brightness_step_db_per_oct = default_layer_brightness_step_db_per_oct;
     std::uint64_t seed = 1;  ///< base seed of the variants
+    /// Keys of recorded roots (keymap_roots.hpp): rendered too when inside the range, so every
+    /// recording is played at its own key.
+    std::vector<int> recorded_keys{};
 };
 
 struct keymap_job {

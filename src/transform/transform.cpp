@@ -8,6 +8,7 @@
 
 #include "core/harmonics.hpp"
 #include "core/rng.hpp"
+#include "transform/stereo_edit.hpp"
 
 namespace wane {
 
@@ -353,7 +354,11 @@ patch apply_transforms(const patch& p, const transform_params& params, double sa
         }
     }
 
-    // 9. Canonical order.
+    // 9. Stereo width, then the note's pan.
+    if (params.width != 1.0) out = scale_width(out, params.width);
+    if (params.pan) out = pan_note(out, *params.pan);
+
+    // 10. Canonical order.
     canonicalize(out);
     if (report) *report = counts;
     return out;

@@ -78,6 +78,10 @@ struct transform_params {
     double scale_b = 1.0;         ///< B times this (>= 0); ignored when set_b is given
     // Variation.
     variation_params variation{};
+    // Stereo (transform/stereo_edit.hpp), applied last: width scales the channel differences,
+    // pan places the whole note (and makes a mono patch stereo).
+    double width = 1.0;
+    std::optional<double> pan{};
 };
 
 /// Frequency ratio the pitch part of `params` applies to `p` (1 when there is none). Throws

@@ -17,7 +17,7 @@ import warnings
 warnings.filterwarnings("ignore", category=wavfile.WavFileWarning)  # the smpl chunk wane writes
 
 # Measured fundamentals (Hz) from tests/data/real-notes/README.md (peak nearest the nominal f0 in an
-# FFT of 0.1-1.1 s), and the tolerance issue 17 sets: 3 cents for strings, piano, harp, pizzicato,
+# FFT of 0.1-1.1 s), and the tolerances: 3 cents for strings, piano, harp, pizzicato,
 # bass and dulcimer; 5 cents for the struck bars and the timpani. Harpsichord, banjo and rhodes get
 # 3 cents (harmonic strings and tines with a clear fundamental; our choice).
 MEASURED = {
@@ -28,7 +28,7 @@ MEASURED = {
     "piano_fs3_stereo": (184.74, 3), "pizzicato_c2": (65.23, 3), "rhodes_c3": (130.64, 3),
     "timpani_d2": (73.31, 5), "xylophone_fs3": (184.93, 5),
 }
-# Notes whose root is a measured shortfall of issue 17 (printed as "short", not failed): none since
+# Notes whose root is a measured shortfall (printed as "short", not failed): none since
 # the partial frequencies come from the recording's long spectrum (analysis/heard_peaks); pizzicato_c2
 # was 4.4 cents flat before it.
 ROOT_SHORT = set()

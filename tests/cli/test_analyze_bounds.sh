@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Issue 21, item 7: analysis bounds what it fits, noise bands included, and names the file in
+# Analysis bounds what it fits, noise bands included, and names the file in
 # every error. A 3 s sine chirp from 100 Hz to 8 kHz (made by sox, an independent generator) once
 # failed with "patch to write is invalid: noise 5: peak_db must be <= +24 dB": now it is analyzed
 # (exit 0) and every peak_db in the patch is at most +24 dB; two notes in a row (sox plucks) are

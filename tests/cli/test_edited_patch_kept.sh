@@ -1,15 +1,10 @@
 #!/usr/bin/env bash
-# Issue 21, item 10 (b): a patch edited by hand since wane wrote it is not overwritten. analyze
+# A patch edited by hand since wane wrote it is not overwritten. analyze
 # writes a checksum line; re-running analyze onto its own unedited patch works; after a hand edit
 # (sed) analyze, edit and blend refuse with exit 1 and one line naming the file and the option
 # --overwrite-edited, leaving the bytes unchanged (cmp); with --overwrite-edited they replace it.
 # A patch with no checksum (written by hand) is kept the same way.
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
+source "$(dirname "$0")/preamble.sh"
 sox -n -r 48000 -b 24 note.wav synth 1 pluck 220 || { echo "FAIL: sox"; exit 1; }
 "$wane" -q analyze note.wav -o note.toml || { echo "FAIL: first analyze"; exit 1; }
 tail -1 note.toml | grep -q '^# checksum fnv1a64 [0-9a-f]\{16\} ' || { echo "FAIL: no checksum line"; fail=1; }

@@ -2,58 +2,10 @@
 # wane edit / blend / keymap from the command line: outputs, determinism and bad input (clear
 # one-line error naming the option, exit code, nothing written).
 source "$(dirname "$0")/preamble.sh"
-# expect_error CODE PATTERN cmd...: exit code CODE, stderr one line matching PATTERN.
-expect_error() {
-  local code=$1 pattern=$2; shift 2
-  "$@" >out.txt 2>err.txt; local rc=$?
-  if [ $rc -ne "$code" ]; then echo "FAIL: exit $rc (want $code): $*"; cat err.txt; fail=1; return; fi
-  if [ "$(wc -l <err.txt)" -ne 1 ] || ! grep -q "^wane: error: .*$pattern" err.txt; then
-    echo "FAIL: stderr of '$*' is not one line matching '$pattern':"; cat err.txt; fail=1; return
-  fi
-  echo "ok: $* -> $(cat err.txt)"
-}
 
-cat > pluck.toml <<'TOML'
-format = "wane-patch"
-version = 1
-
-[note]
-name = "cli test pluck"
-f0_hz = 220.0
-length_s = 0.5
-inharmonicity_b = 0.0
-gain_db = 0.0
-
-[source]
-file = "none.wav"
-sample_rate_hz = 48000
-onset_s = 0.0
-
-[[partial]]
-freq_hz = 220.0
-harmonic = 1
-phase_rad = 0.0
-attack_s = 0.004
-peak_db = -12.0
-decay = [ { t60_s = 1.9, until_s = 0.2 }, { t60_s = 6.4 } ]
-
-[[partial]]
-freq_hz = 440.0
-harmonic = 2
-phase_rad = 0.5
-attack_s = 0.004
-peak_db = -18.0
-decay = [ { t60_s = 1.2 } ]
-
-[[partial]]
-freq_hz = 660.0
-harmonic = 3
-phase_rad = 1.0
-attack_s = 0.004
-peak_db = -20.0
-decay = [ { t60_s = 0.9 } ]
-TOML
-sed -e "s/^version = 1/version = 3/" pluck.toml > newer.toml
+write_test_pluck pluck.toml "cli test pluck" 0.5 "-12.0 0.004 [ { t60_s = 1.9, until_s = 0.2 }, { t60_s = 6.4 } ]" \
+  "-18.0 0.004 [ { t60_s = 1.2 } ]" "-20.0 0.004 [ { t60_s = 0.9 } ]"
+sed -e "s/^version = 1/version = 4/" pluck.toml > newer.toml  # one past the newest version read (3: stereo)
 # Loud: three in-phase partials at -3 dBFS each peak near +6.5 dBFS together.
 sed -e 's/^peak_db = .*/peak_db = -3.0/' -e 's/^phase_rad = .*/phase_rad = 0.0/' pluck.toml > loud.toml
 

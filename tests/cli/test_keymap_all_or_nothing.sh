@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Issue 21, item 3: a keymap set is written all or nothing. (a) A folder where a sample goes:
+# A keymap set is written all or nothing. (a) A folder where a sample goes:
 # refused before anything is rendered, exit 1, one error line naming it, nothing else written.
 # (b) Disk full (a 2 MiB tmpfs, mounted when the test runs as root): a first set that fits is
 # written; a second, larger set into the same folder fails with exit 1 and leaves the first set
@@ -10,30 +10,7 @@ source "$(dirname "$0")/preamble.sh"
 mounted=""
 cleanup() { [ -n "$mounted" ] && umount "$mounted"; }
 trap cleanup EXIT
-cat > pluck.toml <<'TOML'
-format = "wane-patch"
-version = 1
-
-[note]
-name = "all or nothing"
-f0_hz = 220.0
-length_s = 0.25
-inharmonicity_b = 0.0
-gain_db = 0.0
-
-[source]
-file = "none.wav"
-sample_rate_hz = 48000
-onset_s = 0.0
-
-[[partial]]
-freq_hz = 220.0
-harmonic = 1
-phase_rad = 0.0
-attack_s = 0.002
-peak_db = -12.0
-decay = [ { t60_s = 1.0 } ]
-TOML
+write_test_pluck pluck.toml "all or nothing" 0.25 "-12.0 0.002 [ { t60_s = 1.0 } ]"
 
 # (a) A folder where a sample goes.
 mkdir -p set-a/C3_v1_rr1.wav

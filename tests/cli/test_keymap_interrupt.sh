@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Issue 21, item 4: an interrupted keymap leaves no temporary. `wane keymap` into a folder that
+# An interrupted keymap leaves no temporary. `wane keymap` into a folder that
 # already holds a complete set is sent SIGINT, SIGTERM or SIGHUP (in turn) 20 times, at moments
 # spread over the run (after 1 to 20 of the new WAVs exist in the staging folder, or before any).
 # Checks each time: exit 128 + signal, no hidden temporary or staging folder anywhere under the

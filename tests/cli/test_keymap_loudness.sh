@@ -5,32 +5,7 @@
 # failing on a NaN sample; a patch 6 dB over full scale is still scaled by one common gain (exit 0,
 # a warning naming the gain) and the loudest WAV then peaks at -1 dBFS as sox measures it.
 source "$(dirname "$0")/preamble.sh"
-write_patch() {  # NAME PEAK_DB T60_S
-  cat > "$1.toml" <<TOML
-format = "wane-patch"
-version = 1
-
-[note]
-name = "$1"
-f0_hz = 220.0
-length_s = 2.0
-inharmonicity_b = 0.0
-gain_db = 0.0
-
-[source]
-file = "none.wav"
-sample_rate_hz = 48000
-onset_s = 0.0
-
-[[partial]]
-freq_hz = 220.0
-harmonic = 1
-phase_rad = 0.0
-attack_s = 0.002
-peak_db = $2
-decay = [ { t60_s = $3 } ]
-TOML
-}
+write_patch() { write_test_pluck "$1.toml" "$1" 2.0 "$2 0.002 [ { t60_s = $3 } ]"; }  # NAME PEAK_DB T60_S
 write_patch rising 0.0 -0.5       # +60 dB per 0.5 s for 2 s: about +240 dBFS at the end
 write_patch overflow 0.0 -0.0001  # rises past the largest float
 write_patch hot 6.0 2.0           # +6 dBFS at the peak

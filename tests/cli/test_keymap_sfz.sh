@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Issue 18: the SFZ of a keymap set plays right. Checked by tests/cli/sfz_check.py (independent of
+# The SFZ of a keymap set plays right. Checked by tests/cli/sfz_check.py (independent of
 # wane's code): regions tile the requested keys x velocities exactly once per round-robin
 # position, every referenced sample exists beside the SFZ, every pitch_keycenter equals its WAV's
 # smpl unity note (pitch fraction 0), <global> has loop_mode=one_shot; only known opcodes.
@@ -7,38 +7,8 @@
 # fade lie more than 70 dB below its peak; the default runs to 80 dB below the patch's peak).
 source "$(dirname "$0")/preamble.sh"
 py=/usr/bin/python3
-cat > pluck.toml <<'TOML'
-format = "wane-patch"
-version = 1
-
-[note]
-name = "sfz test pluck"
-f0_hz = 220.0
-length_s = 0.5
-inharmonicity_b = 0.0
-gain_db = 0.0
-
-[source]
-file = "none.wav"
-sample_rate_hz = 48000
-onset_s = 0.0
-
-[[partial]]
-freq_hz = 220.0
-harmonic = 1
-phase_rad = 0.0
-attack_s = 0.004
-peak_db = -12.0
-decay = [ { t60_s = 0.6, until_s = 0.2 }, { t60_s = 1.5 } ]
-
-[[partial]]
-freq_hz = 440.0
-harmonic = 2
-phase_rad = 0.5
-attack_s = 0.004
-peak_db = -18.0
-decay = [ { t60_s = 0.8 } ]
-TOML
+write_test_pluck pluck.toml "sfz test pluck" 0.5 "-12.0 0.004 [ { t60_s = 0.6, until_s = 0.2 }, { t60_s = 1.5 } ]" \
+  "-18.0 0.004 [ { t60_s = 0.8 } ]"
 # Key ranges as MIDI numbers (C3 = 48, C5 = 72, A2 = 45, D4 = 62).
 for spec in "48 72 3 3 2" "45 45 1 1 1" "48 62 2 4 3"; do
   read -r low high every layers variants <<<"$spec"
@@ -46,6 +16,16 @@ for spec in "48 72 3 3 2" "45 45 1 1 1" "48 62 2 4 3"; do
   check '"$wane" -q keymap pluck.toml -o "$out" --notes "$low..$high" --every "$every" --layers "$layers" --variants "$variants" --rate 16000'
   check "$py $src/tests/cli/sfz_check.py $out/pluck.sfz $low $high"
 done
+# Several patches: roots A3 (the pluck) and E4 (the pluck a fifth up, written by edit), keys
+# between interpolated; the plan names both; the same checks hold.
+check '"$wane" -q edit pluck.toml -o fifth.toml --to-note E4'
+check '"$wane" -q keymap pluck.toml fifth.toml -o multi --notes 52..67 --every 3 --layers 2 --variants 2 --rate 16000'
+check "$py $src/tests/cli/sfz_check.py multi/multi.sfz 52 67"
+check 'grep -q "^Cs4_v2_rr1.wav .*0.429 x pluck.toml at A3 + 0.571 x fifth.toml at E4" multi/multi.plan.txt'
+check '"$wane" -q keymap pluck.toml fifth.toml -o multi2 --notes 52..67 --every 3 --layers 2 --variants 2 --rate 16000'
+# Deterministic: the same samples and the same plan (the set is named after its folder).
+check '! for f in multi/*.wav; do cmp -s "$f" "multi2/$(basename "$f")" || echo differs; done | grep -q differs'
+check 'cmp -s multi/multi.plan.txt multi2/multi2.plan.txt'
 # Default length: the render runs until the sound is 80 dB below the patch's peak, so its end is
 # far below its start (a cut at the patch's 0.5 s would leave the end only ~20 dB down).
 check '$py - set_45_45/A2_v1_rr1.wav <<PY

@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Issue 21, item 9: (a) an output file name of 250 bytes (any name the system accepts) is written
+# (a) an output file name of 250 bytes (any name the system accepts) is written
 # by render, edit, analyze and keymap, with no temporary left; (b) info escapes a patch name's
 # control characters (an ESC sequence shows as \x1b, no raw control byte reaches the terminal);
 # (c) 200,000 unknown keys give at most 11 warning lines, the last saying how many more there were.

@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Issue 21, item 8 (and 10a): out-of-range option values are bad usage everywhere: exit 2, one
+# Out-of-range option values are bad usage everywhere: exit 2, one
 # "wane: error:" line naming the option that is wrong (not another one), numbers in short form
 # (no run of more than 12 digits), and no output written. Also: compare of two files whose rates
 # libsamplerate cannot convert names both files (exit 1); global -q works after the subcommand.

@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Issue 21, item 2: every output path is checked against every input, reports included. Each case
+# Every output path is checked against every input, reports included. Each case
 # must exit 1 with one "wane: error:" line saying what would be overwritten, and the input's bytes
 # must not change (cmp against a copy made first). The note is made by sox (independent generator).
 source "$(dirname "$0")/preamble.sh"

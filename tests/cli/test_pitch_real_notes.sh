@@ -1,12 +1,12 @@
 #!/usr/bin/env bash
-# Issue 17 on the real notes of tests/data/real-notes (licence beside them): every note gets a root
+# Pitch on the real notes of tests/data/real-notes (licence beside them): every note gets a root
 # within 3 cents (strings, piano, harp, pizzicato, bass, dulcimer) or 5 cents (bars, timpani) of
 # the README's measured fundamental; an --f0 hint 1% off the fundamental changes the partial count
 # by at most 1; --to-note a fifth up and an octave down puts the 5 strongest partials of the
 # recording, times the pitch ratio, within 1 cent in the render (numpy FFT: tests/cli/pitch_check.py,
 # which states what counts as one of the five strongest partials), on all 17 notes. pizzicato_c2
 # and timpani_d2 are measured shortfalls (blends of partials closer than 2 Hz), printed as "short"
-# and not failed: issue 17 leaves them open (pitch_check.TO_NOTE_SHORT says why).
+# and not failed: open shortfalls (pitch_check.TO_NOTE_SHORT says why).
 source "$(dirname "$0")/preamble.sh"
 mkdir -p plain hint render
 py=/usr/bin/python3

@@ -4,54 +4,12 @@
 # patch's length continues every decay (sox measures the level), analyze says when a recording was
 # cut while sounding (a pluck made by sox's synth, cut at 1 s; its copy keeps falling past the cut)
 # and when a tone holds (sines made by sox), and the held tone renders on at its held level.
-set -u
-wane=$1
-src=$2
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
-check() { if ! eval "$1"; then echo "FAIL: $1"; fail=1; else echo "ok: $1"; fi; }
-expect_error() {  # expect_error CODE PATTERN cmd...: exit CODE, stderr one line matching PATTERN
-  local code=$1 pattern=$2; shift 2
-  "$@" >out.txt 2>err.txt; local rc=$?
-  if [ $rc -ne "$code" ]; then echo "FAIL: exit $rc (want $code): $*"; cat err.txt; fail=1; return; fi
-  if [ "$(wc -l <err.txt)" -ne 1 ] || ! grep -q -- "^wane: error: .*$pattern" err.txt; then
-    echo "FAIL: stderr of '$*' is not one line matching '$pattern':"; cat err.txt; fail=1; return
-  fi
-  echo "ok: $* -> $(cat err.txt)"
-}
-# near A B TOL: |A - B| <= TOL
-near() { awk -v a="$1" -v b="$2" -v t="$3" 'BEGIN { d = a - b; if (d < 0) d = -d; exit !(d <= t) }'; }
+source "$(dirname "$0")/preamble.sh"
 length_of() { sox --i -D "$1"; }
 rms_db() { sox "$1" -n trim "$2" "$3" stat 2>&1 | awk '/RMS +amplitude/ { print 20 * log($3) / log(10) }'; }
 
-cat > pluck.toml <<'TOML'
-format = "wane-patch"
-version = 1
-
-[note]
-name = "tails pluck"
-f0_hz = 220.0
-length_s = 0.5
-inharmonicity_b = 0.0
-gain_db = 0.0
-
-[[partial]]
-freq_hz = 220.0
-harmonic = 1
-phase_rad = 0.0
-attack_s = 0.004
-peak_db = -12.0
-decay = [ { t60_s = 1.9, until_s = 0.2 }, { t60_s = 6.4 } ]
-
-[[partial]]
-freq_hz = 440.0
-harmonic = 2
-phase_rad = 0.5
-attack_s = 0.004
-peak_db = -18.0
-decay = [ { t60_s = 1.2 } ]
-TOML
+write_test_pluck pluck.toml "tails pluck" 0.5 "-12.0 0.004 [ { t60_s = 1.9, until_s = 0.2 }, { t60_s = 6.4 } ]" \
+  "-18.0 0.004 [ { t60_s = 1.2 } ]"
 
 # 1. --length-s: a render longer than the patch continues the decay. By the envelope's definition
 # partial 1 is at -12 - 60 x 0.196 / 1.9 = -18.19 dB at 0.2 s, then falls 60 / 6.4 = 9.375 dB/s;
@@ -105,7 +63,7 @@ expect_error 2 "--length-s and --until-db" "$wane" keymap pluck.toml -o set-bad 
 # a render three times as long keeps falling after the cut (no hold): each half second quieter
 # than the one before, and the last second at least 10 dB under the 100 ms before the cut (the
 # recording fell 10 dB over its one second).
-sox -R -n -r 44100 -b 16 pluck.wav synth 1.0 pluck 220
+sox -n -r 44100 -b 16 pluck.wav synth 1.0 pluck 220
 "$wane" analyze pluck.wav -o cut.toml > out.txt 2>&1
 cat out.txt
 check 'grep -q "cut at 1.000 s while sounding" out.txt'
@@ -127,8 +85,8 @@ echo "cut pluck x3: $at_cut dB before the cut, $last dB in the last second"
 check 'awk -v a="$at_cut" -v b="$last" "BEGIN { exit !(a - b >= 10) }"'
 
 # 6. A steady tone (three sines, sox): it holds, no cut, and its copy holds its level past the end.
-sox -R -n -r 44100 -b 16 -c 3 sines.wav synth 3 sine 220 sine 440 sine 660
-sox -R sines.wav organ.wav remix - gain -n -6 fade 0.01
+sox -n -r 44100 -b 16 -c 3 sines.wav synth 3 sine 220 sine 440 sine 660
+sox sines.wav organ.wav remix - gain -n -6 fade 0.01
 "$wane" analyze organ.wav -o organ.toml > out.txt 2>&1
 cat out.txt
 check 'grep -q "holds its level" out.txt'

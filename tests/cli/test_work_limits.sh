@@ -1,16 +1,12 @@
 #!/usr/bin/env bash
-# Issue 21, item 5: every limit counts the work. (a) A patch of 1024 noise bands held for 600 s is
+# Every limit counts the work. (a) A patch of 1024 noise bands held for 600 s is
 # refused by render at 192 kHz (noise bands are counted: (0 partials + 1024 x 4) x 600 s x 192 kHz
 # = 4.7e11 > 1e11) with exit 1, one line naming the noise bands and --max-work, nothing written;
 # (b) keymap of 128 notes x 127 layers x 64 variants is refused before any render (--max-files);
 # (c) keymap of the 1024-band patch cut to 60 s over 49 notes x 2 layers is refused by the set
 # budget ((1 + 4096) x 60 s x 48 kHz x 98 = 1.16e12 > 1e12, --max-set-work); (d) report of a 301 s source is refused naming --max-input-s, and
 # analyze --report of it writes the patch but no report, naming --max-report-s (exit 1).
-set -u
-wane=$1
-work=$3
-rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
-fail=0
+source "$(dirname "$0")/preamble.sh"
 bands_patch() {  # NAME LENGTH_S
   {
     printf 'format = "wane-patch"\nversion = 1\n\n[note]\nname = "bands"\nf0_hz = 220.0\nlength_s = %s\n' "$2"

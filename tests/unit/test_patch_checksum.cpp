@@ -1,5 +1,5 @@
 // The checksum line wane appends to the patches it writes (io/patch_checksum.hpp), which lets it
-// refuse to overwrite a patch edited by hand since (issue 21, item 10).
+// refuse to overwrite a patch edited by hand since.
 #include <catch2/catch.hpp>
 
 #include <string>

@@ -87,7 +87,7 @@ TEST_CASE("series fit: a single harmonic number gives f0 from it and B = 0", "[p
 
 TEST_CASE("analysis: a stiff string with B = 3e-4, 30 partials, 3 moved 15 cents: f0 within 0.05 cents, B within 1%",
           "[pitch]") {
-    // Issue 17's acceptance; ground truth is the synthesis itself.
+    // Ground truth is the synthesis itself.
     const double f0 = GENERATE(98.0, 146.83);
     constexpr double b = 3e-4;
     const analysis_result r = analyse(stiff_string(f0, b, true), 3.0);

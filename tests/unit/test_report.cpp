@@ -17,6 +17,8 @@
 #include "core/patch.hpp"
 #include "measure/compare.hpp"
 #include "report/report.hpp"
+#include "report/spectrogram_image.hpp"
+#include "report/svg_plot.hpp"
 #include "synthesis/render.hpp"
 #include "tracking/tracker.hpp"
 
@@ -31,7 +33,7 @@ constexpr double f0_hz = 220.0;
 constexpr int harmonics = 8;
 constexpr double lead_in_s = 0.1;  // silence before the onset, as in a recording
 constexpr double note_s = 4.0;     // the size requirement is stated for a 4 s note
-constexpr std::size_t max_report_bytes = 3'000'000;  // project requirement: under 3 MB
+constexpr std::size_t max_report_bytes = 10'000'000;  // issue 20: under 10 MB for a 4 s note
 
 /// A plucked-string-like patch: harmonics 1..8 of 220 Hz, falling 4 dB per harmonic, each
 /// decaying in two stages (faster first), as in patch format v1.
@@ -188,6 +190,7 @@ struct built_report {
     patch value;
     std::vector<float> source;
     std::vector<float> render;
+    std::vector<float> copy_in_source;  ///< the render behind the same lead-in as the source
     tracking_result tracking;
     compare_result comparison;
     spectrogram_db spectrogram;
@@ -204,6 +207,9 @@ const built_report& the_report() {
         b.source.insert(b.source.end(), note.begin(), note.end());
         // The "render" differs from the source: 3 dB quieter, so the comparison is not trivial.
         b.render = render_patch(b.value, {.sample_rate_hz = rate_hz, .gain_db = -3.0});
+        b.copy_in_source.assign(lead_in, 0.0f);
+        b.copy_in_source.insert(b.copy_in_source.end(), b.render.begin(), b.render.end());
+        b.copy_in_source.resize(b.source.size());
         tracking_params tp;
         tp.f0_hz = f0_hz;
         b.tracking = track_note(b.source, rate_hz, tp);
@@ -217,6 +223,10 @@ const built_report& the_report() {
                          .source_rate_hz = rate_hz,
                          .render_audio = b.render,
                          .render_rate_hz = rate_hz,
+                         .copy_in_source = b.copy_in_source,
+                         .partials_in_source = b.copy_in_source,
+                         .partials_audio = b.render,  // the patch has no noise bands
+                         .noise_audio = {},
                          .source_name = "synthetic.wav",
                          .info_table = "name <test> & \"table\"",
                          .comparison = &b.comparison,
@@ -255,7 +265,7 @@ TEST_CASE("base64 round-trips every byte value", "[report]") {
 TEST_CASE("the report has every section, in page order", "[report]") {
     const std::string& html = the_report().html;
     std::size_t last = 0;
-    for (const char* id : {"summary", "spectrogram", "envelopes", "patch", "compare", "listen"}) {
+    for (const char* id : {"summary", "spectrogram", "onset", "envelopes", "noise", "patch", "compare", "listen"}) {
         const std::size_t at = html.find(std::string("<section id='") + id + "'");
         CAPTURE(id, at, last);
         REQUIRE(at != std::string::npos);
@@ -267,7 +277,7 @@ TEST_CASE("the report has every section, in page order", "[report]") {
     CHECK(count(html, "<section") == count(html, "</section>"));
 }
 
-TEST_CASE("the report is self-contained and under 3 MB for a 4 s note", "[report]") {
+TEST_CASE("the report is self-contained and under 10 MB for a 4 s note", "[report]") {
     const std::string& html = the_report().html;
     const std::size_t bytes = html.size();
     CAPTURE(bytes, the_report().source.size());
@@ -279,7 +289,11 @@ TEST_CASE("the report is self-contained and under 3 MB for a 4 s note", "[report
     CHECK(rest.find("http://") == std::string::npos);
     CHECK(rest.find("https://") == std::string::npos);
     CHECK(rest.find("src='//") == std::string::npos);
-    CHECK(rest.find("<script") == std::string::npos);
+    // Scripts are inline only: the page's own, and the patch's numbers as JSON data.
+    CHECK(count(rest, "<script") == 2);
+    CHECK(count(rest, "<script>") == 1);
+    CHECK(count(rest, "<script type='application/json' id='patch-data'>") == 1);
+    CHECK(rest.find("<script src") == std::string::npos);
     CHECK(rest.find("<link") == std::string::npos);
     // Every src/href is a data: URI or an in-page anchor.
     for (const std::string attr : {" src='", " href='"}) {
@@ -298,43 +312,102 @@ TEST_CASE("text is escaped", "[report]") {
     CHECK(html.find("<synthetic>") == std::string::npos);
 }
 
-TEST_CASE("the spectrogram PNG decodes and shows the partials", "[report]") {
+TEST_CASE("the spectrograms decode and show the partials up to the Nyquist frequency", "[report]") {
     const built_report& r = the_report();
     const std::vector<std::string> pngs = data_uris(r.html, "image/png");
-    REQUIRE(pngs.size() == 1);
-    CHECK(section(r.html, "spectrogram").find("data:image/png;base64,") != std::string::npos);
-    const decoded_png img = decode_png(base64_decode(pngs[0]));
+    // Source, copy and difference, each on a linear and a log frequency axis.
+    REQUIRE(pngs.size() == 6);
     const spectrogram_db& s = r.spectrogram;
-    // report.hpp: the top is 1.1 x the highest partial (8 x 220 Hz = 1760 Hz) rounded up to a
-    // tick (500 Hz steps for that span): 2000 Hz; one row per bin below 400 rows, one column per
-    // frame below 960 columns.
-    constexpr double top_hz = 2000.0;
-    const int expected_height = std::min(400, static_cast<int>(top_hz / s.bin_hz));
-    const int expected_width = std::min(960, s.frames);
-    CAPTURE(img.width, img.height, s.frames, s.bins, s.bin_hz, expected_height);
-    CHECK(img.width == expected_width);
-    CHECK(img.height == expected_height);
-    REQUIRE(img.height == static_cast<int>(top_hz / s.bin_hz));  // rows map to bins one to one below
-    // Half a second into the note, the row of each harmonic is much darker (louder) than the row
-    // half way to the next (no partial there in the synthetic note).
-    const int x = static_cast<int>((lead_in_s + 0.5 - s.start_s) / s.hop_s);
+    const image_size size{};
+    for (const std::string& png : pngs) {
+        const decoded_png img = decode_png(base64_decode(png));
+        CAPTURE(img.width, img.height, s.frames);
+        CHECK(img.width == std::min(size.width, s.frames));
+        CHECK(img.height == size.height);
+    }
+    // The source on the log axis (20 Hz .. 24 kHz, 360 rows: 2% of the frequency per row): half
+    // a second into the note, the row of each harmonic is much darker (louder) than the row half
+    // way to the next (no partial there in the synthetic note, 110 Hz from both: beyond the
+    // Blackman-Harris main lobe).
+    const decoded_png img = decode_png(base64_decode(pngs[1]));
+    const double nyquist_hz = s.bin_hz * (s.bins - 1);
+    auto row_of = [&](double f) {
+        return img.height - 1 - static_cast<int>(std::floor(img.height * std::log(f / 20.0) / std::log(nyquist_hz / 20.0)));
+    };
+    const int x = static_cast<int>((lead_in_s + 0.5 - s.start_s) / s.hop_s * img.width / s.frames);
     REQUIRE(x < img.width);
     for (int n = 1; n <= 4; ++n) {
-        auto row_of = [&](double f) { return img.height - 1 - static_cast<int>(f / s.bin_hz); };
         const double on = img.lightness(x, row_of(n * f0_hz));
         const double between = img.lightness(x, row_of((n + 0.5) * f0_hz));
         CAPTURE(n, on, between);
         CHECK(on + 0.3 < between);
+    }
+    // The axes run to the Nyquist frequency (24 kHz): the linear one has a 20 kHz tick, the log one 20000.
+    CHECK(count(section(r.html, "spectrogram"), ">20000</text>") == 6);
+}
+
+TEST_CASE("the difference colours run from Okabe-Ito blue through white to vermilion", "[report]") {
+    using report_plot::diverging_colour;
+    const report_plot::rgb white = diverging_colour(0.0), low = diverging_colour(-1.0), high = diverging_colour(1.0);
+    CHECK((white.r == 255 && white.g == 255 && white.b == 255));
+    CHECK((low.r == 0x00 && low.g == 0x72 && low.b == 0xb2));    // Okabe & Ito 2008: blue
+    CHECK((high.r == 0xd5 && high.g == 0x5e && high.b == 0x00)); // vermilion
+    // Equal spectrograms give a white picture; the copy 12 dB louder everywhere the source sounds
+    // gives the colour of +12 dB on the +-24 dB scale there.
+    spectrogram_db a{.frames = 4, .bins = 64, .bin_hz = 100.0, .hop_s = 0.01, .start_s = 0.0, .level_db = {}};
+    a.level_db.assign(4 * 64, static_cast<float>(spectrogram_floor_db));
+    for (int f = 0; f < 4; ++f) a.level_db[static_cast<std::size_t>(f * 64 + 20)] = -10.0f;  // 2 kHz
+    spectrogram_db b = a;
+    for (float& v : b.level_db) v += v > -100.0f ? 12.0f : 0.0f;
+    const image_size size{.width = 4, .height = 63};
+    const decoded_png same = decode_png(difference_png(a, a, 0.0, 6300.0, freq_axis::linear, 90.0, 24.0, size));
+    const decoded_png louder = decode_png(difference_png(a, b, 0.0, 6300.0, freq_axis::linear, 90.0, 24.0, size));
+    double darkest = 1.0;
+    for (int y = 0; y < same.height; ++y) darkest = std::min(darkest, same.lightness(0, y));
+    CHECK(darkest == 1.0);
+    const int row = louder.height - 1 - 20;  // 100 Hz rows: the 2 kHz bin
+    const report_plot::rgb want = diverging_colour(0.5);
+    CAPTURE(louder.lightness(0, row), want.r, want.g, want.b);
+    CHECK(louder.lightness(0, row) < 0.9);
+    CHECK(louder.lightness(0, row - 5) == 1.0);
+}
+
+TEST_CASE("the summary leads with the headline figure and defines every figure", "[report]") {
+    const std::string summary = section(the_report().html, "summary");
+    const std::size_t at = summary.find("<p id='headline'><b>fidelity: log-spectral distance ");
+    REQUIRE(at != std::string::npos);
+    const double lsd = std::stod(summary.substr(at + std::strlen("<p id='headline'><b>fidelity: log-spectral distance ")));
+    CAPTURE(lsd);
+    CHECK_THAT(lsd, WithinAbs(3.0, 0.05));  // the render is 3 dB quieter
+    CHECK(summary.find("onset SNR") != std::string::npos);
+    for (const char* name : {"log-spectral distance (the headline)", "onset SNR", "difference cells", "missing partial",
+                             "smeared onset"}) {
+        CAPTURE(name);
+        CHECK(summary.find(std::string("<dt>") + name + "</dt>") != std::string::npos);
     }
 }
 
 TEST_CASE("the audio players carry the source and the render as WAV", "[report]") {
     const built_report& r = the_report();
     const std::string listen = section(r.html, "listen");
-    CHECK(count(listen, "<audio controls") == 2);
-    CHECK(count(listen, "</audio>") == 2);
+    // Source, copy, partials only, residual embedded; one player for a partial alone, filled by the
+    // page's script (the patch has no noise bands, so no noise player).
+    CHECK(count(listen, "<audio ") == 5);
+    CHECK(count(listen, "</audio>") == 5);
     const std::vector<std::string> wavs = data_uris(r.html, "audio/wav");
-    REQUIRE(wavs.size() == 2);
+    REQUIRE(wavs.size() == 4);
+    {
+        // The residual is the source minus the copy lined up: here 1 - 10^(-3/20) of the source.
+        const decoded_wav w = decode_wav(base64_decode(wavs[3]));
+        REQUIRE(static_cast<std::size_t>(w.info.frames) == r.source.size());
+        double worst = 0.0;
+        for (std::size_t i = 0; i < r.source.size(); ++i) {
+            const double want = static_cast<double>(r.source[i]) - static_cast<double>(r.copy_in_source[i]);
+            worst = std::max(worst, std::abs(static_cast<double>(w.samples[i]) - want));
+        }
+        CAPTURE(worst);
+        CHECK(worst <= 1.0 / 32767.0);  // 16-bit rounding
+    }
     const std::vector<float>* expected[] = {&r.source, &r.render};
     for (std::size_t k = 0; k < 2; ++k) {
         const decoded_wav w = decode_wav(base64_decode(wavs[k]));
@@ -456,4 +529,55 @@ TEST_CASE("a silent source gives a blank spectrogram, a sine one dark row", "[re
     CAPTURE(img.width, img.height, tone_row, img.lightness(x, tone_row), img.lightness(x, far_row));
     CHECK(img.lightness(x, tone_row) < 0.1);
     CHECK(img.lightness(x, far_row) > 0.9);
+}
+
+TEST_CASE("a 4 s note with 80 partials and 9 noise bands gives one page under 10 MB", "[report]") {
+    // 80 harmonics of 110 Hz (to 8.8 kHz) and octave noise bands, rendered at 48 kHz; every view
+    // and player the CLI fills (the size rule of issue 20).
+    patch p = synthetic_patch();
+    p.note.f0_hz = 110.0;
+    p.partials.clear();
+    for (int n = 1; n <= 80; ++n) {
+        p.partials.push_back({.freq_hz = 110.0 * n, .harmonic = n, .phase_rad = 0.1 * n,
+                              .env = {.attack_s = 0.0, .peak = level_db{-12.0 - 0.5 * n},
+                                      .decay = {{.t60_s = 6.0 / std::sqrt(n), .until_s = std::nullopt}}}});
+    }
+    for (int k = 0; k < 9; ++k) {
+        const double low_hz = 44.0 * std::exp2(k);
+        p.noise.push_back({.low_hz = low_hz, .high_hz = 2.0 * low_hz,
+                           .env = {.attack_s = 0.0, .peak = level_db{-50.0}, .decay = {{.t60_s = 0.3, .until_s = std::nullopt}}}});
+    }
+    const std::vector<float> render = render_patch(p, {.sample_rate_hz = rate_hz});
+    const std::vector<float> partials = render_patch(p, {.sample_rate_hz = rate_hz, .include_noise = false});
+    std::vector<float> noise(render.size());
+    for (std::size_t i = 0; i < render.size(); ++i) noise[i] = render[i] - partials[i];
+    const auto lead_in = static_cast<std::size_t>(std::lround(lead_in_s * rate_hz));
+    std::vector<float> source(lead_in, 0.0f), partials_in_source(lead_in, 0.0f);
+    source.insert(source.end(), render.begin(), render.end());
+    partials_in_source.insert(partials_in_source.end(), partials.begin(), partials.end());
+    const compare_result comparison = compare_signals(source, render, rate_hz, {});
+    report_inputs in{.title = "80 partials",
+                     .value = &p,
+                     .spectrogram = make_spectrogram(source, rate_hz),
+                     .source_audio = source,
+                     .source_rate_hz = rate_hz,
+                     .render_audio = render,
+                     .render_rate_hz = rate_hz,
+                     .copy_in_source = source,
+                     .partials_in_source = partials_in_source,
+                     .partials_audio = partials,
+                     .noise_audio = noise,
+                     .source_name = {},
+                     .info_table = {},
+                     .comparison = &comparison,
+                     .comparison_note = {}};
+    const std::string html = make_report_html(in);
+    CAPTURE(html.size());
+    WARN("page of a 4 s note with 80 partials and 9 noise bands: " << html.size() << " bytes");
+    CHECK(html.size() < max_report_bytes);
+    CHECK(count(section(html, "envelopes"), "<svg class='envelope'") == 80);
+    CHECK(count(section(html, "noise"), "<svg class='envelope'") == 9);
+    CHECK(count(html, "data:audio/wav;base64,") == 5);
+    // The copy is the source itself: no difference sentence.
+    CHECK(count(html, "<li class='difference'>") == 0);
 }

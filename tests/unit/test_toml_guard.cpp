@@ -77,7 +77,7 @@ std::string repeat(const std::string& s, int n) {
 }
 }  // namespace
 
-// Issue 21, item 1: structures deeper than a patch are refused before the parser recurses into
+// Structures deeper than a patch are refused before the parser recurses into
 // them (a 50,000-level dotted key overflowed its stack), with the reader's one-line depth message.
 TEST_CASE("deep dotted keys, headers and nesting are refused before parsing", "[toml_guard]") {
     const std::string depth_message = "tables and arrays nest more than 4 levels deep here, deeper than any patch";

@@ -1,0 +1,314 @@
+// Stereo analysis (see stereo_place.hpp).
+#include "analysis/stereo_place.hpp"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+#include <complex>
+#include <numbers>
+#include <optional>
+#include <utility>
+#include <vector>
+
+#include "analysis/noise_model.hpp"
+#include "core/envelope.hpp"
+#include "core/stereo.hpp"
+#include "modes/damped_mode.hpp"
+#include "modes/mode_shape.hpp"
+#include "synthesis/render.hpp"
+
+namespace wane {
+
+namespace {
+
+using cplx = std::complex<double>;
+constexpr double two_pi = 2.0 * std::numbers::pi;
+constexpr double ln10_over_20 = 0.11512925464970229;  // ln(10) / 20: dB/s -> 1/s of amplitude
+
+/// Each partial's amplitude in one channel relative to the mix model over [t0_s, t0_s + span):
+/// r = fitted complex amplitude / the model's (0 where the partial does not sound enough there).
+struct channel_fit {
+    std::vector<cplx> ratio;
+    std::vector<bool> usable;
+};
+
+/// The partials' modes over the span: damped modes where the envelope is one straight dB piece
+/// over the span, shaped modes (modes/mode_shape.hpp) elsewhere; model[k] is the mix model's
+/// complex amplitude at t0 (for a shaped mode the shape carries the level: model is the phase).
+struct span_model {
+    std::vector<damped_mode> modes;
+    std::vector<mode_shape> shapes;
+    std::vector<cplx> model;
+    std::vector<bool> usable;
+};
+
+/// env seen from t0_s on (t0_s becomes t = 0); empty when t0_s falls inside the attack.
+std::optional<envelope> envelope_from(const envelope& env, double t0_s) {
+    if (t0_s == 0.0) return env;
+    if (t0_s < env.attack_s) return std::nullopt;
+    envelope out;
+    out.peak = envelope_level(env, t0_s);
+    for (const decay_segment& seg : env.decay) {
+        if (seg.until_s && *seg.until_s <= t0_s) continue;
+        decay_segment moved = seg;
+        if (moved.until_s) moved.until_s = *moved.until_s - t0_s;
+        out.decay.push_back(moved);
+    }
+    return out;
+}
+
+span_model model_span(const patch& p, double t0_s, std::size_t n, double sample_rate_hz, double min_shape) {
+    span_model m;
+    const double span_s = static_cast<double>(n) / sample_rate_hz;
+    constexpr int shape_probes = 16;  // points where the envelope is looked at for usable
+    for (const partial& q : p.partials) {
+        const double peak = to_amp(q.env.peak).lin;
+        const double phase = q.phase_rad + two_pi * q.freq_hz * t0_s;
+        const std::optional<envelope> env = envelope_from(q.env, t0_s);
+        double shape_max = 0.0;
+        for (int i = 0; i <= shape_probes; ++i)
+            shape_max = std::max(shape_max, envelope_amp(q.env, t0_s + span_s * i / shape_probes).lin);
+        const std::vector<envelope_piece> pieces = env ? envelope_pieces(*env) : std::vector<envelope_piece>{};
+        const bool exponential = env && env->attack_s == 0.0 && !pieces.empty() && pieces.front().end_s >= span_s;
+        const double a0 = env ? to_amp(env->peak).lin : 0.0;
+        m.modes.push_back({.freq_hz = q.freq_hz,
+                           .decay_per_s = exponential ? -pieces.front().slope_db_per_s * ln10_over_20 : 0.0,
+                           .amp = {}});
+        m.model.push_back(std::polar(exponential ? a0 : 1.0, phase));
+        m.usable.push_back(env && peak > 0.0 && a0 >= 0.0 && shape_max >= min_shape * peak &&
+                           q.freq_hz < sample_rate_hz / 2.0);
+        m.shapes.push_back(env && !exponential ? envelope_shape(*env, sample_rate_hz, n) : mode_shape{});
+    }
+    return m;
+}
+
+channel_fit fit_channel(const span_model& m, std::span<const float> x, double sample_rate_hz) {
+    std::vector<damped_mode> modes = m.modes;
+    channel_fit out;
+    // Modes at or above Nyquist are left out of the fit (their ratio stays 0, unusable).
+    std::vector<damped_mode> fit_modes;
+    std::vector<mode_shape> fit_shapes;
+    std::vector<std::size_t> index;
+    for (std::size_t k = 0; k < modes.size(); ++k) {
+        if (!(modes[k].freq_hz < sample_rate_hz / 2.0)) continue;
+        fit_modes.push_back(modes[k]);
+        fit_shapes.push_back(m.shapes[k]);
+        index.push_back(k);
+    }
+    out.ratio.assign(modes.size(), cplx{});
+    out.usable = m.usable;
+    if (!fit_modes.empty()) (void)fit_shaped_amplitudes(x, sample_rate_hz, fit_modes, fit_shapes);
+    for (std::size_t i = 0; i < index.size(); ++i) {
+        const std::size_t k = index[i];
+        if (std::abs(m.model[k]) > 0.0) out.ratio[k] = fit_modes[i].amp / m.model[k];
+    }
+    return out;
+}
+
+/// The delay (s) congruent with the phase difference of the channel ratios (right minus left) that
+/// lies nearest the reference delay.
+double partial_delay_s(cplx left, cplx right, double freq_hz, double reference_s) {
+    const double diff_rad = std::arg(right / left);  // (-pi, pi]
+    const double d0 = -diff_rad / (two_pi * freq_hz);
+    const double periods = std::round((reference_s - d0) * freq_hz);
+    return d0 + periods / freq_hz;
+}
+
+double wrap_pi(double a) { return std::remainder(a, two_pi); }
+
+/// Largest level change (dB) a channel fit may make to a partial's mix level before it is
+/// distrusted (a hard pan moves it by +3.01 dB; this leaves room for fits that differ a little).
+constexpr double max_level_change_db = 12.0;
+
+/// Places partial q from its channel ratios; false when the ratios are not to be trusted.
+bool place_partial(partial& q, cplx left, cplx right, double reference_s) {
+    const double l = std::abs(left);
+    const double r = std::abs(right);
+    if (!(l + r > 0.0)) return false;
+    const pan_and_level pl = pan_of_amplitudes(l, r);
+    if (!(std::abs(pl.level_db) <= max_level_change_db)) return false;
+    const double delay_s = l > 0.0 && r > 0.0 ? partial_delay_s(left, right, q.freq_hz, reference_s) : 0.0;
+    q.env.peak.db += pl.level_db;
+    q.place.pan = pl.pan;
+    q.place.delay_us = std::clamp(delay_s * 1e6, -max_abs_delay_us, max_abs_delay_us);
+    // Centre phase: the left's phase minus half the delay's phase (stereo.hpp).
+    const double left_phase = q.phase_rad + (l > 0.0 ? std::arg(left) : std::arg(right));
+    q.phase_rad = wrap_pi(left_phase - std::numbers::pi * q.freq_hz * delay_s);
+    return true;
+}
+
+/// Right-minus-left level difference (dB) of two channel ratios.
+double level_difference_db(cplx left, cplx right) { return 20.0 * std::log10(std::abs(right) / std::abs(left)); }
+
+/// The spread of a partial from its channel ratios at two span midpoints (see stereo_place.hpp);
+/// 0 unless the difference moves clearly. Bounded so neither channel stops falling faster than
+/// half the partial's last segment.
+double partial_spread(const partial& q, cplx l0, cplx r0, cplx l1, cplx r1, double dt_s, const stereo_place_params& params) {
+    constexpr double min_ratio = 1e-3;  // a channel 60 dB under the other: no level difference to follow
+    for (const cplx c : {l0, r0, l1, r1})
+        if (!(std::abs(c) > min_ratio * std::max({std::abs(l0), std::abs(r0), std::abs(l1), std::abs(r1)}))) return 0.0;
+    const double move_db = level_difference_db(l1, r1) - level_difference_db(l0, r0);
+    const double rate = move_db / dt_s;
+    if (std::abs(move_db) < params.min_spread_db || std::abs(rate) < params.min_spread_db_per_s) return 0.0;
+    const double last_fall = -60.0 / q.env.decay.back().t60_s;  // dB/s, <= 0 when falling
+    const double bound = std::max(0.0, -last_fall);
+    return std::clamp(rate, -bound, bound);
+}
+
+/// Channel residual (channel minus its own partials) over the first n frames.
+std::vector<float> channel_residual(const patch& p, channel_side side, std::span<const float> x, std::size_t n,
+                                    double sample_rate_hz) {
+    patch c = channel_patch(p, side);
+    c.noise.clear();
+    c.note.gain_db = 0.0;
+    std::vector<float> out(n);
+    if (!c.partials.empty()) {
+        const partial_renderer renderer(c, {.sample_rate_hz = sample_rate_hz,
+                                            .length_s = std::max(p.note.length_s, static_cast<double>(n) / sample_rate_hz)});
+        renderer.render(0, out);
+    }
+    for (std::size_t i = 0; i < n; ++i) out[i] = x[i] - out[i];
+    return out;
+}
+
+/// Band powers (sum over frames of 10^(level/10)) of a residual, one per band.
+std::vector<double> band_powers(std::span<const float> residual, double sample_rate_hz, std::span<const double> freqs_hz,
+                                const noise_model_params& params, std::vector<noise_band_track>& tracks) {
+    tracks = measure_noise_bands(residual, sample_rate_hz, freqs_hz, params);
+    std::vector<double> out;
+    for (const noise_band_track& t : tracks) {
+        double sum = 0.0;
+        for (const float db : t.level_db) sum += std::pow(10.0, static_cast<double>(db) / 10.0);
+        out.push_back(sum);
+    }
+    return out;
+}
+
+void place_noise(patch& p, std::span<const float> left, std::span<const float> right, double sample_rate_hz,
+                 const stereo_place_params& params) {
+    const std::size_t n = std::min({left.size(), right.size(),
+                                    static_cast<std::size_t>(std::llround(params.noise_span_s * sample_rate_hz))});
+    if (p.noise.empty() || n == 0) return;
+    const std::vector<float> res_l = channel_residual(p, channel_side::left, left, n, sample_rate_hz);
+    const std::vector<float> res_r = channel_residual(p, channel_side::right, right, n, sample_rate_hz);
+    std::vector<float> res_m(n);
+    for (std::size_t i = 0; i < n; ++i) res_m[i] = 0.5f * (res_l[i] + res_r[i]);
+    std::vector<double> freqs;
+    for (const partial& q : p.partials) freqs.push_back(q.freq_hz);
+    std::vector<noise_band_track> tracks;
+    const std::vector<double> pl = band_powers(res_l, sample_rate_hz, freqs, params.noise, tracks);
+    const std::vector<double> pr = band_powers(res_r, sample_rate_hz, freqs, params.noise, tracks);
+    const std::vector<double> pm = band_powers(res_m, sample_rate_hz, freqs, params.noise, tracks);
+    constexpr double same_edge_hz = 0.5;
+    for (noise_band& b : p.noise) {
+        for (std::size_t i = 0; i < tracks.size(); ++i) {
+            if (std::abs(tracks[i].low_hz - b.low_hz) > same_edge_hz || std::abs(tracks[i].high_hz - b.high_hz) > same_edge_hz)
+                continue;
+            if (!(pl[i] > 0.0 && pr[i] > 0.0 && pm[i] > 0.0)) break;
+            b.place.pan = pan_of_amplitudes(std::sqrt(pl[i]), std::sqrt(pr[i])).pan;
+            const double cross = 2.0 * pm[i] - 0.5 * (pl[i] + pr[i]);
+            b.coherence = std::clamp(cross / std::sqrt(pl[i] * pr[i]), 0.0, 1.0);
+            b.env.peak.db += std::clamp(10.0 * std::log10(0.5 * (pl[i] + pr[i]) / pm[i]), -max_level_change_db,
+                                        max_level_change_db);
+            break;
+        }
+    }
+}
+
+}  // namespace
+
+double broadband_delay_s(std::span<const float> left, std::span<const float> right, double sample_rate_hz,
+                         double span_s, double max_delay_s) {
+    const auto max_lag = static_cast<long>(std::floor(max_delay_s * sample_rate_hz));
+    const auto n = static_cast<long>(std::min({left.size(), right.size(),
+                                               static_cast<std::size_t>(std::llround(span_s * sample_rate_hz))}));
+    if (n <= 2 * max_lag + 2) return 0.0;
+    // r(lag) = sum_i left[i] right[i + lag]: right = left delayed by d peaks at lag = d.
+    std::vector<double> r(static_cast<std::size_t>(2 * max_lag + 1));
+    for (long lag = -max_lag; lag <= max_lag; ++lag) {
+        double sum = 0.0;
+        for (long i = max_lag; i < n - max_lag; ++i)
+            sum += static_cast<double>(left[static_cast<std::size_t>(i)]) * static_cast<double>(right[static_cast<std::size_t>(i + lag)]);
+        r[static_cast<std::size_t>(lag + max_lag)] = sum;
+    }
+    const auto best = static_cast<std::size_t>(std::max_element(r.begin(), r.end()) - r.begin());
+    if (!(r[best] > 0.0)) return 0.0;
+    double offset = 0.0;
+    if (best > 0 && best + 1 < r.size()) {
+        const double a = r[best - 1], b = r[best], c = r[best + 1];
+        const double den = a - 2.0 * b + c;
+        if (den < 0.0) offset = 0.5 * (a - c) / den;
+    }
+    return (static_cast<double>(best) - static_cast<double>(max_lag) + offset) / sample_rate_hz;
+}
+
+void place_stereo(patch& p, std::span<const float> left, std::span<const float> right, double sample_rate_hz,
+                  const stereo_place_params& params) {
+    assert(left.size() == right.size());
+    p.note.channels = 2;
+    const double reference_s =
+        broadband_delay_s(left, right, sample_rate_hz, params.reference_span_s, params.max_reference_delay_s);
+    const auto span_n = static_cast<std::size_t>(std::llround(params.fit_span_s * sample_rate_hz));
+    const auto fit_at = [&](double t0_s, double min_shape) -> std::optional<std::pair<channel_fit, channel_fit>> {
+        const auto first = static_cast<std::size_t>(std::llround(t0_s * sample_rate_hz));
+        if (first + span_n > left.size()) return std::nullopt;
+        const span_model m = model_span(p, t0_s, span_n, sample_rate_hz, min_shape);
+        return std::pair{fit_channel(m, left.subspan(first, span_n), sample_rate_hz),
+                         fit_channel(m, right.subspan(first, span_n), sample_rate_hz)};
+    };
+    const auto early = fit_at(0.0, params.min_shape_in_span);
+    const auto late = fit_at(params.late_start_s, params.min_shape_in_span);
+    const auto spread = fit_at(params.spread_start_s, 0.0);
+    const double spread_dt_s = params.spread_start_s;  // between the two spans' midpoints
+    for (std::size_t k = 0; k < p.partials.size(); ++k) {
+        partial& q = p.partials[k];
+        const partial mix = q;
+        bool placed = false;
+        if (early && early->first.usable[k]) placed = place_partial(q, early->first.ratio[k], early->second.ratio[k], reference_s);
+        if (!placed && late && late->first.usable[k])
+            placed = place_partial(q, late->first.ratio[k], late->second.ratio[k], reference_s);
+        if (!placed) {
+            q = mix;
+            q.place.delay_us = reference_s * 1e6;
+            continue;
+        }
+        if (early && early->first.usable[k] && spread && spread->first.usable[k]) {
+            const double s = partial_spread(q, early->first.ratio[k], early->second.ratio[k], spread->first.ratio[k],
+                                            spread->second.ratio[k], spread_dt_s, params);
+            if (s != 0.0) {
+                // The pan holds at the attack's end; the early span's difference is at its midpoint.
+                const double mid_s = params.fit_span_s / 2.0;
+                const double diff0 = pan_level_difference_db(q.place.pan) - s * (mid_s - q.env.attack_s);
+                q.place.pan = pan_of_level_difference(diff0);
+                q.place.spread_db_per_s = s;
+            }
+        }
+    }
+    place_noise(p, left, right, sample_rate_hz, params);
+}
+
+}  // namespace wane
+
+namespace wane {
+
+analysis_result analyze_stereo_note(std::span<const float> mix, std::span<const float> left,
+                                    std::span<const float> right, double sample_rate_hz,
+                                    const analysis_params& params, const stereo_place_params& stereo) {
+    assert(mix.size() == left.size() && mix.size() == right.size());
+    analysis_result out = analyze_note(mix, sample_rate_hz, params);
+    patch& p = out.value;
+    const auto onset = std::min(static_cast<std::size_t>(std::llround(p.source.onset_s * sample_rate_hz)), mix.size());
+    std::size_t last = mix.size();
+    if (params.end_s > 0.0) last = std::min(last, static_cast<std::size_t>(std::llround(params.end_s * sample_rate_hz)));
+    last = std::max(last, onset);
+    const std::span<const float> l = left.subspan(onset, last - onset);
+    const std::span<const float> r = right.subspan(onset, last - onset);
+    place_stereo(p, l, r, sample_rate_hz, stereo);
+    if (params.match_peak) {
+        p.note.gain_db = std::min(peak_matching_gain_db(channel_patch(p, channel_side::left), l, sample_rate_hz),
+                                  peak_matching_gain_db(channel_patch(p, channel_side::right), r, sample_rate_hz));
+    }
+    return out;
+}
+
+}  // namespace wane
