@@ -8,7 +8,8 @@
 //    main lobe, scaled to the mean (for noise each bin's power is exponentially distributed, so
 //    the median of n bins is the mean times the expected median of n unit exponentials). The median
 //    ignores what the subtraction left of a partial and any peak the tracker did not keep, so only
-//    the noise between the partials is measured. Hop 5 ms (or window / 16). Fitted on the frames
+//    the noise between the partials is measured. Hop 5 ms (or window / 16), no zero padding (the
+//    bins then are independent, as the median's scale assumes). Fitted on the frames
 //    whose window lies wholly inside the recording (the first line run back to the onset), over
 //    the floor of what the neighbouring bands leak into the band through the window
 //    (analysis/band_leakage.hpp).
@@ -93,8 +94,8 @@ std::vector<noise_band> fit_noise_bands(std::span<const float> residual, double 
                                         const noise_model_params& params, std::span<const float> recording = {});
 
 /// The noise model of a note (note[0] is the onset): the residual note - partials (the render of
-/// p's partials, synthesis/render.hpp partial_renderer; for the attack bands also with the partials
-/// started at their peak, see model_from in the .cpp) is formed a block at a time and measured
+/// p's partials, synthesis/render.hpp partial_renderer; also with the partials started at their
+/// peak, over the frames near the rises that changes, see model_from in the .cpp) is formed a block at a time and measured
 /// as it goes, so it is never held whole (a long file costs the band levels only: 4 bytes per band
 /// and hop), then fitted as fit_noise_bands does. Same bands as fit_noise_bands on the residual
 /// held whole (the blocks start at multiples of the renderer's anchor length: the same samples).
