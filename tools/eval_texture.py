@@ -31,8 +31,12 @@ from eval_fidelity import read_mono  # noqa: E402  (one WAV reader for the evalu
 
 
 def read_float(path):
+    """A float copy; a stereo copy (of a stereo recording) as its mean of channels, like the recording."""
     rate, x = wavfile.read(path)
-    return rate, x.astype(np.float64)
+    x = x.astype(np.float64)
+    if x.ndim == 2:
+        x = x.mean(axis=1)
+    return rate, x
 
 
 def stft_power(x, n):
