@@ -145,7 +145,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     const tracking_result& tr = out.tracking;
 
     const envelope_fit_params fit_params{.max_segments = params.max_segments, .window_s = tr.window_s};
-    const std::vector<cut_part> fitted = fit_tracks(out, fit_params);
+    std::vector<cut_part> fitted = fit_tracks(out, fit_params);
     patch& p = out.value;
 
     const auto onset_frame = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
