@@ -131,7 +131,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     out.summary.fit_error_db = frames > 0.0 ? std::sqrt(sq_error / frames) : 0.0;
 
     const auto onset_frame = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
-    if (onset_frame < part.size()) {
+    if (params.long_spectrum && onset_frame < part.size()) {
         std::vector<const partial_track*> tracks(fitted.size());
         for (std::size_t i = 0; i < fitted.size(); ++i) tracks[i] = fitted[i].track;
         out.summary.moved_to_heard_peaks =
@@ -147,7 +147,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     if (!(p.note.f0_hz > 0.0)) p.note.f0_hz = root_hz(p.note);
     // Strong peaks of the recording's long spectrum no track accounts for, after the root (which
     // the tracks decide) and before the onset refinement (which refits their starts too).
-    if (onset_frame < part.size()) {
+    if (params.long_spectrum && onset_frame < part.size()) {
         out.summary.added_heard_peaks = add_heard_peaks(p, part.subspan(onset_frame), sample_rate_hz,
                                                         params.heard_peaks, fit_params);
         out.summary.partials = static_cast<int>(p.partials.size());

@@ -38,7 +38,9 @@ struct analysis_params {
     /// Set note.gain_db so the copy peaks with the recording (peak_matching_gain_db).
     bool match_peak = true;
     onset_refine_params onset{};
-    /// Partial frequencies from the recording's own long spectrum (analysis/heard_peaks.hpp).
+    /// Partial frequencies from the recording's own long spectrum, and partials for its strong
+    /// peaks no track found (analysis/heard_peaks.hpp); analyze --no-long-spectrum turns it off.
+    bool long_spectrum = true;
     heard_peak_params heard_peaks{};
 };
 

@@ -59,6 +59,7 @@ struct analyze_options {
     double max_report_s = max_report_input_s();
     bool no_noise = false;
     bool no_onset_refine = false;
+    bool no_long_spectrum = false;
     bool split_pairs = false;
     double max_input_s = default_max_input_s;
     std::uintmax_t max_input_mib = default_max_input_bytes >> 20;
@@ -202,7 +203,8 @@ std::string run_one(const job& j, const analyze_options& o) {
                        .note_name = o.name.value_or(j.input.stem().string()),
                        .noise_model = !o.no_noise,
                        .refine_onset = !o.no_onset_refine,
-                       .split_pairs = o.split_pairs};
+                       .split_pairs = o.split_pairs,
+                       .long_spectrum = !o.no_long_spectrum};
     if (o.f0_hz && *o.f0_hz >= 0.5 * audio.sample_rate_hz)
         throw io_error(j.input.string() + ": --f0 " + num(*o.f0_hz) + " Hz is not below half the sample rate (" +
                        num(audio.sample_rate_hz) + " Hz)");
@@ -305,6 +307,9 @@ void add_analyze_command(CLI::App& app, command_registry& reg) {
     sub->add_flag("--no-noise", o->no_noise, "Fit partials only: no [[noise]] bands for the residual");
     sub->add_flag("--no-onset-refine", o->no_onset_refine,
                   "Keep the STFT envelopes' starts: no waveform fit of the onset, no short-lived modes");
+    sub->add_flag("--no-long-spectrum", o->no_long_spectrum,
+                  "Keep the tracks' own partial frequencies: no move to the peaks of a 1 s FFT of the "
+                  "recording, no partials added for its strong peaks the tracks missed");
     sub->add_flag("--split-pairs", o->split_pairs,
                   "Split a partial that beats into two close partials, each with its own decay");
     sub->add_option("--max-input-s", o->max_input_s, "Refuse input files longer than this, seconds")
