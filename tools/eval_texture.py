@@ -38,8 +38,12 @@ def read_mono(path):
 
 
 def read_float(path):
+    """A float copy; a stereo copy (of a stereo recording) as its mean of channels, like the recording."""
     rate, x = wavfile.read(path)
-    return rate, x.astype(np.float64)
+    x = x.astype(np.float64)
+    if x.ndim == 2:
+        x = x.mean(axis=1)
+    return rate, x
 
 
 def stft_power(x, n):

@@ -19,7 +19,16 @@ namespace {
 /// Main-lobe half-width of the 4-term Blackman-Harris window in bins of the unpadded window
 /// (Harris 1978: the main lobe spans +-4 bins).
 constexpr double bh4_half_lobe_bins = 4.0;
+/// FFT size over window length: at most this. The attack's short window is padded so to have
+/// bins enough in the narrow bands.
 constexpr int zero_padding = 2;
+/// The floor takes the median of the bins between partials: unpadded bins are independent for
+/// white noise (the exponential median's premise), and a long window (a low note) has bins enough
+/// without padding. A window shorter than 1 / floor_bin_hz is padded (up to zero_padding) to bins
+/// of this width, so the narrow bands below a few hundred hertz keep their free bins near them
+/// (measured: with 10 Hz bins a 60 ms window's borrowed bins around 200 Hz take up a loud band's
+/// skirt at 500 Hz, test_noise; with 8 Hz they do not).
+constexpr double floor_bin_hz = 8.0;
 /// A level that stands for digital silence, dB.
 constexpr double silence_db = -200.0;
 /// The leakage under a band (analysis/band_leakage.hpp) is the median's expectation over a skirt
@@ -32,6 +41,11 @@ constexpr std::size_t residual_blocks = 64;
 
 /// Fills dest with residual samples [first, first + dest.size()) (all inside the residual).
 using residual_source = std::function<void(std::size_t first, std::span<float> dest)>;
+/// A source measured on the frames centred before until_s (seconds from the onset) only.
+struct timed_source {
+    const residual_source* read = nullptr;
+    double until_s = infinity;
+};
 
 /// Expected median of n independent unit-mean exponential variables (the power of one noise bin):
 /// the k-th smallest has mean sum_{j = n - k + 1}^{n} 1 / j (Renyi's representation); an even n
@@ -52,6 +66,7 @@ struct band_plan {
     double hop_s = 0.0;
     double span_s = 0.0;  ///< frames centred before this; 0 = the whole residual
     bool median = false;  ///< median of the bins scaled to the mean (else their mean)
+    double widest_bin_hz = 0.0;  ///< pad (up to zero_padding) to bins no wider; 0: pad fully
     std::vector<band_edges> bands;
     std::vector<std::vector<int>> bins;  ///< bins measured per band
     std::vector<int> band_total_bins;    ///< all bins inside each band (the band power's K)
@@ -61,8 +76,10 @@ struct band_plan {
 
 stft_config plan_config(const band_plan& plan, double sample_rate_hz) {
     const int window_length = std::max(33, static_cast<int>(std::lround(plan.window_s * sample_rate_hz)) | 1);
-    return {.window = plan.window, .window_length = window_length,
-            .fft_size = fast_fft_size(zero_padding * window_length)};
+    int size = zero_padding * window_length;
+    if (plan.widest_bin_hz > 0.0)
+        size = std::clamp(static_cast<int>(std::ceil(sample_rate_hz / plan.widest_bin_hz)), window_length, size);
+    return {.window = plan.window, .window_length = window_length, .fft_size = fast_fft_size(size)};
 }
 
 /// The plan's band-to-band leakage through its window (analysis/band_leakage.hpp).
@@ -74,8 +91,10 @@ void add_leakage(band_plan& plan, double sample_rate_hz) {
 /// The floor measurement: bins away from every partial, borrowed from nearby when too few.
 band_plan floor_plan(double sample_rate_hz, std::span<const double> partial_freqs_hz, double f0_hz,
                      const noise_model_params& params) {
-    band_plan plan{.window = window_kind::blackman_harris_4, .window_s = floor_window_s(partial_freqs_hz, f0_hz, params),
-                   .hop_s = params.hop_s, .median = true, .bands = {}, .bins = {}, .band_total_bins = {}, .ranges = {}, .leak = {}};
+    const double window_s = floor_window_s(partial_freqs_hz, f0_hz, params);
+    band_plan plan{.window = window_kind::blackman_harris_4, .window_s = window_s,
+                   .hop_s = std::max(params.hop_s, window_s / params.floor_hops_per_window), .median = true,
+                   .widest_bin_hz = floor_bin_hz, .bands = {}, .bins = {}, .band_total_bins = {}, .ranges = {}, .leak = {}};
     const stft_config config = plan_config(plan, sample_rate_hz);
     const int n_bins = config.fft_size / 2 + 1;
     const double bin_hz = sample_rate_hz / config.fft_size;
@@ -116,7 +135,7 @@ band_plan floor_plan(double sample_rate_hz, std::span<const double> partial_freq
 /// The attack measurement: all bins of the bands wide enough for the short window.
 band_plan attack_plan(double sample_rate_hz, const noise_model_params& params) {
     band_plan plan{.window = window_kind::hann, .window_s = params.attack_window_s, .hop_s = params.attack_hop_s,
-                   .span_s = 2.0 * params.attack_span_s, .median = false, .bands = {}, .bins = {},
+                   .span_s = 2.0 * params.attack_span_s, .median = false, .widest_bin_hz = 0.0, .bands = {}, .bins = {},
                    .band_total_bins = {}, .ranges = {}, .leak = {}};
     const stft_config config = plan_config(plan, sample_rate_hz);
     const int n_bins = config.fft_size / 2 + 1;
@@ -143,7 +162,7 @@ band_plan attack_plan(double sample_rate_hz, const noise_model_params& params) {
 /// only one buffer of residual is held. Frames near the ends read zeros outside the residual,
 /// exactly as stft_plan does on the whole residual.
 std::vector<noise_band_track> measure_bands(std::size_t total, const residual_source& source, double sample_rate_hz,
-                                            const band_plan& bp) {
+                                            const band_plan& bp, double until_s = infinity) {
     stft_plan plan(plan_config(bp, sample_rate_hz));
     const int n_fft = plan.fft_size();
     double window_power_sum = 0.0;
@@ -153,15 +172,21 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
     const auto hop = static_cast<std::size_t>(std::max<std::int64_t>(1, std::llround(bp.hop_s * sample_rate_hz)));
     std::size_t end = total;
     if (bp.span_s > 0.0) end = std::min(total, static_cast<std::size_t>(std::llround(bp.span_s * sample_rate_hz)));
+    if (until_s < static_cast<double>(end) / sample_rate_hz)
+        end = static_cast<std::size_t>(std::ceil(std::max(0.0, until_s) * sample_rate_hz));
     const std::size_t frame_count = end == 0 ? 0 : (end - 1) / hop + 1;
     std::vector<noise_band_track> tracks(bp.bands.size());
-    std::vector<std::vector<double>> median_factor(bp.bands.size());
+    // Per band, once: the expected median of its bins' count of unit exponentials.
+    std::vector<double> unit_median(bp.bands.size(), 1.0);
+    std::size_t most_bins = 0;
     for (std::size_t b = 0; b < bp.bands.size(); ++b) {
         tracks[b] = {.low_hz = bp.bands[b].low_hz, .high_hz = bp.bands[b].high_hz,
                      .hop_s = static_cast<double>(hop) / sample_rate_hz, .level_db = {}, .leak_db = {}};
         tracks[b].level_db.reserve(frame_count);
+        if (bp.median && !bp.bins[b].empty()) unit_median[b] = expected_exponential_median(bp.bins[b].size());
+        most_bins = std::max(most_bins, bp.bins[b].size());
     }
-    std::vector<double> scratch;
+    std::vector<float> scratch(most_bins);
 
     // The buffer holds residual [buf_first, buf_first + buf.size()); it starts at a multiple of
     // the renderer's anchor length (so the partials come out as in one whole render).
@@ -195,13 +220,14 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
             const std::vector<int>& bins = bp.bins[b];
             double mean_bin_power = 0.0;
             if (bp.median) {
-                scratch.resize(bins.size());
+                const auto first = scratch.begin();
+                const auto last = first + static_cast<std::ptrdiff_t>(bins.size());
                 for (std::size_t i = 0; i < bins.size(); ++i) scratch[i] = power[static_cast<std::size_t>(bins[i])];
-                const auto mid = scratch.begin() + static_cast<std::ptrdiff_t>(scratch.size() / 2);
-                std::nth_element(scratch.begin(), mid, scratch.end());
+                const auto mid = first + static_cast<std::ptrdiff_t>(bins.size() / 2);
+                std::nth_element(first, mid, last);
                 double median = *mid;
-                if (scratch.size() % 2 == 0) median = 0.5 * (median + *std::max_element(scratch.begin(), mid));
-                mean_bin_power = median / expected_exponential_median(bins.size()) / amp_scale_sq;
+                if (bins.size() % 2 == 0) median = 0.5 * (median + static_cast<double>(*std::max_element(first, mid)));
+                mean_bin_power = median / unit_median[b] / amp_scale_sq;
             } else {
                 double sum = 0.0;
                 for (int k : bins) sum += static_cast<double>(power[static_cast<std::size_t>(k)]);
@@ -314,15 +340,15 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
 /// what a wrong rise leaves of a partial is a broadband click; and a residual louder than the
 /// recording is the subtraction's error, not noise. The bands take, frame by frame, the lowest of
 /// the levels: what neither rise explains, and never more than was recorded.
-std::vector<noise_band> model_from(std::size_t total, std::span<const residual_source* const> sources,
+std::vector<noise_band> model_from(std::size_t total, std::span<const timed_source> sources,
                                    double sample_rate_hz, std::span<const double> partial_freqs_hz, double f0_hz,
                                    double loudest_partial_db, const noise_model_params& params) {
     auto lower_of_both = [&](const band_plan& plan) {
-        auto tracks = measure_bands(total, *sources[0], sample_rate_hz, plan);
+        auto tracks = measure_bands(total, *sources[0].read, sample_rate_hz, plan);
         for (std::size_t k = 1; k < sources.size(); ++k) {
-            const auto other = measure_bands(total, *sources[k], sample_rate_hz, plan);
+            const auto other = measure_bands(total, *sources[k].read, sample_rate_hz, plan, sources[k].until_s);
             for (std::size_t b = 0; b < tracks.size(); ++b)
-                for (std::size_t i = 0; i < tracks[b].level_db.size(); ++i)
+                for (std::size_t i = 0; i < std::min(tracks[b].level_db.size(), other[b].level_db.size()); ++i)
                     tracks[b].level_db[i] = std::min(tracks[b].level_db[i], other[b].level_db[i]);
         }
         std::vector<std::span<const float>> levels;
@@ -387,8 +413,8 @@ std::vector<noise_band> fit_noise_bands(std::span<const float> residual, double 
     const residual_source original = [&](std::size_t first, std::span<float> dest) {
         std::copy_n(recording.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
     };
-    const residual_source* both[] = {&source, &original};
-    const auto sources = std::span<const residual_source* const>(both).first(recording.empty() ? 1 : 2);
+    const timed_source both[] = {{.read = &source}, {.read = &original}};
+    const auto sources = std::span<const timed_source>(both).first(recording.empty() ? 1 : 2);
     return model_from(residual.size(), sources, sample_rate_hz, partial_freqs_hz, 0.0, loudest_partial_db, params);
 }
 
@@ -406,8 +432,12 @@ std::vector<noise_band> fit_note_noise(std::span<const float> note, double sampl
     // An attack shorter than the tracker's window cannot be told from an abrupt start.
     patch abrupt_patch = p;
     const double unresolved_s = p.source.analysis ? p.source.analysis->window_s : infinity;
-    for (partial& q : abrupt_patch.partials)
-        if (q.env.attack_s <= unresolved_s) q.env.attack_s = 0.0;
+    double longest_removed_s = 0.0;  // the longest attack the abrupt copy drops
+    for (partial& q : abrupt_patch.partials) {
+        if (q.env.attack_s > unresolved_s) continue;
+        longest_removed_s = std::max(longest_removed_s, q.env.attack_s);
+        q.env.attack_s = 0.0;
+    }
     const partial_renderer partials(p, render);
     const partial_renderer abrupt_partials(abrupt_patch, render);
     const std::size_t common = std::min(note.size(), partials.frames());
@@ -427,7 +457,13 @@ std::vector<noise_band> fit_note_noise(std::span<const float> note, double sampl
     const residual_source recording = [&](std::size_t first, std::span<float> dest) {
         std::copy_n(note.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
     };
-    const residual_source* sources[] = {&source, &abrupt, &recording};
+    // The two rises differ by a click at the onset; later the abrupt copy's partials are only
+    // shifted in level, which the floor's bins between the partials do not see. So the abrupt
+    // residual is measured on the frames centred within one floor window after the longest rise
+    // it drops (on none without one: the two residuals are then the same).
+    const double abrupt_until_s =
+        longest_removed_s > 0.0 ? longest_removed_s + floor_window_s(freqs_hz, p.note.f0_hz, params) : 0.0;
+    const timed_source sources[] = {{.read = &source}, {.read = &abrupt, .until_s = abrupt_until_s}, {.read = &recording}};
     return model_from(note.size(), sources, sample_rate_hz, freqs_hz, p.note.f0_hz, loudest_db, params);
 }
 

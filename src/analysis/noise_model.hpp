@@ -8,9 +8,11 @@
 //    main lobe, scaled to the mean (for noise each bin's power is exponentially distributed, so
 //    the median of n bins is the mean times the expected median of n unit exponentials). The median
 //    ignores what the subtraction left of a partial and any peak the tracker did not keep, so only
-//    the noise between the partials is measured. Hop 5 ms. Fitted on the frames whose window lies
-//    wholly inside the recording (the first line run back to the onset), over the floor of what
-//    the neighbouring bands leak into the band through the window (analysis/band_leakage.hpp).
+//    the noise between the partials is measured. Hop 5 ms (or window / 16), no zero padding (the
+//    bins then are independent, as the median's scale assumes). Fitted on the frames
+//    whose window lies wholly inside the recording (the first line run back to the onset), over
+//    the floor of what the neighbouring bands leak into the band through the window
+//    (analysis/band_leakage.hpp).
 //  - the attack: a short Hann STFT (4 ms, hop 1 ms) over the first 2 attack_span_s, mean power of
 //    all the band's bins, in the bands at least attack_min_bins bins of that window wide. Where the
 //    first attack_span_s stands attack_above_floor_db over the median of the second (what the
@@ -28,7 +30,11 @@
 namespace wane {
 
 struct noise_model_params {
-    double hop_s = 0.005;  ///< floor analysis hop, seconds
+    /// Floor analysis hop, seconds: hop_s, or window / floor_hops_per_window when that is longer
+    /// (reasoned choice: a window of 60-300 ms smooths the level over its length anyway; measured,
+    /// wane analyze guitar_nylon_d3 0.86 -> 0.53 s CPU against a 5 ms hop).
+    double hop_s = 0.005;
+    double floor_hops_per_window = 16.0;
     /// The floor window lasts floor_window_spacings / f0 (or, without one, / the median spacing of
     /// neighbouring partials), so a partial's main lobe (+-4 bins of Blackman-Harris) leaves bins
     /// free between partials;
@@ -95,8 +101,8 @@ std::vector<noise_band> fit_noise_bands(std::span<const float> residual, double 
                                         const noise_model_params& params, std::span<const float> recording = {});
 
 /// The noise model of a note (note[0] is the onset): the residual note - partials (the render of
-/// p's partials, synthesis/render.hpp partial_renderer; for the attack bands also with the partials
-/// started at their peak, see model_from in the .cpp) is formed a block at a time and measured
+/// p's partials, synthesis/render.hpp partial_renderer; also with the partials started at their
+/// peak, over the frames near the rises that changes, see model_from in the .cpp) is formed a block at a time and measured
 /// as it goes, so it is never held whole (a long file costs the band levels only: 4 bytes per band
 /// and hop), then fitted as fit_noise_bands does. Same bands as fit_noise_bands on the residual
 /// held whole (the blocks start at multiples of the renderer's anchor length: the same samples).

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <vector>
 
+#include "analysis/onset_attack.hpp"
 #include "core/units.hpp"
 #include "modes/narrowband.hpp"
 #include "synthesis/render.hpp"
@@ -50,13 +51,16 @@ std::optional<double> crossing_time(const envelope& env, double level0_db, doubl
     return std::nullopt;
 }
 
-/// New envelope: instant onset at level0_db with the early slope, joined to the old envelope where
-/// the two cross before params.join_search_s; else the early line runs to the end of the fit span
-/// and a bridge reaches the old envelope bridge_s later.
-envelope joined_envelope(const envelope& old, double level0_db, double slope_db_per_s, const onset_refine_params& params) {
+/// New envelope: a rise over attack_s (0: instant) to level0_db, then the early slope, joined to
+/// the old envelope where the two cross before params.join_search_s; else the early line runs to
+/// the end of the fit span and a bridge reaches the old envelope bridge_s later.
+envelope joined_envelope(const envelope& old, double attack_s, double level0_db, double slope_db_per_s,
+                         const onset_refine_params& params) {
+    // The early line after the attack, as level(t) = line0_db + slope t.
+    const double line0_db = level0_db - slope_db_per_s * attack_s;
     // An instant onset the STFT fit already has, within agree_db of the early line over the fit
     // span, stays as it is (no extra segments for a difference that small).
-    if (old.attack_s == 0.0) {
+    if (old.attack_s == 0.0 && attack_s == 0.0) {
         double worst = 0.0;
         constexpr double step_s = 0.005;
         const auto steps = static_cast<int>(std::floor(params.fit_span_s / step_s));
@@ -66,16 +70,16 @@ envelope joined_envelope(const envelope& old, double level0_db, double slope_db_
         }
         if (worst <= params.agree_db) return old;
     }
-    envelope env{.attack_s = 0.0, .peak = level_db{level0_db}, .decay = {}};
-    const double from_s = std::max(old.attack_s, 0.002);
+    envelope env{.attack_s = attack_s, .peak = level_db{level0_db}, .decay = {}};
+    const double from_s = std::max({old.attack_s, attack_s, 0.002});
     const double early_t60 = slope_db_per_s_to_t60(slope_db_per_s);
-    if (const auto t = crossing_time(old, level0_db, slope_db_per_s, from_s, params.join_search_s)) {
+    if (const auto t = crossing_time(old, line0_db, slope_db_per_s, from_s, params.join_search_s)) {
         env.decay.push_back({.t60_s = early_t60, .until_s = *t});
         for (const auto& seg : segments_from(old, *t)) env.decay.push_back(seg);
     } else {
-        const double early_end_s = params.fit_span_s;
+        const double early_end_s = std::max(params.fit_span_s, attack_s);
         const double join_s = std::max(old.attack_s, early_end_s) + params.bridge_s;
-        const double early_end_db = level0_db + slope_db_per_s * early_end_s;
+        const double early_end_db = line0_db + slope_db_per_s * early_end_s;
         const double bridge_slope = (envelope_level(old, join_s).db - early_end_db) / (join_s - early_end_s);
         env.decay.push_back({.t60_s = early_t60, .until_s = early_end_s});
         env.decay.push_back({.t60_s = slope_db_per_s_to_t60(bridge_slope), .until_s = join_s});
@@ -208,6 +212,8 @@ std::vector<damped_mode> stable_modes(std::span<const damped_mode> candidates, s
 struct waveform_fit {
     std::vector<damped_mode> modes;
     std::vector<double> energy;  ///< of each fitted mode over the span: sum of its samples squared
+    std::vector<mode_shape> shapes;  ///< of each mode (empty: exponential from t = 0)
+    std::vector<float> target;       ///< the span minus the fixed partials
 
     std::vector<std::size_t> partial_of;  ///< partial index of modes[i], i < partial_of.size()
     double residual_energy = 0.0;
@@ -215,9 +221,9 @@ struct waveform_fit {
 
 waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sample_rate_hz, std::size_t fit_n,
                           std::span<const role> roles, std::span<const double> decay,
-                          std::span<const damped_mode> new_modes) {
+                          std::span<const std::size_t> attack_n, std::span<const damped_mode> new_modes) {
     waveform_fit f;
-    std::vector<mode_shape> shapes;
+    std::vector<mode_shape>& shapes = f.shapes;
     std::vector<std::size_t> fixed;
     for (std::size_t k = 0; k < p.partials.size(); ++k) {
         const partial& part = p.partials[k];
@@ -227,12 +233,17 @@ waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sa
         }
         f.modes.push_back({.freq_hz = part.freq_hz, .decay_per_s = decay[k]});
         // A shaped partial's amplitude is its envelope's, so its fitted amp is a scale (1: as fitted).
-        shapes.push_back(roles[k] == role::shaped ? envelope_shape(part.env, sample_rate_hz, fit_n) : mode_shape{});
+        // An exponential one may rise over its chosen attack (analysis/onset_attack.hpp).
+        if (roles[k] == role::shaped)
+            shapes.push_back(envelope_shape(part.env, sample_rate_hz, fit_n));
+        else
+            shapes.push_back(attack_n[k] > 0 ? rise_decay_shape(attack_n[k], -decay[k] / sample_rate_hz, fit_n) : mode_shape{});
         f.partial_of.push_back(k);
     }
     f.modes.insert(f.modes.end(), new_modes.begin(), new_modes.end());
     shapes.resize(f.modes.size());
-    std::vector<float> target(note.begin(), note.begin() + static_cast<std::ptrdiff_t>(fit_n));
+    std::vector<float>& target = f.target;
+    target.assign(note.begin(), note.begin() + static_cast<std::ptrdiff_t>(fit_n));
     if (!fixed.empty()) {
         const std::vector<float> known = render_fixed(p, fixed, sample_rate_hz, fit_n);
         for (std::size_t n = 0; n < fit_n; ++n) target[n] -= known[n];
@@ -285,9 +296,27 @@ bool revise_roles(const patch& p, std::span<const float> note, const waveform_fi
     return changed;
 }
 
+/// The attack of each exponential partial, searched on the residual of fit f (analysis/onset_attack.hpp);
+/// attack_n is per partial, in samples. True when any changed.
+bool update_attacks(const waveform_fit& f, std::span<const role> roles, double sample_rate_hz,
+                    const onset_attack_params& params, std::vector<std::size_t>& attack_n) {
+    std::vector<std::size_t> may_rise, per_mode(f.modes.size(), 0);
+    for (std::size_t i = 0; i < f.partial_of.size(); ++i) {
+        if (roles[f.partial_of[i]] == role::exponential) may_rise.push_back(i);
+        per_mode[i] = attack_n[f.partial_of[i]];
+    }
+    const std::vector<std::size_t> chosen = choose_attacks(f.target, sample_rate_hz, f.modes, f.shapes, f.energy, may_rise, per_mode, params);
+    bool changed = false;
+    for (const std::size_t i : may_rise) {
+        changed = changed || chosen[i] != per_mode[i];
+        attack_n[f.partial_of[i]] = chosen[i];
+    }
+    return changed;
+}
+
 /// Writes the fitted starts into the partials and appends the new modes as partials.
-void apply_fit(patch& p, const waveform_fit& f, std::span<const role> roles, const onset_refine_params& params,
-               onset_refine_summary& summary) {
+void apply_fit(patch& p, const waveform_fit& f, std::span<const role> roles, std::span<const std::size_t> attack_n,
+               double sample_rate_hz, const onset_refine_params& params, onset_refine_summary& summary) {
     for (std::size_t i = 0; i < f.partial_of.size(); ++i) {
         partial& part = p.partials[f.partial_of[i]];
         const damped_mode& m = f.modes[i];
@@ -298,7 +327,9 @@ void apply_fit(patch& p, const waveform_fit& f, std::span<const role> roles, con
             if (std::abs(scale_db) > params.slow_rise_db || !(level <= max_peak_db)) continue;
             part.env.peak = level_db{level};
         } else {
-            part.env = joined_envelope(part.env, to_level(amp_lin{std::abs(m.amp)}).db, -db_per_neper * m.decay_per_s, params);
+            const double attack_s = static_cast<double>(attack_n[f.partial_of[i]]) / sample_rate_hz;
+            part.env = joined_envelope(part.env, attack_s, to_level(amp_lin{std::abs(m.amp)}).db,
+                                       -db_per_neper * m.decay_per_s, params);
         }
         part.phase_rad = std::arg(m.amp);
         ++summary.refined;
@@ -343,16 +374,22 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
         near_hz.empty() ? std::vector<damped_mode>{}
                         : subband_modes(signals, sub, params.stable_span_fraction * sub.span_s, near_hz, tol_hz);
     std::vector<damped_mode> new_modes = stable_modes(candidates, again, cluster_hz, params);
-    // Up to three passes, each revising the roles and the new modes from the last.
-    constexpr int passes = 3;
+    // Up to four passes, each revising the roles, attacks and new modes from the last.
+    constexpr int passes = 4;
     waveform_fit f;
-    for (int pass = 0; pass < passes; ++pass) {
-        f = fit_waveform(p, note, sample_rate_hz, fit_n, roles, decay, new_modes);
-        if (pass == passes - 1 || !revise_roles(p, note, f, roles, new_modes, sample_rate_hz, fit_n, params)) break;
+    std::vector<std::size_t> attack_n(p.partials.size(), 0);
+    for (int pass = 0;; ++pass) {
+        f = fit_waveform(p, note, sample_rate_hz, fit_n, roles, decay, attack_n, new_modes);
+        if (pass == passes - 1) break;
+        // The attacks are searched on this pass's residual and the roles revised from it; the
+        // next pass fits both.
+        const bool attacks_changed = params.search_attacks && update_attacks(f, roles, sample_rate_hz, params.attacks, attack_n);
+        const bool roles_changed = revise_roles(p, note, f, roles, new_modes, sample_rate_hz, fit_n, params);
+        if (!attacks_changed && !roles_changed) break;
     }
     const double energy = signal_energy(note.first(fit_n));
     summary.explained_db = energy > 0.0 ? power_to_db(energy / std::max(f.residual_energy, 1e-30 * energy)) : 0.0;
-    apply_fit(p, f, roles, params, summary);
+    apply_fit(p, f, roles, attack_n, sample_rate_hz, params, summary);
     return summary;
 }
 

@@ -9,6 +9,7 @@
 #include <span>
 
 #include "core/patch.hpp"
+#include "analysis/onset_attack.hpp"
 #include "modes/subband_modes.hpp"
 
 namespace wane {
@@ -48,6 +49,10 @@ struct onset_refine_params {
     /// without one, a bridge of bridge_s joins them after the fit span.
     double join_search_s = 0.3;
     double bridge_s = 0.05;
+    /// Each strong partial may rise over an attack time chosen on the waveform instead of starting
+    /// at once (analysis/onset_attack.hpp).
+    bool search_attacks = true;
+    onset_attack_params attacks{};
     /// An envelope with an instant onset that agrees with the early line within this is kept.
     double agree_db = 1.0;
 };
