@@ -136,6 +136,16 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         for (std::size_t i = 0; i < fitted.size(); ++i) tracks[i] = fitted[i].track;
         out.summary.moved_to_heard_peaks =
             move_to_heard_peaks(p, tracks, part.subspan(onset_frame), sample_rate_hz, params.heard_peaks);
+        // Late companions closer than the span resolves become one partial with their stronger
+        // neighbour; fitted follows the patch's indices.
+        const merge_result merged =
+            merge_late_companions(p, tracks, part.subspan(onset_frame), sample_rate_hz, params.heard_peaks);
+        for (const merged_partial& m : merged.kept)
+            fitted[m.index] = {.env = nullptr, .track = nullptr, .fit_start_s = m.fit_start_s, .fit_end_s = m.fit_end_s};
+        for (std::size_t k = merged.removed.size(); k-- > 0;)  // descending: indices stay valid
+            fitted.erase(fitted.begin() + static_cast<std::ptrdiff_t>(merged.removed[k]));
+        out.summary.merged_companions = static_cast<int>(merged.removed.size());
+        out.summary.partials = static_cast<int>(p.partials.size());
     }
 
     const double analysed_s = static_cast<double>(part.size()) / sample_rate_hz - tr.onset_s;

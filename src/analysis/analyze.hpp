@@ -55,6 +55,7 @@ struct analysis_summary {
     int pairs_split = 0;       ///< partials split into beating pairs
     int new_modes = 0;
     int moved_to_heard_peaks = 0;  ///< partials moved to the recording's long-spectrum peak
+    int merged_companions = 0;     ///< late companions merged into their stronger neighbour (heard_peaks)
     int added_heard_peaks = 0;     ///< partials added for long-spectrum peaks no track accounts for         ///< partials added by the onset refinement (short-lived modes)
     /// Energy of the first fit span explained by the partials, dB (onset refinement).
     double onset_explained_db = 0.0;

@@ -211,6 +211,39 @@ std::vector<std::size_t> partial_like_peaks(const span_spectrum& s, const heard_
     return peaks;
 }
 
+/// The envelope of two components heard as one: the earlier one's (smaller attack_s) until the
+/// later one is first louder, then the later one's (its linear rise replaced from there by one
+/// straight dB segment up to its peak). Within 3 dB of their power sum wherever one leads the
+/// other by a few dB; at the crossing the sum is 3 dB over both (a beat's average).
+envelope spliced(const envelope& early, const envelope& late, double end_s) {
+    constexpr double step_s = 0.005;  ///< crossing search grid, s
+    double cross_s = -1.0;
+    const auto steps = static_cast<int>(std::ceil((end_s - early.attack_s) / step_s));
+    for (int k = 0; k < steps; ++k) {
+        const double t = early.attack_s + k * step_s;
+        if (envelope_level(late, t).db > envelope_level(early, t).db) { cross_s = t; break; }
+    }
+    if (cross_s < 0.0) return early;  // never louder: the early one's envelope carries the group
+    envelope out{.attack_s = early.attack_s, .peak = early.peak, .decay = {}};
+    for (const decay_segment& d : early.decay) {
+        if (d.until_s && *d.until_s < cross_s) { out.decay.push_back(d); continue; }
+        out.decay.push_back({.t60_s = d.t60_s, .until_s = cross_s});
+        break;
+    }
+    if (cross_s <= early.attack_s) out = {.attack_s = cross_s, .peak = envelope_level(early, cross_s), .decay = {}};
+    const double at_cross_db = envelope_level(late, cross_s).db;
+    if (cross_s < late.attack_s) {
+        // slope (dB/s) = (peak - level at the crossing) / time to the peak; t60 = -60 / slope.
+        const double slope = (late.peak.db - at_cross_db) / (late.attack_s - cross_s);
+        out.decay.push_back({.t60_s = slope > 0.0 ? -60.0 / slope : infinity, .until_s = late.attack_s});
+    }
+    const double from_s = std::max(cross_s, late.attack_s);
+    for (const decay_segment& d : late.decay)
+        if (!d.until_s || *d.until_s > from_s) out.decay.push_back(d);
+    if (out.decay.empty()) out.decay.push_back({.t60_s = infinity, .until_s = {}});
+    return out;
+}
+
 /// The narrow band around freq_hz as a track: one point per band sample from t = 0 to note_s,
 /// level of A cos (A = 2 |y|), phase of cos at freq_hz, floor a quantile of the band's level.
 partial_track band_track(const note_spectrum& spectrum, double freq_hz, double half_width_hz, double note_s,
@@ -237,6 +270,55 @@ partial_track band_track(const note_spectrum& spectrum, double freq_hz, double h
 }
 
 }  // namespace
+
+merge_result merge_late_companions(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
+                                   double sample_rate_hz, const heard_peak_params& params) {
+    assert(tracks.size() <= p.partials.size());
+    merge_result out;
+    const double note_s = static_cast<double>(note.size()) / sample_rate_hz;
+    const auto [start_s, end_s] = span_of(note_s, params);
+    if (!(end_s > start_s)) return out;
+    const span_spectrum s{.mag = {}, .bin_hz = 0.0, .start_s = start_s, .end_s = end_s};
+    const double reach_hz = params.companion_half_widths * 2.0 / (end_s - start_s);  // Hann main-lobe half-width 2 / T
+    std::vector<double> amp(tracks.size(), 0.0);
+    for (std::size_t i = 0; i < tracks.size(); ++i)
+        if (tracks[i] != nullptr) amp[i] = span_amplitude(*tracks[i], s);
+    std::vector<std::size_t> order(tracks.size());
+    for (std::size_t i = 0; i < order.size(); ++i) order[i] = i;
+    std::sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return amp[a] > amp[b]; });
+
+    std::vector<bool> gone(tracks.size(), false);
+    for (const std::size_t i : order) {
+        if (gone[i] || !(amp[i] > 0.0)) continue;
+        std::vector<std::size_t> group;
+        for (std::size_t j = 0; j < tracks.size(); ++j) {
+            if (j == i || gone[j] || tracks[j] == nullptr || amp[j] > amp[i]) continue;
+            if (std::abs(p.partials[j].freq_hz - p.partials[i].freq_hz) > reach_hz) continue;
+            // Both present from the strike: a beating pair (two strings), kept apart.
+            if (p.partials[j].env.attack_s < params.companion_start_s &&
+                p.partials[i].env.attack_s < params.companion_start_s)
+                continue;
+            group.push_back(j);
+        }
+        if (group.empty()) continue;
+        partial& q = p.partials[i];
+        for (const std::size_t j : group) {
+            const envelope& other = p.partials[j].env;
+            const bool first = q.env.attack_s <= other.attack_s;
+            q.env = spliced(first ? q.env : other, first ? other : q.env, note_s);
+            if (!first) q.phase_rad = p.partials[j].phase_rad;  // the start is the other's
+            gone[j] = true;
+        }
+        out.kept.push_back({.index = i, .fit_start_s = 0.0, .fit_end_s = note_s});
+    }
+    for (std::size_t j = tracks.size(); j-- > 0;)
+        if (gone[j]) {
+            p.partials.erase(p.partials.begin() + static_cast<std::ptrdiff_t>(j));
+            out.removed.insert(out.removed.begin(), j);
+        }
+    std::sort(out.kept.begin(), out.kept.end(), [](const merged_partial& a, const merged_partial& b) { return a.index < b.index; });
+    return out;
+}
 
 int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz, const heard_peak_params& params,
                     const envelope_fit_params& fit_params) {

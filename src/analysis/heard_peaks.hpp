@@ -12,6 +12,7 @@
 #pragma once
 
 #include <span>
+#include <vector>
 
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
@@ -48,6 +49,11 @@ struct heard_peak_params {
     /// makes a peak of its own) carrying its level within level_gate_db; at most this many per
     /// note, strongest first.
     int max_added = 8;
+    /// Late companions (merge_late_companions): a partial whose level peaks this late (s after
+    /// the onset, the span's start: after the strike) ...
+    double companion_start_s = 0.1;
+    /// ... within this many main-lobe half-widths of a stronger partial: one heard partial.
+    double companion_half_widths = 1.0;
     double band_rate_hz = 80.0;     ///< the narrow band's rate: points 12.5 ms apart, as the STFT hop
     double floor_quantile = 0.1;    ///< the band's noise floor: this quantile of its level over the note
 };
@@ -58,6 +64,32 @@ struct heard_peak_params {
 /// at t = 0 to the new frequency. Returns how many partials moved by more than 0.01 cents.
 int move_to_heard_peaks(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
                         double sample_rate_hz, const heard_peak_params& params);
+
+/// A partial kept by merge_late_companions, its envelope spliced from the group's.
+struct merged_partial {
+    std::size_t index = 0;     ///< in the patch before the merge
+    double fit_start_s = 0.0;  ///< the stretch its envelope stands for, seconds from the onset
+    double fit_end_s = 0.0;
+};
+
+struct merge_result {
+    std::vector<std::size_t> removed;  ///< indices before the merge, ascending
+    std::vector<merged_partial> kept;
+};
+
+/// Two partials closer than one main-lobe half-width of the span (2 / T Hz) make one peak of the
+/// span's spectrum, at a place set by their relative phase and levels; a transposition scales
+/// their beat rate, so that peak does not move by the pitch ratio. Where one of them is a late
+/// companion (its level peaks after companion_start_s: a swell beside a partial, as a second
+/// player of a section in unison, a drum head's split mode or a wandering track gives; two present
+/// from the strike are a beating pair and stay apart), the two are one heard partial: the
+/// stronger over the span (tracks[i]) keeps its frequency (the heard peak) and harmonic; its
+/// envelope is the earlier member's until the later one is first louder, then the later one's
+/// (each as fitted to its own track; the tracker's late fragment of a partial often starts where
+/// the first fragment ends), and its phase the earlier member's; the companions are erased from p.
+/// Only partials with a track take part.
+merge_result merge_late_companions(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
+                                   double sample_rate_hz, const heard_peak_params& params);
 
 /// Adds a partial for each strong peak of the same span spectrum that no partial accounts for
 /// (a mode the tracker missed or fitted far below its level): its level over the whole note from

@@ -32,13 +32,13 @@ MEASURED = {
 # the partial frequencies come from the recording's long spectrum (analysis/heard_peaks); pizzicato_c2
 # was 4.4 cents flat before it.
 ROOT_SHORT = set()
-# Measured to fall short of the to-note item and left open (printed as "short", not failed): the
-# copies' peaks there are blends of two partials closer than a 1 s window resolves (under 2 Hz),
-# which a transposition moves by other than the pitch ratio (their beat rate scales with it).
-# pizzicato_c2: a string section; its harmonics 1, 2 and 5 are each a main partial and a later
-# swell 0.6-1.3 Hz above it (measured 5.8 / 29.9 cents off, fifth up / octave down). timpani_d2:
-# its 222.6 Hz mode is a pair 0.23 Hz apart (measured 1.2 / 0.96 cents).
-TO_NOTE_SHORT = {"pizzicato_c2", "timpani_d2"}
+# Notes measured to fall short of the to-note item (printed as "short", not failed): none since
+# analysis/heard_peaks merges late companions closer than the 1 s span resolves into one partial.
+# Before it, pizzicato_c2 (a string section: harmonics 1, 2 and 5 each a partial and a later track
+# 0.6-1.3 Hz above) measured 5.8 / 29.9 cents off (fifth up / octave down) and timpani_d2 (its
+# 222.6 Hz mode a pair 0.23 Hz apart) 1.2 / 0.96 cents: two components under one main lobe make one
+# peak whose place a transposition moves by other than the pitch ratio (their beat rate scales).
+TO_NOTE_SHORT = set()
 NAMES = ["C", "C#", "D", "D#", "E", "F", "F#", "G", "G#", "A", "A#", "B"]
 
 

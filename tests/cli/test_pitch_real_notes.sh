@@ -4,9 +4,8 @@
 # the README's measured fundamental; an --f0 hint 1% off the fundamental changes the partial count
 # by at most 1; --to-note a fifth up and an octave down puts the 5 strongest partials of the
 # recording, times the pitch ratio, within 1 cent in the render (numpy FFT: tests/cli/pitch_check.py,
-# which states what counts as one of the five strongest partials), on all 17 notes. pizzicato_c2
-# and timpani_d2 are measured shortfalls (blends of partials closer than 2 Hz), printed as "short"
-# and not failed: open shortfalls (pitch_check.TO_NOTE_SHORT says why).
+# which states what counts as one of the five strongest partials), on all 17 notes (pizzicato_c2 and
+# timpani_d2 only since late companions are merged: pitch_check.TO_NOTE_SHORT says what they measured).
 source "$(dirname "$0")/preamble.sh"
 mkdir -p plain hint render
 py=/usr/bin/python3
