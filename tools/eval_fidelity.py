@@ -39,7 +39,8 @@ FRAME_RANGE_DB = 60.0
 RESOLUTIONS = (512, 2048, 8192)
 
 
-def read_mono(path):
+def read_channels(path):
+    """(rate, samples x channels) of a WAV file, scaled to [-1, 1) for integer formats."""
     rate, data = wavfile.read(path)
     if data.dtype == np.int16:
         x = data.astype(np.float64) / 32768.0
@@ -47,9 +48,15 @@ def read_mono(path):
         x = data.astype(np.float64) / 2147483648.0
     else:
         x = data.astype(np.float64)
-    if x.ndim == 2:
-        x = x.mean(axis=1)
+    if x.ndim == 1:
+        x = x[:, None]
     return rate, x
+
+
+def read_mono(path):
+    """(rate, mean of the channels) of a WAV file."""
+    rate, x = read_channels(path)
+    return rate, x.mean(axis=1)
 
 
 def align(rec, copy, rate):

@@ -32,22 +32,9 @@ import scipy.io.wavfile as wavfile
 import scipy.signal as sig
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-from eval_fidelity import RESOLUTIONS, align, lsd  # noqa: E402
+from eval_fidelity import RESOLUTIONS, align, lsd, read_channels  # noqa: E402
 
 BANDS_HZ = (250, 500, 1000, 2000, 4000, 8000)
-
-
-def read(path):
-    rate, data = wavfile.read(path)
-    if data.dtype == np.int16:
-        x = data.astype(np.float64) / 32768.0
-    elif data.dtype == np.int32:
-        x = data.astype(np.float64) / 2147483648.0
-    else:
-        x = data.astype(np.float64)
-    if x.ndim == 1:
-        x = x[:, None]
-    return rate, x
 
 
 def mean_lsd(x, y):
@@ -74,9 +61,9 @@ def corr(left, right):
 def main():
     rec_path, st_path, mono_path = sys.argv[1:4]
     gain_db = float(sys.argv[5]) if len(sys.argv) > 5 and sys.argv[4] == "--gain-db" else 0.0
-    rate, rec = read(rec_path)
-    rate_s, st = read(st_path)
-    rate_m, mono = read(mono_path)
+    rate, rec = read_channels(rec_path)
+    rate_s, st = read_channels(st_path)
+    rate_m, mono = read_channels(mono_path)
     assert rate == rate_s == rate_m, "copies must be rendered at the recording's rate"
     assert rec.shape[1] == 2 and st.shape[1] == 2, "recording and stereo copy must have two channels"
     st = st * 10 ** (-gain_db / 20)

@@ -26,15 +26,8 @@ import numpy as np
 from scipy.io import wavfile
 from scipy.ndimage import median_filter
 
-
-def read_mono(path):
-    rate, x = wavfile.read(path)
-    x = x.astype(np.float64)
-    if x.dtype.kind in "iu" or np.abs(x).max() > 2.0:
-        x = x / 32768.0
-    if x.ndim == 2:
-        x = x.mean(axis=1)
-    return rate, x
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from eval_fidelity import read_mono  # noqa: E402  (one WAV reader for the evaluation scripts)
 
 
 def read_float(path):

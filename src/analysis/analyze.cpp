@@ -84,10 +84,11 @@ double peak_matching_gain_db(const patch& p, std::span<const float> note, double
     return std::min(target_db - copy_db, max_peak_raise_db);
 }
 
-analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
-                             const analysis_params& params) {
-    assert(sample_rate_hz > 0.0);
-    assert(params.max_segments >= 1 && params.max_segments <= max_fit_decay_segments);
+namespace {
+
+/// The samples between params.start_s and params.end_s (0: the end); bad times are analysis errors.
+std::span<const float> analysed_part(std::span<const float> samples, double sample_rate_hz,
+                                     const analysis_params& params) {
     const double file_s = static_cast<double>(samples.size()) / sample_rate_hz;
     if (params.start_s < 0.0 || params.end_s < 0.0)
         throw analysis_error("start and end times must not be negative");
@@ -101,17 +102,16 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     std::size_t last = samples.size();
     if (params.end_s > 0.0)
         last = std::min(last, static_cast<std::size_t>(std::llround(params.end_s * sample_rate_hz)));
-    const std::span<const float> part = samples.subspan(first, last - first);
+    return samples.subspan(first, last - first);
+}
 
-    analysis_result out;
-    out.tracking = track_note(part, sample_rate_hz, params.tracking);
-    const tracking_result& tr = out.tracking;
-
-    const envelope_fit_params fit_params{.max_segments = params.max_segments, .window_s = tr.window_s};
+/// Fits every track's envelope into out.value's partials (in track order; tracks whose fit fails
+/// are counted as unfitted) and returns, per partial, its track and fitted stretch.
+std::vector<cut_part> fit_tracks(analysis_result& out, const envelope_fit_params& fit_params) {
     patch& p = out.value;
     double sq_error = 0.0, frames = 0.0;
     std::vector<cut_part> fitted;  // per partial: its track and fitted stretch (env set later)
-    for (const partial_track& track : tr.tracks) {
+    for (const partial_track& track : out.tracking.tracks) {
         const auto fit = fit_partial(track, fit_params);
         // A fit whose peak lies beyond what the format holds is no partial of this note.
         if (!fit || fit->env.peak.db > max_peak_db) {
@@ -125,10 +125,28 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         sq_error += fit->weighted_sq_error_db2;
         frames += fit->weight_sum;
     }
-    out.summary.tracks = static_cast<int>(tr.tracks.size());
+    out.summary.tracks = static_cast<int>(out.tracking.tracks.size());
     out.summary.partials = static_cast<int>(p.partials.size());
     if (p.partials.empty()) throw analysis_error("no partial stays clear of the noise floor long enough to fit");
     out.summary.fit_error_db = frames > 0.0 ? std::sqrt(sq_error / frames) : 0.0;
+    return fitted;
+}
+
+}  // namespace
+
+analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
+                             const analysis_params& params) {
+    assert(sample_rate_hz > 0.0);
+    assert(params.max_segments >= 1 && params.max_segments <= max_fit_decay_segments);
+    const std::span<const float> part = analysed_part(samples, sample_rate_hz, params);
+
+    analysis_result out;
+    out.tracking = track_note(part, sample_rate_hz, params.tracking);
+    const tracking_result& tr = out.tracking;
+
+    const envelope_fit_params fit_params{.max_segments = params.max_segments, .window_s = tr.window_s};
+    std::vector<cut_part> fitted = fit_tracks(out, fit_params);
+    patch& p = out.value;
 
     const auto onset_frame = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
     if (params.long_spectrum && onset_frame < part.size()) {

@@ -26,6 +26,80 @@ std::complex<double> geometric_sum(std::complex<double> a, double count) {
     return complex_expm1(count * a) / complex_expm1(a);
 }
 
+namespace {
+
+/// The Gram matrix of the model's real columns for modes with sample shapes `own` and angular
+/// frequencies `omega` (rad per sample), in closed form (2K x 2K, K = own.size()).
+Eigen::MatrixXd shape_gram(std::span<const mode_shape> own, std::span<const double> omega) {
+    const auto k_count = own.size();
+    // Unknowns: theta = [a_0, b_0, a_1, b_1, ...] with amp_k = a_k + i b_k, so the model's columns
+    // are u_k[n] = Re p_k[n] and v_k[n] = -Im p_k[n]. With p = p_j[n], q = p_k[n]:
+    //   Re p Re q = Re(p q + p conj q) / 2,  Im p Im q = Re(p conj q - p q) / 2,
+    //   Re p Im q = Im(p q - p conj q) / 2,  Im p Re q = Im(p q + p conj q) / 2,
+    // and sum p q = sum a_j a_k exp(i (w_j + w_k) n), sum p conj q the same with w_j - w_k.
+    const auto dim = static_cast<Eigen::Index>(2 * k_count);
+    Eigen::MatrixXd gram(dim, dim);
+    for (std::size_t j = 0; j < k_count; ++j) {
+        for (std::size_t k = j; k < k_count; ++k) {
+            const std::complex<double> s_pq = shape_pair_sum(own[j], own[k], {0.0, omega[j] + omega[k]});
+            const std::complex<double> s_pcq = shape_pair_sum(own[j], own[k], {0.0, omega[j] - omega[k]});
+            const double uu = 0.5 * (s_pq.real() + s_pcq.real());
+            const double vv = 0.5 * (s_pcq.real() - s_pq.real());
+            const double u_j_im_k = 0.5 * (s_pq.imag() - s_pcq.imag());  // sum Re p_j Im p_k
+            const double im_j_u_k = 0.5 * (s_pq.imag() + s_pcq.imag());  // sum Im p_j Re p_k
+            const auto a_j = static_cast<Eigen::Index>(2 * j), a_k = static_cast<Eigen::Index>(2 * k);
+            gram(a_j, a_k) = uu;
+            gram(a_j + 1, a_k + 1) = vv;
+            gram(a_j, a_k + 1) = -u_j_im_k;
+            gram(a_j + 1, a_k) = -im_j_u_k;
+            gram(a_k, a_j) = uu;
+            gram(a_k + 1, a_j + 1) = vv;
+            gram(a_k + 1, a_j) = -u_j_im_k;
+            gram(a_k, a_j + 1) = -im_j_u_k;
+        }
+    }
+    return gram;
+}
+
+/// The projections of x on the model's real columns (2K), phasors re-anchored every 512 samples.
+Eigen::VectorXd shape_projections(std::span<const float> x, double sample_rate_hz, std::span<const damped_mode> modes,
+                                  std::span<const mode_shape> shapes, std::span<const mode_shape> own,
+                                  std::span<const double> omega) {
+    const auto k_count = modes.size();
+    const auto n_count = x.size();
+    const auto dim = static_cast<Eigen::Index>(2 * k_count);
+    // Projections sum_n x[n] u_k[n], sum_n x[n] v_k[n]: sum x[n] a_k[n] exp(i w_k n).
+    constexpr std::size_t anchor = 512;
+    Eigen::VectorXd rhs(dim);
+    std::vector<double> weighted(n_count);
+    std::vector<double> amp;
+    for (std::size_t k = 0; k < k_count; ++k) {
+        // A decaying mode: x times its damped phasor; a shaped one: x times its samples, times the
+        // phasor. The phasor is re-anchored from the exact power every anchor samples.
+        const bool plain = shapes[k].empty();
+        const double rho = plain ? -modes[k].decay_per_s / sample_rate_hz : 0.0;
+        if (plain) {
+            for (std::size_t n = 0; n < n_count; ++n) weighted[n] = double(x[n]);
+        } else {
+            shape_samples(own[k], n_count, amp);
+            for (std::size_t n = 0; n < n_count; ++n) weighted[n] = double(x[n]) * amp[n];
+        }
+        const std::complex<double> z = std::exp(std::complex<double>{rho, omega[k]});
+        std::complex<double> p{1.0, 0.0}, acc{};
+        for (std::size_t n = 0; n < n_count; ++n) {
+            if (n % anchor == 0)
+                p = std::exp(std::complex<double>{rho * static_cast<double>(n), std::remainder(omega[k] * static_cast<double>(n), two_pi)});
+            acc += weighted[n] * p;
+            p *= z;
+        }
+        rhs(static_cast<Eigen::Index>(2 * k)) = acc.real();
+        rhs(static_cast<Eigen::Index>(2 * k + 1)) = -acc.imag();
+    }
+    return rhs;
+}
+
+}  // namespace
+
 double fit_mode_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
                            double ridge_rel) {
     const std::vector<mode_shape> none(modes.size());
@@ -54,67 +128,16 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
         assert(std::all_of(own[k].begin(), own[k].end(),
                            [&](const shape_piece& piece) { return piece.start + piece.count <= n_count; }));
     }
-    // Unknowns: theta = [a_0, b_0, a_1, b_1, ...] with amp_k = a_k + i b_k, so the model's columns
-    // are u_k[n] = Re p_k[n] and v_k[n] = -Im p_k[n]. With p = p_j[n], q = p_k[n]:
-    //   Re p Re q = Re(p q + p conj q) / 2,  Im p Im q = Re(p conj q - p q) / 2,
-    //   Re p Im q = Im(p q - p conj q) / 2,  Im p Re q = Im(p q + p conj q) / 2,
-    // and sum p q = sum a_j a_k exp(i (w_j + w_k) n), sum p conj q the same with w_j - w_k.
-    const auto dim = static_cast<Eigen::Index>(2 * k_count);
-    Eigen::MatrixXd gram(dim, dim);
-    for (std::size_t j = 0; j < k_count; ++j) {
-        for (std::size_t k = j; k < k_count; ++k) {
-            const std::complex<double> s_pq = shape_pair_sum(own[j], own[k], {0.0, omega[j] + omega[k]});
-            const std::complex<double> s_pcq = shape_pair_sum(own[j], own[k], {0.0, omega[j] - omega[k]});
-            const double uu = 0.5 * (s_pq.real() + s_pcq.real());
-            const double vv = 0.5 * (s_pcq.real() - s_pq.real());
-            const double u_j_im_k = 0.5 * (s_pq.imag() - s_pcq.imag());  // sum Re p_j Im p_k
-            const double im_j_u_k = 0.5 * (s_pq.imag() + s_pcq.imag());  // sum Im p_j Re p_k
-            const auto a_j = static_cast<Eigen::Index>(2 * j), a_k = static_cast<Eigen::Index>(2 * k);
-            gram(a_j, a_k) = uu;
-            gram(a_j + 1, a_k + 1) = vv;
-            gram(a_j, a_k + 1) = -u_j_im_k;
-            gram(a_j + 1, a_k) = -im_j_u_k;
-            gram(a_k, a_j) = uu;
-            gram(a_k + 1, a_j + 1) = vv;
-            gram(a_k + 1, a_j) = -u_j_im_k;
-            gram(a_k, a_j + 1) = -im_j_u_k;
-        }
-    }
-    // Projections sum_n x[n] u_k[n], sum_n x[n] v_k[n]: sum x[n] a_k[n] exp(i w_k n).
-    constexpr std::size_t anchor = 512;
-    Eigen::VectorXd rhs(dim);
-    std::vector<double> weighted(n_count);
-    std::vector<double> amp;
-    for (std::size_t k = 0; k < k_count; ++k) {
-        // A decaying mode: x times its damped phasor; a shaped one: x times its samples, times the
-        // phasor. The phasor is re-anchored from the exact power every anchor samples.
-        const bool plain = shapes[k].empty();
-        const double rho = plain ? -modes[k].decay_per_s / sample_rate_hz : 0.0;
-        if (plain) {
-            for (std::size_t n = 0; n < n_count; ++n) weighted[n] = double(x[n]);
-        } else {
-            shape_samples(own[k], n_count, amp);
-            for (std::size_t n = 0; n < n_count; ++n) weighted[n] = double(x[n]) * amp[n];
-        }
-        const std::complex<double> z = std::exp(std::complex<double>{rho, omega[k]});
-        std::complex<double> p{1.0, 0.0}, acc{};
-        for (std::size_t n = 0; n < n_count; ++n) {
-            if (n % anchor == 0)
-                p = std::exp(std::complex<double>{rho * static_cast<double>(n), std::remainder(omega[k] * static_cast<double>(n), two_pi)});
-            acc += weighted[n] * p;
-            p *= z;
-        }
-        rhs(static_cast<Eigen::Index>(2 * k)) = acc.real();
-        rhs(static_cast<Eigen::Index>(2 * k + 1)) = -acc.imag();
-    }
+    const Eigen::MatrixXd gram_exact = shape_gram(own, omega);
+    Eigen::MatrixXd gram = gram_exact;
+    const Eigen::VectorXd rhs = shape_projections(x, sample_rate_hz, modes, shapes, own, omega);
     const double ridge = ridge_rel * gram.diagonal().mean();
     gram.diagonal().array() += ridge;
     const Eigen::VectorXd theta = gram.ldlt().solve(rhs);
     for (std::size_t k = 0; k < k_count; ++k)
         modes[k].amp = {theta(static_cast<Eigen::Index>(2 * k)), theta(static_cast<Eigen::Index>(2 * k + 1))};
     // Residual energy = |x|^2 - 2 theta.rhs + theta' G theta (G without the ridge).
-    gram.diagonal().array() -= ridge;
-    const double residual = energy - 2.0 * theta.dot(rhs) + theta.dot(gram * theta);
+    const double residual = energy - 2.0 * theta.dot(rhs) + theta.dot(gram_exact * theta);
     return std::clamp(residual / energy, 0.0, 1.0);
 }
 

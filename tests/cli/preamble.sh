@@ -41,3 +41,16 @@ write_test_pluck() {
     done
   } > "$file"
 }
+# refused LABEL INPUT COPY PATTERN ARGS...: `wane ARGS` exits 1 with one error line matching
+# PATTERN, and leaves INPUT as it was (cmp with COPY, made before).
+refused() {
+  local label=$1 input=$2 copy=$3 pattern=$4
+  shift 4
+  "$wane" "$@" >stdout.txt 2>stderr.txt
+  local rc=$?
+  echo "$label: exit $rc, stderr: $(head -c 200 stderr.txt)"
+  [ "$rc" -eq 1 ] || { echo "FAIL: $label: exit $rc, expected 1"; fail=1; }
+  [ "$(wc -l < stderr.txt)" -eq 1 ] || { echo "FAIL: $label: not one stderr line"; fail=1; }
+  grep -q "^wane: error: .*$pattern" stderr.txt || { echo "FAIL: $label: no refusal message"; fail=1; }
+  cmp -s "$input" "$copy" || { echo "FAIL: $label: $input was modified"; fail=1; }
+}

@@ -15,31 +15,21 @@ ln -s patch.toml patch-link.toml
 ln note.wav note-hard.toml
 ln patch.toml patch-hard.toml
 
-# refused LABEL INPUT COPY ARGS...: exit 1, one error line saying it would overwrite the input,
-# INPUT unchanged (cmp with COPY).
-refused() {
-  local label=$1 input=$2 copy=$3
-  shift 3
-  "$wane" "$@" >stdout.txt 2>stderr.txt
-  local rc=$?
-  echo "$label: exit $rc, stderr: $(head -c 200 stderr.txt)"
-  [ "$rc" -eq 1 ] || { echo "FAIL: $label: exit $rc, expected 1"; fail=1; }
-  [ "$(wc -l < stderr.txt)" -eq 1 ] || { echo "FAIL: $label: not one stderr line"; fail=1; }
-  grep -q '^wane: error: .*overwrite the input' stderr.txt || { echo "FAIL: $label: no refusal message"; fail=1; }
-  cmp -s "$input" "$copy" || { echo "FAIL: $label: $input was modified"; fail=1; }
-}
+# refused_input LABEL INPUT COPY ARGS...: refused (preamble.sh) with the message that it would
+# overwrite the input.
+refused_input() { local l=$1 i=$2 c=$3; shift 3; refused "$l" "$i" "$c" 'overwrite the input' "$@"; }
 
-refused "analyze -o input" note.wav note.copy analyze note.wav -o note.wav
-refused "analyze -o ./sub/../input" note.wav note.copy analyze note.wav -o ./sub/../note.wav
-refused "analyze -o symlink" note.wav note.copy analyze note.wav -o note-link.toml
-refused "analyze -o hard link" note.wav note.copy analyze note.wav -o note-hard.toml
-refused "analyze -o absolute path" note.wav note.copy analyze note.wav -o "$PWD/note.wav"
-refused "render -o input" patch.toml patch.copy render patch.toml -o patch.toml
-refused "render -o symlink" patch.toml patch.copy render patch.toml -o patch-link.wav
-refused "edit -o input" patch.toml patch.copy edit patch.toml -o patch.toml --transpose 7
-refused "edit -o symlink" patch.toml patch.copy edit patch.toml -o patch-link.toml --transpose 7
-refused "edit -o hard link" patch.toml patch.copy edit patch.toml -o patch-hard.toml --transpose 7
-refused "blend -o second input" patch.toml patch.copy blend note-link.toml patch.toml -o patch.toml
+refused_input "analyze -o input" note.wav note.copy analyze note.wav -o note.wav
+refused_input "analyze -o ./sub/../input" note.wav note.copy analyze note.wav -o ./sub/../note.wav
+refused_input "analyze -o symlink" note.wav note.copy analyze note.wav -o note-link.toml
+refused_input "analyze -o hard link" note.wav note.copy analyze note.wav -o note-hard.toml
+refused_input "analyze -o absolute path" note.wav note.copy analyze note.wav -o "$PWD/note.wav"
+refused_input "render -o input" patch.toml patch.copy render patch.toml -o patch.toml
+refused_input "render -o symlink" patch.toml patch.copy render patch.toml -o patch-link.wav
+refused_input "edit -o input" patch.toml patch.copy edit patch.toml -o patch.toml --transpose 7
+refused_input "edit -o symlink" patch.toml patch.copy edit patch.toml -o patch-link.toml --transpose 7
+refused_input "edit -o hard link" patch.toml patch.copy edit patch.toml -o patch-hard.toml --transpose 7
+refused_input "blend -o second input" patch.toml patch.copy blend note-link.toml patch.toml -o patch.toml
 # The links themselves are still links to the inputs.
 [ -L note-link.toml ] && [ -L patch-link.wav ] && [ -L patch-link.toml ] || { echo "FAIL: a link was replaced"; fail=1; }
 # No temporary left anywhere.

@@ -10,17 +10,6 @@ cp note.wav note.html && cp note.wav note.copy
 cp patch.toml patch.copy
 cp patch.toml set/C3_v1_rr1.wav   # a patch whose name is one of the set's samples
 
-refused() {
-  local label=$1 input=$2 copy=$3 pattern=$4
-  shift 4
-  "$wane" "$@" >stdout.txt 2>stderr.txt
-  local rc=$?
-  echo "$label: exit $rc, stderr: $(head -c 200 stderr.txt)"
-  [ "$rc" -eq 1 ] || { echo "FAIL: $label: exit $rc, expected 1"; fail=1; }
-  [ "$(wc -l < stderr.txt)" -eq 1 ] || { echo "FAIL: $label: not one stderr line"; fail=1; }
-  grep -q "^wane: error: .*$pattern" stderr.txt || { echo "FAIL: $label: no refusal message"; fail=1; }
-  cmp -s "$input" "$copy" || { echo "FAIL: $label: $input was modified"; fail=1; }
-}
 # The recording note.html is the input; --report would write note.html beside note.toml.
 refused "analyze --report onto the input" note.html note.copy "overwrite the input" analyze note.html -o note.toml --report
 [ ! -e note.toml ] || { echo "FAIL: a patch was written although the run was refused"; fail=1; }

@@ -15,6 +15,7 @@
 #include "core/patch.hpp"
 #include "io/errors.hpp"
 #include "io/patch_toml.hpp"
+#include "patch_text.hpp"
 #include "test_signals.hpp"
 
 using Catch::Matchers::Contains;
@@ -22,6 +23,7 @@ using Catch::Matchers::StartsWith;
 using Catch::Matchers::WithinAbs;
 namespace fs = std::filesystem;
 using namespace wane;
+using wane::test::with;
 
 namespace {
 
@@ -97,23 +99,7 @@ std::string line_tag(const std::string& text, const std::string& needle) {
     return tag;
 }
 
-/// The text with the first occurrence of `from` replaced by `to`.
-std::string with(std::string text, const std::string& from, const std::string& to) {
-    const std::size_t at = text.find(from);
-    REQUIRE(at != std::string::npos);
-    text.replace(at, from.size(), to);
-    return text;
-}
-
-/// The patch_error message for text (empty when it loads).
-std::string error_of(const std::string& text) {
-    try {
-        (void)parse_patch(text, "pluck.toml");
-    } catch (const patch_error& e) {
-        return e.what();
-    }
-    return {};
-}
+std::string error_of(const std::string& text) { return test::error_of(text, "pluck.toml"); }
 
 /// Expects the text to be refused with a message naming the file, the line of `line_of` and `key`.
 void expect_error(const std::string& text, const std::string& line_of, const std::string& key,

@@ -13,10 +13,12 @@
 #include "core/stereo.hpp"
 #include "io/errors.hpp"
 #include "io/patch_toml.hpp"
+#include "patch_text.hpp"
 
 using Catch::Matchers::Contains;
 using Catch::Matchers::WithinAbs;
 using namespace wane;
+using wane::test::with;
 
 namespace {
 
@@ -54,21 +56,7 @@ peak_db = -40.0
 decay = [ { t60_s = 0.1 } ]
 )";
 
-std::string with(std::string text, const std::string& from, const std::string& to) {
-    const std::size_t at = text.find(from);
-    REQUIRE(at != std::string::npos);
-    text.replace(at, from.size(), to);
-    return text;
-}
-
-std::string error_of(const std::string& text) {
-    try {
-        (void)parse_patch(text, "st.toml");
-    } catch (const patch_error& e) {
-        return e.what();
-    }
-    return {};
-}
+std::string error_of(const std::string& text) { return test::error_of(text, "st.toml"); }
 
 }  // namespace
 
