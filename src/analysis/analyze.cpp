@@ -149,11 +149,12 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     patch& p = out.value;
 
     const auto onset_frame = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
+    heard_span_spectrum heard;  // the recording's spectrum over the heard span, for both steps
     if (params.long_spectrum && onset_frame < part.size()) {
+        heard = heard_spectrum(part.subspan(onset_frame), sample_rate_hz, params.heard_peaks);
         std::vector<const partial_track*> tracks(fitted.size());
         for (std::size_t i = 0; i < fitted.size(); ++i) tracks[i] = fitted[i].track;
-        out.summary.moved_to_heard_peaks =
-            move_to_heard_peaks(p, tracks, part.subspan(onset_frame), sample_rate_hz, params.heard_peaks);
+        out.summary.moved_to_heard_peaks = move_to_heard_peaks(p, tracks, heard, params.heard_peaks);
         // Late companions closer than the span resolves become one partial with their stronger
         // neighbour; fitted follows the patch's indices.
         const merge_result merged =
@@ -176,7 +177,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     // Strong peaks of the recording's long spectrum no track accounts for, after the root (which
     // the tracks decide) and before the onset refinement (which refits their starts too).
     if (params.long_spectrum && onset_frame < part.size()) {
-        out.summary.added_heard_peaks = add_heard_peaks(p, part.subspan(onset_frame), sample_rate_hz,
+        out.summary.added_heard_peaks = add_heard_peaks(p, part.subspan(onset_frame), sample_rate_hz, heard,
                                                         params.heard_peaks, fit_params);
         out.summary.partials = static_cast<int>(p.partials.size());
     }

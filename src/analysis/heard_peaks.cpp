@@ -15,12 +15,7 @@ namespace wane {
 
 namespace {
 
-struct span_spectrum {
-    std::vector<double> mag;  ///< |X[k]| * 2 / sum(w): a steady sinusoid's amplitude at its peak bin
-    double bin_hz = 0.0;
-    double start_s = 0.0;     ///< the span, seconds after the onset
-    double end_s = 0.0;
-};
+using span_spectrum = heard_span_spectrum;
 
 /// Magnitude spectrum of note over [start_s, end_s) under a periodic Hann window, zero padded.
 span_spectrum spectrum_over(std::span<const float> note, double fs, double start_s, double end_s, int zero_padding) {
@@ -142,12 +137,16 @@ double median_mag(const span_spectrum& s, double low_hz, double high_hz) {
 
 }  // namespace
 
-int move_to_heard_peaks(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
-                        double sample_rate_hz, const heard_peak_params& params) {
-    assert(tracks.size() <= p.partials.size());
+heard_span_spectrum heard_spectrum(std::span<const float> note, double sample_rate_hz, const heard_peak_params& params) {
     const auto [start_s, end_s] = span_of(static_cast<double>(note.size()) / sample_rate_hz, params);
-    if (!(end_s > start_s)) return 0;
-    const span_spectrum s = spectrum_over(note, sample_rate_hz, start_s, end_s, params.zero_padding);
+    if (!(end_s > start_s)) return {};
+    return spectrum_over(note, sample_rate_hz, start_s, end_s, params.zero_padding);
+}
+
+int move_to_heard_peaks(patch& p, std::span<const partial_track* const> tracks, const heard_span_spectrum& s,
+                        const heard_peak_params& params) {
+    assert(tracks.size() <= p.partials.size());
+    if (s.mag.empty()) return 0;
     const double capture_hz = capture_hz_of(s, params);
     const double max_ratio = std::pow(2.0, params.max_move_cents / 1200.0);
 
@@ -320,12 +319,10 @@ merge_result merge_late_companions(patch& p, std::span<const partial_track* cons
     return out;
 }
 
-int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz, const heard_peak_params& params,
-                    const envelope_fit_params& fit_params) {
+int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz, const heard_span_spectrum& s,
+                    const heard_peak_params& params, const envelope_fit_params& fit_params) {
     const double note_s = static_cast<double>(note.size()) / sample_rate_hz;
-    const auto [start_s, end_s] = span_of(note_s, params);
-    if (!(end_s > start_s) || params.max_added <= 0) return 0;
-    const span_spectrum s = spectrum_over(note, sample_rate_hz, start_s, end_s, params.zero_padding);
+    if (s.mag.empty() || params.max_added <= 0) return 0;
     const double capture_hz = capture_hz_of(s, params);
     const double lobe_hz = 2.0 / (s.end_s - s.start_s);  // Hann main-lobe half-width
     std::vector<double> amp;

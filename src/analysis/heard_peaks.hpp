@@ -58,12 +58,22 @@ struct heard_peak_params {
     double floor_quantile = 0.1;    ///< the band's noise floor: this quantile of its level over the note
 };
 
+/// The recording's magnitude spectrum over the span (Hann, zero padded), made once for both steps
+/// below. Empty (no bins) when the note is too short for a span.
+struct heard_span_spectrum {
+    std::vector<double> mag;  ///< |X[k]| * 2 / sum(w): a steady sinusoid's amplitude at its peak bin
+    double bin_hz = 0.0;
+    double start_s = 0.0;     ///< the span, seconds after the onset
+    double end_s = 0.0;
+};
+heard_span_spectrum heard_spectrum(std::span<const float> note, double sample_rate_hz, const heard_peak_params& params);
+
 /// Moves partial i (tracks[i] its track; nullptr: left alone) to the strongest local peak of the
 /// Hann-windowed spectrum of note (samples from the onset on) within the capture distance, when
 /// no partial stronger over the span lies within that distance of it, and re-anchors its phase
 /// at t = 0 to the new frequency. Returns how many partials moved by more than 0.01 cents.
-int move_to_heard_peaks(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
-                        double sample_rate_hz, const heard_peak_params& params);
+int move_to_heard_peaks(patch& p, std::span<const partial_track* const> tracks, const heard_span_spectrum& spectrum,
+                        const heard_peak_params& params);
 
 /// A partial kept by merge_late_companions, its envelope spliced from the group's.
 struct merged_partial {
@@ -96,7 +106,8 @@ merge_result merge_late_companions(patch& p, std::span<const partial_track* cons
 /// a narrow band of half-width = the capture distance around the peak (modes/narrowband, note zero
 /// padded so the band's circular wrap falls on silence), fitted like a track (fit_partial with
 /// fit_params), at the peak's frequency. Returns how many were added (appended, harmonic 0).
-int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz, const heard_peak_params& params,
+int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz, const heard_span_spectrum& spectrum,
+                    const heard_peak_params& params,
                     const envelope_fit_params& fit_params);
 
 }  // namespace wane

@@ -133,7 +133,11 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
     const Eigen::VectorXd rhs = shape_projections(x, sample_rate_hz, modes, shapes, own, omega);
     const double ridge = ridge_rel * gram.diagonal().mean();
     gram.diagonal().array() += ridge;
-    const Eigen::VectorXd theta = gram.ldlt().solve(rhs);
+    // Cholesky (blocked: the ridged Gram matrix is positive definite); LDLT with pivoting should
+    // rounding make it fail.
+    const Eigen::LLT<Eigen::MatrixXd> llt(gram);
+    const Eigen::VectorXd theta = llt.info() == Eigen::Success ? Eigen::VectorXd(llt.solve(rhs))
+                                                               : Eigen::VectorXd(gram.ldlt().solve(rhs));
     for (std::size_t k = 0; k < k_count; ++k)
         modes[k].amp = {theta(static_cast<Eigen::Index>(2 * k)), theta(static_cast<Eigen::Index>(2 * k + 1))};
     // Residual energy = |x|^2 - 2 theta.rhs + theta' G theta (G without the ridge).
