@@ -150,7 +150,7 @@ void bench_note(const std::string& name, const std::vector<float>& x, double fs,
         noise_t.push_back(thread_cpu_s() - c0);
         // The band measurement alone (fit_noise_bands runs it first, then fits the bands).
         const double m0 = thread_cpu_s();
-        (void)wane::measure_noise_bands(residual, fs, freqs_hz, params.noise);
+        (void)wane::measure_noise_bands(residual, fs, freqs_hz, 0.0, params.noise);
         measure_t.push_back(thread_cpu_s() - m0);
         if (bands.size() != r.value.noise.size()) std::printf("  (stage run gave %zu noise bands)\n", bands.size());
         // The streamed noise model (fit_note_noise: the residual formed a block at a time).

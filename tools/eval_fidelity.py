@@ -17,7 +17,10 @@ Figures (definitions are ours, stated here; tolerances are chosen by the callers
   spectra P (recording) and Q (copy) over the aligned common length; levels floored at 100 dB
   below the recording's largest bin power; per frame sqrt(mean over bins of (10 log10 P -
   10 log10 Q)^2), averaged over frames whose recording power is within 60 dB of its loudest frame.
-  lsd_db = mean of the three resolutions.
+  lsd_db = mean of the three resolutions. Not `wane compare`'s log-spectral distance (its --help
+  defines that one: bins within 60 dB of the peak only, one RMS over all of them): this one also
+  weighs the quiet floor between the partials and every frame of the tail alike, which is what a
+  benchmark of whole copies needs; tests/cli/test_compare_numpy.sh shows the two parting.
 - snr100_db: 10 log10(sum x^2 / sum (x - y)^2) over the first 100 ms after the aligned onset,
   x the recording and y the partials-only copy.
 - peak_diff_db: peak |sample| of the full copy minus that of the recording (whole files), dB.

@@ -105,7 +105,8 @@ int split_beating_pairs(patch& p, std::span<const float> note, double sample_rat
             const double t60 = decay[i] > 1e-6 ? ln1000 / decay[i] : infinity;
             partial member{.freq_hz = freq[i], .harmonic = q.harmonic, .phase_rad = std::arg(f2.amps[i]),
                            .env = {.attack_s = 0.0, .peak = to_level(amp_lin{amp[i]}),
-                                   .decay = {{.t60_s = t60, .until_s = std::nullopt}}}};
+                                   .decay = {{.t60_s = t60, .until_s = std::nullopt}}},
+                           .place = q.place};
             if (i == strong) out.back() = member;
             else appended.push_back(member);
         }

@@ -25,12 +25,12 @@ bool last_segment_falls(const cut_part& part, const cut_tail_params& params) {
     return -slope * std::max(0.0, part.fit_end_s - last_segment_start_s(*part.env)) >= params.min_fall_db;
 }
 
-/// Least-squares slope of the track's level (dB) over the part's fitted stretch, dB per second.
-std::optional<double> level_slope(const cut_part& part) {
+/// Least-squares slope of the track's level (dB) over [from_s, to_s], dB per second.
+std::optional<double> level_slope(const cut_part& part, double from_s, double to_s) {
     if (part.track == nullptr) return std::nullopt;
     double n = 0.0, st = 0.0, sl = 0.0, stt = 0.0, stl = 0.0;
     for (const track_point& q : part.track->points) {
-        if (q.time_s < part.fit_start_s || q.time_s > part.fit_end_s) continue;
+        if (q.time_s < from_s || q.time_s > to_s) continue;
         n += 1.0;
         st += q.time_s;
         sl += q.level_db;
@@ -43,14 +43,21 @@ std::optional<double> level_slope(const cut_part& part) {
     return (stl - st * sl / n) / var;
 }
 
-/// Rules 1 and 2: the slope the part falls at after the cut, when its own data show one.
+/// Rules 0, 1 and 2: the slope the part falls at after the cut, when its own data show one.
 std::optional<double> own_decay(const cut_part& part, const cut_tail_params& params) {
     const envelope& env = *part.env;
+    // Rule 0: the last part falls, if slowly (the late stage of a two-stage decay, measured on a
+    // stretch too short to fall min_fall_db): it falls on at the slope its track shows there
+    // (the fitted segment's slope without a track).
+    const double last_start_s = last_segment_start_s(env);
+    const auto late = part.track != nullptr ? level_slope(part, last_start_s, part.fit_end_s)
+                                            : std::optional<double>{t60_to_slope_db_per_s(env.decay.back().t60_s)};
+    if (late && steep_enough(*late, params)) return late;
     if (env.decay.size() >= 2) {
         const double before = t60_to_slope_db_per_s(env.decay[env.decay.size() - 2].t60_s);
         if (steep_enough(before, params)) return before;
     }
-    const auto slope = level_slope(part);
+    const auto slope = level_slope(part, part.fit_start_s, part.fit_end_s);
     if (slope && steep_enough(*slope, params)) return slope;
     return std::nullopt;
 }

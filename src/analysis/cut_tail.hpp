@@ -6,6 +6,11 @@
 // min_fall_db over the stretch it was fitted on; otherwise it is a plateau (the level an unfinished
 // or looped recording leaves at its end, or a rising stretch). The plateau is kept up to the cut
 // (the copy stays faithful to what was recorded) and a segment after the cut falls at, in this order,
+//  0. the least-squares slope of the part's measured level over the plateau's own stretch (the
+//     fitted segment's slope for a part without a track), when it falls at least
+//     min_decay_db_per_s: a slow late stage (a piano's or banjo's aftersound) seen over too short
+//     a stretch to fall min_fall_db is what the recording shows at its end, and the early stage's
+//     slope would make the tail die faster than that;
 //  1. the slope of the segment before the plateau, when that one falls: the part that decays;
 //  2. the least-squares slope of the partial's measured level over its fitted stretch, when it falls;
 //  3. the median last slope of the note's falling partials and bands (one resonator, one damping);

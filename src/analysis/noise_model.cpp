@@ -382,13 +382,26 @@ double floor_window_s(std::span<const double> partial_freqs_hz, double f0_hz, co
     return std::clamp(params.floor_window_spacings / spacing_hz, params.min_floor_window_s, params.max_floor_window_s);
 }
 
+std::vector<std::vector<noise_band_track>> measure_noise_bands(std::span<const std::span<const float>> residuals,
+                                                               double sample_rate_hz,
+                                                               std::span<const double> partial_freqs_hz, double f0_hz,
+                                                               const noise_model_params& params) {
+    const band_plan plan = floor_plan(sample_rate_hz, partial_freqs_hz, f0_hz, params);
+    std::vector<std::vector<noise_band_track>> out;
+    for (const std::span<const float> residual : residuals) {
+        const residual_source source = [&](std::size_t first, std::span<float> dest) {
+            std::copy_n(residual.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
+        };
+        out.push_back(measure_bands(residual.size(), source, sample_rate_hz, plan));
+    }
+    return out;
+}
+
 std::vector<noise_band_track> measure_noise_bands(std::span<const float> residual, double sample_rate_hz,
-                                                  std::span<const double> partial_freqs_hz,
+                                                  std::span<const double> partial_freqs_hz, double f0_hz,
                                                   const noise_model_params& params) {
-    const residual_source source = [&](std::size_t first, std::span<float> dest) {
-        std::copy_n(residual.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
-    };
-    return measure_bands(residual.size(), source, sample_rate_hz, floor_plan(sample_rate_hz, partial_freqs_hz, 0.0, params));
+    const std::span<const float> one[] = {residual};
+    return std::move(measure_noise_bands(one, sample_rate_hz, partial_freqs_hz, f0_hz, params).front());
 }
 
 std::vector<noise_band> fit_noise_bands(std::span<const float> residual, double sample_rate_hz,

@@ -81,10 +81,17 @@ struct noise_band_track {
 /// Floor window length for a note with this f0 (0: none) and these partials (rule above), seconds.
 double floor_window_s(std::span<const double> partial_freqs_hz, double f0_hz, const noise_model_params& params);
 
-/// Floor band levels of a residual over time (residual[0] is the onset).
+/// Floor band levels of a residual over time (residual[0] is the onset), with the floor window
+/// the noise model uses for a note of this f0 (0: none; floor_window_s).
 std::vector<noise_band_track> measure_noise_bands(std::span<const float> residual, double sample_rate_hz,
-                                                  std::span<const double> partial_freqs_hz,
+                                                  std::span<const double> partial_freqs_hz, double f0_hz,
                                                   const noise_model_params& params);
+
+/// The same for several residuals of one note (e.g. one per channel), with one plan for all.
+std::vector<std::vector<noise_band_track>> measure_noise_bands(std::span<const std::span<const float>> residuals,
+                                                               double sample_rate_hz,
+                                                               std::span<const double> partial_freqs_hz, double f0_hz,
+                                                               const noise_model_params& params);
 
 /// Fits the floor and attack bands of a residual (of partials that start at their peak; with the
 /// recording, never above its levels); drops attack bands too quiet to matter (keep_within_db re

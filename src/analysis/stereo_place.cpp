@@ -171,10 +171,8 @@ std::vector<float> channel_residual(const patch& p, channel_side side, std::span
     return out;
 }
 
-/// Band powers (sum over frames of 10^(level/10)) of a residual, one per band.
-std::vector<double> band_powers(std::span<const float> residual, double sample_rate_hz, std::span<const double> freqs_hz,
-                                const noise_model_params& params, std::vector<noise_band_track>& tracks) {
-    tracks = measure_noise_bands(residual, sample_rate_hz, freqs_hz, params);
+/// Band powers (sum over frames of 10^(level/10)) of each track.
+std::vector<double> band_powers(const std::vector<noise_band_track>& tracks) {
     std::vector<double> out;
     for (const noise_band_track& t : tracks) {
         double sum = 0.0;
@@ -195,10 +193,13 @@ void place_noise(patch& p, std::span<const float> left, std::span<const float> r
     for (std::size_t i = 0; i < n; ++i) res_m[i] = 0.5f * (res_l[i] + res_r[i]);
     std::vector<double> freqs;
     for (const partial& q : p.partials) freqs.push_back(q.freq_hz);
-    std::vector<noise_band_track> tracks;
-    const std::vector<double> pl = band_powers(res_l, sample_rate_hz, freqs, params.noise, tracks);
-    const std::vector<double> pr = band_powers(res_r, sample_rate_hz, freqs, params.noise, tracks);
-    const std::vector<double> pm = band_powers(res_m, sample_rate_hz, freqs, params.noise, tracks);
+    // One measurement plan for the three (the floor window the mono noise model used: the note's f0).
+    const std::span<const float> residuals[] = {res_l, res_r, res_m};
+    const auto measured = measure_noise_bands(residuals, sample_rate_hz, freqs, p.note.f0_hz, params.noise);
+    const std::vector<noise_band_track>& tracks = measured[0];
+    const std::vector<double> pl = band_powers(measured[0]);
+    const std::vector<double> pr = band_powers(measured[1]);
+    const std::vector<double> pm = band_powers(measured[2]);
     constexpr double same_edge_hz = 0.5;
     for (noise_band& b : p.noise) {
         for (std::size_t i = 0; i < tracks.size(); ++i) {

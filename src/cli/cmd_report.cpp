@@ -13,6 +13,7 @@
 #include "io/atomic_file.hpp"
 #include "io/audio_file.hpp"
 #include "io/patch_toml.hpp"
+#include "measure/channel_compare.hpp"
 #include "measure/compare.hpp"
 #include "report/report.hpp"
 #include "synthesis/render.hpp"
@@ -49,6 +50,15 @@ std::vector<float> placed_in_source(std::span<const float> x, double at_s, const
     return out;
 }
 
+/// The mean of equal-length channels, sample by sample.
+std::vector<float> mean_of(const std::vector<std::vector<float>>& channels) {
+    std::vector<float> out(channels.front().size(), 0.0f);
+    const auto scale = static_cast<float>(1.0 / static_cast<double>(channels.size()));
+    for (const std::vector<float>& c : channels)
+        for (std::size_t n = 0; n < out.size(); ++n) out[n] += scale * c[n];
+    return out;
+}
+
 /// Longest source a report draws (our choice, no source): the page embeds the source and the
 /// render as audio and a spectrogram, about 8 MB and 40 MB of memory per minute at 48 kHz (a
 /// 30-minute input took 1.04 GB and wrote a 231 MB page); 300 s keeps a page under about 40 MB.
@@ -69,9 +79,17 @@ double max_report_input_s() { return default_max_report_s; }
 void write_analysis_report(const mono_audio& source, const std::filesystem::path& source_path, const patch& p,
                            const tracking_result* tracking, const std::filesystem::path& patch_path,
                            const std::filesystem::path& out_path, double top_hz) {
-    const std::vector<float> render = render_patch(p, {.sample_rate_hz = source.sample_rate_hz});
+    // A stereo patch of a stereo source: both channels rendered, the page's other sections show
+    // the mixes (the mean of the channels) and the stereo section each channel.
+    const bool stereo = is_stereo(p) && source.channels.size() == 2;
+    const std::vector<std::vector<float>> copy_channels = stereo ? render_channels(p, {.sample_rate_hz = source.sample_rate_hz})
+                                                                 : std::vector<std::vector<float>>{};
+    const std::vector<float> render =
+        stereo ? mean_of(copy_channels) : render_patch(p, {.sample_rate_hz = source.sample_rate_hz});
     // The loudness rule of every command that renders (cli/loudness.hpp).
-    refuse_too_loud(peak_abs(render), patch_path.string());
+    double loudest = peak_abs(render);
+    for (const std::vector<float>& c : copy_channels) loudest = std::max(loudest, peak_abs(c));
+    refuse_too_loud(loudest, patch_path.string());
     // The render starts at the onset; the source is compared from just before the patch's onset
     // (so a patch made with --start-s meets its own note), and compare_signals aligns the two.
     const std::span<const float> note = from_patch_onset(source, p);
@@ -87,7 +105,19 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
     // from_s - lag in the source file; without a comparison, at the patch's onset.
     const double copy_at_s = comparison ? from_s - static_cast<double>(comparison->align.lag_frames) / source.sample_rate_hz
                                         : p.source.onset_s;
-    const std::vector<float> partials = render_patch(p, {.sample_rate_hz = source.sample_rate_hz, .include_noise = false});
+    const render_params partials_only{.sample_rate_hz = source.sample_rate_hz, .include_noise = false};
+    const std::vector<float> partials = stereo ? mean_of(render_channels(p, partials_only)) : render_patch(p, partials_only);
+    std::optional<channel_comparison> channels;
+    if (stereo && comparison) {
+        const std::size_t from = source.samples.size() - note.size();
+        try {
+            channels = compare_channels(std::span<const float>(source.channels[0]).subspan(from),
+                                        std::span<const float>(source.channels[1]).subspan(from), copy_channels[0],
+                                        copy_channels[1], source.sample_rate_hz, *comparison, {});
+        } catch (const analysis_error& e) {
+            warn(source_path.string() + ": no per-channel comparison: " + e.what());
+        }
+    }
     std::vector<float> noise(render.size());
     for (std::size_t n = 0; n < render.size(); ++n) noise[n] = render[n] - partials[n];
     const std::vector<float> copy_in_source = placed_in_source(render, copy_at_s, source);
@@ -109,6 +139,7 @@ void write_analysis_report(const mono_audio& source, const std::filesystem::path
                      .comparison = comparison ? &*comparison : nullptr,
                      .comparison_note = comparison_note,
                      .comparison_from_s = from_s,
+                     .stereo = channels ? &*channels : nullptr,
                      .max_plot_freq_hz = top_hz};
     write_file_atomic(out_path, make_report_html(in));
 }
@@ -138,7 +169,7 @@ void add_report_command(CLI::App& app, command_registry& reg) {
         if (!(opt->top_hz >= 0.0 && std::isfinite(opt->top_hz))) {
             throw usage_error("--top-hz " + short_num(opt->top_hz) + ": must be 0 (the Nyquist frequency) or a positive frequency in Hz");
         }
-        const mono_audio source = read_audio(opt->source_path, {.max_length_s = opt->max_input_s});
+        const mono_audio source = read_audio(opt->source_path, {.keep_stereo = true, .max_length_s = opt->max_input_s});
         const patch_read_result r = read_patch_file(opt->patch_path);
         warn_all(r.warnings);
         const patch& p = r.value;

@@ -17,14 +17,7 @@ std::string num_or_null(double v, const char* fmt) { return std::isfinite(v) ? p
 
 stereo_compare compare_stereo(const mono_audio& a, const mono_audio& b, const compare_result& mix,
                               const compare_params& params) {
-    stereo_compare s;
-    s.left = compare_signals(a.channels[0], b.channels[0], a.sample_rate_hz, params);
-    s.right = compare_signals(a.channels[1], b.channels[1], a.sample_rate_hz, params);
-    const std::size_t onset_a = mix.align.onset_a_frames;
-    const std::ptrdiff_t onset_b = static_cast<std::ptrdiff_t>(onset_a) + mix.align.lag_frames;
-    s.a = inter_channel(a.channels[0], a.channels[1], a.sample_rate_hz, onset_a);
-    s.b = inter_channel(b.channels[0], b.channels[1], b.sample_rate_hz, static_cast<std::size_t>(std::max<std::ptrdiff_t>(0, onset_b)));
-    return s;
+    return compare_channels(a.channels[0], a.channels[1], b.channels[0], b.channels[1], a.sample_rate_hz, mix, params);
 }
 
 std::string stereo_table(const stereo_compare& s) {

@@ -5,17 +5,12 @@
 #include <string>
 
 #include "io/audio_file.hpp"
+#include "measure/channel_compare.hpp"
 #include "measure/compare.hpp"
-#include "measure/inter_channel.hpp"
 
 namespace wane::cli {
 
-struct stereo_compare {
-    compare_result left;
-    compare_result right;
-    inter_channel_figures a;  ///< the reference's, from its onset
-    inter_channel_figures b;  ///< the other's, from the same instant (aligned on the mix)
-};
+using stereo_compare = channel_comparison;
 
 /// a and b hold two channels each (mono_audio::channels), at the same rate; mix is the comparison
 /// of their mixes (its alignment places b's channels).

@@ -37,6 +37,16 @@ std::string display(const std::string& path) {
 
 namespace {
 
+/// "(" + text + ")", built by appending (GCC 12 gives a false -Wrestrict for "(" + std::string).
+std::string in_parens(const std::string& text) {
+    std::string out;
+    out.reserve(text.size() + 2);
+    out.push_back('(');
+    out.append(text);
+    out.push_back(')');
+    return out;
+}
+
 // ---------------------------------------------------------------------------------------------
 // The rules, over the model (used by the reader with source positions, by the writer without).
 
@@ -102,7 +112,7 @@ struct validator {
             const double until_s = *seg.until_s;
             finite(seg_path + ".until_s", until_s);
             if (!(until_s > prev_end_s)) {
-                fail(seg_path + ".until_s", "(" + show(until_s) + ") must be after " + prev_name + " (" +
+                fail(seg_path + ".until_s", in_parens(show(until_s)) + " must be after " + prev_name + " (" +
                                                 show(prev_end_s) + ")");
             }
             within(seg_path + ".until_s", until_s, 0.0, max_length_s, " s");
@@ -182,7 +192,7 @@ struct validator {
             within(base + ".low_hz", b.low_hz, 0.0, max_freq_hz, " Hz");
             finite(base + ".high_hz", b.high_hz);
             if (!(b.high_hz > b.low_hz)) {
-                fail(base + ".high_hz", "(" + show(b.high_hz) + ") must be above low_hz (" + show(b.low_hz) + ")");
+                fail(base + ".high_hz", in_parens(show(b.high_hz)) + " must be above low_hz (" + show(b.low_hz) + ")");
             }
             within(base + ".high_hz", b.high_hz, 0.0, max_freq_hz, " Hz");
             check_envelope(base, b.env);

@@ -27,7 +27,11 @@ std::vector<std::pair<std::string, std::string>> figure_definitions() {
          "sqrt(mean of (10 log10 P_copy - 10 log10 P_recording)^2) over STFT bins within " +
              printf_text("%.0f", d.spectral.range_db) + " dB of the recording's peak, Hann window, sizes " + sizes +
              ", hop = size/" + std::to_string(d.spectral.hop_divisor) +
-             ", averaged over the sizes; in dB, 0 = the same spectra, larger = further apart"},
+             ", averaged over the sizes; in dB, 0 = the same spectra, larger = further apart. It judges what is "
+             "loud: a pure gain error of g dB gives g dB, and the floor more than 60 dB down does not count. "
+             "(The benchmark's figure, tools/eval_fidelity.py, is another: per-frame RMS over every bin floored "
+             "100 dB down, averaged over frames; it also weighs the quiet floor and the tail, so the two can rank "
+             "copies differently.)"},
         {"onset SNR", "10 log10(sum a^2 / sum (a - b)^2) over the first " + printf_text("%.0f", 1000.0 * d.early_window_s) +
                           " ms after the recording's onset, sample by sample after alignment; in dB, larger = closer "
                           "(it counts phase: two sounds with the same spectrum and other phases score near 0 dB)"},

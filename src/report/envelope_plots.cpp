@@ -156,7 +156,7 @@ void write_noise(std::ostringstream& h, const report_inputs& in) {
         for (std::size_t n = 0; n < residual.size(); ++n) residual[n] -= in.partials_in_source[onset + n];
         std::vector<double> freqs;
         for (const partial& q : p.partials) freqs.push_back(q.freq_hz);
-        measured = measure_noise_bands(residual, in.source_rate_hz, freqs, {});
+        measured = measure_noise_bands(residual, in.source_rate_hz, freqs, p.note.f0_hz, {});
     }
     h << "<p class='note'>Every band's level in the source minus the copy's partials (measured as the analysis measures "
       << "it: Hann window, bins near a partial left out), wide sky blue; the band's envelope in the patch, thin vermilion, "

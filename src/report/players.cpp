@@ -82,6 +82,14 @@ constexpr const char* solo_script = R"JS(
     let peak = 0;
     for (const v of render(data.partials[0])) peak = Math.max(peak, Math.abs(v));
     document.body.dataset.soloPeakDb = (20 * Math.log10(Math.max(peak, 1e-10))).toFixed(2);
+    // And samples of the first 8 partials at 64 instants spread over the note (k = 0 and then
+    // every n/64), for a test to hold against the C++ renderer's render of each partial alone.
+    const n = Math.round(data.length_s * data.rate_hz), at = [];
+    for (let j = 0; j < 64; j++) at.push(Math.floor(j * n / 64) + (j % 7));
+    document.body.dataset.soloSamples = JSON.stringify(data.partials.slice(0, 8).map(function (q) {
+      const x = render(q);
+      return at.map(function (k) { return [k, x[k]]; });
+    }));
   }
   document.body.dataset.ready = 'yes';
 })();

@@ -48,7 +48,7 @@ void write_summary(std::ostringstream& h, const report_inputs& in) {
     h << "<section id='summary'><h1>" << escape_html(in.title) << "</h1>\n<nav>"
       << "<a href='#spectrogram'>spectrograms</a> · <a href='#onset'>onset</a> · <a href='#envelopes'>envelopes</a> · "
       << "<a href='#noise'>noise bands</a> · <a href='#patch'>patch</a> · <a href='#compare'>source versus copy</a> · "
-      << "<a href='#listen'>listen</a>"
+      << (in.stereo != nullptr ? "<a href='#stereo'>channels</a> · " : "") << "<a href='#listen'>listen</a>"
       << "</nav>\n<table class='facts'>";
     auto row = [&](const std::string& k, const std::string& v) {
         h << "<tr><th>" << escape_html(k) << "</th><td>" << escape_html(v) << "</td></tr>";
@@ -160,6 +160,7 @@ std::string make_report_html(const report_inputs& in) {
     report_sections::write_noise(h, in);
     h << "<section id='patch'><h2>Patch</h2><pre>" << escape_html(in.info_table) << "</pre></section>\n";
     write_compare(h, in);
+    report_sections::write_stereo(h, in);
     report_sections::write_listen(h, in);
     h << "</body></html>\n";
     return h.str();

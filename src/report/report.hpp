@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "core/patch.hpp"
+#include "measure/channel_compare.hpp"
 #include "measure/compare.hpp"
 #include "report/media.hpp"
 #include "spectrum/spectrogram.hpp"
@@ -48,12 +49,15 @@ struct report_inputs {
     const compare_result* comparison = nullptr;
     std::string comparison_note;                 ///< why there is no comparison, when null
     double comparison_from_s = 0.0;  ///< where in the source file the compared audio (a) starts
+    /// A stereo source and copy: each channel against the same channel and the inter-channel
+    /// figures (a section 'stereo' after 'compare'); null for a mono one.
+    const channel_comparison* stereo = nullptr;
     int envelope_group = 16;  ///< envelope plots per group (every partial is drawn)
     double max_plot_freq_hz = 0.0;  ///< top of the spectrograms; 0 = the source's Nyquist frequency
 };
 
 /// The whole HTML page. Sections in order, by id: summary, spectrogram, onset, envelopes, noise,
-/// patch, compare, listen. The summary holds the headline figure (id 'headline') and the
+/// patch, compare, (stereo, when in.stereo), listen. The summary holds the headline figure (id 'headline') and the
 /// difference sentences (<li class='difference'>). Each envelope plot is an <svg class='envelope'> with data-freq-hz (the
 /// partial) and data-track-freq-hz (track_frequency_hz of the measured track drawn, absent when no
 /// track matched).

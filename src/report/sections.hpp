@@ -17,6 +17,9 @@ void write_onset(std::ostringstream& h, const report_inputs& in);
 void write_envelopes(std::ostringstream& h, const report_inputs& in);
 /// Every noise band's measured level and fitted envelope (envelope_plots.cpp).
 void write_noise(std::ostringstream& h, const report_inputs& in);
+/// Each channel against the same channel, and the figures between the channels, for a stereo
+/// source and copy (report_inputs::stereo; nothing when it is null) (stereo_section.cpp).
+void write_stereo(std::ostringstream& h, const report_inputs& in);
 /// The players and the script that renders one partial on demand (players.cpp).
 void write_listen(std::ostringstream& h, const report_inputs& in);
 

@@ -8,6 +8,7 @@
 #include <cassert>
 #include <cmath>
 #include <memory>
+#include <optional>
 #include <vector>
 
 #include "core/noise_bands.hpp"
@@ -54,6 +55,7 @@ struct band_bins {
     double peak_lin = 0.0;
     std::size_t piece = 0;
     std::uint64_t pool_seed = 0;  ///< seed of this band's unit frames
+    std::optional<std::uint64_t> own_pool_seed;  ///< a stereo channel's own noise (see make_pool)
     bool pool_ready = false;
 };
 
@@ -84,18 +86,30 @@ void add_windowed(float* __restrict out, const float* __restrict frame, const fl
 /// The band's pool: pool_frames periodic unit frames of n_fft samples, each stored twice in a row
 /// (2 n_fft floats), so a frame at any circular shift s is the contiguous [s, s + n_fft).
 /// Each is the unnormalized inverse real FFT of unit-magnitude bins with random phases inside the
-/// band (bins first .. first + count - 1), zero elsewhere.
+/// band (bins first .. first + count - 1), zero elsewhere. With an own seed (a stereo channel)
+/// every bin is sqrt(c) e^(j a) + sqrt(1 - c) e^(j b), c the band's coherence, a drawn from the
+/// shared pool seed (the same in every channel) and b from the own one: by linearity the frame of
+/// the shared noise at power c plus the channel's own at 1 - c, for one inverse FFT.
 void make_pool(const band_bins& b, int n_fft, kiss_fftr_cfg plan, std::span<kiss_fft_cpx> spectrum,
                std::span<float> pool) {
     static const unit_phasors phasors;
     const auto n = static_cast<std::size_t>(n_fft);
     assert(pool.size() == static_cast<std::size_t>(pool_frames) * 2 * n);
     splitmix64 rng{b.pool_seed};
+    splitmix64 own_rng{b.own_pool_seed.value_or(0)};
+    const double c = b.own_pool_seed ? std::clamp(b.band->coherence, 0.0, 1.0) : 1.0;
+    const auto shared_gain = static_cast<float>(std::sqrt(c));
+    const auto own_gain = static_cast<float>(std::sqrt(1.0 - c));
     for (int j = 0; j < pool_frames; ++j) {
         std::fill(spectrum.begin(), spectrum.end(), kiss_fft_cpx{0.0f, 0.0f});
         for (int k = 0; k < b.count; ++k) {
             const std::size_t idx = static_cast<std::size_t>(rng.next() >> (64 - phase_table_bits));
-            spectrum[static_cast<std::size_t>(b.first) + static_cast<std::size_t>(k)] = {phasors.re[idx], phasors.im[idx]};
+            kiss_fft_cpx bin{phasors.re[idx], phasors.im[idx]};
+            if (b.own_pool_seed) {
+                const std::size_t own = static_cast<std::size_t>(own_rng.next() >> (64 - phase_table_bits));
+                bin = {shared_gain * bin.r + own_gain * phasors.re[own], shared_gain * bin.i + own_gain * phasors.im[own]};
+            }
+            spectrum[static_cast<std::size_t>(b.first) + static_cast<std::size_t>(k)] = bin;
         }
         float* unit = pool.data() + static_cast<std::size_t>(j) * 2 * n;
         kiss_fftri(plan, spectrum.data(), unit);
@@ -117,12 +131,15 @@ std::vector<float> periodic_hann(int n_fft, double& window_power_sum) {
 }
 
 /// Bins of each band: centres in [low, high), DC and Nyquist excluded; at least one bin. Draws
-/// one pool seed per band from rng, in band order (also for a band left out above Nyquist).
-std::vector<band_bins> band_layout(std::span<const noise_band> bands, splitmix64& rng, double bin_hz,
-                                   double nyquist_hz, int n_bins) {
+/// one pool seed per band from rng, in band order (also for a band left out above Nyquist), and
+/// likewise an own pool seed per band from own_rng when there is one.
+std::vector<band_bins> band_layout(std::span<const noise_band> bands, splitmix64& rng,
+                                   std::optional<splitmix64>& own_rng, double bin_hz, double nyquist_hz, int n_bins) {
     std::vector<band_bins> layout;
     for (const noise_band& b : bands) {
         const std::uint64_t pool_seed = rng.next();
+        std::optional<std::uint64_t> own_pool_seed;
+        if (own_rng) own_pool_seed = own_rng->next();
         const double high_hz = std::min(b.high_hz, nyquist_hz);
         if (b.low_hz >= high_hz) continue;
         int first = std::max(1, static_cast<int>(std::ceil(b.low_hz / bin_hz)));
@@ -132,7 +149,8 @@ std::vector<band_bins> band_layout(std::span<const noise_band> bands, splitmix64
             last = first;
         }
         layout.push_back({.first = first, .count = last - first + 1, .band = &b, .pieces = envelope_pieces(b.env),
-                          .peak_lin = to_amp(b.env.peak).lin, .pool_seed = pool_seed});
+                          .peak_lin = to_amp(b.env.peak).lin, .pool_seed = pool_seed,
+                          .own_pool_seed = own_pool_seed});
     }
     return layout;
 }
@@ -162,7 +180,9 @@ void add_noise_bands(std::span<const noise_band> bands, const noise_render_param
     // order up front, so a band's noise does not depend on when (or whether) others sound.
     splitmix64 rng{params.seed};
 
-    std::vector<band_bins> layout = band_layout(bands, rng, bin_hz, nyquist_hz, n_bins);
+    std::optional<splitmix64> own_rng;
+    if (params.own_seed) own_rng.emplace(*params.own_seed);
+    std::vector<band_bins> layout = band_layout(bands, rng, own_rng, bin_hz, nyquist_hz, n_bins);
     if (layout.empty()) return;
 
     const auto n = static_cast<std::size_t>(n_fft);

@@ -19,6 +19,7 @@
 #pragma once
 
 #include <cstdint>
+#include <optional>
 #include <span>
 
 #include "core/patch.hpp"
@@ -29,6 +30,12 @@ struct noise_render_params {
     double sample_rate_hz = 48000.0;
     double gain_db = 0.0;        ///< applied to every band
     std::uint64_t seed = 1;
+    /// A channel of a stereo render: each band plays sqrt(coherence) of the shared noise (the
+    /// pools of `seed`, the same in every channel) plus sqrt(1 - coherence) of noise of its own
+    /// (pools drawn from this seed), mixed in the band's unit frames (one inverse FFT per pool
+    /// frame), so a channel costs what a mono render costs. The frames' shifts come from `seed`
+    /// for both parts. Empty: the shared noise alone at full power (the mono render).
+    std::optional<std::uint64_t> own_seed = std::nullopt;
     /// Frame length in seconds (rounded up to a power of two in samples); ~21 ms: short enough
     /// for attack transients, long enough for several bins in the lowest band.
     double frame_s = 0.0213;

@@ -12,6 +12,7 @@
 #include <cstddef>
 #include <cstdint>
 #include <memory>
+#include <optional>
 #include <span>
 #include <vector>
 
@@ -26,6 +27,9 @@ struct render_params {
     bool include_noise = true;
     double noise_gain_db = 0.0;
     std::uint64_t noise_seed = 1;
+    /// Seed of a stereo channel's own noise (noise_render_params::own_seed; render_channels sets
+    /// it); empty for a mono render.
+    std::optional<std::uint64_t> own_noise_seed = std::nullopt;
 };
 
 /// Output rates the renderer accepts (the CLI validates --rate against these).
@@ -74,7 +78,8 @@ std::vector<float> render_patch(const patch& p, const render_params& params);
 /// and right for a stereo one. Each channel is the render of channel_patch(p, side)
 /// (core/stereo.hpp): the same kernels, per-channel levels, phases and decays. A noise band of
 /// coherence c plays shared noise (seed params.noise_seed, the same in both channels) scaled by
-/// sqrt(c) plus the channel's own noise (a seed of its own) scaled by sqrt(1 - c).
+/// sqrt(c) plus the channel's own noise (a seed of its own) scaled by sqrt(1 - c), mixed in one
+/// noise pass per channel (noise_render_params::own_seed): a stereo render costs two mono renders.
 /// Preconditions as render_patch's.
 std::vector<std::vector<float>> render_channels(const patch& p, const render_params& params);
 

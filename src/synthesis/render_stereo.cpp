@@ -1,5 +1,4 @@
 // Rendering every channel of a patch (see render.hpp: render_channels).
-#include <cmath>
 #include <cstdint>
 #include <vector>
 
@@ -10,21 +9,6 @@
 namespace wane {
 
 namespace {
-
-/// The bands of one channel's noise at `share` of their power (c for the shared part, 1 - c for
-/// the own part); bands with no share are left out.
-std::vector<noise_band> noise_share(const std::vector<noise_band>& bands, bool shared) {
-    std::vector<noise_band> out;
-    for (const noise_band& b : bands) {
-        const double share = shared ? b.coherence : 1.0 - b.coherence;
-        if (!(share > 0.0)) continue;
-        noise_band part = b;
-        part.env.peak.db += 10.0 * std::log10(share);  // power share -> dB
-        part.coherence = 1.0;
-        out.push_back(std::move(part));
-    }
-    return out;
-}
 
 /// A seed of a channel's own noise, apart from the shared seed and from the other channel's.
 std::uint64_t own_noise_seed(std::uint64_t seed, channel_side side) {
@@ -38,20 +22,9 @@ std::vector<std::vector<float>> render_channels(const patch& p, const render_par
     if (!is_stereo(p)) return {render_patch(p, params)};
     std::vector<std::vector<float>> out;
     for (const channel_side side : {channel_side::left, channel_side::right}) {
-        patch channel = channel_patch(p, side);
-        const std::vector<noise_band> bands = channel.noise;
-        channel.noise = noise_share(bands, true);
-        std::vector<float> samples = render_patch(channel, params);
-        const std::vector<noise_band> own = noise_share(bands, false);
-        if (params.include_noise && !own.empty()) {
-            channel.partials.clear();
-            channel.noise = own;
-            render_params own_params = params;
-            own_params.noise_seed = own_noise_seed(params.noise_seed, side);
-            const std::vector<float> own_samples = render_patch(channel, own_params);
-            for (std::size_t i = 0; i < samples.size(); ++i) samples[i] += own_samples[i];
-        }
-        out.push_back(std::move(samples));
+        render_params channel_params = params;
+        channel_params.own_noise_seed = own_noise_seed(params.noise_seed, side);
+        out.push_back(render_patch(channel_patch(p, side), channel_params));
     }
     return out;
 }

@@ -29,7 +29,10 @@ print(p.midi_of(tomllib.load(open(sys.argv[1], "rb"))["note"]["root"]))' "$patch
     for step in 7 -12; do
         to=$((midi + step))
         out="render/$name-$to.wav"
-        "$wane" render "$patch" --to-note "$to" -o "$out" --bits 32f --rate 48000 --normalize-db -1 > /dev/null ||
+        # Partials only: the check is of the partials' frequencies, and the noise bands' random
+        # realization moves a weak partial's FFT peak (harp_gs2_stereo's 155.6 Hz at MIDI 51: -1.0 to
+        # +2.2 cents over render seeds 1-6 with the noise, -0.01 cents without).
+        "$wane" render "$patch" --to-note "$to" -o "$out" --bits 32f --rate 48000 --normalize-db -1 --no-noise > /dev/null ||
             { echo "FAIL: render $name --to-note $to"; fail=1; continue; }
         $py "$src/tests/cli/pitch_check.py" to-note "$data/$name.wav" "$patch" "$out" "$to" || fail=1
     done

@@ -58,5 +58,47 @@ if [ -x "$chromium" ]; then
     peak=$(sed -n 's/.*data-solo-peak-db="\([-0-9.]*\)".*/\1/p' tine.dom | head -1)
     echo "partial 1 of glass-tine rendered in the page: peak ${peak:-none} dBFS (patch: -10.00)"
     check '[ -n "$peak" ] && awk -v p="$peak" "BEGIN { exit !(p > -10.05 && p < -9.95) }"'
+    # The whole envelope, frequency and phase: the first 8 partials of the demo string's patch
+    # (fitted, several segments each) as the page renders them, at 64 instants over the note,
+    # against the C++ renderer's render of each partial alone (wane render of a patch holding only
+    # that partial, 32-bit float, no noise). Within 1e-4 of the partial's peak amplitude (-80 dB;
+    # the C++ kernels run float phasors re-anchored every 1024 samples, the page doubles); the
+    # renderer's end fade (last 10 ms) and band-limit fade (above 0.95 Nyquist) are the page's
+    # stated omissions, so instants in the fade and partials in the fade band are left out.
+    run_chromium --dump-dom "$work/steel-string-d3.html#check-solo" > string-solo.dom
+    /usr/bin/python3 - steel-string-d3.toml string-solo.dom "$wane" <<'PY' || fail=1
+import html, json, re, subprocess, sys
+import numpy as np, scipy.io.wavfile as w
+toml, dom, wane = sys.argv[1:4]
+m = re.search(r'data-solo-samples="([^"]*)"', open(dom).read())
+if not m:
+    print("FAIL: the page published no partial samples"); sys.exit(1)
+page = json.loads(html.unescape(m.group(1)))
+text = open(toml).read()
+blocks = re.split(r'(?m)^(?=\[\[)', text)
+head = blocks[0]
+partials = [b for b in blocks if b.startswith("[[partial]]")]
+rate = int(re.search(r'(?m)^sample_rate_hz = (\d+)', text).group(1))
+bad = 0
+for i, samples in enumerate(page):
+    freq = float(re.search(r'(?m)^freq_hz = ([-0-9.e+]+)', partials[i]).group(1))
+    segments = partials[i].count("t60_s")
+    if freq >= 0.95 * rate / 2:
+        print(f"   partial {i + 1}: {freq:.1f} Hz in the band-limit fade, left out"); continue
+    open(f"solo{i}.toml", "w").write(head + partials[i])
+    subprocess.run([wane, "-q", "render", f"solo{i}.toml", "-o", f"solo{i}.wav", "--bits", "32f", "--no-noise",
+                    "--rate", str(rate)], check=True)
+    _, x = w.read(f"solo{i}.wav")
+    x = x.astype(np.float64)
+    peak_amp = 10 ** (float(re.search(r'(?m)^peak_db = ([-0-9.]+)', partials[i]).group(1)) / 20) \
+        * 10 ** (float(re.search(r'(?m)^gain_db = ([-0-9.]+)', head).group(1)) / 20)
+    fade_from = len(x) - int(round(0.010 * rate))
+    worst = max(abs(v - x[k]) for k, v in samples if k < fade_from)
+    ok = worst <= 1e-4 * peak_amp
+    print(("ok   " if ok else "FAIL ") + f"partial {i + 1}: {freq:.1f} Hz, {segments} segments: page vs C++ render, "
+          f"largest difference {20 * np.log10(max(worst, 1e-20) / peak_amp):.1f} dB re its peak (limit -80 dB)")
+    bad |= not ok
+sys.exit(bad)
+PY
 fi
 exit $fail

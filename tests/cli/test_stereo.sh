@@ -4,7 +4,8 @@
 # --channel one channel; a 6-channel file is refused naming --channel and --mono; edit --width 0
 # makes both channels of the render alike, --pan places a mono patch (stereo patch); blend of a mono
 # and a stereo patch is stereo; compare of two stereo files prints the per-channel and
-# inter-channel figures; keymap of a stereo patch writes two-channel WAVs.
+# inter-channel figures, and so does the report of a stereo patch; keymap of a stereo patch writes
+# two-channel WAVs.
 source "$(dirname "$0")/preamble.sh"
 note=$src/tests/data/real-notes/marimba_fs4_stereo.wav
 
@@ -38,6 +39,28 @@ out=$("$wane" compare "$note" st.wav 2>&1)
 echo "$out" | tail -12
 check 'echo "$out" | grep -q "per channel" && echo "$out" | grep -q "correlation"'
 check '"$wane" compare "$note" st.wav --json | /usr/bin/python3 -c "import json,sys; d=json.load(sys.stdin); assert len(d[\"stereo\"][\"level_difference_db\"]) >= 5"'
+
+# The report of a stereo patch has the channels section: each channel's figures and, per octave
+# band 250 Hz-8 kHz, the level difference of source and copy; the source's correlation of the
+# channels over the first second from the onset as numpy computes it (onset from compare --json).
+check '"$wane" -q report "$note" st.toml -o st.html'
+check 'grep -q "<section id=.stereo.>" st.html'
+check '[ "$(grep -o "right − left level, [0-9]* Hz octave" st.html | wc -l)" = 6 ]'
+"$wane" compare "$note" st.wav --json > st.json
+corr_page=$(sed -n "s/.*<td>correlation of left and right<\/td><td>\([-0-9.]*\)<\/td>.*/\1/p" st.html)
+corr_numpy=$(/usr/bin/python3 - "$note" st.json <<'PY'
+import json, sys
+import numpy as np, scipy.io.wavfile as w
+rate, d = w.read(sys.argv[1])
+x = d.astype(np.float64)
+onset = int(round(json.load(open(sys.argv[2]))["alignment"]["onset_a_s"] * rate))
+l, r = x[onset:onset + rate, 0], x[onset:onset + rate, 1]
+print(f"{np.sum(l * r) / np.sqrt(np.sum(l * l) * np.sum(r * r)):.4f}")
+PY
+)
+echo "report: source correlation $corr_page, numpy $corr_numpy"
+check '[ -n "$corr_page" ] && near "$corr_page" "$corr_numpy" 0.01'
+check '"$wane" -q report "$note" mono.toml -o mono.html && ! grep -q "<section id=.stereo.>" mono.html'
 
 check '"$wane" -q keymap st.toml -o set --notes F4..G4 --every 2'
 first=$(ls set/*.wav | head -1)

@@ -9,6 +9,7 @@
 #include <vector>
 
 #include "analysis/analyze.hpp"
+#include "analysis/cut_tail.hpp"
 #include "io/audio_file.hpp"
 #include "synthesis/render.hpp"
 #include "synthesis/render_length.hpp"
@@ -100,6 +101,34 @@ TEST_CASE("a note cut 40 dB below its peak: cut found, every last segment decays
     }
 }
 
+TEST_CASE("cut during a slow late stage: the tail falls on at the late stage's measured slope, not the early one's",
+          "[tails]") {
+    // A two-stage decay (a piano's or banjo's aftersound), cut 1.1 s into its late stage, which falls
+    // 2 dB/s there: 2.2 dB over the stretch, under min_fall_db (3 dB), so the last segment is a
+    // plateau by that rule. Its track (12.5 ms frames) carries the exact two-stage level plus a
+    // deterministic +-0.5 dB ripple (a 4.3 Hz beat).
+    constexpr double early_t60_s = 1.0, late_t60_s = 30.0, knee_s = 0.4, cut_s = 1.5;
+    auto level_at = [&](double t) {
+        return -10.0 - 60.0 * std::min(t, knee_s) / early_t60_s - 60.0 * std::max(0.0, t - knee_s) / late_t60_s;
+    };
+    partial_track track;
+    for (int k = 0; k * 0.0125 <= cut_s; ++k) {
+        const double t = k * 0.0125;
+        track.points.push_back({.time_s = t, .freq_hz = 220.0, .level_db = level_at(t) + 0.5 * std::sin(two_pi * 4.3 * t),
+                                .phase_rad = 0.0, .floor_db = -100.0});
+    }
+    const bool with_track = GENERATE(true, false);  // with its track, and without (a noise band: the fitted slope)
+    envelope env{.attack_s = 0.0, .peak = level_db{-10.0},
+                 .decay = {{.t60_s = early_t60_s, .until_s = knee_s}, {.t60_s = late_t60_s, .until_s = {}}}};
+    const cut_part part{.env = &env, .track = with_track ? &track : nullptr, .fit_start_s = 0.0, .fit_end_s = cut_s};
+    REQUIRE(continue_decays_past_cut(std::span<const cut_part>(&part, 1), cut_s) == 1);
+    CAPTURE(with_track, env.decay.size(), env.decay.back().t60_s);
+    REQUIRE(env.decay.size() == 3);
+    CHECK_THAT(*env.decay[1].until_s, WithinAbs(cut_s, 1e-12));  // the recorded stretch is kept as it was
+    // Ground truth of the late stage, 10% (the ripple moves the least-squares slope by a few percent).
+    CHECK_THAT(env.decay.back().t60_s, WithinRel(late_t60_s, 0.10));
+}
+
 TEST_CASE("a note that decays into its floor is not called cut", "[tails]") {
     const std::vector<mode_truth> modes = {{220.0, -8.0, 0.5}, {440.0, -12.0, 0.4}};
     const auto x = decaying_note(modes, 0.05, 1.5);  // 180 dB of decay: ends in the -100 dB floor
@@ -127,15 +156,41 @@ TEST_CASE("a steady tone holds: no cut, its level held", "[tails]") {
     }
 }
 
-TEST_CASE("real notes: the cut recordings are found cut and their copies fall 20 dB past 3x", "[tails][real]") {
+namespace {
+
+/// Least-squares slope (dB/s) of the RMS level of x in 50 ms frames over [from_s, to_s).
+double level_slope_db_per_s(const std::vector<float>& x, double rate, double from_s, double to_s) {
+    const auto frame = static_cast<std::size_t>(0.05 * rate);
+    double n = 0.0, st = 0.0, sl = 0.0, stt = 0.0, stl = 0.0;
+    for (auto i = static_cast<std::size_t>(from_s * rate); i + frame <= std::min(x.size(), static_cast<std::size_t>(to_s * rate));
+         i += frame) {
+        double s = 0.0;
+        for (std::size_t k = i; k < i + frame; ++k) s += static_cast<double>(x[k]) * static_cast<double>(x[k]);
+        const double t = (static_cast<double>(i) + 0.5 * static_cast<double>(frame)) / rate;
+        const double l = 10.0 * std::log10(s / static_cast<double>(frame) + 1e-30);
+        n += 1.0, st += t, sl += l, stt += t * t, stl += t * l;
+    }
+    return (stl - st * sl / n) / (stt - st * st / n);
+}
+
+}  // namespace
+
+TEST_CASE("real notes: the cut recordings are found cut, their tails fall no faster than the recordings' ends, "
+          "and fall 20 dB past 3x where the recording's late stage does",
+          "[tails][real]") {
     // tests/data/real-notes/README.md: banjo, steel guitar and piano D2 were cut while sounding,
     // the marimba decays naturally (56 dB below its peak).
     struct note_case {
         const char* file;
         bool cut;
+        // The last second of a 3x render 20 dB under the 100 ms before the cut. Not for the banjo:
+        // its strongest partial at the cut (harmonic 3, 593 Hz) is in a slow late stage, measured
+        // on the recording (0.2 s Hann STFT, 50 ms hop, least squares) falling 1.5 dB/s over its
+        // last 0.7 s after 27 dB/s over 0.8-1.3 s; its copy falls 10.9 dB by then.
+        bool falls_20_db;
     };
-    const note_case cases[] = {{"banjo_g3.wav", true}, {"guitar_steel_a2.wav", true}, {"piano_d2.wav", true},
-                               {"marimba_c3.wav", false}};
+    const note_case cases[] = {{"banjo_g3.wav", true, false}, {"guitar_steel_a2.wav", true, true},
+                               {"piano_d2.wav", true, true}, {"marimba_c3.wav", false, false}};
     for (const note_case& c : cases) {
         const mono_audio a = read_audio(std::string(WANE_TEST_DATA_DIR) + "/real-notes/" + c.file);
         const analysis_result r = analyze_note(a.samples, a.sample_rate_hz, {});
@@ -148,9 +203,18 @@ TEST_CASE("real notes: the cut recordings are found cut and their copies fall 20
             CHECK(std::isfinite(q.env.decay.back().t60_s));
             CHECK(q.env.decay.back().t60_s > 0.0);
         }
-        // Render 3x the recorded length: the last second at least 20 dB under the 100 ms before the cut.
         const double cut_s = *p.source.cut_s;
         const auto y = render_patch(p, {.sample_rate_hz = a.sample_rate_hz, .length_s = 3.0 * cut_s});
+        // No faster than the recording shows: the copy's level over the second after the cut falls
+        // at most 3 dB/s faster than the recording's over its last second (our choice: the copies
+        // differ from their recordings by up to 2.9 dB/s before the cut on these notes).
+        const double end_s = static_cast<double>(a.samples.size()) / a.sample_rate_hz;
+        const double recording_db_per_s = level_slope_db_per_s(a.samples, a.sample_rate_hz, end_s - 1.0, end_s);
+        const double copy_db_per_s = level_slope_db_per_s(y, a.sample_rate_hz, cut_s, cut_s + 1.0);
+        CAPTURE(recording_db_per_s, copy_db_per_s);
+        CHECK(copy_db_per_s >= recording_db_per_s - 3.0);
+        CHECK(copy_db_per_s < 0.0);  // and it falls
+        if (!c.falls_20_db) continue;
         auto rms_db = [&](double from_s, double to_s) {
             double s = 0.0;
             const auto i0 = static_cast<std::size_t>(from_s * a.sample_rate_hz);
