@@ -73,15 +73,19 @@ double peak_matching_gain_db(const patch& p, std::span<const float> note, double
     // the usual output rate (noise bands are drawn per rate, so their peaks differ by rate).
     patch q = p;
     q.note.gain_db = 0.0;
-    double copy_db = -infinity;
-    for (const double rate : {sample_rate_hz, default_output_rate_hz}) {
-        if (rate < min_render_rate_hz || rate > max_render_rate_hz) continue;
-        if (rate == default_output_rate_hz && rate == sample_rate_hz && std::isfinite(copy_db)) continue;
-        copy_db = std::max(copy_db, peak_level_db(render_patch(q, {.sample_rate_hz = rate})));
-    }
-    if (!std::isfinite(copy_db)) return 0.0;
+    const auto peak_at = [&](double rate) {
+        if (rate < min_render_rate_hz || rate > max_render_rate_hz) return -infinity;
+        return peak_level_db(render_patch(q, {.sample_rate_hz = rate}));
+    };
+    const double source_db = peak_at(sample_rate_hz);
+    const double output_db = sample_rate_hz == default_output_rate_hz ? source_db : peak_at(default_output_rate_hz);
+    if (!std::isfinite(source_db) && !std::isfinite(output_db)) return 0.0;
     const double target_db = std::min(peak_level_db(note), -peak_headroom_db);
-    return std::min(target_db - copy_db, max_peak_raise_db);
+    // The copy at the recording's rate peaks with the recording; the default render stays under
+    // full scale by default_render_margin_db even where its noise peaks higher.
+    double gain_db = std::isfinite(source_db) ? target_db - source_db : target_db - output_db;
+    if (std::isfinite(output_db)) gain_db = std::min(gain_db, -default_render_margin_db - output_db);
+    return std::min(gain_db, max_peak_raise_db);
 }
 
 namespace {

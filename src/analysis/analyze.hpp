@@ -78,12 +78,15 @@ inline constexpr double peak_headroom_db = 0.3;
 /// A copy that peaks lower than its recording is raised by at most this (dB): further under, the
 /// fit has missed the note's loudest part, and a gain would only hide it.
 inline constexpr double max_peak_raise_db = 6.0;
+/// The default render of a copy peaks at least this far under full scale (dB), where its noise
+/// peaks higher than at the recording's rate.
+inline constexpr double default_render_margin_db = 0.1;
 /// The output rate of a render at default settings, Hz.
 inline constexpr double default_output_rate_hz = 48000.0;
 
-/// Gain (dB) that brings the default render of p (the louder of its renders at the source rate
-/// and at 48 kHz, noise seed 1) to the peak of the recording note (note[0] at the onset), or to
-/// -peak_headroom_db dBFS when that is lower: down when the copy overshoots (the noise, or where
+/// Gain (dB) that brings the render of p at the source rate (noise seed 1) to the peak of the
+/// recording note (note[0] at the onset), or to -peak_headroom_db dBFS when that is lower, as far
+/// as the default render (48 kHz) stays default_render_margin_db under full scale: down when the copy overshoots (the noise, or where
 /// its peaks fall), up by at most max_peak_raise_db when it falls short (an onset transient the
 /// partials carry only in part). Levels that add up: the copy peaks with the recording.
 double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz);

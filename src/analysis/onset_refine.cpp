@@ -271,7 +271,8 @@ bool revise_roles(const patch& p, std::span<const float> note, const waveform_fi
             if (std::abs(level0) > params.slow_rise_db) roles[k] = role::fixed, changed = true;
             continue;
         }
-        const bool slow_rise = level0 < part.env.peak.db - params.slow_rise_db && part.env.attack_s > 0.0;
+        const bool slow_rise = level0 < part.env.peak.db - params.slow_rise_db && part.env.attack_s > 0.0 &&
+                               part.env.attack_s <= params.max_shaped_attack_s;
         if (slow_rise || !(level0 <= std::min(part.env.peak.db + 12.0, max_peak_db))) roles[k] = role::shaped, changed = true;
     }
     const auto count = static_cast<double>(fit_n);

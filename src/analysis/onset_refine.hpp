@@ -45,6 +45,9 @@ struct onset_refine_params {
     /// A partial whose fitted onset level is this far below its STFT peak rises slowly: it keeps
     /// its fitted attack ramp and only its level (by at most this much) and phase are fitted.
     double slow_rise_db = 6.0;
+    /// ... unless its fitted attack is longer than this: the STFT ramp is then no guide to the
+    /// first fit span, and the start is fitted as a damped exponential (with its own attack time).
+    double max_shaped_attack_s = 0.3;
     /// The early line is joined to the STFT envelope at their crossing, searched up to this time;
     /// without one, a bridge of bridge_s joins them after the fit span.
     double join_search_s = 0.3;

@@ -181,7 +181,7 @@ void add_noise_bands(std::span<const noise_band> bands, const noise_render_param
     splitmix64 rng{params.seed};
 
     std::optional<splitmix64> own_rng;
-    if (params.own_seed) own_rng.emplace(*params.own_seed);
+    if (params.own_seed) own_rng = splitmix64{*params.own_seed};
     std::vector<band_bins> layout = band_layout(bands, rng, own_rng, bin_hz, nyquist_hz, n_bins);
     if (layout.empty()) return;
 
