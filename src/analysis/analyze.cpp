@@ -12,6 +12,7 @@
 #include "analysis/beating_pairs.hpp"
 #include "analysis/noise_model.hpp"
 #include "analysis/onset_refine.hpp"
+#include "core/patch_numbers.hpp"
 #include "core/analysis_error.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "pitch/root.hpp"
@@ -68,10 +69,14 @@ double peak_level_db(std::span<const float> x) {
 
 }  // namespace
 
-double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz) {
+double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz,
+                             double* shortfall_db) {
     // The copy's peak as the default render makes it (noise seed 1), at the source rate and at
     // the usual output rate (noise bands are drawn per rate, so their peaks differ by rate).
+    // Rendered as the file keeps it (numbers rounded): a copy within 0.1 dB of full scale can
+    // move by that much when its phases and levels are rounded.
     patch q = p;
+    patch_numbers::round_to_file_precision(q);
     q.note.gain_db = 0.0;
     const auto peak_at = [&](double rate) {
         if (rate < min_render_rate_hz || rate > max_render_rate_hz) return -infinity;
@@ -85,7 +90,9 @@ double peak_matching_gain_db(const patch& p, std::span<const float> note, double
     // full scale by default_render_margin_db even where its noise peaks higher.
     double gain_db = std::isfinite(source_db) ? target_db - source_db : target_db - output_db;
     if (std::isfinite(output_db)) gain_db = std::min(gain_db, -default_render_margin_db - output_db);
-    return std::min(gain_db, max_peak_raise_db);
+    gain_db = std::min(gain_db, max_peak_raise_db);
+    if (shortfall_db) *shortfall_db = std::isfinite(source_db) ? std::max(0.0, target_db - (source_db + gain_db)) : 0.0;
+    return gain_db;
 }
 
 namespace {
@@ -195,6 +202,9 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         out.summary.pairs_split = split_beating_pairs(p, part.subspan(onset_frame), sample_rate_hz, params.pairs);
         out.summary.partials = static_cast<int>(p.partials.size());
     }
+    // The recording's peak counts from the tracker's onset: a pluck's first swing may come before
+    // the modes' start that the onset refinement finds.
+    const double tracker_onset_s = tr.onset_s;
     if (params.refine_onset) {
         const auto onset = onset_frame;
         if (onset < part.size()) {
@@ -202,6 +212,11 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
             out.summary.new_modes = refined.new_modes;
             out.summary.partials = static_cast<int>(p.partials.size());
             out.summary.onset_explained_db = refined.explained_db;
+            // The modes start refined.start_shift_n samples after the tracker's onset: the patch's
+            // onset moves there, and the steps below (noise, recording end, peak) count from it.
+            const double shift_s = static_cast<double>(refined.start_shift_n) / sample_rate_hz;
+            out.tracking.onset_s += shift_s;
+            p.source.onset_s += shift_s;
             out.summary.segments = 0;
             for (const partial& q : p.partials) out.summary.segments += static_cast<int>(q.env.decay.size());
         }
@@ -210,8 +225,18 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     apply_recording_end(out, part, sample_rate_hz, fitted, params);
     canonicalize(p);
     if (params.match_peak) {
-        const auto onset = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
-        p.note.gain_db = peak_matching_gain_db(p, part.subspan(std::min(onset, part.size())), sample_rate_hz);
+        const auto onset = static_cast<std::size_t>(std::llround(tracker_onset_s * sample_rate_hz));
+        const std::span<const float> note = part.subspan(std::min(onset, part.size()));
+        double shortfall_db = 0.0;
+        p.note.gain_db = peak_matching_gain_db(p, note, sample_rate_hz, &shortfall_db);
+        // The noise's draw, not the partials, holding the copy under the recording (see
+        // max_noise_shortfall_db): the bands step down until it does not.
+        for (double cut_db = 0.0; shortfall_db > max_noise_shortfall_db && !p.noise.empty() &&
+                                  cut_db + noise_step_db <= max_noise_cut_db;
+             cut_db += noise_step_db) {
+            for (noise_band& b : p.noise) b.env.peak = level_db{b.env.peak.db - noise_step_db};
+            p.note.gain_db = peak_matching_gain_db(p, note, sample_rate_hz, &shortfall_db);
+        }
     }
     return out;
 }

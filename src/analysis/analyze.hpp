@@ -89,7 +89,19 @@ inline constexpr double default_output_rate_hz = 48000.0;
 /// as the default render (48 kHz) stays default_render_margin_db under full scale: down when the copy overshoots (the noise, or where
 /// its peaks fall), up by at most max_peak_raise_db when it falls short (an onset transient the
 /// partials carry only in part). Levels that add up: the copy peaks with the recording.
-double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz);
+/// shortfall_db (when given) receives how far the copy at the source rate then peaks under that
+/// target (0 when it reaches it).
+double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz,
+                             double* shortfall_db = nullptr);
+
+/// The noise bands are a random draw, and below a few hundred Hz the renderer's bins differ by
+/// rate (47 Hz apart at 48 kHz, 43 Hz at 44.1 kHz: synthesis/noise_render.hpp), so a band beside a
+/// partial can add to the partial's peak at one rate and not at another. Where the default render's
+/// draw alone holds the copy more than max_noise_shortfall_db under the recording's peak at the
+/// source rate, every band is turned down by noise_step_db at a time, at most max_noise_cut_db.
+inline constexpr double max_noise_shortfall_db = 0.5;
+inline constexpr double noise_step_db = 1.0;
+inline constexpr double max_noise_cut_db = 6.0;
 
 /// Throws analysis_error with a user-facing reason when the sound cannot be analyzed.
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,

@@ -20,6 +20,29 @@ mode_shape rise_decay_shape(std::size_t attack_n, double rho, std::size_t count)
     return out;
 }
 
+std::size_t rise_knot(std::size_t rise_n, int k) {
+    return rise_n * static_cast<std::size_t>(k) / static_cast<std::size_t>(rise_segments);
+}
+
+double rise_knot_ratio(double start_ratio, int k) {
+    return start_ratio + (1.0 - start_ratio) * static_cast<double>(k) / rise_segments;
+}
+
+mode_shape attack_shape(const attack_choice& choice, double rho, std::size_t count) {
+    if (choice.start_ratio <= 0.0 || choice.rise_n == 0) return rise_decay_shape(choice.rise_n, rho, count);
+    // The linear ramp's knots, straight in dB between them (exp pieces), then the decay.
+    const std::size_t rise = std::min(choice.rise_n, count);
+    mode_shape out;
+    for (int k = 0; k < rise_segments; ++k) {
+        const std::size_t from = rise_knot(rise, k), to = rise_knot(rise, k + 1);
+        if (to <= from) continue;
+        const double a = rise_knot_ratio(choice.start_ratio, k), b = rise_knot_ratio(choice.start_ratio, k + 1);
+        out.push_back({.start = from, .count = to - from, .scale = a, .rho = std::log(b / a) / static_cast<double>(to - from), .power = 0});
+    }
+    if (rise < count) out.push_back({.start = rise, .count = count - rise, .scale = 1.0, .rho = rho, .power = 0});
+    return out;
+}
+
 namespace {
 
 /// Adds sign * Re(amp a[n] exp(i omega n)) for n in [0, out.size()) to out; a is the mode's shape
@@ -67,13 +90,13 @@ double fit_one(const mode_shape& a, double omega, std::complex<double> acc, std:
 
 }  // namespace
 
-std::vector<std::size_t> choose_attacks(std::span<const float> target, double sample_rate_hz,
-                                        std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
-                                        std::span<const double> energy, std::span<const std::size_t> may_rise, std::span<const std::size_t> attack_n,
-                                        const onset_attack_params& params) {
-    assert(shapes.size() == modes.size() && attack_n.size() == modes.size() && energy.size() == modes.size());
+std::vector<attack_choice> choose_attacks(std::span<const float> target, double sample_rate_hz,
+                                          std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
+                                          std::span<const double> energy, std::span<const std::size_t> may_rise,
+                                          std::span<const attack_choice> current, const onset_attack_params& params) {
+    assert(shapes.size() == modes.size() && current.size() == modes.size() && energy.size() == modes.size());
     const std::size_t count = target.size();
-    std::vector<std::size_t> chosen(attack_n.begin(), attack_n.end());
+    std::vector<attack_choice> chosen(current.begin(), current.end());
     const double signal = energy_of(target);
     if (count == 0 || signal <= 0.0 || may_rise.empty()) return chosen;
     // The residual of the joint fit, then each searched mode refitted alone on it plus its own part.
@@ -106,31 +129,52 @@ std::vector<std::size_t> choose_attacks(std::span<const float> target, double sa
         const double step = std::exp(rho);
         tail_sum[count] = {};
         for (std::size_t n = count; n-- > 0;) tail_sum[n] = demod[n] + step * tail_sum[n + 1];
-        const auto explained = [&](std::size_t n_attack, std::complex<double>& amp) {
-            const std::complex<double> acc =
-                (n_attack == 0 ? std::complex<double>{} : ramp_sum[n_attack] / static_cast<double>(n_attack)) +
-                tail_sum[n_attack];
-            return fit_one(rise_decay_shape(n_attack, rho, count), omega, acc, amp);
+        // An instant start that rises: its projection sum a[n] q[n] directly, O(count) per choice.
+        const auto explained = [&](const attack_choice& c, std::complex<double>& amp) {
+            const mode_shape shape = attack_shape(c, rho, count);
+            std::complex<double> acc;
+            if (c.start_ratio > 0.0 && c.rise_n > 0) {
+                shape_samples(shape, count, scratch);
+                for (std::size_t n = 0; n < count; ++n) acc += scratch[n] * demod[n];
+            } else {
+                acc = (c.rise_n == 0 ? std::complex<double>{} : ramp_sum[c.rise_n] / static_cast<double>(c.rise_n)) +
+                      tail_sum[c.rise_n];
+            }
+            return fit_one(shape, omega, acc, amp);
         };
         // The current choice first: another must explain min_gain_share of the signal more.
         std::complex<double> amp;
         const double kept = explained(chosen[i], amp);
         double best = kept;
-        std::size_t best_n = chosen[i];
-        const auto consider = [&](std::size_t n_attack) {
+        attack_choice best_c = chosen[i];
+        const auto consider = [&](const attack_choice& c) {
+            if (c == chosen[i]) return;
             std::complex<double> a;
-            const double e = explained(n_attack, a);
-            if (e > best) best = e, best_n = n_attack;
+            const double e = explained(c, a);
+            if (e > best) best = e, best_c = c;
         };
-        if (chosen[i] != 0) consider(0);
+        consider({});
         for (const double t : params.attack_grid_s) {
             const auto n_attack = static_cast<std::size_t>(std::llround(t * sample_rate_hz));
-            if (n_attack > 0 && n_attack < count && n_attack != chosen[i]) consider(n_attack);
+            if (n_attack > 0 && n_attack < count) consider({.rise_n = n_attack});
         }
-        if (best > kept + params.min_gain_share * signal) chosen[i] = best_n;
+        if (best > kept + params.min_gain_share * signal) chosen[i] = best_c;
+        // An instant start that rises must do better still than the plain choice it replaces
+        // (the simpler envelope wins a near tie).
+        if (r < params.max_rising_partials) {
+            const double plain = std::max(best, kept);
+            best = plain;
+            const attack_choice plain_c = chosen[i];
+            for (const double t : params.rise_grid_s) {
+                const auto n_rise = static_cast<std::size_t>(std::llround(t * sample_rate_hz));
+                if (n_rise < static_cast<std::size_t>(rise_segments) || n_rise >= count) continue;
+                for (const double c : params.start_ratios) consider({.rise_n = n_rise, .start_ratio = c});
+            }
+            if (!(best_c == plain_c) && best > plain + params.min_gain_share * signal) chosen[i] = best_c;
+        }
         damped_mode refit = modes[i];
         explained(chosen[i], refit.amp);
-        add_mode(refit, rise_decay_shape(chosen[i], rho, count), sample_rate_hz, -1.0, residual, scratch);
+        add_mode(refit, attack_shape(chosen[i], rho, count), sample_rate_hz, -1.0, residual, scratch);
     }
     return chosen;
 }

@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cassert>
 #include <cmath>
+#include <utility>
 #include <vector>
 
 #include "analysis/onset_attack.hpp"
@@ -86,6 +87,27 @@ envelope joined_envelope(const envelope& old, double attack_s, double level0_db,
         for (const auto& seg : segments_from(old, join_s)) env.decay.push_back(seg);
     }
     if (env.decay.size() == 1) env.decay.back().until_s.reset();
+    return env;
+}
+
+/// env (from joined_envelope: a linear attack over the rise, then its lines) with the attack
+/// replaced by an instant start at start_ratio of the peak that rises through the linear ramp's
+/// knots in straight dB segments, as attack_shape (analysis/onset_attack.hpp) fitted it.
+envelope instant_rise(envelope env, const attack_choice& a, double sample_rate_hz) {
+    const double peak_db = env.peak.db;
+    const auto level_at = [&](int k) { return peak_db + to_level(amp_lin{rise_knot_ratio(a.start_ratio, k)}).db; };
+    const auto time_at = [&](int k) { return static_cast<double>(rise_knot(a.rise_n, k)) / sample_rate_hz; };
+    std::vector<decay_segment> decay;
+    for (int k = 0; k < rise_segments; ++k) {
+        const double span_s = time_at(k + 1) - time_at(k);
+        if (!(span_s > 0.0)) continue;
+        // A straight dB segment rising r dB over d seconds has t60_s = -60 d / r.
+        decay.push_back({.t60_s = -60.0 * span_s / (level_at(k + 1) - level_at(k)), .until_s = time_at(k + 1)});
+    }
+    decay.insert(decay.end(), env.decay.begin(), env.decay.end());
+    env.decay = std::move(decay);
+    env.attack_s = 0.0;
+    env.peak = level_db{level_at(0)};
     return env;
 }
 
@@ -221,7 +243,7 @@ struct waveform_fit {
 
 waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sample_rate_hz, std::size_t fit_n,
                           std::span<const role> roles, std::span<const double> decay,
-                          std::span<const std::size_t> attack_n, std::span<const damped_mode> new_modes) {
+                          std::span<const attack_choice> attacks, std::span<const damped_mode> new_modes) {
     waveform_fit f;
     std::vector<mode_shape>& shapes = f.shapes;
     std::vector<std::size_t> fixed;
@@ -237,7 +259,7 @@ waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sa
         if (roles[k] == role::shaped)
             shapes.push_back(envelope_shape(part.env, sample_rate_hz, fit_n));
         else
-            shapes.push_back(attack_n[k] > 0 ? rise_decay_shape(attack_n[k], -decay[k] / sample_rate_hz, fit_n) : mode_shape{});
+            shapes.push_back(attacks[k].rise_n > 0 ? attack_shape(attacks[k], -decay[k] / sample_rate_hz, fit_n) : mode_shape{});
         f.partial_of.push_back(k);
     }
     f.modes.insert(f.modes.end(), new_modes.begin(), new_modes.end());
@@ -298,25 +320,60 @@ bool revise_roles(const patch& p, std::span<const float> note, const waveform_fi
 }
 
 /// The attack of each exponential partial, searched on the residual of fit f (analysis/onset_attack.hpp);
-/// attack_n is per partial, in samples. True when any changed.
+/// attacks is per partial. True when any changed.
 bool update_attacks(const waveform_fit& f, std::span<const role> roles, double sample_rate_hz,
-                    const onset_attack_params& params, std::vector<std::size_t>& attack_n) {
-    std::vector<std::size_t> may_rise, per_mode(f.modes.size(), 0);
+                    const onset_attack_params& params, std::vector<attack_choice>& attacks) {
+    std::vector<std::size_t> may_rise;
+    std::vector<attack_choice> per_mode(f.modes.size());
     for (std::size_t i = 0; i < f.partial_of.size(); ++i) {
         if (roles[f.partial_of[i]] == role::exponential) may_rise.push_back(i);
-        per_mode[i] = attack_n[f.partial_of[i]];
+        per_mode[i] = attacks[f.partial_of[i]];
     }
-    const std::vector<std::size_t> chosen = choose_attacks(f.target, sample_rate_hz, f.modes, f.shapes, f.energy, may_rise, per_mode, params);
+    const std::vector<attack_choice> chosen = choose_attacks(f.target, sample_rate_hz, f.modes, f.shapes, f.energy, may_rise, per_mode, params);
     bool changed = false;
     for (const std::size_t i : may_rise) {
         changed = changed || chosen[i] != per_mode[i];
-        attack_n[f.partial_of[i]] = chosen[i];
+        attacks[f.partial_of[i]] = chosen[i];
     }
     return changed;
 }
 
+/// Samples from note[0] to the start of the modes (analysis/onset_refine.hpp, max_start_shift_s):
+/// every partial below Nyquist (its early decay) and the new modes as plain damped exponentials;
+/// the cost of a start s is the energy of note[0, s) (silent in the patch) plus the residual of
+/// the least-squares fit on note[s, s + fit_n) (modes/damped_mode.hpp, sliding_fit_residuals).
+std::size_t modes_start(const patch& p, std::span<const float> note, double sample_rate_hz, std::size_t fit_n,
+                        std::span<const double> decay, std::span<const damped_mode> new_modes,
+                        const onset_refine_params& params) {
+    const auto wanted = static_cast<std::size_t>(params.max_start_shift_s * sample_rate_hz);
+    const std::size_t max_shift = std::min(wanted, note.size() - fit_n);
+    if (max_shift == 0) return 0;
+    std::vector<damped_mode> modes;
+    std::vector<std::pair<double, std::size_t>> loudest;
+    for (std::size_t k = 0; k < p.partials.size(); ++k) {
+        if (p.partials[k].freq_hz >= 0.5 * sample_rate_hz) continue;
+        modes.push_back({.freq_hz = p.partials[k].freq_hz, .decay_per_s = decay[k]});
+        loudest.emplace_back(p.partials[k].env.peak.db, k);
+    }
+    // The strongest partials may build up (analysis/onset_attack.hpp): each gets a companion at its
+    // frequency that dies within the rise, so that the pair can start quietly and swell; with plain
+    // exponentials alone a later start would look better wherever a partial rises.
+    std::sort(loudest.begin(), loudest.end(), std::greater<>());
+    for (std::size_t r = 0; r < loudest.size() && r < params.attacks.max_rising_partials; ++r)
+        modes.push_back({.freq_hz = p.partials[loudest[r].second].freq_hz, .decay_per_s = params.start_rise_decay_per_s});
+    modes.insert(modes.end(), new_modes.begin(), new_modes.end());
+    const std::vector<double> residual = sliding_fit_residuals(note, sample_rate_hz, modes, fit_n, max_shift + 1);
+    std::size_t best = 0;
+    double before = 0.0, best_cost = residual[0];
+    for (std::size_t s = 1; s <= max_shift; ++s) {
+        before += double(note[s - 1]) * double(note[s - 1]);
+        if (before + residual[s] < best_cost) best_cost = before + residual[s], best = s;
+    }
+    return best;
+}
+
 /// Writes the fitted starts into the partials and appends the new modes as partials.
-void apply_fit(patch& p, const waveform_fit& f, std::span<const role> roles, std::span<const std::size_t> attack_n,
+void apply_fit(patch& p, const waveform_fit& f, std::span<const role> roles, std::span<const attack_choice> attacks,
                double sample_rate_hz, const onset_refine_params& params, onset_refine_summary& summary) {
     for (std::size_t i = 0; i < f.partial_of.size(); ++i) {
         partial& part = p.partials[f.partial_of[i]];
@@ -328,9 +385,11 @@ void apply_fit(patch& p, const waveform_fit& f, std::span<const role> roles, std
             if (std::abs(scale_db) > params.slow_rise_db || !(level <= max_peak_db)) continue;
             part.env.peak = level_db{level};
         } else {
-            const double attack_s = static_cast<double>(attack_n[f.partial_of[i]]) / sample_rate_hz;
+            const attack_choice& a = attacks[f.partial_of[i]];
+            const double attack_s = static_cast<double>(a.rise_n) / sample_rate_hz;
             part.env = joined_envelope(part.env, attack_s, to_level(amp_lin{std::abs(m.amp)}).db,
                                        -db_per_neper * m.decay_per_s, params);
+            if (a.start_ratio > 0.0 && a.rise_n > 0) part.env = instant_rise(part.env, a, sample_rate_hz);
         }
         part.phase_rad = std::arg(m.amp);
         ++summary.refined;
@@ -375,22 +434,30 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
         near_hz.empty() ? std::vector<damped_mode>{}
                         : subband_modes(signals, sub, params.stable_span_fraction * sub.span_s, near_hz, tol_hz);
     std::vector<damped_mode> new_modes = stable_modes(candidates, again, cluster_hz, params);
+    // The modes' start at sample resolution; the phases of the partials the fit leaves alone then
+    // count from it (cos(2 pi f (t + shift) + phase)).
+    summary.start_shift_n = modes_start(p, note, sample_rate_hz, fit_n, decay, new_modes, params);
+    if (summary.start_shift_n > 0) {
+        note = note.subspan(summary.start_shift_n);
+        const double shift_s = static_cast<double>(summary.start_shift_n) / sample_rate_hz;
+        for (partial& q : p.partials) q.phase_rad = std::remainder(q.phase_rad + two_pi * q.freq_hz * shift_s, two_pi);
+    }
     // Up to four passes, each revising the roles, attacks and new modes from the last.
     constexpr int passes = 4;
     waveform_fit f;
-    std::vector<std::size_t> attack_n(p.partials.size(), 0);
+    std::vector<attack_choice> attacks(p.partials.size());
     for (int pass = 0;; ++pass) {
-        f = fit_waveform(p, note, sample_rate_hz, fit_n, roles, decay, attack_n, new_modes);
+        f = fit_waveform(p, note, sample_rate_hz, fit_n, roles, decay, attacks, new_modes);
         if (pass == passes - 1) break;
         // The attacks are searched on this pass's residual and the roles revised from it; the
         // next pass fits both.
-        const bool attacks_changed = params.search_attacks && update_attacks(f, roles, sample_rate_hz, params.attacks, attack_n);
+        const bool attacks_changed = params.search_attacks && update_attacks(f, roles, sample_rate_hz, params.attacks, attacks);
         const bool roles_changed = revise_roles(p, note, f, roles, new_modes, sample_rate_hz, fit_n, params);
         if (!attacks_changed && !roles_changed) break;
     }
     const double energy = signal_energy(note.first(fit_n));
     summary.explained_db = energy > 0.0 ? power_to_db(energy / std::max(f.residual_energy, 1e-30 * energy)) : 0.0;
-    apply_fit(p, f, roles, attack_n, sample_rate_hz, params, summary);
+    apply_fit(p, f, roles, attacks, sample_rate_hz, params, summary);
     return summary;
 }
 

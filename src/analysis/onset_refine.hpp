@@ -56,6 +56,15 @@ struct onset_refine_params {
     /// at once (analysis/onset_attack.hpp).
     bool search_attacks = true;
     onset_attack_params attacks{};
+    /// The start of the modes at sample resolution: the note given may begin a little before its
+    /// modes do (the tracker's onset is a 2 ms block walked back over the rise; a mallet's contact
+    /// or a pick's noise comes first). The start is moved later, by at most max_start_shift_s, to
+    /// where the modes fitted from there leave the least squared error over the samples from the
+    /// given onset on (the samples before the start count as error: the patch is silent there).
+    double max_start_shift_s = 0.005;
+    /// ... each of the strongest partials (attacks.max_rising_partials) searched with a companion
+    /// of this decay (1/s; 46: T60 0.15 s, the fit span), so a partial may swell from the start.
+    double start_rise_decay_per_s = 46.0;
     /// An envelope with an instant onset that agrees with the early line within this is kept.
     double agree_db = 1.0;
 };
@@ -64,9 +73,12 @@ struct onset_refine_summary {
     int new_modes = 0;            ///< partials added from the subband search
     int refined = 0;              ///< partials given an instant onset and a fitted start
     double explained_db = 0.0;    ///< -10 log10(residual / signal energy) over the fit span
+    std::size_t start_shift_n = 0;  ///< the modes start this many samples after note[0]
 };
 
-/// Refines p's partials on note (note[0] at p's onset), in place, and adds the new modes.
+/// Refines p's partials on note (note[0] at p's onset), in place, and adds the new modes. When the
+/// modes start later than note[0] (summary.start_shift_n), the patch's phases count from that
+/// start: the caller moves p's onset there.
 onset_refine_summary refine_onset(patch& p, std::span<const float> note, double sample_rate_hz,
                                   const onset_refine_params& params);
 

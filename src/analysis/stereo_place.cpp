@@ -296,7 +296,12 @@ analysis_result analyze_stereo_note(std::span<const float> mix, std::span<const 
                                     std::span<const float> right, double sample_rate_hz,
                                     const analysis_params& params, const stereo_place_params& stereo) {
     assert(mix.size() == left.size() && mix.size() == right.size());
-    analysis_result out = analyze_note(mix, sample_rate_hz, params);
+    // The mix of spaced microphones holds each channel's onset at its own time (the marimba's
+    // channels are 2.8 ms apart), and the channels are placed by phase from one start: the modes
+    // start at the first arrival, the tracker's onset, not later (analysis/onset_refine.hpp).
+    analysis_params mix_params = params;
+    mix_params.onset.max_start_shift_s = 0.0;
+    analysis_result out = analyze_note(mix, sample_rate_hz, mix_params);
     patch& p = out.value;
     const auto onset = std::min(static_cast<std::size_t>(std::llround(p.source.onset_s * sample_rate_hz)), mix.size());
     std::size_t last = mix.size();

@@ -145,4 +145,76 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
     return std::clamp(residual / energy, 0.0, 1.0);
 }
 
+namespace {
+
+/// P_k = sum_{n < count} x[n] z_k^n for every mode (z_k = exp(rho_k + i omega_k)), directly.
+void direct_projections(std::span<const float> x, std::size_t count, std::span<const std::complex<double>> z,
+                        std::vector<std::complex<double>>& out) {
+    for (std::size_t k = 0; k < z.size(); ++k) {
+        const double rho = std::log(std::abs(z[k])), omega = std::arg(z[k]);
+        std::complex<double> p{1.0, 0.0}, acc{};
+        for (std::size_t n = 0; n < count; ++n) {
+            if (n % 512 == 0) p = std::exp(std::complex<double>{rho * static_cast<double>(n), std::remainder(omega * static_cast<double>(n), two_pi)});
+            acc += double(x[n]) * p;
+            p *= z[k];
+        }
+        out[k] = acc;
+    }
+}
+
+}  // namespace
+
+std::vector<double> sliding_fit_residuals(std::span<const float> x, double sample_rate_hz,
+                                          std::span<const damped_mode> modes, std::size_t count, std::size_t starts,
+                                          double ridge_rel) {
+    assert(sample_rate_hz > 0.0 && count > 0);
+    assert(x.size() + 1 >= starts + count);
+    const auto k_count = modes.size();
+    std::vector<double> out(starts, 0.0);
+    // Energy of each span, sliding.
+    double energy = 0.0;
+    for (std::size_t n = 0; n < count && starts > 0; ++n) energy += double(x[n]) * double(x[n]);
+    if (k_count == 0) {
+        for (std::size_t s = 0; s < starts; ++s) {
+            out[s] = energy;
+            if (s + 1 < starts) energy += double(x[s + count]) * double(x[s + count]) - double(x[s]) * double(x[s]);
+        }
+        return out;
+    }
+    std::vector<mode_shape> own(k_count);
+    std::vector<double> omega(k_count);
+    std::vector<std::complex<double>> z(k_count), z_count(k_count), proj(k_count);
+    for (std::size_t k = 0; k < k_count; ++k) {
+        assert(modes[k].freq_hz >= 0.0 && modes[k].freq_hz <= 0.5 * sample_rate_hz);
+        omega[k] = two_pi * modes[k].freq_hz / sample_rate_hz;
+        const double rho = -modes[k].decay_per_s / sample_rate_hz;
+        own[k] = exponential_shape(rho, count);
+        z[k] = std::exp(std::complex<double>{rho, omega[k]});
+        z_count[k] = std::exp(std::complex<double>{rho * static_cast<double>(count),
+                                                   std::remainder(omega[k] * static_cast<double>(count), two_pi)});
+    }
+    Eigen::MatrixXd gram = shape_gram(own, omega);
+    gram.diagonal().array() += ridge_rel * gram.diagonal().mean();
+    const Eigen::LLT<Eigen::MatrixXd> llt(gram);
+    const auto dim = static_cast<Eigen::Index>(2 * k_count);
+    Eigen::VectorXd rhs(dim);
+    constexpr std::size_t exact_every = 128;
+    for (std::size_t s = 0; s < starts; ++s) {
+        if (s % exact_every == 0) direct_projections(x.subspan(s), count, z, proj);
+        for (std::size_t k = 0; k < k_count; ++k) {
+            rhs(static_cast<Eigen::Index>(2 * k)) = proj[k].real();
+            rhs(static_cast<Eigen::Index>(2 * k + 1)) = -proj[k].imag();
+        }
+        // The explained energy theta.rhs = rhs' G^-1 rhs = |L^-1 rhs|^2.
+        const double explained = llt.info() == Eigen::Success ? llt.matrixL().solve(rhs).squaredNorm() : 0.0;
+        out[s] = std::max(0.0, energy - explained);
+        if (s + 1 < starts) {
+            const double leaving = x[s], entering = x[s + count];
+            energy += entering * entering - leaving * leaving;
+            for (std::size_t k = 0; k < k_count; ++k) proj[k] = (proj[k] - leaving + entering * z_count[k]) / z[k];
+        }
+    }
+    return out;
+}
+
 }  // namespace wane

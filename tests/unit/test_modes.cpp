@@ -216,3 +216,27 @@ TEST_CASE("shaped amplitudes match a dense QR least squares on the shaped column
     }
     CHECK(std::abs(modes[0].amp - std::polar(0.7, 0.4)) < 0.01);  // the truth, under the noise
 }
+
+TEST_CASE("sliding fit residuals equal a fresh least-squares fit on every span", "[modes]") {
+    const double fs = 32000.0;
+    // Decaying, held and fast modes, plus noise so the residual is not zero.
+    const std::vector<damped_mode> truth{{.freq_hz = 196.0, .decay_per_s = 3.0, .amp = {0.4, -0.2}},
+                                         {.freq_hz = 587.0, .decay_per_s = 0.0, .amp = {0.0, 0.1}},
+                                         {.freq_hz = 2411.0, .decay_per_s = 400.0, .amp = {0.3, 0.3}}};
+    const std::size_t count = 3000, starts = 300;
+    const auto x = render_modes(truth, fs, count + starts, 0.01, 7);
+    std::vector<damped_mode> modes = truth;
+    const std::vector<double> residual = sliding_fit_residuals(x, fs, modes, count, starts);
+    REQUIRE(residual.size() == starts);
+    for (const std::size_t s : {std::size_t{0}, std::size_t{1}, std::size_t{127}, std::size_t{128}, std::size_t{299}}) {
+        const std::span<const float> span(x.data() + s, count);
+        double energy = 0.0;
+        for (float v : span) energy += double(v) * double(v);
+        std::vector<damped_mode> fresh = truth;
+        const double want = fit_mode_amplitudes(span, fs, fresh) * energy;
+        // The two differ by the ridge (1e-9 of the Gram diagonal: the explained energy moves by
+        // about that share) and rounding: 1e-8 of the span's energy.
+        CAPTURE(s, residual[s], want, energy);
+        CHECK_THAT(residual[s], WithinAbs(want, 1e-8 * energy));
+    }
+}

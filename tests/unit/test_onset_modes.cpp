@@ -150,3 +150,19 @@ TEST_CASE("the copy of a note at full scale peaks within 1 dB of it and not over
     CHECK(diff_db <= 0.0);
     CHECK(diff_db >= -1.0);
 }
+
+TEST_CASE("the onset is found at the sample where the modes start, between the 2 ms blocks", "[analysis][onset]") {
+    const double fs = 48000.0;
+    // 50 ms of lead plus an odd number of samples, so the start is not on a 2 ms block edge.
+    const std::size_t extra = GENERATE(std::size_t{13}, std::size_t{37}, std::size_t{71});
+    const double lead_n = 0.05 * fs + static_cast<double>(extra);
+    const double lead_s = (lead_n + 0.25) / fs;  // make_note truncates lead_s * fs to lead_n
+    const std::vector<true_mode> modes{{.freq_hz = 220.0, .level_db = -6.0, .t60_s = 1.5, .phase_rad = 0.5},
+                                       {.freq_hz = 661.0, .level_db = -12.0, .t60_s = 0.7, .phase_rad = -1.0},
+                                       {.freq_hz = 1543.0, .level_db = -18.0, .t60_s = 0.3, .phase_rad = 2.0}};
+    const auto x = make_note(modes, fs, 1.5, -80.0, lead_s);
+    const analysis_result r = analyze_note(x, fs, no_noise());
+    const double onset_n = r.value.source.onset_s * fs;
+    CAPTURE(extra, onset_n, lead_n, r.tracking.onset_s * fs);
+    CHECK(std::abs(onset_n - lead_n) <= 1.0);
+}
