@@ -84,8 +84,10 @@ stft_config plan_config(const band_plan& plan, double sample_rate_hz) {
 
 /// The plan's band-to-band leakage through its window (analysis/band_leakage.hpp).
 void add_leakage(band_plan& plan, double sample_rate_hz) {
-    const stft_plan stft(plan_config(plan, sample_rate_hz));
-    plan.leak = band_leakage(stft.window_samples(), stft.fft_size(), plan.bins, plan.ranges, plan.median);
+    // The window stft_plan makes for this config (no FFT state needed here).
+    const stft_config config = plan_config(plan, sample_rate_hz);
+    const std::vector<float> window = make_window(config.window, config.window_length, window_symmetry::symmetric);
+    plan.leak = band_leakage(window, config.fft_size, plan.bins, plan.ranges, plan.median);
 }
 
 /// The floor measurement: bins away from every partial, borrowed from nearby when too few.
@@ -157,13 +159,13 @@ band_plan attack_plan(double sample_rate_hz, const noise_model_params& params) {
     return plan;
 }
 
-/// The band measurement over a residual of `total` samples read through `source`. Frames are
+/// The band measurement over a residual of `total` samples read through `source`, with plan made
+/// from plan_config(bp) (one per band plan, shared by its sources). Frames are
 /// analysed in order; the samples each needs are fetched into a buffer that slides forward, so
 /// only one buffer of residual is held. Frames near the ends read zeros outside the residual,
 /// exactly as stft_plan does on the whole residual.
 std::vector<noise_band_track> measure_bands(std::size_t total, const residual_source& source, double sample_rate_hz,
-                                            const band_plan& bp, double until_s = infinity) {
-    stft_plan plan(plan_config(bp, sample_rate_hz));
+                                            const band_plan& bp, stft_plan& plan, double until_s = infinity) {
     const int n_fft = plan.fft_size();
     double window_power_sum = 0.0;
     for (float w : plan.window_samples()) window_power_sum += static_cast<double>(w) * static_cast<double>(w);
@@ -344,9 +346,10 @@ std::vector<noise_band> model_from(std::size_t total, std::span<const timed_sour
                                    double sample_rate_hz, std::span<const double> partial_freqs_hz, double f0_hz,
                                    double loudest_partial_db, const noise_model_params& params) {
     auto lower_of_both = [&](const band_plan& plan) {
-        auto tracks = measure_bands(total, *sources[0].read, sample_rate_hz, plan);
+        stft_plan stft(plan_config(plan, sample_rate_hz));
+        auto tracks = measure_bands(total, *sources[0].read, sample_rate_hz, plan, stft);
         for (std::size_t k = 1; k < sources.size(); ++k) {
-            const auto other = measure_bands(total, *sources[k].read, sample_rate_hz, plan, sources[k].until_s);
+            const auto other = measure_bands(total, *sources[k].read, sample_rate_hz, plan, stft, sources[k].until_s);
             for (std::size_t b = 0; b < tracks.size(); ++b)
                 for (std::size_t i = 0; i < std::min(tracks[b].level_db.size(), other[b].level_db.size()); ++i)
                     tracks[b].level_db[i] = std::min(tracks[b].level_db[i], other[b].level_db[i]);
@@ -388,11 +391,12 @@ std::vector<std::vector<noise_band_track>> measure_noise_bands(std::span<const s
                                                                const noise_model_params& params) {
     const band_plan plan = floor_plan(sample_rate_hz, partial_freqs_hz, f0_hz, params);
     std::vector<std::vector<noise_band_track>> out;
+    stft_plan stft(plan_config(plan, sample_rate_hz));
     for (const std::span<const float> residual : residuals) {
         const residual_source source = [&](std::size_t first, std::span<float> dest) {
             std::copy_n(residual.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
         };
-        out.push_back(measure_bands(residual.size(), source, sample_rate_hz, plan));
+        out.push_back(measure_bands(residual.size(), source, sample_rate_hz, plan, stft));
     }
     return out;
 }
