@@ -97,6 +97,18 @@ double peak_matching_gain_db(const patch& p, std::span<const float> note, double
 
 namespace {
 
+/// p's gain from peak_matching_gain_db; where the noise's draw, not the partials, holds the copy
+/// under the recording (max_noise_shortfall_db), the bands step down until it does not.
+void match_peak(patch& p, std::span<const float> note, double sample_rate_hz) {
+    double shortfall_db = 0.0;
+    p.note.gain_db = peak_matching_gain_db(p, note, sample_rate_hz, &shortfall_db);
+    const auto max_steps = static_cast<int>(std::floor(max_noise_cut_db / noise_step_db));
+    for (int step = 0; step < max_steps && shortfall_db > max_noise_shortfall_db && !p.noise.empty(); ++step) {
+        for (noise_band& b : p.noise) b.env.peak = level_db{b.env.peak.db - noise_step_db};
+        p.note.gain_db = peak_matching_gain_db(p, note, sample_rate_hz, &shortfall_db);
+    }
+}
+
 /// The samples between params.start_s and params.end_s (0: the end); bad times are analysis errors.
 std::span<const float> analysed_part(std::span<const float> samples, double sample_rate_hz,
                                      const analysis_params& params) {
@@ -221,14 +233,12 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     // the modes' start that the onset refinement finds.
     const double tracker_onset_s = tr.onset_s;
     if (params.refine_onset) {
-        const auto onset = onset_frame;
-        if (onset < part.size()) {
-            const auto refined = refine_onset(p, part.subspan(onset), sample_rate_hz, params.onset);
+        if (onset_frame < part.size()) {
+            const auto refined = refine_onset(p, part.subspan(onset_frame), sample_rate_hz, params.onset);
             out.summary.new_modes = refined.new_modes;
             out.summary.partials = static_cast<int>(p.partials.size());
             out.summary.onset_explained_db = refined.explained_db;
-            // The modes start refined.start_shift_n samples after the tracker's onset: the patch's
-            // onset moves there, and the steps below (noise, recording end, peak) count from it.
+            // The modes start later by start_shift_n: the onset moves there (noise, end count from it).
             const double shift_s = static_cast<double>(refined.start_shift_n) / sample_rate_hz;
             out.tracking.onset_s += shift_s;
             p.source.onset_s += shift_s;
@@ -244,17 +254,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     done("recording end");
     if (params.match_peak) {
         const auto onset = static_cast<std::size_t>(std::llround(tracker_onset_s * sample_rate_hz));
-        const std::span<const float> note = part.subspan(std::min(onset, part.size()));
-        double shortfall_db = 0.0;
-        p.note.gain_db = peak_matching_gain_db(p, note, sample_rate_hz, &shortfall_db);
-        // The noise's draw, not the partials, holding the copy under the recording (see
-        // max_noise_shortfall_db): the bands step down until it does not.
-        for (double cut_db = 0.0; shortfall_db > max_noise_shortfall_db && !p.noise.empty() &&
-                                  cut_db + noise_step_db <= max_noise_cut_db;
-             cut_db += noise_step_db) {
-            for (noise_band& b : p.noise) b.env.peak = level_db{b.env.peak.db - noise_step_db};
-            p.note.gain_db = peak_matching_gain_db(p, note, sample_rate_hz, &shortfall_db);
-        }
+        match_peak(p, part.subspan(std::min(onset, part.size())), sample_rate_hz);
     }
     done("peak match");
     return out;

@@ -119,6 +119,24 @@ double fit_one(const mode_shape& a, double omega, std::complex<double> acc, std:
     return t0 * r0 + t1 * r1;
 }
 
+/// q[n] = x[n] exp(i omega n) into demod, the prefix sums of n q[n] into ramp_sum (count + 1) and
+/// the suffix sums t[T] = q[T] + exp(rho) t[T + 1] into tail_sum (count + 1).
+void projection_sums(std::span<const double> x, double omega, double rho, std::vector<std::complex<double>>& demod,
+                     std::vector<std::complex<double>>& ramp_sum, std::vector<std::complex<double>>& tail_sum) {
+    const std::size_t count = x.size();
+    const std::complex<double> z = std::polar(1.0, omega);
+    std::complex<double> p{1.0, 0.0};
+    for (std::size_t n = 0; n < count; ++n) {
+        if (n % 512 == 0) p = std::polar(1.0, std::remainder(omega * static_cast<double>(n), two_pi));
+        demod[n] = x[n] * p;
+        p *= z;
+        ramp_sum[n + 1] = ramp_sum[n] + static_cast<double>(n) * demod[n];
+    }
+    const double step = std::exp(rho);
+    tail_sum[count] = {};
+    for (std::size_t n = count; n-- > 0;) tail_sum[n] = demod[n] + step * tail_sum[n + 1];
+}
+
 }  // namespace
 
 std::vector<attack_choice> choose_attacks(std::span<const float> target, double sample_rate_hz,
@@ -149,17 +167,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
         // every T at once, in O(count).
         const double omega = two_pi * modes[i].freq_hz / sample_rate_hz;
         const double rho = -modes[i].decay_per_s / sample_rate_hz;
-        const std::complex<double> z = std::polar(1.0, omega);
-        std::complex<double> p{1.0, 0.0};
-        for (std::size_t n = 0; n < count; ++n) {
-            if (n % 512 == 0) p = std::polar(1.0, std::remainder(omega * static_cast<double>(n), two_pi));
-            demod[n] = residual[n] * p;
-            p *= z;
-            ramp_sum[n + 1] = ramp_sum[n] + static_cast<double>(n) * demod[n];
-        }
-        const double step = std::exp(rho);
-        tail_sum[count] = {};
-        for (std::size_t n = count; n-- > 0;) tail_sum[n] = demod[n] + step * tail_sum[n + 1];
+        projection_sums(residual, omega, rho, demod, ramp_sum, tail_sum);
         // An instant start that rises: its projection sum a[n] q[n] directly, O(count) per choice.
         const auto explained = [&](const attack_choice& c, std::complex<double>& amp) {
             const mode_shape shape = attack_shape(c, rho, count);

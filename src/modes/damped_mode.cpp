@@ -265,7 +265,7 @@ std::vector<double> sliding_fit_residuals(std::span<const float> x, double sampl
         z_count[k] = std::exp(std::complex<double>{rho * static_cast<double>(count),
                                                    std::remainder(omega[k] * static_cast<double>(count), two_pi)});
     }
-    Eigen::MatrixXd gram = shape_gram(own, omega);
+    Eigen::MatrixXd gram = shape_gram(own, omega, count);
     gram.diagonal().array() += ridge_rel * gram.diagonal().mean();
     const Eigen::LLT<Eigen::MatrixXd> llt(gram);
     const auto dim = static_cast<Eigen::Index>(2 * k_count);
