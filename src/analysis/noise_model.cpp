@@ -7,6 +7,7 @@
 #include <utility>
 
 #include "analysis/band_leakage.hpp"
+#include "analysis/floor_onset.hpp"
 #include "core/noise_bands.hpp"
 #include "spectrum/stft.hpp"
 #include "synthesis/render.hpp"
@@ -307,7 +308,8 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
         // The floor band is fitted on the frames whose window lies wholly inside the recording (a
         // frame across the onset, or across the end of a recording cut while it sounds, sees it
         // through a window cut in half, whose skirts spread the partials over every band), its
-        // first line run back to the onset; with an attack band it also starts past where the
+        // first line run back to the onset as far as those frames agree (analysis/floor_onset.hpp);
+        // with an attack band it also starts past where the
         // burst still carries half the band's power (the two do not overlap). The floor band's
         // own steady end is part of it (the recording's hiss holds), so the fit runs to the end:
         // no floor under it but the neighbours' leakage.
@@ -323,7 +325,10 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
         }
         envelope_fit_params fit = params.fit;
         fit.window_s = window_s;
-        const auto result = fit_partial(as_track(t, first, end, silence_db), fit);
+        auto result = fit_partial(as_track(t, first, end, silence_db), fit);
+        if (result)
+            result->env = limit_run_back(result->env, {.window = window_kind::blackman_harris_4, .window_s = window_s,
+                                                       .hop_s = t.hop_s, .level_db = t.level_db, .first = first});
         // Bounded like the partials' fits (analyze.cpp): a peak beyond what the format holds (an
         // attack extrapolated far above the measured levels) is no band of this note.
         // A floor band is kept down to digital silence (the recording's own hiss is part of its
