@@ -9,11 +9,10 @@
 // down). For each note it prints the median wall and thread-CPU time of analyze_note, the
 // real-time factor (audio seconds / analysis seconds, from the CPU median: the machine is shared,
 // wall time counts the other processes too), the FFT size / window / hop the tracker chose, and
-// the median CPU time of the stages timed separately: track_note, the envelope fits of all
-// tracks, and the noise model (the partials' resynthesis plus fit_noise_bands), as analyze.cpp
-// runs them; the noise model split into the resynthesis, the band measurement and the band fits;
-// and the streamed noise model (fit_note_noise, which never holds the residual whole), checked
-// to give the same bands.
+// the median thread-CPU time of each stage of that same analyze_note run, as it reports its stages
+// ending (wane::stage_observer): tracking, envelope fits, long spectrum, root and added peaks,
+// pair split, onset refinement (the high-resolution stage), noise model (streamed), recording
+// end, peak match.
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
@@ -22,16 +21,13 @@
 #include <ctime>
 #include <exception>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "analysis/analyze.hpp"
-#include "analysis/noise_model.hpp"
 #include "core/rng.hpp"
 #include "core/units.hpp"
-#include "fitting/envelope_fit.hpp"
 #include "io/audio_file.hpp"
-#include "synthesis/render.hpp"
-#include "tracking/tracker.hpp"
 #include "bench_timing.hpp"
 
 using wane::bench::median;
@@ -86,10 +82,25 @@ void bench_note(const std::string& name, const std::vector<float>& x, double fs,
     const wane::analysis_params params{};
     const double audio_s = static_cast<double>(x.size()) / fs;
     std::vector<double> wall, cpu;
+    // Per stage, in the order analyze_note reports them: the thread CPU time of each repeat.
+    std::vector<std::string> stage_names;
+    std::vector<std::vector<double>> stage_cpu;
     wane::analysis_result r;
     for (int i = 0; i < repeats; ++i) {
+        std::size_t stage = 0;
+        double mark = 0.0;
+        const wane::stage_observer observe = [&](std::string_view finished) {
+            const double now = thread_cpu_s();
+            if (stage == stage_names.size()) {
+                stage_names.emplace_back(finished);
+                stage_cpu.emplace_back();
+            }
+            stage_cpu[stage++].push_back(now - mark);
+            mark = thread_cpu_s();
+        };
         const double w0 = wall_s(), c0 = thread_cpu_s();
-        r = wane::analyze_note(x, fs, params);
+        mark = c0;
+        r = wane::analyze_note(x, fs, params, observe);
         cpu.push_back(thread_cpu_s() - c0);
         wall.push_back(wall_s() - w0);
     }
@@ -102,80 +113,12 @@ void bench_note(const std::string& name, const std::vector<float>& x, double fs,
     const double cpu_med = median(cpu), wall_med = median(wall);
     std::printf("  analyze_note, median of %d: %.2f ms thread CPU, %.2f ms wall -> %.0fx real time (CPU), %.0fx (wall)\n",
                 repeats, 1e3 * cpu_med, 1e3 * wall_med, audio_s / cpu_med, audio_s / wall_med);
-
-    // The stages alone, as analyze.cpp runs them (default settings: the whole file).
-    std::vector<double> track_t, fit_t, noise_t, resynth_t, measure_t, stream_t, refine_t, peak_t;
-    for (int i = 0; i < repeats; ++i) {
-        double c0 = thread_cpu_s();
-        const wane::tracking_result t = wane::track_note(x, fs, params.tracking);
-        track_t.push_back(thread_cpu_s() - c0);
-
-        c0 = thread_cpu_s();
-        const wane::envelope_fit_params fp{.max_segments = params.max_segments, .window_s = t.window_s};
-        wane::patch p;
-        for (const wane::partial_track& track : t.tracks) {
-            const auto f = wane::fit_partial(track, fp);
-            if (f && f->env.peak.db <= wane::max_peak_db)
-                p.partials.push_back({.freq_hz = f->freq_hz, .harmonic = track.harmonic, .phase_rad = f->phase_rad, .env = f->env, .place = {}});
-        }
-        fit_t.push_back(thread_cpu_s() - c0);
-
-        const auto onset = static_cast<std::size_t>(std::llround(t.onset_s * fs));
-        const std::span<const float> note = std::span<const float>(x).subspan(onset);
-        p.note.length_s = r.value.note.length_s;
-        {
-            // The onset refinement and the peak match on a copy (the stages below see the
-            // partials as the fits gave them, as before).
-            wane::patch refined = p;
-            c0 = thread_cpu_s();
-            (void)wane::refine_onset(refined, note, fs, params.onset);
-            refine_t.push_back(thread_cpu_s() - c0);
-            c0 = thread_cpu_s();
-            (void)wane::peak_matching_gain_db(refined, note, fs);
-            peak_t.push_back(thread_cpu_s() - c0);
-        }
-        c0 = thread_cpu_s();
-        const std::vector<float> partials_only = wane::render_patch(
-            p, {.sample_rate_hz = fs, .length_s = static_cast<double>(note.size()) / fs, .include_noise = false});
-        std::vector<float> residual(note.begin(), note.end());
-        for (std::size_t k = 0; k < std::min(residual.size(), partials_only.size()); ++k) residual[k] -= partials_only[k];
-        resynth_t.push_back(thread_cpu_s() - c0);
-        std::vector<double> freqs_hz;
-        double loudest_db = -wane::infinity;
-        for (const auto& q : p.partials) {
-            freqs_hz.push_back(q.freq_hz);
-            loudest_db = std::max(loudest_db, q.env.peak.db);
-        }
-        const auto bands = wane::fit_noise_bands(residual, fs, freqs_hz, loudest_db, params.noise);
-        noise_t.push_back(thread_cpu_s() - c0);
-        // The band measurement alone (fit_noise_bands runs it first, then fits the bands).
-        const double m0 = thread_cpu_s();
-        (void)wane::measure_noise_bands(residual, fs, freqs_hz, 0.0, params.noise);
-        measure_t.push_back(thread_cpu_s() - m0);
-        if (bands.size() != r.value.noise.size()) std::printf("  (stage run gave %zu noise bands)\n", bands.size());
-        // The streamed noise model (fit_note_noise: the residual formed a block at a time).
-        const double s0 = thread_cpu_s();
-        const auto streamed = wane::fit_note_noise(note, fs, p, params.noise);
-        stream_t.push_back(thread_cpu_s() - s0);
-        if (i == 0 && !(streamed == bands)) {
-            std::printf("  streamed noise model differs from the held residual's:\n");
-            for (std::size_t b = 0; b < std::min(streamed.size(), bands.size()); ++b)
-                std::printf("    band %.0f Hz: peak %.6f vs %.6f dB, t60 %.6f vs %.6f s\n", bands[b].low_hz,
-                            streamed[b].env.peak.db, bands[b].env.peak.db, streamed[b].env.decay.front().t60_s,
-                            bands[b].env.decay.front().t60_s);
-        }
+    // The stages as analyze_note runs them (wane::stage_observer), each its median over the repeats.
+    std::printf("  stages of analyze_note, median thread CPU:\n");
+    for (std::size_t s = 0; s < stage_names.size(); ++s) {
+        const double ms = 1e3 * median(stage_cpu[s]);
+        std::printf("    %-22s %8.2f ms %5.1f%%\n", stage_names[s].c_str(), ms, 100.0 * ms / (1e3 * cpu_med));
     }
-    const double sum = median(track_t) + median(fit_t) + median(noise_t);
-    std::printf("  stages, median thread CPU: track_note %.2f ms (%.0f%%), envelope fits %.2f ms (%.0f%%), "
-                "noise model %.2f ms (%.0f%%)\n",
-                1e3 * median(track_t), 100.0 * median(track_t) / sum, 1e3 * median(fit_t), 100.0 * median(fit_t) / sum,
-                1e3 * median(noise_t), 100.0 * median(noise_t) / sum);
-    std::printf("  noise model: partials' resynthesis and residual %.2f ms, band measurement %.2f ms, band fits ~%.2f ms\n",
-                1e3 * median(resynth_t), 1e3 * median(measure_t),
-                1e3 * (median(noise_t) - median(resynth_t) - median(measure_t)));
-    std::printf("  noise model streamed (fit_note_noise): %.2f ms\n", 1e3 * median(stream_t));
-    std::printf("  onset refinement (least squares at the onset, subband ESPRIT) %.2f ms, peak match %.2f ms\n",
-                1e3 * median(refine_t), 1e3 * median(peak_t));
 }
 
 }  // namespace
@@ -185,7 +128,7 @@ int main(int argc, char** argv) {
     std::vector<std::string> files;
     for (int i = 1; i < argc; ++i) {
         if (std::strcmp(argv[i], "--repeats") == 0 && i + 1 < argc) {
-            repeats = std::max(1, std::atoi(argv[++i]));
+            repeats = std::max(1, static_cast<int>(std::strtol(argv[++i], nullptr, 10)));
         } else if (argv[i][0] == '-') {
             std::fprintf(stderr, "usage: bench_analyze [--repeats N] [FILE...]\n");
             return 2;

@@ -136,40 +136,53 @@ std::vector<cut_part> fit_tracks(analysis_result& out, const envelope_fit_params
     return fitted;
 }
 
+/// The recording's spectrum over the heard span (note[0] at the onset): the partials move to its
+/// peaks, and late companions closer than the span resolves become one partial with their
+/// stronger neighbour; fitted follows the patch's indices. Returns the spectrum (add_heard_peaks
+/// reads it again).
+heard_span_spectrum move_to_long_spectrum(analysis_result& out, std::vector<cut_part>& fitted, std::span<const float> note,
+                                          double sample_rate_hz, const heard_peak_params& params) {
+    patch& p = out.value;
+    heard_span_spectrum heard = heard_spectrum(note, sample_rate_hz, params);
+    std::vector<const partial_track*> tracks(fitted.size());
+    for (std::size_t i = 0; i < fitted.size(); ++i) tracks[i] = fitted[i].track;
+    out.summary.moved_to_heard_peaks = move_to_heard_peaks(p, tracks, heard, params);
+    const merge_result merged = merge_late_companions(p, tracks, note, sample_rate_hz, params);
+    for (const merged_partial& m : merged.kept)
+        fitted[m.index] = {.env = nullptr, .track = nullptr, .fit_start_s = m.fit_start_s, .fit_end_s = m.fit_end_s};
+    for (std::size_t k = merged.removed.size(); k-- > 0;)  // descending: indices stay valid
+        fitted.erase(fitted.begin() + static_cast<std::ptrdiff_t>(merged.removed[k]));
+    out.summary.merged_companions = static_cast<int>(merged.removed.size());
+    out.summary.partials = static_cast<int>(p.partials.size());
+    return heard;
+}
+
 }  // namespace
 
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
-                             const analysis_params& params) {
+                             const analysis_params& params, const stage_observer& stage_done) {
     assert(sample_rate_hz > 0.0);
     assert(params.max_segments >= 1 && params.max_segments <= max_fit_decay_segments);
     const std::span<const float> part = analysed_part(samples, sample_rate_hz, params);
+    const auto done = [&](std::string_view stage) {
+        if (stage_done) stage_done(stage);
+    };
 
     analysis_result out;
     out.tracking = track_note(part, sample_rate_hz, params.tracking);
     const tracking_result& tr = out.tracking;
+    done("tracking");
 
     const envelope_fit_params fit_params{.max_segments = params.max_segments, .window_s = tr.window_s};
     std::vector<cut_part> fitted = fit_tracks(out, fit_params);
     patch& p = out.value;
+    done("envelope fits");
 
     const auto onset_frame = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
     heard_span_spectrum heard;  // the recording's spectrum over the heard span, for both steps
-    if (params.long_spectrum && onset_frame < part.size()) {
-        heard = heard_spectrum(part.subspan(onset_frame), sample_rate_hz, params.heard_peaks);
-        std::vector<const partial_track*> tracks(fitted.size());
-        for (std::size_t i = 0; i < fitted.size(); ++i) tracks[i] = fitted[i].track;
-        out.summary.moved_to_heard_peaks = move_to_heard_peaks(p, tracks, heard, params.heard_peaks);
-        // Late companions closer than the span resolves become one partial with their stronger
-        // neighbour; fitted follows the patch's indices.
-        const merge_result merged =
-            merge_late_companions(p, tracks, part.subspan(onset_frame), sample_rate_hz, params.heard_peaks);
-        for (const merged_partial& m : merged.kept)
-            fitted[m.index] = {.env = nullptr, .track = nullptr, .fit_start_s = m.fit_start_s, .fit_end_s = m.fit_end_s};
-        for (std::size_t k = merged.removed.size(); k-- > 0;)  // descending: indices stay valid
-            fitted.erase(fitted.begin() + static_cast<std::ptrdiff_t>(merged.removed[k]));
-        out.summary.merged_companions = static_cast<int>(merged.removed.size());
-        out.summary.partials = static_cast<int>(p.partials.size());
-    }
+    if (params.long_spectrum && onset_frame < part.size())
+        heard = move_to_long_spectrum(out, fitted, part.subspan(onset_frame), sample_rate_hz, params.heard_peaks);
+    done("long spectrum");
 
     const double analysed_s = static_cast<double>(part.size()) / sample_rate_hz - tr.onset_s;
     p.note.name = params.note_name;
@@ -185,6 +198,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
                                                         params.heard_peaks, fit_params);
         out.summary.partials = static_cast<int>(p.partials.size());
     }
+    done("root and added peaks");
     p.note.length_s = std::max(length_step_s, std::ceil(analysed_s / length_step_s - 1e-9) * length_step_s);
     p.source.file = params.source_file;
     p.source.sample_rate_hz = sample_rate_hz;
@@ -195,6 +209,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         out.summary.pairs_split = split_beating_pairs(p, part.subspan(onset_frame), sample_rate_hz, params.pairs);
         out.summary.partials = static_cast<int>(p.partials.size());
     }
+    done("pair split");
     if (params.refine_onset) {
         const auto onset = onset_frame;
         if (onset < part.size()) {
@@ -206,13 +221,17 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
             for (const partial& q : p.partials) out.summary.segments += static_cast<int>(q.env.decay.size());
         }
     }
+    done("onset refinement");
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);
+    done("noise model");
     apply_recording_end(out, part, sample_rate_hz, fitted, params);
     canonicalize(p);
+    done("recording end");
     if (params.match_peak) {
         const auto onset = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
         p.note.gain_db = peak_matching_gain_db(p, part.subspan(std::min(onset, part.size())), sample_rate_hz);
     }
+    done("peak match");
     return out;
 }
 

@@ -1,8 +1,10 @@
 // The whole analysis: a mono recording -> a patch. Owned by the Analysis II work.
 #pragma once
 
+#include <functional>
 #include <span>
 #include <string>
+#include <string_view>
 
 #include "analysis/cut_tail.hpp"
 #include "analysis/noise_model.hpp"
@@ -91,8 +93,15 @@ inline constexpr double default_output_rate_hz = 48000.0;
 /// partials carry only in part). Levels that add up: the copy peaks with the recording.
 double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz);
 
+/// Called by analyze_note as each of its stages ends, with the stage's name, in order: "tracking",
+/// "envelope fits", "long spectrum" (the heard-span spectrum, the move to its peaks, the late
+/// companions' merge), "root and added peaks", "pair split", "onset refinement", "noise model",
+/// "recording end", "peak match". A stage that does not run (its switch off) is still reported.
+/// The analysis reads no clock: a benchmark times the stages between calls (tools/bench_analyze).
+using stage_observer = std::function<void(std::string_view stage)>;
+
 /// Throws analysis_error with a user-facing reason when the sound cannot be analyzed.
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
-                             const analysis_params& params);
+                             const analysis_params& params, const stage_observer& stage_done = {});
 
 }  // namespace wane

@@ -171,35 +171,50 @@ std::vector<float> channel_residual(const patch& p, channel_side side, std::span
     return out;
 }
 
-/// Band powers (sum over frames of 10^(level/10)) of each track.
-std::vector<double> band_powers(const std::vector<noise_band_track>& tracks) {
+/// Band powers (sum of 10^(level/10) over the frames centred in [from_s, to_s]) of each track;
+/// over every frame when none is centred there.
+std::vector<double> band_powers(const std::vector<noise_band_track>& tracks, double from_s, double to_s) {
     std::vector<double> out;
     for (const noise_band_track& t : tracks) {
         double sum = 0.0;
-        for (const float db : t.level_db) sum += std::pow(10.0, static_cast<double>(db) / 10.0);
-        out.push_back(sum);
+        double all = 0.0;
+        for (std::size_t i = 0; i < t.level_db.size(); ++i) {
+            const double power = std::pow(10.0, static_cast<double>(t.level_db[i]) / 10.0);
+            const double centre_s = static_cast<double>(i) * t.hop_s;
+            all += power;
+            if (centre_s >= from_s && centre_s <= to_s) sum += power;
+        }
+        out.push_back(sum > 0.0 ? sum : all);
     }
     return out;
 }
 
 void place_noise(patch& p, std::span<const float> left, std::span<const float> right, double sample_rate_hz,
                  const stereo_place_params& params) {
+    std::vector<double> freqs;
+    for (const partial& q : p.partials) freqs.push_back(q.freq_hz);
+    // Only frames whose window lies wholly inside the residual count (as in the mono noise model's
+    // fit): a window across either cut end sees the residual's loudest (low) content through a
+    // step, whose skirt covers every band above it and, differing between the channels, would
+    // place every quiet band where that content leans. The residual runs half a window past
+    // noise_span_s so the frames centred up to it stay inside.
+    const double half_window_s = 0.5 * floor_window_s(freqs, p.note.f0_hz, params.noise);
     const std::size_t n = std::min({left.size(), right.size(),
-                                    static_cast<std::size_t>(std::llround(params.noise_span_s * sample_rate_hz))});
+                                    static_cast<std::size_t>(std::llround((params.noise_span_s + half_window_s) * sample_rate_hz))});
     if (p.noise.empty() || n == 0) return;
     const std::vector<float> res_l = channel_residual(p, channel_side::left, left, n, sample_rate_hz);
     const std::vector<float> res_r = channel_residual(p, channel_side::right, right, n, sample_rate_hz);
     std::vector<float> res_m(n);
     for (std::size_t i = 0; i < n; ++i) res_m[i] = 0.5f * (res_l[i] + res_r[i]);
-    std::vector<double> freqs;
-    for (const partial& q : p.partials) freqs.push_back(q.freq_hz);
+    const double from_s = half_window_s;
+    const double to_s = std::min(params.noise_span_s, static_cast<double>(n) / sample_rate_hz - half_window_s);
     // One measurement plan for the three (the floor window the mono noise model used: the note's f0).
     const std::span<const float> residuals[] = {res_l, res_r, res_m};
     const auto measured = measure_noise_bands(residuals, sample_rate_hz, freqs, p.note.f0_hz, params.noise);
     const std::vector<noise_band_track>& tracks = measured[0];
-    const std::vector<double> pl = band_powers(measured[0]);
-    const std::vector<double> pr = band_powers(measured[1]);
-    const std::vector<double> pm = band_powers(measured[2]);
+    const std::vector<double> pl = band_powers(measured[0], from_s, to_s);
+    const std::vector<double> pr = band_powers(measured[1], from_s, to_s);
+    const std::vector<double> pm = band_powers(measured[2], from_s, to_s);
     constexpr double same_edge_hz = 0.5;
     for (noise_band& b : p.noise) {
         for (std::size_t i = 0; i < tracks.size(); ++i) {
