@@ -38,16 +38,18 @@ double framed_level_db(const envelope& env, std::span<const envelope_piece> piec
     return weighted > 0.0 ? 10.0 * std::log10(weighted / total) : -infinity;
 }
 
-/// Whether every frame in [0, frames.first) measured at least env's prediction less the margin.
+/// Whether the frames in [0, frames.first) measured, on the mean over them in dB, at least env's
+/// prediction less the margin (one frame's median of a few bins scatters by 3-4 dB frame to frame,
+/// measured on test_noise's 501 Hz band).
 bool agrees(const envelope& env, const onset_frames& frames) {
     const auto pieces = envelope_pieces(env);
     const std::size_t n = std::min(frames.first, frames.level_db.size());
-    for (std::size_t i = 0; i < n; ++i) {
-        const double predicted_db =
-            framed_level_db(env, pieces, frames.window, frames.window_s, static_cast<double>(i) * frames.hop_s);
-        if (predicted_db > static_cast<double>(frames.level_db[i]) + frames.margin_db) return false;
-    }
-    return true;
+    if (n == 0) return true;
+    double excess_db = 0.0;
+    for (std::size_t i = 0; i < n; ++i)
+        excess_db += framed_level_db(env, pieces, frames.window, frames.window_s, static_cast<double>(i) * frames.hop_s) -
+                     static_cast<double>(frames.level_db[i]);
+    return excess_db / static_cast<double>(n) <= frames.margin_db;
 }
 
 }  // namespace
