@@ -28,6 +28,7 @@
 #include "transform/keymap_sfz.hpp"
 #include "core/rng.hpp"
 #include "transform/transform.hpp"
+#include "test_support.hpp"
 
 using Catch::Matchers::WithinAbs;
 using Catch::Matchers::WithinRel;
@@ -551,9 +552,8 @@ TEST_CASE("wane keymap: SFZ parses, samples exist, ranges tile, root notes match
     if (exe == nullptr) exe = WANE_EXE;  // the build's wane, when run outside CTest
 #endif
     REQUIRE(exe != nullptr);
-    const std::filesystem::path dir = std::filesystem::temp_directory_path() / "wane-test-transform-keymap";
-    std::filesystem::remove_all(dir);
-    std::filesystem::create_directories(dir);
+    const test::scratch_dir scratch("transform_keymap");  // per process: suites may run at once
+    const std::filesystem::path& dir = scratch.path;
     patch p = harmonic_patch(196.0, 10);
     p.note.length_s = 0.5;
     write_patch_file(dir / "pluck.toml", p);
@@ -605,7 +605,6 @@ TEST_CASE("wane keymap: SFZ parses, samples exist, ranges tile, root notes match
     }
     CHECK(regions.size() == 6 * 3 * 2);  // A2 C#3 F3 A3 C#4 and D4 (the top), 3 layers, 2 variants
     check_tiling(regions, params);
-    std::filesystem::remove_all(dir);
 }
 
 TEST_CASE("amp_veltrack: the SFZ default curve, and the fit to the rendered layers", "[transform][keymap]") {

@@ -1,0 +1,220 @@
+#include "analysis/noise_measure.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdint>
+
+#include "synthesis/render.hpp"
+
+namespace wane {
+
+namespace {
+
+/// Main-lobe half-width of the 4-term Blackman-Harris window in bins of the unpadded window
+/// (Harris 1978: the main lobe spans +-4 bins).
+constexpr double bh4_half_lobe_bins = 4.0;
+/// FFT size over window length: at most this. The attack's short window is padded so to have
+/// bins enough in the narrow bands.
+constexpr int zero_padding = 2;
+/// The floor takes the median of the bins between partials: unpadded bins are independent for
+/// white noise (the exponential median's premise), and a long window (a low note) has bins enough
+/// without padding. A window shorter than 1 / floor_bin_hz is padded (up to zero_padding) to bins
+/// of this width, so the narrow bands below a few hundred hertz keep their free bins near them
+/// (measured: with 10 Hz bins a 60 ms window's borrowed bins around 200 Hz take up a loud band's
+/// skirt at 500 Hz, test_noise; with 8 Hz they do not).
+constexpr double floor_bin_hz = 8.0;
+/// The streamed residual is formed this many renderer anchor blocks at a time (plus one window).
+constexpr std::size_t residual_blocks = 64;
+
+/// Expected median of n independent unit-mean exponential variables (the power of one noise bin):
+/// the k-th smallest has mean sum_{j = n - k + 1}^{n} 1 / j (Renyi's representation); an even n
+/// takes the mean of the two middle ones. Tends to ln 2 for large n.
+double expected_exponential_median(std::size_t n) {
+    auto order_mean = [n](std::size_t k) {
+        double s = 0.0;
+        for (std::size_t j = n - k + 1; j <= n; ++j) s += 1.0 / static_cast<double>(j);
+        return s;
+    };
+    return n % 2 == 1 ? order_mean(n / 2 + 1) : 0.5 * (order_mean(n / 2) + order_mean(n / 2 + 1));
+}
+
+
+stft_config plan_config(const band_plan& plan, double sample_rate_hz) {
+    const int window_length = std::max(33, static_cast<int>(std::lround(plan.window_s * sample_rate_hz)) | 1);
+    int size = zero_padding * window_length;
+    if (plan.widest_bin_hz > 0.0)
+        size = std::clamp(static_cast<int>(std::ceil(sample_rate_hz / plan.widest_bin_hz)), window_length, size);
+    return {.window = plan.window, .window_length = window_length, .fft_size = fast_fft_size(size)};
+}
+
+/// The plan's band-to-band leakage through its window (analysis/band_leakage.hpp).
+void add_leakage(band_plan& plan, double sample_rate_hz) {
+    const stft_plan stft(plan_config(plan, sample_rate_hz));
+    plan.leak = band_leakage(stft.window_samples(), stft.fft_size(), plan.bins, plan.ranges, plan.median);
+}
+
+}  // namespace
+
+band_plan floor_plan(double sample_rate_hz, std::span<const double> partial_freqs_hz, double f0_hz,
+                     const noise_model_params& params) {
+    const double window_s = floor_window_s(partial_freqs_hz, f0_hz, params);
+    band_plan plan{.window = window_kind::blackman_harris_4, .window_s = window_s,
+                   .hop_s = std::max(params.hop_s, window_s / params.floor_hops_per_window), .median = true,
+                   .widest_bin_hz = floor_bin_hz, .bands = {}, .bins = {}, .band_total_bins = {}, .ranges = {}, .leak = {}};
+    const stft_config config = plan_config(plan, sample_rate_hz);
+    const int n_bins = config.fft_size / 2 + 1;
+    const double bin_hz = sample_rate_hz / config.fft_size;
+    const double guard_hz = params.partial_guard_lobes * bh4_half_lobe_bins * sample_rate_hz / config.window_length;
+    std::vector<int> free_bins;
+    for (int k = 1; k < n_bins - 1; ++k) {
+        const double f = k * bin_hz;
+        if (std::none_of(partial_freqs_hz.begin(), partial_freqs_hz.end(),
+                         [&](double pf) { return std::abs(pf - f) < guard_hz; }))
+            free_bins.push_back(k);
+    }
+    for (const band_edges& e : noise_band_layout(sample_rate_hz / 2.0)) {
+        const int first = std::max(1, static_cast<int>(std::ceil(e.low_hz / bin_hz)));
+        const int last = std::min(n_bins - 2, static_cast<int>(std::ceil(e.high_hz / bin_hz)) - 1);
+        if (last < first || free_bins.empty()) continue;
+        std::vector<int> chosen;
+        for (int k : free_bins)
+            if (k >= first && k <= last) chosen.push_back(k);
+        if (chosen.size() < static_cast<std::size_t>(params.min_free_bins)) {
+            // Borrow the free bins nearest the band's centre in log frequency.
+            const double centre_hz = std::sqrt(e.low_hz * e.high_hz);
+            chosen = free_bins;
+            const auto n = std::min(chosen.size(), static_cast<std::size_t>(params.min_free_bins));
+            std::partial_sort(chosen.begin(), chosen.begin() + static_cast<std::ptrdiff_t>(n), chosen.end(), [&](int a, int b) {
+                return std::abs(std::log(a * bin_hz / centre_hz)) < std::abs(std::log(b * bin_hz / centre_hz));
+            });
+            chosen.resize(n);
+        }
+        plan.bands.push_back(e);
+        plan.bins.push_back(std::move(chosen));
+        plan.band_total_bins.push_back(last - first + 1);
+        plan.ranges.emplace_back(first, last);
+    }
+    add_leakage(plan, sample_rate_hz);
+    return plan;
+}
+
+band_plan attack_plan(double sample_rate_hz, const noise_model_params& params) {
+    band_plan plan{.window = window_kind::hann, .window_s = params.attack_window_s, .hop_s = params.attack_hop_s,
+                   .span_s = 2.0 * params.attack_span_s, .median = false, .widest_bin_hz = 0.0, .bands = {}, .bins = {},
+                   .band_total_bins = {}, .ranges = {}, .leak = {}};
+    const stft_config config = plan_config(plan, sample_rate_hz);
+    const int n_bins = config.fft_size / 2 + 1;
+    const double bin_hz = sample_rate_hz / config.fft_size;
+    const double window_bin_hz = sample_rate_hz / config.window_length;
+    for (const band_edges& e : noise_band_layout(sample_rate_hz / 2.0)) {
+        if ((e.high_hz - e.low_hz) < params.attack_min_bins * window_bin_hz) continue;
+        const int first = std::max(1, static_cast<int>(std::ceil(e.low_hz / bin_hz)));
+        const int last = std::min(n_bins - 2, static_cast<int>(std::ceil(e.high_hz / bin_hz)) - 1);
+        if (last < first) continue;
+        std::vector<int> bins(static_cast<std::size_t>(last - first + 1));
+        for (int k = first; k <= last; ++k) bins[static_cast<std::size_t>(k - first)] = k;
+        plan.bands.push_back(e);
+        plan.bins.push_back(std::move(bins));
+        plan.band_total_bins.push_back(last - first + 1);
+        plan.ranges.emplace_back(first, last);
+    }
+    add_leakage(plan, sample_rate_hz);
+    return plan;
+}
+
+std::vector<noise_band_track> measure_bands(std::size_t total, const residual_source& source, double sample_rate_hz,
+                                            const band_plan& bp, double until_s) {
+    stft_plan plan(plan_config(bp, sample_rate_hz));
+    const int n_fft = plan.fft_size();
+    double window_power_sum = 0.0;
+    for (float w : plan.window_samples()) window_power_sum += static_cast<double>(w) * static_cast<double>(w);
+    const double amp_scale_sq = plan.amp_scale() * plan.amp_scale();
+
+    const auto hop = static_cast<std::size_t>(std::max<std::int64_t>(1, std::llround(bp.hop_s * sample_rate_hz)));
+    std::size_t end = total;
+    if (bp.span_s > 0.0) end = std::min(total, static_cast<std::size_t>(std::llround(bp.span_s * sample_rate_hz)));
+    if (until_s < static_cast<double>(end) / sample_rate_hz)
+        end = static_cast<std::size_t>(std::ceil(std::max(0.0, until_s) * sample_rate_hz));
+    const std::size_t frame_count = end == 0 ? 0 : (end - 1) / hop + 1;
+    std::vector<noise_band_track> tracks(bp.bands.size());
+    // Per band, once: the expected median of its bins' count of unit exponentials.
+    std::vector<double> unit_median(bp.bands.size(), 1.0);
+    std::size_t most_bins = 0;
+    for (std::size_t b = 0; b < bp.bands.size(); ++b) {
+        tracks[b] = {.low_hz = bp.bands[b].low_hz, .high_hz = bp.bands[b].high_hz,
+                     .hop_s = static_cast<double>(hop) / sample_rate_hz, .level_db = {}, .leak_db = {}};
+        tracks[b].level_db.reserve(frame_count);
+        if (bp.median && !bp.bins[b].empty()) unit_median[b] = expected_exponential_median(bp.bins[b].size());
+        most_bins = std::max(most_bins, bp.bins[b].size());
+    }
+    std::vector<float> scratch(most_bins);
+
+    // The buffer holds residual [buf_first, buf_first + buf.size()); it starts at a multiple of
+    // the renderer's anchor length (so the partials come out as in one whole render).
+    const auto half = static_cast<std::size_t>(plan.half_length());
+    const std::size_t buf_capacity =
+        std::min(total, residual_blocks * render_anchor_frames + 2 * half + render_anchor_frames);
+    std::vector<float> buf;
+    buf.reserve(buf_capacity);
+    std::size_t buf_first = 0;
+    for (std::size_t centre = 0; centre < end; centre += hop) {
+        const std::size_t lo = centre >= half ? centre - half : 0;
+        const std::size_t hi = std::min(total, centre + half + 1);
+        if (buf.empty() || lo < buf_first || hi > buf_first + buf.size()) {
+            buf_first = lo / render_anchor_frames * render_anchor_frames;
+            buf.resize(std::min(buf_capacity, total - buf_first));
+            source(buf_first, buf);
+        }
+        // Frames that reach past either end of the residual see the buffer's edges there too
+        // (the buffer starts at 0 or ends at total when they do), so zeros are read as before.
+        const bool at_start = centre < half;
+        const bool at_end = centre + half + 1 > total;
+        std::span<const float> view(buf);
+        auto local_centre = static_cast<std::int64_t>(centre - buf_first);
+        if (!at_start && !at_end) {
+            view = view.subspan(lo - buf_first, hi - lo);
+            local_centre = static_cast<std::int64_t>(half);
+        }
+        plan.analyze(view, local_centre);
+        const auto power = plan.power();
+        for (std::size_t b = 0; b < bp.bands.size(); ++b) {
+            const std::vector<int>& bins = bp.bins[b];
+            double mean_bin_power = 0.0;
+            if (bp.median) {
+                const auto first = scratch.begin();
+                const auto last = first + static_cast<std::ptrdiff_t>(bins.size());
+                for (std::size_t i = 0; i < bins.size(); ++i) scratch[i] = power[static_cast<std::size_t>(bins[i])];
+                const auto mid = first + static_cast<std::ptrdiff_t>(bins.size() / 2);
+                std::nth_element(first, mid, last);
+                double median = *mid;
+                if (bins.size() % 2 == 0) median = 0.5 * (median + static_cast<double>(*std::max_element(first, mid)));
+                mean_bin_power = median / unit_median[b] / amp_scale_sq;
+            } else {
+                double sum = 0.0;
+                for (int k : bins) sum += static_cast<double>(power[static_cast<std::size_t>(k)]);
+                mean_bin_power = sum / static_cast<double>(bins.size()) / amp_scale_sq;
+            }
+            const double band_power = band_power_from_bins(mean_bin_power, bp.band_total_bins[b], n_fft, window_power_sum);
+            tracks[b].level_db.push_back(static_cast<float>(std::max(noise_silence_db, power_to_db(band_power))));
+        }
+    }
+    return tracks;
+}
+
+double floor_window_s(std::span<const double> partial_freqs_hz, double f0_hz, const noise_model_params& params) {
+    if (f0_hz > 0.0)
+        return std::clamp(params.floor_window_spacings / f0_hz, params.min_floor_window_s, params.max_floor_window_s);
+    std::vector<double> f(partial_freqs_hz.begin(), partial_freqs_hz.end());
+    std::sort(f.begin(), f.end());
+    std::vector<double> gaps;
+    for (std::size_t i = 1; i < f.size(); ++i) gaps.push_back(f[i] - f[i - 1]);
+    double spacing_hz = f.empty() ? 0.0 : f.front();
+    if (!gaps.empty()) {
+        std::nth_element(gaps.begin(), gaps.begin() + static_cast<std::ptrdiff_t>(gaps.size() / 2), gaps.end());
+        spacing_hz = gaps[gaps.size() / 2];
+    }
+    if (!(spacing_hz > 0.0)) return params.min_floor_window_s;
+    return std::clamp(params.floor_window_spacings / spacing_hz, params.min_floor_window_s, params.max_floor_window_s);
+}
+
+}  // namespace wane
