@@ -131,9 +131,10 @@ std::vector<noise_band> model_from(std::size_t total, std::span<const timed_sour
                                    double sample_rate_hz, std::span<const double> partial_freqs_hz, double f0_hz,
                                    double loudest_partial_db, const noise_model_params& params) {
     auto lower_of_both = [&](const band_plan& plan) {
-        auto tracks = measure_bands(total, *sources[0].read, sample_rate_hz, plan);
+        stft_plan stft(plan_config(plan, sample_rate_hz));
+        auto tracks = measure_bands(total, *sources[0].read, sample_rate_hz, plan, stft);
         for (std::size_t k = 1; k < sources.size(); ++k) {
-            const auto other = measure_bands(total, *sources[k].read, sample_rate_hz, plan, sources[k].until_s);
+            const auto other = measure_bands(total, *sources[k].read, sample_rate_hz, plan, stft, sources[k].until_s);
             for (std::size_t b = 0; b < tracks.size(); ++b)
                 for (std::size_t i = 0; i < std::min(tracks[b].level_db.size(), other[b].level_db.size()); ++i)
                     tracks[b].level_db[i] = std::min(tracks[b].level_db[i], other[b].level_db[i]);
@@ -160,11 +161,12 @@ std::vector<std::vector<noise_band_track>> measure_noise_bands(std::span<const s
                                                                const noise_model_params& params) {
     const band_plan plan = floor_plan(sample_rate_hz, partial_freqs_hz, f0_hz, params);
     std::vector<std::vector<noise_band_track>> out;
+    stft_plan stft(plan_config(plan, sample_rate_hz));
     for (const std::span<const float> residual : residuals) {
         const residual_source source = [&](std::size_t first, std::span<float> dest) {
             std::copy_n(residual.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
         };
-        out.push_back(measure_bands(residual.size(), source, sample_rate_hz, plan));
+        out.push_back(measure_bands(residual.size(), source, sample_rate_hz, plan, stft));
     }
     return out;
 }
