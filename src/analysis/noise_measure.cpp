@@ -47,6 +47,14 @@ stft_config plan_config(const band_plan& plan, double sample_rate_hz) {
     return {.window = plan.window, .window_length = window_length, .fft_size = fast_fft_size(size)};
 }
 
+/// Appends one band to the plan: its edges, the bins measured, and the bins inside it [first, last].
+void add_band(band_plan& plan, const band_edges& e, std::vector<int> bins, int first, int last) {
+    plan.bands.push_back(e);
+    plan.bins.push_back(std::move(bins));
+    plan.band_total_bins.push_back(last - first + 1);
+    plan.ranges.emplace_back(first, last);
+}
+
 /// The plan's band-to-band leakage through its window (analysis/band_leakage.hpp).
 void add_leakage(band_plan& plan, double sample_rate_hz) {
     const stft_plan stft(plan_config(plan, sample_rate_hz));
@@ -89,10 +97,7 @@ band_plan floor_plan(double sample_rate_hz, std::span<const double> partial_freq
             });
             chosen.resize(n);
         }
-        plan.bands.push_back(e);
-        plan.bins.push_back(std::move(chosen));
-        plan.band_total_bins.push_back(last - first + 1);
-        plan.ranges.emplace_back(first, last);
+        add_band(plan, e, std::move(chosen), first, last);
     }
     add_leakage(plan, sample_rate_hz);
     return plan;
@@ -113,10 +118,7 @@ band_plan attack_plan(double sample_rate_hz, const noise_model_params& params) {
         if (last < first) continue;
         std::vector<int> bins(static_cast<std::size_t>(last - first + 1));
         for (int k = first; k <= last; ++k) bins[static_cast<std::size_t>(k - first)] = k;
-        plan.bands.push_back(e);
-        plan.bins.push_back(std::move(bins));
-        plan.band_total_bins.push_back(last - first + 1);
-        plan.ranges.emplace_back(first, last);
+        add_band(plan, e, std::move(bins), first, last);
     }
     add_leakage(plan, sample_rate_hz);
     return plan;
