@@ -1,6 +1,7 @@
 #include "analysis/noise_measure.hpp"
 
 #include <algorithm>
+#include <cassert>
 #include <cmath>
 #include <cstdint>
 
@@ -38,13 +39,12 @@ double expected_exponential_median(std::size_t n) {
     return n % 2 == 1 ? order_mean(n / 2 + 1) : 0.5 * (order_mean(n / 2) + order_mean(n / 2 + 1));
 }
 
-
-stft_config plan_config(const band_plan& plan, double sample_rate_hz) {
-    const int window_length = std::max(33, static_cast<int>(std::lround(plan.window_s * sample_rate_hz)) | 1);
-    int size = zero_padding * window_length;
-    if (plan.widest_bin_hz > 0.0)
-        size = std::clamp(static_cast<int>(std::ceil(sample_rate_hz / plan.widest_bin_hz)), window_length, size);
-    return {.window = plan.window, .window_length = window_length, .fft_size = fast_fft_size(size)};
+/// The plan's band-to-band leakage through its window (analysis/band_leakage.hpp).
+void add_leakage(band_plan& plan, double sample_rate_hz) {
+    // The window stft_plan makes for this config (no FFT state needed here).
+    const stft_config config = plan_config(plan, sample_rate_hz);
+    const std::vector<float> window = make_window(config.window, config.window_length, window_symmetry::symmetric);
+    plan.leak = band_leakage(window, config.fft_size, plan.bins, plan.ranges, plan.median);
 }
 
 /// Appends one band to the plan: its edges, the bins measured, and the bins inside it [first, last].
@@ -55,13 +55,15 @@ void add_band(band_plan& plan, const band_edges& e, std::vector<int> bins, int f
     plan.ranges.emplace_back(first, last);
 }
 
-/// The plan's band-to-band leakage through its window (analysis/band_leakage.hpp).
-void add_leakage(band_plan& plan, double sample_rate_hz) {
-    const stft_plan stft(plan_config(plan, sample_rate_hz));
-    plan.leak = band_leakage(stft.window_samples(), stft.fft_size(), plan.bins, plan.ranges, plan.median);
-}
-
 }  // namespace
+
+stft_config plan_config(const band_plan& plan, double sample_rate_hz) {
+    const int window_length = std::max(33, static_cast<int>(std::lround(plan.window_s * sample_rate_hz)) | 1);
+    int size = zero_padding * window_length;
+    if (plan.widest_bin_hz > 0.0)
+        size = std::clamp(static_cast<int>(std::ceil(sample_rate_hz / plan.widest_bin_hz)), window_length, size);
+    return {.window = plan.window, .window_length = window_length, .fft_size = fast_fft_size(size)};
+}
 
 band_plan floor_plan(double sample_rate_hz, std::span<const double> partial_freqs_hz, double f0_hz,
                      const noise_model_params& params) {
@@ -125,8 +127,8 @@ band_plan attack_plan(double sample_rate_hz, const noise_model_params& params) {
 }
 
 std::vector<noise_band_track> measure_bands(std::size_t total, const residual_source& source, double sample_rate_hz,
-                                            const band_plan& bp, double until_s) {
-    stft_plan plan(plan_config(bp, sample_rate_hz));
+                                            const band_plan& bp, stft_plan& plan, double until_s) {
+    assert(plan.fft_size() == plan_config(bp, sample_rate_hz).fft_size);
     const int n_fft = plan.fft_size();
     double window_power_sum = 0.0;
     for (float w : plan.window_samples()) window_power_sum += static_cast<double>(w) * static_cast<double>(w);

@@ -45,11 +45,15 @@ band_plan floor_plan(double sample_rate_hz, std::span<const double> partial_freq
 /// The attack measurement: all bins of the bands wide enough for the short window.
 band_plan attack_plan(double sample_rate_hz, const noise_model_params& params);
 
+/// The STFT a band plan measures with (its window and FFT size).
+stft_config plan_config(const band_plan& plan, double sample_rate_hz);
+
 /// The band measurement over a residual of `total` samples read through `source` (frames centred
-/// before until_s seconds only). Frames are analysed in order; the samples each needs are fetched
+/// before until_s seconds only), with plan made from plan_config(bp) (one per band plan, shared by
+/// its sources). Frames are analysed in order; the samples each needs are fetched
 /// into a buffer that slides forward, so only one buffer of residual is held. Frames near the ends
 /// read zeros outside the residual, exactly as stft_plan does on the whole residual.
 std::vector<noise_band_track> measure_bands(std::size_t total, const residual_source& source, double sample_rate_hz,
-                                            const band_plan& bp, double until_s = infinity);
+                                            const band_plan& bp, stft_plan& plan, double until_s = infinity);
 
 }  // namespace wane

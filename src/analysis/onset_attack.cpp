@@ -39,6 +39,37 @@ void add_mode(const damped_mode& m, const mode_shape& shape, double sample_rate_
     }
 }
 
+/// add_mode with sign -1 for every mode, modes_per_pass at a time: per mode and sample the same
+/// arithmetic in the same order (so the same sums), the modes' phasor chains overlapped.
+void subtract_modes(std::span<const damped_mode> modes, std::span<const mode_shape> shapes, double sample_rate_hz,
+                    std::vector<double>& out) {
+    constexpr std::size_t modes_per_pass = 4;
+    constexpr double sign = -1.0;
+    const std::size_t count = out.size();
+    std::array<std::vector<double>, modes_per_pass> samples;
+    for (std::size_t first = 0; first < modes.size(); first += modes_per_pass) {
+        const std::size_t g = std::min(modes_per_pass, modes.size() - first);
+        std::array<double, modes_per_pass> omega{};
+        std::array<std::complex<double>, modes_per_pass> z{}, p{}, amp{};
+        for (std::size_t i = 0; i < g; ++i) {
+            const damped_mode& m = modes[first + i];
+            const mode_shape& shape = shapes[first + i];
+            shape_samples(shape.empty() ? exponential_shape(-m.decay_per_s / sample_rate_hz, count) : shape, count, samples[i]);
+            omega[i] = two_pi * m.freq_hz / sample_rate_hz;
+            z[i] = std::polar(1.0, omega[i]);
+            amp[i] = m.amp;
+        }
+        for (std::size_t n = 0; n < count; ++n) {
+            if (n % 512 == 0)
+                for (std::size_t i = 0; i < g; ++i) p[i] = std::polar(1.0, std::remainder(omega[i] * static_cast<double>(n), two_pi));
+            for (std::size_t i = 0; i < g; ++i) {
+                out[n] += sign * samples[i][n] * (amp[i] * p[i]).real();
+                p[i] *= z[i];
+            }
+        }
+    }
+}
+
 double energy_of(std::span<const float> x) {
     double e = 0.0;
     for (float v : x) e += double(v) * double(v);
@@ -78,7 +109,7 @@ std::vector<std::size_t> choose_attacks(std::span<const float> target, double sa
     if (count == 0 || signal <= 0.0 || may_rise.empty()) return chosen;
     // The residual of the joint fit, then each searched mode refitted alone on it plus its own part.
     std::vector<double> residual(target.begin(), target.end()), scratch;
-    for (std::size_t i = 0; i < modes.size(); ++i) add_mode(modes[i], shapes[i], sample_rate_hz, -1.0, residual, scratch);
+    subtract_modes(modes, shapes, sample_rate_hz, residual);
     // The searched modes by their energy over the span, the strongest first.
     std::vector<std::pair<double, std::size_t>> order;
     for (const std::size_t i : may_rise) order.emplace_back(energy[i], i);

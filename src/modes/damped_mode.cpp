@@ -1,8 +1,10 @@
 #include "modes/damped_mode.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cassert>
 #include <cmath>
+#include <optional>
 #include <vector>
 
 #include <Eigen/Dense>
@@ -28,9 +30,47 @@ std::complex<double> geometric_sum(std::complex<double> a, double count) {
 
 namespace {
 
+/// A mode whose shape is one plain exponential over the whole span (start 0, power 0): its
+/// sample ratio z = exp(rho + i w) and z^count, each from the exact power.
+struct plain_power {
+    bool plain = false;
+    double scale = 0.0;
+    std::complex<double> z{}, z_count{};
+};
+
+std::vector<plain_power> plain_powers(std::span<const mode_shape> own, std::span<const double> omega, std::size_t count) {
+    std::vector<plain_power> out(own.size());
+    const auto n = static_cast<double>(count);
+    for (std::size_t k = 0; k < own.size(); ++k) {
+        if (own[k].size() != 1) continue;
+        const shape_piece& piece = own[k].front();
+        if (piece.start != 0 || piece.power != 0 || piece.count != count) continue;
+        out[k] = {.plain = true, .scale = piece.scale,
+                  .z = std::exp(std::complex<double>{piece.rho, omega[k]}),
+                  .z_count = std::exp(std::complex<double>{piece.rho * n, std::remainder(omega[k] * n, two_pi)})};
+    }
+    return out;
+}
+
+/// Below this |E - 1| the product form's subtraction loses more than 3 of 16 digits (its error
+/// is about 1e-16 / |E - 1| relative, the size of the closed form's own rounding of the phase at
+/// |mu| = 1e-3): the pair takes the closed form (shape_pair_sum) instead.
+constexpr double min_plain_distance = 1e-3;
+
+/// sum_{n < count} a_j[n] a_k[n] exp(i (w_j +- w_k) n) of two plain modes as the geometric series
+/// (E^count - 1) / (E - 1), E = z_j z_k (or z_j conj z_k with conj_k): a few multiplications in
+/// place of shape_pair_sum's transcendental calls. Empty when E is too close to 1.
+std::optional<std::complex<double>> plain_pair_sum(const plain_power& a, const plain_power& b, bool conj_k) {
+    const std::complex<double> e = conj_k ? a.z * std::conj(b.z) : a.z * b.z;
+    const std::complex<double> em1 = e - 1.0;
+    if (std::norm(em1) < min_plain_distance * min_plain_distance) return std::nullopt;
+    const std::complex<double> e_count = conj_k ? a.z_count * std::conj(b.z_count) : a.z_count * b.z_count;
+    return a.scale * b.scale * (e_count - 1.0) / em1;
+}
+
 /// The Gram matrix of the model's real columns for modes with sample shapes `own` and angular
 /// frequencies `omega` (rad per sample), in closed form (2K x 2K, K = own.size()).
-Eigen::MatrixXd shape_gram(std::span<const mode_shape> own, std::span<const double> omega) {
+Eigen::MatrixXd shape_gram(std::span<const mode_shape> own, std::span<const double> omega, std::size_t count) {
     const auto k_count = own.size();
     // Unknowns: theta = [a_0, b_0, a_1, b_1, ...] with amp_k = a_k + i b_k, so the model's columns
     // are u_k[n] = Re p_k[n] and v_k[n] = -Im p_k[n]. With p = p_j[n], q = p_k[n]:
@@ -39,10 +79,17 @@ Eigen::MatrixXd shape_gram(std::span<const mode_shape> own, std::span<const doub
     // and sum p q = sum a_j a_k exp(i (w_j + w_k) n), sum p conj q the same with w_j - w_k.
     const auto dim = static_cast<Eigen::Index>(2 * k_count);
     Eigen::MatrixXd gram(dim, dim);
+    const std::vector<plain_power> plain = plain_powers(own, omega, count);
+    const auto pair_sum = [&](std::size_t j, std::size_t k, bool conj_k) {
+        if (plain[j].plain && plain[k].plain) {
+            if (const auto s = plain_pair_sum(plain[j], plain[k], conj_k)) return *s;
+        }
+        return shape_pair_sum(own[j], own[k], {0.0, conj_k ? omega[j] - omega[k] : omega[j] + omega[k]});
+    };
     for (std::size_t j = 0; j < k_count; ++j) {
         for (std::size_t k = j; k < k_count; ++k) {
-            const std::complex<double> s_pq = shape_pair_sum(own[j], own[k], {0.0, omega[j] + omega[k]});
-            const std::complex<double> s_pcq = shape_pair_sum(own[j], own[k], {0.0, omega[j] - omega[k]});
+            const std::complex<double> s_pq = pair_sum(j, k, false);
+            const std::complex<double> s_pcq = pair_sum(j, k, true);
             const double uu = 0.5 * (s_pq.real() + s_pcq.real());
             const double vv = 0.5 * (s_pcq.real() - s_pq.real());
             const double u_j_im_k = 0.5 * (s_pq.imag() - s_pcq.imag());  // sum Re p_j Im p_k
@@ -61,39 +108,64 @@ Eigen::MatrixXd shape_gram(std::span<const mode_shape> own, std::span<const doub
     return gram;
 }
 
-/// The projections of x on the model's real columns (2K), phasors re-anchored every 512 samples.
+/// Modes projected together in one pass over x: independent phasor chains the processor can
+/// overlap (each mode's arithmetic is the same as alone).
+constexpr std::size_t projection_group = 4;
+
+/// sum_n w[n] p_k[n] for the modes in `which` (at most projection_group), p_k[n] = exp(n (rho_k +
+/// i w_k)), the phasors re-anchored from the exact power every anchor samples.
+void project_group(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
+                   std::span<const double> omega, std::span<std::complex<double>> out) {
+    constexpr std::size_t anchor = 512;
+    const std::size_t g = which.size();
+    assert(g <= projection_group);
+    std::array<std::complex<double>, projection_group> z{}, p{}, acc{};
+    for (std::size_t i = 0; i < g; ++i) z[i] = std::exp(std::complex<double>{rho[which[i]], omega[which[i]]});
+    for (std::size_t start = 0; start < w.size(); start += anchor) {
+        const std::size_t end = std::min(w.size(), start + anchor);
+        const auto at = static_cast<double>(start);
+        for (std::size_t i = 0; i < g; ++i)
+            p[i] = std::exp(std::complex<double>{rho[which[i]] * at, std::remainder(omega[which[i]] * at, two_pi)});
+        for (std::size_t n = start; n < end; ++n) {
+            for (std::size_t i = 0; i < g; ++i) {
+                acc[i] += w[n] * p[i];
+                p[i] *= z[i];
+            }
+        }
+    }
+    for (std::size_t i = 0; i < g; ++i) out[which[i]] = acc[i];
+}
+
+/// The projections of x on the model's real columns (2K): sum x[n] a_k[n] exp(i w_k n). A
+/// decaying mode: x times its damped phasor; a shaped one: x times its samples, times the phasor.
 Eigen::VectorXd shape_projections(std::span<const float> x, double sample_rate_hz, std::span<const damped_mode> modes,
                                   std::span<const mode_shape> shapes, std::span<const mode_shape> own,
                                   std::span<const double> omega) {
     const auto k_count = modes.size();
     const auto n_count = x.size();
-    const auto dim = static_cast<Eigen::Index>(2 * k_count);
-    // Projections sum_n x[n] u_k[n], sum_n x[n] v_k[n]: sum x[n] a_k[n] exp(i w_k n).
-    constexpr std::size_t anchor = 512;
-    Eigen::VectorXd rhs(dim);
-    std::vector<double> weighted(n_count);
+    std::vector<double> rho(k_count, 0.0);
+    std::vector<std::size_t> plain;
+    for (std::size_t k = 0; k < k_count; ++k) {
+        if (!shapes[k].empty()) continue;
+        rho[k] = -modes[k].decay_per_s / sample_rate_hz;
+        plain.push_back(k);
+    }
+    std::vector<std::complex<double>> sums(k_count);
+    std::vector<double> weighted(x.begin(), x.end());
+    for (std::size_t i = 0; i < plain.size(); i += projection_group)
+        project_group(weighted, std::span(plain).subspan(i, std::min(projection_group, plain.size() - i)), rho, omega, sums);
     std::vector<double> amp;
     for (std::size_t k = 0; k < k_count; ++k) {
-        // A decaying mode: x times its damped phasor; a shaped one: x times its samples, times the
-        // phasor. The phasor is re-anchored from the exact power every anchor samples.
-        const bool plain = shapes[k].empty();
-        const double rho = plain ? -modes[k].decay_per_s / sample_rate_hz : 0.0;
-        if (plain) {
-            for (std::size_t n = 0; n < n_count; ++n) weighted[n] = double(x[n]);
-        } else {
-            shape_samples(own[k], n_count, amp);
-            for (std::size_t n = 0; n < n_count; ++n) weighted[n] = double(x[n]) * amp[n];
-        }
-        const std::complex<double> z = std::exp(std::complex<double>{rho, omega[k]});
-        std::complex<double> p{1.0, 0.0}, acc{};
-        for (std::size_t n = 0; n < n_count; ++n) {
-            if (n % anchor == 0)
-                p = std::exp(std::complex<double>{rho * static_cast<double>(n), std::remainder(omega[k] * static_cast<double>(n), two_pi)});
-            acc += weighted[n] * p;
-            p *= z;
-        }
-        rhs(static_cast<Eigen::Index>(2 * k)) = acc.real();
-        rhs(static_cast<Eigen::Index>(2 * k + 1)) = -acc.imag();
+        if (shapes[k].empty()) continue;
+        shape_samples(own[k], n_count, amp);
+        for (std::size_t n = 0; n < n_count; ++n) weighted[n] = double(x[n]) * amp[n];
+        const std::size_t one[] = {k};
+        project_group(weighted, one, rho, omega, sums);
+    }
+    Eigen::VectorXd rhs(static_cast<Eigen::Index>(2 * k_count));
+    for (std::size_t k = 0; k < k_count; ++k) {
+        rhs(static_cast<Eigen::Index>(2 * k)) = sums[k].real();
+        rhs(static_cast<Eigen::Index>(2 * k + 1)) = -sums[k].imag();
     }
     return rhs;
 }
@@ -128,7 +200,7 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
         assert(std::all_of(own[k].begin(), own[k].end(),
                            [&](const shape_piece& piece) { return piece.start + piece.count <= n_count; }));
     }
-    const Eigen::MatrixXd gram_exact = shape_gram(own, omega);
+    const Eigen::MatrixXd gram_exact = shape_gram(own, omega, n_count);
     Eigen::MatrixXd gram = gram_exact;
     const Eigen::VectorXd rhs = shape_projections(x, sample_rate_hz, modes, shapes, own, omega);
     const double ridge = ridge_rel * gram.diagonal().mean();
