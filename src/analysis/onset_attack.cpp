@@ -142,7 +142,8 @@ void projection_sums(std::span<const double> x, double omega, double rho, std::v
 std::vector<attack_choice> choose_attacks(std::span<const float> target, double sample_rate_hz,
                                           std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
                                           std::span<const double> energy, std::span<const std::size_t> may_rise,
-                                          std::span<const attack_choice> current, const onset_attack_params& params) {
+                                          std::span<const std::size_t> may_swell, std::span<const attack_choice> current,
+                                          const onset_attack_params& params) {
     assert(shapes.size() == modes.size() && current.size() == modes.size() && energy.size() == modes.size());
     const std::size_t count = target.size();
     std::vector<attack_choice> chosen(current.begin(), current.end());
@@ -200,7 +201,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
         if (best > kept + params.min_gain_share * signal) chosen[i] = best_c;
         // An instant start that rises must do better still than the plain choice it replaces
         // (the simpler envelope wins a near tie).
-        if (r < params.max_rising_partials) {
+        if (r < params.max_rising_partials && std::find(may_swell.begin(), may_swell.end(), i) != may_swell.end()) {
             const double plain = std::max(best, kept);
             best = plain;
             const attack_choice plain_c = chosen[i];

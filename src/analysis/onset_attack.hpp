@@ -59,12 +59,14 @@ mode_shape attack_shape(const attack_choice& choice, double rho, std::size_t cou
 /// One coordinate pass over the searched modes (indices in `may_rise`, each fitted with its decay
 /// in modes[i].decay_per_s): with the other modes as fitted, the attack time from the grid (or 0)
 /// whose best complex amplitude leaves the least residual of target, or for the strongest
-/// max_rising_partials an instant start that rises (attack_choice). Returns the choice per mode
+/// max_rising_partials of those also in may_swell (where the recording shows a rise) an instant
+/// start that rises (attack_choice). Returns the choice per mode
 /// (instant for the modes not searched or that stay so); current gives the current choice. modes, shapes: as fitted on target (shapes[i] empty = exponential); energy:
 /// each mode's energy over the span (orders the search).
 std::vector<attack_choice> choose_attacks(std::span<const float> target, double sample_rate_hz,
                                           std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
                                           std::span<const double> energy, std::span<const std::size_t> may_rise,
-                                          std::span<const attack_choice> current, const onset_attack_params& params);
+                                          std::span<const std::size_t> may_swell, std::span<const attack_choice> current,
+                                          const onset_attack_params& params);
 
 }  // namespace wane

@@ -322,15 +322,21 @@ bool revise_roles(const patch& p, std::span<const float> note, const waveform_fi
 
 /// The attack of each exponential partial, searched on the residual of fit f (analysis/onset_attack.hpp);
 /// attacks is per partial. True when any changed.
-bool update_attacks(const waveform_fit& f, std::span<const role> roles, double sample_rate_hz,
+bool update_attacks(const patch& p, const waveform_fit& f, std::span<const role> roles, double sample_rate_hz,
                     const onset_attack_params& params, std::vector<attack_choice>& attacks) {
-    std::vector<std::size_t> may_rise;
+    std::vector<std::size_t> may_rise, may_swell;
     std::vector<attack_choice> per_mode(f.modes.size());
     for (std::size_t i = 0; i < f.partial_of.size(); ++i) {
         if (roles[f.partial_of[i]] == role::exponential) may_rise.push_back(i);
+        // A rise shown by the recording: the STFT fit has an attack or a rising first segment.
+        const envelope& env = p.partials[f.partial_of[i]].env;
+        if (roles[f.partial_of[i]] == role::exponential &&
+            (env.attack_s > 0.0 || (!env.decay.empty() && env.decay.front().t60_s < 0.0)))
+            may_swell.push_back(i);
         per_mode[i] = attacks[f.partial_of[i]];
     }
-    const std::vector<attack_choice> chosen = choose_attacks(f.target, sample_rate_hz, f.modes, f.shapes, f.energy, may_rise, per_mode, params);
+    const std::vector<attack_choice> chosen =
+        choose_attacks(f.target, sample_rate_hz, f.modes, f.shapes, f.energy, may_rise, may_swell, per_mode, params);
     bool changed = false;
     for (const std::size_t i : may_rise) {
         changed = changed || chosen[i] != per_mode[i];
@@ -421,7 +427,7 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
         if (pass == passes - 1) break;
         // The attacks are searched on this pass's residual and the roles revised from it; the
         // next pass fits both.
-        const bool attacks_changed = params.search_attacks && update_attacks(f, roles, sample_rate_hz, params.attacks, attacks);
+        const bool attacks_changed = params.search_attacks && update_attacks(p, f, roles, sample_rate_hz, params.attacks, attacks);
         const bool roles_changed = revise_roles(p, note, f, roles, new_modes, sample_rate_hz, fit_n, params);
         if (!attacks_changed && !roles_changed) break;
     }

@@ -82,7 +82,7 @@ TEST_CASE("the attack search picks the grid time a mode rises over, and keeps an
     const std::vector<std::size_t> may_rise{0, 1};
     const std::vector<attack_choice> current(2);
     const std::vector<double> energy{1.0, 0.1};  // orders the search only
-    const auto chosen = choose_attacks(x, fs, modes, shapes, energy, may_rise, current, params);
+    const auto chosen = choose_attacks(x, fs, modes, shapes, energy, may_rise, may_rise, current, params);
     CAPTURE(attack_s, chosen[0].rise_n, chosen[0].start_ratio, chosen[1].rise_n, chosen[1].start_ratio);
     CHECK(chosen[0] == attack_choice{.rise_n = static_cast<std::size_t>(std::llround(attack_s * fs))});
     CHECK(chosen[1] == attack_choice{});
@@ -138,7 +138,7 @@ TEST_CASE("an instant start that rises is chosen with its start level and rise t
     const std::vector<std::size_t> may_rise{0, 1};
     const std::vector<attack_choice> current(2);
     const std::vector<double> energy{1.0, 0.1};
-    const auto chosen = choose_attacks(x, fs, modes, shapes, energy, may_rise, current, params);
+    const auto chosen = choose_attacks(x, fs, modes, shapes, energy, may_rise, may_rise, current, params);
     CAPTURE(ratio, rise_s, chosen[0].rise_n, chosen[0].start_ratio, chosen[1].rise_n);
     CHECK(chosen[0] == attack_choice{.rise_n = static_cast<std::size_t>(std::llround(rise_s * fs)), .start_ratio = ratio});
     CHECK(chosen[1] == attack_choice{});
