@@ -6,6 +6,7 @@
 #include <optional>
 #include <utility>
 
+#include "analysis/floor_onset.hpp"
 #include "analysis/noise_measure.hpp"
 #include "core/noise_bands.hpp"
 #include "spectrum/stft.hpp"
@@ -81,7 +82,7 @@ std::optional<noise_band> fit_attack_band(const noise_band_track& attack, const 
 }
 
 std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
-                                  const std::vector<noise_band_track>& attacks, double window_s,
+                                  const std::vector<noise_band_track>& attacks, window_kind window, double window_s,
                                   double loudest_partial_db, const noise_model_params& params) {
     std::vector<noise_band> bands;
     const double keep_db = loudest_partial_db - params.keep_within_db;
@@ -94,7 +95,8 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
         // The floor band is fitted on the frames whose window lies wholly inside the recording (a
         // frame across the onset, or across the end of a recording cut while it sounds, sees it
         // through a window cut in half, whose skirts spread the partials over every band), its
-        // first line run back to the onset; with an attack band it also starts past where the
+        // first line run back to the onset as far as those frames agree (analysis/floor_onset.hpp);
+        // with an attack band it also starts past where the
         // burst still carries half the band's power (the two do not overlap). The floor band's
         // own steady end is part of it (the recording's hiss holds), so the fit runs to the end:
         // no floor under it but the neighbours' leakage.
@@ -110,7 +112,10 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
         }
         envelope_fit_params fit = params.fit;
         fit.window_s = window_s;
-        const auto result = fit_partial(as_track(t, first, end, noise_silence_db), fit);
+        auto result = fit_partial(as_track(t, first, end, noise_silence_db), fit);
+        if (result)
+            result->env = limit_run_back(result->env, {.window = window, .window_s = window_s,
+                                                       .hop_s = t.hop_s, .level_db = t.level_db, .first = first});
         // Bounded like the partials' fits (analyze.cpp): a peak beyond what the format holds (an
         // attack extrapolated far above the measured levels) is no band of this note.
         // A floor band is kept down to digital silence (the recording's own hiss is part of its
@@ -149,7 +154,7 @@ std::vector<noise_band> model_from(std::size_t total, std::span<const timed_sour
     const band_plan floor = floor_plan(sample_rate_hz, partial_freqs_hz, f0_hz, params);
     const auto floors = lower_of_both(floor);
     const auto attacks = lower_of_both(attack_plan(sample_rate_hz, params));
-    return fit_bands(floors, attacks, floor.window_s, loudest_partial_db, params);
+    return fit_bands(floors, attacks, floor.window, floor.window_s, loudest_partial_db, params);
 }
 
 }  // namespace

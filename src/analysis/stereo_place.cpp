@@ -12,9 +12,11 @@
 
 #include "analysis/noise_model.hpp"
 #include "core/envelope.hpp"
+#include "core/noise_bands.hpp"
 #include "core/stereo.hpp"
 #include "modes/damped_mode.hpp"
 #include "modes/mode_shape.hpp"
+#include "spectrum/stft.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -155,9 +157,12 @@ double partial_spread(const partial& q, cplx l0, cplx r0, cplx l1, cplx r1, doub
     return std::clamp(rate, -bound, bound);
 }
 
-/// Channel residual (channel minus its own partials) over the first n frames.
+/// Channel residual (channel minus its own partials) over the first n frames. The channel's
+/// partials are left out before arrival_s, when the channel's sound arrives (the broadband delay:
+/// a spaced pair's far channel hears the onset later; the patch holds a partial's delay as a
+/// phase, which cannot move its start), so the residual holds no copy of their first stretch.
 std::vector<float> channel_residual(const patch& p, channel_side side, std::span<const float> x, std::size_t n,
-                                    double sample_rate_hz) {
+                                    double sample_rate_hz, double arrival_s) {
     patch c = channel_patch(p, side);
     c.noise.clear();
     c.note.gain_db = 0.0;
@@ -167,30 +172,83 @@ std::vector<float> channel_residual(const patch& p, channel_side side, std::span
                                             .length_s = std::max(p.note.length_s, static_cast<double>(n) / sample_rate_hz)});
         renderer.render(0, out);
     }
+    const auto arrival = std::min(n, static_cast<std::size_t>(std::llround(std::max(0.0, arrival_s) * sample_rate_hz)));
+    std::fill_n(out.begin(), arrival, 0.0f);
     for (std::size_t i = 0; i < n; ++i) out[i] = x[i] - out[i];
     return out;
 }
 
-/// Band powers (sum of 10^(level/10) over the frames centred in [from_s, to_s]) of each track;
-/// over every frame when none is centred there.
-std::vector<double> band_powers(const std::vector<noise_band_track>& tracks, double from_s, double to_s) {
+/// Band energies (power x seconds: 10^(level/10) x hop summed over the frames centred in
+/// [from_s, to_s]) of each track; over every frame when none is centred there.
+std::vector<double> band_energies(const std::vector<noise_band_track>& tracks, double from_s, double to_s) {
     std::vector<double> out;
     for (const noise_band_track& t : tracks) {
         double sum = 0.0;
         double all = 0.0;
         for (std::size_t i = 0; i < t.level_db.size(); ++i) {
-            const double power = std::pow(10.0, static_cast<double>(t.level_db[i]) / 10.0);
+            const double energy = std::pow(10.0, static_cast<double>(t.level_db[i]) / 10.0) * t.hop_s;
             const double centre_s = static_cast<double>(i) * t.hop_s;
-            all += power;
-            if (centre_s >= from_s && centre_s <= to_s) sum += power;
+            all += energy;
+            if (centre_s >= from_s && centre_s <= to_s) sum += energy;
         }
         out.push_back(sum > 0.0 ? sum : all);
     }
     return out;
 }
 
+/// Adds to energy[i] the energy of track i's band in a channel's residual over the onset stretch
+/// the floor frames cannot see, [0, to_s): frames of the noise model's short Hann window
+/// (attack_window_s, hop attack_hop_s; power of all the band's bins, core/noise_bands.hpp) centred
+/// from half a window before the onset on (every sample then weighs alike: Hann squared overlaps to
+/// a constant at a quarter-window hop; the onset's click is the note's, in both channels), in the
+/// bands at least attack_min_bins of its bins wide (as the noise model's attack measurement;
+/// narrower bands keep the floor frames' energy alone). Each frame takes the lower of the
+/// residual's and the recording's band power (as the noise model does): a residual louder than the
+/// recording is the subtraction's error.
+void add_onset_energies(std::vector<double>& energy, const std::vector<noise_band_track>& tracks,
+                        std::span<const float> residual, std::span<const float> recording, double sample_rate_hz,
+                        double to_s, const noise_model_params& params) {
+    const int length = std::max(33, static_cast<int>(std::lround(params.attack_window_s * sample_rate_hz)) | 1);
+    stft_plan plan({.window = window_kind::hann, .window_length = length, .fft_size = fast_fft_size(2 * length)});
+    const int n_fft = plan.fft_size();
+    const double bin_hz = sample_rate_hz / n_fft;
+    double window_power_sum = 0.0;
+    for (const float w : plan.window_samples()) window_power_sum += static_cast<double>(w) * static_cast<double>(w);
+    const double amp_scale_sq = plan.amp_scale() * plan.amp_scale();
+    // Each band's bins [first, last]; empty (first > last) where the short window is too coarse.
+    std::vector<std::pair<int, int>> ranges;
+    for (const noise_band_track& t : tracks) {
+        const bool wide = t.high_hz - t.low_hz >= params.attack_min_bins * sample_rate_hz / length;
+        const int first = std::max(1, static_cast<int>(std::ceil(t.low_hz / bin_hz)));
+        const int last = std::min(n_fft / 2 - 1, static_cast<int>(std::ceil(t.high_hz / bin_hz)) - 1);
+        ranges.emplace_back(first, wide ? last : first - 1);
+    }
+    std::vector<double> residual_power(tracks.size());
+    const auto band_powers = [&](std::vector<double>& out) {
+        const auto power = plan.power();
+        for (std::size_t b = 0; b < ranges.size(); ++b) {
+            const auto [first, last] = ranges[b];
+            double sum = 0.0;
+            for (int k = first; k <= last; ++k) sum += static_cast<double>(power[static_cast<std::size_t>(k)]);
+            const int bins = std::max(1, last - first + 1);
+            out[b] = band_power_from_bins(sum / bins / amp_scale_sq, bins, n_fft, window_power_sum);
+        }
+    };
+    std::vector<double> recording_power(tracks.size());
+    const auto hop = static_cast<std::int64_t>(std::max(1L, std::lround(params.attack_hop_s * sample_rate_hz)));
+    const auto end = std::min(static_cast<std::int64_t>(residual.size()), static_cast<std::int64_t>(std::llround(to_s * sample_rate_hz)));
+    for (std::int64_t centre = -plan.half_length(); centre < end; centre += hop) {
+        plan.analyze(residual, centre);
+        band_powers(residual_power);
+        plan.analyze(recording, centre);
+        band_powers(recording_power);
+        for (std::size_t b = 0; b < tracks.size(); ++b)
+            energy[b] += std::min(residual_power[b], recording_power[b]) * static_cast<double>(hop) / sample_rate_hz;
+    }
+}
+
 void place_noise(patch& p, std::span<const float> left, std::span<const float> right, double sample_rate_hz,
-                 const stereo_place_params& params) {
+                 double reference_s, const stereo_place_params& params) {
     std::vector<double> freqs;
     for (const partial& q : p.partials) freqs.push_back(q.freq_hz);
     // Only frames whose window lies wholly inside the residual count (as in the mono noise model's
@@ -202,8 +260,8 @@ void place_noise(patch& p, std::span<const float> left, std::span<const float> r
     const std::size_t n = std::min({left.size(), right.size(),
                                     static_cast<std::size_t>(std::llround((params.noise_span_s + half_window_s) * sample_rate_hz))});
     if (p.noise.empty() || n == 0) return;
-    const std::vector<float> res_l = channel_residual(p, channel_side::left, left, n, sample_rate_hz);
-    const std::vector<float> res_r = channel_residual(p, channel_side::right, right, n, sample_rate_hz);
+    const std::vector<float> res_l = channel_residual(p, channel_side::left, left, n, sample_rate_hz, -reference_s);
+    const std::vector<float> res_r = channel_residual(p, channel_side::right, right, n, sample_rate_hz, reference_s);
     std::vector<float> res_m(n);
     for (std::size_t i = 0; i < n; ++i) res_m[i] = 0.5f * (res_l[i] + res_r[i]);
     const double from_s = half_window_s;
@@ -212,9 +270,14 @@ void place_noise(patch& p, std::span<const float> left, std::span<const float> r
     const std::span<const float> residuals[] = {res_l, res_r, res_m};
     const auto measured = measure_noise_bands(residuals, sample_rate_hz, freqs, p.note.f0_hz, params.noise);
     const std::vector<noise_band_track>& tracks = measured[0];
-    const std::vector<double> pl = band_powers(measured[0], from_s, to_s);
-    const std::vector<double> pr = band_powers(measured[1], from_s, to_s);
-    const std::vector<double> pm = band_powers(measured[2], from_s, to_s);
+    std::vector<double> pl = band_energies(measured[0], from_s, to_s);
+    std::vector<double> pr = band_energies(measured[1], from_s, to_s);
+    std::vector<double> pm = band_energies(measured[2], from_s, to_s);
+    std::vector<float> mix(n);
+    for (std::size_t i = 0; i < n; ++i) mix[i] = 0.5f * (left[i] + right[i]);
+    add_onset_energies(pl, tracks, res_l, left.first(n), sample_rate_hz, from_s, params.noise);
+    add_onset_energies(pr, tracks, res_r, right.first(n), sample_rate_hz, from_s, params.noise);
+    add_onset_energies(pm, tracks, res_m, mix, sample_rate_hz, from_s, params.noise);
     constexpr double same_edge_hz = 0.5;
     for (noise_band& b : p.noise) {
         for (std::size_t i = 0; i < tracks.size(); ++i) {
@@ -300,7 +363,7 @@ void place_stereo(patch& p, std::span<const float> left, std::span<const float> 
             }
         }
     }
-    place_noise(p, left, right, sample_rate_hz, params);
+    place_noise(p, left, right, sample_rate_hz, reference_s, params);
 }
 
 }  // namespace wane

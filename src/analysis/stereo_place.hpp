@@ -18,13 +18,17 @@
 // again; a partial whose right-minus-left level difference moves by at least min_spread_db between
 // the two spans, at a rate of at least min_spread_db_per_s, gets that rate as spread_db_per_s.
 //
-// Noise bands: the residual of each channel (the channel minus its own partials) is measured in the
-// noise bands over the first noise_span_s (analysis/noise_model.hpp), on the frames whose window lies
+// Noise bands: the residual of each channel (the channel minus its own partials, which start when
+// the channel's sound arrives: the broadband delay) is measured in the noise bands over the first
+// noise_span_s: each band's energy in the floor frames (analysis/noise_model.hpp) whose window lies
 // wholly inside the residual (as the mono noise model fits; a window across a cut end sees the
-// residual's loud low content through a step, over every band above it); the band's pan follows the
-// channels' powers P_L, P_R, its coherence is C / sqrt(P_L P_R) with the cross power
-// C = 2 P_M - (P_L + P_R) / 2 from the power P_M of the residuals' mean, and its peak_db moves by
-// 10 log10(((P_L + P_R) / 2) / P_M), so each channel keeps its measured power.
+// residual's loud low content through a step, over every band above it), and before the first of
+// them, in the onset stretch where a struck note holds most of its high bands' energy, by the noise
+// model's short attack window (the bands wide enough for it), never above the recording's band
+// power there. The band's pan follows the channels' energies P_L, P_R, its coherence is
+// C / sqrt(P_L P_R) with the cross energy
+// C = 2 P_M - (P_L + P_R) / 2 from the energy P_M of the residuals' mean, and its peak_db moves by
+// 10 log10(((P_L + P_R) / 2) / P_M), so each channel keeps its measured energy.
 #pragma once
 
 #include <span>

@@ -44,4 +44,18 @@ amp_lin envelope_amp(const envelope& env, double time_s) {
     return to_amp(envelope_level(env, time_s));
 }
 
+envelope held_before(const envelope& env, double from_s) {
+    assert(!env.decay.empty());
+    if (!(from_s > env.attack_s)) return env;
+    const level_db from_level = envelope_level(env, from_s);
+    if (!(env.peak.db > from_level.db)) return env;
+    envelope held{.attack_s = 0.0, .peak = from_level, .decay = {{.t60_s = infinity, .until_s = from_s}}};
+    // The segments that end after from_s, unchanged: the level line from from_s on is env's.
+    for (std::size_t i = 0; i < env.decay.size(); ++i) {
+        const bool last = i + 1 == env.decay.size();
+        if (last || env.decay[i].until_s.value_or(infinity) > from_s) held.decay.push_back(env.decay[i]);
+    }
+    return held;
+}
+
 }  // namespace wane

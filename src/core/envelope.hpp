@@ -44,4 +44,10 @@ level_db envelope_level(const envelope& env, double time_s);
 /// Linear amplitude at time_s: 10^(level/20), or the attack's linear ramp.
 amp_lin envelope_amp(const envelope& env, double time_s);
 
+/// env with its level before from_s held at its level at from_s where the line run back from
+/// from_s would stand higher (a decay measured only from from_s on, not extrapolated up towards
+/// the onset): attack 0, a held segment until from_s, then env's segments unchanged. env itself
+/// when its attack ends at or after from_s or its level does not fall over [attack_s, from_s].
+envelope held_before(const envelope& env, double from_s);
+
 }  // namespace wane

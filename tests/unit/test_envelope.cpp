@@ -34,3 +34,28 @@ TEST_CASE("t60 = inf holds, negative t60 rises", "[envelope]") {
     // After 1 s rises 60 dB per 3 s: at 1.5 s, -20 + 10 = -10.
     CHECK_THAT(envelope_level(env, 1.5).db, WithinAbs(-10.0, 1e-12));
 }
+
+TEST_CASE("held_before holds the level a decay reaches at the time given, and keeps the line after it", "[envelope]") {
+    // Peak 0 dB at the onset, T60 0.5 s (120 dB/s) until 0.2 s, then T60 6 s (10 dB/s).
+    const envelope env{.attack_s = 0.0, .peak = level_db{0.0},
+                       .decay = {{.t60_s = 0.5, .until_s = 0.2}, {.t60_s = 6.0, .until_s = {}}}};
+    const double from_s = GENERATE(0.05, 0.15, 0.3);
+    CAPTURE(from_s);
+    const envelope held = held_before(env, from_s);
+    // Hand computed: the level at from_s; before it held there, after it env's own line.
+    const double at_from_db = from_s <= 0.2 ? -120.0 * from_s : -24.0 - 10.0 * (from_s - 0.2);
+    CHECK_THAT(held.peak.db, WithinAbs(at_from_db, 1e-9));
+    CHECK_THAT(envelope_level(held, 0.0).db, WithinAbs(at_from_db, 1e-9));
+    CHECK_THAT(envelope_level(held, 0.5 * from_s).db, WithinAbs(at_from_db, 1e-9));
+    for (double t : {from_s, from_s + 0.01, from_s + 0.1, 1.0, 3.0}) {
+        CAPTURE(t);
+        CHECK_THAT(envelope_level(held, t).db, WithinAbs(envelope_level(env, t).db, 1e-9));
+    }
+}
+
+TEST_CASE("held_before leaves a rise past the time given, and a level that does not fall, alone", "[envelope]") {
+    const envelope slow_rise{.attack_s = 0.3, .peak = level_db{-6.0}, .decay = {{.t60_s = 2.0, .until_s = {}}}};
+    CHECK(held_before(slow_rise, 0.1) == slow_rise);
+    const envelope rising{.attack_s = 0.0, .peak = level_db{-30.0}, .decay = {{.t60_s = -1.0, .until_s = 0.5}, {.t60_s = 3.0, .until_s = {}}}};
+    CHECK(held_before(rising, 0.2) == rising);
+}
