@@ -199,7 +199,9 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         out.summary.partials = static_cast<int>(p.partials.size());
     }
     done("root and added peaks");
-    p.note.length_s = std::max(length_step_s, std::ceil(analysed_s / length_step_s - 1e-9) * length_step_s);
+    // The patch holds at most max_length_s (core/patch.hpp); a longer recording (analyze accepts
+    // up to 30 minutes) keeps what its fits found and renders that long by default.
+    p.note.length_s = std::clamp(std::ceil(analysed_s / length_step_s - 1e-9) * length_step_s, length_step_s, max_length_s);
     p.source.file = params.source_file;
     p.source.sample_rate_hz = sample_rate_hz;
     p.source.onset_s = params.start_s + tr.onset_s;

@@ -47,6 +47,14 @@ void add_leakage(band_plan& plan, double sample_rate_hz) {
     plan.leak = band_leakage(window, config.fft_size, plan.bins, plan.ranges, plan.median);
 }
 
+/// Appends one band to the plan: its edges, the bins measured, and the bins inside it [first, last].
+void add_band(band_plan& plan, const band_edges& e, std::vector<int> bins, int first, int last) {
+    plan.bands.push_back(e);
+    plan.bins.push_back(std::move(bins));
+    plan.band_total_bins.push_back(last - first + 1);
+    plan.ranges.emplace_back(first, last);
+}
+
 }  // namespace
 
 stft_config plan_config(const band_plan& plan, double sample_rate_hz) {
@@ -91,10 +99,7 @@ band_plan floor_plan(double sample_rate_hz, std::span<const double> partial_freq
             });
             chosen.resize(n);
         }
-        plan.bands.push_back(e);
-        plan.bins.push_back(std::move(chosen));
-        plan.band_total_bins.push_back(last - first + 1);
-        plan.ranges.emplace_back(first, last);
+        add_band(plan, e, std::move(chosen), first, last);
     }
     add_leakage(plan, sample_rate_hz);
     return plan;
@@ -115,10 +120,7 @@ band_plan attack_plan(double sample_rate_hz, const noise_model_params& params) {
         if (last < first) continue;
         std::vector<int> bins(static_cast<std::size_t>(last - first + 1));
         for (int k = first; k <= last; ++k) bins[static_cast<std::size_t>(k - first)] = k;
-        plan.bands.push_back(e);
-        plan.bins.push_back(std::move(bins));
-        plan.band_total_bins.push_back(last - first + 1);
-        plan.ranges.emplace_back(first, last);
+        add_band(plan, e, std::move(bins), first, last);
     }
     add_leakage(plan, sample_rate_hz);
     return plan;
