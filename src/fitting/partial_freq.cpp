@@ -1,6 +1,7 @@
 #include "fitting/partial_freq.hpp"
 
 #include <cmath>
+#include <complex>
 #include <vector>
 
 #include "core/units.hpp"
@@ -39,11 +40,25 @@ double heard_freq_hz(std::span<const track_point> pts, std::size_t peak, std::si
             return re * re + im * im;
         };
         const int steps = static_cast<int>(std::lround(search_hz / step_hz));
+        // The grid's powers with each frame's phasor w e^(i (phi - 2 pi f t)) turned by one step
+        // per grid point (two sincos per frame, not one per frame and point; the turns' rounding,
+        // ~1e-14 rad over the grid, is under that of the phase 2 pi f t itself).
+        std::vector<std::complex<double>> phasor(w.size()), turn(w.size());
+        const double lowest_hz = centre_hz - steps * step_hz;
+        for (std::size_t k = 0; k < w.size(); ++k) {
+            phasor[k] = std::polar(w[k], phi[k] - two_pi * lowest_hz * t[k]);
+            turn[k] = std::polar(1.0, -two_pi * step_hz * t[k]);
+        }
         int best = -steps;
         double best_p = -1.0;
-        for (int j = -steps; j <= steps; ++j)
-            if (const double pw = power(centre_hz + j * step_hz); pw > best_p) best_p = pw, best = j;
-        (void)best_p;
+        for (int j = -steps; j <= steps; ++j) {
+            std::complex<double> sum{};
+            for (std::size_t k = 0; k < w.size(); ++k) {
+                sum += phasor[k];
+                phasor[k] *= turn[k];
+            }
+            if (const double pw = std::norm(sum); pw > best_p) best_p = pw, best = j;
+        }
         if (best > -steps && best < steps) {
             // Parabolas through the log power at the peak and its neighbours: on the grid, then
             // again at a step 50 times finer around the first vertex (removes its bias).

@@ -1,12 +1,27 @@
 #include "spectrum/stft.hpp"
 
+#include <fftw3.h>
+
 #include <algorithm>
 #include <cassert>
 #include <cstdlib>
+#include <mutex>
 #include <new>
 #include <numeric>
 
 namespace wane {
+
+namespace {
+
+/// FFTW's planner (plan making and destroying) is not thread-safe: one lock for the process.
+std::mutex& planner_lock() {
+    static std::mutex lock;
+    return lock;
+}
+
+}  // namespace
+
+void stft_plan::fftw_buffer_free::operator()(void* p) const { fftwf_free(p); }
 
 int fast_fft_size(int min_size) {
     int n = std::max(min_size + (min_size & 1), 2);
@@ -26,21 +41,32 @@ stft_plan::stft_plan(const stft_config& config)
     assert(config.fft_size % 2 == 0 && config.fft_size >= config.window_length);
     const double sum_w = std::accumulate(window_.begin(), window_.end(), 0.0);
     amp_scale_ = 2.0 / sum_w;
-    cfg_ = kiss_fftr_alloc(config.fft_size, 0, nullptr, nullptr);
-    if (cfg_ == nullptr) throw std::bad_alloc();
-    frame_.assign(static_cast<std::size_t>(config.fft_size), 0.0f);
-    bins_.resize(static_cast<std::size_t>(config.fft_size) / 2 + 1);
+    const auto n = static_cast<std::size_t>(config.fft_size);
+    frame_.reset(fftwf_alloc_real(n));
+    spectrum_.reset(reinterpret_cast<float*>(fftwf_alloc_complex(n / 2 + 1)));  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): FFTW's complex is float[2]
+    if (!frame_ || !spectrum_) throw std::bad_alloc();
+    std::fill_n(frame_.get(), n, 0.0f);
+    {
+        const std::lock_guard<std::mutex> hold(planner_lock());
+        plan_ = fftwf_plan_dft_r2c_1d(config.fft_size, frame_.get(), reinterpret_cast<fftwf_complex*>(spectrum_.get()),  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
+                                      FFTW_ESTIMATE);
+    }
+    if (plan_ == nullptr) throw std::bad_alloc();
+    bins_.resize(n / 2 + 1);
     power_.resize(bins_.size());
 }
 
-stft_plan::~stft_plan() { kiss_fftr_free(cfg_); }
+stft_plan::~stft_plan() {
+    const std::lock_guard<std::mutex> hold(planner_lock());
+    fftwf_destroy_plan(plan_);
+}
 
 void stft_plan::analyze(std::span<const float> samples, std::int64_t centre, float dc_offset) {
     const std::int64_t h = half_length();
     const std::int64_t size = static_cast<std::int64_t>(samples.size());
     const std::int64_t m_size = config_.fft_size;
     const float* w = window_.data() + h;  // w[m], m = -h..h
-    float* buf = frame_.data();
+    float* buf = frame_.get();
     // Zero padding sits between the two halves (indices h+1 .. M-h-1); written once, never touched.
     if (centre - h >= 0 && centre + h < size) {
         // Interior frame: two straight multiply loops.
@@ -55,10 +81,13 @@ void stft_plan::analyze(std::span<const float> samples, std::int64_t centre, flo
             buf[m >= 0 ? m : m_size + m] = w[m] * x;
         }
     }
-    kiss_fftr(cfg_, buf, bins_.data());
+    fftwf_execute(plan_);
     const float scale2 = static_cast<float>(amp_scale_ * amp_scale_);
-    for (std::size_t k = 0; k < bins_.size(); ++k)
+    const float* out = spectrum_.get();  // re, im interleaved
+    for (std::size_t k = 0; k < bins_.size(); ++k) {
+        bins_[k] = {.r = out[2 * k], .i = out[2 * k + 1]};
         power_[k] = (bins_[k].r * bins_[k].r + bins_[k].i * bins_[k].i) * scale2;
+    }
 }
 
 }  // namespace wane

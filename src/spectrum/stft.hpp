@@ -1,13 +1,17 @@
-// Short-time Fourier transform of real samples on KissFFT's real FFT, zero-phase windowed.
+// Short-time Fourier transform of real samples on FFTW's single-precision real FFT, zero-phase
+// windowed (bins in KissFFT's complex type, which the peak picker reads).
 #pragma once
 
 #include <kiss_fftr.h>
 
 #include <cstdint>
+#include <memory>
 #include <span>
 #include <vector>
 
 #include "spectrum/window.hpp"
+
+struct fftwf_plan_s;  // fftw3.h's plan (kept out of this header)
 
 namespace wane {
 
@@ -21,7 +25,9 @@ struct stft_config {
 int fast_fft_size(int min_size);
 
 /// One STFT frame at a time. Made once per thread: the FFT state, window and buffers are allocated
-/// here and reused, so analyzing a frame allocates nothing.
+/// here and reused, so analyzing a frame allocates nothing. The FFTW plan is made (FFTW_ESTIMATE:
+/// no timing, the same plan every run) and destroyed under one process-wide lock, since FFTW's
+/// planner is not thread-safe; executing it is.
 ///
 /// Frame at centre sample c: buffer[m mod M] = w[h + m] x[c + m], m = -h..h (zero phase), so the
 /// phase of bin k is the phase of the signal at the centre sample. Samples outside the input read
@@ -57,8 +63,12 @@ private:
     std::vector<float> window_;
     double amp_scale_ = 0.0;
     qifft_correction correction_;
-    kiss_fftr_cfg cfg_ = nullptr;
-    std::vector<float> frame_;
+    struct fftw_buffer_free {
+        void operator()(void* p) const;
+    };
+    fftwf_plan_s* plan_ = nullptr;
+    std::unique_ptr<float, fftw_buffer_free> frame_;      ///< fft_size real inputs (FFTW-aligned)
+    std::unique_ptr<float, fftw_buffer_free> spectrum_;   ///< fft_size / 2 + 1 complex outputs
     std::vector<kiss_fft_cpx> bins_;
     std::vector<float> power_;
 };

@@ -11,6 +11,7 @@
 #include <cstdlib>
 #include <filesystem>
 #include <string>
+#include <thread>
 #include <vector>
 
 #include "core/units.hpp"
@@ -69,7 +70,8 @@ window_figures measure_window(window_kind kind) {
     double prev = rel_db(0.0);
     while (rel_db(nu) < prev) prev = rel_db(nu), nu += step;
     double highest = -infinity;
-    for (; nu < 40.0; nu += step) highest = std::max(highest, rel_db(nu));
+    for (auto i = std::lround(nu / step); static_cast<double>(i) * step < 40.0; ++i)
+        highest = std::max(highest, rel_db(static_cast<double>(i) * step));
     out.highest_sidelobe_db = highest;
     return out;
 }
@@ -119,7 +121,7 @@ TEST_CASE("STFT frame equals FFTW's transform of the same zero-phase frame", "[s
     const auto w = make_window(window_kind::blackman_harris_4, window_length, window_symmetry::symmetric);
     const int h = window_length / 2;
     double* in = fftw_alloc_real(static_cast<std::size_t>(fft_size));
-    fftw_complex* out = fftw_alloc_complex(static_cast<std::size_t>(fft_size / 2 + 1));
+    fftw_complex* out = fftw_alloc_complex(static_cast<std::size_t>(fft_size) / 2 + 1);
     fftw_plan p = fftw_plan_dft_r2c_1d(fft_size, in, out, FFTW_ESTIMATE);
     std::fill(in, in + fft_size, 0.0);
     for (int m = -h; m <= h; ++m) in[(m + fft_size) % fft_size] = double(w[h + m]) * double(x[centre + m]);
@@ -142,6 +144,68 @@ TEST_CASE("STFT frame equals FFTW's transform of the same zero-phase frame", "[s
     const double k_scale = plan.amp_scale() * plan.amp_scale();
     CHECK_THAT(double(plan.power()[100]),
                WithinRel(k_scale * (double(bins[100].r) * double(bins[100].r) + double(bins[100].i) * double(bins[100].i)), 1e-5));
+}
+
+TEST_CASE("STFT bins equal a direct DFT in long double of the same zero-phase frame", "[spectrum][stft]") {
+    // Independent of any FFT library (the STFT runs on FFTW): X[k] = sum_n buf[n] exp(-i 2 pi k n / M).
+    const int fft_size = GENERATE(2400, 5400, 8000);
+    constexpr int window_length = 2001;
+    constexpr std::int64_t centre = 2100;
+    splitmix64 rng{777};
+    const test::uniform_draw<float> uni{-1.0f, 1.0f};
+    std::vector<float> x(4500);
+    for (float& v : x) v = uni(rng);
+    stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = window_length, .fft_size = fft_size});
+    plan.analyze(x, centre);
+    const auto w = make_window(window_kind::blackman_harris_4, window_length, window_symmetry::symmetric);
+    const int h = window_length / 2;
+    std::vector<long double> buf(static_cast<std::size_t>(fft_size), 0.0L);
+    for (int m = -h; m <= h; ++m)
+        buf[static_cast<std::size_t>((m + fft_size) % fft_size)] = static_cast<long double>(w[h + m]) * static_cast<long double>(x[centre + m]);
+    long double scale = 0.0L;
+    for (const long double v : buf) scale += std::abs(v);
+    const auto bins = plan.bins();
+    for (int k = 0; k <= fft_size / 2; k += fft_size / 40 + 7) {
+        std::complex<long double> ref{};
+        for (int n = 0; n < fft_size; ++n) {
+            const long double arg = -2.0L * 3.14159265358979323846264338327950288L * static_cast<long double>((static_cast<long long>(k) * n) % fft_size) /
+                                    static_cast<long double>(fft_size);
+            ref += buf[static_cast<std::size_t>(n)] * std::complex<long double>{std::cos(arg), std::sin(arg)};
+        }
+        const std::complex<long double> got{bins[static_cast<std::size_t>(k)].r, bins[static_cast<std::size_t>(k)].i};
+        CAPTURE(fft_size, k, static_cast<double>(std::abs(got - ref)), static_cast<double>(scale));
+        // float samples through a float FFT: errors of a few float epsilons of sum |buf|.
+        CHECK(std::abs(got - ref) < 1e-5L * scale);
+    }
+}
+
+TEST_CASE("STFT plans made and run in two threads at once give the bins of a plan run alone", "[spectrum][stft]") {
+    std::vector<float> x(9000);
+    splitmix64 rng{99};
+    const test::uniform_draw<float> uni{-1.0f, 1.0f};
+    for (float& v : x) v = uni(rng);
+    const stft_config config{.window = window_kind::hann, .window_length = 3001, .fft_size = 7290};
+    stft_plan alone(config);
+    alone.analyze(x, 4000);
+    const std::vector<kiss_fft_cpx> want(alone.bins().begin(), alone.bins().end());
+    std::vector<std::vector<kiss_fft_cpx>> got(2);
+    auto run = [&](std::size_t t) {
+        for (int rep = 0; rep < 20; ++rep) {  // plans made and destroyed while the other thread does the same
+            stft_plan plan(config);
+            plan.analyze(x, 4000);
+            got[t].assign(plan.bins().begin(), plan.bins().end());
+        }
+    };
+    std::thread a(run, 0), b(run, 1);
+    a.join();
+    b.join();
+    for (const auto& g : got) {
+        REQUIRE(g.size() == want.size());
+        std::size_t differ = 0;
+        for (std::size_t k = 0; k < g.size(); ++k) differ += (g[k].r != want[k].r || g[k].i != want[k].i) ? 1 : 0;
+        CAPTURE(differ);
+        CHECK(differ == 0);
+    }
 }
 
 TEST_CASE("a sinusoid written by sox is found at its frequency and level", "[spectrum][sox]") {
