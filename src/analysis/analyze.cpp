@@ -235,9 +235,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         out.summary.partials = static_cast<int>(p.partials.size());
     }
     done("pair split");
-    // The recording's peak counts from the tracker's onset: a pluck's first swing may come before
-    // the modes' start that the onset refinement finds.
-    const double tracker_onset_s = tr.onset_s;
+    const double tracker_onset_s = tr.onset_s;  // the peak counts from here (a pluck's first swing)
     if (params.refine_onset) {
         if (onset_frame < part.size()) {
             const auto refined = refine_onset(p, part.subspan(onset_frame), sample_rate_hz, params.onset);
