@@ -90,9 +90,11 @@ double peak_matching_gain_db(const patch& p, std::span<const float> note, double
 
 namespace {
 
-/// The samples between params.start_s and params.end_s (0: the end); bad times are analysis errors.
+/// The samples between params.start_s and params.end_s (0: the end), at most max_length_s of them
+/// (what a patch can hold: core/patch.hpp); bad times are analysis errors.
+/// unanalysed_frames: the samples left out by that limit.
 std::span<const float> analysed_part(std::span<const float> samples, double sample_rate_hz,
-                                     const analysis_params& params) {
+                                     const analysis_params& params, std::size_t& unanalysed_frames) {
     const double file_s = static_cast<double>(samples.size()) / sample_rate_hz;
     if (params.start_s < 0.0 || params.end_s < 0.0)
         throw analysis_error("start and end times must not be negative");
@@ -106,7 +108,9 @@ std::span<const float> analysed_part(std::span<const float> samples, double samp
     std::size_t last = samples.size();
     if (params.end_s > 0.0)
         last = std::min(last, static_cast<std::size_t>(std::llround(params.end_s * sample_rate_hz)));
-    return samples.subspan(first, last - first);
+    const std::size_t limit = first + static_cast<std::size_t>(std::floor(max_length_s * sample_rate_hz));
+    unanalysed_frames = last > limit ? last - limit : 0;
+    return samples.subspan(first, std::min(last, limit) - first);
 }
 
 /// Fits every track's envelope into out.value's partials (in track order; tracks whose fit fails
@@ -163,12 +167,14 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
                              const analysis_params& params, const stage_observer& stage_done) {
     assert(sample_rate_hz > 0.0);
     assert(params.max_segments >= 1 && params.max_segments <= max_fit_decay_segments);
-    const std::span<const float> part = analysed_part(samples, sample_rate_hz, params);
+    std::size_t unanalysed_frames = 0;
+    const std::span<const float> part = analysed_part(samples, sample_rate_hz, params, unanalysed_frames);
     const auto done = [&](std::string_view stage) {
         if (stage_done) stage_done(stage);
     };
 
     analysis_result out;
+    out.summary.unanalysed_s = static_cast<double>(unanalysed_frames) / sample_rate_hz;
     out.tracking = track_note(part, sample_rate_hz, params.tracking);
     const tracking_result& tr = out.tracking;
     done("tracking");
@@ -199,8 +205,6 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         out.summary.partials = static_cast<int>(p.partials.size());
     }
     done("root and added peaks");
-    // The patch holds at most max_length_s (core/patch.hpp); a longer recording (analyze accepts
-    // up to 30 minutes) keeps what its fits found and renders that long by default.
     p.note.length_s = std::clamp(std::ceil(analysed_s / length_step_s - 1e-9) * length_step_s, length_step_s, max_length_s);
     p.source.file = params.source_file;
     p.source.sample_rate_hz = sample_rate_hz;

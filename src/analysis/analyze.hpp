@@ -55,12 +55,14 @@ struct analysis_summary {
     recording_end end{};       ///< how the recording ends (analysis/recording_end.hpp)
     int continued_past_cut = 0;  ///< partials and bands whose last segment was made to fall (cut_tail.hpp)
     int pairs_split = 0;       ///< partials split into beating pairs
-    int new_modes = 0;
     int moved_to_heard_peaks = 0;  ///< partials moved to the recording's long-spectrum peak
     int merged_companions = 0;     ///< late companions merged into their stronger neighbour (heard_peaks)
-    int added_heard_peaks = 0;     ///< partials added for long-spectrum peaks no track accounts for         ///< partials added by the onset refinement (short-lived modes)
+    int added_heard_peaks = 0;     ///< partials added for long-spectrum peaks no track accounts for
+    int new_modes = 0;             ///< partials added by the onset refinement (short-lived modes)
     /// Energy of the first fit span explained by the partials, dB (onset refinement).
     double onset_explained_db = 0.0;
+    /// Audio left out after start_s + max_length_s (a patch holds at most max_length_s), s.
+    double unanalysed_s = 0.0;
 };
 
 struct analysis_result {

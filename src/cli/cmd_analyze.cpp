@@ -170,13 +170,18 @@ std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t
     char buf[192];
     // How the recording ends comes first; the line ends with the patch size.
     std::string end;
+    if (s.unanalysed_s > 0.0) {
+        std::snprintf(buf, sizeof buf, " the first %.0f s analyzed (what a patch holds), the last %.2f s left out;",
+                      max_length_s, s.unanalysed_s);
+        end = buf;
+    }
     if (s.end.kind == end_kind::cut) {
         std::snprintf(buf, sizeof buf, " cut at %.3f s while sounding (%.1f dB under the peak, %d decays run on past it);",
                       s.end.length_s, s.end.end_below_peak_db, s.continued_past_cut);
-        end = buf;
+        end += buf;
     } else if (s.end.kind == end_kind::holds) {
         std::snprintf(buf, sizeof buf, " holds its level for the last %.2f s;", s.end.held_s);
-        end = buf;
+        end += buf;
     }
     std::snprintf(buf, sizeof buf, " %d partials, %d short-lived, %d pairs split, onset fit explains %.1f dB, %d segments, fit error %.2f dB, %ju bytes",
                   s.partials, s.new_modes, s.pairs_split, s.onset_explained_db, s.segments, s.fit_error_db, bytes);

@@ -146,10 +146,11 @@ TEST_CASE("a steady tone holds: no cut, its level held", "[tails]") {
     }
 }
 
-TEST_CASE("a recording longer than a patch can hold: its length stops at the format's limit, and the patch is valid",
+TEST_CASE("a recording longer than a patch can hold: the first 600 s are analyzed, the rest said left out, the patch valid",
           "[tails][limits]") {
     // A held tone of 605 s at 8 kHz (a low rate keeps the test short): analyze accepts up to 30
-    // minutes of input, the patch format holds max_length_s = 600 s.
+    // minutes of input, the patch format holds max_length_s = 600 s (its length and every segment's
+    // until_s: a 30-minute held tone once came out with a segment ending at 1055 s).
     constexpr double low_rate_hz = 8000.0;
     const auto n = static_cast<std::size_t>(605.0 * low_rate_hz);
     splitmix64 rng{11};
@@ -161,6 +162,7 @@ TEST_CASE("a recording longer than a patch can hold: its length stops at the for
     }
     const analysis_result r = analyze_note(x, low_rate_hz, {});
     CHECK(r.value.note.length_s == max_length_s);
+    CHECK_THAT(r.summary.unanalysed_s, WithinAbs(5.0, 1.0 / low_rate_hz));  // the last 5 s left out, and said
     const std::optional<std::string> broken = patch_rules::first_broken_rule(r.value);
     CAPTURE(broken);
     CHECK_FALSE(broken.has_value());
