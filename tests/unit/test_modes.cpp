@@ -6,6 +6,7 @@
 
 #include <cmath>
 #include <complex>
+#include <span>
 #include <vector>
 
 #include <Eigen/Dense>
@@ -37,6 +38,30 @@ std::vector<float> render_modes(const std::vector<damped_mode>& modes, double fs
         x[i] = static_cast<float>(v);
     }
     return x;
+}
+
+/// The reference least squares: explicit columns Re z^n and -Im z^n of every mode (z = exp((-d +
+/// 2 pi i f) / fs)), solved by Eigen's Householder QR; the unknowns are (Re c_k, Im c_k) per mode.
+struct dense_fit {
+    Eigen::VectorXd amps;
+    double residual = 0.0;  ///< |A amps - x|^2 / |x|^2
+};
+dense_fit dense_qr_amplitudes(std::span<const float> x, double fs, const std::vector<damped_mode>& modes) {
+    const auto n = static_cast<Eigen::Index>(x.size());
+    Eigen::MatrixXd a(n, static_cast<Eigen::Index>(2 * modes.size()));
+    Eigen::VectorXd b(n);
+    for (Eigen::Index i = 0; i < n; ++i) {
+        const double t = static_cast<double>(i) / fs;
+        for (std::size_t k = 0; k < modes.size(); ++k) {
+            const auto z = std::exp(std::complex<double>(-modes[k].decay_per_s * t, two_pi * modes[k].freq_hz * t));
+            a(i, static_cast<Eigen::Index>(2 * k)) = z.real();
+            a(i, static_cast<Eigen::Index>(2 * k + 1)) = -z.imag();
+        }
+        b(i) = x[static_cast<std::size_t>(i)];
+    }
+    dense_fit out{.amps = a.householderQr().solve(b)};
+    out.residual = (a * out.amps - b).squaredNorm() / b.squaredNorm();
+    return out;
 }
 
 }  // namespace
@@ -80,19 +105,8 @@ TEST_CASE("complex amplitudes match a dense QR least squares on noisy data", "[m
                                    {.freq_hz = 740.0, .decay_per_s = 60.0, .amp = {-0.1, 0.2}},
                                    {.freq_hz = 2210.0, .decay_per_s = 30.0, .amp = {0.05, 0.0}}};
     const auto x = render_modes(modes, fs, n, 0.05, 7);
-    // Reference: explicit columns Re z^n and -Im z^n, Householder QR.
-    Eigen::MatrixXd a(static_cast<Eigen::Index>(n), 6);
-    Eigen::VectorXd b(static_cast<Eigen::Index>(n));
-    for (std::size_t i = 0; i < n; ++i) {
-        const double t = static_cast<double>(i) / fs;
-        for (std::size_t k = 0; k < modes.size(); ++k) {
-            const auto z = std::exp(std::complex<double>(-modes[k].decay_per_s * t, two_pi * modes[k].freq_hz * t));
-            a(static_cast<Eigen::Index>(i), static_cast<Eigen::Index>(2 * k)) = z.real();
-            a(static_cast<Eigen::Index>(i), static_cast<Eigen::Index>(2 * k + 1)) = -z.imag();
-        }
-        b(static_cast<Eigen::Index>(i)) = x[i];
-    }
-    const Eigen::VectorXd ref = a.householderQr().solve(b);
+    const dense_fit dense = dense_qr_amplitudes(x, fs, modes);
+    const Eigen::VectorXd& ref = dense.amps;
     fit_mode_amplitudes(x, fs, modes);
     for (std::size_t k = 0; k < modes.size(); ++k) {
         const std::complex<double> want(ref(static_cast<Eigen::Index>(2 * k)), ref(static_cast<Eigen::Index>(2 * k + 1)));
@@ -121,20 +135,10 @@ TEST_CASE("amplitudes of many modes, close pairs and pairs near Nyquist among th
     modes.push_back({.freq_hz = 0.5 * fs - 3.0, .decay_per_s = 10.0, .amp = {0.01, 0.02}});
     modes.push_back({.freq_hz = 0.5 * fs - 40.0, .decay_per_s = 30.0, .amp = {-0.02, 0.01}});
     const auto x = render_modes(modes, fs, n, 0.02, seed);
-    Eigen::MatrixXd a(static_cast<Eigen::Index>(n), static_cast<Eigen::Index>(2 * modes.size()));
-    Eigen::VectorXd b(static_cast<Eigen::Index>(n));
-    for (std::size_t i = 0; i < n; ++i) {
-        const double t = static_cast<double>(i) / fs;
-        for (std::size_t k = 0; k < modes.size(); ++k) {
-            const auto z = std::exp(std::complex<double>(-modes[k].decay_per_s * t, two_pi * modes[k].freq_hz * t));
-            a(static_cast<Eigen::Index>(i), static_cast<Eigen::Index>(2 * k)) = z.real();
-            a(static_cast<Eigen::Index>(i), static_cast<Eigen::Index>(2 * k + 1)) = -z.imag();
-        }
-        b(static_cast<Eigen::Index>(i)) = x[i];
-    }
-    const Eigen::VectorXd ref = a.householderQr().solve(b);
+    const dense_fit dense = dense_qr_amplitudes(x, fs, modes);
+    const Eigen::VectorXd& ref = dense.amps;
     const double residual = fit_mode_amplitudes(x, fs, modes);
-    const double ref_residual = (a * ref - b).squaredNorm() / b.squaredNorm();
+    const double ref_residual = dense.residual;
     CAPTURE(seed, residual, ref_residual);
     CHECK_THAT(residual, WithinRel(ref_residual, 1e-6));
     for (std::size_t k = 0; k < modes.size(); ++k) {
