@@ -76,6 +76,20 @@ window_figures measure_window(window_kind kind) {
     return out;
 }
 
+/// The frame the STFT transforms, written out for the references: buf[m mod M] = w[h + m] x[c + m]
+/// for m = -h..h (w the symmetric 4-term Blackman-Harris window of window_length = 2h + 1
+/// samples, M = fft_size), zero elsewhere; computed in T.
+template <typename T>
+std::vector<T> zero_phase_frame(const std::vector<float>& x, int window_length, std::int64_t centre, int fft_size) {
+    const auto w = make_window(window_kind::blackman_harris_4, window_length, window_symmetry::symmetric);
+    const int h = window_length / 2;
+    std::vector<T> buf(static_cast<std::size_t>(fft_size), T{0});
+    for (int m = -h; m <= h; ++m)
+        buf[static_cast<std::size_t>((m + fft_size) % fft_size)] =
+            static_cast<T>(w[static_cast<std::size_t>(h + m)]) * static_cast<T>(x[static_cast<std::size_t>(centre + m)]);
+    return buf;
+}
+
 }  // namespace
 
 TEST_CASE("window figures match the published tables", "[spectrum][window]") {
@@ -117,14 +131,12 @@ TEST_CASE("STFT frame equals FFTW's transform of the same zero-phase frame", "[s
     stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = window_length, .fft_size = fft_size});
     plan.analyze(x, centre);
 
-    // Reference: FFTW (double) of buf[m mod M] = w[h + m] x[c + m], m = -h..h.
-    const auto w = make_window(window_kind::blackman_harris_4, window_length, window_symmetry::symmetric);
-    const int h = window_length / 2;
+    // Reference: FFTW (double) of the same zero-phase frame.
+    const std::vector<double> frame = zero_phase_frame<double>(x, window_length, centre, fft_size);
     double* in = fftw_alloc_real(static_cast<std::size_t>(fft_size));
     fftw_complex* out = fftw_alloc_complex(static_cast<std::size_t>(fft_size) / 2 + 1);
     fftw_plan p = fftw_plan_dft_r2c_1d(fft_size, in, out, FFTW_ESTIMATE);
-    std::fill(in, in + fft_size, 0.0);
-    for (int m = -h; m <= h; ++m) in[(m + fft_size) % fft_size] = double(w[h + m]) * double(x[centre + m]);
+    std::copy(frame.begin(), frame.end(), in);
     fftw_execute(p);
     double max_ref = 0.0, max_diff = 0.0;
     const auto bins = plan.bins();
@@ -157,11 +169,7 @@ TEST_CASE("STFT bins equal a direct DFT in long double of the same zero-phase fr
     for (float& v : x) v = uni(rng);
     stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = window_length, .fft_size = fft_size});
     plan.analyze(x, centre);
-    const auto w = make_window(window_kind::blackman_harris_4, window_length, window_symmetry::symmetric);
-    const int h = window_length / 2;
-    std::vector<long double> buf(static_cast<std::size_t>(fft_size), 0.0L);
-    for (int m = -h; m <= h; ++m)
-        buf[static_cast<std::size_t>((m + fft_size) % fft_size)] = static_cast<long double>(w[h + m]) * static_cast<long double>(x[centre + m]);
+    const std::vector<long double> buf = zero_phase_frame<long double>(x, window_length, centre, fft_size);
     long double scale = 0.0L;
     for (const long double v : buf) scale += std::abs(v);
     const auto bins = plan.bins();
