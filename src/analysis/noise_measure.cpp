@@ -5,6 +5,7 @@
 #include <cmath>
 #include <cstdint>
 
+#include "core/order_select.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -26,6 +27,11 @@ constexpr int zero_padding = 2;
 constexpr double floor_bin_hz = 8.0;
 /// The streamed residual is formed this many renderer anchor blocks at a time (plus one window).
 constexpr std::size_t residual_blocks = 64;
+/// A band's median is looked for first within a factor 1 + median_bracket_sigmas / sqrt(n) of
+/// the previous frame's (n bins): the median of n unit exponentials has a relative standard
+/// deviation of about 1.44 / sqrt(n) (1 / (2 f(m) sqrt(n)) over m = ln 2), and the frames overlap
+/// by most of a window. Only the cost depends on it (core/order_select.hpp: the value is exact).
+constexpr double median_bracket_sigmas = 4.0;
 
 /// Expected median of n independent unit-mean exponential variables (the power of one noise bin):
 /// the k-th smallest has mean sum_{j = n - k + 1}^{n} 1 / j (Renyi's representation); an even n
@@ -126,6 +132,52 @@ band_plan attack_plan(double sample_rate_hz, const noise_model_params& params) {
     return plan;
 }
 
+namespace {
+
+/// What the frame loop keeps per band between frames, made once per measurement.
+struct band_selection {
+    explicit band_selection(const band_plan& bp) : unit_median(bp.bands.size(), 1.0), spread(bp.bands.size(), 1.0),
+                                                   last_median(bp.bands.size(), 0.0f) {
+        std::size_t most_bins = 0;
+        for (std::size_t b = 0; b < bp.bands.size(); ++b) {
+            const std::size_t n = bp.bins[b].size();
+            most_bins = std::max(most_bins, n);
+            if (!bp.median || n == 0) continue;
+            unit_median[b] = expected_exponential_median(n);
+            spread[b] = 1.0 + median_bracket_sigmas / std::sqrt(static_cast<double>(n));
+        }
+        values.resize(most_bins);
+        scratch.resize(most_bins);
+    }
+    std::vector<double> unit_median;  ///< the expected median of the band's count of unit exponentials
+    std::vector<double> spread;       ///< the median's bracket factor
+    std::vector<float> last_median;   ///< the previous frame's median (0: none yet)
+    std::vector<float> values, scratch;
+};
+
+/// Band b's mean power per bin in one frame (power: the frame's bins, sinusoid scale times
+/// amp_scale_sq): the median over its bins scaled to a mean, or their mean.
+double mean_bin_power(const band_plan& bp, std::size_t b, std::span<const float> power, double amp_scale_sq,
+                      band_selection& sel) {
+    const std::vector<int>& bins = bp.bins[b];
+    const std::size_t n = bins.size();
+    assert(n > 0);
+    if (!bp.median) {
+        double sum = 0.0;
+        for (int k : bins) sum += static_cast<double>(power[static_cast<std::size_t>(k)]);
+        return sum / static_cast<double>(n) / amp_scale_sq;
+    }
+    for (std::size_t i = 0; i < n; ++i) sel.values[i] = power[static_cast<std::size_t>(bins[i])];
+    const order_values mid = select_order(std::span(sel.values).first(n), n / 2, n % 2 == 0,
+                                          bracket_around(sel.last_median[b], sel.spread[b]), sel.scratch);
+    sel.last_median[b] = mid.kth;
+    double median = mid.kth;
+    if (n % 2 == 0) median = 0.5 * (median + static_cast<double>(mid.below));
+    return median / sel.unit_median[b] / amp_scale_sq;
+}
+
+}  // namespace
+
 std::vector<noise_band_track> measure_bands(std::size_t total, const residual_source& source, double sample_rate_hz,
                                             const band_plan& bp, stft_plan& plan, double until_s) {
     assert(plan.fft_size() == plan_config(bp, sample_rate_hz).fft_size);
@@ -141,17 +193,12 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
         end = static_cast<std::size_t>(std::ceil(std::max(0.0, until_s) * sample_rate_hz));
     const std::size_t frame_count = end == 0 ? 0 : (end - 1) / hop + 1;
     std::vector<noise_band_track> tracks(bp.bands.size());
-    // Per band, once: the expected median of its bins' count of unit exponentials.
-    std::vector<double> unit_median(bp.bands.size(), 1.0);
-    std::size_t most_bins = 0;
     for (std::size_t b = 0; b < bp.bands.size(); ++b) {
         tracks[b] = {.low_hz = bp.bands[b].low_hz, .high_hz = bp.bands[b].high_hz,
                      .hop_s = static_cast<double>(hop) / sample_rate_hz, .level_db = {}, .leak_db = {}};
         tracks[b].level_db.reserve(frame_count);
-        if (bp.median && !bp.bins[b].empty()) unit_median[b] = expected_exponential_median(bp.bins[b].size());
-        most_bins = std::max(most_bins, bp.bins[b].size());
     }
-    std::vector<float> scratch(most_bins);
+    band_selection selection(bp);
 
     // The buffer holds residual [buf_first, buf_first + buf.size()); it starts at a multiple of
     // the renderer's anchor length (so the partials come out as in one whole render).
@@ -182,23 +229,8 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
         plan.analyze(view, local_centre);
         const auto power = plan.power();
         for (std::size_t b = 0; b < bp.bands.size(); ++b) {
-            const std::vector<int>& bins = bp.bins[b];
-            double mean_bin_power = 0.0;
-            if (bp.median) {
-                const auto first = scratch.begin();
-                const auto last = first + static_cast<std::ptrdiff_t>(bins.size());
-                for (std::size_t i = 0; i < bins.size(); ++i) scratch[i] = power[static_cast<std::size_t>(bins[i])];
-                const auto mid = first + static_cast<std::ptrdiff_t>(bins.size() / 2);
-                std::nth_element(first, mid, last);
-                double median = *mid;
-                if (bins.size() % 2 == 0) median = 0.5 * (median + static_cast<double>(*std::max_element(first, mid)));
-                mean_bin_power = median / unit_median[b] / amp_scale_sq;
-            } else {
-                double sum = 0.0;
-                for (int k : bins) sum += static_cast<double>(power[static_cast<std::size_t>(k)]);
-                mean_bin_power = sum / static_cast<double>(bins.size()) / amp_scale_sq;
-            }
-            const double band_power = band_power_from_bins(mean_bin_power, bp.band_total_bins[b], n_fft, window_power_sum);
+            const double band_power = band_power_from_bins(mean_bin_power(bp, b, power, amp_scale_sq, selection),
+                                                           bp.band_total_bins[b], n_fft, window_power_sum);
             tracks[b].level_db.push_back(static_cast<float>(std::max(noise_silence_db, power_to_db(band_power))));
         }
     }

@@ -8,6 +8,8 @@
 #include <functional>
 #include <utility>
 
+#include <Eigen/Core>
+
 #include "core/units.hpp"
 
 namespace wane {
@@ -45,21 +47,49 @@ mode_shape attack_shape(const attack_choice& choice, double rho, std::size_t cou
 
 namespace {
 
+/// out[n] += sign s_i[n] Re(amp_i p_i[n]) for the group's G modes in turn, p_i[n] = exp(i omega_i n)
+/// re-anchored from the exact power every 512 samples: add_mode's arithmetic written out on real
+/// and imaginary parts (the same products and sums), the G phasor chains overlapped.
+template <std::size_t G>
+void add_group(std::span<const std::vector<double>> samples, std::span<const double> omega,
+               std::span<const std::complex<double>> amp, double sign, std::vector<double>& out) {
+    // Element-wise arrays (Eigen packets): each chain's arithmetic is its own, as written.
+    using lanes = Eigen::Array<double, static_cast<int>(G), 1>;
+    lanes zr, zi, pr, pi_, ar, ai, s;
+    for (std::size_t i = 0; i < G; ++i) {
+        const std::complex<double> z = std::polar(1.0, omega[i]);
+        const auto lane = static_cast<Eigen::Index>(i);
+        zr(lane) = z.real(), zi(lane) = z.imag(), ar(lane) = amp[i].real(), ai(lane) = amp[i].imag();
+    }
+    const std::size_t count = out.size();
+    for (std::size_t start = 0; start < count; start += 512) {
+        for (std::size_t i = 0; i < G; ++i) {
+            const std::complex<double> p = std::polar(1.0, std::remainder(omega[i] * static_cast<double>(start), two_pi));
+            const auto lane = static_cast<Eigen::Index>(i);
+            pr(lane) = p.real(), pi_(lane) = p.imag();
+        }
+        const std::size_t end = std::min(count, start + 512);
+        for (std::size_t n = start; n < end; ++n) {
+            for (std::size_t i = 0; i < G; ++i) s(static_cast<Eigen::Index>(i)) = samples[i][n];
+            const lanes term = sign * s * (ar * pr - ai * pi_);
+            double acc = out[n];
+            for (std::size_t i = 0; i < G; ++i) acc += term(static_cast<Eigen::Index>(i));
+            out[n] = acc;
+            const lanes next_r = pr * zr - pi_ * zi;
+            pi_ = pr * zi + pi_ * zr;
+            pr = next_r;
+        }
+    }
+}
+
 /// Adds sign * Re(amp a[n] exp(i omega n)) for n in [0, out.size()) to out; a is the mode's shape
 /// (exp(-d n / fs) when empty). The phasor is re-anchored from the exact power every 512 samples.
 void add_mode(const damped_mode& m, const mode_shape& shape, double sample_rate_hz, double sign,
               std::vector<double>& out, std::vector<double>& scratch) {
     const std::size_t count = out.size();
-    const mode_shape own = shape.empty() ? exponential_shape(-m.decay_per_s / sample_rate_hz, count) : shape;
-    shape_samples(own, count, scratch);
+    shape_samples(shape.empty() ? exponential_shape(-m.decay_per_s / sample_rate_hz, count) : shape, count, scratch);
     const double omega = two_pi * m.freq_hz / sample_rate_hz;
-    const std::complex<double> z = std::polar(1.0, omega);
-    std::complex<double> p{1.0, 0.0};
-    for (std::size_t n = 0; n < count; ++n) {
-        if (n % 512 == 0) p = std::polar(1.0, std::remainder(omega * static_cast<double>(n), two_pi));
-        out[n] += sign * scratch[n] * (m.amp * p).real();
-        p *= z;
-    }
+    add_group<1>(std::span(&scratch, 1), std::span(&omega, 1), std::span(&m.amp, 1), sign, out);
 }
 
 /// add_mode with sign -1 for every mode, modes_per_pass at a time: per mode and sample the same
@@ -67,28 +97,25 @@ void add_mode(const damped_mode& m, const mode_shape& shape, double sample_rate_
 void subtract_modes(std::span<const damped_mode> modes, std::span<const mode_shape> shapes, double sample_rate_hz,
                     std::vector<double>& out) {
     constexpr std::size_t modes_per_pass = 4;
-    constexpr double sign = -1.0;
     const std::size_t count = out.size();
     std::array<std::vector<double>, modes_per_pass> samples;
     for (std::size_t first = 0; first < modes.size(); first += modes_per_pass) {
         const std::size_t g = std::min(modes_per_pass, modes.size() - first);
         std::array<double, modes_per_pass> omega{};
-        std::array<std::complex<double>, modes_per_pass> z{}, p{}, amp{};
+        std::array<std::complex<double>, modes_per_pass> amp{};
         for (std::size_t i = 0; i < g; ++i) {
             const damped_mode& m = modes[first + i];
             const mode_shape& shape = shapes[first + i];
             shape_samples(shape.empty() ? exponential_shape(-m.decay_per_s / sample_rate_hz, count) : shape, count, samples[i]);
             omega[i] = two_pi * m.freq_hz / sample_rate_hz;
-            z[i] = std::polar(1.0, omega[i]);
             amp[i] = m.amp;
         }
-        for (std::size_t n = 0; n < count; ++n) {
-            if (n % 512 == 0)
-                for (std::size_t i = 0; i < g; ++i) p[i] = std::polar(1.0, std::remainder(omega[i] * static_cast<double>(n), two_pi));
-            for (std::size_t i = 0; i < g; ++i) {
-                out[n] += sign * samples[i][n] * (amp[i] * p[i]).real();
-                p[i] *= z[i];
-            }
+        // Each out[n] gets the modes' terms in mode order whatever the grouping.
+        if (g == modes_per_pass) {
+            add_group<modes_per_pass>(samples, omega, amp, -1.0, out);
+        } else {
+            for (std::size_t i = 0; i < g; ++i)
+                add_group<1>(std::span(samples).subspan(i, 1), std::span(omega).subspan(i, 1), std::span(amp).subspan(i, 1), -1.0, out);
         }
     }
 }
@@ -137,6 +164,28 @@ void projection_sums(std::span<const double> x, double omega, double rho, std::v
     for (std::size_t n = count; n-- > 0;) tail_sum[n] = demod[n] + step * tail_sum[n + 1];
 }
 
+/// sum_n a[n] q[n] for a rise's shape a (attack_shape: pieces over [0, rise), then exp(rho (n -
+/// rise)) from rise on), q = demod: the rise's pieces sample by sample (as shape_samples makes
+/// them), the decay from tail_sum[rise] (projection_sums).
+std::complex<double> rising_projection(const mode_shape& shape, std::size_t rise,
+                                       std::span<const std::complex<double>> demod,
+                                       std::span<const std::complex<double>> tail_sum) {
+    std::complex<double> acc{};
+    for (const shape_piece& p : shape) {
+        if (p.start >= rise) break;
+        assert(p.power == 0);
+        const std::size_t end = std::min(rise, p.start + p.count);
+        const double ratio = std::exp(p.rho);
+        double v = p.scale;
+        for (std::size_t n = p.start; n < end; ++n) {
+            if ((n - p.start) % 512 == 0) v = p.scale * std::exp(p.rho * static_cast<double>(n - p.start));
+            acc += v * demod[n];
+            v *= ratio;
+        }
+    }
+    return acc + tail_sum[rise];
+}
+
 }  // namespace
 
 std::vector<attack_choice> choose_attacks(std::span<const float> target, double sample_rate_hz,
@@ -174,8 +223,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
             const mode_shape shape = attack_shape(c, rho, count);
             std::complex<double> acc;
             if (c.start_ratio > 0.0 && c.rise_n > 0) {
-                shape_samples(shape, count, scratch);
-                for (std::size_t n = 0; n < count; ++n) acc += scratch[n] * demod[n];
+                acc = rising_projection(shape, std::min(c.rise_n, count), demod, tail_sum);
             } else {
                 acc = (c.rise_n == 0 ? std::complex<double>{} : ramp_sum[c.rise_n] / static_cast<double>(c.rise_n)) +
                       tail_sum[c.rise_n];

@@ -112,28 +112,53 @@ Eigen::MatrixXd shape_gram(std::span<const mode_shape> own, std::span<const doub
 /// overlap (each mode's arithmetic is the same as alone).
 constexpr std::size_t projection_group = 4;
 
-/// sum_n w[n] p_k[n] for the modes in `which` (at most projection_group), p_k[n] = exp(n (rho_k +
-/// i w_k)), the phasors re-anchored from the exact power every anchor samples.
-void project_group(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
-                   std::span<const double> omega, std::span<std::complex<double>> out) {
+/// project_group for exactly G modes: the complex products written out on real and imaginary
+/// parts (the same products and sums as std::complex's), the G chains kept in registers.
+template <std::size_t G>
+void project_chains(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
+                    std::span<const double> omega, std::span<std::complex<double>> out) {
     constexpr std::size_t anchor = 512;
-    const std::size_t g = which.size();
-    assert(g <= projection_group);
-    std::array<std::complex<double>, projection_group> z{}, p{}, acc{};
-    for (std::size_t i = 0; i < g; ++i) z[i] = std::exp(std::complex<double>{rho[which[i]], omega[which[i]]});
+    // Element-wise arrays (Eigen packets): each chain's arithmetic is its own, as written.
+    using lanes = Eigen::Array<double, static_cast<int>(G), 1>;
+    lanes zr, zi, pr, pi_, accr = lanes::Zero(), acci = lanes::Zero();
+    for (std::size_t i = 0; i < G; ++i) {
+        const std::complex<double> z = std::exp(std::complex<double>{rho[which[i]], omega[which[i]]});
+        const auto lane = static_cast<Eigen::Index>(i);
+        zr(lane) = z.real(), zi(lane) = z.imag();
+    }
     for (std::size_t start = 0; start < w.size(); start += anchor) {
         const std::size_t end = std::min(w.size(), start + anchor);
         const auto at = static_cast<double>(start);
-        for (std::size_t i = 0; i < g; ++i)
-            p[i] = std::exp(std::complex<double>{rho[which[i]] * at, std::remainder(omega[which[i]] * at, two_pi)});
+        for (std::size_t i = 0; i < G; ++i) {
+            const std::complex<double> p = std::exp(std::complex<double>{rho[which[i]] * at, std::remainder(omega[which[i]] * at, two_pi)});
+            const auto lane = static_cast<Eigen::Index>(i);
+            pr(lane) = p.real(), pi_(lane) = p.imag();
+        }
         for (std::size_t n = start; n < end; ++n) {
-            for (std::size_t i = 0; i < g; ++i) {
-                acc[i] += w[n] * p[i];
-                p[i] *= z[i];
-            }
+            accr += w[n] * pr;
+            acci += w[n] * pi_;
+            const lanes next_r = pr * zr - pi_ * zi;
+            pi_ = pr * zi + pi_ * zr;
+            pr = next_r;
         }
     }
-    for (std::size_t i = 0; i < g; ++i) out[which[i]] = acc[i];
+    for (std::size_t i = 0; i < G; ++i) {
+        const auto lane = static_cast<Eigen::Index>(i);
+        out[which[i]] = {accr(lane), acci(lane)};
+    }
+}
+
+/// sum_n w[n] p_k[n] for the modes in `which` (at most projection_group), p_k[n] = exp(n (rho_k +
+/// i w_k)), the phasors re-anchored from the exact power every 512 samples.
+void project_group(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
+                   std::span<const double> omega, std::span<std::complex<double>> out) {
+    const std::size_t g = which.size();
+    assert(g <= projection_group);
+    if (g == projection_group) {
+        project_chains<projection_group>(w, which, rho, omega, out);
+    } else {
+        for (std::size_t i = 0; i < g; ++i) project_chains<1>(w, which.subspan(i, 1), rho, omega, out);
+    }
 }
 
 /// The projections of x on the model's real columns (2K): sum x[n] a_k[n] exp(i w_k n). A
@@ -219,18 +244,17 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
 
 namespace {
 
-/// P_k = sum_{n < count} x[n] z_k^n for every mode (z_k = exp(rho_k + i omega_k)), directly.
-void direct_projections(std::span<const float> x, std::size_t count, std::span<const std::complex<double>> z,
+/// P_k = sum_{n < count} x[n] z_k^n for every mode (z_k = exp(rho_k + i omega_k)), directly
+/// (project_group; x copied to doubles in `scratch`).
+void direct_projections(std::span<const float> x, std::size_t count, std::span<const double> rho,
+                        std::span<const double> omega, std::vector<double>& scratch,
                         std::vector<std::complex<double>>& out) {
-    for (std::size_t k = 0; k < z.size(); ++k) {
-        const double rho = std::log(std::abs(z[k])), omega = std::arg(z[k]);
-        std::complex<double> p{1.0, 0.0}, acc{};
-        for (std::size_t n = 0; n < count; ++n) {
-            if (n % 512 == 0) p = std::exp(std::complex<double>{rho * static_cast<double>(n), std::remainder(omega * static_cast<double>(n), two_pi)});
-            acc += double(x[n]) * p;
-            p *= z[k];
-        }
-        out[k] = acc;
+    scratch.assign(x.begin(), x.begin() + static_cast<std::ptrdiff_t>(count));
+    std::array<std::size_t, projection_group> which{};
+    for (std::size_t k = 0; k < rho.size(); k += projection_group) {
+        const std::size_t g = std::min(projection_group, rho.size() - k);
+        for (std::size_t i = 0; i < g; ++i) which[i] = k + i;
+        project_group(scratch, std::span(which).first(g), rho, omega, out);
     }
 }
 
@@ -256,10 +280,12 @@ std::vector<double> sliding_fit_residuals(std::span<const float> x, double sampl
     std::vector<mode_shape> own(k_count);
     std::vector<double> omega(k_count);
     std::vector<std::complex<double>> z(k_count), z_count(k_count), proj(k_count);
+    std::vector<double> rho_of(k_count), scratch;
     for (std::size_t k = 0; k < k_count; ++k) {
         assert(modes[k].freq_hz >= 0.0 && modes[k].freq_hz <= 0.5 * sample_rate_hz);
         omega[k] = two_pi * modes[k].freq_hz / sample_rate_hz;
         const double rho = -modes[k].decay_per_s / sample_rate_hz;
+        rho_of[k] = rho;
         own[k] = exponential_shape(rho, count);
         z[k] = std::exp(std::complex<double>{rho, omega[k]});
         z_count[k] = std::exp(std::complex<double>{rho * static_cast<double>(count),
@@ -269,23 +295,29 @@ std::vector<double> sliding_fit_residuals(std::span<const float> x, double sampl
     gram.diagonal().array() += ridge_rel * gram.diagonal().mean();
     const Eigen::LLT<Eigen::MatrixXd> llt(gram);
     const auto dim = static_cast<Eigen::Index>(2 * k_count);
-    Eigen::VectorXd rhs(dim);
+    // The projections of every start, one column each, then one blocked triangular solve for all.
+    Eigen::MatrixXd rhs(dim, static_cast<Eigen::Index>(starts));
     constexpr std::size_t exact_every = 128;
     for (std::size_t s = 0; s < starts; ++s) {
-        if (s % exact_every == 0) direct_projections(x.subspan(s), count, z, proj);
+        if (s % exact_every == 0) direct_projections(x.subspan(s), count, rho_of, omega, scratch, proj);
+        const auto col = static_cast<Eigen::Index>(s);
         for (std::size_t k = 0; k < k_count; ++k) {
-            rhs(static_cast<Eigen::Index>(2 * k)) = proj[k].real();
-            rhs(static_cast<Eigen::Index>(2 * k + 1)) = -proj[k].imag();
+            rhs(static_cast<Eigen::Index>(2 * k), col) = proj[k].real();
+            rhs(static_cast<Eigen::Index>(2 * k + 1), col) = -proj[k].imag();
         }
-        // The explained energy theta.rhs = rhs' G^-1 rhs = |L^-1 rhs|^2.
-        const double explained = llt.info() == Eigen::Success ? llt.matrixL().solve(rhs).squaredNorm() : 0.0;
-        out[s] = std::max(0.0, energy - explained);
+        out[s] = energy;
         if (s + 1 < starts) {
             const double leaving = x[s], entering = x[s + count];
             energy += entering * entering - leaving * leaving;
             for (std::size_t k = 0; k < k_count; ++k) proj[k] = (proj[k] - leaving + entering * z_count[k]) / z[k];
         }
     }
+    // The explained energy theta.rhs = rhs' G^-1 rhs = |L^-1 rhs|^2, per column (0 when the
+    // factorization failed).
+    const bool solved = llt.info() == Eigen::Success;
+    if (solved) llt.matrixL().solveInPlace(rhs);
+    for (std::size_t s = 0; s < starts; ++s)
+        out[s] = std::max(0.0, out[s] - (solved ? rhs.col(static_cast<Eigen::Index>(s)).squaredNorm() : 0.0));
     return out;
 }
 

@@ -8,8 +8,31 @@
 
 namespace wane {
 
+namespace {
+
+using cmatrix = Eigen::MatrixXcd;
+
+/// Phi = pinv(U1) U2 for a subspace basis u (dim x r, orthonormal columns), U1 = u without its
+/// last row, U2 without its first. U1^H U1 = I - v v^H with v the adjoint of u's last row, whose
+/// inverse is I + v v^H / (1 - |v|^2) (Sherman and Morrison 1950), so
+/// Phi = W + v (v^H W) / (1 - |v|^2),  W = U1^H U2:  no factorization of U1. Near |v| = 1 (U1
+/// close to rank deficient) the complete orthogonal decomposition gives the minimum-norm solution.
+cmatrix rotation(const cmatrix& u) {
+    const Eigen::Index dim = u.rows();
+    const auto u1 = u.topRows(dim - 1);
+    const auto u2 = u.bottomRows(dim - 1);
+    const Eigen::VectorXcd v = u.row(dim - 1).adjoint();
+    const double rest = 1.0 - v.squaredNorm();
+    if (!(rest > 1e-6)) return u1.completeOrthogonalDecomposition().solve(u2);
+    cmatrix phi = u1.adjoint() * u2;
+    const Eigen::RowVectorXcd vh_phi = v.adjoint() * phi;
+    phi.noalias() += (v / rest) * vh_phi;
+    return phi;
+}
+
+}  // namespace
+
 std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<double>> y, const esprit_params& params) {
-    using cmatrix = Eigen::MatrixXcd;
     const auto n = static_cast<Eigen::Index>(y.size());
     const Eigen::Index dim = std::min<Eigen::Index>(params.dimension, n / 3);
     if (dim < 3) return {};
@@ -44,10 +67,7 @@ std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<doub
     order = std::min({order, params.max_order, static_cast<int>(dim) - 1});
     if (params.fixed_order > 0) order = std::min(params.fixed_order, static_cast<int>(dim) - 1);
     if (order == 0) return {};
-    const cmatrix u = eig.eigenvectors().rightCols(order);
-    const cmatrix u1 = u.topRows(dim - 1);
-    const cmatrix u2 = u.bottomRows(dim - 1);
-    const cmatrix phi = u1.completeOrthogonalDecomposition().solve(u2);
+    const cmatrix phi = rotation(eig.eigenvectors().rightCols(order));
     const Eigen::ComplexEigenSolver<cmatrix> poles(phi, false);
     if (poles.info() != Eigen::Success) return {};
     std::vector<std::complex<double>> out(poles.eigenvalues().data(), poles.eigenvalues().data() + order);

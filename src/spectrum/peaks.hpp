@@ -55,6 +55,8 @@ private:
     std::vector<double> bands_power_;
     std::vector<double> measured_db_;
     std::vector<float> scratch_;
+    std::vector<float> select_scratch_;
+    std::vector<float> last_quantile_;  ///< per band: the last measured quantile (bin power)
 };
 
 struct spectral_peak {

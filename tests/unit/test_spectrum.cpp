@@ -14,6 +14,8 @@
 #include <thread>
 #include <vector>
 
+#include "core/order_select.hpp"
+#include "core/rng.hpp"
 #include "core/units.hpp"
 #include "spectrum/peaks.hpp"
 #include "spectrum/stft.hpp"
@@ -349,4 +351,37 @@ TEST_CASE("noise floor reads the mean noise power of white noise", "[spectrum][f
     const double mean_db = sum_db / bands;
     CAPTURE(bands, mean_db, expected_db);
     CHECK_THAT(mean_db, WithinAbs(expected_db, 0.5));
+}
+
+TEST_CASE("select_order finds the same k-th and (k-1)-th smallest as a full sort, whatever the bracket",
+          "[spectrum][order]") {
+    // Reference: std::sort of a copy (exact order statistics, independent of the bracketing).
+    const int n = GENERATE(1, 2, 7, 24, 25, 640, 1001);
+    const int kind = GENERATE(0, 1, 2);  // exponential powers, quantized (ties), with zeros
+    const double spread = GENERATE(1.0, 1.05, 1.3, 3.0);
+    const double guess_scale = GENERATE(-1.0, 0.1, 0.7, 1.0, 1.4, 10.0);  // -1: no bracket
+    splitmix64 rng{static_cast<std::uint64_t>(1000 * n + 10 * kind + 7)};
+    std::vector<float> values(static_cast<std::size_t>(n));
+    for (float& v : values) {
+        double x = -std::log(rng.unit_open());  // a unit exponential: one noise bin's power
+        if (kind == 1) x = std::floor(4.0 * x) / 4.0;
+        if (kind == 2 && rng.unit() < 0.3) x = 0.0;
+        v = static_cast<float>(x);
+    }
+    std::vector<float> sorted = values;
+    std::sort(sorted.begin(), sorted.end());
+    std::vector<float> scratch;
+    for (const std::size_t k : {std::size_t{0}, static_cast<std::size_t>(n) / 5, static_cast<std::size_t>(n) / 2,
+                                static_cast<std::size_t>(n) - 1}) {
+        const bool want_below = k > 0;
+        const order_bracket bracket =
+            guess_scale < 0.0 ? order_bracket{} : bracket_around(static_cast<float>(guess_scale * static_cast<double>(sorted[k])), spread);
+        std::vector<float> work = values;
+        const order_values got = select_order(work, k, want_below, bracket, scratch);
+        CAPTURE(n, kind, spread, guess_scale, k, bracket.low, bracket.high);
+        CHECK(got.kth == sorted[k]);
+        if (want_below) CHECK(got.below == sorted[k - 1]);
+        std::sort(work.begin(), work.end());
+        CHECK(work == sorted);  // reordered, nothing lost
+    }
 }

@@ -1,0 +1,34 @@
+// Exact order statistics (the k-th smallest) of float values taken frame after frame: a median or
+// quantile per band per STFT frame. The value found is the same as std::nth_element's; a bracket
+// around the previous frame's answer only makes finding it cheaper.
+#pragma once
+
+#include <cstddef>
+#include <span>
+#include <vector>
+
+namespace wane {
+
+/// The k-th smallest value of a set and, when asked, the (k-1)-th.
+struct order_values {
+    float kth = 0.0f;
+    float below = 0.0f;  ///< the (k-1)-th smallest (only when asked and k > 0)
+};
+
+/// A value range [low, high] expected to hold the k-th smallest (low > high: no bracket).
+struct order_bracket {
+    float low = 1.0f;
+    float high = 0.0f;
+};
+
+/// The bracket guess / spread .. guess * spread (spread >= 1); none when guess is not positive.
+order_bracket bracket_around(float guess, double spread);
+
+/// Selects the k-th smallest of `values` (reordered; 0-based, k < size) and, with want_below and
+/// k > 0, the (k-1)-th. First counts the values under and over `bracket` (branch-free passes);
+/// when both ranks fall inside it, only the values inside are selected among (in `scratch`, which
+/// keeps its capacity across calls), else all of them (std::nth_element).
+order_values select_order(std::span<float> values, std::size_t k, bool want_below, order_bracket bracket,
+                          std::vector<float>& scratch);
+
+}  // namespace wane
