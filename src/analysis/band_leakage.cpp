@@ -5,6 +5,7 @@
 #include <cmath>
 
 #include "core/units.hpp"
+#include "spectrum/window.hpp"
 
 namespace wane {
 
@@ -19,17 +20,14 @@ constexpr double least_coefficient = 1e-12;
 /// Level that stands for no leakage at all, dB.
 constexpr float no_leak_db = -200.0F;
 
-/// P(d) = |sum_n w[n] e^{-j 2 pi d n / N}|^2 for d = 0 .. reach (symmetric in d for a real window).
+/// P(d) = |sum_n w[n] e^{-j 2 pi d n / N}|^2 for d = 0 .. reach (symmetric in d for a real
+/// window): the squared zero-phase transform of the odd-length symmetric window (the centre's
+/// phase factor has modulus 1; spectrum/window.hpp).
 std::vector<double> power_response(std::span<const float> window, int fft_size, int reach) {
     std::vector<double> p(static_cast<std::size_t>(reach) + 1);
     for (int d = 0; d <= reach; ++d) {
-        double re = 0.0, im = 0.0;
-        const double step = two_pi * d / fft_size;
-        for (std::size_t n = 0; n < window.size(); ++n) {
-            re += static_cast<double>(window[n]) * std::cos(step * static_cast<double>(n));
-            im -= static_cast<double>(window[n]) * std::sin(step * static_cast<double>(n));
-        }
-        p[static_cast<std::size_t>(d)] = re * re + im * im;
+        const double w = zero_phase_transform(window, fft_size, static_cast<double>(d));
+        p[static_cast<std::size_t>(d)] = w * w;
     }
     return p;
 }

@@ -187,16 +187,27 @@ std::vector<std::size_t> partial_like_peaks(const span_spectrum& s, const heard_
     const double capture_hz = capture_hz_of(s, params);
     const auto isolation = static_cast<std::ptrdiff_t>(std::ceil(params.add_isolation_reaches * capture_hz / s.bin_hz));
     const auto n = static_cast<std::ptrdiff_t>(s.mag.size());
+    // The local maxima (over the previous bin, at least the next one), lowest first. The highest
+    // point of a stretch [lo, hi] is one of them or an end: its first occurrence rises from its
+    // left neighbour and does not fall short of its right one.
+    std::vector<std::size_t> maxima;
+    for (std::ptrdiff_t k = 1; k + 1 < n; ++k) {
+        const auto u = static_cast<std::size_t>(k);
+        if (s.mag[u] > s.mag[u - 1] && s.mag[u] >= s.mag[u + 1]) maxima.push_back(u);
+    }
     std::vector<std::size_t> peaks;
     double top = 0.0;
-    for (auto k = static_cast<std::ptrdiff_t>(std::ceil(lowest_hz / s.bin_hz)); k + 1 < n; ++k) {
-        const auto u = static_cast<std::size_t>(k);
-        if (!(s.mag[u] > s.mag[u - 1] && s.mag[u] >= s.mag[u + 1])) continue;
+    const auto first = static_cast<std::size_t>(std::ceil(lowest_hz / s.bin_hz));
+    std::size_t from = 0;  // the first local maximum at or past lo (lo only grows)
+    for (const std::size_t u : maxima) {
+        if (u < first) continue;
+        const auto k = static_cast<std::ptrdiff_t>(u);
         const auto lo = static_cast<std::size_t>(std::max<std::ptrdiff_t>(0, k - isolation));
         const auto hi = static_cast<std::size_t>(std::min(n - 1, k + isolation));
-        if (*std::max_element(s.mag.begin() + static_cast<std::ptrdiff_t>(lo),
-                              s.mag.begin() + static_cast<std::ptrdiff_t>(hi) + 1) > s.mag[u])
-            continue;
+        while (maxima[from] < lo) ++from;
+        double highest = std::max(s.mag[lo], s.mag[hi]);
+        for (std::size_t j = from; j < maxima.size() && maxima[j] <= hi; ++j) highest = std::max(highest, s.mag[maxima[j]]);
+        if (highest > s.mag[u]) continue;
         peaks.push_back(u);
         top = std::max(top, s.mag[u]);
     }

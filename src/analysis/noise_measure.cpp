@@ -226,7 +226,7 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
             view = view.subspan(lo - buf_first, hi - lo);
             local_centre = static_cast<std::int64_t>(half);
         }
-        plan.analyze(view, local_centre);
+        plan.analyze_power(view, local_centre);
         const auto power = plan.power();
         for (std::size_t b = 0; b < bp.bands.size(); ++b) {
             const double band_power = band_power_from_bins(mean_bin_power(bp, b, power, amp_scale_sq, selection),

@@ -34,28 +34,29 @@ order_values select_order(std::span<float> values, std::size_t k, bool want_belo
     const bool below = want_below && k > 0;
     const std::size_t first_rank = below ? k - 1 : k;
     if (!(bracket.low <= bracket.high)) return select_all(values, k, below);
-    // Ranks: values < low hold [0, under), values in [low, high] [under, upto), the rest [upto, n).
-    std::size_t under = 0, upto = 0;
+    if (scratch.size() < n) scratch.resize(n);
+    // One pass: the values inside the bracket go to scratch (ranks [under, under + m)), those
+    // under it are counted (ranks [0, under)); the rest hold ranks [under + m, n).
+    std::size_t under = 0, m = 0;
     for (const float v : values) {
+        scratch[m] = v;
+        m += static_cast<std::size_t>((v >= bracket.low) & (v <= bracket.high));
         under += static_cast<std::size_t>(v < bracket.low);
-        upto += static_cast<std::size_t>(v <= bracket.high);
     }
-    // The part holding both wanted ranks as a value range [low, high] and its first rank.
-    float low = bracket.low, high = bracket.high;
-    std::size_t rank0 = under;
+    const std::size_t upto = under + m;
+    if (under <= first_rank && k < upto) return select_all(std::span(scratch).first(m), k - under, below);
+    // Both ranks lie under the bracket or both over it: select among that side only.
+    float low = -std::numeric_limits<float>::infinity(), high = std::numeric_limits<float>::infinity();
+    std::size_t rank0 = 0;
     if (k < under) {
-        low = -std::numeric_limits<float>::infinity();
         high = std::nextafter(bracket.low, low);
-        rank0 = 0;
     } else if (first_rank >= upto) {
-        low = std::nextafter(bracket.high, std::numeric_limits<float>::infinity());
-        high = std::numeric_limits<float>::infinity();
+        low = std::nextafter(bracket.high, high);
         rank0 = upto;
-    } else if (first_rank < under || k >= upto) {
+    } else {
         return select_all(values, k, below);  // the two ranks lie in two parts
     }
-    if (scratch.size() < n) scratch.resize(n);
-    std::size_t m = 0;
+    m = 0;
     for (const float v : values) {
         scratch[m] = v;
         m += static_cast<std::size_t>((v >= low) & (v <= high));

@@ -61,7 +61,7 @@ stft_plan::~stft_plan() {
     fftwf_destroy_plan(plan_);
 }
 
-void stft_plan::analyze(std::span<const float> samples, std::int64_t centre, float dc_offset) {
+void stft_plan::transform(std::span<const float> samples, std::int64_t centre, float dc_offset) {
     const std::int64_t h = half_length();
     const std::int64_t size = static_cast<std::int64_t>(samples.size());
     const std::int64_t m_size = config_.fft_size;
@@ -82,12 +82,24 @@ void stft_plan::analyze(std::span<const float> samples, std::int64_t centre, flo
         }
     }
     fftwf_execute(plan_);
+}
+
+void stft_plan::analyze(std::span<const float> samples, std::int64_t centre, float dc_offset) {
+    transform(samples, centre, dc_offset);
     const float scale2 = static_cast<float>(amp_scale_ * amp_scale_);
     const float* out = spectrum_.get();  // re, im interleaved
     for (std::size_t k = 0; k < bins_.size(); ++k) {
         bins_[k] = {.r = out[2 * k], .i = out[2 * k + 1]};
         power_[k] = (bins_[k].r * bins_[k].r + bins_[k].i * bins_[k].i) * scale2;
     }
+}
+
+void stft_plan::analyze_power(std::span<const float> samples, std::int64_t centre) {
+    transform(samples, centre, 0.0f);
+    const float scale2 = static_cast<float>(amp_scale_ * amp_scale_);
+    const float* out = spectrum_.get();  // re, im interleaved
+    for (std::size_t k = 0; k < power_.size(); ++k)
+        power_[k] = (out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1]) * scale2;
 }
 
 }  // namespace wane

@@ -43,6 +43,8 @@ public:
     /// Transforms the frame centred at sample `centre` (dc_offset subtracted from every sample);
     /// then bins() and power() describe it.
     void analyze(std::span<const float> samples, std::int64_t centre, float dc_offset = 0.0f);
+    /// The same frame for power() only: bins() are left as they were.
+    void analyze_power(std::span<const float> samples, std::int64_t centre);
 
     /// Raw FFT bins (fft_size / 2 + 1), unscaled.
     std::span<const kiss_fft_cpx> bins() const { return bins_; }
@@ -59,6 +61,8 @@ public:
     const qifft_correction& correction() const { return correction_; }
 
 private:
+    /// Windows the frame into the FFT input and runs the FFT (its output in spectrum_).
+    void transform(std::span<const float> samples, std::int64_t centre, float dc_offset);
     stft_config config_;
     std::vector<float> window_;
     double amp_scale_ = 0.0;

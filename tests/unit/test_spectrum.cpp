@@ -158,6 +158,22 @@ TEST_CASE("STFT frame equals FFTW's transform of the same zero-phase frame", "[s
     const double k_scale = plan.amp_scale() * plan.amp_scale();
     CHECK_THAT(double(plan.power()[100]),
                WithinRel(k_scale * (double(bins[100].r) * double(bins[100].r) + double(bins[100].i) * double(bins[100].i)), 1e-5));
+    // analyze_power: the same frame's power, bit for bit, near the edges too (samples past the
+    // input read as 0), the bins left as they were.
+    for (const std::int64_t c : {centre, std::int64_t{100}, std::int64_t{3900}}) {
+        plan.analyze(x, c);
+        const std::vector<float> want(plan.power().begin(), plan.power().end());
+        const std::vector<kiss_fft_cpx> bins_before(plan.bins().begin(), plan.bins().end());
+        plan.analyze(x, centre + 7);  // another frame in between
+        const std::vector<kiss_fft_cpx> other_bins(plan.bins().begin(), plan.bins().end());
+        plan.analyze_power(x, c);
+        CAPTURE(c);
+        CHECK(std::equal(want.begin(), want.end(), plan.power().begin(), plan.power().end()));
+        CHECK(std::equal(other_bins.begin(), other_bins.end(), plan.bins().begin(), plan.bins().end(),
+                         [](kiss_fft_cpx a, kiss_fft_cpx b) { return a.r == b.r && a.i == b.i; }));
+        CHECK_FALSE(std::equal(bins_before.begin(), bins_before.end(), other_bins.begin(), other_bins.end(),
+                               [](kiss_fft_cpx a, kiss_fft_cpx b) { return a.r == b.r && a.i == b.i; }));
+    }
 }
 
 TEST_CASE("STFT bins equal a direct DFT in long double of the same zero-phase frame", "[spectrum][stft]") {
