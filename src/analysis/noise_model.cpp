@@ -1,8 +1,10 @@
 #include "analysis/noise_model.hpp"
 
 #include <algorithm>
+#include <cassert>
 #include <cmath>
 #include <functional>
+#include <limits>
 #include <optional>
 #include <utility>
 
@@ -126,6 +128,7 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
         if (result)
             result->env = limit_run_back(result->env, {.window = window, .window_s = window_s,
                                                        .hop_s = t.hop_s, .level_db = t.level_db, .first = first});
+        if (result) result->env = held_to_measured(result->env, t, first, end);
         // Bounded like the partials' fits (analyze.cpp): a peak beyond what the format holds (an
         // attack extrapolated far above the measured levels) is no band of this note.
         // A floor band is kept down to digital silence (the recording's own hiss is part of its
@@ -203,6 +206,17 @@ std::vector<noise_band> model_from(std::size_t total, std::span<const timed_sour
 
 }  // namespace
 
+envelope held_to_measured(envelope env, const noise_band_track& t, std::size_t first, std::size_t end) {
+    assert(first <= end && end <= t.level_db.size());
+    double measured_db = -std::numeric_limits<double>::infinity();
+    double fitted_db = -std::numeric_limits<double>::infinity();
+    for (std::size_t i = first; i < end; ++i) {
+        measured_db = std::max(measured_db, static_cast<double>(t.level_db[i]));
+        fitted_db = std::max(fitted_db, envelope_level(env, static_cast<double>(i) * t.hop_s).db);
+    }
+    if (fitted_db > measured_db + floor_runaway_db) env.peak = level_db{env.peak.db - (fitted_db - measured_db)};
+    return env;
+}
 
 std::vector<std::vector<noise_band_track>> measure_noise_bands(std::span<const std::span<const float>> residuals,
                                                                double sample_rate_hz,

@@ -81,6 +81,19 @@ struct noise_band_track {
     std::vector<float> leak_db;
 };
 
+/// How far a floor band's fitted line may stand over the loudest frame it was fitted on, dB
+/// (project choice: several times a frame's 3-4 dB scatter). The line stands a little over the
+/// frames' dB mean by design (fit_partial matches their mean power), so it may pass the loudest
+/// frame by a few dB; one standing more than this over it is the fit running free where the band
+/// is near silence (rhodes_c3's 141-178 Hz band: a 1.9 s rise to a peak 35 dB over every level
+/// measured in it, flipping between -99 and -65 dB on 1e-6 Hz moves of the partials).
+inline constexpr double floor_runaway_db = 10.0;
+
+/// env held to the track it was fitted on (frames first..end-1, frame i at i * hop_s): where its
+/// level at a frame's time stands more than floor_runaway_db over the loudest of those frames'
+/// levels, the whole envelope is lowered until its highest point there is that loudest level.
+envelope held_to_measured(envelope env, const noise_band_track& t, std::size_t first, std::size_t end);
+
 /// Floor window length for a note with this f0 (0: none) and these partials (rule above), seconds.
 double floor_window_s(std::span<const double> partial_freqs_hz, double f0_hz, const noise_model_params& params);
 
