@@ -49,17 +49,21 @@ namespace {
 
 /// out[n] += sign s_i[n] Re(amp_i p_i[n]) for the group's G modes in turn, p_i[n] = exp(i omega_i n)
 /// re-anchored from the exact power every 512 samples: add_mode's arithmetic written out on real
-/// and imaginary parts (the same products and sums), the G phasor chains overlapped.
+/// and imaginary parts (the same products and sums), the G phasor chains overlapped. With rho
+/// given (plain exponential modes) s_i[n] = exp(rho_i n) is made here as shape_samples makes it
+/// (anchored every 512 samples, then times exp(rho_i) per sample); else samples holds it.
 template <std::size_t G>
-void add_group(std::span<const std::vector<double>> samples, std::span<const double> omega,
+void add_group(std::span<const std::vector<double>> samples, std::span<const double> rho, std::span<const double> omega,
                std::span<const std::complex<double>> amp, double sign, std::vector<double>& out) {
     // Element-wise arrays (Eigen packets): each chain's arithmetic is its own, as written.
     using lanes = Eigen::Array<double, static_cast<int>(G), 1>;
-    lanes zr, zi, pr, pi_, ar, ai, s;
+    lanes zr, zi, pr, pi_, ar, ai, s, ratio;
+    const bool plain = !rho.empty();
     for (std::size_t i = 0; i < G; ++i) {
         const std::complex<double> z = std::polar(1.0, omega[i]);
         const auto lane = static_cast<Eigen::Index>(i);
         zr(lane) = z.real(), zi(lane) = z.imag(), ar(lane) = amp[i].real(), ai(lane) = amp[i].imag();
+        ratio(lane) = plain ? std::exp(rho[i]) : 1.0;
     }
     const std::size_t count = out.size();
     for (std::size_t start = 0; start < count; start += 512) {
@@ -67,11 +71,14 @@ void add_group(std::span<const std::vector<double>> samples, std::span<const dou
             const std::complex<double> p = std::polar(1.0, std::remainder(omega[i] * static_cast<double>(start), two_pi));
             const auto lane = static_cast<Eigen::Index>(i);
             pr(lane) = p.real(), pi_(lane) = p.imag();
+            if (plain) s(lane) = 1.0 * std::exp(rho[i] * static_cast<double>(start));
         }
         const std::size_t end = std::min(count, start + 512);
         for (std::size_t n = start; n < end; ++n) {
-            for (std::size_t i = 0; i < G; ++i) s(static_cast<Eigen::Index>(i)) = samples[i][n];
+            if (!plain)
+                for (std::size_t i = 0; i < G; ++i) s(static_cast<Eigen::Index>(i)) = samples[i][n];
             const lanes term = sign * s * (ar * pr - ai * pi_);
+            if (plain) s *= ratio;
             double acc = out[n];
             for (std::size_t i = 0; i < G; ++i) acc += term(static_cast<Eigen::Index>(i));
             out[n] = acc;
@@ -89,7 +96,7 @@ void add_mode(const damped_mode& m, const mode_shape& shape, double sample_rate_
     const std::size_t count = out.size();
     shape_samples(shape.empty() ? exponential_shape(-m.decay_per_s / sample_rate_hz, count) : shape, count, scratch);
     const double omega = two_pi * m.freq_hz / sample_rate_hz;
-    add_group<1>(std::span(&scratch, 1), std::span(&omega, 1), std::span(&m.amp, 1), sign, out);
+    add_group<1>(std::span(&scratch, 1), {}, std::span(&omega, 1), std::span(&m.amp, 1), sign, out);
 }
 
 /// add_mode with sign -1 for every mode, modes_per_pass at a time: per mode and sample the same
@@ -101,21 +108,30 @@ void subtract_modes(std::span<const damped_mode> modes, std::span<const mode_sha
     std::array<std::vector<double>, modes_per_pass> samples;
     for (std::size_t first = 0; first < modes.size(); first += modes_per_pass) {
         const std::size_t g = std::min(modes_per_pass, modes.size() - first);
-        std::array<double, modes_per_pass> omega{};
+        std::array<double, modes_per_pass> omega{}, rho{};
         std::array<std::complex<double>, modes_per_pass> amp{};
+        bool plain = g == modes_per_pass;
         for (std::size_t i = 0; i < g; ++i) {
             const damped_mode& m = modes[first + i];
-            const mode_shape& shape = shapes[first + i];
-            shape_samples(shape.empty() ? exponential_shape(-m.decay_per_s / sample_rate_hz, count) : shape, count, samples[i]);
             omega[i] = two_pi * m.freq_hz / sample_rate_hz;
+            rho[i] = -m.decay_per_s / sample_rate_hz;
             amp[i] = m.amp;
+            plain = plain && shapes[first + i].empty();
         }
         // Each out[n] gets the modes' terms in mode order whatever the grouping.
+        if (plain) {
+            add_group<modes_per_pass>({}, rho, omega, amp, -1.0, out);
+            continue;
+        }
+        for (std::size_t i = 0; i < g; ++i) {
+            const mode_shape& shape = shapes[first + i];
+            shape_samples(shape.empty() ? exponential_shape(rho[i], count) : shape, count, samples[i]);
+        }
         if (g == modes_per_pass) {
-            add_group<modes_per_pass>(samples, omega, amp, -1.0, out);
+            add_group<modes_per_pass>(samples, {}, omega, amp, -1.0, out);
         } else {
             for (std::size_t i = 0; i < g; ++i)
-                add_group<1>(std::span(samples).subspan(i, 1), std::span(omega).subspan(i, 1), std::span(amp).subspan(i, 1), -1.0, out);
+                add_group<1>(std::span(samples).subspan(i, 1), {}, std::span(omega).subspan(i, 1), std::span(amp).subspan(i, 1), -1.0, out);
         }
     }
 }

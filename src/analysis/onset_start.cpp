@@ -31,7 +31,8 @@ std::size_t modes_start(const patch& p, std::span<const float> note, double samp
     for (std::size_t r = 0; r < loudest.size() && r < params.rising_partials; ++r)
         modes.push_back({.freq_hz = p.partials[loudest[r].second].freq_hz, .decay_per_s = params.rise_decay_per_s});
     modes.insert(modes.end(), new_modes.begin(), new_modes.end());
-    const std::vector<double> residual = sliding_fit_residuals(note, sample_rate_hz, modes, fit_n, max_shift + 1);
+    const std::vector<double> residual =
+        sliding_fit_residuals(note, sample_rate_hz, modes, fit_n, max_shift + 1, {.skip_dominated = true});
     std::size_t best = 0;
     double before = 0.0, best_cost = residual[0];
     for (std::size_t s = 1; s <= max_shift; ++s) {

@@ -4,6 +4,7 @@
 #include <array>
 #include <cassert>
 #include <cmath>
+#include <limits>
 #include <optional>
 #include <vector>
 
@@ -262,7 +263,7 @@ void direct_projections(std::span<const float> x, std::size_t count, std::span<c
 
 std::vector<double> sliding_fit_residuals(std::span<const float> x, double sample_rate_hz,
                                           std::span<const damped_mode> modes, std::size_t count, std::size_t starts,
-                                          double ridge_rel) {
+                                          const sliding_fit_params& params) {
     assert(sample_rate_hz > 0.0 && count > 0);
     assert(x.size() + 1 >= starts + count);
     const auto k_count = modes.size();
@@ -292,32 +293,44 @@ std::vector<double> sliding_fit_residuals(std::span<const float> x, double sampl
                                                    std::remainder(omega[k] * static_cast<double>(count), two_pi)});
     }
     Eigen::MatrixXd gram = shape_gram(own, omega, count);
-    gram.diagonal().array() += ridge_rel * gram.diagonal().mean();
+    gram.diagonal().array() += params.ridge_rel * gram.diagonal().mean();
     const Eigen::LLT<Eigen::MatrixXd> llt(gram);
+    // The explained energy theta.rhs = rhs' G^-1 rhs = |L^-1 rhs|^2 (0 when the factorization
+    // failed): the projections of a block of starts, one column each, then one blocked triangular
+    // solve for the block.
+    const bool solved = llt.info() == Eigen::Success;
     const auto dim = static_cast<Eigen::Index>(2 * k_count);
-    // The projections of every start, one column each, then one blocked triangular solve for all.
-    Eigen::MatrixXd rhs(dim, static_cast<Eigen::Index>(starts));
-    constexpr std::size_t exact_every = 128;
-    for (std::size_t s = 0; s < starts; ++s) {
-        if (s % exact_every == 0) direct_projections(x.subspan(s), count, rho_of, omega, scratch, proj);
-        const auto col = static_cast<Eigen::Index>(s);
-        for (std::size_t k = 0; k < k_count; ++k) {
-            rhs(static_cast<Eigen::Index>(2 * k), col) = proj[k].real();
-            rhs(static_cast<Eigen::Index>(2 * k + 1), col) = -proj[k].imag();
+    constexpr std::size_t block = 32, exact_every = 128;
+    Eigen::MatrixXd rhs(dim, static_cast<Eigen::Index>(std::min(block, starts)));
+    double before = 0.0, least_cost = std::numeric_limits<double>::infinity();  // |x[0, s)|^2; skip_dominated's
+    for (std::size_t first = 0; first < starts; first += block) {
+        if (params.skip_dominated && before >= least_cost) {
+            std::fill(out.begin() + static_cast<std::ptrdiff_t>(first), out.end(), std::numeric_limits<double>::infinity());
+            break;
         }
-        out[s] = energy;
-        if (s + 1 < starts) {
-            const double leaving = x[s], entering = x[s + count];
-            energy += entering * entering - leaving * leaving;
-            for (std::size_t k = 0; k < k_count; ++k) proj[k] = (proj[k] - leaving + entering * z_count[k]) / z[k];
+        const std::size_t cols = std::min(block, starts - first);
+        for (std::size_t s = first; s < first + cols; ++s) {
+            if (s % exact_every == 0) direct_projections(x.subspan(s), count, rho_of, omega, scratch, proj);
+            const auto col = static_cast<Eigen::Index>(s - first);
+            for (std::size_t k = 0; k < k_count; ++k) {
+                rhs(static_cast<Eigen::Index>(2 * k), col) = proj[k].real();
+                rhs(static_cast<Eigen::Index>(2 * k + 1), col) = -proj[k].imag();
+            }
+            out[s] = energy;
+            if (s + 1 < starts) {
+                const double leaving = x[s], entering = x[s + count];
+                energy += entering * entering - leaving * leaving;
+                for (std::size_t k = 0; k < k_count; ++k) proj[k] = (proj[k] - leaving + entering * z_count[k]) / z[k];
+            }
+        }
+        auto part = rhs.leftCols(static_cast<Eigen::Index>(cols));
+        if (solved) llt.matrixL().solveInPlace(part);
+        for (std::size_t s = first; s < first + cols; ++s) {
+            out[s] = std::max(0.0, out[s] - (solved ? part.col(static_cast<Eigen::Index>(s - first)).squaredNorm() : 0.0));
+            least_cost = std::min(least_cost, before + out[s]);
+            before += double(x[s]) * double(x[s]);
         }
     }
-    // The explained energy theta.rhs = rhs' G^-1 rhs = |L^-1 rhs|^2, per column (0 when the
-    // factorization failed).
-    const bool solved = llt.info() == Eigen::Success;
-    if (solved) llt.matrixL().solveInPlace(rhs);
-    for (std::size_t s = 0; s < starts; ++s)
-        out[s] = std::max(0.0, out[s] - (solved ? rhs.col(static_cast<Eigen::Index>(s)).squaredNorm() : 0.0));
     return out;
 }
 

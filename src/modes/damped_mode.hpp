@@ -45,15 +45,25 @@ double fit_mode_amplitudes(std::span<const float> x, double sample_rate_hz, std:
 double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
                              std::span<const mode_shape> shapes, double ridge_rel = 1e-9);
 
+struct sliding_fit_params {
+    double ridge_rel = 1e-9;
+    /// The caller minimizes |x[0, s)|^2 + out[s] over s (the samples before a start are left
+    /// unexplained): starts are solved in blocks of 32 in order, and once |x[0, s)|^2 alone reaches
+    /// the least such cost found so far no later start can be less, so those are not solved
+    /// (out = +infinity). The starts solved get the same values as without.
+    bool skip_dominated = false;
+};
+
 /// Residual energy of the least-squares fit of the modes (plain damped exponentials, their freq_hz
 /// and decay_per_s given, each starting at the span's start) on x[s, s + count) for every start s
 /// in [0, starts): out[s]. The Gram matrix depends on count only, so it is factored once; the
 /// projections slide one sample at a time, P_k(s + 1) = (P_k(s) - x[s] + x[s + count] z_k^count) / z_k,
 /// and are recomputed exactly every 128 starts. Each start then costs one triangular solve:
-/// residual = |x_s|^2 - |L^-1 P(s)|^2 (L the Cholesky factor of the ridged Gram matrix).
-/// Preconditions (asserted): x.size() + 1 >= starts + count, count > 0, every freq in [0, fs/2].
+/// residual = |x_s|^2 - |L^-1 P(s)|^2 (L the Cholesky factor of the ridged Gram matrix, ridge as
+/// in fit_mode_amplitudes). Preconditions (asserted): x.size() + 1 >= starts + count, count > 0,
+/// every freq in [0, fs/2].
 std::vector<double> sliding_fit_residuals(std::span<const float> x, double sample_rate_hz,
                                           std::span<const damped_mode> modes, std::size_t count, std::size_t starts,
-                                          double ridge_rel = 1e-9);
+                                          const sliding_fit_params& params = {});
 
 }  // namespace wane

@@ -53,9 +53,17 @@ std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<doub
             cov(i, j) = cov(i - 1, j - 1) - at(i - 1) * std::conj(at(j - 1)) + at(cols + i - 1) * std::conj(at(cols + j - 1));
     for (Eigen::Index j = 1; j < dim; ++j)
         for (Eigen::Index i = 0; i < j; ++i) cov(i, j) = std::conj(cov(j, i));
-    const Eigen::SelfAdjointEigenSolver<cmatrix> eig(cov);
+    // The eigen-decomposition as Eigen's SelfAdjointEigenSolver makes it (R scaled to a largest
+    // entry of 1, Householder tridiagonalization R = Q T Q^H with T real, implicit QR steps on T),
+    // with the QR's rotations gathered in a real matrix V (T = V D V^T) and only the wanted
+    // columns of Q V formed below: the eigenvectors of R are the columns of Q V.
+    double scale = cov.cwiseAbs().maxCoeff();
+    if (!(scale > 0.0)) scale = 1.0;
+    const Eigen::Tridiagonalization<cmatrix> tri(cov / scale);
+    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig;
+    eig.computeFromTridiagonal(tri.diagonal(), tri.subDiagonal(), Eigen::ComputeEigenvectors);
     if (eig.info() != Eigen::Success) return {};
-    const Eigen::VectorXd& values = eig.eigenvalues();  // ascending
+    const Eigen::VectorXd values = eig.eigenvalues() * scale;  // ascending
     const double largest = values(dim - 1);
     if (!(largest > 0.0)) return {};
     std::vector<double> lower(values.data(), values.data() + dim / 2);
@@ -67,7 +75,8 @@ std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<doub
     order = std::min({order, params.max_order, static_cast<int>(dim) - 1});
     if (params.fixed_order > 0) order = std::min(params.fixed_order, static_cast<int>(dim) - 1);
     if (order == 0) return {};
-    const cmatrix phi = rotation(eig.eigenvectors().rightCols(order));
+    const cmatrix u = tri.matrixQ() * eig.eigenvectors().rightCols(order).cast<std::complex<double>>();
+    const cmatrix phi = rotation(u);
     const Eigen::ComplexEigenSolver<cmatrix> poles(phi, false);
     if (poles.info() != Eigen::Success) return {};
     std::vector<std::complex<double>> out(poles.eigenvalues().data(), poles.eigenvalues().data() + order);

@@ -5,6 +5,8 @@
 #include <cmath>
 #include <complex>
 
+#include <Eigen/Core>
+
 #include "core/units.hpp"
 
 namespace wane {
@@ -35,6 +37,30 @@ bool wanted_band(double centre_hz, double band_hz, std::span<const double> near_
     return std::any_of(near_hz.begin(), near_hz.end(), [&](double f) { return f >= lo && f < hi; });
 }
 
+/// y[m] = sum_j x[m decim + j] phasor[j] for every m < y.size(), four outputs at a time: each
+/// output's sum runs over j in order (the same sum as one output alone), the four overlapped.
+void filter_outputs(std::span<const float> x, std::span<const std::complex<double>> phasor, std::size_t decim,
+                    std::span<std::complex<double>> y) {
+    using lanes = Eigen::Array4d;
+    const std::size_t taps = phasor.size();
+    std::size_t m = 0;
+    for (; m + 4 <= y.size(); m += 4) {
+        lanes acc_r = lanes::Zero(), acc_i = lanes::Zero();
+        const float* base = x.data() + m * decim;
+        for (std::size_t j = 0; j < taps; ++j) {
+            const lanes v(double(base[j]), double(base[decim + j]), double(base[2 * decim + j]), double(base[3 * decim + j]));
+            acc_r += v * phasor[j].real();
+            acc_i += v * phasor[j].imag();
+        }
+        for (Eigen::Index k = 0; k < 4; ++k) y[m + static_cast<std::size_t>(k)] = {acc_r(k), acc_i(k)};
+    }
+    for (; m < y.size(); ++m) {
+        std::complex<double> acc{};
+        for (std::size_t j = 0; j < taps; ++j) acc += double(x[m * decim + j]) * phasor[j];
+        y[m] = acc;
+    }
+}
+
 }  // namespace
 
 subband_signals make_subband_signals(std::span<const float> x, double sample_rate_hz, const subband_mode_params& params) {
@@ -60,13 +86,11 @@ subband_signals make_subband_signals(std::span<const float> x, double sample_rat
         for (std::size_t j = 0; j < taps; ++j) phasor[j] = h[j] * std::polar(1.0, w * static_cast<double>(j));
         // w^(mD) by a rotation per output, re-anchored every 64 outputs.
         const std::complex<double> turn = std::polar(1.0, std::fmod(w * static_cast<double>(decim), two_pi));
+        filter_outputs(x, phasor, decim, b.y);
         std::complex<double> at{1.0, 0.0};
         for (std::size_t m = 0; m < outputs; ++m) {
-            const std::size_t start = m * decim;
-            if (m % 64 == 0) at = std::polar(1.0, std::fmod(w * static_cast<double>(start), two_pi));
-            std::complex<double> acc{};
-            for (std::size_t j = 0; j < taps; ++j) acc += double(x[start + j]) * phasor[j];
-            b.y[m] = acc * at;
+            if (m % 64 == 0) at = std::polar(1.0, std::fmod(w * static_cast<double>(m * decim), two_pi));
+            b.y[m] *= at;
             at *= turn;
         }
         out.bands.push_back(std::move(b));

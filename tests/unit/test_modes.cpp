@@ -287,3 +287,43 @@ TEST_CASE("sliding fit residuals equal a fresh least-squares fit on every span",
         CHECK_THAT(residual[s], WithinAbs(want, 1e-8 * energy));
     }
 }
+
+TEST_CASE("sliding fit residuals skipping dominated starts keep every solved value and the best start", "[modes]") {
+    const double fs = 32000.0;
+    // The modes begin lead samples into x (low noise before them), so starts near lead cost
+    // least and the energy before a late start alone exceeds that.
+    const std::size_t lead = GENERATE(std::size_t{0}, std::size_t{20}, std::size_t{45});
+    const std::vector<damped_mode> truth{{.freq_hz = 311.0, .decay_per_s = 8.0, .amp = {0.5, 0.1}},
+                                         {.freq_hz = 1733.0, .decay_per_s = 60.0, .amp = {-0.1, 0.2}}};
+    const std::size_t count = 2000, starts = 200;
+    std::vector<float> x = render_modes({}, fs, lead, 0.002, 11);
+    const auto body = render_modes(truth, fs, count + starts, 0.002, 12);
+    x.insert(x.end(), body.begin(), body.end());
+    const std::vector<double> all = sliding_fit_residuals(x, fs, truth, count, starts);
+    const std::vector<double> some = sliding_fit_residuals(x, fs, truth, count, starts, {.skip_dominated = true});
+    REQUIRE(some.size() == starts);
+    const auto best_of = [&](const std::vector<double>& r) {
+        std::size_t best = 0;
+        double before = 0.0, least = r[0];
+        for (std::size_t s = 1; s < starts; ++s) {
+            before += double(x[s - 1]) * double(x[s - 1]);
+            if (before + r[s] < least) least = before + r[s], best = s;
+        }
+        return best;
+    };
+    std::size_t skipped = 0;
+    double energy = 0.0;
+    for (std::size_t n = 0; n < count; ++n) energy += double(x[n]) * double(x[n]);
+    for (std::size_t s = 0; s < starts; ++s) {
+        CAPTURE(lead, s, all[s], some[s]);
+        if (std::isinf(some[s])) {
+            ++skipped;
+        } else {
+            // The same sums, solved in blocks of another width: rounding only.
+            CHECK_THAT(some[s], WithinAbs(all[s], 1e-12 * energy));
+        }
+    }
+    CAPTURE(lead, skipped);
+    CHECK(best_of(some) == best_of(all));
+    CHECK(skipped > 0);  // the energy before the last starts exceeds the best start's residual
+}
