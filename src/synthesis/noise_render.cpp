@@ -15,6 +15,7 @@
 #include "core/rng.hpp"
 #include "core/units.hpp"
 #include "synthesis/kernel_clones.hpp"
+#include "synthesis/rate_convert.hpp"
 
 namespace wane {
 
@@ -29,6 +30,10 @@ constexpr int phase_table_bits = 12;
 constexpr std::size_t phase_table_size = std::size_t{1} << phase_table_bits;
 /// Frames whose every band is this far below full scale are skipped (silent, costs nothing).
 constexpr double silent_level_db = -160.0;
+/// The lowest draw rate (noise_draw_rate_hz). Its frame (1024 samples at the default frame_s) is
+/// a power of two, and so is every draw rate's frame, twice as long at twice the rate: the same
+/// bins in Hz, the same frame times and shifts in seconds, the same phases per bin.
+constexpr double draw_base_rate_hz = 48000.0;
 
 struct unit_phasors {
     std::array<float, phase_table_size> re{}, im{};
@@ -163,15 +168,23 @@ int noise_frame_size(double sample_rate_hz, double frame_s) {
     return n;
 }
 
-void add_noise_bands(std::span<const noise_band> bands, const noise_render_params& params, std::span<float> out) {
-    if (bands.empty() || out.empty()) return;
+namespace {
+
+/// The bands' noise at a draw rate (noise_draw_rate_hz of itself), added into out.
+void add_noise_at_draw_rate(std::span<const noise_band> bands, const noise_render_params& params,
+                            std::span<float> out) {
+    assert(noise_draw_rate_hz(params.sample_rate_hz) == params.sample_rate_hz);
     const int n_fft = noise_frame_size(params.sample_rate_hz, params.frame_s);
     const int hop = n_fft / synthesis_overlap;
     const int n_bins = n_fft / 2 + 1;
     const double bin_hz = params.sample_rate_hz / n_fft;
     const double nyquist_hz = params.sample_rate_hz / 2.0;
     assert(std::has_single_bit(static_cast<unsigned>(n_fft)));
-    const int shift_bits = std::countr_zero(static_cast<unsigned>(n_fft));  // n_fft = 2^shift_bits
+    // Shifts are drawn in steps of the frame at the lowest draw rate (shift_steps of them), so
+    // every draw rate shifts a frame by the same time.
+    const int shift_steps = noise_frame_size(draw_base_rate_hz, params.frame_s);
+    const int shift_bits = std::countr_zero(static_cast<unsigned>(shift_steps));
+    const auto shift_stride = static_cast<std::size_t>(std::max(1, n_fft / shift_steps));
 
     double window_power_sum = 0.0;
     const std::vector<float> window = periodic_hann(n_fft, window_power_sum);
@@ -219,7 +232,7 @@ void add_noise_bands(std::span<const noise_band> bands, const noise_render_param
         std::fill(frame.begin(), frame.end(), 0.0f);
         const auto pool_index = static_cast<std::size_t>(m % pool_frames);
         for (std::size_t i = 0; i < layout.size(); ++i) {
-            const auto shift = static_cast<std::size_t>(rng.next() >> (64 - shift_bits));
+            const auto shift = static_cast<std::size_t>(rng.next() >> (64 - shift_bits)) * shift_stride;
             if (bin_amp[i] == 0.0f) continue;
             const std::span<float> pool(pools.data() + i * pool_floats, pool_floats);
             if (!layout[i].pool_ready) {
@@ -234,6 +247,33 @@ void add_noise_bands(std::span<const noise_band> bands, const noise_render_param
         add_windowed(out.data() + start + from, frame.data() + from, window.data() + from,
                      static_cast<std::size_t>(to - from));
     }
+}
+
+}  // namespace
+
+double noise_draw_rate_hz(double sample_rate_hz) {
+    double rate_hz = draw_base_rate_hz;
+    while (rate_hz < sample_rate_hz) rate_hz *= 2.0;
+    return rate_hz;
+}
+
+void add_noise_bands(std::span<const noise_band> bands, const noise_render_params& params, std::span<float> out) {
+    if (bands.empty() || out.empty()) return;
+    const double draw_rate_hz = noise_draw_rate_hz(params.sample_rate_hz);
+    if (draw_rate_hz == params.sample_rate_hz) {
+        add_noise_at_draw_rate(bands, params, out);
+        return;
+    }
+    // Drawn at the draw rate over the output's time plus the samples the converter's kernel
+    // reads past its end, then converted (synthesis/rate_convert.hpp).
+    const auto margin_frames = static_cast<std::size_t>(rate_convert_taps(draw_rate_hz, params.sample_rate_hz));
+    const auto drawn_frames = static_cast<std::size_t>(std::ceil(static_cast<double>(out.size()) * draw_rate_hz /
+                                                                 params.sample_rate_hz)) + margin_frames;
+    std::vector<float> drawn(drawn_frames, 0.0f);
+    noise_render_params at_draw = params;
+    at_draw.sample_rate_hz = draw_rate_hz;
+    add_noise_at_draw_rate(bands, at_draw, drawn);
+    add_rate_converted(drawn, draw_rate_hz, params.sample_rate_hz, out);
 }
 
 }  // namespace wane

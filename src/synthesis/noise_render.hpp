@@ -16,6 +16,14 @@
 // share a pool frame (no coherent sums). Seeded and deterministic; frames where every band is
 // below -160 dB are skipped, and bands below it are left out of a frame, so attack noise costs
 // only while it sounds.
+//
+// The same sound at every output rate: the noise is drawn at a draw rate (noise_draw_rate_hz:
+// 48 kHz times a power of two, the lowest one at or above the output rate) and, where the output
+// rate differs, converted to it (synthesis/rate_convert.hpp). Every draw rate has the same frame time and
+// bins in Hz (the frame is a power of two that doubles with the rate), the same phases per bin
+// and the same frame shifts in seconds, so a patch's noise is one signal, sampled at each rate
+// (tests/unit/test_noise_rates.cpp). Drawn per output rate, a band below ~200 Hz (one or two
+// bins) was a tone whose frequency moved with the rate, and a copy's peak moved with it.
 #pragma once
 
 #include <cstdint>
@@ -46,5 +54,9 @@ void add_noise_bands(std::span<const noise_band> bands, const noise_render_param
 
 /// The frame length in samples the renderer and the analysis use at a rate (power of two).
 int noise_frame_size(double sample_rate_hz, double frame_s);
+
+/// The rate the noise of a render at sample_rate_hz is drawn at: 48 kHz times 2^k, k >= 0, the
+/// lowest one at or above sample_rate_hz.
+double noise_draw_rate_hz(double sample_rate_hz);
 
 }  // namespace wane
