@@ -75,8 +75,10 @@ std::vector<std::vector<band_leak>> band_leakage(std::span<const float> window, 
 
 std::vector<std::vector<float>> leakage_levels_db(const std::vector<std::vector<band_leak>>& leak,
                                                   const std::vector<std::span<const float>>& level_db,
-                                                  std::span<const int> band_total_bins) {
+                                                  std::span<const int> band_total_bins, leak_sources sources,
+                                                  const std::vector<bool>& spread) {
     assert(leak.size() == level_db.size() && leak.size() == band_total_bins.size());
+    assert(sources == leak_sources::all || spread.size() == leak.size());
     std::vector<std::vector<float>> out(leak.size());
     for (std::size_t b = 0; b < leak.size(); ++b) {
         out[b].assign(level_db[b].size(), no_leak_db);
@@ -85,7 +87,15 @@ std::vector<std::vector<float>> leakage_levels_db(const std::vector<std::vector<
             for (const band_leak& l : leak[b]) {
                 if (i >= level_db[l.from].size()) continue;
                 const double ratio_k = static_cast<double>(band_total_bins[b]) / band_total_bins[l.from];
-                power += l.coefficient * db_to_power(level_db[l.from][i]) * ratio_k;
+                // n's density in b's band power (mean bin power times b's K, as b's level is).
+                const double from_power = db_to_power(level_db[l.from][i]) * ratio_k;
+                if (sources == leak_sources::all) {
+                    power += l.coefficient * from_power;
+                } else if (sources == leak_sources::skirts) {
+                    if (!spread[l.from]) power += l.coefficient * from_power;
+                } else if (spread[l.from]) {
+                    power += l.coefficient * std::max(0.0, from_power - db_to_power(level_db[b][i]));
+                }
             }
             if (power > 0.0) out[b][i] = std::max(no_leak_db, static_cast<float>(power_to_db(power)));
         }

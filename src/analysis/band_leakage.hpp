@@ -34,10 +34,22 @@ std::vector<std::vector<band_leak>> band_leakage(std::span<const float> window, 
                                                  const std::vector<std::vector<int>>& bins,
                                                  const std::vector<std::pair<int, int>>& ranges, bool median);
 
+/// Which leaking bands leakage_levels_db counts, and how.
+enum class leak_sources {
+    all,     ///< every band, c_bn s_n
+    skirts,  ///< the bands not marked as spread noise, c_bn s_n
+    spread,  ///< the bands marked as spread noise, net of b's own density (below)
+};
+
 /// leak_b per frame in dB (as the band levels), from the bands' measured levels per frame
-/// (level_db[n][i], dB of band power) and their bin counts K.
+/// (level_db[n][i], dB of band power) and their bin counts K. A band n marked in spread holds
+/// noise spread over its width: band b's measured bins then hold s_b (1 - sum_n c_bn) +
+/// sum_n c_bn s_n, so what n adds over b's own density s_b is c_bn max(0, s_n - s_b) (nothing
+/// from a neighbour no denser than b). A partial's narrow skirt is counted whole, c_bn s_n.
 std::vector<std::vector<float>> leakage_levels_db(const std::vector<std::vector<band_leak>>& leak,
                                                   const std::vector<std::span<const float>>& level_db,
-                                                  std::span<const int> band_total_bins);
+                                                  std::span<const int> band_total_bins,
+                                                  leak_sources sources = leak_sources::all,
+                                                  const std::vector<bool>& spread = {});
 
 }  // namespace wane

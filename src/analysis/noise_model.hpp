@@ -18,7 +18,10 @@
 //    first attack_span_s stands attack_above_floor_db over the median of the second (what the
 //    short window sees of the partials' remainder and the floor once the burst is over), the burst
 //    is fitted as a band of its own (same edges, a short envelope), played on top of the floor
-//    band, which then starts after the floor window's smear of the onset.
+//    band, which then starts after the floor window's smear of the onset. Its leakage floor is a
+//    partial's skirt, while spread noise's spill over the band's own density is taken off its
+//    level (a broadband burst fills its neighbours as much as they fill it), and frames whose
+//    window reaches before the onset count no higher than the first frame wholly after it.
 #pragma once
 
 #include <span>

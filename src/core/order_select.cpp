@@ -1,6 +1,7 @@
 #include "core/order_select.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cassert>
 #include <cmath>
 #include <limits>
@@ -25,6 +26,26 @@ order_values select_all(std::span<float> values, std::size_t k, bool below) {
     return out;
 }
 
+/// Ranks up to this are selected by keeping the smallest values found so far in order.
+constexpr std::size_t small_rank_limit = 8;
+
+/// The k-th (and with below the (k-1)-th) smallest for k < small_rank_limit: the k + 1 smallest
+/// so far kept sorted, one pass (a value enters only when it is below the largest kept).
+order_values select_small_rank(std::span<const float> values, std::size_t k, bool below) {
+    assert(k < small_rank_limit && k < values.size());
+    std::array<float, small_rank_limit> kept{};
+    std::copy_n(values.begin(), k + 1, kept.begin());
+    std::sort(kept.begin(), kept.begin() + static_cast<std::ptrdiff_t>(k) + 1);
+    for (std::size_t i = k + 1; i < values.size(); ++i) {
+        const float v = values[i];
+        if (!(v < kept[k])) continue;
+        std::size_t j = k;
+        for (; j > 0 && kept[j - 1] > v; --j) kept[j] = kept[j - 1];
+        kept[j] = v;
+    }
+    return {.kth = kept[k], .below = below ? kept[k - 1] : 0.0f};
+}
+
 }  // namespace
 
 order_values select_order(std::span<float> values, std::size_t k, bool want_below, order_bracket bracket,
@@ -33,6 +54,7 @@ order_values select_order(std::span<float> values, std::size_t k, bool want_belo
     assert(k < n);
     const bool below = want_below && k > 0;
     const std::size_t first_rank = below ? k - 1 : k;
+    if (k < small_rank_limit) return select_small_rank(values, k, below);
     if (!(bracket.low <= bracket.high)) return select_all(values, k, below);
     if (scratch.size() < n) scratch.resize(n);
     // One pass: the values inside the bracket go to scratch (ranks [under, under + m)), those

@@ -25,9 +25,10 @@ struct order_bracket {
 order_bracket bracket_around(float guess, double spread);
 
 /// Selects the k-th smallest of `values` (reordered; 0-based, k < size) and, with want_below and
-/// k > 0, the (k-1)-th. First counts the values under and over `bracket` (branch-free passes);
-/// when both ranks fall inside it, only the values inside are selected among (in `scratch`, which
-/// keeps its capacity across calls), else all of them (std::nth_element).
+/// k > 0, the (k-1)-th. A small k (under 8) keeps the k + 1 smallest in one pass. Otherwise one
+/// branch-free pass copies the values inside `bracket` to `scratch` (which keeps its capacity
+/// across calls) and counts those under it; when both ranks fall inside, only those are selected
+/// among, else the side that holds both, else all (std::nth_element).
 order_values select_order(std::span<float> values, std::size_t k, bool want_below, order_bracket bracket,
                           std::vector<float>& scratch);
 

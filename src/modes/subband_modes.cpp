@@ -48,7 +48,8 @@ void filter_outputs(std::span<const float> x, std::span<const std::complex<doubl
         lanes acc_r = lanes::Zero(), acc_i = lanes::Zero();
         const float* base = x.data() + m * decim;
         for (std::size_t j = 0; j < taps; ++j) {
-            const lanes v(double(base[j]), double(base[decim + j]), double(base[2 * decim + j]), double(base[3 * decim + j]));
+            const lanes v(static_cast<double>(base[j]), static_cast<double>(base[decim + j]),
+                          static_cast<double>(base[2 * decim + j]), static_cast<double>(base[3 * decim + j]));
             acc_r += v * phasor[j].real();
             acc_i += v * phasor[j].imag();
         }

@@ -13,10 +13,6 @@ namespace {
 double db_of_power(double power) { return 10.0 * std::log10(std::max(power, 1e-30)); }
 double wrap_phase(double phase) { return std::remainder(phase, two_pi); }
 constexpr std::size_t bin_stride = 2;  ///< the floor looks at every 2nd bin (zero padding >= 2)
-/// A band's quantile is looked for first within this factor of its last measurement (only the
-/// cost depends on it: core/order_select.hpp finds the exact value either way). Reasoned: the
-/// floor is re-measured every 20 ms or so and moves slowly; a miss costs one full selection.
-constexpr double quantile_bracket = 1.5;
 }  // namespace
 
 noise_floor::noise_floor(int bin_count, double bin_hz, double hop_s, const noise_floor_params& params)
@@ -33,7 +29,6 @@ noise_floor::noise_floor(int bin_count, double bin_hz, double hop_s, const noise
     measured_db_.assign(bands_db_.size(), -300.0);
     scratch_.resize(static_cast<std::size_t>(band_bins_));
     select_scratch_.resize(scratch_.size());
-    last_quantile_.assign(bands_db_.size(), 0.0f);
 }
 
 void noise_floor::measure(std::span<const float> power) {
@@ -45,9 +40,7 @@ void noise_floor::measure(std::span<const float> power) {
         std::size_t count = 0;
         for (std::size_t k = lo; k < hi; k += bin_stride) scratch_[count++] = power[k];
         const auto q = static_cast<std::size_t>(quantile_ * double(count - 1));
-        const float value = select_order(std::span(scratch_).first(count), q, false,
-                                         bracket_around(last_quantile_[b], quantile_bracket), select_scratch_).kth;
-        last_quantile_[b] = value;
+        const float value = select_order(std::span(scratch_).first(count), q, false, {}, select_scratch_).kth;
         measured_db_[b] = db_of_power(double(value) * mean_over_quantile_);
     }
 }

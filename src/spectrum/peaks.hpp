@@ -56,7 +56,6 @@ private:
     std::vector<double> measured_db_;
     std::vector<float> scratch_;
     std::vector<float> select_scratch_;
-    std::vector<float> last_quantile_;  ///< per band: the last measured quantile (bin power)
 };
 
 struct spectral_peak {

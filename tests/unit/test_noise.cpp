@@ -380,3 +380,71 @@ TEST_CASE("the noise model with the residual streamed gives the bands of the res
     CHECK_THAT(band->env.decay.front().t60_s, WithinRel(0.3, 0.10));  // ground truth of the signal
     CHECK(streamed == held);
 }
+
+TEST_CASE("a broadband burst over low partials: its energy within 2 dB over the bands (6 dB in each), T60 within 25%",
+          "[noise]") {
+    // A mallet's or a hammer's contact noise: white noise over 2818-14125 Hz (the edges of the
+    // layout's bands 3548 .. 11220 Hz: IEC 61260-1 mid-bands 1000 G^(k/3), k = 6 .. 10, with the
+    // band on each side half covered) at -30 dB RMS over that span, T60 80 ms, after a 1 ms
+    // raised-cosine rise; six harmonic partials of 196 Hz (all under 1.2 kHz), -12 dB, T60 2 s;
+    // white noise at -100 dB RMS as the recording's floor. Each fully covered band then holds
+    // -30 dB + 10 log10(band width / span width) at the onset. The bands are as wide as the noise
+    // beside them, so each takes as much through the attack window's lobe as it gives.
+    const double lead_s = 0.1, length_s = 1.5, burst_db = -30.0, burst_t60_s = 0.08, rise_s = 0.001;
+    const double span_low_hz = 2818.38, span_high_hz = 14125.4;
+    const auto lead = static_cast<std::size_t>(lead_s * rate_hz);
+    const auto n = static_cast<std::size_t>((lead_s + length_s) * rate_hz);
+    std::vector<double> x(n, 0.0);
+    const std::uint64_t seed = GENERATE(21, 22, 23);
+    CAPTURE(seed);
+    const auto noise = band_noise(n - lead, span_low_hz, span_high_hz, seed);
+    for (std::size_t i = 0; i < noise.size(); ++i) {
+        const double t = static_cast<double>(i) / rate_hz;
+        const double rise = t < rise_s ? 0.5 - 0.5 * std::cos(3.141592653589793 * t / rise_s) : 1.0;
+        x[lead + i] += rise * std::pow(10.0, burst_db / 20.0) * std::exp(-ln1000 * t / burst_t60_s) * noise[i];
+    }
+    for (int h = 1; h <= 6; ++h) {
+        for (std::size_t i = lead; i < n; ++i) {
+            const double t = static_cast<double>(i - lead) / rate_hz;
+            x[i] += std::pow(10.0, -12.0 / 20.0) * std::exp(-ln1000 * t / 2.0) * std::cos(2.0 * 3.141592653589793 * 196.0 * h * t);
+        }
+    }
+    splitmix64 floor_rng{98};  // the project's generator (core/rng.hpp)
+    std::vector<float> samples(n);
+    for (std::size_t i = 0; i < n; ++i) samples[i] = static_cast<float>(x[i] + 1e-5 * floor_rng.gaussian());
+
+    // Without the onset refinement: its search for short-lived modes takes part of a broadband
+    // burst for modes (measured: six at 9.2-13.6 kHz, -36..-42 dB), which is not this test's matter.
+    const patch p = analyze_note(samples, rate_hz, {.refine_onset = false}).value;
+    double all_energy = 0.0, all_truth_energy = 0.0;
+    for (const double mid_hz : {3981.07, 5011.87, 6309.57, 7943.28, 10000.0}) {
+        const double g = std::pow(10.0, 0.05);  // half a base-10 third octave, G^(1/6)
+        const double truth_db = burst_db + 10.0 * std::log10(mid_hz * (g - 1.0 / g) / (span_high_hz - span_low_hz));
+        // The burst's energy over its first 100 ms (a fitted rise trades peak against attack time,
+        // the energy stays), summed over the bands covering this one, against the truth's; and the
+        // burst's T60: the fastest first segment among them (a floor band under it decays no faster).
+        constexpr double step_s = 0.0001;
+        constexpr int steps = 1000;  // 100 ms
+        double energy = 0.0, truth_energy = 0.0, fastest_t60_s = infinity;
+        for (int i = 0; i < steps; ++i)
+            truth_energy += std::pow(10.0, (truth_db - 60.0 * i * step_s / burst_t60_s) / 10.0) * step_s;
+        for (const noise_band& band : p.noise) {
+            if (!(band.low_hz <= mid_hz && mid_hz < band.high_hz)) continue;
+            for (int i = 0; i < steps; ++i) energy += std::pow(10.0, envelope_level(band.env, i * step_s).db / 10.0) * step_s;
+            fastest_t60_s = std::min(fastest_t60_s, band.env.decay.front().t60_s);
+        }
+        all_energy += energy;
+        all_truth_energy += truth_energy;
+        const double energy_diff_db = 10.0 * std::log10(energy / truth_energy);
+        INFO("band at " << mid_hz << " Hz");
+        CAPTURE(energy_diff_db, truth_db, fastest_t60_s, burst_t60_s);
+        // Measured (seeds 21-23): -5.0 .. +0.7 dB, T60 0.076-0.084 s; with the leakage of every
+        // band as the burst's floor it was -14 .. -1.6 dB, T60 0.019-0.122 s (no burst fitted in
+        // most bands, only the floor band's slower fit).
+        CHECK_THAT(energy_diff_db, WithinAbs(0.0, 6.0));            // ground truth
+        CHECK_THAT(fastest_t60_s, WithinRel(burst_t60_s, 0.25));    // ground truth
+    }
+    const double all_diff_db = 10.0 * std::log10(all_energy / all_truth_energy);
+    CAPTURE(all_diff_db);
+    CHECK_THAT(all_diff_db, WithinAbs(0.0, 2.0));  // ground truth
+}
