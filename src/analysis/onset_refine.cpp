@@ -155,19 +155,28 @@ namespace {
 /// rendered and subtracted (left alone).
 enum class role { exponential, shaped, fixed };
 
-/// The partials the waveform fit may change: below Nyquist and with no other partial closer than
-/// cluster_hz. A group of close partials (a beating pair) is left as it is, subtracted as
-/// rendered: the span cannot tell its members apart, and refitting one of them would change the
-/// pair's relative phase, so where its beats fall and where its long-term spectral peak lies.
-std::vector<role> initial_roles(const patch& p, double sample_rate_hz, double cluster_hz) {
+/// The loudest level of env over [0, span_s], sampled every 5 ms and at the attack's end.
+double span_peak_db(const envelope& env, double span_s) {
+    double peak = envelope_level(env, std::min(env.attack_s, span_s)).db;
+    for (int i = 0; i <= static_cast<int>(span_s / 0.005); ++i) peak = std::max(peak, envelope_level(env, 0.005 * i).db);
+    return peak;
+}
+
+/// The partials the waveform fit may change: below Nyquist, no other within cluster_hz but ones
+/// twin_ignore_db under it over the span, at another frequency. A close group (a beating pair, or
+/// two stages of one sinusoid) stays as rendered: the span cannot tell its members apart.
+std::vector<role> initial_roles(const patch& p, double sample_rate_hz, double cluster_hz,
+                                const onset_refine_params& params) {
     const std::size_t count = p.partials.size();
     std::vector<role> roles(count, role::exponential);
+    std::vector<double> peak_db(count);
+    for (std::size_t k = 0; k < count; ++k) peak_db[k] = span_peak_db(p.partials[k].env, params.fit_span_s);
     for (std::size_t k = 0; k < count; ++k) {
-        const partial& a = p.partials[k];
-        if (a.freq_hz >= 0.5 * sample_rate_hz) roles[k] = role::fixed;
+        if (p.partials[k].freq_hz >= 0.5 * sample_rate_hz) roles[k] = role::fixed;
         for (std::size_t j = 0; j < count && roles[k] != role::fixed; ++j) {
-            const partial& b = p.partials[j];
-            if (j != k && std::abs(a.freq_hz - b.freq_hz) < cluster_hz) roles[k] = role::fixed;
+            const double apart_hz = std::abs(p.partials[k].freq_hz - p.partials[j].freq_hz);
+            if (j != k && apart_hz < cluster_hz && (apart_hz == 0.0 || peak_db[j] > peak_db[k] - params.twin_ignore_db))
+                roles[k] = role::fixed;
         }
     }
     return roles;
@@ -393,7 +402,7 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
     const subband_mode_params& sub = params.subbands;
     const subband_signals signals = make_subband_signals(note, sample_rate_hz, sub);
     const std::vector<damped_mode> found = subband_modes(signals, sub, sub.span_s);
-    std::vector<role> roles = initial_roles(p, sample_rate_hz, cluster_hz);
+    std::vector<role> roles = initial_roles(p, sample_rate_hz, cluster_hz, params);
     std::vector<bool> taken(found.size(), false);
     const std::vector<double> decay = early_decays(p, roles, found, taken, params);
     const std::vector<damped_mode> candidates = new_mode_candidates(p, found, taken, cluster_hz, params);
