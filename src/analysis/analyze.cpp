@@ -72,7 +72,8 @@ double peak_level_db(std::span<const float> x) {
 double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz,
                              double* shortfall_db) {
     // The copy's peak as the default render makes it (noise seed 1), at the source rate and at
-    // the usual output rate (noise bands are drawn per rate, so their peaks differ by rate).
+    // the usual output rate (the noise is one signal at every rate, but the partials' sampled
+    // peaks and the conversion's filter move the peak by a few hundredths of a dB).
     // Rendered as the file keeps it (numbers rounded): a copy within 0.1 dB of full scale can
     // move by that much when its phases and levels are rounded.
     patch q = p;

@@ -98,9 +98,8 @@ inline constexpr double default_output_rate_hz = 48000.0;
 double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz,
                              double* shortfall_db = nullptr);
 
-/// The noise bands are a random draw, and below a few hundred Hz the renderer's bins differ by
-/// rate (47 Hz apart at 48 kHz, 43 Hz at 44.1 kHz: synthesis/noise_render.hpp), so a band beside a
-/// partial can add to the partial's peak at one rate and not at another. Where the default render's
+/// The noise bands are a random draw (one signal at every rate: synthesis/noise_render.hpp), and a
+/// draw can cancel a partial's peak as well as add to it. Where the default render's
 /// draw alone holds the copy more than max_noise_shortfall_db under the recording's peak at the
 /// source rate, every band is turned down by noise_step_db at a time, at most max_noise_cut_db.
 inline constexpr double max_noise_shortfall_db = 0.5;
