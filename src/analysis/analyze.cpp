@@ -38,6 +38,13 @@ void add_noise_model(patch& p, std::span<const float> part, double sample_rate_h
     p.noise = fit_note_noise(part.subspan(onset), sample_rate_hz, p, noise_params);
 }
 
+/// The instant partials' rise (analysis/start_ramp.hpp) at the onset the analysis has reached.
+double soften_partials_start(analysis_result& out, std::span<const float> part, double sample_rate_hz,
+                             const analysis_params& params) {
+    const auto onset = static_cast<std::size_t>(std::llround(out.tracking.onset_s * sample_rate_hz));
+    return soften_start(out.value, part, onset, sample_rate_hz, params.start_ramp).rise_s;
+}
+
 /// A recording cut while the note sounds: every partial's and band's decay runs on past the cut,
 /// and the patch says where the cut was (analysis/recording_end.hpp, analysis/cut_tail.hpp).
 /// fitted[i] is partial i's track and fitted stretch.
@@ -252,10 +259,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         }
     }
     done("onset refinement");
-    if (params.soften_start) {
-        const auto onset = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
-        out.summary.start_ramp_s = soften_start(p, part, onset, sample_rate_hz, params.start_ramp).rise_s;
-    }
+    if (params.soften_start) out.summary.start_ramp_s = soften_partials_start(out, part, sample_rate_hz, params);
     done("start rise");
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);
     done("noise model");
