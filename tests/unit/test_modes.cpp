@@ -350,6 +350,45 @@ TEST_CASE("sliding fit residuals equal a fresh least-squares fit on every span",
     }
 }
 
+TEST_CASE("a kept factor of the leading modes, extended by more modes, gives the residuals of a dense QR fit", "[modes]") {
+    const double fs = 32000.0;
+    // Five modes in the signal (two 6 Hz apart); the factor is kept for the first `lead` of them,
+    // the search adds the rest (with a companion that dies fast at the first one's frequency).
+    const std::vector<damped_mode> truth{{.freq_hz = 196.0, .decay_per_s = 3.0, .amp = {0.4, -0.2}},
+                                         {.freq_hz = 587.0, .decay_per_s = 0.0, .amp = {0.0, 0.1}},
+                                         {.freq_hz = 593.0, .decay_per_s = 20.0, .amp = {0.05, 0.02}},
+                                         {.freq_hz = 2411.0, .decay_per_s = 400.0, .amp = {0.3, 0.3}},
+                                         {.freq_hz = 7000.0, .decay_per_s = 150.0, .amp = {-0.1, 0.05}}};
+    const std::size_t lead = GENERATE(std::size_t{0}, std::size_t{1}, std::size_t{3}, std::size_t{5});
+    const std::size_t count = 2000, starts = 160;
+    const auto x = render_modes(truth, fs, count + starts, 0.01, 11);
+    std::vector<damped_mode> modes = truth;
+    modes.push_back({.freq_hz = 196.0, .decay_per_s = 46.0});
+    const plain_gram_factor kept = factor_plain_gram(std::span(modes).first(lead), fs, count);
+    const std::vector<double> residual = sliding_fit_residuals(x, fs, modes, count, starts, {.leading = &kept});
+    REQUIRE(residual.size() == starts);
+    for (const std::size_t s : {std::size_t{0}, std::size_t{1}, std::size_t{128}, std::size_t{159}}) {
+        const std::span<const float> span(x.data() + s, count);
+        double energy = 0.0;
+        for (float v : span) energy += double(v) * double(v);
+        const double want = dense_qr_amplitudes(span, fs, modes).residual * energy;
+        // The ridge (1e-9 of the Gram diagonal) and rounding: 1e-7 of the span's energy.
+        CAPTURE(lead, s, residual[s], want, energy);
+        CHECK_THAT(residual[s], WithinAbs(want, 1e-7 * energy));
+    }
+    // A fit of exactly the kept modes solves with the kept factor: the same numbers as without.
+    const std::span<const float> first(x.data(), count);
+    std::vector<damped_mode> with(modes.begin(), modes.begin() + static_cast<std::ptrdiff_t>(lead)), without = with;
+    const std::vector<mode_shape> plain(lead);
+    const double r_with = fit_shaped_amplitudes(first, fs, with, plain, 1e-9, &kept);
+    const double r_without = fit_shaped_amplitudes(first, fs, without, plain, 1e-9);
+    CHECK(r_with == r_without);
+    for (std::size_t k = 0; k < lead; ++k) {
+        CAPTURE(k, with[k].amp, without[k].amp);
+        CHECK(with[k].amp == without[k].amp);
+    }
+}
+
 TEST_CASE("sliding fit residuals skipping dominated starts keep every solved value and the best start", "[modes]") {
     const double fs = 32000.0;
     // The modes begin lead samples into x (low noise before them), so starts near lead cost
