@@ -196,9 +196,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     assert(params.max_segments >= 1 && params.max_segments <= max_fit_decay_segments);
     std::size_t unanalysed_frames = 0;
     const std::span<const float> part = analysed_part(samples, sample_rate_hz, params, unanalysed_frames);
-    const auto done = [&](std::string_view stage) {
-        if (stage_done) stage_done(stage);
-    };
+    const auto done = [&](std::string_view stage) { if (stage_done) stage_done(stage); };
 
     analysis_result out;
     out.summary.unanalysed_s = static_cast<double>(unanalysed_frames) / sample_rate_hz;
