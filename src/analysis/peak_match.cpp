@@ -113,7 +113,8 @@ default_renders render_default(const patch& q, double sample_rate_hz, const peak
 peak_match_result match_copy_peak(const patch& p, std::span<const float> note, double sample_rate_hz,
                                   const peak_match_params& params) {
     const patch q = as_written(p);
-    const double target_db = std::min(peak_level_db(note), -peak_headroom_db);
+    const double recording_db = peak_level_db(note);
+    const double target_db = std::min(recording_db, -peak_headroom_db);
     const default_renders d = render_default(q, sample_rate_hz, params);
     // The draws at the default output rate: no rate conversion, and the rate a copy plays at.
     const double expected_db = expected_peak_db(q, default_output_rate_hz, d.output, params);
@@ -123,9 +124,10 @@ peak_match_result match_copy_peak(const patch& p, std::span<const float> note, d
     const double to_target_db = target_db - expected_db;
     r.expected_gain_db = std::min(std::clamp(0.0, to_target_db - peak_tolerance_db, to_target_db + peak_tolerance_db),
                                   max_peak_raise_db);
-    // A quiet default draw: its render still peaks within max_default_peak_miss_db of the target.
+    // A quiet default draw: its render still peaks within max_default_peak_miss_db of the
+    // recording (which may peak over the target).
     const double lowest_db = std::isfinite(d.source_db)
-                                 ? std::min(target_db - max_default_peak_miss_db - d.source_db, max_peak_raise_db)
+                                 ? std::min(recording_db - max_default_peak_miss_db - d.source_db, max_peak_raise_db)
                                  : -infinity;
     r.gain_db = std::min(std::max(r.expected_gain_db, lowest_db), d.safe_gain_db());
     r.held_down_db = std::max(0.0, r.expected_gain_db - r.gain_db);

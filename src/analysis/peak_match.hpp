@@ -73,7 +73,7 @@ struct peak_match_result {
 /// of the target, the recording's peak (note[0] at the onset) or -peak_headroom_db dBFS when that
 /// is lower; up by at most max_peak_raise_db when the copy falls short (an onset transient the
 /// partials carry only in part); at least so high that the default draw's render peaks within
-/// max_default_peak_miss_db of the target at the source rate; and never so high that the
+/// max_default_peak_miss_db of the recording's peak at the source rate; and never so high that the
 /// default draw's render, at the source rate or at default_output_rate_hz, peaks within
 /// default_render_margin_db of full scale. Rendered as the file keeps the patch (rounded numbers).
 peak_match_result match_copy_peak(const patch& p, std::span<const float> note, double sample_rate_hz,
