@@ -6,6 +6,8 @@
 
 #include <Eigen/Dense>
 
+#include "modes/complex_eigenvalues.hpp"
+
 namespace wane {
 
 namespace {
@@ -77,10 +79,7 @@ std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<doub
     if (order == 0) return {};
     const cmatrix u = tri.matrixQ() * eig.eigenvectors().rightCols(order).cast<std::complex<double>>();
     const cmatrix phi = rotation(u);
-    const Eigen::ComplexEigenSolver<cmatrix> poles(phi, false);
-    if (poles.info() != Eigen::Success) return {};
-    std::vector<std::complex<double>> out(poles.eigenvalues().data(), poles.eigenvalues().data() + order);
-    return out;
+    return complex_eigenvalues(std::span(phi.data(), static_cast<std::size_t>(phi.size())), static_cast<std::size_t>(order));
 }
 
 }  // namespace wane

@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <cassert>
 #include <cstdlib>
+#include <memory>
 #include <mutex>
 #include <new>
 #include <numeric>
@@ -19,6 +20,10 @@ std::mutex& planner_lock() {
     return lock;
 }
 
+struct fftw_free_buffer {
+    void operator()(float* p) const { fftwf_free(p); }
+};
+
 }  // namespace
 
 void stft_plan::fftw_buffer_free::operator()(void* p) const { fftwf_free(p); }
@@ -31,6 +36,31 @@ int fast_fft_size(int min_size) {
             while (r % f == 0) r /= f;
         if (r == 1) return n;
     }
+}
+
+void real_fft(std::span<const float> input, int fft_size, std::span<std::complex<float>> out) {
+    assert(fft_size % 2 == 0 && static_cast<std::size_t>(fft_size) >= input.size());
+    const auto n = static_cast<std::size_t>(fft_size);
+    assert(out.size() == n / 2 + 1);
+    const std::unique_ptr<float, fftw_free_buffer> in(fftwf_alloc_real(n));
+    const std::unique_ptr<float, fftw_free_buffer> spectrum(fftwf_alloc_real(n + 2));  // n / 2 + 1 complex
+    if (!in || !spectrum) throw std::bad_alloc();
+    fftwf_plan plan = nullptr;
+    {
+        const std::lock_guard<std::mutex> hold(planner_lock());
+        plan = fftwf_plan_dft_r2c_1d(fft_size, in.get(), reinterpret_cast<fftwf_complex*>(spectrum.get()),  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): FFTW's complex is float[2]
+                                     FFTW_ESTIMATE);
+    }
+    if (plan == nullptr) throw std::bad_alloc();
+    std::copy(input.begin(), input.end(), in.get());
+    std::fill(in.get() + input.size(), in.get() + n, 0.0f);
+    fftwf_execute(plan);
+    {
+        const std::lock_guard<std::mutex> hold(planner_lock());
+        fftwf_destroy_plan(plan);
+    }
+    const float* bins = spectrum.get();  // re, im interleaved
+    for (std::size_t k = 0; k < out.size(); ++k) out[k] = {bins[2 * k], bins[2 * k + 1]};
 }
 
 stft_plan::stft_plan(const stft_config& config)

@@ -4,6 +4,7 @@
 
 #include <kiss_fftr.h>
 
+#include <complex>
 #include <cstdint>
 #include <memory>
 #include <span>
@@ -23,6 +24,12 @@ struct stft_config {
 
 /// Smallest even FFT size >= min_size whose factors are only 2, 3 and 5 (KissFFT's fast radices).
 int fast_fft_size(int min_size);
+
+/// One real block's spectrum on FFTW single precision (FFTW_ESTIMATE; the plan made and destroyed
+/// under the STFT's planner lock): input zero padded to fft_size (even, >= input.size()), bins
+/// 0 .. fft_size / 2 written to out (fft_size / 2 + 1 of them), unscaled. For one-off transforms
+/// of a whole span.
+void real_fft(std::span<const float> input, int fft_size, std::span<std::complex<float>> out);
 
 /// One STFT frame at a time. Made once per thread: the FFT state, window and buffers are allocated
 /// here and reused, so analyzing a frame allocates nothing. The FFTW plan is made (FFTW_ESTIMATE:
