@@ -30,11 +30,11 @@ void rotate(std::complex<double>* x, std::complex<double>* y, index count, index
     }
 }
 
-/// Hessenberg matrix h (n x n, column-major in `data`) with the QR steps' bookkeeping.
+/// Hessenberg matrix h (n x n) with the QR steps' bookkeeping.
 struct hessenberg {
-    std::complex<double>* data;
-    index n;
-    std::complex<double>& at(index row, index col) { return data[row + col * n]; }
+    cmatrix h;
+    std::complex<double>& at(index row, index col) { return h(row, col); }
+    std::complex<double> at(index row, index col) const { return h(row, col); }
 
     /// Subdiagonal entry (i + 1, i) negligible beside its two diagonal neighbours (then set to 0).
     bool negligible(index i) {
@@ -49,7 +49,7 @@ struct hessenberg {
     /// The shift for a step on the block ending at row iu, the iter-th on this eigenvalue: the
     /// eigenvalue of the trailing 2 x 2 block nearer its last diagonal entry, the 2 x 2 scaled to
     /// a 1-norm of 1 first; after 10 and 20 steps the exceptional shift of comqr.
-    std::complex<double> shift(index iu, int iter) {
+    std::complex<double> shift(index iu, int iter) const {
         if ((iter == 10 || iter == 20) && iu >= 2) return std::abs(at(iu, iu - 1).real()) + std::abs(at(iu - 1, iu - 2).real());
         Eigen::Matrix2cd t;
         t << at(iu - 1, iu - 1), at(iu - 1, iu), at(iu, iu - 1), at(iu, iu);
@@ -86,7 +86,7 @@ struct hessenberg {
             const double c = rot.c().real();
             // Rows i, i + 1 by the adjoint rotation (c, -s); columns i, i + 1 by the rotation's
             // transpose (c, -conj(s)).
-            rotate(&at(i, from_col), &at(i + 1, from_col), iu - from_col + 1, n, c, -rot.s());
+            rotate(&at(i, from_col), &at(i + 1, from_col), iu - from_col + 1, h.rows(), c, -rot.s());
             rotate(&at(il, i), &at(il, i + 1), std::min(i + 2, iu) - il + 1, 1, c, -std::conj(rot.s()));
         }
     }
@@ -101,8 +101,7 @@ std::vector<std::complex<double>> complex_eigenvalues(std::span<const std::compl
         return {};
     const auto size = static_cast<index>(n);
     const Eigen::Map<const cmatrix> in(a.data(), size, size);
-    cmatrix h = size > 1 ? cmatrix(Eigen::HessenbergDecomposition<cmatrix>(in).matrixH()) : cmatrix(in);
-    hessenberg work{.data = h.data(), .n = size};
+    hessenberg work{.h = size > 1 ? cmatrix(Eigen::HessenbergDecomposition<cmatrix>(in).matrixH()) : cmatrix(in)};
     // Rows iu + 1 .. n - 1 are done (their eigenvalues on the diagonal), rows il .. iu the
     // active block (work.at(il, il - 1) == 0).
     const long max_steps = 30L * size;
