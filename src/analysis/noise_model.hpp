@@ -74,8 +74,8 @@ struct noise_model_params {
     /// ... and one that dies within two short windows (T60 under 8 ms) cannot be told from what
     /// the partials' onset leaves in the residual, so it is not kept.
     double min_attack_t60_s = 0.008;
-    envelope_fit_params fit{.max_segments = 3, .min_segment_s = 0.05};
-    envelope_fit_params attack_fit{.max_segments = 1, .min_segment_s = 0.004};
+    envelope_fit_params fit{.max_segments = 3, .min_segment_s = 0.05, .frequency_and_phase = false};
+    envelope_fit_params attack_fit{.max_segments = 1, .min_segment_s = 0.004, .frequency_and_phase = false};
 };
 
 struct noise_band_track {
