@@ -65,8 +65,7 @@ void real_fft(std::span<const float> input, int fft_size, std::span<std::complex
 
 stft_plan::stft_plan(const stft_config& config)
     : config_(config),
-      window_(make_window(config.window, config.window_length, window_symmetry::symmetric)),
-      correction_(config.window, config.window_length, config.fft_size) {
+      window_(make_window(config.window, config.window_length, window_symmetry::symmetric)) {
     assert(config.window_length % 2 == 1 && config.window_length >= 3);
     assert(config.fft_size % 2 == 0 && config.fft_size >= config.window_length);
     const double sum_w = std::accumulate(window_.begin(), window_.end(), 0.0);

@@ -7,6 +7,7 @@
 #include <complex>
 #include <cstdint>
 #include <memory>
+#include <optional>
 #include <span>
 #include <vector>
 
@@ -65,7 +66,12 @@ public:
     std::span<const float> window_samples() const { return window_; }
     /// 2 / sum(w): FFT magnitude to sinusoid amplitude.
     double amp_scale() const { return amp_scale_; }
-    const qifft_correction& correction() const { return correction_; }
+    /// The QIFFT correction of this window and FFT size, made on first use (the plans that only
+    /// measure power, the noise model's, never need it).
+    const qifft_correction& correction() const {
+        if (!correction_) correction_.emplace(config_.window, config_.window_length, config_.fft_size);
+        return *correction_;
+    }
 
 private:
     /// Windows the frame into the FFT input and runs the FFT (its output in spectrum_).
@@ -73,7 +79,7 @@ private:
     stft_config config_;
     std::vector<float> window_;
     double amp_scale_ = 0.0;
-    qifft_correction correction_;
+    mutable std::optional<qifft_correction> correction_;  // one plan per thread: no lock needed
     struct fftw_buffer_free {
         void operator()(void* p) const;
     };
