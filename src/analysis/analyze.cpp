@@ -205,6 +205,14 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         }
     }
     done("onset refinement");
+    if (params.split_modes && onset_frame < part.size()) {
+        const auto onset = static_cast<std::size_t>(std::llround(out.tracking.onset_s * sample_rate_hz));
+        const mode_split_summary split = split_into_modes(p, part.subspan(std::min(onset, part.size())), sample_rate_hz, params.modes);
+        out.summary.modes_split = split.split;
+        out.summary.modes_added = split.modes_added;
+        out.summary.partials = static_cast<int>(p.partials.size());
+    }
+    done("mode split");
     if (params.soften_start) out.summary.start_ramp_s = soften_partials_start(out, part, sample_rate_hz, params);
     done("start rise");
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);

@@ -10,6 +10,7 @@
 #include "analysis/noise_model.hpp"
 #include "analysis/recording_end.hpp"
 #include "analysis/beating_pairs.hpp"
+#include "analysis/mode_split.hpp"
 #include "analysis/heard_peaks.hpp"
 #include "analysis/onset_refine.hpp"
 #include "analysis/peak_match.hpp"
@@ -42,6 +43,10 @@ struct analysis_params {
     /// Set note.gain_db so the copy peaks with the recording (peak_matching_gain_db).
     bool match_peak = true;
     onset_refine_params onset{};
+    /// Replace the strongest partials by a few close modes each where those fit the recording
+    /// better (analysis/mode_split.hpp).
+    bool split_modes = true;
+    mode_split_params modes{};
     /// Give the partials that start at once a sub-millisecond rise where their jump from silence
     /// is steeper than the recording's start (analysis/start_ramp.hpp).
     bool soften_start = true;
@@ -67,6 +72,8 @@ struct analysis_summary {
     int new_modes = 0;             ///< partials added by the onset refinement (short-lived modes)
     /// Energy of the first fit span explained by the partials, dB (onset refinement).
     double onset_explained_db = 0.0;
+    int modes_split = 0;           ///< partials replaced by close modes (analysis/mode_split.hpp)
+    int modes_added = 0;           ///< ... and the partials that added
     double start_ramp_s = 0.0;     ///< the instant partials' rise (analysis/start_ramp.hpp), 0: none
     /// Audio left out after start_s + max_length_s (a patch holds at most max_length_s), s.
     double unanalysed_s = 0.0;

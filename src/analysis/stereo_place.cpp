@@ -321,6 +321,30 @@ double broadband_delay_s(std::span<const float> left, std::span<const float> rig
     return (static_cast<double>(best) - static_cast<double>(max_lag) + offset) / sample_rate_hz;
 }
 
+/// A partial left unplaced within cluster_hz (one resolution cell of the fit span) of a louder
+/// placed one is one of its close modes (analysis/mode_split.hpp): the set was fitted on the mix to
+/// add up there (a rise made of modes that cancel at first), so it moves as one: the unplaced
+/// partial takes the placed one's pan, delay and spread and the same change of level and phase.
+/// Centred at the broadband delay instead, its mix would be scaled by cos(pi f delay) alone and
+/// the set would no longer add up.
+void follow_placed_neighbours(patch& p, const std::vector<partial>& mixes, const std::vector<bool>& placed,
+                              double cluster_hz) {
+    for (std::size_t k = 0; k < p.partials.size(); ++k) {
+        if (placed[k]) continue;
+        std::optional<std::size_t> lead;
+        for (std::size_t j = 0; j < p.partials.size(); ++j)
+            if (placed[j] && std::abs(mixes[j].freq_hz - mixes[k].freq_hz) < cluster_hz &&
+                mixes[j].env.peak.db > mixes[k].env.peak.db && (!lead || mixes[j].env.peak.db > mixes[*lead].env.peak.db))
+                lead = j;
+        if (!lead) continue;
+        partial& q = p.partials[k];
+        const partial& l = p.partials[*lead];
+        q.env.peak.db += l.env.peak.db - mixes[*lead].env.peak.db;
+        q.phase_rad = wrap_pi(q.phase_rad + l.phase_rad - mixes[*lead].phase_rad);
+        q.place = l.place;
+    }
+}
+
 void place_stereo(patch& p, std::span<const float> left, std::span<const float> right, double sample_rate_hz,
                   const stereo_place_params& params) {
     assert(left.size() == right.size());
@@ -339,6 +363,8 @@ void place_stereo(patch& p, std::span<const float> left, std::span<const float> 
     const auto late = fit_at(params.late_start_s, params.min_shape_in_span);
     const auto spread = fit_at(params.spread_start_s, 0.0);
     const double spread_dt_s = params.spread_start_s;  // between the two spans' midpoints
+    std::vector<bool> was_placed(p.partials.size(), false);
+    const std::vector<partial> mixes = p.partials;
     for (std::size_t k = 0; k < p.partials.size(); ++k) {
         partial& q = p.partials[k];
         const partial mix = q;
@@ -351,6 +377,7 @@ void place_stereo(patch& p, std::span<const float> left, std::span<const float> 
             q.place.delay_us = reference_s * 1e6;
             continue;
         }
+        was_placed[k] = true;
         if (early && early->first.usable[k] && spread && spread->first.usable[k]) {
             const double s = partial_spread(q, early->first.ratio[k], early->second.ratio[k], spread->first.ratio[k],
                                             spread->second.ratio[k], spread_dt_s, params);
@@ -363,6 +390,7 @@ void place_stereo(patch& p, std::span<const float> left, std::span<const float> 
             }
         }
     }
+    follow_placed_neighbours(p, mixes, was_placed, 1.0 / params.fit_span_s);
     place_noise(p, left, right, sample_rate_hz, reference_s, params);
 }
 
