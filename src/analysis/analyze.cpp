@@ -252,6 +252,11 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         }
     }
     done("onset refinement");
+    if (params.soften_start) {
+        const auto onset = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
+        out.summary.start_ramp_s = soften_start(p, part, onset, sample_rate_hz, params.start_ramp).rise_s;
+    }
+    done("start rise");
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);
     done("noise model");
     apply_recording_end(out, part, sample_rate_hz, fitted, params);

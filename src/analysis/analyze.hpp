@@ -12,6 +12,7 @@
 #include "analysis/beating_pairs.hpp"
 #include "analysis/heard_peaks.hpp"
 #include "analysis/onset_refine.hpp"
+#include "analysis/start_ramp.hpp"
 #include "core/analysis_error.hpp"
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
@@ -40,6 +41,10 @@ struct analysis_params {
     /// Set note.gain_db so the copy peaks with the recording (peak_matching_gain_db).
     bool match_peak = true;
     onset_refine_params onset{};
+    /// Give the partials that start at once a sub-millisecond rise where their jump from silence
+    /// is steeper than the recording's start (analysis/start_ramp.hpp).
+    bool soften_start = true;
+    start_ramp_params start_ramp{};
     /// Partial frequencies from the recording's own long spectrum, and partials for its strong
     /// peaks no track found (analysis/heard_peaks.hpp); analyze --no-long-spectrum turns it off.
     bool long_spectrum = true;
@@ -61,6 +66,7 @@ struct analysis_summary {
     int new_modes = 0;             ///< partials added by the onset refinement (short-lived modes)
     /// Energy of the first fit span explained by the partials, dB (onset refinement).
     double onset_explained_db = 0.0;
+    double start_ramp_s = 0.0;     ///< the instant partials' rise (analysis/start_ramp.hpp), 0: none
     /// Audio left out after start_s + max_length_s (a patch holds at most max_length_s), s.
     double unanalysed_s = 0.0;
 };
@@ -108,7 +114,7 @@ inline constexpr double max_noise_cut_db = 6.0;
 
 /// Called by analyze_note as each of its stages ends, with the stage's name, in order: "tracking",
 /// "envelope fits", "long spectrum" (the heard-span spectrum, the move to its peaks, the late
-/// companions' merge), "root and added peaks", "pair split", "onset refinement", "noise model",
+/// companions' merge), "root and added peaks", "pair split", "onset refinement", "start rise", "noise model",
 /// "recording end", "peak match". A stage that does not run (its switch off) is still reported.
 /// The analysis reads no clock: a benchmark times the stages between calls (tools/bench_analyze).
 using stage_observer = std::function<void(std::string_view stage)>;
