@@ -12,11 +12,9 @@
 #include "analysis/beating_pairs.hpp"
 #include "analysis/noise_model.hpp"
 #include "analysis/onset_refine.hpp"
-#include "core/patch_numbers.hpp"
 #include "core/analysis_error.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "pitch/root.hpp"
-#include "synthesis/render.hpp"
 #include "spectrum/window.hpp"
 
 namespace wane {
@@ -36,6 +34,13 @@ void add_noise_model(patch& p, std::span<const float> part, double sample_rate_h
     if (onset >= part.size()) return;
     // Streamed: the residual is formed a block at a time, never held whole (long files).
     p.noise = fit_note_noise(part.subspan(onset), sample_rate_hz, p, noise_params);
+}
+
+/// The instant partials' rise (analysis/start_ramp.hpp) at the onset the analysis has reached.
+double soften_partials_start(analysis_result& out, std::span<const float> part, double sample_rate_hz,
+                             const analysis_params& params) {
+    const auto onset = static_cast<std::size_t>(std::llround(out.tracking.onset_s * sample_rate_hz));
+    return soften_start(out.value, part, onset, sample_rate_hz, params.start_ramp).rise_s;
 }
 
 /// A recording cut while the note sounds: every partial's and band's decay runs on past the cut,
@@ -58,56 +63,6 @@ void apply_recording_end(analysis_result& out, std::span<const float> part, doub
     out.summary.continued_past_cut = continue_decays_past_cut(fitted, out.summary.end.length_s, params.cut_tail);
     out.summary.segments = 0;
     for (const partial& q : p.partials) out.summary.segments += static_cast<int>(q.env.decay.size());
-}
-
-/// Peak |sample| of x as a level (0 dBFS = 1).
-double peak_level_db(std::span<const float> x) {
-    float peak = 0.0f;
-    for (float v : x) peak = std::max(peak, std::abs(v));
-    return to_level(amp_lin{static_cast<double>(peak)}).db;
-}
-
-}  // namespace
-
-double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz,
-                             double* shortfall_db) {
-    // The copy's peak as the default render makes it (noise seed 1), at the source rate and at
-    // the usual output rate (the noise is one signal at every rate, but the partials' sampled
-    // peaks and the conversion's filter move the peak by a few hundredths of a dB).
-    // Rendered as the file keeps it (numbers rounded): a copy within 0.1 dB of full scale can
-    // move by that much when its phases and levels are rounded.
-    patch q = p;
-    patch_numbers::round_to_file_precision(q);
-    q.note.gain_db = 0.0;
-    const auto peak_at = [&](double rate) {
-        if (rate < min_render_rate_hz || rate > max_render_rate_hz) return -infinity;
-        return peak_level_db(render_patch(q, {.sample_rate_hz = rate}));
-    };
-    const double source_db = peak_at(sample_rate_hz);
-    const double output_db = sample_rate_hz == default_output_rate_hz ? source_db : peak_at(default_output_rate_hz);
-    if (!std::isfinite(source_db) && !std::isfinite(output_db)) return 0.0;
-    const double target_db = std::min(peak_level_db(note), -peak_headroom_db);
-    // The copy at the recording's rate peaks with the recording; the default render stays under
-    // full scale by default_render_margin_db even where its noise peaks higher.
-    double gain_db = std::isfinite(source_db) ? target_db - source_db : target_db - output_db;
-    if (std::isfinite(output_db)) gain_db = std::min(gain_db, -default_render_margin_db - output_db);
-    gain_db = std::min(gain_db, max_peak_raise_db);
-    if (shortfall_db) *shortfall_db = std::isfinite(source_db) ? std::max(0.0, target_db - (source_db + gain_db)) : 0.0;
-    return gain_db;
-}
-
-namespace {
-
-/// p's gain from peak_matching_gain_db; where the noise's draw, not the partials, holds the copy
-/// under the recording (max_noise_shortfall_db), the bands step down until it does not.
-void match_peak(patch& p, std::span<const float> note, double sample_rate_hz) {
-    double shortfall_db = 0.0;
-    p.note.gain_db = peak_matching_gain_db(p, note, sample_rate_hz, &shortfall_db);
-    const auto max_steps = static_cast<int>(std::floor(max_noise_cut_db / noise_step_db));
-    for (int step = 0; step < max_steps && shortfall_db > max_noise_shortfall_db && !p.noise.empty(); ++step) {
-        for (noise_band& b : p.noise) b.env.peak = level_db{b.env.peak.db - noise_step_db};
-        p.note.gain_db = peak_matching_gain_db(p, note, sample_rate_hz, &shortfall_db);
-    }
 }
 
 /// The samples between params.start_s and params.end_s (0: the end), at most max_length_s of them
@@ -189,9 +144,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     assert(params.max_segments >= 1 && params.max_segments <= max_fit_decay_segments);
     std::size_t unanalysed_frames = 0;
     const std::span<const float> part = analysed_part(samples, sample_rate_hz, params, unanalysed_frames);
-    const auto done = [&](std::string_view stage) {
-        if (stage_done) stage_done(stage);
-    };
+    const auto done = [&](std::string_view stage) { if (stage_done) stage_done(stage); };
 
     analysis_result out;
     out.summary.unanalysed_s = static_cast<double>(unanalysed_frames) / sample_rate_hz;
@@ -252,10 +205,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         }
     }
     done("onset refinement");
-    if (params.soften_start) {
-        const auto onset = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
-        out.summary.start_ramp_s = soften_start(p, part, onset, sample_rate_hz, params.start_ramp).rise_s;
-    }
+    if (params.soften_start) out.summary.start_ramp_s = soften_partials_start(out, part, sample_rate_hz, params);
     done("start rise");
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);
     done("noise model");

@@ -12,6 +12,7 @@
 #include "analysis/beating_pairs.hpp"
 #include "analysis/heard_peaks.hpp"
 #include "analysis/onset_refine.hpp"
+#include "analysis/peak_match.hpp"
 #include "analysis/start_ramp.hpp"
 #include "core/analysis_error.hpp"
 #include "core/patch.hpp"
@@ -80,37 +81,6 @@ struct analysis_result {
 /// Largest number of decay segments per partial the analysis fits (--max-segments): an analysis
 /// setting, well inside the format's limit patch_rules::max_decay_segments.
 inline constexpr int max_fit_decay_segments = max_fit_segments;
-
-/// The copy's peak is kept this far under full scale at least (peaks between samples and other
-/// output rates).
-inline constexpr double peak_headroom_db = 0.3;
-
-/// A copy that peaks lower than its recording is raised by at most this (dB): further under, the
-/// fit has missed the note's loudest part, and a gain would only hide it.
-inline constexpr double max_peak_raise_db = 6.0;
-/// The default render of a copy peaks at least this far under full scale (dB), where its noise
-/// peaks higher than at the recording's rate.
-inline constexpr double default_render_margin_db = 0.1;
-/// The output rate of a render at default settings, Hz.
-inline constexpr double default_output_rate_hz = 48000.0;
-
-/// Gain (dB) that brings the render of p at the source rate (noise seed 1) to the peak of the
-/// recording note (note[0] at the onset), or to -peak_headroom_db dBFS when that is lower, as far
-/// as the default render (48 kHz) stays default_render_margin_db under full scale: down when the copy overshoots (the noise, or where
-/// its peaks fall), up by at most max_peak_raise_db when it falls short (an onset transient the
-/// partials carry only in part). Levels that add up: the copy peaks with the recording.
-/// shortfall_db (when given) receives how far the copy at the source rate then peaks under that
-/// target (0 when it reaches it).
-double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz,
-                             double* shortfall_db = nullptr);
-
-/// The noise bands are a random draw (one signal at every rate: synthesis/noise_render.hpp), and a
-/// draw can cancel a partial's peak as well as add to it. Where the default render's
-/// draw alone holds the copy more than max_noise_shortfall_db under the recording's peak at the
-/// source rate, every band is turned down by noise_step_db at a time, at most max_noise_cut_db.
-inline constexpr double max_noise_shortfall_db = 0.5;
-inline constexpr double noise_step_db = 1.0;
-inline constexpr double max_noise_cut_db = 6.0;
 
 /// Called by analyze_note as each of its stages ends, with the stage's name, in order: "tracking",
 /// "envelope fits", "long spectrum" (the heard-span spectrum, the move to its peaks, the late

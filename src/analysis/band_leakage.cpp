@@ -48,8 +48,11 @@ std::vector<std::vector<band_leak>> band_leakage(std::span<const float> window, 
     std::vector<std::vector<band_leak>> leak(bins.size());
     std::vector<double> per_bin;
     for (std::size_t b = 0; b < bins.size(); ++b) {
+        if (bins[b].empty()) continue;
+        const auto [lowest, highest] = std::minmax_element(bins[b].begin(), bins[b].end());
         for (std::size_t n = 0; n < ranges.size(); ++n) {
-            if (n == b || bins[b].empty()) continue;
+            // A band wholly beyond the response's reach of every bin of b leaks nothing into it.
+            if (n == b || ranges[n].first > *highest + reach || ranges[n].second < *lowest - reach) continue;
             per_bin.clear();
             for (int k : bins[b]) {
                 double s = 0.0;

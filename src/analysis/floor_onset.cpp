@@ -1,6 +1,7 @@
 #include "analysis/floor_onset.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cassert>
 #include <cmath>
 #include <vector>
@@ -25,13 +26,24 @@ double power_at(const envelope& env, std::span<const envelope_piece> pieces, dou
     return 0.0;
 }
 
-double framed_level_db(const envelope& env, std::span<const envelope_piece> pieces, window_kind window,
+/// The window's power at the integration points of framed_level_db, w(x_k)^2 with
+/// x_k = (k + 0.5) / window_points: made once per check, not once per frame.
+struct window_power {
+    explicit window_power(window_kind window) {
+        for (int k = 0; k < window_points; ++k) {
+            const double w = window_value(window, (k + 0.5) / window_points);
+            w2[static_cast<std::size_t>(k)] = w * w;
+        }
+    }
+    std::array<double, window_points> w2{};
+};
+
+double framed_level_db(const envelope& env, std::span<const envelope_piece> pieces, const window_power& power,
                        double window_s, double centre_s) {
     double weighted = 0.0, total = 0.0;
     for (int k = 0; k < window_points; ++k) {
         const double x = (k + 0.5) / window_points;  // position in the window, [0, 1]
-        const double w = window_value(window, x);
-        const double w2 = w * w;
+        const double w2 = power.w2[static_cast<std::size_t>(k)];
         total += w2;
         weighted += w2 * power_at(env, pieces, centre_s + (x - 0.5) * window_s);
     }
@@ -41,13 +53,13 @@ double framed_level_db(const envelope& env, std::span<const envelope_piece> piec
 /// Whether the frames in [0, frames.first) measured, on the mean over them in dB, at least env's
 /// prediction less the margin (one frame's median of a few bins scatters by 3-4 dB frame to frame,
 /// measured on test_noise's 501 Hz band).
-bool agrees(const envelope& env, const onset_frames& frames) {
+bool agrees(const envelope& env, const onset_frames& frames, const window_power& power) {
     const auto pieces = envelope_pieces(env);
     const std::size_t n = std::min(frames.first, frames.level_db.size());
     if (n == 0) return true;
     double excess_db = 0.0;
     for (std::size_t i = 0; i < n; ++i)
-        excess_db += framed_level_db(env, pieces, frames.window, frames.window_s, static_cast<double>(i) * frames.hop_s) -
+        excess_db += framed_level_db(env, pieces, power, frames.window_s, static_cast<double>(i) * frames.hop_s) -
                      static_cast<double>(frames.level_db[i]);
     return excess_db / static_cast<double>(n) <= frames.margin_db;
 }
@@ -56,18 +68,19 @@ bool agrees(const envelope& env, const onset_frames& frames) {
 
 double framed_level_db(const envelope& env, window_kind window, double window_s, double centre_s) {
     const auto pieces = envelope_pieces(env);
-    return framed_level_db(env, pieces, window, window_s, centre_s);
+    return framed_level_db(env, pieces, window_power(window), window_s, centre_s);
 }
 
 envelope limit_run_back(const envelope& env, const onset_frames& frames) {
     assert(frames.window_s > 0.0 && frames.hop_s > 0.0);
-    if (agrees(env, frames)) return env;
+    const window_power power(frames.window);
+    if (agrees(env, frames, power)) return env;
     // Hold from the latest frame time back to the onset first, then from earlier ones while the
     // frames agree: the run-back the frames allow, never past it.
     envelope best = held_before(env, static_cast<double>(frames.first) * frames.hop_s);
     for (std::size_t j = frames.first; j-- > 0;) {
         envelope candidate = held_before(env, static_cast<double>(j) * frames.hop_s);
-        if (!agrees(candidate, frames)) break;
+        if (!agrees(candidate, frames, power)) break;
         best = std::move(candidate);
     }
     return best;

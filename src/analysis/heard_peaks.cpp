@@ -1,10 +1,9 @@
 #include "analysis/heard_peaks.hpp"
 
-#include <kiss_fftr.h>
-
 #include <algorithm>
 #include <cassert>
 #include <cmath>
+#include <complex>
 #include <vector>
 
 #include "core/units.hpp"
@@ -25,7 +24,7 @@ span_spectrum spectrum_over(std::span<const float> note, double fs, double start
     assert(a < b);
     const std::size_t n = b - a;
     const int size = fast_fft_size(zero_padding * static_cast<int>(n));
-    std::vector<float> buffer(static_cast<std::size_t>(size), 0.0f);
+    std::vector<float> buffer(n);  // the windowed span; real_fft pads it with zeros to size
     double wsum = 0.0;
     for (std::size_t i = 0; i < n; ++i) {
         // Hann: w = 0.5 - 0.5 cos(2 pi i / n) (periodic form)
@@ -33,14 +32,12 @@ span_spectrum spectrum_over(std::span<const float> note, double fs, double start
         buffer[i] = static_cast<float>(w * static_cast<double>(note[a + i]));
         wsum += w;
     }
-    std::vector<kiss_fft_cpx> bins(static_cast<std::size_t>(size) / 2 + 1);
-    kiss_fftr_cfg cfg = kiss_fftr_alloc(size, 0, nullptr, nullptr);
-    kiss_fftr(cfg, buffer.data(), bins.data());
-    kiss_fftr_free(cfg);
+    std::vector<std::complex<float>> bins(static_cast<std::size_t>(size) / 2 + 1);
+    real_fft(buffer, size, bins);
     s.mag.resize(bins.size());
     // The float parts' squares are exact in double: |X| without hypot's scaling.
     for (std::size_t k = 0; k < bins.size(); ++k) {
-        const double re = bins[k].r, im = bins[k].i;
+        const double re = bins[k].real(), im = bins[k].imag();
         s.mag[k] = 2.0 / wsum * std::sqrt(re * re + im * im);
     }
     s.bin_hz = fs / static_cast<double>(size);

@@ -208,7 +208,17 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
     std::vector<float> buf;
     buf.reserve(buf_capacity);
     std::size_t buf_first = 0;
-    for (std::size_t centre = 0; centre < end; centre += hop) {
+    const std::size_t dense_frames = std::isfinite(bp.dense_span_s) && bp.sparse_hops > 1
+                                         ? static_cast<std::size_t>(std::max(0.0, std::ceil(bp.dense_span_s * sample_rate_hz / static_cast<double>(hop))))
+                                         : frame_count;
+    const auto sparse = static_cast<std::size_t>(std::max(1, bp.sparse_hops));
+    auto measured = [&](std::size_t i) { return i < dense_frames || (i - dense_frames) % sparse == 0 || i + 1 == frame_count; };
+    for (std::size_t i = 0; i < frame_count; ++i) {
+        const std::size_t centre = i * hop;
+        if (!measured(i)) {
+            for (noise_band_track& t : tracks) t.level_db.push_back(0.0f);  // interpolated below
+            continue;
+        }
         const std::size_t lo = centre >= half ? centre - half : 0;
         const std::size_t hi = std::min(total, centre + half + 1);
         if (buf.empty() || lo < buf_first || hi > buf_first + buf.size()) {
@@ -233,6 +243,18 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
                                                            bp.band_total_bins[b], n_fft, window_power_sum);
             tracks[b].level_db.push_back(static_cast<float>(std::max(noise_silence_db, power_to_db(band_power))));
         }
+    }
+    // The frames left out lie between two measured ones: straight in dB between them (the line
+    // a decay follows; measured against their power straight between, which let one band of
+    // guitar_nylon_d3 fall out of the patch).
+    for (std::size_t i = dense_frames; i < frame_count; ++i) {
+        if (measured(i)) continue;
+        const std::size_t before = i - (i - dense_frames) % sparse;
+        const std::size_t after = std::min(frame_count - 1, before + sparse);
+        const double u = static_cast<double>(i - before) / static_cast<double>(after - before);
+        for (noise_band_track& t : tracks)
+            t.level_db[i] = static_cast<float>((1.0 - u) * static_cast<double>(t.level_db[before]) +
+                                               u * static_cast<double>(t.level_db[after]));
     }
     return tracks;
 }

@@ -31,6 +31,10 @@ struct band_plan {
     double span_s = 0.0;  ///< frames centred before this; 0 = the whole residual
     bool median = false;  ///< median of the bins scaled to the mean (else their mean)
     double widest_bin_hz = 0.0;  ///< pad (up to zero_padding) to bins no wider; 0: pad fully
+    /// Frames centred after this many seconds are measured only every sparse_hops-th (and the
+    /// last); the levels between are interpolated in dB (infinity: every frame measured).
+    double dense_span_s = infinity;
+    int sparse_hops = 1;
     std::vector<band_edges> bands;
     std::vector<std::vector<int>> bins;  ///< bins measured per band
     std::vector<int> band_total_bins;    ///< all bins inside each band (the band power's K)

@@ -211,7 +211,9 @@ std::vector<noise_band> model_from(std::size_t total, std::span<const timed_sour
         for (std::size_t b = 0; b < tracks.size(); ++b) tracks[b].leak_db = std::move(leak[b]);
         return tracks;
     };
-    const band_plan floor = floor_plan(sample_rate_hz, partial_freqs_hz, f0_hz, params);
+    band_plan floor = floor_plan(sample_rate_hz, partial_freqs_hz, f0_hz, params);
+    floor.dense_span_s = params.floor_dense_span_s;
+    floor.sparse_hops = std::max(1, static_cast<int>(std::floor(params.floor_sparse_hop_windows * floor.window_s / floor.hop_s + 1e-9)));
     const auto floors = lower_of_both(floor, {});
     const band_plan attack = attack_plan(sample_rate_hz, params);
     const auto attacks = lower_of_both(attack, spread_bands(attack, partial_freqs_hz));

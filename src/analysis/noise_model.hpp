@@ -9,7 +9,9 @@
 //    the median of n bins is the mean times the expected median of n unit exponentials). The median
 //    ignores what the subtraction left of a partial and any peak the tracker did not keep, so only
 //    the noise between the partials is measured. Hop 5 ms (or window / 16), no zero padding (the
-//    bins then are independent, as the median's scale assumes). Fitted on the frames
+//    bins then are independent, as the median's scale assumes); past the first 0.5 s only a frame
+//    every quarter window is measured, those between on the line in dB between them (the floor
+//    changes slowly there; a third of the FFTs). Fitted on the frames
 //    whose window lies wholly inside the recording (the first line run back to the onset), over
 //    the floor of what the neighbouring bands leak into the band through the window
 //    (analysis/band_leakage.hpp).
@@ -39,6 +41,11 @@ struct noise_model_params {
     /// wane analyze guitar_nylon_d3 0.86 -> 0.53 s CPU against a 5 ms hop).
     double hop_s = 0.005;
     double floor_hops_per_window = 16.0;
+    /// The noise model measures the floor at every hop over the first floor_dense_span_s after the
+    /// onset and after it at the whole number of hops nearest under floor_sparse_hop_windows
+    /// windows, the levels between interpolated in dB.
+    double floor_dense_span_s = 0.5;
+    double floor_sparse_hop_windows = 0.25;
     /// The floor window lasts floor_window_spacings / f0 (or, without one, / the median spacing of
     /// neighbouring partials), so a partial's main lobe (+-4 bins of Blackman-Harris) leaves bins
     /// free between partials;
@@ -67,7 +74,7 @@ struct noise_model_params {
     /// left to the floor band, and one that dies faster than about its min_t60_s (two short
     /// windows) cannot be told from what the partials' onset leaves in the residual.
     burst_fit_params burst{};
-    envelope_fit_params fit{.max_segments = 3, .min_segment_s = 0.05};
+    envelope_fit_params fit{.max_segments = 3, .min_segment_s = 0.05, .frequency_and_phase = false};
 };
 
 struct noise_band_track {

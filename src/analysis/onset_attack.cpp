@@ -6,6 +6,7 @@
 #include <cmath>
 #include <complex>
 #include <functional>
+#include <optional>
 #include <utility>
 
 #include <Eigen/Core>
@@ -89,13 +90,26 @@ void add_group(std::span<const std::vector<double>> samples, std::span<const dou
     }
 }
 
+/// rho of a shape that is one plain exponential exp(rho n) over [0, count) (empty: the mode's own
+/// decay), which add_group makes itself; nothing for any other shape.
+std::optional<double> plain_rho(const damped_mode& m, const mode_shape& shape, double sample_rate_hz, std::size_t count) {
+    if (shape.empty()) return -m.decay_per_s / sample_rate_hz;
+    const shape_piece& p = shape.front();
+    if (shape.size() == 1 && p.start == 0 && p.count == count && p.scale == 1.0 && p.power == 0) return p.rho;
+    return std::nullopt;
+}
+
 /// Adds sign * Re(amp a[n] exp(i omega n)) for n in [0, out.size()) to out; a is the mode's shape
 /// (exp(-d n / fs) when empty). The phasor is re-anchored from the exact power every 512 samples.
 void add_mode(const damped_mode& m, const mode_shape& shape, double sample_rate_hz, double sign,
               std::vector<double>& out, std::vector<double>& scratch) {
     const std::size_t count = out.size();
-    shape_samples(shape.empty() ? exponential_shape(-m.decay_per_s / sample_rate_hz, count) : shape, count, scratch);
     const double omega = two_pi * m.freq_hz / sample_rate_hz;
+    if (const std::optional<double> rho = plain_rho(m, shape, sample_rate_hz, count)) {
+        add_group<1>({}, std::span(&*rho, 1), std::span(&omega, 1), std::span(&m.amp, 1), sign, out);
+        return;
+    }
+    shape_samples(shape, count, scratch);
     add_group<1>(std::span(&scratch, 1), {}, std::span(&omega, 1), std::span(&m.amp, 1), sign, out);
 }
 
@@ -114,9 +128,10 @@ void subtract_modes(std::span<const damped_mode> modes, std::span<const mode_sha
         for (std::size_t i = 0; i < g; ++i) {
             const damped_mode& m = modes[first + i];
             omega[i] = two_pi * m.freq_hz / sample_rate_hz;
-            rho[i] = -m.decay_per_s / sample_rate_hz;
+            const std::optional<double> own_rho = plain_rho(m, shapes[first + i], sample_rate_hz, count);
+            rho[i] = own_rho.value_or(-m.decay_per_s / sample_rate_hz);
             amp[i] = m.amp;
-            plain = plain && shapes[first + i].empty();
+            plain = plain && own_rho.has_value();
         }
         // Each out[n] gets the modes' terms in mode order whatever the grouping.
         if (plain) {

@@ -122,10 +122,6 @@ bool same_mode(double a_hz, double b_hz, const onset_refine_params& params) {
     return std::abs(a_hz - b_hz) <= tol;
 }
 
-}  // namespace
-
-namespace {
-
 double signal_energy(std::span<const float> x) {
     double e = 0.0;
     for (float v : x) e += double(v) * double(v);
@@ -145,10 +141,6 @@ std::vector<float> render_fixed(const patch& p, std::span<const std::size_t> whi
     out.resize(count);
     return out;
 }
-
-}  // namespace
-
-namespace {
 
 /// How a partial enters the waveform fit: as a damped exponential from t = 0 (an instant onset),
 /// with the shape of its fitted envelope (a slow rise: only its level and phase are fitted), or as
@@ -253,7 +245,8 @@ struct waveform_fit {
 
 waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sample_rate_hz, std::size_t fit_n,
                           std::span<const role> roles, std::span<const double> decay,
-                          std::span<const attack_choice> attacks, std::span<const damped_mode> new_modes) {
+                          std::span<const attack_choice> attacks, std::span<const damped_mode> new_modes,
+                          const plain_gram_factor* first_system) {
     waveform_fit f;
     std::vector<mode_shape>& shapes = f.shapes;
     std::vector<std::size_t> fixed;
@@ -280,7 +273,7 @@ waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sa
         const std::vector<float> known = render_fixed(p, fixed, sample_rate_hz, fit_n);
         for (std::size_t n = 0; n < fit_n; ++n) target[n] -= known[n];
     }
-    f.residual_energy = fit_shaped_amplitudes(target, sample_rate_hz, f.modes, shapes) * signal_energy(target);
+    f.residual_energy = fit_shaped_amplitudes(target, sample_rate_hz, f.modes, shapes, 1e-9, first_system) * signal_energy(target);
     const auto count = static_cast<double>(fit_n);
     for (std::size_t i = 0; i < f.modes.size(); ++i)
         f.energy.push_back(shapes[i].empty() ? mode_energy(f.modes[i], sample_rate_hz, count)
@@ -416,12 +409,19 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
         near_hz.empty() ? std::vector<damped_mode>{}
                         : subband_modes(signals, sub, params.stable_span_fraction * sub.span_s, near_hz, tol_hz);
     std::vector<damped_mode> new_modes = stable_modes(candidates, again, cluster_hz, params);
+    // The first pass fits the partials not fixed and the new modes, all plain: its system is
+    // factored once, for that fit and (extended) for the start search.
+    std::vector<std::size_t> fitted;
+    for (std::size_t k = 0; k < p.partials.size(); ++k)
+        if (roles[k] != role::fixed) fitted.push_back(k);
+    plain_gram_factor first_fit = first_fit_factor(p, fitted, decay, new_modes, sample_rate_hz, fit_n);
     // The modes' start at sample resolution; the phases of the partials the fit leaves alone then
     // count from it (cos(2 pi f (t + shift) + phase)).
     summary.start_shift_n = modes_start(p, note, sample_rate_hz, fit_n, decay, new_modes,
                                         {.max_shift_s = params.max_start_shift_s,
                                          .rising_partials = params.attacks.max_rising_partials,
-                                         .rise_decay_per_s = params.start_rise_decay_per_s});
+                                         .rise_decay_per_s = params.start_rise_decay_per_s,
+                                         .first_fit = &first_fit, .fitted_partials = fitted});
     if (summary.start_shift_n > 0) {
         note = note.subspan(summary.start_shift_n);
         const double shift_s = static_cast<double>(summary.start_shift_n) / sample_rate_hz;
@@ -432,7 +432,8 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
     waveform_fit f;
     std::vector<attack_choice> attacks(p.partials.size());
     for (int pass = 0;; ++pass) {
-        f = fit_waveform(p, note, sample_rate_hz, fit_n, roles, decay, attacks, new_modes);
+        f = fit_waveform(p, note, sample_rate_hz, fit_n, roles, decay, attacks, new_modes, pass == 0 ? &first_fit : nullptr);
+        if (pass == 0) first_fit = {};  // its memory (two 2K x 2K matrices) back
         if (pass == passes - 1) break;
         // The attacks are searched on this pass's residual and the roles revised from it; the
         // next pass fits both.

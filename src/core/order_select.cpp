@@ -29,21 +29,43 @@ order_values select_all(std::span<float> values, std::size_t k, bool below) {
 /// Ranks up to this are selected by keeping the smallest values found so far in order.
 constexpr std::size_t small_rank_limit = 8;
 
-/// The k-th (and with below the (k-1)-th) smallest for k < small_rank_limit: the k + 1 smallest
-/// so far kept sorted, one pass (a value enters only when it is below the largest kept).
-order_values select_small_rank(std::span<const float> values, std::size_t k, bool below) {
-    assert(k < small_rank_limit && k < values.size());
-    std::array<float, small_rank_limit> kept{};
-    std::copy_n(values.begin(), k + 1, kept.begin());
-    std::sort(kept.begin(), kept.begin() + static_cast<std::ptrdiff_t>(k) + 1);
-    for (std::size_t i = k + 1; i < values.size(); ++i) {
-        const float v = values[i];
-        if (!(v < kept[k])) continue;
-        std::size_t j = k;
-        for (; j > 0 && kept[j - 1] > v; --j) kept[j] = kept[j - 1];
-        kept[j] = v;
+/// The k-th (and with below the (k-1)-th) smallest for k = K < small_rank_limit: the K + 1
+/// smallest so far kept sorted, one pass; each value is passed down the kept ones by compare and
+/// swap (no branch on the data, so the order of the values costs nothing; a NaN passes through).
+template <std::size_t K>
+order_values select_small_rank(std::span<const float> values, bool below) {
+    static_assert(K < small_rank_limit);
+    assert(K < values.size());
+    std::array<float, K + 1> kept{};
+    std::copy_n(values.begin(), K + 1, kept.begin());
+    std::sort(kept.begin(), kept.end());
+    for (std::size_t i = K + 1; i < values.size(); ++i) {
+        float v = values[i];
+        for (std::size_t j = 0; j <= K; ++j) {
+            const bool under = v < kept[j];
+            const float low = under ? v : kept[j];
+            v = under ? kept[j] : v;
+            kept[j] = low;
+        }
     }
-    return {.kth = kept[k], .below = below ? kept[k - 1] : 0.0f};
+    if constexpr (K == 0) {
+        return {.kth = kept[0], .below = 0.0f};
+    } else {
+        return {.kth = kept[K], .below = below ? kept[K - 1] : 0.0f};
+    }
+}
+
+order_values select_small_rank(std::span<const float> values, std::size_t k, bool below) {
+    switch (k) {
+    case 0: return select_small_rank<0>(values, below);
+    case 1: return select_small_rank<1>(values, below);
+    case 2: return select_small_rank<2>(values, below);
+    case 3: return select_small_rank<3>(values, below);
+    case 4: return select_small_rank<4>(values, below);
+    case 5: return select_small_rank<5>(values, below);
+    case 6: return select_small_rank<6>(values, below);
+    default: assert(k == 7); return select_small_rank<7>(values, below);
+    }
 }
 
 }  // namespace

@@ -299,7 +299,7 @@ std::optional<partial_fit> fit_partial(const partial_track& track, const envelop
         out = fit_region(pts, expected, rough, peak, peak, end, params);
     }
 
-    fit_frequency_and_phase(pts, excess, peak, end, params, out);
+    if (params.frequency_and_phase) fit_frequency_and_phase(pts, excess, peak, end, params, out);
     return out;
 }
 

@@ -54,6 +54,9 @@ struct envelope_fit_params {
     double window_s = 0.0;
     /// How many reliable frames after the peak give the phase at t = 0.
     int phase_frames = 3;
+    /// Whether the fit finds the frequency and the phase at t = 0 too (a noise band's envelope
+    /// needs neither: its frames carry no phase).
+    bool frequency_and_phase = true;
 };
 
 struct partial_fit {

@@ -70,16 +70,16 @@ std::optional<std::complex<double>> plain_pair_sum(const plain_power& a, const p
 }
 
 /// The Gram matrix of the model's real columns for modes with sample shapes `own` and angular
-/// frequencies `omega` (rad per sample), in closed form (2K x 2K, K = own.size()).
-Eigen::MatrixXd shape_gram(std::span<const mode_shape> own, std::span<const double> omega, std::size_t count) {
+/// frequencies `omega` (rad per sample), in closed form (2K x 2K, K = own.size()): the columns of
+/// modes first_mode .. K - 1 and their mirror rows (all of it for first_mode 0).
+void fill_gram(std::span<const mode_shape> own, std::span<const double> omega, std::size_t count,
+               std::size_t first_mode, Eigen::Ref<Eigen::MatrixXd> gram) {
     const auto k_count = own.size();
     // Unknowns: theta = [a_0, b_0, a_1, b_1, ...] with amp_k = a_k + i b_k, so the model's columns
     // are u_k[n] = Re p_k[n] and v_k[n] = -Im p_k[n]. With p = p_j[n], q = p_k[n]:
     //   Re p Re q = Re(p q + p conj q) / 2,  Im p Im q = Re(p conj q - p q) / 2,
     //   Re p Im q = Im(p q - p conj q) / 2,  Im p Re q = Im(p q + p conj q) / 2,
     // and sum p q = sum a_j a_k exp(i (w_j + w_k) n), sum p conj q the same with w_j - w_k.
-    const auto dim = static_cast<Eigen::Index>(2 * k_count);
-    Eigen::MatrixXd gram(dim, dim);
     const std::vector<plain_power> plain = plain_powers(own, omega, count);
     const auto pair_sum = [&](std::size_t j, std::size_t k, bool conj_k) {
         if (plain[j].plain && plain[k].plain) {
@@ -87,8 +87,8 @@ Eigen::MatrixXd shape_gram(std::span<const mode_shape> own, std::span<const doub
         }
         return shape_pair_sum(own[j], own[k], {0.0, conj_k ? omega[j] - omega[k] : omega[j] + omega[k]});
     };
-    for (std::size_t j = 0; j < k_count; ++j) {
-        for (std::size_t k = j; k < k_count; ++k) {
+    for (std::size_t k = first_mode; k < k_count; ++k) {
+        for (std::size_t j = 0; j <= k; ++j) {
             const std::complex<double> s_pq = pair_sum(j, k, false);
             const std::complex<double> s_pcq = pair_sum(j, k, true);
             const double uu = 0.5 * (s_pq.real() + s_pcq.real());
@@ -106,7 +106,39 @@ Eigen::MatrixXd shape_gram(std::span<const mode_shape> own, std::span<const doub
             gram(a_k, a_j + 1) = -im_j_u_k;
         }
     }
+}
+
+Eigen::MatrixXd shape_gram(std::span<const mode_shape> own, std::span<const double> omega, std::size_t count) {
+    const auto dim = static_cast<Eigen::Index>(2 * own.size());
+    Eigen::MatrixXd gram(dim, dim);
+    fill_gram(own, omega, count, 0, gram);
     return gram;
+}
+
+/// Each mode's shape over count samples (exp(-d n / fs) where shapes[k] is empty) and angular
+/// frequency (rad per sample).
+void own_shapes(std::span<const damped_mode> modes, std::span<const mode_shape> shapes, double sample_rate_hz,
+                std::size_t count, std::vector<mode_shape>& own, std::vector<double>& omega) {
+    own.resize(modes.size());
+    omega.resize(modes.size());
+    for (std::size_t k = 0; k < modes.size(); ++k) {
+        assert(modes[k].freq_hz >= 0.0 && modes[k].freq_hz <= 0.5 * sample_rate_hz);
+        omega[k] = two_pi * modes[k].freq_hz / sample_rate_hz;
+        own[k] = shapes.empty() || shapes[k].empty() ? exponential_shape(-modes[k].decay_per_s / sample_rate_hz, count) : shapes[k];
+        assert(std::all_of(own[k].begin(), own[k].end(),
+                           [&](const shape_piece& piece) { return piece.start + piece.count <= count; }));
+    }
+}
+
+/// The first modes of `modes` are factor.modes (bitwise: freq_hz and decay_per_s), count and rate
+/// agree, and its factorization succeeded.
+bool leads(const plain_gram_factor& factor, std::span<const damped_mode> modes, double sample_rate_hz, std::size_t count) {
+    if (factor.lower.empty() || factor.count != count || factor.sample_rate_hz != sample_rate_hz ||
+        factor.modes.size() > modes.size())
+        return false;
+    return std::equal(factor.modes.begin(), factor.modes.end(), modes.begin(), [](const damped_mode& a, const damped_mode& b) {
+        return a.freq_hz == b.freq_hz && a.decay_per_s == b.decay_per_s;
+    });
 }
 
 /// Modes projected together in one pass over x: independent phasor chains the processor can
@@ -204,8 +236,31 @@ double fit_mode_amplitudes(std::span<const float> x, double sample_rate_hz, std:
     return fit_shaped_amplitudes(x, sample_rate_hz, modes, none, ridge_rel);
 }
 
+plain_gram_factor factor_plain_gram(std::span<const damped_mode> modes, double sample_rate_hz, std::size_t count,
+                                    double ridge_rel) {
+    assert(sample_rate_hz > 0.0);
+    plain_gram_factor out{.modes = {modes.begin(), modes.end()}, .count = count, .sample_rate_hz = sample_rate_hz,
+                          .ridge_rel = ridge_rel, .ridge = 0.0, .gram = {}, .lower = {}};
+    std::vector<mode_shape> own;
+    std::vector<double> omega;
+    own_shapes(modes, {}, sample_rate_hz, count, own, omega);
+    const auto dim = static_cast<Eigen::Index>(2 * modes.size());
+    out.gram.resize(static_cast<std::size_t>(dim * dim));
+    out.lower.resize(out.gram.size());
+    const Eigen::Map<Eigen::MatrixXd> gram(out.gram.data(), dim, dim);
+    fill_gram(own, omega, count, 0, gram);
+    out.ridge = dim > 0 ? ridge_rel * gram.diagonal().mean() : 0.0;
+    Eigen::Map<Eigen::MatrixXd> lower(out.lower.data(), dim, dim);
+    lower = gram;
+    lower.diagonal().array() += out.ridge;
+    // In place: the lower triangle becomes the factor (the same steps as Eigen::LLT<MatrixXd>).
+    const Eigen::LLT<Eigen::Ref<Eigen::MatrixXd>> llt(lower);
+    if (llt.info() != Eigen::Success) out.lower.clear();
+    return out;
+}
+
 double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
-                             std::span<const mode_shape> shapes, double ridge_rel) {
+                             std::span<const mode_shape> shapes, double ridge_rel, const plain_gram_factor* known) {
     assert(sample_rate_hz > 0.0);
     assert(shapes.size() == modes.size());
     const auto k_count = modes.size();
@@ -217,29 +272,36 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
         return 1.0;
     }
     // Mode k is p_k[n] = a_k[n] exp(i w_k n): a_k its shape, or exp(-d_k n / fs) when none is given.
-    std::vector<mode_shape> own(k_count);
-    std::vector<double> omega(k_count);
-    for (std::size_t k = 0; k < k_count; ++k) {
-        assert(modes[k].freq_hz >= 0.0 && modes[k].freq_hz <= 0.5 * sample_rate_hz);
-        omega[k] = two_pi * modes[k].freq_hz / sample_rate_hz;
-        own[k] = shapes[k].empty() ? exponential_shape(-modes[k].decay_per_s / sample_rate_hz, n_count) : shapes[k];
-        assert(std::all_of(own[k].begin(), own[k].end(),
-                           [&](const shape_piece& piece) { return piece.start + piece.count <= n_count; }));
-    }
-    const Eigen::MatrixXd gram_exact = shape_gram(own, omega, n_count);
-    Eigen::MatrixXd gram = gram_exact;
+    std::vector<mode_shape> own;
+    std::vector<double> omega;
+    own_shapes(modes, shapes, sample_rate_hz, n_count, own, omega);
     const Eigen::VectorXd rhs = shape_projections(x, sample_rate_hz, modes, shapes, own, omega);
-    const double ridge = ridge_rel * gram.diagonal().mean();
-    gram.diagonal().array() += ridge;
-    // Cholesky (blocked: the ridged Gram matrix is positive definite); LDLT with pivoting should
-    // rounding make it fail.
-    const Eigen::LLT<Eigen::MatrixXd> llt(gram);
-    const Eigen::VectorXd theta = llt.info() == Eigen::Success ? Eigen::VectorXd(llt.solve(rhs))
-                                                               : Eigen::VectorXd(gram.ldlt().solve(rhs));
+    const auto dim = static_cast<Eigen::Index>(2 * k_count);
+    Eigen::VectorXd theta, g_theta;  // the solution and G theta (G without the ridge)
+    const bool reuse = known != nullptr && known->modes.size() == k_count && known->ridge_rel == ridge_rel &&
+                       std::all_of(shapes.begin(), shapes.end(), [](const mode_shape& a) { return a.empty(); }) &&
+                       leads(*known, modes, sample_rate_hz, n_count);
+    if (reuse) {
+        // LLT::solve's steps on the kept factor: L y = rhs, then L^T theta = y.
+        const Eigen::Map<const Eigen::MatrixXd> lower(known->lower.data(), dim, dim);
+        theta = rhs;
+        lower.triangularView<Eigen::Lower>().solveInPlace(theta);
+        lower.transpose().triangularView<Eigen::Upper>().solveInPlace(theta);
+        g_theta = Eigen::Map<const Eigen::MatrixXd>(known->gram.data(), dim, dim) * theta;
+    } else {
+        const Eigen::MatrixXd gram_exact = shape_gram(own, omega, n_count);
+        Eigen::MatrixXd gram = gram_exact;
+        gram.diagonal().array() += ridge_rel * gram.diagonal().mean();
+        // Cholesky (blocked: the ridged Gram matrix is positive definite); LDLT with pivoting should
+        // rounding make it fail.
+        const Eigen::LLT<Eigen::MatrixXd> llt(gram);
+        theta = llt.info() == Eigen::Success ? Eigen::VectorXd(llt.solve(rhs)) : Eigen::VectorXd(gram.ldlt().solve(rhs));
+        g_theta = gram_exact * theta;
+    }
     for (std::size_t k = 0; k < k_count; ++k)
         modes[k].amp = {theta(static_cast<Eigen::Index>(2 * k)), theta(static_cast<Eigen::Index>(2 * k + 1))};
-    // Residual energy = |x|^2 - 2 theta.rhs + theta' G theta (G without the ridge).
-    const double residual = energy - 2.0 * theta.dot(rhs) + theta.dot(gram_exact * theta);
+    // Residual energy = |x|^2 - 2 theta.rhs + theta' G theta.
+    const double residual = energy - 2.0 * theta.dot(rhs) + theta.dot(g_theta);
     return std::clamp(residual / energy, 0.0, 1.0);
 }
 
@@ -257,6 +319,39 @@ void direct_projections(std::span<const float> x, std::size_t count, std::span<c
         for (std::size_t i = 0; i < g; ++i) which[i] = k + i;
         project_group(scratch, std::span(which).first(g), rho, omega, out);
     }
+}
+
+/// The Cholesky factor L (lower triangle) of the ridged Gram matrix of the sliding fit's plain
+/// modes; empty when the factorization fails. With params.leading ahead of the modes, its factor
+/// L11 is extended: with G = [G11 G12; G21 G22] (G11 its modes' block),
+///   L21 = (L11^-1 G12)^T,  L22 L22^T = G22 + ridge I - L21 L21^T.
+Eigen::MatrixXd sliding_factor(std::span<const damped_mode> modes, std::span<const mode_shape> own,
+                               std::span<const double> omega, double sample_rate_hz, std::size_t count,
+                               const sliding_fit_params& params) {
+    const auto dim = static_cast<Eigen::Index>(2 * modes.size());
+    Eigen::MatrixXd gram(dim, dim);
+    if (params.leading == nullptr || !leads(*params.leading, modes, sample_rate_hz, count)) {
+        fill_gram(own, omega, count, 0, gram);
+        gram.diagonal().array() += params.ridge_rel * gram.diagonal().mean();
+        // In place: the lower triangle becomes the factor.
+        const Eigen::LLT<Eigen::Ref<Eigen::MatrixXd>> llt(gram);
+        return llt.info() == Eigen::Success ? gram : Eigen::MatrixXd();
+    }
+    const plain_gram_factor& lead = *params.leading;
+    const auto n1 = static_cast<Eigen::Index>(2 * lead.modes.size()), n2 = dim - n1;
+    fill_gram(own, omega, count, lead.modes.size(), gram);  // the columns of the other modes (G12, G22)
+    const Eigen::Map<const Eigen::MatrixXd> l11(lead.lower.data(), n1, n1);
+    Eigen::MatrixXd l21t = gram.topRightCorner(n1, n2);
+    l11.triangularView<Eigen::Lower>().solveInPlace(l21t);
+    Eigen::MatrixXd rest = gram.bottomRightCorner(n2, n2);
+    rest.diagonal().array() += lead.ridge;
+    rest.noalias() -= l21t.transpose() * l21t;
+    const Eigen::LLT<Eigen::Ref<Eigen::MatrixXd>> llt22(rest);
+    if (llt22.info() != Eigen::Success) return {};
+    gram.topLeftCorner(n1, n1) = l11;
+    gram.bottomLeftCorner(n2, n1) = l21t.transpose();
+    gram.bottomRightCorner(n2, n2) = rest;
+    return gram;
 }
 
 }  // namespace
@@ -292,13 +387,11 @@ std::vector<double> sliding_fit_residuals(std::span<const float> x, double sampl
         z_count[k] = std::exp(std::complex<double>{rho * static_cast<double>(count),
                                                    std::remainder(omega[k] * static_cast<double>(count), two_pi)});
     }
-    Eigen::MatrixXd gram = shape_gram(own, omega, count);
-    gram.diagonal().array() += params.ridge_rel * gram.diagonal().mean();
-    const Eigen::LLT<Eigen::MatrixXd> llt(gram);
+    const Eigen::MatrixXd lower = sliding_factor(modes, own, omega, sample_rate_hz, count, params);
     // The explained energy theta.rhs = rhs' G^-1 rhs = |L^-1 rhs|^2 (0 when the factorization
     // failed): the projections of a block of starts, one column each, then one blocked triangular
     // solve for the block.
-    const bool solved = llt.info() == Eigen::Success;
+    const bool solved = lower.size() > 0;
     const auto dim = static_cast<Eigen::Index>(2 * k_count);
     constexpr std::size_t block = 32, exact_every = 128;
     Eigen::MatrixXd rhs(dim, static_cast<Eigen::Index>(std::min(block, starts)));
@@ -324,7 +417,7 @@ std::vector<double> sliding_fit_residuals(std::span<const float> x, double sampl
             }
         }
         auto part = rhs.leftCols(static_cast<Eigen::Index>(cols));
-        if (solved) llt.matrixL().solveInPlace(part);
+        if (solved) lower.triangularView<Eigen::Lower>().solveInPlace(part);
         for (std::size_t s = first; s < first + cols; ++s) {
             out[s] = std::max(0.0, out[s] - (solved ? part.col(static_cast<Eigen::Index>(s - first)).squaredNorm() : 0.0));
             least_cost = std::min(least_cost, before + out[s]);

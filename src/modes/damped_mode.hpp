@@ -38,12 +38,31 @@ std::complex<double> complex_expm1(std::complex<double> a);
 double fit_mode_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
                            double ridge_rel = 1e-9);
 
+/// The least-squares system of plain damped modes over `count` samples as fit_mode_amplitudes
+/// builds it (the Gram matrix, and the Cholesky factor of it with the ridge added), kept so that a
+/// fit of the same modes over the same count (fit_shaped_amplitudes) solves with it and a search
+/// over these modes and more (sliding_fit_residuals) extends it instead of factoring anew.
+struct plain_gram_factor {
+    std::vector<damped_mode> modes;  ///< freq_hz and decay_per_s of each (amp unused)
+    std::size_t count = 0;
+    double sample_rate_hz = 0.0;
+    double ridge_rel = 0.0;
+    double ridge = 0.0;              ///< ridge_rel times the Gram matrix's mean diagonal
+    std::vector<double> gram;        ///< 2K x 2K, column-major, without the ridge
+    std::vector<double> lower;       ///< the ridged matrix's Cholesky factor in its lower triangle; empty when it failed
+};
+plain_gram_factor factor_plain_gram(std::span<const damped_mode> modes, double sample_rate_hz, std::size_t count,
+                                    double ridge_rel = 1e-9);
+
 /// The same fit where mode k may have a shape of its own instead of exp(-d t): when shapes[k] is
 /// not empty it gives the real amplitude a_k[n] (modes/mode_shape.hpp; every piece within
 /// [0, x.size())), and the mode is Re(amp_k a_k[n] exp(i 2 pi f_k n / fs)) (decay ignored), so
 /// amp_k scales the shape. The Gram matrix stays closed-form (pieces); shapes.size() == modes.size().
+/// With `known` given for exactly these modes (every shape empty, the same freq_hz and decay_per_s,
+/// count x.size(), rate and ridge_rel), its factor is used: the same numbers as without.
 double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
-                             std::span<const mode_shape> shapes, double ridge_rel = 1e-9);
+                             std::span<const mode_shape> shapes, double ridge_rel = 1e-9,
+                             const plain_gram_factor* known = nullptr);
 
 struct sliding_fit_params {
     double ridge_rel = 1e-9;
@@ -52,6 +71,10 @@ struct sliding_fit_params {
     /// the least such cost found so far no later start can be less, so those are not solved
     /// (out = +infinity). The starts solved get the same values as without.
     bool skip_dominated = false;
+    /// When its modes are the first of the search's (the same freq_hz and decay_per_s, count and
+    /// rate), its factor is extended by the other modes' rows instead of factoring all anew; the
+    /// ridge is then its own (its ridge_rel times the mean diagonal of its modes' Gram matrix).
+    const plain_gram_factor* leading = nullptr;
 };
 
 /// Residual energy of the least-squares fit of the modes (plain damped exponentials, their freq_hz

@@ -6,6 +6,8 @@
 
 #include <Eigen/Dense>
 
+#include "modes/complex_eigenvalues.hpp"
+
 namespace wane {
 
 namespace {
@@ -30,6 +32,46 @@ cmatrix rotation(const cmatrix& u) {
     return phi;
 }
 
+/// cov(i, 0) = sum_{m < cols} y[m + i] conj y[m] for i < dim, four i at a time on real and
+/// imaginary parts: each sum over m in order, with the products of complex arithmetic
+/// (Re = ar br + ai bi, Im = ai br - ar bi for a conj b).
+void first_column(std::span<const std::complex<double>> y, Eigen::Index dim, Eigen::Index cols, cmatrix& cov) {
+    using lanes = Eigen::Array4d;
+    const auto n = static_cast<Eigen::Index>(y.size());
+    Eigen::ArrayXd re(n), im(n);
+    for (Eigen::Index k = 0; k < n; ++k) re(k) = y[static_cast<std::size_t>(k)].real(), im(k) = y[static_cast<std::size_t>(k)].imag();
+    Eigen::Index i = 0;
+    for (; i + 4 <= dim; i += 4) {
+        lanes acc_r = lanes::Zero(), acc_i = lanes::Zero();
+        for (Eigen::Index m = 0; m < cols; ++m) {
+            const lanes ar = re.segment<4>(m + i), ai = im.segment<4>(m + i);
+            const double br = re(m), bi = im(m);
+            acc_r += ar * br + ai * bi;
+            acc_i += ai * br - ar * bi;
+        }
+        for (Eigen::Index k = 0; k < 4; ++k) cov(i + k, 0) = {acc_r(k), acc_i(k)};
+    }
+    for (; i < dim; ++i) {
+        double acc_r = 0.0, acc_i = 0.0;
+        for (Eigen::Index m = 0; m < cols; ++m) {
+            acc_r += re(m + i) * re(m) + im(m + i) * im(m);
+            acc_i += im(m + i) * re(m) - re(m + i) * im(m);
+        }
+        cov(i, 0) = {acc_r, acc_i};
+    }
+}
+
+/// The largest |entry| of a (std::abs, as cwiseAbs gives it), found among the entries whose
+/// squared magnitude is within 1e-9 of the largest (one hypot per candidate, not per entry).
+double largest_magnitude(const cmatrix& a) {
+    double top = 0.0;
+    for (Eigen::Index k = 0; k < a.size(); ++k) top = std::max(top, std::norm(a(k)));
+    double out = 0.0;
+    for (Eigen::Index k = 0; k < a.size(); ++k)
+        if (std::norm(a(k)) >= top * (1.0 - 1e-9)) out = std::max(out, std::abs(a(k)));
+    return out;
+}
+
 }  // namespace
 
 std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<double>> y, const esprit_params& params) {
@@ -43,11 +85,7 @@ std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<doub
     // O(L N + L^2) instead of O(L^2 N).
     cmatrix cov(dim, dim);
     const auto at = [&](Eigen::Index k) { return y[static_cast<std::size_t>(k)]; };
-    for (Eigen::Index i = 0; i < dim; ++i) {
-        std::complex<double> acc{};
-        for (Eigen::Index m = 0; m < cols; ++m) acc += at(m + i) * std::conj(at(m));
-        cov(i, 0) = acc;
-    }
+    first_column(y, dim, cols, cov);
     for (Eigen::Index j = 1; j < dim; ++j)
         for (Eigen::Index i = j; i < dim; ++i)
             cov(i, j) = cov(i - 1, j - 1) - at(i - 1) * std::conj(at(j - 1)) + at(cols + i - 1) * std::conj(at(cols + j - 1));
@@ -57,7 +95,7 @@ std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<doub
     // entry of 1, Householder tridiagonalization R = Q T Q^H with T real, implicit QR steps on T),
     // with the QR's rotations gathered in a real matrix V (T = V D V^T) and only the wanted
     // columns of Q V formed below: the eigenvectors of R are the columns of Q V.
-    double scale = cov.cwiseAbs().maxCoeff();
+    double scale = largest_magnitude(cov);
     if (!(scale > 0.0)) scale = 1.0;
     const Eigen::Tridiagonalization<cmatrix> tri(cov / scale);
     Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig;
@@ -77,10 +115,7 @@ std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<doub
     if (order == 0) return {};
     const cmatrix u = tri.matrixQ() * eig.eigenvectors().rightCols(order).cast<std::complex<double>>();
     const cmatrix phi = rotation(u);
-    const Eigen::ComplexEigenSolver<cmatrix> poles(phi, false);
-    if (poles.info() != Eigen::Success) return {};
-    std::vector<std::complex<double>> out(poles.eigenvalues().data(), poles.eigenvalues().data() + order);
-    return out;
+    return complex_eigenvalues(std::span(phi.data(), static_cast<std::size_t>(phi.size())), static_cast<std::size_t>(order));
 }
 
 }  // namespace wane

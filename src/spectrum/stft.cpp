@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <cassert>
 #include <cstdlib>
+#include <memory>
 #include <mutex>
 #include <new>
 #include <numeric>
@@ -18,6 +19,10 @@ std::mutex& planner_lock() {
     static std::mutex lock;
     return lock;
 }
+
+struct fftw_free_buffer {
+    void operator()(float* p) const { fftwf_free(p); }
+};
 
 }  // namespace
 
@@ -33,10 +38,34 @@ int fast_fft_size(int min_size) {
     }
 }
 
+void real_fft(std::span<const float> input, int fft_size, std::span<std::complex<float>> out) {
+    assert(fft_size % 2 == 0 && static_cast<std::size_t>(fft_size) >= input.size());
+    const auto n = static_cast<std::size_t>(fft_size);
+    assert(out.size() == n / 2 + 1);
+    const std::unique_ptr<float, fftw_free_buffer> in(fftwf_alloc_real(n));
+    const std::unique_ptr<float, fftw_free_buffer> spectrum(fftwf_alloc_real(n + 2));  // n / 2 + 1 complex
+    if (!in || !spectrum) throw std::bad_alloc();
+    fftwf_plan plan = nullptr;
+    {
+        const std::lock_guard<std::mutex> hold(planner_lock());
+        plan = fftwf_plan_dft_r2c_1d(fft_size, in.get(), reinterpret_cast<fftwf_complex*>(spectrum.get()),  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): FFTW's complex is float[2]
+                                     FFTW_ESTIMATE);
+    }
+    if (plan == nullptr) throw std::bad_alloc();
+    std::copy(input.begin(), input.end(), in.get());
+    std::fill(in.get() + input.size(), in.get() + n, 0.0f);
+    fftwf_execute(plan);
+    {
+        const std::lock_guard<std::mutex> hold(planner_lock());
+        fftwf_destroy_plan(plan);
+    }
+    const float* bins = spectrum.get();  // re, im interleaved
+    for (std::size_t k = 0; k < out.size(); ++k) out[k] = {bins[2 * k], bins[2 * k + 1]};
+}
+
 stft_plan::stft_plan(const stft_config& config)
     : config_(config),
-      window_(make_window(config.window, config.window_length, window_symmetry::symmetric)),
-      correction_(config.window, config.window_length, config.fft_size) {
+      window_(make_window(config.window, config.window_length, window_symmetry::symmetric)) {
     assert(config.window_length % 2 == 1 && config.window_length >= 3);
     assert(config.fft_size % 2 == 0 && config.fft_size >= config.window_length);
     const double sum_w = std::accumulate(window_.begin(), window_.end(), 0.0);

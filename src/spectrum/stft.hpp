@@ -4,8 +4,10 @@
 
 #include <kiss_fftr.h>
 
+#include <complex>
 #include <cstdint>
 #include <memory>
+#include <optional>
 #include <span>
 #include <vector>
 
@@ -23,6 +25,12 @@ struct stft_config {
 
 /// Smallest even FFT size >= min_size whose factors are only 2, 3 and 5 (KissFFT's fast radices).
 int fast_fft_size(int min_size);
+
+/// One real block's spectrum on FFTW single precision (FFTW_ESTIMATE; the plan made and destroyed
+/// under the STFT's planner lock): input zero padded to fft_size (even, >= input.size()), bins
+/// 0 .. fft_size / 2 written to out (fft_size / 2 + 1 of them), unscaled. For one-off transforms
+/// of a whole span.
+void real_fft(std::span<const float> input, int fft_size, std::span<std::complex<float>> out);
 
 /// One STFT frame at a time. Made once per thread: the FFT state, window and buffers are allocated
 /// here and reused, so analyzing a frame allocates nothing. The FFTW plan is made (FFTW_ESTIMATE:
@@ -58,7 +66,12 @@ public:
     std::span<const float> window_samples() const { return window_; }
     /// 2 / sum(w): FFT magnitude to sinusoid amplitude.
     double amp_scale() const { return amp_scale_; }
-    const qifft_correction& correction() const { return correction_; }
+    /// The QIFFT correction of this window and FFT size, made on first use (the plans that only
+    /// measure power, the noise model's, never need it).
+    const qifft_correction& correction() const {
+        if (!correction_) correction_.emplace(config_.window, config_.window_length, config_.fft_size);
+        return *correction_;
+    }
 
 private:
     /// Windows the frame into the FFT input and runs the FFT (its output in spectrum_).
@@ -66,7 +79,7 @@ private:
     stft_config config_;
     std::vector<float> window_;
     double amp_scale_ = 0.0;
-    qifft_correction correction_;
+    mutable std::optional<qifft_correction> correction_;  // one plan per thread: no lock needed
     struct fftw_buffer_free {
         void operator()(void* p) const;
     };

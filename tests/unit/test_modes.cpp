@@ -12,6 +12,7 @@
 #include <Eigen/Dense>
 
 #include "core/units.hpp"
+#include "modes/complex_eigenvalues.hpp"
 #include "modes/damped_mode.hpp"
 #include "modes/esprit.hpp"
 #include "modes/mode_shape.hpp"
@@ -164,6 +165,67 @@ TEST_CASE("ESPRIT finds the poles of a noiseless sum of damped exponentials", "[
     }
 }
 
+namespace {
+
+/// An n x n complex matrix with entries uniform in [-1, 1) + i [-1, 1), drawn from the project's
+/// generator (stream 0 real parts, 1 imaginary), column-major.
+Eigen::MatrixXcd seeded_matrix(Eigen::Index n, std::uint64_t seed) {
+    Eigen::MatrixXcd a(n, n);
+    for (Eigen::Index k = 0; k < n * n; ++k)
+        a(k) = {hashed_signed(seed, 0, static_cast<std::uint64_t>(k)), hashed_signed(seed, 1, static_cast<std::uint64_t>(k))};
+    return a;
+}
+
+}  // namespace
+
+TEST_CASE("complex_eigenvalues equal Eigen's ComplexEigenSolver on random and ESPRIT-like matrices", "[modes]") {
+    const auto n = static_cast<Eigen::Index>(GENERATE(1, 2, 3, 5, 8, 13, 24, 31));
+    const std::uint64_t seed = GENERATE(1u, 2u, 3u);
+    const bool espritlike = GENERATE(false, true);
+    // ESPRIT-like: S diag(z) S^-1 with poles z just inside the unit circle (a rotation matrix
+    // Phi of well-separated damped modes), S random; else a plain random matrix.
+    Eigen::MatrixXcd a = seeded_matrix(n, seed);
+    if (espritlike) {
+        Eigen::VectorXcd z(n);
+        for (Eigen::Index k = 0; k < n; ++k)
+            z(k) = std::polar(0.9 + 0.099 * (0.5 + 0.5 * hashed_signed(seed, 2, static_cast<std::uint64_t>(k))),
+                              pi * hashed_signed(seed, 3, static_cast<std::uint64_t>(k)));
+        const Eigen::MatrixXcd s = a + 4.0 * Eigen::MatrixXcd::Identity(n, n);
+        a = s * z.asDiagonal() * s.inverse();
+    }
+    const std::vector<std::complex<double>> got = complex_eigenvalues(std::span(a.data(), static_cast<std::size_t>(a.size())), static_cast<std::size_t>(n));
+    const Eigen::ComplexEigenSolver<Eigen::MatrixXcd> ref(a, false);
+    REQUIRE(ref.info() == Eigen::Success);
+    REQUIRE(got.size() == static_cast<std::size_t>(n));
+    // Eigen orders its eigenvalues by ascending magnitude; so does complex_eigenvalues. The same
+    // QR steps give the same values up to rounding: within 1e-12 of the matrix's norm.
+    const double norm = a.norm();
+    for (Eigen::Index k = 0; k < n; ++k) {
+        const std::complex<double> want = ref.eigenvalues()(k), have = got[static_cast<std::size_t>(k)];
+        CAPTURE(n, seed, espritlike, k, have, want);
+        CHECK(std::abs(have - want) <= 1e-12 * norm);
+        if (k > 0) CHECK(std::abs(got[static_cast<std::size_t>(k - 1)]) <= std::abs(have));
+    }
+}
+
+TEST_CASE("complex_eigenvalues recover the known poles of a similarity transform", "[modes]") {
+    // Exact ground truth: A = S diag(z) S^-1 has the eigenvalues z (S well conditioned).
+    const Eigen::Index n = 24;
+    Eigen::VectorXcd z(n);
+    for (Eigen::Index k = 0; k < n; ++k) z(k) = std::polar(0.5 + 0.02 * static_cast<double>(k), 0.25 * static_cast<double>(k));
+    const Eigen::MatrixXcd s = seeded_matrix(n, 7) + 5.0 * Eigen::MatrixXcd::Identity(n, n);
+    const Eigen::MatrixXcd a = s * z.asDiagonal() * s.inverse();
+    const std::vector<std::complex<double>> got = complex_eigenvalues(std::span(a.data(), static_cast<std::size_t>(a.size())), static_cast<std::size_t>(n));
+    REQUIRE(got.size() == static_cast<std::size_t>(n));
+    // Magnitudes 0.5 + 0.02 k ascend with k, so got[k] is z_k.
+    for (Eigen::Index k = 0; k < n; ++k) {
+        CAPTURE(k, got[static_cast<std::size_t>(k)], z(k));
+        CHECK(std::abs(got[static_cast<std::size_t>(k)] - z(k)) < 1e-10);
+    }
+    const std::complex<double> bad[] = {{1.0, 0.0}, {std::nan(""), 0.0}, {0.0, 0.0}, {1.0, 0.0}};
+    CHECK(complex_eigenvalues(bad, 2).empty());
+}
+
 TEST_CASE("subband search finds a short mode of a struck bar among long partials", "[modes]") {
     const double fs = 48000.0;
     // Long partials at 440 and 1760 Hz and a short mode (T60 30 ms) at 1213 Hz, 10 dB under the
@@ -285,6 +347,45 @@ TEST_CASE("sliding fit residuals equal a fresh least-squares fit on every span",
         // about that share) and rounding: 1e-8 of the span's energy.
         CAPTURE(s, residual[s], want, energy);
         CHECK_THAT(residual[s], WithinAbs(want, 1e-8 * energy));
+    }
+}
+
+TEST_CASE("a kept factor of the leading modes, extended by more modes, gives the residuals of a dense QR fit", "[modes]") {
+    const double fs = 32000.0;
+    // Five modes in the signal (two 6 Hz apart); the factor is kept for the first `lead` of them,
+    // the search adds the rest (with a companion that dies fast at the first one's frequency).
+    const std::vector<damped_mode> truth{{.freq_hz = 196.0, .decay_per_s = 3.0, .amp = {0.4, -0.2}},
+                                         {.freq_hz = 587.0, .decay_per_s = 0.0, .amp = {0.0, 0.1}},
+                                         {.freq_hz = 593.0, .decay_per_s = 20.0, .amp = {0.05, 0.02}},
+                                         {.freq_hz = 2411.0, .decay_per_s = 400.0, .amp = {0.3, 0.3}},
+                                         {.freq_hz = 7000.0, .decay_per_s = 150.0, .amp = {-0.1, 0.05}}};
+    const std::size_t lead = GENERATE(std::size_t{0}, std::size_t{1}, std::size_t{3}, std::size_t{5});
+    const std::size_t count = 2000, starts = 160;
+    const auto x = render_modes(truth, fs, count + starts, 0.01, 11);
+    std::vector<damped_mode> modes = truth;
+    modes.push_back({.freq_hz = 196.0, .decay_per_s = 46.0});
+    const plain_gram_factor kept = factor_plain_gram(std::span(modes).first(lead), fs, count);
+    const std::vector<double> residual = sliding_fit_residuals(x, fs, modes, count, starts, {.leading = &kept});
+    REQUIRE(residual.size() == starts);
+    for (const std::size_t s : {std::size_t{0}, std::size_t{1}, std::size_t{128}, std::size_t{159}}) {
+        const std::span<const float> span(x.data() + s, count);
+        double energy = 0.0;
+        for (float v : span) energy += double(v) * double(v);
+        const double want = dense_qr_amplitudes(span, fs, modes).residual * energy;
+        // The ridge (1e-9 of the Gram diagonal) and rounding: 1e-7 of the span's energy.
+        CAPTURE(lead, s, residual[s], want, energy);
+        CHECK_THAT(residual[s], WithinAbs(want, 1e-7 * energy));
+    }
+    // A fit of exactly the kept modes solves with the kept factor: the same numbers as without.
+    const std::span<const float> first(x.data(), count);
+    std::vector<damped_mode> with(modes.begin(), modes.begin() + static_cast<std::ptrdiff_t>(lead)), without = with;
+    const std::vector<mode_shape> plain(lead);
+    const double r_with = fit_shaped_amplitudes(first, fs, with, plain, 1e-9, &kept);
+    const double r_without = fit_shaped_amplitudes(first, fs, without, plain, 1e-9);
+    CHECK(r_with == r_without);
+    for (std::size_t k = 0; k < lead; ++k) {
+        CAPTURE(k, with[k].amp, without[k].amp);
+        CHECK(with[k].amp == without[k].amp);
     }
 }
 

@@ -8,6 +8,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdint>
 #include <vector>
 
 #include "analysis/analyze.hpp"
@@ -152,9 +153,12 @@ TEST_CASE("a patch's noise has the same band energies and peak at 32, 44.1, 48 a
 }
 
 TEST_CASE("the peak match's gain holds for the default 48 kHz render of a 44.1 kHz note", "[noise][rates]") {
-    // A plucked string's copy: one partial at 110 Hz and loud low noise bands. The gain matches
-    // the copy at the recording's rate (44.1 kHz) to the recording's peak (-6 dBFS); the default
-    // render (48 kHz) must peak there too, within 0.2 dB, as it plays the same noise.
+    // A plucked string's copy: one partial at 110 Hz and loud low noise bands. The gain brings
+    // the copy's expected peak (the median of the draws' peaks at 48 kHz, analysis/peak_match.hpp)
+    // within peak_tolerance_db of the recording's peak (-6 dBFS, recorded at 44.1 kHz); the
+    // default render (48 kHz)
+    // must peak where the default render at 44.1 kHz does, within 0.2 dB, as it plays the same
+    // noise.
     patch p;
     p.note.length_s = 1.5;
     p.partials.push_back({.freq_hz = 110.0, .harmonic = 1, .phase_rad = 0.0,
@@ -164,10 +168,17 @@ TEST_CASE("the peak match's gain holds for the default 48 kHz render of a 44.1 k
     const double source_rate_hz = 44100.0;
     std::vector<float> note(static_cast<std::size_t>(source_rate_hz), 0.0f);
     note[100] = 0.5f;  // -6.02 dBFS
-    p.note.gain_db = peak_matching_gain_db(p, note, source_rate_hz);
+    const peak_match_params params{};
+    p.note.gain_db = peak_matching_gain_db(p, note, source_rate_hz, params);
+    std::vector<double> draws_db;
+    for (int k = 0; k < params.draws; ++k)
+        draws_db.push_back(peak_db(render_patch(p, {.sample_rate_hz = default_output_rate_hz,
+                                                    .noise_seed = params.first_seed + static_cast<std::uint64_t>(k)})));
+    std::sort(draws_db.begin(), draws_db.end());
+    const double median_db = draws_db[draws_db.size() / 2];
     const double source_db = peak_db(render_patch(p, {.sample_rate_hz = source_rate_hz}));
     const double default_db = peak_db(render_patch(p, {.sample_rate_hz = default_output_rate_hz}));
-    CAPTURE(p.note.gain_db, source_db, default_db);
-    CHECK(std::abs(source_db - 20.0 * std::log10(0.5)) < 0.05);
+    CAPTURE(p.note.gain_db, median_db, source_db, default_db);
+    CHECK(std::abs(median_db - 20.0 * std::log10(0.5)) < peak_tolerance_db + 0.001);
     CHECK(std::abs(default_db - source_db) < 0.2);
 }

@@ -205,6 +205,33 @@ TEST_CASE("STFT bins equal a direct DFT in long double of the same zero-phase fr
     }
 }
 
+TEST_CASE("real_fft of a zero-padded block equals a direct DFT in long double", "[spectrum][stft]") {
+    // X[k] = sum_{n < size} x[n] exp(-i 2 pi k n / M): the input padded with zeros to M points.
+    const int fft_size = GENERATE(1000, 2400, 7290);
+    const int size = GENERATE(1, 333, 1000);
+    splitmix64 rng{4242};
+    const test::uniform_draw<float> uni{-1.0f, 1.0f};
+    std::vector<float> x(static_cast<std::size_t>(size));
+    for (float& v : x) v = uni(rng);
+    std::vector<std::complex<float>> bins(static_cast<std::size_t>(fft_size) / 2 + 1);
+    real_fft(x, fft_size, bins);
+    long double scale = 0.0L;
+    for (const float v : x) scale += std::abs(static_cast<long double>(v));
+    for (int k = 0; k <= fft_size / 2; k += fft_size / 40 + 3) {
+        std::complex<long double> ref{};
+        for (int n = 0; n < size; ++n) {
+            const long double arg = -2.0L * 3.14159265358979323846264338327950288L *
+                                    static_cast<long double>((static_cast<long long>(k) * n) % fft_size) /
+                                    static_cast<long double>(fft_size);
+            ref += static_cast<long double>(x[static_cast<std::size_t>(n)]) * std::complex<long double>{std::cos(arg), std::sin(arg)};
+        }
+        const std::complex<long double> got{bins[static_cast<std::size_t>(k)].real(), bins[static_cast<std::size_t>(k)].imag()};
+        CAPTURE(fft_size, size, k, static_cast<double>(std::abs(got - ref)), static_cast<double>(scale));
+        // float samples through a float FFT: errors of a few float epsilons of sum |x|.
+        CHECK(std::abs(got - ref) < 1e-5L * scale);
+    }
+}
+
 TEST_CASE("STFT plans made and run in two threads at once give the bins of a plan run alone", "[spectrum][stft]") {
     std::vector<float> x(9000);
     splitmix64 rng{99};

@@ -1,0 +1,155 @@
+#include "analysis/peak_match.hpp"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+#include <cstddef>
+#include <vector>
+
+#include "core/patch_numbers.hpp"
+#include "core/units.hpp"
+#include "synthesis/noise_render.hpp"
+#include "synthesis/render.hpp"
+
+namespace wane {
+
+namespace {
+
+/// Peak |sample| of x as a level (0 dBFS = 1).
+double peak_level_db(std::span<const float> x) {
+    float peak = 0.0f;
+    for (float v : x) peak = std::max(peak, std::abs(v));
+    return to_level(amp_lin{static_cast<double>(peak)}).db;
+}
+
+/// One past the last sample of x within peak_window_db of x's peak.
+std::size_t loud_end(std::span<const float> x) {
+    const double peak_db = peak_level_db(x);
+    if (!std::isfinite(peak_db)) return 0;
+    const auto floor_lin = static_cast<float>(to_amp(level_db{peak_db - peak_window_db}).lin);
+    std::size_t end = x.size();
+    while (end > 0 && std::abs(x[end - 1]) < floor_lin) --end;
+    return end;
+}
+
+/// The median over the draws of the peak (dB) of q rendered at rate (q.note.gain_db = 0).
+/// default_render: q's render with the default seed (the full render, not repeated).
+double expected_peak_db(const patch& q, double rate, std::span<const float> default_render,
+                        const peak_match_params& params) {
+    assert(params.draws >= 1);
+    const double default_db = peak_level_db(default_render);
+    if (q.noise.empty()) return default_db;
+    // Other draws peak where the default one comes within peak_window_db of its peak (a draw
+    // would have to add that much more there): the partials and the draws over that span only.
+    const partial_renderer partials_of(q, {.sample_rate_hz = rate});
+    const std::size_t frames = partials_of.frames();
+    assert(frames == default_render.size());
+    const auto margin = static_cast<std::size_t>(std::llround(peak_window_margin_s * rate));
+    const std::size_t span = std::min(frames, loud_end(default_render) + margin);
+    std::vector<float> partials(span);
+    partials_of.render(0, partials);
+    const auto fade_from = frames - std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * rate)));
+    std::vector<double> peaks_db;
+    std::vector<float> noise(span);
+    for (int k = 0; k < params.draws; ++k) {
+        const std::uint64_t seed = params.first_seed + static_cast<std::uint64_t>(k);
+        if (seed == params.default_seed) {
+            peaks_db.push_back(default_db);
+            continue;
+        }
+        std::fill(noise.begin(), noise.end(), 0.0f);
+        add_noise_bands(q.noise, {.sample_rate_hz = rate, .gain_db = 0.0, .seed = seed}, noise);
+        float peak = 0.0f;
+        for (std::size_t n = 0; n < span; ++n) {
+            // The end fade covers the noise too (render_patch applies it to the sum).
+            const float g = n < fade_from ? 1.0f : static_cast<float>(end_fade_gain(n, frames, rate));
+            peak = std::max(peak, std::abs(partials[n] + g * noise[n]));
+        }
+        peaks_db.push_back(to_level(amp_lin{static_cast<double>(peak)}).db);
+    }
+    const auto mid = peaks_db.begin() + static_cast<std::ptrdiff_t>(peaks_db.size() / 2);
+    std::nth_element(peaks_db.begin(), mid, peaks_db.end());
+    return *mid;
+}
+
+/// The patch as the file keeps it (numbers rounded: a copy within 0.1 dB of full scale can move
+/// by that much when its phases and levels are rounded), without its own gain.
+patch as_written(const patch& p) {
+    patch q = p;
+    patch_numbers::round_to_file_precision(q);
+    q.note.gain_db = 0.0;
+    return q;
+}
+
+/// The default draw's renders (q, gain 0): at the source rate and at default_output_rate_hz
+/// (the noise is one signal at every rate, but the partials' sampled peaks and the rate
+/// conversion's filter move the peak by a few hundredths of a dB).
+struct default_renders {
+    std::vector<float> output;  ///< at default_output_rate_hz
+    double source_db = 0.0;     ///< peak at the source rate (its own rate when renderable, else 48 kHz)
+    double output_db = 0.0;     ///< peak of output
+
+    /// The gain that keeps both default_render_margin_db under full scale.
+    double safe_gain_db() const {
+        const double peak_db = std::max(source_db, output_db);
+        return std::isfinite(peak_db) ? -default_render_margin_db - peak_db : infinity;
+    }
+};
+
+bool renderable_at(double rate) { return rate >= min_render_rate_hz && rate <= max_render_rate_hz; }
+
+default_renders render_default(const patch& q, double sample_rate_hz, const peak_match_params& params) {
+    default_renders d;
+    d.output = render_patch(q, {.sample_rate_hz = default_output_rate_hz, .noise_seed = params.default_seed});
+    d.output_db = peak_level_db(d.output);
+    d.source_db = sample_rate_hz != default_output_rate_hz && renderable_at(sample_rate_hz)
+                      ? peak_level_db(render_patch(q, {.sample_rate_hz = sample_rate_hz, .noise_seed = params.default_seed}))
+                      : d.output_db;
+    return d;
+}
+
+}  // namespace
+
+peak_match_result match_copy_peak(const patch& p, std::span<const float> note, double sample_rate_hz,
+                                  const peak_match_params& params) {
+    const patch q = as_written(p);
+    const double recording_db = peak_level_db(note);
+    const double target_db = std::min(recording_db, -peak_headroom_db);
+    const default_renders d = render_default(q, sample_rate_hz, params);
+    // The draws at the default output rate: no rate conversion, and the rate a copy plays at.
+    const double expected_db = expected_peak_db(q, default_output_rate_hz, d.output, params);
+    if (!std::isfinite(expected_db)) return {};
+    peak_match_result r;
+    // The fitted level (gain 0) unless the expected peak lies more than the tolerance off.
+    const double to_target_db = target_db - expected_db;
+    r.expected_gain_db = std::min(std::clamp(0.0, to_target_db - peak_tolerance_db, to_target_db + peak_tolerance_db),
+                                  max_peak_raise_db);
+    // A quiet default draw: its render still peaks within max_default_peak_miss_db of the
+    // recording (which may peak over the target).
+    const double lowest_db = std::isfinite(d.source_db)
+                                 ? std::min(recording_db - max_default_peak_miss_db - d.source_db, max_peak_raise_db)
+                                 : -infinity;
+    r.gain_db = std::min(std::max(r.expected_gain_db, lowest_db), d.safe_gain_db());
+    r.held_down_db = std::max(0.0, r.expected_gain_db - r.gain_db);
+    return r;
+}
+
+double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz,
+                             const peak_match_params& params) {
+    return match_copy_peak(p, note, sample_rate_hz, params).gain_db;
+}
+
+void match_peak(patch& p, std::span<const float> note, double sample_rate_hz, const peak_match_params& params) {
+    const peak_match_result first = match_copy_peak(p, note, sample_rate_hz, params);
+    p.note.gain_db = first.gain_db;
+    double held_down_db = first.held_down_db;
+    const auto max_steps = static_cast<int>(std::floor(max_noise_cut_db / noise_step_db));
+    for (int step = 0; step < max_steps && held_down_db > max_noise_hold_db && !p.noise.empty(); ++step) {
+        for (noise_band& b : p.noise) b.env.peak = level_db{b.env.peak.db - noise_step_db};
+        // The partials keep the expected peak's gain; only the default draw's limit is redone.
+        p.note.gain_db = std::min(first.expected_gain_db, render_default(as_written(p), sample_rate_hz, params).safe_gain_db());
+        held_down_db = first.expected_gain_db - p.note.gain_db;
+    }
+}
+
+}  // namespace wane

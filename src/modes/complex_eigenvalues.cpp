@@ -1,0 +1,133 @@
+#include "modes/complex_eigenvalues.hpp"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+#include <utility>
+
+#include <Eigen/Dense>
+
+namespace wane {
+
+namespace {
+
+using cmatrix = Eigen::MatrixXcd;
+using index = Eigen::Index;
+
+/// |re| + |im|: the 1-norm of a complex number, which the deflation test and the shift use.
+double norm1(std::complex<double> v) { return std::abs(v.real()) + std::abs(v.imag()); }
+
+/// The rotation [x; y] <- [c x + conj(s) y; c y - s x] of two complex sequences, x and y stepped
+/// by `stride`: c real, s complex, on real and imaginary parts (the products and sums of complex
+/// arithmetic, written out).
+void rotate(std::complex<double>* x, std::complex<double>* y, index count, index stride, double c,
+            std::complex<double> s) {
+    const double sr = s.real(), si = s.imag();
+    for (index k = 0; k < count; ++k, x += stride, y += stride) {
+        const double xr = x->real(), xi = x->imag(), yr = y->real(), yi = y->imag();
+        *x = {c * xr + (sr * yr + si * yi), c * xi + (sr * yi - si * yr)};
+        *y = {c * yr - (sr * xr - si * xi), c * yi - (sr * xi + si * xr)};
+    }
+}
+
+/// Hessenberg matrix h (n x n) with the QR steps' bookkeeping.
+struct hessenberg {
+    cmatrix h;
+    std::complex<double>& at(index row, index col) { return h(row, col); }
+    std::complex<double> at(index row, index col) const { return h(row, col); }
+
+    /// Subdiagonal entry (i + 1, i) negligible beside its two diagonal neighbours (then set to 0).
+    bool negligible(index i) {
+        const double d = norm1(at(i, i)) + norm1(at(i + 1, i + 1));
+        if (norm1(at(i + 1, i)) <= d * Eigen::NumTraits<double>::epsilon()) {
+            at(i + 1, i) = 0.0;
+            return true;
+        }
+        return false;
+    }
+
+    /// The shift for a step on the block ending at row iu, the iter-th on this eigenvalue: the
+    /// eigenvalue of the trailing 2 x 2 block nearer its last diagonal entry, the 2 x 2 scaled to
+    /// a 1-norm of 1 first; after 10 and 20 steps the exceptional shift of comqr.
+    std::complex<double> shift(index iu, int iter) const {
+        if ((iter == 10 || iter == 20) && iu >= 2) return std::abs(at(iu, iu - 1).real()) + std::abs(at(iu - 1, iu - 2).real());
+        Eigen::Matrix2cd t;
+        t << at(iu - 1, iu - 1), at(iu - 1, iu), at(iu, iu - 1), at(iu, iu);
+        const double normt = t.cwiseAbs().sum();
+        t /= normt;
+        const std::complex<double> b = t.coeff(0, 1) * t.coeff(1, 0);
+        const std::complex<double> c = t.coeff(0, 0) - t.coeff(1, 1);
+        const std::complex<double> disc = std::sqrt(c * c + 4.0 * b);
+        const std::complex<double> det = t.coeff(0, 0) * t.coeff(1, 1) - b;
+        const std::complex<double> trace = t.coeff(0, 0) + t.coeff(1, 1);
+        std::complex<double> e1 = (trace + disc) / 2.0;
+        std::complex<double> e2 = (trace - disc) / 2.0;
+        // The larger root from the quadratic formula, the smaller from the determinant (no
+        // cancellation); both 0 only when det is.
+        if (norm1(e1) > norm1(e2)) e2 = det / e1;
+        else if (norm1(e2) != 0.0) e1 = det / e2;
+        return normt * (norm1(e1 - t.coeff(1, 1)) < norm1(e2 - t.coeff(1, 1)) ? e1 : e2);
+    }
+
+    /// One QR step on the active block [il, iu]: the first rotation makes a bulge at (il + 2, il),
+    /// the next ones chase it down and out. Each rotation acts on two rows over the block's columns
+    /// from the bulge on, and on two columns over the block's rows down to the bulge.
+    void step(index il, index iu, std::complex<double> mu) {
+        Eigen::JacobiRotation<std::complex<double>> rot;
+        for (index i = il; i < iu; ++i) {
+            index from_col = il;
+            if (i == il) {
+                rot.makeGivens(at(il, il) - mu, at(il + 1, il));
+            } else {
+                rot.makeGivens(at(i, i - 1), at(i + 1, i - 1), &at(i, i - 1));
+                at(i + 1, i - 1) = 0.0;
+                from_col = i;
+            }
+            const double c = rot.c().real();
+            // Rows i, i + 1 by the adjoint rotation (c, -s); columns i, i + 1 by the rotation's
+            // transpose (c, -conj(s)).
+            rotate(&at(i, from_col), &at(i + 1, from_col), iu - from_col + 1, h.rows(), c, -rot.s());
+            rotate(&at(il, i), &at(il, i + 1), std::min(i + 2, iu) - il + 1, 1, c, -std::conj(rot.s()));
+        }
+    }
+};
+
+}  // namespace
+
+std::vector<std::complex<double>> complex_eigenvalues(std::span<const std::complex<double>> a, std::size_t n) {
+    assert(a.size() == n * n);
+    if (n == 0) return {};
+    if (!std::all_of(a.begin(), a.end(), [](std::complex<double> v) { return std::isfinite(v.real()) && std::isfinite(v.imag()); }))
+        return {};
+    const auto size = static_cast<index>(n);
+    const Eigen::Map<const cmatrix> in(a.data(), size, size);
+    hessenberg work{.h = size > 1 ? cmatrix(Eigen::HessenbergDecomposition<cmatrix>(in).matrixH()) : cmatrix(in)};
+    // Rows iu + 1 .. n - 1 are done (their eigenvalues on the diagonal), rows il .. iu the
+    // active block (work.at(il, il - 1) == 0).
+    const long max_steps = 30L * size;
+    long steps = 0;
+    int iter = 0;  // steps on the current bottom eigenvalue
+    for (index iu = size - 1;;) {
+        while (iu > 0 && work.negligible(iu - 1)) {
+            iter = 0;
+            --iu;
+        }
+        if (iu == 0) break;
+        if (++steps > max_steps) return {};
+        ++iter;
+        index il = iu - 1;
+        while (il > 0 && !work.negligible(il - 1)) --il;
+        work.step(il, iu, work.shift(iu, iter));
+    }
+    std::vector<std::complex<double>> out(n);
+    for (std::size_t i = 0; i < n; ++i) out[i] = work.at(static_cast<index>(i), static_cast<index>(i));
+    // Ascending magnitude by selection (the first least of the rest each time).
+    for (std::size_t i = 0; i < n; ++i) {
+        const auto least = std::min_element(out.begin() + static_cast<std::ptrdiff_t>(i), out.end(),
+                                            [](std::complex<double> x, std::complex<double> y) { return std::abs(x) < std::abs(y); });
+        std::iter_swap(out.begin() + static_cast<std::ptrdiff_t>(i), least);
+    }
+    return out;
+}
+
+}  // namespace wane
