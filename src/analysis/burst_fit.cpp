@@ -216,14 +216,15 @@ std::optional<burst_fit> fit_burst(const burst_frames& f, const burst_fit_params
 
     const window_power wp(f.window);
     const double attack_s = std::max(0.0, static_cast<double>(loudest) * f.hop_s - 0.5 * f.window_s);
+    if (attack_s > params.max_attack_s + 1e-9) return std::nullopt;
     const t60_search search{.frames = &f, .smoothed = smoothed, .wp = &wp, .end = end, .attack_s = attack_s, .params = &params};
     // Each hold's best T60 on the grid; the no-hold fit and the best held ones refined. A hold is
     // kept only where it pays for its parameter by the Bayesian information criterion (Schwarz
     // 1978), frames counted as independent at half a window apart (the Hann window's frames 1 ms
     // apart share most of their samples).
     std::vector<burst_candidate> held;
-    for (double hold_s = params.hold_step_s; hold_s <= params.max_hold_s + 1e-12; hold_s += params.hold_step_s)
-        held.push_back(search.on_grid(hold_s));
+    const auto holds = static_cast<int>(std::floor(params.max_hold_s / params.hold_step_s + 1e-9));
+    for (int k = 1; k <= holds; ++k) held.push_back(search.on_grid(k * params.hold_step_s));
     const auto refined_count = std::min<std::size_t>(held.size(), refined_holds);
     std::partial_sort(held.begin(), held.begin() + static_cast<std::ptrdiff_t>(refined_count), held.end(),
                       [](const burst_candidate& a, const burst_candidate& b) { return a.e.sq_db2 < b.e.sq_db2; });

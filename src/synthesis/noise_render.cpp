@@ -113,8 +113,10 @@ void fill_amplitude(const band_bins& b, double t0_s, double dt_s, std::span<floa
         }
         double a = to_amp(level_db{piece->start_level.db + piece->slope_db_per_s * (t - piece->start_s)}).lin;
         const double ratio = to_amp(level_db{piece->slope_db_per_s * dt_s}).lin;
-        for (; n < dest.size() && t0_s + static_cast<double>(n) * dt_s < piece->end_s; ++n, a *= ratio)
+        for (; n < dest.size() && t0_s + static_cast<double>(n) * dt_s < piece->end_s; ++n) {
             dest[n] = static_cast<float>(a);
+            a *= ratio;
+        }
     }
 }
 

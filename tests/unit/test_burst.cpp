@@ -98,6 +98,32 @@ TEST_CASE("frames that do not fall within the attack span, or stand under the fl
                     .has_value());
 }
 
+TEST_CASE("a band that still rises after the longest attack of a burst is no burst", "[burst]") {
+    // Exact frames (the independent sum above) of a band rising linearly over attack_s, then
+    // falling with T60 0.1 s: a rise of 3 or 6 ms is a burst, one of 12 or 15 ms a swell, none
+    // (max_attack_s 8 ms). The fitted rise is the loudest frame's centre less half a window, which
+    // lies up to two hops before the end of a linear rise (the window averages the rise's last
+    // milliseconds with the fall's first): within [truth - 2 hops, truth].
+    const double attack_s = GENERATE(0.003, 0.006, 0.012, 0.015);
+    const double window_s = 0.004, hop_s = 0.001;
+    std::vector<float> level(80), floor_db(80, -120.0F);
+    for (std::size_t i = 0; i < level.size(); ++i)
+        level[i] = static_cast<float>(-40.0 + framed_truth_db(attack_s, 0.0, 0.1, window_s, static_cast<double>(i) * hop_s));
+    const burst_fit_params params{};
+    const auto fit = fit_burst({.window = window_kind::hann, .window_s = window_s, .hop_s = hop_s, .level_db = level,
+                                .floor_db = floor_db, .first = 2},
+                               params);
+    CAPTURE(attack_s, params.max_attack_s, fit.has_value());
+    if (attack_s <= params.max_attack_s) {
+        REQUIRE(fit.has_value());
+        CAPTURE(fit->env.attack_s);
+        CHECK(fit->env.attack_s <= attack_s + 1e-9);           // ground truth
+        CHECK(fit->env.attack_s >= attack_s - 2.0 * hop_s - 1e-9);
+    } else {
+        CHECK_FALSE(fit.has_value());
+    }
+}
+
 TEST_CASE("a burst shorter than a render frame is played at its envelope's power sample by sample", "[burst]") {
     // A band 4-8 kHz (85 bins of the 48 kHz renderer's 1024-point frame), rendered with 200 seeds
     // and averaged: a burst held 3 ms then falling with T60 20 ms (a mallet's, analysis/
