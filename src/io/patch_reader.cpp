@@ -64,8 +64,8 @@ public:
         p.note.inharmonicity_b = get_number(note, "inharmonicity_b", "note.inharmonicity_b").value_or(0.0);
         p.note.gain_db = get_number(note, "gain_db", "note.gain_db").value_or(0.0);
         p.note.channels = get_int(note, "channels", "note.channels").value_or(1);
-        if (p.note.channels == 2 && file_version_ < patch_format_version) {
-            fail("note.channels", "= 2 (stereo) needs version = " + std::to_string(patch_format_version) +
+        if (p.note.channels == 2 && file_version_ < stereo_patch_format_version) {
+            fail("note.channels", "= 2 (stereo) needs version = " + std::to_string(stereo_patch_format_version) +
                                       " (this file says version = " + std::to_string(file_version_) + ")");
         }
         read_root(note, p.note);
