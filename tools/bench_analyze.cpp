@@ -2,6 +2,7 @@
 // issue's budget is >= 100x real time for a 4 s, 48 kHz mono note.
 //
 //   bench_analyze [--repeats N] [FILE...]
+//   bench_analyze --write-synthetic OUT.wav   (writes the synthetic note below, 32-bit float, and exits)
 //
 // Without files it times the demo pluck (demo-data/steel-string-d3.wav, read with
 // wane::read_audio) and a synthetic note made here (4 s at 48 kHz: 40 harmonics of 110 Hz with
@@ -126,17 +127,26 @@ void bench_note(const std::string& name, const std::vector<float>& x, double fs,
 int main(int argc, char** argv) {
     int repeats = 11;
     std::vector<std::string> files;
+    std::string synthetic_out;
     for (int i = 1; i < argc; ++i) {
         if (std::strcmp(argv[i], "--repeats") == 0 && i + 1 < argc) {
             repeats = std::max(1, static_cast<int>(std::strtol(argv[++i], nullptr, 10)));
+        } else if (std::strcmp(argv[i], "--write-synthetic") == 0 && i + 1 < argc) {
+            synthetic_out = argv[++i];
         } else if (argv[i][0] == '-') {
-            std::fprintf(stderr, "usage: bench_analyze [--repeats N] [FILE...]\n");
+            std::fprintf(stderr, "usage: bench_analyze [--repeats N] [--write-synthetic OUT.wav] [FILE...]\n");
             return 2;
         } else {
             files.emplace_back(argv[i]);
         }
     }
     try {
+        if (!synthetic_out.empty()) {
+            // The synthetic note as a 32-bit float WAV, to time a whole `wane analyze` run on it.
+            wane::write_audio(synthetic_out, make_synthetic_note(), synth_rate_hz,
+                              {.format = wane::sample_format::float32});
+            return 0;
+        }
         const bool defaults = files.empty();
         if (defaults) files.emplace_back(default_demo_note);
         for (const std::string& f : files) {

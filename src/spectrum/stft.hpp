@@ -26,7 +26,7 @@ struct stft_config {
 /// Smallest even FFT size >= min_size whose factors are only 2, 3 and 5 (KissFFT's fast radices).
 int fast_fft_size(int min_size);
 
-/// One real block's spectrum on FFTW single precision (FFTW_ESTIMATE; the plan made and destroyed
+/// One real block's spectrum on FFTW single precision (FFTW_ESTIMATE, no buffered solvers; the plan made and destroyed
 /// under the STFT's planner lock): input zero padded to fft_size (even, >= input.size()), bins
 /// 0 .. fft_size / 2 written to out (fft_size / 2 + 1 of them), unscaled. For one-off transforms
 /// of a whole span.
@@ -34,7 +34,7 @@ void real_fft(std::span<const float> input, int fft_size, std::span<std::complex
 
 /// One STFT frame at a time. Made once per thread: the FFT state, window and buffers are allocated
 /// here and reused, so analyzing a frame allocates nothing. The FFTW plan is made (FFTW_ESTIMATE:
-/// no timing, the same plan every run) and destroyed under one process-wide lock, since FFTW's
+/// no timing, the same plan every run; without the buffered solvers, which it would not pick) and destroyed under one process-wide lock, since FFTW's
 /// planner is not thread-safe; executing it is.
 ///
 /// Frame at centre sample c: buffer[m mod M] = w[h + m] x[c + m], m = -h..h (zero phase), so the

@@ -232,6 +232,38 @@ TEST_CASE("real_fft of a zero-padded block equals a direct DFT in long double", 
     }
 }
 
+TEST_CASE("real_fft's bins are bit-equal to a plain FFTW_ESTIMATE plan's (its planner flags leave the plan alone)",
+          "[spectrum][stft]") {
+    // The sizes one analysis of a 48 kHz note plans (tracker, noise model, heard spectrum, onset)
+    // and a few others; real_fft plans without the buffered solvers (spectrum/stft.cpp).
+    const int fft_size = GENERATE(16, 400, 1000, 5400, 7200, 7290, 8000, 10800, 19440, 44100 * 2, 384000);
+    splitmix64 rng{777};
+    const test::uniform_draw<float> uni{-1.0f, 1.0f};
+    std::vector<float> x(static_cast<std::size_t>(fft_size) * 3 / 4);
+    for (float& v : x) v = uni(rng);
+    const auto bins_count = static_cast<std::size_t>(fft_size) / 2 + 1;
+    std::vector<std::complex<float>> got(bins_count);
+    real_fft(x, fft_size, got);
+    // The reference: FFTW_ESTIMATE as documented, nothing else, on the same zero-padded block.
+    float* in = fftwf_alloc_real(static_cast<std::size_t>(fft_size));
+    fftwf_complex* out = fftwf_alloc_complex(bins_count);
+    REQUIRE(in != nullptr);
+    REQUIRE(out != nullptr);
+    fftwf_plan plan = fftwf_plan_dft_r2c_1d(fft_size, in, out, FFTW_ESTIMATE);
+    REQUIRE(plan != nullptr);
+    std::fill(in, in + fft_size, 0.0f);
+    std::copy(x.begin(), x.end(), in);
+    fftwf_execute(plan);
+    std::size_t differ = 0;
+    for (std::size_t k = 0; k < bins_count; ++k)
+        if (got[k].real() != out[k][0] || got[k].imag() != out[k][1]) ++differ;
+    fftwf_destroy_plan(plan);
+    fftwf_free(in);
+    fftwf_free(out);
+    CAPTURE(fft_size, bins_count);
+    CHECK(differ == 0);
+}
+
 TEST_CASE("STFT plans made and run in two threads at once give the bins of a plan run alone", "[spectrum][stft]") {
     std::vector<float> x(9000);
     splitmix64 rng{99};
