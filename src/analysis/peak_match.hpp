@@ -38,8 +38,6 @@ inline constexpr double max_peak_raise_db = 6.0;
 /// The default render of a copy (and its render at the recording's rate) peaks at least this far
 /// under full scale (dB), whatever its noise draw adds.
 inline constexpr double default_render_margin_db = 0.1;
-/// The output rate of a render at default settings, Hz.
-inline constexpr double default_output_rate_hz = 48000.0;
 
 /// The noise draws the expected peak is taken over.
 struct peak_match_params {

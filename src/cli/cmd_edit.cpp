@@ -13,12 +13,12 @@
 #include "io/patch_checksum.hpp"
 #include "io/patch_toml.hpp"
 #include "core/pitch_names.hpp"
+#include "synthesis/render.hpp"
 
 namespace wane::cli {
 
 namespace {
 
-constexpr double default_edit_rate_hz = 48000.0;
 /// --tuning-cents range: a root is a note and at most a semitone off it.
 constexpr double max_root_tuning_cents = 100.0;
 
@@ -26,7 +26,7 @@ struct edit_options {
     bool overwrite_edited = false;
     std::string input;
     std::string output;
-    double rate_hz = default_edit_rate_hz;
+    double rate_hz = default_output_rate_hz;
     transform_cli transforms;
     std::string root;                     ///< --root: a note name, a MIDI number, or "none"
     std::optional<double> tuning_cents{};  ///< --tuning-cents (needs --root)

@@ -28,7 +28,6 @@ namespace wane::cli {
 
 namespace {
 
-constexpr double default_rate_hz = 48000.0;
 /// Largest |--gain-db|, |--noise-db| and -(--normalize-db): 120 dB spans a 24-bit file's whole
 /// range and a few bits more (our choice, no source); past it the render is silence or overload.
 constexpr double max_abs_gain_db = 120.0;
@@ -38,7 +37,7 @@ constexpr double advice_headroom_db = 1.0;
 struct render_options {
     std::filesystem::path patch_path;
     std::filesystem::path out_path;
-    double rate_hz = default_rate_hz;
+    double rate_hz = default_output_rate_hz;
     std::string bits = "24";
     length_cli length;
     double gain_db = 0.0;
@@ -176,7 +175,7 @@ void add_render_command(CLI::App& app, command_registry& reg) {
     static render_options o;
     sub->add_option("PATCH", o.patch_path, "Patch file (.toml) to render")->required();
     sub->add_option("-o,--output", o.out_path, "Audio file to write (.wav, .aif/.aiff, .flac)")->required();
-    sub->add_option("--rate", o.rate_hz, "Output sample rate in Hz, 8000 to 192000")->default_val(default_rate_hz);
+    sub->add_option("--rate", o.rate_hz, "Output sample rate in Hz, 8000 to 192000")->default_val(default_output_rate_hz);
     sub->add_option("--bits", o.bits, "Sample format: 16 (with TPDF dither), 24 or 32f")->default_val("24");
     add_length_options(sub, o.length);
     sub->add_option("--gain-db", o.gain_db, "Gain in dB, added to the patch's note.gain_db")->default_val(0.0);

@@ -8,13 +8,13 @@
 #include "cli/length_options.hpp"
 #include "cli/transform_options.hpp"
 #include "io/audio_file.hpp"
+#include "synthesis/render.hpp"
 #include "synthesis/render_budget.hpp"
 #include "transform/keymap.hpp"
 #include "transform/keymap_roots.hpp"
 
 namespace wane::cli {
 
-inline constexpr double default_keymap_rate_hz = 48000.0;
 /// Whole-set limits (our choice, no source): 1e12 partial-samples is about 3 minutes of one core
 /// (5.8e9 per second, synthesis/render_budget.hpp); 10,000 files are 49 notes x 127 layers.
 inline constexpr double default_max_set_work = 1e12;
@@ -35,7 +35,7 @@ struct keymap_options {
     int variants = 1;
     double layer_step_db = default_layer_step_db;
     double layer_brightness_step = default_layer_brightness_step_db_per_oct;
-    double rate_hz = default_keymap_rate_hz;
+    double rate_hz = default_output_rate_hz;
     std::string bits = "24";
     int threads = 0;
     length_cli length;

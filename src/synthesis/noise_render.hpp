@@ -31,11 +31,12 @@
 #include <span>
 
 #include "core/patch.hpp"
+#include "synthesis/render.hpp"
 
 namespace wane {
 
 struct noise_render_params {
-    double sample_rate_hz = 48000.0;
+    double sample_rate_hz = default_output_rate_hz;
     double gain_db = 0.0;        ///< applied to every band
     std::uint64_t seed = 1;
     /// A channel of a stereo render: each band plays sqrt(coherence) of the shared noise (the

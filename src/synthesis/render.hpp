@@ -20,8 +20,12 @@
 
 namespace wane {
 
+/// The output rate of a render at default settings, Hz: the one home of this default (render,
+/// keymap and edit's --rate, the noise renderer's, and the peak match's default-copy render).
+inline constexpr double default_output_rate_hz = 48000.0;
+
 struct render_params {
-    double sample_rate_hz = 48000.0;
+    double sample_rate_hz = default_output_rate_hz;
     double length_s = 0.0;        ///< 0 = the patch's note.length_s
     double gain_db = 0.0;         ///< added to the patch's note.gain_db
     bool include_noise = true;
