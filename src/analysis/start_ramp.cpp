@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "core/envelope.hpp"
+#include "core/glide.hpp"
 #include "core/units.hpp"
 
 namespace wane {
@@ -40,7 +41,8 @@ std::vector<double> copy_start(const patch& p, double sample_rate_hz, std::size_
         const partial q = with_rise(original, rise_s);
         for (std::size_t n = 0; n < count; ++n) {
             const double t = static_cast<double>(n) / sample_rate_hz;
-            out[n] += envelope_amp(q.env, t).lin * std::cos(two_pi * q.freq_hz * t + q.phase_rad);
+            const double glide_rad = glide_phase_offset_rad(q.freq_hz, q.glide_cents, q.glide_s, t);
+            out[n] += envelope_amp(q.env, t).lin * std::cos(two_pi * q.freq_hz * t + q.phase_rad + glide_rad);
         }
     }
     return out;

@@ -49,6 +49,10 @@ void set_root_hz(note_info& n, double freq_hz) {
     n.root.tuning_cents = (midi - n.root.midi) * cents_per_semitone;
 }
 
+bool has_glide(const patch& p) {
+    return std::any_of(p.partials.begin(), p.partials.end(), [](const partial& q) { return q.glide_cents != 0.0; });
+}
+
 void canonicalize(patch& p) {
     std::stable_sort(p.partials.begin(), p.partials.end(),
                      [](const partial& a, const partial& b) { return a.freq_hz < b.freq_hz; });

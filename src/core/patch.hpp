@@ -1,4 +1,4 @@
-// The patch model (format "wane-patch", version 2; version 1 is read too) as plain data. The TOML mapping lives in
+// The patch model (format "wane-patch", versions 1 to 4) as plain data. The TOML mapping lives in
 // src/io/patch_toml.*; the core only sees these structs. Times are seconds from the note's onset,
 // levels dBFS, frequencies Hz.
 #pragma once
@@ -12,10 +12,13 @@
 
 namespace wane {
 
-/// Newest version the reader accepts and the one a stereo patch is written as (version 3 added
-/// [note] channels and the per-part stereo keys); a mono patch is written as version 2, which
-/// wane versions that predate stereo read unchanged.
-inline constexpr int patch_format_version = 3;
+/// Newest version the reader accepts, and the one a patch with a pitch glide is written as
+/// (version 4 added the partial keys glide_cents and glide_s). A stereo patch without glides is
+/// written as version 3 (which added [note] channels and the per-part stereo keys), a mono one as
+/// version 2, so wane versions that predate those keys read such patches unchanged.
+inline constexpr int patch_format_version = 4;
+inline constexpr int glide_patch_format_version = 4;
+inline constexpr int stereo_patch_format_version = 3;
 inline constexpr int mono_patch_format_version = 2;
 /// Oldest version the reader accepts (version 1 has no root keys; its root is f0_hz).
 inline constexpr int oldest_patch_format_version = 1;
@@ -97,6 +100,10 @@ struct partial {
     double phase_rad = 0.0;  ///< phase at t = 0 of cos(2 pi f t + phase)
     envelope env;
     stereo_place place;  ///< keys pan, delay_us, spread_db_per_s (stereo patches only)
+    /// Early pitch glide (core/glide.hpp): the partial starts glide_cents off freq_hz and the
+    /// offset decays with time constant glide_s. 0 and 0: no glide (keys absent).
+    double glide_cents = 0.0;
+    double glide_s = 0.0;
     friend bool operator==(const partial&, const partial&) = default;
 };
 
@@ -125,9 +132,12 @@ struct patch {
 
 /// Whether p has two channels ([note] channels = 2).
 inline bool is_stereo(const patch& p) { return p.note.channels == 2; }
-/// The version a patch is written as: patch_format_version for stereo, 2 for mono.
+/// Whether a partial of p glides (glide_cents != 0).
+bool has_glide(const patch& p);
+/// The version a patch is written as: 4 with a glide, else 3 for stereo, 2 for mono.
 inline int written_format_version(const patch& p) {
-    return is_stereo(p) ? patch_format_version : mono_patch_format_version;
+    if (has_glide(p)) return glide_patch_format_version;
+    return is_stereo(p) ? stereo_patch_format_version : mono_patch_format_version;
 }
 
 /// The root's frequency: midi_to_hz(midi + cents / 100, a4_hz); note.f0_hz when the root is

@@ -65,6 +65,10 @@ constexpr int delay_us_decimals = 2;
 constexpr int spread_decimals = 3;
 /// Noise coherence: 0.001.
 constexpr int coherence_decimals = 3;
+/// Glide time constant: 1 us. The glide adds G ~ 2 pi f tau c0 ln2/1200 rad of phase, so rounding
+/// tau by 5e-7 s moves it by G * 5e-7 / tau: 4e-5 rad for a 40-cent, 30 ms glide at 500 Hz. The glide's
+/// cents use fmt_cents (0.001 cent: 2 pi f tau 1e-3 ln2 / 2400 = 2.7e-5 rad there).
+constexpr int glide_s_decimals = 6;
 
 // One formatter per quantity; the writer prints with them and the reader rounds with them.
 std::string fmt_freq(double v) { return fmt_fixed(v, freq_decimals); }
@@ -81,6 +85,7 @@ std::string fmt_pan(double v) { return fmt_fixed(v, pan_decimals); }
 std::string fmt_delay_us(double v) { return fmt_fixed(v, delay_us_decimals); }
 std::string fmt_spread(double v) { return fmt_fixed(v, spread_decimals); }
 std::string fmt_coherence(double v) { return fmt_fixed(v, coherence_decimals); }
+std::string fmt_glide_s(double v) { return fmt_fixed(v, glide_s_decimals); }
 
 /// A sample rate: an integer when it is one (at 1e-6 Hz resolution), e.g. "48000".
 std::string fmt_rate(double v) {
@@ -146,6 +151,8 @@ void round_to_file_precision(patch& p) {
         q.phase_rad = rounded(q.phase_rad, fmt_phase);
         round_envelope(q.env);
         round_place(q.place);
+        q.glide_cents = rounded(q.glide_cents, fmt_cents);
+        q.glide_s = rounded(q.glide_s, fmt_glide_s);
     }
     for (noise_band& b : p.noise) {
         b.low_hz = rounded(b.low_hz, fmt_band_edge);

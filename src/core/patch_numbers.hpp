@@ -29,6 +29,7 @@ std::string fmt_pan(double v);        ///< pan, 1e-4 (0.0014 dB of level differe
 std::string fmt_delay_us(double v);   ///< inter-channel delay, 0.01 us
 std::string fmt_spread(double v);     ///< per-channel decay difference, 0.001 dB/s
 std::string fmt_coherence(double v);  ///< noise coherence between channels, 0.001
+std::string fmt_glide_s(double v);    ///< a partial's glide time constant, 1 us (glide_cents: fmt_cents)
 /// A sample rate: an integer when it is one (at 1e-6 Hz resolution), e.g. "48000".
 std::string fmt_rate(double v);
 

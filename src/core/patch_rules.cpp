@@ -3,6 +3,7 @@
 
 #include <cmath>
 
+#include "core/glide.hpp"
 #include "core/patch_numbers.hpp"
 #include "core/stereo.hpp"
 
@@ -135,6 +136,19 @@ struct validator {
                " dB/s");
     }
 
+    /// glide_cents and glide_s (core/glide.hpp): both or neither.
+    void check_glide(const std::string& base, const partial& q) const {
+        not_nan(base + ".glide_cents", q.glide_cents);
+        not_nan(base + ".glide_s", q.glide_s);
+        if (q.glide_cents == 0.0 && q.glide_s == 0.0) return;
+        if (q.glide_cents == 0.0) {
+            fail(base + ".glide_s", "needs glide_cents (the offset the glide starts at); without it there is no glide");
+        }
+        within(base + ".glide_cents", q.glide_cents, -max_abs_glide_cents, max_abs_glide_cents, " cents");
+        if (q.glide_s == 0.0) fail(base + ".glide_cents", "needs glide_s (the glide's time constant, > 0)");
+        within(base + ".glide_s", q.glide_s, 0.0, max_glide_s, " s", true);
+    }
+
     void check(const patch& p) const {
         const note_info& n = p.note;
         text("note.name", n.name);
@@ -185,6 +199,7 @@ struct validator {
             within(base + ".phase_rad", q.phase_rad, -max_abs_phase_rad, max_abs_phase_rad, " rad");
             check_envelope(base, q.env);
             check_place(base, q.place, stereo);
+            check_glide(base, q);
         }
         for (std::size_t i = 0; i < p.noise.size(); ++i) {
             const noise_band& b = p.noise[i];

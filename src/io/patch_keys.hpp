@@ -14,7 +14,7 @@ inline constexpr std::string_view note_keys[] = {"name", "f0_hz", "length_s", "i
 inline constexpr std::string_view source_keys[] = {"file", "sample_rate_hz", "onset_s", "cut_s", "analysis"};
 inline constexpr std::string_view analysis_keys[] = {"window", "fft_size", "window_s", "hop_s"};
 inline constexpr std::string_view partial_keys[] = {"freq_hz", "harmonic", "phase_rad", "attack_s", "peak_db", "decay",
-                                                    "pan", "delay_us", "spread_db_per_s"};
+                                                    "pan", "delay_us", "spread_db_per_s", "glide_cents", "glide_s"};
 inline constexpr std::string_view noise_keys[] = {"low_hz", "high_hz", "attack_s", "peak_db", "decay",
                                                   "pan", "spread_db_per_s", "coherence"};
 inline constexpr std::string_view segment_keys[] = {"t60_s", "until_s"};

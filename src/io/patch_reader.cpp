@@ -64,8 +64,8 @@ public:
         p.note.inharmonicity_b = get_number(note, "inharmonicity_b", "note.inharmonicity_b").value_or(0.0);
         p.note.gain_db = get_number(note, "gain_db", "note.gain_db").value_or(0.0);
         p.note.channels = get_int(note, "channels", "note.channels").value_or(1);
-        if (p.note.channels == 2 && file_version_ < patch_format_version) {
-            fail("note.channels", "= 2 (stereo) needs version = " + std::to_string(patch_format_version) +
+        if (p.note.channels == 2 && file_version_ < stereo_patch_format_version) {
+            fail("note.channels", "= 2 (stereo) needs version = " + std::to_string(stereo_patch_format_version) +
                                       " (this file says version = " + std::to_string(file_version_) + ")");
         }
         read_root(note, p.note);
@@ -98,6 +98,7 @@ public:
             q.env = read_envelope(t, base);
             q.place = read_place(t, base);
             q.place.delay_us = get_number(t, "delay_us", base + ".delay_us").value_or(0.0);
+            read_glide(t, base, q);
             warn_unknown(t, base, partial_keys);
             p.partials.push_back(std::move(q));
         });
@@ -346,6 +347,19 @@ private:
             if (!t) fail_in(base, std::string("must be a table, not ") + type_name(e.type()));
             fn(*t, base);
         }
+    }
+
+    /// glide_cents and glide_s (version 4); the format's rules (patch_rules) check their values.
+    void read_glide(const toml::table& t, const std::string& base, partial& q) {
+        const auto cents = get_number(t, "glide_cents", base + ".glide_cents");
+        const auto time_s = get_number(t, "glide_s", base + ".glide_s");
+        if ((cents || time_s) && file_version_ < glide_patch_format_version) {
+            fail(base + (cents ? ".glide_cents" : ".glide_s"),
+                 "needs version = " + std::to_string(glide_patch_format_version) + " (this file says version = " +
+                     std::to_string(file_version_) + ")");
+        }
+        q.glide_cents = cents.value_or(0.0);
+        q.glide_s = time_s.value_or(0.0);
     }
 
     /// pan and spread_db_per_s (a partial's delay_us is read by the caller: noise has none).

@@ -166,6 +166,10 @@ std::string format_text(const patch& p) {
             out << "delay_us = " << fmt_delay_us(q.place.delay_us) << '\n';
             if (q.place.spread_db_per_s != 0.0) out << "spread_db_per_s = " << fmt_spread(q.place.spread_db_per_s) << '\n';
         }
+        if (q.glide_cents != 0.0) {
+            out << "glide_cents = " << fmt_cents(q.glide_cents) << '\n';
+            out << "glide_s = " << fmt_glide_s(q.glide_s) << '\n';
+        }
         write_envelope(out, q.env);
     }
     for (const noise_band& b : p.noise) {

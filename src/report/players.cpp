@@ -20,7 +20,8 @@ constexpr double silence_amp = 1e-10;  // -200 dBFS: the peak shown for digital 
 
 // The partial renderer of the page: the envelope of core/envelope.hpp (a linear amplitude rise
 // over attack_s to the peak, then straight dB segments, t60 null = hold, negative = rise) times
-// cos(2 pi f t + phase), times the patch's gain; a 16-bit WAV made in memory. It leaves out the
+// cos(2 pi f t + phase + the glide's phase of core/glide.hpp: G - R(t), R by the same 16-term
+// series of Ein), times the patch's gain; a 16-bit WAV made in memory. It leaves out the
 // renderer's band-limit and end fades (a partial alone, for listening). Scaled down, and said so,
 // when its peak passes full scale.
 constexpr const char* solo_script = R"JS(
@@ -38,13 +39,21 @@ constexpr const char* solo_script = R"JS(
     }
     return level;
   }
+  function glideRemaining(q, t) {
+    if (!q.glide_cents) return 0;
+    const u = q.glide_cents * Math.LN2 / 1200 * Math.exp(-t / q.glide_s);
+    let term = 1, ein = 0;
+    for (let k = 1; k <= 16; k++) { term *= u / k; ein += term / k; }
+    return 2 * Math.PI * q.freq_hz * q.glide_s * ein;
+  }
   function render(q) {
     const n = Math.round(data.length_s * data.rate_hz), x = new Float32Array(n);
     const gain = Math.pow(10, data.gain_db / 20), peakAmp = Math.pow(10, q.peak_db / 20);
+    const settled = q.phase_rad + glideRemaining(q, 0);
     for (let k = 0; k < n; k++) {
       const t = k / data.rate_hz;
       const a = t < q.attack_s ? peakAmp * t / q.attack_s : Math.pow(10, levelDb(q, t) / 20);
-      x[k] = gain * a * Math.cos(2 * Math.PI * q.freq_hz * t + q.phase_rad);
+      x[k] = gain * a * Math.cos(2 * Math.PI * q.freq_hz * t + settled - glideRemaining(q, t));
     }
     return x;
   }
@@ -104,7 +113,8 @@ std::string patch_json(const patch& p, double rate_hz) {
     for (std::size_t i = 0; i < p.partials.size(); ++i) {
         const partial& q = p.partials[i];
         o += (i ? ",\n" : "\n") + std::string("{\"freq_hz\": ") + json_number(q.freq_hz) + ", \"phase_rad\": " +
-             json_number(q.phase_rad) + ", \"attack_s\": " + json_number(q.env.attack_s) + ", \"peak_db\": " +
+             json_number(q.phase_rad) + ", \"glide_cents\": " + json_number(q.glide_cents) + ", \"glide_s\": " +
+             json_number(q.glide_s) + ", \"attack_s\": " + json_number(q.env.attack_s) + ", \"peak_db\": " +
              json_number(q.env.peak.db) + ", \"decay\": [";
         for (std::size_t k = 0; k < q.env.decay.size(); ++k) {
             const decay_segment& s = q.env.decay[k];

@@ -15,10 +15,17 @@
 // multiply (relative error ~ 2^-24 each) with the float-rounded m^lanes (~ 2^-24 systematic), so
 // the relative error stays below ~32 * 2 * 2^-24 ~ 3.8e-6 (-108 dB) in the worst case and is far
 // smaller on average (error energy -128 dB in tests/unit/test_render.cpp).
+//
+// A gliding partial (glide_cents != 0, core/glide.hpp) is computed sample by sample from the exact
+// formula, amplitude (the span's closed form) times cos(theta(t)) in double, up to the frame where
+// the glide's remaining phase falls under glide_phase_tolerance_rad (1e-6 rad: an error vector
+// 120 dB under the partial); from there on it runs in the phasor lanes like any partial, at its
+// constant frequency and the settled phase phase_rad + G (the glide's whole phase).
 #include "synthesis/render.hpp"
 #include "synthesis/noise_render.hpp"
 #include "synthesis/damped_kernels.hpp"
 #include "synthesis/kernel_clones.hpp"
+#include "core/glide.hpp"
 
 #include <algorithm>
 #include <array>
@@ -109,7 +116,12 @@ struct render_plan {
     std::vector<double> gain_lin;          ///< overall gain times band-limit gain
     std::vector<double> ln_gain;           ///< ln(gain_lin), nepers
     std::vector<double> cycles_per_frame;  ///< f / rate
-    std::vector<double> phase_rad;
+    std::vector<double> phase_rad;         ///< the settled phase: phase_rad + the glide's whole phase
+    // Glide (core/glide.hpp): frames before glide_end are computed from the exact formula.
+    std::vector<std::size_t> glide_end;    ///< 0 without a glide
+    std::vector<double> freq_hz;
+    std::vector<double> glide_cents;
+    std::vector<double> glide_s;
     std::vector<std::size_t> span_first;
     std::vector<std::size_t> span_last;    ///< one past the partial's last span
     std::vector<span> spans;
@@ -128,7 +140,16 @@ render_plan make_plan(const patch& p, const render_params& params) {
         plan.gain_lin.push_back(total_gain * band_gain);
         plan.ln_gain.push_back(std::log(total_gain * band_gain));
         plan.cycles_per_frame.push_back(cpf);
-        plan.phase_rad.push_back(part.phase_rad);
+        plan.phase_rad.push_back(part.phase_rad +
+                                 glide_total_phase_rad(part.freq_hz, part.glide_cents, part.glide_s));
+        plan.glide_end.push_back(part.glide_cents == 0.0
+                                     ? 0
+                                     : first_frame_at_or_after(glide_settled_s(part.freq_hz, part.glide_cents,
+                                                                               part.glide_s),
+                                                               rate, plan.frames));
+        plan.freq_hz.push_back(part.freq_hz);
+        plan.glide_cents.push_back(part.glide_cents);
+        plan.glide_s.push_back(part.glide_s);
         plan.span_first.push_back(plan.spans.size());
 
         const std::size_t attack_end = first_frame_at_or_after(part.env.attack_s, rate, plan.frames);
@@ -172,6 +193,25 @@ void set_lane_anchors(const span& s, double z_re, double z_im, float* re, float*
     for (std::size_t l = 0; l < lanes; ++l) {
         re[l] = static_cast<float>(z_re * s.m_pow_re[l] - z_im * s.m_pow_im[l]);
         im[l] = static_cast<float>(z_re * s.m_pow_im[l] + z_im * s.m_pow_re[l]);
+    }
+}
+
+/// The gliding frames [from, to) of span s (before the partial's glide_end) from the exact
+/// formula: A(n) cos(theta_settled(n) - R(n / rate)), A by the span's closed form, in double.
+void add_gliding_part(const render_plan& plan, std::size_t k, const span& s, std::size_t from,
+                      std::size_t to, std::size_t block_begin, float* block, double rate_hz) {
+    for (std::size_t n = from; n < to; ++n) {
+        const double dn = static_cast<double>(n);
+        const double amp = s.kind == span_kind::decay
+                               ? std::exp(plan.ln_gain[k] + s.ln_amp_begin +
+                                          s.ln_amp_per_frame * static_cast<double>(n - s.begin))
+                               : plan.gain_lin[k] * s.amp_per_frame * dn;
+        double cycles = dn * plan.cycles_per_frame[k];
+        cycles -= std::floor(cycles);
+        const double theta = two_pi * cycles + plan.phase_rad[k] -
+                             glide_remaining_phase_rad(plan.freq_hz[k], plan.glide_cents[k], plan.glide_s[k],
+                                                       dn / rate_hz);
+        block[n - block_begin] += static_cast<float>(amp * std::cos(theta));
     }
 }
 
@@ -233,7 +273,7 @@ namespace {
 /// The partials of frames [first, first + out.size()) into out (overwritten), block by block from
 /// `first`: each block anchors every oscillator from exact values, so a stretch starting at a
 /// multiple of render_anchor_frames gives the same bits as the whole render.
-void render_partials_range(const render_plan& plan, std::size_t first, std::span<float> out) {
+void render_partials_range(const render_plan& plan, std::size_t first, std::span<float> out, double rate_hz) {
     assert(first + out.size() <= plan.frames);
     const std::size_t end = first + out.size();
     const std::size_t partial_count = plan.gain_lin.size();
@@ -264,7 +304,9 @@ void render_partials_range(const render_plan& plan, std::size_t first, std::span
                 const span& s = plan.spans[si];
                 const std::size_t from = std::max(s.begin, b0);
                 const std::size_t to = std::min(s.end, b1);
-                if (from < to) add_span_part(plan, k, s, from, to, b0, block_f.data());
+                const std::size_t glide_to = std::clamp(plan.glide_end[k], from, to);
+                if (from < glide_to) add_gliding_part(plan, k, s, from, glide_to, b0, block_f.data(), rate_hz);
+                if (glide_to < to) add_span_part(plan, k, s, glide_to, to, b0, block_f.data());
             }
             if (++since_flush == partials_per_flush) flush();
         }
@@ -292,7 +334,7 @@ std::vector<float> render_patch(const patch& p, const render_params& params) {
            static_cast<double>(plan.frames) <= max_length_s * params.sample_rate_hz + 1.0);
 
     std::vector<float> out(plan.frames);
-    render_partials_range(plan, 0, out);
+    render_partials_range(plan, 0, out, params.sample_rate_hz);
 
     // The noise bands (deterministic-plus-stochastic model), band-limited by construction.
     if (params.include_noise && !p.noise.empty()) {
@@ -325,7 +367,7 @@ std::size_t partial_renderer::frames() const { return state_->plan.frames; }
 
 void partial_renderer::render(std::size_t first_frame, std::span<float> out) const {
     assert(first_frame + out.size() <= state_->plan.frames);
-    render_partials_range(state_->plan, first_frame, out);
+    render_partials_range(state_->plan, first_frame, out, sample_rate_hz_);
     apply_end_fade(first_frame, out, state_->plan.frames, sample_rate_hz_);
 }
 

@@ -115,6 +115,16 @@ std::vector<std::size_t> pair_partials(const patch& a, const patch& b, const ble
 
 }  // namespace
 
+void blend_glide(const partial& a, const partial& b, double mix, partial& out) {
+    out.glide_cents = lerp(a.glide_cents, b.glide_cents, mix);
+    if (a.glide_cents != 0.0 && b.glide_cents != 0.0) {
+        out.glide_s = geometric_lerp(a.glide_s, b.glide_s, mix);
+    } else {
+        out.glide_s = a.glide_cents != 0.0 ? a.glide_s : b.glide_s;
+    }
+    if (out.glide_cents == 0.0) out.glide_s = 0.0;
+}
+
 patch blend(const patch& a, const patch& b, const blend_params& params) {
     assert(params.mix >= 0.0 && params.mix <= 1.0 && params.match_tolerance_cents >= 0.0);
     if (a.version != b.version) {
@@ -170,6 +180,7 @@ patch blend(const patch& a, const patch& b, const blend_params& params) {
                                 .place = {.pan = lerp(pa.place.pan, pb.place.pan, mix),
                                           .delay_us = lerp(pa.place.delay_us, pb.place.delay_us, mix),
                                           .spread_db_per_s = lerp(pa.place.spread_db_per_s, pb.place.spread_db_per_s, mix)}});
+        blend_glide(pa, pb, mix, out.partials.back());
     }
     for (std::size_t j = 0; j < b.partials.size(); ++j) {
         if (b_taken[j]) continue;

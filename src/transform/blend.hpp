@@ -10,7 +10,9 @@
 // re-segmented on the union of both envelopes' breakpoints and in each piece T60 is interpolated
 // on a log scale (exp((1-m) ln Ta + m ln Tb)) when both T60s are finite and positive, and
 // otherwise (a hold or a rise) through the slope in dB/s, linearly. Phase and harmonic number come
-// from the dominant patch (A when m <= 0.5).
+// from the dominant patch (A when m <= 0.5). The pitch glide (core/glide.hpp): its cents linearly
+// (a partial without a glide counts 0 cents), its time constant geometrically when both glide,
+// else the gliding one's.
 //
 // Unpaired partials and all noise bands keep their shape and are faded by their patch's weight
 // (1 - m for A, m for B): level + 20 log10(weight); a weight of 0 removes them.
@@ -31,6 +33,10 @@ struct blend_params {
 
 /// Blends a and b. Throws transform_error (param "version") when the format versions differ.
 patch blend(const patch& a, const patch& b, const blend_params& params);
+
+/// The glide of a paired partial between a (weight 1 - mix) and b (weight mix), as described above:
+/// sets out.glide_cents and out.glide_s (both 0 when neither glides).
+void blend_glide(const partial& a, const partial& b, double mix, partial& out);
 
 /// The envelope between ea (weight 1 - mix) and eb (weight mix), as described above.
 envelope blend_envelopes(const envelope& ea, const envelope& eb, double mix);

@@ -1,4 +1,5 @@
 #include "transform/key_blend.hpp"
+#include "transform/blend.hpp"
 
 #include <algorithm>
 #include <cassert>
@@ -168,6 +169,7 @@ void add_partials(const patch& a, const patch& b, double w, double new_root_hz, 
         q.harmonic = pa.harmonic == pb.harmonic ? pa.harmonic : 0;
         q.freq_hz = new_root_hz * matched_ratio(pa, pb, a, b, w, b_new);
         q.phase_rad = a_nearer ? pa.phase_rad : pb.phase_rad;
+        blend_glide(pa, pb, w, q);
         q.env = interpolate_envelope(pa.env, pb.env, peak_a, pb.env.peak.db + b.note.gain_db, w);
         out.partials.push_back(q);
     }

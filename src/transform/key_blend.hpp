@@ -18,7 +18,8 @@
 //              w ln T60_b), segment ends linear; otherwise (other counts, a hold or a rise) the
 //              two level lines interpolated in dB at every breakpoint of either, each piece's T60
 //              from the interpolated line's slope (so no level leaves the range of the two);
-//   phase      of the nearer root (w < 0.5: a).
+//   phase      of the nearer root (w < 0.5: a);
+//   glide      as blend_glide (transform/blend.hpp) does: cents linear, time constant in log.
 // A partial present in one root only keeps its ratio and fades across the interval: its
 // amplitude is scaled by that root's weight (1 - w for a, w for b), i.e. peak_db + 20 log10(weight);
 // at weight 0 it is left out. Noise bands likewise, matched by band centre within

@@ -16,6 +16,9 @@
 //   stretched by X: level'(attack + X tau) = level(attack + tau). The attack is unchanged.
 //   T60 = inf (hold) stays inf; a negative T60 (rise) is stretched the same way.
 // - Transposition keeps B: scaling every frequency by r keeps f_n / (n f0) and so B.
+// - A partial's pitch glide (glide_cents, glide_s; core/glide.hpp) is in cents, so a transposition
+//   (or a detune, or set_b) keeps it as it is; the decay edits leave it alone, like the attack
+//   (it is part of the strike, not of the decay).
 #pragma once
 
 #include <cstddef>

@@ -5,7 +5,7 @@ source "$(dirname "$0")/preamble.sh"
 
 write_test_pluck pluck.toml "cli test pluck" 0.5 "-12.0 0.004 [ { t60_s = 1.9, until_s = 0.2 }, { t60_s = 6.4 } ]" \
   "-18.0 0.004 [ { t60_s = 1.2 } ]" "-20.0 0.004 [ { t60_s = 0.9 } ]"
-sed -e "s/^version = 1/version = 4/" pluck.toml > newer.toml  # one past the newest version read (3: stereo)
+sed -e "s/^version = 1/version = 5/" pluck.toml > newer.toml  # one past the newest version read (4: glides)
 # Loud: three in-phase partials at -3 dBFS each peak near +6.5 dBFS together.
 sed -e 's/^peak_db = .*/peak_db = -3.0/' -e 's/^phase_rad = .*/phase_rad = 0.0/' pluck.toml > loud.toml
 
