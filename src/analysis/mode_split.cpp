@@ -248,7 +248,8 @@ std::vector<std::size_t> candidates(const patch& p, double sample_rate_hz, const
             const double apart_hz = std::abs(o.freq_hz - q.freq_hz);
             return apart_hz > same_freq_hz && apart_hz < params.max_offset_hz;
         });
-        if (!crowded && q.freq_hz > margin_hz && q.freq_hz < band_fade_start_fraction * 0.5 * sample_rate_hz - margin_hz)
+        // A gliding partial's phase is no sum of plain modes (core/glide.hpp): it stays.
+        if (!crowded && q.glide_cents == 0.0 && q.freq_hz > margin_hz && q.freq_hz < band_fade_start_fraction * 0.5 * sample_rate_hz - margin_hz)
             out.push_back(k);
     }
     return out;

@@ -5,7 +5,7 @@
 //
 // For each of the strongest partials (within within_db of the loudest, at most max_partials; none
 // with another partial within max_offset_hz, a pair already resolved; a twin at the same
-// frequency is one sinusoid in two stages and does not count), the
+// frequency is one sinusoid in two stages and does not count; none with a pitch glide), the
 // target is the recording minus every other partial as rendered (synthesis/render.hpp), from the
 // onset to the end of the analysed note. The target is moved to 0 Hz at the partial's frequency f
 // and low-passed by three running means of D samples (the last one decimating), so the band keeps
