@@ -205,6 +205,14 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         }
     }
     done("onset refinement");
+    if (params.fit_glides) {
+        const auto start = static_cast<std::size_t>(std::llround(out.tracking.onset_s * sample_rate_hz));
+        if (start < part.size()) {
+            const onset_glide_summary g = fit_onset_glides(p, part.subspan(start), sample_rate_hz, params.glides);
+            out.summary.glides = g.glides;
+        }
+    }
+    done("onset glides");
     if (params.soften_start) out.summary.start_ramp_s = soften_partials_start(out, part, sample_rate_hz, params);
     done("start rise");
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);

@@ -18,6 +18,7 @@
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "tracking/tracker.hpp"
+#include "analysis/onset_glide.hpp"
 
 namespace wane {
 
@@ -42,6 +43,10 @@ struct analysis_params {
     /// Set note.gain_db so the copy peaks with the recording (peak_matching_gain_db).
     bool match_peak = true;
     onset_refine_params onset{};
+    /// Fit each strong partial's early pitch glide on the waveform after the onset refinement
+    /// (analysis/onset_glide.hpp); analyze_stereo_note turns it off for the mix.
+    bool fit_glides = true;
+    onset_glide_params glides{};
     /// Give the partials that start at once a sub-millisecond rise where their jump from silence
     /// is steeper than the recording's start (analysis/start_ramp.hpp).
     bool soften_start = true;
@@ -67,6 +72,7 @@ struct analysis_summary {
     int new_modes = 0;             ///< partials added by the onset refinement (short-lived modes)
     /// Energy of the first fit span explained by the partials, dB (onset refinement).
     double onset_explained_db = 0.0;
+    int glides = 0;               ///< partials given an early pitch glide (analysis/onset_glide.hpp)
     double start_ramp_s = 0.0;     ///< the instant partials' rise (analysis/start_ramp.hpp), 0: none
     /// Audio left out after start_s + max_length_s (a patch holds at most max_length_s), s.
     double unanalysed_s = 0.0;
