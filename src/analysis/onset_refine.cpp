@@ -244,9 +244,8 @@ struct waveform_fit {
 };
 
 waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sample_rate_hz, std::size_t fit_n,
-                          std::span<const role> roles, std::span<const double> decay,
-                          std::span<const attack_choice> attacks, std::span<const damped_mode> new_modes,
-                          const plain_gram_factor* first_system) {
+                          std::span<const role> roles, std::span<const double> decay, std::span<const attack_choice> attacks,
+                          std::span<const damped_mode> new_modes, const plain_gram_factor* first_system, shaped_fit_memo* memo) {
     waveform_fit f;
     std::vector<mode_shape>& shapes = f.shapes;
     std::vector<std::size_t> fixed;
@@ -273,7 +272,7 @@ waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sa
         const std::vector<float> known = render_fixed(p, fixed, sample_rate_hz, fit_n);
         for (std::size_t n = 0; n < fit_n; ++n) target[n] -= known[n];
     }
-    f.residual_energy = fit_shaped_amplitudes(target, sample_rate_hz, f.modes, shapes, 1e-9, first_system) * signal_energy(target);
+    f.residual_energy = fit_shaped_amplitudes(target, sample_rate_hz, f.modes, shapes, 1e-9, first_system, memo) * signal_energy(target);
     const auto count = static_cast<double>(fit_n);
     for (std::size_t i = 0; i < f.modes.size(); ++i)
         f.energy.push_back(shapes[i].empty() ? mode_energy(f.modes[i], sample_rate_hz, count)
@@ -430,9 +429,10 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
     // Up to four passes, each revising the roles, attacks and new modes from the last.
     constexpr int passes = 4;
     waveform_fit f;
+    shaped_fit_memo memo;  // the last fit's Gram entries and projections, for the modes a pass keeps
     std::vector<attack_choice> attacks(p.partials.size());
     for (int pass = 0;; ++pass) {
-        f = fit_waveform(p, note, sample_rate_hz, fit_n, roles, decay, attacks, new_modes, pass == 0 ? &first_fit : nullptr);
+        f = fit_waveform(p, note, sample_rate_hz, fit_n, roles, decay, attacks, new_modes, pass == 0 ? &first_fit : nullptr, &memo);
         if (pass == 0) first_fit = {};  // its memory (two 2K x 2K matrices) back
         if (pass == passes - 1) break;
         // The attacks are searched on this pass's residual and the roles revised from it; the

@@ -11,6 +11,8 @@
 #include <Eigen/Dense>
 
 #include "core/units.hpp"
+#include "modes/fit_memo.hpp"
+#include "modes/mode_projection.hpp"
 #include "modes/mode_shape.hpp"
 
 namespace wane {
@@ -71,9 +73,10 @@ std::optional<std::complex<double>> plain_pair_sum(const plain_power& a, const p
 
 /// The Gram matrix of the model's real columns for modes with sample shapes `own` and angular
 /// frequencies `omega` (rad per sample), in closed form (2K x 2K, K = own.size()): the columns of
-/// modes first_mode .. K - 1 and their mirror rows (all of it for first_mode 0).
+/// modes first_mode .. K - 1 and their mirror rows (all of it for first_mode 0). The pairs `reuse`
+/// copies are taken from the old matrix (both 2 x 2 blocks, as this fill wrote them there).
 void fill_gram(std::span<const mode_shape> own, std::span<const double> omega, std::size_t count,
-               std::size_t first_mode, Eigen::Ref<Eigen::MatrixXd> gram) {
+               std::size_t first_mode, Eigen::Ref<Eigen::MatrixXd> gram, const gram_reuse* reuse = nullptr) {
     const auto k_count = own.size();
     // Unknowns: theta = [a_0, b_0, a_1, b_1, ...] with amp_k = a_k + i b_k, so the model's columns
     // are u_k[n] = Re p_k[n] and v_k[n] = -Im p_k[n]. With p = p_j[n], q = p_k[n]:
@@ -89,6 +92,16 @@ void fill_gram(std::span<const mode_shape> own, std::span<const double> omega, s
     };
     for (std::size_t k = first_mode; k < k_count; ++k) {
         for (std::size_t j = 0; j <= k; ++j) {
+            if (reuse != nullptr && reuse->copies(j, k)) {
+                const std::ptrdiff_t a = 2 * reuse->old_of[j], b = 2 * reuse->old_of[k];
+                const auto a_j = static_cast<Eigen::Index>(2 * j), a_k = static_cast<Eigen::Index>(2 * k);
+                for (Eigen::Index r = 0; r < 2; ++r)
+                    for (Eigen::Index c = 0; c < 2; ++c) {
+                        gram(a_j + r, a_k + c) = reuse->at(a + r, b + c);
+                        gram(a_k + r, a_j + c) = reuse->at(b + r, a + c);
+                    }
+                continue;
+            }
             const std::complex<double> s_pq = pair_sum(j, k, false);
             const std::complex<double> s_pcq = pair_sum(j, k, true);
             const double uu = 0.5 * (s_pq.real() + s_pcq.real());
@@ -108,10 +121,11 @@ void fill_gram(std::span<const mode_shape> own, std::span<const double> omega, s
     }
 }
 
-Eigen::MatrixXd shape_gram(std::span<const mode_shape> own, std::span<const double> omega, std::size_t count) {
+Eigen::MatrixXd shape_gram(std::span<const mode_shape> own, std::span<const double> omega, std::size_t count,
+                           const gram_reuse* reuse) {
     const auto dim = static_cast<Eigen::Index>(2 * own.size());
     Eigen::MatrixXd gram(dim, dim);
-    fill_gram(own, omega, count, 0, gram);
+    fill_gram(own, omega, count, 0, gram, reuse);
     return gram;
 }
 
@@ -141,70 +155,20 @@ bool leads(const plain_gram_factor& factor, std::span<const damped_mode> modes, 
     });
 }
 
-/// Modes projected together in one pass over x: independent phasor chains the processor can
-/// overlap (each mode's arithmetic is the same as alone).
-constexpr std::size_t projection_group = 4;
-
-/// project_group for exactly G modes: the complex products written out on real and imaginary
-/// parts (the same products and sums as std::complex's), the G chains kept in registers.
-template <std::size_t G>
-void project_chains(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
-                    std::span<const double> omega, std::span<std::complex<double>> out) {
-    constexpr std::size_t anchor = 512;
-    // Element-wise arrays (Eigen packets): each chain's arithmetic is its own, as written.
-    using lanes = Eigen::Array<double, static_cast<int>(G), 1>;
-    lanes zr, zi, pr, pi_, accr = lanes::Zero(), acci = lanes::Zero();
-    for (std::size_t i = 0; i < G; ++i) {
-        const std::complex<double> z = std::exp(std::complex<double>{rho[which[i]], omega[which[i]]});
-        const auto lane = static_cast<Eigen::Index>(i);
-        zr(lane) = z.real(), zi(lane) = z.imag();
-    }
-    for (std::size_t start = 0; start < w.size(); start += anchor) {
-        const std::size_t end = std::min(w.size(), start + anchor);
-        const auto at = static_cast<double>(start);
-        for (std::size_t i = 0; i < G; ++i) {
-            const std::complex<double> p = std::exp(std::complex<double>{rho[which[i]] * at, std::remainder(omega[which[i]] * at, two_pi)});
-            const auto lane = static_cast<Eigen::Index>(i);
-            pr(lane) = p.real(), pi_(lane) = p.imag();
-        }
-        for (std::size_t n = start; n < end; ++n) {
-            accr += w[n] * pr;
-            acci += w[n] * pi_;
-            const lanes next_r = pr * zr - pi_ * zi;
-            pi_ = pr * zi + pi_ * zr;
-            pr = next_r;
-        }
-    }
-    for (std::size_t i = 0; i < G; ++i) {
-        const auto lane = static_cast<Eigen::Index>(i);
-        out[which[i]] = {accr(lane), acci(lane)};
-    }
-}
-
-/// sum_n w[n] p_k[n] for the modes in `which` (at most projection_group), p_k[n] = exp(n (rho_k +
-/// i w_k)), the phasors re-anchored from the exact power every 512 samples.
-void project_group(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
-                   std::span<const double> omega, std::span<std::complex<double>> out) {
-    const std::size_t g = which.size();
-    assert(g <= projection_group);
-    if (g == projection_group) {
-        project_chains<projection_group>(w, which, rho, omega, out);
-    } else {
-        for (std::size_t i = 0; i < g; ++i) project_chains<1>(w, which.subspan(i, 1), rho, omega, out);
-    }
-}
-
 /// The projections of x on the model's real columns (2K): sum x[n] a_k[n] exp(i w_k n). A
 /// decaying mode: x times its damped phasor; a shaped one: x times its samples, times the phasor.
+/// A mode with known_at[k] >= 0 (when known_at is not empty) takes known_rhs's pair at that index.
 Eigen::VectorXd shape_projections(std::span<const float> x, double sample_rate_hz, std::span<const damped_mode> modes,
                                   std::span<const mode_shape> shapes, std::span<const mode_shape> own,
-                                  std::span<const double> omega) {
+                                  std::span<const double> omega, std::span<const std::ptrdiff_t> known_at,
+                                  std::span<const double> known_rhs) {
     const auto k_count = modes.size();
     const auto n_count = x.size();
+    const auto known = [&](std::size_t k) { return !known_at.empty() && known_at[k] >= 0; };
     std::vector<double> rho(k_count, 0.0);
     std::vector<std::size_t> plain;
     for (std::size_t k = 0; k < k_count; ++k) {
-        if (!shapes[k].empty()) continue;
+        if (!shapes[k].empty() || known(k)) continue;
         rho[k] = -modes[k].decay_per_s / sample_rate_hz;
         plain.push_back(k);
     }
@@ -214,7 +178,7 @@ Eigen::VectorXd shape_projections(std::span<const float> x, double sample_rate_h
         project_group(weighted, std::span(plain).subspan(i, std::min(projection_group, plain.size() - i)), rho, omega, sums);
     std::vector<double> amp;
     for (std::size_t k = 0; k < k_count; ++k) {
-        if (shapes[k].empty()) continue;
+        if (shapes[k].empty() || known(k)) continue;
         shape_samples(own[k], n_count, amp);
         for (std::size_t n = 0; n < n_count; ++n) weighted[n] = double(x[n]) * amp[n];
         const std::size_t one[] = {k};
@@ -222,8 +186,14 @@ Eigen::VectorXd shape_projections(std::span<const float> x, double sample_rate_h
     }
     Eigen::VectorXd rhs(static_cast<Eigen::Index>(2 * k_count));
     for (std::size_t k = 0; k < k_count; ++k) {
-        rhs(static_cast<Eigen::Index>(2 * k)) = sums[k].real();
-        rhs(static_cast<Eigen::Index>(2 * k + 1)) = -sums[k].imag();
+        const auto at = static_cast<Eigen::Index>(2 * k);
+        if (known(k)) {
+            rhs(at) = known_rhs[2 * static_cast<std::size_t>(known_at[k])];
+            rhs(at + 1) = known_rhs[2 * static_cast<std::size_t>(known_at[k]) + 1];
+        } else {
+            rhs(at) = sums[k].real();
+            rhs(at + 1) = -sums[k].imag();
+        }
     }
     return rhs;
 }
@@ -260,7 +230,8 @@ plain_gram_factor factor_plain_gram(std::span<const damped_mode> modes, double s
 }
 
 double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
-                             std::span<const mode_shape> shapes, double ridge_rel, const plain_gram_factor* known) {
+                             std::span<const mode_shape> shapes, double ridge_rel, const plain_gram_factor* known,
+                             shaped_fit_memo* memo) {
     assert(sample_rate_hz > 0.0);
     assert(shapes.size() == modes.size());
     const auto k_count = modes.size();
@@ -275,9 +246,17 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
     std::vector<mode_shape> own;
     std::vector<double> omega;
     own_shapes(modes, shapes, sample_rate_hz, n_count, own, omega);
-    const Eigen::VectorXd rhs = shape_projections(x, sample_rate_hz, modes, shapes, own, omega);
+    std::vector<char> plain(k_count);
+    for (std::size_t k = 0; k < k_count; ++k) plain[k] = shapes[k].empty() ? 1 : 0;
+    // The last fit's entries for the modes it shares with this one (modes/fit_memo.hpp).
+    const shaped_fit_memo none{};
+    const shaped_fit_memo& last = memo != nullptr ? *memo : none;
+    const std::vector<std::ptrdiff_t> old_of = memo_matches(last, own, omega, plain, n_count, sample_rate_hz);
+    const std::span<const std::ptrdiff_t> rhs_known = memo_same_samples(last, x) ? std::span(old_of) : std::span<const std::ptrdiff_t>{};
+    const Eigen::VectorXd rhs = shape_projections(x, sample_rate_hz, modes, shapes, own, omega, rhs_known, last.rhs);
     const auto dim = static_cast<Eigen::Index>(2 * k_count);
     Eigen::VectorXd theta, g_theta;  // the solution and G theta (G without the ridge)
+    Eigen::MatrixXd gram_exact;
     const bool reuse = known != nullptr && known->modes.size() == k_count && known->ridge_rel == ridge_rel &&
                        std::all_of(shapes.begin(), shapes.end(), [](const mode_shape& a) { return a.empty(); }) &&
                        leads(*known, modes, sample_rate_hz, n_count);
@@ -289,7 +268,8 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
         lower.transpose().triangularView<Eigen::Upper>().solveInPlace(theta);
         g_theta = Eigen::Map<const Eigen::MatrixXd>(known->gram.data(), dim, dim) * theta;
     } else {
-        const Eigen::MatrixXd gram_exact = shape_gram(own, omega, n_count);
+        const gram_reuse from{.old_of = old_of, .old = last.gram.data(), .old_dim = 2 * last.omega.size()};
+        gram_exact = shape_gram(own, omega, n_count, &from);
         Eigen::MatrixXd gram = gram_exact;
         gram.diagonal().array() += ridge_rel * gram.diagonal().mean();
         // Cholesky (blocked: the ridged Gram matrix is positive definite); LDLT with pivoting should
@@ -302,6 +282,12 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
         modes[k].amp = {theta(static_cast<Eigen::Index>(2 * k)), theta(static_cast<Eigen::Index>(2 * k + 1))};
     // Residual energy = |x|^2 - 2 theta.rhs + theta' G theta.
     const double residual = energy - 2.0 * theta.dot(rhs) + theta.dot(g_theta);
+    if (memo != nullptr) {
+        const double* g = reuse ? known->gram.data() : gram_exact.data();
+        *memo = {.count = n_count, .sample_rate_hz = sample_rate_hz, .x = {x.begin(), x.end()}, .own = std::move(own),
+                 .omega = std::move(omega), .plain = std::move(plain), .gram = {g, g + dim * dim},
+                 .rhs = {rhs.data(), rhs.data() + dim}};
+    }
     return std::clamp(residual / energy, 0.0, 1.0);
 }
 

@@ -1,0 +1,65 @@
+#include "modes/mode_projection.hpp"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+
+#include <Eigen/Dense>
+
+#include "core/units.hpp"
+
+namespace wane {
+
+namespace {
+
+/// project_group for exactly G modes: the complex products written out on real and imaginary
+/// parts (the same products and sums as std::complex's), the G chains kept in registers.
+template <std::size_t G>
+void project_chains(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
+                    std::span<const double> omega, std::span<std::complex<double>> out) {
+    constexpr std::size_t anchor = 512;
+    // Element-wise arrays (Eigen packets): each chain's arithmetic is its own, as written.
+    using lanes = Eigen::Array<double, static_cast<int>(G), 1>;
+    lanes zr, zi, pr, pi_, accr = lanes::Zero(), acci = lanes::Zero();
+    for (std::size_t i = 0; i < G; ++i) {
+        const std::complex<double> z = std::exp(std::complex<double>{rho[which[i]], omega[which[i]]});
+        const auto lane = static_cast<Eigen::Index>(i);
+        zr(lane) = z.real(), zi(lane) = z.imag();
+    }
+    for (std::size_t start = 0; start < w.size(); start += anchor) {
+        const std::size_t end = std::min(w.size(), start + anchor);
+        const auto at = static_cast<double>(start);
+        for (std::size_t i = 0; i < G; ++i) {
+            const std::complex<double> p = std::exp(std::complex<double>{rho[which[i]] * at, std::remainder(omega[which[i]] * at, two_pi)});
+            const auto lane = static_cast<Eigen::Index>(i);
+            pr(lane) = p.real(), pi_(lane) = p.imag();
+        }
+        for (std::size_t n = start; n < end; ++n) {
+            accr += w[n] * pr;
+            acci += w[n] * pi_;
+            const lanes next_r = pr * zr - pi_ * zi;
+            pi_ = pr * zi + pi_ * zr;
+            pr = next_r;
+        }
+    }
+    for (std::size_t i = 0; i < G; ++i) {
+        const auto lane = static_cast<Eigen::Index>(i);
+        out[which[i]] = {accr(lane), acci(lane)};
+    }
+}
+
+}  // namespace
+
+void project_group(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
+                   std::span<const double> omega, std::span<std::complex<double>> out) {
+    const std::size_t g = which.size();
+    assert(g <= projection_group);
+    if (g == projection_group) {
+        project_chains<projection_group>(w, which, rho, omega, out);
+    } else {
+        for (std::size_t i = 0; i < g; ++i) project_chains<1>(w, which.subspan(i, 1), rho, omega, out);
+    }
+}
+
+
+}  // namespace wane

@@ -1,0 +1,20 @@
+// Projections of samples on damped phasors, sum_n w[n] exp(n (rho_k + i omega_k)), several modes
+// per pass over the samples: the inner loop of the least-squares fits of modes/damped_mode.cpp.
+#pragma once
+
+#include <complex>
+#include <cstddef>
+#include <span>
+
+namespace wane {
+
+/// Modes projected together in one pass over x: independent phasor chains the processor can
+/// overlap (each mode's arithmetic is the same as alone).
+inline constexpr std::size_t projection_group = 4;
+
+/// sum_n w[n] p_k[n] for the modes in `which` (at most projection_group), p_k[n] = exp(n (rho_k +
+/// i w_k)), the phasors re-anchored from the exact power every 512 samples; written to out[k].
+void project_group(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
+                   std::span<const double> omega, std::span<std::complex<double>> out);
+
+}  // namespace wane

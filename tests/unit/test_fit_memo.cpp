@@ -1,0 +1,131 @@
+// The memo of a least-squares fit of modes (modes/fit_memo.hpp): a sequence of fits like the onset
+// refinement's passes (modes dropped, shaped, added, reordered; the samples changed; a first fit
+// solved with a kept factor) gives, with the memo of the fit before, bit for bit the amplitudes and
+// residual of the same fit without it. The reference is fit_shaped_amplitudes without a memo,
+// itself checked against a dense QR least squares in test_modes.cpp.
+#include <catch2/catch.hpp>
+
+#include <complex>
+#include <cstddef>
+#include <span>
+#include <vector>
+
+#include "core/envelope.hpp"
+#include "core/rng.hpp"
+#include "core/units.hpp"
+#include "modes/damped_mode.hpp"
+#include "modes/fit_memo.hpp"
+#include "modes/mode_shape.hpp"
+#include "test_signals.hpp"
+
+using namespace wane;
+
+namespace {
+
+constexpr double fs = 48000.0;
+
+std::vector<float> noisy_modes(std::span<const damped_mode> modes, std::size_t n, std::uint64_t seed) {
+    splitmix64 rng{seed};
+    const test::uniform_draw<double> uni{-1.0, 1.0};
+    std::vector<float> x(n);
+    for (std::size_t i = 0; i < n; ++i) {
+        const double t = static_cast<double>(i) / fs;
+        double v = 0.01 * uni(rng);
+        for (const damped_mode& m : modes)
+            v += std::real(m.amp * std::exp(std::complex<double>(-m.decay_per_s * t, two_pi * m.freq_hz * t)));
+        x[i] = static_cast<float>(v);
+    }
+    return x;
+}
+
+struct one_fit {
+    std::vector<damped_mode> modes;
+    std::vector<mode_shape> shapes;
+    std::span<const float> x;
+};
+
+/// Fits f with the memo (updating it) and without one; both must agree bit for bit.
+void check_same(const one_fit& f, shaped_fit_memo& memo, const plain_gram_factor* known = nullptr) {
+    std::vector<damped_mode> with = f.modes, without = f.modes;
+    const double r_with = fit_shaped_amplitudes(f.x, fs, with, f.shapes, 1e-9, known, &memo);
+    const double r_without = fit_shaped_amplitudes(f.x, fs, without, f.shapes, 1e-9);
+    CAPTURE(r_with, r_without);
+    CHECK(r_with == r_without);
+    std::size_t differ = 0;
+    for (std::size_t k = 0; k < with.size(); ++k) {
+        CAPTURE(k, with[k].amp, without[k].amp);
+        if (with[k].amp != without[k].amp) ++differ;
+    }
+    CAPTURE(with.size());
+    CHECK(differ == 0);
+}
+
+}  // namespace
+
+TEST_CASE("fits with the last fit's memo equal fits without, pass after pass", "[modes][fit_memo]") {
+    const std::size_t count = 4800;
+    splitmix64 rng{GENERATE(std::uint64_t{3}, std::uint64_t{17}, std::uint64_t{40})};
+    const test::uniform_draw<double> freq{50.0, 12000.0}, decay{0.0, 300.0}, phase{-3.14, 3.14};
+    std::vector<damped_mode> modes;
+    for (int k = 0; k < 24; ++k)
+        modes.push_back({.freq_hz = freq(rng), .decay_per_s = decay(rng), .amp = std::polar(0.05, phase(rng))});
+    const std::vector<float> x = noisy_modes(modes, count, 5);
+    std::vector<float> x2 = x;  // the next pass's target: a partial rendered and subtracted
+    for (std::size_t n = 0; n < count; ++n) x2[n] -= static_cast<float>(0.01 * std::cos(0.03 * static_cast<double>(n)));
+    const envelope env{.attack_s = 0.01, .peak = level_db{-20.0}, .decay = {{.t60_s = 0.8, .until_s = std::nullopt}}};
+
+    shaped_fit_memo memo;
+    // Pass 1: all plain, solved with a kept factor (the first fit's): the memo keeps its Gram matrix.
+    const one_fit first{.modes = modes, .shapes = std::vector<mode_shape>(modes.size()), .x = x};
+    const plain_gram_factor kept = factor_plain_gram(modes, fs, count);
+    check_same(first, memo, &kept);
+    REQUIRE(memo.count == count);
+
+    // Pass 2: modes 3, 8 and 20 dropped, mode 5 shaped, a new mode added at the end.
+    one_fit second{.x = x};
+    for (std::size_t k = 0; k < modes.size(); ++k) {
+        if (k == 3 || k == 8 || k == 20) continue;
+        second.modes.push_back(modes[k]);
+        second.shapes.push_back(k == 5 ? envelope_shape(env, fs, count) : mode_shape{});
+    }
+    second.modes.push_back({.freq_hz = 333.3, .decay_per_s = 12.0});
+    second.shapes.emplace_back();
+    {
+        // The memo finds every kept plain mode at its old index, and neither the shaped nor the new one.
+        std::vector<mode_shape> own;
+        std::vector<double> omega;
+        std::vector<char> plain;
+        for (std::size_t k = 0; k < second.modes.size(); ++k) {
+            own.push_back(second.shapes[k].empty() ? exponential_shape(-second.modes[k].decay_per_s / fs, count)
+                                                   : second.shapes[k]);
+            omega.push_back(two_pi * second.modes[k].freq_hz / fs);
+            plain.push_back(second.shapes[k].empty() ? 1 : 0);
+        }
+        const std::vector<std::ptrdiff_t> old_of = memo_matches(memo, own, omega, plain, count, fs);
+        const std::vector<std::ptrdiff_t> want{0, 1, 2, 4, -1, 6, 7, 9, 10, 11, 12, 13, 14, 15, 16, 17, 18, 19, 21, 22, 23, -1};
+        CHECK(old_of == want);
+        CHECK(memo_matches(memo, own, omega, plain, count + 1, fs) == std::vector<std::ptrdiff_t>(own.size(), -1));
+    }
+    check_same(second, memo);
+
+    // Pass 3: the same modes on other samples (the projections are taken anew, the Gram copied).
+    one_fit third = second;
+    third.x = x2;
+    check_same(third, memo);
+
+    // Pass 4: the shaped mode and a plain one swapped (pairs now in the other order are computed
+    // anew), one more dropped.
+    one_fit fourth = third;
+    std::swap(fourth.modes[4], fourth.modes[9]);
+    std::swap(fourth.shapes[4], fourth.shapes[9]);
+    fourth.modes.erase(fourth.modes.begin() + 12);
+    fourth.shapes.erase(fourth.shapes.begin() + 12);
+    check_same(fourth, memo);
+
+    // A shorter span: nothing of the memo applies.
+    one_fit shorter = fourth;
+    shorter.x = std::span<const float>(x2).first(count - 100);
+    for (mode_shape& s : shorter.shapes)
+        if (!s.empty()) s = envelope_shape(env, fs, count - 100);
+    check_same(shorter, memo);
+}
