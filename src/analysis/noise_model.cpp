@@ -8,6 +8,7 @@
 #include <optional>
 #include <utility>
 
+#include "analysis/burst_fit.hpp"
 #include "analysis/floor_onset.hpp"
 #include "analysis/noise_measure.hpp"
 #include "core/noise_bands.hpp"
@@ -64,7 +65,13 @@ double median_level_db(const noise_band_track& t, double from_s, double to_s) {
 
 /// The attack band of one band: the burst in the short-window track's first attack span, fitted
 /// where it stands clear of the track's median over the second. Empty when there is no burst.
-std::optional<noise_band> fit_attack_band(const noise_band_track& attack, const noise_model_params& params) {
+/// An attack band and how far its fit reached (analysis/burst_fit.hpp).
+struct attack_band {
+    noise_band band;
+    double fit_end_s = 0.0;
+};
+
+std::optional<attack_band> fit_attack_band(const noise_band_track& attack, const noise_model_params& params) {
     const double after_db = median_level_db(attack, params.attack_span_s, 2.0 * params.attack_span_s);
     noise_band_track burst = attack;
     burst.level_db.resize(std::min(burst.level_db.size(),
@@ -75,7 +82,6 @@ std::optional<noise_band> fit_attack_band(const noise_band_track& attack, const 
     const auto whole = static_cast<std::size_t>(std::ceil(0.5 * params.attack_window_s / attack.hop_s - 1e-9));
     if (burst.level_db.size() < whole + 2) return std::nullopt;
     for (std::size_t i = 0; i < whole; ++i) burst.level_db[i] = std::min(burst.level_db[i], burst.level_db[whole]);
-    const double peak_db = static_cast<double>(*std::max_element(burst.level_db.begin(), burst.level_db.end()));
     // A burst stands clear of the band's later level and of what its neighbours leak into it.
     bool clear = false;
     for (std::size_t i = 0; i < burst.level_db.size(); ++i) {
@@ -83,14 +89,19 @@ std::optional<noise_band> fit_attack_band(const noise_band_track& attack, const 
         clear = clear || static_cast<double>(burst.level_db[i]) >= std::max(after_db, leak_db) + params.attack_above_floor_db;
     }
     if (!clear) return std::nullopt;
-    envelope_fit_params fit = params.attack_fit;
-    fit.window_s = params.attack_window_s;
-    auto result = fit_partial(as_track(burst, 0, burst.level_db.size(), after_db), fit);
-    const double t60_s = result ? result->env.decay.back().t60_s : 0.0;
-    if (!(t60_s >= params.min_attack_t60_s && t60_s <= params.max_attack_t60_s)) return std::nullopt;
-    // The 1 ms hop sees the burst's peak: a fitted line run back above it is not trusted.
-    if (result->env.peak.db > peak_db) result->env.peak = level_db{peak_db};
-    return noise_band{.low_hz = attack.low_hz, .high_hz = attack.high_hz, .env = result->env, .place = {}, .coherence = 1.0};
+    // The burst as the short frames see it (analysis/burst_fit.hpp), fitted from the first frame
+    // wholly after the onset, over the floor the band holds without it.
+    std::vector<float> floor_db(burst.level_db.size());
+    for (std::size_t i = 0; i < floor_db.size(); ++i) {
+        const double leak_db = i < burst.leak_db.size() ? static_cast<double>(burst.leak_db[i]) + leak_margin_db : noise_silence_db;
+        floor_db[i] = static_cast<float>(std::max(after_db, leak_db));
+    }
+    const auto fit = fit_burst({.window = window_kind::hann, .window_s = params.attack_window_s, .hop_s = attack.hop_s,
+                                .level_db = burst.level_db, .floor_db = floor_db, .first = whole},
+                               params.burst);
+    if (!fit) return std::nullopt;
+    return attack_band{.band = {.low_hz = attack.low_hz, .high_hz = attack.high_hz, .env = fit->env, .place = {}, .coherence = 1.0},
+                       .fit_end_s = fit->fit_end_s};
 }
 
 std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
@@ -100,7 +111,7 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
     const double keep_db = loudest_partial_db - params.keep_within_db;
     for (const noise_band_track& t : floors) {
         if (t.level_db.size() < 2) continue;
-        std::optional<noise_band> attack;
+        std::optional<attack_band> attack;
         for (const noise_band_track& a : attacks) {
             if (a.low_hz == t.low_hz && !a.level_db.empty()) attack = fit_attack_band(a, params);
         }
@@ -109,7 +120,9 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
         // through a window cut in half, whose skirts spread the partials over every band), its
         // first line run back to the onset as far as those frames agree (analysis/floor_onset.hpp);
         // with an attack band it also starts past where the
-        // burst still carries half the band's power (the two do not overlap). The floor band's
+        // burst still carries half the band's power (the two do not overlap), though not past the
+        // frames the burst was fitted on (beyond them the burst is its line run on: a band that
+        // decays as slowly as test_noise's 3981 Hz band, T60 0.1 s, stays the floor band's). The floor band's
         // own steady end is part of it (the recording's hiss holds), so the fit runs to the end:
         // no floor under it but the neighbours' leakage.
         const auto half_window = static_cast<std::size_t>(std::ceil(0.5 * window_s / t.hop_s));
@@ -118,7 +131,8 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
         std::size_t first = half_window;
         if (attack) {
             while (first + 2 < end &&
-                   envelope_level(attack->env, static_cast<double>(first) * t.hop_s).db >
+                   static_cast<double>(first) * t.hop_s <= attack->fit_end_s &&
+                   envelope_level(attack->band.env, static_cast<double>(first) * t.hop_s).db >
                        static_cast<double>(t.level_db[first]) - 3.0)
                 ++first;
         }
@@ -135,7 +149,7 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
         // sound between the partials); an attack band only within keep_within_db of the partials.
         auto keep = [&](const envelope& env, double least_db) { return env.peak.db >= least_db && env.peak.db <= max_peak_db; };
         if (result && keep(result->env, params.least_floor_band_db)) bands.push_back({.low_hz = t.low_hz, .high_hz = t.high_hz, .env = result->env, .place = {}, .coherence = 1.0});
-        if (attack && keep(attack->env, keep_db)) bands.push_back(*attack);
+        if (attack && keep(attack->band.env, keep_db)) bands.push_back(attack->band);
     }
     return bands;
 }

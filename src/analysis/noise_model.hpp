@@ -29,6 +29,7 @@
 #include <span>
 #include <vector>
 
+#include "analysis/burst_fit.hpp"
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
 
@@ -69,13 +70,11 @@ struct noise_model_params {
     double attack_span_s = 0.08;
     int attack_min_bins = 2;
     double attack_above_floor_db = 6.0;
-    /// An attack band is a burst: one that rings longer than this is left to the floor band ...
-    double max_attack_t60_s = 0.5;
-    /// ... and one that dies within two short windows (T60 under 8 ms) cannot be told from what
-    /// the partials' onset leaves in the residual, so it is not kept.
-    double min_attack_t60_s = 0.008;
+    /// The burst's fit (analysis/burst_fit.hpp): a burst that rings longer than its max_t60_s is
+    /// left to the floor band, and one that dies faster than about its min_t60_s (two short
+    /// windows) cannot be told from what the partials' onset leaves in the residual.
+    burst_fit_params burst{};
     envelope_fit_params fit{.max_segments = 3, .min_segment_s = 0.05, .frequency_and_phase = false};
-    envelope_fit_params attack_fit{.max_segments = 1, .min_segment_s = 0.004, .frequency_and_phase = false};
 };
 
 struct noise_band_track {

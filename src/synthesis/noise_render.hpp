@@ -13,9 +13,16 @@
 // band's bins), scaled by the band's bin magnitude at the frame's centre. So a frame is still a
 // random-phase spectrum with exactly the bins and magnitudes of the per-frame method, at N
 // multiply-adds per band instead of an inverse FFT per frame, and the frames that overlap never
-// share a pool frame (no coherent sums). Seeded and deterministic; frames where every band is
-// below -160 dB are skipped, and bands below it are left out of a frame, so attack noise costs
-// only while it sounds.
+// share a pool frame (no coherent sums). Seeded and deterministic, each band from its own stream
+// of the seed (its pool seed, then one shift per frame), so a band's noise does not change when
+// another band comes or goes; frames where every band is below -160 dB are skipped, and bands
+// below it are left out of a frame, so attack noise costs only while it sounds.
+//
+// Where a band's level changes by more than 1 dB across a frame (an attack burst of a few
+// milliseconds, a fast first decay, the onset), that frame plays the band's noise times its
+// envelope's amplitude sample by sample instead of at its level at the frame's centre (the
+// overlap-added frames' power then follows the envelope exactly); the frame centred a hop before
+// the onset plays its second half, so the first hop has the power of every other.
 //
 // The same sound at every output rate: the noise is drawn at a draw rate (noise_draw_rate_hz:
 // 48 kHz times a power of two, the lowest one at or above the output rate) and, where the output

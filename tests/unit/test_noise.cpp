@@ -26,6 +26,14 @@ namespace {
 
 constexpr double rate_hz = 48000.0;
 
+/// The T60 of a band's first falling segment (a burst may hold its level before it falls:
+/// analysis/burst_fit.hpp), inf when none falls.
+double first_fall_t60_s(const envelope& env) {
+    for (const decay_segment& seg : env.decay)
+        if (std::isfinite(seg.t60_s) && seg.t60_s > 0.0) return seg.t60_s;
+    return infinity;
+}
+
 
 /// White noise band-passed by FFTW (bins outside [low, high) zeroed), scaled to unit power.
 std::vector<double> band_noise(std::size_t n, double low_hz, double high_hz, std::uint64_t seed) {
@@ -140,20 +148,24 @@ TEST_CASE("band noise with known levels and decays plus two partials: levels wit
     for (const band_truth& b : truth) {
         INFO("band at " << b.mid_hz << " Hz");
         // The band may come as a floor band plus an attack band on top: the louder one at the onset
-        // carries the level, the floor band the decay.
+        // carries the level, the one still sounding at a third of the truth's T60 the decay (its
+        // first falling segment: a burst may hold before it falls).
         double level_at_onset_power = 0.0;
         const noise_band* floor_band = nullptr;
+        const double later_s = b.t60_s / 3.0;
         for (const noise_band& band : p.noise) {
             if (!(band.low_hz <= b.mid_hz && b.mid_hz < band.high_hz)) continue;
             level_at_onset_power += std::pow(10.0, band.env.peak.db / 10.0);
-            if (floor_band == nullptr || band.env.decay.front().t60_s > floor_band->env.decay.front().t60_s)
+            if (floor_band == nullptr ||
+                envelope_level(band.env, later_s).db > envelope_level(floor_band->env, later_s).db)
                 floor_band = &band;
         }
         REQUIRE(floor_band != nullptr);
         const double level_db = 10.0 * std::log10(level_at_onset_power);
-        CAPTURE(floor_band->env.decay.front().t60_s, b.t60_s, level_db, b.peak_db);
-        CHECK_THAT(level_db, WithinAbs(b.peak_db, 2.0));                              // ground truth
-        CHECK_THAT(floor_band->env.decay.front().t60_s, WithinRel(b.t60_s, 0.15));  // ground truth
+        const double t60_s = first_fall_t60_s(floor_band->env);
+        CAPTURE(t60_s, b.t60_s, level_db, b.peak_db);
+        CHECK_THAT(level_db, WithinAbs(b.peak_db, 2.0));    // ground truth
+        CHECK_THAT(t60_s, WithinRel(b.t60_s, 0.15));        // ground truth
     }
     // Where the test put no band, the copy's noise adds no more than the floor the test put there
     // (white noise at -100 dB RMS: a band's share is -100 dB + 10 log10(band width / Nyquist)),
@@ -381,7 +393,8 @@ TEST_CASE("the noise model with the residual streamed gives the bands of the res
     CHECK(streamed == held);
 }
 
-TEST_CASE("a broadband burst over low partials: its energy within 2 dB over the bands (6 dB in each), T60 within 25%",
+TEST_CASE("a broadband burst over low partials: its energy within 2 dB over the bands (6 dB in each), T60 within 15% "
+          "(median over the bands, 45% in each)",
           "[noise]") {
     // A mallet's or a hammer's contact noise: white noise over 2818-14125 Hz (the edges of the
     // layout's bands 3548 .. 11220 Hz: IEC 61260-1 mid-bands 1000 G^(k/3), k = 6 .. 10, with the
@@ -417,12 +430,14 @@ TEST_CASE("a broadband burst over low partials: its energy within 2 dB over the 
     // burst for modes (measured: six at 9.2-13.6 kHz, -36..-42 dB), which is not this test's matter.
     const patch p = analyze_note(samples, rate_hz, {.refine_onset = false}).value;
     double all_energy = 0.0, all_truth_energy = 0.0;
+    std::vector<double> band_t60_s;
     for (const double mid_hz : {3981.07, 5011.87, 6309.57, 7943.28, 10000.0}) {
         const double g = std::pow(10.0, 0.05);  // half a base-10 third octave, G^(1/6)
         const double truth_db = burst_db + 10.0 * std::log10(mid_hz * (g - 1.0 / g) / (span_high_hz - span_low_hz));
         // The burst's energy over its first 100 ms (a fitted rise trades peak against attack time,
         // the energy stays), summed over the bands covering this one, against the truth's; and the
-        // burst's T60: the fastest first segment among them (a floor band under it decays no faster).
+        // burst's T60: the fastest first falling segment among them (a floor band under it decays no
+        // faster; a burst may hold before it falls).
         constexpr double step_s = 0.0001;
         constexpr int steps = 1000;  // 100 ms
         double energy = 0.0, truth_energy = 0.0, fastest_t60_s = infinity;
@@ -431,19 +446,28 @@ TEST_CASE("a broadband burst over low partials: its energy within 2 dB over the 
         for (const noise_band& band : p.noise) {
             if (!(band.low_hz <= mid_hz && mid_hz < band.high_hz)) continue;
             for (int i = 0; i < steps; ++i) energy += std::pow(10.0, envelope_level(band.env, i * step_s).db / 10.0) * step_s;
-            fastest_t60_s = std::min(fastest_t60_s, band.env.decay.front().t60_s);
+            fastest_t60_s = std::min(fastest_t60_s, first_fall_t60_s(band.env));
         }
         all_energy += energy;
         all_truth_energy += truth_energy;
         const double energy_diff_db = 10.0 * std::log10(energy / truth_energy);
         INFO("band at " << mid_hz << " Hz");
         CAPTURE(energy_diff_db, truth_db, fastest_t60_s, burst_t60_s);
-        // Measured (seeds 21-23): -5.0 .. +0.7 dB, T60 0.076-0.084 s; with the leakage of every
-        // band as the burst's floor it was -14 .. -1.6 dB, T60 0.019-0.122 s (no burst fitted in
-        // most bands, only the floor band's slower fit).
+        // Measured (seeds 21-23): -3.1 .. +2.2 dB, T60 0.066-0.114 s with the burst fitted as
+        // the short frames see it (analysis/burst_fit.hpp, over the first 20 dB of its fall);
+        // with the partials' line fit on every frame of the attack span it was -5.0 .. +0.7 dB,
+        // T60 0.076-0.084 s; with the leakage of every band as the burst's floor -14 .. -1.6 dB,
+        // T60 0.019-0.122 s. One band's T60 from its first 20 dB (27 ms of 1 ms frames of a
+        // third-octave band) scatters with the noise: seed 22's 3981 Hz band read its first
+        // 10 ms 5 dB low and came out 0.114 s; the burst's T60 is checked on the median of the
+        // bands.
         CHECK_THAT(energy_diff_db, WithinAbs(0.0, 6.0));            // ground truth
-        CHECK_THAT(fastest_t60_s, WithinRel(burst_t60_s, 0.25));    // ground truth
+        CHECK_THAT(fastest_t60_s, WithinRel(burst_t60_s, 0.45));    // ground truth
+        band_t60_s.push_back(fastest_t60_s);
     }
+    std::nth_element(band_t60_s.begin(), band_t60_s.begin() + 2, band_t60_s.end());
+    CAPTURE(band_t60_s[2]);
+    CHECK_THAT(band_t60_s[2], WithinRel(burst_t60_s, 0.15));  // ground truth (median of the five)
     const double all_diff_db = 10.0 * std::log10(all_energy / all_truth_energy);
     CAPTURE(all_diff_db);
     CHECK_THAT(all_diff_db, WithinAbs(0.0, 2.0));  // ground truth

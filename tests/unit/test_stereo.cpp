@@ -277,7 +277,11 @@ TEST_CASE("stereo analysis: a decaying noise band keeps its pan when the right c
     // as placed start at the onset, so its residual holds their first delay_s, a broadband click
     // the recording does not have. A quiet high band that decays (most of its energy in the first
     // 0.1 s, where the noise placement measures with the short window) must keep its pan.
-    // Reference: the pan law (core/stereo.hpp) of the rendered band; tolerance 1 dB.
+    // Reference: the level difference of the band as rendered, its own channels' energies over the
+    // measured second after the analysis's onset (the band rendered alone, same seed, the right
+    // delayed as in the note); tolerance 1 dB. Not the pan law's nominal difference: over so few
+    // independent samples the draw itself moves the channels' difference by up to 1.3 dB (noise
+    // seeds 13..913: 2.95-5.56 dB for a nominal 4.25), and the analysis can only measure the draw.
     const double delay_s = GENERATE(0.0003, 0.0008);
     const double high_pan = GENERATE(-0.3, 0.3);
     patch p = stereo_patch({make_partial(220.0, -14.0, 2.0, 0.3, {}), make_partial(440.0, -18.0, 1.5, -1.1, {}),
@@ -303,9 +307,21 @@ TEST_CASE("stereo analysis: a decaying noise band keeps its pan when the right c
     for (const noise_band& q : r.value.noise)
         if (std::abs(q.low_hz - 5623.41) < 1.0 && (!high || q.env.peak.db > high->env.peak.db)) high = &q;
     REQUIRE(high != nullptr);
-    const double want_db = pan_level_difference_db(high_pan);
+    patch band_alone = p;
+    band_alone.partials.clear();
+    const auto alone = render_channels(band_alone, {.sample_rate_hz = fs, .noise_seed = 13});
+    const auto onset = static_cast<std::size_t>(std::llround(r.value.source.onset_s * fs));
+    const auto span = static_cast<std::size_t>(std::llround(stereo_place_params{}.noise_span_s * fs));
+    REQUIRE(onset + span <= alone[0].size());
+    double left_energy = 0.0, right_energy = 0.0;
+    for (std::size_t i = onset; i < onset + span; ++i) {
+        left_energy += static_cast<double>(alone[0][i]) * static_cast<double>(alone[0][i]);
+        if (i >= shift) right_energy += static_cast<double>(alone[1][i - shift]) * static_cast<double>(alone[1][i - shift]);
+    }
+    const double want_db = 10.0 * std::log10(right_energy / left_energy);
+    const double nominal_db = pan_level_difference_db(high_pan);
     const double got_db = pan_level_difference_db(high->place.pan);
-    CAPTURE(delay_s, high_pan, high->place.pan, want_db, got_db, r.value.source.onset_s);
+    CAPTURE(delay_s, high_pan, high->place.pan, nominal_db, want_db, got_db, r.value.source.onset_s);
     CHECK_THAT(got_db, WithinAbs(want_db, 1.0));
 }
 
@@ -314,17 +330,21 @@ TEST_CASE("stereo analysis: a noise band's pan follows the channels' energies ov
     // The high band decays faster in the left channel than in the right (independent noise per
     // channel), so most of the left's energy lies in the first tens of ms, which the long floor
     // window cannot see whole. The pan must follow the band's energy in each channel over the
-    // measured first second (tools/eval_stereo.py's level difference). Reference: the closed form
-    // of each channel's energy, E(t60) = t60 / (6 ln 10) (1 - 10^(-6 T / t60)) for T = 1 s of a
-    // band falling 60 dB per t60; tolerance 1.5 dB (the short window's estimate over tens of ms).
+    // measured first second (tools/eval_stereo.py's level difference). Reference: each channel's
+    // band as rendered (the band alone, same seed), its energy over the first second; tolerance
+    // 1.5 dB (the short window's estimate over tens of ms). Not the closed form of the envelope's
+    // energy, t60 / (6 ln 10) (1 - 10^(-6 T / t60)): the left's 80 ms band holds a quarter of its
+    // energy in its first 2.5 ms, and its draw (seed 3) lies 1.5 dB from that form (9.47 dB
+    // rendered against 7.96), which the analysis can only measure, not know.
     const double left_t60_s = GENERATE(0.08, 0.15);
     const double right_t60_s = 0.5;
-    const auto channel = [](double t60_s, std::uint64_t seed) {
+    const auto channel = [](double t60_s, std::uint64_t seed, bool with_partials) {
         patch p;
         p.note.f0_hz = 220.0;
         p.note.length_s = 1.5;
-        p.partials = {make_partial(220.0, -14.0, 2.0, 0.3, {}), make_partial(440.0, -18.0, 1.5, -1.1, {}),
-                      make_partial(660.0, -22.0, 1.2, 2.0, {})};
+        if (with_partials)
+            p.partials = {make_partial(220.0, -14.0, 2.0, 0.3, {}), make_partial(440.0, -18.0, 1.5, -1.1, {}),
+                          make_partial(660.0, -22.0, 1.2, 2.0, {})};
         noise_band b;
         b.low_hz = 5623.41;
         b.high_hz = 7079.46;
@@ -333,12 +353,17 @@ TEST_CASE("stereo analysis: a noise band's pan follows the channels' energies ov
         p.noise = {b};
         return render_patch(p, {.sample_rate_hz = fs, .noise_seed = seed});
     };
-    std::vector<std::vector<float>> ch = {channel(left_t60_s, 3), channel(right_t60_s, 4)};
+    std::vector<std::vector<float>> ch = {channel(left_t60_s, 3, true), channel(right_t60_s, 4, true)};
     analysis_params ap;
     ap.match_peak = false;
     const analysis_result r = analyze_stereo_note(mean_of(ch), ch[0], ch[1], fs, ap, {});
-    const auto energy = [](double t60_s) { return t60_s / (6.0 * std::log(10.0)) * (1.0 - std::pow(10.0, -6.0 / t60_s)); };
-    const double want_db = 10.0 * std::log10(energy(right_t60_s) / energy(left_t60_s));
+    REQUIRE(r.value.source.onset_s == 0.0);
+    const auto energy = [](const std::vector<float>& x) {
+        double sum = 0.0;
+        for (std::size_t i = 0; i < static_cast<std::size_t>(fs); ++i) sum += static_cast<double>(x[i]) * static_cast<double>(x[i]);
+        return sum;
+    };
+    const double want_db = 10.0 * std::log10(energy(channel(right_t60_s, 4, false)) / energy(channel(left_t60_s, 3, false)));
     int found = 0;
     for (const noise_band& q : r.value.noise) {
         if (std::abs(q.low_hz - 5623.41) > 1.0) continue;
@@ -349,3 +374,4 @@ TEST_CASE("stereo analysis: a noise band's pan follows the channels' energies ov
     }
     CHECK(found >= 1);
 }
+
