@@ -136,6 +136,22 @@ heard_span_spectrum move_to_long_spectrum(analysis_result& out, std::vector<cut_
     return heard;
 }
 
+/// Decay segments over all partials.
+int segment_count(const patch& p) {
+    int count = 0;
+    for (const partial& q : p.partials) count += static_cast<int>(q.env.decay.size());
+    return count;
+}
+
+/// The early pitch glides (analysis/onset_glide.hpp) on the recording from the patch's onset
+/// (the modes' start, where its phases count from); how many partials glide.
+int glides_from_onset(analysis_result& out, std::span<const float> part, double sample_rate_hz,
+                      const onset_glide_params& params) {
+    const auto start = static_cast<std::size_t>(std::llround(out.tracking.onset_s * sample_rate_hz));
+    if (start >= part.size()) return 0;
+    return fit_onset_glides(out.value, part.subspan(start), sample_rate_hz, params).glides;
+}
+
 }  // namespace
 
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
@@ -200,18 +216,11 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
             const double shift_s = static_cast<double>(refined.start_shift_n) / sample_rate_hz;
             out.tracking.onset_s += shift_s;
             p.source.onset_s += shift_s;
-            out.summary.segments = 0;
-            for (const partial& q : p.partials) out.summary.segments += static_cast<int>(q.env.decay.size());
+            out.summary.segments = segment_count(p);
         }
     }
     done("onset refinement");
-    if (params.fit_glides) {
-        const auto start = static_cast<std::size_t>(std::llround(out.tracking.onset_s * sample_rate_hz));
-        if (start < part.size()) {
-            const onset_glide_summary g = fit_onset_glides(p, part.subspan(start), sample_rate_hz, params.glides);
-            out.summary.glides = g.glides;
-        }
-    }
+    if (params.fit_glides) out.summary.glides = glides_from_onset(out, part, sample_rate_hz, params.glides);
     done("onset glides");
     if (params.soften_start) out.summary.start_ramp_s = soften_partials_start(out, part, sample_rate_hz, params);
     done("start rise");
