@@ -136,6 +136,34 @@ heard_span_spectrum move_to_long_spectrum(analysis_result& out, std::vector<cut_
     return heard;
 }
 
+/// Decay segments over all partials.
+int segment_count(const patch& p) {
+    int count = 0;
+    for (const partial& q : p.partials) count += static_cast<int>(q.env.decay.size());
+    return count;
+}
+
+/// The early pitch glides (analysis/onset_glide.hpp) on the recording from the patch's onset
+/// (the modes' start, where its phases count from); how many partials glide.
+int glides_from_onset(analysis_result& out, std::span<const float> part, double sample_rate_hz,
+                      const onset_glide_params& params) {
+    const auto start = static_cast<std::size_t>(std::llround(out.tracking.onset_s * sample_rate_hz));
+    if (start >= part.size()) return 0;
+    return fit_onset_glides(out.value, part.subspan(start), sample_rate_hz, params).glides;
+}
+
+/// The close modes of the strongest partials (analysis/mode_split.hpp) on the recording from the
+/// patch's onset; counts them in the summary.
+void split_strong_partials(analysis_result& out, std::span<const float> part, double sample_rate_hz,
+                           const mode_split_params& params) {
+    const auto start = static_cast<std::size_t>(std::llround(out.tracking.onset_s * sample_rate_hz));
+    if (start >= part.size()) return;
+    const mode_split_summary split = split_into_modes(out.value, part.subspan(start), sample_rate_hz, params);
+    out.summary.modes_split = split.split;
+    out.summary.modes_added = split.modes_added;
+    out.summary.partials = static_cast<int>(out.value.partials.size());
+}
+
 }  // namespace
 
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
@@ -200,18 +228,13 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
             const double shift_s = static_cast<double>(refined.start_shift_n) / sample_rate_hz;
             out.tracking.onset_s += shift_s;
             p.source.onset_s += shift_s;
-            out.summary.segments = 0;
-            for (const partial& q : p.partials) out.summary.segments += static_cast<int>(q.env.decay.size());
+            out.summary.segments = segment_count(p);
         }
     }
     done("onset refinement");
-    if (params.split_modes && onset_frame < part.size()) {
-        const auto onset = static_cast<std::size_t>(std::llround(out.tracking.onset_s * sample_rate_hz));
-        const mode_split_summary split = split_into_modes(p, part.subspan(std::min(onset, part.size())), sample_rate_hz, params.modes);
-        out.summary.modes_split = split.split;
-        out.summary.modes_added = split.modes_added;
-        out.summary.partials = static_cast<int>(p.partials.size());
-    }
+    if (params.fit_glides) out.summary.glides = glides_from_onset(out, part, sample_rate_hz, params.glides);
+    done("onset glides");
+    if (params.split_modes) split_strong_partials(out, part, sample_rate_hz, params.modes);
     done("mode split");
     if (params.soften_start) out.summary.start_ramp_s = soften_partials_start(out, part, sample_rate_hz, params);
     done("start rise");

@@ -19,6 +19,7 @@
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "tracking/tracker.hpp"
+#include "analysis/onset_glide.hpp"
 
 namespace wane {
 
@@ -43,8 +44,12 @@ struct analysis_params {
     /// Set note.gain_db so the copy peaks with the recording (peak_matching_gain_db).
     bool match_peak = true;
     onset_refine_params onset{};
-    /// Replace the strongest partials by a few close modes each where those fit the recording
-    /// better (analysis/mode_split.hpp).
+    /// Fit each strong partial's early pitch glide on the waveform after the onset refinement
+    /// (analysis/onset_glide.hpp); analyze_stereo_note turns it off for the mix.
+    bool fit_glides = true;
+    onset_glide_params glides{};
+    /// Then replace the strongest partials without a glide by a few close modes each where those
+    /// fit the recording better (analysis/mode_split.hpp).
     bool split_modes = true;
     mode_split_params modes{};
     /// Give the partials that start at once a sub-millisecond rise where their jump from silence
@@ -72,6 +77,7 @@ struct analysis_summary {
     int new_modes = 0;             ///< partials added by the onset refinement (short-lived modes)
     /// Energy of the first fit span explained by the partials, dB (onset refinement).
     double onset_explained_db = 0.0;
+    int glides = 0;               ///< partials given an early pitch glide (analysis/onset_glide.hpp)
     int modes_split = 0;           ///< partials replaced by close modes (analysis/mode_split.hpp)
     int modes_added = 0;           ///< ... and the partials that added
     double start_ramp_s = 0.0;     ///< the instant partials' rise (analysis/start_ramp.hpp), 0: none

@@ -419,6 +419,8 @@ analysis_result analyze_stereo_note(std::span<const float> mix, std::span<const 
     // loud rising low band move that residual and, through the low band's skirt, the pan of a quiet
     // high band (tests/unit/test_stereo.cpp).
     mix_params.onset.attacks.max_rising_partials = 0;
+    // The channels are placed by one phase per partial (plain damped modes): no glides on the mix.
+    mix_params.fit_glides = false;
     analysis_result out = analyze_note(mix, sample_rate_hz, mix_params);
     patch& p = out.value;
     const auto onset = std::min(static_cast<std::size_t>(std::llround(p.source.onset_s * sample_rate_hz)), mix.size());

@@ -35,6 +35,14 @@ double glide_cents_at(double glide_cents, double glide_s, double time_s);
 /// glide (glide_cents = 0).
 double glide_remaining_phase_rad(double freq_hz, double glide_cents, double glide_s, double time_s);
 
+/// R with the decay factor e^(-t / tau) given instead of t (for a caller that evaluates many
+/// offsets at the same instants): 2 pi f tau Ein(x0 decay).
+double glide_remaining_phase_at_decay_rad(double freq_hz, double glide_cents, double glide_s, double decay);
+
+/// f(t) / f - 1 = 2^(c(t) / 1200) - 1 = expm1(x0 decay) at the decay factor e^(-t / tau): the
+/// frequency excess, so the glide's phase advances by 2 pi f times it per second.
+double glide_freq_excess_at_decay(double glide_cents, double decay);
+
 /// G = R(0): the whole glide's phase (rad); the settled partial plays at phase + G.
 double glide_total_phase_rad(double freq_hz, double glide_cents, double glide_s);
 

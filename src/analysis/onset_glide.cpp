@@ -1,0 +1,293 @@
+// Each strong partial's early pitch glide on the waveform (see onset_glide.hpp).
+#include "analysis/onset_glide.hpp"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+#include <complex>
+#include <numeric>
+#include <optional>
+#include <tuple>
+#include <vector>
+
+#include "core/envelope.hpp"
+#include "core/glide.hpp"
+#include "core/units.hpp"
+#include "synthesis/render.hpp"
+
+namespace wane {
+
+namespace {
+
+using cplx = std::complex<double>;
+
+/// Frames of the render the stage compares over, and a render long enough that its end fade
+/// (synthesis/render.hpp) lies past them.
+constexpr double render_margin_s = 2.0 * end_fade_s;
+
+/// The partials of q alone (or of the whole patch when q is null) over the first `count` frames,
+/// as the renderer plays them (note gain and band limit included).
+std::vector<double> render_start(const patch& p, const partial* q, double rate_hz, std::size_t count) {
+    patch one = p;
+    one.noise.clear();
+    if (q) one.partials = {*q};
+    one.note.length_s = static_cast<double>(count) / rate_hz + render_margin_s;
+    const partial_renderer r(one, {.sample_rate_hz = rate_hz, .include_noise = false});
+    std::vector<float> y(count);
+    r.render(0, y);
+    return {y.begin(), y.end()};
+}
+
+/// The block sums of z[n] = y[n] a[n] e^(-j 2 pi f n / fs) and of (n - centre) z[n].
+struct block_sums {
+    std::vector<cplx> z;
+    std::vector<cplx> z1;
+    std::vector<double> centre_s;
+    double amp_energy = 0.0;  ///< D = sum a^2
+    /// sum_b 2 |Z_b|^2 / block: with a = 1, the energy y holds within about a block's inverse of f
+    /// (each block's sum is a boxcar filter at f, first null 1 / block_s away).
+    double band_energy = 0.0;
+};
+
+/// The block sums with a = 1 (flat) and with a = q's envelope amplitude (shaped), one pass.
+void sum_blocks(std::span<const double> y, const partial& q, double gain_lin, double rate_hz, std::size_t block,
+                block_sums& flat, block_sums& shaped) {
+    const double cycles_per_frame = q.freq_hz / rate_hz;
+    // The envelope's amplitude (core/envelope.hpp's definition), its pieces made once.
+    const std::vector<envelope_piece> pieces = envelope_pieces(q.env);
+    const double peak_lin = to_amp(q.env.peak).lin;
+    std::size_t piece = 0;
+    const auto amp_at = [&](double t) {
+        if (t < q.env.attack_s) return peak_lin * t / q.env.attack_s;
+        while (piece + 1 < pieces.size() && t >= pieces[piece].end_s) ++piece;
+        const envelope_piece& e = pieces[piece];
+        return to_amp(level_db{e.start_level.db + e.slope_db_per_s * (t - e.start_s)}).lin;
+    };
+    for (std::size_t b0 = 0; b0 + block <= y.size(); b0 += block) {
+        const double centre = static_cast<double>(b0) + 0.5 * static_cast<double>(block - 1);
+        cplx zf{}, z1f{}, zs{}, z1s{};
+        for (std::size_t n = b0; n < b0 + block; ++n) {
+            const double t = static_cast<double>(n) / rate_hz;
+            const double a = gain_lin * amp_at(t);
+            double cycles = static_cast<double>(n) * cycles_per_frame;
+            cycles -= std::floor(cycles);
+            const cplx z = y[n] * std::polar(1.0, -two_pi * cycles);
+            const double offset = static_cast<double>(n) - centre;
+            zf += z;
+            z1f += offset * z;
+            zs += a * z;
+            z1s += offset * a * z;
+            flat.amp_energy += 1.0;
+            shaped.amp_energy += a * a;
+        }
+        for (auto [sums, z0, z1] : {std::tuple{&flat, zf, z1f}, std::tuple{&shaped, zs, z1s}}) {
+            sums->band_energy += 2.0 * std::norm(z0) / static_cast<double>(block);
+            sums->z.push_back(z0);
+            sums->z1.push_back(z1);
+            sums->centre_s.push_back(centre / rate_hz);
+        }
+    }
+}
+
+/// The block sums of blocks twice as long (pairs merged, Z1 moved to the pair's centre): the
+/// coarse search's, where the glide's second-order term may be 4 times the fine blocks'.
+block_sums merged_pairs(const block_sums& s, double rate_hz) {
+    block_sums out;
+    out.amp_energy = s.amp_energy;
+    out.band_energy = s.band_energy;
+    for (std::size_t b = 0; b + 1 < s.z.size(); b += 2) {
+        const double centre_s = 0.5 * (s.centre_s[b] + s.centre_s[b + 1]);
+        const double half_frames = 0.5 * (s.centre_s[b + 1] - s.centre_s[b]) * rate_hz;
+        out.z.push_back(s.z[b] + s.z[b + 1]);
+        out.z1.push_back(s.z1[b] - half_frames * s.z[b] + s.z1[b + 1] + half_frames * s.z[b + 1]);
+        out.centre_s.push_back(centre_s);
+    }
+    return out;
+}
+
+/// S(c0, tau) from the block sums (onset_glide.hpp); decay[b] = e^(-t_b / tau) at the blocks' centres.
+cplx projection(const block_sums& s, double freq_hz, double cents, double glide_s, std::span<const double> decay,
+                double rate_hz) {
+    if (cents == 0.0) return std::accumulate(s.z.begin(), s.z.end(), cplx{});
+    cplx sum{};
+    const double whole_rad = glide_remaining_phase_at_decay_rad(freq_hz, cents, glide_s, 1.0);
+    const double rad_per_frame = two_pi * freq_hz / rate_hz;
+    for (std::size_t b = 0; b < s.z.size(); ++b) {
+        const double g = whole_rad - glide_remaining_phase_at_decay_rad(freq_hz, cents, glide_s, decay[b]);
+        const double slope = rad_per_frame * glide_freq_excess_at_decay(cents, decay[b]);  // g' per frame
+        sum += std::polar(1.0, -g) * (s.z[b] - cplx(0.0, slope) * s.z1[b]);
+    }
+    return sum;
+}
+
+struct glide_fit {
+    double cents = 0.0;
+    double glide_s = 0.0;
+    double explained = 0.0;  ///< E = 2 |S|^2 / D
+    cplx amp{};              ///< C = 2 S / D
+};
+
+/// e^(-t_b / tau) at the blocks' centres.
+std::vector<double> decays(const block_sums& s, double glide_s) {
+    std::vector<double> out(s.centre_s.size());
+    for (std::size_t b = 0; b < out.size(); ++b) out[b] = std::exp(-s.centre_s[b] / glide_s);
+    return out;
+}
+
+glide_fit evaluate(const block_sums& s, double freq_hz, double cents, double glide_s, double rate_hz,
+                   std::span<const double> decay) {
+    const cplx sum = projection(s, freq_hz, cents, glide_s, decay, rate_hz);
+    return {.cents = cents, .glide_s = glide_s, .explained = 2.0 * std::norm(sum) / s.amp_energy,
+            .amp = 2.0 * sum / s.amp_energy};
+}
+
+glide_fit evaluate(const block_sums& s, double freq_hz, double cents, double glide_s, double rate_hz) {
+    if (cents == 0.0) return evaluate(s, freq_hz, 0.0, 0.0, rate_hz, {});
+    return evaluate(s, freq_hz, cents, glide_s, rate_hz, decays(s, glide_s));
+}
+
+/// The best (c0, tau): the coarse grid, then the fine one around its best.
+glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onset_glide_params& params) {
+    glide_fit best;
+    const block_sums coarse_sums = merged_pairs(s, rate_hz);
+    const auto steps = static_cast<int>(std::floor(params.max_abs_cents / params.cents_step));
+    const double ratio = std::pow(params.max_fit_glide_s / params.min_fit_glide_s, 1.0 / (params.glide_s_steps - 1));
+    for (int j = 0; j < params.glide_s_steps; ++j) {
+        const double glide_s = params.min_fit_glide_s * std::pow(ratio, j);
+        const std::vector<double> decay = decays(coarse_sums, glide_s);
+        for (int i = -steps; i <= steps; ++i) {
+            if (i == 0) continue;
+            const glide_fit f = evaluate(coarse_sums, freq_hz, i * params.cents_step, glide_s, rate_hz, decay);
+            if (f.explained > best.explained) best = f;
+        }
+    }
+    const glide_fit coarse = best;
+    best = evaluate(s, freq_hz, coarse.cents, coarse.glide_s, rate_hz);  // on the fine blocks
+    const auto fine = static_cast<int>(std::round(params.cents_step / params.fine_cents_step));
+    const int half_octave = params.fine_glide_s_steps_per_octave / 2;
+    for (int j = -half_octave; j <= half_octave; ++j) {
+        const double glide_s = std::clamp(coarse.glide_s * std::exp2(static_cast<double>(j) / params.fine_glide_s_steps_per_octave),
+                                          params.min_fit_glide_s / 2.0, max_glide_s);
+        const std::vector<double> decay = decays(s, glide_s);
+        for (int i = -fine; i <= fine; ++i) {
+            const double cents = coarse.cents + i * params.fine_cents_step;
+            if (cents == 0.0) continue;
+            const glide_fit f = evaluate(s, freq_hz, cents, glide_s, rate_hz, decay);
+            if (f.explained > best.explained) best = f;
+        }
+    }
+    return best;
+}
+
+/// The glide of partial q on y (q's partial alone plus what the copy leaves), when it is kept
+/// (onset_glide.hpp): the search with a = 1, C with a = q's envelope.
+std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, double gain_lin, double rate_hz,
+                                   std::size_t block, const onset_glide_params& params) {
+    block_sums flat;
+    block_sums shaped;
+    sum_blocks(y, q, gain_lin, rate_hz, block, flat, shaped);
+    if (!(flat.amp_energy > 0.0) || !(shaped.amp_energy > 0.0)) return std::nullopt;
+    const glide_fit none = evaluate(flat, q.freq_hz, 0.0, 0.0, rate_hz);
+    glide_fit best = search(flat, q.freq_hz, rate_hz, params);
+    // A best at the grid's edge (the largest offset or the longest time constant) is a partial
+    // off its frequency over the whole span, not a glide that settles onto it.
+    const bool at_edge = std::abs(best.cents) >= params.max_abs_cents || best.glide_s >= params.max_fit_glide_s;
+    // What the glide explains more, against the smaller of what the partial explains without it
+    // and what stays unexplained near f.
+    const double unexplained = flat.band_energy - best.explained;
+    const double share = std::pow(10.0, params.min_gain_db / 10.0) - 1.0;
+    const double extra = best.explained - none.explained;
+    if (!(unexplained > 0.0 && extra > 0.0) || at_edge || std::abs(best.cents) < params.min_cents ||
+        extra < share * std::min(none.explained, unexplained)) {
+        return std::nullopt;
+    }
+    best.amp = evaluate(shaped, q.freq_hz, best.cents, best.glide_s, rate_hz).amp;
+    return best;
+}
+
+/// The partial's start level times `scale` (clamped to +-max_db): the peak moves, and a first
+/// decay segment with an end keeps its level there (its T60 follows), so the later envelope stays.
+void scale_start(envelope& env, double scale, double max_db) {
+    const double change_db = std::clamp(to_level(amp_lin{scale}).db, -max_db, max_db);
+    if (env.decay.size() >= 2 && env.decay[0].until_s) {
+        const double until_s = *env.decay[0].until_s;
+        const double end_db = envelope_level(env, until_s).db;
+        const double new_peak_db = env.peak.db + change_db;
+        const double drop_db = new_peak_db - end_db;  // over until_s - attack_s
+        if (drop_db == 0.0) {
+            env.decay[0].t60_s = infinity;
+        } else {
+            env.decay[0].t60_s = 60.0 * (until_s - env.attack_s) / drop_db;
+        }
+        env.peak = level_db{new_peak_db};
+        return;
+    }
+    env.peak = level_db{env.peak.db + change_db};
+}
+
+double residual_energy(std::span<const float> x, std::span<const double> copy) {
+    double e = 0.0;
+    for (std::size_t n = 0; n < copy.size(); ++n) {
+        const double d = static_cast<double>(x[n]) - copy[n];
+        e += d * d;
+    }
+    return e;
+}
+
+}  // namespace
+
+onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, double sample_rate_hz,
+                                     const onset_glide_params& params) {
+    assert(sample_rate_hz > 0.0 && params.glide_s_steps >= 2);
+    onset_glide_summary summary;
+    const auto count = std::min(note.size(), static_cast<std::size_t>(std::llround(params.span_s * sample_rate_hz)));
+    const auto block = std::max<std::size_t>(1, static_cast<std::size_t>(std::llround(params.block_s * sample_rate_hz)));
+    if (p.partials.empty() || count < 8 * block) return summary;
+    const double gain_lin = to_amp(level_db{p.note.gain_db}).lin;
+
+    // The strong partials, strongest start first.
+    std::vector<std::size_t> order(p.partials.size());
+    std::iota(order.begin(), order.end(), std::size_t{0});
+    const auto start_db = [&](std::size_t i) { return envelope_level(p.partials[i].env, p.partials[i].env.attack_s).db; };
+    std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return start_db(a) > start_db(b); });
+    const double strongest_db = start_db(order.front());
+
+    std::vector<double> copy = render_start(p, nullptr, sample_rate_hz, count);
+    double signal = 0.0;
+    for (std::size_t n = 0; n < count; ++n) signal += static_cast<double>(note[n]) * static_cast<double>(note[n]);
+    if (!(signal > 0.0)) return summary;
+    const double before = residual_energy(note, copy);
+    const patch original = p;
+
+    std::size_t tried = 0;
+    for (const std::size_t k : order) {
+        if (tried == params.max_partials || start_db(k) < strongest_db - params.range_db) break;
+        partial& q = p.partials[k];
+        if (q.glide_cents != 0.0 || q.freq_hz < params.min_freq_hz || q.freq_hz >= 0.5 * sample_rate_hz) continue;
+        ++tried;
+        const std::vector<double> own = render_start(p, &q, sample_rate_hz, count);
+        std::vector<double> y(count);
+        for (std::size_t n = 0; n < count; ++n) y[n] = static_cast<double>(note[n]) - copy[n] + own[n];
+        const auto fit = fit_glide(y, q, gain_lin, sample_rate_hz, block, params);
+        if (!fit) continue;
+        const glide_fit& best = *fit;
+        q.glide_cents = best.cents;
+        q.glide_s = best.glide_s;
+        q.phase_rad = std::arg(best.amp);
+        scale_start(q.env, std::abs(best.amp), params.max_level_change_db);
+        const std::vector<double> gliding = render_start(p, &q, sample_rate_hz, count);
+        for (std::size_t n = 0; n < count; ++n) copy[n] += gliding[n] - own[n];
+        ++summary.glides;
+    }
+    const double after = residual_energy(note, copy);
+    summary.residual_before_db = to_level(amp_lin{std::sqrt(before / signal)}).db;
+    summary.residual_after_db = to_level(amp_lin{std::sqrt(after / signal)}).db;
+    if (summary.glides > 0 && !(after < before)) {
+        p = original;
+        summary.glides = 0;
+        summary.residual_after_db = summary.residual_before_db;
+    }
+    return summary;
+}
+
+}  // namespace wane

@@ -1,0 +1,75 @@
+// Each strong partial's early pitch glide (core/glide.hpp), fitted on the waveform after the
+// onset refinement: a hard strike or pluck starts a partial sharp (or flat) of its long-term
+// frequency, and with one frequency per partial the onset's least-squares fit turns such a partial
+// down, its phase drifting against the recording's.
+//
+// Per partial k, strongest start first (at most max_partials, within range_db of the strongest):
+//   y = x - (the copy's other partials), over the first span_s after the onset (the copy rendered
+//       by synthesis/render from the patch as it stands, the partials already given a glide with it);
+//   psi(t) = 2 pi f t + g(t), g the glide's phase G - R(t) for (c0, tau) (core/glide.hpp);
+//   S_a(c0, tau) = sum_n y[n] a[n] e^(-j psi(n)): the model y ~ Re(C a e^(j psi)) has C = 2 S_a / D,
+//       D = sum a^2 (the image at -2f averages out over a span of many periods), and explains
+//       E_a = 2 |S_a|^2 / D of y's energy. S is summed over blocks of block_s:
+//       sum_b e^(-j g_b) (Z_b - j g'_b Z1_b), Z_b = sum of z[n] = y a e^(-j 2 pi f n / fs) over the
+//       block, Z1_b = sum of (n - n_b) z[n] (g to first order about the block's centre n_b: its
+//       second-order term, g'' (block / 2)^2 / 2 with |g''| <= 2 pi f |x0| / tau, x0 = c0 ln2 / 1200,
+//       is 0.009 rad at most for a 50-cent glide of tau = 5 ms at 2 kHz and 1 ms blocks).
+//   (c0, tau) maximize E with a = 1 (the phase of the heterodyned signal, every instant of the
+//   span weighted alike: the patch's early decay, fitted without the glide, would weight the
+//   first milliseconds where a glide cannot be told from a phase), on a grid (cents_step over
+//   +-max_abs_cents, glide_s_steps time constants geometrically from min_fit_glide_s to
+//   max_fit_glide_s), then on a finer grid around the best. A best at the grid's edge is a
+//   partial off its frequency over the whole span, not a glide, and is left out.
+// The glide is kept when it explains clearly more than no glide: the extra energy E(c0, tau) - E(0)
+// is at least 10^(min_gain_db / 10) - 1 (26% for 1 dB) of the smaller of E(0) (what the partial
+// explains without it) and what stays unexplained near f (the energy of the block sums Z_b with
+// a = 1, a boxcar filter about f of first null 1 / block_s, less E(c0, tau)): two more parameters
+// must buy a stated share, the penalty of this criterion, not any gain. The partial then takes the
+// glide, the phase arg(C) and its start level scaled by |C| with a = its envelope (the first decay
+// segment keeps its level at its end, so only the early decay changes; at most
+// max_level_change_db). The whole set is kept only if the copy's residual over the span falls;
+// otherwise the patch is left as it was.
+#pragma once
+
+#include <cstddef>
+#include <span>
+
+#include "core/patch.hpp"
+
+namespace wane {
+
+struct onset_glide_params {
+    double span_s = 0.15;              ///< the onset refinement's fit span
+    double range_db = 30.0;            ///< partials whose start is within this of the strongest
+    std::size_t max_partials = 8;
+    double min_freq_hz = 60.0;         ///< below it a 150 ms span holds under 9 periods
+    double max_abs_cents = 96.0;       ///< the coarse grid's range (measured strike glides: up to ~50)
+    double cents_step = 4.0;
+    double min_fit_glide_s = 0.005;
+    double max_fit_glide_s = 0.25;
+    int glide_s_steps = 10;
+    double fine_cents_step = 0.5;      ///< the fine grid: +-cents_step around the best
+    int fine_glide_s_steps_per_octave = 12;  ///< ... and half an octave either side in time constant
+    double min_gain_db = 1.0;          ///< the share the glide must explain more (see above)
+    /// A glide under one coarse step is the fine search walking the coarse best (never 0) back
+    /// towards no glide: too weak a case (on guitar_nylon_d3 a -3-cent glide cost 0.03 dB of SNR).
+    double min_cents = 4.0;
+    /// The start level follows the glide fit's |C| by at most this much either way (a factor of
+    /// 2 in power; measured on timpani_d2, banjo_g3, harpsichord_d2 against 6 dB and against
+    /// raising only, in the closing measurements of this stage).
+    double max_level_change_db = 3.0;
+    double block_s = 0.001;
+};
+
+struct onset_glide_summary {
+    int glides = 0;                    ///< partials given a glide
+    double residual_before_db = 0.0;   ///< the copy's residual over the span re the recording's energy
+    double residual_after_db = 0.0;
+};
+
+/// Fits glides to p's strong partials on note (note[0] at the patch's onset, where its phases
+/// count from), in place, as described above. Mono: a stereo mix's channels arrive apart.
+onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, double sample_rate_hz,
+                                     const onset_glide_params& params);
+
+}  // namespace wane
