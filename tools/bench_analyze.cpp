@@ -12,8 +12,8 @@
 // wall time counts the other processes too), the FFT size / window / hop the tracker chose, and
 // the median thread-CPU time of each stage of that same analyze_note run, as it reports its stages
 // ending (wane::stage_observer): tracking, envelope fits, long spectrum, root and added peaks,
-// pair split, onset refinement (the high-resolution stage), onset glides, start rise, noise model
-// (streamed), recording end, peak match.
+// pair split, onset refinement (the high-resolution stage), onset glides, mode split, start rise,
+// noise model (streamed), recording end, peak match.
 #include <algorithm>
 #include <cmath>
 #include <cstdio>

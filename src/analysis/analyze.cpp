@@ -164,6 +164,16 @@ void split_strong_partials(analysis_result& out, std::span<const float> part, do
     out.summary.partials = static_cast<int>(out.value.partials.size());
 }
 
+/// The early pitch glides, then the close modes of the strongest partials without one; done(stage)
+/// after each.
+void glides_and_modes(analysis_result& out, std::span<const float> part, double sample_rate_hz,
+                      const analysis_params& params, const auto& done) {
+    if (params.fit_glides) out.summary.glides = glides_from_onset(out, part, sample_rate_hz, params.glides);
+    done("onset glides");
+    if (params.split_modes) split_strong_partials(out, part, sample_rate_hz, params.modes);
+    done("mode split");
+}
+
 }  // namespace
 
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
@@ -232,10 +242,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         }
     }
     done("onset refinement");
-    if (params.fit_glides) out.summary.glides = glides_from_onset(out, part, sample_rate_hz, params.glides);
-    done("onset glides");
-    if (params.split_modes) split_strong_partials(out, part, sample_rate_hz, params.modes);
-    done("mode split");
+    glides_and_modes(out, part, sample_rate_hz, params, done);  // reports "onset glides", "mode split"
     if (params.soften_start) out.summary.start_ramp_s = soften_partials_start(out, part, sample_rate_hz, params);
     done("start rise");
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);
