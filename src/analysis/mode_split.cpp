@@ -26,24 +26,21 @@ constexpr double heard_to_s = 1.1;
 /// The partials `which` of p (noise left out) rendered at sample_rate_hz over frames samples.
 std::vector<float> render_some(const patch& p, std::span<const std::size_t> which, double sample_rate_hz,
                                std::size_t frames) {
-    patch q = p;
-    q.noise.clear();
-    q.partials.clear();
+    patch q{.version = p.version, .note = p.note, .source = p.source, .partials = {}, .noise = {}};
     for (std::size_t k : which) q.partials.push_back(p.partials[k]);
     return render_patch(q, {.sample_rate_hz = sample_rate_hz, .length_s = static_cast<double>(frames) / sample_rate_hz,
                             .include_noise = false});
 }
 
-/// One running mean of d samples (causal): out[n] = (1/d) sum_{j < d, j <= n} in[n - j].
-void running_mean(cvec& v, std::size_t d) {
+/// One running mean of d samples (causal): out[n] = (1/d) sum_{j < d, j <= n} in[n - j]; out is
+/// in's size (the caller's buffer, so three passes allocate once).
+void running_mean(const cvec& in, cvec& out, std::size_t d) {
     std::complex<double> sum{};
-    cvec out(v.size());
-    for (std::size_t n = 0; n < v.size(); ++n) {
-        sum += v[n];
-        if (n >= d) sum -= v[n - d];
+    for (std::size_t n = 0; n < in.size(); ++n) {
+        sum += in[n];
+        if (n >= d) sum -= in[n - d];
         out[n] = sum / static_cast<double>(d);
     }
-    v = std::move(out);
 }
 
 /// The band of x around freq_hz (header): x moved to 0 Hz, three running means of d samples,
@@ -58,7 +55,11 @@ cvec band_of(std::span<const float> x, double freq_hz, double sample_rate_hz, st
         rot *= step;
         if ((n & 1023U) == 1023U) rot = std::polar(1.0, -two_pi * freq_hz * static_cast<double>(n + 1) / sample_rate_hz);
     }
-    for (int pass = 0; pass < 3; ++pass) running_mean(v, d);
+    cvec other(v.size());
+    for (int pass = 0; pass < 3; ++pass) {
+        running_mean(v, other, d);
+        v.swap(other);
+    }
     cvec out;
     for (std::size_t n = 3 * (d - 1); n < v.size(); n += d) out.push_back(v[n]);
     return out;
