@@ -106,13 +106,18 @@ burst_error error_of(const burst_frames& f, std::span<const double> smoothed, co
                      std::size_t end, double attack_s, double hold_s, double t60_s) {
     const framed_burst model(wp, f.window_s, attack_s, hold_s, t60_s);
     const std::size_t last = std::min(f.level_db.size(), end + 1);
-    std::array<double, max_fit_frames + 2> model_db{};
-    for (std::size_t j = f.first; j < last; ++j) model_db[j - f.first] = model.db(static_cast<double>(j) * f.hop_s);
-    const std::span<const double> frame_model(model_db.data(), last - f.first);
+    // Each frame's model power once (smoothed_db's terms: the same sums, a third of the powers).
+    std::array<double, max_fit_frames + 2> model_power{};
+    for (std::size_t j = f.first; j < last; ++j) model_power[j - f.first] = db_to_power(model.db(static_cast<double>(j) * f.hop_s));
+    const std::size_t count = last - f.first;
     double sum = 0.0, sum_sq = 0.0;
     const auto n = static_cast<double>(end - f.first);
     for (std::size_t i = f.first; i < end; ++i) {
-        const double d = smoothed[i - f.first] - smoothed_db(frame_model, i - f.first, 0, last - f.first);
+        const std::size_t k = i - f.first;
+        double power = 0.0;
+        int terms = 0;
+        for (std::size_t j = k > 0 ? k - 1 : 0; j < std::min(count, k + 2); ++j, ++terms) power += model_power[j];
+        const double d = smoothed[k] - power_to_db(power / terms);
         sum += d;
         sum_sq += d * d;
     }
