@@ -45,6 +45,21 @@ struct window_power {
 /// exp(-k (t - centre)), one number for all such frames (power decay rate k = 2 ln(1000) / T60:
 /// amplitude -60 dB per T60); other frames are summed point by point, the decay's points by a
 /// running product.
+/// What a decay of one T60 gives every frame wholly inside it: k, the window's mean of
+/// exp(-k (t - centre)) in dB, and exp(-k dt) between points (the same for every attack and hold).
+struct decay_spread {
+    double rate_per_s = 0.0;  ///< k
+    double spread_db = 0.0;
+    double step = 0.0;
+    decay_spread() = default;
+    decay_spread(const window_power& w, double window_s, double t60_s) : rate_per_s(2.0 * ln1000 / t60_s) {
+        double weighted = 0.0;
+        for (std::size_t j = 0; j < w.x.size(); ++j) weighted += w.w2[j] * std::exp(-rate_per_s * (w.x[j] - 0.5) * window_s);
+        spread_db = power_to_db(weighted / w.total);
+        step = std::exp(-rate_per_s * window_s / static_cast<double>(w.x.size()));
+    }
+};
+
 struct framed_burst {
     const window_power* wp = nullptr;
     double window_s = 0.0;
@@ -53,13 +68,9 @@ struct framed_burst {
     double rate_per_s = 0.0;    ///< k
     double spread_db = 0.0;     ///< 10 log10 of that window mean
     double step = 0.0;          ///< exp(-k dt) from one point to the next
-    framed_burst(const window_power& w, double window, double attack, double hold, double t60_s)
-        : wp(&w), window_s(window), attack_s(attack), hold_s(hold), rate_per_s(2.0 * ln1000 / t60_s) {
-        double weighted = 0.0;
-        for (std::size_t j = 0; j < w.x.size(); ++j) weighted += w.w2[j] * std::exp(-rate_per_s * (w.x[j] - 0.5) * window_s);
-        spread_db = power_to_db(weighted / w.total);
-        step = std::exp(-rate_per_s * window_s / static_cast<double>(w.x.size()));
-    }
+    framed_burst(const window_power& w, double window, double attack, double hold, const decay_spread& decay)
+        : wp(&w), window_s(window), attack_s(attack), hold_s(hold), rate_per_s(decay.rate_per_s),
+          spread_db(decay.spread_db), step(decay.step) {}
     [[nodiscard]] double db(double centre_s) const {
         const double decay_from_s = attack_s + hold_s;
         const double start_s = centre_s - 0.5 * window_s;
@@ -103,8 +114,8 @@ double smoothed_db(std::span<const double> v, std::size_t i, std::size_t first, 
 }
 
 burst_error error_of(const burst_frames& f, std::span<const double> smoothed, const window_power& wp,
-                     std::size_t end, double attack_s, double hold_s, double t60_s) {
-    const framed_burst model(wp, f.window_s, attack_s, hold_s, t60_s);
+                     std::size_t end, double attack_s, double hold_s, const decay_spread& decay) {
+    const framed_burst model(wp, f.window_s, attack_s, hold_s, decay);
     const std::size_t last = std::min(f.level_db.size(), end + 1);
     // Each frame's model power once (smoothed_db's terms: the same sums, a third of the powers).
     std::array<double, max_fit_frames + 2> model_power{};
@@ -150,13 +161,21 @@ struct t60_search {
         return params->min_t60_s * std::pow(params->max_t60_s / params->min_t60_s,
                                             static_cast<double>(j) / (t60_grid_points - 1));
     }
+    /// The grid's decays, made once for every hold (fill_grid).
+    std::array<decay_spread, t60_grid_points> grid{};
+    void fill_grid() {
+        for (int j = 0; j < t60_grid_points; ++j) grid[static_cast<std::size_t>(j)] = decay_spread(*wp, frames->window_s, grid_t60_s(j));
+    }
     [[nodiscard]] burst_error at(double hold_s, double t60_s) const {
-        return error_of(*frames, smoothed, *wp, end, attack_s, hold_s, t60_s);
+        return error_of(*frames, smoothed, *wp, end, attack_s, hold_s, decay_spread(*wp, frames->window_s, t60_s));
+    }
+    [[nodiscard]] burst_error at_grid(double hold_s, int j) const {
+        return error_of(*frames, smoothed, *wp, end, attack_s, hold_s, grid[static_cast<std::size_t>(j)]);
     }
     [[nodiscard]] burst_candidate on_grid(double hold_s) const {
-        burst_candidate best{.hold_s = hold_s, .t60_s = grid_t60_s(0), .j = 0, .e = at(hold_s, grid_t60_s(0))};
+        burst_candidate best{.hold_s = hold_s, .t60_s = grid_t60_s(0), .j = 0, .e = at_grid(hold_s, 0)};
         for (int j = 1; j < t60_grid_points; ++j) {
-            const burst_error e = at(hold_s, grid_t60_s(j));
+            const burst_error e = at_grid(hold_s, j);
             if (e.sq_db2 < best.e.sq_db2) best = {.hold_s = hold_s, .t60_s = grid_t60_s(j), .j = j, .e = e};
         }
         return best;
@@ -190,7 +209,7 @@ double burst_framed_level_db(double attack_s, double hold_s, double t60_s, windo
                              double centre_s) {
     assert(window_s > 0.0 && t60_s > 0.0 && attack_s >= 0.0 && hold_s >= 0.0);
     const window_power wp(window);
-    return framed_burst(wp, window_s, attack_s, hold_s, t60_s).db(centre_s);
+    return framed_burst(wp, window_s, attack_s, hold_s, decay_spread(wp, window_s, t60_s)).db(centre_s);
 }
 
 std::optional<burst_fit> fit_burst(const burst_frames& f, const burst_fit_params& params) {
@@ -222,7 +241,8 @@ std::optional<burst_fit> fit_burst(const burst_frames& f, const burst_fit_params
     const window_power wp(f.window);
     const double attack_s = std::max(0.0, static_cast<double>(loudest) * f.hop_s - 0.5 * f.window_s);
     if (attack_s > params.max_attack_s + 1e-9) return std::nullopt;
-    const t60_search search{.frames = &f, .smoothed = smoothed, .wp = &wp, .end = end, .attack_s = attack_s, .params = &params};
+    t60_search search{.frames = &f, .smoothed = smoothed, .wp = &wp, .end = end, .attack_s = attack_s, .params = &params};
+    search.fill_grid();
     // Each hold's best T60 on the grid; the no-hold fit and the best held ones refined. A hold is
     // kept only where it pays for its parameter by the Bayesian information criterion (Schwarz
     // 1978), frames counted as independent at half a window apart (the Hann window's frames 1 ms
