@@ -5,19 +5,17 @@
 #include <algorithm>
 #include <array>
 #include <bit>
-#include <charconv>
 #include <cassert>
 #include <cmath>
 #include <memory>
 #include <optional>
-#include <string>
 #include <vector>
 
 #include "core/noise_bands.hpp"
-#include "core/patch_numbers.hpp"
 #include "core/rng.hpp"
 #include "core/units.hpp"
 #include "synthesis/kernel_clones.hpp"
+#include "synthesis/noise_streams.hpp"
 #include "synthesis/rate_convert.hpp"
 
 namespace wane {
@@ -258,27 +256,6 @@ std::vector<float> periodic_hann(int n_fft, double& window_power_sum) {
     return window;
 }
 
-/// This band's stream of the render's seed: keyed by its edges and how many bands before it have
-/// the same edges (a floor band and the burst on top of it), so a band's noise does not change
-/// when another band comes or goes (a change of the analysis adds or drops a burst band; with one
-/// stream drawn in band order every later band's noise changed, and with it the copy's peak by up
-/// to 2 dB on guitar_nylon_d3, whose low bands carry the noise's peak).
-/// An edge as the patch file keeps it (core/patch_numbers.hpp), so a band reads the same stream
-/// before and after a write and read.
-double file_edge(double hz) {
-    const std::string text = patch_numbers::fmt_band_edge(hz);
-    double out = hz;
-    std::from_chars(text.data(), text.data() + text.size(), out);
-    return out;
-}
-
-splitmix64 band_stream(std::uint64_t seed, const noise_band& b, int same_edges_before) {
-    std::uint64_t key = splitmix64_mix(std::bit_cast<std::uint64_t>(file_edge(b.low_hz)));
-    key = splitmix64_mix(key ^ std::bit_cast<std::uint64_t>(file_edge(b.high_hz)));
-    key = splitmix64_mix(key + static_cast<std::uint64_t>(same_edges_before));
-    return splitmix64{seed ^ key};
-}
-
 /// Bins of each band: centres in [low, high), DC and Nyquist excluded; at least one bin. Each
 /// band's pool seed is the first draw of its stream (band_stream), its frames' shifts the next
 /// ones; likewise its own pool seed from the own seed's stream when there is one.
@@ -318,6 +295,56 @@ int noise_frame_size(double sample_rate_hz, double frame_s) {
 
 namespace {
 
+/// One frame's bands into each draw's frame (frames: draw d at d * n_fft): a fast band's
+/// amplitude once for all the draws, each draw its own shift per band (drawn whether the band
+/// sounds or not) and its own pool (made when the band first sounds in it).
+struct draw_player {
+    draw_player(int n_fft, int n_bins, std::size_t pool_count, int shift_bits, std::size_t shift_stride,
+                std::span<float> frames)
+        : n_fft_(n_fft), n_(static_cast<std::size_t>(n_fft)), pool_floats_(static_cast<std::size_t>(pool_frames) * 2 * n_),
+          shift_bits_(shift_bits), shift_stride_(shift_stride), frames_(frames),
+          plan_(kiss_fftr_alloc(n_fft, 1, nullptr, nullptr)), spectrum_(static_cast<std::size_t>(n_bins)),
+          pools_(pool_count * pool_floats_), amp_(n_) {}
+
+    void play(std::vector<std::vector<band_bins>>& layouts, std::span<const band_in_frame> plays, double start_s,
+              double dt_s, std::size_t pool_index) {
+        const std::size_t bands = layouts.front().size();
+        for (std::size_t i = 0; i < bands; ++i) {
+            const bool sounds = plays[i].bin_amp != 0.0f;
+            if (sounds && plays[i].fast) fill_amplitude(layouts.front()[i], start_s, dt_s, amp_);
+            for (std::size_t d = 0; d < layouts.size(); ++d) {
+                band_bins& b = layouts[d][i];
+                const auto shift = static_cast<std::size_t>(b.shifts.next() >> (64 - shift_bits_)) * shift_stride_;
+                if (!sounds) continue;
+                const std::span<float> pool(pools_.data() + (d * bands + i) * pool_floats_, pool_floats_);
+                if (!b.pool_ready) {
+                    make_pool(b, n_fft_, plan_.get(), spectrum_, pool);
+                    b.pool_ready = true;
+                }
+                const float* unit = pool.data() + pool_index * 2 * n_ + shift;
+                float* frame = frames_.data() + d * n_;
+                if (plays[i].fast) {
+                    add_modulated(frame, unit, amp_.data(), plays[i].bin_amp, n_);
+                } else {
+                    add_scaled(frame, unit, plays[i].bin_amp, n_);
+                }
+            }
+        }
+    }
+
+private:
+    int n_fft_;
+    std::size_t n_;
+    std::size_t pool_floats_;
+    int shift_bits_;
+    std::size_t shift_stride_;
+    std::span<float> frames_;
+    std::unique_ptr<kiss_fftr_state, kiss_cfg_deleter> plan_;
+    std::vector<kiss_fft_cpx> spectrum_;
+    std::vector<float> pools_;  ///< each draw's bands' pools, filled when a band first sounds
+    std::vector<float> amp_;
+};
+
 /// The bands' noise at a draw rate (noise_draw_rate_hz of itself), one draw per seed added into
 /// outs[d] (all the same length). The frames' plan and the fast bands' amplitudes depend on the
 /// bands alone: worked out once per frame for every draw, each draw then the arithmetic of a
@@ -351,12 +378,8 @@ void add_noise_at_draw_rate(std::span<const noise_band> bands, const noise_rende
 
     const auto n = static_cast<std::size_t>(n_fft);
     const std::size_t draws = seeds.size();
-    const std::size_t pool_floats = static_cast<std::size_t>(pool_frames) * 2 * n;
-    std::unique_ptr<kiss_fftr_state, kiss_cfg_deleter> plan(kiss_fftr_alloc(n_fft, 1, nullptr, nullptr));
-    std::vector<kiss_fft_cpx> spectrum(static_cast<std::size_t>(n_bins));
-    std::vector<float> pools(draws * layout.size() * pool_floats);  // filled when a band first sounds
     std::vector<float> frames(draws * n);
-    std::vector<float> amp(n);
+    draw_player player(n_fft, n_bins, draws * layout.size(), shift_bits, shift_stride, frames);
     std::vector<band_in_frame> plays(layout.size());
     const bin_scale scale{.n_fft = n_fft, .hop = hop, .window_power_sum = window_power_sum,
                           .gain_lin = to_amp(level_db{params.gain_db}).lin, .inverse_scale = 1.0 / n_fft};  // kiss_fftri is unnormalized
@@ -377,27 +400,7 @@ void add_noise_at_draw_rate(std::span<const noise_band> bands, const noise_rende
         }
         std::fill(frames.begin(), frames.end(), 0.0f);
         const auto pool_index = static_cast<std::size_t>(((m % pool_frames) + pool_frames) % pool_frames);
-        for (std::size_t i = 0; i < layout.size(); ++i) {
-            const bool sounds = plays[i].bin_amp != 0.0f;
-            if (sounds && plays[i].fast) fill_amplitude(layout[i], static_cast<double>(start) * dt_s, dt_s, amp);
-            for (std::size_t d = 0; d < draws; ++d) {
-                band_bins& b = layouts[d][i];
-                const auto shift = static_cast<std::size_t>(b.shifts.next() >> (64 - shift_bits)) * shift_stride;
-                if (!sounds) continue;
-                const std::span<float> pool(pools.data() + (d * layout.size() + i) * pool_floats, pool_floats);
-                if (!b.pool_ready) {
-                    make_pool(b, n_fft, plan.get(), spectrum, pool);
-                    b.pool_ready = true;
-                }
-                const float* unit = pool.data() + pool_index * 2 * n + shift;
-                float* frame = frames.data() + d * n;
-                if (plays[i].fast) {
-                    add_modulated(frame, unit, amp.data(), plays[i].bin_amp, n);
-                } else {
-                    add_scaled(frame, unit, plays[i].bin_amp, n);
-                }
-            }
-        }
+        player.play(layouts, plays, static_cast<double>(start) * dt_s, dt_s, pool_index);
         const long from = std::max(0L, -start);
         const long to = std::min<long>(n_fft, total - start);
         for (std::size_t d = 0; d < draws; ++d)
