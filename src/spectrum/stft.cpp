@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <cassert>
 #include <cstdlib>
+#include <map>
 #include <memory>
 #include <mutex>
 #include <new>
@@ -69,6 +70,30 @@ void real_fft(std::span<const float> input, int fft_size, std::span<std::complex
     }
     const float* bins = spectrum.get();  // re, im interleaved
     for (std::size_t k = 0; k < out.size(); ++k) out[k] = {bins[2 * k], bins[2 * k + 1]};
+}
+
+void inverse_real_fft::fftw_buffer_free::operator()(void* p) const { fftwf_free(p); }
+
+inverse_real_fft::inverse_real_fft(int fft_size) : size_(fft_size) {
+    assert(fft_size % 2 == 0 && fft_size >= 2);
+    const auto n = static_cast<std::size_t>(fft_size);
+    spectrum_.reset(reinterpret_cast<std::complex<float>*>(fftwf_alloc_complex(n / 2 + 1)));  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): FFTW's complex is float[2]
+    samples_.reset(fftwf_alloc_real(n));
+    if (!spectrum_ || !samples_) throw std::bad_alloc();
+    static std::map<int, fftwf_plan> plans;  // guarded by the planner lock
+    const std::lock_guard<std::mutex> hold(planner_lock());
+    fftwf_plan& plan = plans[fft_size];
+    if (plan == nullptr)
+        plan = fftwf_plan_dft_c2r_1d(fft_size, reinterpret_cast<fftwf_complex*>(spectrum_.get()), samples_.get(),  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
+                                     planner_flags);
+    if (plan == nullptr) throw std::bad_alloc();
+    plan_ = plan;
+}
+
+void inverse_real_fft::run(std::span<float> out) {
+    assert(out.size() == static_cast<std::size_t>(size_));
+    fftwf_execute_dft_c2r(plan_, reinterpret_cast<fftwf_complex*>(spectrum_.get()), samples_.get());  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
+    std::copy_n(samples_.get(), out.size(), out.begin());
 }
 
 stft_plan::stft_plan(const stft_config& config)

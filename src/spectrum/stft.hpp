@@ -32,6 +32,29 @@ int fast_fft_size(int min_size);
 /// of a whole span.
 void real_fft(std::span<const float> input, int fft_size, std::span<std::complex<float>> out);
 
+/// The unnormalized inverse real FFT of one size on FFTW single precision (FFTW_ESTIMATE, no
+/// buffered solvers): the caller writes bins 0 .. fft_size / 2 into spectrum() (the imaginary
+/// parts of bin 0 and of the last bin are not read), run() writes the fft_size samples
+/// y[n] = sum over the Hermitian spectrum of X[k] e^(+j 2 pi k n / N) into out and leaves
+/// spectrum() undefined. One plan per size for the process, made under the STFT's planner lock on
+/// first use and executed on each object's own buffers (FFTW's new-array execute is thread-safe),
+/// so making one costs no planning after the first; one object per thread.
+class inverse_real_fft {
+public:
+    explicit inverse_real_fft(int fft_size);
+    std::span<std::complex<float>> spectrum() { return {spectrum_.get(), static_cast<std::size_t>(size_ / 2 + 1)}; }
+    void run(std::span<float> out);
+
+private:
+    struct fftw_buffer_free {
+        void operator()(void* p) const;
+    };
+    int size_ = 0;
+    fftwf_plan_s* plan_ = nullptr;  ///< shared, never destroyed
+    std::unique_ptr<std::complex<float>, fftw_buffer_free> spectrum_;  ///< fft_size / 2 + 1 (FFTW-aligned)
+    std::unique_ptr<float, fftw_buffer_free> samples_;                 ///< fft_size (FFTW-aligned)
+};
+
 /// One STFT frame at a time. Made once per thread: the FFT state, window and buffers are allocated
 /// here and reused, so analyzing a frame allocates nothing. The FFTW plan is made (FFTW_ESTIMATE:
 /// no timing, the same plan every run; without the buffered solvers, which it would not pick) and destroyed under one process-wide lock, since FFTW's

@@ -1,12 +1,11 @@
 #include "synthesis/noise_render.hpp"
 
-#include <kiss_fftr.h>
-
 #include <algorithm>
 #include <array>
 #include <bit>
 #include <cassert>
 #include <cmath>
+#include <complex>
 #include <memory>
 #include <optional>
 #include <vector>
@@ -14,6 +13,7 @@
 #include "core/noise_bands.hpp"
 #include "core/rng.hpp"
 #include "core/units.hpp"
+#include "spectrum/stft.hpp"
 #include "synthesis/kernel_clones.hpp"
 #include "synthesis/noise_streams.hpp"
 #include "synthesis/rate_convert.hpp"
@@ -51,10 +51,6 @@ struct unit_phasors {
             im[i] = static_cast<float>(std::sin(a));
         }
     }
-};
-
-struct kiss_cfg_deleter {
-    void operator()(kiss_fftr_cfg cfg) const { kiss_fftr_free(cfg); }
 };
 
 struct band_bins {
@@ -173,8 +169,7 @@ void add_windowed(float* __restrict out, const float* __restrict frame, const fl
 /// every bin is sqrt(c) e^(j a) + sqrt(1 - c) e^(j b), c the band's coherence, a drawn from the
 /// shared pool seed (the same in every channel) and b from the own one: by linearity the frame of
 /// the shared noise at power c plus the channel's own at 1 - c, for one inverse FFT.
-void make_pool(const band_bins& b, int n_fft, kiss_fftr_cfg plan, std::span<kiss_fft_cpx> spectrum,
-               std::span<float> pool) {
+void make_pool(const band_bins& b, int n_fft, inverse_real_fft& inverse, std::span<float> pool) {
     static const unit_phasors phasors;
     const auto n = static_cast<std::size_t>(n_fft);
     assert(pool.size() == static_cast<std::size_t>(pool_frames) * 2 * n);
@@ -184,18 +179,19 @@ void make_pool(const band_bins& b, int n_fft, kiss_fftr_cfg plan, std::span<kiss
     const auto shared_gain = static_cast<float>(std::sqrt(c));
     const auto own_gain = static_cast<float>(std::sqrt(1.0 - c));
     for (int j = 0; j < pool_frames; ++j) {
-        std::fill(spectrum.begin(), spectrum.end(), kiss_fft_cpx{0.0f, 0.0f});
+        const std::span<std::complex<float>> spectrum = inverse.spectrum();
+        std::fill(spectrum.begin(), spectrum.end(), std::complex<float>{0.0f, 0.0f});
         for (int k = 0; k < b.count; ++k) {
             const std::size_t idx = static_cast<std::size_t>(rng.next() >> (64 - phase_table_bits));
-            kiss_fft_cpx bin{phasors.re[idx], phasors.im[idx]};
+            std::complex<float> bin{phasors.re[idx], phasors.im[idx]};
             if (b.own_pool_seed) {
                 const std::size_t own = static_cast<std::size_t>(own_rng.next() >> (64 - phase_table_bits));
-                bin = {shared_gain * bin.r + own_gain * phasors.re[own], shared_gain * bin.i + own_gain * phasors.im[own]};
+                bin = {shared_gain * bin.real() + own_gain * phasors.re[own], shared_gain * bin.imag() + own_gain * phasors.im[own]};
             }
             spectrum[static_cast<std::size_t>(b.first) + static_cast<std::size_t>(k)] = bin;
         }
         float* unit = pool.data() + static_cast<std::size_t>(j) * 2 * n;
-        kiss_fftri(plan, spectrum.data(), unit);
+        inverse.run({unit, n});
         std::copy(unit, unit + n, unit + n);
     }
 }
@@ -206,7 +202,7 @@ struct bin_scale {
     int hop = 0;
     double window_power_sum = 0.0;
     double gain_lin = 1.0;
-    double inverse_scale = 1.0;  ///< kiss_fftri is unnormalized
+    double inverse_scale = 1.0;  ///< the inverse FFT is unnormalized
     [[nodiscard]] float of(const band_bins& b, double amp) const {
         const double bin_power = bin_power_for_band(amp * amp, b.count, n_fft, hop, window_power_sum);
         return static_cast<float>(std::sqrt(bin_power) * gain_lin * inverse_scale);
@@ -299,12 +295,11 @@ namespace {
 /// amplitude once for all the draws, each draw its own shift per band (drawn whether the band
 /// sounds or not) and its own pool (made when the band first sounds in it).
 struct draw_player {
-    draw_player(int n_fft, int n_bins, std::size_t pool_count, int shift_bits, std::size_t shift_stride,
+    draw_player(int n_fft, std::size_t pool_count, int shift_bits, std::size_t shift_stride,
                 std::span<float> frames)
         : n_fft_(n_fft), n_(static_cast<std::size_t>(n_fft)), pool_floats_(static_cast<std::size_t>(pool_frames) * 2 * n_),
           shift_bits_(shift_bits), shift_stride_(shift_stride), frames_(frames),
-          plan_(kiss_fftr_alloc(n_fft, 1, nullptr, nullptr)), spectrum_(static_cast<std::size_t>(n_bins)),
-          pools_(pool_count * pool_floats_), amp_(n_) {}
+          inverse_(n_fft), pools_(pool_count * pool_floats_), amp_(n_) {}
 
     void play(std::vector<std::vector<band_bins>>& layouts, std::span<const band_in_frame> plays, double start_s,
               double dt_s, std::size_t pool_index) {
@@ -318,7 +313,7 @@ struct draw_player {
                 if (!sounds) continue;
                 const std::span<float> pool(pools_.data() + (d * bands + i) * pool_floats_, pool_floats_);
                 if (!b.pool_ready) {
-                    make_pool(b, n_fft_, plan_.get(), spectrum_, pool);
+                    make_pool(b, n_fft_, inverse_, pool);
                     b.pool_ready = true;
                 }
                 const float* unit = pool.data() + pool_index * 2 * n_ + shift;
@@ -339,8 +334,7 @@ private:
     int shift_bits_;
     std::size_t shift_stride_;
     std::span<float> frames_;
-    std::unique_ptr<kiss_fftr_state, kiss_cfg_deleter> plan_;
-    std::vector<kiss_fft_cpx> spectrum_;
+    inverse_real_fft inverse_;
     std::vector<float> pools_;  ///< each draw's bands' pools, filled when a band first sounds
     std::vector<float> amp_;
 };
@@ -379,10 +373,10 @@ void add_noise_at_draw_rate(std::span<const noise_band> bands, const noise_rende
     const auto n = static_cast<std::size_t>(n_fft);
     const std::size_t draws = seeds.size();
     std::vector<float> frames(draws * n);
-    draw_player player(n_fft, n_bins, draws * layout.size(), shift_bits, shift_stride, frames);
+    draw_player player(n_fft, draws * layout.size(), shift_bits, shift_stride, frames);
     std::vector<band_in_frame> plays(layout.size());
     const bin_scale scale{.n_fft = n_fft, .hop = hop, .window_power_sum = window_power_sum,
-                          .gain_lin = to_amp(level_db{params.gain_db}).lin, .inverse_scale = 1.0 / n_fft};  // kiss_fftri is unnormalized
+                          .gain_lin = to_amp(level_db{params.gain_db}).lin, .inverse_scale = 1.0 / n_fft};  // the inverse FFT is unnormalized
 
     const auto total = static_cast<long>(outs.front().size());
     const double dt_s = 1.0 / params.sample_rate_hz;
