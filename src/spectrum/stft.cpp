@@ -108,17 +108,21 @@ stft_plan::stft_plan(const stft_config& config)
     spectrum_.reset(reinterpret_cast<float*>(fftwf_alloc_complex(n / 2 + 1)));  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): FFTW's complex is float[2]
     if (!frame_ || !spectrum_) throw std::bad_alloc();
     std::fill_n(frame_.get(), n, 0.0f);
-    {
+    if (config.few_frames) {
+        kiss_.reset(kiss_fftr_alloc(config.fft_size, 0, nullptr, nullptr));
+        if (!kiss_) throw std::bad_alloc();
+    } else {
         const std::lock_guard<std::mutex> hold(planner_lock());
         plan_ = fftwf_plan_dft_r2c_1d(config.fft_size, frame_.get(), reinterpret_cast<fftwf_complex*>(spectrum_.get()),  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
                                       planner_flags);
+        if (plan_ == nullptr) throw std::bad_alloc();
     }
-    if (plan_ == nullptr) throw std::bad_alloc();
     bins_.resize(n / 2 + 1);
     power_.resize(bins_.size());
 }
 
 stft_plan::~stft_plan() {
+    if (plan_ == nullptr) return;
     const std::lock_guard<std::mutex> hold(planner_lock());
     fftwf_destroy_plan(plan_);
 }
@@ -142,6 +146,11 @@ void stft_plan::transform(std::span<const float> samples, std::int64_t centre, f
             const float x = (n >= 0 && n < size) ? samples[n] - dc_offset : 0.0f;
             buf[m >= 0 ? m : m_size + m] = w[m] * x;
         }
+    }
+    if (kiss_) {
+        // kiss_fft_cpx is two floats, as FFTW's complex: the same interleaved output.
+        kiss_fftr(kiss_.get(), buf, reinterpret_cast<kiss_fft_cpx*>(spectrum_.get()));  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
+        return;
     }
     fftwf_execute(plan_);
 }
