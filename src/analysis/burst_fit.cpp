@@ -71,15 +71,18 @@ struct framed_burst {
     framed_burst(const window_power& w, double window, double attack, double hold, const decay_spread& decay)
         : wp(&w), window_s(window), attack_s(attack), hold_s(hold), rate_per_s(decay.rate_per_s),
           spread_db(decay.spread_db), step(decay.step) {}
-    [[nodiscard]] double db(double centre_s) const {
+    /// The window points before the decay (the attack's ramp, the hold: the same for every T60):
+    /// their weighted sum, and the first point in the decay (window_points when none).
+    struct head {
+        double weighted = 0.0;
+        std::size_t first_decay = 0;
+    };
+    [[nodiscard]] head head_of(double centre_s) const {
         const double decay_from_s = attack_s + hold_s;
         const double start_s = centre_s - 0.5 * window_s;
-        if (start_s >= decay_from_s)
-            return -rate_per_s * (centre_s - decay_from_s) * (10.0 / std::numbers::ln10) + spread_db;
-        double weighted = 0.0;
-        double decay = -1.0;  // exp(-k (t - decay_from_s)) at the current point, once reached
-        for (std::size_t j = 0; j < wp->x.size(); ++j) {
-            const double t = start_s + wp->x[j] * window_s;
+        head h;
+        for (; h.first_decay < wp->x.size(); ++h.first_decay) {
+            const double t = start_s + wp->x[h.first_decay] * window_s;
             double g = 0.0;
             if (t < 0.0) {
                 g = 0.0;
@@ -88,14 +91,32 @@ struct framed_burst {
             } else if (t < decay_from_s) {
                 g = 1.0;
             } else {
-                decay = decay < 0.0 ? std::exp(-rate_per_s * (t - decay_from_s)) : decay * step;
-                g = decay;
+                break;  // the points are in time order: the rest are in the decay
             }
-            weighted += wp->w2[j] * g;
+            h.weighted += wp->w2[h.first_decay] * g;
+        }
+        return h;
+    }
+    /// The frame's level from its head (head_of(centre_s), of this attack and hold), dB.
+    [[nodiscard]] double db(double centre_s, const head& h) const {
+        const double decay_from_s = attack_s + hold_s;
+        const double start_s = centre_s - 0.5 * window_s;
+        if (start_s >= decay_from_s)
+            return -rate_per_s * (centre_s - decay_from_s) * (10.0 / std::numbers::ln10) + spread_db;
+        double weighted = h.weighted;
+        double decay = -1.0;  // exp(-k (t - decay_from_s)) at the current point, once reached
+        for (std::size_t j = h.first_decay; j < wp->x.size(); ++j) {
+            const double t = start_s + wp->x[j] * window_s;
+            decay = decay < 0.0 ? std::exp(-rate_per_s * (t - decay_from_s)) : decay * step;
+            weighted += wp->w2[j] * decay;
         }
         return weighted > 0.0 ? power_to_db(weighted / wp->total) : -infinity;
     }
+    [[nodiscard]] double db(double centre_s) const { return db(centre_s, head_of(centre_s)); }
 };
+
+/// Each frame's head (framed_burst::head_of) for one attack and hold, frames [first, first + size).
+using frame_heads = std::array<framed_burst::head, max_fit_frames + 2>;
 
 /// Least squares of the frames [first, end) against the framed burst: the squared error in dB and
 /// the level P that minimizes it (the mean difference).
@@ -114,12 +135,13 @@ double smoothed_db(std::span<const double> v, std::size_t i, std::size_t first, 
 }
 
 burst_error error_of(const burst_frames& f, std::span<const double> smoothed, const window_power& wp,
-                     std::size_t end, double attack_s, double hold_s, const decay_spread& decay) {
+                     std::size_t end, double attack_s, double hold_s, const decay_spread& decay, const frame_heads& heads) {
     const framed_burst model(wp, f.window_s, attack_s, hold_s, decay);
     const std::size_t last = std::min(f.level_db.size(), end + 1);
     // Each frame's model power once (smoothed_db's terms: the same sums, a third of the powers).
     std::array<double, max_fit_frames + 2> model_power{};
-    for (std::size_t j = f.first; j < last; ++j) model_power[j - f.first] = db_to_power(model.db(static_cast<double>(j) * f.hop_s));
+    for (std::size_t j = f.first; j < last; ++j)
+        model_power[j - f.first] = db_to_power(model.db(static_cast<double>(j) * f.hop_s, heads[j - f.first]));
     const std::size_t count = last - f.first;
     double sum = 0.0, sum_sq = 0.0;
     const auto n = static_cast<double>(end - f.first);
@@ -166,11 +188,25 @@ struct t60_search {
     void fill_grid() {
         for (int j = 0; j < t60_grid_points; ++j) grid[static_cast<std::size_t>(j)] = decay_spread(*wp, frames->window_s, grid_t60_s(j));
     }
+    /// The frames' heads of the hold last asked for (a grid row and a refinement each ask one).
+    mutable double heads_hold_s = -1.0;
+    mutable frame_heads heads{};
+    const frame_heads& heads_for(double hold_s) const {
+        if (hold_s != heads_hold_s) {
+            const framed_burst model(*wp, frames->window_s, attack_s, hold_s, decay_spread{});
+            const std::size_t last = std::min(frames->level_db.size(), end + 1);
+            for (std::size_t j = frames->first; j < last; ++j)
+                heads[j - frames->first] = model.head_of(static_cast<double>(j) * frames->hop_s);
+            heads_hold_s = hold_s;
+        }
+        return heads;
+    }
     [[nodiscard]] burst_error at(double hold_s, double t60_s) const {
-        return error_of(*frames, smoothed, *wp, end, attack_s, hold_s, decay_spread(*wp, frames->window_s, t60_s));
+        return error_of(*frames, smoothed, *wp, end, attack_s, hold_s, decay_spread(*wp, frames->window_s, t60_s),
+                        heads_for(hold_s));
     }
     [[nodiscard]] burst_error at_grid(double hold_s, int j) const {
-        return error_of(*frames, smoothed, *wp, end, attack_s, hold_s, grid[static_cast<std::size_t>(j)]);
+        return error_of(*frames, smoothed, *wp, end, attack_s, hold_s, grid[static_cast<std::size_t>(j)], heads_for(hold_s));
     }
     [[nodiscard]] burst_candidate on_grid(double hold_s) const {
         burst_candidate best{.hold_s = hold_s, .t60_s = grid_t60_s(0), .j = 0, .e = at_grid(hold_s, 0)};
