@@ -32,36 +32,61 @@ std::vector<float> render_some(const patch& p, std::span<const std::size_t> whic
                             .include_noise = false});
 }
 
-/// One running mean of d samples (causal): out[n] = (1/d) sum_{j < d, j <= n} in[n - j]; out is
-/// in's size (the caller's buffer, so three passes allocate once).
-void running_mean(const cvec& in, cvec& out, std::size_t d) {
-    std::complex<double> sum{};
-    for (std::size_t n = 0; n < in.size(); ++n) {
-        sum += in[n];
-        if (n >= d) sum -= in[n - d];
-        out[n] = sum / static_cast<double>(d);
-    }
-}
-
-/// The band of x around freq_hz (header): x moved to 0 Hz, three running means of d samples,
-/// sampled every d samples from the first output whose means lie wholly inside x (sample 3 (d - 1)),
-/// so band sample m covers x[m d, m d + 3 d - 2] and a mode c z^n reads c' (z^d)^m.
+/// The band of x around freq_hz (header): v = x moved to 0 Hz, three causal running means of d
+/// samples (m[n] = (1/d) sum_{j < d, j <= n} in[n - j]), sampled every d samples from the first
+/// output whose means lie wholly inside x (n = 3 (d - 1)), so band sample m covers
+/// x[m d, m d + 3 d - 2] and a mode c z^n reads c' (z^d)^m.
+/// The three means are one kernel h[k] = c(k) / d^3, k < 3 d - 2, c(k) the number of ways
+/// k = a + b + e with a, b, e < d: c(k) = T(k) - 3 T(k - d) + 3 T(k - 2 d), T(x) = (x + 2)(x + 1) / 2
+/// (the terms with x >= 0), a quadratic in k on each third [0, d), [d, 2 d), [2 d, 3 d). So with
+/// blocks b of d samples starting at b d - 2, block sample j (x[b d - 2 + j]) has k = (3 - p) d - 1 - j
+/// in output m = b - p (p = 0, 1, 2), and band[m] = sum_p (al_p M0 + be_p M1 + ga_p M2)(block m + p)
+/// / d^3 with the block moments M_q = sum_j j^q v[b d - 2 + j]: one pass, no division per sample.
+/// v's phasor is the block's exp(-i 2 pi f (b d - 2) / fs) times a table of exp(-i 2 pi f j / fs).
 cvec band_of(std::span<const float> x, double freq_hz, double sample_rate_hz, std::size_t d) {
-    cvec v(x.size());
-    const std::complex<double> step = std::polar(1.0, -two_pi * freq_hz / sample_rate_hz);
-    std::complex<double> rot{1.0, 0.0};
-    for (std::size_t n = 0; n < x.size(); ++n) {
-        v[n] = static_cast<double>(x[n]) * rot;
-        rot *= step;
-        if ((n & 1023U) == 1023U) rot = std::polar(1.0, -two_pi * freq_hz * static_cast<double>(n + 1) / sample_rate_hz);
+    assert(d >= 3);
+    const std::size_t size = x.size();
+    const std::size_t first = 3 * (d - 1);
+    const std::size_t outputs = size > first ? (size - 1 - first) / d + 1 : 0;
+    cvec out(outputs);
+    if (outputs == 0) return out;
+    const auto dd = static_cast<double>(d);
+    // c(k) on third p (k = (3 - p) d - 1 - j) as al + be j + ga j^2, fitted through j = 0, 1, 2 (exact:
+    // integers, and c is quadratic there).
+    const auto tri = [](double v) { return 0.5 * (v + 2.0) * (v + 1.0); };
+    const auto count_on = [&](int p, double j) {
+        const double k = (3.0 - p) * dd - 1.0 - j;
+        return tri(k) - (p <= 1 ? 3.0 * tri(k - dd) : 0.0) + (p == 0 ? 3.0 * tri(k - 2.0 * dd) : 0.0);
+    };
+    double al[3], be[3], ga[3];
+    for (int p = 0; p < 3; ++p) {
+        const double g0 = count_on(p, 0.0), g1 = count_on(p, 1.0), g2 = count_on(p, 2.0);
+        ga[p] = 0.5 * (g2 - 2.0 * g1 + g0);
+        be[p] = g1 - g0 - ga[p];
+        al[p] = g0;
     }
-    cvec other(v.size());
-    for (int pass = 0; pass < 3; ++pass) {
-        running_mean(v, other, d);
-        v.swap(other);
+    cvec phasor(d);
+    for (std::size_t j = 0; j < d; ++j) phasor[j] = std::polar(1.0, -two_pi * freq_hz * static_cast<double>(j) / sample_rate_hz);
+    const double scale = 1.0 / (dd * dd * dd);
+    for (std::size_t b = 0; b < outputs + 2; ++b) {
+        // Block b: x[b d - 2 + j], j < d (the two samples before x[0] are none).
+        const std::size_t from = b == 0 ? 2 : 0;
+        std::complex<double> m0{}, m1{}, m2{};
+        const float* xb = x.data() + (b * d + from - 2);
+        for (std::size_t j = from; j < d; ++j) {
+            const std::complex<double> w = static_cast<double>(xb[j - from]) * phasor[j];
+            const auto jd = static_cast<double>(j);
+            m0 += w;
+            m1 += jd * w;
+            m2 += (jd * jd) * w;
+        }
+        const std::complex<double> start =
+            std::polar(1.0, -two_pi * freq_hz * (static_cast<double>(b * d) - 2.0) / sample_rate_hz);
+        for (std::size_t p = 0; p < 3; ++p) {
+            if (b < p || b - p >= outputs) continue;
+            out[b - p] += scale * start * (al[p] * m0 + be[p] * m1 + ga[p] * m2);
+        }
     }
-    cvec out;
-    for (std::size_t n = 3 * (d - 1); n < v.size(); n += d) out.push_back(v[n]);
     return out;
 }
 
@@ -154,12 +179,11 @@ double band_residual(const cvec& band, const cvec& model, std::size_t settle) {
 /// rate; empty when a pole lies out of range or grows, two lie closer than min_separation_hz, a
 /// mode is louder than tame_amp, or the mode heard most over 0.1-1.1 s moved (header).
 std::optional<mode_set> fit_order(const cvec& band, std::size_t settle, double freq_hz, std::size_t d,
-                                  std::span<const float> target, double sample_rate_hz, int order, double tame_amp,
+                                  std::span<const float> target, double sample_rate_hz,
+                                  std::span<const std::complex<double>> poles, int order, double tame_amp,
                                   const mode_split_params& params) {
     if (band.size() <= settle) return std::nullopt;
     const double band_rate_hz = sample_rate_hz / static_cast<double>(d);
-    const std::span<const std::complex<double>> seg(band.data() + settle, band.size() - settle);
-    const auto poles = esprit_poles(seg, {.dimension = params.esprit_dimension, .max_order = order, .fixed_order = order});
     if (static_cast<int>(poles.size()) != order) return std::nullopt;
     mode_set out;
     constexpr double longest_t60_s = 60.0;  // a mode of a few seconds of recording: no drone
@@ -204,8 +228,13 @@ std::optional<mode_set> choose_modes(const cvec& band, double freq_hz, std::size
     const double count = 2.0 * static_cast<double>(band.size() > settle ? band.size() - settle : 0);
     std::optional<mode_set> best;
     double best_cost = infinity;
+    if (band.size() <= settle) return best;
+    // ESPRIT of every order from one eigen-decomposition of the band after the settling.
+    const std::span<const std::complex<double>> seg(band.data() + settle, band.size() - settle);
+    const auto poles = esprit_poles_by_order(seg, params.esprit_dimension, params.max_modes);
     for (int order = 1; order <= params.max_modes; ++order) {
-        auto set = fit_order(band, settle, freq_hz, d, target, sample_rate_hz, order, tame_amp, params);
+        auto set = fit_order(band, settle, freq_hz, d, target, sample_rate_hz, poles[static_cast<std::size_t>(order - 1)],
+                             order, tame_amp, params);
         if (!set || !(set->band_rss > 0.0)) continue;
         const double cost = count * std::log(set->band_rss) + params.bic_factor * 4.0 * order * std::log(count);
         if (cost < best_cost) best_cost = cost, best = std::move(set);
@@ -267,6 +296,7 @@ mode_split_summary split_into_modes(patch& p, std::span<const float> note, doubl
         return summary;
     const auto d = static_cast<std::size_t>(std::max(1.0, std::floor(sample_rate_hz / params.band_rate_hz)));
     const auto early = static_cast<std::size_t>(params.early_s * sample_rate_hz);
+    const auto fit_frames = static_cast<std::size_t>(params.fit_span_s * sample_rate_hz);
     const double gain = to_amp(level_db{p.note.gain_db}).lin;
     const double min_gain = to_amp(level_db{params.min_gain_db}).lin;  // squared below: a power ratio
     std::vector<std::size_t> all(p.partials.size());
@@ -283,7 +313,8 @@ mode_split_summary split_into_modes(patch& p, std::span<const float> note, doubl
         for (float v : own) loudest = std::max(loudest, std::abs(static_cast<double>(v)));
         const double freq_hz = p.partials[k].freq_hz;
         const cvec band = band_of(target, freq_hz, sample_rate_hz, d);
-        const auto best = choose_modes(band, freq_hz, d, target, sample_rate_hz,
+        const std::span<const float> fit_target(target.data(), std::min(frames, fit_frames));
+        const auto best = choose_modes(band, freq_hz, d, fit_target, sample_rate_hz,
                                        loudest * to_amp(level_db{params.max_rise_db}).lin, params);
         if (!best) continue;
         const cvec own_band = band_of(own, freq_hz, sample_rate_hz, d);

@@ -72,12 +72,22 @@ double largest_magnitude(const cmatrix& a) {
     return out;
 }
 
-}  // namespace
+/// R's eigen-decomposition (esprit_poles): the Householder tridiagonalization of R scaled to a
+/// largest entry of 1 and the eigen-decomposition of its tridiagonal matrix; values ascending,
+/// rescaled. ok is false when y is too short or the decomposition failed.
+struct decomposition {
+    Eigen::Index dim = 0;
+    Eigen::Tridiagonalization<cmatrix> tri;
+    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig;
+    Eigen::VectorXd values;
+    bool ok = false;
+};
 
-std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<double>> y, const esprit_params& params) {
+void decompose(std::span<const std::complex<double>> y, int dimension, decomposition& out) {
     const auto n = static_cast<Eigen::Index>(y.size());
-    const Eigen::Index dim = std::min<Eigen::Index>(params.dimension, n / 3);
-    if (dim < 3) return {};
+    const Eigen::Index dim = std::min<Eigen::Index>(dimension, n / 3);
+    out.dim = dim;
+    if (dim < 3) return;
     const Eigen::Index cols = n - dim + 1;
     // R(i, j) = sum_{m < cols} y[m + i] conj y[m + j] (the Hankel data matrix times its adjoint):
     // the first column directly, then along each diagonal
@@ -97,13 +107,29 @@ std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<doub
     // columns of Q V formed below: the eigenvectors of R are the columns of Q V.
     double scale = largest_magnitude(cov);
     if (!(scale > 0.0)) scale = 1.0;
-    const Eigen::Tridiagonalization<cmatrix> tri(cov / scale);
-    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig;
-    eig.computeFromTridiagonal(tri.diagonal(), tri.subDiagonal(), Eigen::ComputeEigenvectors);
-    if (eig.info() != Eigen::Success) return {};
-    const Eigen::VectorXd values = eig.eigenvalues() * scale;  // ascending
+    out.tri.compute(cov / scale);
+    out.eig.computeFromTridiagonal(out.tri.diagonal(), out.tri.subDiagonal(), Eigen::ComputeEigenvectors);
+    if (out.eig.info() != Eigen::Success) return;
+    out.values = out.eig.eigenvalues() * scale;  // ascending
+    out.ok = out.values(dim - 1) > 0.0;
+}
+
+/// The poles of the subspace of the `order` largest eigenvalues (0 < order < dim).
+std::vector<std::complex<double>> poles_of_order(const decomposition& dec, int order) {
+    const cmatrix u = dec.tri.matrixQ() * dec.eig.eigenvectors().rightCols(order).cast<std::complex<double>>();
+    const cmatrix phi = rotation(u);
+    return complex_eigenvalues(std::span(phi.data(), static_cast<std::size_t>(phi.size())), static_cast<std::size_t>(order));
+}
+
+}  // namespace
+
+std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<double>> y, const esprit_params& params) {
+    decomposition dec;
+    decompose(y, params.dimension, dec);
+    if (!dec.ok) return {};
+    const Eigen::Index dim = dec.dim;
+    const Eigen::VectorXd& values = dec.values;
     const double largest = values(dim - 1);
-    if (!(largest > 0.0)) return {};
     std::vector<double> lower(values.data(), values.data() + dim / 2);
     std::nth_element(lower.begin(), lower.begin() + static_cast<std::ptrdiff_t>(lower.size() / 2), lower.end());
     const double noise = std::max(lower[lower.size() / 2], largest * 1e-15);
@@ -113,9 +139,28 @@ std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<doub
     order = std::min({order, params.max_order, static_cast<int>(dim) - 1});
     if (params.fixed_order > 0) order = std::min(params.fixed_order, static_cast<int>(dim) - 1);
     if (order == 0) return {};
-    const cmatrix u = tri.matrixQ() * eig.eigenvectors().rightCols(order).cast<std::complex<double>>();
-    const cmatrix phi = rotation(u);
-    return complex_eigenvalues(std::span(phi.data(), static_cast<std::size_t>(phi.size())), static_cast<std::size_t>(order));
+    return poles_of_order(dec, order);
+}
+
+std::vector<std::vector<std::complex<double>>> esprit_poles_by_order(std::span<const std::complex<double>> y,
+                                                                     int dimension, int max_order) {
+    std::vector<std::vector<std::complex<double>>> out(static_cast<std::size_t>(std::max(max_order, 0)));
+    decomposition dec;
+    decompose(y, dimension, dec);
+    if (!dec.ok || max_order < 1) return out;
+    // The eigenvectors of the largest orders once: order r's basis is the last r of them. Q applied
+    // to each vector alone (Eigen's unblocked reflections, no block factor for a few columns).
+    const int widest = std::min(max_order, static_cast<int>(dec.dim) - 1);
+    const Eigen::MatrixXd v = dec.eig.eigenvectors().rightCols(widest);
+    cmatrix u(dec.dim, widest);
+    for (Eigen::Index c = 0; c < widest; ++c) u.col(c) = dec.tri.matrixQ() * v.col(c).cast<std::complex<double>>();
+    for (int order = 1; order <= max_order; ++order) {
+        const int r = std::min(order, widest);
+        const cmatrix phi = rotation(u.rightCols(r));
+        out[static_cast<std::size_t>(order - 1)] =
+            complex_eigenvalues(std::span(phi.data(), static_cast<std::size_t>(phi.size())), static_cast<std::size_t>(r));
+    }
+    return out;
 }
 
 }  // namespace wane
