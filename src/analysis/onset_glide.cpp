@@ -72,7 +72,9 @@ void sum_blocks(std::span<const double> y, const partial& q, double gain_lin, do
             const double a = gain_lin * amp_at(t);
             double cycles = static_cast<double>(n) * cycles_per_frame;
             cycles -= std::floor(cycles);
-            const cplx z = y[n] * std::polar(1.0, -two_pi * cycles);
+            double sin_p = 0.0, cos_p = 0.0;
+            sincos_poly(-two_pi * cycles, sin_p, cos_p);
+            const cplx z = y[n] * cplx(cos_p, sin_p);
             const double offset = static_cast<double>(n) - centre;
             zf += z;
             z1f += offset * z;
@@ -130,21 +132,24 @@ glide_terms terms_at(double cents, double glide_s, std::span<const double> decay
 
 /// S(c0, tau) from the block sums (onset_glide.hpp): sum_b e^(-j g_b) (Z_b - j g'_b Z1_b) with
 /// g_b = f (G - R(t_b)) / f and g'_b = 2 pi f / fs times the excess (per frame).
-cplx projection(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz) {
+cplx projection(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz, std::vector<double>& scratch) {
     if (t.cents == 0.0) return std::accumulate(s.z.begin(), s.z.end(), cplx{});
-    assert(t.excess.size() == s.z.size());
+    const std::size_t count = s.z.size();
+    assert(t.excess.size() == count);
+    scratch.resize(2 * count);
+    double* sin_g = scratch.data();
+    double* cos_g = scratch.data() + count;
+    for (std::size_t b = 0; b < count; ++b)  // no reduction: the compiler's vector loop
+        sincos_poly(freq_hz * (t.whole_rad_per_hz - t.remaining_rad_per_hz[b]), sin_g[b], cos_g[b]);
     const double rad_per_frame = two_pi * freq_hz / rate_hz;
     double re = 0.0, im = 0.0;
-    for (std::size_t b = 0; b < s.z.size(); ++b) {
-        const double g = freq_hz * (t.whole_rad_per_hz - t.remaining_rad_per_hz[b]);
+    for (std::size_t b = 0; b < count; ++b) {
         const double slope = rad_per_frame * t.excess[b];  // g' per frame
-        double sin_g = 0.0, cos_g = 0.0;
-        sincos_poly(g, sin_g, cos_g);
         // a = Z - j slope Z1; (cos g - j sin g) a.
         const double a_re = s.z[b].real() + slope * s.z1[b].imag();
         const double a_im = s.z[b].imag() - slope * s.z1[b].real();
-        re += cos_g * a_re + sin_g * a_im;
-        im += cos_g * a_im - sin_g * a_re;
+        re += cos_g[b] * a_re + sin_g[b] * a_im;
+        im += cos_g[b] * a_im - sin_g[b] * a_re;
     }
     return {re, im};
 }
@@ -164,7 +169,8 @@ std::vector<double> decays(const block_sums& s, double glide_s) {
 }
 
 glide_fit evaluate(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz) {
-    const cplx sum = projection(s, freq_hz, t, rate_hz);
+    thread_local std::vector<double> scratch;  // the blocks' sin and cos, kept between calls
+    const cplx sum = projection(s, freq_hz, t, rate_hz, scratch);
     return {.cents = t.cents, .glide_s = t.glide_s, .explained = 2.0 * std::norm(sum) / s.amp_energy,
             .amp = 2.0 * sum / s.amp_energy};
 }

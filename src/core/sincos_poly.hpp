@@ -34,7 +34,7 @@ inline void sincos_poly(double x, double& sin_out, double& cos_out) {
                                         z * (-2.75573143513906633035e-07 +
                                              z * (2.08757232129817482790e-09 + z * -1.13596475577881948265e-11)))));
     // The quadrant: x = k pi/2 + r gives (sin, cos) = (s, c), (c, -s), (-s, -c), (-c, s) for k mod 4.
-    const auto q = static_cast<std::int64_t>(k) & 3;
+    const auto q = static_cast<std::int32_t>(k) & 3;
     const bool swap = (q & 1) != 0;
     const double sin_abs = swap ? c : s;
     const double cos_abs = swap ? s : c;
