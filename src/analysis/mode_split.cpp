@@ -90,20 +90,26 @@ cvec band_of(std::span<const float> x, double freq_hz, double sample_rate_hz, st
     return out;
 }
 
-/// sum_k Re(amp_k z_k^n), n < frames (double recursion, re-anchored every 1024 samples).
+/// sum_k Re(amp_k z_k^n), n < frames (double recursion, re-anchored every 1024 samples). The modes
+/// advance together, sample by sample: their recursions are independent chains in flight at once.
 std::vector<float> mode_signal(std::span<const damped_mode> modes, double sample_rate_hz, std::size_t frames) {
-    std::vector<double> acc(frames, 0.0);
-    for (const damped_mode& m : modes) {
-        const std::complex<double> a{-m.decay_per_s / sample_rate_hz, two_pi * m.freq_hz / sample_rate_hz};
-        const std::complex<double> z = std::exp(a);
-        std::complex<double> w = m.amp;
-        for (std::size_t n = 0; n < frames; ++n) {
-            if ((n & 1023U) == 0U) w = m.amp * std::exp(a * static_cast<double>(n));
-            acc[n] += w.real();
-            w *= z;
-        }
+    std::vector<std::complex<double>> a(modes.size()), z(modes.size()), w(modes.size());
+    for (std::size_t k = 0; k < modes.size(); ++k) {
+        a[k] = {-modes[k].decay_per_s / sample_rate_hz, two_pi * modes[k].freq_hz / sample_rate_hz};
+        z[k] = std::exp(a[k]);
     }
-    return {acc.begin(), acc.end()};
+    std::vector<float> out(frames);
+    for (std::size_t n = 0; n < frames; ++n) {
+        if ((n & 1023U) == 0U)
+            for (std::size_t k = 0; k < modes.size(); ++k) w[k] = modes[k].amp * std::exp(a[k] * static_cast<double>(n));
+        double sum = 0.0;
+        for (std::size_t k = 0; k < modes.size(); ++k) {
+            sum += w[k].real();
+            w[k] *= z[k];
+        }
+        out[n] = static_cast<float>(sum);
+    }
+    return out;
 }
 
 double energy(std::span<const float> x, std::size_t count) {
