@@ -302,7 +302,6 @@ mode_split_summary split_into_modes(patch& p, std::span<const float> note, doubl
         return summary;
     const auto d = static_cast<std::size_t>(std::max(1.0, std::floor(sample_rate_hz / params.band_rate_hz)));
     const auto early = static_cast<std::size_t>(params.early_s * sample_rate_hz);
-    const auto fit_frames = static_cast<std::size_t>(params.fit_span_s * sample_rate_hz);
     const double gain = to_amp(level_db{p.note.gain_db}).lin;
     const double min_gain = to_amp(level_db{params.min_gain_db}).lin;  // squared below: a power ratio
     std::vector<std::size_t> all(p.partials.size());
@@ -319,8 +318,7 @@ mode_split_summary split_into_modes(patch& p, std::span<const float> note, doubl
         for (float v : own) loudest = std::max(loudest, std::abs(static_cast<double>(v)));
         const double freq_hz = p.partials[k].freq_hz;
         const cvec band = band_of(target, freq_hz, sample_rate_hz, d);
-        const std::span<const float> fit_target(target.data(), std::min(frames, fit_frames));
-        const auto best = choose_modes(band, freq_hz, d, fit_target, sample_rate_hz,
+        const auto best = choose_modes(band, freq_hz, d, target, sample_rate_hz,
                                        loudest * to_amp(level_db{params.max_rise_db}).lin, params);
         if (!best) continue;
         const cvec own_band = band_of(own, freq_hz, sample_rate_hz, d);

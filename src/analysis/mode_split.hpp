@@ -12,7 +12,7 @@
 // the modes within band_rate_hz / 2 of f (a linear filter moves no pole: a mode z^n comes out as
 // (z^D)^m). ESPRIT (modes/esprit.hpp) of order 1 .. max_modes on that band gives the candidate
 // poles after the band's first 3 samples (where the note's start sits); their complex amplitudes
-// are fitted by least squares on the target at the full rate over its first fit_span_s
+// are fitted by least squares on the target at the full rate over the whole note
 // (modes/damped_mode.hpp). The order chosen has the least BIC (bic_factor times the usual
 // penalty) of the band's residual, among the orders whose modes lie within max_offset_hz of f and
 // at least min_separation_hz apart, whose mode heard most over 0.1-1.1 s stays within
@@ -68,10 +68,6 @@ struct mode_split_params {
     double late_range_db = 40.0;
     double late_tolerance_db = 0.5;
     double min_span_s = 0.4;       ///< notes shorter than this are left alone
-    /// The modes' amplitudes are fitted over the target's first this many seconds (the poles come
-    /// from the whole band): the early part holds most of a decaying mode's energy, and a fit over
-    /// a 4 s note cost 4 times as much.
-    double fit_span_s = 1.0;
     /// No mode may start louder than the partial's loudest sample by this much (dB): louder ones
     /// cancel each other, an ill-conditioned fit.
     double max_rise_db = 6.0;
