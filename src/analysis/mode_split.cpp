@@ -1,6 +1,7 @@
 #include "analysis/mode_split.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cassert>
 #include <cmath>
 #include <complex>
@@ -8,9 +9,12 @@
 #include <optional>
 #include <vector>
 
+#include <Eigen/Dense>
+
 #include "core/units.hpp"
 #include "modes/damped_mode.hpp"
 #include "modes/esprit.hpp"
+#include "modes/mode_projection.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -181,28 +185,79 @@ double band_residual(const cvec& band, const cvec& model, std::size_t settle) {
     return e;
 }
 
-/// The modes of order `order` from the band's poles, their amplitudes fitted on target at the full
-/// rate; empty when a pole lies out of range or grows, two lie closer than min_separation_hz, a
-/// mode is louder than tame_amp, or the mode heard most over 0.1-1.1 s moved (header).
-std::optional<mode_set> fit_order(const cvec& band, std::size_t settle, double freq_hz, std::size_t d,
-                                  std::span<const float> target, double sample_rate_hz,
-                                  std::span<const std::complex<double>> poles, int order, double tame_amp,
-                                  const mode_split_params& params) {
-    if (band.size() <= settle) return std::nullopt;
-    const double band_rate_hz = sample_rate_hz / static_cast<double>(d);
+/// The modes of one order from the band's poles; empty when a pole lies out of range or grows, or
+/// two lie closer than min_separation_hz (header).
+std::optional<std::vector<damped_mode>> modes_of_poles(std::span<const std::complex<double>> poles, int order, double freq_hz,
+                                                       double band_rate_hz, const mode_split_params& params) {
     if (static_cast<int>(poles.size()) != order) return std::nullopt;
-    mode_set out;
+    std::vector<damped_mode> out;
     constexpr double longest_t60_s = 60.0;  // a mode of a few seconds of recording: no drone
     for (const auto& z : poles) {
         const double offset_hz = std::arg(z) * band_rate_hz / two_pi;
         const double decay = -std::log(std::abs(z)) * band_rate_hz;
         if (std::abs(offset_hz) > params.max_offset_hz || !(decay > ln1000 / longest_t60_s)) return std::nullopt;
-        out.modes.push_back({.freq_hz = freq_hz + offset_hz, .decay_per_s = decay, .amp = {}});
+        out.push_back({.freq_hz = freq_hz + offset_hz, .decay_per_s = decay, .amp = {}});
     }
-    for (std::size_t i = 0; i < out.modes.size(); ++i)
+    for (std::size_t i = 0; i < out.size(); ++i)
         for (std::size_t j = 0; j < i; ++j)
-            if (std::abs(out.modes[i].freq_hz - out.modes[j].freq_hz) < params.min_separation_hz) return std::nullopt;
-    fit_mode_amplitudes(target, sample_rate_hz, out.modes);
+            if (std::abs(out[i].freq_hz - out[j].freq_hz) < params.min_separation_hz) return std::nullopt;
+    return out;
+}
+
+/// fit_mode_amplitudes of every set on x (the whole target), the same numbers, with the sets'
+/// modes projected on x together (project_group, four chains per pass over x, each mode's
+/// arithmetic as alone) instead of one pass per set; each set then solved with its closed-form
+/// Gram matrix's factor (factor_plain_gram: fit_mode_amplitudes's ridge and Cholesky steps).
+void fit_amplitudes_together(std::span<const float> x, double sample_rate_hz,
+                             std::span<std::optional<std::vector<damped_mode>>> sets) {
+    std::vector<double> rho, omega;
+    for (const auto& set : sets) {
+        if (!set) continue;
+        for (const damped_mode& m : *set)
+            rho.push_back(-m.decay_per_s / sample_rate_hz), omega.push_back(two_pi * m.freq_hz / sample_rate_hz);
+    }
+    double energy = 0.0;
+    for (float v : x) energy += double(v) * double(v);
+    if (rho.empty() || !(energy > 0.0)) {
+        for (auto& set : sets)
+            if (set) fit_mode_amplitudes(x, sample_rate_hz, *set);  // its own answer for a silent x
+        return;
+    }
+    const std::vector<double> samples(x.begin(), x.end());
+    std::vector<std::complex<double>> sums(rho.size());
+    std::array<std::size_t, projection_group> which{};
+    for (std::size_t k = 0; k < rho.size(); k += projection_group) {
+        const std::size_t g = std::min(projection_group, rho.size() - k);
+        for (std::size_t i = 0; i < g; ++i) which[i] = k + i;
+        project_group(samples, std::span(which).first(g), rho, omega, sums);
+    }
+    std::size_t at = 0;
+    for (auto& set : sets) {
+        if (!set) continue;
+        const plain_gram_factor factor = factor_plain_gram(*set, sample_rate_hz, x.size());
+        const auto dim = static_cast<Eigen::Index>(2 * set->size());
+        if (factor.lower.empty()) {
+            fit_mode_amplitudes(x, sample_rate_hz, *set);  // its fallback for a failed factor
+        } else {
+            // rhs: Re P_k and -Im P_k (the model's real columns); LLT's solve steps on the factor.
+            Eigen::VectorXd theta(dim);
+            for (std::size_t k = 0; k < set->size(); ++k)
+                theta(static_cast<Eigen::Index>(2 * k)) = sums[at + k].real(), theta(static_cast<Eigen::Index>(2 * k + 1)) = -sums[at + k].imag();
+            const Eigen::Map<const Eigen::MatrixXd> lower(factor.lower.data(), dim, dim);
+            lower.triangularView<Eigen::Lower>().solveInPlace(theta);
+            lower.transpose().triangularView<Eigen::Upper>().solveInPlace(theta);
+            for (std::size_t k = 0; k < set->size(); ++k)
+                (*set)[k].amp = {theta(static_cast<Eigen::Index>(2 * k)), theta(static_cast<Eigen::Index>(2 * k + 1))};
+        }
+        at += set->size();
+    }
+}
+
+/// The fitted modes as a mode set; empty when a mode is louder than tame_amp or the mode heard
+/// most over 0.1-1.1 s moved (header).
+std::optional<mode_set> check_modes(std::vector<damped_mode> modes, const cvec& band, std::size_t settle, double freq_hz,
+                                    std::size_t d, double sample_rate_hz, double tame_amp, const mode_split_params& params) {
+    mode_set out{.modes = std::move(modes), .band_rss = 0.0, .band = {}};
     if (std::any_of(out.modes.begin(), out.modes.end(), [&](const damped_mode& m) { return !(std::abs(m.amp) <= tame_amp); }))
         return std::nullopt;
     // The mode heard most over the long spectrum's span (energy |amp|^2 of exp(-2 d t) over it)
@@ -227,7 +282,7 @@ std::optional<mode_set> fit_order(const cvec& band, std::size_t settle, double f
 }
 
 /// The order with the least BIC over the band's samples (complex: two real values each; a mode is
-/// four real parameters) among the orders fit_order accepts; empty when none does.
+/// four real parameters) among the orders whose modes pass modes_of_poles and check_modes; empty when none does.
 std::optional<mode_set> choose_modes(const cvec& band, double freq_hz, std::size_t d, std::span<const float> target,
                                      double sample_rate_hz, double tame_amp, const mode_split_params& params) {
     constexpr std::size_t settle = 3;  // the band's first samples, where the note's start sits
@@ -238,9 +293,15 @@ std::optional<mode_set> choose_modes(const cvec& band, double freq_hz, std::size
     // ESPRIT of every order from one eigen-decomposition of the band after the settling.
     const std::span<const std::complex<double>> seg(band.data() + settle, band.size() - settle);
     const auto poles = esprit_poles_by_order(seg, params.esprit_dimension, params.max_modes);
+    const double band_rate_hz = sample_rate_hz / static_cast<double>(d);
+    std::vector<std::optional<std::vector<damped_mode>>> sets;
+    for (int order = 1; order <= params.max_modes; ++order)
+        sets.push_back(modes_of_poles(poles[static_cast<std::size_t>(order - 1)], order, freq_hz, band_rate_hz, params));
+    fit_amplitudes_together(target, sample_rate_hz, sets);
     for (int order = 1; order <= params.max_modes; ++order) {
-        auto set = fit_order(band, settle, freq_hz, d, target, sample_rate_hz, poles[static_cast<std::size_t>(order - 1)],
-                             order, tame_amp, params);
+        auto& modes = sets[static_cast<std::size_t>(order - 1)];
+        if (!modes) continue;
+        auto set = check_modes(std::move(*modes), band, settle, freq_hz, d, sample_rate_hz, tame_amp, params);
         if (!set || !(set->band_rss > 0.0)) continue;
         const double cost = count * std::log(set->band_rss) + params.bic_factor * 4.0 * order * std::log(count);
         if (cost < best_cost) best_cost = cost, best = std::move(set);
