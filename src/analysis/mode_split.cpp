@@ -375,8 +375,9 @@ mode_split_summary split_into_modes(patch& p, std::span<const float> note, doubl
         const std::size_t one[] = {k};
         const std::vector<float> own = render_some(p, one, sample_rate_hz, frames);
         for (std::size_t n = 0; n < frames; ++n) target[n] = residual[n] + own[n];
-        double loudest = 0.0;
-        for (float v : own) loudest = std::max(loudest, std::abs(static_cast<double>(v)));
+        float peak = 0.0F;  // in float (exact: |v| of float samples), kept in a register
+        for (float v : own) peak = std::max(peak, std::abs(v));
+        const auto loudest = static_cast<double>(peak);
         const double freq_hz = p.partials[k].freq_hz;
         const cvec band = band_of(target, freq_hz, sample_rate_hz, d);
         const auto best = choose_modes(band, freq_hz, d, target, sample_rate_hz,
