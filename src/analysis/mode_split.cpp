@@ -216,9 +216,9 @@ void fit_amplitudes_together(std::span<const float> x, double sample_rate_hz,
         for (const damped_mode& m : *set)
             rho.push_back(-m.decay_per_s / sample_rate_hz), omega.push_back(two_pi * m.freq_hz / sample_rate_hz);
     }
-    double energy = 0.0;
-    for (float v : x) energy += double(v) * double(v);
-    if (rho.empty() || !(energy > 0.0)) {
+    // A silent x (fit_mode_amplitudes's case of no energy): any sample not 0 has energy.
+    const bool silent = std::all_of(x.begin(), x.end(), [](float v) { return v == 0.0F; });
+    if (rho.empty() || silent) {
         for (auto& set : sets)
             if (set) fit_mode_amplitudes(x, sample_rate_hz, *set);  // its own answer for a silent x
         return;
