@@ -116,6 +116,17 @@ std::vector<float> mode_signal(std::span<const damped_mode> modes, double sample
     return out;
 }
 
+/// max |x[n]| (0 for none), in eight lanes (a vector loop; the maximum is the same in any order).
+float largest_magnitude(std::span<const float> x) {
+    constexpr std::size_t lanes = 8;
+    std::array<float, lanes> top{};
+    std::size_t n = 0;
+    for (; n + lanes <= x.size(); n += lanes)
+        for (std::size_t k = 0; k < lanes; ++k) top[k] = std::max(top[k], std::abs(x[n + k]));
+    for (; n < x.size(); ++n) top[0] = std::max(top[0], std::abs(x[n]));
+    return *std::max_element(top.begin(), top.end());
+}
+
 double energy(std::span<const float> x, std::size_t count) {
     double e = 0.0;
     for (std::size_t n = 0; n < std::min(count, x.size()); ++n) e += double(x[n]) * double(x[n]);
@@ -375,9 +386,7 @@ mode_split_summary split_into_modes(patch& p, std::span<const float> note, doubl
         const std::size_t one[] = {k};
         const std::vector<float> own = render_some(p, one, sample_rate_hz, frames);
         for (std::size_t n = 0; n < frames; ++n) target[n] = residual[n] + own[n];
-        float peak = 0.0F;  // in float (exact: |v| of float samples), kept in a register
-        for (float v : own) peak = std::max(peak, std::abs(v));
-        const auto loudest = static_cast<double>(peak);
+        const auto loudest = static_cast<double>(largest_magnitude(own));
         const double freq_hz = p.partials[k].freq_hz;
         const cvec band = band_of(target, freq_hz, sample_rate_hz, d);
         const auto best = choose_modes(band, freq_hz, d, target, sample_rate_hz,
