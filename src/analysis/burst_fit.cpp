@@ -45,6 +45,21 @@ struct window_power {
 /// exp(-k (t - centre)), one number for all such frames (power decay rate k = 2 ln(1000) / T60:
 /// amplitude -60 dB per T60); other frames are summed point by point, the decay's points by a
 /// running product.
+/// What a decay of one T60 gives every frame wholly inside it: k, the window's mean of
+/// exp(-k (t - centre)) in dB, and exp(-k dt) between points (the same for every attack and hold).
+struct decay_spread {
+    double rate_per_s = 0.0;  ///< k
+    double spread_db = 0.0;
+    double step = 0.0;
+    decay_spread() = default;
+    decay_spread(const window_power& w, double window_s, double t60_s) : rate_per_s(2.0 * ln1000 / t60_s) {
+        double weighted = 0.0;
+        for (std::size_t j = 0; j < w.x.size(); ++j) weighted += w.w2[j] * std::exp(-rate_per_s * (w.x[j] - 0.5) * window_s);
+        spread_db = power_to_db(weighted / w.total);
+        step = std::exp(-rate_per_s * window_s / static_cast<double>(w.x.size()));
+    }
+};
+
 struct framed_burst {
     const window_power* wp = nullptr;
     double window_s = 0.0;
@@ -53,22 +68,21 @@ struct framed_burst {
     double rate_per_s = 0.0;    ///< k
     double spread_db = 0.0;     ///< 10 log10 of that window mean
     double step = 0.0;          ///< exp(-k dt) from one point to the next
-    framed_burst(const window_power& w, double window, double attack, double hold, double t60_s)
-        : wp(&w), window_s(window), attack_s(attack), hold_s(hold), rate_per_s(2.0 * ln1000 / t60_s) {
+    framed_burst(const window_power& w, double window, double attack, double hold, const decay_spread& decay)
+        : wp(&w), window_s(window), attack_s(attack), hold_s(hold), rate_per_s(decay.rate_per_s),
+          spread_db(decay.spread_db), step(decay.step) {}
+    /// The window points before the decay (the attack's ramp, the hold: the same for every T60):
+    /// their weighted sum, and the first point in the decay (window_points when none).
+    struct head {
         double weighted = 0.0;
-        for (std::size_t j = 0; j < w.x.size(); ++j) weighted += w.w2[j] * std::exp(-rate_per_s * (w.x[j] - 0.5) * window_s);
-        spread_db = power_to_db(weighted / w.total);
-        step = std::exp(-rate_per_s * window_s / static_cast<double>(w.x.size()));
-    }
-    [[nodiscard]] double db(double centre_s) const {
+        std::size_t first_decay = 0;
+    };
+    [[nodiscard]] head head_of(double centre_s) const {
         const double decay_from_s = attack_s + hold_s;
         const double start_s = centre_s - 0.5 * window_s;
-        if (start_s >= decay_from_s)
-            return -rate_per_s * (centre_s - decay_from_s) * (10.0 / std::numbers::ln10) + spread_db;
-        double weighted = 0.0;
-        double decay = -1.0;  // exp(-k (t - decay_from_s)) at the current point, once reached
-        for (std::size_t j = 0; j < wp->x.size(); ++j) {
-            const double t = start_s + wp->x[j] * window_s;
+        head h;
+        for (; h.first_decay < wp->x.size(); ++h.first_decay) {
+            const double t = start_s + wp->x[h.first_decay] * window_s;
             double g = 0.0;
             if (t < 0.0) {
                 g = 0.0;
@@ -77,14 +91,32 @@ struct framed_burst {
             } else if (t < decay_from_s) {
                 g = 1.0;
             } else {
-                decay = decay < 0.0 ? std::exp(-rate_per_s * (t - decay_from_s)) : decay * step;
-                g = decay;
+                break;  // the points are in time order: the rest are in the decay
             }
-            weighted += wp->w2[j] * g;
+            h.weighted += wp->w2[h.first_decay] * g;
+        }
+        return h;
+    }
+    /// The frame's level from its head (head_of(centre_s), of this attack and hold), dB.
+    [[nodiscard]] double db(double centre_s, const head& h) const {
+        const double decay_from_s = attack_s + hold_s;
+        const double start_s = centre_s - 0.5 * window_s;
+        if (start_s >= decay_from_s)
+            return -rate_per_s * (centre_s - decay_from_s) * (10.0 / std::numbers::ln10) + spread_db;
+        double weighted = h.weighted;
+        double decay = -1.0;  // exp(-k (t - decay_from_s)) at the current point, once reached
+        for (std::size_t j = h.first_decay; j < wp->x.size(); ++j) {
+            const double t = start_s + wp->x[j] * window_s;
+            decay = decay < 0.0 ? std::exp(-rate_per_s * (t - decay_from_s)) : decay * step;
+            weighted += wp->w2[j] * decay;
         }
         return weighted > 0.0 ? power_to_db(weighted / wp->total) : -infinity;
     }
+    [[nodiscard]] double db(double centre_s) const { return db(centre_s, head_of(centre_s)); }
 };
+
+/// Each frame's head (framed_burst::head_of) for one attack and hold, frames [first, first + size).
+using frame_heads = std::array<framed_burst::head, max_fit_frames + 2>;
 
 /// Least squares of the frames [first, end) against the framed burst: the squared error in dB and
 /// the level P that minimizes it (the mean difference).
@@ -103,16 +135,22 @@ double smoothed_db(std::span<const double> v, std::size_t i, std::size_t first, 
 }
 
 burst_error error_of(const burst_frames& f, std::span<const double> smoothed, const window_power& wp,
-                     std::size_t end, double attack_s, double hold_s, double t60_s) {
-    const framed_burst model(wp, f.window_s, attack_s, hold_s, t60_s);
+                     std::size_t end, double attack_s, double hold_s, const decay_spread& decay, const frame_heads& heads) {
+    const framed_burst model(wp, f.window_s, attack_s, hold_s, decay);
     const std::size_t last = std::min(f.level_db.size(), end + 1);
-    std::array<double, max_fit_frames + 2> model_db{};
-    for (std::size_t j = f.first; j < last; ++j) model_db[j - f.first] = model.db(static_cast<double>(j) * f.hop_s);
-    const std::span<const double> frame_model(model_db.data(), last - f.first);
+    // Each frame's model power once (smoothed_db's terms: the same sums, a third of the powers).
+    std::array<double, max_fit_frames + 2> model_power{};
+    for (std::size_t j = f.first; j < last; ++j)
+        model_power[j - f.first] = db_to_power(model.db(static_cast<double>(j) * f.hop_s, heads[j - f.first]));
+    const std::size_t count = last - f.first;
     double sum = 0.0, sum_sq = 0.0;
     const auto n = static_cast<double>(end - f.first);
     for (std::size_t i = f.first; i < end; ++i) {
-        const double d = smoothed[i - f.first] - smoothed_db(frame_model, i - f.first, 0, last - f.first);
+        const std::size_t k = i - f.first;
+        double power = 0.0;
+        int terms = 0;
+        for (std::size_t j = k > 0 ? k - 1 : 0; j < std::min(count, k + 2); ++j, ++terms) power += model_power[j];
+        const double d = smoothed[k] - power_to_db(power / terms);
         sum += d;
         sum_sq += d * d;
     }
@@ -145,13 +183,35 @@ struct t60_search {
         return params->min_t60_s * std::pow(params->max_t60_s / params->min_t60_s,
                                             static_cast<double>(j) / (t60_grid_points - 1));
     }
+    /// The grid's decays, made once for every hold (fill_grid).
+    std::array<decay_spread, t60_grid_points> grid{};
+    void fill_grid() {
+        for (int j = 0; j < t60_grid_points; ++j) grid[static_cast<std::size_t>(j)] = decay_spread(*wp, frames->window_s, grid_t60_s(j));
+    }
+    /// The frames' heads of the hold last asked for (a grid row and a refinement each ask one).
+    mutable double heads_hold_s = -1.0;
+    mutable frame_heads heads{};
+    const frame_heads& heads_for(double hold_s) const {
+        if (hold_s != heads_hold_s) {
+            const framed_burst model(*wp, frames->window_s, attack_s, hold_s, decay_spread{});
+            const std::size_t last = std::min(frames->level_db.size(), end + 1);
+            for (std::size_t j = frames->first; j < last; ++j)
+                heads[j - frames->first] = model.head_of(static_cast<double>(j) * frames->hop_s);
+            heads_hold_s = hold_s;
+        }
+        return heads;
+    }
     [[nodiscard]] burst_error at(double hold_s, double t60_s) const {
-        return error_of(*frames, smoothed, *wp, end, attack_s, hold_s, t60_s);
+        return error_of(*frames, smoothed, *wp, end, attack_s, hold_s, decay_spread(*wp, frames->window_s, t60_s),
+                        heads_for(hold_s));
+    }
+    [[nodiscard]] burst_error at_grid(double hold_s, int j) const {
+        return error_of(*frames, smoothed, *wp, end, attack_s, hold_s, grid[static_cast<std::size_t>(j)], heads_for(hold_s));
     }
     [[nodiscard]] burst_candidate on_grid(double hold_s) const {
-        burst_candidate best{.hold_s = hold_s, .t60_s = grid_t60_s(0), .j = 0, .e = at(hold_s, grid_t60_s(0))};
+        burst_candidate best{.hold_s = hold_s, .t60_s = grid_t60_s(0), .j = 0, .e = at_grid(hold_s, 0)};
         for (int j = 1; j < t60_grid_points; ++j) {
-            const burst_error e = at(hold_s, grid_t60_s(j));
+            const burst_error e = at_grid(hold_s, j);
             if (e.sq_db2 < best.e.sq_db2) best = {.hold_s = hold_s, .t60_s = grid_t60_s(j), .j = j, .e = e};
         }
         return best;
@@ -185,7 +245,7 @@ double burst_framed_level_db(double attack_s, double hold_s, double t60_s, windo
                              double centre_s) {
     assert(window_s > 0.0 && t60_s > 0.0 && attack_s >= 0.0 && hold_s >= 0.0);
     const window_power wp(window);
-    return framed_burst(wp, window_s, attack_s, hold_s, t60_s).db(centre_s);
+    return framed_burst(wp, window_s, attack_s, hold_s, decay_spread(wp, window_s, t60_s)).db(centre_s);
 }
 
 std::optional<burst_fit> fit_burst(const burst_frames& f, const burst_fit_params& params) {
@@ -217,7 +277,8 @@ std::optional<burst_fit> fit_burst(const burst_frames& f, const burst_fit_params
     const window_power wp(f.window);
     const double attack_s = std::max(0.0, static_cast<double>(loudest) * f.hop_s - 0.5 * f.window_s);
     if (attack_s > params.max_attack_s + 1e-9) return std::nullopt;
-    const t60_search search{.frames = &f, .smoothed = smoothed, .wp = &wp, .end = end, .attack_s = attack_s, .params = &params};
+    t60_search search{.frames = &f, .smoothed = smoothed, .wp = &wp, .end = end, .attack_s = attack_s, .params = &params};
+    search.fill_grid();
     // Each hold's best T60 on the grid; the no-hold fit and the best held ones refined. A hold is
     // kept only where it pays for its parameter by the Bayesian information criterion (Schwarz
     // 1978), frames counted as independent at half a window apart (the Hann window's frames 1 ms

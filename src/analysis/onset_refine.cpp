@@ -303,9 +303,9 @@ bool revise_roles(const patch& p, std::span<const float> note, const waveform_fi
     double strongest = 0.0;
     for (const double e : f.energy) strongest = std::max(strongest, e);
     const double keep = strongest * std::pow(10.0, -params.new_mode_range_db / 10.0);
-    // A new mode must carry most of the energy of the span in its band (its main lobe, at least
-    // two resolution cells each side): a resonance does, while each of the many poles that fit a
-    // burst of noise carries a small part of it.
+    // A new mode must carry new_mode_share of the energy of the span in its band (its main lobe, at
+    // least two resolution cells each side): a resonance does, alone or beside one companion, while
+    // each of the many poles that fit a burst of noise carries a small part of it.
     const note_spectrum spectrum(note.first(fit_n), sample_rate_hz);
     const double cell_hz = sample_rate_hz / count;
     std::vector<damped_mode> kept;

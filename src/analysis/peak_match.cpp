@@ -4,6 +4,8 @@
 #include <cassert>
 #include <cmath>
 #include <cstddef>
+#include <cstdint>
+#include <span>
 #include <vector>
 
 #include "core/patch_numbers.hpp"
@@ -49,21 +51,27 @@ double expected_peak_db(const patch& q, double rate, std::span<const float> defa
     std::vector<float> partials(span);
     partials_of.render(0, partials);
     const auto fade_from = frames - std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * rate)));
+    // The other draws in one render (add_noise_band_draws: each as its own render would be).
     std::vector<double> peaks_db;
-    std::vector<float> noise(span);
+    std::vector<std::uint64_t> seeds;
     for (int k = 0; k < params.draws; ++k) {
         const std::uint64_t seed = params.first_seed + static_cast<std::uint64_t>(k);
         if (seed == params.default_seed) {
             peaks_db.push_back(default_db);
-            continue;
+        } else {
+            seeds.push_back(seed);
         }
-        std::fill(noise.begin(), noise.end(), 0.0f);
-        add_noise_bands(q.noise, {.sample_rate_hz = rate, .gain_db = 0.0, .seed = seed}, noise);
+    }
+    std::vector<float> noise(seeds.size() * span, 0.0f);
+    std::vector<std::span<float>> outs;
+    for (std::size_t d = 0; d < seeds.size(); ++d) outs.emplace_back(noise.data() + d * span, span);
+    add_noise_band_draws(q.noise, {.sample_rate_hz = rate, .gain_db = 0.0}, seeds, outs);
+    for (const std::span<const float> drawn : outs) {
         float peak = 0.0f;
         for (std::size_t n = 0; n < span; ++n) {
             // The end fade covers the noise too (render_patch applies it to the sum).
             const float g = n < fade_from ? 1.0f : static_cast<float>(end_fade_gain(n, frames, rate));
-            peak = std::max(peak, std::abs(partials[n] + g * noise[n]));
+            peak = std::max(peak, std::abs(partials[n] + g * drawn[n]));
         }
         peaks_db.push_back(to_level(amp_lin{static_cast<double>(peak)}).db);
     }

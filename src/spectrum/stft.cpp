@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <cassert>
 #include <cstdlib>
+#include <map>
 #include <memory>
 #include <mutex>
 #include <new>
@@ -71,6 +72,30 @@ void real_fft(std::span<const float> input, int fft_size, std::span<std::complex
     for (std::size_t k = 0; k < out.size(); ++k) out[k] = {bins[2 * k], bins[2 * k + 1]};
 }
 
+void inverse_real_fft::fftw_buffer_free::operator()(void* p) const { fftwf_free(p); }
+
+inverse_real_fft::inverse_real_fft(int fft_size) : size_(fft_size) {
+    assert(fft_size % 2 == 0 && fft_size >= 2);
+    const auto n = static_cast<std::size_t>(fft_size);
+    spectrum_.reset(reinterpret_cast<std::complex<float>*>(fftwf_alloc_complex(n / 2 + 1)));  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): FFTW's complex is float[2]
+    samples_.reset(fftwf_alloc_real(n));
+    if (!spectrum_ || !samples_) throw std::bad_alloc();
+    static std::map<int, fftwf_plan> plans;  // guarded by the planner lock
+    const std::lock_guard<std::mutex> hold(planner_lock());
+    fftwf_plan& plan = plans[fft_size];
+    if (plan == nullptr)
+        plan = fftwf_plan_dft_c2r_1d(fft_size, reinterpret_cast<fftwf_complex*>(spectrum_.get()), samples_.get(),  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
+                                     planner_flags);
+    if (plan == nullptr) throw std::bad_alloc();
+    plan_ = plan;
+}
+
+void inverse_real_fft::run(std::span<float> out) {
+    assert(out.size() == static_cast<std::size_t>(size_));
+    fftwf_execute_dft_c2r(plan_, reinterpret_cast<fftwf_complex*>(spectrum_.get()), samples_.get());  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
+    std::copy_n(samples_.get(), out.size(), out.begin());
+}
+
 stft_plan::stft_plan(const stft_config& config)
     : config_(config),
       window_(make_window(config.window, config.window_length, window_symmetry::symmetric)) {
@@ -83,17 +108,21 @@ stft_plan::stft_plan(const stft_config& config)
     spectrum_.reset(reinterpret_cast<float*>(fftwf_alloc_complex(n / 2 + 1)));  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): FFTW's complex is float[2]
     if (!frame_ || !spectrum_) throw std::bad_alloc();
     std::fill_n(frame_.get(), n, 0.0f);
-    {
+    if (config.few_frames) {
+        kiss_.reset(kiss_fftr_alloc(config.fft_size, 0, nullptr, nullptr));
+        if (!kiss_) throw std::bad_alloc();
+    } else {
         const std::lock_guard<std::mutex> hold(planner_lock());
         plan_ = fftwf_plan_dft_r2c_1d(config.fft_size, frame_.get(), reinterpret_cast<fftwf_complex*>(spectrum_.get()),  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
                                       planner_flags);
+        if (plan_ == nullptr) throw std::bad_alloc();
     }
-    if (plan_ == nullptr) throw std::bad_alloc();
     bins_.resize(n / 2 + 1);
     power_.resize(bins_.size());
 }
 
 stft_plan::~stft_plan() {
+    if (plan_ == nullptr) return;
     const std::lock_guard<std::mutex> hold(planner_lock());
     fftwf_destroy_plan(plan_);
 }
@@ -117,6 +146,11 @@ void stft_plan::transform(std::span<const float> samples, std::int64_t centre, f
             const float x = (n >= 0 && n < size) ? samples[n] - dc_offset : 0.0f;
             buf[m >= 0 ? m : m_size + m] = w[m] * x;
         }
+    }
+    if (kiss_) {
+        // kiss_fft_cpx is two floats, as FFTW's complex: the same interleaved output.
+        kiss_fftr(kiss_.get(), buf, reinterpret_cast<kiss_fft_cpx*>(spectrum_.get()));  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
+        return;
     }
     fftwf_execute(plan_);
 }

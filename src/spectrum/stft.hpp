@@ -21,6 +21,9 @@ struct stft_config {
     window_kind window = window_kind::blackman_harris_4;
     int window_length = 2049;  ///< samples, odd (a centre sample)
     int fft_size = 4096;       ///< even, >= 2 x window_length (zero padding >= 2)
+    /// A plan for a handful of frames: KissFFT, whose set-up is its twiddle table (~0.2 ms at
+    /// 19440), instead of FFTW's planner search (2-3 ms per new size, more than a few frames cost).
+    bool few_frames = false;
 };
 
 /// Smallest even FFT size >= min_size whose factors are only 2, 3 and 5 (KissFFT's fast radices).
@@ -31,6 +34,29 @@ int fast_fft_size(int min_size);
 /// 0 .. fft_size / 2 written to out (fft_size / 2 + 1 of them), unscaled. For one-off transforms
 /// of a whole span.
 void real_fft(std::span<const float> input, int fft_size, std::span<std::complex<float>> out);
+
+/// The unnormalized inverse real FFT of one size on FFTW single precision (FFTW_ESTIMATE, no
+/// buffered solvers): the caller writes bins 0 .. fft_size / 2 into spectrum() (the imaginary
+/// parts of bin 0 and of the last bin are not read), run() writes the fft_size samples
+/// y[n] = sum over the Hermitian spectrum of X[k] e^(+j 2 pi k n / N) into out and leaves
+/// spectrum() undefined. One plan per size for the process, made under the STFT's planner lock on
+/// first use and executed on each object's own buffers (FFTW's new-array execute is thread-safe),
+/// so making one costs no planning after the first; one object per thread.
+class inverse_real_fft {
+public:
+    explicit inverse_real_fft(int fft_size);
+    std::span<std::complex<float>> spectrum() { return {spectrum_.get(), static_cast<std::size_t>(size_ / 2 + 1)}; }
+    void run(std::span<float> out);
+
+private:
+    struct fftw_buffer_free {
+        void operator()(void* p) const;
+    };
+    int size_ = 0;
+    fftwf_plan_s* plan_ = nullptr;  ///< shared, never destroyed
+    std::unique_ptr<std::complex<float>, fftw_buffer_free> spectrum_;  ///< fft_size / 2 + 1 (FFTW-aligned)
+    std::unique_ptr<float, fftw_buffer_free> samples_;                 ///< fft_size (FFTW-aligned)
+};
 
 /// One STFT frame at a time. Made once per thread: the FFT state, window and buffers are allocated
 /// here and reused, so analyzing a frame allocates nothing. The FFTW plan is made (FFTW_ESTIMATE:
@@ -83,7 +109,11 @@ private:
     struct fftw_buffer_free {
         void operator()(void* p) const;
     };
-    fftwf_plan_s* plan_ = nullptr;
+    fftwf_plan_s* plan_ = nullptr;  ///< null with few_frames
+    struct kiss_free {
+        void operator()(kiss_fftr_cfg cfg) const { kiss_fftr_free(cfg); }
+    };
+    std::unique_ptr<kiss_fftr_state, kiss_free> kiss_;  ///< with few_frames
     std::unique_ptr<float, fftw_buffer_free> frame_;      ///< fft_size real inputs (FFTW-aligned)
     std::unique_ptr<float, fftw_buffer_free> spectrum_;   ///< fft_size / 2 + 1 complex outputs
     std::vector<kiss_fft_cpx> bins_;

@@ -1,23 +1,21 @@
 #include "synthesis/noise_render.hpp"
 
-#include <kiss_fftr.h>
-
 #include <algorithm>
 #include <array>
 #include <bit>
-#include <charconv>
 #include <cassert>
 #include <cmath>
+#include <complex>
 #include <memory>
 #include <optional>
-#include <string>
 #include <vector>
 
 #include "core/noise_bands.hpp"
-#include "core/patch_numbers.hpp"
 #include "core/rng.hpp"
 #include "core/units.hpp"
+#include "spectrum/stft.hpp"
 #include "synthesis/kernel_clones.hpp"
+#include "synthesis/noise_streams.hpp"
 #include "synthesis/rate_convert.hpp"
 
 namespace wane {
@@ -53,10 +51,6 @@ struct unit_phasors {
             im[i] = static_cast<float>(std::sin(a));
         }
     }
-};
-
-struct kiss_cfg_deleter {
-    void operator()(kiss_fftr_cfg cfg) const { kiss_fftr_free(cfg); }
 };
 
 struct band_bins {
@@ -95,6 +89,18 @@ double level_at(const band_bins& b, double time_s) {
     return -infinity;
 }
 
+/// The first n in [from, size) whose time t0_s + n dt_s is not before end_s (size if none): the
+/// per-sample test, which is monotone in n, found from its estimate and then checked as written.
+std::size_t piece_stop(double t0_s, double dt_s, double end_s, std::size_t from, std::size_t size) {
+    auto before_end = [&](std::size_t n) { return t0_s + static_cast<double>(n) * dt_s < end_s; };
+    const double estimate = std::ceil((end_s - t0_s) / dt_s);
+    std::size_t stop = size;
+    if (estimate < static_cast<double>(size)) stop = std::max(from, static_cast<std::size_t>(std::max(0.0, estimate)));
+    while (stop > from && !before_end(stop - 1)) --stop;
+    while (stop < size && before_end(stop)) ++stop;
+    return stop;
+}
+
 /// dest[n] = the band's linear amplitude at t0_s + n * dt_s (0 before the onset; the attack's
 /// ramp; each piece's exponential by one power per piece and a product per sample).
 void fill_amplitude(const band_bins& b, double t0_s, double dt_s, std::span<float> dest) {
@@ -113,7 +119,8 @@ void fill_amplitude(const band_bins& b, double t0_s, double dt_s, std::span<floa
         }
         double a = to_amp(level_db{piece->start_level.db + piece->slope_db_per_s * (t - piece->start_s)}).lin;
         const double ratio = to_amp(level_db{piece->slope_db_per_s * dt_s}).lin;
-        for (; n < dest.size() && t0_s + static_cast<double>(n) * dt_s < piece->end_s; ++n) {
+        const std::size_t stop = piece_stop(t0_s, dt_s, piece->end_s, n, dest.size());
+        for (; n < stop; ++n) {
             dest[n] = static_cast<float>(a);
             a *= ratio;
         }
@@ -162,8 +169,7 @@ void add_windowed(float* __restrict out, const float* __restrict frame, const fl
 /// every bin is sqrt(c) e^(j a) + sqrt(1 - c) e^(j b), c the band's coherence, a drawn from the
 /// shared pool seed (the same in every channel) and b from the own one: by linearity the frame of
 /// the shared noise at power c plus the channel's own at 1 - c, for one inverse FFT.
-void make_pool(const band_bins& b, int n_fft, kiss_fftr_cfg plan, std::span<kiss_fft_cpx> spectrum,
-               std::span<float> pool) {
+void make_pool(const band_bins& b, int n_fft, inverse_real_fft& inverse, std::span<float> pool) {
     static const unit_phasors phasors;
     const auto n = static_cast<std::size_t>(n_fft);
     assert(pool.size() == static_cast<std::size_t>(pool_frames) * 2 * n);
@@ -173,18 +179,19 @@ void make_pool(const band_bins& b, int n_fft, kiss_fftr_cfg plan, std::span<kiss
     const auto shared_gain = static_cast<float>(std::sqrt(c));
     const auto own_gain = static_cast<float>(std::sqrt(1.0 - c));
     for (int j = 0; j < pool_frames; ++j) {
-        std::fill(spectrum.begin(), spectrum.end(), kiss_fft_cpx{0.0f, 0.0f});
+        const std::span<std::complex<float>> spectrum = inverse.spectrum();
+        std::fill(spectrum.begin(), spectrum.end(), std::complex<float>{0.0f, 0.0f});
         for (int k = 0; k < b.count; ++k) {
             const std::size_t idx = static_cast<std::size_t>(rng.next() >> (64 - phase_table_bits));
-            kiss_fft_cpx bin{phasors.re[idx], phasors.im[idx]};
+            std::complex<float> bin{phasors.re[idx], phasors.im[idx]};
             if (b.own_pool_seed) {
                 const std::size_t own = static_cast<std::size_t>(own_rng.next() >> (64 - phase_table_bits));
-                bin = {shared_gain * bin.r + own_gain * phasors.re[own], shared_gain * bin.i + own_gain * phasors.im[own]};
+                bin = {shared_gain * bin.real() + own_gain * phasors.re[own], shared_gain * bin.imag() + own_gain * phasors.im[own]};
             }
             spectrum[static_cast<std::size_t>(b.first) + static_cast<std::size_t>(k)] = bin;
         }
         float* unit = pool.data() + static_cast<std::size_t>(j) * 2 * n;
-        kiss_fftri(plan, spectrum.data(), unit);
+        inverse.run({unit, n});
         std::copy(unit, unit + n, unit + n);
     }
 }
@@ -195,7 +202,7 @@ struct bin_scale {
     int hop = 0;
     double window_power_sum = 0.0;
     double gain_lin = 1.0;
-    double inverse_scale = 1.0;  ///< kiss_fftri is unnormalized
+    double inverse_scale = 1.0;  ///< the inverse FFT is unnormalized
     [[nodiscard]] float of(const band_bins& b, double amp) const {
         const double bin_power = bin_power_for_band(amp * amp, b.count, n_fft, hop, window_power_sum);
         return static_cast<float>(std::sqrt(bin_power) * gain_lin * inverse_scale);
@@ -245,27 +252,6 @@ std::vector<float> periodic_hann(int n_fft, double& window_power_sum) {
     return window;
 }
 
-/// This band's stream of the render's seed: keyed by its edges and how many bands before it have
-/// the same edges (a floor band and the burst on top of it), so a band's noise does not change
-/// when another band comes or goes (a change of the analysis adds or drops a burst band; with one
-/// stream drawn in band order every later band's noise changed, and with it the copy's peak by up
-/// to 2 dB on guitar_nylon_d3, whose low bands carry the noise's peak).
-/// An edge as the patch file keeps it (core/patch_numbers.hpp), so a band reads the same stream
-/// before and after a write and read.
-double file_edge(double hz) {
-    const std::string text = patch_numbers::fmt_band_edge(hz);
-    double out = hz;
-    std::from_chars(text.data(), text.data() + text.size(), out);
-    return out;
-}
-
-splitmix64 band_stream(std::uint64_t seed, const noise_band& b, int same_edges_before) {
-    std::uint64_t key = splitmix64_mix(std::bit_cast<std::uint64_t>(file_edge(b.low_hz)));
-    key = splitmix64_mix(key ^ std::bit_cast<std::uint64_t>(file_edge(b.high_hz)));
-    key = splitmix64_mix(key + static_cast<std::uint64_t>(same_edges_before));
-    return splitmix64{seed ^ key};
-}
-
 /// Bins of each band: centres in [low, high), DC and Nyquist excluded; at least one bin. Each
 /// band's pool seed is the first draw of its stream (band_stream), its frames' shifts the next
 /// ones; likewise its own pool seed from the own seed's stream when there is one.
@@ -305,15 +291,66 @@ int noise_frame_size(double sample_rate_hz, double frame_s) {
 
 namespace {
 
-/// The bands' noise at a draw rate (noise_draw_rate_hz of itself), added into out.
+/// One frame's bands into each draw's frame (frames: draw d at d * n_fft): a fast band's
+/// amplitude once for all the draws, each draw its own shift per band (drawn whether the band
+/// sounds or not) and its own pool (made when the band first sounds in it).
+struct draw_player {
+    draw_player(int n_fft, std::size_t pool_count, int shift_bits, std::size_t shift_stride,
+                std::span<float> frames)
+        : n_fft_(n_fft), n_(static_cast<std::size_t>(n_fft)), pool_floats_(static_cast<std::size_t>(pool_frames) * 2 * n_),
+          shift_bits_(shift_bits), shift_stride_(shift_stride), frames_(frames),
+          inverse_(n_fft), pools_(pool_count * pool_floats_), amp_(n_) {}
+
+    void play(std::vector<std::vector<band_bins>>& layouts, std::span<const band_in_frame> plays, double start_s,
+              double dt_s, std::size_t pool_index) {
+        const std::size_t bands = layouts.front().size();
+        for (std::size_t i = 0; i < bands; ++i) {
+            const bool sounds = plays[i].bin_amp != 0.0f;
+            if (sounds && plays[i].fast) fill_amplitude(layouts.front()[i], start_s, dt_s, amp_);
+            for (std::size_t d = 0; d < layouts.size(); ++d) {
+                band_bins& b = layouts[d][i];
+                const auto shift = static_cast<std::size_t>(b.shifts.next() >> (64 - shift_bits_)) * shift_stride_;
+                if (!sounds) continue;
+                const std::span<float> pool(pools_.data() + (d * bands + i) * pool_floats_, pool_floats_);
+                if (!b.pool_ready) {
+                    make_pool(b, n_fft_, inverse_, pool);
+                    b.pool_ready = true;
+                }
+                const float* unit = pool.data() + pool_index * 2 * n_ + shift;
+                float* frame = frames_.data() + d * n_;
+                if (plays[i].fast) {
+                    add_modulated(frame, unit, amp_.data(), plays[i].bin_amp, n_);
+                } else {
+                    add_scaled(frame, unit, plays[i].bin_amp, n_);
+                }
+            }
+        }
+    }
+
+private:
+    int n_fft_;
+    std::size_t n_;
+    std::size_t pool_floats_;
+    int shift_bits_;
+    std::size_t shift_stride_;
+    std::span<float> frames_;
+    inverse_real_fft inverse_;
+    std::vector<float> pools_;  ///< each draw's bands' pools, filled when a band first sounds
+    std::vector<float> amp_;
+};
+
+/// The bands' noise at a draw rate (noise_draw_rate_hz of itself), one draw per seed added into
+/// outs[d] (all the same length). The frames' plan and the fast bands' amplitudes depend on the
+/// bands alone: worked out once per frame for every draw, each draw then the arithmetic of a
+/// render of its seed alone.
 void add_noise_at_draw_rate(std::span<const noise_band> bands, const noise_render_params& params,
-                            std::span<float> out) {
+                            std::span<const std::uint64_t> seeds, std::span<const std::span<float>> outs) {
     assert(noise_draw_rate_hz(params.sample_rate_hz) == params.sample_rate_hz);
+    assert(seeds.size() == outs.size() && !seeds.empty());
     const int n_fft = noise_frame_size(params.sample_rate_hz, params.frame_s);
     const int hop = n_fft / synthesis_overlap;
     const int n_bins = n_fft / 2 + 1;
     const double bin_hz = params.sample_rate_hz / n_fft;
-    const double nyquist_hz = params.sample_rate_hz / 2.0;
     assert(std::has_single_bit(static_cast<unsigned>(n_fft)));
     // Shifts are drawn in steps of the frame at the lowest draw rate (shift_steps of them), so
     // every draw rate shifts a frame by the same time.
@@ -325,24 +362,23 @@ void add_noise_at_draw_rate(std::span<const noise_band> bands, const noise_rende
     const std::vector<float> window = periodic_hann(n_fft, window_power_sum);
 
     // Random streams: one per band (band_stream), its pool's seed first, then its frames' shifts,
-    // so a band's noise does not depend on when (or whether) others sound.
-    std::vector<band_bins> layout = band_layout(bands, params.seed, params.own_seed, bin_hz, nyquist_hz, n_bins);
+    // so a band's noise does not depend on when (or whether) others sound. Which bands are laid
+    // out does not depend on the seed; the first draw's layout keeps the frames' piece cursor.
+    std::vector<std::vector<band_bins>> layouts;
+    for (const std::uint64_t seed : seeds)
+        layouts.push_back(band_layout(bands, seed, params.own_seed, bin_hz, params.sample_rate_hz / 2.0, n_bins));
+    std::vector<band_bins>& layout = layouts.front();
     if (layout.empty()) return;
 
     const auto n = static_cast<std::size_t>(n_fft);
-    const std::size_t pool_floats = static_cast<std::size_t>(pool_frames) * 2 * n;
-    const double gain_lin = to_amp(level_db{params.gain_db}).lin;
-    const double inverse_scale = 1.0 / n_fft;  // kiss_fftri is unnormalized
-    std::unique_ptr<kiss_fftr_state, kiss_cfg_deleter> plan(kiss_fftr_alloc(n_fft, 1, nullptr, nullptr));
-    std::vector<kiss_fft_cpx> spectrum(static_cast<std::size_t>(n_bins));
-    std::vector<float> pools(layout.size() * pool_floats);  // filled when a band first sounds
-    std::vector<float> frame(n);
-    std::vector<float> amp(n);
+    const std::size_t draws = seeds.size();
+    std::vector<float> frames(draws * n);
+    draw_player player(n_fft, draws * layout.size(), shift_bits, shift_stride, frames);
     std::vector<band_in_frame> plays(layout.size());
     const bin_scale scale{.n_fft = n_fft, .hop = hop, .window_power_sum = window_power_sum,
-                          .gain_lin = gain_lin, .inverse_scale = inverse_scale};
+                          .gain_lin = to_amp(level_db{params.gain_db}).lin, .inverse_scale = 1.0 / n_fft};  // the inverse FFT is unnormalized
 
-    const auto total = static_cast<long>(out.size());
+    const auto total = static_cast<long>(outs.front().size());
     const double dt_s = 1.0 / params.sample_rate_hz;
     // Frame m is centred on sample m * hop and spans [m hop - N/2, m hop + N/2); it draws one
     // shift per band (sounding or not), so a frame's noise does not depend on the others. The
@@ -352,31 +388,18 @@ void add_noise_at_draw_rate(std::span<const noise_band> bands, const noise_rende
         const bool audible = plan_frame(layout, plays, scale, static_cast<double>(m * hop) * dt_s,
                                         static_cast<double>(start) * dt_s, static_cast<double>(start + n_fft) * dt_s);
         if (!audible) {
-            for (band_bins& b : layout) b.shifts.skip(1);
+            for (std::vector<band_bins>& l : layouts)
+                for (band_bins& b : l) b.shifts.skip(1);
             continue;
         }
-        std::fill(frame.begin(), frame.end(), 0.0f);
+        std::fill(frames.begin(), frames.end(), 0.0f);
         const auto pool_index = static_cast<std::size_t>(((m % pool_frames) + pool_frames) % pool_frames);
-        for (std::size_t i = 0; i < layout.size(); ++i) {
-            const auto shift = static_cast<std::size_t>(layout[i].shifts.next() >> (64 - shift_bits)) * shift_stride;
-            if (plays[i].bin_amp == 0.0f) continue;
-            const std::span<float> pool(pools.data() + i * pool_floats, pool_floats);
-            if (!layout[i].pool_ready) {
-                make_pool(layout[i], n_fft, plan.get(), spectrum, pool);
-                layout[i].pool_ready = true;
-            }
-            const float* unit = pool.data() + pool_index * 2 * n + shift;
-            if (plays[i].fast) {
-                fill_amplitude(layout[i], static_cast<double>(start) * dt_s, dt_s, amp);
-                add_modulated(frame.data(), unit, amp.data(), plays[i].bin_amp, n);
-            } else {
-                add_scaled(frame.data(), unit, plays[i].bin_amp, n);
-            }
-        }
+        player.play(layouts, plays, static_cast<double>(start) * dt_s, dt_s, pool_index);
         const long from = std::max(0L, -start);
         const long to = std::min<long>(n_fft, total - start);
-        add_windowed(out.data() + start + from, frame.data() + from, window.data() + from,
-                     static_cast<std::size_t>(to - from));
+        for (std::size_t d = 0; d < draws; ++d)
+            add_windowed(outs[d].data() + start + from, frames.data() + d * n + from, window.data() + from,
+                         static_cast<std::size_t>(to - from));
     }
 }
 
@@ -388,23 +411,34 @@ double noise_draw_rate_hz(double sample_rate_hz) {
     return rate_hz;
 }
 
-void add_noise_bands(std::span<const noise_band> bands, const noise_render_params& params, std::span<float> out) {
-    if (bands.empty() || out.empty()) return;
+void add_noise_band_draws(std::span<const noise_band> bands, const noise_render_params& params,
+                          std::span<const std::uint64_t> seeds, std::span<const std::span<float>> outs) {
+    assert(seeds.size() == outs.size());
+    if (bands.empty() || outs.empty() || outs.front().empty()) return;
+    for (const std::span<float> out : outs) assert(out.size() == outs.front().size());
     const double draw_rate_hz = noise_draw_rate_hz(params.sample_rate_hz);
     if (draw_rate_hz == params.sample_rate_hz) {
-        add_noise_at_draw_rate(bands, params, out);
+        add_noise_at_draw_rate(bands, params, seeds, outs);
         return;
     }
     // Drawn at the draw rate over the output's time plus the samples the converter's kernel
     // reads past its end, then converted (synthesis/rate_convert.hpp).
     const auto margin_frames = static_cast<std::size_t>(rate_convert_taps(draw_rate_hz, params.sample_rate_hz));
-    const auto drawn_frames = static_cast<std::size_t>(std::ceil(static_cast<double>(out.size()) * draw_rate_hz /
+    const auto drawn_frames = static_cast<std::size_t>(std::ceil(static_cast<double>(outs.front().size()) * draw_rate_hz /
                                                                  params.sample_rate_hz)) + margin_frames;
-    std::vector<float> drawn(drawn_frames, 0.0f);
+    std::vector<float> drawn(seeds.size() * drawn_frames, 0.0f);
+    std::vector<std::span<float>> drawn_outs;
+    for (std::size_t d = 0; d < seeds.size(); ++d) drawn_outs.emplace_back(drawn.data() + d * drawn_frames, drawn_frames);
     noise_render_params at_draw = params;
     at_draw.sample_rate_hz = draw_rate_hz;
-    add_noise_at_draw_rate(bands, at_draw, drawn);
-    add_rate_converted(drawn, draw_rate_hz, params.sample_rate_hz, out);
+    add_noise_at_draw_rate(bands, at_draw, seeds, drawn_outs);
+    for (std::size_t d = 0; d < seeds.size(); ++d) add_rate_converted(drawn_outs[d], draw_rate_hz, params.sample_rate_hz, outs[d]);
+}
+
+void add_noise_bands(std::span<const noise_band> bands, const noise_render_params& params, std::span<float> out) {
+    const std::uint64_t seeds[] = {params.seed};
+    const std::span<float> outs[] = {out};
+    add_noise_band_draws(bands, params, seeds, outs);
 }
 
 }  // namespace wane

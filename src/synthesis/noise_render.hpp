@@ -60,6 +60,13 @@ struct noise_render_params {
 /// Adds the bands' noise into out (out[n] at t = n / rate). Bands above Nyquist are clipped to it.
 void add_noise_bands(std::span<const noise_band> bands, const noise_render_params& params, std::span<float> out);
 
+/// Draws of the same bands, seeds[d] added into outs[d] (every out the same length), each bit for
+/// bit what add_noise_bands gives with params.seed = seeds[d] (params.seed is not read): the
+/// frames' plan and the sample-by-sample envelopes of the fast bands are worked out once for all
+/// the draws (tests/unit/test_noise_rates.cpp).
+void add_noise_band_draws(std::span<const noise_band> bands, const noise_render_params& params,
+                          std::span<const std::uint64_t> seeds, std::span<const std::span<float>> outs);
+
 /// The frame length in samples the renderer and the analysis use at a rate (power of two).
 int noise_frame_size(double sample_rate_hz, double frame_s);
 

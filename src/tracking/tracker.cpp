@@ -41,7 +41,7 @@ survey_result survey(std::span<const float> x, double fs, std::int64_t onset, fl
     const std::int64_t remaining = size - onset;
     const int n = odd_length(std::min(survey_window_s * fs, double(remaining)));
     const int m = fast_fft_size(zero_padding * n);
-    stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = n, .fft_size = m});
+    stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = n, .fft_size = m, .few_frames = true});
     const std::int64_t h = plan.half_length();
     std::vector<float> sum(static_cast<std::size_t>(m / 2 + 1), 0.0f);
     int frames = 0;

@@ -9,6 +9,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdint>
+#include <span>
 #include <vector>
 
 #include "analysis/analyze.hpp"
@@ -181,4 +182,34 @@ TEST_CASE("the peak match's gain holds for the default 48 kHz render of a 44.1 k
     CAPTURE(p.note.gain_db, median_db, source_db, default_db);
     CHECK(std::abs(median_db - 20.0 * std::log10(0.5)) < peak_tolerance_db + 0.001);
     CHECK(std::abs(default_db - source_db) < 0.2);
+}
+
+TEST_CASE("noise draws rendered together are each bit for bit the render of its seed alone", "[noise][rates]") {
+    // Bands with an attack burst, a fast decay (shaped sample by sample), a slow one and a kink,
+    // at the draw rate and at a converted rate (44.1 kHz), over a length that ends mid-frame.
+    std::vector<noise_band> bands = decaying_bands(8000.0, -20.0);
+    bands.push_back({.low_hz = 2000.0, .high_hz = 4000.0,
+                     .env = {.attack_s = 0.0005, .peak = level_db{-12.0},
+                             .decay = {{.t60_s = 0.02, .until_s = 0.03}, {.t60_s = 1.5, .until_s = {}}}}});
+    for (const double rate_hz : {draw_rate_hz, 44100.0}) {
+        const auto length = static_cast<std::size_t>(std::lround(0.4123 * rate_hz));
+        const std::vector<std::uint64_t> seeds = {2, 3, 5, 9};
+        std::vector<float> together(seeds.size() * length, 0.0f);
+        std::vector<std::span<float>> outs;
+        for (std::size_t d = 0; d < seeds.size(); ++d) outs.emplace_back(together.data() + d * length, length);
+        add_noise_band_draws(bands, {.sample_rate_hz = rate_hz, .seed = 1}, seeds, outs);
+        for (std::size_t d = 0; d < seeds.size(); ++d) {
+            std::vector<float> alone(length, 0.0f);
+            add_noise_bands(bands, {.sample_rate_hz = rate_hz, .seed = seeds[d]}, alone);
+            std::size_t differing = 0;
+            double peak = 0.0;
+            for (std::size_t n = 0; n < length; ++n) {
+                differing += static_cast<std::size_t>(alone[n] != outs[d][n]);
+                peak = std::max(peak, static_cast<double>(std::abs(alone[n])));
+            }
+            INFO("rate " << rate_hz << " Hz, seed " << seeds[d] << ": " << differing << " samples differ, peak " << peak);
+            CHECK(differing == 0);
+            CHECK(peak > 1e-3);  // a render with sound in it
+        }
+    }
 }

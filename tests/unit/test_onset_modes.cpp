@@ -120,7 +120,8 @@ TEST_CASE("a two-stage partial keeps its early stage (level within 1 dB where 20
     const partial* q = nearest(r.value, 330.0);
     REQUIRE(q != nullptr);
     double worst = 0.0, worst_t = 0.0;
-    for (double t = 0.0; t < 3.9; t += 0.01) {
+    for (int i = 0; i < 390; ++i) {  // every 10 ms up to 3.9 s
+        const double t = 0.01 * i;
         if (true_level_db(m, t) < -80.0) break;
         const double err = std::abs(envelope_level(q->env, t).db - true_level_db(m, t));
         if (err > worst) {
@@ -165,4 +166,53 @@ TEST_CASE("the onset is found at the sample where the modes start, between the 2
     const double onset_n = r.value.source.onset_s * fs;
     CAPTURE(extra, onset_n, lead_n, r.tracking.onset_s * fs);
     CHECK(std::abs(onset_n - lead_n) <= 1.0);
+}
+
+TEST_CASE("a short resonance 16 Hz under a partial that shares its band joins the copy's first 100 ms",
+          "[analysis][onset]") {
+    const double fs = 44100.0;
+    // A plucked string's harmonics (T60 2 s) and, between the first two, a body resonance the
+    // pluck excites (216 Hz, -20 dB at the start, T60 0.12 s) 16 Hz under a long partial 1 dB
+    // louder: over the 150 ms fit span the resonance holds under half of the energy in its band
+    // (the partial's share sits there too), a case a share threshold of 0.5 dropped.
+    std::vector<true_mode> modes;
+    for (int h = 1; h <= 6; ++h)
+        modes.push_back({.freq_hz = 146.85 * h, .level_db = -10.0 - 3.0 * h, .t60_s = 2.0, .phase_rad = 0.4 * h});
+    const true_mode resonance{.freq_hz = 216.0, .level_db = -20.0, .t60_s = 0.12, .phase_rad = 0.3};
+    modes.push_back(resonance);
+    modes.push_back({.freq_hz = 232.0, .level_db = -19.0, .t60_s = 0.6, .phase_rad = 2.0});
+    const double lead_s = 0.05;
+    const auto x = make_note(modes, fs, 2.0, -90.0, lead_s);
+    const auto truth = make_note(modes, fs, 2.0, -400.0, lead_s);  // noise-free, for the comparison
+    const analysis_result r = analyze_note(x, fs, no_noise());
+    const partial* q = nearest(r.value, resonance.freq_hz);
+    REQUIRE(q != nullptr);
+    // The copy from its onset against the truth from the modes' start, over the first 100 ms.
+    const auto copy = render_patch(r.value, {.sample_rate_hz = fs, .include_noise = false});
+    const auto start = static_cast<std::size_t>(lead_s * fs);
+    const auto onset = static_cast<std::size_t>(std::llround(r.value.source.onset_s * fs));
+    const auto span = static_cast<std::size_t>(0.1 * fs);
+    REQUIRE(onset + span <= start + copy.size());
+    double signal = 0.0, error = 0.0, resonance_energy = 0.0;
+    for (std::size_t n = 0; n < span; ++n) {
+        const double t = static_cast<double>(n) / fs;
+        const double want = truth[start + n];
+        // The copy's sample at the truth's sample start + n (the onset may be off by a sample).
+        const double got = start + n >= onset ? static_cast<double>(copy[start + n - onset]) : 0.0;
+        signal += want * want;
+        error += (want - got) * (want - got);
+        const double res = std::pow(10.0, true_level_db(resonance, t) / 20.0) *
+                           std::cos(two_pi * resonance.freq_hz * t + resonance.phase_rad);
+        resonance_energy += res * res;
+    }
+    const double snr_db = 10.0 * std::log10(signal / error);
+    const double without_db = 10.0 * std::log10(signal / resonance_energy);  // a copy without the resonance
+    const double t60 = q->env.decay.front().t60_s;
+    CAPTURE(q->freq_hz, q->env.peak.db, q->env.attack_s, t60, snr_db, without_db, r.summary.new_modes, onset, start);
+    // Tolerances: 0.5 Hz (a 20th of a resolution cell of the span), 1 dB, 10 % of the T60.
+    CHECK_THAT(q->freq_hz, WithinAbs(resonance.freq_hz, 0.5));
+    CHECK_THAT(q->env.peak.db, WithinAbs(resonance.level_db, 1.0));
+    CHECK_THAT(t60, WithinRel(resonance.t60_s, 0.10));
+    // Its modes found, the copy's error is a small part of what a copy without it would leave.
+    CHECK(snr_db >= without_db + 10.0);
 }

@@ -177,15 +177,18 @@ TEST_CASE("STFT frame equals FFTW's transform of the same zero-phase frame", "[s
 }
 
 TEST_CASE("STFT bins equal a direct DFT in long double of the same zero-phase frame", "[spectrum][stft]") {
-    // Independent of any FFT library (the STFT runs on FFTW): X[k] = sum_n buf[n] exp(-i 2 pi k n / M).
+    // Independent of any FFT library (the STFT runs on FFTW, or KissFFT for few_frames):
+    // X[k] = sum_n buf[n] exp(-i 2 pi k n / M).
     const int fft_size = GENERATE(2400, 5400, 8000);
+    const bool few_frames = GENERATE(false, true);
     constexpr int window_length = 2001;
     constexpr std::int64_t centre = 2100;
     splitmix64 rng{777};
     const test::uniform_draw<float> uni{-1.0f, 1.0f};
     std::vector<float> x(4500);
     for (float& v : x) v = uni(rng);
-    stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = window_length, .fft_size = fft_size});
+    stft_plan plan({.window = window_kind::blackman_harris_4, .window_length = window_length, .fft_size = fft_size,
+                    .few_frames = few_frames});
     plan.analyze(x, centre);
     const std::vector<long double> buf = zero_phase_frame<long double>(x, window_length, centre, fft_size);
     long double scale = 0.0L;
@@ -199,7 +202,7 @@ TEST_CASE("STFT bins equal a direct DFT in long double of the same zero-phase fr
             ref += buf[static_cast<std::size_t>(n)] * std::complex<long double>{std::cos(arg), std::sin(arg)};
         }
         const std::complex<long double> got{bins[static_cast<std::size_t>(k)].r, bins[static_cast<std::size_t>(k)].i};
-        CAPTURE(fft_size, k, static_cast<double>(std::abs(got - ref)), static_cast<double>(scale));
+        CAPTURE(fft_size, few_frames, k, static_cast<double>(std::abs(got - ref)), static_cast<double>(scale));
         // float samples through a float FFT: errors of a few float epsilons of sum |buf|.
         CHECK(std::abs(got - ref) < 1e-5L * scale);
     }
@@ -229,6 +232,38 @@ TEST_CASE("real_fft of a zero-padded block equals a direct DFT in long double", 
         CAPTURE(fft_size, size, k, static_cast<double>(std::abs(got - ref)), static_cast<double>(scale));
         // float samples through a float FFT: errors of a few float epsilons of sum |x|.
         CHECK(std::abs(got - ref) < 1e-5L * scale);
+    }
+}
+
+TEST_CASE("inverse_real_fft equals a direct inverse DFT in long double of a Hermitian spectrum", "[spectrum][stft]") {
+    // y[n] = X[0] + X[M/2] (-1)^n + 2 Re sum_{0 < k < M/2} X[k] exp(+i 2 pi k n / M), unnormalized.
+    const int fft_size = GENERATE(1024, 2048, 2400);
+    splitmix64 rng{9191};
+    const test::uniform_draw<float> uni{-1.0f, 1.0f};
+    inverse_real_fft inverse(fft_size);
+    const inverse_real_fft again(fft_size);  // a second object of the size shares the plan
+    const auto half = static_cast<std::size_t>(fft_size / 2);
+    std::vector<std::complex<long double>> spectrum(half + 1);
+    for (std::size_t k = 0; k <= half; ++k) {
+        const bool real_only = k == 0 || k == half;
+        spectrum[k] = {uni(rng), real_only ? 0.0f : uni(rng)};
+        inverse.spectrum()[k] = {static_cast<float>(spectrum[k].real()), static_cast<float>(spectrum[k].imag())};
+    }
+    std::vector<float> y(static_cast<std::size_t>(fft_size));
+    inverse.run(y);
+    long double scale = 0.0L;
+    for (const auto& v : spectrum) scale += 2.0L * std::abs(v);
+    for (int n = 0; n < fft_size; n += fft_size / 50 + 3) {
+        long double ref = spectrum[0].real() + spectrum[half].real() * (n % 2 == 0 ? 1.0L : -1.0L);
+        for (std::size_t k = 1; k < half; ++k) {
+            const long double arg = 2.0L * 3.14159265358979323846264338327950288L *
+                                    static_cast<long double>((static_cast<long long>(k) * n) % fft_size) /
+                                    static_cast<long double>(fft_size);
+            ref += 2.0L * (spectrum[k] * std::complex<long double>{std::cos(arg), std::sin(arg)}).real();
+        }
+        CAPTURE(fft_size, n, static_cast<double>(y[static_cast<std::size_t>(n)]), static_cast<double>(ref), static_cast<double>(scale));
+        // float bins through a float FFT: errors of a few float epsilons of the sum of |X|.
+        CHECK(std::abs(static_cast<long double>(y[static_cast<std::size_t>(n)]) - ref) < 1e-5L * scale);
     }
 }
 
