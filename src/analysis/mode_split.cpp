@@ -1,6 +1,7 @@
 #include "analysis/mode_split.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cassert>
 #include <cmath>
 #include <complex>
@@ -8,9 +9,12 @@
 #include <optional>
 #include <vector>
 
+#include <Eigen/Dense>
+
 #include "core/units.hpp"
 #include "modes/damped_mode.hpp"
 #include "modes/esprit.hpp"
+#include "modes/mode_projection.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -32,53 +36,95 @@ std::vector<float> render_some(const patch& p, std::span<const std::size_t> whic
                             .include_noise = false});
 }
 
-/// One running mean of d samples (causal): out[n] = (1/d) sum_{j < d, j <= n} in[n - j]; out is
-/// in's size (the caller's buffer, so three passes allocate once).
-void running_mean(const cvec& in, cvec& out, std::size_t d) {
-    std::complex<double> sum{};
-    for (std::size_t n = 0; n < in.size(); ++n) {
-        sum += in[n];
-        if (n >= d) sum -= in[n - d];
-        out[n] = sum / static_cast<double>(d);
-    }
-}
-
-/// The band of x around freq_hz (header): x moved to 0 Hz, three running means of d samples,
-/// sampled every d samples from the first output whose means lie wholly inside x (sample 3 (d - 1)),
-/// so band sample m covers x[m d, m d + 3 d - 2] and a mode c z^n reads c' (z^d)^m.
+/// The band of x around freq_hz (header): v = x moved to 0 Hz, three causal running means of d
+/// samples (m[n] = (1/d) sum_{j < d, j <= n} in[n - j]), sampled every d samples from the first
+/// output whose means lie wholly inside x (n = 3 (d - 1)), so band sample m covers
+/// x[m d, m d + 3 d - 2] and a mode c z^n reads c' (z^d)^m.
+/// The three means are one kernel h[k] = c(k) / d^3, k < 3 d - 2, c(k) the number of ways
+/// k = a + b + e with a, b, e < d: c(k) = T(k) - 3 T(k - d) + 3 T(k - 2 d), T(x) = (x + 2)(x + 1) / 2
+/// (the terms with x >= 0), a quadratic in k on each third [0, d), [d, 2 d), [2 d, 3 d). So with
+/// blocks b of d samples starting at b d - 2, block sample j (x[b d - 2 + j]) has k = (3 - p) d - 1 - j
+/// in output m = b - p (p = 0, 1, 2), and band[m] = sum_p (al_p M0 + be_p M1 + ga_p M2)(block m + p)
+/// / d^3 with the block moments M_q = sum_j j^q v[b d - 2 + j]: one pass, no division per sample.
+/// v's phasor is the block's exp(-i 2 pi f (b d - 2) / fs) times a table of exp(-i 2 pi f j / fs).
 cvec band_of(std::span<const float> x, double freq_hz, double sample_rate_hz, std::size_t d) {
-    cvec v(x.size());
-    const std::complex<double> step = std::polar(1.0, -two_pi * freq_hz / sample_rate_hz);
-    std::complex<double> rot{1.0, 0.0};
-    for (std::size_t n = 0; n < x.size(); ++n) {
-        v[n] = static_cast<double>(x[n]) * rot;
-        rot *= step;
-        if ((n & 1023U) == 1023U) rot = std::polar(1.0, -two_pi * freq_hz * static_cast<double>(n + 1) / sample_rate_hz);
+    assert(d >= 3);
+    const std::size_t size = x.size();
+    const std::size_t first = 3 * (d - 1);
+    const std::size_t outputs = size > first ? (size - 1 - first) / d + 1 : 0;
+    cvec out(outputs);
+    if (outputs == 0) return out;
+    const auto dd = static_cast<double>(d);
+    // c(k) on third p (k = (3 - p) d - 1 - j) as al + be j + ga j^2, fitted through j = 0, 1, 2 (exact:
+    // integers, and c is quadratic there).
+    const auto tri = [](double v) { return 0.5 * (v + 2.0) * (v + 1.0); };
+    const auto count_on = [&](int p, double j) {
+        const double k = (3.0 - p) * dd - 1.0 - j;
+        return tri(k) - (p <= 1 ? 3.0 * tri(k - dd) : 0.0) + (p == 0 ? 3.0 * tri(k - 2.0 * dd) : 0.0);
+    };
+    double al[3], be[3], ga[3];
+    for (int p = 0; p < 3; ++p) {
+        const double g0 = count_on(p, 0.0), g1 = count_on(p, 1.0), g2 = count_on(p, 2.0);
+        ga[p] = 0.5 * (g2 - 2.0 * g1 + g0);
+        be[p] = g1 - g0 - ga[p];
+        al[p] = g0;
     }
-    cvec other(v.size());
-    for (int pass = 0; pass < 3; ++pass) {
-        running_mean(v, other, d);
-        v.swap(other);
+    cvec phasor(d);
+    for (std::size_t j = 0; j < d; ++j) phasor[j] = std::polar(1.0, -two_pi * freq_hz * static_cast<double>(j) / sample_rate_hz);
+    const double scale = 1.0 / (dd * dd * dd);
+    for (std::size_t b = 0; b < outputs + 2; ++b) {
+        // Block b: x[b d - 2 + j], j < d (the two samples before x[0] are none).
+        const std::size_t from = b == 0 ? 2 : 0;
+        std::complex<double> m0{}, m1{}, m2{};
+        const float* xb = x.data() + (b * d + from - 2);
+        for (std::size_t j = from; j < d; ++j) {
+            const std::complex<double> w = static_cast<double>(xb[j - from]) * phasor[j];
+            const auto jd = static_cast<double>(j);
+            m0 += w;
+            m1 += jd * w;
+            m2 += (jd * jd) * w;
+        }
+        const std::complex<double> start =
+            std::polar(1.0, -two_pi * freq_hz * (static_cast<double>(b * d) - 2.0) / sample_rate_hz);
+        for (std::size_t p = 0; p < 3; ++p) {
+            if (b < p || b - p >= outputs) continue;
+            out[b - p] += scale * start * (al[p] * m0 + be[p] * m1 + ga[p] * m2);
+        }
     }
-    cvec out;
-    for (std::size_t n = 3 * (d - 1); n < v.size(); n += d) out.push_back(v[n]);
     return out;
 }
 
-/// sum_k Re(amp_k z_k^n), n < frames (double recursion, re-anchored every 1024 samples).
+/// sum_k Re(amp_k z_k^n), n < frames (double recursion, re-anchored every 1024 samples). The modes
+/// advance together, sample by sample: their recursions are independent chains in flight at once.
 std::vector<float> mode_signal(std::span<const damped_mode> modes, double sample_rate_hz, std::size_t frames) {
-    std::vector<double> acc(frames, 0.0);
-    for (const damped_mode& m : modes) {
-        const std::complex<double> a{-m.decay_per_s / sample_rate_hz, two_pi * m.freq_hz / sample_rate_hz};
-        const std::complex<double> z = std::exp(a);
-        std::complex<double> w = m.amp;
-        for (std::size_t n = 0; n < frames; ++n) {
-            if ((n & 1023U) == 0U) w = m.amp * std::exp(a * static_cast<double>(n));
-            acc[n] += w.real();
-            w *= z;
-        }
+    std::vector<std::complex<double>> a(modes.size()), z(modes.size()), w(modes.size());
+    for (std::size_t k = 0; k < modes.size(); ++k) {
+        a[k] = {-modes[k].decay_per_s / sample_rate_hz, two_pi * modes[k].freq_hz / sample_rate_hz};
+        z[k] = std::exp(a[k]);
     }
-    return {acc.begin(), acc.end()};
+    std::vector<float> out(frames);
+    for (std::size_t n = 0; n < frames; ++n) {
+        if ((n & 1023U) == 0U)
+            for (std::size_t k = 0; k < modes.size(); ++k) w[k] = modes[k].amp * std::exp(a[k] * static_cast<double>(n));
+        double sum = 0.0;
+        for (std::size_t k = 0; k < modes.size(); ++k) {
+            sum += w[k].real();
+            w[k] *= z[k];
+        }
+        out[n] = static_cast<float>(sum);
+    }
+    return out;
+}
+
+/// max |x[n]| (0 for none), in eight lanes (a vector loop; the maximum is the same in any order).
+float largest_magnitude(std::span<const float> x) {
+    constexpr std::size_t lanes = 8;
+    std::array<float, lanes> top{};
+    std::size_t n = 0;
+    for (; n + lanes <= x.size(); n += lanes)
+        for (std::size_t k = 0; k < lanes; ++k) top[k] = std::max(top[k], std::abs(x[n + k]));
+    for (; n < x.size(); ++n) top[0] = std::max(top[0], std::abs(x[n]));
+    return *std::max_element(top.begin(), top.end());
 }
 
 double energy(std::span<const float> x, std::size_t count) {
@@ -150,29 +196,79 @@ double band_residual(const cvec& band, const cvec& model, std::size_t settle) {
     return e;
 }
 
-/// The modes of order `order` from the band's poles, their amplitudes fitted on target at the full
-/// rate; empty when a pole lies out of range or grows, two lie closer than min_separation_hz, a
-/// mode is louder than tame_amp, or the mode heard most over 0.1-1.1 s moved (header).
-std::optional<mode_set> fit_order(const cvec& band, std::size_t settle, double freq_hz, std::size_t d,
-                                  std::span<const float> target, double sample_rate_hz, int order, double tame_amp,
-                                  const mode_split_params& params) {
-    if (band.size() <= settle) return std::nullopt;
-    const double band_rate_hz = sample_rate_hz / static_cast<double>(d);
-    const std::span<const std::complex<double>> seg(band.data() + settle, band.size() - settle);
-    const auto poles = esprit_poles(seg, {.dimension = params.esprit_dimension, .max_order = order, .fixed_order = order});
+/// The modes of one order from the band's poles; empty when a pole lies out of range or grows, or
+/// two lie closer than min_separation_hz (header).
+std::optional<std::vector<damped_mode>> modes_of_poles(std::span<const std::complex<double>> poles, int order, double freq_hz,
+                                                       double band_rate_hz, const mode_split_params& params) {
     if (static_cast<int>(poles.size()) != order) return std::nullopt;
-    mode_set out;
+    std::vector<damped_mode> out;
     constexpr double longest_t60_s = 60.0;  // a mode of a few seconds of recording: no drone
     for (const auto& z : poles) {
         const double offset_hz = std::arg(z) * band_rate_hz / two_pi;
         const double decay = -std::log(std::abs(z)) * band_rate_hz;
         if (std::abs(offset_hz) > params.max_offset_hz || !(decay > ln1000 / longest_t60_s)) return std::nullopt;
-        out.modes.push_back({.freq_hz = freq_hz + offset_hz, .decay_per_s = decay, .amp = {}});
+        out.push_back({.freq_hz = freq_hz + offset_hz, .decay_per_s = decay, .amp = {}});
     }
-    for (std::size_t i = 0; i < out.modes.size(); ++i)
+    for (std::size_t i = 0; i < out.size(); ++i)
         for (std::size_t j = 0; j < i; ++j)
-            if (std::abs(out.modes[i].freq_hz - out.modes[j].freq_hz) < params.min_separation_hz) return std::nullopt;
-    fit_mode_amplitudes(target, sample_rate_hz, out.modes);
+            if (std::abs(out[i].freq_hz - out[j].freq_hz) < params.min_separation_hz) return std::nullopt;
+    return out;
+}
+
+/// fit_mode_amplitudes of every set on x (the whole target), the same numbers, with the sets'
+/// modes projected on x together (project_group, four chains per pass over x, each mode's
+/// arithmetic as alone) instead of one pass per set; each set then solved with its closed-form
+/// Gram matrix's factor (factor_plain_gram: fit_mode_amplitudes's ridge and Cholesky steps).
+void fit_amplitudes_together(std::span<const float> x, double sample_rate_hz,
+                             std::span<std::optional<std::vector<damped_mode>>> sets) {
+    std::vector<double> rho, omega;
+    for (const auto& set : sets) {
+        if (!set) continue;
+        for (const damped_mode& m : *set)
+            rho.push_back(-m.decay_per_s / sample_rate_hz), omega.push_back(two_pi * m.freq_hz / sample_rate_hz);
+    }
+    // A silent x (fit_mode_amplitudes's case of no energy): any sample not 0 has energy.
+    const bool silent = std::all_of(x.begin(), x.end(), [](float v) { return v == 0.0F; });
+    if (rho.empty() || silent) {
+        for (auto& set : sets)
+            if (set) fit_mode_amplitudes(x, sample_rate_hz, *set);  // its own answer for a silent x
+        return;
+    }
+    const std::vector<double> samples(x.begin(), x.end());
+    std::vector<std::complex<double>> sums(rho.size());
+    std::array<std::size_t, projection_group> which{};
+    for (std::size_t k = 0; k < rho.size(); k += projection_group) {
+        const std::size_t g = std::min(projection_group, rho.size() - k);
+        for (std::size_t i = 0; i < g; ++i) which[i] = k + i;
+        project_group(samples, std::span(which).first(g), rho, omega, sums);
+    }
+    std::size_t at = 0;
+    for (auto& set : sets) {
+        if (!set) continue;
+        const plain_gram_factor factor = factor_plain_gram(*set, sample_rate_hz, x.size());
+        const auto dim = static_cast<Eigen::Index>(2 * set->size());
+        if (factor.lower.empty()) {
+            fit_mode_amplitudes(x, sample_rate_hz, *set);  // its fallback for a failed factor
+        } else {
+            // rhs: Re P_k and -Im P_k (the model's real columns); LLT's solve steps on the factor.
+            Eigen::VectorXd theta(dim);
+            for (std::size_t k = 0; k < set->size(); ++k)
+                theta(static_cast<Eigen::Index>(2 * k)) = sums[at + k].real(), theta(static_cast<Eigen::Index>(2 * k + 1)) = -sums[at + k].imag();
+            const Eigen::Map<const Eigen::MatrixXd> lower(factor.lower.data(), dim, dim);
+            lower.triangularView<Eigen::Lower>().solveInPlace(theta);
+            lower.transpose().triangularView<Eigen::Upper>().solveInPlace(theta);
+            for (std::size_t k = 0; k < set->size(); ++k)
+                (*set)[k].amp = {theta(static_cast<Eigen::Index>(2 * k)), theta(static_cast<Eigen::Index>(2 * k + 1))};
+        }
+        at += set->size();
+    }
+}
+
+/// The fitted modes as a mode set; empty when a mode is louder than tame_amp or the mode heard
+/// most over 0.1-1.1 s moved (header).
+std::optional<mode_set> check_modes(std::vector<damped_mode> modes, const cvec& band, std::size_t settle, double freq_hz,
+                                    std::size_t d, double sample_rate_hz, double tame_amp, const mode_split_params& params) {
+    mode_set out{.modes = std::move(modes), .band_rss = 0.0, .band = {}};
     if (std::any_of(out.modes.begin(), out.modes.end(), [&](const damped_mode& m) { return !(std::abs(m.amp) <= tame_amp); }))
         return std::nullopt;
     // The mode heard most over the long spectrum's span (energy |amp|^2 of exp(-2 d t) over it)
@@ -197,15 +293,26 @@ std::optional<mode_set> fit_order(const cvec& band, std::size_t settle, double f
 }
 
 /// The order with the least BIC over the band's samples (complex: two real values each; a mode is
-/// four real parameters) among the orders fit_order accepts; empty when none does.
+/// four real parameters) among the orders whose modes pass modes_of_poles and check_modes; empty when none does.
 std::optional<mode_set> choose_modes(const cvec& band, double freq_hz, std::size_t d, std::span<const float> target,
                                      double sample_rate_hz, double tame_amp, const mode_split_params& params) {
     constexpr std::size_t settle = 3;  // the band's first samples, where the note's start sits
     const double count = 2.0 * static_cast<double>(band.size() > settle ? band.size() - settle : 0);
     std::optional<mode_set> best;
     double best_cost = infinity;
+    if (band.size() <= settle) return best;
+    // ESPRIT of every order from one eigen-decomposition of the band after the settling.
+    const std::span<const std::complex<double>> seg(band.data() + settle, band.size() - settle);
+    const auto poles = esprit_poles_by_order(seg, params.esprit_dimension, params.max_modes);
+    const double band_rate_hz = sample_rate_hz / static_cast<double>(d);
+    std::vector<std::optional<std::vector<damped_mode>>> sets;
+    for (int order = 1; order <= params.max_modes; ++order)
+        sets.push_back(modes_of_poles(poles[static_cast<std::size_t>(order - 1)], order, freq_hz, band_rate_hz, params));
+    fit_amplitudes_together(target, sample_rate_hz, sets);
     for (int order = 1; order <= params.max_modes; ++order) {
-        auto set = fit_order(band, settle, freq_hz, d, target, sample_rate_hz, order, tame_amp, params);
+        auto& modes = sets[static_cast<std::size_t>(order - 1)];
+        if (!modes) continue;
+        auto set = check_modes(std::move(*modes), band, settle, freq_hz, d, sample_rate_hz, tame_amp, params);
         if (!set || !(set->band_rss > 0.0)) continue;
         const double cost = count * std::log(set->band_rss) + params.bic_factor * 4.0 * order * std::log(count);
         if (cost < best_cost) best_cost = cost, best = std::move(set);
@@ -279,8 +386,7 @@ mode_split_summary split_into_modes(patch& p, std::span<const float> note, doubl
         const std::size_t one[] = {k};
         const std::vector<float> own = render_some(p, one, sample_rate_hz, frames);
         for (std::size_t n = 0; n < frames; ++n) target[n] = residual[n] + own[n];
-        double loudest = 0.0;
-        for (float v : own) loudest = std::max(loudest, std::abs(static_cast<double>(v)));
+        const auto loudest = static_cast<double>(largest_magnitude(own));
         const double freq_hz = p.partials[k].freq_hz;
         const cvec band = band_of(target, freq_hz, sample_rate_hz, d);
         const auto best = choose_modes(band, freq_hz, d, target, sample_rate_hz,

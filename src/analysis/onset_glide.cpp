@@ -12,6 +12,7 @@
 
 #include "core/envelope.hpp"
 #include "core/glide.hpp"
+#include "core/sincos_poly.hpp"
 #include "core/units.hpp"
 #include "synthesis/render.hpp"
 
@@ -71,7 +72,9 @@ void sum_blocks(std::span<const double> y, const partial& q, double gain_lin, do
             const double a = gain_lin * amp_at(t);
             double cycles = static_cast<double>(n) * cycles_per_frame;
             cycles -= std::floor(cycles);
-            const cplx z = y[n] * std::polar(1.0, -two_pi * cycles);
+            double sin_p = 0.0, cos_p = 0.0;
+            sincos_poly(-two_pi * cycles, sin_p, cos_p);
+            const cplx z = y[n] * cplx(cos_p, sin_p);
             const double offset = static_cast<double>(n) - centre;
             zf += z;
             z1f += offset * z;
@@ -105,19 +108,50 @@ block_sums merged_pairs(const block_sums& s, double rate_hz) {
     return out;
 }
 
-/// S(c0, tau) from the block sums (onset_glide.hpp); decay[b] = e^(-t_b / tau) at the blocks' centres.
-cplx projection(const block_sums& s, double freq_hz, double cents, double glide_s, std::span<const double> decay,
-                double rate_hz) {
-    if (cents == 0.0) return std::accumulate(s.z.begin(), s.z.end(), cplx{});
-    cplx sum{};
-    const double whole_rad = glide_remaining_phase_at_decay_rad(freq_hz, cents, glide_s, 1.0);
-    const double rad_per_frame = two_pi * freq_hz / rate_hz;
-    for (std::size_t b = 0; b < s.z.size(); ++b) {
-        const double g = whole_rad - glide_remaining_phase_at_decay_rad(freq_hz, cents, glide_s, decay[b]);
-        const double slope = rad_per_frame * glide_freq_excess_at_decay(cents, decay[b]);  // g' per frame
-        sum += std::polar(1.0, -g) * (s.z[b] - cplx(0.0, slope) * s.z1[b]);
+/// The glide's terms at the blocks' centres for one (c0, tau), per hertz of f where they scale
+/// with it: R(t_b) / f and G / f (core/glide.hpp's R at decay e^(-t_b / tau), linear in f) and the
+/// frequency excess f(t_b) / f - 1. decay[b] = e^(-t_b / tau).
+struct glide_terms {
+    double cents = 0.0;
+    double glide_s = 0.0;
+    double whole_rad_per_hz = 0.0;
+    std::vector<double> remaining_rad_per_hz;
+    std::vector<double> excess;
+};
+
+glide_terms terms_at(double cents, double glide_s, std::span<const double> decay) {
+    glide_terms out{.cents = cents, .glide_s = glide_s,
+                    .whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0),
+                    .remaining_rad_per_hz = std::vector<double>(decay.size()), .excess = std::vector<double>(decay.size())};
+    for (std::size_t b = 0; b < decay.size(); ++b) {
+        out.remaining_rad_per_hz[b] = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, decay[b]);
+        out.excess[b] = glide_freq_excess_at_decay(cents, decay[b]);
     }
-    return sum;
+    return out;
+}
+
+/// S(c0, tau) from the block sums (onset_glide.hpp): sum_b e^(-j g_b) (Z_b - j g'_b Z1_b) with
+/// g_b = f (G - R(t_b)) / f and g'_b = 2 pi f / fs times the excess (per frame).
+cplx projection(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz, std::vector<double>& scratch) {
+    if (t.cents == 0.0) return std::accumulate(s.z.begin(), s.z.end(), cplx{});
+    const std::size_t count = s.z.size();
+    assert(t.excess.size() == count);
+    scratch.resize(2 * count);
+    double* sin_g = scratch.data();
+    double* cos_g = scratch.data() + count;
+    for (std::size_t b = 0; b < count; ++b)  // no reduction: the compiler's vector loop
+        sincos_poly(freq_hz * (t.whole_rad_per_hz - t.remaining_rad_per_hz[b]), sin_g[b], cos_g[b]);
+    const double rad_per_frame = two_pi * freq_hz / rate_hz;
+    double re = 0.0, im = 0.0;
+    for (std::size_t b = 0; b < count; ++b) {
+        const double slope = rad_per_frame * t.excess[b];  // g' per frame
+        // a = Z - j slope Z1; (cos g - j sin g) a.
+        const double a_re = s.z[b].real() + slope * s.z1[b].imag();
+        const double a_im = s.z[b].imag() - slope * s.z1[b].real();
+        re += cos_g[b] * a_re + sin_g[b] * a_im;
+        im += cos_g[b] * a_im - sin_g[b] * a_re;
+    }
+    return {re, im};
 }
 
 struct glide_fit {
@@ -134,32 +168,46 @@ std::vector<double> decays(const block_sums& s, double glide_s) {
     return out;
 }
 
-glide_fit evaluate(const block_sums& s, double freq_hz, double cents, double glide_s, double rate_hz,
-                   std::span<const double> decay) {
-    const cplx sum = projection(s, freq_hz, cents, glide_s, decay, rate_hz);
-    return {.cents = cents, .glide_s = glide_s, .explained = 2.0 * std::norm(sum) / s.amp_energy,
+glide_fit evaluate(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz) {
+    thread_local std::vector<double> scratch;  // the blocks' sin and cos, kept between calls
+    const cplx sum = projection(s, freq_hz, t, rate_hz, scratch);
+    return {.cents = t.cents, .glide_s = t.glide_s, .explained = 2.0 * std::norm(sum) / s.amp_energy,
             .amp = 2.0 * sum / s.amp_energy};
 }
 
 glide_fit evaluate(const block_sums& s, double freq_hz, double cents, double glide_s, double rate_hz) {
-    if (cents == 0.0) return evaluate(s, freq_hz, 0.0, 0.0, rate_hz, {});
-    return evaluate(s, freq_hz, cents, glide_s, rate_hz, decays(s, glide_s));
+    if (cents == 0.0) return evaluate(s, freq_hz, glide_terms{}, rate_hz);
+    return evaluate(s, freq_hz, terms_at(cents, glide_s, decays(s, glide_s)), rate_hz);
 }
 
-/// The best (c0, tau): the coarse grid, then the fine one around its best.
-glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onset_glide_params& params) {
-    glide_fit best;
-    const block_sums coarse_sums = merged_pairs(s, rate_hz);
+/// The coarse grid's glide terms on the merged blocks: the same for every partial of a note (the
+/// blocks' centres depend on the span only), so made once.
+struct coarse_grid {
+    std::vector<glide_terms> points;
+};
+
+coarse_grid make_coarse_grid(const block_sums& coarse_sums, const onset_glide_params& params) {
+    coarse_grid out;
     const auto steps = static_cast<int>(std::floor(params.max_abs_cents / params.cents_step));
     const double ratio = std::pow(params.max_fit_glide_s / params.min_fit_glide_s, 1.0 / (params.glide_s_steps - 1));
     for (int j = 0; j < params.glide_s_steps; ++j) {
         const double glide_s = params.min_fit_glide_s * std::pow(ratio, j);
         const std::vector<double> decay = decays(coarse_sums, glide_s);
-        for (int i = -steps; i <= steps; ++i) {
-            if (i == 0) continue;
-            const glide_fit f = evaluate(coarse_sums, freq_hz, i * params.cents_step, glide_s, rate_hz, decay);
-            if (f.explained > best.explained) best = f;
-        }
+        for (int i = -steps; i <= steps; ++i)
+            if (i != 0) out.points.push_back(terms_at(i * params.cents_step, glide_s, decay));
+    }
+    return out;
+}
+
+/// The best (c0, tau): the coarse grid, then the fine one around its best.
+glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onset_glide_params& params,
+                 std::optional<coarse_grid>& grid) {
+    glide_fit best;
+    const block_sums coarse_sums = merged_pairs(s, rate_hz);
+    if (!grid) grid = make_coarse_grid(coarse_sums, params);
+    for (const glide_terms& t : grid->points) {
+        const glide_fit f = evaluate(coarse_sums, freq_hz, t, rate_hz);
+        if (f.explained > best.explained) best = f;
     }
     const glide_fit coarse = best;
     best = evaluate(s, freq_hz, coarse.cents, coarse.glide_s, rate_hz);  // on the fine blocks
@@ -172,7 +220,7 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
         for (int i = -fine; i <= fine; ++i) {
             const double cents = coarse.cents + i * params.fine_cents_step;
             if (cents == 0.0) continue;
-            const glide_fit f = evaluate(s, freq_hz, cents, glide_s, rate_hz, decay);
+            const glide_fit f = evaluate(s, freq_hz, terms_at(cents, glide_s, decay), rate_hz);
             if (f.explained > best.explained) best = f;
         }
     }
@@ -182,13 +230,13 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
 /// The glide of partial q on y (q's partial alone plus what the copy leaves), when it is kept
 /// (onset_glide.hpp): the search with a = 1, C with a = q's envelope.
 std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, double gain_lin, double rate_hz,
-                                   std::size_t block, const onset_glide_params& params) {
+                                   std::size_t block, const onset_glide_params& params, std::optional<coarse_grid>& grid) {
     block_sums flat;
     block_sums shaped;
     sum_blocks(y, q, gain_lin, rate_hz, block, flat, shaped);
     if (!(flat.amp_energy > 0.0) || !(shaped.amp_energy > 0.0)) return std::nullopt;
     const glide_fit none = evaluate(flat, q.freq_hz, 0.0, 0.0, rate_hz);
-    glide_fit best = search(flat, q.freq_hz, rate_hz, params);
+    glide_fit best = search(flat, q.freq_hz, rate_hz, params, grid);
     // A best at the grid's edge (the largest offset or the longest time constant) is a partial
     // off its frequency over the whole span, not a glide that settles onto it.
     const bool at_edge = std::abs(best.cents) >= params.max_abs_cents || best.glide_s >= params.max_fit_glide_s;
@@ -260,6 +308,7 @@ onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, doub
     const patch original = p;
 
     std::size_t tried = 0;
+    std::optional<coarse_grid> grid;  // made at the first partial tried
     for (const std::size_t k : order) {
         if (tried == params.max_partials || start_db(k) < strongest_db - params.range_db) break;
         partial& q = p.partials[k];
@@ -268,7 +317,7 @@ onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, doub
         const std::vector<double> own = render_start(p, &q, sample_rate_hz, count);
         std::vector<double> y(count);
         for (std::size_t n = 0; n < count; ++n) y[n] = static_cast<double>(note[n]) - copy[n] + own[n];
-        const auto fit = fit_glide(y, q, gain_lin, sample_rate_hz, block, params);
+        const auto fit = fit_glide(y, q, gain_lin, sample_rate_hz, block, params, grid);
         if (!fit) continue;
         const glide_fit& best = *fit;
         q.glide_cents = best.cents;

@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cassert>
 #include <cmath>
+#include <limits>
 
 #include <Eigen/Dense>
 
@@ -72,12 +73,22 @@ double largest_magnitude(const cmatrix& a) {
     return out;
 }
 
-}  // namespace
+/// R's eigen-decomposition (esprit_poles): the Householder tridiagonalization of R scaled to a
+/// largest entry of 1 and the eigen-decomposition of its tridiagonal matrix; values ascending,
+/// rescaled. ok is false when y is too short or the decomposition failed.
+struct decomposition {
+    Eigen::Index dim = 0;
+    Eigen::Tridiagonalization<cmatrix> tri;
+    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig;
+    Eigen::VectorXd values;
+    bool ok = false;
+};
 
-std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<double>> y, const esprit_params& params) {
+void decompose(std::span<const std::complex<double>> y, int dimension, decomposition& out, bool vectors = true) {
     const auto n = static_cast<Eigen::Index>(y.size());
-    const Eigen::Index dim = std::min<Eigen::Index>(params.dimension, n / 3);
-    if (dim < 3) return {};
+    const Eigen::Index dim = std::min<Eigen::Index>(dimension, n / 3);
+    out.dim = dim;
+    if (dim < 3) return;
     const Eigen::Index cols = n - dim + 1;
     // R(i, j) = sum_{m < cols} y[m + i] conj y[m + j] (the Hankel data matrix times its adjoint):
     // the first column directly, then along each diagonal
@@ -97,13 +108,92 @@ std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<doub
     // columns of Q V formed below: the eigenvectors of R are the columns of Q V.
     double scale = largest_magnitude(cov);
     if (!(scale > 0.0)) scale = 1.0;
-    const Eigen::Tridiagonalization<cmatrix> tri(cov / scale);
-    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig;
-    eig.computeFromTridiagonal(tri.diagonal(), tri.subDiagonal(), Eigen::ComputeEigenvectors);
-    if (eig.info() != Eigen::Success) return {};
-    const Eigen::VectorXd values = eig.eigenvalues() * scale;  // ascending
+    out.tri.compute(cov / scale);
+    out.eig.computeFromTridiagonal(out.tri.diagonal(), out.tri.subDiagonal(),
+                                   vectors ? Eigen::ComputeEigenvectors : Eigen::EigenvaluesOnly);
+    if (out.eig.info() != Eigen::Success) return;
+    out.values = out.eig.eigenvalues() * scale;  // ascending
+    out.ok = out.values(dim - 1) > 0.0;
+}
+
+/// The poles of the subspace of the `order` largest eigenvalues (0 < order < dim).
+std::vector<std::complex<double>> poles_of_order(const decomposition& dec, int order) {
+    const cmatrix u = dec.tri.matrixQ() * dec.eig.eigenvectors().rightCols(order).cast<std::complex<double>>();
+    const cmatrix phi = rotation(u);
+    return complex_eigenvalues(std::span(phi.data(), static_cast<std::size_t>(phi.size())), static_cast<std::size_t>(order));
+}
+
+/// Solves (T - shift I) x = b in place for the symmetric tridiagonal T (diagonal diag, off-diagonal
+/// off), Gaussian elimination with partial pivoting (as LAPACK's dgtsv); a zero pivot is replaced
+/// by `tiny` (inverse iteration: the shift is an eigenvalue, the solve meant to be near singular).
+void shifted_tridiagonal_solve(const Eigen::VectorXd& diag, const Eigen::VectorXd& off, double shift, double tiny,
+                               Eigen::VectorXd& b) {
+    const Eigen::Index n = diag.size();
+    Eigen::VectorXd d = diag.array() - shift, du = off, dl = off, du2 = Eigen::VectorXd::Zero(n);
+    const auto pivot = [&](Eigen::Index i) {
+        if (d(i) == 0.0) d(i) = tiny;
+    };
+    for (Eigen::Index i = 0; i + 1 < n; ++i) {
+        if (std::abs(d(i)) >= std::abs(dl(i))) {
+            pivot(i);
+            const double fact = dl(i) / d(i);
+            d(i + 1) -= fact * du(i);
+            b(i + 1) -= fact * b(i);
+        } else {  // rows i and i + 1 swapped
+            const double fact = d(i) / dl(i);
+            d(i) = dl(i);
+            const double temp = d(i + 1);
+            d(i + 1) = du(i) - fact * temp;
+            if (i + 2 < n) {
+                du2(i) = du(i + 1);
+                du(i + 1) = -fact * du2(i);
+            }
+            du(i) = temp;
+            const double bi = b(i);
+            b(i) = b(i + 1);
+            b(i + 1) = bi - fact * b(i + 1);
+        }
+    }
+    pivot(n - 1);
+    b(n - 1) /= d(n - 1);
+    if (n > 1) b(n - 2) = (b(n - 2) - du(n - 2) * b(n - 1)) / d(n - 2);
+    for (Eigen::Index i = n - 3; i >= 0; --i) b(i) = (b(i) - du(i) * b(i + 1) - du2(i) * b(i + 2)) / d(i);
+}
+
+/// The eigenvectors of the `count` largest eigenvalues (values ascending) of the symmetric
+/// tridiagonal T, as columns (the largest last), orthonormal: inverse iteration, three solves from
+/// a fixed start, each result made orthogonal to the vectors already found (Gram-Schmidt, for
+/// close eigenvalues) and normalized.
+Eigen::MatrixXd top_tridiagonal_vectors(const Eigen::VectorXd& diag, const Eigen::VectorXd& off, const Eigen::VectorXd& values,
+                                        int count) {
+    const Eigen::Index n = diag.size();
+    const double norm = diag.cwiseAbs().maxCoeff() + 2.0 * (off.size() > 0 ? off.cwiseAbs().maxCoeff() : 0.0);
+    const double tiny = std::max(norm, 1e-300) * std::numeric_limits<double>::epsilon();
+    Eigen::MatrixXd out(n, count);
+    for (int k = 0; k < count; ++k) {
+        const Eigen::Index col = count - 1 - k;  // the largest eigenvalue in the last column
+        const double shift = values(n - 1 - k);
+        Eigen::VectorXd x(n);
+        for (Eigen::Index i = 0; i < n; ++i) x(i) = 1.0 + 0.1 * static_cast<double>(i % 7);
+        for (int iteration = 0; iteration < 3; ++iteration) {
+            shifted_tridiagonal_solve(diag, off, shift, tiny, x);
+            for (Eigen::Index c = col + 1; c < count; ++c) x -= out.col(c).dot(x) * out.col(c);
+            x /= x.norm();
+        }
+        out.col(col) = x;
+    }
+    return out;
+}
+
+}  // namespace
+
+std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<double>> y, const esprit_params& params) {
+    decomposition dec;
+    decompose(y, params.dimension, dec);
+    if (!dec.ok) return {};
+    const Eigen::Index dim = dec.dim;
+    const Eigen::VectorXd& values = dec.values;
     const double largest = values(dim - 1);
-    if (!(largest > 0.0)) return {};
     std::vector<double> lower(values.data(), values.data() + dim / 2);
     std::nth_element(lower.begin(), lower.begin() + static_cast<std::ptrdiff_t>(lower.size() / 2), lower.end());
     const double noise = std::max(lower[lower.size() / 2], largest * 1e-15);
@@ -113,9 +203,28 @@ std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<doub
     order = std::min({order, params.max_order, static_cast<int>(dim) - 1});
     if (params.fixed_order > 0) order = std::min(params.fixed_order, static_cast<int>(dim) - 1);
     if (order == 0) return {};
-    const cmatrix u = tri.matrixQ() * eig.eigenvectors().rightCols(order).cast<std::complex<double>>();
-    const cmatrix phi = rotation(u);
-    return complex_eigenvalues(std::span(phi.data(), static_cast<std::size_t>(phi.size())), static_cast<std::size_t>(order));
+    return poles_of_order(dec, order);
+}
+
+std::vector<std::vector<std::complex<double>>> esprit_poles_by_order(std::span<const std::complex<double>> y,
+                                                                     int dimension, int max_order) {
+    std::vector<std::vector<std::complex<double>>> out(static_cast<std::size_t>(std::max(max_order, 0)));
+    decomposition dec;
+    decompose(y, dimension, dec, false);
+    if (!dec.ok || max_order < 1) return out;
+    // The eigenvectors of the largest orders once (order r's basis is the last r of them): T's by
+    // inverse iteration, then Q applied to each alone (Eigen's unblocked reflections).
+    const int widest = std::min(max_order, static_cast<int>(dec.dim) - 1);
+    const Eigen::MatrixXd v = top_tridiagonal_vectors(dec.tri.diagonal(), dec.tri.subDiagonal(), dec.eig.eigenvalues(), widest);
+    cmatrix u(dec.dim, widest);
+    for (Eigen::Index c = 0; c < widest; ++c) u.col(c) = dec.tri.matrixQ() * v.col(c).cast<std::complex<double>>();
+    for (int order = 1; order <= max_order; ++order) {
+        const int r = std::min(order, widest);
+        const cmatrix phi = rotation(u.rightCols(r));
+        out[static_cast<std::size_t>(order - 1)] =
+            complex_eigenvalues(std::span(phi.data(), static_cast<std::size_t>(phi.size())), static_cast<std::size_t>(r));
+    }
+    return out;
 }
 
 }  // namespace wane

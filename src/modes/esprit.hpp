@@ -31,4 +31,11 @@ struct esprit_params {
 /// when y is too short (fewer than 9 samples) or holds no signal.
 std::vector<std::complex<double>> esprit_poles(std::span<const std::complex<double>> y, const esprit_params& params);
 
+/// esprit_poles of y with fixed_order 1 .. max_order (the given dimension) from one
+/// eigen-decomposition and one set of eigenvectors: entry r - 1 holds order r's poles, those of
+/// esprit_poles(y, {.dimension = dimension, .max_order = r, .fixed_order = r}) up to rounding (the
+/// eigenvectors formed column by column), all empty where that is empty.
+std::vector<std::vector<std::complex<double>>> esprit_poles_by_order(std::span<const std::complex<double>> y,
+                                                                     int dimension, int max_order);
+
 }  // namespace wane

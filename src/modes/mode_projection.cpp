@@ -54,10 +54,14 @@ void project_group(std::span<const double> w, std::span<const std::size_t> which
                    std::span<const double> omega, std::span<std::complex<double>> out) {
     const std::size_t g = which.size();
     assert(g <= projection_group);
-    if (g == projection_group) {
-        project_chains<projection_group>(w, which, rho, omega, out);
-    } else {
-        for (std::size_t i = 0; i < g; ++i) project_chains<1>(w, which.subspan(i, 1), rho, omega, out);
+    static_assert(projection_group == 4);
+    // Every size its own chains in one pass (each chain's arithmetic is the same at any G).
+    switch (g) {
+        case 4: project_chains<4>(w, which, rho, omega, out); break;
+        case 3: project_chains<3>(w, which, rho, omega, out); break;
+        case 2: project_chains<2>(w, which, rho, omega, out); break;
+        case 1: project_chains<1>(w, which, rho, omega, out); break;
+        default: break;
     }
 }
 
