@@ -165,6 +165,43 @@ TEST_CASE("ESPRIT finds the poles of a noiseless sum of damped exponentials", "[
     }
 }
 
+TEST_CASE("ESPRIT by order gives, at each order, the poles of ESPRIT at that fixed order, and a noiseless sum's poles",
+          "[modes]") {
+    // The reference is the header's promise: esprit_poles_by_order's entry r - 1 equals
+    // esprit_poles(y, {.dimension, .max_order = r, .fixed_order = r}) up to rounding (its
+    // eigenvectors come by inverse iteration, the reference's from Eigen's tridiagonal QR).
+    const std::vector<std::complex<double>> poles{std::polar(0.995, 0.31), std::polar(0.97, 0.36), std::polar(0.999, -0.2)};
+    const std::vector<std::complex<double>> amps{{1.0, 0.0}, {0.3, 0.4}, {0.2, -0.1}};
+    const std::uint64_t seed = GENERATE(1, 2, 3);
+    const double noise = GENERATE(0.0, 1e-3);  // none, or uniform noise 60 dB under the strongest mode
+    std::vector<std::complex<double>> y(300);
+    for (std::size_t n = 0; n < y.size(); ++n) {
+        for (std::size_t k = 0; k < poles.size(); ++k) y[n] += amps[k] * std::pow(poles[k], static_cast<double>(n));
+        y[n] += noise * std::complex<double>{hashed_signed(seed, 0, n), hashed_signed(seed, 1, n)};
+    }
+    constexpr int dimension = 40, max_order = 3;
+    const auto by_order = esprit_poles_by_order(y, dimension, max_order);
+    REQUIRE(by_order.size() == max_order);
+    for (int r = 1; r <= max_order; ++r) {
+        const auto want = esprit_poles(y, {.dimension = dimension, .max_order = r, .fixed_order = r});
+        const auto& got = by_order[static_cast<std::size_t>(r - 1)];
+        REQUIRE(got.size() == want.size());
+        for (const auto& w : want) {
+            double best = 1.0;
+            for (const auto& g : got) best = std::min(best, std::abs(g - w));
+            CAPTURE(seed, noise, r, w, best);
+            CHECK(best < 1e-9);  // our tolerance: rounding of two eigenvector methods on a 40 x 40 problem
+        }
+    }
+    if (noise > 0.0) return;
+    for (const auto& want : poles) {  // order 3 of the noiseless sum: its poles, exactly
+        double best = 1.0;
+        for (const auto& g : by_order[2]) best = std::min(best, std::abs(g - want));
+        CAPTURE(seed, want, best);
+        CHECK(best < 1e-8);
+    }
+}
+
 namespace {
 
 /// An n x n complex matrix with entries uniform in [-1, 1) + i [-1, 1), drawn from the project's
