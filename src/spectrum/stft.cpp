@@ -80,9 +80,13 @@ inverse_real_fft::inverse_real_fft(int fft_size) : size_(fft_size) {
     spectrum_.reset(reinterpret_cast<std::complex<float>*>(fftwf_alloc_complex(n / 2 + 1)));  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): FFTW's complex is float[2]
     samples_.reset(fftwf_alloc_real(n));
     if (!spectrum_ || !samples_) throw std::bad_alloc();
-    static std::map<int, fftwf_plan> plans;  // guarded by the planner lock
+    // One plan per size for the process, guarded by the planner lock. Never destroyed: a worker
+    // may still run one while the process exits, and the map stays reachable from this pointer,
+    // so the leak checker counts nothing (a static map's destructor, which left the plans
+    // unreachable without destroying them, was reported as a leak at every exit).
+    static auto* const plans = new std::map<int, fftwf_plan>();
     const std::lock_guard<std::mutex> hold(planner_lock());
-    fftwf_plan& plan = plans[fft_size];
+    fftwf_plan& plan = (*plans)[fft_size];
     if (plan == nullptr)
         plan = fftwf_plan_dft_c2r_1d(fft_size, reinterpret_cast<fftwf_complex*>(spectrum_.get()), samples_.get(),  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
                                      planner_flags);
