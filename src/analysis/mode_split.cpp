@@ -9,12 +9,9 @@
 #include <optional>
 #include <vector>
 
-#include <Eigen/Dense>
-
 #include "core/units.hpp"
 #include "modes/damped_mode.hpp"
 #include "modes/esprit.hpp"
-#include "modes/mode_projection.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -215,55 +212,6 @@ std::optional<std::vector<damped_mode>> modes_of_poles(std::span<const std::comp
     return out;
 }
 
-/// fit_mode_amplitudes of every set on x (the whole target), the same numbers, with the sets'
-/// modes projected on x together (project_group, four chains per pass over x, each mode's
-/// arithmetic as alone) instead of one pass per set; each set then solved with its closed-form
-/// Gram matrix's factor (factor_plain_gram: fit_mode_amplitudes's ridge and Cholesky steps).
-void fit_amplitudes_together(std::span<const float> x, double sample_rate_hz,
-                             std::span<std::optional<std::vector<damped_mode>>> sets) {
-    std::vector<double> rho, omega;
-    for (const auto& set : sets) {
-        if (!set) continue;
-        for (const damped_mode& m : *set)
-            rho.push_back(-m.decay_per_s / sample_rate_hz), omega.push_back(two_pi * m.freq_hz / sample_rate_hz);
-    }
-    // A silent x (fit_mode_amplitudes's case of no energy): any sample not 0 has energy.
-    const bool silent = std::all_of(x.begin(), x.end(), [](float v) { return v == 0.0F; });
-    if (rho.empty() || silent) {
-        for (auto& set : sets)
-            if (set) fit_mode_amplitudes(x, sample_rate_hz, *set);  // its own answer for a silent x
-        return;
-    }
-    const std::vector<double> samples(x.begin(), x.end());
-    std::vector<std::complex<double>> sums(rho.size());
-    std::array<std::size_t, projection_group> which{};
-    for (std::size_t k = 0; k < rho.size(); k += projection_group) {
-        const std::size_t g = std::min(projection_group, rho.size() - k);
-        for (std::size_t i = 0; i < g; ++i) which[i] = k + i;
-        project_group(samples, std::span(which).first(g), rho, omega, sums);
-    }
-    std::size_t at = 0;
-    for (auto& set : sets) {
-        if (!set) continue;
-        const plain_gram_factor factor = factor_plain_gram(*set, sample_rate_hz, x.size());
-        const auto dim = static_cast<Eigen::Index>(2 * set->size());
-        if (factor.lower.empty()) {
-            fit_mode_amplitudes(x, sample_rate_hz, *set);  // its fallback for a failed factor
-        } else {
-            // rhs: Re P_k and -Im P_k (the model's real columns); LLT's solve steps on the factor.
-            Eigen::VectorXd theta(dim);
-            for (std::size_t k = 0; k < set->size(); ++k)
-                theta(static_cast<Eigen::Index>(2 * k)) = sums[at + k].real(), theta(static_cast<Eigen::Index>(2 * k + 1)) = -sums[at + k].imag();
-            const Eigen::Map<const Eigen::MatrixXd> lower(factor.lower.data(), dim, dim);
-            lower.triangularView<Eigen::Lower>().solveInPlace(theta);
-            lower.transpose().triangularView<Eigen::Upper>().solveInPlace(theta);
-            for (std::size_t k = 0; k < set->size(); ++k)
-                (*set)[k].amp = {theta(static_cast<Eigen::Index>(2 * k)), theta(static_cast<Eigen::Index>(2 * k + 1))};
-        }
-        at += set->size();
-    }
-}
-
 /// The fitted modes as a mode set; empty when a mode is louder than tame_amp or the mode heard
 /// most over 0.1-1.1 s moved (header).
 std::optional<mode_set> check_modes(std::vector<damped_mode> modes, const cvec& band, std::size_t settle, double freq_hz,
@@ -308,7 +256,7 @@ std::optional<mode_set> choose_modes(const cvec& band, double freq_hz, std::size
     std::vector<std::optional<std::vector<damped_mode>>> sets;
     for (int order = 1; order <= params.max_modes; ++order)
         sets.push_back(modes_of_poles(poles[static_cast<std::size_t>(order - 1)], order, freq_hz, band_rate_hz, params));
-    fit_amplitudes_together(target, sample_rate_hz, sets);
+    fit_mode_amplitude_sets(target, sample_rate_hz, sets);
     for (int order = 1; order <= params.max_modes; ++order) {
         auto& modes = sets[static_cast<std::size_t>(order - 1)];
         if (!modes) continue;

@@ -198,6 +198,13 @@ Eigen::VectorXd shape_projections(std::span<const float> x, double sample_rate_h
     return rhs;
 }
 
+/// LLT::solve's steps on a kept factor (factor_plain_gram): L y = theta, then L^T theta = y, in place.
+void solve_on_factor(const plain_gram_factor& factor, Eigen::VectorXd& theta) {
+    const Eigen::Map<const Eigen::MatrixXd> lower(factor.lower.data(), theta.size(), theta.size());
+    lower.triangularView<Eigen::Lower>().solveInPlace(theta);
+    lower.transpose().triangularView<Eigen::Upper>().solveInPlace(theta);
+}
+
 }  // namespace
 
 double fit_mode_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
@@ -261,11 +268,8 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
                        std::all_of(shapes.begin(), shapes.end(), [](const mode_shape& a) { return a.empty(); }) &&
                        leads(*known, modes, sample_rate_hz, n_count);
     if (reuse) {
-        // LLT::solve's steps on the kept factor: L y = rhs, then L^T theta = y.
-        const Eigen::Map<const Eigen::MatrixXd> lower(known->lower.data(), dim, dim);
         theta = rhs;
-        lower.triangularView<Eigen::Lower>().solveInPlace(theta);
-        lower.transpose().triangularView<Eigen::Upper>().solveInPlace(theta);
+        solve_on_factor(*known, theta);
         g_theta = Eigen::Map<const Eigen::MatrixXd>(known->gram.data(), dim, dim) * theta;
     } else {
         const gram_reuse from{.old_of = old_of, .old = last.gram.data(), .old_dim = 2 * last.omega.size()};
@@ -291,21 +295,46 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
     return std::clamp(residual / energy, 0.0, 1.0);
 }
 
-namespace {
-
-/// P_k = sum_{n < count} x[n] z_k^n for every mode (z_k = exp(rho_k + i omega_k)), directly
-/// (project_group; x copied to doubles in `scratch`).
-void direct_projections(std::span<const float> x, std::size_t count, std::span<const double> rho,
-                        std::span<const double> omega, std::vector<double>& scratch,
-                        std::vector<std::complex<double>>& out) {
-    scratch.assign(x.begin(), x.begin() + static_cast<std::ptrdiff_t>(count));
-    std::array<std::size_t, projection_group> which{};
-    for (std::size_t k = 0; k < rho.size(); k += projection_group) {
-        const std::size_t g = std::min(projection_group, rho.size() - k);
-        for (std::size_t i = 0; i < g; ++i) which[i] = k + i;
-        project_group(scratch, std::span(which).first(g), rho, omega, out);
+void fit_mode_amplitude_sets(std::span<const float> x, double sample_rate_hz,
+                             std::span<std::optional<std::vector<damped_mode>>> sets) {
+    std::vector<double> rho, omega;
+    for (const auto& set : sets) {
+        if (!set) continue;
+        for (const damped_mode& m : *set)
+            rho.push_back(-m.decay_per_s / sample_rate_hz), omega.push_back(two_pi * m.freq_hz / sample_rate_hz);
+    }
+    // A silent x (fit_mode_amplitudes's case of no energy): any sample not 0 has energy.
+    const bool silent = std::all_of(x.begin(), x.end(), [](float v) { return v == 0.0F; });
+    if (rho.empty() || silent) {
+        for (auto& set : sets)
+            if (set) fit_mode_amplitudes(x, sample_rate_hz, *set);  // its own answer for a silent x
+        return;
+    }
+    std::vector<double> scratch;
+    std::vector<std::complex<double>> sums(rho.size());
+    project_modes(x, x.size(), rho, omega, scratch, sums);
+    std::size_t at = 0;
+    for (auto& set : sets) {
+        if (!set) continue;
+        const plain_gram_factor factor = factor_plain_gram(*set, sample_rate_hz, x.size());
+        if (factor.lower.empty()) {
+            fit_mode_amplitudes(x, sample_rate_hz, *set);  // its fallback for a failed factor
+        } else {
+            // rhs: Re P_k and -Im P_k (the model's real columns).
+            Eigen::VectorXd theta(static_cast<Eigen::Index>(2 * set->size()));
+            for (std::size_t k = 0; k < set->size(); ++k) {
+                theta(static_cast<Eigen::Index>(2 * k)) = sums[at + k].real();
+                theta(static_cast<Eigen::Index>(2 * k + 1)) = -sums[at + k].imag();
+            }
+            solve_on_factor(factor, theta);
+            for (std::size_t k = 0; k < set->size(); ++k)
+                (*set)[k].amp = {theta(static_cast<Eigen::Index>(2 * k)), theta(static_cast<Eigen::Index>(2 * k + 1))};
+        }
+        at += set->size();
     }
 }
+
+namespace {
 
 /// The Cholesky factor L (lower triangle) of the ridged Gram matrix of the sliding fit's plain
 /// modes; empty when the factorization fails. With params.leading ahead of the modes, its factor
@@ -389,7 +418,7 @@ std::vector<double> sliding_fit_residuals(std::span<const float> x, double sampl
         }
         const std::size_t cols = std::min(block, starts - first);
         for (std::size_t s = first; s < first + cols; ++s) {
-            if (s % exact_every == 0) direct_projections(x.subspan(s), count, rho_of, omega, scratch, proj);
+            if (s % exact_every == 0) project_modes(x.subspan(s), count, rho_of, omega, scratch, proj);
             const auto col = static_cast<Eigen::Index>(s - first);
             for (std::size_t k = 0; k < k_count; ++k) {
                 rhs(static_cast<Eigen::Index>(2 * k), col) = proj[k].real();

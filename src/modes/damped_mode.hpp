@@ -7,6 +7,7 @@
 #pragma once
 
 #include <complex>
+#include <optional>
 #include <span>
 #include <vector>
 
@@ -38,6 +39,13 @@ std::complex<double> complex_expm1(std::complex<double> a);
 /// x is all zero). Preconditions (asserted): sample_rate_hz > 0, every freq in [0, fs/2].
 double fit_mode_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
                            double ridge_rel = 1e-9);
+
+/// fit_mode_amplitudes of every set present (each on the whole of x): every set's modes projected
+/// on x in one pass (project_modes, each mode's arithmetic as alone), each set then solved with the
+/// factor of its closed-form Gram matrix (factor_plain_gram: fit_mode_amplitudes's ridge and
+/// Cholesky steps). For the several model orders of one band (analysis/mode_split.cpp).
+void fit_mode_amplitude_sets(std::span<const float> x, double sample_rate_hz,
+                             std::span<std::optional<std::vector<damped_mode>>> sets);
 
 /// The least-squares system of plain damped modes over `count` samples as fit_mode_amplitudes
 /// builds it (the Gram matrix, and the Cholesky factor of it with the ridge added), kept so that a

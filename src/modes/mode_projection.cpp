@@ -1,6 +1,7 @@
 #include "modes/mode_projection.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cassert>
 #include <cmath>
 
@@ -65,5 +66,16 @@ void project_group(std::span<const double> w, std::span<const std::size_t> which
     }
 }
 
+
+void project_modes(std::span<const float> x, std::size_t count, std::span<const double> rho,
+                   std::span<const double> omega, std::vector<double>& scratch, std::span<std::complex<double>> out) {
+    scratch.assign(x.begin(), x.begin() + static_cast<std::ptrdiff_t>(count));
+    std::array<std::size_t, projection_group> which{};
+    for (std::size_t k = 0; k < rho.size(); k += projection_group) {
+        const std::size_t g = std::min(projection_group, rho.size() - k);
+        for (std::size_t i = 0; i < g; ++i) which[i] = k + i;
+        project_group(scratch, std::span(which).first(g), rho, omega, out);
+    }
+}
 
 }  // namespace wane

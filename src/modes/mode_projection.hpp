@@ -5,6 +5,7 @@
 #include <complex>
 #include <cstddef>
 #include <span>
+#include <vector>
 
 namespace wane {
 
@@ -16,5 +17,10 @@ inline constexpr std::size_t projection_group = 4;
 /// i w_k)), the phasors re-anchored from the exact power every 512 samples; written to out[k].
 void project_group(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
                    std::span<const double> omega, std::span<std::complex<double>> out);
+
+/// P_k = sum_{n < count} x[n] z_k^n for every mode k (z_k = exp(rho_k + i omega_k)) into out[k]
+/// (out.size() >= rho.size()), by project_group in groups; x copied to doubles in `scratch`.
+void project_modes(std::span<const float> x, std::size_t count, std::span<const double> rho,
+                   std::span<const double> omega, std::vector<double>& scratch, std::span<std::complex<double>> out);
 
 }  // namespace wane
