@@ -5,7 +5,6 @@
 #include <cassert>
 #include <cmath>
 #include <complex>
-#include <cstring>
 #include <numeric>
 #include <optional>
 #include <vector>
@@ -13,6 +12,7 @@
 #include "core/units.hpp"
 #include "modes/damped_mode.hpp"
 #include "modes/esprit.hpp"
+#include "synthesis/kernel_clones.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -52,39 +52,43 @@ block_moments moments_of(const float* xb, std::size_t from, std::span<const std:
     return {m0, m1, m2};
 }
 
-/// A complex number as two lanes {re, im} (GCC/Clang vector extensions): the lane arithmetic
-/// below is the same IEEE operations std::complex<double> does for a real times a complex and for
-/// a sum, two at a time.
-using vcomplex = double __attribute__((vector_size(16)));
+/// Two blocks' complex sums side by side, {re_a, im_a, re_b, im_b} (GCC/Clang vector extensions):
+/// the lane arithmetic below is the IEEE operations std::complex<double> does for a real times a
+/// complex and for a sum, four lanes at a time (one AVX register, two SSE registers).
+using vblocks = double __attribute__((vector_size(32)));
 
-[[gnu::always_inline]] inline vcomplex load_c(const std::complex<double>& c) {
-    vcomplex v;
-    std::memcpy(&v, &c, sizeof v);  // std::complex<double> is {re, im}
-    return v;
-}
-
-/// Two whole blocks' moments (j from 0, xa and xb at j = 0) in one loop: each block's sums are a
-/// chain of additions that waits on the one before, the two blocks' chains are independent, so
-/// the processor runs them side by side, each complex sum in one register. Each is summed in j
-/// order as moments_of sums it, with the same operations: the same numbers.
-void moments_of_pair(const float* xa, const float* xb, std::span<const std::complex<double>> phasor,
-                     block_moments& a, block_moments& b) {
-    vcomplex a0{}, a1{}, a2{}, b0{}, b1{}, b2{};
-    for (std::size_t j = 0; j < phasor.size(); ++j) {
+/// Four whole blocks' moments (j from 0; x[i] the block's sample at j = 0) in one loop: each
+/// block's sums are chains of additions that wait on the one before, the blocks' chains are
+/// independent, so the processor runs them side by side. Each is summed in j order with the
+/// operations moments_of does: the same numbers. Compiled for AVX2 and the baseline
+/// (synthesis/kernel_clones.hpp: no FMA, the same bits).
+WANE_KERNEL_CLONES
+void moments_of_four(const std::array<const float*, 4>& x, const std::complex<double>* __restrict phasor, std::size_t d,
+                     std::array<block_moments, 4>& out) {
+    vblocks ab0{}, ab1{}, ab2{}, cd0{}, cd1{}, cd2{};
+    for (std::size_t j = 0; j < d; ++j) {
         const auto jd = static_cast<double>(j);
         const double jj = jd * jd;
-        const vcomplex ph = load_c(phasor[j]);
-        const vcomplex wa = static_cast<double>(xa[j]) * ph;
-        const vcomplex wb = static_cast<double>(xb[j]) * ph;
-        a0 += wa;
-        a1 += jd * wa;
-        a2 += jj * wa;
-        b0 += wb;
-        b1 += jd * wb;
-        b2 += jj * wb;
+        const double re = phasor[j].real(), im = phasor[j].imag();
+        const vblocks ph{re, im, re, im};
+        const auto xa = static_cast<double>(x[0][j]), xb = static_cast<double>(x[1][j]);
+        const auto xc = static_cast<double>(x[2][j]), xd = static_cast<double>(x[3][j]);
+        const vblocks wab = vblocks{xa, xa, xb, xb} * ph;
+        const vblocks wcd = vblocks{xc, xc, xd, xd} * ph;
+        ab0 += wab;
+        ab1 += jd * wab;
+        ab2 += jj * wab;
+        cd0 += wcd;
+        cd1 += jd * wcd;
+        cd2 += jj * wcd;
     }
-    a = {{a0[0], a0[1]}, {a1[0], a1[1]}, {a2[0], a2[1]}};
-    b = {{b0[0], b0[1]}, {b1[0], b1[1]}, {b2[0], b2[1]}};
+    const auto put = [&](std::size_t i, const vblocks& m0, const vblocks& m1, const vblocks& m2, std::size_t lane) {
+        out[i] = {{m0[lane], m0[lane + 1]}, {m1[lane], m1[lane + 1]}, {m2[lane], m2[lane + 1]}};
+    };
+    put(0, ab0, ab1, ab2, 0);
+    put(1, ab0, ab1, ab2, 2);
+    put(2, cd0, cd1, cd2, 0);
+    put(3, cd0, cd1, cd2, 2);
 }
 
 /// The band of x around freq_hz (header): v = x moved to 0 Hz, three causal running means of d
@@ -136,13 +140,14 @@ cvec band_of(std::span<const float> x, double freq_hz, double sample_rate_hz, st
     const std::size_t blocks = outputs + 2;
     add_block(0, moments_of(x.data(), 2, phasor));
     std::size_t b = 1;
-    for (; b + 1 < blocks; b += 2) {
-        block_moments ma, mb;
-        moments_of_pair(x.data() + (b * d - 2), x.data() + ((b + 1) * d - 2), phasor, ma, mb);
-        add_block(b, ma);
-        add_block(b + 1, mb);
+    for (; b + 3 < blocks; b += 4) {
+        std::array<block_moments, 4> m;
+        moments_of_four({x.data() + (b * d - 2), x.data() + ((b + 1) * d - 2), x.data() + ((b + 2) * d - 2),
+                         x.data() + ((b + 3) * d - 2)},
+                        phasor.data(), d, m);
+        for (std::size_t i = 0; i < 4; ++i) add_block(b + i, m[i]);
     }
-    if (b < blocks) add_block(b, moments_of(x.data() + (b * d - 2), 0, phasor));
+    for (; b < blocks; ++b) add_block(b, moments_of(x.data() + (b * d - 2), 0, phasor));
     return out;
 }
 
