@@ -14,6 +14,7 @@
 #include "core/rng.hpp"
 #include "core/units.hpp"
 #include "spectrum/stft.hpp"
+#include "synthesis/amplitude_runs.hpp"
 #include "synthesis/kernel_clones.hpp"
 #include "synthesis/noise_streams.hpp"
 #include "synthesis/rate_convert.hpp"
@@ -89,21 +90,12 @@ double level_at(const band_bins& b, double time_s) {
     return -infinity;
 }
 
-/// The first n in [from, size) whose time t0_s + n dt_s is not before end_s (size if none): the
-/// per-sample test, which is monotone in n, found from its estimate and then checked as written.
-std::size_t piece_stop(double t0_s, double dt_s, double end_s, std::size_t from, std::size_t size) {
-    auto before_end = [&](std::size_t n) { return t0_s + static_cast<double>(n) * dt_s < end_s; };
-    const double estimate = std::ceil((end_s - t0_s) / dt_s);
-    std::size_t stop = size;
-    if (estimate < static_cast<double>(size)) stop = std::max(from, static_cast<std::size_t>(std::max(0.0, estimate)));
-    while (stop > from && !before_end(stop - 1)) --stop;
-    while (stop < size && before_end(stop)) ++stop;
-    return stop;
-}
-
 /// dest[n] = the band's linear amplitude at t0_s + n * dt_s (0 before the onset; the attack's
-/// ramp; each piece's exponential by one power per piece and a product per sample).
-void fill_amplitude(const band_bins& b, double t0_s, double dt_s, std::span<float> dest) {
+/// ramp; each piece's exponential by one power per piece and a product per sample). The
+/// attack's and silent samples are written here; each piece's run is appended to runs, to be
+/// played by play_runs.
+void fill_amplitude(const band_bins& b, double t0_s, double dt_s, std::span<float> dest,
+                    std::vector<amplitude_run>& runs) {
     const envelope& env = b.band->env;
     std::size_t n = 0;
     while (n < dest.size()) {
@@ -117,13 +109,11 @@ void fill_amplitude(const band_bins& b, double t0_s, double dt_s, std::span<floa
             dest[n++] = 0.0F;
             continue;
         }
-        double a = to_amp(level_db{piece->start_level.db + piece->slope_db_per_s * (t - piece->start_s)}).lin;
+        const double a = to_amp(level_db{piece->start_level.db + piece->slope_db_per_s * (t - piece->start_s)}).lin;
         const double ratio = to_amp(level_db{piece->slope_db_per_s * dt_s}).lin;
         const std::size_t stop = piece_stop(t0_s, dt_s, piece->end_s, n, dest.size());
-        for (; n < stop; ++n) {
-            dest[n] = static_cast<float>(a);
-            a *= ratio;
-        }
+        runs.push_back({.dest = dest.data() + n, .count = stop - n, .a = a, .ratio = ratio});
+        n = stop;
     }
 }
 
@@ -295,18 +285,25 @@ namespace {
 /// amplitude once for all the draws, each draw its own shift per band (drawn whether the band
 /// sounds or not) and its own pool (made when the band first sounds in it).
 struct draw_player {
-    draw_player(int n_fft, std::size_t pool_count, int shift_bits, std::size_t shift_stride,
+    draw_player(int n_fft, std::size_t bands, std::size_t draws, int shift_bits, std::size_t shift_stride,
                 std::span<float> frames)
         : n_fft_(n_fft), n_(static_cast<std::size_t>(n_fft)), pool_floats_(static_cast<std::size_t>(pool_frames) * 2 * n_),
           shift_bits_(shift_bits), shift_stride_(shift_stride), frames_(frames),
-          inverse_(n_fft), pools_(pool_count * pool_floats_), amp_(n_) {}
+          inverse_(n_fft), pools_(draws * bands * pool_floats_), amp_(bands * n_) {
+        runs_.reserve(2 * bands);  // a band makes a run per piece it crosses in a frame: rarely two
+    }
 
     void play(std::vector<std::vector<band_bins>>& layouts, std::span<const band_in_frame> plays, double start_s,
               double dt_s, std::size_t pool_index) {
         const std::size_t bands = layouts.front().size();
+        // The fast bands' amplitudes first, each into its own row (their runs played together).
+        runs_.clear();
+        for (std::size_t i = 0; i < bands; ++i)
+            if (plays[i].bin_amp != 0.0f && plays[i].fast)
+                fill_amplitude(layouts.front()[i], start_s, dt_s, std::span(amp_).subspan(i * n_, n_), runs_);
+        play_runs(runs_);
         for (std::size_t i = 0; i < bands; ++i) {
             const bool sounds = plays[i].bin_amp != 0.0f;
-            if (sounds && plays[i].fast) fill_amplitude(layouts.front()[i], start_s, dt_s, amp_);
             for (std::size_t d = 0; d < layouts.size(); ++d) {
                 band_bins& b = layouts[d][i];
                 const auto shift = static_cast<std::size_t>(b.shifts.next() >> (64 - shift_bits_)) * shift_stride_;
@@ -319,7 +316,7 @@ struct draw_player {
                 const float* unit = pool.data() + pool_index * 2 * n_ + shift;
                 float* frame = frames_.data() + d * n_;
                 if (plays[i].fast) {
-                    add_modulated(frame, unit, amp_.data(), plays[i].bin_amp, n_);
+                    add_modulated(frame, unit, amp_.data() + i * n_, plays[i].bin_amp, n_);
                 } else {
                     add_scaled(frame, unit, plays[i].bin_amp, n_);
                 }
@@ -336,7 +333,8 @@ private:
     std::span<float> frames_;
     inverse_real_fft inverse_;
     std::vector<float> pools_;  ///< each draw's bands' pools, filled when a band first sounds
-    std::vector<float> amp_;
+    std::vector<float> amp_;  ///< the fast bands' amplitudes in the frame, a row of n_fft per band
+    std::vector<amplitude_run> runs_;
 };
 
 /// The bands' noise at a draw rate (noise_draw_rate_hz of itself), one draw per seed added into
@@ -373,7 +371,7 @@ void add_noise_at_draw_rate(std::span<const noise_band> bands, const noise_rende
     const auto n = static_cast<std::size_t>(n_fft);
     const std::size_t draws = seeds.size();
     std::vector<float> frames(draws * n);
-    draw_player player(n_fft, draws * layout.size(), shift_bits, shift_stride, frames);
+    draw_player player(n_fft, layout.size(), draws, shift_bits, shift_stride, frames);
     std::vector<band_in_frame> plays(layout.size());
     const bin_scale scale{.n_fft = n_fft, .hop = hop, .window_power_sum = window_power_sum,
                           .gain_lin = to_amp(level_db{params.gain_db}).lin, .inverse_scale = 1.0 / n_fft};  // the inverse FFT is unnormalized
