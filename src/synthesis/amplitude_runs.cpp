@@ -4,6 +4,8 @@
 #include <array>
 #include <cmath>
 
+#include "core/units.hpp"
+
 namespace wane {
 
 void play_runs(std::span<const amplitude_run> runs) {
@@ -38,6 +40,28 @@ void play_runs(std::span<const amplitude_run> runs) {
             runs[r].dest[n] = static_cast<float>(a);
             a *= runs[r].ratio;
         }
+    }
+}
+
+void fill_amplitude(const envelope& env, std::span<const envelope_piece> pieces, double peak_lin, double t0_s,
+                    double dt_s, std::span<float> dest, std::vector<amplitude_run>& runs) {
+    std::size_t n = 0;
+    while (n < dest.size()) {
+        const double t = t0_s + static_cast<double>(n) * dt_s;
+        if (t < env.attack_s || t < 0.0) {
+            dest[n++] = t < 0.0 ? 0.0F : static_cast<float>(peak_lin * t / env.attack_s);
+            continue;
+        }
+        const auto piece = std::find_if(pieces.begin(), pieces.end(), [&](const envelope_piece& p) { return t < p.end_s; });
+        if (piece == pieces.end()) {  // unreachable for a valid envelope: the last piece ends at +inf
+            dest[n++] = 0.0F;
+            continue;
+        }
+        const double a = to_amp(level_db{piece->start_level.db + piece->slope_db_per_s * (t - piece->start_s)}).lin;
+        const double ratio = to_amp(level_db{piece->slope_db_per_s * dt_s}).lin;
+        const std::size_t stop = piece_stop(t0_s, dt_s, piece->end_s, n, dest.size());
+        runs.push_back({.dest = dest.data() + n, .count = stop - n, .a = a, .ratio = ratio});
+        n = stop;
     }
 }
 

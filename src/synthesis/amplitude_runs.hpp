@@ -5,6 +5,9 @@
 
 #include <cstddef>
 #include <span>
+#include <vector>
+
+#include "core/envelope.hpp"
 
 namespace wane {
 
@@ -20,6 +23,13 @@ struct amplitude_run {
 /// Plays the runs, four at a time in step: each run's chain of multiplies waits on itself only,
 /// so four run side by side, each the same sequence of products (the same floats) as alone.
 void play_runs(std::span<const amplitude_run> runs);
+
+/// dest[n] = the linear amplitude of envelope env (pieces: envelope_pieces(env), peak_lin: its
+/// peak's amplitude) at t0_s + n * dt_s: 0 before the onset, the attack's ramp, and each piece's
+/// exponential by one power per piece and a product per sample. The onset's and the attack's
+/// samples are written here; each piece's run is appended to runs, for play_runs to write.
+void fill_amplitude(const envelope& env, std::span<const envelope_piece> pieces, double peak_lin, double t0_s,
+                    double dt_s, std::span<float> dest, std::vector<amplitude_run>& runs);
 
 /// The first n in [from, size) whose time t0_s + n dt_s is not before end_s (size if none): the
 /// per-sample test, which is monotone in n, found from its estimate and then checked as written.
