@@ -246,10 +246,12 @@ void demodulate_blocks(std::span<const double> x, double omega, std::size_t firs
 }
 
 /// q[n] = x[n] exp(i omega n) into demod (the phasor re-anchored from the exact power every 512
-/// samples, demodulate_blocks), the prefix sums of n q[n] into ramp_sum (count + 1) and the suffix
-/// sums t[T] = q[T] + exp(rho) t[T + 1] into tail_sum (count + 1).
-void projection_sums(std::span<const double> x, double omega, double rho, std::vector<std::complex<double>>& demod,
-                     std::vector<std::complex<double>>& ramp_sum, std::vector<std::complex<double>>& tail_sum) {
+/// samples, demodulate_blocks), the prefix sums of n q[n] into ramp_sum[0 .. ramp_count] (the
+/// longest linear attack asked for; ramp_sum[0] = 0 kept) and the suffix sums
+/// t[T] = q[T] + exp(rho) t[T + 1] into tail_sum (count + 1).
+void projection_sums(std::span<const double> x, double omega, double rho, std::size_t ramp_count,
+                     std::vector<std::complex<double>>& demod, std::vector<std::complex<double>>& ramp_sum,
+                     std::vector<std::complex<double>>& tail_sum) {
     const std::size_t count = x.size();
     constexpr std::size_t block = 512;
     const std::size_t full = count / block;
@@ -258,7 +260,8 @@ void projection_sums(std::span<const double> x, double omega, double rho, std::v
     for (; b + 2 <= full; b += 2) demodulate_blocks<2>(x, omega, b, block, demod);
     for (; b < full; ++b) demodulate_blocks<1>(x, omega, b, block, demod);
     if (full * block < count) demodulate_blocks<1>(x, omega, full, count - full * block, demod);
-    for (std::size_t n = 0; n < count; ++n) ramp_sum[n + 1] = ramp_sum[n] + static_cast<double>(n) * demod[n];
+    assert(ramp_count <= count && ramp_sum.size() > ramp_count);
+    for (std::size_t n = 0; n < ramp_count; ++n) ramp_sum[n + 1] = ramp_sum[n] + static_cast<double>(n) * demod[n];
     const double step = std::exp(rho);
     tail_sum[count] = {};
     for (std::size_t n = count; n-- > 0;) tail_sum[n] = demod[n] + step * tail_sum[n + 1];
@@ -286,6 +289,16 @@ std::complex<double> rising_projection(const mode_shape& shape, std::size_t rise
     return acc + tail_sum[rise];
 }
 
+/// The linear attack lengths of the grid (samples), those in (0, count).
+std::vector<std::size_t> linear_attacks(const onset_attack_params& params, double sample_rate_hz, std::size_t count) {
+    std::vector<std::size_t> out;
+    for (const double t : params.attack_grid_s) {
+        const auto n_attack = static_cast<std::size_t>(std::llround(t * sample_rate_hz));
+        if (n_attack > 0 && n_attack < count) out.push_back(n_attack);
+    }
+    return out;
+}
+
 }  // namespace
 
 std::vector<attack_choice> choose_attacks(std::span<const float> target, double sample_rate_hz,
@@ -307,6 +320,9 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
     std::sort(order.begin(), order.end(), std::greater<>());
     const double floor_energy = order.front().first * std::pow(10.0, -params.range_db / 10.0);
     std::vector<std::complex<double>> demod(count), ramp_sum(count + 1), tail_sum(count + 1);
+    // The linear attacks tried (below): their lengths bound the prefix sums needed.
+    const std::vector<std::size_t> attack_ns = linear_attacks(params, sample_rate_hz, count);
+    const std::size_t longest_attack = attack_ns.empty() ? 0 : *std::max_element(attack_ns.begin(), attack_ns.end());
     for (std::size_t r = 0; r < order.size() && r < params.max_partials; ++r) {
         if (order[r].first < floor_energy) break;
         const std::size_t i = order[r].second;
@@ -317,7 +333,10 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
         // every T at once, in O(count).
         const double omega = two_pi * modes[i].freq_hz / sample_rate_hz;
         const double rho = -modes[i].decay_per_s / sample_rate_hz;
-        projection_sums(residual, omega, rho, demod, ramp_sum, tail_sum);
+        const attack_choice& now = chosen[i];
+        const std::size_t now_linear = now.start_ratio > 0.0 ? 0 : std::min(now.rise_n, count);
+        const std::size_t ramp_n = std::max(longest_attack, now_linear);
+        projection_sums(residual, omega, rho, ramp_n, demod, ramp_sum, tail_sum);
         // An instant start that rises: its projection sum a[n] q[n] directly, O(count) per choice.
         const auto explained = [&](const attack_choice& c, std::complex<double>& amp) {
             const mode_shape shape = attack_shape(c, rho, count);
@@ -325,6 +344,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
             if (c.start_ratio > 0.0 && c.rise_n > 0) {
                 acc = rising_projection(shape, std::min(c.rise_n, count), demod, tail_sum);
             } else {
+                assert(c.rise_n <= ramp_n);
                 acc = (c.rise_n == 0 ? std::complex<double>{} : ramp_sum[c.rise_n] / static_cast<double>(c.rise_n)) +
                       tail_sum[c.rise_n];
             }
@@ -342,10 +362,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
             if (e > best) best = e, best_c = c;
         };
         consider({});
-        for (const double t : params.attack_grid_s) {
-            const auto n_attack = static_cast<std::size_t>(std::llround(t * sample_rate_hz));
-            if (n_attack > 0 && n_attack < count) consider({.rise_n = n_attack});
-        }
+        for (const std::size_t n_attack : attack_ns) consider({.rise_n = n_attack});
         if (best > kept + params.min_gain_share * signal) chosen[i] = best_c;
         // An instant start that rises must do better still than the plain choice it replaces
         // (the simpler envelope wins a near tie).
