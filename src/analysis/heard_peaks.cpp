@@ -351,9 +351,8 @@ int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz
     }
     if (missing.empty()) return 0;
     // Zero padded by more than the band's wrap (1 / half-width s), so the wrap reads silence.
-    std::vector<float> padded(note.begin(), note.end());
-    padded.resize(note.size() + static_cast<std::size_t>(std::ceil(2.0 / capture_hz * sample_rate_hz)), 0.0f);
-    const note_spectrum spectrum(padded, sample_rate_hz);
+    const note_spectrum spectrum(note, sample_rate_hz,
+                                 note.size() + static_cast<std::size_t>(std::ceil(2.0 / capture_hz * sample_rate_hz)));
     int added = 0;
     for (const std::size_t k : missing) {
         const double f = peak_freq_hz(s, k);

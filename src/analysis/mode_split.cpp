@@ -25,13 +25,15 @@ using cvec = std::vector<std::complex<double>>;
 constexpr double heard_from_s = 0.1;
 constexpr double heard_to_s = 1.1;
 
-/// The partials `which` of p (noise left out) rendered at sample_rate_hz over frames samples.
-std::vector<float> render_some(const patch& p, std::span<const std::size_t> which, double sample_rate_hz,
-                               std::size_t frames) {
+/// The partials `which` of p (noise left out), to render at sample_rate_hz over frames samples.
+patch some_of(const patch& p, std::span<const std::size_t> which) {
     patch q{.version = p.version, .note = p.note, .source = p.source, .partials = {}, .noise = {}};
     for (std::size_t k : which) q.partials.push_back(p.partials[k]);
-    return render_patch(q, {.sample_rate_hz = sample_rate_hz, .length_s = static_cast<double>(frames) / sample_rate_hz,
-                            .include_noise = false});
+    return q;
+}
+
+render_params partials_only(double sample_rate_hz, std::size_t frames) {
+    return {.sample_rate_hz = sample_rate_hz, .length_s = static_cast<double>(frames) / sample_rate_hz, .include_noise = false};
 }
 
 /// One block's moments M_q = sum_j j^q v[j], v[j] = x[j] phasor[j] (band_of), j from `from` to
@@ -151,16 +153,21 @@ cvec band_of(std::span<const float> x, double freq_hz, double sample_rate_hz, st
     return out;
 }
 
-/// sum_k Re(amp_k z_k^n), n < frames (double recursion, re-anchored every 1024 samples). The modes
+/// Frames of the modes' signal take_modes_off works out at a time (a multiple of 1024).
+constexpr std::size_t mode_chunk_frames = std::size_t{1} << 16;
+
+/// sum_k Re(amp_k z_k^n) for n from first_frame (a multiple of 1024) into out (double recursion,
+/// re-anchored every 1024 samples: a stretch is the same samples as from n = 0). The modes
 /// advance together, sample by sample: their recursions are independent chains in flight at once.
-std::vector<float> mode_signal(std::span<const damped_mode> modes, double sample_rate_hz, std::size_t frames) {
+void mode_signal(std::span<const damped_mode> modes, double sample_rate_hz, std::size_t first_frame, std::span<float> out) {
+    assert(first_frame % 1024U == 0U);
     std::vector<std::complex<double>> a(modes.size()), z(modes.size()), w(modes.size());
     for (std::size_t k = 0; k < modes.size(); ++k) {
         a[k] = {-modes[k].decay_per_s / sample_rate_hz, two_pi * modes[k].freq_hz / sample_rate_hz};
         z[k] = std::exp(a[k]);
     }
-    std::vector<float> out(frames);
-    for (std::size_t n = 0; n < frames; ++n) {
+    for (std::size_t i = 0; i < out.size(); ++i) {
+        const std::size_t n = first_frame + i;
         if ((n & 1023U) == 0U)
             for (std::size_t k = 0; k < modes.size(); ++k) w[k] = modes[k].amp * std::exp(a[k] * static_cast<double>(n));
         double sum = 0.0;
@@ -168,9 +175,21 @@ std::vector<float> mode_signal(std::span<const damped_mode> modes, double sample
             sum += w[k].real();
             w[k] *= z[k];
         }
-        out[n] = static_cast<float>(sum);
+        out[i] = static_cast<float>(sum);
     }
-    return out;
+}
+
+/// residual[n] = (residual[n] + own[n]) - modes(n) for every n (the target less the modes, in
+/// the float steps of forming the target first), the modes' signal a chunk at a time.
+void take_modes_off(std::span<float> residual, std::span<const float> own, std::span<const damped_mode> modes,
+                    double sample_rate_hz) {
+    assert(own.size() == residual.size());
+    std::vector<float> chunk(std::min(residual.size(), mode_chunk_frames));
+    for (std::size_t first = 0; first < residual.size(); first += chunk.size()) {
+        const std::span<float> part = std::span(chunk).first(std::min(chunk.size(), residual.size() - first));
+        mode_signal(modes, sample_rate_hz, first, part);
+        for (std::size_t i = 0; i < part.size(); ++i) residual[first + i] = (residual[first + i] + own[first + i]) - part[i];
+    }
 }
 
 /// max |x[n]| (0 for none), in eight lanes (a vector loop; the maximum is the same in any order).
@@ -386,29 +405,37 @@ mode_split_summary split_into_modes(patch& p, std::span<const float> note, doubl
     const double min_gain = to_amp(level_db{params.min_gain_db}).lin;  // squared below: a power ratio
     std::vector<std::size_t> all(p.partials.size());
     std::iota(all.begin(), all.end(), std::size_t{0});
-    std::vector<float> residual = render_some(p, all, sample_rate_hz, frames);
+    std::vector<float> residual = render_patch(some_of(p, all), partials_only(sample_rate_hz, frames));
     for (std::size_t n = 0; n < frames; ++n) residual[n] = note[n] - residual[n];
     std::vector<partial> appended;
-    std::vector<float> target(frames);
+    // One note-long buffer besides the residual: the candidate's own render (render_patch's frames),
+    // made its target (residual + own) in place, and its own render again once modes are found.
+    std::vector<float> work(frames);
     for (std::size_t k : candidates(p, sample_rate_hz, params)) {
         const std::size_t one[] = {k};
-        const std::vector<float> own = render_some(p, one, sample_rate_hz, frames);
-        for (std::size_t n = 0; n < frames; ++n) target[n] = residual[n] + own[n];
-        const auto loudest = static_cast<double>(largest_magnitude(own));
+        const partial_renderer own_of(some_of(p, one), partials_only(sample_rate_hz, frames));
+        assert(own_of.frames() == frames);
+        own_of.render(0, work);
+        const auto loudest = static_cast<double>(largest_magnitude(work));
+        for (std::size_t n = 0; n < frames; ++n) work[n] = residual[n] + work[n];
+        const std::span<const float> target = work;
         const double freq_hz = p.partials[k].freq_hz;
         const cvec band = band_of(target, freq_hz, sample_rate_hz, d);
         const auto best = choose_modes(band, freq_hz, d, target, sample_rate_hz,
                                        loudest * to_amp(level_db{params.max_rise_db}).lin, params);
         if (!best) continue;
+        const std::vector<float> early_target(target.begin(), target.begin() + static_cast<std::ptrdiff_t>(std::min(early, frames)));
+        own_of.render(0, work);
+        const std::span<const float> own = work;
         const cvec own_band = band_of(own, freq_hz, sample_rate_hz, d);
         if (best->band_rss * min_gain * min_gain > band_residual(band, own_band, 3)) continue;
-        const std::vector<float> early_modes = mode_signal(best->modes, sample_rate_hz, std::min(early, frames));
-        if (residual_energy(target, early_modes, early) > energy(residual, early)) continue;
+        std::vector<float> early_modes(early_target.size());
+        mode_signal(best->modes, sample_rate_hz, 0, early_modes);
+        if (residual_energy(early_target, early_modes, early) > energy(residual, early)) continue;
         const double late_now = late_error_db(band, own_band, sample_rate_hz / static_cast<double>(d), params);
         const double late_new = late_error_db(band, best->band, sample_rate_hz / static_cast<double>(d), params);
         if (late_new > late_now + params.late_tolerance_db) continue;
-        const std::vector<float> modes = mode_signal(best->modes, sample_rate_hz, frames);
-        for (std::size_t n = 0; n < frames; ++n) residual[n] = target[n] - modes[n];
+        take_modes_off(residual, own, best->modes, sample_rate_hz);
         const std::vector<partial> members = as_partials(best->modes, p.partials[k], gain);
         p.partials[k] = members.front();
         appended.insert(appended.end(), members.begin() + 1, members.end());

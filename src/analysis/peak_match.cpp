@@ -34,24 +34,34 @@ std::size_t loud_end(std::span<const float> x) {
     return end;
 }
 
+/// What the peak match keeps of q's render with the default seed (the full render is not kept:
+/// on a long note it is the size of the recording).
+struct default_peak {
+    std::size_t frames = 0;    ///< length of the render
+    double peak_db = 0.0;      ///< its peak level
+    std::size_t loud_end = 0;  ///< loud_end of it
+};
+
+/// Frames of noise the other draws are rendered into at once (the draws of a long note's span in
+/// turns, as many at a time as fit: the same samples as all at once).
+constexpr std::size_t draw_buffer_frames = std::size_t{1} << 22;
+
 /// The median over the draws of the peak (dB) of q rendered at rate (q.note.gain_db = 0).
-/// default_render: q's render with the default seed (the full render, not repeated).
-double expected_peak_db(const patch& q, double rate, std::span<const float> default_render,
-                        const peak_match_params& params) {
+/// def: of q's render with the default seed (the full render, not repeated).
+double expected_peak_db(const patch& q, double rate, const default_peak& def, const peak_match_params& params) {
     assert(params.draws >= 1);
-    const double default_db = peak_level_db(default_render);
+    const double default_db = def.peak_db;
     if (q.noise.empty()) return default_db;
     // Other draws peak where the default one comes within peak_window_db of its peak (a draw
     // would have to add that much more there): the partials and the draws over that span only.
     const partial_renderer partials_of(q, {.sample_rate_hz = rate});
     const std::size_t frames = partials_of.frames();
-    assert(frames == default_render.size());
+    assert(frames == def.frames);
     const auto margin = static_cast<std::size_t>(std::llround(peak_window_margin_s * rate));
-    const std::size_t span = std::min(frames, loud_end(default_render) + margin);
+    const std::size_t span = std::min(frames, def.loud_end + margin);
     std::vector<float> partials(span);
     partials_of.render(0, partials);
     const auto fade_from = frames - std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * rate)));
-    // The other draws in one render (add_noise_band_draws: each as its own render would be).
     std::vector<double> peaks_db;
     std::vector<std::uint64_t> seeds;
     for (int k = 0; k < params.draws; ++k) {
@@ -62,18 +72,24 @@ double expected_peak_db(const patch& q, double rate, std::span<const float> defa
             seeds.push_back(seed);
         }
     }
-    std::vector<float> noise(seeds.size() * span, 0.0f);
-    std::vector<std::span<float>> outs;
-    for (std::size_t d = 0; d < seeds.size(); ++d) outs.emplace_back(noise.data() + d * span, span);
-    add_noise_band_draws(q.noise, {.sample_rate_hz = rate, .gain_db = 0.0}, seeds, outs);
-    for (const std::span<const float> drawn : outs) {
-        float peak = 0.0f;
-        for (std::size_t n = 0; n < span; ++n) {
-            // The end fade covers the noise too (render_patch applies it to the sum).
-            const float g = n < fade_from ? 1.0f : static_cast<float>(end_fade_gain(n, frames, rate));
-            peak = std::max(peak, std::abs(partials[n] + g * drawn[n]));
+    // The other draws, a group per render (add_noise_band_draws: each as its own render would be).
+    const std::size_t group = std::clamp<std::size_t>(draw_buffer_frames / std::max<std::size_t>(span, 1), 1, std::max<std::size_t>(seeds.size(), 1));
+    std::vector<float> noise(std::min(group, seeds.size()) * span);
+    for (std::size_t first = 0; first < seeds.size(); first += group) {
+        const std::span<const std::uint64_t> these = std::span(seeds).subspan(first, std::min(group, seeds.size() - first));
+        std::fill(noise.begin(), noise.end(), 0.0f);
+        std::vector<std::span<float>> outs;
+        for (std::size_t d = 0; d < these.size(); ++d) outs.emplace_back(noise.data() + d * span, span);
+        add_noise_band_draws(q.noise, {.sample_rate_hz = rate, .gain_db = 0.0}, these, outs);
+        for (const std::span<const float> drawn : outs) {
+            float peak = 0.0f;
+            for (std::size_t n = 0; n < span; ++n) {
+                // The end fade covers the noise too (render_patch applies it to the sum).
+                const float g = n < fade_from ? 1.0f : static_cast<float>(end_fade_gain(n, frames, rate));
+                peak = std::max(peak, std::abs(partials[n] + g * drawn[n]));
+            }
+            peaks_db.push_back(to_level(amp_lin{static_cast<double>(peak)}).db);
         }
-        peaks_db.push_back(to_level(amp_lin{static_cast<double>(peak)}).db);
     }
     const auto mid = peaks_db.begin() + static_cast<std::ptrdiff_t>(peaks_db.size() / 2);
     std::nth_element(peaks_db.begin(), mid, peaks_db.end());
@@ -93,13 +109,12 @@ patch as_written(const patch& p) {
 /// (the noise is one signal at every rate, but the partials' sampled peaks and the rate
 /// conversion's filter move the peak by a few hundredths of a dB).
 struct default_renders {
-    std::vector<float> output;  ///< at default_output_rate_hz
-    double source_db = 0.0;     ///< peak at the source rate (its own rate when renderable, else 48 kHz)
-    double output_db = 0.0;     ///< peak of output
+    default_peak output;     ///< of the render at default_output_rate_hz
+    double source_db = 0.0;  ///< peak at the source rate (its own rate when renderable, else 48 kHz)
 
     /// The gain that keeps both default_render_margin_db under full scale.
     double safe_gain_db() const {
-        const double peak_db = std::max(source_db, output_db);
+        const double peak_db = std::max(source_db, output.peak_db);
         return std::isfinite(peak_db) ? -default_render_margin_db - peak_db : infinity;
     }
 };
@@ -108,11 +123,13 @@ bool renderable_at(double rate) { return rate >= min_render_rate_hz && rate <= m
 
 default_renders render_default(const patch& q, double sample_rate_hz, const peak_match_params& params) {
     default_renders d;
-    d.output = render_patch(q, {.sample_rate_hz = default_output_rate_hz, .noise_seed = params.default_seed});
-    d.output_db = peak_level_db(d.output);
+    {
+        const std::vector<float> output = render_patch(q, {.sample_rate_hz = default_output_rate_hz, .noise_seed = params.default_seed});
+        d.output = {.frames = output.size(), .peak_db = peak_level_db(output), .loud_end = loud_end(output)};
+    }  // freed before the source-rate render
     d.source_db = sample_rate_hz != default_output_rate_hz && renderable_at(sample_rate_hz)
                       ? peak_level_db(render_patch(q, {.sample_rate_hz = sample_rate_hz, .noise_seed = params.default_seed}))
-                      : d.output_db;
+                      : d.output.peak_db;
     return d;
 }
 

@@ -310,9 +310,8 @@ void fit_mode_amplitude_sets(std::span<const float> x, double sample_rate_hz,
             if (set) fit_mode_amplitudes(x, sample_rate_hz, *set);  // its own answer for a silent x
         return;
     }
-    std::vector<double> scratch;
     std::vector<std::complex<double>> sums(rho.size());
-    project_modes(x, x.size(), rho, omega, scratch, sums);
+    project_modes(x, x.size(), rho, omega, sums);
     std::size_t at = 0;
     for (auto& set : sets) {
         if (!set) continue;
@@ -391,7 +390,7 @@ std::vector<double> sliding_fit_residuals(std::span<const float> x, double sampl
     std::vector<mode_shape> own(k_count);
     std::vector<double> omega(k_count);
     std::vector<std::complex<double>> z(k_count), z_count(k_count), proj(k_count);
-    std::vector<double> rho_of(k_count), scratch;
+    std::vector<double> rho_of(k_count);
     for (std::size_t k = 0; k < k_count; ++k) {
         assert(modes[k].freq_hz >= 0.0 && modes[k].freq_hz <= 0.5 * sample_rate_hz);
         omega[k] = two_pi * modes[k].freq_hz / sample_rate_hz;
@@ -418,7 +417,7 @@ std::vector<double> sliding_fit_residuals(std::span<const float> x, double sampl
         }
         const std::size_t cols = std::min(block, starts - first);
         for (std::size_t s = first; s < first + cols; ++s) {
-            if (s % exact_every == 0) project_modes(x.subspan(s), count, rho_of, omega, scratch, proj);
+            if (s % exact_every == 0) project_modes(x.subspan(s), count, rho_of, omega, proj);
             const auto col = static_cast<Eigen::Index>(s - first);
             for (std::size_t k = 0; k < k_count; ++k) {
                 rhs(static_cast<Eigen::Index>(2 * k), col) = proj[k].real();

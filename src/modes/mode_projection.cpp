@@ -14,9 +14,10 @@ namespace wane {
 namespace {
 
 /// project_group for exactly G modes: the complex products written out on real and imaginary
-/// parts (the same products and sums as std::complex's), the G chains kept in registers.
-template <std::size_t G>
-void project_chains(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
+/// parts (the same products and sums as std::complex's), the G chains kept in registers. Sample
+/// is float or double: a float sample is widened exactly, so both give the same sums.
+template <std::size_t G, typename Sample>
+void project_chains(std::span<const Sample> w, std::span<const std::size_t> which, std::span<const double> rho,
                     std::span<const double> omega, std::span<std::complex<double>> out) {
     constexpr std::size_t anchor = 512;
     // Element-wise arrays (Eigen packets): each chain's arithmetic is its own, as written.
@@ -36,8 +37,9 @@ void project_chains(std::span<const double> w, std::span<const std::size_t> whic
             pr(lane) = p.real(), pi_(lane) = p.imag();
         }
         for (std::size_t n = start; n < end; ++n) {
-            accr += w[n] * pr;
-            acci += w[n] * pi_;
+            const auto wn = static_cast<double>(w[n]);
+            accr += wn * pr;
+            acci += wn * pi_;
             const lanes next_r = pr * zr - pi_ * zi;
             pi_ = pr * zi + pi_ * zr;
             pr = next_r;
@@ -49,10 +51,9 @@ void project_chains(std::span<const double> w, std::span<const std::size_t> whic
     }
 }
 
-}  // namespace
-
-void project_group(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
-                   std::span<const double> omega, std::span<std::complex<double>> out) {
+template <typename Sample>
+void project_group_of(std::span<const Sample> w, std::span<const std::size_t> which, std::span<const double> rho,
+                      std::span<const double> omega, std::span<std::complex<double>> out) {
     const std::size_t g = which.size();
     assert(g <= projection_group);
     static_assert(projection_group == 4);
@@ -66,15 +67,23 @@ void project_group(std::span<const double> w, std::span<const std::size_t> which
     }
 }
 
+}  // namespace
+
+void project_group(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
+                   std::span<const double> omega, std::span<std::complex<double>> out) {
+    project_group_of(w, which, rho, omega, out);
+}
+
 
 void project_modes(std::span<const float> x, std::size_t count, std::span<const double> rho,
-                   std::span<const double> omega, std::vector<double>& scratch, std::span<std::complex<double>> out) {
-    scratch.assign(x.begin(), x.begin() + static_cast<std::ptrdiff_t>(count));
+                   std::span<const double> omega, std::span<std::complex<double>> out) {
+    assert(count <= x.size());
+    const std::span<const float> w = x.first(count);  // read as floats: no copy of the samples
     std::array<std::size_t, projection_group> which{};
     for (std::size_t k = 0; k < rho.size(); k += projection_group) {
         const std::size_t g = std::min(projection_group, rho.size() - k);
         for (std::size_t i = 0; i < g; ++i) which[i] = k + i;
-        project_group(scratch, std::span(which).first(g), rho, omega, out);
+        project_group_of(w, std::span(which).first(g), rho, omega, out);
     }
 }
 

@@ -5,7 +5,6 @@
 #include <complex>
 #include <cstddef>
 #include <span>
-#include <vector>
 
 namespace wane {
 
@@ -19,8 +18,9 @@ void project_group(std::span<const double> w, std::span<const std::size_t> which
                    std::span<const double> omega, std::span<std::complex<double>> out);
 
 /// P_k = sum_{n < count} x[n] z_k^n for every mode k (z_k = exp(rho_k + i omega_k)) into out[k]
-/// (out.size() >= rho.size()), by project_group in groups; x copied to doubles in `scratch`.
+/// (out.size() >= rho.size()), by project_group's chains in groups, reading x's floats in place
+/// (the same sums as on a double copy: a float widens exactly).
 void project_modes(std::span<const float> x, std::size_t count, std::span<const double> rho,
-                   std::span<const double> omega, std::vector<double>& scratch, std::span<std::complex<double>> out);
+                   std::span<const double> omega, std::span<std::complex<double>> out);
 
 }  // namespace wane

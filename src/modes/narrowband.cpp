@@ -19,17 +19,23 @@ struct note_spectrum::state {
     std::vector<kiss_fft_cpx> bins;
 };
 
-note_spectrum::note_spectrum(std::span<const float> x, double sample_rate_hz) : state_(std::make_unique<state>()) {
-    assert(sample_rate_hz > 0.0 && !x.empty());
+note_spectrum::note_spectrum(std::span<const float> x, double sample_rate_hz, std::size_t padded_frames)
+    : state_(std::make_unique<state>()) {
+    assert(sample_rate_hz > 0.0 && !x.empty() && (padded_frames == 0 || padded_frames >= x.size()));
     state_->sample_rate_hz = sample_rate_hz;
-    state_->signal_frames = x.size();
-    const int size = fast_fft_size(static_cast<int>(x.size()));
+    state_->signal_frames = std::max(padded_frames, x.size());
+    const int size = fast_fft_size(static_cast<int>(state_->signal_frames));
+    assert(size % 2 == 0);
     state_->fft_size = size;
-    std::vector<float> buffer(static_cast<std::size_t>(size), 0.0f);
-    std::copy(x.begin(), x.end(), buffer.begin());
-    state_->bins.resize(static_cast<std::size_t>(size) / 2 + 1);
+    // The samples, zero padded to the FFT size, in the bins' own memory (size / 2 + 1 pairs of
+    // floats hold size floats): kiss_fftr reads its input whole into its own buffer before it
+    // writes a bin, so a note-long spectrum costs one note-long array, not two.
+    state_->bins.assign(static_cast<std::size_t>(size) / 2 + 1, kiss_fft_cpx{0.0f, 0.0f});
+    auto* samples = reinterpret_cast<float*>(state_->bins.data());  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): kiss_fft_cpx is two floats
+    static_assert(sizeof(kiss_fft_cpx) == 2 * sizeof(float));
+    std::copy(x.begin(), x.end(), samples);
     kiss_fftr_cfg cfg = kiss_fftr_alloc(size, 0, nullptr, nullptr);
-    kiss_fftr(cfg, buffer.data(), state_->bins.data());
+    kiss_fftr(cfg, samples, state_->bins.data());
     kiss_fftr_free(cfg);
 }
 

@@ -12,6 +12,7 @@
 #pragma once
 
 #include <complex>
+#include <cstddef>
 #include <memory>
 #include <span>
 #include <vector>
@@ -26,8 +27,9 @@ struct narrowband {
 
 class note_spectrum {
 public:
-    /// One real FFT of x at sample_rate_hz (x[0] is time 0).
-    note_spectrum(std::span<const float> x, double sample_rate_hz);
+    /// One real FFT of x at sample_rate_hz (x[0] is time 0), x read as zero padded to
+    /// padded_frames (0: x.size()) as if those zeros were part of it.
+    note_spectrum(std::span<const float> x, double sample_rate_hz, std::size_t padded_frames = 0);
     ~note_spectrum();
     note_spectrum(const note_spectrum&) = delete;
     note_spectrum& operator=(const note_spectrum&) = delete;
