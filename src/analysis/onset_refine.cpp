@@ -404,7 +404,8 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
             if (pass == passes - 1) return;
             // The attacks are searched on this pass's residual and the roles revised from it; the
             // next pass fits both.
-            const bool two_ways = params.search_attacks && other != nullptr && !s.new_modes.empty();
+            const bool two_ways =
+                params.search_attacks && params.alone_attack_partials > 0 && other != nullptr && !s.new_modes.empty();
             std::vector<attack_choice> alone = two_ways ? s.attacks : std::vector<attack_choice>{};
             const bool attacks_changed = params.search_attacks && update_attacks(p, s.f, s.roles, sample_rate_hz, params.attacks, s.attacks);
             if (two_ways) update_attacks(p, s.f, s.roles, sample_rate_hz, alone_params, alone, true);

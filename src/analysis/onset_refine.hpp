@@ -77,7 +77,7 @@ struct onset_refine_params {
     /// pass's attacks are searched a second way, as if the fit had no new modes, for this many of
     /// the strongest partials and over the attack ramps only; each way then runs its passes, and
     /// the second way is taken when its residual is lower by attacks.min_gain_share of the span's
-    /// energy (the margin the attack search asks of a change).
+    /// energy (the margin the attack search asks of a change). 0: one way only.
     std::size_t alone_attack_partials = 8;
     /// The start of the modes at sample resolution: the note given may begin a little before its
     /// modes do (the tracker's onset is a 2 ms block walked back over the rise; a mallet's contact
