@@ -99,18 +99,58 @@ std::optional<double> plain_rho(const damped_mode& m, const mode_shape& shape, d
     return std::nullopt;
 }
 
+/// add_group<1>'s work on L of its 512-sample blocks at once, blocks first_block .. first_block +
+/// L - 1 (each `length` samples): every block's chains start from their exact anchors there, so
+/// the blocks are independent and each sample gets the arithmetic it gets in add_group<1>; the L
+/// chains overlap (one alone waits on its own products). samples: the shape's samples, or empty
+/// for the plain exponential exp(rho n).
+template <int L>
+void add_blocks(std::span<const double> samples, double rho, double omega, std::complex<double> amp, double sign,
+                std::size_t first_block, std::size_t length, std::vector<double>& out) {
+    constexpr std::size_t block = 512;
+    using lanes = Eigen::Array<double, L, 1>;
+    const bool plain = samples.empty();
+    const std::complex<double> z = std::polar(1.0, omega);
+    const double ratio = plain ? std::exp(rho) : 1.0;
+    lanes pr, pi_, s;
+    std::array<std::size_t, L> at{};
+    for (int l = 0; l < L; ++l) {
+        at[static_cast<std::size_t>(l)] = (first_block + static_cast<std::size_t>(l)) * block;
+        const auto start = static_cast<double>(at[static_cast<std::size_t>(l)]);
+        const std::complex<double> p = std::polar(1.0, std::remainder(omega * start, two_pi));
+        pr(l) = p.real(), pi_(l) = p.imag();
+        if (plain) s(l) = 1.0 * std::exp(rho * start);
+    }
+    for (std::size_t t = 0; t < length; ++t) {
+        if (!plain)
+            for (int l = 0; l < L; ++l) s(l) = samples[at[static_cast<std::size_t>(l)] + t];
+        const lanes term = sign * s * (amp.real() * pr - amp.imag() * pi_);
+        if (plain) s *= ratio;
+        for (int l = 0; l < L; ++l) out[at[static_cast<std::size_t>(l)] + t] += term(l);
+        const lanes next_r = pr * z.real() - pi_ * z.imag();
+        pi_ = pr * z.imag() + pi_ * z.real();
+        pr = next_r;
+    }
+}
+
 /// Adds sign * Re(amp a[n] exp(i omega n)) for n in [0, out.size()) to out; a is the mode's shape
-/// (exp(-d n / fs) when empty). The phasor is re-anchored from the exact power every 512 samples.
+/// (exp(-d n / fs) when empty). The phasor is re-anchored from the exact power every 512 samples:
+/// add_group<1>'s sums, its blocks four at a time (add_blocks).
 void add_mode(const damped_mode& m, const mode_shape& shape, double sample_rate_hz, double sign,
               std::vector<double>& out, std::vector<double>& scratch) {
     const std::size_t count = out.size();
     const double omega = two_pi * m.freq_hz / sample_rate_hz;
-    if (const std::optional<double> rho = plain_rho(m, shape, sample_rate_hz, count)) {
-        add_group<1>({}, std::span(&*rho, 1), std::span(&omega, 1), std::span(&m.amp, 1), sign, out);
-        return;
-    }
-    shape_samples(shape, count, scratch);
-    add_group<1>(std::span(&scratch, 1), {}, std::span(&omega, 1), std::span(&m.amp, 1), sign, out);
+    const std::optional<double> rho = plain_rho(m, shape, sample_rate_hz, count);
+    if (!rho) shape_samples(shape, count, scratch);
+    const std::span<const double> samples = rho ? std::span<const double>{} : std::span<const double>(scratch);
+    const double r = rho.value_or(0.0);
+    constexpr std::size_t block = 512;
+    const std::size_t full = count / block;
+    std::size_t b = 0;
+    for (; b + 4 <= full; b += 4) add_blocks<4>(samples, r, omega, m.amp, sign, b, block, out);
+    for (; b + 2 <= full; b += 2) add_blocks<2>(samples, r, omega, m.amp, sign, b, block, out);
+    for (; b < full; ++b) add_blocks<1>(samples, r, omega, m.amp, sign, b, block, out);
+    if (full * block < count) add_blocks<1>(samples, r, omega, m.amp, sign, full, count - full * block, out);
 }
 
 /// add_mode with sign -1 for every mode, modes_per_pass at a time: per mode and sample the same
@@ -177,19 +217,51 @@ double fit_one(const mode_shape& a, double omega, std::complex<double> acc, std:
     return t0 * r0 + t1 * r1;
 }
 
-/// q[n] = x[n] exp(i omega n) into demod, the prefix sums of n q[n] into ramp_sum (count + 1) and
-/// the suffix sums t[T] = q[T] + exp(rho) t[T + 1] into tail_sum (count + 1).
-void projection_sums(std::span<const double> x, double omega, double rho, std::vector<std::complex<double>>& demod,
-                     std::vector<std::complex<double>>& ramp_sum, std::vector<std::complex<double>>& tail_sum) {
-    const std::size_t count = x.size();
+/// q[n] = x[n] p[n] into demod for the L 512-sample blocks first_block .. first_block + L - 1 (each
+/// `length` samples), p[n] = exp(i omega n) anchored at each block's start from the exact power and
+/// stepped by exp(i omega) (the products of std::complex's multiplication, written out): the blocks
+/// are independent, their chains overlapped.
+template <int L>
+void demodulate_blocks(std::span<const double> x, double omega, std::size_t first_block, std::size_t length,
+                       std::vector<std::complex<double>>& demod) {
+    constexpr std::size_t block = 512;
+    using lanes = Eigen::Array<double, L, 1>;
     const std::complex<double> z = std::polar(1.0, omega);
-    std::complex<double> p{1.0, 0.0};
-    for (std::size_t n = 0; n < count; ++n) {
-        if (n % 512 == 0) p = std::polar(1.0, std::remainder(omega * static_cast<double>(n), two_pi));
-        demod[n] = x[n] * p;
-        p *= z;
-        ramp_sum[n + 1] = ramp_sum[n] + static_cast<double>(n) * demod[n];
+    lanes pr, pi_;
+    std::array<std::size_t, L> at{};
+    for (int l = 0; l < L; ++l) {
+        at[static_cast<std::size_t>(l)] = (first_block + static_cast<std::size_t>(l)) * block;
+        const std::complex<double> p = std::polar(1.0, std::remainder(omega * static_cast<double>(at[static_cast<std::size_t>(l)]), two_pi));
+        pr(l) = p.real(), pi_(l) = p.imag();
     }
+    for (std::size_t t = 0; t < length; ++t) {
+        for (int l = 0; l < L; ++l) {
+            const double v = x[at[static_cast<std::size_t>(l)] + t];
+            demod[at[static_cast<std::size_t>(l)] + t] = {v * pr(l), v * pi_(l)};
+        }
+        const lanes next_r = pr * z.real() - pi_ * z.imag();
+        pi_ = pr * z.imag() + pi_ * z.real();
+        pr = next_r;
+    }
+}
+
+/// q[n] = x[n] exp(i omega n) into demod (the phasor re-anchored from the exact power every 512
+/// samples, demodulate_blocks), the prefix sums of n q[n] into ramp_sum[0 .. ramp_count] (the
+/// longest linear attack asked for; ramp_sum[0] = 0 kept) and the suffix sums
+/// t[T] = q[T] + exp(rho) t[T + 1] into tail_sum (count + 1).
+void projection_sums(std::span<const double> x, double omega, double rho, std::size_t ramp_count,
+                     std::vector<std::complex<double>>& demod, std::vector<std::complex<double>>& ramp_sum,
+                     std::vector<std::complex<double>>& tail_sum) {
+    const std::size_t count = x.size();
+    constexpr std::size_t block = 512;
+    const std::size_t full = count / block;
+    std::size_t b = 0;
+    for (; b + 4 <= full; b += 4) demodulate_blocks<4>(x, omega, b, block, demod);
+    for (; b + 2 <= full; b += 2) demodulate_blocks<2>(x, omega, b, block, demod);
+    for (; b < full; ++b) demodulate_blocks<1>(x, omega, b, block, demod);
+    if (full * block < count) demodulate_blocks<1>(x, omega, full, count - full * block, demod);
+    assert(ramp_count <= count && ramp_sum.size() > ramp_count);
+    for (std::size_t n = 0; n < ramp_count; ++n) ramp_sum[n + 1] = ramp_sum[n] + static_cast<double>(n) * demod[n];
     const double step = std::exp(rho);
     tail_sum[count] = {};
     for (std::size_t n = count; n-- > 0;) tail_sum[n] = demod[n] + step * tail_sum[n + 1];
@@ -217,6 +289,16 @@ std::complex<double> rising_projection(const mode_shape& shape, std::size_t rise
     return acc + tail_sum[rise];
 }
 
+/// The linear attack lengths of the grid (samples), those in (0, count).
+std::vector<std::size_t> linear_attacks(const onset_attack_params& params, double sample_rate_hz, std::size_t count) {
+    std::vector<std::size_t> out;
+    for (const double t : params.attack_grid_s) {
+        const auto n_attack = static_cast<std::size_t>(std::llround(t * sample_rate_hz));
+        if (n_attack > 0 && n_attack < count) out.push_back(n_attack);
+    }
+    return out;
+}
+
 }  // namespace
 
 std::vector<attack_choice> choose_attacks(std::span<const float> target, double sample_rate_hz,
@@ -238,6 +320,9 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
     std::sort(order.begin(), order.end(), std::greater<>());
     const double floor_energy = order.front().first * std::pow(10.0, -params.range_db / 10.0);
     std::vector<std::complex<double>> demod(count), ramp_sum(count + 1), tail_sum(count + 1);
+    // The linear attacks tried (below): their lengths bound the prefix sums needed.
+    const std::vector<std::size_t> attack_ns = linear_attacks(params, sample_rate_hz, count);
+    const std::size_t longest_attack = attack_ns.empty() ? 0 : *std::max_element(attack_ns.begin(), attack_ns.end());
     for (std::size_t r = 0; r < order.size() && r < params.max_partials; ++r) {
         if (order[r].first < floor_energy) break;
         const std::size_t i = order[r].second;
@@ -248,7 +333,10 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
         // every T at once, in O(count).
         const double omega = two_pi * modes[i].freq_hz / sample_rate_hz;
         const double rho = -modes[i].decay_per_s / sample_rate_hz;
-        projection_sums(residual, omega, rho, demod, ramp_sum, tail_sum);
+        const attack_choice& now = chosen[i];
+        const std::size_t now_linear = now.start_ratio > 0.0 ? 0 : std::min(now.rise_n, count);
+        const std::size_t ramp_n = std::max(longest_attack, now_linear);
+        projection_sums(residual, omega, rho, ramp_n, demod, ramp_sum, tail_sum);
         // An instant start that rises: its projection sum a[n] q[n] directly, O(count) per choice.
         const auto explained = [&](const attack_choice& c, std::complex<double>& amp) {
             const mode_shape shape = attack_shape(c, rho, count);
@@ -256,6 +344,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
             if (c.start_ratio > 0.0 && c.rise_n > 0) {
                 acc = rising_projection(shape, std::min(c.rise_n, count), demod, tail_sum);
             } else {
+                assert(c.rise_n <= ramp_n);
                 acc = (c.rise_n == 0 ? std::complex<double>{} : ramp_sum[c.rise_n] / static_cast<double>(c.rise_n)) +
                       tail_sum[c.rise_n];
             }
@@ -273,10 +362,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
             if (e > best) best = e, best_c = c;
         };
         consider({});
-        for (const double t : params.attack_grid_s) {
-            const auto n_attack = static_cast<std::size_t>(std::llround(t * sample_rate_hz));
-            if (n_attack > 0 && n_attack < count) consider({.rise_n = n_attack});
-        }
+        for (const std::size_t n_attack : attack_ns) consider({.rise_n = n_attack});
         if (best > kept + params.min_gain_share * signal) chosen[i] = best_c;
         // An instant start that rises must do better still than the plain choice it replaces
         // (the simpler envelope wins a near tie).

@@ -14,6 +14,7 @@
 #include "core/glide.hpp"
 #include "core/sincos_poly.hpp"
 #include "core/units.hpp"
+#include "synthesis/kernel_clones.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -130,6 +131,16 @@ glide_terms terms_at(double cents, double glide_s, std::span<const double> decay
     return out;
 }
 
+/// sin_g[b], cos_g[b] of freq_hz (whole_rad_per_hz - remaining_rad_per_hz[b]) for b < count: the
+/// glide's phase at each block, one vector loop (no reduction), compiled for AVX2 and for the
+/// baseline (synthesis/kernel_clones.hpp: no FMA, element-wise IEEE operations, the same bits).
+WANE_KERNEL_CLONES
+void glide_phases(double freq_hz, double whole_rad_per_hz, const double* __restrict remaining_rad_per_hz,
+                  std::size_t count, double* __restrict sin_g, double* __restrict cos_g) {
+    for (std::size_t b = 0; b < count; ++b)
+        sincos_poly(freq_hz * (whole_rad_per_hz - remaining_rad_per_hz[b]), sin_g[b], cos_g[b]);
+}
+
 /// S(c0, tau) from the block sums (onset_glide.hpp): sum_b e^(-j g_b) (Z_b - j g'_b Z1_b) with
 /// g_b = f (G - R(t_b)) / f and g'_b = 2 pi f / fs times the excess (per frame).
 cplx projection(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz, std::vector<double>& scratch) {
@@ -139,8 +150,7 @@ cplx projection(const block_sums& s, double freq_hz, const glide_terms& t, doubl
     scratch.resize(2 * count);
     double* sin_g = scratch.data();
     double* cos_g = scratch.data() + count;
-    for (std::size_t b = 0; b < count; ++b)  // no reduction: the compiler's vector loop
-        sincos_poly(freq_hz * (t.whole_rad_per_hz - t.remaining_rad_per_hz[b]), sin_g[b], cos_g[b]);
+    glide_phases(freq_hz, t.whole_rad_per_hz, t.remaining_rad_per_hz.data(), count, sin_g, cos_g);
     const double rad_per_frame = two_pi * freq_hz / rate_hz;
     double re = 0.0, im = 0.0;
     for (std::size_t b = 0; b < count; ++b) {

@@ -213,7 +213,7 @@ struct waveform_fit {
 
 waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sample_rate_hz, std::size_t fit_n,
                           std::span<const role> roles, std::span<const double> decay, std::span<const attack_choice> attacks,
-                          std::span<const damped_mode> new_modes, const plain_gram_factor* first_system, shaped_fit_memo* memo) {
+                          std::span<const damped_mode> new_modes, plain_gram_factor* first_system, shaped_fit_memo* memo) {
     waveform_fit f;
     std::vector<mode_shape>& shapes = f.shapes;
     std::vector<std::size_t> fixed;

@@ -7,6 +7,7 @@
 #include "core/analysis_error.hpp"
 #include "io/atomic_file.hpp"
 #include "platform/interrupt_cleanup.hpp"
+#include "platform/memory_reuse.hpp"
 
 namespace wane::cli {
 
@@ -67,6 +68,7 @@ namespace {
 
 int run_main(int argc, char** argv) {
     using namespace wane::cli;
+    wane::keep_freed_memory_for_reuse();
     wane::install_interrupt_cleanup();
     CLI::App app{"wane: analyze a plucked or struck note into an editable patch of damped partials, "
                  "and render faithful copies and variants from it.",

@@ -121,14 +121,6 @@ void fill_gram(std::span<const mode_shape> own, std::span<const double> omega, s
     }
 }
 
-Eigen::MatrixXd shape_gram(std::span<const mode_shape> own, std::span<const double> omega, std::size_t count,
-                           const gram_reuse* reuse) {
-    const auto dim = static_cast<Eigen::Index>(2 * own.size());
-    Eigen::MatrixXd gram(dim, dim);
-    fill_gram(own, omega, count, 0, gram, reuse);
-    return gram;
-}
-
 /// Each mode's shape over count samples (exp(-d n / fs) where shapes[k] is empty) and angular
 /// frequency (rad per sample).
 void own_shapes(std::span<const damped_mode> modes, std::span<const mode_shape> shapes, double sample_rate_hz,
@@ -223,12 +215,11 @@ plain_gram_factor factor_plain_gram(std::span<const damped_mode> modes, double s
     own_shapes(modes, {}, sample_rate_hz, count, own, omega);
     const auto dim = static_cast<Eigen::Index>(2 * modes.size());
     out.gram.resize(static_cast<std::size_t>(dim * dim));
-    out.lower.resize(out.gram.size());
     const Eigen::Map<Eigen::MatrixXd> gram(out.gram.data(), dim, dim);
     fill_gram(own, omega, count, 0, gram);
     out.ridge = dim > 0 ? ridge_rel * gram.diagonal().mean() : 0.0;
+    out.lower = out.gram;
     Eigen::Map<Eigen::MatrixXd> lower(out.lower.data(), dim, dim);
-    lower = gram;
     lower.diagonal().array() += out.ridge;
     // In place: the lower triangle becomes the factor (the same steps as Eigen::LLT<MatrixXd>).
     const Eigen::LLT<Eigen::Ref<Eigen::MatrixXd>> llt(lower);
@@ -237,7 +228,7 @@ plain_gram_factor factor_plain_gram(std::span<const damped_mode> modes, double s
 }
 
 double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
-                             std::span<const mode_shape> shapes, double ridge_rel, const plain_gram_factor* known,
+                             std::span<const mode_shape> shapes, double ridge_rel, plain_gram_factor* known,
                              shaped_fit_memo* memo) {
     assert(sample_rate_hz > 0.0);
     assert(shapes.size() == modes.size());
@@ -263,7 +254,7 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
     const Eigen::VectorXd rhs = shape_projections(x, sample_rate_hz, modes, shapes, own, omega, rhs_known, last.rhs);
     const auto dim = static_cast<Eigen::Index>(2 * k_count);
     Eigen::VectorXd theta, g_theta;  // the solution and G theta (G without the ridge)
-    Eigen::MatrixXd gram_exact;
+    std::vector<double> gram_exact;  // column-major, dim x dim (kept for the memo)
     const bool reuse = known != nullptr && known->modes.size() == k_count && known->ridge_rel == ridge_rel &&
                        std::all_of(shapes.begin(), shapes.end(), [](const mode_shape& a) { return a.empty(); }) &&
                        leads(*known, modes, sample_rate_hz, n_count);
@@ -271,25 +262,34 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
         theta = rhs;
         solve_on_factor(*known, theta);
         g_theta = Eigen::Map<const Eigen::MatrixXd>(known->gram.data(), dim, dim) * theta;
+        if (memo != nullptr) gram_exact = std::move(known->gram);
     } else {
+        gram_exact.resize(static_cast<std::size_t>(dim * dim));
+        const Eigen::Map<Eigen::MatrixXd> exact(gram_exact.data(), dim, dim);
         const gram_reuse from{.old_of = old_of, .old = last.gram.data(), .old_dim = 2 * last.omega.size()};
-        gram_exact = shape_gram(own, omega, n_count, &from);
-        Eigen::MatrixXd gram = gram_exact;
-        gram.diagonal().array() += ridge_rel * gram.diagonal().mean();
-        // Cholesky (blocked: the ridged Gram matrix is positive definite); LDLT with pivoting should
-        // rounding make it fail.
-        const Eigen::LLT<Eigen::MatrixXd> llt(gram);
-        theta = llt.info() == Eigen::Success ? Eigen::VectorXd(llt.solve(rhs)) : Eigen::VectorXd(gram.ldlt().solve(rhs));
-        g_theta = gram_exact * theta;
+        fill_gram(own, omega, n_count, 0, exact, &from);
+        const double ridge = ridge_rel * exact.diagonal().mean();
+        Eigen::MatrixXd gram = exact;
+        gram.diagonal().array() += ridge;
+        // Cholesky (blocked: the ridged Gram matrix is positive definite), in place; LDLT with
+        // pivoting should rounding make it fail.
+        const Eigen::LLT<Eigen::Ref<Eigen::MatrixXd>> llt(gram);
+        if (llt.info() == Eigen::Success) {
+            theta = llt.solve(rhs);
+        } else {
+            gram = exact;
+            gram.diagonal().array() += ridge;
+            theta = gram.ldlt().solve(rhs);
+        }
+        g_theta = exact * theta;
     }
     for (std::size_t k = 0; k < k_count; ++k)
         modes[k].amp = {theta(static_cast<Eigen::Index>(2 * k)), theta(static_cast<Eigen::Index>(2 * k + 1))};
     // Residual energy = |x|^2 - 2 theta.rhs + theta' G theta.
     const double residual = energy - 2.0 * theta.dot(rhs) + theta.dot(g_theta);
     if (memo != nullptr) {
-        const double* g = reuse ? known->gram.data() : gram_exact.data();
         *memo = {.count = n_count, .sample_rate_hz = sample_rate_hz, .x = {x.begin(), x.end()}, .own = std::move(own),
-                 .omega = std::move(omega), .plain = std::move(plain), .gram = {g, g + dim * dim},
+                 .omega = std::move(omega), .plain = std::move(plain), .gram = std::move(gram_exact),
                  .rhs = {rhs.data(), rhs.data() + dim}};
     }
     return std::clamp(residual / energy, 0.0, 1.0);

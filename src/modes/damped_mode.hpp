@@ -70,10 +70,11 @@ plain_gram_factor factor_plain_gram(std::span<const damped_mode> modes, double s
 /// With `known` given for exactly these modes (every shape empty, the same freq_hz and decay_per_s,
 /// count x.size(), rate and ridge_rel), its factor is used: the same numbers as without. With a
 /// memo, the Gram entries and projections of the modes this fit shares with the memo's fit are
-/// copied from it (the same numbers as computed), and the memo then holds this fit's.
+/// copied from it (the same numbers as computed), and the memo then holds this fit's: a `known`
+/// factor used then gives its Gram matrix to the memo (known->gram is left empty, not copied).
 double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, std::span<damped_mode> modes,
                              std::span<const mode_shape> shapes, double ridge_rel = 1e-9,
-                             const plain_gram_factor* known = nullptr, shaped_fit_memo* memo = nullptr);
+                             plain_gram_factor* known = nullptr, shaped_fit_memo* memo = nullptr);
 
 struct sliding_fit_params {
     double ridge_rel = 1e-9;

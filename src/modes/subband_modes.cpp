@@ -37,19 +37,30 @@ bool wanted_band(double centre_hz, double band_hz, std::span<const double> near_
     return std::any_of(near_hz.begin(), near_hz.end(), [&](double f) { return f >= lo && f < hi; });
 }
 
-/// y[m] = sum_j x[m decim + j] phasor[j] for every m < y.size(), four outputs at a time: each
-/// output's sum runs over j in order (the same sum as one output alone), the four overlapped.
-void filter_outputs(std::span<const float> x, std::span<const std::complex<double>> phasor, std::size_t decim,
-                    std::span<std::complex<double>> y) {
+/// The segment as doubles, four copies interleaved for filter_outputs: quads[4 k + l] =
+/// x[k + l decim] for l < 4 (0 past the end), so the four outputs m .. m + 3 read their samples
+/// at tap j from one place, quads[4 (m decim + j) ..].
+std::vector<double> interleaved_quads(std::span<const float> x, std::size_t decim) {
+    std::vector<double> quads(4 * x.size(), 0.0);
+    for (std::size_t k = 0; k < x.size(); ++k)
+        for (std::size_t l = 0; l < 4 && k + l * decim < x.size(); ++l) quads[4 * k + l] = static_cast<double>(x[k + l * decim]);
+    return quads;
+}
+
+/// y[m] = sum_j x[m decim + j] phasor[j] for every m < y.size(), four outputs at a time (their
+/// samples from quads, interleaved_quads): each output's sum runs over j in order (the same sum
+/// as one output alone), the four overlapped.
+void filter_outputs(std::span<const float> x, std::span<const double> quads, std::span<const std::complex<double>> phasor,
+                    std::size_t decim, std::span<std::complex<double>> y) {
     using lanes = Eigen::Array4d;
     const std::size_t taps = phasor.size();
     std::size_t m = 0;
     for (; m + 4 <= y.size(); m += 4) {
         lanes acc_r = lanes::Zero(), acc_i = lanes::Zero();
-        const float* base = x.data() + m * decim;
+        assert(4 * (m * decim + taps) <= quads.size());
+        const double* base = quads.data() + 4 * m * decim;
         for (std::size_t j = 0; j < taps; ++j) {
-            const lanes v(static_cast<double>(base[j]), static_cast<double>(base[decim + j]),
-                          static_cast<double>(base[2 * decim + j]), static_cast<double>(base[3 * decim + j]));
+            const Eigen::Map<const lanes> v(base + 4 * j);
             acc_r += v * phasor[j].real();
             acc_i += v * phasor[j].imag();
         }
@@ -80,6 +91,7 @@ subband_signals make_subband_signals(std::span<const float> x, double sample_rat
     // The heterodyne of band i at sample n is w_i^n with w_i = exp(-i 2 pi c_i / fs); the windowed
     // taps are shared by all bands, so each output is sum_j (h[j] x[mD + j]) w_i^(mD + j).
     std::vector<std::complex<double>> phasor(taps);
+    const std::vector<double> quads = interleaved_quads(x.first(seg_n), decim);
     for (int i = 0; static_cast<double>(i) * step_hz - 0.25 * params.band_hz < top_hz; ++i) {
         const double centre = static_cast<double>(i) * step_hz;
         const double w = -two_pi * centre / fs;
@@ -87,7 +99,7 @@ subband_signals make_subband_signals(std::span<const float> x, double sample_rat
         for (std::size_t j = 0; j < taps; ++j) phasor[j] = h[j] * std::polar(1.0, w * static_cast<double>(j));
         // w^(mD) by a rotation per output, re-anchored every 64 outputs.
         const std::complex<double> turn = std::polar(1.0, std::fmod(w * static_cast<double>(decim), two_pi));
-        filter_outputs(x, phasor, decim, b.y);
+        filter_outputs(x, quads, phasor, decim, b.y);
         std::complex<double> at{1.0, 0.0};
         for (std::size_t m = 0; m < outputs; ++m) {
             if (m % 64 == 0) at = std::polar(1.0, std::fmod(w * static_cast<double>(m * decim), two_pi));

@@ -3,10 +3,11 @@
 // few hundred samples, and ESPRIT (modes/esprit.hpp) finds their poles there. What the STFT
 // tracker cannot see: modes that live 10-100 ms.
 //
-// Computed from one FFT of the segment: each band is the bins within band_hz of c_i (rounded to
-// a bin), weighted by the taps' zero-phase response and inverse transformed at a small size
-// (modes/narrowband.hpp), which equals the filtered, decimated signal below up to a constant phase
-// and a time shift of (T - 1) / 2 samples.
+// Computed in the time domain, by the sum below itself: per band, the taps times the band's
+// heterodyne (h[j] w^j) are formed once and every output is their dot product with T samples of
+// the segment, times w^(mD) (a rotation per output, re-anchored every 64): O(T) per output, T
+// samples of the segment only. The segment is filtered once for the longest span asked; a shorter
+// span's band signals are the first outputs (subband_modes).
 //
 // Bands: centres c_i = i * band_hz / 2 (i = 0, 1, ...), so neighbours overlap by half; a band keeps
 // only the modes in its central half [c_i - band_hz / 4, c_i + band_hz / 4), so each frequency

@@ -14,6 +14,7 @@
 #include "core/rng.hpp"
 #include "core/units.hpp"
 #include "spectrum/stft.hpp"
+#include "synthesis/amplitude_runs.hpp"
 #include "synthesis/kernel_clones.hpp"
 #include "synthesis/noise_streams.hpp"
 #include "synthesis/rate_convert.hpp"
@@ -87,44 +88,6 @@ double level_at(const band_bins& b, double time_s) {
     for (const envelope_piece& p : b.pieces)
         if (time_s < p.end_s) return p.start_level.db + p.slope_db_per_s * (time_s - p.start_s);
     return -infinity;
-}
-
-/// The first n in [from, size) whose time t0_s + n dt_s is not before end_s (size if none): the
-/// per-sample test, which is monotone in n, found from its estimate and then checked as written.
-std::size_t piece_stop(double t0_s, double dt_s, double end_s, std::size_t from, std::size_t size) {
-    auto before_end = [&](std::size_t n) { return t0_s + static_cast<double>(n) * dt_s < end_s; };
-    const double estimate = std::ceil((end_s - t0_s) / dt_s);
-    std::size_t stop = size;
-    if (estimate < static_cast<double>(size)) stop = std::max(from, static_cast<std::size_t>(std::max(0.0, estimate)));
-    while (stop > from && !before_end(stop - 1)) --stop;
-    while (stop < size && before_end(stop)) ++stop;
-    return stop;
-}
-
-/// dest[n] = the band's linear amplitude at t0_s + n * dt_s (0 before the onset; the attack's
-/// ramp; each piece's exponential by one power per piece and a product per sample).
-void fill_amplitude(const band_bins& b, double t0_s, double dt_s, std::span<float> dest) {
-    const envelope& env = b.band->env;
-    std::size_t n = 0;
-    while (n < dest.size()) {
-        const double t = t0_s + static_cast<double>(n) * dt_s;
-        if (t < env.attack_s || t < 0.0) {
-            dest[n++] = t < 0.0 ? 0.0F : static_cast<float>(b.peak_lin * t / env.attack_s);
-            continue;
-        }
-        const auto piece = std::find_if(b.pieces.begin(), b.pieces.end(), [&](const envelope_piece& p) { return t < p.end_s; });
-        if (piece == b.pieces.end()) {  // unreachable for a valid envelope: the last piece ends at +inf
-            dest[n++] = 0.0F;
-            continue;
-        }
-        double a = to_amp(level_db{piece->start_level.db + piece->slope_db_per_s * (t - piece->start_s)}).lin;
-        const double ratio = to_amp(level_db{piece->slope_db_per_s * dt_s}).lin;
-        const std::size_t stop = piece_stop(t0_s, dt_s, piece->end_s, n, dest.size());
-        for (; n < stop; ++n) {
-            dest[n] = static_cast<float>(a);
-            a *= ratio;
-        }
-    }
 }
 
 /// Whether the band's level changes by more than fast_change_db over [from_s, to_s) (checked at
@@ -295,38 +258,63 @@ namespace {
 /// amplitude once for all the draws, each draw its own shift per band (drawn whether the band
 /// sounds or not) and its own pool (made when the band first sounds in it).
 struct draw_player {
-    draw_player(int n_fft, std::size_t pool_count, int shift_bits, std::size_t shift_stride,
+    draw_player(int n_fft, std::size_t bands, std::size_t draws, int shift_bits, std::size_t shift_stride,
                 std::span<float> frames)
         : n_fft_(n_fft), n_(static_cast<std::size_t>(n_fft)), pool_floats_(static_cast<std::size_t>(pool_frames) * 2 * n_),
           shift_bits_(shift_bits), shift_stride_(shift_stride), frames_(frames),
-          inverse_(n_fft), pools_(pool_count * pool_floats_), amp_(n_) {}
+          inverse_(n_fft), pools_(draws * bands * pool_floats_), amp_(amp_rows * n_), row_of_(bands, 0) {
+        runs_.reserve(2 * amp_rows);  // a band makes a run per piece it crosses in a frame: rarely two
+    }
 
     void play(std::vector<std::vector<band_bins>>& layouts, std::span<const band_in_frame> plays, double start_s,
               double dt_s, std::size_t pool_index) {
         const std::size_t bands = layouts.front().size();
-        for (std::size_t i = 0; i < bands; ++i) {
-            const bool sounds = plays[i].bin_amp != 0.0f;
-            if (sounds && plays[i].fast) fill_amplitude(layouts.front()[i], start_s, dt_s, amp_);
-            for (std::size_t d = 0; d < layouts.size(); ++d) {
-                band_bins& b = layouts[d][i];
-                const auto shift = static_cast<std::size_t>(b.shifts.next() >> (64 - shift_bits_)) * shift_stride_;
-                if (!sounds) continue;
-                const std::span<float> pool(pools_.data() + (d * bands + i) * pool_floats_, pool_floats_);
-                if (!b.pool_ready) {
-                    make_pool(b, n_fft_, inverse_, pool);
-                    b.pool_ready = true;
-                }
-                const float* unit = pool.data() + pool_index * 2 * n_ + shift;
-                float* frame = frames_.data() + d * n_;
-                if (plays[i].fast) {
-                    add_modulated(frame, unit, amp_.data(), plays[i].bin_amp, n_);
-                } else {
-                    add_scaled(frame, unit, plays[i].bin_amp, n_);
-                }
+        // Bands in turn, a few fast ones at a time: their amplitudes first, each in a row of its
+        // own (their runs played side by side), then every band's draws in band order.
+        for (std::size_t i0 = 0; i0 < bands;) {
+            runs_.clear();
+            std::size_t rows = 0;
+            std::size_t i1 = i0;
+            for (; i1 < bands && rows < amp_rows; ++i1) {
+                if (plays[i1].bin_amp == 0.0f || !plays[i1].fast) continue;
+                row_of_[i1] = rows;
+                const band_bins& band = layouts.front()[i1];
+                fill_amplitude(band.band->env, band.pieces, band.peak_lin, start_s, dt_s,
+                               std::span(amp_).subspan(rows++ * n_, n_), runs_);
+            }
+            play_runs(runs_);
+            for (std::size_t i = i0; i < i1; ++i) play_band(layouts, plays, i, pool_index);
+            i0 = i1;
+        }
+    }
+
+private:
+    /// Band i's draws into their frames (its amplitude, when fast, in row row_of_[i] of amp_).
+    void play_band(std::vector<std::vector<band_bins>>& layouts, std::span<const band_in_frame> plays, std::size_t i,
+                   std::size_t pool_index) {
+        const std::size_t bands = layouts.front().size();
+        const bool sounds = plays[i].bin_amp != 0.0f;
+        for (std::size_t d = 0; d < layouts.size(); ++d) {
+            band_bins& b = layouts[d][i];
+            const auto shift = static_cast<std::size_t>(b.shifts.next() >> (64 - shift_bits_)) * shift_stride_;
+            if (!sounds) continue;
+            const std::span<float> pool(pools_.data() + (d * bands + i) * pool_floats_, pool_floats_);
+            if (!b.pool_ready) {
+                make_pool(b, n_fft_, inverse_, pool);
+                b.pool_ready = true;
+            }
+            const float* unit = pool.data() + pool_index * 2 * n_ + shift;
+            float* frame = frames_.data() + d * n_;
+            if (plays[i].fast) {
+                add_modulated(frame, unit, amp_.data() + row_of_[i] * n_, plays[i].bin_amp, n_);
+            } else {
+                add_scaled(frame, unit, plays[i].bin_amp, n_);
             }
         }
     }
 
+    /// Fast bands whose amplitudes are made together (play_runs plays four runs side by side).
+    static constexpr std::size_t amp_rows = 4;
 private:
     int n_fft_;
     std::size_t n_;
@@ -336,7 +324,9 @@ private:
     std::span<float> frames_;
     inverse_real_fft inverse_;
     std::vector<float> pools_;  ///< each draw's bands' pools, filled when a band first sounds
-    std::vector<float> amp_;
+    std::vector<float> amp_;  ///< a few fast bands' amplitudes in the frame, a row of n_fft each
+    std::vector<std::size_t> row_of_;  ///< each band's row of amp_ (while it is being played)
+    std::vector<amplitude_run> runs_;
 };
 
 /// The bands' noise at a draw rate (noise_draw_rate_hz of itself), one draw per seed added into
@@ -373,7 +363,7 @@ void add_noise_at_draw_rate(std::span<const noise_band> bands, const noise_rende
     const auto n = static_cast<std::size_t>(n_fft);
     const std::size_t draws = seeds.size();
     std::vector<float> frames(draws * n);
-    draw_player player(n_fft, draws * layout.size(), shift_bits, shift_stride, frames);
+    draw_player player(n_fft, layout.size(), draws, shift_bits, shift_stride, frames);
     std::vector<band_in_frame> plays(layout.size());
     const bin_scale scale{.n_fft = n_fft, .hop = hop, .window_power_sum = window_power_sum,
                           .gain_lin = to_amp(level_db{params.gain_db}).lin, .inverse_scale = 1.0 / n_fft};  // the inverse FFT is unnormalized

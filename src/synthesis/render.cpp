@@ -310,6 +310,13 @@ void render_partials_range(const render_plan& plan, std::size_t first, std::span
             }
             if (++since_flush == partials_per_flush) flush();
         }
+        if (partial_count < partials_per_flush) {
+            // Fewer partials than a flush takes: the one flush below would put block_f's floats
+            // in block_d exactly and the line after it take them back (float -> double -> float
+            // gives the same float), so they are written out as they are.
+            std::copy_n(block_f.begin(), n, out.begin() + static_cast<std::ptrdiff_t>(b0 - first));
+            continue;
+        }
         if (since_flush > 0 || first_flush) flush();
         for (std::size_t i = 0; i < n; ++i) out[b0 - first + i] = static_cast<float>(block_d[i]);
     }

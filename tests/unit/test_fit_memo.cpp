@@ -45,7 +45,7 @@ struct one_fit {
 };
 
 /// Fits f with the memo (updating it) and without one; both must agree bit for bit.
-void check_same(const one_fit& f, shaped_fit_memo& memo, const plain_gram_factor* known = nullptr) {
+void check_same(const one_fit& f, shaped_fit_memo& memo, plain_gram_factor* known = nullptr) {
     std::vector<damped_mode> with = f.modes, without = f.modes;
     const double r_with = fit_shaped_amplitudes(f.x, fs, with, f.shapes, 1e-9, known, &memo);
     const double r_without = fit_shaped_amplitudes(f.x, fs, without, f.shapes, 1e-9);
@@ -77,9 +77,13 @@ TEST_CASE("fits with the last fit's memo equal fits without, pass after pass", "
     shaped_fit_memo memo;
     // Pass 1: all plain, solved with a kept factor (the first fit's): the memo keeps its Gram matrix.
     const one_fit first{.modes = modes, .shapes = std::vector<mode_shape>(modes.size()), .x = x};
-    const plain_gram_factor kept = factor_plain_gram(modes, fs, count);
+    plain_gram_factor kept = factor_plain_gram(modes, fs, count);
+    const std::vector<double> kept_gram = kept.gram;
     check_same(first, memo, &kept);
     REQUIRE(memo.count == count);
+    // The factor's Gram matrix moved into the memo (not copied).
+    CHECK(kept.gram.empty());
+    CHECK(memo.gram == kept_gram);
 
     // Pass 2: modes 3, 8 and 20 dropped, mode 5 shaped, a new mode added at the end.
     one_fit second{.x = x};

@@ -401,7 +401,7 @@ TEST_CASE("a kept factor of the leading modes, extended by more modes, gives the
     const auto x = render_modes(truth, fs, count + starts, 0.01, 11);
     std::vector<damped_mode> modes = truth;
     modes.push_back({.freq_hz = 196.0, .decay_per_s = 46.0});
-    const plain_gram_factor kept = factor_plain_gram(std::span(modes).first(lead), fs, count);
+    plain_gram_factor kept = factor_plain_gram(std::span(modes).first(lead), fs, count);
     const std::vector<double> residual = sliding_fit_residuals(x, fs, modes, count, starts, {.leading = &kept});
     REQUIRE(residual.size() == starts);
     for (const std::size_t s : {std::size_t{0}, std::size_t{1}, std::size_t{128}, std::size_t{159}}) {
