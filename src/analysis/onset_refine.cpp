@@ -3,13 +3,14 @@
 #include <algorithm>
 #include <cassert>
 #include <cmath>
+#include <optional>
 #include <utility>
 #include <vector>
 
+#include "analysis/new_mode_rule.hpp"
 #include "analysis/onset_attack.hpp"
 #include "analysis/onset_start.hpp"
 #include "core/units.hpp"
-#include "modes/narrowband.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -198,39 +199,6 @@ std::vector<double> early_decays(const patch& p, std::span<const role> roles, st
     return decay;
 }
 
-/// Candidate new modes: not taken by a partial, clear of every partial, decaying, with a T60 in
-/// [min_new_t60_s, max_new_t60_s] and a quality factor pi f / d of at least min_new_q.
-std::vector<damped_mode> new_mode_candidates(const patch& p, std::span<const damped_mode> found,
-                                             const std::vector<bool>& taken, double cluster_hz,
-                                             const onset_refine_params& params) {
-    std::vector<damped_mode> out;
-    for (std::size_t j = 0; j < found.size(); ++j) {
-        const double d = found[j].decay_per_s;
-        if (taken[j] || d <= 0.0 || ln1000 / d < params.min_new_t60_s || ln1000 / d > params.max_new_t60_s) continue;
-        if (pi * found[j].freq_hz / d < params.min_new_q) continue;
-        const bool near_partial = std::any_of(p.partials.begin(), p.partials.end(), [&](const partial& q) {
-            return std::abs(q.freq_hz - found[j].freq_hz) < params.new_mode_clearance_cells * cluster_hz;
-        });
-        if (!near_partial) out.push_back(found[j]);
-    }
-    return out;
-}
-
-/// The candidates found again on the shorter span (stable): within stable_freq_cells cells and
-/// stable_decay_rel of their decay.
-std::vector<damped_mode> stable_modes(std::span<const damped_mode> candidates, std::span<const damped_mode> again,
-                                      double cluster_hz, const onset_refine_params& params) {
-    std::vector<damped_mode> out;
-    for (const damped_mode& c : candidates) {
-        const bool stable = std::any_of(again.begin(), again.end(), [&](const damped_mode& m) {
-            return std::abs(m.freq_hz - c.freq_hz) < params.stable_freq_cells * cluster_hz &&
-                   std::abs(m.decay_per_s - c.decay_per_s) <= params.stable_decay_rel * c.decay_per_s;
-        });
-        if (stable) out.push_back(c);
-    }
-    return out;
-}
-
 /// One least-squares fit of the first fit_n samples with the partials in their roles plus the new
 /// modes (appended after the partials' modes); the fixed partials are rendered and subtracted.
 struct waveform_fit {
@@ -280,12 +248,19 @@ waveform_fit fit_waveform(const patch& p, std::span<const float> note, double sa
     return f;
 }
 
+/// One way through the passes: the roles, new modes and attacks it has reached, and its last fit.
+struct fit_path {
+    std::vector<role> roles;
+    std::vector<damped_mode> new_modes;
+    std::vector<attack_choice> attacks;
+    waveform_fit f;
+};
+
 /// After a pass: exponential starts that came out as a slow rise (far under the STFT peak) or
 /// implausibly loud become shaped; shaped ones whose level would move by more than slow_rise_db
 /// become fixed; new modes too weak or too loud are dropped. True when anything changed.
-bool revise_roles(const patch& p, std::span<const float> note, const waveform_fit& f, std::vector<role>& roles,
-                  std::vector<damped_mode>& new_modes, double sample_rate_hz, std::size_t fit_n,
-                  const onset_refine_params& params) {
+bool revise_roles(const patch& p, const waveform_fit& f, std::vector<role>& roles,
+                  std::vector<damped_mode>& new_modes, double sample_rate_hz, const onset_refine_params& params) {
     bool changed = false;
     for (std::size_t i = 0; i < f.partial_of.size(); ++i) {
         const std::size_t k = f.partial_of[i];
@@ -299,34 +274,20 @@ bool revise_roles(const patch& p, std::span<const float> note, const waveform_fi
                                part.env.attack_s <= params.max_shaped_attack_s;
         if (slow_rise || !(level0 <= std::min(part.env.peak.db + 12.0, max_peak_db))) roles[k] = role::shaped, changed = true;
     }
-    const auto count = static_cast<double>(fit_n);
-    double strongest = 0.0;
-    for (const double e : f.energy) strongest = std::max(strongest, e);
-    const double keep = strongest * std::pow(10.0, -params.new_mode_range_db / 10.0);
-    // A new mode must carry new_mode_share of the energy of the span in its band (its main lobe, at
-    // least two resolution cells each side): a resonance does, alone or beside one companion, while
-    // each of the many poles that fit a burst of noise carries a small part of it.
-    const note_spectrum spectrum(note.first(fit_n), sample_rate_hz);
-    const double cell_hz = sample_rate_hz / count;
-    std::vector<damped_mode> kept;
-    for (std::size_t i = f.partial_of.size(); i < f.modes.size(); ++i) {
-        const damped_mode& m = f.modes[i];
-        const double energy = f.energy[i];
-        const double half_width_hz = std::max(2.0 * cell_hz, m.decay_per_s / pi);
-        const double band = spectrum.energy_between(m.freq_hz - half_width_hz, m.freq_hz + half_width_hz);
-        if (energy >= keep && std::abs(m.amp) <= 1.0 && energy >= params.new_mode_share * band) kept.push_back(m);
-    }
+    std::vector<damped_mode> kept = kept_new_modes(f.target, sample_rate_hz, f.modes, f.shapes, f.energy, f.partial_of.size(), params);
     changed = changed || kept.size() != new_modes.size();
     new_modes = std::move(kept);
     return changed;
 }
 
 /// The attack of each exponential partial, searched on the residual of fit f (analysis/onset_attack.hpp);
-/// attacks is per partial. True when any changed.
+/// attacks is per partial. Alone: as if the fit had no new modes (they stay in the residual). True
+/// when any changed.
 bool update_attacks(const patch& p, const waveform_fit& f, std::span<const role> roles, double sample_rate_hz,
-                    const onset_attack_params& params, std::vector<attack_choice>& attacks) {
+                    const onset_attack_params& params, std::vector<attack_choice>& attacks, bool alone = false) {
+    const std::size_t seen = alone ? f.partial_of.size() : f.modes.size();
     std::vector<std::size_t> may_rise, may_swell;
-    std::vector<attack_choice> per_mode(f.modes.size());
+    std::vector<attack_choice> per_mode(seen);
     for (std::size_t i = 0; i < f.partial_of.size(); ++i) {
         if (roles[f.partial_of[i]] == role::exponential) may_rise.push_back(i);
         // A rise shown by the recording: the STFT fit has an attack or a rising first segment.
@@ -337,7 +298,8 @@ bool update_attacks(const patch& p, const waveform_fit& f, std::span<const role>
         per_mode[i] = attacks[f.partial_of[i]];
     }
     const std::vector<attack_choice> chosen =
-        choose_attacks(f.target, sample_rate_hz, f.modes, f.shapes, f.energy, may_rise, may_swell, per_mode, params);
+        choose_attacks(f.target, sample_rate_hz, std::span(f.modes).first(seen), std::span(f.shapes).first(seen),
+                       std::span(f.energy).first(seen), may_rise, may_swell, per_mode, params);
     bool changed = false;
     for (const std::size_t i : may_rise) {
         changed = changed || chosen[i] != per_mode[i];
@@ -426,24 +388,42 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
         const double shift_s = static_cast<double>(summary.start_shift_n) / sample_rate_hz;
         for (partial& q : p.partials) q.phase_rad = std::remainder(q.phase_rad + two_pi * q.freq_hz * shift_s, two_pi);
     }
-    // Up to four passes, each revising the roles, attacks and new modes from the last.
+    // Up to four passes, each revising the roles, attacks and new modes from the last. The first
+    // pass's attacks are also searched on the partials alone (new modes may stand in for a
+    // partial's rise): that way runs its own passes and wins by a clear margin of residual
+    // (onset_refine_params::alone_attack_partials).
     constexpr int passes = 4;
-    waveform_fit f;
     shaped_fit_memo memo;  // the last fit's Gram entries and projections, for the modes a pass keeps
-    std::vector<attack_choice> attacks(p.partials.size());
-    for (int pass = 0;; ++pass) {
-        f = fit_waveform(p, note, sample_rate_hz, fit_n, roles, decay, attacks, new_modes, pass == 0 ? &first_fit : nullptr, &memo);
-        if (pass == 0) first_fit = {};  // its memory (two 2K x 2K matrices) back
-        if (pass == passes - 1) break;
-        // The attacks are searched on this pass's residual and the roles revised from it; the
-        // next pass fits both.
-        const bool attacks_changed = params.search_attacks && update_attacks(p, f, roles, sample_rate_hz, params.attacks, attacks);
-        const bool roles_changed = revise_roles(p, note, f, roles, new_modes, sample_rate_hz, fit_n, params);
-        if (!attacks_changed && !roles_changed) break;
-    }
+    onset_attack_params alone_params = params.attacks;  // ramps only, for the strongest partials
+    alone_params.max_partials = params.alone_attack_partials;
+    alone_params.max_rising_partials = 0;
+    const auto run = [&](fit_path& s, int first_pass, std::optional<fit_path>* other) {
+        for (int pass = first_pass;; ++pass) {
+            s.f = fit_waveform(p, note, sample_rate_hz, fit_n, s.roles, decay, s.attacks, s.new_modes, pass == 0 ? &first_fit : nullptr, &memo);
+            if (pass == 0) first_fit = {};  // its memory (two 2K x 2K matrices) back
+            if (pass == passes - 1) return;
+            // The attacks are searched on this pass's residual and the roles revised from it; the
+            // next pass fits both.
+            const bool two_ways =
+                params.search_attacks && params.alone_attack_partials > 0 && other != nullptr && !s.new_modes.empty();
+            std::vector<attack_choice> alone = two_ways ? s.attacks : std::vector<attack_choice>{};
+            const bool attacks_changed = params.search_attacks && update_attacks(p, s.f, s.roles, sample_rate_hz, params.attacks, s.attacks);
+            if (two_ways) update_attacks(p, s.f, s.roles, sample_rate_hz, alone_params, alone, true);
+            const bool roles_changed = revise_roles(p, s.f, s.roles, s.new_modes, sample_rate_hz, params);
+            if (two_ways && alone != s.attacks && !s.new_modes.empty()) *other = fit_path{s.roles, s.new_modes, alone, {}};
+            other = nullptr;
+            if (!attacks_changed && !roles_changed) return;
+        }
+    };
+    fit_path s{.roles = std::move(roles), .new_modes = std::move(new_modes), .attacks = std::vector<attack_choice>(p.partials.size()), .f = {}};
+    std::optional<fit_path> other;
+    run(s, 0, &other);
+    if (other) run(*other, 1, nullptr);
     const double energy = signal_energy(note.first(fit_n));
+    if (other && other->f.residual_energy < s.f.residual_energy - params.attacks.min_gain_share * energy) s = std::move(*other);
+    const waveform_fit& f = s.f;
     summary.explained_db = energy > 0.0 ? power_to_db(energy / std::max(f.residual_energy, 1e-30 * energy)) : 0.0;
-    apply_fit(p, f, roles, attacks, sample_rate_hz, params, summary);
+    apply_fit(p, f, s.roles, s.attacks, sample_rate_hz, params, summary);
     return summary;
 }
 

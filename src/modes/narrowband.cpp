@@ -45,19 +45,26 @@ double note_spectrum::duration_s() const {
     return static_cast<double>(state_->signal_frames) / state_->sample_rate_hz;
 }
 
-double note_spectrum::energy_between(double low_hz, double high_hz) const {
+int note_spectrum::fft_size() const { return state_->fft_size; }
+
+std::vector<std::complex<double>> note_spectrum::bins_between(double low_hz, double high_hz, long& first_bin) const {
     const state& s = *state_;
     const double bin_hz = s.sample_rate_hz / static_cast<double>(s.fft_size);
     const auto last_bin = static_cast<long>(s.bins.size()) - 1;
     const long lo = std::clamp(static_cast<long>(std::ceil(low_hz / bin_hz)), 1L, last_bin);
     const long hi = std::clamp(static_cast<long>(std::floor(high_hz / bin_hz)), 1L, last_bin);
+    first_bin = lo;
+    std::vector<std::complex<double>> out;
+    for (long k = lo; k <= hi; ++k) out.emplace_back(s.bins[static_cast<std::size_t>(k)].r, s.bins[static_cast<std::size_t>(k)].i);
+    return out;
+}
+
+double note_spectrum::energy_between(double low_hz, double high_hz) const {
+    long first_bin = 0;
     double sum = 0.0;
-    for (long k = lo; k <= hi; ++k) {
-        const kiss_fft_cpx b = s.bins[static_cast<std::size_t>(k)];
-        sum += double(b.r) * double(b.r) + double(b.i) * double(b.i);
-    }
+    for (const std::complex<double>& b : bins_between(low_hz, high_hz, first_bin)) sum += std::norm(b);
     // sum_n x^2 = (1 / M) sum over all M bins |X_k|^2: each positive bin stands for two.
-    return 2.0 * sum / static_cast<double>(s.fft_size);
+    return 2.0 * sum / static_cast<double>(state_->fft_size);
 }
 
 narrowband note_spectrum::band(double centre_hz, double half_width_hz, double min_rate_hz) const {

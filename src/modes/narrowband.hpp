@@ -39,6 +39,10 @@ public:
     /// Energy of the signal between low_hz and high_hz (sum of x^2 over time by Parseval,
     /// positive frequencies counted twice).
     double energy_between(double low_hz, double high_hz) const;
+    /// The DFT bins X[k] (forward, size fft_size(), zero padded) that energy_between counts for
+    /// [low_hz, high_hz]; first_bin gets the index k of the first.
+    std::vector<std::complex<double>> bins_between(double low_hz, double high_hz, long& first_bin) const;
+    int fft_size() const;
     /// Length of the analysed signal, seconds.
     double duration_s() const;
 

@@ -1,0 +1,67 @@
+#include "analysis/new_mode_rule.hpp"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+
+#include "core/units.hpp"
+#include "modes/mode_residual.hpp"
+#include "modes/narrowband.hpp"
+
+namespace wane {
+
+std::vector<damped_mode> new_mode_candidates(const patch& p, std::span<const damped_mode> found,
+                                             const std::vector<bool>& taken, double cluster_hz,
+                                             const onset_refine_params& params) {
+    std::vector<damped_mode> out;
+    for (std::size_t j = 0; j < found.size(); ++j) {
+        const double d = found[j].decay_per_s;
+        if (taken[j] || d <= 0.0 || ln1000 / d < params.min_new_t60_s || ln1000 / d > params.max_new_t60_s) continue;
+        if (pi * found[j].freq_hz / d < params.min_new_q) continue;
+        const bool near_partial = std::any_of(p.partials.begin(), p.partials.end(), [&](const partial& q) {
+            return std::abs(q.freq_hz - found[j].freq_hz) < params.new_mode_clearance_cells * cluster_hz;
+        });
+        if (!near_partial) out.push_back(found[j]);
+    }
+    return out;
+}
+
+std::vector<damped_mode> stable_modes(std::span<const damped_mode> candidates, std::span<const damped_mode> again,
+                                      double cluster_hz, const onset_refine_params& params) {
+    std::vector<damped_mode> out;
+    for (const damped_mode& c : candidates) {
+        const bool stable = std::any_of(again.begin(), again.end(), [&](const damped_mode& m) {
+            return std::abs(m.freq_hz - c.freq_hz) < params.stable_freq_cells * cluster_hz &&
+                   std::abs(m.decay_per_s - c.decay_per_s) <= params.stable_decay_rel * c.decay_per_s;
+        });
+        if (stable) out.push_back(c);
+    }
+    return out;
+}
+
+std::vector<damped_mode> kept_new_modes(std::span<const float> target, double sample_rate_hz,
+                                        std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
+                                        std::span<const double> energy, std::size_t first_new,
+                                        const onset_refine_params& params) {
+    assert(sample_rate_hz > 0.0 && shapes.size() == modes.size() && energy.size() == modes.size());
+    assert(first_new <= modes.size());
+    std::vector<damped_mode> kept;
+    if (first_new == modes.size() || target.empty()) return kept;
+    double strongest = 0.0;
+    for (const double e : energy) strongest = std::max(strongest, e);
+    const double keep = strongest * std::pow(10.0, -params.new_mode_range_db / 10.0);
+    const note_spectrum spectrum(fit_residual(target, sample_rate_hz, modes, shapes), sample_rate_hz);
+    for (std::size_t i = first_new; i < modes.size(); ++i) {
+        const damped_mode& m = modes[i];
+        assert(shapes[i].empty());  // a new mode is plain
+        if (!(energy[i] >= keep && std::abs(m.amp) <= 1.0)) continue;
+        // The main lobe: the Lorentzian's half-power half-width is d / (2 pi); at least two cells.
+        const double half_width_hz = std::max(2.0 * sample_rate_hz / static_cast<double>(target.size()), m.decay_per_s / pi);
+        const band_energies e = band_energy_left(spectrum, target.size(), sample_rate_hz, m, m.freq_hz - half_width_hz,
+                                                 m.freq_hz + half_width_hz);
+        if (e.mode >= params.new_mode_share * e.left) kept.push_back(m);
+    }
+    return kept;
+}
+
+}  // namespace wane

@@ -1,0 +1,44 @@
+// Which of the short-lived modes found beside the partials (subband ESPRIT over the note's first
+// span, analysis/onset_refine.cpp) join the onset's waveform fit, and which stay in it. A
+// candidate is a resonance clear of the partials, found again on a shorter span; after a fit, a
+// new mode stays when it explains at least a share of what its band holds once every other
+// fitted mode is taken off: the fit's residual there plus the mode itself
+// (modes/mode_residual.hpp). Judged against what is left, not against the recording's band, the
+// test does not depend on a neighbour's phase.
+#pragma once
+
+#include <cstddef>
+#include <span>
+#include <vector>
+
+#include "analysis/onset_refine.hpp"
+#include "core/patch.hpp"
+#include "modes/damped_mode.hpp"
+#include "modes/mode_shape.hpp"
+
+namespace wane {
+
+/// Candidate new modes among found: not taken by a partial, clear of every partial (by
+/// new_mode_clearance_cells of cluster_hz), decaying, with a T60 in [min_new_t60_s,
+/// max_new_t60_s] and a quality factor pi f / d of at least min_new_q.
+std::vector<damped_mode> new_mode_candidates(const patch& p, std::span<const damped_mode> found,
+                                             const std::vector<bool>& taken, double cluster_hz,
+                                             const onset_refine_params& params);
+
+/// The candidates found again on the shorter span (stable): within stable_freq_cells cells of
+/// cluster_hz and stable_decay_rel of their decay.
+std::vector<damped_mode> stable_modes(std::span<const damped_mode> candidates, std::span<const damped_mode> again,
+                                      double cluster_hz, const onset_refine_params& params);
+
+/// The new modes of a fit that stay: modes[first_new ..] (plain, amplitudes fitted) of the least-
+/// squares fit of target (its samples from t = 0) by all of modes with their shapes (empty: plain);
+/// energy holds each mode's energy over the span. A mode stays when its energy is within
+/// new_mode_range_db of the strongest mode's, it starts no louder than full scale, and its energy
+/// in its band (main lobe, half-width max(2 cells, d / pi)) is at least new_mode_share of the
+/// band's energy of the fit's residual plus the mode.
+std::vector<damped_mode> kept_new_modes(std::span<const float> target, double sample_rate_hz,
+                                        std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
+                                        std::span<const double> energy, std::size_t first_new,
+                                        const onset_refine_params& params);
+
+}  // namespace wane

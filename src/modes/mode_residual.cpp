@@ -1,0 +1,119 @@
+#include "modes/mode_residual.hpp"
+
+#include <algorithm>
+#include <array>
+#include <cassert>
+#include <cmath>
+#include <complex>
+
+#include <Eigen/Core>
+
+#include "core/units.hpp"
+
+namespace wane {
+
+namespace {
+
+constexpr std::size_t anchor_n = 2048; ///< the phasor is re-anchored from the exact power this often
+constexpr int lanes_n = 4;             ///< samples side by side
+
+/// out[n] += Re(amp a[n] exp(i omega n)) for n in [0, out.size()): a[n] = exp(rho n) when shape is
+/// empty, else shape[n]. Four consecutive samples side by side (lane j: sample n + j), each lane's
+/// phasor turned by exp(4 i omega) per step, real and imaginary parts written out, so the loop is
+/// plain multiply-add; the phasors are re-anchored from the exact power every anchor_n samples.
+void add_phasor(std::span<double> out, double omega, double rho, std::span<const double> shape,
+                std::complex<double> amp) {
+    using lanes = Eigen::Array<double, lanes_n, 1>;
+    using out_lanes = Eigen::Map<lanes, Eigen::Unaligned>;
+    using in_lanes = Eigen::Map<const lanes, Eigen::Unaligned>;
+    const bool plain = shape.empty();
+    const std::complex<double> turn = std::polar(1.0, lanes_n * omega);
+    const double ratio = plain ? std::exp(lanes_n * rho) : 1.0;
+    // Lane j's offsets from the anchor: exp(i omega j) and exp(rho j).
+    std::array<std::complex<double>, lanes_n> lane_turn{};
+    lanes lane_decay = lanes::Ones();
+    for (int j = 0; j < lanes_n; ++j) {
+        lane_turn[static_cast<std::size_t>(j)] = std::polar(1.0, omega * j);
+        if (plain) lane_decay(j) = std::exp(rho * j);
+    }
+    const std::size_t count = out.size();
+    lanes pr, pim, s = lanes::Ones();
+    for (std::size_t start = 0; start < count; start += anchor_n) {
+        const auto at = static_cast<double>(start);
+        const std::complex<double> p0 = amp * std::polar(1.0, std::remainder(omega * at, two_pi));
+        for (int j = 0; j < lanes_n; ++j) {
+            const std::complex<double> p = p0 * lane_turn[static_cast<std::size_t>(j)];
+            pr(j) = p.real(), pim(j) = p.imag();
+        }
+        if (plain) s = std::exp(rho * at) * lane_decay;
+        const std::size_t end = std::min(count, start + anchor_n);
+        // One step: the lanes' samples added, the phasors turned (and the decay stepped).
+        const auto step = [&](std::size_t n, const lanes& a) {
+            out_lanes(&out[n]) += a * pr;
+            const lanes next_r = pr * turn.real() - pim * turn.imag();
+            pim = pr * turn.imag() + pim * turn.real();
+            pr = next_r;
+        };
+        std::size_t n = start;
+        if (plain) {
+            for (; n + lanes_n <= end; n += lanes_n) step(n, s), s *= ratio;
+        } else {
+            for (; n + lanes_n <= end; n += lanes_n) step(n, in_lanes(&shape[n]));
+        }
+        for (int j = 0; n < end; ++n, ++j) out[n] += (plain ? s(j) : shape[n]) * pr(j);  // the last few
+    }
+}
+
+}  // namespace
+
+void add_mode_samples(std::span<double> out, double sample_rate_hz, const damped_mode& m, const mode_shape& shape,
+                      double gain, std::vector<double>& scratch) {
+    assert(sample_rate_hz > 0.0);
+    const double omega = two_pi * m.freq_hz / sample_rate_hz;  // rad per sample
+    if (shape.empty()) {
+        // The plain mode: gain Re(amp z^n), z = exp(-d / fs + i omega).
+        add_phasor(out, omega, -m.decay_per_s / sample_rate_hz, {}, gain * m.amp);
+        return;
+    }
+    shape_samples(shape, out.size(), scratch);
+    add_phasor(out, omega, 0.0, scratch, gain * m.amp);
+}
+
+std::vector<float> fit_residual(std::span<const float> x, double sample_rate_hz, std::span<const damped_mode> modes,
+                                 std::span<const mode_shape> shapes) {
+    assert(shapes.size() == modes.size());
+    std::vector<double> out(x.begin(), x.end()), scratch;
+    for (std::size_t k = 0; k < modes.size(); ++k) add_mode_samples(out, sample_rate_hz, modes[k], shapes[k], -1.0, scratch);
+    return {out.begin(), out.end()};
+}
+
+band_energies band_energy_left(const note_spectrum& residual_spectrum, std::size_t count, double sample_rate_hz,
+                               const damped_mode& m, double low_hz, double high_hz) {
+    long first_bin = 0;
+    const std::vector<std::complex<double>> bins = residual_spectrum.bins_between(low_hz, high_hz, first_bin);
+    const auto size = static_cast<double>(residual_spectrum.fft_size());
+    const auto n = static_cast<double>(count);
+    const double omega = two_pi * m.freq_hz / sample_rate_hz;  // rad per sample
+    const double rho = -m.decay_per_s / sample_rate_hz;
+    // Bin k of Re(amp z^n), n < count: (amp / 2) sum (z w)^n + (conj(amp) / 2) sum (conj(z) w)^n,
+    // w = exp(-i 2 pi k / M) (the forward DFT's kernel), each sum (q^count - 1) / (q - 1). From
+    // one bin to the next, q turns by exp(-i 2 pi / M) and q^count by exp(-i 2 pi count / M).
+    const double bin_rad = two_pi * static_cast<double>(first_bin) / size;
+    std::complex<double> q_up = std::exp(std::complex<double>{rho, omega - bin_rad});
+    std::complex<double> q_down = std::exp(std::complex<double>{rho, -omega - bin_rad});
+    std::complex<double> qn_up = std::exp(n * std::complex<double>{rho, omega - bin_rad});
+    std::complex<double> qn_down = std::exp(n * std::complex<double>{rho, -omega - bin_rad});
+    const std::complex<double> step = std::polar(1.0, -two_pi / size);
+    const std::complex<double> step_n = std::polar(1.0, std::remainder(-two_pi * n / size, two_pi));
+    double sum = 0.0, own = 0.0;
+    for (const std::complex<double>& bin : bins) {
+        const std::complex<double> mode_bin =
+            0.5 * m.amp * (qn_up - 1.0) / (q_up - 1.0) + 0.5 * std::conj(m.amp) * (qn_down - 1.0) / (q_down - 1.0);
+        sum += std::norm(bin + mode_bin);
+        own += std::norm(mode_bin);
+        q_up *= step, q_down *= step, qn_up *= step_n, qn_down *= step_n;
+    }
+    return {.left = 2.0 * sum / size, .mode = 2.0 * own / size};  // as note_spectrum::energy_between
+}
+
+}  // namespace wane

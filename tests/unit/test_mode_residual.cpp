@@ -1,0 +1,92 @@
+// The residual of a fit of modes and the band energies the new-mode rule reads from it
+// (modes/mode_residual.hpp), against sums written out here term by term: each mode's samples from
+// std::exp / std::cos in double, and the DFT bins by their defining sum.
+#include <catch2/catch.hpp>
+
+#include <cmath>
+#include <complex>
+#include <vector>
+
+#include "core/rng.hpp"
+#include "core/units.hpp"
+#include "modes/mode_residual.hpp"
+#include "modes/narrowband.hpp"
+
+using namespace wane;
+
+namespace {
+
+constexpr double fs = 44100.0;
+
+/// Re(amp a[n] exp(i 2 pi f n / fs)), a[n] = exp(-d n / fs) or the shape's samples.
+double mode_sample(const damped_mode& m, const std::vector<double>* shape, std::size_t n) {
+    const double t = static_cast<double>(n) / fs;
+    const double a = shape != nullptr ? (*shape)[n] : std::exp(-m.decay_per_s * t);
+    return a * (m.amp * std::polar(1.0, two_pi * m.freq_hz * t)).real();
+}
+
+}  // namespace
+
+TEST_CASE("fit_residual subtracts plain and shaped modes sample by sample", "[modes][residual]") {
+    const std::size_t count = 6615;  // 150 ms: past the re-anchoring of the phasors
+    splitmix64 rng{7};
+    std::vector<float> x(count);
+    for (float& v : x) v = static_cast<float>(0.1 * rng.uniform_pm1());
+    std::vector<damped_mode> modes;
+    std::vector<mode_shape> shapes;
+    for (int k = 0; k < 6; ++k) {
+        modes.push_back({.freq_hz = 110.0 * (k + 1) + 3.7 * k, .decay_per_s = 5.0 + 20.0 * k,
+                         .amp = std::polar(0.2 / (k + 1), 0.9 * k)});
+        // Every other mode rises over 2 ms, then decays (a shaped mode), the others are plain.
+        shapes.push_back(k % 2 == 1 ? mode_shape{{.start = 0, .count = 88, .scale = 1.0 / 88.0, .rho = 0.0, .power = 1},
+                                                 {.start = 88, .count = count - 88, .scale = 1.0, .rho = -modes.back().decay_per_s / fs, .power = 0}}
+                                    : mode_shape{});
+    }
+    const std::vector<float> r = fit_residual(x, fs, modes, shapes);
+    REQUIRE(r.size() == count);
+    std::vector<std::vector<double>> samples(modes.size());
+    for (std::size_t k = 0; k < modes.size(); ++k)
+        if (!shapes[k].empty()) shape_samples(shapes[k], count, samples[k]);
+    double worst = 0.0;
+    for (std::size_t n = 0; n < count; ++n) {
+        double want = x[n];
+        for (std::size_t k = 0; k < modes.size(); ++k) want -= mode_sample(modes[k], shapes[k].empty() ? nullptr : &samples[k], n);
+        worst = std::max(worst, std::abs(double(r[n]) - want));
+    }
+    CAPTURE(worst);
+    // Tolerance: float storage of samples under 1 (2^-24 relative, 6e-8), with room.
+    CHECK(worst < 2e-7);
+}
+
+TEST_CASE("band_energy_left gives the band's energy of the residual plus the mode, and of the mode, as its DFT bins do",
+          "[modes][residual]") {
+    const std::size_t count = 6615;
+    splitmix64 rng{19};
+    std::vector<float> r(count);
+    for (float& v : r) v = static_cast<float>(0.05 * rng.uniform_pm1());
+    const damped_mode m{.freq_hz = 523.3, .decay_per_s = 40.0, .amp = std::polar(0.3, -1.1)};
+    const note_spectrum spectrum(r, fs);
+    const auto size = static_cast<std::size_t>(spectrum.fft_size());
+    const double low_hz = 490.0, high_hz = 560.0;
+    const band_energies e = band_energy_left(spectrum, count, fs, m, low_hz, high_hz);
+    // The bins energy_between counts, by the DFT's defining sum over the zero-padded signal.
+    const double bin_hz = fs / static_cast<double>(size);
+    double left = 0.0, own = 0.0;
+    for (auto k = static_cast<std::size_t>(std::ceil(low_hz / bin_hz)); k <= static_cast<std::size_t>(std::floor(high_hz / bin_hz)); ++k) {
+        std::complex<double> with{}, alone{};
+        for (std::size_t n = 0; n < count; ++n) {
+            const std::complex<double> w = std::polar(1.0, -two_pi * static_cast<double>(k * n % size) / static_cast<double>(size));
+            const double mode_n = mode_sample(m, nullptr, n);
+            with += (double(r[n]) + mode_n) * w;
+            alone += mode_n * w;
+        }
+        left += std::norm(with);
+        own += std::norm(alone);
+    }
+    left *= 2.0 / static_cast<double>(size), own *= 2.0 / static_cast<double>(size);
+    CAPTURE(e.left, left, e.mode, own);
+    REQUIRE(own > 0.0);
+    // Tolerance: the residual's bins come from a float FFT (relative error ~1e-6 of the band).
+    CHECK(std::abs(e.mode - own) <= 1e-9 * own);
+    CHECK(std::abs(e.left - left) <= 1e-4 * left);
+}
