@@ -13,6 +13,7 @@
 #include "analysis/noise_model.hpp"
 #include "analysis/onset_refine.hpp"
 #include "core/analysis_error.hpp"
+#include "core/patch_numbers.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "pitch/root.hpp"
 #include "spectrum/window.hpp"
@@ -143,6 +144,15 @@ int segment_count(const patch& p) {
     return count;
 }
 
+/// The segments the file cannot hold apart (core/patch_numbers.hpp): joined envelopes can end two
+/// segments within its time precision of each other.
+void drop_unwritable_segments(analysis_result& out) {
+    int dropped = 0;
+    for (partial& q : out.value.partials) dropped += patch_numbers::drop_unwritable_segments(q.env);
+    for (noise_band& b : out.value.noise) dropped += patch_numbers::drop_unwritable_segments(b.env);
+    if (dropped > 0) out.summary.segments = segment_count(out.value);
+}
+
 /// The early pitch glides (analysis/onset_glide.hpp) on the recording from the patch's onset
 /// (the modes' start, where its phases count from); how many partials glide.
 int glides_from_onset(analysis_result& out, std::span<const float> part, double sample_rate_hz,
@@ -249,6 +259,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     done("noise model");
     apply_recording_end(out, part, sample_rate_hz, fitted, params);
     canonicalize(p);
+    drop_unwritable_segments(out);
     done("recording end");
     if (params.match_peak) {
         const auto onset = static_cast<std::size_t>(std::llround(tracker_onset_s * sample_rate_hz));

@@ -163,6 +163,24 @@ void round_to_file_precision(patch& p) {
     }
 }
 
+int drop_unwritable_segments(envelope& env) {
+    const auto as_written = [](double t) { return rounded(t, fmt_time); };
+    double previous_s = as_written(env.attack_s);
+    int dropped = 0;
+    for (std::size_t k = 0; k < env.decay.size();) {
+        const auto& until_s = env.decay[k].until_s;
+        if (!until_s || env.decay.size() == 1) break;  // the last segment runs to the end; one stays
+        if (as_written(*until_s) > previous_s) {
+            previous_s = as_written(*until_s);
+            ++k;
+            continue;
+        }
+        env.decay.erase(env.decay.begin() + static_cast<std::ptrdiff_t>(k));
+        ++dropped;
+    }
+    return dropped;
+}
+
 /// Shortest round-trip text of a number, for messages.
 std::string show(double v) {
     if (std::isnan(v)) return "nan";

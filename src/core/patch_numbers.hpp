@@ -37,6 +37,15 @@ std::string fmt_rate(double v);
 /// model the writer would write: parse(format(p)) == p for every patch the reader returns.
 void round_to_file_precision(patch& p);
 
+/// Drops every decay segment of env whose end, rounded to the file's time precision (fmt_time,
+/// 0.1 ms), is not after the breakpoint before it (the attack's end or the previous kept end, also
+/// rounded): the segment after it starts at that breakpoint instead. Such a segment lasts under
+/// 0.1 ms, so the level after it moves by at most |its slope - the next one's| x 0.1 ms (0.1 dB
+/// for a 1000 dB/s difference); written as it was, the file would hold two equal breakpoints and
+/// fail to load. Returns how many segments were dropped. For the analysis, whose joined
+/// envelopes can put two breakpoints that close.
+int drop_unwritable_segments(envelope& env);
+
 /// Shortest round-trip text of a number, for messages.
 std::string show(double v);
 
