@@ -17,5 +17,6 @@ void keep_freed_memory_for_reuse();
 
 inline constexpr int reused_block_bytes = 4 << 20;
 inline constexpr int kept_free_bytes = 16 << 20;
+static_assert(kept_free_bytes >= reused_block_bytes, "a freed block at the heap's top must not be trimmed away at once");
 
 }  // namespace wane
