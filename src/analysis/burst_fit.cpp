@@ -59,7 +59,10 @@ struct decay_spread {
         step = std::exp(-rate_per_s * window_s / static_cast<double>(w.x.size()));
         double decay = std::exp(-rate_per_s * (w.x[0] - 0.5) * window_s);
         double weighted = 0.0;
-        for (std::size_t j = 0; j < w.x.size(); ++j, decay *= step) weighted += w.w2[j] * decay;
+        for (std::size_t j = 0; j < w.x.size(); ++j) {
+            weighted += w.w2[j] * decay;
+            decay *= step;
+        }
         spread_db = power_to_db(weighted / w.total);
     }
 };
