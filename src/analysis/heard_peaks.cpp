@@ -4,7 +4,6 @@
 #include <cassert>
 #include <cmath>
 #include <complex>
-#include <deque>
 #include <vector>
 
 #include "core/units.hpp"
@@ -140,19 +139,15 @@ double envelope_span_amplitude(const envelope& env, const span_spectrum& s) {
     return sum / wsum;
 }
 
-/// Whether value < factor times the median of s.mag over [low_hz, high_hz] (the middle one,
-/// index size / 2 in order, of the bins from low_hz / bin_hz to high_hz / bin_hz), factor > 0.
-/// factor v rounds monotonically in v, so the values v with factor v <= value are the smallest
-/// ones, and the median is among them exactly when there are more than size / 2 of them: one
-/// count, no copy or selection (the same answer as comparing with the median itself).
-bool under_median_times(const span_spectrum& s, double low_hz, double high_hz, double factor, double value) {
-    assert(factor > 0.0);
+/// Median of s.mag over [low_hz, high_hz].
+double median_mag(const span_spectrum& s, double low_hz, double high_hz) {
     const auto last = s.mag.size() - 1;
     const auto lo = std::min(last, static_cast<std::size_t>(std::max(0.0, low_hz / s.bin_hz)));
     const auto hi = std::min(last, static_cast<std::size_t>(std::max(0.0, high_hz / s.bin_hz)));
-    std::size_t at_most = 0;  // values v with factor v <= value
-    for (std::size_t k = lo; k <= hi; ++k) at_most += static_cast<std::size_t>(factor * s.mag[k] <= value);
-    return at_most <= (hi - lo + 1) / 2;
+    std::vector<double> v(s.mag.begin() + static_cast<std::ptrdiff_t>(lo), s.mag.begin() + static_cast<std::ptrdiff_t>(hi) + 1);
+    const auto mid = v.begin() + static_cast<std::ptrdiff_t>(v.size() / 2);
+    std::nth_element(v.begin(), mid, v.end());
+    return *mid;
 }
 
 }  // namespace
@@ -207,26 +202,27 @@ std::vector<std::size_t> partial_like_peaks(const span_spectrum& s, const heard_
     const double capture_hz = capture_hz_of(s, params);
     const auto isolation = static_cast<std::ptrdiff_t>(std::ceil(params.add_isolation_reaches * capture_hz / s.bin_hz));
     const auto n = static_cast<std::ptrdiff_t>(s.mag.size());
-    // The local maxima (over the previous bin, at least the next one) that nothing within
-    // +-isolation bins stands over: the highest bin of [lo, hi] by a running maximum over the
-    // window as it moves up (a deque of the bins that may still be a window's highest, falling
-    // magnitudes from its front), one pass.
+    // The local maxima (over the previous bin, at least the next one), lowest first. The highest
+    // point of a stretch [lo, hi] is one of them or an end: its first occurrence rises from its
+    // left neighbour and does not fall short of its right one.
+    std::vector<std::size_t> maxima;
+    for (std::ptrdiff_t k = 1; k + 1 < n; ++k) {
+        const auto u = static_cast<std::size_t>(k);
+        if (s.mag[u] > s.mag[u - 1] && s.mag[u] >= s.mag[u + 1]) maxima.push_back(u);
+    }
     std::vector<std::size_t> peaks;
     double top = 0.0;
     const auto first = static_cast<std::size_t>(std::ceil(lowest_hz / s.bin_hz));
-    std::deque<std::size_t> highest;  // bins, magnitudes falling from the front
-    std::size_t next = 0;             // the next bin to enter the window
-    for (std::ptrdiff_t k = 1; k + 1 < n; ++k) {
-        const auto u = static_cast<std::size_t>(k);
-        if (!(s.mag[u] > s.mag[u - 1] && s.mag[u] >= s.mag[u + 1]) || u < first) continue;
+    std::size_t from = 0;  // the first local maximum at or past lo (lo only grows)
+    for (const std::size_t u : maxima) {
+        if (u < first) continue;
+        const auto k = static_cast<std::ptrdiff_t>(u);
         const auto lo = static_cast<std::size_t>(std::max<std::ptrdiff_t>(0, k - isolation));
         const auto hi = static_cast<std::size_t>(std::min(n - 1, k + isolation));
-        for (; next <= hi; ++next) {
-            while (!highest.empty() && s.mag[highest.back()] <= s.mag[next]) highest.pop_back();
-            highest.push_back(next);
-        }
-        while (highest.front() < lo) highest.pop_front();
-        if (s.mag[highest.front()] > s.mag[u]) continue;
+        while (maxima[from] < lo) ++from;
+        double highest = std::max(s.mag[lo], s.mag[hi]);
+        for (std::size_t j = from; j < maxima.size() && maxima[j] <= hi; ++j) highest = std::max(highest, s.mag[maxima[j]]);
+        if (highest > s.mag[u]) continue;
         peaks.push_back(u);
         top = std::max(top, s.mag[u]);
     }
@@ -234,7 +230,7 @@ std::vector<std::size_t> partial_like_peaks(const span_spectrum& s, const heard_
     const double clear = std::pow(10.0, params.add_clear_db / 20.0);
     std::erase_if(peaks, [&](std::size_t k) {
         const double f = static_cast<double>(k) * s.bin_hz;
-        return s.mag[k] < top * within || under_median_times(s, f - params.add_floor_hz, f + params.add_floor_hz, clear, s.mag[k]);
+        return s.mag[k] < top * within || s.mag[k] < clear * median_mag(s, f - params.add_floor_hz, f + params.add_floor_hz);
     });
     std::sort(peaks.begin(), peaks.end(), [&](std::size_t a, std::size_t b) { return s.mag[a] > s.mag[b]; });
     return peaks;
