@@ -3,6 +3,7 @@
 #include <fftw3.h>
 
 #include <algorithm>
+#include <bitset>
 #include <cassert>
 #include <cstdlib>
 #include <map>
@@ -28,14 +29,22 @@ std::mutex& planner_lock() {
 /// choices for the size and its sub-problems instead of searching them: the same plan (test_spectrum
 /// compares the two), planned in 0.01-0.6 ms instead of 2-4 ms (one `wane analyze` plans about five
 /// sizes). Sizes outside the table, or wisdom FFTW refuses (another FFTW build or CPU than the one
-/// that made it), are planned as before. Call under planner_lock(), before planning the size.
+/// that made it), are planned as before. Each size's wisdom is imported once per process (an
+/// import costs 0.1-0.5 ms, more than planning a size again once FFTW holds its choices). Call
+/// under planner_lock(), before planning the size.
 void import_stored_wisdom(int size, bool inverse) {
+    constexpr std::size_t remembered = 2048;     // table entries whose import is remembered
+    static std::bitset<remembered> imported;     // guarded by planner_lock()
     const auto table = stored_fft_wisdom_table();
     const auto it = std::lower_bound(table.begin(), table.end(), std::pair(inverse, size),
                                       [](const stored_fft_wisdom& w, const std::pair<bool, int>& key) {
                                           return std::pair(w.inverse, w.size) < key;
                                       });
-    if (it != table.end() && it->size == size && it->inverse == inverse) fftwf_import_wisdom_from_string(it->text);
+    if (it == table.end() || it->size != size || it->inverse != inverse) return;
+    const auto index = static_cast<std::size_t>(it - table.begin());
+    if (index < remembered && imported[index]) return;
+    fftwf_import_wisdom_from_string(it->text);
+    if (index < remembered) imported[index] = true;
 }
 
 struct fftw_free_buffer {
