@@ -6,6 +6,7 @@
 #include <cmath>
 #include <limits>
 #include <numbers>
+#include <span>
 #include <vector>
 
 #include "core/units.hpp"
@@ -53,10 +54,16 @@ struct decay_spread {
     double step = 0.0;
     decay_spread() = default;
     decay_spread(const window_power& w, double window_s, double t60_s) : rate_per_s(2.0 * ln1000 / t60_s) {
-        double weighted = 0.0;
-        for (std::size_t j = 0; j < w.x.size(); ++j) weighted += w.w2[j] * std::exp(-rate_per_s * (w.x[j] - 0.5) * window_s);
-        spread_db = power_to_db(weighted / w.total);
+        // The points are evenly spaced (window_power: x_j = (j + 1/2) / n), so exp(-k (x_j - 1/2) W)
+        // is the first point's times step^j (a relative error of about j ulps, j < 64).
         step = std::exp(-rate_per_s * window_s / static_cast<double>(w.x.size()));
+        double decay = std::exp(-rate_per_s * (w.x[0] - 0.5) * window_s);
+        double weighted = 0.0;
+        for (std::size_t j = 0; j < w.x.size(); ++j) {
+            weighted += w.w2[j] * decay;
+            decay *= step;
+        }
+        spread_db = power_to_db(weighted / w.total);
     }
 };
 
@@ -113,6 +120,40 @@ struct framed_burst {
         return weighted > 0.0 ? power_to_db(weighted / wp->total) : -infinity;
     }
     [[nodiscard]] double db(double centre_s) const { return db(centre_s, head_of(centre_s)); }
+    /// The frames' powers (db_to_power of db(), without the trip through dB) at centres
+    /// (first + i) hop_s, i < out.size(), heads[i] their heads: a frame wholly in the decay is the
+    /// one before it times exp(-k hop), from 10^(spread_db / 10) exp(-k (centre - decay start)) at
+    /// the first such frame (relative error about i ulps against db_to_power of db()).
+    void powers(std::size_t first, double hop_s, std::span<const head> heads, std::span<double> out) const {
+        const double decay_from_s = attack_s + hold_s;
+        double decay_power = -1.0;  // the last decay frame's power, once one is reached
+        const double decay_ratio = std::exp(-rate_per_s * hop_s);
+        for (std::size_t i = 0; i < out.size(); ++i) {
+            const double centre_s = static_cast<double>(first + i) * hop_s;
+            if (centre_s - 0.5 * window_s < decay_from_s) {
+                out[i] = frame_power(centre_s, heads[i]);
+                continue;
+            }
+            decay_power = decay_power < 0.0 ? db_to_power(spread_db) * std::exp(-rate_per_s * (centre_s - decay_from_s))
+                                            : decay_power * decay_ratio;
+            out[i] = decay_power;
+        }
+    }
+
+private:
+    /// The power of a frame not wholly in the decay (db()'s point by point sum, as a power).
+    [[nodiscard]] double frame_power(double centre_s, const head& h) const {
+        const double decay_from_s = attack_s + hold_s;
+        const double start_s = centre_s - 0.5 * window_s;
+        double weighted = h.weighted;
+        double decay = -1.0;
+        for (std::size_t j = h.first_decay; j < wp->x.size(); ++j) {
+            const double t = start_s + wp->x[j] * window_s;
+            decay = decay < 0.0 ? std::exp(-rate_per_s * (t - decay_from_s)) : decay * step;
+            weighted += wp->w2[j] * decay;
+        }
+        return weighted > 0.0 ? weighted / wp->total : 0.0;
+    }
 };
 
 /// Each frame's head (framed_burst::head_of) for one attack and hold, frames [first, first + size).
@@ -140,9 +181,9 @@ burst_error error_of(const burst_frames& f, std::span<const double> smoothed, co
     const std::size_t last = std::min(f.level_db.size(), end + 1);
     // Each frame's model power once (smoothed_db's terms: the same sums, a third of the powers).
     std::array<double, max_fit_frames + 2> model_power{};
-    for (std::size_t j = f.first; j < last; ++j)
-        model_power[j - f.first] = db_to_power(model.db(static_cast<double>(j) * f.hop_s, heads[j - f.first]));
     const std::size_t count = last - f.first;
+    model.powers(f.first, f.hop_s, std::span(heads).first(count),
+                 std::span(model_power).first(count));
     double sum = 0.0, sum_sq = 0.0;
     const auto n = static_cast<double>(end - f.first);
     for (std::size_t i = f.first; i < end; ++i) {

@@ -38,14 +38,36 @@ struct window_power {
     std::array<double, window_points> w2{};
 };
 
+/// The window's mean of env's power around centre_s, dB. Within a decay piece the power at the
+/// next point is the one before times 10^(slope dx / 10), dx the points' spacing in seconds: exact
+/// (power_at) at the first point of each piece, a relative error of a few hundred ulps at most
+/// after (256 points), against a power of ten per point.
 double framed_level_db(const envelope& env, std::span<const envelope_piece> pieces, const window_power& power,
                        double window_s, double centre_s) {
     double weighted = 0.0, total = 0.0;
+    const double dx_s = window_s / window_points;
+    std::size_t piece = pieces.size();  // the piece of the previous point (none: pieces.size())
+    double p_prev = 0.0, ratio = 1.0;
     for (int k = 0; k < window_points; ++k) {
         const double x = (k + 0.5) / window_points;  // position in the window, [0, 1]
         const double w2 = power.w2[static_cast<std::size_t>(k)];
         total += w2;
-        weighted += w2 * power_at(env, pieces, centre_s + (x - 0.5) * window_s);
+        const double t = centre_s + (x - 0.5) * window_s;
+        std::size_t now = pieces.size();
+        if (t >= 0.0 && t >= env.attack_s) {
+            now = piece < pieces.size() ? piece : 0;
+            while (now < pieces.size() && t >= pieces[now].end_s) ++now;
+        }
+        double p = 0.0;
+        if (now < pieces.size() && now == piece) {
+            p = p_prev * ratio;
+        } else {
+            p = power_at(env, pieces, t);
+            if (now < pieces.size()) ratio = std::pow(10.0, 0.1 * pieces[now].slope_db_per_s * dx_s);
+        }
+        piece = now;
+        p_prev = p;
+        weighted += w2 * p;
     }
     return weighted > 0.0 ? 10.0 * std::log10(weighted / total) : -infinity;
 }

@@ -26,9 +26,24 @@ span_spectrum spectrum_over(std::span<const float> note, double fs, double start
     const int size = fast_fft_size(zero_padding * static_cast<int>(n));
     std::vector<float> buffer(n);  // the windowed span; real_fft pads it with zeros to size
     double wsum = 0.0;
+    // cos(2 pi i / n) exact at every exact_every-th sample, between them rotated on by one step
+    // (a few ulps off at most): one cosine and sine per exact_every samples.
+    constexpr std::size_t exact_every = 16;
+    const double step = two_pi / static_cast<double>(n);
+    const double cos_step = std::cos(step), sin_step = std::sin(step);
+    double c = 1.0, s_i = 0.0;
     for (std::size_t i = 0; i < n; ++i) {
+        if (i % exact_every == 0) {
+            const double angle = two_pi * static_cast<double>(i) / static_cast<double>(n);
+            c = std::cos(angle);
+            s_i = std::sin(angle);
+        } else {
+            const double next_c = c * cos_step - s_i * sin_step;
+            s_i = s_i * cos_step + c * sin_step;
+            c = next_c;
+        }
         // Hann: w = 0.5 - 0.5 cos(2 pi i / n) (periodic form)
-        const double w = 0.5 - 0.5 * std::cos(two_pi * static_cast<double>(i) / static_cast<double>(n));
+        const double w = 0.5 - 0.5 * c;
         buffer[i] = static_cast<float>(w * static_cast<double>(note[a + i]));
         wsum += w;
     }
@@ -115,10 +130,11 @@ double capture_hz_of(const span_spectrum& s, const heard_peak_params& params) {
 double envelope_span_amplitude(const envelope& env, const span_spectrum& s) {
     constexpr int steps = 200;
     double sum = 0.0, wsum = 0.0;
+    const std::vector<envelope_piece> pieces = envelope_pieces(env);  // made once, not per point
     for (int j = 1; j < steps; ++j) {
         const double u = static_cast<double>(j) / steps;
         const double w = 0.5 - 0.5 * std::cos(two_pi * u);
-        sum += w * envelope_amp(env, s.start_s + u * (s.end_s - s.start_s)).lin;
+        sum += w * envelope_amp(env, pieces, s.start_s + u * (s.end_s - s.start_s)).lin;
         wsum += w;
     }
     return sum / wsum;

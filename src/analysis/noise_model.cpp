@@ -130,9 +130,10 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
         const std::size_t end = t.level_db.size() - half_window;
         std::size_t first = half_window;
         if (attack) {
+            const std::vector<envelope_piece> pieces = envelope_pieces(attack->band.env);
             while (first + 2 < end &&
                    static_cast<double>(first) * t.hop_s <= attack->fit_end_s &&
-                   envelope_level(attack->band.env, static_cast<double>(first) * t.hop_s).db >
+                   envelope_level(attack->band.env, pieces, static_cast<double>(first) * t.hop_s).db >
                        static_cast<double>(t.level_db[first]) - 3.0)
                 ++first;
         }
@@ -226,9 +227,10 @@ envelope held_to_measured(envelope env, const noise_band_track& t, std::size_t f
     assert(first <= end && end <= t.level_db.size());
     double measured_db = -std::numeric_limits<double>::infinity();
     double fitted_db = -std::numeric_limits<double>::infinity();
+    const std::vector<envelope_piece> pieces = envelope_pieces(env);
     for (std::size_t i = first; i < end; ++i) {
         measured_db = std::max(measured_db, static_cast<double>(t.level_db[i]));
-        fitted_db = std::max(fitted_db, envelope_level(env, static_cast<double>(i) * t.hop_s).db);
+        fitted_db = std::max(fitted_db, envelope_level(env, pieces, static_cast<double>(i) * t.hop_s).db);
     }
     if (fitted_db > measured_db + floor_runaway_db) env.peak = level_db{env.peak.db - (fitted_db - measured_db)};
     return env;

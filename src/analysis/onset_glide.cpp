@@ -59,15 +59,31 @@ void sum_blocks(std::span<const double> y, const partial& q, double gain_lin, do
     const std::vector<envelope_piece> pieces = envelope_pieces(q.env);
     const double peak_lin = to_amp(q.env.peak).lin;
     std::size_t piece = 0;
+    // The decay's amplitude: exact at a block's first sample and where a piece starts, then the
+    // sample before times the piece's ratio per sample, 10^(slope / fs / 20) (a relative error of
+    // a few ulps over a block, against one power per sample).
+    double decay_amp = -1.0;  // the previous sample's (none: -1)
+    double step_ratio = 1.0;
     const auto amp_at = [&](double t) {
-        if (t < q.env.attack_s) return peak_lin * t / q.env.attack_s;
+        if (t < q.env.attack_s) {
+            decay_amp = -1.0;
+            return peak_lin * t / q.env.attack_s;
+        }
+        const std::size_t was = piece;
         while (piece + 1 < pieces.size() && t >= pieces[piece].end_s) ++piece;
         const envelope_piece& e = pieces[piece];
-        return to_amp(level_db{e.start_level.db + e.slope_db_per_s * (t - e.start_s)}).lin;
+        if (decay_amp < 0.0 || piece != was) {
+            decay_amp = to_amp(level_db{e.start_level.db + e.slope_db_per_s * (t - e.start_s)}).lin;
+            step_ratio = to_amp(level_db{e.slope_db_per_s / rate_hz}).lin;
+        } else {
+            decay_amp *= step_ratio;
+        }
+        return decay_amp;
     };
     for (std::size_t b0 = 0; b0 + block <= y.size(); b0 += block) {
         const double centre = static_cast<double>(b0) + 0.5 * static_cast<double>(block - 1);
         cplx zf{}, z1f{}, zs{}, z1s{};
+        decay_amp = -1.0;  // exact again at each block's start
         for (std::size_t n = b0; n < b0 + block; ++n) {
             const double t = static_cast<double>(n) / rate_hz;
             const double a = gain_lin * amp_at(t);

@@ -39,10 +39,11 @@ std::vector<double> copy_start(const patch& p, double sample_rate_hz, std::size_
     std::vector<double> out(count, 0.0);
     for (const partial& original : p.partials) {
         const partial q = with_rise(original, rise_s);
+        const std::vector<envelope_piece> pieces = envelope_pieces(q.env);  // made once, not per sample
         for (std::size_t n = 0; n < count; ++n) {
             const double t = static_cast<double>(n) / sample_rate_hz;
             const double glide_rad = glide_phase_offset_rad(q.freq_hz, q.glide_cents, q.glide_s, t);
-            out[n] += envelope_amp(q.env, t).lin * std::cos(two_pi * q.freq_hz * t + q.phase_rad + glide_rad);
+            out[n] += envelope_amp(q.env, pieces, t).lin * std::cos(two_pi * q.freq_hz * t + q.phase_rad + glide_rad);
         }
     }
     return out;

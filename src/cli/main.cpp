@@ -69,6 +69,7 @@ namespace {
 int run_main(int argc, char** argv) {
     using namespace wane::cli;
     wane::keep_freed_memory_for_reuse();
+    wane::back_heap_with_huge_pages();
     wane::install_interrupt_cleanup();
     CLI::App app{"wane: analyze a plucked or struck note into an editable patch of damped partials, "
                  "and render faithful copies and variants from it.",

@@ -26,22 +26,31 @@ std::vector<envelope_piece> envelope_pieces(const envelope& env) {
     return pieces;
 }
 
-level_db envelope_level(const envelope& env, double time_s) {
+level_db envelope_level(const envelope& env, std::span<const envelope_piece> pieces, double time_s) {
     if (time_s < 0.0) return level_db{-infinity};
     if (time_s < env.attack_s) {
         return to_level(amp_lin{to_amp(env.peak).lin * time_s / env.attack_s});
     }
-    const auto pieces = envelope_pieces(env);
     for (const envelope_piece& p : pieces) {
         if (time_s < p.end_s) return level_db{p.start_level.db + p.slope_db_per_s * (time_s - p.start_s)};
     }
     return level_db{-infinity};  // unreachable for a valid envelope: the last piece ends at +inf
 }
 
-amp_lin envelope_amp(const envelope& env, double time_s) {
+level_db envelope_level(const envelope& env, double time_s) {
+    if (time_s < env.attack_s) return envelope_level(env, {}, time_s);  // no pieces needed
+    return envelope_level(env, envelope_pieces(env), time_s);
+}
+
+amp_lin envelope_amp(const envelope& env, std::span<const envelope_piece> pieces, double time_s) {
     if (time_s < 0.0) return amp_lin{0.0};
     if (time_s < env.attack_s) return amp_lin{to_amp(env.peak).lin * time_s / env.attack_s};
-    return to_amp(envelope_level(env, time_s));
+    return to_amp(envelope_level(env, pieces, time_s));
+}
+
+amp_lin envelope_amp(const envelope& env, double time_s) {
+    if (time_s < env.attack_s) return envelope_amp(env, {}, time_s);  // no pieces needed
+    return envelope_amp(env, envelope_pieces(env), time_s);
 }
 
 envelope held_before(const envelope& env, double from_s) {

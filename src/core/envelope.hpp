@@ -6,6 +6,7 @@
 #pragma once
 
 #include <optional>
+#include <span>
 #include <vector>
 
 #include "core/units.hpp"
@@ -43,6 +44,11 @@ level_db envelope_level(const envelope& env, double time_s);
 
 /// Linear amplitude at time_s: 10^(level/20), or the attack's linear ramp.
 amp_lin envelope_amp(const envelope& env, double time_s);
+
+/// The same two with env's pieces made once by the caller (pieces = envelope_pieces(env)): for
+/// loops over many times, which would otherwise make them (and allocate) at every call.
+level_db envelope_level(const envelope& env, std::span<const envelope_piece> pieces, double time_s);
+amp_lin envelope_amp(const envelope& env, std::span<const envelope_piece> pieces, double time_s);
 
 /// env with its level before from_s held at its level at from_s where the line run back from
 /// from_s would stand higher (a decay measured only from from_s on, not extrapolated up towards

@@ -87,16 +87,16 @@ std::vector<double> level_roughness_db(const std::vector<track_point>& pts) {
 
 /// Level offset to the power mean: the dB line is the geometric mean of the frames (for beating
 /// modes, the stronger mode's level); the power mean keeps the partial's energy.
-/// offset = 10 log10(sum w 10^(r / 10) / sum w), r = level - line (clipped above), over the m
-/// frames from `first`.
+/// offset = 10 log10(sum w 10^(r / 10) / sum w), r = level - line (clipped above), over the
+/// frames of level, time and noise_db (each frame's noise_sigma_db of its expected excess).
 double power_mean_offset_db(const envelope& env, std::span<const double> level, std::span<const double> time,
-                            std::span<const double> expected_excess_db, std::size_t first, std::size_t m) {
+                            std::span<const double> noise_db) {
     // Reliability weights here carry a fixed model error so the strongest frames do not
     // decide alone: 1 / (offset_sigma^2 + noise^2).
     const auto pieces = envelope_pieces(env);
     double sw = 0.0, sp = 0.0;
-    for (std::size_t i = 0; i < m; ++i) {
-        const double sn = noise_sigma_db(expected_excess_db[first + i]);
+    for (std::size_t i = 0; i < level.size(); ++i) {
+        const double sn = noise_db[i];
         const double w = 1.0 / (offset_sigma_db * offset_sigma_db + sn * sn);
         const double r = level[i] - decay_level_db(pieces, time[i]);
         sp += w * db_to_power(std::min(r, max_offset_residual_db));
@@ -115,13 +115,14 @@ partial_fit fit_region(const std::vector<track_point>& pts, std::span<const doub
     // pushed up and bias the tail towards a slower decay. The level itself is used as measured:
     // for circular noise n weaker than the sinusoid A, E ln|A + n| = ln A exactly (the mean of
     // ln|1 + z| over a circle of radius < 1 is 0), so the dB level is unbiased down to the floor.
-    std::vector<double> level(m), weight(m), time(m);
+    std::vector<double> level(m), weight(m), time(m), noise_db(m);
     for (std::size_t i = 0; i < m; ++i) {
         level[i] = pts[first + i].level_db;
         time[i] = pts[first + i].time_s;
+        noise_db[i] = noise_sigma_db(expected_excess_db[first + i]);  // here and in the offset
     }
     for (std::size_t i = 0; i < m; ++i) {
-        const double sn = std::min(noise_sigma_db(expected_excess_db[first + i]), roughness_cap * rough_db[first + i]);
+        const double sn = std::min(noise_db[i], roughness_cap * rough_db[first + i]);
         weight[i] = 1.0 / (params.model_sigma_db * params.model_sigma_db + sn * sn);
     }
 
@@ -165,7 +166,7 @@ partial_fit fit_region(const std::vector<track_point>& pts, std::span<const doub
         if (j + 1 < k) seg.until_s = lines.knots_s[j];
         env.decay.push_back(seg);
     }
-    env.peak.db += power_mean_offset_db(env, level, time, expected_excess_db, first, m);
+    env.peak.db += power_mean_offset_db(env, level, time, noise_db);
     // Fit error: plain RMS over the fitted frames.
     const auto pieces = envelope_pieces(env);
     double se = 0.0;

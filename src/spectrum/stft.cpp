@@ -3,6 +3,7 @@
 #include <fftw3.h>
 
 #include <algorithm>
+#include <bitset>
 #include <cassert>
 #include <cstdlib>
 #include <map>
@@ -10,6 +11,9 @@
 #include <mutex>
 #include <new>
 #include <numeric>
+#include <utility>
+
+#include "spectrum/fft_planning.hpp"
 
 namespace wane {
 
@@ -21,13 +25,27 @@ std::mutex& planner_lock() {
     return lock;
 }
 
-/// FFTW_ESTIMATE (no timing: the same plan every run) without the buffered solvers. The estimate
-/// planner weighs buffered variants of every sub-problem and, at every even 2-3-5 size from 16 to
-/// 400000, picks an unbuffered plan anyway (fftwf_sprint_plan identical with and without the flag):
-/// the same plan, about 12% less planning (measured over those 359 sizes: 1618 -> 1421 ms). A
-/// single `wane analyze` makes a handful of plans of new sizes at 2-10 ms each (planning is the
-/// search, not the transform). test_spectrum checks the bins bit-equal to a plain FFTW_ESTIMATE plan.
-constexpr unsigned planner_flags = FFTW_ESTIMATE | FFTW_NO_BUFFERING;
+/// Imports the stored wisdom of one size (spectrum/fft_planning.hpp) so that the planner finds its
+/// choices for the size and its sub-problems instead of searching them: the same plan (test_spectrum
+/// compares the two), planned in 0.01-0.6 ms instead of 2-4 ms (one `wane analyze` plans about five
+/// sizes). Sizes outside the table, or wisdom FFTW refuses (another FFTW build or CPU than the one
+/// that made it), are planned as before. Each size's wisdom is imported once per process (an
+/// import costs 0.1-0.5 ms, more than planning a size again once FFTW holds its choices). Call
+/// under planner_lock(), before planning the size.
+void import_stored_wisdom(int size, bool inverse) {
+    constexpr std::size_t remembered = 2048;     // table entries whose import is remembered
+    static std::bitset<remembered> imported;     // guarded by planner_lock()
+    const auto table = stored_fft_wisdom_table();
+    const auto it = std::lower_bound(table.begin(), table.end(), std::pair(inverse, size),
+                                      [](const stored_fft_wisdom& w, const std::pair<bool, int>& key) {
+                                          return std::pair(w.inverse, w.size) < key;
+                                      });
+    if (it == table.end() || it->size != size || it->inverse != inverse) return;
+    const auto index = static_cast<std::size_t>(it - table.begin());
+    if (index < remembered && imported[index]) return;
+    fftwf_import_wisdom_from_string(it->text);
+    if (index < remembered) imported[index] = true;
+}
 
 struct fftw_free_buffer {
     void operator()(float* p) const { fftwf_free(p); }
@@ -57,8 +75,9 @@ void real_fft(std::span<const float> input, int fft_size, std::span<std::complex
     fftwf_plan plan = nullptr;
     {
         const std::lock_guard<std::mutex> hold(planner_lock());
+        import_stored_wisdom(fft_size, false);
         plan = fftwf_plan_dft_r2c_1d(fft_size, in.get(), reinterpret_cast<fftwf_complex*>(spectrum.get()),  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): FFTW's complex is float[2]
-                                     planner_flags);
+                                     fft_planner_flags);
     }
     if (plan == nullptr) throw std::bad_alloc();
     std::copy(input.begin(), input.end(), in.get());
@@ -87,9 +106,11 @@ inverse_real_fft::inverse_real_fft(int fft_size) : size_(fft_size) {
     static auto* const plans = new std::map<int, fftwf_plan>();
     const std::lock_guard<std::mutex> hold(planner_lock());
     fftwf_plan& plan = (*plans)[fft_size];
-    if (plan == nullptr)
+    if (plan == nullptr) {
+        import_stored_wisdom(fft_size, true);
         plan = fftwf_plan_dft_c2r_1d(fft_size, reinterpret_cast<fftwf_complex*>(spectrum_.get()), samples_.get(),  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
-                                     planner_flags);
+                                     fft_planner_flags);
+    }
     if (plan == nullptr) throw std::bad_alloc();
     plan_ = plan;
 }
@@ -117,8 +138,9 @@ stft_plan::stft_plan(const stft_config& config)
         if (!kiss_) throw std::bad_alloc();
     } else {
         const std::lock_guard<std::mutex> hold(planner_lock());
+        import_stored_wisdom(config.fft_size, false);
         plan_ = fftwf_plan_dft_r2c_1d(config.fft_size, frame_.get(), reinterpret_cast<fftwf_complex*>(spectrum_.get()),  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
-                                      planner_flags);
+                                      fft_planner_flags);
         if (plan_ == nullptr) throw std::bad_alloc();
     }
     bins_.resize(n / 2 + 1);
