@@ -301,19 +301,29 @@ std::vector<std::size_t> linear_attacks(const onset_attack_params& params, doubl
 
 }  // namespace
 
+std::vector<double> joint_residual(std::span<const float> target, double sample_rate_hz,
+                                   std::span<const damped_mode> modes, std::span<const mode_shape> shapes) {
+    assert(shapes.size() == modes.size());
+    std::vector<double> residual(target.begin(), target.end());
+    subtract_modes(modes, shapes, sample_rate_hz, residual);
+    return residual;
+}
+
 std::vector<attack_choice> choose_attacks(std::span<const float> target, double sample_rate_hz,
                                           std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
                                           std::span<const double> energy, std::span<const std::size_t> may_rise,
                                           std::span<const std::size_t> may_swell, std::span<const attack_choice> current,
-                                          const onset_attack_params& params) {
+                                          const onset_attack_params& params, std::span<const double> joint) {
     assert(shapes.size() == modes.size() && current.size() == modes.size() && energy.size() == modes.size());
+    assert(joint.empty() || joint.size() == target.size());
     const std::size_t count = target.size();
     std::vector<attack_choice> chosen(current.begin(), current.end());
     const double signal = energy_of(target);
     if (count == 0 || signal <= 0.0 || may_rise.empty()) return chosen;
     // The residual of the joint fit, then each searched mode refitted alone on it plus its own part.
-    std::vector<double> residual(target.begin(), target.end()), scratch;
-    subtract_modes(modes, shapes, sample_rate_hz, residual);
+    std::vector<double> residual = joint.empty() ? joint_residual(target, sample_rate_hz, modes, shapes)
+                                                 : std::vector<double>(joint.begin(), joint.end());
+    std::vector<double> scratch;
     // The searched modes by their energy over the span, the strongest first.
     std::vector<std::pair<double, std::size_t>> order;
     for (const std::size_t i : may_rise) order.emplace_back(energy[i], i);
