@@ -82,6 +82,7 @@ struct decomposition {
     Eigen::Index dim = 0;
     Eigen::Tridiagonalization<cmatrix> tri;  ///< without vectors (esprit_poles_by_order)
     hermitian_tridiagonal own;               ///< with vectors (esprit_poles)
+    Eigen::MatrixXd vectors;                 ///< with vectors: T's eigenvectors (tridiagonal_eigen)
     Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig;
     Eigen::VectorXd values;
     bool ok = false;
@@ -117,20 +118,21 @@ void decompose(std::span<const std::complex<double>> y, int dimension, decomposi
         std::vector<double> re(size), im(size);
         for (std::size_t k = 0; k < size; ++k) re[k] = cov(static_cast<Eigen::Index>(k)).real() / scale, im[k] = cov(static_cast<Eigen::Index>(k)).imag() / scale;
         out.own = tridiagonalize(std::move(re), std::move(im), static_cast<std::size_t>(dim));
-        out.eig.computeFromTridiagonal(out.own.diag, out.own.sub, Eigen::ComputeEigenvectors);
+        if (!tridiagonal_eigen(out.own.diag, out.own.sub, out.values, out.vectors)) return;
+        out.values *= scale;  // ascending
     } else {
         out.tri.compute(cov / scale);
         out.eig.computeFromTridiagonal(out.tri.diagonal(), out.tri.subDiagonal(), Eigen::EigenvaluesOnly);
+        if (out.eig.info() != Eigen::Success) return;
+        out.values = out.eig.eigenvalues() * scale;  // ascending
     }
-    if (out.eig.info() != Eigen::Success) return;
-    out.values = out.eig.eigenvalues() * scale;  // ascending
     out.ok = out.values(dim - 1) > 0.0;
 }
 
 /// The poles of the subspace of the `order` largest eigenvalues (0 < order < dim).
 std::vector<std::complex<double>> poles_of_order(const decomposition& dec, int order) {
     std::vector<double> u_re, u_im;
-    apply_q(dec.own, dec.eig.eigenvectors().rightCols(order), u_re, u_im);
+    apply_q(dec.own, dec.vectors.rightCols(order), u_re, u_im);
     cmatrix u(dec.dim, order);
     for (Eigen::Index r = 0; r < dec.dim; ++r)
         for (Eigen::Index c = 0; c < order; ++c) {

@@ -2,6 +2,10 @@
 
 #include <cassert>
 #include <cmath>
+#include <limits>
+#include <utility>
+
+#include <Eigen/Jacobi>
 
 #include "synthesis/kernel_clones.hpp"
 
@@ -85,7 +89,94 @@ void reflect_rows(double* __restrict re, double* __restrict im, std::size_t rows
     }
 }
 
+/// Columns x, y (count entries each) <- (c x + ms y, c y - ms x): Eigen's rotation in the plane of
+/// two columns (applyOnTheRight with a rotation (c, s), ms = -s), the same two products and one
+/// sum per entry as its scalar and packet loops.
+WANE_KERNEL_CLONES
+void rotate_columns(double* __restrict x, double* __restrict y, std::size_t count, double c, double ms) {
+    for (std::size_t i = 0; i < count; ++i) {
+        const double xi = x[i], yi = y[i];
+        x[i] = c * xi + ms * yi;
+        y[i] = c * yi - ms * xi;
+    }
+}
+
+/// One implicit QR step with Wilkinson's shift on rows start .. end of the tridiagonal matrix
+/// (Eigen's internal::tridiagonal_qr_step, written out), the rotations applied to q's columns.
+void tridiagonal_qr_step(Eigen::VectorXd& diag, Eigen::VectorXd& sub, Eigen::Index start, Eigen::Index end, Eigen::MatrixXd& q) {
+    const double td = (diag[end - 1] - diag[end]) * 0.5;
+    const double e = sub[end - 1];
+    double mu = diag[end];
+    if (td == 0.0) {
+        mu -= std::abs(e);
+    } else if (e != 0.0) {
+        const double e2 = e * e;
+        const double h = Eigen::numext::hypot(td, e);  // Eigen's, not std::hypot (another rounding)
+        if (e2 == 0.0) {
+            mu -= e / ((td + (td > 0.0 ? h : -h)) / e);
+        } else {
+            mu -= e2 / (td + (td > 0.0 ? h : -h));
+        }
+    }
+    double x = diag[start] - mu;
+    double z = sub[start];
+    for (Eigen::Index k = start; k < end && z != 0.0; ++k) {
+        Eigen::JacobiRotation<double> rot;
+        rot.makeGivens(x, z);
+        const double c = rot.c(), s = rot.s();
+        const double sdk = s * diag[k] + c * sub[k];
+        const double dkp1 = s * sub[k] + c * diag[k + 1];
+        diag[k] = c * (c * diag[k] - s * sub[k]) - s * (c * sub[k] - s * diag[k + 1]);
+        diag[k + 1] = s * sdk + c * dkp1;
+        sub[k] = c * sdk - s * dkp1;
+        if (k > start) sub[k - 1] = c * sub[k - 1] - s * z;
+        x = sub[k];
+        if (k < end - 1) {
+            z = -s * sub[k + 1];
+            sub[k + 1] = c * sub[k + 1];
+        }
+        if (!(c == 1.0 && s == 0.0)) rotate_columns(q.col(k).data(), q.col(k + 1).data(), static_cast<std::size_t>(q.rows()), c, -s);
+    }
+}
+
 }  // namespace
+
+bool tridiagonal_eigen(Eigen::VectorXd diag, Eigen::VectorXd sub, Eigen::VectorXd& values, Eigen::MatrixXd& vectors) {
+    const Eigen::Index n = diag.size();
+    vectors.setIdentity(n, n);
+    constexpr Eigen::Index max_iterations = 30;  // Eigen's m_maxIterations, times n
+    const double zero = std::numeric_limits<double>::min();
+    const double precision_inv = 1.0 / std::numeric_limits<double>::epsilon();
+    Eigen::Index end = n - 1, start = 0, iter = 0;
+    while (end > 0) {
+        for (Eigen::Index i = start; i < end; ++i) {
+            if (std::abs(sub[i]) < zero) {
+                sub[i] = 0.0;
+            } else {
+                const double scaled = precision_inv * sub[i];
+                if (scaled * scaled <= (std::abs(diag[i]) + std::abs(diag[i + 1]))) sub[i] = 0.0;
+            }
+        }
+        while (end > 0 && sub[end - 1] == 0.0) end--;
+        if (end <= 0) break;
+        iter++;
+        if (iter > max_iterations * n) break;
+        start = end - 1;
+        while (start > 0 && sub[start - 1] != 0.0) start--;
+        tridiagonal_qr_step(diag, sub, start, end, vectors);
+    }
+    if (iter > max_iterations * n) return false;
+    for (Eigen::Index i = 0; i < n - 1; ++i) {  // ascending, as Eigen sorts them
+        Eigen::Index k = 0;
+        diag.segment(i, n - i).minCoeff(&k);
+        if (k > 0) {
+            std::swap(diag[i], diag[k + i]);
+            vectors.col(i).swap(vectors.col(k + i));
+        }
+    }
+    values = std::move(diag);
+    return true;
+}
 
 hermitian_tridiagonal tridiagonalize(std::vector<double> a_re, std::vector<double> a_im, std::size_t n) {
     assert(a_re.size() == n * n && a_im.size() == n * n && n >= 2);

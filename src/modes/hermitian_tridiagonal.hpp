@@ -28,6 +28,14 @@ struct hermitian_tridiagonal {
 /// (column-major, both triangles), taken by value as work space.
 hermitian_tridiagonal tridiagonalize(std::vector<double> a_re, std::vector<double> a_im, std::size_t n);
 
+/// The eigenvalues (ascending, into values) and eigenvectors (the columns of vectors, n x n) of
+/// the symmetric tridiagonal matrix (diag, sub): Eigen's SelfAdjointEigenSolver::
+/// computeFromTridiagonal step for step (implicit QR steps with Wilkinson's shift, its deflation
+/// test and iteration limit, its sort), the rotations gathered into the vectors by a loop of its
+/// own (the same products and sums per entry, the entries side by side). False when the steps did
+/// not converge.
+bool tridiagonal_eigen(Eigen::VectorXd diag, Eigen::VectorXd sub, Eigen::VectorXd& values, Eigen::MatrixXd& vectors);
+
 /// Q v (n x cols, v real, column-major) as real and imaginary parts, row-major (row r at r cols).
 void apply_q(const hermitian_tridiagonal& t, const Eigen::MatrixXd& v, std::vector<double>& out_re,
              std::vector<double>& out_im);
