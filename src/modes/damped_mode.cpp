@@ -166,7 +166,10 @@ Eigen::VectorXd shape_projections(std::span<const float> x, double sample_rate_h
     }
     std::vector<std::complex<double>> sums(k_count);
     std::vector<double> weighted(x.begin(), x.end());
-    project_many(weighted, plain, rho, omega, sums);
+    // In groups of chains whatever the count: a mode's projection is then the same numbers in
+    // every fit (the memo copies it from the last fit, modes/fit_memo.hpp).
+    for (std::size_t i = 0; i < plain.size(); i += projection_group)
+        project_group(weighted, std::span(plain).subspan(i, std::min(projection_group, plain.size() - i)), rho, omega, sums);
     std::vector<double> amp;
     for (std::size_t k = 0; k < k_count; ++k) {
         if (shapes[k].empty() || known(k)) continue;
