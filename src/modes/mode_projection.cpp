@@ -126,16 +126,6 @@ void project_blocked(std::span<const double> w, std::span<const std::size_t> whi
     }
 }
 
-void project_many(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
-                  std::span<const double> omega, std::span<std::complex<double>> out) {
-    if (which.size() >= block_projection_min_modes) {
-        project_blocked(w, which, rho, omega, out);
-        return;
-    }
-    for (std::size_t i = 0; i < which.size(); i += projection_group)
-        project_group(w, which.subspan(i, std::min(projection_group, which.size() - i)), rho, omega, out);
-}
-
 void project_many(std::span<const float> x, std::span<const double> rho, std::span<const double> omega,
                   std::span<std::complex<double>> out) {
     if (rho.size() < block_projection_min_modes) {
