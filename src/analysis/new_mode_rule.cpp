@@ -42,15 +42,17 @@ std::vector<damped_mode> stable_modes(std::span<const damped_mode> candidates, s
 std::vector<damped_mode> kept_new_modes(std::span<const float> target, double sample_rate_hz,
                                         std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
                                         std::span<const double> energy, std::size_t first_new,
-                                        const onset_refine_params& params) {
+                                        const onset_refine_params& params, std::span<const double> residual) {
     assert(sample_rate_hz > 0.0 && shapes.size() == modes.size() && energy.size() == modes.size());
-    assert(first_new <= modes.size());
+    assert(first_new <= modes.size() && (residual.empty() || residual.size() == target.size()));
     std::vector<damped_mode> kept;
     if (first_new == modes.size() || target.empty()) return kept;
     double strongest = 0.0;
     for (const double e : energy) strongest = std::max(strongest, e);
     const double keep = strongest * std::pow(10.0, -params.new_mode_range_db / 10.0);
-    const note_spectrum spectrum(fit_residual(target, sample_rate_hz, modes, shapes), sample_rate_hz);
+    const std::vector<float> left = residual.empty() ? fit_residual(target, sample_rate_hz, modes, shapes)
+                                                     : std::vector<float>(residual.begin(), residual.end());
+    const note_spectrum spectrum(left, sample_rate_hz);
     for (std::size_t i = first_new; i < modes.size(); ++i) {
         const damped_mode& m = modes[i];
         assert(shapes[i].empty());  // a new mode is plain

@@ -35,10 +35,11 @@ std::vector<damped_mode> stable_modes(std::span<const damped_mode> candidates, s
 /// energy holds each mode's energy over the span. A mode stays when its energy is within
 /// new_mode_range_db of the strongest mode's, it starts no louder than full scale, and its energy
 /// in its band (main lobe, half-width max(2 cells, d / pi)) is at least new_mode_share of the
-/// band's energy of the fit's residual plus the mode.
+/// band's energy of the fit's residual plus the mode. residual: the fit's residual (target minus
+/// every mode, in double) when the caller has it (empty: fit_residual, modes/mode_residual.hpp).
 std::vector<damped_mode> kept_new_modes(std::span<const float> target, double sample_rate_hz,
                                         std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
                                         std::span<const double> energy, std::size_t first_new,
-                                        const onset_refine_params& params);
+                                        const onset_refine_params& params, std::span<const double> residual = {});
 
 }  // namespace wane

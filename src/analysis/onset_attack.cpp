@@ -12,6 +12,7 @@
 #include <Eigen/Core>
 
 #include "core/units.hpp"
+#include "modes/mode_residual.hpp"
 
 namespace wane {
 
@@ -47,48 +48,6 @@ mode_shape attack_shape(const attack_choice& choice, double rho, std::size_t cou
 }
 
 namespace {
-
-/// out[n] += sign s_i[n] Re(amp_i p_i[n]) for the group's G modes in turn, p_i[n] = exp(i omega_i n)
-/// re-anchored from the exact power every 512 samples: add_mode's arithmetic written out on real
-/// and imaginary parts (the same products and sums), the G phasor chains overlapped. With rho
-/// given (plain exponential modes) s_i[n] = exp(rho_i n) is made here as shape_samples makes it
-/// (anchored every 512 samples, then times exp(rho_i) per sample); else samples holds it.
-template <std::size_t G>
-void add_group(std::span<const std::vector<double>> samples, std::span<const double> rho, std::span<const double> omega,
-               std::span<const std::complex<double>> amp, double sign, std::vector<double>& out) {
-    // Element-wise arrays (Eigen packets): each chain's arithmetic is its own, as written.
-    using lanes = Eigen::Array<double, static_cast<int>(G), 1>;
-    lanes zr, zi, pr, pi_, ar, ai, s, ratio;
-    const bool plain = !rho.empty();
-    for (std::size_t i = 0; i < G; ++i) {
-        const std::complex<double> z = std::polar(1.0, omega[i]);
-        const auto lane = static_cast<Eigen::Index>(i);
-        zr(lane) = z.real(), zi(lane) = z.imag(), ar(lane) = amp[i].real(), ai(lane) = amp[i].imag();
-        ratio(lane) = plain ? std::exp(rho[i]) : 1.0;
-    }
-    const std::size_t count = out.size();
-    for (std::size_t start = 0; start < count; start += 512) {
-        for (std::size_t i = 0; i < G; ++i) {
-            const std::complex<double> p = std::polar(1.0, std::remainder(omega[i] * static_cast<double>(start), two_pi));
-            const auto lane = static_cast<Eigen::Index>(i);
-            pr(lane) = p.real(), pi_(lane) = p.imag();
-            if (plain) s(lane) = 1.0 * std::exp(rho[i] * static_cast<double>(start));
-        }
-        const std::size_t end = std::min(count, start + 512);
-        for (std::size_t n = start; n < end; ++n) {
-            if (!plain)
-                for (std::size_t i = 0; i < G; ++i) s(static_cast<Eigen::Index>(i)) = samples[i][n];
-            const lanes term = sign * s * (ar * pr - ai * pi_);
-            if (plain) s *= ratio;
-            double acc = out[n];
-            for (std::size_t i = 0; i < G; ++i) acc += term(static_cast<Eigen::Index>(i));
-            out[n] = acc;
-            const lanes next_r = pr * zr - pi_ * zi;
-            pi_ = pr * zi + pi_ * zr;
-            pr = next_r;
-        }
-    }
-}
 
 /// rho of a shape that is one plain exponential exp(rho n) over [0, count) (empty: the mode's own
 /// decay), which add_group makes itself; nothing for any other shape.
@@ -151,44 +110,6 @@ void add_mode(const damped_mode& m, const mode_shape& shape, double sample_rate_
     for (; b + 2 <= full; b += 2) add_blocks<2>(samples, r, omega, m.amp, sign, b, block, out);
     for (; b < full; ++b) add_blocks<1>(samples, r, omega, m.amp, sign, b, block, out);
     if (full * block < count) add_blocks<1>(samples, r, omega, m.amp, sign, full, count - full * block, out);
-}
-
-/// add_mode with sign -1 for every mode, modes_per_pass at a time: per mode and sample the same
-/// arithmetic in the same order (so the same sums), the modes' phasor chains overlapped.
-void subtract_modes(std::span<const damped_mode> modes, std::span<const mode_shape> shapes, double sample_rate_hz,
-                    std::vector<double>& out) {
-    constexpr std::size_t modes_per_pass = 4;
-    const std::size_t count = out.size();
-    std::array<std::vector<double>, modes_per_pass> samples;
-    for (std::size_t first = 0; first < modes.size(); first += modes_per_pass) {
-        const std::size_t g = std::min(modes_per_pass, modes.size() - first);
-        std::array<double, modes_per_pass> omega{}, rho{};
-        std::array<std::complex<double>, modes_per_pass> amp{};
-        bool plain = g == modes_per_pass;
-        for (std::size_t i = 0; i < g; ++i) {
-            const damped_mode& m = modes[first + i];
-            omega[i] = two_pi * m.freq_hz / sample_rate_hz;
-            const std::optional<double> own_rho = plain_rho(m, shapes[first + i], sample_rate_hz, count);
-            rho[i] = own_rho.value_or(-m.decay_per_s / sample_rate_hz);
-            amp[i] = m.amp;
-            plain = plain && own_rho.has_value();
-        }
-        // Each out[n] gets the modes' terms in mode order whatever the grouping.
-        if (plain) {
-            add_group<modes_per_pass>({}, rho, omega, amp, -1.0, out);
-            continue;
-        }
-        for (std::size_t i = 0; i < g; ++i) {
-            const mode_shape& shape = shapes[first + i];
-            shape_samples(shape.empty() ? exponential_shape(rho[i], count) : shape, count, samples[i]);
-        }
-        if (g == modes_per_pass) {
-            add_group<modes_per_pass>(samples, {}, omega, amp, -1.0, out);
-        } else {
-            for (std::size_t i = 0; i < g; ++i)
-                add_group<1>(std::span(samples).subspan(i, 1), {}, std::span(omega).subspan(i, 1), std::span(amp).subspan(i, 1), -1.0, out);
-        }
-    }
 }
 
 double energy_of(std::span<const float> x) {
@@ -301,19 +222,29 @@ std::vector<std::size_t> linear_attacks(const onset_attack_params& params, doubl
 
 }  // namespace
 
+std::vector<double> joint_residual(std::span<const float> target, double sample_rate_hz,
+                                   std::span<const damped_mode> modes, std::span<const mode_shape> shapes) {
+    assert(shapes.size() == modes.size());
+    std::vector<double> residual(target.begin(), target.end());
+    subtract_fitted_modes(residual, sample_rate_hz, modes, shapes);
+    return residual;
+}
+
 std::vector<attack_choice> choose_attacks(std::span<const float> target, double sample_rate_hz,
                                           std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
                                           std::span<const double> energy, std::span<const std::size_t> may_rise,
                                           std::span<const std::size_t> may_swell, std::span<const attack_choice> current,
-                                          const onset_attack_params& params) {
+                                          const onset_attack_params& params, std::span<const double> joint) {
     assert(shapes.size() == modes.size() && current.size() == modes.size() && energy.size() == modes.size());
+    assert(joint.empty() || joint.size() == target.size());
     const std::size_t count = target.size();
     std::vector<attack_choice> chosen(current.begin(), current.end());
     const double signal = energy_of(target);
     if (count == 0 || signal <= 0.0 || may_rise.empty()) return chosen;
     // The residual of the joint fit, then each searched mode refitted alone on it plus its own part.
-    std::vector<double> residual(target.begin(), target.end()), scratch;
-    subtract_modes(modes, shapes, sample_rate_hz, residual);
+    std::vector<double> residual = joint.empty() ? joint_residual(target, sample_rate_hz, modes, shapes)
+                                                 : std::vector<double>(joint.begin(), joint.end());
+    std::vector<double> scratch;
     // The searched modes by their energy over the span, the strongest first.
     std::vector<std::pair<double, std::size_t>> order;
     for (const std::size_t i : may_rise) order.emplace_back(energy[i], i);

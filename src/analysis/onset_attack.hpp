@@ -56,17 +56,23 @@ mode_shape rise_decay_shape(std::size_t attack_n, double rho, std::size_t count)
 /// sample, over count samples.
 mode_shape attack_shape(const attack_choice& choice, double rho, std::size_t count);
 
+/// target minus every mode (its amp as fitted, with its shape; shapes[i] empty = exponential),
+/// sample by sample in double: the residual of the joint fit that choose_attacks starts from.
+std::vector<double> joint_residual(std::span<const float> target, double sample_rate_hz,
+                                   std::span<const damped_mode> modes, std::span<const mode_shape> shapes);
+
 /// One coordinate pass over the searched modes (indices in `may_rise`, each fitted with its decay
 /// in modes[i].decay_per_s): with the other modes as fitted, the attack time from the grid (or 0)
 /// whose best complex amplitude leaves the least residual of target, or for the strongest
 /// max_rising_partials of those also in may_swell (where the recording shows a rise) an instant
 /// start that rises (attack_choice). Returns the choice per mode
 /// (instant for the modes not searched or that stay so); current gives the current choice. modes, shapes: as fitted on target (shapes[i] empty = exponential); energy:
-/// each mode's energy over the span (orders the search).
+/// each mode's energy over the span (orders the search). joint: joint_residual(target, ..,
+/// modes, shapes) when the caller has it (empty: computed here).
 std::vector<attack_choice> choose_attacks(std::span<const float> target, double sample_rate_hz,
                                           std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
                                           std::span<const double> energy, std::span<const std::size_t> may_rise,
                                           std::span<const std::size_t> may_swell, std::span<const attack_choice> current,
-                                          const onset_attack_params& params);
+                                          const onset_attack_params& params, std::span<const double> joint = {});
 
 }  // namespace wane

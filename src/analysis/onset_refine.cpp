@@ -259,7 +259,7 @@ struct fit_path {
 /// After a pass: exponential starts that came out as a slow rise (far under the STFT peak) or
 /// implausibly loud become shaped; shaped ones whose level would move by more than slow_rise_db
 /// become fixed; new modes too weak or too loud are dropped. True when anything changed.
-bool revise_roles(const patch& p, const waveform_fit& f, std::vector<role>& roles,
+bool revise_roles(const patch& p, const waveform_fit& f, std::span<const double> joint, std::vector<role>& roles,
                   std::vector<damped_mode>& new_modes, double sample_rate_hz, const onset_refine_params& params) {
     bool changed = false;
     for (std::size_t i = 0; i < f.partial_of.size(); ++i) {
@@ -274,17 +274,18 @@ bool revise_roles(const patch& p, const waveform_fit& f, std::vector<role>& role
                                part.env.attack_s <= params.max_shaped_attack_s;
         if (slow_rise || !(level0 <= std::min(part.env.peak.db + 12.0, max_peak_db))) roles[k] = role::shaped, changed = true;
     }
-    std::vector<damped_mode> kept = kept_new_modes(f.target, sample_rate_hz, f.modes, f.shapes, f.energy, f.partial_of.size(), params);
+    std::vector<damped_mode> kept = kept_new_modes(f.target, sample_rate_hz, f.modes, f.shapes, f.energy, f.partial_of.size(), params, joint);
     changed = changed || kept.size() != new_modes.size();
     new_modes = std::move(kept);
     return changed;
 }
 
-/// The attack of each exponential partial, searched on the residual of fit f (analysis/onset_attack.hpp);
-/// attacks is per partial. Alone: as if the fit had no new modes (they stay in the residual). True
-/// when any changed.
-bool update_attacks(const patch& p, const waveform_fit& f, std::span<const role> roles, double sample_rate_hz,
-                    const onset_attack_params& params, std::vector<attack_choice>& attacks, bool alone = false) {
+/// The attack of each exponential partial, searched on the residual of fit f (analysis/onset_attack.hpp;
+/// joint: f's residual, joint_residual, or empty); attacks is per partial. Alone: as if the fit had
+/// no new modes (they stay in the residual; joint is not used). True when any changed.
+bool update_attacks(const patch& p, const waveform_fit& f, std::span<const double> joint, std::span<const role> roles,
+                    double sample_rate_hz, const onset_attack_params& params, std::vector<attack_choice>& attacks,
+                    bool alone = false) {
     const std::size_t seen = alone ? f.partial_of.size() : f.modes.size();
     std::vector<std::size_t> may_rise, may_swell;
     std::vector<attack_choice> per_mode(seen);
@@ -299,7 +300,8 @@ bool update_attacks(const patch& p, const waveform_fit& f, std::span<const role>
     }
     const std::vector<attack_choice> chosen =
         choose_attacks(f.target, sample_rate_hz, std::span(f.modes).first(seen), std::span(f.shapes).first(seen),
-                       std::span(f.energy).first(seen), may_rise, may_swell, per_mode, params);
+                       std::span(f.energy).first(seen), may_rise, may_swell, per_mode, params,
+                       alone ? std::span<const double>{} : joint);
     bool changed = false;
     for (const std::size_t i : may_rise) {
         changed = changed || chosen[i] != per_mode[i];
@@ -402,14 +404,14 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
             s.f = fit_waveform(p, note, sample_rate_hz, fit_n, s.roles, decay, s.attacks, s.new_modes, pass == 0 ? &first_fit : nullptr, &memo);
             if (pass == 0) first_fit = {};  // its memory (two 2K x 2K matrices) back
             if (pass == passes - 1) return;
-            // The attacks are searched on this pass's residual and the roles revised from it; the
-            // next pass fits both.
-            const bool two_ways =
-                params.search_attacks && params.alone_attack_partials > 0 && other != nullptr && !s.new_modes.empty();
+            // The attacks are searched on this pass's residual (joint) and the roles revised from
+            // it; the next pass fits both.
+            const bool two_ways = params.search_attacks && params.alone_attack_partials > 0 && other != nullptr && !s.new_modes.empty();
             std::vector<attack_choice> alone = two_ways ? s.attacks : std::vector<attack_choice>{};
-            const bool attacks_changed = params.search_attacks && update_attacks(p, s.f, s.roles, sample_rate_hz, params.attacks, s.attacks);
-            if (two_ways) update_attacks(p, s.f, s.roles, sample_rate_hz, alone_params, alone, true);
-            const bool roles_changed = revise_roles(p, s.f, s.roles, s.new_modes, sample_rate_hz, params);
+            const std::vector<double> joint = joint_residual(s.f.target, sample_rate_hz, s.f.modes, s.f.shapes);  // for both
+            const bool attacks_changed = params.search_attacks && update_attacks(p, s.f, joint, s.roles, sample_rate_hz, params.attacks, s.attacks);
+            if (two_ways) update_attacks(p, s.f, {}, s.roles, sample_rate_hz, alone_params, alone, true);
+            const bool roles_changed = revise_roles(p, s.f, joint, s.roles, s.new_modes, sample_rate_hz, params);
             if (two_ways && alone != s.attacks && !s.new_modes.empty()) *other = fit_path{s.roles, s.new_modes, alone, {}};
             other = nullptr;
             if (!attacks_changed && !roles_changed) return;

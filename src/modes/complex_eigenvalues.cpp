@@ -7,6 +7,8 @@
 
 #include <Eigen/Dense>
 
+#include "synthesis/kernel_clones.hpp"
+
 namespace wane {
 
 namespace {
@@ -18,17 +20,31 @@ using index = Eigen::Index;
 double norm1(std::complex<double> v) { return std::abs(v.real()) + std::abs(v.imag()); }
 
 /// The rotation [x; y] <- [c x + conj(s) y; c y - s x] of two complex sequences, x and y stepped
-/// by `stride`: c real, s complex, on real and imaginary parts (the products and sums of complex
-/// arithmetic, written out).
-void rotate(std::complex<double>* x, std::complex<double>* y, index count, index stride, double c,
-            std::complex<double> s) {
-    const double sr = s.real(), si = s.imag();
-    for (index k = 0; k < count; ++k, x += stride, y += stride) {
-        const double xr = x->real(), xi = x->imag(), yr = y->real(), yi = y->imag();
-        *x = {c * xr + (sr * yr + si * yi), c * xi + (sr * yi - si * yr)};
-        *y = {c * yr - (sr * xr - si * xi), c * yi - (sr * xi + si * xr)};
+/// by `stride` complex entries (as re, im pairs): c real, s complex, on real and imaginary parts
+/// (the products and sums of complex arithmetic, written out). x and y do not overlap.
+WANE_KERNEL_CLONES
+void rotate(double* __restrict x, double* __restrict y, index count, index stride, double c, double sr, double si) {
+    for (index k = 0; k < count; ++k) {
+        double* xk = x + 2 * k * stride;
+        double* yk = y + 2 * k * stride;
+        const double xr = xk[0], xi = xk[1], yr = yk[0], yi = yk[1];
+        xk[0] = c * xr + (sr * yr + si * yi), xk[1] = c * xi + (sr * yi - si * yr);
+        yk[0] = c * yr - (sr * xr - si * xi), yk[1] = c * yi - (sr * xi + si * xr);
     }
 }
+
+/// rotate of two columns (stride 1): the same arithmetic, the entries side by side.
+WANE_KERNEL_CLONES
+void rotate_columns(double* __restrict x, double* __restrict y, index count, double c, double sr, double si) {
+    for (index k = 0; k < count; ++k) {
+        const double xr = x[2 * k], xi = x[2 * k + 1], yr = y[2 * k], yi = y[2 * k + 1];
+        x[2 * k] = c * xr + (sr * yr + si * yi), x[2 * k + 1] = c * xi + (sr * yi - si * yr);
+        y[2 * k] = c * yr - (sr * xr - si * xi), y[2 * k + 1] = c * yi - (sr * xi + si * xr);
+    }
+}
+
+/// The complex entry as its real and imaginary parts (std::complex's array layout).
+double* parts(std::complex<double>& v) { return reinterpret_cast<double*>(&v); }
 
 /// Hessenberg matrix h (n x n) with the QR steps' bookkeeping.
 struct hessenberg {
@@ -86,8 +102,9 @@ struct hessenberg {
             const double c = rot.c().real();
             // Rows i, i + 1 by the adjoint rotation (c, -s); columns i, i + 1 by the rotation's
             // transpose (c, -conj(s)).
-            rotate(&at(i, from_col), &at(i + 1, from_col), iu - from_col + 1, h.rows(), c, -rot.s());
-            rotate(&at(il, i), &at(il, i + 1), std::min(i + 2, iu) - il + 1, 1, c, -std::conj(rot.s()));
+            const std::complex<double> row_s = -rot.s(), col_s = -std::conj(rot.s());
+            rotate(parts(at(i, from_col)), parts(at(i + 1, from_col)), iu - from_col + 1, h.rows(), c, row_s.real(), row_s.imag());
+            rotate_columns(parts(at(il, i)), parts(at(il, i + 1)), std::min(i + 2, iu) - il + 1, c, col_s.real(), col_s.imag());
         }
     }
 };

@@ -166,6 +166,8 @@ Eigen::VectorXd shape_projections(std::span<const float> x, double sample_rate_h
     }
     std::vector<std::complex<double>> sums(k_count);
     std::vector<double> weighted(x.begin(), x.end());
+    // In groups of chains whatever the count: a mode's projection is then the same numbers in
+    // every fit (the memo copies it from the last fit, modes/fit_memo.hpp).
     for (std::size_t i = 0; i < plain.size(); i += projection_group)
         project_group(weighted, std::span(plain).subspan(i, std::min(projection_group, plain.size() - i)), rho, omega, sums);
     std::vector<double> amp;
@@ -417,7 +419,7 @@ std::vector<double> sliding_fit_residuals(std::span<const float> x, double sampl
         }
         const std::size_t cols = std::min(block, starts - first);
         for (std::size_t s = first; s < first + cols; ++s) {
-            if (s % exact_every == 0) project_modes(x.subspan(s), count, rho_of, omega, proj);
+            if (s % exact_every == 0) project_many(x.subspan(s, count), rho_of, omega, proj);
             const auto col = static_cast<Eigen::Index>(s - first);
             for (std::size_t k = 0; k < k_count; ++k) {
                 rhs(static_cast<Eigen::Index>(2 * k), col) = proj[k].real();

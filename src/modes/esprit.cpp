@@ -4,10 +4,12 @@
 #include <cassert>
 #include <cmath>
 #include <limits>
+#include <vector>
 
 #include <Eigen/Dense>
 
 #include "modes/complex_eigenvalues.hpp"
+#include "modes/hermitian_tridiagonal.hpp"
 
 namespace wane {
 
@@ -78,7 +80,9 @@ double largest_magnitude(const cmatrix& a) {
 /// rescaled. ok is false when y is too short or the decomposition failed.
 struct decomposition {
     Eigen::Index dim = 0;
-    Eigen::Tridiagonalization<cmatrix> tri;
+    Eigen::Tridiagonalization<cmatrix> tri;  ///< without vectors (esprit_poles_by_order)
+    hermitian_tridiagonal own;               ///< with vectors (esprit_poles)
+    Eigen::MatrixXd vectors;                 ///< with vectors: T's eigenvectors (tridiagonal_eigen)
     Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig;
     Eigen::VectorXd values;
     bool ok = false;
@@ -105,20 +109,36 @@ void decompose(std::span<const std::complex<double>> y, int dimension, decomposi
     // The eigen-decomposition as Eigen's SelfAdjointEigenSolver makes it (R scaled to a largest
     // entry of 1, Householder tridiagonalization R = Q T Q^H with T real, implicit QR steps on T),
     // with the QR's rotations gathered in a real matrix V (T = V D V^T) and only the wanted
-    // columns of Q V formed below: the eigenvectors of R are the columns of Q V.
+    // columns of Q V formed below: the eigenvectors of R are the columns of Q V. With vectors, the
+    // tridiagonalization and Q are modes/hermitian_tridiagonal.hpp's; without, Eigen's.
     double scale = largest_magnitude(cov);
     if (!(scale > 0.0)) scale = 1.0;
-    out.tri.compute(cov / scale);
-    out.eig.computeFromTridiagonal(out.tri.diagonal(), out.tri.subDiagonal(),
-                                   vectors ? Eigen::ComputeEigenvectors : Eigen::EigenvaluesOnly);
-    if (out.eig.info() != Eigen::Success) return;
-    out.values = out.eig.eigenvalues() * scale;  // ascending
+    if (vectors) {
+        const auto size = static_cast<std::size_t>(dim * dim);
+        std::vector<double> re(size), im(size);
+        for (std::size_t k = 0; k < size; ++k) re[k] = cov(static_cast<Eigen::Index>(k)).real() / scale, im[k] = cov(static_cast<Eigen::Index>(k)).imag() / scale;
+        out.own = tridiagonalize(std::move(re), std::move(im), static_cast<std::size_t>(dim));
+        if (!tridiagonal_eigen(out.own.diag, out.own.sub, out.values, out.vectors)) return;
+        out.values *= scale;  // ascending
+    } else {
+        out.tri.compute(cov / scale);
+        out.eig.computeFromTridiagonal(out.tri.diagonal(), out.tri.subDiagonal(), Eigen::EigenvaluesOnly);
+        if (out.eig.info() != Eigen::Success) return;
+        out.values = out.eig.eigenvalues() * scale;  // ascending
+    }
     out.ok = out.values(dim - 1) > 0.0;
 }
 
 /// The poles of the subspace of the `order` largest eigenvalues (0 < order < dim).
 std::vector<std::complex<double>> poles_of_order(const decomposition& dec, int order) {
-    const cmatrix u = dec.tri.matrixQ() * dec.eig.eigenvectors().rightCols(order).cast<std::complex<double>>();
+    std::vector<double> u_re, u_im;
+    apply_q(dec.own, dec.vectors.rightCols(order), u_re, u_im);
+    cmatrix u(dec.dim, order);
+    for (Eigen::Index r = 0; r < dec.dim; ++r)
+        for (Eigen::Index c = 0; c < order; ++c) {
+            const auto at = static_cast<std::size_t>(r * order + c);
+            u(r, c) = {u_re[at], u_im[at]};
+        }
     const cmatrix phi = rotation(u);
     return complex_eigenvalues(std::span(phi.data(), static_cast<std::size_t>(phi.size())), static_cast<std::size_t>(order));
 }

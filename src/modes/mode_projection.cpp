@@ -4,6 +4,8 @@
 #include <array>
 #include <cassert>
 #include <cmath>
+#include <complex>
+#include <vector>
 
 #include <Eigen/Dense>
 
@@ -85,6 +87,55 @@ void project_modes(std::span<const float> x, std::size_t count, std::span<const 
         for (std::size_t i = 0; i < g; ++i) which[i] = k + i;
         project_group_of(w, std::span(which).first(g), rho, omega, out);
     }
+}
+
+void project_blocked(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
+                     std::span<const double> omega, std::span<std::complex<double>> out) {
+    constexpr Eigen::Index block = 64;  // B
+    const auto k_count = static_cast<Eigen::Index>(which.size());
+    const auto count = static_cast<Eigen::Index>(w.size());
+    if (k_count == 0) return;
+    const Eigen::Index blocks = (count + block - 1) / block;
+    Eigen::MatrixXd samples = Eigen::MatrixXd::Zero(blocks, block);  // W
+    for (Eigen::Index n = 0; n < count; ++n) samples(n / block, n % block) = w[static_cast<std::size_t>(n)];
+    Eigen::MatrixXd z_re(block, k_count), z_im(block, k_count);
+    for (Eigen::Index k = 0; k < k_count; ++k) {
+        const std::size_t mode = which[static_cast<std::size_t>(k)];
+        const std::complex<double> z = std::exp(std::complex<double>{rho[mode], omega[mode]});
+        std::complex<double> p{1.0, 0.0};
+        for (Eigen::Index m = 0; m < block; ++m) {
+            z_re(m, k) = p.real(), z_im(m, k) = p.imag();
+            p *= z;
+        }
+    }
+    const Eigen::MatrixXd y_re = samples * z_re, y_im = samples * z_im;  // blocks x K
+    const auto step_n = static_cast<double>(block);
+    for (Eigen::Index k = 0; k < k_count; ++k) {
+        const std::size_t mode = which[static_cast<std::size_t>(k)];
+        const std::complex<double> step = std::exp(std::complex<double>{rho[mode] * step_n, std::remainder(omega[mode] * step_n, two_pi)});
+        std::complex<double> at{}, acc{};
+        for (Eigen::Index b = 0; b < blocks; ++b) {
+            if (b % 16 == 0) {
+                const double n = static_cast<double>(b) * step_n;
+                at = std::exp(std::complex<double>{rho[mode] * n, std::remainder(omega[mode] * n, two_pi)});
+            }
+            acc += at * std::complex<double>{y_re(b, k), y_im(b, k)};
+            at *= step;
+        }
+        out[mode] = acc;
+    }
+}
+
+void project_many(std::span<const float> x, std::span<const double> rho, std::span<const double> omega,
+                  std::span<std::complex<double>> out) {
+    if (rho.size() < block_projection_min_modes) {
+        project_modes(x, x.size(), rho, omega, out);
+        return;
+    }
+    const std::vector<double> w(x.begin(), x.end());
+    std::vector<std::size_t> all(rho.size());
+    for (std::size_t k = 0; k < all.size(); ++k) all[k] = k;
+    project_blocked(w, all, rho, omega, out);
 }
 
 }  // namespace wane

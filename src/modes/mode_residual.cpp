@@ -64,7 +64,71 @@ void add_phasor(std::span<double> out, double omega, double rho, std::span<const
     }
 }
 
+/// Samples per block of subtract_plain_modes.
+constexpr std::size_t block_n = 64;
+
+/// out[n] -= Re(amp_k z_k^n) for the plain modes k (z_k = exp(rho_k + i omega_k)), n = b B + m
+/// (B = block_n): Re(amp_k z_k^(bB) z_k^m) summed over k is the real part of the matrix product
+/// C = A Z, A(b, k) = amp_k z_k^(bB) (blocks x modes), Z(k, m) = z_k^m (modes x B), so
+/// Re C = Re A Re Z - Im A Im Z: two real products of O(blocks K B), at the speed of a matrix
+/// product instead of one phasor chain per mode. z^m by products over m < B; z^(bB) by products
+/// of z^B, re-anchored from the exact power every 16 blocks.
+void subtract_plain_modes(std::span<double> out, std::span<const double> rho, std::span<const double> omega,
+                          std::span<const std::complex<double>> amp) {
+    const auto k_count = static_cast<Eigen::Index>(rho.size());
+    const std::size_t count = out.size();
+    if (k_count == 0 || count == 0) return;
+    const auto blocks = static_cast<Eigen::Index>((count + block_n - 1) / block_n);
+    const auto b_n = static_cast<Eigen::Index>(block_n);
+    Eigen::MatrixXd a_re(blocks, k_count), a_im(blocks, k_count), z_re(k_count, b_n), z_im(k_count, b_n);
+    for (Eigen::Index k = 0; k < k_count; ++k) {
+        const auto kk = static_cast<std::size_t>(k);
+        const std::complex<double> z = std::exp(std::complex<double>{rho[kk], omega[kk]});
+        std::complex<double> p{1.0, 0.0};
+        for (Eigen::Index m = 0; m < b_n; ++m) {
+            z_re(k, m) = p.real(), z_im(k, m) = p.imag();
+            p *= z;
+        }
+        const auto step_n = static_cast<double>(block_n);
+        const std::complex<double> step = std::exp(std::complex<double>{rho[kk] * step_n, std::remainder(omega[kk] * step_n, two_pi)});
+        std::complex<double> at{};
+        for (Eigen::Index b = 0; b < blocks; ++b) {
+            if (b % 16 == 0) {
+                const double n = static_cast<double>(b) * step_n;
+                at = amp[kk] * std::exp(std::complex<double>{rho[kk] * n, std::remainder(omega[kk] * n, two_pi)});
+            }
+            a_re(b, k) = at.real(), a_im(b, k) = at.imag();
+            at *= step;
+        }
+    }
+    Eigen::MatrixXd c(blocks, b_n);
+    c.noalias() = a_re * z_re;
+    c.noalias() -= a_im * z_im;
+    for (Eigen::Index b = 0; b < blocks; ++b) {
+        const auto first = static_cast<std::size_t>(b) * block_n;
+        const std::size_t end = std::min(count, first + block_n);
+        for (std::size_t n = first; n < end; ++n) out[n] -= c(b, static_cast<Eigen::Index>(n - first));
+    }
+}
+
 }  // namespace
+
+void subtract_fitted_modes(std::span<double> out, double sample_rate_hz, std::span<const damped_mode> modes,
+                           std::span<const mode_shape> shapes) {
+    assert(sample_rate_hz > 0.0 && shapes.size() == modes.size());
+    std::vector<double> rho, omega, scratch;
+    std::vector<std::complex<double>> amp;
+    for (std::size_t k = 0; k < modes.size(); ++k) {
+        if (!shapes[k].empty()) {
+            add_mode_samples(out, sample_rate_hz, modes[k], shapes[k], -1.0, scratch);
+            continue;
+        }
+        rho.push_back(-modes[k].decay_per_s / sample_rate_hz);
+        omega.push_back(two_pi * modes[k].freq_hz / sample_rate_hz);
+        amp.push_back(modes[k].amp);
+    }
+    subtract_plain_modes(out, rho, omega, amp);
+}
 
 void add_mode_samples(std::span<double> out, double sample_rate_hz, const damped_mode& m, const mode_shape& shape,
                       double gain, std::vector<double>& scratch) {
@@ -82,8 +146,8 @@ void add_mode_samples(std::span<double> out, double sample_rate_hz, const damped
 std::vector<float> fit_residual(std::span<const float> x, double sample_rate_hz, std::span<const damped_mode> modes,
                                  std::span<const mode_shape> shapes) {
     assert(shapes.size() == modes.size());
-    std::vector<double> out(x.begin(), x.end()), scratch;
-    for (std::size_t k = 0; k < modes.size(); ++k) add_mode_samples(out, sample_rate_hz, modes[k], shapes[k], -1.0, scratch);
+    std::vector<double> out(x.begin(), x.end());
+    subtract_fitted_modes(out, sample_rate_hz, modes, shapes);
     return {out.begin(), out.end()};
 }
 

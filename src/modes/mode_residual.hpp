@@ -18,10 +18,17 @@ namespace wane {
 void add_mode_samples(std::span<double> out, double sample_rate_hz, const damped_mode& m, const mode_shape& shape,
                       double gain, std::vector<double>& scratch);
 
+/// out[n] -= Re(amp_k a_k[n] exp(i 2 pi f_k n / fs)) for every mode k, n in [0, out.size()): the
+/// plain modes (shapes[k] empty: a_k[n] = exp(-d_k n / fs)) as one matrix product over blocks of
+/// samples (fit_residual's arithmetic, below), the shaped ones by add_mode_samples.
+/// shapes.size() == modes.size().
+void subtract_fitted_modes(std::span<double> out, double sample_rate_hz, std::span<const damped_mode> modes,
+                           std::span<const mode_shape> shapes);
+
 /// x[n] minus every mode (its amp as fitted, with its shape), n in [0, x.size()): the residual
 /// of a fit (modes/damped_mode.hpp), summed in double. shapes.size() == modes.size().
 std::vector<float> fit_residual(std::span<const float> x, double sample_rate_hz, std::span<const damped_mode> modes,
-                                 std::span<const mode_shape> shapes);
+                                        std::span<const mode_shape> shapes);
 
 /// Energies between low_hz and high_hz (as note_spectrum::energy_between counts them, Parseval).
 struct band_energies {

@@ -37,42 +37,6 @@ bool wanted_band(double centre_hz, double band_hz, std::span<const double> near_
     return std::any_of(near_hz.begin(), near_hz.end(), [&](double f) { return f >= lo && f < hi; });
 }
 
-/// The segment as doubles, four copies interleaved for filter_outputs: quads[4 k + l] =
-/// x[k + l decim] for l < 4 (0 past the end), so the four outputs m .. m + 3 read their samples
-/// at tap j from one place, quads[4 (m decim + j) ..].
-std::vector<double> interleaved_quads(std::span<const float> x, std::size_t decim) {
-    std::vector<double> quads(4 * x.size(), 0.0);
-    for (std::size_t k = 0; k < x.size(); ++k)
-        for (std::size_t l = 0; l < 4 && k + l * decim < x.size(); ++l) quads[4 * k + l] = static_cast<double>(x[k + l * decim]);
-    return quads;
-}
-
-/// y[m] = sum_j x[m decim + j] phasor[j] for every m < y.size(), four outputs at a time (their
-/// samples from quads, interleaved_quads): each output's sum runs over j in order (the same sum
-/// as one output alone), the four overlapped.
-void filter_outputs(std::span<const float> x, std::span<const double> quads, std::span<const std::complex<double>> phasor,
-                    std::size_t decim, std::span<std::complex<double>> y) {
-    using lanes = Eigen::Array4d;
-    const std::size_t taps = phasor.size();
-    std::size_t m = 0;
-    for (; m + 4 <= y.size(); m += 4) {
-        lanes acc_r = lanes::Zero(), acc_i = lanes::Zero();
-        assert(4 * (m * decim + taps) <= quads.size());
-        const double* base = quads.data() + 4 * m * decim;
-        for (std::size_t j = 0; j < taps; ++j) {
-            const Eigen::Map<const lanes> v(base + 4 * j);
-            acc_r += v * phasor[j].real();
-            acc_i += v * phasor[j].imag();
-        }
-        for (Eigen::Index k = 0; k < 4; ++k) y[m + static_cast<std::size_t>(k)] = {acc_r(k), acc_i(k)};
-    }
-    for (; m < y.size(); ++m) {
-        std::complex<double> acc{};
-        for (std::size_t j = 0; j < taps; ++j) acc += double(x[m * decim + j]) * phasor[j];
-        y[m] = acc;
-    }
-}
-
 }  // namespace
 
 subband_signals make_subband_signals(std::span<const float> x, double sample_rate_hz, const subband_mode_params& params) {
@@ -89,21 +53,35 @@ subband_signals make_subband_signals(std::span<const float> x, double sample_rat
     const double top_hz = std::min(params.max_freq_hz, 0.45 * fs);
     const double step_hz = 0.5 * params.band_hz;
     // The heterodyne of band i at sample n is w_i^n with w_i = exp(-i 2 pi c_i / fs); the windowed
-    // taps are shared by all bands, so each output is sum_j (h[j] x[mD + j]) w_i^(mD + j).
-    std::vector<std::complex<double>> phasor(taps);
-    const std::vector<double> quads = interleaved_quads(x.first(seg_n), decim);
-    for (int i = 0; static_cast<double>(i) * step_hz - 0.25 * params.band_hz < top_hz; ++i) {
-        const double centre = static_cast<double>(i) * step_hz;
+    // taps are shared by all bands, so each output is sum_j (h[j] x[mD + j]) w_i^(mD + j): for all
+    // bands at once the matrix product Y = X P, X(m, j) = x[mD + j] (outputs x taps), P(j, i) =
+    // h[j] w_i^j (taps x bands; real and imaginary parts, two real products), then w_i^(mD).
+    std::vector<double> centres;
+    for (int i = 0; static_cast<double>(i) * step_hz - 0.25 * params.band_hz < top_hz; ++i) centres.push_back(static_cast<double>(i) * step_hz);
+    const auto rows = static_cast<Eigen::Index>(outputs), cols = static_cast<Eigen::Index>(taps);
+    const auto bands = static_cast<Eigen::Index>(centres.size());
+    Eigen::MatrixXd segment(rows, cols), p_re(cols, bands), p_im(cols, bands);
+    for (Eigen::Index j = 0; j < cols; ++j)
+        for (Eigen::Index m = 0; m < rows; ++m) segment(m, j) = double(x[static_cast<std::size_t>(m) * decim + static_cast<std::size_t>(j)]);
+    for (Eigen::Index i = 0; i < bands; ++i) {
+        const double w = -two_pi * centres[static_cast<std::size_t>(i)] / fs;
+        for (Eigen::Index j = 0; j < cols; ++j) {
+            const std::complex<double> ph = h[static_cast<std::size_t>(j)] * std::polar(1.0, w * static_cast<double>(j));
+            p_re(j, i) = ph.real(), p_im(j, i) = ph.imag();
+        }
+    }
+    const Eigen::MatrixXd y_re = segment * p_re, y_im = segment * p_im;
+    for (Eigen::Index i = 0; i < bands; ++i) {
+        const double centre = centres[static_cast<std::size_t>(i)];
         const double w = -two_pi * centre / fs;
         subband_signals::band b{.centre_hz = centre, .y = std::vector<std::complex<double>>(outputs)};
-        for (std::size_t j = 0; j < taps; ++j) phasor[j] = h[j] * std::polar(1.0, w * static_cast<double>(j));
         // w^(mD) by a rotation per output, re-anchored every 64 outputs.
         const std::complex<double> turn = std::polar(1.0, std::fmod(w * static_cast<double>(decim), two_pi));
-        filter_outputs(x, quads, phasor, decim, b.y);
         std::complex<double> at{1.0, 0.0};
         for (std::size_t m = 0; m < outputs; ++m) {
             if (m % 64 == 0) at = std::polar(1.0, std::fmod(w * static_cast<double>(m * decim), two_pi));
-            b.y[m] *= at;
+            const auto row = static_cast<Eigen::Index>(m);
+            b.y[m] = std::complex<double>{y_re(row, i), y_im(row, i)} * at;
             at *= turn;
         }
         out.bands.push_back(std::move(b));

@@ -6,7 +6,8 @@
 // Computed in the time domain, by the sum below itself: per band, the taps times the band's
 // heterodyne (h[j] w^j) are formed once and every output is their dot product with T samples of
 // the segment, times w^(mD) (a rotation per output, re-anchored every 64): O(T) per output, T
-// samples of the segment only. The segment is filtered once for the longest span asked; a shorter
+// samples of the segment only; all bands' dot products as one matrix product (segment rows times
+// the bands' tap columns). The segment is filtered once for the longest span asked; a shorter
 // span's band signals are the first outputs (subband_modes).
 //
 // Bands: centres c_i = i * band_hz / 2 (i = 0, 1, ...), so neighbours overlap by half; a band keeps
