@@ -168,7 +168,6 @@ struct glide_fit {
     double cents = 0.0;
     double glide_s = 0.0;
     double explained = 0.0;  ///< E = 2 |S|^2 / D
-    double extra = 0.0;      ///< E less what the partial explains without a glide
     cplx amp{};              ///< C = 2 S / D
 };
 
@@ -213,9 +212,9 @@ coarse_grid make_coarse_grid(const block_sums& coarse_sums, const onset_glide_pa
 }
 
 /// The best (c0, tau): the coarse grid (time constants up to longest_s), then the fine one around
-/// its best.
+/// its best, unless the coarse best explains less than coarse_floor (then that best).
 glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onset_glide_params& params,
-                 std::optional<coarse_grid>& grid, double longest_s) {
+                 std::optional<coarse_grid>& grid, double longest_s, double coarse_floor) {
     glide_fit best;
     const block_sums coarse_sums = merged_pairs(s, rate_hz);
     if (!grid) grid = make_coarse_grid(coarse_sums, params);
@@ -225,6 +224,7 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
         if (f.explained > best.explained) best = f;
     }
     const glide_fit coarse = best;
+    if (coarse.explained < coarse_floor) return coarse;
     best = evaluate(s, freq_hz, coarse.cents, coarse.glide_s, rate_hz);  // on the fine blocks
     const auto fine = static_cast<int>(std::round(params.cents_step / params.fine_cents_step));
     const int half_octave = params.fine_glide_s_steps_per_octave / 2;
@@ -249,9 +249,12 @@ bool is_short_lived(const partial& q, const onset_glide_params& params) {
 }
 
 /// The glide of partial q on y (q's partial alone plus what the copy leaves), when it is kept
-/// (onset_glide.hpp): the search with a = 1, C with a = q's envelope.
+/// (onset_glide.hpp): the search with a = 1, C with a = q's envelope. min_extra: the energy the
+/// glide must explain more than no glide (0: none asked); a coarse best short of half of it is
+/// not refined (the fine grid moves a best by under a coarse step).
 std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, double gain_lin, double rate_hz,
-                                   std::size_t block, const onset_glide_params& params, std::optional<coarse_grid>& grid) {
+                                   std::size_t block, const onset_glide_params& params, std::optional<coarse_grid>& grid,
+                                   double min_extra) {
     block_sums flat;
     block_sums shaped;
     sum_blocks(y, q, gain_lin, rate_hz, block, flat, shaped);
@@ -260,7 +263,7 @@ std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, 
     const bool short_lived = is_short_lived(q, params);
     // The longest time constant on the grid for q (1e-9: the grid's own rounding).
     const double longest_s = short_lived ? params.max_short_lived_glide_s : params.max_fit_glide_s * (1.0 + 1e-9);
-    glide_fit best = search(flat, q.freq_hz, rate_hz, params, grid, longest_s);
+    glide_fit best = search(flat, q.freq_hz, rate_hz, params, grid, longest_s, none.explained + 0.5 * min_extra);
     // A best at the grid's edge (the largest offset or the longest time constant) is a partial
     // off its frequency over the whole span, not a glide that settles onto it.
     const double edge_s = short_lived ? longest_s : params.max_fit_glide_s;
@@ -271,11 +274,10 @@ std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, 
     const double share = std::pow(10.0, params.min_gain_db / 10.0) - 1.0;
     const double extra = best.explained - none.explained;
     if (!(unexplained > 0.0 && extra > 0.0) || at_edge || std::abs(best.cents) < params.min_cents ||
-        extra < share * std::min(none.explained, unexplained)) {
+        extra < share * std::min(none.explained, unexplained) || extra < min_extra) {
         return std::nullopt;
     }
     best.amp = evaluate(shaped, q.freq_hz, best.cents, best.glide_s, rate_hz).amp;
-    best.extra = extra;
     return best;
 }
 
@@ -351,8 +353,9 @@ onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, doub
         const std::vector<double> own = render_start(p, &q, sample_rate_hz, count);
         std::vector<double> y(count);
         for (std::size_t n = 0; n < count; ++n) y[n] = static_cast<double>(note[n]) - copy[n] + own[n];
-        const auto fit = fit_glide(y, q, gain_lin, sample_rate_hz, block, params, grid);
-        if (!fit || (past_strongest && fit->extra < params.min_short_lived_extra * signal)) continue;
+        const double min_extra = past_strongest ? params.min_short_lived_extra * signal : 0.0;
+        const auto fit = fit_glide(y, q, gain_lin, sample_rate_hz, block, params, grid, min_extra);
+        if (!fit) continue;
         const glide_fit& best = *fit;
         q.glide_cents = best.cents;
         q.glide_s = best.glide_s;
