@@ -216,8 +216,10 @@ coarse_grid make_coarse_grid(const block_sums& coarse_sums, const onset_glide_pa
     coarse_grid out;
     const auto steps = static_cast<int>(std::floor(params.max_abs_cents / params.cents_step));
     const double ratio = std::pow(params.max_fit_glide_s / params.min_fit_glide_s, 1.0 / (params.glide_s_steps - 1));
-    for (int j = 0; j < params.glide_s_steps; ++j) {
+    // glide_s_steps up to max_fit_glide_s, then on at the same ratio for the short-lived partials.
+    for (int j = 0;; ++j) {
         const double glide_s = params.min_fit_glide_s * std::pow(ratio, j);
+        if (j >= params.glide_s_steps && glide_s > params.max_short_lived_glide_s) break;
         const std::vector<double> decay = decays(coarse_sums, glide_s);
         for (int i = -steps; i <= steps; ++i)
             if (i != 0) out.points.push_back(terms_at(i * params.cents_step, glide_s, decay));
@@ -225,17 +227,20 @@ coarse_grid make_coarse_grid(const block_sums& coarse_sums, const onset_glide_pa
     return out;
 }
 
-/// The best (c0, tau): the coarse grid, then the fine one around its best.
+/// The best (c0, tau): the coarse grid (time constants up to longest_s), then the fine one around
+/// its best, unless the coarse best explains less than coarse_floor (then that best).
 glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onset_glide_params& params,
-                 std::optional<coarse_grid>& grid) {
+                 std::optional<coarse_grid>& grid, double longest_s, double coarse_floor) {
     glide_fit best;
     const block_sums coarse_sums = merged_pairs(s, rate_hz);
     if (!grid) grid = make_coarse_grid(coarse_sums, params);
     for (const glide_terms& t : grid->points) {
+        if (t.glide_s > longest_s) continue;
         const glide_fit f = evaluate(coarse_sums, freq_hz, t, rate_hz);
         if (f.explained > best.explained) best = f;
     }
     const glide_fit coarse = best;
+    if (coarse.explained < coarse_floor) return coarse;
     best = evaluate(s, freq_hz, coarse.cents, coarse.glide_s, rate_hz);  // on the fine blocks
     const auto fine = static_cast<int>(std::round(params.cents_step / params.fine_cents_step));
     const int half_octave = params.fine_glide_s_steps_per_octave / 2;
@@ -253,26 +258,39 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
     return best;
 }
 
+/// q's envelope is short_lived_drop_db under its start by short_lived_at_s (onset_glide.hpp).
+bool is_short_lived(const partial& q, const onset_glide_params& params) {
+    const double start_db = envelope_level(q.env, q.env.attack_s).db;
+    return envelope_level(q.env, params.short_lived_at_s).db <= start_db - params.short_lived_drop_db;
+}
+
 /// The glide of partial q on y (q's partial alone plus what the copy leaves), when it is kept
-/// (onset_glide.hpp): the search with a = 1, C with a = q's envelope.
+/// (onset_glide.hpp): the search with a = 1, C with a = q's envelope. min_extra: the energy the
+/// glide must explain more than no glide (0: none asked); a coarse best short of half of it is
+/// not refined (the fine grid moves a best by under a coarse step).
 std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, double gain_lin, double rate_hz,
-                                   std::size_t block, const onset_glide_params& params, std::optional<coarse_grid>& grid) {
+                                   std::size_t block, const onset_glide_params& params, std::optional<coarse_grid>& grid,
+                                   double min_extra) {
     block_sums flat;
     block_sums shaped;
     sum_blocks(y, q, gain_lin, rate_hz, block, flat, shaped);
     if (!(flat.amp_energy > 0.0) || !(shaped.amp_energy > 0.0)) return std::nullopt;
     const glide_fit none = evaluate(flat, q.freq_hz, 0.0, 0.0, rate_hz);
-    glide_fit best = search(flat, q.freq_hz, rate_hz, params, grid);
+    const bool short_lived = is_short_lived(q, params);
+    // The longest time constant on the grid for q (1e-9: the grid's own rounding).
+    const double longest_s = short_lived ? params.max_short_lived_glide_s : params.max_fit_glide_s * (1.0 + 1e-9);
+    glide_fit best = search(flat, q.freq_hz, rate_hz, params, grid, longest_s, none.explained + 0.5 * min_extra);
     // A best at the grid's edge (the largest offset or the longest time constant) is a partial
     // off its frequency over the whole span, not a glide that settles onto it.
-    const bool at_edge = std::abs(best.cents) >= params.max_abs_cents || best.glide_s >= params.max_fit_glide_s;
+    const double edge_s = short_lived ? longest_s : params.max_fit_glide_s;
+    const bool at_edge = std::abs(best.cents) >= params.max_abs_cents || best.glide_s >= edge_s;
     // What the glide explains more, against the smaller of what the partial explains without it
     // and what stays unexplained near f.
     const double unexplained = flat.band_energy - best.explained;
     const double share = std::pow(10.0, params.min_gain_db / 10.0) - 1.0;
     const double extra = best.explained - none.explained;
     if (!(unexplained > 0.0 && extra > 0.0) || at_edge || std::abs(best.cents) < params.min_cents ||
-        extra < share * std::min(none.explained, unexplained)) {
+        extra < share * std::min(none.explained, unexplained) || extra < min_extra) {
         return std::nullopt;
     }
     best.amp = evaluate(shaped, q.freq_hz, best.cents, best.glide_s, rate_hz).amp;
@@ -334,16 +352,25 @@ onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, doub
     const patch original = p;
 
     std::size_t tried = 0;
-    std::optional<coarse_grid> grid;  // made at the first partial tried
+    std::size_t tried_short_lived = 0;  // past the max_partials strongest
+    std::optional<coarse_grid> grid;    // made at the first partial tried
     for (const std::size_t k : order) {
-        if (tried == params.max_partials || start_db(k) < strongest_db - params.range_db) break;
+        if (start_db(k) < strongest_db - params.range_db || tried_short_lived == params.max_short_lived_partials) break;
         partial& q = p.partials[k];
         if (q.glide_cents != 0.0 || q.freq_hz < params.min_freq_hz || q.freq_hz >= 0.5 * sample_rate_hz) continue;
-        ++tried;
+        const bool past_strongest = tried == params.max_partials;
+        if (!past_strongest) {
+            ++tried;
+        } else if (is_short_lived(q, params)) {
+            ++tried_short_lived;
+        } else {
+            continue;
+        }
         const std::vector<double> own = render_start(p, &q, sample_rate_hz, count);
         std::vector<double> y(count);
         for (std::size_t n = 0; n < count; ++n) y[n] = static_cast<double>(note[n]) - copy[n] + own[n];
-        const auto fit = fit_glide(y, q, gain_lin, sample_rate_hz, block, params, grid);
+        const double min_extra = past_strongest ? params.min_short_lived_extra * signal : 0.0;
+        const auto fit = fit_glide(y, q, gain_lin, sample_rate_hz, block, params, grid, min_extra);
         if (!fit) continue;
         const glide_fit& best = *fit;
         q.glide_cents = best.cents;

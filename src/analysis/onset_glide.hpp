@@ -3,7 +3,8 @@
 // frequency, and with one frequency per partial the onset's least-squares fit turns such a partial
 // down, its phase drifting against the recording's.
 //
-// Per partial k, strongest start first (at most max_partials, within range_db of the strongest):
+// Per partial k, strongest start first (at most max_partials, within range_db of the strongest;
+// past them up to max_short_lived_partials short-lived ones in that range):
 //   y = x - (the copy's other partials), over the first span_s after the onset (the copy rendered
 //       by synthesis/render from the patch as it stands, the partials already given a glide with it);
 //   psi(t) = 2 pi f t + g(t), g the glide's phase G - R(t) for (c0, tau) (core/glide.hpp);
@@ -18,8 +19,9 @@
 //   span weighted alike: the patch's early decay, fitted without the glide, would weight the
 //   first milliseconds where a glide cannot be told from a phase), on a grid (cents_step over
 //   +-max_abs_cents, glide_s_steps time constants geometrically from min_fit_glide_s to
-//   max_fit_glide_s), then on a finer grid around the best. A best at the grid's edge is a
-//   partial off its frequency over the whole span, not a glide, and is left out.
+//   max_fit_glide_s, on at that ratio to max_short_lived_glide_s for a short-lived partial), then
+//   on a finer grid around the best. A best at the grid's edge is a partial off its frequency
+//   over the whole span, not a glide, and is left out.
 // The glide is kept when it explains clearly more than no glide: the extra energy E(c0, tau) - E(0)
 // is at least 10^(min_gain_db / 10) - 1 (26% for 1 dB) of the smaller of E(0) (what the partial
 // explains without it) and what stays unexplained near f (the energy of the block sums Z_b with
@@ -41,13 +43,30 @@ namespace wane {
 struct onset_glide_params {
     double span_s = 0.15;              ///< the onset refinement's fit span
     double range_db = 30.0;            ///< partials whose start is within this of the strongest
-    std::size_t max_partials = 8;
+    std::size_t max_partials = 8;      ///< the strongest starts tried
+    /// ... and past them, up to this many short-lived partials (see max_short_lived_glide_s) in
+    /// the same range: xylophone_fs3's modes of T60 0.1-0.2 s, 20-26 dB under its strongest.
+    std::size_t max_short_lived_partials = 16;
+    /// ... each of which must explain this share of the span's energy more with its glide than
+    /// without: two parameters on a weak partial must buy a stated part of the copy's residual
+    /// (at 10 dB first-100 ms SNR, 0.005 lowers the residual by 5%, 0.2 dB).
+    double min_short_lived_extra = 0.005;
     double min_freq_hz = 60.0;         ///< below it a 150 ms span holds under 9 periods
     double max_abs_cents = 96.0;       ///< the coarse grid's range (measured strike glides: up to ~50)
     double cents_step = 4.0;
     double min_fit_glide_s = 0.005;
     double max_fit_glide_s = 0.25;
     int glide_s_steps = 10;
+    /// A short-lived partial (its envelope short_lived_drop_db under its start by short_lived_at_s)
+    /// may take time constants past max_fit_glide_s, the grid going on at the same ratio up to
+    /// max_short_lived_glide_s: for such a partial a slow glide is the frequency it plays while it
+    /// sounds, which its long-term frequency (measured over 0.1-1.1 s, when it has died away)
+    /// misses; a longer-lived partial keeps time constants that settle early, so the pitch a
+    /// transposed copy is tuned by stays put (tests/cli/test_pitch_real_notes.sh). xylophone_fs3's
+    /// modes of T60 0.1-0.2 s took glides of 20-85 cents with time constants of 0.37-0.72 s.
+    double max_short_lived_glide_s = 1.0;
+    double short_lived_at_s = 0.3;
+    double short_lived_drop_db = 40.0;
     double fine_cents_step = 0.5;      ///< the fine grid: +-cents_step around the best
     int fine_glide_s_steps_per_octave = 12;  ///< ... and half an octave either side in time constant
     double min_gain_db = 1.0;          ///< the share the glide must explain more (see above)

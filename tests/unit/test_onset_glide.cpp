@@ -106,3 +106,62 @@ TEST_CASE("a note without glides gets none", "[analysis][glide]") {
     CHECK(s.glides == 0);
     CHECK(p == before);
 }
+
+TEST_CASE("a short-lived mode gets a slow glide (time constant past 0.25 s), a lasting partial does not", "[analysis][glide]") {
+    // A mode that dies within the span plays off the frequency it is given: a glide slower than
+    // the span is that frequency. A lasting partial with the same glide is left as it is: a glide
+    // that slow would move the pitch its long part is heard at.
+    const double rate_hz = 44100.0;
+    const double glide_s = GENERATE(0.4, 0.6);
+    const double cents = GENERATE(30.0, -40.0);
+    const double t60_s = GENERATE(0.12, 3.0);
+    const std::vector<true_partial> parts = {
+        {.freq_hz = 1523.0, .amp_lin = 0.3, .t60_s = t60_s, .phase_rad = -0.6, .cents = cents, .glide_s = glide_s},
+        {.freq_hz = 523.0, .amp_lin = 0.15, .t60_s = 2.0, .phase_rad = 1.3, .cents = 0.0, .glide_s = 0.0},
+    };
+    const std::vector<float> x = gliding_note(parts, rate_hz, 0.5, 1e-3, 11);
+    patch p = patch_of(parts);
+    const onset_glide_summary s = fit_onset_glides(p, x, rate_hz, {});
+    const partial& g = p.partials[0];
+    CAPTURE(cents, glide_s, t60_s, g.glide_cents, g.glide_s, g.phase_rad, s.glides, s.residual_before_db, s.residual_after_db);
+    if (t60_s > 1.0) {
+        CHECK(g.glide_s <= onset_glide_params{}.max_fit_glide_s * std::sqrt(2.0));  // the fine grid's reach
+        return;
+    }
+    CHECK(s.glides == 1);
+    // A slow glide over a mode that lasts ~0.1 s is nearly a straight line in cents: the time
+    // constant is told within a factor of 2 and the offset at 20 ms (where the mode is loud)
+    // within 1 cent.
+    CHECK(g.glide_s / glide_s >= 0.5);
+    CHECK(g.glide_s / glide_s <= 2.0);
+    const auto early_cents = [](double c0, double tau) { return c0 * std::exp(-0.02 / tau); };
+    CHECK(std::abs(early_cents(g.glide_cents, g.glide_s) - early_cents(cents, glide_s)) <= 1.0);
+    CHECK(s.residual_after_db < s.residual_before_db - 10.0);
+}
+
+TEST_CASE("past the 8 strongest starts, a short-lived mode's glide is fitted and a lasting partial's is not", "[analysis][glide]") {
+    // Eight harmonics that hold their pitch (0 to -3.5 dB at the start, T60 2 s), then, weaker at
+    // the start, a mode of T60 0.3 s that plays 40 cents sharp of its long-term frequency and
+    // settles slowly, and a lasting partial (T60 2 s) with a glide as strong.
+    const double rate_hz = 48000.0;
+    const double cents = GENERATE(40.0, -30.0);
+    std::vector<true_partial> parts;
+    for (int k = 1; k <= 8; ++k) {
+        parts.push_back({.freq_hz = 220.0 * k, .amp_lin = 0.3 * std::pow(10.0, -0.5 * (k - 1) / 20.0), .t60_s = 2.0,
+                         .phase_rad = 0.5 * k, .cents = 0.0, .glide_s = 0.0});
+    }
+    const double weaker_lin = 0.3 * std::pow(10.0, -4.0 / 20.0);
+    parts.push_back({.freq_hz = 1650.0, .amp_lin = weaker_lin, .t60_s = 0.3, .phase_rad = 1.0, .cents = cents, .glide_s = 0.5});
+    parts.push_back({.freq_hz = 2090.0, .amp_lin = weaker_lin, .t60_s = 2.0, .phase_rad = -1.0, .cents = cents, .glide_s = 0.05});
+    const std::vector<float> x = gliding_note(parts, rate_hz, 0.5, 1e-4, 5);
+    patch p = patch_of(parts);
+    const onset_glide_summary s = fit_onset_glides(p, x, rate_hz, {});
+    const partial& brief = p.partials[8];
+    CAPTURE(cents, s.glides, s.residual_before_db, s.residual_after_db, brief.glide_cents, brief.glide_s);
+    CHECK(s.glides == 1);
+    for (std::size_t k = 0; k < 8; ++k) CHECK(p.partials[k].glide_cents == 0.0);
+    CHECK(p.partials[9].glide_cents == 0.0);
+    // The mode's offset at 20 ms (where it is loud) within 1 cent.
+    const auto early_cents = [](double c0, double tau) { return c0 * std::exp(-0.02 / tau); };
+    CHECK(std::abs(early_cents(brief.glide_cents, brief.glide_s) - early_cents(cents, 0.5)) <= 1.0);
+}
