@@ -326,6 +326,21 @@ double residual_energy(std::span<const float> x, std::span<const double> copy) {
     return e;
 }
 
+/// Whether swapping own for gliding in copy raises the residual x - copy over its first `early`
+/// samples by more than the share max_rise (onset_glide.hpp, early_s).
+bool raises_early_residual(std::span<const float> x, std::span<const double> copy, std::span<const double> own,
+                           std::span<const double> gliding, std::size_t early, double max_rise) {
+    double before = 0.0;
+    double after = 0.0;
+    for (std::size_t n = 0; n < early; ++n) {
+        const double d = static_cast<double>(x[n]) - copy[n];
+        const double e = d + own[n] - gliding[n];
+        before += d * d;
+        after += e * e;
+    }
+    return after > (1.0 + max_rise) * before;
+}
+
 }  // namespace
 
 onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, double sample_rate_hz,
@@ -351,6 +366,7 @@ onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, doub
     const double before = residual_energy(note, copy);
     const patch original = p;
 
+    const auto early = std::min(count, static_cast<std::size_t>(std::llround(params.early_s * sample_rate_hz)));
     std::size_t tried = 0;
     std::size_t tried_short_lived = 0;  // past the max_partials strongest
     std::optional<coarse_grid> grid;    // made at the first partial tried
@@ -373,11 +389,17 @@ onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, doub
         const auto fit = fit_glide(y, q, gain_lin, sample_rate_hz, block, params, grid, min_extra);
         if (!fit) continue;
         const glide_fit& best = *fit;
+        const partial p_before_glide = q;
         q.glide_cents = best.cents;
         q.glide_s = best.glide_s;
         q.phase_rad = std::arg(best.amp);
         scale_start(q.env, std::abs(best.amp), params.max_level_change_db);
         const std::vector<double> gliding = render_start(p, &q, sample_rate_hz, count);
+        const bool early_checked = past_strongest || tried > params.early_checked_after;
+        if (early_checked && raises_early_residual(note, copy, own, gliding, early, params.max_early_rise)) {
+            q = p_before_glide;
+            continue;
+        }
         for (std::size_t n = 0; n < count; ++n) copy[n] += gliding[n] - own[n];
         ++summary.glides;
     }
