@@ -6,6 +6,7 @@
 #include <algorithm>
 #include <cmath>
 #include <complex>
+#include <cstdint>
 #include <vector>
 
 #include "core/rng.hpp"
@@ -27,13 +28,19 @@ double mode_sample(const damped_mode& m, const std::vector<double>* shape, std::
     return a * (m.amp * std::polar(1.0, two_pi * m.freq_hz * t)).real();
 }
 
+/// count samples uniform in [-scale, scale] from the project's seeded generator.
+std::vector<float> seeded_noise(std::size_t count, std::uint64_t seed, double scale) {
+    splitmix64 rng{seed};
+    std::vector<float> x(count);
+    for (float& v : x) v = static_cast<float>(scale * rng.uniform_pm1());
+    return x;
+}
+
 }  // namespace
 
 TEST_CASE("fit_residual subtracts plain and shaped modes sample by sample", "[modes][residual]") {
     const std::size_t count = 6615;  // 150 ms: past the re-anchoring of the phasors
-    splitmix64 rng{7};
-    std::vector<float> x(count);
-    for (float& v : x) v = static_cast<float>(0.1 * rng.uniform_pm1());
+    const std::vector<float> x = seeded_noise(count, 7, 0.1);
     std::vector<damped_mode> modes;
     std::vector<mode_shape> shapes;
     for (int k = 0; k < 6; ++k) {
@@ -63,9 +70,7 @@ TEST_CASE("fit_residual subtracts plain and shaped modes sample by sample", "[mo
 TEST_CASE("band_energy_left gives the band's energy of the residual plus the mode, and of the mode, as its DFT bins do",
           "[modes][residual]") {
     const std::size_t count = 6615;
-    splitmix64 rng{19};
-    std::vector<float> r(count);
-    for (float& v : r) v = static_cast<float>(0.05 * rng.uniform_pm1());
+    const std::vector<float> r = seeded_noise(count, 19, 0.05);
     const damped_mode m{.freq_hz = 523.3, .decay_per_s = 40.0, .amp = std::polar(0.3, -1.1)};
     const note_spectrum spectrum(r, fs);
     const auto size = static_cast<std::size_t>(spectrum.fft_size());
@@ -97,9 +102,7 @@ TEST_CASE("many modes subtracted and projected by block products equal the sums 
           "[modes][residual]") {
     // 40 plain modes (the block products' path) over a span that is not a whole number of blocks.
     const std::size_t count = 7203;
-    splitmix64 rng{23};
-    std::vector<float> x(count);
-    for (float& v : x) v = static_cast<float>(0.2 * rng.uniform_pm1());
+    const std::vector<float> x = seeded_noise(count, 23, 0.2);
     std::vector<damped_mode> modes(40);
     for (std::size_t k = 0; k < modes.size(); ++k) {
         const auto kd = static_cast<double>(k);
