@@ -6,6 +6,7 @@
 #include <complex>
 #include <vector>
 
+#include "core/cosine_walk.hpp"
 #include "core/units.hpp"
 #include "modes/narrowband.hpp"
 #include "spectrum/stft.hpp"
@@ -26,22 +27,9 @@ span_spectrum spectrum_over(std::span<const float> note, double fs, double start
     const int size = fast_fft_size(zero_padding * static_cast<int>(n));
     std::vector<float> buffer(n);  // the windowed span; real_fft pads it with zeros to size
     double wsum = 0.0;
-    // cos(2 pi i / n) exact at every exact_every-th sample, between them rotated on by one step
-    // (a few ulps off at most): one cosine and sine per exact_every samples.
-    constexpr std::size_t exact_every = 16;
-    const double step = two_pi / static_cast<double>(n);
-    const double cos_step = std::cos(step), sin_step = std::sin(step);
-    double c = 1.0, s_i = 0.0;
+    cosine_walk cos_i(two_pi, static_cast<double>(n));  // cos(2 pi i / n)
     for (std::size_t i = 0; i < n; ++i) {
-        if (i % exact_every == 0) {
-            const double angle = two_pi * static_cast<double>(i) / static_cast<double>(n);
-            c = std::cos(angle);
-            s_i = std::sin(angle);
-        } else {
-            const double next_c = c * cos_step - s_i * sin_step;
-            s_i = s_i * cos_step + c * sin_step;
-            c = next_c;
-        }
+        const double c = cos_i.next();
         // Hann: w = 0.5 - 0.5 cos(2 pi i / n) (periodic form)
         const double w = 0.5 - 0.5 * c;
         buffer[i] = static_cast<float>(w * static_cast<double>(note[a + i]));

@@ -5,6 +5,7 @@
 #include <cassert>
 #include <cmath>
 
+#include "core/cosine_walk.hpp"
 #include "core/units.hpp"
 
 namespace wane {
@@ -89,20 +90,10 @@ double zero_phase_transform(std::span<const float> window, int fft_size, double 
     const std::size_t h = window.size() / 2;
     double sum = window[h];
     const double step = two_pi * nu_bins / fft_size;
-    // cos(step m) exact every exact_every-th tap, between them rotated on by step (a few ulps off
-    // at most), one cosine and sine per exact_every taps instead of a cosine per tap.
-    constexpr std::size_t exact_every = 16;
-    const double cos_step = std::cos(step), sin_step = std::sin(step);
-    double c = 1.0, s = 0.0;
+    cosine_walk cos_m(step, 1.0);  // cos(step m)
+    cos_m.next();                  // m = 0: the centre tap, summed above
     for (std::size_t m = 1; m <= h; ++m) {
-        if (m % exact_every == 0) {
-            c = std::cos(step * double(m));
-            s = std::sin(step * double(m));
-        } else {
-            const double next_c = c * cos_step - s * sin_step;
-            s = s * cos_step + c * sin_step;
-            c = next_c;
-        }
+        const double c = cos_m.next();
         sum += 2.0 * double(window[h + m]) * c;
     }
     return sum;
