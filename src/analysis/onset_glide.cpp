@@ -7,7 +7,6 @@
 #include <complex>
 #include <numeric>
 #include <optional>
-#include <tuple>
 #include <vector>
 
 #include "core/envelope.hpp"
@@ -49,12 +48,77 @@ struct block_sums {
     /// sum_b 2 |Z_b|^2 / block: with a = 1, the energy y holds within about a block's inverse of f
     /// (each block's sum is a boxcar filter at f, first null 1 / block_s away).
     double band_energy = 0.0;
+    /// tail_z[b] = sum_{b' >= b} |Z_b'|, tail_z1 the same of |Z1_b'| (count + 1 each): the
+    /// bound by which projection rejects a candidate early.
+    std::vector<double> tail_z;
+    std::vector<double> tail_z1;
 };
 
-/// The block sums with a = 1 (flat) and with a = q's envelope amplitude (shaped), one pass.
-void sum_blocks(std::span<const double> y, const partial& q, double gain_lin, double rate_hz, std::size_t block,
-                block_sums& flat, block_sums& shaped) {
-    const double cycles_per_frame = q.freq_hz / rate_hz;
+/// s's tail sums (block_sums::tail_z, tail_z1).
+void add_tails(block_sums& s) {
+    const std::size_t count = s.z.size();
+    s.tail_z.assign(count + 1, 0.0);
+    s.tail_z1.assign(count + 1, 0.0);
+    for (std::size_t b = count; b-- > 0;) {
+        s.tail_z[b] = s.tail_z[b + 1] + std::abs(s.z[b]);
+        s.tail_z1[b] = s.tail_z1[b + 1] + std::abs(s.z1[b]);
+    }
+}
+
+/// y[n] e^(-j 2 pi f n / fs) for n < count, its real and imaginary parts (the phasor from the
+/// fraction of n f / fs cycles), one vector loop compiled for AVX2 and for the baseline
+/// (synthesis/kernel_clones.hpp: the same bits).
+WANE_KERNEL_CLONES
+void heterodyne(const double* __restrict y, std::size_t count, double cycles_per_frame, double* __restrict re,
+                double* __restrict im) {
+    for (std::size_t n = 0; n < count; ++n) {
+        double cycles = static_cast<double>(n) * cycles_per_frame;
+        cycles -= std::floor(cycles);
+        double sin_p = 0.0, cos_p = 0.0;
+        sincos_poly(-two_pi * cycles, sin_p, cos_p);
+        re[n] = y[n] * cos_p;
+        im[n] = y[n] * sin_p;
+    }
+}
+
+/// z[n] = y[n] e^(-j 2 pi f n / fs) (heterodyne), kept per sample for the flat and the shaped sums.
+struct heterodyned {
+    std::vector<double> re;
+    std::vector<double> im;
+};
+
+heterodyned heterodyne(std::span<const double> y, double freq_hz, double rate_hz) {
+    heterodyned z{.re = std::vector<double>(y.size()), .im = std::vector<double>(y.size())};
+    heterodyne(y.data(), y.size(), freq_hz / rate_hz, z.re.data(), z.im.data());
+    return z;
+}
+
+/// The block sums with a = 1 (flat), from z.
+block_sums sum_flat(const heterodyned& z, double rate_hz, std::size_t block) {
+    block_sums flat;
+    for (std::size_t b0 = 0; b0 + block <= z.re.size(); b0 += block) {
+        const double centre = static_cast<double>(b0) + 0.5 * static_cast<double>(block - 1);
+        cplx zf{}, z1f{};
+        for (std::size_t n = b0; n < b0 + block; ++n) {
+            const cplx zn(z.re[n], z.im[n]);
+            const double offset = static_cast<double>(n) - centre;
+            zf += zn;
+            z1f += offset * zn;
+            flat.amp_energy += 1.0;
+        }
+        flat.band_energy += 2.0 * std::norm(zf) / static_cast<double>(block);
+        flat.z.push_back(zf);
+        flat.z1.push_back(z1f);
+        flat.centre_s.push_back(centre / rate_hz);
+    }
+    add_tails(flat);
+    return flat;
+}
+
+/// The block sums with a = q's envelope amplitude times gain_lin (shaped), from z: made only for
+/// a glide that is kept (its C).
+block_sums sum_shaped(const heterodyned& z, const partial& q, double gain_lin, double rate_hz, std::size_t block) {
+    block_sums shaped;
     // The envelope's amplitude (core/envelope.hpp's definition), its pieces made once.
     const std::vector<envelope_piece> pieces = envelope_pieces(q.env);
     const double peak_lin = to_amp(q.env.peak).lin;
@@ -80,33 +144,25 @@ void sum_blocks(std::span<const double> y, const partial& q, double gain_lin, do
         }
         return decay_amp;
     };
-    for (std::size_t b0 = 0; b0 + block <= y.size(); b0 += block) {
+    for (std::size_t b0 = 0; b0 + block <= z.re.size(); b0 += block) {
         const double centre = static_cast<double>(b0) + 0.5 * static_cast<double>(block - 1);
-        cplx zf{}, z1f{}, zs{}, z1s{};
+        cplx zs{}, z1s{};
         decay_amp = -1.0;  // exact again at each block's start
         for (std::size_t n = b0; n < b0 + block; ++n) {
             const double t = static_cast<double>(n) / rate_hz;
             const double a = gain_lin * amp_at(t);
-            double cycles = static_cast<double>(n) * cycles_per_frame;
-            cycles -= std::floor(cycles);
-            double sin_p = 0.0, cos_p = 0.0;
-            sincos_poly(-two_pi * cycles, sin_p, cos_p);
-            const cplx z = y[n] * cplx(cos_p, sin_p);
+            const cplx zn(z.re[n], z.im[n]);
             const double offset = static_cast<double>(n) - centre;
-            zf += z;
-            z1f += offset * z;
-            zs += a * z;
-            z1s += offset * a * z;
-            flat.amp_energy += 1.0;
+            zs += a * zn;
+            z1s += offset * a * zn;
             shaped.amp_energy += a * a;
         }
-        for (auto [sums, z0, z1] : {std::tuple{&flat, zf, z1f}, std::tuple{&shaped, zs, z1s}}) {
-            sums->band_energy += 2.0 * std::norm(z0) / static_cast<double>(block);
-            sums->z.push_back(z0);
-            sums->z1.push_back(z1);
-            sums->centre_s.push_back(centre / rate_hz);
-        }
+        shaped.band_energy += 2.0 * std::norm(zs) / static_cast<double>(block);
+        shaped.z.push_back(zs);
+        shaped.z1.push_back(z1s);
+        shaped.centre_s.push_back(centre / rate_hz);
     }
+    return shaped;
 }
 
 /// The block sums of blocks twice as long (pairs merged, Z1 moved to the pair's centre): the
@@ -122,6 +178,7 @@ block_sums merged_pairs(const block_sums& s, double rate_hz) {
         out.z1.push_back(s.z1[b] - half_frames * s.z[b] + s.z1[b + 1] + half_frames * s.z[b + 1]);
         out.centre_s.push_back(centre_s);
     }
+    add_tails(out);
     return out;
 }
 
@@ -140,10 +197,7 @@ glide_terms terms_at(double cents, double glide_s, std::span<const double> decay
     glide_terms out{.cents = cents, .glide_s = glide_s,
                     .whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0),
                     .remaining_rad_per_hz = std::vector<double>(decay.size()), .excess = std::vector<double>(decay.size())};
-    for (std::size_t b = 0; b < decay.size(); ++b) {
-        out.remaining_rad_per_hz[b] = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, decay[b]);
-        out.excess[b] = glide_freq_excess_at_decay(cents, decay[b]);
-    }
+    glide_terms_at_decays(cents, glide_s, decay, out.remaining_rad_per_hz, out.excess);
     return out;
 }
 
@@ -157,27 +211,45 @@ void glide_phases(double freq_hz, double whole_rad_per_hz, const double* __restr
         sincos_poly(freq_hz * (whole_rad_per_hz - remaining_rad_per_hz[b]), sin_g[b], cos_g[b]);
 }
 
+/// Blocks summed between two looks at projection's bound.
+constexpr std::size_t bound_chunk_blocks = 8;
+/// The bound's padding, relative: far above the rounding of the sums it bounds (a few ulps per
+/// block), so a candidate it rejects would have come out under the floor had it been summed.
+constexpr double bound_margin = 1e-9;
+
 /// S(c0, tau) from the block sums (onset_glide.hpp): sum_b e^(-j g_b) (Z_b - j g'_b Z1_b) with
-/// g_b = f (G - R(t_b)) / f and g'_b = 2 pi f / fs times the excess (per frame).
-cplx projection(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz, std::vector<double>& scratch) {
+/// g_b = f (G - R(t_b)) / f and g'_b = 2 pi f / fs times the excess (per frame); none once it is
+/// clear that |S|^2 < floor_norm. The blocks are summed in order, bound_chunk_blocks at a time;
+/// after each stretch |S| <= |sum so far| + sum over the blocks left of (|Z_b| + |g'_b| |Z1_b|),
+/// |g'_b| there at most its value at the first block left (the excess shrinks with the decay):
+/// the tail sums once per partial (block_sums::tail_z) bound every candidate's rest.
+std::optional<cplx> projection(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz,
+                               double floor_norm, std::vector<double>& scratch) {
     if (t.cents == 0.0) return std::accumulate(s.z.begin(), s.z.end(), cplx{});
     const std::size_t count = s.z.size();
-    assert(t.excess.size() == count);
+    assert(t.excess.size() == count && (!(floor_norm > 0.0) || s.tail_z.size() == count + 1));
     scratch.resize(2 * count);
     double* sin_g = scratch.data();
     double* cos_g = scratch.data() + count;
-    glide_phases(freq_hz, t.whole_rad_per_hz, t.remaining_rad_per_hz.data(), count, sin_g, cos_g);
     const double rad_per_frame = two_pi * freq_hz / rate_hz;
     double re = 0.0, im = 0.0;
-    for (std::size_t b = 0; b < count; ++b) {
-        const double slope = rad_per_frame * t.excess[b];  // g' per frame
-        // a = Z - j slope Z1; (cos g - j sin g) a.
-        const double a_re = s.z[b].real() + slope * s.z1[b].imag();
-        const double a_im = s.z[b].imag() - slope * s.z1[b].real();
-        re += cos_g[b] * a_re + sin_g[b] * a_im;
-        im += cos_g[b] * a_im - sin_g[b] * a_re;
+    for (std::size_t b0 = 0; b0 < count; b0 += bound_chunk_blocks) {
+        const std::size_t b1 = std::min(count, b0 + bound_chunk_blocks);
+        glide_phases(freq_hz, t.whole_rad_per_hz, t.remaining_rad_per_hz.data() + b0, b1 - b0, sin_g + b0, cos_g + b0);
+        for (std::size_t b = b0; b < b1; ++b) {
+            const double slope = rad_per_frame * t.excess[b];  // g' per frame
+            // a = Z - j slope Z1; (cos g - j sin g) a.
+            const double a_re = s.z[b].real() + slope * s.z1[b].imag();
+            const double a_im = s.z[b].imag() - slope * s.z1[b].real();
+            re += cos_g[b] * a_re + sin_g[b] * a_im;
+            im += cos_g[b] * a_im - sin_g[b] * a_re;
+        }
+        if (b1 == count || !(floor_norm > 0.0)) continue;
+        const double bound = std::sqrt(re * re + im * im) + s.tail_z[b1] + std::abs(rad_per_frame * t.excess[b1]) * s.tail_z1[b1];
+        const double padded = bound * (1.0 + bound_margin);
+        if (padded * padded < floor_norm) return std::nullopt;
     }
-    return {re, im};
+    return cplx{re, im};
 }
 
 struct glide_fit {
@@ -194,11 +266,19 @@ std::vector<double> decays(const block_sums& s, double glide_s) {
     return out;
 }
 
-glide_fit evaluate(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz) {
+/// The fit at t, or none when it explains less than floor_explained (a bound shows it before the
+/// whole sum: projection).
+std::optional<glide_fit> evaluate_above(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz,
+                                        double floor_explained) {
     thread_local std::vector<double> scratch;  // the blocks' sin and cos, kept between calls
-    const cplx sum = projection(s, freq_hz, t, rate_hz, scratch);
-    return {.cents = t.cents, .glide_s = t.glide_s, .explained = 2.0 * std::norm(sum) / s.amp_energy,
-            .amp = 2.0 * sum / s.amp_energy};
+    const std::optional<cplx> sum = projection(s, freq_hz, t, rate_hz, 0.5 * floor_explained * s.amp_energy, scratch);
+    if (!sum) return std::nullopt;
+    return glide_fit{.cents = t.cents, .glide_s = t.glide_s, .explained = 2.0 * std::norm(*sum) / s.amp_energy,
+                     .amp = 2.0 * *sum / s.amp_energy};
+}
+
+glide_fit evaluate(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz) {
+    return *evaluate_above(s, freq_hz, t, rate_hz, -infinity);
 }
 
 glide_fit evaluate(const block_sums& s, double freq_hz, double cents, double glide_s, double rate_hz) {
@@ -236,8 +316,8 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
     if (!grid) grid = make_coarse_grid(coarse_sums, params);
     for (const glide_terms& t : grid->points) {
         if (t.glide_s > longest_s) continue;
-        const glide_fit f = evaluate(coarse_sums, freq_hz, t, rate_hz);
-        if (f.explained > best.explained) best = f;
+        const std::optional<glide_fit> f = evaluate_above(coarse_sums, freq_hz, t, rate_hz, best.explained);
+        if (f && f->explained > best.explained) best = *f;
     }
     const glide_fit coarse = best;
     if (coarse.explained < coarse_floor) return coarse;
@@ -251,8 +331,8 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
         for (int i = -fine; i <= fine; ++i) {
             const double cents = coarse.cents + i * params.fine_cents_step;
             if (cents == 0.0) continue;
-            const glide_fit f = evaluate(s, freq_hz, terms_at(cents, glide_s, decay), rate_hz);
-            if (f.explained > best.explained) best = f;
+            const std::optional<glide_fit> f = evaluate_above(s, freq_hz, terms_at(cents, glide_s, decay), rate_hz, best.explained);
+            if (f && f->explained > best.explained) best = *f;
         }
     }
     return best;
@@ -271,10 +351,9 @@ bool is_short_lived(const partial& q, const onset_glide_params& params) {
 std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, double gain_lin, double rate_hz,
                                    std::size_t block, const onset_glide_params& params, std::optional<coarse_grid>& grid,
                                    double min_extra) {
-    block_sums flat;
-    block_sums shaped;
-    sum_blocks(y, q, gain_lin, rate_hz, block, flat, shaped);
-    if (!(flat.amp_energy > 0.0) || !(shaped.amp_energy > 0.0)) return std::nullopt;
+    const heterodyned z = heterodyne(y, q.freq_hz, rate_hz);
+    const block_sums flat = sum_flat(z, rate_hz, block);
+    if (!(flat.amp_energy > 0.0)) return std::nullopt;
     const glide_fit none = evaluate(flat, q.freq_hz, 0.0, 0.0, rate_hz);
     const bool short_lived = is_short_lived(q, params);
     // The longest time constant on the grid for q (1e-9: the grid's own rounding).
@@ -293,6 +372,8 @@ std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, 
         extra < share * std::min(none.explained, unexplained) || extra < min_extra) {
         return std::nullopt;
     }
+    const block_sums shaped = sum_shaped(z, q, gain_lin, rate_hz, block);
+    if (!(shaped.amp_energy > 0.0)) return std::nullopt;
     best.amp = evaluate(shaped, q.freq_hz, best.cents, best.glide_s, rate_hz).amp;
     return best;
 }

@@ -34,6 +34,20 @@ constexpr std::array<double, ein_series_terms> ein_coefficients = [] {
 constexpr double short_series_max_x = 1.0 / 16.0;
 constexpr std::size_t short_series_terms = 8;
 
+/// expm1's series to x^9 / 9! for |x| <= short_series_max_x (glide_terms_at_decays).
+constexpr std::size_t expm1_series_terms = 9;
+
+/// Its coefficients 1 / k!, k = 1 .. 9.
+constexpr std::array<double, expm1_series_terms> expm1_coefficients = [] {
+    std::array<double, expm1_series_terms> c{};
+    double factorial = 1.0;
+    for (std::size_t k = 1; k <= expm1_series_terms; ++k) {
+        factorial *= static_cast<double>(k);
+        c[k - 1] = 1.0 / factorial;
+    }
+    return c;
+}();
+
 /// Ein(x) = sum_{k=1..16} x^k / (k k!), for |x| <= ln 2 (asserted), by Horner's rule (8 terms
 /// where they suffice).
 double ein(double x) {
@@ -58,6 +72,30 @@ double glide_remaining_phase_at_decay_rad(double freq_hz, double glide_cents, do
 
 double glide_freq_excess_at_decay(double glide_cents, double decay) {
     return std::expm1(nepers_per_cent * glide_cents * decay);
+}
+
+void glide_terms_at_decays(double glide_cents, double glide_s, std::span<const double> decay,
+                           std::span<double> remaining_rad_per_hz, std::span<double> excess) {
+    assert(remaining_rad_per_hz.size() == decay.size() && excess.size() == decay.size());
+    const double x0 = nepers_per_cent * glide_cents;
+    if (glide_cents == 0.0 || std::abs(x0) > short_series_max_x) {
+        for (std::size_t b = 0; b < decay.size(); ++b) {
+            remaining_rad_per_hz[b] = glide_remaining_phase_at_decay_rad(1.0, glide_cents, glide_s, decay[b]);
+            excess[b] = glide_freq_excess_at_decay(glide_cents, decay[b]);
+        }
+        return;
+    }
+    const double rad_per_hz = two_pi * 1.0 * glide_s;  // glide_remaining_phase_at_decay_rad's factor at f = 1 Hz
+    for (std::size_t b = 0; b < decay.size(); ++b) {
+        assert(std::abs(decay[b]) <= 1.0);
+        const double x = x0 * decay[b];  // the product ein's caller forms, nepers_per_cent * cents * decay
+        double ein_sum = 0.0;
+        for (std::size_t k = short_series_terms; k-- > 0;) ein_sum = (ein_sum + ein_coefficients[k]) * x;
+        double expm1_sum = 0.0;
+        for (std::size_t k = expm1_series_terms; k-- > 0;) expm1_sum = (expm1_sum + expm1_coefficients[k]) * x;
+        remaining_rad_per_hz[b] = rad_per_hz * ein_sum;
+        excess[b] = expm1_sum;
+    }
 }
 
 double glide_remaining_phase_rad(double freq_hz, double glide_cents, double glide_s, double time_s) {

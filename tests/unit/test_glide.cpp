@@ -249,3 +249,27 @@ TEST_CASE("the worked glide in patches/README.md gives the figures it states", "
     CHECK_THAT(glide_cents_at(40.0, 0.03, 0.1), Catch::Matchers::WithinAbs(1.43, 0.005));
     CHECK_THAT(glide_total_phase_rad(220.0, 40.0, 0.03), Catch::Matchers::WithinAbs(0.964, 0.0005));
 }
+
+TEST_CASE("glide terms at many decays match the one-instant functions: R bit for bit, the excess within 4e-16",
+          "[glide]") {
+    // Offsets on both sides of the series' limit (108 cents) and decays over [0, 1]: R against
+    // glide_remaining_phase_at_decay_rad (the same series), the excess against the library's expm1.
+    const std::vector<double> decay = [] {
+        std::vector<double> d;
+        for (int b = 0; b <= 200; ++b) d.push_back(std::exp(-0.05 * b));
+        d.push_back(0.0);
+        return d;
+    }();
+    for (const double cents : {-1200.0, -108.5, -100.0, -37.25, -0.5, 0.0, 0.5, 4.0, 96.0, 107.9, 109.0, 700.0}) {
+        for (const double glide_s : {0.005, 0.25}) {
+            std::vector<double> remaining(decay.size()), excess(decay.size());
+            glide_terms_at_decays(cents, glide_s, decay, remaining, excess);
+            for (std::size_t b = 0; b < decay.size(); ++b) {
+                INFO("cents " << cents << ", glide_s " << glide_s << ", decay " << decay[b]);
+                CHECK(remaining[b] == glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, decay[b]));
+                const double want = std::expm1(std::log(2.0) / 1200.0 * cents * decay[b]);
+                CHECK(std::abs(excess[b] - want) <= 4e-16 * std::abs(want));
+            }
+        }
+    }
+}
