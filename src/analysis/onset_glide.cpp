@@ -5,6 +5,7 @@
 #include <cassert>
 #include <cmath>
 #include <complex>
+#include <cstdint>
 #include <numeric>
 #include <optional>
 #include <vector>
@@ -71,9 +72,11 @@ void add_tails(block_sums& s) {
 WANE_KERNEL_CLONES
 void heterodyne(const double* __restrict y, std::size_t count, double cycles_per_frame, double* __restrict re,
                 double* __restrict im) {
-    for (std::size_t n = 0; n < count; ++n) {
+    assert(count < (std::size_t{1} << 31U) && cycles_per_frame >= 0.0 && cycles_per_frame <= 0.5);
+    const auto frames = static_cast<std::int32_t>(count);
+    for (std::int32_t n = 0; n < frames; ++n) {  // a 32-bit count: its conversion to double vectorizes
         double cycles = static_cast<double>(n) * cycles_per_frame;
-        cycles -= std::floor(cycles);
+        cycles -= static_cast<double>(static_cast<std::int32_t>(cycles));  // its floor: cycles >= 0
         double sin_p = 0.0, cos_p = 0.0;
         sincos_poly(-two_pi * cycles, sin_p, cos_p);
         re[n] = y[n] * cos_p;
