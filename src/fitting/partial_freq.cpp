@@ -43,21 +43,29 @@ double heard_freq_hz(std::span<const track_point> pts, std::size_t peak, std::si
         // The grid's powers with each frame's phasor w e^(i (phi - 2 pi f t)) turned by one step
         // per grid point (two sincos per frame, not one per frame and point; the turns' rounding,
         // ~1e-14 rad over the grid, is under that of the phase 2 pi f t itself).
-        std::vector<std::complex<double>> phasor(w.size()), turn(w.size());
+        // The phasors on real and imaginary parts: the sum over the frames in frame order, then the
+        // turn, a complex product written out (the numbers of std::complex's for finite values),
+        // a loop the compiler vectorizes.
+        const std::size_t frames = w.size();
+        std::vector<double> ph_re(frames), ph_im(frames), turn_re(frames), turn_im(frames);
         const double lowest_hz = centre_hz - steps * step_hz;
-        for (std::size_t k = 0; k < w.size(); ++k) {
-            phasor[k] = std::polar(w[k], phi[k] - two_pi * lowest_hz * t[k]);
-            turn[k] = std::polar(1.0, -two_pi * step_hz * t[k]);
+        for (std::size_t k = 0; k < frames; ++k) {
+            const std::complex<double> phasor = std::polar(w[k], phi[k] - two_pi * lowest_hz * t[k]);
+            const std::complex<double> turn = std::polar(1.0, -two_pi * step_hz * t[k]);
+            ph_re[k] = phasor.real(), ph_im[k] = phasor.imag();
+            turn_re[k] = turn.real(), turn_im[k] = turn.imag();
         }
         int best = -steps;
         double best_p = -1.0;
         for (int j = -steps; j <= steps; ++j) {
-            std::complex<double> sum{};
-            for (std::size_t k = 0; k < w.size(); ++k) {
-                sum += phasor[k];
-                phasor[k] *= turn[k];
+            double sum_re = 0.0, sum_im = 0.0;
+            for (std::size_t k = 0; k < frames; ++k) sum_re += ph_re[k], sum_im += ph_im[k];
+            for (std::size_t k = 0; k < frames; ++k) {
+                const double re = ph_re[k] * turn_re[k] - ph_im[k] * turn_im[k];
+                ph_im[k] = ph_re[k] * turn_im[k] + ph_im[k] * turn_re[k];
+                ph_re[k] = re;
             }
-            if (const double pw = std::norm(sum); pw > best_p) best_p = pw, best = j;
+            if (const double pw = std::norm(std::complex<double>{sum_re, sum_im}); pw > best_p) best_p = pw, best = j;
         }
         if (best > -steps && best < steps) {
             // Parabolas through the log power at the peak and its neighbours: on the grid, then
