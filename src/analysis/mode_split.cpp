@@ -291,6 +291,12 @@ std::optional<std::vector<damped_mode>> modes_of_poles(std::span<const std::comp
     return out;
 }
 
+/// The mode's offset from freq_hz is more than max_heard_shift_cents (check_modes's test of the
+/// mode heard most).
+bool shifted(const damped_mode& m, double freq_hz, const mode_split_params& params) {
+    return std::abs(1200.0 * std::log2(m.freq_hz / freq_hz)) > params.max_heard_shift_cents;
+}
+
 /// The fitted modes as a mode set; empty when a mode is louder than tame_amp or the mode heard
 /// most over 0.1-1.1 s moved (header).
 std::optional<mode_set> check_modes(std::vector<damped_mode> modes, const cvec& band, std::size_t settle, double freq_hz,
@@ -306,7 +312,7 @@ std::optional<mode_set> check_modes(std::vector<damped_mode> modes, const cvec& 
     };
     const auto main = std::max_element(out.modes.begin(), out.modes.end(),
                                        [&](const damped_mode& a, const damped_mode& b) { return heard(a) < heard(b); });
-    if (std::abs(1200.0 * std::log2(main->freq_hz / freq_hz)) > params.max_heard_shift_cents) return std::nullopt;
+    if (shifted(*main, freq_hz, params)) return std::nullopt;
     // ... and stays the one peak there an octave down too: a mode closer than twice
     // min_separation_hz is heard at least min_heard_margin_db less.
     const double loudest_near = heard(*main) * to_amp(level_db{-params.min_heard_margin_db}).lin *
@@ -335,6 +341,11 @@ std::optional<mode_set> choose_modes(const cvec& band, double freq_hz, std::size
     std::vector<std::optional<std::vector<damped_mode>>> sets;
     for (int order = 1; order <= params.max_modes; ++order)
         sets.push_back(modes_of_poles(poles[static_cast<std::size_t>(order - 1)], order, freq_hz, band_rate_hz, params));
+    // A set none of whose modes lies within max_heard_shift_cents of f fails check_modes whatever
+    // its amplitudes (the mode heard most is one of them): it is not fitted.
+    for (auto& set : sets)
+        if (set && std::all_of(set->begin(), set->end(), [&](const damped_mode& m) { return shifted(m, freq_hz, params); }))
+            set.reset();
     fit_mode_amplitude_sets(target, sample_rate_hz, sets);
     for (int order = 1; order <= params.max_modes; ++order) {
         auto& modes = sets[static_cast<std::size_t>(order - 1)];
