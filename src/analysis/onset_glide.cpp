@@ -311,15 +311,18 @@ coarse_grid make_coarse_grid(const block_sums& coarse_sums, const onset_glide_pa
 }
 
 /// The best (c0, tau): the coarse grid (time constants up to longest_s), then the fine one around
-/// its best, unless the coarse best explains less than coarse_floor (then that best).
+/// its best, unless the coarse best explains less than coarse_floor (then a fit under it, none
+/// of which the caller keeps). The fine best where it explains kept_floor or more; under it a
+/// fit under kept_floor (the caller keeps none of those either). Candidates a bound shows under
+/// the floor that applies are not summed whole (evaluate_above).
 glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onset_glide_params& params,
-                 std::optional<coarse_grid>& grid, double longest_s, double coarse_floor) {
+                 std::optional<coarse_grid>& grid, double longest_s, double coarse_floor, double kept_floor) {
     glide_fit best;
     const block_sums coarse_sums = merged_pairs(s, rate_hz);
     if (!grid) grid = make_coarse_grid(coarse_sums, params);
     for (const glide_terms& t : grid->points) {
         if (t.glide_s > longest_s) continue;
-        const std::optional<glide_fit> f = evaluate_above(coarse_sums, freq_hz, t, rate_hz, best.explained);
+        const std::optional<glide_fit> f = evaluate_above(coarse_sums, freq_hz, t, rate_hz, std::max(best.explained, coarse_floor));
         if (f && f->explained > best.explained) best = *f;
     }
     const glide_fit coarse = best;
@@ -334,7 +337,8 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
         for (int i = -fine; i <= fine; ++i) {
             const double cents = coarse.cents + i * params.fine_cents_step;
             if (cents == 0.0) continue;
-            const std::optional<glide_fit> f = evaluate_above(s, freq_hz, terms_at(cents, glide_s, decay), rate_hz, best.explained);
+            const std::optional<glide_fit> f =
+                evaluate_above(s, freq_hz, terms_at(cents, glide_s, decay), rate_hz, std::max(best.explained, kept_floor));
             if (f && f->explained > best.explained) best = *f;
         }
     }
@@ -361,7 +365,14 @@ std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, 
     const bool short_lived = is_short_lived(q, params);
     // The longest time constant on the grid for q (1e-9: the grid's own rounding).
     const double longest_s = short_lived ? params.max_short_lived_glide_s : params.max_fit_glide_s * (1.0 + 1e-9);
-    glide_fit best = search(flat, q.freq_hz, rate_hz, params, grid, longest_s, none.explained + 0.5 * min_extra);
+    const double share = std::pow(10.0, params.min_gain_db / 10.0) - 1.0;
+    // The least E the checks below keep, solved for E (extra >= min_extra, and extra >= share times
+    // none.explained or times band_energy - E), less 1e-9 of it against rounding: a fine best
+    // under it is dropped, whichever it is.
+    const double n0 = none.explained;
+    const double kept_floor = std::max(n0 + min_extra, std::min(n0 + share * n0, (n0 + share * flat.band_energy) / (1.0 + share))) *
+                              (1.0 - 1e-9);
+    glide_fit best = search(flat, q.freq_hz, rate_hz, params, grid, longest_s, n0 + 0.5 * min_extra, kept_floor);
     // A best at the grid's edge (the largest offset or the longest time constant) is a partial
     // off its frequency over the whole span, not a glide that settles onto it.
     const double edge_s = short_lived ? longest_s : params.max_fit_glide_s;
@@ -369,7 +380,6 @@ std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, 
     // What the glide explains more, against the smaller of what the partial explains without it
     // and what stays unexplained near f.
     const double unexplained = flat.band_energy - best.explained;
-    const double share = std::pow(10.0, params.min_gain_db / 10.0) - 1.0;
     const double extra = best.explained - none.explained;
     if (!(unexplained > 0.0 && extra > 0.0) || at_edge || std::abs(best.cents) < params.min_cents ||
         extra < share * std::min(none.explained, unexplained) || extra < min_extra) {
