@@ -194,13 +194,29 @@ struct glide_terms {
     double whole_rad_per_hz = 0.0;
     std::vector<double> remaining_rad_per_hz;
     std::vector<double> excess;
+    /// Terms made lazily (the fine grid's, most of whose candidates the bound rejects early):
+    /// the first `filled` blocks' are made, the rest come from decay as projection reaches them.
+    std::span<const double> decay{};
+    std::size_t filled = 0;
 };
+
+/// t's terms for the blocks before upto (made from t.decay where not made yet; the same numbers
+/// as made all at once).
+void fill_terms(glide_terms& t, std::size_t upto) {
+    if (t.filled >= upto) return;
+    const std::size_t n = upto - t.filled;
+    glide_terms_at_decays(t.cents, t.glide_s, t.decay.subspan(t.filled, n),
+                          std::span<double>(t.remaining_rad_per_hz).subspan(t.filled, n),
+                          std::span<double>(t.excess).subspan(t.filled, n));
+    t.filled = upto;
+}
 
 glide_terms terms_at(double cents, double glide_s, std::span<const double> decay) {
     glide_terms out{.cents = cents, .glide_s = glide_s,
                     .whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0),
                     .remaining_rad_per_hz = std::vector<double>(decay.size()), .excess = std::vector<double>(decay.size())};
     glide_terms_at_decays(cents, glide_s, decay, out.remaining_rad_per_hz, out.excess);
+    out.filled = decay.size();
     return out;
 }
 
@@ -226,7 +242,7 @@ constexpr double bound_margin = 1e-9;
 /// after each stretch |S| <= |sum so far| + sum over the blocks left of (|Z_b| + |g'_b| |Z1_b|),
 /// |g'_b| there at most its value at the first block left (the excess shrinks with the decay):
 /// the tail sums once per partial (block_sums::tail_z) bound every candidate's rest.
-std::optional<cplx> projection(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz,
+std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz,
                                double floor_norm, std::vector<double>& scratch) {
     if (t.cents == 0.0) return std::accumulate(s.z.begin(), s.z.end(), cplx{});
     const std::size_t count = s.z.size();
@@ -238,6 +254,7 @@ std::optional<cplx> projection(const block_sums& s, double freq_hz, const glide_
     double re = 0.0, im = 0.0;
     for (std::size_t b0 = 0; b0 < count; b0 += bound_chunk_blocks) {
         const std::size_t b1 = std::min(count, b0 + bound_chunk_blocks);
+        fill_terms(t, std::min(count, b1 + 1));  // b1's excess for the bound
         glide_phases(freq_hz, t.whole_rad_per_hz, t.remaining_rad_per_hz.data() + b0, b1 - b0, sin_g + b0, cos_g + b0);
         for (std::size_t b = b0; b < b1; ++b) {
             const double slope = rad_per_frame * t.excess[b];  // g' per frame
@@ -271,7 +288,7 @@ std::vector<double> decays(const block_sums& s, double glide_s) {
 
 /// The fit at t, or none when it explains less than floor_explained (a bound shows it before the
 /// whole sum: projection).
-std::optional<glide_fit> evaluate_above(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz,
+std::optional<glide_fit> evaluate_above(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz,
                                         double floor_explained) {
     thread_local std::vector<double> scratch;  // the blocks' sin and cos, kept between calls
     const std::optional<cplx> sum = projection(s, freq_hz, t, rate_hz, 0.5 * floor_explained * s.amp_energy, scratch);
@@ -280,13 +297,13 @@ std::optional<glide_fit> evaluate_above(const block_sums& s, double freq_hz, con
                      .amp = 2.0 * *sum / s.amp_energy};
 }
 
-glide_fit evaluate(const block_sums& s, double freq_hz, const glide_terms& t, double rate_hz) {
+glide_fit evaluate(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz) {
     return *evaluate_above(s, freq_hz, t, rate_hz, -infinity);
 }
 
 glide_fit evaluate(const block_sums& s, double freq_hz, double cents, double glide_s, double rate_hz) {
-    if (cents == 0.0) return evaluate(s, freq_hz, glide_terms{}, rate_hz);
-    return evaluate(s, freq_hz, terms_at(cents, glide_s, decays(s, glide_s)), rate_hz);
+    glide_terms t = cents == 0.0 ? glide_terms{} : terms_at(cents, glide_s, decays(s, glide_s));
+    return evaluate(s, freq_hz, t, rate_hz);
 }
 
 /// The coarse grid's glide terms on the merged blocks: the same for every partial of a note (the
@@ -320,7 +337,7 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
     glide_fit best;
     const block_sums coarse_sums = merged_pairs(s, rate_hz);
     if (!grid) grid = make_coarse_grid(coarse_sums, params);
-    for (const glide_terms& t : grid->points) {
+    for (glide_terms& t : grid->points) {  // made whole: projection makes none
         if (t.glide_s > longest_s) continue;
         const std::optional<glide_fit> f = evaluate_above(coarse_sums, freq_hz, t, rate_hz, std::max(best.explained, coarse_floor));
         if (f && f->explained > best.explained) best = *f;
@@ -330,6 +347,7 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
     best = evaluate(s, freq_hz, coarse.cents, coarse.glide_s, rate_hz);  // on the fine blocks
     const auto fine = static_cast<int>(std::round(params.cents_step / params.fine_cents_step));
     const int half_octave = params.fine_glide_s_steps_per_octave / 2;
+    glide_terms lazy{.remaining_rad_per_hz = std::vector<double>(s.z.size()), .excess = std::vector<double>(s.z.size())};
     for (int j = -half_octave; j <= half_octave; ++j) {
         const double glide_s = std::clamp(coarse.glide_s * std::exp2(static_cast<double>(j) / params.fine_glide_s_steps_per_octave),
                                           params.min_fit_glide_s / 2.0, max_glide_s);
@@ -337,8 +355,12 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
         for (int i = -fine; i <= fine; ++i) {
             const double cents = coarse.cents + i * params.fine_cents_step;
             if (cents == 0.0) continue;
-            const std::optional<glide_fit> f =
-                evaluate_above(s, freq_hz, terms_at(cents, glide_s, decay), rate_hz, std::max(best.explained, kept_floor));
+            lazy.cents = cents;
+            lazy.glide_s = glide_s;
+            lazy.whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0);
+            lazy.decay = decay;
+            lazy.filled = 0;
+            const std::optional<glide_fit> f = evaluate_above(s, freq_hz, lazy, rate_hz, std::max(best.explained, kept_floor));
             if (f && f->explained > best.explained) best = *f;
         }
     }
