@@ -1,0 +1,247 @@
+// The block sums behind the onset glide search and S(c0, tau) from them (see glide_projection.hpp).
+#include "analysis/glide_projection.hpp"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+#include <cstdint>
+#include <numeric>
+
+#include "core/envelope.hpp"
+#include "core/glide.hpp"
+#include "core/sincos_poly.hpp"
+#include "core/units.hpp"
+#include "synthesis/kernel_clones.hpp"
+
+namespace wane::glide_projection {
+
+namespace {
+
+using cplx = std::complex<double>;
+
+/// s's tail sums (block_sums::tail_z, tail_z1).
+void add_tails(block_sums& s) {
+    const std::size_t count = s.z.size();
+    s.tail_z.assign(count + 1, 0.0);
+    s.tail_z1.assign(count + 1, 0.0);
+    for (std::size_t b = count; b-- > 0;) {
+        s.tail_z[b] = s.tail_z[b + 1] + std::abs(s.z[b]);
+        s.tail_z1[b] = s.tail_z1[b + 1] + std::abs(s.z1[b]);
+    }
+}
+
+/// y[n] e^(-j 2 pi f n / fs) for n < count, its real and imaginary parts (the phasor from the
+/// fraction of n f / fs cycles), one vector loop compiled for AVX2 and for the baseline
+/// (synthesis/kernel_clones.hpp: the same bits).
+WANE_KERNEL_CLONES
+void heterodyne(const double* __restrict y, std::size_t count, double cycles_per_frame, double* __restrict re,
+                double* __restrict im) {
+    assert(count < (std::size_t{1} << 31U) && cycles_per_frame >= 0.0 && cycles_per_frame <= 0.5);
+    const auto frames = static_cast<std::int32_t>(count);
+    for (std::int32_t n = 0; n < frames; ++n) {  // a 32-bit count: its conversion to double vectorizes
+        double cycles = static_cast<double>(n) * cycles_per_frame;
+        cycles -= static_cast<double>(static_cast<std::int32_t>(cycles));  // its floor: cycles >= 0
+        double sin_p = 0.0, cos_p = 0.0;
+        sincos_poly(-two_pi * cycles, sin_p, cos_p);
+        re[n] = y[n] * cos_p;
+        im[n] = y[n] * sin_p;
+    }
+}
+
+/// t's terms for the blocks before upto (made from t.decay where not made yet; the same numbers
+/// as made all at once).
+void fill_terms(glide_terms& t, std::size_t upto) {
+    if (t.filled >= upto) return;
+    const std::size_t n = upto - t.filled;
+    glide_terms_at_decays(t.cents, t.glide_s, t.decay.subspan(t.filled, n),
+                          std::span<double>(t.remaining_rad_per_hz).subspan(t.filled, n),
+                          std::span<double>(t.excess).subspan(t.filled, n));
+    t.filled = upto;
+}
+
+/// sin_g[b], cos_g[b] of freq_hz (whole_rad_per_hz - remaining_rad_per_hz[b]) for b < count: the
+/// glide's phase at each block, one vector loop (no reduction), compiled for AVX2 and for the
+/// baseline (synthesis/kernel_clones.hpp: no FMA, element-wise IEEE operations, the same bits).
+WANE_KERNEL_CLONES
+void glide_phases(double freq_hz, double whole_rad_per_hz, const double* __restrict remaining_rad_per_hz,
+                  std::size_t count, double* __restrict sin_g, double* __restrict cos_g) {
+    for (std::size_t b = 0; b < count; ++b)
+        sincos_poly(freq_hz * (whole_rad_per_hz - remaining_rad_per_hz[b]), sin_g[b], cos_g[b]);
+}
+
+/// Blocks summed between two looks at projection's bound.
+constexpr std::size_t bound_chunk_blocks = 8;
+/// The bound's padding, relative: far above the rounding of the sums it bounds (a few ulps per
+/// block), so a candidate it rejects would have come out under the floor had it been summed.
+constexpr double bound_margin = 1e-9;
+
+/// S(c0, tau) from the block sums (onset_glide.hpp): sum_b e^(-j g_b) (Z_b - j g'_b Z1_b) with
+/// g_b = f (G - R(t_b)) / f and g'_b = 2 pi f / fs times the excess (per frame); none once it is
+/// clear that |S|^2 < floor_norm. The blocks are summed in order, bound_chunk_blocks at a time;
+/// after each stretch |S| <= |sum so far| + sum over the blocks left of (|Z_b| + |g'_b| |Z1_b|),
+/// |g'_b| there at most its value at the first block left (the excess shrinks with the decay):
+/// the tail sums once per partial (block_sums::tail_z) bound every candidate's rest.
+std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz,
+                               double floor_norm, std::vector<double>& scratch) {
+    if (t.cents == 0.0) return std::accumulate(s.z.begin(), s.z.end(), cplx{});
+    const std::size_t count = s.z.size();
+    assert(t.excess.size() == count && (!(floor_norm > 0.0) || s.tail_z.size() == count + 1));
+    scratch.resize(2 * count);
+    double* sin_g = scratch.data();
+    double* cos_g = scratch.data() + count;
+    const double rad_per_frame = two_pi * freq_hz / rate_hz;
+    double re = 0.0, im = 0.0;
+    for (std::size_t b0 = 0; b0 < count; b0 += bound_chunk_blocks) {
+        const std::size_t b1 = std::min(count, b0 + bound_chunk_blocks);
+        fill_terms(t, std::min(count, b1 + 1));  // b1's excess for the bound
+        glide_phases(freq_hz, t.whole_rad_per_hz, t.remaining_rad_per_hz.data() + b0, b1 - b0, sin_g + b0, cos_g + b0);
+        for (std::size_t b = b0; b < b1; ++b) {
+            const double slope = rad_per_frame * t.excess[b];  // g' per frame
+            // a = Z - j slope Z1; (cos g - j sin g) a.
+            const double a_re = s.z[b].real() + slope * s.z1[b].imag();
+            const double a_im = s.z[b].imag() - slope * s.z1[b].real();
+            re += cos_g[b] * a_re + sin_g[b] * a_im;
+            im += cos_g[b] * a_im - sin_g[b] * a_re;
+        }
+        if (b1 == count || !(floor_norm > 0.0)) continue;
+        const double bound = std::sqrt(re * re + im * im) + s.tail_z[b1] + std::abs(rad_per_frame * t.excess[b1]) * s.tail_z1[b1];
+        const double padded = bound * (1.0 + bound_margin);
+        if (padded * padded < floor_norm) return std::nullopt;
+    }
+    return cplx{re, im};
+}
+
+}  // namespace
+
+heterodyned heterodyne(std::span<const double> y, double freq_hz, double rate_hz) {
+    heterodyned z{.re = std::vector<double>(y.size()), .im = std::vector<double>(y.size())};
+    heterodyne(y.data(), y.size(), freq_hz / rate_hz, z.re.data(), z.im.data());
+    return z;
+}
+
+/// The block sums with a = 1 (flat), from z.
+block_sums sum_flat(const heterodyned& z, double rate_hz, std::size_t block) {
+    block_sums flat;
+    for (std::size_t b0 = 0; b0 + block <= z.re.size(); b0 += block) {
+        const double centre = static_cast<double>(b0) + 0.5 * static_cast<double>(block - 1);
+        cplx zf{}, z1f{};
+        for (std::size_t n = b0; n < b0 + block; ++n) {
+            const cplx zn(z.re[n], z.im[n]);
+            const double offset = static_cast<double>(n) - centre;
+            zf += zn;
+            z1f += offset * zn;
+            flat.amp_energy += 1.0;
+        }
+        flat.band_energy += 2.0 * std::norm(zf) / static_cast<double>(block);
+        flat.z.push_back(zf);
+        flat.z1.push_back(z1f);
+        flat.centre_s.push_back(centre / rate_hz);
+    }
+    add_tails(flat);
+    return flat;
+}
+
+/// The block sums with a = q's envelope amplitude times gain_lin (shaped), from z: made only for
+/// a glide that is kept (its C).
+block_sums sum_shaped(const heterodyned& z, const partial& q, double gain_lin, double rate_hz, std::size_t block) {
+    block_sums shaped;
+    // The envelope's amplitude (core/envelope.hpp's definition), its pieces made once.
+    const std::vector<envelope_piece> pieces = envelope_pieces(q.env);
+    const double peak_lin = to_amp(q.env.peak).lin;
+    std::size_t piece = 0;
+    // The decay's amplitude: exact at a block's first sample and where a piece starts, then the
+    // sample before times the piece's ratio per sample, 10^(slope / fs / 20) (a relative error of
+    // a few ulps over a block, against one power per sample).
+    double decay_amp = -1.0;  // the previous sample's (none: -1)
+    double step_ratio = 1.0;
+    const auto amp_at = [&](double t) {
+        if (t < q.env.attack_s) {
+            decay_amp = -1.0;
+            return peak_lin * t / q.env.attack_s;
+        }
+        const std::size_t was = piece;
+        while (piece + 1 < pieces.size() && t >= pieces[piece].end_s) ++piece;
+        const envelope_piece& e = pieces[piece];
+        if (decay_amp < 0.0 || piece != was) {
+            decay_amp = to_amp(level_db{e.start_level.db + e.slope_db_per_s * (t - e.start_s)}).lin;
+            step_ratio = to_amp(level_db{e.slope_db_per_s / rate_hz}).lin;
+        } else {
+            decay_amp *= step_ratio;
+        }
+        return decay_amp;
+    };
+    for (std::size_t b0 = 0; b0 + block <= z.re.size(); b0 += block) {
+        const double centre = static_cast<double>(b0) + 0.5 * static_cast<double>(block - 1);
+        cplx zs{}, z1s{};
+        decay_amp = -1.0;  // exact again at each block's start
+        for (std::size_t n = b0; n < b0 + block; ++n) {
+            const double t = static_cast<double>(n) / rate_hz;
+            const double a = gain_lin * amp_at(t);
+            const cplx zn(z.re[n], z.im[n]);
+            const double offset = static_cast<double>(n) - centre;
+            zs += a * zn;
+            z1s += offset * a * zn;
+            shaped.amp_energy += a * a;
+        }
+        shaped.band_energy += 2.0 * std::norm(zs) / static_cast<double>(block);
+        shaped.z.push_back(zs);
+        shaped.z1.push_back(z1s);
+        shaped.centre_s.push_back(centre / rate_hz);
+    }
+    return shaped;
+}
+
+/// The block sums of blocks twice as long (pairs merged, Z1 moved to the pair's centre): the
+/// coarse search's, where the glide's second-order term may be 4 times the fine blocks'.
+block_sums merged_pairs(const block_sums& s, double rate_hz) {
+    block_sums out;
+    out.amp_energy = s.amp_energy;
+    out.band_energy = s.band_energy;
+    for (std::size_t b = 0; b + 1 < s.z.size(); b += 2) {
+        const double centre_s = 0.5 * (s.centre_s[b] + s.centre_s[b + 1]);
+        const double half_frames = 0.5 * (s.centre_s[b + 1] - s.centre_s[b]) * rate_hz;
+        out.z.push_back(s.z[b] + s.z[b + 1]);
+        out.z1.push_back(s.z1[b] - half_frames * s.z[b] + s.z1[b + 1] + half_frames * s.z[b + 1]);
+        out.centre_s.push_back(centre_s);
+    }
+    add_tails(out);
+    return out;
+}
+
+glide_terms terms_at(double cents, double glide_s, std::span<const double> decay) {
+    glide_terms out{.cents = cents, .glide_s = glide_s,
+                    .whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0),
+                    .remaining_rad_per_hz = std::vector<double>(decay.size()), .excess = std::vector<double>(decay.size())};
+    glide_terms_at_decays(cents, glide_s, decay, out.remaining_rad_per_hz, out.excess);
+    out.filled = decay.size();
+    return out;
+}
+
+/// e^(-t_b / tau) at the blocks' centres.
+std::vector<double> decays(const block_sums& s, double glide_s) {
+    std::vector<double> out(s.centre_s.size());
+    for (std::size_t b = 0; b < out.size(); ++b) out[b] = std::exp(-s.centre_s[b] / glide_s);
+    return out;
+}
+
+/// The fit at t, or none when it explains less than floor_explained (a bound shows it before the
+/// whole sum: projection).
+std::optional<glide_fit> evaluate_above(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz,
+                                        double floor_explained) {
+    thread_local std::vector<double> scratch;  // the blocks' sin and cos, kept between calls
+    const std::optional<cplx> sum = projection(s, freq_hz, t, rate_hz, 0.5 * floor_explained * s.amp_energy, scratch);
+    if (!sum) return std::nullopt;
+    return glide_fit{.cents = t.cents, .glide_s = t.glide_s, .explained = 2.0 * std::norm(*sum) / s.amp_energy,
+                     .amp = 2.0 * *sum / s.amp_energy};
+}
+
+glide_fit evaluate(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz) {
+    return *evaluate_above(s, freq_hz, t, rate_hz, -infinity);
+}
+
+glide_fit evaluate(const block_sums& s, double freq_hz, double cents, double glide_s, double rate_hz) {
+    glide_terms t = cents == 0.0 ? glide_terms{} : terms_at(cents, glide_s, decays(s, glide_s));
+    return evaluate(s, freq_hz, t, rate_hz);
+}
+
+}  // namespace wane::glide_projection

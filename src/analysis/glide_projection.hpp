@@ -1,0 +1,94 @@
+// The block sums behind the onset glide search (analysis/onset_glide.hpp, internal to it): the
+// signal heterodyned by the partial's frequency, summed over blocks with a flat and with the
+// partial's envelope weight, and S(c0, tau) from those sums for one glide, where a bound on what
+// the blocks left can add stops a candidate early once it cannot reach a given floor.
+#pragma once
+
+#include <complex>
+#include <cstddef>
+#include <optional>
+#include <span>
+#include <vector>
+
+#include "core/patch.hpp"
+
+namespace wane::glide_projection {
+
+/// The block sums of z[n] = y[n] a[n] e^(-j 2 pi f n / fs) and of (n - centre) z[n].
+struct block_sums {
+    std::vector<std::complex<double>> z;
+    std::vector<std::complex<double>> z1;
+    std::vector<double> centre_s;
+    double amp_energy = 0.0;  ///< D = sum a^2
+    /// sum_b 2 |Z_b|^2 / block: with a = 1, the energy y holds within about a block's inverse of f
+    /// (each block's sum is a boxcar filter at f, first null 1 / block_s away).
+    double band_energy = 0.0;
+    /// tail_z[b] = sum_{b' >= b} |Z_b'|, tail_z1 the same of |Z1_b'| (count + 1 each; made for
+    /// the flat and the merged sums): the bound by which a candidate is rejected early.
+    std::vector<double> tail_z;
+    std::vector<double> tail_z1;
+};
+
+/// z[n] = y[n] e^(-j 2 pi f n / fs), kept per sample for the flat and the shaped sums.
+struct heterodyned {
+    std::vector<double> re;
+    std::vector<double> im;
+};
+
+/// y heterodyned by freq_hz (freq_hz / rate_hz in [0, 0.5]).
+heterodyned heterodyne(std::span<const double> y, double freq_hz, double rate_hz);
+
+/// The block sums with a = 1 (flat), from z, with their tail sums.
+block_sums sum_flat(const heterodyned& z, double rate_hz, std::size_t block);
+
+/// The block sums with a = q's envelope amplitude times gain_lin (shaped), from z.
+block_sums sum_shaped(const heterodyned& z, const partial& q, double gain_lin, double rate_hz, std::size_t block);
+
+/// The block sums of blocks twice as long (pairs merged, Z1 moved to the pair's centre), with
+/// their tail sums: the coarse search's, where the glide's second-order term may be 4 times the
+/// fine blocks'.
+block_sums merged_pairs(const block_sums& s, double rate_hz);
+
+/// The glide's terms at the blocks' centres for one (c0, tau), per hertz of f where they scale
+/// with it: R(t_b) / f and G / f (core/glide.hpp's R at decay e^(-t_b / tau), linear in f) and the
+/// frequency excess f(t_b) / f - 1. decay[b] = e^(-t_b / tau).
+struct glide_terms {
+    double cents = 0.0;
+    double glide_s = 0.0;
+    double whole_rad_per_hz = 0.0;
+    std::vector<double> remaining_rad_per_hz;
+    std::vector<double> excess;
+    /// Terms made lazily (the fine grid's, most of whose candidates the bound rejects early):
+    /// the first `filled` blocks' are made, the rest come from decay as the sum reaches them.
+    std::span<const double> decay{};
+    std::size_t filled = 0;
+};
+
+/// The terms of (cents, glide_s) at every decay, made whole.
+glide_terms terms_at(double cents, double glide_s, std::span<const double> decay);
+
+/// e^(-t_b / tau) at the blocks' centres.
+std::vector<double> decays(const block_sums& s, double glide_s);
+
+struct glide_fit {
+    double cents = 0.0;
+    double glide_s = 0.0;
+    double explained = 0.0;        ///< E = 2 |S|^2 / D
+    std::complex<double> amp{};    ///< C = 2 S / D
+};
+
+/// The fit at t, or none when it explains less than floor_explained: the blocks are summed in
+/// order 8 at a time, and after each stretch |S| <= |sum so far| + sum over the blocks left of
+/// (|Z_b| + |g'_b| |Z1_b|) (|g'_b| at most its value at the first block left: the excess shrinks
+/// with the decay), padded by 1e-9; the tail sums are made once per partial. Lazy terms are
+/// made as the sum reaches their blocks.
+std::optional<glide_fit> evaluate_above(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz,
+                                        double floor_explained);
+
+/// The fit at t (summed whole).
+glide_fit evaluate(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz);
+
+/// The fit at (cents, glide_s); cents = 0: no glide.
+glide_fit evaluate(const block_sums& s, double freq_hz, double cents, double glide_s, double rate_hz);
+
+}  // namespace wane::glide_projection

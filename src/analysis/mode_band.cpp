@@ -1,0 +1,136 @@
+// The band of a target around a partial's frequency (see mode_band.hpp).
+#include "analysis/mode_band.hpp"
+
+#include <array>
+#include <cassert>
+#include <cmath>
+
+#include "core/units.hpp"
+#include "synthesis/kernel_clones.hpp"
+
+namespace wane {
+
+namespace {
+
+using cvec = std::vector<std::complex<double>>;
+
+/// One block's moments M_q = sum_j j^q v[j], v[j] = x[j] phasor[j] (band_of), j from `from` to
+/// phasor.size() - 1, xb[0] being x at j = from; summed in j order.
+struct block_moments {
+    std::complex<double> m0, m1, m2;
+};
+
+block_moments moments_of(const float* xb, std::size_t from, std::span<const std::complex<double>> phasor) {
+    std::complex<double> m0{}, m1{}, m2{};
+    for (std::size_t j = from; j < phasor.size(); ++j) {
+        const std::complex<double> w = static_cast<double>(xb[j - from]) * phasor[j];
+        const auto jd = static_cast<double>(j);
+        m0 += w;
+        m1 += jd * w;
+        m2 += (jd * jd) * w;
+    }
+    return {m0, m1, m2};
+}
+
+/// Two blocks' complex sums side by side, {re_a, im_a, re_b, im_b} (GCC/Clang vector extensions):
+/// the lane arithmetic below is the IEEE operations std::complex<double> does for a real times a
+/// complex and for a sum, four lanes at a time (one AVX register, two SSE registers).
+using vblocks = double __attribute__((vector_size(32)));
+
+/// Four whole blocks' moments (j from 0; x[i] the block's sample at j = 0) in one loop: each
+/// block's sums are chains of additions that wait on the one before, the blocks' chains are
+/// independent, so the processor runs them side by side. Each is summed in j order with the
+/// operations moments_of does: the same numbers. Compiled for AVX2 and the baseline
+/// (synthesis/kernel_clones.hpp: no FMA, the same bits).
+WANE_KERNEL_CLONES
+void moments_of_four(const std::array<const float*, 4>& x, const std::complex<double>* __restrict phasor, std::size_t d,
+                     std::array<block_moments, 4>& out) {
+    vblocks ab0{}, ab1{}, ab2{}, cd0{}, cd1{}, cd2{};
+    for (std::size_t j = 0; j < d; ++j) {
+        const auto jd = static_cast<double>(j);
+        const double jj = jd * jd;
+        const double re = phasor[j].real(), im = phasor[j].imag();
+        const vblocks ph{re, im, re, im};
+        const auto xa = static_cast<double>(x[0][j]), xb = static_cast<double>(x[1][j]);
+        const auto xc = static_cast<double>(x[2][j]), xd = static_cast<double>(x[3][j]);
+        const vblocks wab = vblocks{xa, xa, xb, xb} * ph;
+        const vblocks wcd = vblocks{xc, xc, xd, xd} * ph;
+        ab0 += wab;
+        ab1 += jd * wab;
+        ab2 += jj * wab;
+        cd0 += wcd;
+        cd1 += jd * wcd;
+        cd2 += jj * wcd;
+    }
+    const auto put = [&](std::size_t i, const vblocks& m0, const vblocks& m1, const vblocks& m2, std::size_t lane) {
+        out[i] = {{m0[lane], m0[lane + 1]}, {m1[lane], m1[lane + 1]}, {m2[lane], m2[lane + 1]}};
+    };
+    put(0, ab0, ab1, ab2, 0);
+    put(1, ab0, ab1, ab2, 2);
+    put(2, cd0, cd1, cd2, 0);
+    put(3, cd0, cd1, cd2, 2);
+}
+
+}  // namespace
+
+/// The band of x around freq_hz (mode_band.hpp): v = x moved to 0 Hz, three causal running means of d
+/// samples (m[n] = (1/d) sum_{j < d, j <= n} in[n - j]), sampled every d samples from the first
+/// output whose means lie wholly inside x (n = 3 (d - 1)), so band sample m covers
+/// x[m d, m d + 3 d - 2] and a mode c z^n reads c' (z^d)^m.
+/// The three means are one kernel h[k] = c(k) / d^3, k < 3 d - 2, c(k) the number of ways
+/// k = a + b + e with a, b, e < d: c(k) = T(k) - 3 T(k - d) + 3 T(k - 2 d), T(x) = (x + 2)(x + 1) / 2
+/// (the terms with x >= 0), a quadratic in k on each third [0, d), [d, 2 d), [2 d, 3 d). So with
+/// blocks b of d samples starting at b d - 2, block sample j (x[b d - 2 + j]) has k = (3 - p) d - 1 - j
+/// in output m = b - p (p = 0, 1, 2), and band[m] = sum_p (al_p M0 + be_p M1 + ga_p M2)(block m + p)
+/// / d^3 with the block moments M_q = sum_j j^q v[b d - 2 + j]: one pass, no division per sample.
+/// v's phasor is the block's exp(-i 2 pi f (b d - 2) / fs) times a table of exp(-i 2 pi f j / fs).
+cvec band_of(std::span<const float> x, double freq_hz, double sample_rate_hz, std::size_t d) {
+    assert(d >= 3);
+    const std::size_t size = x.size();
+    const std::size_t first = 3 * (d - 1);
+    const std::size_t outputs = size > first ? (size - 1 - first) / d + 1 : 0;
+    cvec out(outputs);
+    if (outputs == 0) return out;
+    const auto dd = static_cast<double>(d);
+    // c(k) on third p (k = (3 - p) d - 1 - j) as al + be j + ga j^2, fitted through j = 0, 1, 2 (exact:
+    // integers, and c is quadratic there).
+    const auto tri = [](double v) { return 0.5 * (v + 2.0) * (v + 1.0); };
+    const auto count_on = [&](int p, double j) {
+        const double k = (3.0 - p) * dd - 1.0 - j;
+        return tri(k) - (p <= 1 ? 3.0 * tri(k - dd) : 0.0) + (p == 0 ? 3.0 * tri(k - 2.0 * dd) : 0.0);
+    };
+    double al[3], be[3], ga[3];
+    for (int p = 0; p < 3; ++p) {
+        const double g0 = count_on(p, 0.0), g1 = count_on(p, 1.0), g2 = count_on(p, 2.0);
+        ga[p] = 0.5 * (g2 - 2.0 * g1 + g0);
+        be[p] = g1 - g0 - ga[p];
+        al[p] = g0;
+    }
+    cvec phasor(d);
+    for (std::size_t j = 0; j < d; ++j) phasor[j] = std::polar(1.0, -two_pi * freq_hz * static_cast<double>(j) / sample_rate_hz);
+    const double scale = 1.0 / (dd * dd * dd);
+    // Block b's moments into the outputs it reaches, in block order.
+    const auto add_block = [&](std::size_t b, const block_moments& m) {
+        const std::complex<double> start =
+            std::polar(1.0, -two_pi * freq_hz * (static_cast<double>(b * d) - 2.0) / sample_rate_hz);
+        for (std::size_t p = 0; p < 3; ++p) {
+            if (b < p || b - p >= outputs) continue;
+            out[b - p] += scale * start * (al[p] * m.m0 + be[p] * m.m1 + ga[p] * m.m2);
+        }
+    };
+    // Block b: x[b d - 2 + j], j < d (the two samples before x[0] are none: block 0 from j = 2).
+    const std::size_t blocks = outputs + 2;
+    add_block(0, moments_of(x.data(), 2, phasor));
+    std::size_t b = 1;
+    for (; b + 3 < blocks; b += 4) {
+        std::array<block_moments, 4> m;
+        moments_of_four({x.data() + (b * d - 2), x.data() + ((b + 1) * d - 2), x.data() + ((b + 2) * d - 2),
+                         x.data() + ((b + 3) * d - 2)},
+                        phasor.data(), d, m);
+        for (std::size_t i = 0; i < 4; ++i) add_block(b + i, m[i]);
+    }
+    for (; b < blocks; ++b) add_block(b, moments_of(x.data() + (b * d - 2), 0, phasor));
+    return out;
+}
+
+}  // namespace wane
