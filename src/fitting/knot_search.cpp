@@ -1,6 +1,7 @@
 // The continuous piecewise-linear least squares behind fit_level_lines (see knot_search.hpp).
 #include "fitting/knot_search.hpp"
 
+#include <cassert>
 #include <cmath>
 
 namespace wane::knot_search {
@@ -20,9 +21,11 @@ constexpr int knot_sweeps = 2;
 constexpr std::size_t knot_scan_halfwidth = 6;
 
 /// Solves the small symmetric system g theta = b (Gaussian elimination with partial pivoting).
-/// Returns false when singular.
-bool solve_small(int m, std::array<double, max_unknowns_sq>& g,
-                 std::array<double, max_unknowns>& b) {
+/// Returns false when singular. M unknowns known at compile time (solve_small picks it): the
+/// loops unrolled, the same operations in the same order.
+template <int M>
+bool solve_fixed(std::array<double, max_unknowns_sq>& g, std::array<double, max_unknowns>& b) {
+    constexpr int m = M;
     for (int c = 0; c < m; ++c) {
         int piv = c;
         for (int r = c + 1; r < m; ++r)
@@ -46,6 +49,22 @@ bool solve_small(int m, std::array<double, max_unknowns_sq>& g,
         b[r] = s / g[r * max_unknowns + r];
     }
     return true;
+}
+
+bool solve_small(int m, std::array<double, max_unknowns_sq>& g, std::array<double, max_unknowns>& b) {
+    static_assert(max_unknowns <= 9);
+    switch (m) {
+        case 1: return solve_fixed<1>(g, b);
+        case 2: return solve_fixed<2>(g, b);
+        case 3: return solve_fixed<3>(g, b);
+        case 4: return solve_fixed<4>(g, b);
+        case 5: return solve_fixed<5>(g, b);
+        case 6: return solve_fixed<6>(g, b);
+        case 7: return solve_fixed<7>(g, b);
+        case 8: return solve_fixed<8>(g, b);
+        case 9: return solve_fixed<9>(g, b);
+        default: assert(false); return false;
+    }
 }
 
 /// Continuous piecewise-linear weighted least squares with the given knots (ascending, relative
