@@ -46,7 +46,7 @@ std::vector<float> gliding_note(const std::vector<true_partial>& parts, double r
                     std::cos(2.0 * M_PI * std::fmod(q.freq_hz * t, 1.0) + q.phase_rad + 2.0 * M_PI * q.freq_hz * integral_s);
         }
     }
-    splitmix64 rng(seed);
+    splitmix64 rng{seed};
     std::vector<float> out(frames);
     for (std::size_t n = 0; n < frames; ++n) out[n] = static_cast<float>(y[n] + noise_rms * rng.gaussian());
     return out;
