@@ -318,14 +318,16 @@ mode_split_summary split_into_modes(patch& p, std::span<const float> note, doubl
         const auto best = choose_modes(band, freq_hz, d, target, sample_rate_hz,
                                        loudest * to_amp(level_db{params.max_rise_db}).lin, params);
         if (!best) continue;
+        // The tests below, the cheapest first (the first 100 ms; then those that need the
+        // partial's own band): each must pass.
         const std::vector<float> early_target(target.begin(), target.begin() + static_cast<std::ptrdiff_t>(std::min(early, frames)));
+        std::vector<float> early_modes(early_target.size());
+        mode_signal(best->modes, sample_rate_hz, 0, early_modes);
+        if (residual_energy(early_target, early_modes, early) > energy(residual, early)) continue;
         own_of.render(0, work);
         const std::span<const float> own = work;
         const cvec own_band = band_of(own, freq_hz, sample_rate_hz, d);
         if (best->band_rss * min_gain * min_gain > band_residual(band, own_band, 3)) continue;
-        std::vector<float> early_modes(early_target.size());
-        mode_signal(best->modes, sample_rate_hz, 0, early_modes);
-        if (residual_energy(early_target, early_modes, early) > energy(residual, early)) continue;
         const double late_now = late_error_db(band, own_band, sample_rate_hz / static_cast<double>(d), params);
         const double late_new = late_error_db(band, best->band, sample_rate_hz / static_cast<double>(d), params);
         if (late_new > late_now + params.late_tolerance_db) continue;
