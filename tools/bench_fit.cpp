@@ -16,6 +16,7 @@
 #include "fitting/envelope_fit.hpp"
 #include "io/audio_file.hpp"
 #include "tracking/tracker.hpp"
+#include "bench_args.hpp"
 
 namespace {
 
@@ -65,7 +66,7 @@ int main(int argc, char** argv) {
         } else {
             x = make_note();
         }
-        const int repeats = argc > 2 ? std::max(1, std::atoi(argv[2])) : 21;
+        const int repeats = argc > 2 ? wane::bench::int_option("bench_fit", "REPEATS", argv[2], 1) : 21;
         const wane::tracking_result tr = wane::track_note(x, fs, {});
         const wane::envelope_fit_params params{.window_s = tr.window_s};
         std::size_t frames = 0;

@@ -30,6 +30,7 @@
 #include "transform/keymap.hpp"
 #include "transform/keymap_roots.hpp"
 #include "transform/transform.hpp"
+#include "bench_args.hpp"
 
 namespace {
 
@@ -114,8 +115,8 @@ int main(int argc, char** argv) {
     std::filesystem::path dir = std::filesystem::temp_directory_path() / "wane-bench-keymap";
     bool keep = false;
     for (int i = 2; i < argc; ++i) {
-        if (std::strcmp(argv[i], "--threads") == 0 && i + 1 < argc) threads = std::atoi(argv[++i]);
-        else if (std::strcmp(argv[i], "--repeats") == 0 && i + 1 < argc) repeats = std::max(1, std::atoi(argv[++i]));
+        if (std::strcmp(argv[i], "--threads") == 0 && i + 1 < argc) threads = wane::bench::int_option("bench_keymap", "--threads", argv[++i], 0);
+        else if (std::strcmp(argv[i], "--repeats") == 0 && i + 1 < argc) repeats = wane::bench::int_option("bench_keymap", "--repeats", argv[++i], 1);
         else if (std::strcmp(argv[i], "--keep") == 0 && i + 1 < argc) {
             dir = argv[++i];
             keep = true;

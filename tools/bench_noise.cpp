@@ -30,10 +30,10 @@
 #include "synthesis/noise_render.hpp"
 #include "synthesis/render.hpp"
 #include "bench_timing.hpp"
+#include "bench_args.hpp"
 
 using wane::bench::median;
 using wane::bench::thread_cpu_s;
-using wane::bench::wall_s;
 
 namespace {
 
@@ -123,9 +123,9 @@ int main(int argc, char** argv) {
     std::string demo = default_demo_note;
     for (int i = 1; i < argc; ++i) {
         if (std::strcmp(argv[i], "--repeats") == 0 && i + 1 < argc) {
-            repeats = std::max(1, std::atoi(argv[++i]));
+            repeats = wane::bench::int_option("bench_noise", "--repeats", argv[++i], 1);
         } else if (std::strcmp(argv[i], "--rate") == 0 && i + 1 < argc) {
-            rate_hz = std::atof(argv[++i]);
+            rate_hz = wane::bench::number_option("bench_noise", "--rate", argv[++i]);
             if (!(rate_hz >= 8000.0 && rate_hz <= 192000.0)) {
                 std::fprintf(stderr, "bench_noise: --rate %s: need 8000 .. 192000 Hz\n", argv[i]);
                 return 2;

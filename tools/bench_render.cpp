@@ -22,10 +22,10 @@
 #include "core/patch.hpp"
 #include "synthesis/render.hpp"
 #include "bench_timing.hpp"
+#include "bench_args.hpp"
 
 using wane::bench::median;
 using wane::bench::thread_cpu_s;
-using wane::bench::wall_s;
 
 namespace {
 
@@ -86,7 +86,7 @@ int main(int argc, char** argv) {
     int repeats = 5;
     for (int i = 1; i < argc; ++i) {
         if (std::strcmp(argv[i], "--repeats") == 0 && i + 1 < argc) {
-            repeats = std::max(1, std::atoi(argv[++i]));
+            repeats = wane::bench::int_option("bench_render", "--repeats", argv[++i], 1);
         } else {
             std::fprintf(stderr, "usage: bench_render [--repeats N]\n");
             return 2;

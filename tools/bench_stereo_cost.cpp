@@ -22,6 +22,7 @@
 #include "io/audio_file.hpp"
 #include "synthesis/render.hpp"
 #include "bench_timing.hpp"
+#include "bench_args.hpp"
 
 using wane::bench::median;
 using wane::bench::thread_cpu_s;
@@ -86,7 +87,7 @@ int main(int argc, char** argv) {
     std::vector<std::string> files;
     for (int i = 1; i < argc; ++i) {
         if (std::strcmp(argv[i], "--repeats") == 0 && i + 1 < argc) {
-            repeats = std::max(1, std::atoi(argv[++i]));
+            repeats = wane::bench::int_option("bench_stereo_cost", "--repeats", argv[++i], 1);
         } else {
             files.emplace_back(argv[i]);
         }

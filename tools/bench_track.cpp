@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "tracking/tracker.hpp"
+#include "bench_args.hpp"
 
 int main(int argc, char** argv) {
     if (argc < 2) {
@@ -35,9 +36,9 @@ int main(int argc, char** argv) {
         }
     }
     sf_close(f);
-    const int repeats = argc > 2 ? std::atoi(argv[2]) : 5;
+    const int repeats = argc > 2 ? wane::bench::int_option("bench_track", "REPEATS", argv[2], 1) : 5;
     wane::tracking_params params;
-    if (argc > 3) params.f0_hz = std::atof(argv[3]);
+    if (argc > 3) params.f0_hz = wane::bench::number_option("bench_track", "F0_HZ", argv[3]);
     const double fs = info.samplerate;
     try {
         wane::tracking_result r;
@@ -64,7 +65,7 @@ int main(int argc, char** argv) {
                         t.cut_by_end ? " cut" : "");
         }
         if (const char* dump = std::getenv("BENCH_TRACK_DUMP")) {
-            const int want = std::atoi(dump);
+            const int want = wane::bench::int_option("bench_track", "BENCH_TRACK_DUMP", dump, 0);
             for (const auto& t : r.tracks)
                 if (t.harmonic == want)
                     for (const auto& p : t.points)

@@ -1,5 +1,6 @@
 #!/usr/bin/env python3
-"""Which src/**/*.cpp files clang-tidy must look at again since a commit where all of src/ was clean.
+"""Which sources clang-tidy must look at again since a commit where all of them were clean: the .cpp
+files under src/, tests/unit/ and tools/ (SOURCE_DIRS).
 
     tools/tidy_scope.py BASE_COMMIT      prints one path per line (relative to the repository)
 
@@ -23,10 +24,14 @@ def git(*args):
     return subprocess.run(['git', *args], capture_output=True, text=True, check=False)
 
 
+SOURCE_DIRS = ('src', os.path.join('tests', 'unit'), 'tools')
+
+
 def all_sources():
     out = []
-    for root, _, names in os.walk('src'):
-        out += [os.path.join(root, n) for n in names if n.endswith('.cpp')]
+    for top in SOURCE_DIRS:
+        for root, _, names in os.walk(top):
+            out += [os.path.join(root, n) for n in names if n.endswith('.cpp')]
     return sorted(out)
 
 

@@ -1,8 +1,9 @@
 #!/usr/bin/env bash
-# tools/tidy_scope.py (CI's clang-tidy runs only where src/ changed since a clean commit): in a
-# small git repository, a changed header brings every file that includes it (directly or through
-# another header), a changed source only itself, and a change to the rules (.clang-tidy, a
-# CMakeLists.txt) or an unknown base commit brings every file.
+# tools/tidy_scope.py (CI's clang-tidy runs only where src/, tests/unit/ or tools/ changed since a
+# clean commit): in a small git repository, a changed header brings every file that includes it
+# (directly or through another header), a changed source only itself, a change to the rules
+# (.clang-tidy, a CMakeLists.txt) or an unknown base commit brings every file; a test's header
+# brings the test, a tool's source itself.
 source "$(dirname "$0")/preamble.sh"
 scope="$src/tools/tidy_scope.py"
 git init -q repo && cd repo || exit 1
@@ -37,4 +38,19 @@ git checkout -q -- .clang-tidy && echo '# x' > src/CMakeLists.txt
 check '[ "$(python3 "$scope" "$base" | wc -l)" -eq 4 ]'
 rm src/CMakeLists.txt
 check '[ "$(python3 "$scope" 0123456789abcdef0123456789abcdef01234567 | wc -l)" -eq 4 ]'
+# The tests and tools are sources too: a changed test header brings the test that includes it.
+mkdir -p tests/unit tools
+printf '#pragma once\n' > tests/unit/test_support.hpp
+printf '#include "test_support.hpp"\n' > tests/unit/test_a.cpp
+printf 'int b;\n' > tests/unit/test_b.cpp
+printf 'int main() {}\n' > tools/bench_x.cpp
+git add -A && git commit -qm tests
+base=$(git rev-parse HEAD)
+check '[ -z "$(list "$base")" ]'
+echo '// edit' >> tests/unit/test_support.hpp
+got=$(list "$base"); echo "test_support.hpp changed: $got"
+check '[ "$got" = "tests/unit/test_a.cpp " ]'
+git checkout -q -- . && echo '// edit' >> tools/bench_x.cpp
+check '[ "$(list "$base")" = "tools/bench_x.cpp " ]'
+check '[ "$(python3 "$scope" 0123456789abcdef0123456789abcdef01234567 | wc -l)" -eq 7 ]'
 exit $fail

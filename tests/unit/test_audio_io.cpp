@@ -1,20 +1,15 @@
 // Audio I/O at the edge: round trips against exact ground truth, files from an independent writer
 // (sox, and WAV bytes assembled here by hand from the RIFF layout), sox as an independent reader,
-// FFTW as the reference FFT, and every bad input the reader and writer must refuse.
+// FFTW as the reference FFT (the bad inputs it refuses: test_audio_errors.cpp).
 #include <catch2/catch.hpp>
 
 #include <fftw3.h>
-#include <unistd.h>
 
 #include <algorithm>
-#include <atomic>
 #include <cmath>
 #include <cstdint>
 #include <cstdlib>
-#include <cstring>
 #include <filesystem>
-#include <fstream>
-#include <iterator>
 #include <limits>
 #include <set>
 #include <string>
@@ -24,20 +19,15 @@
 #include "io/audio_file.hpp"
 #include "io/errors.hpp"
 #include "test_support.hpp"
+#include "wav_bytes.hpp"
 
 using Catch::Matchers::Contains;
 using Catch::Matchers::WithinAbs;
 using namespace wane;
+using namespace wane::test;
 namespace fs = std::filesystem;
 
 namespace {
-
-
-std::set<std::string> entries(const fs::path& dir) {
-    std::set<std::string> names;
-    for (const auto& e : fs::directory_iterator(dir)) names.insert(e.path().filename().string());
-    return names;
-}
 
 /// Deterministic integers for test signals (xorshift32, Marsaglia 2003), fixed seed.
 struct test_rng {
@@ -49,83 +39,6 @@ struct test_rng {
         return state;
     }
 };
-
-void put_u16(std::string& s, std::uint32_t v) {
-    s.push_back(static_cast<char>(v & 0xFF));
-    s.push_back(static_cast<char>((v >> 8) & 0xFF));
-}
-void put_u32(std::string& s, std::uint32_t v) {
-    put_u16(s, v & 0xFFFF);
-    put_u16(s, v >> 16);
-}
-
-/// A canonical 44-byte-header WAV assembled by hand from the RIFF WAVE layout (Microsoft/IBM
-/// "Multimedia Programming Interface and Data Specifications 1.0", 1991, from memory): format tag 1 = PCM,
-/// 3 = IEEE float. `data` is the raw little-endian sample bytes.
-std::string wav_bytes(std::uint32_t format_tag, std::uint32_t channels, std::uint32_t rate_hz,
-                      std::uint32_t bits, const std::string& data) {
-    std::string s = "RIFF";
-    put_u32(s, static_cast<std::uint32_t>(36 + data.size()));
-    s += "WAVEfmt ";
-    put_u32(s, 16);
-    put_u16(s, format_tag);
-    put_u16(s, channels);
-    put_u32(s, rate_hz);
-    const std::uint32_t block_align = channels * bits / 8;
-    put_u32(s, rate_hz * block_align);
-    put_u16(s, block_align);
-    put_u16(s, bits);
-    s += "data";
-    put_u32(s, static_cast<std::uint32_t>(data.size()));
-    s += data;
-    return s;
-}
-/// Byte offset of the sample-rate field in the header above.
-constexpr std::size_t wav_rate_offset = 24;
-
-std::string pcm16_data(const std::vector<int>& values) {
-    std::string d;
-    for (int v : values) put_u16(d, static_cast<std::uint32_t>(v) & 0xFFFF);
-    return d;
-}
-std::string float_data(const std::vector<float>& values) {
-    std::string d;
-    for (float v : values) {
-        std::uint32_t bits = 0;
-        std::memcpy(&bits, &v, sizeof bits);
-        put_u32(d, bits);
-    }
-    return d;
-}
-
-void write_bytes(const fs::path& p, const std::string& bytes) {
-    std::ofstream f(p, std::ios::binary);
-    f.write(bytes.data(), static_cast<std::streamsize>(bytes.size()));
-    REQUIRE(f.good());
-}
-std::string read_bytes(const fs::path& p) {
-    std::ifstream f(p, std::ios::binary);
-    return {std::istreambuf_iterator<char>(f), std::istreambuf_iterator<char>()};
-}
-
-/// The message read_audio throws for a file ("" when it does not throw io_error).
-std::string read_error(const fs::path& p, const audio_read_options& opt = {}) {
-    try {
-        (void)read_audio(p, opt);
-    } catch (const io_error& e) {
-        return e.what();
-    }
-    return "";
-}
-std::string write_error(const fs::path& p, const std::vector<float>& x, double rate_hz,
-                        const audio_write_options& opt = {}) {
-    try {
-        write_audio(p, x, rate_hz, opt);
-    } catch (const io_error& e) {
-        return e.what();
-    }
-    return "";
-}
 
 /// Samples of sox's decode of a file as signed 32-bit integers (sox: an independent reader).
 std::vector<std::int32_t> sox_decode_s32(const fs::path& file, const fs::path& raw) {
@@ -174,6 +87,7 @@ TEST_CASE("PCM round trip is bit-exact in WAV, AIFF and FLAC at 16 and 24 bits",
     std::vector<std::int64_t> steps = {-top, top - 1, 0, 1, -1};
     for (int i = 0; i < 5000; ++i) steps.push_back(static_cast<std::int64_t>(rng.next() % (2 * top)) - top);
     std::vector<float> x;
+    x.reserve(steps.size());
     for (auto k : steps) x.push_back(static_cast<float>(static_cast<double>(k) / full_scale));
 
     const fs::path file = dir / ("grid" + ext);
@@ -460,134 +374,4 @@ TEST_CASE("parse_sample_format", "[audio_io]") {
     CHECK_FALSE(parse_sample_format("32").has_value());
     CHECK_FALSE(parse_sample_format("").has_value());
     CHECK_FALSE(parse_sample_format("8").has_value());
-}
-
-TEST_CASE("bad inputs give an io_error naming the file", "[audio_io]") {
-    wane::test::scratch_dir dir{"audio_io"};
-    // A valid 1000-frame 16-bit mono WAV at 48 kHz, and a stereo one.
-    std::vector<int> ramp;
-    for (int i = 0; i < 1000; ++i) ramp.push_back(i * 16 - 8000);
-    const std::string good = wav_bytes(1, 1, 48000, 16, pcm16_data(ramp));
-    write_bytes(dir / "good.wav", good);
-    REQUIRE(read_audio(dir / "good.wav").samples.size() == 1000);
-
-    struct bad_case {
-        std::string name;
-        std::string expect;  // part of the message
-        audio_read_options options;
-    };
-    std::vector<bad_case> cases;
-
-    cases.push_back({"missing.wav", "no such file", {}});
-    fs::create_directory(dir / "folder.wav");
-    cases.push_back({"folder.wav", "directory", {}});
-    write_bytes(dir / "text.wav", "This is not audio, just some words in a text file.\n");
-    cases.push_back({"text.wav", "not a readable audio file", {}});
-    write_bytes(dir / "empty.wav", "");
-    cases.push_back({"empty.wav", "empty", {}});
-    write_bytes(dir / "no_frames.wav", wav_bytes(1, 1, 48000, 16, ""));
-    cases.push_back({"no_frames.wav", "zero", {}});
-    write_bytes(dir / "truncated.wav", good.substr(0, 44 + 1000));  // half the data chunk
-    cases.push_back({"truncated.wav", "truncated", {}});
-    std::vector<float> with_nan(100, 0.25f);
-    with_nan[37] = std::numeric_limits<float>::quiet_NaN();
-    write_bytes(dir / "nan.wav", wav_bytes(3, 1, 48000, 32, float_data(with_nan)));
-    cases.push_back({"nan.wav", "NaN sample at frame 37", {}});
-    std::vector<float> with_inf(100, -0.25f);
-    with_inf[90] = -std::numeric_limits<float>::infinity();
-    write_bytes(dir / "inf.wav", wav_bytes(3, 1, 48000, 32, float_data(with_inf)));
-    cases.push_back({"inf.wav", "infinite sample at frame 90", {}});
-    std::string fast = good;
-    const std::uint32_t rate_1e9 = 1000000000u;
-    for (int i = 0; i < 4; ++i) fast[wav_rate_offset + static_cast<std::size_t>(i)] = static_cast<char>((rate_1e9 >> (8 * i)) & 0xFF);
-    write_bytes(dir / "fast.wav", fast);
-    cases.push_back({"fast.wav", "1000000000 Hz", {}});
-    write_bytes(dir / "stereo.wav", wav_bytes(1, 2, 48000, 16, pcm16_data(ramp)));
-    cases.push_back({"stereo.wav", "--channel 3 but file has 2 channels", {.channel = 3}});
-    cases.push_back({"stereo.wav", "--channel 0 but file has 2 channels", {.channel = 0}});
-    cases.push_back({"good.wav", "--channel 2 but file has 1 channel", {.channel = 2}});
-    // 1000 frames at 48 kHz is 20.8 ms.
-    cases.push_back({"good.wav", "0.01 s limit", {.max_length_s = 0.01}});
-
-    // Truncated AIFF and FLAC (written here, then cut in half).
-    std::vector<float> tone(20000);
-    for (std::size_t i = 0; i < tone.size(); ++i) tone[i] = static_cast<float>(0.5 * std::sin(0.05 * static_cast<double>(i)));
-    for (const std::string ext : {".aiff", ".flac"}) {
-        write_audio(dir / ("whole" + ext), tone, 48000.0);
-        const std::string whole = read_bytes(dir / ("whole" + ext));
-        write_bytes(dir / ("cut" + ext), whole.substr(0, whole.size() / 2));
-        cases.push_back({"cut" + ext, "truncated", {}});
-    }
-
-    for (const bad_case& c : cases) {
-        const fs::path p = dir / c.name;
-        const std::string msg = read_error(p, c.options);
-        INFO("file " << c.name << ": message '" << msg << "'");
-        CHECK_THAT(msg, Contains(p.string()));
-        CHECK_THAT(msg, Contains(c.expect));
-        CHECK(msg.find('\n') == std::string::npos);  // one line
-    }
-    // A 20 ms file under a 20 ms limit is fine; the limit is named when exceeded.
-    CHECK(read_audio(dir / "good.wav", {.max_length_s = 0.021}).samples.size() == 1000);
-    CHECK_THAT(read_error(dir / "good.wav", {.max_length_s = 0.02}), Contains("0.02 s limit"));
-    // libsndfile's own reason is passed on for non-audio.
-    CHECK(read_error(dir / "text.wav").size() > (dir / "text.wav").string().size() + 30);
-    // read_root_midi names the file too.
-    CHECK_THROWS_WITH(read_root_midi(dir / "text.wav"), Contains((dir / "text.wav").string()));
-}
-
-TEST_CASE("a failed write names the path and leaves nothing behind", "[audio_io]") {
-    wane::test::scratch_dir dir{"audio_io"};
-    fs::create_directory(dir / "out");
-    write_bytes(dir / "a_file", "x");
-    const fs::path out = dir / "out";
-    const std::vector<float> ok(1000, 0.5f);
-    std::vector<float> hot(1000, 0.5f);
-    hot[500] = -1.5f;  // 20 log10(1.5) = +3.52 dBFS
-    std::vector<float> nan(1000, 0.5f);
-    nan[3] = std::numeric_limits<float>::quiet_NaN();
-
-    struct bad_write {
-        fs::path path;
-        std::vector<float> samples;
-        audio_write_options options;
-        std::string expect;
-    };
-    const std::vector<bad_write> cases = {
-        {dir / "no" / "such" / "folder" / "x.wav", ok, {}, "does not exist"},
-        {dir / "a_file" / "x.wav", ok, {}, "is not a folder"},
-        {out / "x.mp3", ok, {}, "'.mp3'"},
-        {out / "x", ok, {}, "extension ''"},
-        {out / "x.flac", ok, {.format = sample_format::float32}, "FLAC"},
-        {out / "hot.wav", hot, {}, "+3.52 dBFS"},
-        {out / "hot.flac", hot, {.format = sample_format::pcm16}, "+3.52 dBFS"},
-        {out / "nan.wav", nan, {.format = sample_format::float32}, "NaN"},
-        {out / "root.wav", ok, {.root_midi = 200}, "200"},
-        {out / "empty.wav", {}, {}, "no samples"},
-    };
-    for (const bad_write& c : cases) {
-        const std::string msg = write_error(c.path, c.samples, 48000.0, c.options);
-        INFO("path " << c.path << ": message '" << msg << "'");
-        CHECK_THAT(msg, Contains(c.path.string()));
-        CHECK_THAT(msg, Contains(c.expect));
-        CHECK_FALSE(fs::exists(c.path));
-    }
-    // An existing folder nobody can create files in, even root: procfs.
-    if (fs::is_directory("/proc/self")) {
-        const std::string msg = write_error("/proc/self/wane_test.wav", ok, 48000.0);
-        CAPTURE(msg);
-        CHECK_THAT(msg, Contains("/proc/self/wane_test.wav") && Contains("cannot write"));
-    }
-    CHECK_THAT(write_error(out / "rate.wav", ok, 44100.5), Contains("44100.5"));
-    CHECK_THAT(write_error(out / "rate.wav", ok, 1e9), Contains("768 kHz"));
-    CHECK(entries(out).empty());                                              // no temp files either
-    CHECK(entries(dir.path) == std::set<std::string>{"a_file", "out"});  // nothing created above
-
-    // A sample of exactly full scale is not an error (the last guard is for > 1 only).
-    write_audio(out / "full.wav", std::vector<float>{1.0f, -1.0f}, 48000.0, {.format = sample_format::pcm24});
-    CHECK(read_audio(out / "full.wav").samples == std::vector<float>{8388607.0f / 8388608.0f, -1.0f});
-    // Overwriting an existing output replaces it atomically and leaves no temp file.
-    write_audio(out / "full.wav", ok, 48000.0);
-    CHECK(read_audio(out / "full.wav").samples.size() == ok.size());
-    CHECK(entries(out) == std::set<std::string>{"full.wav"});
 }

@@ -28,7 +28,7 @@ struct spectrum {
         REQUIRE(start + frames <= x.size());
         REQUIRE(frames <= static_cast<std::size_t>(fft_frames));
         double* in = fftw_alloc_real(static_cast<std::size_t>(fft_frames));
-        fftw_complex* out = fftw_alloc_complex(static_cast<std::size_t>(fft_frames / 2 + 1));
+        fftw_complex* out = fftw_alloc_complex(static_cast<std::size_t>(fft_frames) / 2 + 1);
         fftw_plan plan = fftw_plan_dft_r2c_1d(fft_frames, in, out, FFTW_ESTIMATE);
         std::fill(in, in + fft_frames, 0.0);
         for (std::size_t n = 0; n < frames; ++n) {
@@ -36,7 +36,7 @@ struct spectrum {
             in[n] = w * static_cast<double>(x[start + n]);
         }
         fftw_execute(plan);
-        log_mag.resize(static_cast<std::size_t>(fft_frames / 2 + 1));
+        log_mag.resize(static_cast<std::size_t>(fft_frames) / 2 + 1);
         constexpr double tiny_power = 1e-300;  // keeps log() finite on exact zeros
         for (std::size_t k = 0; k < log_mag.size(); ++k) {
             log_mag[k] = 0.5 * std::log(out[k][0] * out[k][0] + out[k][1] * out[k][1] + tiny_power);

@@ -6,6 +6,7 @@
 #include <catch2/catch.hpp>
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <string>
 #include <vector>
@@ -29,9 +30,9 @@ constexpr double f1_hz = 220.0;
 
 /// Free-free uniform bar: mode frequency ratios 1, 2.756, 5.404, 8.933, 13.34 (Euler-Bernoulli
 /// beam, (2n+1)^2 / 9 asymptotically; values from memory). Each lies in its own third-octave band.
-const std::vector<double> bar_ratios = {1.0, 2.756, 5.404, 8.933, 13.34};
-const std::vector<double> bar_amps = {0.30, 0.20, 0.15, 0.12, 0.08};
-const std::vector<double> bar_t60_s = {3.0, 2.0, 1.2, 0.9, 0.6};
+constexpr std::array<double, 5> bar_ratios = {1.0, 2.756, 5.404, 8.933, 13.34};
+constexpr std::array<double, 5> bar_amps = {0.30, 0.20, 0.15, 0.12, 0.08};
+constexpr std::array<double, 5> bar_t60_s = {3.0, 2.0, 1.2, 0.9, 0.6};
 
 std::vector<float> recording() {
     std::vector<test::decaying_partial> modes;
@@ -125,7 +126,7 @@ TEST_CASE("a mode 6 dB too loud is the largest difference, +6 dB in its band thr
     const copy_remarks r = remark_on_copy(recording(), copy_of(p), rate_hz, onset_frames);
     const std::string text = all_sentences(r);
     CAPTURE(mode, f_hz, text);
-    REQUIRE(r.regions.size() >= 1);
+    REQUIRE_FALSE(r.regions.empty());
     const difference_region& top = r.regions.front();
     CAPTURE(top.band_first, top.band_last, top.time_first, top.time_last, top.mean_diff_db, top.largest_diff_db);
     // The mode's band, and at most its neighbours, whose level is the mode's leakage.

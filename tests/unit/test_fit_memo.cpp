@@ -67,6 +67,7 @@ TEST_CASE("fits with the last fit's memo equal fits without, pass after pass", "
     splitmix64 rng{GENERATE(std::uint64_t{3}, std::uint64_t{17}, std::uint64_t{40})};
     const test::uniform_draw<double> freq{50.0, 12000.0}, decay{0.0, 300.0}, phase{-3.14, 3.14};
     std::vector<damped_mode> modes;
+    modes.reserve(24);
     for (int k = 0; k < 24; ++k)
         modes.push_back({.freq_hz = freq(rng), .decay_per_s = decay(rng), .amp = std::polar(0.05, phase(rng))});
     const std::vector<float> x = noisy_modes(modes, count, 5);

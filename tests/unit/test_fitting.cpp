@@ -1,4 +1,5 @@
-// Envelope fits of partial tracks against the exact ground truth of synthetic partials.
+// Envelope fits of partial tracks against the exact ground truth of synthetic partials (the demo
+// notes' analysis against their physical models: test_fitting_demo.cpp).
 // The dB tracks are made here the way an STFT peak sees a damped sinusoid in noise: the level is
 // 20 log10 |A(t) e^{i phi} + n| with n complex Gaussian of the floor's mean power, the phase the
 // sinusoid's own at each frame centre.
@@ -6,9 +7,6 @@
 
 #include <cmath>
 #include <complex>
-#include <fstream>
-#include <iterator>
-#include <regex>
 #include <sstream>
 #include <vector>
 
@@ -16,14 +14,14 @@
 #include "fitting/envelope_fit.hpp"
 #include "tracking/tracker.hpp"
 #include "analysis/analyze.hpp"
-#include "io/audio_file.hpp"
 #include "io/patch_toml.hpp"
-#include "synthesis/render.hpp"
+#include "envelope_text.hpp"
 #include "test_signals.hpp"
 
 using Catch::Matchers::WithinAbs;
 using Catch::Matchers::WithinRel;
 using namespace wane;
+using wane::test::describe;
 
 namespace {
 
@@ -78,17 +76,6 @@ partial_track make_db_track(const db_track_spec& s) {
 double log_uniform(splitmix64& rng, double lo, double hi) {
     const test::uniform_draw<double> u{std::log(lo), std::log(hi)};
     return std::exp(u(rng));
-}
-
-/// "peak -6.0 dB, T60 1.00 s until 0.60 s, T60 6.00 s" for messages.
-std::string describe(const envelope& env) {
-    std::ostringstream os;
-    os << "attack " << env.attack_s << " s, peak " << env.peak.db << " dB";
-    for (const decay_segment& d : env.decay) {
-        os << ", T60 " << d.t60_s << " s";
-        if (d.until_s) os << " until " << *d.until_s << " s";
-    }
-    return os.str();
 }
 
 }  // namespace
@@ -285,7 +272,8 @@ TEST_CASE("beating pair through the tracker is fitted through its mean level", "
     CAPTURE(deepest_dip_db);
     CHECK(deepest_dip_db < -6.0);
     double worst_db = 0.0;
-    for (double ts = fit->fit_start_s; ts <= fit->fit_end_s; ts += 0.01) {
+    for (int step = 0; fit->fit_start_s + 0.01 * step <= fit->fit_end_s; ++step) {
+        const double ts = fit->fit_start_s + 0.01 * step;
         const double truth = mean0_db - 60.0 * (ts + tr.onset_s - lead_s) / t60;
         worst_db = std::max(worst_db, std::abs(envelope_level(env, ts).db - truth));
     }
@@ -328,62 +316,6 @@ TEST_CASE("a 4 s note with 40 partials gives a patch under 10 KB", "[fitting][an
 }
 
 // ---- The demo notes (demo-data/, physical models of our own; README.md there) ----
-
-namespace {
-
-std::string demo_path(const char* name) { return std::string(WANE_SOURCE_DIR) + "/demo-data/" + name; }
-
-analysis_result analyze_demo(const char* name) {
-    const mono_audio a = read_audio(demo_path(name));
-    return analyze_note(a.samples, a.sample_rate_hz, {.tracking = {}, .source_file = name, .note_name = name});
-}
-
-}  // namespace
-
-TEST_CASE("demo bar: modal frequencies and T60s from the model's ground truth", "[fitting][analysis][demo]") {
-    // demo-data/tuned-bar-a3.json: the six modes of the model (freq_hz, t60_s), read here.
-    std::ifstream in(demo_path("tuned-bar-a3.json"));
-    REQUIRE(in);
-    const std::string json((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
-    const std::regex mode_re(R"re("freq_hz":\s*([0-9.]+),\s*"t60_s":\s*([0-9.]+))re");
-    std::vector<std::pair<double, double>> modes;
-    for (auto it = std::sregex_iterator(json.begin(), json.end(), mode_re); it != std::sregex_iterator(); ++it)
-        modes.emplace_back(std::stod((*it)[1]), std::stod((*it)[2]));
-    REQUIRE(modes.size() == 6);
-    const analysis_result r = analyze_demo("tuned-bar-a3.wav");
-    for (const auto& [freq_hz, t60_s] : modes) {
-        const partial* best = nullptr;
-        for (const partial& q : r.value.partials)
-            if (!best || std::abs(q.freq_hz - freq_hz) < std::abs(best->freq_hz - freq_hz)) best = &q;
-        REQUIRE(best);
-        CAPTURE(freq_hz, t60_s, best->freq_hz, describe(best->env));
-        CHECK_THAT(best->freq_hz, WithinAbs(freq_hz, 0.1));
-        REQUIRE(best->env.decay.size() == 1);  // the model's modes decay in one stage
-        CHECK_THAT(best->env.decay[0].t60_s, WithinRel(t60_s, 0.03));
-    }
-}
-
-TEST_CASE("demo pluck resynthesis starts in phase with the source", "[fitting][analysis][demo]") {
-    // Render the patch of the demo string (synthesis/render's oscillator bank) and compare it with the
-    // source over the first 100 ms after the onset: time-domain SNR = 10 log10(sum x^2 / sum (x - y)^2).
-    const mono_audio a = read_audio(demo_path("steel-string-d3.wav"));
-    const analysis_result r = analyze_note(a.samples, a.sample_rate_hz, {.tracking = {}, .source_file = "s", .note_name = "s"});
-    const std::vector<float> y = render_patch(r.value, {.sample_rate_hz = a.sample_rate_hz, .include_noise = false});
-    const auto onset = static_cast<std::size_t>(std::llround(r.value.source.onset_s * a.sample_rate_hz));
-    const auto span = static_cast<std::size_t>(0.1 * a.sample_rate_hz);
-    REQUIRE(onset + span <= a.samples.size());
-    REQUIRE(span <= y.size());
-    double sig = 0.0, err = 0.0;
-    for (std::size_t i = 0; i < span; ++i) {
-        const double x = a.samples[onset + i];
-        sig += x * x;
-        const double e = x - static_cast<double>(y[i]);
-        err += e * e;
-    }
-    const double snr_db = 10.0 * std::log10(sig / err);
-    CAPTURE(r.value.source.onset_s, r.summary.partials, snr_db);
-    CHECK(snr_db >= 15.0);  // project requirement: render within 15 dB SNR of the source
-}
 
 TEST_CASE("segment count through the tracker over random partials", "[fitting][tracker]") {
     // The same sweeps as on the dB tracks, as signals through the tracker: one damped cosine at

@@ -69,7 +69,7 @@ double max_abs_difference(const std::vector<float>& a, const std::vector<double>
     return worst;
 }
 
-const std::string glide_text = R"(format = "wane-patch"
+constexpr const char* glide_text = R"(format = "wane-patch"
 version = 4
 
 [note]

@@ -48,7 +48,8 @@ std::vector<float> note_of(const std::vector<component>& cs) {
 /// The track a tracker would give the component alone (12.5 ms frames, exact levels and phases).
 partial_track track_of(const component& c) {
     partial_track t;
-    for (double time = 0.0; time < note_s; time += 0.0125) {
+    for (int frame = 0; 0.0125 * frame < note_s; ++frame) {  // 12.5 ms hops
+        const double time = 0.0125 * frame;
         const double a = std::max(amp_at(c, time), 1e-9);
         t.points.push_back({.time_s = time, .freq_hz = c.freq_hz, .level_db = 20.0 * std::log10(a),
                             .phase_rad = std::remainder(two_pi * c.freq_hz * time + c.phase_rad, two_pi),
@@ -81,6 +82,7 @@ TEST_CASE("late companion within 2 Hz merges into its partial, which carries the
                               .place = {}});
     }
     std::vector<const partial_track*> ptrs;
+    ptrs.reserve(tracks.size());
     for (const partial_track& t : tracks) ptrs.push_back(&t);
     const merge_result m = merge_late_companions(p, ptrs, x, rate_hz, {});
 

@@ -14,7 +14,7 @@ using Catch::Matchers::Contains;
 
 namespace {
 
-const std::string good_head = R"(format = "wane-patch"
+constexpr const char* good_head = R"(format = "wane-patch"
 version = 1
 
 [note]
@@ -92,7 +92,7 @@ TEST_CASE("a 1 MB string is refused", "[hostile]") {
 TEST_CASE("deeply nested tables and arrays are refused", "[hostile]") {
     std::string nested = "decay = ";
     for (int i = 0; i < 5000; ++i) nested += "[";
-    expect_rejected(good_head + "\n[[partial]]\nfreq_hz = 1.0\n" + nested + "\n", "hostile.toml");
+    expect_rejected(std::string(good_head) + "\n[[partial]]\nfreq_hz = 1.0\n" + nested + "\n", "hostile.toml");
     std::string dotted = "\n[note.a";
     for (int i = 0; i < 5000; ++i) dotted += ".a";
     expect_rejected(good_head + dotted + "]\n", "hostile.toml");
@@ -100,7 +100,7 @@ TEST_CASE("deeply nested tables and arrays are refused", "[hostile]") {
 
 TEST_CASE("100 000 partials are refused", "[hostile]") {
     std::string text = good_head;
-    text.reserve(text.size() + 100000 * 140);
+    text.reserve(text.size() + std::size_t{100000} * 140);
     for (int i = 0; i < 100000; ++i) text += partial_text(std::to_string(100 + i % 1000));
     expect_rejected(text, "4096");
 }
@@ -132,8 +132,8 @@ TEST_CASE("wrong types everywhere are refused naming the key", "[hostile]") {
 }
 
 TEST_CASE("an unterminated file is refused", "[hostile]") {
-    expect_rejected(good_head + "\n[[partial]]\nfreq_hz = 220.0\ndecay = [ { t60_s = 1.5 ", "hostile.toml:");
-    expect_rejected(good_head + "\n[note\n", "hostile.toml:");
+    expect_rejected(std::string(good_head) + "\n[[partial]]\nfreq_hz = 220.0\ndecay = [ { t60_s = 1.5 ", "hostile.toml:");
+    expect_rejected(std::string(good_head) + "\n[note\n", "hostile.toml:");
     expect_rejected("format = \"wane-patch", "hostile.toml:");
 }
 

@@ -172,6 +172,7 @@ TEST_CASE("the peak match's gain holds for the default 48 kHz render of a 44.1 k
     const peak_match_params params{};
     p.note.gain_db = peak_matching_gain_db(p, note, source_rate_hz, params);
     std::vector<double> draws_db;
+    draws_db.reserve(static_cast<std::size_t>(params.draws));
     for (int k = 0; k < params.draws; ++k)
         draws_db.push_back(peak_db(render_patch(p, {.sample_rate_hz = default_output_rate_hz,
                                                     .noise_seed = params.first_seed + static_cast<std::uint64_t>(k)})));

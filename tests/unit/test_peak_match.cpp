@@ -54,6 +54,7 @@ std::vector<float> recording(double rate_hz, float peak_lin) {
 std::vector<double> draw_peaks_db(patch p, double rate_hz, std::uint64_t first, int draws) {
     p.note.gain_db = 0.0;
     std::vector<double> peaks;
+    peaks.reserve(static_cast<std::size_t>(draws));
     for (int k = 0; k < draws; ++k)
         peaks.push_back(peak_db(render_patch(p, {.sample_rate_hz = rate_hz, .noise_seed = first + static_cast<std::uint64_t>(k)})));
     return peaks;

@@ -128,6 +128,7 @@ TEST_CASE("analysis: a church bell's partials give the strike note an octave bel
     const std::vector<std::pair<double, double>> ratio_db{{0.5, -14.0}, {1.0, -12.0}, {1.2, -9.0}, {1.5, -16.0},
                                                            {2.0, -6.0}, {3.0, -12.0}, {4.0, -15.0}};
     std::vector<partial> modes;
+    modes.reserve(ratio_db.size());
     for (const auto& [ratio, db] : ratio_db) modes.push_back(make_partial(ratio * strike, db, 2.0 / ratio));
     const analysis_result r = analyse(modes, 2.5);
     const patch& p = r.value;

@@ -59,6 +59,7 @@ struct pseudo_terminal {
 
 void advance_from_threads(progress_bar& bar, int threads, int per_thread) {
     std::vector<std::thread> pool;
+    pool.reserve(static_cast<std::size_t>(threads));
     for (int t = 0; t < threads; ++t) {
         pool.emplace_back([&bar, per_thread] {
             for (int i = 0; i < per_thread; ++i) bar.advance();

@@ -22,7 +22,7 @@ using wane::test::with;
 
 namespace {
 
-const std::string stereo_text = R"(format = "wane-patch"
+constexpr const char* stereo_text = R"(format = "wane-patch"
 version = 3
 
 [note]
