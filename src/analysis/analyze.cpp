@@ -206,6 +206,9 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     done("envelope fits");
 
     const auto onset_frame = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
+    // What the waveform fits over the whole note read (analysis_params::max_waveform_fit_s).
+    const std::span<const float> fit_part = part.first(std::min(
+        part.size(), onset_frame + static_cast<std::size_t>(std::llround(params.max_waveform_fit_s * sample_rate_hz))));
     heard_span_spectrum heard;  // the recording's spectrum over the heard span, for both steps
     if (params.long_spectrum && onset_frame < part.size())
         heard = move_to_long_spectrum(out, fitted, part.subspan(onset_frame), sample_rate_hz, params.heard_peaks);
@@ -221,7 +224,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     // Strong peaks of the recording's long spectrum no track accounts for, after the root (which
     // the tracks decide) and before the onset refinement (which refits their starts too).
     if (params.long_spectrum && onset_frame < part.size()) {
-        out.summary.added_heard_peaks = add_heard_peaks(p, part.subspan(onset_frame), sample_rate_hz, heard,
+        out.summary.added_heard_peaks = add_heard_peaks(p, fit_part.subspan(onset_frame), sample_rate_hz, heard,
                                                         params.heard_peaks, fit_params);
         out.summary.partials = static_cast<int>(p.partials.size());
     }
@@ -233,7 +236,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     p.source.analysis = analysis_settings{.window = std::string(window_name(tr.window)),
                                           .fft_size = tr.fft_size, .window_s = tr.window_s, .hop_s = tr.hop_s};
     if (params.split_pairs && onset_frame < part.size()) {
-        out.summary.pairs_split = split_beating_pairs(p, part.subspan(onset_frame), sample_rate_hz, params.pairs);
+        out.summary.pairs_split = split_beating_pairs(p, fit_part.subspan(onset_frame), sample_rate_hz, params.pairs);
         out.summary.partials = static_cast<int>(p.partials.size());
     }
     done("pair split");
@@ -252,7 +255,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
         }
     }
     done("onset refinement");
-    glides_and_modes(out, part, sample_rate_hz, params, done);  // reports "onset glides", "mode split"
+    glides_and_modes(out, fit_part, sample_rate_hz, params, done);  // reports "onset glides", "mode split"
     if (params.soften_start) out.summary.start_ramp_s = soften_partials_start(out, part, sample_rate_hz, params);
     done("start rise");
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);
