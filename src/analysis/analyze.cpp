@@ -174,6 +174,21 @@ void split_strong_partials(analysis_result& out, std::span<const float> part, do
     out.summary.partials = static_cast<int>(out.value.partials.size());
 }
 
+/// The onset refinement (analysis/onset_refine.hpp) on the recording from the tracker's onset;
+/// the onset moves to where its modes start (the noise and the end count from there).
+void refine_start(analysis_result& out, std::span<const float> note, double sample_rate_hz,
+                  const onset_refine_params& params) {
+    patch& p = out.value;
+    const auto refined = refine_onset(p, note, sample_rate_hz, params);
+    out.summary.new_modes = refined.new_modes;
+    out.summary.partials = static_cast<int>(p.partials.size());
+    out.summary.onset_explained_db = refined.explained_db;
+    const double shift_s = static_cast<double>(refined.start_shift_n) / sample_rate_hz;
+    out.tracking.onset_s += shift_s;
+    p.source.onset_s += shift_s;
+    out.summary.segments = segment_count(p);
+}
+
 /// The early pitch glides, then the close modes of the strongest partials without one; done(stage)
 /// after each.
 void glides_and_modes(analysis_result& out, std::span<const float> part, double sample_rate_hz,
@@ -241,19 +256,8 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     }
     done("pair split");
     const double tracker_onset_s = tr.onset_s;  // the peak counts from here (a pluck's first swing)
-    if (params.refine_onset) {
-        if (onset_frame < part.size()) {
-            const auto refined = refine_onset(p, part.subspan(onset_frame), sample_rate_hz, params.onset);
-            out.summary.new_modes = refined.new_modes;
-            out.summary.partials = static_cast<int>(p.partials.size());
-            out.summary.onset_explained_db = refined.explained_db;
-            // The modes start later by start_shift_n: the onset moves there (noise, end count from it).
-            const double shift_s = static_cast<double>(refined.start_shift_n) / sample_rate_hz;
-            out.tracking.onset_s += shift_s;
-            p.source.onset_s += shift_s;
-            out.summary.segments = segment_count(p);
-        }
-    }
+    if (params.refine_onset && onset_frame < part.size())
+        refine_start(out, part.subspan(onset_frame), sample_rate_hz, params.onset);
     done("onset refinement");
     glides_and_modes(out, fit_part, sample_rate_hz, params, done);  // reports "onset glides", "mode split"
     if (params.soften_start) out.summary.start_ramp_s = soften_partials_start(out, part, sample_rate_hz, params);
