@@ -9,8 +9,10 @@ A copy rendered with a gain of G dB (to stay under full scale) is scaled back by
 Prints one JSON object with the figures below.
 
 Alignment: the copy starts at the note's onset; its place in the recording is the lag in
-[0, 0.5 s] that maximizes the cross-correlation of the copy's first 0.5 s with the recording
-(found by FFT; the copy's own claim of the onset is not used).
+[0, MAX_LAG_S = 5 s] that maximizes the cross-correlation of the copy's first 0.5 s with the
+recording (found by FFT; the copy's own claim of the onset is not used). The lag once stopped at
+0.5 s, which scored a note recorded after more than about 0.5 s of room noise or silence at the
+wrong place (tools/make_variants).
 
 Figures (definitions are ours, stated here; tolerances are chosen by the callers):
 - lsd_db[N], N in 512/2048/8192: log-spectral distance. Hann window of N samples, hop N/4, power
@@ -40,6 +42,8 @@ import scipy.signal as sig
 FLOOR_DB = 100.0
 FRAME_RANGE_DB = 60.0
 RESOLUTIONS = (512, 2048, 8192)
+ALIGN_SPAN_S = 0.5
+MAX_LAG_S = 5.0
 
 
 def read_channels(path):
@@ -63,8 +67,8 @@ def read_mono(path):
 
 
 def align(rec, copy, rate):
-    span = min(len(copy), int(0.5 * rate))
-    max_lag = min(int(0.5 * rate), len(rec) - span)
+    span = min(len(copy), int(ALIGN_SPAN_S * rate))
+    max_lag = min(int(MAX_LAG_S * rate), len(rec) - span)
     if max_lag <= 0:
         return 0
     seg = rec[: max_lag + span]
