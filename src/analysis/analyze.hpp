@@ -112,9 +112,9 @@ using stage_observer = std::function<void(std::string_view stage)>;
 
 /// A DC offset (the recording's mean) is removed before the analysis when it stands within this of
 /// the peak |sample|, dB: the tracker takes the mean off its frames, but the waveform fits, the
-/// noise model and the cut test saw it as a held level (every note with +0.05 of full scale added
-/// read as cut while sounding: tools/make_variants, dc). The 17 real notes' means lie 54 dB or
-/// more under their peaks (sox stat) and are left as they are.
+/// noise model and the recording-end test saw it as a held level (with +0.05 of full scale added,
+/// 8 of the 17 real notes read as holding their level, 3 cut ones among them: tools/make_variants,
+/// dc). The 17 real notes' own means lie 54 dB or more under their peaks (sox stat): left as they are.
 inline constexpr double dc_offset_range_db = 50.0;
 
 /// Whether samples' mean stands within range_db of their peak |sample| (mean accumulated in double).
