@@ -205,8 +205,10 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
     const auto half = static_cast<std::size_t>(plan.half_length());
     const std::size_t buf_capacity =
         std::min(total, residual_blocks * render_anchor_frames + 2 * half + render_anchor_frames);
+    // The frames read nothing past the last one's window: the buffer stops there.
+    const std::size_t read_end = frame_count == 0 ? 0 : std::min(total, (frame_count - 1) * hop + half + 1);
     std::vector<float> buf;
-    buf.reserve(buf_capacity);
+    buf.reserve(std::min(buf_capacity, read_end));
     std::size_t buf_first = 0;
     const std::size_t dense_frames = std::isfinite(bp.dense_span_s) && bp.sparse_hops > 1
                                          ? static_cast<std::size_t>(std::max(0.0, std::ceil(bp.dense_span_s * sample_rate_hz / static_cast<double>(hop))))
@@ -223,7 +225,7 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
         const std::size_t hi = std::min(total, centre + half + 1);
         if (buf.empty() || lo < buf_first || hi > buf_first + buf.size()) {
             buf_first = lo / render_anchor_frames * render_anchor_frames;
-            buf.resize(std::min(buf_capacity, total - buf_first));
+            buf.resize(std::min(buf_capacity, read_end - buf_first));
             source(buf_first, buf);
         }
         // Frames that reach past either end of the residual see the buffer's edges there too
