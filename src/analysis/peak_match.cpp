@@ -12,6 +12,7 @@
 #include "core/units.hpp"
 #include "synthesis/noise_render.hpp"
 #include "synthesis/render.hpp"
+#include "synthesis/render_bound.hpp"
 
 namespace wane {
 
@@ -47,8 +48,9 @@ struct default_peak {
 constexpr std::size_t draw_buffer_frames = std::size_t{1} << 22;
 
 /// The median over the draws of the peak (dB) of q rendered at rate (q.note.gain_db = 0).
-/// def: of q's render with the default seed (the full render, not repeated).
-double expected_peak_db(const patch& q, double rate, const default_peak& def, const peak_match_params& params) {
+/// def: of q's render with the default seed (the full render, not repeated); bound: of q's render at rate.
+double expected_peak_db(const patch& q, double rate, const default_peak& def, const render_bound& bound,
+                        const peak_match_params& params) {
     assert(params.draws >= 1);
     const double default_db = def.peak_db;
     if (q.noise.empty()) return default_db;
@@ -58,9 +60,14 @@ double expected_peak_db(const patch& q, double rate, const default_peak& def, co
     const std::size_t frames = partials_of.frames();
     assert(frames == def.frames);
     const auto margin = static_cast<std::size_t>(std::llround(peak_window_margin_s * rate));
-    const std::size_t span = std::min(frames, def.loud_end + margin);
+    std::size_t span = std::min(frames, def.loud_end + margin);
     std::vector<float> partials(span);
     partials_of.render(0, partials);
+    // Each draw peaks where its partials less the noise's bound can reach, at the least: the
+    // draws are rendered only over the blocks that can reach that.
+    loudness_blocks blocks;
+    blocks.add(partials, 0, bound);
+    span = std::min(span, blocks.frames_reaching(blocks.least_peak / render_bound_margin));
     const auto fade_from = frames - std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * rate)));
     std::vector<double> peaks_db;
     std::vector<std::uint64_t> seeds;
@@ -121,15 +128,21 @@ struct default_renders {
 
 bool renderable_at(double rate) { return rate >= min_render_rate_hz && rate <= max_render_rate_hz; }
 
-default_renders render_default(const patch& q, double sample_rate_hz, const peak_match_params& params) {
+default_renders render_default(const patch& q, double sample_rate_hz, const render_bound& output_bound,
+                               const peak_match_params& params) {
     default_renders d;
     {
-        const std::vector<float> output = render_patch(q, {.sample_rate_hz = default_output_rate_hz, .noise_seed = params.default_seed});
-        d.output = {.frames = output.size(), .peak_db = peak_level_db(output), .loud_end = loud_end(output)};
+        // loud_end needs every frame within peak_window_db of the peak.
+        const std::vector<float> output = render_while_within(q, {.sample_rate_hz = default_output_rate_hz, .noise_seed = params.default_seed},
+                                                              output_bound, peak_window_db);
+        d.output = {.frames = output_bound.frames(), .peak_db = peak_level_db(output), .loud_end = loud_end(output)};
     }  // freed before the source-rate render
-    d.source_db = sample_rate_hz != default_output_rate_hz && renderable_at(sample_rate_hz)
-                      ? peak_level_db(render_patch(q, {.sample_rate_hz = sample_rate_hz, .noise_seed = params.default_seed}))
-                      : d.output.peak_db;
+    if (sample_rate_hz != default_output_rate_hz && renderable_at(sample_rate_hz)) {
+        const render_params source{.sample_rate_hz = sample_rate_hz, .noise_seed = params.default_seed};
+        d.source_db = peak_level_db(render_while_within(q, source, render_bound(q, source), 0.0));
+    } else {
+        d.source_db = d.output.peak_db;
+    }
     return d;
 }
 
@@ -140,9 +153,10 @@ peak_match_result match_copy_peak(const patch& p, std::span<const float> note, d
     const patch q = as_written(p);
     const double recording_db = peak_level_db(note);
     const double target_db = std::min(recording_db, -peak_headroom_db);
-    const default_renders d = render_default(q, sample_rate_hz, params);
+    const render_bound output_bound(q, {.sample_rate_hz = default_output_rate_hz});
+    const default_renders d = render_default(q, sample_rate_hz, output_bound, params);
     // The draws at the default output rate: no rate conversion, and the rate a copy plays at.
-    const double expected_db = expected_peak_db(q, default_output_rate_hz, d.output, params);
+    const double expected_db = expected_peak_db(q, default_output_rate_hz, d.output, output_bound, params);
     if (!std::isfinite(expected_db)) return {};
     peak_match_result r;
     // The fitted level (gain 0) unless the expected peak lies more than the tolerance off.
@@ -172,7 +186,9 @@ void match_peak(patch& p, std::span<const float> note, double sample_rate_hz, co
     for (int step = 0; step < max_steps && held_down_db > max_noise_hold_db && !p.noise.empty(); ++step) {
         for (noise_band& b : p.noise) b.env.peak = level_db{b.env.peak.db - noise_step_db};
         // The partials keep the expected peak's gain; only the default draw's limit is redone.
-        p.note.gain_db = std::min(first.expected_gain_db, render_default(as_written(p), sample_rate_hz, params).safe_gain_db());
+        const patch q = as_written(p);
+        const render_bound output_bound(q, {.sample_rate_hz = default_output_rate_hz});
+        p.note.gain_db = std::min(first.expected_gain_db, render_default(q, sample_rate_hz, output_bound, params).safe_gain_db());
         held_down_db = first.expected_gain_db - p.note.gain_db;
     }
 }

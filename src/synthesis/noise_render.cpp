@@ -425,6 +425,11 @@ void add_noise_band_draws(std::span<const noise_band> bands, const noise_render_
     for (std::size_t d = 0; d < seeds.size(); ++d) add_rate_converted(drawn_outs[d], draw_rate_hz, params.sample_rate_hz, outs[d]);
 }
 
+noise_render_params noise_params_of(const patch& p, const render_params& params) {
+    return {.sample_rate_hz = params.sample_rate_hz, .gain_db = p.note.gain_db + params.gain_db + params.noise_gain_db,
+            .seed = params.noise_seed, .own_seed = params.own_noise_seed};
+}
+
 void add_noise_bands(std::span<const noise_band> bands, const noise_render_params& params, std::span<float> out) {
     const std::uint64_t seeds[] = {params.seed};
     const std::span<float> outs[] = {out};
