@@ -262,7 +262,8 @@ struct draw_player {
                 std::span<float> frames)
         : n_fft_(n_fft), n_(static_cast<std::size_t>(n_fft)), pool_floats_(static_cast<std::size_t>(pool_frames) * 2 * n_),
           shift_bits_(shift_bits), shift_stride_(shift_stride), frames_(frames),
-          inverse_(n_fft), pools_(draws * bands * pool_floats_), amp_(amp_rows * n_), row_of_(bands, 0) {
+          inverse_(n_fft), pools_(std::make_unique_for_overwrite<float[]>(draws * bands * pool_floats_)),
+          amp_(amp_rows * n_), row_of_(bands, 0) {
         runs_.reserve(2 * amp_rows);  // a band makes a run per piece it crosses in a frame: rarely two
     }
 
@@ -298,7 +299,7 @@ private:
             band_bins& b = layouts[d][i];
             const auto shift = static_cast<std::size_t>(b.shifts.next() >> (64 - shift_bits_)) * shift_stride_;
             if (!sounds) continue;
-            const std::span<float> pool(pools_.data() + (d * bands + i) * pool_floats_, pool_floats_);
+            const std::span<float> pool(pools_.get() + (d * bands + i) * pool_floats_, pool_floats_);
             if (!b.pool_ready) {
                 make_pool(b, n_fft_, inverse_, pool);
                 b.pool_ready = true;
@@ -323,7 +324,8 @@ private:
     std::size_t shift_stride_;
     std::span<float> frames_;
     inverse_real_fft inverse_;
-    std::vector<float> pools_;  ///< each draw's bands' pools, filled when a band first sounds
+    /// Each draw's bands' pools, written whole (make_pool) when a band first sounds: not zeroed.
+    std::unique_ptr<float[]> pools_;
     std::vector<float> amp_;  ///< a few fast bands' amplitudes in the frame, a row of n_fft each
     std::vector<std::size_t> row_of_;  ///< each band's row of amp_ (while it is being played)
     std::vector<amplitude_run> runs_;
