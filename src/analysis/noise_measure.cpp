@@ -81,12 +81,19 @@ band_plan floor_plan(double sample_rate_hz, std::span<const double> partial_freq
     const int n_bins = config.fft_size / 2 + 1;
     const double bin_hz = sample_rate_hz / config.fft_size;
     const double guard_hz = params.partial_guard_lobes * bh4_half_lobe_bins * sample_rate_hz / config.window_length;
+    // A bin is free when no partial lies within guard_hz of it. The partials in order of frequency:
+    // the nearest to a bin on either side is the first at or over it or the one before that
+    // (|pf - f| only grows away from f), and bins come in order, so one sweep tests every bin.
+    std::vector<double> sorted_hz(partial_freqs_hz.begin(), partial_freqs_hz.end());
+    std::sort(sorted_hz.begin(), sorted_hz.end());
     std::vector<int> free_bins;
+    std::size_t over = 0;  // the first partial at or over the bin's frequency
     for (int k = 1; k < n_bins - 1; ++k) {
         const double f = k * bin_hz;
-        if (std::none_of(partial_freqs_hz.begin(), partial_freqs_hz.end(),
-                         [&](double pf) { return std::abs(pf - f) < guard_hz; }))
-            free_bins.push_back(k);
+        while (over < sorted_hz.size() && sorted_hz[over] < f) ++over;
+        const bool near_over = over < sorted_hz.size() && std::abs(sorted_hz[over] - f) < guard_hz;
+        const bool near_under = over > 0 && std::abs(sorted_hz[over - 1] - f) < guard_hz;
+        if (!near_over && !near_under) free_bins.push_back(k);
     }
     for (const band_edges& e : noise_band_layout(sample_rate_hz / 2.0)) {
         const int first = std::max(1, static_cast<int>(std::ceil(e.low_hz / bin_hz)));
