@@ -43,7 +43,8 @@ render_bound::render_bound(const patch& p, const render_params& params)
         converter_gain = rate_convert_gain(draw_rate_hz, rate_hz_);
         noise_reach_s_ += static_cast<double>(rate_convert_taps(draw_rate_hz, rate_hz_)) / draw_rate_hz;
     }
-    const double noise_gain = to_amp(level_db{noise.gain_db}).lin;
+    // A stereo channel's bins mix shared and own noise: |sqrt(c) u + sqrt(1 - c) v| <= sqrt(2).
+    const double noise_gain = to_amp(level_db{noise.gain_db}).lin * (noise.own_seed ? std::sqrt(2.0) : 1.0);
     for (const noise_band& b : p.noise) {
         const double high_hz = std::min(b.high_hz, 0.5 * draw_rate_hz);
         if (b.low_hz >= high_hz) continue;  // left out by the renderer too

@@ -13,7 +13,8 @@
 // (the level at a frame's centre, or the envelope sample by sample in a fast frame: within a frame
 // of n either way). count <= (high - low) / bin_hz + 1 (the layout's bins lie inside the band, at
 // least one). A render at another rate than the noise's draw rate converts it by a kernel whose
-// taps' magnitudes sum to at most rate_convert_gain, reading one kernel length around n.
+// taps' magnitudes sum to at most rate_convert_gain, reading one kernel length around n. A stereo
+// channel's bins (noise_render_params::own_seed) are sqrt(c) u + sqrt(1 - c) v, |.| <= sqrt(2).
 //
 // Float rounding: the renders' relative errors (~4e-6, synthesis/render.cpp) are covered by a
 // margin of render_bound_margin on every bound.

@@ -1,6 +1,6 @@
 // The render bound (synthesis/render_bound.hpp) against full renders (render_patch, the reference:
 // the bound is worked out from the patch alone, never from samples): over a sweep of random
-// patches, rates and noise seeds, no sample from a block on is louder than the bound from that
+// patches, rates and noise seeds (and a stereo channel's noise), no sample from a block on is louder than the bound from that
 // block, and no block's noise (the render less its partials alone) is louder than the noise's
 // bound there. The truncated render (render_while_within) is the full render's first frames bit
 // for bit, and every frame after them stays under the stated distance from the full render's peak.
@@ -10,6 +10,7 @@
 #include <cmath>
 #include <cstddef>
 #include <cstdint>
+#include <optional>
 #include <vector>
 
 #include "core/noise_bands.hpp"
@@ -50,7 +51,8 @@ patch random_patch(std::uint64_t seed) {
                               .env = random_envelope(rng, rng.uniform(-40.0, -6.0), 0.05)});
     for (const band_edges& e : noise_band_layout(20000.0)) {
         if (rng.unit() < 0.5) continue;
-        p.noise.push_back({.low_hz = e.low_hz, .high_hz = e.high_hz, .env = random_envelope(rng, rng.uniform(-80.0, -20.0), 0.01)});
+        p.noise.push_back({.low_hz = e.low_hz, .high_hz = e.high_hz, .env = random_envelope(rng, rng.uniform(-80.0, -20.0), 0.01),
+                           .place = {}, .coherence = rng.unit()});
     }
     canonicalize(p);
     return p;
@@ -71,8 +73,10 @@ TEST_CASE("render_bound: no sample of a full render exceeds the bound from its b
     const patch p = random_patch(seed);
     const render_params partials_only{.sample_rate_hz = rate_hz, .include_noise = false};
     const std::vector<float> partials = render_patch(p, partials_only);
-    for (const std::uint64_t noise_seed : {std::uint64_t{1}, std::uint64_t{2}, std::uint64_t{7}}) {
-        const render_params params{.sample_rate_hz = rate_hz, .noise_seed = noise_seed};
+    // Three mono draws, and a stereo channel's (its own noise mixed in by each band's coherence).
+    for (const std::uint64_t noise_seed : {std::uint64_t{1}, std::uint64_t{2}, std::uint64_t{7}, std::uint64_t{0}}) {
+        const render_params params{.sample_rate_hz = rate_hz, .noise_seed = noise_seed == 0 ? 5 : noise_seed,
+                                   .own_noise_seed = noise_seed == 0 ? std::optional<std::uint64_t>{11} : std::nullopt};
         const render_bound bound(p, params);
         const std::vector<float> full = render_patch(p, params);
         REQUIRE(full.size() == bound.frames());
