@@ -47,6 +47,38 @@ struct default_peak {
 /// turns, as many at a time as fit: the same samples as all at once).
 constexpr std::size_t draw_buffer_frames = std::size_t{1} << 22;
 
+/// The peaks (|sample|) of the draws of seeds, each render of q at rate (partials: its partials'
+/// frames [0, reach) and more, frames: the render's length) over frames [0, reach) only.
+std::vector<float> draw_peaks(const patch& q, double rate, std::span<const std::uint64_t> seeds,
+                              std::span<const float> partials, std::size_t frames, std::size_t reach) {
+    const auto fade_from = frames - std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * rate)));
+    std::vector<float> peaks;
+    // A group of draws per render (add_noise_band_draws: each as its own render would be).
+    const std::size_t group = std::clamp<std::size_t>(draw_buffer_frames / std::max<std::size_t>(reach, 1), 1, std::max<std::size_t>(seeds.size(), 1));
+    std::vector<float> noise(std::min(group, seeds.size()) * reach);
+    for (std::size_t first = 0; first < seeds.size(); first += group) {
+        const std::span<const std::uint64_t> these = seeds.subspan(first, std::min(group, seeds.size() - first));
+        std::fill(noise.begin(), noise.end(), 0.0f);
+        std::vector<std::span<float>> outs;
+        for (std::size_t d = 0; d < these.size(); ++d) outs.emplace_back(noise.data() + d * reach, reach);
+        add_noise_band_draws(q.noise, {.sample_rate_hz = rate, .gain_db = 0.0}, these, outs);
+        for (const std::span<const float> drawn : outs) {
+            float peak = 0.0f;
+            for (std::size_t n = 0; n < reach; ++n) {
+                // The end fade covers the noise too (render_patch applies it to the sum).
+                const float g = n < fade_from ? 1.0f : static_cast<float>(end_fade_gain(n, frames, rate));
+                peak = std::max(peak, std::abs(partials[n] + g * drawn[n]));
+            }
+            peaks.push_back(peak);
+        }
+    }
+    return peaks;
+}
+
+/// The other draws are first rendered only over the blocks that can come within this (dB) of the
+/// default draw's peak: most draws peak there, and a draw that does not is rendered again further.
+constexpr double first_reach_db = 1.0;
+
 /// The median over the draws of the peak (dB) of q rendered at rate (q.note.gain_db = 0).
 /// def: of q's render with the default seed (the full render, not repeated); bound: of q's render at rate.
 double expected_peak_db(const patch& q, double rate, const default_peak& def, const render_bound& bound,
@@ -60,15 +92,9 @@ double expected_peak_db(const patch& q, double rate, const default_peak& def, co
     const std::size_t frames = partials_of.frames();
     assert(frames == def.frames);
     const auto margin = static_cast<std::size_t>(std::llround(peak_window_margin_s * rate));
-    std::size_t span = std::min(frames, def.loud_end + margin);
+    const std::size_t span = std::min(frames, def.loud_end + margin);
     std::vector<float> partials(span);
     partials_of.render(0, partials);
-    // Each draw peaks where its partials less the noise's bound can reach, at the least: the
-    // draws are rendered only over the blocks that can reach that.
-    loudness_blocks blocks;
-    blocks.add(partials, 0, bound);
-    span = std::min(span, blocks.frames_reaching(blocks.least_peak / render_bound_margin));
-    const auto fade_from = frames - std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * rate)));
     std::vector<double> peaks_db;
     std::vector<std::uint64_t> seeds;
     for (int k = 0; k < params.draws; ++k) {
@@ -79,25 +105,21 @@ double expected_peak_db(const patch& q, double rate, const default_peak& def, co
             seeds.push_back(seed);
         }
     }
-    // The other draws, a group per render (add_noise_band_draws: each as its own render would be).
-    const std::size_t group = std::clamp<std::size_t>(draw_buffer_frames / std::max<std::size_t>(span, 1), 1, std::max<std::size_t>(seeds.size(), 1));
-    std::vector<float> noise(std::min(group, seeds.size()) * span);
-    for (std::size_t first = 0; first < seeds.size(); first += group) {
-        const std::span<const std::uint64_t> these = std::span(seeds).subspan(first, std::min(group, seeds.size() - first));
-        std::fill(noise.begin(), noise.end(), 0.0f);
-        std::vector<std::span<float>> outs;
-        for (std::size_t d = 0; d < these.size(); ++d) outs.emplace_back(noise.data() + d * span, span);
-        add_noise_band_draws(q.noise, {.sample_rate_hz = rate, .gain_db = 0.0}, these, outs);
-        for (const std::span<const float> drawn : outs) {
-            float peak = 0.0f;
-            for (std::size_t n = 0; n < span; ++n) {
-                // The end fade covers the noise too (render_patch applies it to the sum).
-                const float g = n < fade_from ? 1.0f : static_cast<float>(end_fade_gain(n, frames, rate));
-                peak = std::max(peak, std::abs(partials[n] + g * drawn[n]));
-            }
-            peaks_db.push_back(to_level(amp_lin{static_cast<double>(peak)}).db);
-        }
+    // A draw's samples past the blocks that can reach level L (synthesis/render_bound) stay under
+    // L: its peak over the blocks before is its whole peak when it reaches L there. Every draw
+    // peaks at least where its partials less the noise's bound do (blocks.least_peak).
+    loudness_blocks blocks;
+    blocks.add(partials, 0, bound);
+    const double first_level = std::max(blocks.least_peak, to_amp(level_db{default_db - first_reach_db}).lin);
+    const std::size_t first_reach = std::min(span, blocks.frames_reaching(first_level / render_bound_margin));
+    std::vector<float> peaks = draw_peaks(q, rate, seeds, partials, frames, first_reach);
+    const float lowest = peaks.empty() ? 0.0f : *std::min_element(peaks.begin(), peaks.end());
+    if (static_cast<double>(lowest) < first_level / render_bound_margin) {
+        const double level = std::max(blocks.least_peak, static_cast<double>(lowest));
+        const std::size_t reach = std::min(span, blocks.frames_reaching(level / render_bound_margin));
+        if (reach > first_reach) peaks = draw_peaks(q, rate, seeds, partials, frames, reach);
     }
+    for (const float peak : peaks) peaks_db.push_back(to_level(amp_lin{static_cast<double>(peak)}).db);
     const auto mid = peaks_db.begin() + static_cast<std::ptrdiff_t>(peaks_db.size() / 2);
     std::nth_element(peaks_db.begin(), mid, peaks_db.end());
     return *mid;
