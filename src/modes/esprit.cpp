@@ -10,6 +10,7 @@
 
 #include "modes/complex_eigenvalues.hpp"
 #include "modes/hermitian_tridiagonal.hpp"
+#include "modes/shifted_products.hpp"
 
 namespace wane {
 
@@ -20,8 +21,9 @@ using cmatrix = Eigen::MatrixXcd;
 /// Phi = pinv(U1) U2 for a subspace basis u (dim x r, orthonormal columns), U1 = u without its
 /// last row, U2 without its first. U1^H U1 = I - v v^H with v the adjoint of u's last row, whose
 /// inverse is I + v v^H / (1 - |v|^2) (Sherman and Morrison 1950), so
-/// Phi = W + v (v^H W) / (1 - |v|^2),  W = U1^H U2:  no factorization of U1. Near |v| = 1 (U1
-/// close to rank deficient) the complete orthogonal decomposition gives the minimum-norm solution.
+/// Phi = W + v (v^H W) / (1 - |v|^2),  W = U1^H U2 (shifted_inner_products: from u's rows, the
+/// bits of Eigen's product):  no factorization of U1. Near |v| = 1 (U1 close to rank deficient)
+/// the complete orthogonal decomposition gives the minimum-norm solution.
 cmatrix rotation(const cmatrix& u) {
     const Eigen::Index dim = u.rows();
     const auto u1 = u.topRows(dim - 1);
@@ -29,7 +31,7 @@ cmatrix rotation(const cmatrix& u) {
     const Eigen::VectorXcd v = u.row(dim - 1).adjoint();
     const double rest = 1.0 - v.squaredNorm();
     if (!(rest > 1e-6)) return u1.completeOrthogonalDecomposition().solve(u2);
-    cmatrix phi = u1.adjoint() * u2;
+    cmatrix phi = shifted_inner_products(u);
     const Eigen::RowVectorXcd vh_phi = v.adjoint() * phi;
     phi.noalias() += (v / rest) * vh_phi;
     return phi;
