@@ -174,6 +174,21 @@ void split_strong_partials(analysis_result& out, std::span<const float> part, do
     out.summary.partials = static_cast<int>(out.value.partials.size());
 }
 
+/// The onset refinement (analysis/onset_refine.hpp) on the recording from the tracker's onset;
+/// the onset moves to where its modes start (the noise and the end count from there).
+void refine_start(analysis_result& out, std::span<const float> note, double sample_rate_hz,
+                  const onset_refine_params& params) {
+    patch& p = out.value;
+    const auto refined = refine_onset(p, note, sample_rate_hz, params);
+    out.summary.new_modes = refined.new_modes;
+    out.summary.partials = static_cast<int>(p.partials.size());
+    out.summary.onset_explained_db = refined.explained_db;
+    const double shift_s = static_cast<double>(refined.start_shift_n) / sample_rate_hz;
+    out.tracking.onset_s += shift_s;
+    p.source.onset_s += shift_s;
+    out.summary.segments = segment_count(p);
+}
+
 /// The early pitch glides, then the close modes of the strongest partials without one; done(stage)
 /// after each.
 void glides_and_modes(analysis_result& out, std::span<const float> part, double sample_rate_hz,
@@ -206,6 +221,9 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     done("envelope fits");
 
     const auto onset_frame = static_cast<std::size_t>(std::llround(tr.onset_s * sample_rate_hz));
+    // What the waveform fits over the whole note read (analysis_params::max_waveform_fit_s).
+    const std::span<const float> fit_part = part.first(std::min(
+        part.size(), onset_frame + static_cast<std::size_t>(std::llround(params.max_waveform_fit_s * sample_rate_hz))));
     heard_span_spectrum heard;  // the recording's spectrum over the heard span, for both steps
     if (params.long_spectrum && onset_frame < part.size())
         heard = move_to_long_spectrum(out, fitted, part.subspan(onset_frame), sample_rate_hz, params.heard_peaks);
@@ -221,7 +239,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     // Strong peaks of the recording's long spectrum no track accounts for, after the root (which
     // the tracks decide) and before the onset refinement (which refits their starts too).
     if (params.long_spectrum && onset_frame < part.size()) {
-        out.summary.added_heard_peaks = add_heard_peaks(p, part.subspan(onset_frame), sample_rate_hz, heard,
+        out.summary.added_heard_peaks = add_heard_peaks(p, fit_part.subspan(onset_frame), sample_rate_hz, heard,
                                                         params.heard_peaks, fit_params);
         out.summary.partials = static_cast<int>(p.partials.size());
     }
@@ -233,26 +251,15 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     p.source.analysis = analysis_settings{.window = std::string(window_name(tr.window)),
                                           .fft_size = tr.fft_size, .window_s = tr.window_s, .hop_s = tr.hop_s};
     if (params.split_pairs && onset_frame < part.size()) {
-        out.summary.pairs_split = split_beating_pairs(p, part.subspan(onset_frame), sample_rate_hz, params.pairs);
+        out.summary.pairs_split = split_beating_pairs(p, fit_part.subspan(onset_frame), sample_rate_hz, params.pairs);
         out.summary.partials = static_cast<int>(p.partials.size());
     }
     done("pair split");
     const double tracker_onset_s = tr.onset_s;  // the peak counts from here (a pluck's first swing)
-    if (params.refine_onset) {
-        if (onset_frame < part.size()) {
-            const auto refined = refine_onset(p, part.subspan(onset_frame), sample_rate_hz, params.onset);
-            out.summary.new_modes = refined.new_modes;
-            out.summary.partials = static_cast<int>(p.partials.size());
-            out.summary.onset_explained_db = refined.explained_db;
-            // The modes start later by start_shift_n: the onset moves there (noise, end count from it).
-            const double shift_s = static_cast<double>(refined.start_shift_n) / sample_rate_hz;
-            out.tracking.onset_s += shift_s;
-            p.source.onset_s += shift_s;
-            out.summary.segments = segment_count(p);
-        }
-    }
+    if (params.refine_onset && onset_frame < part.size())
+        refine_start(out, part.subspan(onset_frame), sample_rate_hz, params.onset);
     done("onset refinement");
-    glides_and_modes(out, part, sample_rate_hz, params, done);  // reports "onset glides", "mode split"
+    glides_and_modes(out, fit_part, sample_rate_hz, params, done);  // reports "onset glides", "mode split"
     if (params.soften_start) out.summary.start_ramp_s = soften_partials_start(out, part, sample_rate_hz, params);
     done("start rise");
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);

@@ -60,6 +60,14 @@ struct analysis_params {
     /// peaks no track found (analysis/heard_peaks.hpp); analyze --no-long-spectrum turns it off.
     bool long_spectrum = true;
     heard_peak_params heard_peaks{};
+    /// The stages that fit the waveform itself over the whole note (the added peaks' narrow bands,
+    /// the pair split, the mode split) read at most this much of it after the onset (s). Their
+    /// buffers grow with what they read (a note-long render and residual, one FFT of all of it:
+    /// 550 MB on a 10-minute 48 kHz note, tools/bench_memory), and 30 s holds the decays they fit
+    /// many times over (a T60 of 60 s falls 30 dB in it); past it a part's last segment runs on, and
+    /// the tracks' envelope fits still cover the whole note. Reasoned choice, not measured on notes
+    /// that long (the real notes are 0.8-4 s).
+    double max_waveform_fit_s = 30.0;
 };
 
 struct analysis_summary {
