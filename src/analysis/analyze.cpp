@@ -201,6 +201,29 @@ void glides_and_modes(analysis_result& out, std::span<const float> part, double 
 
 }  // namespace
 
+namespace {
+
+double mean_of(std::span<const float> samples) {
+    double sum = 0.0;
+    for (const float v : samples) sum += double(v);
+    return samples.empty() ? 0.0 : sum / static_cast<double>(samples.size());
+}
+
+}  // namespace
+
+bool has_dc_offset(std::span<const float> samples, double range_db) {
+    double peak = 0.0;
+    for (const float v : samples) peak = std::max(peak, std::abs(double(v)));
+    const double mean = std::abs(mean_of(samples));
+    return mean > 0.0 && 20.0 * std::log10(mean / peak) >= -range_db;
+}
+
+double remove_mean(std::span<float> samples) {
+    const double mean = mean_of(samples);
+    for (float& v : samples) v = static_cast<float>(double(v) - mean);
+    return mean;
+}
+
 analysis_result analyze_note(std::span<const float> samples, double sample_rate_hz,
                              const analysis_params& params, const stage_observer& stage_done) {
     assert(sample_rate_hz > 0.0);

@@ -82,6 +82,12 @@ std::vector<std::vector<float>> leakage_levels_db(const std::vector<std::vector<
                                                   const std::vector<bool>& spread) {
     assert(leak.size() == level_db.size() && leak.size() == band_total_bins.size());
     assert(sources == leak_sources::all || spread.size() == leak.size());
+    // Each band's levels as powers, once (a band leaks into several).
+    std::vector<std::vector<double>> power_of(level_db.size());
+    for (std::size_t b = 0; b < level_db.size(); ++b) {
+        power_of[b].resize(level_db[b].size());
+        for (std::size_t i = 0; i < level_db[b].size(); ++i) power_of[b][i] = db_to_power(level_db[b][i]);
+    }
     std::vector<std::vector<float>> out(leak.size());
     for (std::size_t b = 0; b < leak.size(); ++b) {
         out[b].assign(level_db[b].size(), no_leak_db);
@@ -91,13 +97,13 @@ std::vector<std::vector<float>> leakage_levels_db(const std::vector<std::vector<
                 if (i >= level_db[l.from].size()) continue;
                 const double ratio_k = static_cast<double>(band_total_bins[b]) / band_total_bins[l.from];
                 // n's density in b's band power (mean bin power times b's K, as b's level is).
-                const double from_power = db_to_power(level_db[l.from][i]) * ratio_k;
+                const double from_power = power_of[l.from][i] * ratio_k;
                 if (sources == leak_sources::all) {
                     power += l.coefficient * from_power;
                 } else if (sources == leak_sources::skirts) {
                     if (!spread[l.from]) power += l.coefficient * from_power;
                 } else if (spread[l.from]) {
-                    power += l.coefficient * std::max(0.0, from_power - db_to_power(level_db[b][i]));
+                    power += l.coefficient * std::max(0.0, from_power - power_of[b][i]);
                 }
             }
             if (power > 0.0) out[b][i] = std::max(no_leak_db, static_cast<float>(power_to_db(power)));

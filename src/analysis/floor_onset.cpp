@@ -38,6 +38,17 @@ struct window_power {
     std::array<double, window_points> w2{};
 };
 
+/// window_power of each window kind, made once in a process (a function of the kind alone).
+const window_power& window_power_of(window_kind window) {
+    static_assert(static_cast<int>(window_kind::hann) == 0 && static_cast<int>(window_kind::hamming) == 1 &&
+                  static_cast<int>(window_kind::blackman_harris_4) == 2);  // the array's order
+    static const std::array<window_power, 3> powers{window_power(window_kind::hann), window_power(window_kind::hamming),
+                                                    window_power(window_kind::blackman_harris_4)};
+    const auto index = static_cast<std::size_t>(window);
+    assert(index < powers.size());
+    return powers[index];
+}
+
 /// The window's mean of env's power around centre_s, dB. Within a decay piece the power at the
 /// next point is the one before times 10^(slope dx / 10), dx the points' spacing in seconds: exact
 /// (power_at) at the first point of each piece, a relative error of a few hundred ulps at most
@@ -90,12 +101,12 @@ bool agrees(const envelope& env, const onset_frames& frames, const window_power&
 
 double framed_level_db(const envelope& env, window_kind window, double window_s, double centre_s) {
     const auto pieces = envelope_pieces(env);
-    return framed_level_db(env, pieces, window_power(window), window_s, centre_s);
+    return framed_level_db(env, pieces, window_power_of(window), window_s, centre_s);
 }
 
 envelope limit_run_back(const envelope& env, const onset_frames& frames) {
     assert(frames.window_s > 0.0 && frames.hop_s > 0.0);
-    const window_power power(frames.window);
+    const window_power& power = window_power_of(frames.window);
     if (agrees(env, frames, power)) return env;
     // Hold from the latest frame time back to the onset first, then from earlier ones while the
     // frames agree: the run-back the frames allow, never past it.

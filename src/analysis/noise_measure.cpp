@@ -81,12 +81,19 @@ band_plan floor_plan(double sample_rate_hz, std::span<const double> partial_freq
     const int n_bins = config.fft_size / 2 + 1;
     const double bin_hz = sample_rate_hz / config.fft_size;
     const double guard_hz = params.partial_guard_lobes * bh4_half_lobe_bins * sample_rate_hz / config.window_length;
+    // A bin is free when no partial lies within guard_hz of it. The partials in order of frequency:
+    // the nearest to a bin on either side is the first at or over it or the one before that
+    // (|pf - f| only grows away from f), and bins come in order, so one sweep tests every bin.
+    std::vector<double> sorted_hz(partial_freqs_hz.begin(), partial_freqs_hz.end());
+    std::sort(sorted_hz.begin(), sorted_hz.end());
     std::vector<int> free_bins;
+    std::size_t over = 0;  // the first partial at or over the bin's frequency
     for (int k = 1; k < n_bins - 1; ++k) {
         const double f = k * bin_hz;
-        if (std::none_of(partial_freqs_hz.begin(), partial_freqs_hz.end(),
-                         [&](double pf) { return std::abs(pf - f) < guard_hz; }))
-            free_bins.push_back(k);
+        while (over < sorted_hz.size() && sorted_hz[over] < f) ++over;
+        const bool near_over = over < sorted_hz.size() && std::abs(sorted_hz[over] - f) < guard_hz;
+        const bool near_under = over > 0 && std::abs(sorted_hz[over - 1] - f) < guard_hz;
+        if (!near_over && !near_under) free_bins.push_back(k);
     }
     for (const band_edges& e : noise_band_layout(sample_rate_hz / 2.0)) {
         const int first = std::max(1, static_cast<int>(std::ceil(e.low_hz / bin_hz)));
@@ -205,8 +212,10 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
     const auto half = static_cast<std::size_t>(plan.half_length());
     const std::size_t buf_capacity =
         std::min(total, residual_blocks * render_anchor_frames + 2 * half + render_anchor_frames);
+    // The frames read nothing past the last one's window: the buffer stops there.
+    const std::size_t read_end = frame_count == 0 ? 0 : std::min(total, (frame_count - 1) * hop + half + 1);
     std::vector<float> buf;
-    buf.reserve(buf_capacity);
+    buf.reserve(std::min(buf_capacity, read_end));
     std::size_t buf_first = 0;
     const std::size_t dense_frames = std::isfinite(bp.dense_span_s) && bp.sparse_hops > 1
                                          ? static_cast<std::size_t>(std::max(0.0, std::ceil(bp.dense_span_s * sample_rate_hz / static_cast<double>(hop))))
@@ -223,7 +232,7 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
         const std::size_t hi = std::min(total, centre + half + 1);
         if (buf.empty() || lo < buf_first || hi > buf_first + buf.size()) {
             buf_first = lo / render_anchor_frames * render_anchor_frames;
-            buf.resize(std::min(buf_capacity, total - buf_first));
+            buf.resize(std::min(buf_capacity, read_end - buf_first));
             source(buf_first, buf);
         }
         // Frames that reach past either end of the residual see the buffer's edges there too

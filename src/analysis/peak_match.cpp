@@ -12,6 +12,7 @@
 #include "core/units.hpp"
 #include "synthesis/noise_render.hpp"
 #include "synthesis/render.hpp"
+#include "synthesis/render_bound.hpp"
 
 namespace wane {
 
@@ -46,9 +47,42 @@ struct default_peak {
 /// turns, as many at a time as fit: the same samples as all at once).
 constexpr std::size_t draw_buffer_frames = std::size_t{1} << 22;
 
+/// The peaks (|sample|) of the draws of seeds, each render of q at rate (partials: its partials'
+/// frames [0, reach) and more, frames: the render's length) over frames [0, reach) only.
+std::vector<float> draw_peaks(const patch& q, double rate, std::span<const std::uint64_t> seeds,
+                              std::span<const float> partials, std::size_t frames, std::size_t reach) {
+    const auto fade_from = frames - std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * rate)));
+    std::vector<float> peaks;
+    // A group of draws per render (add_noise_band_draws: each as its own render would be).
+    const std::size_t group = std::clamp<std::size_t>(draw_buffer_frames / std::max<std::size_t>(reach, 1), 1, std::max<std::size_t>(seeds.size(), 1));
+    std::vector<float> noise(std::min(group, seeds.size()) * reach);
+    for (std::size_t first = 0; first < seeds.size(); first += group) {
+        const std::span<const std::uint64_t> these = seeds.subspan(first, std::min(group, seeds.size() - first));
+        std::fill(noise.begin(), noise.end(), 0.0f);
+        std::vector<std::span<float>> outs;
+        for (std::size_t d = 0; d < these.size(); ++d) outs.emplace_back(noise.data() + d * reach, reach);
+        add_noise_band_draws(q.noise, {.sample_rate_hz = rate, .gain_db = 0.0}, these, outs);
+        for (const std::span<const float> drawn : outs) {
+            float peak = 0.0f;
+            for (std::size_t n = 0; n < reach; ++n) {
+                // The end fade covers the noise too (render_patch applies it to the sum).
+                const float g = n < fade_from ? 1.0f : static_cast<float>(end_fade_gain(n, frames, rate));
+                peak = std::max(peak, std::abs(partials[n] + g * drawn[n]));
+            }
+            peaks.push_back(peak);
+        }
+    }
+    return peaks;
+}
+
+/// The other draws are first rendered only over the blocks that can come within this (dB) of the
+/// default draw's peak: most draws peak there, and a draw that does not is rendered again further.
+constexpr double first_reach_db = 1.0;
+
 /// The median over the draws of the peak (dB) of q rendered at rate (q.note.gain_db = 0).
-/// def: of q's render with the default seed (the full render, not repeated).
-double expected_peak_db(const patch& q, double rate, const default_peak& def, const peak_match_params& params) {
+/// def: of q's render with the default seed (the full render, not repeated); bound: of q's render at rate.
+double expected_peak_db(const patch& q, double rate, const default_peak& def, const render_bound& bound,
+                        const peak_match_params& params) {
     assert(params.draws >= 1);
     const double default_db = def.peak_db;
     if (q.noise.empty()) return default_db;
@@ -61,7 +95,6 @@ double expected_peak_db(const patch& q, double rate, const default_peak& def, co
     const std::size_t span = std::min(frames, def.loud_end + margin);
     std::vector<float> partials(span);
     partials_of.render(0, partials);
-    const auto fade_from = frames - std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * rate)));
     std::vector<double> peaks_db;
     std::vector<std::uint64_t> seeds;
     for (int k = 0; k < params.draws; ++k) {
@@ -72,25 +105,21 @@ double expected_peak_db(const patch& q, double rate, const default_peak& def, co
             seeds.push_back(seed);
         }
     }
-    // The other draws, a group per render (add_noise_band_draws: each as its own render would be).
-    const std::size_t group = std::clamp<std::size_t>(draw_buffer_frames / std::max<std::size_t>(span, 1), 1, std::max<std::size_t>(seeds.size(), 1));
-    std::vector<float> noise(std::min(group, seeds.size()) * span);
-    for (std::size_t first = 0; first < seeds.size(); first += group) {
-        const std::span<const std::uint64_t> these = std::span(seeds).subspan(first, std::min(group, seeds.size() - first));
-        std::fill(noise.begin(), noise.end(), 0.0f);
-        std::vector<std::span<float>> outs;
-        for (std::size_t d = 0; d < these.size(); ++d) outs.emplace_back(noise.data() + d * span, span);
-        add_noise_band_draws(q.noise, {.sample_rate_hz = rate, .gain_db = 0.0}, these, outs);
-        for (const std::span<const float> drawn : outs) {
-            float peak = 0.0f;
-            for (std::size_t n = 0; n < span; ++n) {
-                // The end fade covers the noise too (render_patch applies it to the sum).
-                const float g = n < fade_from ? 1.0f : static_cast<float>(end_fade_gain(n, frames, rate));
-                peak = std::max(peak, std::abs(partials[n] + g * drawn[n]));
-            }
-            peaks_db.push_back(to_level(amp_lin{static_cast<double>(peak)}).db);
-        }
+    // A draw's samples past the blocks that can reach level L (synthesis/render_bound) stay under
+    // L: its peak over the blocks before is its whole peak when it reaches L there. Every draw
+    // peaks at least where its partials less the noise's bound do (blocks.least_peak).
+    loudness_blocks blocks;
+    blocks.add(partials, 0, bound);
+    const double first_level = std::max(blocks.least_peak, to_amp(level_db{default_db - first_reach_db}).lin);
+    const std::size_t first_reach = std::min(span, blocks.frames_reaching(first_level / render_bound_margin));
+    std::vector<float> peaks = draw_peaks(q, rate, seeds, partials, frames, first_reach);
+    const float lowest = peaks.empty() ? 0.0f : *std::min_element(peaks.begin(), peaks.end());
+    if (static_cast<double>(lowest) < first_level / render_bound_margin) {
+        const double level = std::max(blocks.least_peak, static_cast<double>(lowest));
+        const std::size_t reach = std::min(span, blocks.frames_reaching(level / render_bound_margin));
+        if (reach > first_reach) peaks = draw_peaks(q, rate, seeds, partials, frames, reach);
     }
+    for (const float peak : peaks) peaks_db.push_back(to_level(amp_lin{static_cast<double>(peak)}).db);
     const auto mid = peaks_db.begin() + static_cast<std::ptrdiff_t>(peaks_db.size() / 2);
     std::nth_element(peaks_db.begin(), mid, peaks_db.end());
     return *mid;
@@ -121,15 +150,21 @@ struct default_renders {
 
 bool renderable_at(double rate) { return rate >= min_render_rate_hz && rate <= max_render_rate_hz; }
 
-default_renders render_default(const patch& q, double sample_rate_hz, const peak_match_params& params) {
+default_renders render_default(const patch& q, double sample_rate_hz, const render_bound& output_bound,
+                               const peak_match_params& params) {
     default_renders d;
     {
-        const std::vector<float> output = render_patch(q, {.sample_rate_hz = default_output_rate_hz, .noise_seed = params.default_seed});
-        d.output = {.frames = output.size(), .peak_db = peak_level_db(output), .loud_end = loud_end(output)};
+        // loud_end needs every frame within peak_window_db of the peak.
+        const std::vector<float> output = render_while_within(q, {.sample_rate_hz = default_output_rate_hz, .noise_seed = params.default_seed},
+                                                              output_bound, peak_window_db);
+        d.output = {.frames = output_bound.frames(), .peak_db = peak_level_db(output), .loud_end = loud_end(output)};
     }  // freed before the source-rate render
-    d.source_db = sample_rate_hz != default_output_rate_hz && renderable_at(sample_rate_hz)
-                      ? peak_level_db(render_patch(q, {.sample_rate_hz = sample_rate_hz, .noise_seed = params.default_seed}))
-                      : d.output.peak_db;
+    if (sample_rate_hz != default_output_rate_hz && renderable_at(sample_rate_hz)) {
+        const render_params source{.sample_rate_hz = sample_rate_hz, .noise_seed = params.default_seed};
+        d.source_db = peak_level_db(render_while_within(q, source, render_bound(q, source), 0.0));
+    } else {
+        d.source_db = d.output.peak_db;
+    }
     return d;
 }
 
@@ -140,9 +175,10 @@ peak_match_result match_copy_peak(const patch& p, std::span<const float> note, d
     const patch q = as_written(p);
     const double recording_db = peak_level_db(note);
     const double target_db = std::min(recording_db, -peak_headroom_db);
-    const default_renders d = render_default(q, sample_rate_hz, params);
+    const render_bound output_bound(q, {.sample_rate_hz = default_output_rate_hz});
+    const default_renders d = render_default(q, sample_rate_hz, output_bound, params);
     // The draws at the default output rate: no rate conversion, and the rate a copy plays at.
-    const double expected_db = expected_peak_db(q, default_output_rate_hz, d.output, params);
+    const double expected_db = expected_peak_db(q, default_output_rate_hz, d.output, output_bound, params);
     if (!std::isfinite(expected_db)) return {};
     peak_match_result r;
     // The fitted level (gain 0) unless the expected peak lies more than the tolerance off.
@@ -172,7 +208,9 @@ void match_peak(patch& p, std::span<const float> note, double sample_rate_hz, co
     for (int step = 0; step < max_steps && held_down_db > max_noise_hold_db && !p.noise.empty(); ++step) {
         for (noise_band& b : p.noise) b.env.peak = level_db{b.env.peak.db - noise_step_db};
         // The partials keep the expected peak's gain; only the default draw's limit is redone.
-        p.note.gain_db = std::min(first.expected_gain_db, render_default(as_written(p), sample_rate_hz, params).safe_gain_db());
+        const patch q = as_written(p);
+        const render_bound output_bound(q, {.sample_rate_hz = default_output_rate_hz});
+        p.note.gain_db = std::min(first.expected_gain_db, render_default(q, sample_rate_hz, output_bound, params).safe_gain_db());
         held_down_db = first.expected_gain_db - p.note.gain_db;
     }
 }

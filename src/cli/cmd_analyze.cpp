@@ -166,14 +166,31 @@ std::vector<job> plan_jobs(const analyze_options& o) {
     return jobs;
 }
 
-std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t bytes) {
+/// Removes a DC offset within dc_offset_range_db of the peak (analysis/analyze.hpp) from the
+/// analyzed signal and from each kept channel (the mix of two channels loses its mean when either
+/// channel did); returns the offset removed from the analyzed signal, full scale (0: none).
+double remove_dc_offsets(mono_audio& audio) {
+    bool channel_offset = false;
+    for (std::vector<float>& c : audio.channels) {
+        if (!has_dc_offset(c)) continue;
+        remove_mean(c);
+        channel_offset = true;
+    }
+    return channel_offset || has_dc_offset(audio.samples) ? remove_mean(audio.samples) : 0.0;
+}
+
+std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t bytes, double dc_removed) {
     char buf[192];
     // How the recording ends comes first; the line ends with the patch size.
     std::string end;
+    if (dc_removed != 0.0) {
+        std::snprintf(buf, sizeof buf, " a DC offset of %+.4f of full scale removed;", dc_removed);
+        end = buf;
+    }
     if (s.unanalysed_s > 0.0) {
         std::snprintf(buf, sizeof buf, " the first %.0f s analyzed (what a patch holds), the last %.2f s left out;",
                       max_length_s, s.unanalysed_s);
-        end = buf;
+        end += buf;
     }
     if (s.end.kind == end_kind::cut) {
         std::snprintf(buf, sizeof buf, " cut at %.3f s while sounding (%.1f dB under the peak, %d decays run on past it);",
@@ -191,7 +208,7 @@ std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t
 /// Analyzes one file and writes its patch; returns the summary line. Throws with a message that
 /// names the file.
 std::string run_one(const job& j, const analyze_options& o) {
-    const mono_audio audio = read_audio(j.input, {.channel = o.channel, .keep_stereo = !o.mono, .max_length_s = o.max_input_s,
+    mono_audio audio = read_audio(j.input, {.channel = o.channel, .keep_stereo = !o.mono, .max_length_s = o.max_input_s,
                                                   .max_file_bytes = o.max_input_mib << 20});
     // Two channels are kept, one is analyzed as it is; more must be chosen from or mixed.
     if (audio.source_channels > 2 && !o.channel && !o.mono) {
@@ -199,6 +216,7 @@ std::string run_one(const job& j, const analyze_options& o) {
                        " channels; choose one with --channel N (1 to " + std::to_string(audio.source_channels) +
                        ") or mix them all with --mono");
     }
+    const double dc_removed = remove_dc_offsets(audio);
     analysis_params ap{.tracking = {.f0_hz = o.f0_hz, .window_s = o.window_s, .fft_size = o.fft_size,
                                     .hop_s = o.hop_s, .max_partials = o.max_partials},
                        .max_segments = o.max_segments,
@@ -228,7 +246,7 @@ std::string run_one(const job& j, const analyze_options& o) {
     }
     std::error_code ec;
     const std::uintmax_t bytes = fs::file_size(j.output, ec);
-    std::string line = summary_line(j, r.summary, ec ? 0 : bytes);
+    std::string line = summary_line(j, r.summary, ec ? 0 : bytes, dc_removed);
     if (o.report) {
         const fs::path html = report_path_of(j.output);
         const double length_s = static_cast<double>(audio.samples.size()) / audio.sample_rate_hz;

@@ -7,6 +7,7 @@
 
 #include <Eigen/Dense>
 
+#include "modes/hessenberg_reduction.hpp"
 #include "synthesis/kernel_clones.hpp"
 
 namespace wane {
@@ -117,8 +118,12 @@ std::vector<std::complex<double>> complex_eigenvalues(std::span<const std::compl
     if (!std::all_of(a.begin(), a.end(), [](std::complex<double> v) { return std::isfinite(v.real()) && std::isfinite(v.imag()); }))
         return {};
     const auto size = static_cast<index>(n);
-    const Eigen::Map<const cmatrix> in(a.data(), size, size);
-    hessenberg work{.h = size > 1 ? cmatrix(Eigen::HessenbergDecomposition<cmatrix>(in).matrixH()) : cmatrix(in)};
+    // Eigen's HessenbergDecomposition(a).matrixH(), bit for bit (modes/hessenberg_reduction).
+    std::vector<double> re(n * n), im(n * n);
+    for (std::size_t k = 0; k < n * n; ++k) re[k] = a[k].real(), im[k] = a[k].imag();
+    reduce_to_hessenberg(re, im, n);
+    hessenberg work{.h = cmatrix(size, size)};
+    for (std::size_t k = 0; k < n * n; ++k) work.h(static_cast<index>(k)) = {re[k], im[k]};
     // Rows iu + 1 .. n - 1 are done (their eigenvalues on the diagonal), rows il .. iu the
     // active block (work.at(il, il - 1) == 0).
     const long max_steps = 30L * size;

@@ -1,5 +1,6 @@
 // Eigenvalues (no vectors) of a small general complex matrix, for ESPRIT's rotation (r x r,
-// r <= 24 on the subband problems): Householder reduction to upper Hessenberg form, then
+// r <= 24 on the subband problems): Householder reduction to upper Hessenberg form
+// (modes/hessenberg_reduction: Eigen's HessenbergDecomposition, bit for bit), then
 // single-shift QR steps by Givens rotations (Francis 1961), the shift the eigenvalue of the
 // active block's trailing 2 x 2 nearer its last diagonal entry (Wilkinson 1965), an exceptional
 // shift after 10 and 20 steps on one eigenvalue (EISPACK's comqr, Smith et al. 1976).

@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cassert>
 #include <cmath>
+#include <cstring>
 #include <limits>
 #include <vector>
 
@@ -10,6 +11,8 @@
 
 #include "modes/complex_eigenvalues.hpp"
 #include "modes/hermitian_tridiagonal.hpp"
+#include "modes/shifted_products.hpp"
+#include "synthesis/kernel_clones.hpp"
 
 namespace wane {
 
@@ -20,8 +23,9 @@ using cmatrix = Eigen::MatrixXcd;
 /// Phi = pinv(U1) U2 for a subspace basis u (dim x r, orthonormal columns), U1 = u without its
 /// last row, U2 without its first. U1^H U1 = I - v v^H with v the adjoint of u's last row, whose
 /// inverse is I + v v^H / (1 - |v|^2) (Sherman and Morrison 1950), so
-/// Phi = W + v (v^H W) / (1 - |v|^2),  W = U1^H U2:  no factorization of U1. Near |v| = 1 (U1
-/// close to rank deficient) the complete orthogonal decomposition gives the minimum-norm solution.
+/// Phi = W + v (v^H W) / (1 - |v|^2),  W = U1^H U2 (shifted_inner_products: from u's rows, the
+/// bits of Eigen's product):  no factorization of U1. Near |v| = 1 (U1 close to rank deficient)
+/// the complete orthogonal decomposition gives the minimum-norm solution.
 cmatrix rotation(const cmatrix& u) {
     const Eigen::Index dim = u.rows();
     const auto u1 = u.topRows(dim - 1);
@@ -29,39 +33,50 @@ cmatrix rotation(const cmatrix& u) {
     const Eigen::VectorXcd v = u.row(dim - 1).adjoint();
     const double rest = 1.0 - v.squaredNorm();
     if (!(rest > 1e-6)) return u1.completeOrthogonalDecomposition().solve(u2);
-    cmatrix phi = u1.adjoint() * u2;
+    cmatrix phi = shifted_inner_products(u);
     const Eigen::RowVectorXcd vh_phi = v.adjoint() * phi;
     phi.noalias() += (v / rest) * vh_phi;
     return phi;
 }
 
-/// cov(i, 0) = sum_{m < cols} y[m + i] conj y[m] for i < dim, four i at a time on real and
-/// imaginary parts: each sum over m in order, with the products of complex arithmetic
-/// (Re = ar br + ai bi, Im = ai br - ar bi for a conj b).
-void first_column(std::span<const std::complex<double>> y, Eigen::Index dim, Eigen::Index cols, cmatrix& cov) {
-    using lanes = Eigen::Array4d;
-    const auto n = static_cast<Eigen::Index>(y.size());
-    Eigen::ArrayXd re(n), im(n);
-    for (Eigen::Index k = 0; k < n; ++k) re(k) = y[static_cast<std::size_t>(k)].real(), im(k) = y[static_cast<std::size_t>(k)].imag();
-    Eigen::Index i = 0;
+/// Four doubles side by side (GCC/Clang vector extension): one AVX register, two SSE2 ones.
+using lanes = double __attribute__((vector_size(32)));
+
+/// out(i) = sum_{m < cols} y[m + i] conj y[m] for i < dim (y as re, im), four i at a time: each
+/// sum over m in order, with the products of complex arithmetic (Re = ar br + ai bi,
+/// Im = ai br - ar bi for a conj b). Compiled for AVX2 and the baseline (no FMA, the same bits).
+WANE_KERNEL_CLONES
+void lag_sums(const double* __restrict re, const double* __restrict im, std::size_t dim, std::size_t cols,
+              double* __restrict out_re, double* __restrict out_im) {
+    std::size_t i = 0;
     for (; i + 4 <= dim; i += 4) {
-        lanes acc_r = lanes::Zero(), acc_i = lanes::Zero();
-        for (Eigen::Index m = 0; m < cols; ++m) {
-            const lanes ar = re.segment<4>(m + i), ai = im.segment<4>(m + i);
-            const double br = re(m), bi = im(m);
+        lanes acc_r{}, acc_i{};
+        for (std::size_t m = 0; m < cols; ++m) {
+            lanes ar, ai;
+            std::memcpy(&ar, re + m + i, sizeof ar), std::memcpy(&ai, im + m + i, sizeof ai);
+            const double br = re[m], bi = im[m];
             acc_r += ar * br + ai * bi;
             acc_i += ai * br - ar * bi;
         }
-        for (Eigen::Index k = 0; k < 4; ++k) cov(i + k, 0) = {acc_r(k), acc_i(k)};
+        std::memcpy(out_re + i, &acc_r, sizeof acc_r), std::memcpy(out_im + i, &acc_i, sizeof acc_i);
     }
     for (; i < dim; ++i) {
         double acc_r = 0.0, acc_i = 0.0;
-        for (Eigen::Index m = 0; m < cols; ++m) {
-            acc_r += re(m + i) * re(m) + im(m + i) * im(m);
-            acc_i += im(m + i) * re(m) - re(m + i) * im(m);
+        for (std::size_t m = 0; m < cols; ++m) {
+            acc_r += re[m + i] * re[m] + im[m + i] * im[m];
+            acc_i += im[m + i] * re[m] - re[m + i] * im[m];
         }
-        cov(i, 0) = {acc_r, acc_i};
+        out_re[i] = acc_r, out_im[i] = acc_i;
     }
+}
+
+/// cov(i, 0) = sum_{m < cols} y[m + i] conj y[m] for i < dim (lag_sums).
+void first_column(std::span<const std::complex<double>> y, Eigen::Index dim, Eigen::Index cols, cmatrix& cov) {
+    const std::size_t n = y.size();
+    std::vector<double> re(n), im(n), out_re(static_cast<std::size_t>(dim)), out_im(static_cast<std::size_t>(dim));
+    for (std::size_t k = 0; k < n; ++k) re[k] = y[k].real(), im[k] = y[k].imag();
+    lag_sums(re.data(), im.data(), static_cast<std::size_t>(dim), static_cast<std::size_t>(cols), out_re.data(), out_im.data());
+    for (Eigen::Index i = 0; i < dim; ++i) cov(i, 0) = {out_re[static_cast<std::size_t>(i)], out_im[static_cast<std::size_t>(i)]};
 }
 
 /// The largest |entry| of a (std::abs, as cwiseAbs gives it), found among the entries whose

@@ -3,10 +3,13 @@
 #include <algorithm>
 #include <cassert>
 #include <cmath>
+#include <limits>
 #include <optional>
 #include <vector>
 
+#include "core/envelope.hpp"
 #include "core/pitch_names.hpp"
+#include "core/units.hpp"
 
 namespace wane {
 
@@ -56,7 +59,9 @@ std::optional<double> strike_note_hz(std::span<const root_mode> strong, double t
 /// fundamental_below_max_db of the strongest partial (real strings put partial 1 a few cents off
 /// the series of the upper partials, and partial 1 is the pitch heard); else the series' f0 (a
 /// missing or very weak fundamental).
-double fundamental_hz(std::span<const root_mode> modes, double series_f0_hz, double max_db, const root_params& params) {
+double fundamental_hz(std::span<const root_mode> modes, double series_f0_hz, const root_params& params) {
+    double max_db = -infinity;
+    for (const root_mode& m : modes) max_db = std::max(max_db, m.level_db);
     double best_db = max_db - params.fundamental_below_max_db;
     double f = series_f0_hz;
     for (const root_mode& m : modes)
@@ -64,29 +69,63 @@ double fundamental_hz(std::span<const root_mode> modes, double series_f0_hz, dou
     return f;
 }
 
+double peak_level(const root_mode& m) { return m.level_db; }
+/// The heard level where known, else the peak level.
+double heard_level(const root_mode& m) { return std::isnan(m.heard_db) ? m.level_db : m.heard_db; }
+
+/// The modes (of positive frequency) within strong_below_max_db of the strongest by level_of, by
+/// frequency.
+std::vector<root_mode> strong_modes(std::span<const root_mode> modes, const root_params& params,
+                                    double (*level_of)(const root_mode&)) {
+    double max_db = -infinity;
+    for (const root_mode& m : modes) max_db = std::max(max_db, level_of(m));
+    std::vector<root_mode> strong;
+    for (const root_mode& m : modes)
+        if (level_of(m) >= max_db - params.strong_below_max_db && m.freq_hz > 0.0) strong.push_back(m);
+    std::sort(strong.begin(), strong.end(), [](auto& a, auto& b) { return a.freq_hz < b.freq_hz; });
+    return strong;
+}
+
 }  // namespace
 
 root_estimate find_root(std::span<const root_mode> modes, double series_f0_hz, bool from_hint,
                         const root_params& params) {
     if (modes.empty()) return {};
-    double max_db = -1e300;
-    for (const root_mode& m : modes) max_db = std::max(max_db, m.level_db);
-    std::vector<root_mode> strong;
-    for (const root_mode& m : modes)
-        if (m.level_db >= max_db - params.strong_below_max_db && m.freq_hz > 0.0) strong.push_back(m);
-    std::sort(strong.begin(), strong.end(), [](auto& a, auto& b) { return a.freq_hz < b.freq_hz; });
-    if (from_hint && series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, max_db, params), root_method::f0_hint};
+    const std::vector<root_mode> strong = strong_modes(modes, params, peak_level);
+    const std::vector<root_mode> heard = strong_modes(modes, params, heard_level);
+    if (from_hint && series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, params), root_method::f0_hint};
     // A dense wash of modes with no series has no pitch; ratios found in it are chance.
     if (series_f0_hz <= 0.0 && static_cast<int>(strong.size()) > params.unpitched_min_strong_modes) return {};
     if (const auto s = strike_note_hz(strong, params.bell_tolerance_rel)) return {*s, root_method::strike_note};
-    if (series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, max_db, params), root_method::harmonic_series};
-    return {strong.front().freq_hz, root_method::lowest_mode};
+    if (series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, params), root_method::harmonic_series};
+    if (heard.empty()) return {};
+    return {heard.front().freq_hz, root_method::lowest_mode};
+}
+
+double heard_level_db(const envelope& env) {
+    constexpr int points = 101;  // every 10 ms
+    const std::vector<envelope_piece> pieces = envelope_pieces(env);
+    double sum_power = 0.0;  // mean of amp^2 over the span
+    for (int i = 0; i < points; ++i) {
+        const double t_s = heard_span_start_s + (heard_span_end_s - heard_span_start_s) * i / (points - 1);
+        const double a = envelope_amp(env, pieces, t_s).lin;
+        sum_power += a * a;
+    }
+    return sum_power > 0.0 ? 10.0 * std::log10(sum_power / points) : -std::numeric_limits<double>::infinity();
 }
 
 note_root note_root_of(std::span<const partial> partials, double series_f0_hz, bool from_hint) {
     std::vector<root_mode> modes;
     modes.reserve(partials.size());
-    for (const partial& q : partials) modes.push_back({q.freq_hz, q.env.peak.db, q.harmonic});
+    bool any_heard = false;
+    for (const partial& q : partials) {
+        const double heard_db = heard_level_db(q.env);
+        any_heard = any_heard || std::isfinite(heard_db);
+        modes.push_back({.freq_hz = q.freq_hz, .level_db = q.env.peak.db, .harmonic = q.harmonic, .heard_db = heard_db});
+    }
+    // A note shorter than the heard span's start: the peak levels stand for what is heard.
+    if (!any_heard)
+        for (root_mode& m : modes) m.heard_db = std::numeric_limits<double>::quiet_NaN();
     const root_estimate r = find_root(modes, series_f0_hz, from_hint);
     if (r.method == root_method::unpitched || !(r.freq_hz > 0.0)) return {.method = root_method::unpitched};
     return root_from_hz(r.freq_hz, r.method);

@@ -2,6 +2,7 @@
 // analysis model (which may number no harmonics at all, as for a bar or a bell).
 #pragma once
 
+#include <limits>
 #include <span>
 
 #include "core/patch.hpp"
@@ -13,6 +14,9 @@ struct root_mode {
     double freq_hz = 0.0;
     double level_db = 0.0;  ///< peak level, dBFS
     int harmonic = 0;       ///< its number on the fitted series, 0 when off it
+    /// Mean level over the heard span (heard_level_db), dBFS: what is still heard once the strike's
+    /// short-lived modes have died. NaN when not known: level_db stands for it.
+    double heard_db = std::numeric_limits<double>::quiet_NaN();
 };
 
 struct root_params {
@@ -46,11 +50,26 @@ struct root_estimate {
 /// 2. a harmonic or stretched series: its fundamental as measured, the strongest partial numbered
 ///    1 when within fundamental_below_max_db of the strongest partial, else series_f0_hz
 ///    (harmonic_series, or f0_hint when the series was started from the user's --f0);
-/// 3. otherwise (tuned bars, timpani, tines): the lowest strong mode, the note's nominal pitch.
+/// 3. otherwise (tuned bars, timpani, tines): the lowest mode strong by its heard level, the note's
+///    nominal pitch (a tuned bar's nominal pitch is its lowest mode: Fletcher and Rossing 1998,
+///    ch. 19); strong by the heard level, not the peak, since a mallet's hard strike can put
+///    short-lived upper modes over the fundamental for a few milliseconds (a glockenspiel's).
 root_estimate find_root(std::span<const root_mode> modes, double series_f0_hz, bool from_hint,
                         const root_params& params = {});
 
-/// The root of analysed partials (find_root over their peak levels), as a note under A4 = 440 Hz.
+/// The heard span of a note: 0.1 s to 1.1 s after the onset, the span the long spectrum measures
+/// (analysis/heard_peaks) and the real notes' README measures f0 over (common practice: after the
+/// strike's transient, where a plucked or struck note's pitch is heard).
+inline constexpr double heard_span_start_s = 0.1;
+inline constexpr double heard_span_end_s = 1.1;
+
+/// Mean level of an envelope over the heard span, dBFS: 10 log10 of the mean of amp^2 at 101
+/// times 10 ms apart over [heard_span_start_s, heard_span_end_s] (the envelope's decay run on past
+/// a recording's end, as the patch plays it); -inf when silent there.
+double heard_level_db(const envelope& env);
+
+/// The root of analysed partials (find_root over their heard levels, or their peak levels when
+/// none sounds over the heard span: a note shorter than 0.1 s), as a note under A4 = 440 Hz.
 note_root note_root_of(std::span<const partial> partials, double series_f0_hz, bool from_hint);
 
 /// The root as a note: nearest MIDI note of freq_hz under equal temperament with this A4, and the

@@ -5,6 +5,7 @@
 #include <cmath>
 
 #include "core/units.hpp"
+#include "synthesis/kernel_clones.hpp"
 
 namespace wane {
 
@@ -43,15 +44,30 @@ void play_runs(std::span<const amplitude_run> runs) {
     }
 }
 
+namespace {
+
+// dest[i] = peak_lin * t / attack_s at t = t0_s + (first + i) dt_s (the attack's ramp, sample by
+// sample as its formula reads; no branch, so the loop runs in vectors; first + count < 2^31).
+WANE_KERNEL_CLONES
+void ramp_samples(float* __restrict dest, int first, int count, double t0_s, double dt_s, double peak_lin,
+                  double attack_s) {
+    for (int i = 0; i < count; ++i) {
+        const double t = t0_s + static_cast<double>(first + i) * dt_s;
+        dest[i] = static_cast<float>(peak_lin * t / attack_s);
+    }
+}
+
+}  // namespace
+
 void fill_amplitude(const envelope& env, std::span<const envelope_piece> pieces, double peak_lin, double t0_s,
                     double dt_s, std::span<float> dest, std::vector<amplitude_run>& runs) {
-    std::size_t n = 0;
+    // Time only grows with n: the samples before the onset (0), then the attack's, then the pieces'.
+    const std::size_t onset = piece_stop(t0_s, dt_s, 0.0, 0, dest.size());
+    std::fill(dest.begin(), dest.begin() + static_cast<std::ptrdiff_t>(onset), 0.0F);
+    std::size_t n = piece_stop(t0_s, dt_s, env.attack_s, onset, dest.size());
+    ramp_samples(dest.data() + onset, static_cast<int>(onset), static_cast<int>(n - onset), t0_s, dt_s, peak_lin, env.attack_s);
     while (n < dest.size()) {
         const double t = t0_s + static_cast<double>(n) * dt_s;
-        if (t < env.attack_s || t < 0.0) {
-            dest[n++] = t < 0.0 ? 0.0F : static_cast<float>(peak_lin * t / env.attack_s);
-            continue;
-        }
         const auto piece = std::find_if(pieces.begin(), pieces.end(), [&](const envelope_piece& p) { return t < p.end_s; });
         if (piece == pieces.end()) {  // unreachable for a valid envelope: the last piece ends at +inf
             dest[n++] = 0.0F;

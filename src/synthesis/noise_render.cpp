@@ -262,7 +262,8 @@ struct draw_player {
                 std::span<float> frames)
         : n_fft_(n_fft), n_(static_cast<std::size_t>(n_fft)), pool_floats_(static_cast<std::size_t>(pool_frames) * 2 * n_),
           shift_bits_(shift_bits), shift_stride_(shift_stride), frames_(frames),
-          inverse_(n_fft), pools_(draws * bands * pool_floats_), amp_(amp_rows * n_), row_of_(bands, 0) {
+          inverse_(n_fft), pools_(std::make_unique_for_overwrite<float[]>(draws * bands * pool_floats_)),
+          amp_(amp_rows * n_), row_of_(bands, 0) {
         runs_.reserve(2 * amp_rows);  // a band makes a run per piece it crosses in a frame: rarely two
     }
 
@@ -298,7 +299,7 @@ private:
             band_bins& b = layouts[d][i];
             const auto shift = static_cast<std::size_t>(b.shifts.next() >> (64 - shift_bits_)) * shift_stride_;
             if (!sounds) continue;
-            const std::span<float> pool(pools_.data() + (d * bands + i) * pool_floats_, pool_floats_);
+            const std::span<float> pool(pools_.get() + (d * bands + i) * pool_floats_, pool_floats_);
             if (!b.pool_ready) {
                 make_pool(b, n_fft_, inverse_, pool);
                 b.pool_ready = true;
@@ -323,7 +324,8 @@ private:
     std::size_t shift_stride_;
     std::span<float> frames_;
     inverse_real_fft inverse_;
-    std::vector<float> pools_;  ///< each draw's bands' pools, filled when a band first sounds
+    /// Each draw's bands' pools, written whole (make_pool) when a band first sounds: not zeroed.
+    std::unique_ptr<float[]> pools_;
     std::vector<float> amp_;  ///< a few fast bands' amplitudes in the frame, a row of n_fft each
     std::vector<std::size_t> row_of_;  ///< each band's row of amp_ (while it is being played)
     std::vector<amplitude_run> runs_;
@@ -423,6 +425,11 @@ void add_noise_band_draws(std::span<const noise_band> bands, const noise_render_
     at_draw.sample_rate_hz = draw_rate_hz;
     add_noise_at_draw_rate(bands, at_draw, seeds, drawn_outs);
     for (std::size_t d = 0; d < seeds.size(); ++d) add_rate_converted(drawn_outs[d], draw_rate_hz, params.sample_rate_hz, outs[d]);
+}
+
+noise_render_params noise_params_of(const patch& p, const render_params& params) {
+    return {.sample_rate_hz = params.sample_rate_hz, .gain_db = p.note.gain_db + params.gain_db + params.noise_gain_db,
+            .seed = params.noise_seed, .own_seed = params.own_noise_seed};
 }
 
 void add_noise_bands(std::span<const noise_band> bands, const noise_render_params& params, std::span<float> out) {

@@ -57,6 +57,10 @@ struct noise_render_params {
     double frame_s = 0.0213;
 };
 
+/// The noise parameters render_patch(p, params) draws p's bands with (one home: the renderer and
+/// the peak match's renders of a prefix).
+noise_render_params noise_params_of(const patch& p, const render_params& params);
+
 /// Adds the bands' noise into out (out[n] at t = n / rate). Bands above Nyquist are clipped to it.
 void add_noise_bands(std::span<const noise_band> bands, const noise_render_params& params, std::span<float> out);
 

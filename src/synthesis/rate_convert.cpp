@@ -99,6 +99,19 @@ int rate_convert_taps(double from_rate_hz, double to_rate_hz) {
     return (length + tap_group - 1) / tap_group * tap_group;
 }
 
+double rate_convert_gain(double from_rate_hz, double to_rate_hz) {
+    const int taps = rate_convert_taps(from_rate_hz, to_rate_hz);
+    const std::shared_ptr<const std::vector<float>> kernel = shared_kernel_table(to_rate_hz / from_rate_hz, taps);
+    const auto n_taps = static_cast<std::size_t>(taps);
+    double gain = 0.0;
+    for (std::size_t row = 0; row < kernel->size(); row += n_taps) {
+        double sum = 0.0;
+        for (std::size_t t = 0; t < n_taps; ++t) sum += std::abs(static_cast<double>((*kernel)[row + t]));
+        gain = std::max(gain, sum);
+    }
+    return gain;
+}
+
 void add_rate_converted(std::span<const float> x, double from_rate_hz, double to_rate_hz, std::span<float> out) {
     assert(to_rate_hz > 0.0 && to_rate_hz <= from_rate_hz);
     const double step = from_rate_hz / to_rate_hz;  // input samples per output sample

@@ -24,4 +24,8 @@ void add_rate_converted(std::span<const float> x, double from_rate_hz, double to
 /// The kernel's length in input samples at a ratio (the formula above, rounded up to a multiple of 8).
 int rate_convert_taps(double from_rate_hz, double to_rate_hz);
 
+/// The most the conversion can scale a signal's largest magnitude: the largest sum of the taps'
+/// magnitudes over the kernel's phases (|y[n]| <= this times max |x| over the taps n reads).
+double rate_convert_gain(double from_rate_hz, double to_rate_hz);
+
 }  // namespace wane

@@ -345,12 +345,7 @@ std::vector<float> render_patch(const patch& p, const render_params& params) {
 
     // The noise bands (deterministic-plus-stochastic model), band-limited by construction.
     if (params.include_noise && !p.noise.empty()) {
-        add_noise_bands(p.noise,
-                        {.sample_rate_hz = params.sample_rate_hz,
-                         .gain_db = p.note.gain_db + params.gain_db + params.noise_gain_db,
-                         .seed = params.noise_seed,
-                         .own_seed = params.own_noise_seed},
-                        out);
+        add_noise_bands(p.noise, noise_params_of(p, params), out);
     }
     apply_end_fade(0, out, plan.frames, params.sample_rate_hz);
     return out;

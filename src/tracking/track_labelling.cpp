@@ -7,6 +7,7 @@
 
 #include "core/harmonics.hpp"
 #include "core/units.hpp"
+#include "pitch/root.hpp"
 #include "tracking/pitch.hpp"
 #include "tracking/tracker.hpp"
 #include "tracking/tracker_steps.hpp"
@@ -136,6 +137,39 @@ void label_series(const std::vector<double>& freqs, const std::vector<double>& w
     label_harmonics(freqs, f0_hz, b, infinity, harmonic);
 }
 
+/// Mean power of a track over the heard span (pitch/root.hpp), linear, over the span's frames;
+/// 0 when it has no point there.
+double heard_power(const partial_track& track, double hop_s) {
+    double sum = 0.0;
+    for (const auto& pt : track.points)
+        if (pt.time_s >= heard_span_start_s && pt.time_s < heard_span_end_s) sum += db_to_power(pt.level_db);
+    const double span_frames = (heard_span_end_s - heard_span_start_s) / hop_s;
+    return sum / span_frames;
+}
+
+/// Whether the numbered tracks are what is heard: the track heard most over the heard span is
+/// numbered, and another track with a different number is heard within series_heard_below_db of
+/// it. A struck bar's fundamental with inharmonic overtones, a few of which lie near the members
+/// of some series by chance (a glockenspiel's modes at 3.71, 5.64, 7.56 and 8.49 times its
+/// fundamental near harmonics 4, 6, 8 and 9 of a pitch a semitone below it), is not a series:
+/// the sieve over the attack's peaks finds one there or not as the frames fall. True when no
+/// track sounds over the span (a note too short to tell).
+bool series_is_heard(const std::vector<partial_track>& done, const std::vector<std::size_t>& order,
+                     const std::vector<int>& harmonic, double hop_s) {
+    std::vector<double> heard(order.size());
+    std::size_t loudest = 0;
+    for (std::size_t i = 0; i < order.size(); ++i) {
+        heard[i] = heard_power(done[order[i]], hop_s);
+        if (heard[i] > heard[loudest]) loudest = i;
+    }
+    if (order.empty() || !(heard[loudest] > 0.0)) return true;
+    if (harmonic[loudest] < 1) return false;
+    const double floor_power = heard[loudest] * db_to_power(-series_heard_below_db);
+    for (std::size_t i = 0; i < order.size(); ++i)
+        if (harmonic[i] > 0 && harmonic[i] != harmonic[loudest] && heard[i] >= floor_power) return true;
+    return false;
+}
+
 }  // namespace
 
 series_fit fit_labelled_series(const std::vector<int>& harmonic, const std::vector<double>& freq_hz,
@@ -166,6 +200,11 @@ void label_tracks(std::vector<partial_track>& done, double f0_hz, double b, std:
     if (f0_hz > 0.0) {
         for (std::size_t i = 0; i < order.size(); ++i) weights[i] = r.weight[order[i]];
         label_series(freqs, weights, f0_hz, b, harmonic);
+        // The hint's series stands (the user named the pitch); a series nothing heard rests on goes.
+        if (!f0_override && !series_is_heard(done, order, harmonic, result.hop_s)) {
+            f0_hz = 0.0;
+            std::fill(harmonic.begin(), harmonic.end(), 0);
+        }
     }
     result.series_f0_hz = f0_hz;
     result.inharmonicity_b = f0_hz > 0.0 ? b : 0.0;

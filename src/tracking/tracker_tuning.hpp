@@ -31,6 +31,10 @@ inline constexpr double join_rel_tol = 0.005;           ///< ... when their freq
 inline constexpr double harmonic_tolerance_rel = 0.02;  ///< labelling tracks with harmonic numbers
 inline constexpr double guide_tolerance_rel = 0.04;     ///< harmonic tracks stay this close to n f0 s_n
 inline constexpr int b_fit_rounds = 3;
+/// A series is the sound's pitch only when it carries what is heard over 0.1-1.1 s after the onset
+/// (the heard span, pitch/root.hpp): the track heard most there is numbered, and so is another
+/// one with a different number heard within this of it.
+inline constexpr double series_heard_below_db = 30.0;
 inline constexpr double first_label_harmonics = 10.0;   ///< the series is first fitted up to 10 f0
 inline constexpr double max_snr_weight_db = 40.0;       ///< B fit: weight by SNR, capped here
 inline constexpr double attack_skip_s = 0.1;             ///< a track's frequency: median after this,

@@ -2,11 +2,14 @@
 // sparse_hops): past the dense span only every sparse_hops-th frame (and the last) is measured,
 // each the same as in the measurement of every frame, and the frames between lie on the straight
 // line in dB between their measured neighbours, which for a decaying noise band follows the frames
-// the full measurement finds.
+// the full measurement finds. The floor plan's bins: those clear of every partial.
 #include <catch2/catch.hpp>
 
+#include <algorithm>
 #include <cmath>
 #include <cstddef>
+#include <cstdint>
+#include <utility>
 #include <vector>
 
 #include "analysis/noise_measure.hpp"
@@ -89,4 +92,45 @@ TEST_CASE("sparse floor frames: measured ones equal the full measurement, the ot
     CAPTURE(between, mean_diff_db, mean_abs_db);
     CHECK(std::abs(mean_diff_db) < 0.3);
     CHECK(mean_abs_db < 1.5);
+}
+
+TEST_CASE("floor plan: a band measures the bins clear of every partial by the guard, or borrows free ones", "[noise]") {
+    // Reference: each bin tested against every partial directly (|partial - bin| >= the guard of
+    // partial_guard_lobes Blackman-Harris half-lobes, Harris 1978: +-4 bins of the unpadded window).
+    // Partials in random order, some on a bin's frequency, some within a bin of each other.
+    const auto seed = GENERATE(range(std::uint64_t{1}, std::uint64_t{9}));
+    splitmix64 rng{seed};
+    const double f0_hz = rng.uniform(60.0, 400.0);
+    std::vector<double> partials_hz;
+    for (int k = 1; k <= 60; ++k) partials_hz.push_back(k * f0_hz * (1.0 + rng.uniform(-0.01, 0.01)));
+    partials_hz.push_back(partials_hz[3] + 0.5);
+    const noise_model_params params{};
+    const band_plan plan = floor_plan(rate_hz, partials_hz, f0_hz, params);
+    const stft_config config = plan_config(plan, rate_hz);
+    const double bin_hz = rate_hz / config.fft_size;
+    partials_hz.push_back(std::round(partials_hz[10] / bin_hz) * bin_hz);  // one on a bin: a plan of its own
+    for (std::size_t i = partials_hz.size() - 1; i > 0; --i)
+        std::swap(partials_hz[i], partials_hz[static_cast<std::size_t>(rng.unit() * static_cast<double>(i + 1))]);
+    const band_plan shuffled = floor_plan(rate_hz, partials_hz, f0_hz, params);
+    const double guard_hz = params.partial_guard_lobes * 4.0 * rate_hz / config.window_length;
+    auto is_free = [&](int k) {
+        return std::none_of(partials_hz.begin(), partials_hz.end(), [&](double pf) { return std::abs(pf - k * bin_hz) < guard_hz; });
+    };
+    REQUIRE(plan_config(shuffled, rate_hz).fft_size == config.fft_size);
+    int borrowed = 0;
+    for (std::size_t b = 0; b < shuffled.bins.size(); ++b) {
+        const auto [first, last] = shuffled.ranges[b];
+        std::vector<int> inside;
+        for (int k = first; k <= last; ++k)
+            if (is_free(k)) inside.push_back(k);
+        CAPTURE(seed, b, first, last, inside.size(), shuffled.bins[b].size());
+        if (inside.size() >= static_cast<std::size_t>(params.min_free_bins)) {
+            CHECK(shuffled.bins[b] == inside);
+        } else {
+            ++borrowed;
+            CHECK(std::all_of(shuffled.bins[b].begin(), shuffled.bins[b].end(), is_free));
+        }
+    }
+    CAPTURE(borrowed);
+    SUCCEED();
 }
