@@ -18,21 +18,23 @@ namespace wane {
 
 namespace {
 
-/// Peak |sample| of x as a level (0 dBFS = 1).
+/// A peak |sample| as a level (0 dBFS = 1).
+double peak_level_db(float peak) { return to_level(amp_lin{static_cast<double>(peak)}).db; }
+
+/// Peak |sample| of x as a level.
 double peak_level_db(std::span<const float> x) {
     float peak = 0.0f;
     for (float v : x) peak = std::max(peak, std::abs(v));
-    return to_level(amp_lin{static_cast<double>(peak)}).db;
+    return peak_level_db(peak);
 }
 
-/// One past the last sample of x within peak_window_db of x's peak.
-std::size_t loud_end(std::span<const float> x) {
-    const double peak_db = peak_level_db(x);
+/// One past the last sample of the render r holds the figures of within peak_window_db of its
+/// peak (r made from q and params).
+std::size_t loud_end(const block_peaks& r, const patch& q, const render_params& params) {
+    const double peak_db = peak_level_db(r.peak);
     if (!std::isfinite(peak_db)) return 0;
     const auto floor_lin = static_cast<float>(to_amp(level_db{peak_db - peak_window_db}).lin);
-    std::size_t end = x.size();
-    while (end > 0 && std::abs(x[end - 1]) < floor_lin) --end;
-    return end;
+    return r.end_at_or_above(q, params, floor_lin);
 }
 
 /// What the peak match keeps of q's render with the default seed (the full render is not kept:
@@ -153,15 +155,14 @@ bool renderable_at(double rate) { return rate >= min_render_rate_hz && rate <= m
 default_renders render_default(const patch& q, double sample_rate_hz, const render_bound& output_bound,
                                const peak_match_params& params) {
     default_renders d;
-    {
-        // loud_end needs every frame within peak_window_db of the peak.
-        const std::vector<float> output = render_while_within(q, {.sample_rate_hz = default_output_rate_hz, .noise_seed = params.default_seed},
-                                                              output_bound, peak_window_db);
-        d.output = {.frames = output_bound.frames(), .peak_db = peak_level_db(output), .loud_end = loud_end(output)};
-    }  // freed before the source-rate render
+    // loud_end needs every frame within peak_window_db of the peak: their figures, made a
+    // stretch at a time (on a held note they reach minutes into it).
+    const render_params output{.sample_rate_hz = default_output_rate_hz, .noise_seed = params.default_seed};
+    const block_peaks out = block_peaks_within(q, output, output_bound, peak_window_db);
+    d.output = {.frames = output_bound.frames(), .peak_db = peak_level_db(out.peak), .loud_end = loud_end(out, q, output)};
     if (sample_rate_hz != default_output_rate_hz && renderable_at(sample_rate_hz)) {
         const render_params source{.sample_rate_hz = sample_rate_hz, .noise_seed = params.default_seed};
-        d.source_db = peak_level_db(render_while_within(q, source, render_bound(q, source), 0.0));
+        d.source_db = peak_level_db(block_peaks_within(q, source, render_bound(q, source), 0.0).peak);
     } else {
         d.source_db = d.output.peak_db;
     }

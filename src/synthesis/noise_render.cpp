@@ -316,7 +316,6 @@ private:
 
     /// Fast bands whose amplitudes are made together (play_runs plays four runs side by side).
     static constexpr std::size_t amp_rows = 4;
-private:
     int n_fft_;
     std::size_t n_;
     std::size_t pool_floats_;
@@ -331,12 +330,14 @@ private:
     std::vector<amplitude_run> runs_;
 };
 
-/// The bands' noise at a draw rate (noise_draw_rate_hz of itself), one draw per seed added into
-/// outs[d] (all the same length). The frames' plan and the fast bands' amplitudes depend on the
-/// bands alone: worked out once per frame for every draw, each draw then the arithmetic of a
-/// render of its seed alone.
+/// The bands' noise at a draw rate (noise_draw_rate_hz of itself) of a render of total frames, one
+/// draw per seed, its frames [first, first + outs[d].size()) added into outs[d] (all the same
+/// length): each sample gets the frames that cover it in frame order, as in the whole render, the
+/// frames before only draw their shifts. The frames' plan and the fast bands' amplitudes depend on
+/// the bands alone: worked out once per frame for every draw, each draw a render of its seed alone.
 void add_noise_at_draw_rate(std::span<const noise_band> bands, const noise_render_params& params,
-                            std::span<const std::uint64_t> seeds, std::span<const std::span<float>> outs) {
+                            std::span<const std::uint64_t> seeds, [[maybe_unused]] std::size_t total_frames,
+                            std::size_t first_frame, std::span<const std::span<float>> outs) {
     assert(noise_draw_rate_hz(params.sample_rate_hz) == params.sample_rate_hz);
     assert(seeds.size() == outs.size() && !seeds.empty());
     const int n_fft = noise_frame_size(params.sample_rate_hz, params.frame_s);
@@ -370,12 +371,17 @@ void add_noise_at_draw_rate(std::span<const noise_band> bands, const noise_rende
     const bin_scale scale{.n_fft = n_fft, .hop = hop, .window_power_sum = window_power_sum,
                           .gain_lin = to_amp(level_db{params.gain_db}).lin, .inverse_scale = 1.0 / n_fft};  // the inverse FFT is unnormalized
 
-    const auto total = static_cast<long>(outs.front().size());
+    assert(first_frame + outs.front().size() <= total_frames);
+    const auto first = static_cast<long>(first_frame);
+    const auto end = static_cast<long>(first_frame + outs.front().size());
     const double dt_s = 1.0 / params.sample_rate_hz;
     // Frame m is centred on sample m * hop and spans [m hop - N/2, m hop + N/2); it draws one
     // shift per band (sounding or not), so a frame's noise does not depend on the others. The
     // frames centred before the onset whose second half reaches past it come first.
-    for (long m = 1 - n_fft / 2 / hop; m * hop - n_fft / 2 < total; ++m) {
+    const long m_first = 1 - n_fft / 2 / hop;
+    const long m_stretch = first / hop + 1 - n_fft / 2 / hop;  // the first frame ending past first (first >= 0)
+    for (std::vector<band_bins>& l : layouts) for (band_bins& b : l) b.shifts.skip(static_cast<std::uint64_t>(m_stretch - m_first));
+    for (long m = m_stretch; m * hop - n_fft / 2 < end; ++m) {
         const long start = m * hop - n_fft / 2;
         const bool audible = plan_frame(layout, plays, scale, static_cast<double>(m * hop) * dt_s,
                                         static_cast<double>(start) * dt_s, static_cast<double>(start + n_fft) * dt_s);
@@ -387,10 +393,10 @@ void add_noise_at_draw_rate(std::span<const noise_band> bands, const noise_rende
         std::fill(frames.begin(), frames.end(), 0.0f);
         const auto pool_index = static_cast<std::size_t>(((m % pool_frames) + pool_frames) % pool_frames);
         player.play(layouts, plays, static_cast<double>(start) * dt_s, dt_s, pool_index);
-        const long from = std::max(0L, -start);
-        const long to = std::min<long>(n_fft, total - start);
+        const long from = std::max(0L, first - start);
+        const long to = std::min<long>(n_fft, end - start);
         for (std::size_t d = 0; d < draws; ++d)
-            add_windowed(outs[d].data() + start + from, frames.data() + d * n + from, window.data() + from,
+            add_windowed(outs[d].data() + (start + from - first), frames.data() + d * n + from, window.data() + from,
                          static_cast<std::size_t>(to - from));
     }
 }
@@ -403,28 +409,29 @@ double noise_draw_rate_hz(double sample_rate_hz) {
     return rate_hz;
 }
 
-void add_noise_band_draws(std::span<const noise_band> bands, const noise_render_params& params,
-                          std::span<const std::uint64_t> seeds, std::span<const std::span<float>> outs) {
+void add_noise_band_draws_part(std::span<const noise_band> bands, const noise_render_params& params,
+                               std::span<const std::uint64_t> seeds, std::size_t total_frames, std::size_t first_frame,
+                               std::span<const std::span<float>> outs) {
     assert(seeds.size() == outs.size());
     if (bands.empty() || outs.empty() || outs.front().empty()) return;
     for (const std::span<float> out : outs) assert(out.size() == outs.front().size());
+    assert(first_frame + outs.front().size() <= total_frames);
     const double draw_rate_hz = noise_draw_rate_hz(params.sample_rate_hz);
-    if (draw_rate_hz == params.sample_rate_hz) {
-        add_noise_at_draw_rate(bands, params, seeds, outs);
-        return;
-    }
-    // Drawn at the draw rate over the output's time plus the samples the converter's kernel
-    // reads past its end, then converted (synthesis/rate_convert.hpp).
-    const auto margin_frames = static_cast<std::size_t>(rate_convert_taps(draw_rate_hz, params.sample_rate_hz));
-    const auto drawn_frames = static_cast<std::size_t>(std::ceil(static_cast<double>(outs.front().size()) * draw_rate_hz /
-                                                                 params.sample_rate_hz)) + margin_frames;
-    std::vector<float> drawn(seeds.size() * drawn_frames, 0.0f);
+    if (draw_rate_hz == params.sample_rate_hz) return add_noise_at_draw_rate(bands, params, seeds, total_frames, first_frame, outs);
+    // Drawn at the draw rate over the output's time plus the samples the converter's kernel reads
+    // past its end, then converted (synthesis/rate_convert.hpp); only the samples the stretch reads.
+    const auto drawn_frames = static_cast<std::size_t>(std::ceil(static_cast<double>(total_frames) * draw_rate_hz / params.sample_rate_hz)) +
+                              static_cast<std::size_t>(rate_convert_taps(draw_rate_hz, params.sample_rate_hz));
+    const rate_convert_reach reach = rate_convert_reads(draw_rate_hz, params.sample_rate_hz, first_frame, outs.front().size(), drawn_frames);
+    const std::size_t size = reach.end - reach.first;
+    std::vector<float> drawn(seeds.size() * size, 0.0f);
     std::vector<std::span<float>> drawn_outs;
-    for (std::size_t d = 0; d < seeds.size(); ++d) drawn_outs.emplace_back(drawn.data() + d * drawn_frames, drawn_frames);
+    for (std::size_t d = 0; d < seeds.size(); ++d) drawn_outs.emplace_back(drawn.data() + d * size, size);
     noise_render_params at_draw = params;
     at_draw.sample_rate_hz = draw_rate_hz;
-    add_noise_at_draw_rate(bands, at_draw, seeds, drawn_outs);
-    for (std::size_t d = 0; d < seeds.size(); ++d) add_rate_converted(drawn_outs[d], draw_rate_hz, params.sample_rate_hz, outs[d]);
+    if (size > 0) add_noise_at_draw_rate(bands, at_draw, seeds, drawn_frames, reach.first, drawn_outs);
+    for (std::size_t d = 0; d < seeds.size(); ++d)
+        add_rate_converted_part(drawn_outs[d], reach.first, drawn_frames, draw_rate_hz, params.sample_rate_hz, first_frame, outs[d]);
 }
 
 noise_render_params noise_params_of(const patch& p, const render_params& params) {
@@ -432,10 +439,11 @@ noise_render_params noise_params_of(const patch& p, const render_params& params)
             .seed = params.noise_seed, .own_seed = params.own_noise_seed};
 }
 
-void add_noise_bands(std::span<const noise_band> bands, const noise_render_params& params, std::span<float> out) {
+void add_noise_bands_part(std::span<const noise_band> bands, const noise_render_params& params, std::size_t total_frames,
+                          std::size_t first_frame, std::span<float> out) {
     const std::uint64_t seeds[] = {params.seed};
     const std::span<float> outs[] = {out};
-    add_noise_band_draws(bands, params, seeds, outs);
+    add_noise_band_draws_part(bands, params, seeds, total_frames, first_frame, outs);
 }
 
 }  // namespace wane

@@ -33,6 +33,7 @@
 // bins) was a tone whose frequency moved with the rate, and a copy's peak moved with it.
 #pragma once
 
+#include <cstddef>
 #include <cstdint>
 #include <optional>
 #include <span>
@@ -61,15 +62,31 @@ struct noise_render_params {
 /// the peak match's renders of a prefix).
 noise_render_params noise_params_of(const patch& p, const render_params& params);
 
-/// Adds the bands' noise into out (out[n] at t = n / rate). Bands above Nyquist are clipped to it.
-void add_noise_bands(std::span<const noise_band> bands, const noise_render_params& params, std::span<float> out);
+/// Frames [first_frame, first_frame + out.size()) of the noise add_noise_bands adds into a render
+/// of total_frames, added into out bit for bit as there (each sample gets the frames that cover it,
+/// in the same order; the earlier frames only draw their shifts; at a converted rate, only the
+/// drawn samples the stretch reads are drawn): a long render's noise a stretch at a time.
+void add_noise_bands_part(std::span<const noise_band> bands, const noise_render_params& params, std::size_t total_frames,
+                          std::size_t first_frame, std::span<float> out);
+
+/// add_noise_band_draws over frames [first_frame, first_frame + outs[d].size()) of renders of
+/// total_frames (as add_noise_bands_part is to add_noise_bands).
+void add_noise_band_draws_part(std::span<const noise_band> bands, const noise_render_params& params,
+                               std::span<const std::uint64_t> seeds, std::size_t total_frames, std::size_t first_frame,
+                               std::span<const std::span<float>> outs);
 
 /// Draws of the same bands, seeds[d] added into outs[d] (every out the same length), each bit for
 /// bit what add_noise_bands gives with params.seed = seeds[d] (params.seed is not read): the
 /// frames' plan and the sample-by-sample envelopes of the fast bands are worked out once for all
 /// the draws (tests/unit/test_noise_rates.cpp).
-void add_noise_band_draws(std::span<const noise_band> bands, const noise_render_params& params,
-                          std::span<const std::uint64_t> seeds, std::span<const std::span<float>> outs);
+inline void add_noise_band_draws(std::span<const noise_band> bands, const noise_render_params& params,
+                                 std::span<const std::uint64_t> seeds, std::span<const std::span<float>> outs) {
+    if (!outs.empty()) add_noise_band_draws_part(bands, params, seeds, outs.front().size(), 0, outs);
+}
+/// Adds the bands' noise into out (out[n] at t = n / rate). Bands above Nyquist are clipped to it.
+inline void add_noise_bands(std::span<const noise_band> bands, const noise_render_params& params, std::span<float> out) {
+    add_noise_bands_part(bands, params, out.size(), 0, out);
+}
 
 /// The frame length in samples the renderer and the analysis use at a rate (power of two).
 int noise_frame_size(double sample_rate_hz, double frame_s);

@@ -112,33 +112,70 @@ double rate_convert_gain(double from_rate_hz, double to_rate_hz) {
     return gain;
 }
 
+namespace {
+
+/// The first input sample output sample n reads, and its kernel row (the nearest phase).
+struct first_tap {
+    long first = 0;
+    std::size_t row = 0;
+};
+first_tap first_tap_of(std::size_t n, double step, int taps) {
+    const double p = static_cast<double>(n) * step;  // >= 0: truncation is floor
+    const auto whole = static_cast<long>(p);
+    const auto q = std::lround((p - static_cast<double>(whole)) * kernel_phases);
+    return {.first = whole + (q == kernel_phases ? 1 : 0) - taps / 2 + 1,
+            .row = static_cast<std::size_t>(q == kernel_phases ? 0 : q)};
+}
+
+}  // namespace
+
 void add_rate_converted(std::span<const float> x, double from_rate_hz, double to_rate_hz, std::span<float> out) {
+    add_rate_converted_part(x, 0, x.size(), from_rate_hz, to_rate_hz, 0, out);
+}
+
+void add_rate_converted_part(std::span<const float> x, std::size_t x_first, std::size_t x_total, double from_rate_hz,
+                             double to_rate_hz, std::size_t out_first, std::span<float> out) {
     assert(to_rate_hz > 0.0 && to_rate_hz <= from_rate_hz);
+    assert(x_first + x.size() <= x_total);
     const double step = from_rate_hz / to_rate_hz;  // input samples per output sample
     const int taps = rate_convert_taps(from_rate_hz, to_rate_hz);
     const std::shared_ptr<const std::vector<float>> kernel = shared_kernel_table(to_rate_hz / from_rate_hz, taps);
     const std::vector<float>& table = *kernel;
     const auto n_taps = static_cast<std::size_t>(taps);
-    const auto size = static_cast<long>(x.size());
+    const auto size = static_cast<long>(x_total);
+    const auto x_from = static_cast<long>(x_first);
+    [[maybe_unused]] const auto x_to = static_cast<long>(x_first + x.size());
     std::vector<float> edge(n_taps);  // the taps' input near either end, zero outside x
     for (std::size_t n = 0; n < out.size(); ++n) {
-        const double p = static_cast<double>(n) * step;  // >= 0: truncation is floor
-        const auto whole = static_cast<long>(p);
-        const auto q = std::lround((p - static_cast<double>(whole)) * kernel_phases);
-        const long first = whole + (q == kernel_phases ? 1 : 0) - taps / 2 + 1;
-        const float* row = table.data() + static_cast<std::size_t>(q == kernel_phases ? 0 : q) * n_taps;
+        const first_tap tap = first_tap_of(out_first + n, step, taps);
+        const long first = tap.first;
+        const float* row = table.data() + tap.row * n_taps;
         if (first >= size) break;
+        // The window x must hold every tap read that lies inside [0, x_total).
+        assert(std::max(first, 0L) >= x_from && std::min(first + taps, size) <= x_to);
         const float* in = edge.data();
         if (first >= 0 && first + taps <= size) {
-            in = x.data() + first;
+            in = x.data() + (first - x_from);
         } else {
             for (long t = 0; t < taps; ++t) {
                 const long j = first + t;
-                edge[static_cast<std::size_t>(t)] = j >= 0 && j < size ? x[static_cast<std::size_t>(j)] : 0.0f;
+                edge[static_cast<std::size_t>(t)] = j >= 0 && j < size ? x[static_cast<std::size_t>(j - x_from)] : 0.0f;
             }
         }
         out[n] += static_cast<float>(dot(in, row, n_taps));
     }
+}
+
+rate_convert_reach rate_convert_reads(double from_rate_hz, double to_rate_hz, std::size_t out_first, std::size_t out_count,
+                                      std::size_t x_total) {
+    assert(out_count > 0);
+    const double step = from_rate_hz / to_rate_hz;
+    const int taps = rate_convert_taps(from_rate_hz, to_rate_hz);
+    const long first = first_tap_of(out_first, step, taps).first;
+    const long last = first_tap_of(out_first + out_count - 1, step, taps).first + taps;
+    const auto total = static_cast<long>(x_total);
+    const long from = std::clamp(first, 0L, total);
+    return {.first = static_cast<std::size_t>(from), .end = static_cast<std::size_t>(std::clamp(last, from, total))};
 }
 
 }  // namespace wane

@@ -13,6 +13,7 @@
 // input samples, -58 dB at 20 kHz from 48 kHz), each phase's taps scaled to sum to 1 (exact DC).
 #pragma once
 
+#include <cstddef>
 #include <span>
 
 namespace wane {
@@ -20,6 +21,21 @@ namespace wane {
 /// Adds x (sampled at from_rate_hz, x[0] at t = 0) converted to to_rate_hz <= from_rate_hz into
 /// out (out[n] at t = n / to_rate_hz); x is zero outside its span.
 void add_rate_converted(std::span<const float> x, double from_rate_hz, double to_rate_hz, std::span<float> out);
+
+/// Output samples [out_first, out_first + out.size()) of add_rate_converted(x_whole, ...) with x_whole
+/// x_total samples long, added bit for bit as that adds them, given x = x_whole's samples
+/// [x_first, x_first + x.size()) covering rate_convert_reads(...) of that stretch.
+void add_rate_converted_part(std::span<const float> x, std::size_t x_first, std::size_t x_total, double from_rate_hz,
+                             double to_rate_hz, std::size_t out_first, std::span<float> out);
+
+/// The input samples [first, end) (within [0, x_total)) that output samples [out_first,
+/// out_first + out_count) read.
+struct rate_convert_reach {
+    std::size_t first = 0;
+    std::size_t end = 0;
+};
+rate_convert_reach rate_convert_reads(double from_rate_hz, double to_rate_hz, std::size_t out_first, std::size_t out_count,
+                                      std::size_t x_total);
 
 /// The kernel's length in input samples at a ratio (the formula above, rounded up to a multiple of 8).
 int rate_convert_taps(double from_rate_hz, double to_rate_hz);

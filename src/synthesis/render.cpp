@@ -373,6 +373,15 @@ void partial_renderer::render(std::size_t first_frame, std::span<float> out) con
     apply_end_fade(first_frame, out, state_->plan.frames, sample_rate_hz_);
 }
 
+void partial_renderer::render_with_noise(const patch& p, const render_params& params, std::size_t first_frame,
+                                         std::span<float> out) const {
+    assert(first_frame + out.size() <= state_->plan.frames && params.sample_rate_hz == sample_rate_hz_);
+    render_partials_range(state_->plan, first_frame, out, sample_rate_hz_);
+    if (params.include_noise && !p.noise.empty())
+        add_noise_bands_part(p.noise, noise_params_of(p, params), state_->plan.frames, first_frame, out);
+    apply_end_fade(first_frame, out, state_->plan.frames, sample_rate_hz_);
+}
+
 render_summary summarize_render(const patch& p, const render_params& params) {
     render_summary s;
     s.frames = render_frames(p, params);

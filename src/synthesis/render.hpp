@@ -103,6 +103,10 @@ public:
     /// Writes frames [first_frame, first_frame + out.size()) into out; that range must lie
     /// inside [0, frames()).
     void render(std::size_t first_frame, std::span<float> out) const;
+    /// Frames [first_frame, first_frame + out.size()) of render_patch(p, params) itself, noise
+    /// included (synthesis/noise_render.hpp: add_noise_bands_part), p and params those this
+    /// renderer was made from: bit for bit when first_frame is a multiple of render_anchor_frames.
+    void render_with_noise(const patch& p, const render_params& params, std::size_t first_frame, std::span<float> out) const;
 
 private:
     struct state;

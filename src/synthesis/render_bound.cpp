@@ -120,32 +120,66 @@ constexpr std::size_t bounded_step_frames = 8 * render_anchor_frames;
 
 }  // namespace
 
-std::vector<float> render_while_within(const patch& p, const render_params& params, const render_bound& bound,
-                                       double within_db) {
+std::size_t frames_within(const patch& p, const render_params& params, const render_bound& bound, double within_db) {
     const partial_renderer partials(p, params);
     const std::size_t frames = partials.frames();
     assert(frames == bound.frames());
     // Strictly under the level (the margin also covers the level's rounding where it is compared).
     const double ratio = to_amp(level_db{-within_db}).lin / render_bound_margin;
-    std::vector<float> out;
+    std::vector<float> step(std::min(frames, bounded_step_frames));
     loudness_blocks blocks;
     std::size_t end = 0;
     while (end < frames) {
         const std::size_t step_end = std::min(frames, end + bounded_step_frames);
-        out.resize(step_end);
-        const std::span<float> step = std::span(out).subspan(end);
-        partials.render(end, step);
-        blocks.add(step, end, bound);
+        const std::span<float> part = std::span(step).first(step_end - end);
+        partials.render(end, part);
+        blocks.add(part, end, bound);
         end = step_end;
         if (bound.from(end) < ratio * blocks.least_peak) break;
     }
     const std::size_t kept = std::min(end, blocks.frames_reaching(ratio * blocks.least_peak));
     const auto fade_frames = std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * params.sample_rate_hz)));
-    // The end fade scales partials and noise together: a render that reaches it is made whole.
-    if (kept + fade_frames > frames) return render_patch(p, params);
-    out.resize(kept);
-    if (params.include_noise && !p.noise.empty()) add_noise_bands(p.noise, noise_params_of(p, params), out);
+    // The end fade scales partials and noise together: a render that reaches it is taken whole.
+    return kept + fade_frames > frames ? frames : kept;
+}
+
+std::vector<float> render_while_within(const patch& p, const render_params& params, const render_bound& bound,
+                                       double within_db) {
+    std::vector<float> out(frames_within(p, params, bound, within_db));
+    if (!out.empty()) partial_renderer(p, params).render_with_noise(p, params, 0, out);
     return out;
+}
+
+block_peaks block_peaks_within(const patch& p, const render_params& params, const render_bound& bound, double within_db,
+                               std::size_t stretch_frames) {
+    assert(stretch_frames > 0 && stretch_frames % render_anchor_frames == 0);
+    block_peaks r{.frames = frames_within(p, params, bound, within_db), .peak = 0.0f, .peaks = {}};
+    const partial_renderer renderer(p, params);
+    std::vector<float> stretch(std::min(r.frames, stretch_frames));
+    for (std::size_t first = 0; first < r.frames; first += stretch_frames) {
+        const std::span<float> part = std::span(stretch).first(std::min(stretch_frames, r.frames - first));
+        renderer.render_with_noise(p, params, first, part);
+        for (std::size_t b0 = 0; b0 < part.size(); b0 += render_anchor_frames) {
+            float top = 0.0f;
+            for (std::size_t n = b0; n < std::min(part.size(), b0 + render_anchor_frames); ++n) top = std::max(top, std::abs(part[n]));
+            r.peaks.push_back(top);
+            r.peak = std::max(r.peak, top);
+        }
+    }
+    return r;
+}
+
+std::size_t block_peaks::end_at_or_above(const patch& p, const render_params& params, float level) const {
+    std::size_t block = peaks.size();
+    while (block > 0 && peaks[block - 1] < level) --block;
+    if (block == 0) return 0;
+    // The samples of that block again (bit for bit: it starts at an anchor), the last one at or over level.
+    const std::size_t first = (block - 1) * render_anchor_frames;
+    std::vector<float> x(std::min(render_anchor_frames, frames - first));
+    partial_renderer(p, params).render_with_noise(p, params, first, x);
+    std::size_t end = x.size();
+    while (end > 0 && std::abs(x[end - 1]) < level) --end;
+    return first + end;
 }
 
 }  // namespace wane

@@ -78,11 +78,33 @@ struct loudness_blocks {
     std::size_t frames_reaching(double level) const;
 };
 
-/// Frames [0, end) of render_patch(p, params), bit for bit, with end such that no later frame
-/// comes within within_db of the render's peak (bound: render_bound(p, params)). The partials a
-/// step at a time until the bound of the rest falls under that level, the noise only over the
-/// blocks that can still reach it; the whole render when those reach the end fade.
+/// The end of render_while_within's frames: no frame from it on comes within within_db of the
+/// render's peak (bound: render_bound(p, params)). The partials a step at a time until the bound
+/// of the rest falls under that level, then the blocks that can still reach it (partials plus the
+/// noise's bound); the whole render when those reach the end fade.
+std::size_t frames_within(const patch& p, const render_params& params, const render_bound& bound, double within_db);
+
+/// Frames [0, frames_within(...)) of render_patch(p, params), bit for bit.
 std::vector<float> render_while_within(const patch& p, const render_params& params, const render_bound& bound,
                                        double within_db);
+
+/// Figures of frames [0, frames) of render_patch(p, params), frames = frames_within(...), made a
+/// stretch at a time (partial_renderer::render_with_noise, bit for bit) without holding them: the
+/// peak |sample| of every block of render_anchor_frames and of all.
+struct block_peaks {
+    std::size_t frames = 0;
+    float peak = 0.0f;
+    std::vector<float> peaks;  ///< per block
+
+    /// One past the last of the frames whose |sample| is at or over level (0 if none): the last
+    /// block that reaches it rendered again (p and params those the figures were made from).
+    std::size_t end_at_or_above(const patch& p, const render_params& params, float level) const;
+};
+/// Frames block_peaks_within renders at once by default (the noise's frames across a stretch's
+/// edges are drawn twice: ~1% more noise work at this length, for a 256 kB buffer).
+inline constexpr std::size_t peak_stretch_frames = 64 * render_anchor_frames;
+/// stretch_frames: a multiple of render_anchor_frames (the figures do not depend on it).
+block_peaks block_peaks_within(const patch& p, const render_params& params, const render_bound& bound, double within_db,
+                               std::size_t stretch_frames = peak_stretch_frames);
 
 }  // namespace wane

@@ -131,3 +131,80 @@ TEST_CASE("render_while_within stops early on a note that falls far under its pe
     CAPTURE(kept.size());
     CHECK(kept.size() <= std::size_t{16} * render_anchor_frames);
 }
+
+namespace {
+
+/// A held note whose peak comes late: partials that swell (negative T60) for swell_s, then hold
+/// for hold_s and decay, a noise band that holds; length_s in all.
+patch late_peak_patch(std::uint64_t seed, double swell_s, double hold_s, double length_s) {
+    splitmix64 rng{seed};
+    patch p;
+    p.note.length_s = length_s;
+    for (int k = 1; k <= 6; ++k)
+        p.partials.push_back({.freq_hz = 220.0 * k * rng.uniform(0.99, 1.01), .harmonic = k, .phase_rad = rng.uniform(-3.0, 3.0),
+                              .env = {.attack_s = 0.01, .peak = level_db{rng.uniform(-30.0, -12.0)},
+                                      .decay = {{.t60_s = -rng.uniform(20.0, 60.0), .until_s = swell_s},
+                                                {.t60_s = infinity, .until_s = swell_s + hold_s},
+                                                {.t60_s = rng.uniform(1.0, 5.0), .until_s = {}}}}});
+    p.noise.push_back({.low_hz = 1120.0, .high_hz = 1410.0,
+                       .env = {.attack_s = 0.0, .peak = level_db{-50.0}, .decay = {{.t60_s = infinity, .until_s = {}}}},
+                       .place = {}, .coherence = 0.5});
+    canonicalize(p);
+    return p;
+}
+
+}  // namespace
+
+TEST_CASE("render_with_noise: stretches of any anchored length are the full render's frames bit for bit", "[render_bound]") {
+    const auto seed = GENERATE(range(std::uint64_t{1}, std::uint64_t{7}));
+    const double rate_hz = GENERATE(48000.0, 44100.0, 96000.0);
+    const std::size_t stretch = render_anchor_frames * GENERATE(std::size_t{1}, std::size_t{3}, std::size_t{8});
+    const bool stereo = GENERATE(false, true);
+    const patch p = random_patch(seed);
+    const render_params params{.sample_rate_hz = rate_hz, .noise_seed = 4,
+                               .own_noise_seed = stereo ? std::optional<std::uint64_t>{9} : std::nullopt};
+    const std::vector<float> full = render_patch(p, params);
+    const partial_renderer renderer(p, params);
+    std::vector<float> pieces(full.size());
+    for (std::size_t first = 0; first < full.size(); first += stretch)
+        renderer.render_with_noise(p, params, first, std::span(pieces).subspan(first, std::min(stretch, full.size() - first)));
+    std::size_t differing = 0;
+    for (std::size_t n = 0; n < full.size(); ++n) differing += full[n] != pieces[n] ? 1 : 0;
+    CAPTURE(seed, rate_hz, stretch, stereo, full.size());
+    CHECK(differing == 0);
+}
+
+TEST_CASE("block_peaks_within: the streamed peak, block peaks and end of the loud frames equal the full render's",
+          "[render_bound]") {
+    // Random short patches, and held notes of 3 s whose peak comes 1.5 s or 2.5 s in.
+    const auto which = GENERATE(range(0, 10));
+    const double rate_hz = GENERATE(48000.0, 44100.0);
+    const double within_db = GENERATE(0.0, 6.0);
+    const std::size_t stretch = render_anchor_frames * GENERATE(std::size_t{2}, std::size_t{64});
+    const patch p = which < 6 ? random_patch(static_cast<std::uint64_t>(which) + 20)
+                              : late_peak_patch(static_cast<std::uint64_t>(which), which < 8 ? 1.5 : 2.5, 0.3, 3.0);
+    const render_params params{.sample_rate_hz = rate_hz, .noise_seed = 3};
+    const render_bound bound(p, params);
+    const block_peaks r = block_peaks_within(p, params, bound, within_db, stretch);
+    // The reference: the full render's first frames_within frames, whole.
+    const std::vector<float> full = render_patch(p, params);
+    const std::span<const float> kept = std::span(full).first(frames_within(p, params, bound, within_db));
+    REQUIRE(r.frames == kept.size());
+    std::vector<float> block_ref;
+    for (std::size_t b = 0; b < kept.size(); b += render_anchor_frames)
+        block_ref.push_back(peak_of(kept.subspan(b, std::min(render_anchor_frames, kept.size() - b))));
+    const float peak_ref = peak_of(kept);
+    // Floors at and under the peak: the last frame at or over each.
+    std::size_t worst_end_miss = 0;
+    for (const float level : {peak_ref, 0.5f * peak_ref, 0.1f * peak_ref, 0.01f * peak_ref}) {
+        std::size_t end_ref = kept.size();
+        while (end_ref > 0 && std::abs(kept[end_ref - 1]) < level) --end_ref;
+        const std::size_t end = r.end_at_or_above(p, params, level);
+        worst_end_miss = std::max(worst_end_miss, end > end_ref ? end - end_ref : end_ref - end);
+    }
+    CAPTURE(which, rate_hz, within_db, stretch, kept.size(), full.size(), r.peak, peak_ref, worst_end_miss);
+    CHECK(r.peak == peak_ref);
+    CHECK(r.peaks == block_ref);
+    CHECK(worst_end_miss == 0);
+    if (which >= 6 && within_db == 6.0) CHECK(kept.size() > static_cast<std::size_t>(1.5 * rate_hz));  // the late peak is reached
+}
