@@ -45,33 +45,37 @@ struct default_peak {
     std::size_t loud_end = 0;  ///< loud_end of it
 };
 
-/// Frames of noise the other draws are rendered into at once (the draws of a long note's span in
-/// turns, as many at a time as fit: the same samples as all at once).
-constexpr std::size_t draw_buffer_frames = std::size_t{1} << 22;
+/// Frames of the other draws rendered at once (all draws side by side; each stretch's noise
+/// remade from the draws' seeds: add_noise_band_draws_part, bit for bit the whole render's).
+constexpr std::size_t draw_stretch_frames = 128 * render_anchor_frames;
 
-/// The peaks (|sample|) of the draws of seeds, each render of q at rate (partials: its partials'
-/// frames [0, reach) and more, frames: the render's length) over frames [0, reach) only.
+/// The peaks (|sample|) of the draws of seeds, each render of q at rate (partials: its partials,
+/// frames: the render's length) over frames [0, reach) only, a stretch at a time.
 std::vector<float> draw_peaks(const patch& q, double rate, std::span<const std::uint64_t> seeds,
-                              std::span<const float> partials, std::size_t frames, std::size_t reach) {
+                              const partial_renderer& partials, std::size_t frames, std::size_t reach) {
     const auto fade_from = frames - std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * rate)));
-    std::vector<float> peaks;
-    // A group of draws per render (add_noise_band_draws: each as its own render would be).
-    const std::size_t group = std::clamp<std::size_t>(draw_buffer_frames / std::max<std::size_t>(reach, 1), 1, std::max<std::size_t>(seeds.size(), 1));
-    std::vector<float> noise(std::min(group, seeds.size()) * reach);
-    for (std::size_t first = 0; first < seeds.size(); first += group) {
-        const std::span<const std::uint64_t> these = seeds.subspan(first, std::min(group, seeds.size() - first));
+    std::vector<float> peaks(seeds.size(), 0.0f);
+    if (seeds.empty() || reach == 0) return peaks;
+    const std::size_t stretch = std::min(reach, draw_stretch_frames);
+    std::vector<float> part(stretch);
+    std::vector<float> noise(seeds.size() * stretch);
+    for (std::size_t first = 0; first < reach; first += stretch) {
+        const std::size_t size = std::min(stretch, reach - first);
+        partials.render(first, std::span(part).first(size));
         std::fill(noise.begin(), noise.end(), 0.0f);
         std::vector<std::span<float>> outs;
-        for (std::size_t d = 0; d < these.size(); ++d) outs.emplace_back(noise.data() + d * reach, reach);
-        add_noise_band_draws(q.noise, {.sample_rate_hz = rate, .gain_db = 0.0}, these, outs);
-        for (const std::span<const float> drawn : outs) {
-            float peak = 0.0f;
-            for (std::size_t n = 0; n < reach; ++n) {
+        for (std::size_t d = 0; d < seeds.size(); ++d) outs.emplace_back(noise.data() + d * stretch, size);
+        // The draws as renders of reach frames (add_noise_band_draws: each as its own render would be).
+        add_noise_band_draws_part(q.noise, {.sample_rate_hz = rate, .gain_db = 0.0}, seeds, reach, first, outs);
+        for (std::size_t d = 0; d < seeds.size(); ++d) {
+            float peak = peaks[d];
+            for (std::size_t i = 0; i < size; ++i) {
+                const std::size_t n = first + i;
                 // The end fade covers the noise too (render_patch applies it to the sum).
                 const float g = n < fade_from ? 1.0f : static_cast<float>(end_fade_gain(n, frames, rate));
-                peak = std::max(peak, std::abs(partials[n] + g * drawn[n]));
+                peak = std::max(peak, std::abs(part[i] + g * outs[d][i]));
             }
-            peaks.push_back(peak);
+            peaks[d] = peak;
         }
     }
     return peaks;
@@ -95,8 +99,6 @@ double expected_peak_db(const patch& q, double rate, const default_peak& def, co
     assert(frames == def.frames);
     const auto margin = static_cast<std::size_t>(std::llround(peak_window_margin_s * rate));
     const std::size_t span = std::min(frames, def.loud_end + margin);
-    std::vector<float> partials(span);
-    partials_of.render(0, partials);
     std::vector<double> peaks_db;
     std::vector<std::uint64_t> seeds;
     for (int k = 0; k < params.draws; ++k) {
@@ -111,15 +113,22 @@ double expected_peak_db(const patch& q, double rate, const default_peak& def, co
     // L: its peak over the blocks before is its whole peak when it reaches L there. Every draw
     // peaks at least where its partials less the noise's bound do (blocks.least_peak).
     loudness_blocks blocks;
-    blocks.add(partials, 0, bound);
+    {
+        std::vector<float> part(std::min(span, draw_stretch_frames));
+        for (std::size_t first = 0; first < span; first += part.size()) {
+            const std::span<float> stretch = std::span(part).first(std::min(part.size(), span - first));
+            partials_of.render(first, stretch);
+            blocks.add(stretch, first, bound);
+        }
+    }
     const double first_level = std::max(blocks.least_peak, to_amp(level_db{default_db - first_reach_db}).lin);
     const std::size_t first_reach = std::min(span, blocks.frames_reaching(first_level / render_bound_margin));
-    std::vector<float> peaks = draw_peaks(q, rate, seeds, partials, frames, first_reach);
+    std::vector<float> peaks = draw_peaks(q, rate, seeds, partials_of, frames, first_reach);
     const float lowest = peaks.empty() ? 0.0f : *std::min_element(peaks.begin(), peaks.end());
     if (static_cast<double>(lowest) < first_level / render_bound_margin) {
         const double level = std::max(blocks.least_peak, static_cast<double>(lowest));
         const std::size_t reach = std::min(span, blocks.frames_reaching(level / render_bound_margin));
-        if (reach > first_reach) peaks = draw_peaks(q, rate, seeds, partials, frames, reach);
+        if (reach > first_reach) peaks = draw_peaks(q, rate, seeds, partials_of, frames, reach);
     }
     for (const float peak : peaks) peaks_db.push_back(to_level(amp_lin{static_cast<double>(peak)}).db);
     const auto mid = peaks_db.begin() + static_cast<std::ptrdiff_t>(peaks_db.size() / 2);

@@ -15,6 +15,7 @@
 
 #include "core/noise_bands.hpp"
 #include "core/rng.hpp"
+#include "synthesis/noise_render.hpp"
 #include "synthesis/render.hpp"
 #include "synthesis/render_bound.hpp"
 
@@ -207,4 +208,28 @@ TEST_CASE("block_peaks_within: the streamed peak, block peaks and end of the lou
     CHECK(r.peaks == block_ref);
     CHECK(worst_end_miss == 0);
     if (which >= 6 && within_db == 6.0) CHECK(kept.size() > static_cast<std::size_t>(1.5 * rate_hz));  // the late peak is reached
+}
+
+TEST_CASE("add_noise_band_draws_part: several draws a stretch at a time equal the whole draws bit for bit", "[render_bound]") {
+    const auto seed = GENERATE(range(std::uint64_t{1}, std::uint64_t{5}));
+    const double rate_hz = GENERATE(48000.0, 44100.0);
+    const std::size_t stretch = render_anchor_frames * GENERATE(std::size_t{1}, std::size_t{5});
+    const patch p = random_patch(seed + 40);
+    const std::size_t frames = render_frames(p, {.sample_rate_hz = rate_hz});
+    const std::uint64_t seeds[] = {2, 5, 8};
+    const noise_render_params params{.sample_rate_hz = rate_hz, .gain_db = 0.0};
+    std::vector<float> whole(3 * frames, 0.0f), pieces(3 * frames, 0.0f);
+    const std::span<float> whole_outs[] = {std::span(whole).first(frames), std::span(whole).subspan(frames, frames),
+                                           std::span(whole).subspan(2 * frames, frames)};
+    add_noise_band_draws(p.noise, params, seeds, whole_outs);
+    for (std::size_t first = 0; first < frames; first += stretch) {
+        const std::size_t size = std::min(stretch, frames - first);
+        const std::span<float> outs[] = {std::span(pieces).subspan(first, size), std::span(pieces).subspan(frames + first, size),
+                                         std::span(pieces).subspan(2 * frames + first, size)};
+        add_noise_band_draws_part(p.noise, params, seeds, frames, first, outs);
+    }
+    std::size_t differing = 0;
+    for (std::size_t n = 0; n < whole.size(); ++n) differing += whole[n] != pieces[n] ? 1 : 0;
+    CAPTURE(seed, rate_hz, stretch, frames);
+    CHECK(differing == 0);
 }
