@@ -120,27 +120,64 @@ constexpr std::size_t bounded_step_frames = 8 * render_anchor_frames;
 
 }  // namespace
 
-std::size_t frames_within(const patch& p, const render_params& params, const render_bound& bound, double within_db) {
+namespace {
+
+/// frames_within, leaving the partials of the frames it gives in kept when they are at most
+/// keep_frames and short of the end fade (else kept is empty): they need only the noise then.
+std::size_t frames_within_keeping(const patch& p, const render_params& params, const render_bound& bound, double within_db,
+                                  std::size_t keep_frames, std::vector<float>& kept) {
     const partial_renderer partials(p, params);
     const std::size_t frames = partials.frames();
     assert(frames == bound.frames());
     // Strictly under the level (the margin also covers the level's rounding where it is compared).
     const double ratio = to_amp(level_db{-within_db}).lin / render_bound_margin;
-    std::vector<float> step(std::min(frames, bounded_step_frames));
+    std::vector<float> step;
+    kept.clear();
     loudness_blocks blocks;
     std::size_t end = 0;
     while (end < frames) {
         const std::size_t step_end = std::min(frames, end + bounded_step_frames);
-        const std::span<float> part = std::span(step).first(step_end - end);
+        std::span<float> part;
+        if (step_end <= keep_frames) {
+            kept.resize(step_end);
+            part = std::span(kept).subspan(end);
+        } else {
+            kept = {};
+            step.resize(std::min(frames, bounded_step_frames));
+            part = std::span(step).first(step_end - end);
+        }
         partials.render(end, part);
         blocks.add(part, end, bound);
         end = step_end;
         if (bound.from(end) < ratio * blocks.least_peak) break;
     }
-    const std::size_t kept = std::min(end, blocks.frames_reaching(ratio * blocks.least_peak));
+    const std::size_t within = std::min(end, blocks.frames_reaching(ratio * blocks.least_peak));
     const auto fade_frames = std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * params.sample_rate_hz)));
     // The end fade scales partials and noise together: a render that reaches it is taken whole.
-    return kept + fade_frames > frames ? frames : kept;
+    if (within + fade_frames > frames) {
+        kept = {};
+        return frames;
+    }
+    kept.resize(std::min(kept.size(), within));
+    if (kept.size() < within) kept = {};
+    return within;
+}
+
+/// Appends the peaks of x's blocks of render_anchor_frames (x starting at a block) to r.
+void add_block_peaks(std::span<const float> x, block_peaks& r) {
+    for (std::size_t b0 = 0; b0 < x.size(); b0 += render_anchor_frames) {
+        float top = 0.0f;
+        for (std::size_t n = b0; n < std::min(x.size(), b0 + render_anchor_frames); ++n) top = std::max(top, std::abs(x[n]));
+        r.peaks.push_back(top);
+        r.peak = std::max(r.peak, top);
+    }
+}
+
+}  // namespace
+
+std::size_t frames_within(const patch& p, const render_params& params, const render_bound& bound, double within_db) {
+    std::vector<float> none;
+    return frames_within_keeping(p, params, bound, within_db, 0, none);
 }
 
 std::vector<float> render_while_within(const patch& p, const render_params& params, const render_bound& bound,
@@ -153,18 +190,22 @@ std::vector<float> render_while_within(const patch& p, const render_params& para
 block_peaks block_peaks_within(const patch& p, const render_params& params, const render_bound& bound, double within_db,
                                std::size_t stretch_frames) {
     assert(stretch_frames > 0 && stretch_frames % render_anchor_frames == 0);
-    block_peaks r{.frames = frames_within(p, params, bound, within_db), .peak = 0.0f, .peaks = {}};
+    std::vector<float> kept;
+    block_peaks r{.frames = frames_within_keeping(p, params, bound, within_db, stretch_frames, kept), .peak = 0.0f, .peaks = {}};
+    if (r.frames == 0) return r;
+    if (kept.size() == r.frames) {
+        // A short render: its partials (no end fade in them) and the noise over them.
+        if (params.include_noise && !p.noise.empty())
+            add_noise_bands_part(p.noise, noise_params_of(p, params), bound.frames(), 0, kept);
+        add_block_peaks(kept, r);
+        return r;
+    }
     const partial_renderer renderer(p, params);
     std::vector<float> stretch(std::min(r.frames, stretch_frames));
     for (std::size_t first = 0; first < r.frames; first += stretch_frames) {
         const std::span<float> part = std::span(stretch).first(std::min(stretch_frames, r.frames - first));
         renderer.render_with_noise(p, params, first, part);
-        for (std::size_t b0 = 0; b0 < part.size(); b0 += render_anchor_frames) {
-            float top = 0.0f;
-            for (std::size_t n = b0; n < std::min(part.size(), b0 + render_anchor_frames); ++n) top = std::max(top, std::abs(part[n]));
-            r.peaks.push_back(top);
-            r.peak = std::max(r.peak, top);
-        }
+        add_block_peaks(part, r);
     }
     return r;
 }

@@ -100,9 +100,11 @@ struct block_peaks {
     /// block that reaches it rendered again (p and params those the figures were made from).
     std::size_t end_at_or_above(const patch& p, const render_params& params, float level) const;
 };
-/// Frames block_peaks_within renders at once by default (the noise's frames across a stretch's
-/// edges are drawn twice: ~1% more noise work at this length, for a 256 kB buffer).
-inline constexpr std::size_t peak_stretch_frames = 64 * render_anchor_frames;
+/// Frames block_peaks_within renders at once by default, and the longest render whose partials
+/// it keeps from frames_within's pass (4 MB: a render up to ~22 s at 48 kHz is rendered once, as
+/// every real note; a longer one a stretch at a time, its partials twice, the noise's frames
+/// across a stretch's edges drawn twice).
+inline constexpr std::size_t peak_stretch_frames = 1024 * render_anchor_frames;
 /// stretch_frames: a multiple of render_anchor_frames (the figures do not depend on it).
 block_peaks block_peaks_within(const patch& p, const render_params& params, const render_bound& bound, double within_db,
                                std::size_t stretch_frames = peak_stretch_frames);

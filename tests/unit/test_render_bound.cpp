@@ -4,6 +4,8 @@
 // block, and no block's noise (the render less its partials alone) is louder than the noise's
 // bound there. The truncated render (render_while_within) is the full render's first frames bit
 // for bit, and every frame after them stays under the stated distance from the full render's peak.
+// Renders and noise draws made a stretch at a time equal the whole ones bit for bit, and the
+// streamed figures (block_peaks_within) equal those of the full render, held notes peaking late included.
 #include <catch2/catch.hpp>
 
 #include <algorithm>
