@@ -82,31 +82,38 @@ std::vector<std::vector<float>> leakage_levels_db(const std::vector<std::vector<
                                                   const std::vector<bool>& spread) {
     assert(leak.size() == level_db.size() && leak.size() == band_total_bins.size());
     assert(sources == leak_sources::all || spread.size() == leak.size());
-    // Each band's levels as powers, once (a band leaks into several).
-    std::vector<std::vector<double>> power_of(level_db.size());
-    for (std::size_t b = 0; b < level_db.size(); ++b) {
-        power_of[b].resize(level_db[b].size());
-        for (std::size_t i = 0; i < level_db[b].size(); ++i) power_of[b][i] = db_to_power(level_db[b][i]);
-    }
+    // Each band's levels as powers, once per frame (a band leaks into several), a block of frames
+    // at a time: the table for a whole long note was the noise model's largest buffer (17 MB on a
+    // 10-minute note, tools/bench_memory). The sums run over leak[b] in the same order as before.
+    constexpr std::size_t block_frames = 4096;
+    std::size_t frames = 0;
+    for (const auto& levels : level_db) frames = std::max(frames, levels.size());
+    std::vector<std::vector<double>> power_of(level_db.size(), std::vector<double>(std::min(frames, block_frames)));
     std::vector<std::vector<float>> out(leak.size());
-    for (std::size_t b = 0; b < leak.size(); ++b) {
-        out[b].assign(level_db[b].size(), no_leak_db);
-        for (std::size_t i = 0; i < level_db[b].size(); ++i) {
-            double power = 0.0;
-            for (const band_leak& l : leak[b]) {
-                if (i >= level_db[l.from].size()) continue;
-                const double ratio_k = static_cast<double>(band_total_bins[b]) / band_total_bins[l.from];
-                // n's density in b's band power (mean bin power times b's K, as b's level is).
-                const double from_power = power_of[l.from][i] * ratio_k;
-                if (sources == leak_sources::all) {
-                    power += l.coefficient * from_power;
-                } else if (sources == leak_sources::skirts) {
-                    if (!spread[l.from]) power += l.coefficient * from_power;
-                } else if (spread[l.from]) {
-                    power += l.coefficient * std::max(0.0, from_power - power_of[b][i]);
+    for (std::size_t b = 0; b < leak.size(); ++b) out[b].assign(level_db[b].size(), no_leak_db);
+    for (std::size_t first = 0; first < frames; first += block_frames) {
+        const std::size_t last = std::min(frames, first + block_frames);
+        for (std::size_t b = 0; b < level_db.size(); ++b)
+            for (std::size_t i = first; i < std::min(last, level_db[b].size()); ++i)
+                power_of[b][i - first] = db_to_power(level_db[b][i]);
+        for (std::size_t b = 0; b < leak.size(); ++b) {
+            for (std::size_t i = first; i < std::min(last, level_db[b].size()); ++i) {
+                double power = 0.0;
+                for (const band_leak& l : leak[b]) {
+                    if (i >= level_db[l.from].size()) continue;
+                    const double ratio_k = static_cast<double>(band_total_bins[b]) / band_total_bins[l.from];
+                    // n's density in b's band power (mean bin power times b's K, as b's level is).
+                    const double from_power = power_of[l.from][i - first] * ratio_k;
+                    if (sources == leak_sources::all) {
+                        power += l.coefficient * from_power;
+                    } else if (sources == leak_sources::skirts) {
+                        if (!spread[l.from]) power += l.coefficient * from_power;
+                    } else if (spread[l.from]) {
+                        power += l.coefficient * std::max(0.0, from_power - power_of[b][i - first]);
+                    }
                 }
+                if (power > 0.0) out[b][i] = std::max(no_leak_db, static_cast<float>(power_to_db(power)));
             }
-            if (power > 0.0) out[b][i] = std::max(no_leak_db, static_cast<float>(power_to_db(power)));
         }
     }
     return out;
