@@ -118,10 +118,6 @@ namespace {
 /// Partials rendered per step while looking for where a render stops mattering.
 constexpr std::size_t bounded_step_frames = 8 * render_anchor_frames;
 
-}  // namespace
-
-namespace {
-
 /// frames_within, leaving the partials of the frames it gives in kept when they are at most
 /// keep_frames and short of the end fade (else kept is empty): they need only the noise then.
 std::size_t frames_within_keeping(const patch& p, const render_params& params, const render_bound& bound, double within_db,
@@ -178,13 +174,6 @@ void add_block_peaks(std::span<const float> x, block_peaks& r) {
 std::size_t frames_within(const patch& p, const render_params& params, const render_bound& bound, double within_db) {
     std::vector<float> none;
     return frames_within_keeping(p, params, bound, within_db, 0, none);
-}
-
-std::vector<float> render_while_within(const patch& p, const render_params& params, const render_bound& bound,
-                                       double within_db) {
-    std::vector<float> out(frames_within(p, params, bound, within_db));
-    if (!out.empty()) partial_renderer(p, params).render_with_noise(p, params, 0, out);
-    return out;
 }
 
 block_peaks block_peaks_within(const patch& p, const render_params& params, const render_bound& bound, double within_db,

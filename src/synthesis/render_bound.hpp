@@ -78,15 +78,12 @@ struct loudness_blocks {
     std::size_t frames_reaching(double level) const;
 };
 
-/// The end of render_while_within's frames: no frame from it on comes within within_db of the
+/// Where a render stops mattering: no frame from it on comes within within_db of the
 /// render's peak (bound: render_bound(p, params)). The partials a step at a time until the bound
 /// of the rest falls under that level, then the blocks that can still reach it (partials plus the
 /// noise's bound); the whole render when those reach the end fade.
 std::size_t frames_within(const patch& p, const render_params& params, const render_bound& bound, double within_db);
 
-/// Frames [0, frames_within(...)) of render_patch(p, params), bit for bit.
-std::vector<float> render_while_within(const patch& p, const render_params& params, const render_bound& bound,
-                                       double within_db);
 
 /// Figures of frames [0, frames) of render_patch(p, params), frames = frames_within(...), made a
 /// stretch at a time (partial_renderer::render_with_noise, bit for bit) without holding them: the

@@ -2,7 +2,7 @@
 // the bound is worked out from the patch alone, never from samples): over a sweep of random
 // patches, rates and noise seeds (and a stereo channel's noise), no sample from a block on is louder than the bound from that
 // block, and no block's noise (the render less its partials alone) is louder than the noise's
-// bound there. The truncated render (render_while_within) is the full render's first frames bit
+// bound there. The truncated render (frames_within's frames, render_with_noise) is the full render's first frames bit
 // for bit, and every frame after them stays under the stated distance from the full render's peak.
 // Renders and noise draws made a stretch at a time equal the whole ones bit for bit, and the
 // streamed figures (block_peaks_within) equal those of the full render, held notes peaking late included.
@@ -102,7 +102,19 @@ TEST_CASE("render_bound: no sample of a full render exceeds the bound from its b
     }
 }
 
-TEST_CASE("render_while_within: the full render's first frames bit for bit, every later frame under the distance from its peak",
+namespace {
+
+/// Frames [0, frames_within(...)) of render_patch(p, params), rendered by render_with_noise.
+std::vector<float> render_while_within(const patch& p, const render_params& params, const render_bound& bound,
+                                       double within_db) {
+    std::vector<float> out(frames_within(p, params, bound, within_db));
+    if (!out.empty()) partial_renderer(p, params).render_with_noise(p, params, 0, out);
+    return out;
+}
+
+}  // namespace
+
+TEST_CASE("frames_within: the full render's first frames bit for bit, every later frame under the distance from its peak",
           "[render_bound]") {
     const auto seed = GENERATE(range(std::uint64_t{1}, std::uint64_t{13}));
     const double rate_hz = GENERATE(48000.0, 44100.0);
@@ -119,7 +131,7 @@ TEST_CASE("render_while_within: the full render's first frames bit for bit, ever
     CHECK(rest < peak * std::pow(10.0, -within_db / 20.0));
 }
 
-TEST_CASE("render_while_within stops early on a note that falls far under its peak", "[render_bound]") {
+TEST_CASE("frames_within stops early on a note that falls far under its peak", "[render_bound]") {
     // One partial at -6 dB falling 60 dB in 0.2 s over a 2 s note, a faint noise band: past
     // ~0.1 s (30 dB down with the noise) nothing can come within 6 dB of the peak.
     patch p;
