@@ -16,6 +16,7 @@
 
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
+#include "pitch/root.hpp"
 #include "tracking/track.hpp"
 
 namespace wane {
@@ -24,8 +25,8 @@ struct heard_peak_params {
     /// The span: 0.1 s to 1.1 s after the onset; a note shorter than span_end_s + 0.1 s uses
     /// short_start_s to its end (the span the real notes' README measures f0 over; common
     /// practice: after the strike's transient, where a plucked or struck note's pitch is heard).
-    double span_start_s = 0.1;
-    double span_s = 1.0;
+    double span_start_s = heard_span_start_s;  // the heard span's one home: pitch/root.hpp
+    double span_s = heard_span_s;
     double short_start_s = 0.05;
     double min_span_s = 0.25;       ///< shorter: nothing is moved
     /// How far a partial may move, in main-lobe half-widths (2 / T Hz for a Hann window over T s):

@@ -61,7 +61,8 @@ root_estimate find_root(std::span<const root_mode> modes, double series_f0_hz, b
 /// (analysis/heard_peaks) and the real notes' README measures f0 over (common practice: after the
 /// strike's transient, where a plucked or struck note's pitch is heard).
 inline constexpr double heard_span_start_s = 0.1;
-inline constexpr double heard_span_end_s = 1.1;
+inline constexpr double heard_span_s = 1.0;
+inline constexpr double heard_span_end_s = heard_span_start_s + heard_span_s;  // 1.1, the same double
 
 /// Mean level of an envelope over the heard span, dBFS: 10 log10 of the mean of amp^2 at 101
 /// times 10 ms apart over [heard_span_start_s, heard_span_end_s] (the envelope's decay run on past

@@ -27,7 +27,7 @@ std::int64_t detect_onset(std::span<const float> samples, double sample_rate_hz,
     // The quiet level from the loudest block on: noise runs under the note, so the note's tail
     // (or the noise it decays into) bounds it from above, and silence or room noise before the
     // note cannot lower it; over the whole file a lead-in did, the threshold fell with it and the
-    // onset moved up to 4 ms early (tests/unit/test_tracking.cpp, the padded pluck).
+    // onset moved up to 4 ms early (tests/unit/test_onset_lead.cpp, the pluck after room noise).
     std::vector<double> sorted(peak_it, energy_db.end());
     const auto q = static_cast<std::size_t>(params.quiet_quantile * double(sorted.size() - 1));
     std::nth_element(sorted.begin(), sorted.begin() + q, sorted.end());
