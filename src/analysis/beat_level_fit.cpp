@@ -126,11 +126,12 @@ std::optional<beat_level_fit> fit_beat_levels(std::span<const double> time_s, st
     };
     std::vector<start> starts;
     const double first_hz = std::max(params.min_beats / span_s, params.beat_step_hz);
-    for (double f = first_hz; f <= params.max_beat_hz; f += params.beat_step_hz)
+    const auto rates = static_cast<int>(std::floor((params.max_beat_hz - first_hz) / params.beat_step_hz + 1e-9)) + 1;
+    for (int j = 0; j < rates; ++j)
         for (int k = 0; k < params.phase_steps; ++k)
             for (const double rho : {-1.0, 0.0, 1.0}) {
                 vec6 p;
-                p << 0.0, 0.0, std::log(0.3), rho, f, two_pi * k / params.phase_steps;
+                p << 0.0, 0.0, std::log(0.3), rho, first_hz + j * params.beat_step_hz, two_pi * k / params.phase_steps;
                 solve_line(x, p);
                 const double c = refine(x, p, params.scout_iterations);
                 starts.push_back({.p = p, .cost = c});
