@@ -111,9 +111,15 @@ std::optional<beat_level_fit> fit_beat_levels(std::span<const double> time_s, st
     constexpr std::size_t min_points = 12;
     if (time_s.size() < min_points) return std::nullopt;
     const double span_s = time_s.back() - time_s.front();
-    std::vector<double> tau(time_s.size());
-    for (std::size_t i = 0; i < tau.size(); ++i) tau[i] = time_s[i] - time_s.front();
-    const points x{.tau = tau, .level = level_db};
+    // The points read: each at least point_spacing_s after the last one kept.
+    std::vector<double> tau, level;
+    for (std::size_t i = 0; i < time_s.size(); ++i)
+        if (tau.empty() || time_s[i] - time_s.front() >= tau.back() + params.point_spacing_s - 1e-9) {
+            tau.push_back(time_s[i] - time_s.front());
+            level.push_back(level_db[i]);
+        }
+    if (tau.size() < min_points) return std::nullopt;
+    const points x{.tau = tau, .level = level};
     const auto n = static_cast<double>(tau.size());
     vec6 line = vec6::Zero();
     line(p_u) = -max_log_ratio;  // no second mode

@@ -24,9 +24,12 @@ struct beat_level_params {
     /// ... up to this rate, Hz. Reasoned choice: a faster beat is a few track frames (10 ms hops
     /// of a 40 ms window) per period, smoothed away by the window.
     double max_beat_hz = 4.0;
-    double beat_step_hz = 0.1;  ///< grid step of f_b for the starts
-    int phase_steps = 6;        ///< grid steps of phi over one turn
-    int scout_iterations = 6;   ///< Levenberg-Marquardt steps from every grid point ...
+    /// The points read are at least this far apart, seconds (the track's 10 ms frames thinned: a
+    /// 4 Hz beat keeps 12 points per period; the fit's cost is in the points).
+    double point_spacing_s = 0.02;
+    double beat_step_hz = 0.2;  ///< grid step of f_b for the starts
+    int phase_steps = 4;        ///< grid steps of phi over one turn
+    int scout_iterations = 4;   ///< Levenberg-Marquardt steps from every grid point ...
     int starts_refined = 4;     ///< ... then the best this many go on
     int max_iterations = 60;    ///< ... for up to this many steps
     /// Accepted when the fit's RMS error is at most this (dB) ...
