@@ -29,9 +29,13 @@ constexpr double render_margin_s = 2.0 * end_fade_s;
 /// The partials of q alone (or of the whole patch when q is null) over the first `count` frames,
 /// as the renderer plays them (note gain and band limit included).
 std::vector<double> render_start(const patch& p, const partial* q, double rate_hz, std::size_t count) {
-    patch one = p;
-    one.noise.clear();
-    if (q) one.partials = {*q};
+    // The partials wanted alone (no copy of the others, nor of the noise).
+    patch one{.version = p.version, .note = p.note, .source = p.source, .partials = {}, .noise = {}};
+    if (q) {
+        one.partials = {*q};
+    } else {
+        one.partials = p.partials;
+    }
     one.note.length_s = static_cast<double>(count) / rate_hz + render_margin_s;
     const partial_renderer r(one, {.sample_rate_hz = rate_hz, .include_noise = false});
     std::vector<float> y(count);
