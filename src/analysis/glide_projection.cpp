@@ -120,9 +120,15 @@ std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms&
 
 }  // namespace
 
-heterodyned heterodyne(std::span<const double> y, double freq_hz, double rate_hz) {
-    heterodyned z{.re = std::vector<double>(y.size()), .im = std::vector<double>(y.size())};
+void heterodyne_into(std::span<const double> y, double freq_hz, double rate_hz, heterodyned& z) {
+    z.re.resize(y.size());
+    z.im.resize(y.size());
     heterodyne(y.data(), y.size(), freq_hz / rate_hz, z.re.data(), z.im.data());
+}
+
+heterodyned heterodyne(std::span<const double> y, double freq_hz, double rate_hz) {
+    heterodyned z;
+    heterodyne_into(y, freq_hz, rate_hz, z);
     return z;
 }
 
