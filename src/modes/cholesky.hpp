@@ -1,0 +1,22 @@
+// The Cholesky factor of the modes' least-squares systems (modes/damped_mode.hpp: the Gram
+// matrices of fit_shaped_amplitudes, factor_plain_gram and sliding_fit_residuals, up to 2K x 2K
+// for K modes), in place: A = L L^T with L lower triangular.
+//
+// Blocked by columns (block_n at a time, as LAPACK's dpotrf): the block's diagonal part is
+// factored column by column, the rows below it solved against that (Eigen's triangular solve),
+// and the trailing matrix updated by the block's rank-block_n product, lower triangle only. That
+// update is nearly all of the work (n^3 / 6 multiply-adds); it runs on modes/tile_products.hpp
+// (tiles of four-double lanes, an AVX2 clone and the baseline with the same bits). The result
+// equals Eigen's LLT up to rounding (tests/unit/test_cholesky.cpp).
+#pragma once
+
+#include <Eigen/Core>
+
+namespace wane {
+
+/// In place: the lower triangle of the symmetric positive definite a (only the lower triangle is
+/// read) becomes L with A = L L^T; the strict upper triangle is left as it was. False when a pivot
+/// is not positive (a is then partly overwritten), as Eigen::LLT's NumericalIssue.
+bool cholesky_in_place(Eigen::Ref<Eigen::MatrixXd> a);
+
+}  // namespace wane
