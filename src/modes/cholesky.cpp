@@ -57,4 +57,33 @@ bool cholesky_in_place(Eigen::Ref<Eigen::MatrixXd> a) {
     return true;
 }
 
+void solve_lower_in_place(const Eigen::Ref<const Eigen::MatrixXd>& l, Eigen::Ref<Eigen::MatrixXd> b) {
+    const Eigen::Index n = l.rows(), cols = b.cols();
+    const std::size_t cols_pad = (static_cast<std::size_t>(cols) + product_tile_cols - 1) / product_tile_cols * product_tile_cols;
+    std::vector<double> packed_l, packed_x;
+    for (Eigen::Index r0 = 0; r0 < n; r0 += block_n) {
+        const Eigen::Index nb = std::min(block_n, n - r0), rest = n - r0 - nb;
+        // The block's rows: forward substitution (their dependence on earlier blocks already taken off).
+        for (Eigen::Index j = 0; j < cols; ++j)
+            for (Eigen::Index i = 0; i < nb; ++i) {
+                double s = b(r0 + i, j);
+                for (Eigen::Index k = 0; k < i; ++k) s -= l(r0 + i, r0 + k) * b(r0 + k, j);
+                b(r0 + i, j) = s / l(r0 + i, r0 + i);
+            }
+        if (rest == 0) break;
+        // The rows below: B2 -= L21 X1, L21 packed with padded rows, X1 transposed.
+        const auto m = static_cast<std::size_t>(rest), depth = static_cast<std::size_t>(nb);
+        const std::size_t rows_pad = (m + product_tile_rows - 1) / product_tile_rows * product_tile_rows;
+        packed_l.assign(rows_pad * depth, 0.0);
+        packed_x.assign(cols_pad * depth, 0.0);
+        for (Eigen::Index k = 0; k < nb; ++k) {
+            for (Eigen::Index i = 0; i < rest; ++i) packed_l[static_cast<std::size_t>(k) * rows_pad + static_cast<std::size_t>(i)] = l(r0 + nb + i, r0 + k);
+            for (Eigen::Index j = 0; j < cols; ++j) packed_x[static_cast<std::size_t>(k) * cols_pad + static_cast<std::size_t>(j)] = b(r0 + k, j);
+        }
+        subtract_products(&b(r0 + nb, 0), static_cast<std::size_t>(b.outerStride()),
+                          {.a = packed_l.data(), .a_rows = rows_pad, .b = packed_x.data(), .b_rows = cols_pad, .depth = depth}, m,
+                          static_cast<std::size_t>(cols), false);
+    }
+}
+
 }  // namespace wane

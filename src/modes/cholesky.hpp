@@ -19,4 +19,9 @@ namespace wane {
 /// is not positive (a is then partly overwritten), as Eigen::LLT's NumericalIssue.
 bool cholesky_in_place(Eigen::Ref<Eigen::MatrixXd> a);
 
+/// In place: b <- L^-1 b for the lower triangle L of l (n x n, a factor of cholesky_in_place) and
+/// b (n x any columns): blocked as the factor (each block's rows by forward substitution, the rows
+/// below updated by tile_products). Equals Eigen's triangular solve up to rounding.
+void solve_lower_in_place(const Eigen::Ref<const Eigen::MatrixXd>& l, Eigen::Ref<Eigen::MatrixXd> b);
+
 }  // namespace wane

@@ -436,7 +436,7 @@ std::vector<double> sliding_fit_residuals(std::span<const float> x, double sampl
             }
         }
         auto part = rhs.leftCols(static_cast<Eigen::Index>(cols));
-        if (solved) lower.triangularView<Eigen::Lower>().solveInPlace(part);
+        if (solved) solve_lower_in_place(lower, part);
         for (std::size_t s = first; s < first + cols; ++s) {
             out[s] = std::max(0.0, out[s] - (solved ? part.col(static_cast<Eigen::Index>(s - first)).squaredNorm() : 0.0));
             least_cost = std::min(least_cost, before + out[s]);

@@ -1,5 +1,5 @@
 // Sums of products of two column-major panels, c(i, j) -= sum_k a(i, k) b(j, k), in tiles of
-// 8 rows x 4 columns held in four-double lanes: the bulk of the modes' Cholesky factors
+// 8 rows x 6 columns held in four-double lanes: the bulk of the modes' Cholesky factors
 // (modes/cholesky.hpp: the trailing update, lower triangle only) and of the subband filter's
 // outputs (modes/subband_modes.hpp: segment rows times the bands' tap columns).
 //
@@ -14,7 +14,7 @@ namespace wane {
 
 /// Rows of a (and of c's tiles) come in multiples of this, columns of b in multiples of product_tile_cols:
 /// the panels are padded with zeros up to them.
-inline constexpr std::size_t product_tile_rows = 8, product_tile_cols = 4;
+inline constexpr std::size_t product_tile_rows = 8, product_tile_cols = 6;
 
 struct product_panels {
     const double* a = nullptr;  ///< a(i, k) at a[k * a_rows + i], i < a_rows (padded: a multiple of product_tile_rows)
