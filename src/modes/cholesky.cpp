@@ -2,9 +2,11 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <vector>
 
 #include "modes/tile_products.hpp"
+#include "synthesis/kernel_clones.hpp"
 
 namespace wane {
 
@@ -33,6 +35,65 @@ bool factor_diagonal_block(Eigen::Ref<Eigen::MatrixXd> a) {
     return true;
 }
 
+/// Four doubles side by side (GCC/Clang vector extension): one AVX register, two SSE2 ones.
+using lanes = double __attribute__((vector_size(32)));
+constexpr std::size_t lane_n = 4;
+
+/// The rows below a factored diagonal block: A21 <- A21 L11^-T, column by column, for each row
+/// a(i, j) = (a(i, j) - sum_{k < j} a(i, k) l(j, k)) / l(j, j), the sum over k in order; rows
+/// (a multiple of lane_n of them, the rest by the caller) eight at a time in two lanes, four in
+/// one. a: rows x b (leading dimension lda), l: b x b (leading dimension ldl). Compiled for AVX2
+/// and the baseline (no FMA, the same bits).
+WANE_KERNEL_CLONES
+void solve_panel_rows(double* __restrict a, std::size_t lda, std::size_t rows, const double* __restrict l, std::size_t ldl,
+                      std::size_t b) {
+    std::size_t i0 = 0;
+    for (; i0 + 2 * lane_n <= rows; i0 += 2 * lane_n) {
+        for (std::size_t j = 0; j < b; ++j) {
+            lanes s0, s1;
+            std::memcpy(&s0, a + j * lda + i0, sizeof s0), std::memcpy(&s1, a + j * lda + i0 + lane_n, sizeof s1);
+            for (std::size_t k = 0; k < j; ++k) {
+                lanes x0, x1;
+                std::memcpy(&x0, a + k * lda + i0, sizeof x0), std::memcpy(&x1, a + k * lda + i0 + lane_n, sizeof x1);
+                const double f = l[k * ldl + j];
+                s0 -= x0 * f, s1 -= x1 * f;
+            }
+            const double d = l[j * ldl + j];
+            s0 /= d, s1 /= d;
+            std::memcpy(a + j * lda + i0, &s0, sizeof s0), std::memcpy(a + j * lda + i0 + lane_n, &s1, sizeof s1);
+        }
+    }
+    for (; i0 + lane_n <= rows; i0 += lane_n) {
+        for (std::size_t j = 0; j < b; ++j) {
+            lanes s0;
+            std::memcpy(&s0, a + j * lda + i0, sizeof s0);
+            for (std::size_t k = 0; k < j; ++k) {
+                lanes x0;
+                std::memcpy(&x0, a + k * lda + i0, sizeof x0);
+                s0 -= x0 * l[k * ldl + j];
+            }
+            s0 /= l[j * ldl + j];
+            std::memcpy(a + j * lda + i0, &s0, sizeof s0);
+        }
+    }
+}
+
+/// solve_panel_rows on every row of the panel a (rows x b, below the block l): the last rows
+/// (fewer than four) one at a time, the same arithmetic.
+void solve_panel(Eigen::Ref<Eigen::MatrixXd> a, const Eigen::Ref<const Eigen::MatrixXd>& l) {
+    const auto rows = static_cast<std::size_t>(a.rows()), b = static_cast<std::size_t>(a.cols());
+    const std::size_t vector_rows = rows / lane_n * lane_n;
+    solve_panel_rows(a.data(), static_cast<std::size_t>(a.outerStride()), vector_rows, l.data(),
+                     static_cast<std::size_t>(l.outerStride()), b);
+    for (std::size_t i = vector_rows; i < rows; ++i)
+        for (std::size_t j = 0; j < b; ++j) {
+            const auto row = static_cast<Eigen::Index>(i), col = static_cast<Eigen::Index>(j);
+            double s = a(row, col);
+            for (Eigen::Index k = 0; k < col; ++k) s -= a(row, k) * l(col, k);
+            a(row, col) = s / l(col, col);
+        }
+}
+
 }  // namespace
 
 bool cholesky_in_place(Eigen::Ref<Eigen::MatrixXd> a) {
@@ -43,7 +104,7 @@ bool cholesky_in_place(Eigen::Ref<Eigen::MatrixXd> a) {
         if (!factor_diagonal_block(a.block(k0, k0, b, b))) return false;
         if (rest == 0) break;
         // The rows below: A21 <- A21 L11^-T.
-        a.block(k0, k0, b, b).transpose().triangularView<Eigen::Upper>().solveInPlace<Eigen::OnTheRight>(a.block(k0 + b, k0, rest, b));
+        solve_panel(a.block(k0 + b, k0, rest, b), a.block(k0, k0, b, b));
         // The trailing matrix: A22 -= A21 A21^T (lower triangle), A21 packed with padded rows.
         const auto m = static_cast<std::size_t>(rest);
         const std::size_t rows_pad = (m + product_tile_rows - 1) / product_tile_rows * product_tile_rows;
