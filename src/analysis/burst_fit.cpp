@@ -141,16 +141,20 @@ struct framed_burst {
     }
 
 private:
-    /// The power of a frame not wholly in the decay (db()'s point by point sum, as a power).
+    /// The power of a frame not wholly in the decay (db()'s point by point sum, as a power: the
+    /// same products and sums in the same order, the first decay point's exp taken out of the loop).
     [[nodiscard]] double frame_power(double centre_s, const head& h) const {
-        const double decay_from_s = attack_s + hold_s;
-        const double start_s = centre_s - 0.5 * window_s;
         double weighted = h.weighted;
-        double decay = -1.0;
-        for (std::size_t j = h.first_decay; j < wp->x.size(); ++j) {
-            const double t = start_s + wp->x[j] * window_s;
-            decay = decay < 0.0 ? std::exp(-rate_per_s * (t - decay_from_s)) : decay * step;
-            weighted += wp->w2[j] * decay;
+        const std::size_t n = wp->x.size();
+        if (h.first_decay < n) {
+            const double decay_from_s = attack_s + hold_s;
+            const double t = centre_s - 0.5 * window_s + wp->x[h.first_decay] * window_s;
+            double decay = std::exp(-rate_per_s * (t - decay_from_s));
+            weighted += wp->w2[h.first_decay] * decay;
+            for (std::size_t j = h.first_decay + 1; j < n; ++j) {
+                decay *= step;
+                weighted += wp->w2[j] * decay;
+            }
         }
         return weighted > 0.0 ? weighted / wp->total : 0.0;
     }

@@ -78,7 +78,7 @@ constexpr double bound_margin = 1e-9;
 /// S(c0, tau) from the block sums (onset_glide.hpp): sum_b e^(-j g_b) (Z_b - j g'_b Z1_b) with
 /// g_b = f (G - R(t_b)) / f and g'_b = 2 pi f / fs times the excess (per frame); none once it is
 /// clear that |S|^2 < floor_norm. The blocks are summed in order, bound_chunk_blocks at a time;
-/// after each stretch |S| <= |sum so far| + sum over the blocks left of (|Z_b| + |g'_b| |Z1_b|),
+/// before the first and after each stretch |S| <= |sum so far| + sum over the blocks left of (|Z_b| + |g'_b| |Z1_b|),
 /// |g'_b| there at most its value at the first block left (the excess shrinks with the decay):
 /// the tail sums once per partial (block_sums::tail_z) bound every candidate's rest.
 std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz,
@@ -90,6 +90,13 @@ std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms&
     double* sin_g = scratch.data();
     double* cos_g = scratch.data() + count;
     const double rad_per_frame = two_pi * freq_hz / rate_hz;
+    // The bound before any block is summed: the blocks' magnitudes alone (tail sums from 0).
+    if (floor_norm > 0.0 && count > 0) {
+        fill_terms(t, 1);
+        const double bound = s.tail_z[0] + std::abs(rad_per_frame * t.excess[0]) * s.tail_z1[0];
+        const double padded = bound * (1.0 + bound_margin);
+        if (padded * padded < floor_norm) return std::nullopt;
+    }
     double re = 0.0, im = 0.0;
     for (std::size_t b0 = 0; b0 < count; b0 += bound_chunk_blocks) {
         const std::size_t b1 = std::min(count, b0 + bound_chunk_blocks);
@@ -113,9 +120,15 @@ std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms&
 
 }  // namespace
 
-heterodyned heterodyne(std::span<const double> y, double freq_hz, double rate_hz) {
-    heterodyned z{.re = std::vector<double>(y.size()), .im = std::vector<double>(y.size())};
+void heterodyne_into(std::span<const double> y, double freq_hz, double rate_hz, heterodyned& z) {
+    z.re.resize(y.size());
+    z.im.resize(y.size());
     heterodyne(y.data(), y.size(), freq_hz / rate_hz, z.re.data(), z.im.data());
+}
+
+heterodyned heterodyne(std::span<const double> y, double freq_hz, double rate_hz) {
+    heterodyned z;
+    heterodyne_into(y, freq_hz, rate_hz, z);
     return z;
 }
 

@@ -37,6 +37,9 @@ struct heterodyned {
 
 /// y heterodyned by freq_hz (freq_hz / rate_hz in [0, 0.5]).
 heterodyned heterodyne(std::span<const double> y, double freq_hz, double rate_hz);
+/// The same into z, whose buffers are reused (resized to y's length: nothing is allocated or
+/// cleared when they have it already).
+void heterodyne_into(std::span<const double> y, double freq_hz, double rate_hz, heterodyned& z);
 
 /// The block sums with a = 1 (flat), from z, with their tail sums.
 block_sums sum_flat(const heterodyned& z, double rate_hz, std::size_t block);

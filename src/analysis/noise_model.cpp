@@ -181,7 +181,8 @@ std::vector<bool> spread_bands(const band_plan& plan, std::span<const double> pa
 /// (attack_s = 0), and the recording itself. The partials' true rise is known only to a frame, and
 /// what a wrong rise leaves of a partial is a broadband click; and a residual louder than the
 /// recording is the subtraction's error, not noise. The bands take, frame by frame, the lowest of
-/// the levels: what neither rise explains, and never more than was recorded.
+/// the levels: what neither rise explains, and never more than was recorded (over the first
+/// recording_cap_span_s: later the subtraction's error stands under the floor on the notes measured).
 std::vector<noise_band> model_from(std::size_t total, std::span<const timed_source> sources,
                                    double sample_rate_hz, std::span<const double> partial_freqs_hz, double f0_hz,
                                    double loudest_partial_db, const noise_model_params& params) {
@@ -268,7 +269,7 @@ std::vector<noise_band> fit_noise_bands(std::span<const float> residual, double 
     const residual_source original = [&](std::size_t first, std::span<float> dest) {
         std::copy_n(recording.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
     };
-    const timed_source both[] = {{.read = &source}, {.read = &original}};
+    const timed_source both[] = {{.read = &source}, {.read = &original, .until_s = params.recording_cap_span_s}};
     const auto sources = std::span<const timed_source>(both).first(recording.empty() ? 1 : 2);
     return model_from(residual.size(), sources, sample_rate_hz, partial_freqs_hz, 0.0, loudest_partial_db, params);
 }
@@ -318,7 +319,7 @@ std::vector<noise_band> fit_note_noise(std::span<const float> note, double sampl
     // it drops (on none without one: the two residuals are then the same).
     const double abrupt_until_s =
         longest_removed_s > 0.0 ? longest_removed_s + floor_window_s(freqs_hz, p.note.f0_hz, params) : 0.0;
-    const timed_source sources[] = {{.read = &source}, {.read = &abrupt, .until_s = abrupt_until_s}, {.read = &recording}};
+    const timed_source sources[] = {{.read = &source}, {.read = &abrupt, .until_s = abrupt_until_s}, {.read = &recording, .until_s = params.recording_cap_span_s}};
     return model_from(note.size(), sources, sample_rate_hz, freqs_hz, p.note.f0_hz, loudest_db, params);
 }
 

@@ -29,9 +29,13 @@ constexpr double render_margin_s = 2.0 * end_fade_s;
 /// The partials of q alone (or of the whole patch when q is null) over the first `count` frames,
 /// as the renderer plays them (note gain and band limit included).
 std::vector<double> render_start(const patch& p, const partial* q, double rate_hz, std::size_t count) {
-    patch one = p;
-    one.noise.clear();
-    if (q) one.partials = {*q};
+    // The partials wanted alone (no copy of the others, nor of the noise).
+    patch one{.version = p.version, .note = p.note, .source = p.source, .partials = {}, .noise = {}};
+    if (q) {
+        one.partials = {*q};
+    } else {
+        one.partials = p.partials;
+    }
     one.note.length_s = static_cast<double>(count) / rate_hz + render_margin_s;
     const partial_renderer r(one, {.sample_rate_hz = rate_hz, .include_noise = false});
     std::vector<float> y(count);
@@ -109,11 +113,11 @@ bool is_short_lived(const partial& q, const onset_glide_params& params) {
 /// The glide of partial q on y (q's partial alone plus what the copy leaves), when it is kept
 /// (onset_glide.hpp): the search with a = 1, C with a = q's envelope. min_extra: the energy the
 /// glide must explain more than no glide (0: none asked); a coarse best short of half of it is
-/// not refined (the fine grid moves a best by under a coarse step).
+/// not refined (the fine grid moves a best by under a coarse step). z: work space, reused.
 std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, double gain_lin, double rate_hz,
                                    std::size_t block, const onset_glide_params& params, std::optional<coarse_grid>& grid,
-                                   double min_extra) {
-    const heterodyned z = heterodyne(y, q.freq_hz, rate_hz);
+                                   double min_extra, heterodyned& z) {
+    heterodyne_into(y, q.freq_hz, rate_hz, z);
     const block_sums flat = sum_flat(z, rate_hz, block);
     if (!(flat.amp_energy > 0.0)) return std::nullopt;
     const glide_fit none = evaluate(flat, q.freq_hz, 0.0, 0.0, rate_hz);
@@ -219,6 +223,8 @@ onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, doub
     std::size_t tried = 0;
     std::size_t tried_short_lived = 0;  // past the max_partials strongest
     std::optional<coarse_grid> grid;    // made at the first partial tried
+    std::vector<double> y(count);       // each partial's target, the buffers reused
+    heterodyned z;
     for (const std::size_t k : order) {
         if (start_db(k) < strongest_db - params.range_db || tried_short_lived == params.max_short_lived_partials) break;
         partial& q = p.partials[k];
@@ -232,10 +238,9 @@ onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, doub
             continue;
         }
         const std::vector<double> own = render_start(p, &q, sample_rate_hz, count);
-        std::vector<double> y(count);
         for (std::size_t n = 0; n < count; ++n) y[n] = static_cast<double>(note[n]) - copy[n] + own[n];
         const double min_extra = past_strongest ? params.min_short_lived_extra * signal : 0.0;
-        const auto fit = fit_glide(y, q, gain_lin, sample_rate_hz, block, params, grid, min_extra);
+        const auto fit = fit_glide(y, q, gain_lin, sample_rate_hz, block, params, grid, min_extra, z);
         if (!fit) continue;
         const glide_fit& best = *fit;
         const partial p_before_glide = q;

@@ -95,10 +95,9 @@ double largest_magnitude(const cmatrix& a) {
 /// rescaled. ok is false when y is too short or the decomposition failed.
 struct decomposition {
     Eigen::Index dim = 0;
-    Eigen::Tridiagonalization<cmatrix> tri;  ///< without vectors (esprit_poles_by_order)
-    hermitian_tridiagonal own;               ///< with vectors (esprit_poles)
+    hermitian_tridiagonal own;               ///< R / scale = Q T Q^H
     Eigen::MatrixXd vectors;                 ///< with vectors: T's eigenvectors (tridiagonal_eigen)
-    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig;
+    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig;  ///< without vectors: T's eigenvalues
     Eigen::VectorXd values;
     bool ok = false;
 };
@@ -124,36 +123,43 @@ void decompose(std::span<const std::complex<double>> y, int dimension, decomposi
     // The eigen-decomposition as Eigen's SelfAdjointEigenSolver makes it (R scaled to a largest
     // entry of 1, Householder tridiagonalization R = Q T Q^H with T real, implicit QR steps on T),
     // with the QR's rotations gathered in a real matrix V (T = V D V^T) and only the wanted
-    // columns of Q V formed below: the eigenvectors of R are the columns of Q V. With vectors, the
-    // tridiagonalization and Q are modes/hermitian_tridiagonal.hpp's; without, Eigen's.
+    // columns of Q V formed below: the eigenvectors of R are the columns of Q V. The
+    // tridiagonalization and Q are modes/hermitian_tridiagonal.hpp's; without vectors, T's
+    // eigenvalues alone (Eigen's computeFromTridiagonal).
     double scale = largest_magnitude(cov);
     if (!(scale > 0.0)) scale = 1.0;
+    const auto size = static_cast<std::size_t>(dim * dim);
+    std::vector<double> re(size), im(size);
+    for (std::size_t k = 0; k < size; ++k) re[k] = cov(static_cast<Eigen::Index>(k)).real() / scale, im[k] = cov(static_cast<Eigen::Index>(k)).imag() / scale;
+    out.own = tridiagonalize(std::move(re), std::move(im), static_cast<std::size_t>(dim));
     if (vectors) {
-        const auto size = static_cast<std::size_t>(dim * dim);
-        std::vector<double> re(size), im(size);
-        for (std::size_t k = 0; k < size; ++k) re[k] = cov(static_cast<Eigen::Index>(k)).real() / scale, im[k] = cov(static_cast<Eigen::Index>(k)).imag() / scale;
-        out.own = tridiagonalize(std::move(re), std::move(im), static_cast<std::size_t>(dim));
         if (!tridiagonal_eigen(out.own.diag, out.own.sub, out.values, out.vectors)) return;
         out.values *= scale;  // ascending
     } else {
-        out.tri.compute(cov / scale);
-        out.eig.computeFromTridiagonal(out.tri.diagonal(), out.tri.subDiagonal(), Eigen::EigenvaluesOnly);
+        out.eig.computeFromTridiagonal(out.own.diag, out.own.sub, Eigen::EigenvaluesOnly);
         if (out.eig.info() != Eigen::Success) return;
         out.values = out.eig.eigenvalues() * scale;  // ascending
     }
     out.ok = out.values(dim - 1) > 0.0;
 }
 
-/// The poles of the subspace of the `order` largest eigenvalues (0 < order < dim).
-std::vector<std::complex<double>> poles_of_order(const decomposition& dec, int order) {
+/// Q v, the eigenvectors of R for T's eigenvectors v (dim x cols).
+cmatrix basis_of(const decomposition& dec, const Eigen::MatrixXd& v) {
     std::vector<double> u_re, u_im;
-    apply_q(dec.own, dec.vectors.rightCols(order), u_re, u_im);
-    cmatrix u(dec.dim, order);
+    apply_q(dec.own, v, u_re, u_im);
+    const Eigen::Index cols = v.cols();
+    cmatrix u(dec.dim, cols);
     for (Eigen::Index r = 0; r < dec.dim; ++r)
-        for (Eigen::Index c = 0; c < order; ++c) {
-            const auto at = static_cast<std::size_t>(r * order + c);
+        for (Eigen::Index c = 0; c < cols; ++c) {
+            const auto at = static_cast<std::size_t>(r * cols + c);
             u(r, c) = {u_re[at], u_im[at]};
         }
+    return u;
+}
+
+/// The poles of the subspace of the `order` largest eigenvalues (0 < order < dim).
+std::vector<std::complex<double>> poles_of_order(const decomposition& dec, int order) {
+    const cmatrix u = basis_of(dec, dec.vectors.rightCols(order));
     const cmatrix phi = rotation(u);
     return complex_eigenvalues(std::span(phi.data(), static_cast<std::size_t>(phi.size())), static_cast<std::size_t>(order));
 }
@@ -248,11 +254,10 @@ std::vector<std::vector<std::complex<double>>> esprit_poles_by_order(std::span<c
     decompose(y, dimension, dec, false);
     if (!dec.ok || max_order < 1) return out;
     // The eigenvectors of the largest orders once (order r's basis is the last r of them): T's by
-    // inverse iteration, then Q applied to each alone (Eigen's unblocked reflections).
+    // inverse iteration, then Q applied to them (hermitian_tridiagonal's reflections).
     const int widest = std::min(max_order, static_cast<int>(dec.dim) - 1);
-    const Eigen::MatrixXd v = top_tridiagonal_vectors(dec.tri.diagonal(), dec.tri.subDiagonal(), dec.eig.eigenvalues(), widest);
-    cmatrix u(dec.dim, widest);
-    for (Eigen::Index c = 0; c < widest; ++c) u.col(c) = dec.tri.matrixQ() * v.col(c).cast<std::complex<double>>();
+    const Eigen::MatrixXd v = top_tridiagonal_vectors(dec.own.diag, dec.own.sub, dec.eig.eigenvalues(), widest);
+    const cmatrix u = basis_of(dec, v);
     for (int order = 1; order <= max_order; ++order) {
         const int r = std::min(order, widest);
         const cmatrix phi = rotation(u.rightCols(r));
