@@ -225,11 +225,38 @@ std::vector<std::size_t> partial_like_peaks(const span_spectrum& s, const heard_
     return peaks;
 }
 
+/// The narrow band around freq_hz as a track: one point per band sample from t = 0 to note_s,
+/// level of A cos (A = 2 |y|), phase of cos at freq_hz, floor a quantile of the band's level.
+partial_track band_track(const note_spectrum& spectrum, double freq_hz, double half_width_hz, double note_s,
+                         const heard_peak_params& params) {
+    const narrowband b = spectrum.band(freq_hz, half_width_hz, params.band_rate_hz);
+    partial_track t;
+    if (b.y.empty()) return t;
+    const auto count = std::min(b.y.size(), static_cast<std::size_t>(note_s * b.sample_rate_hz));
+    std::vector<double> levels;
+    for (std::size_t m = 0; m < count; ++m) {
+        const double time_s = static_cast<double>(m) / b.sample_rate_hz;
+        const double level = to_level(amp_lin{2.0 * std::abs(b.y[m]) + 1e-30}).db;
+        // y = (A / 2) exp(i (phi + 2 pi (f - f_c) t)): the phase of cos at f, at t.
+        const double phase = std::arg(b.y[m]) + two_pi * (b.centre_hz - freq_hz) * time_s;
+        t.points.push_back({.time_s = time_s, .freq_hz = freq_hz, .level_db = level,
+                            .phase_rad = std::remainder(phase, two_pi), .floor_db = 0.0});
+        levels.push_back(level);
+    }
+    if (levels.empty()) return t;
+    const auto q = levels.begin() + static_cast<std::ptrdiff_t>(params.floor_quantile * static_cast<double>(levels.size() - 1));
+    std::nth_element(levels.begin(), q, levels.end());
+    for (track_point& pt : t.points) pt.floor_db = *q;
+    return t;
+}
+
+}  // namespace
+
 /// The envelope of two components heard as one: the earlier one's (smaller attack_s) until the
 /// later one is first louder, then the later one's (its linear rise replaced from there by one
 /// straight dB segment up to its peak). Within 3 dB of their power sum wherever one leads the
 /// other by a few dB; at the crossing the sum is 3 dB over both (a beat's average).
-envelope spliced(const envelope& early, const envelope& late, double end_s) {
+envelope spliced_envelope(const envelope& early, const envelope& late, double end_s) {
     constexpr double step_s = 0.005;  ///< crossing search grid, s
     double cross_s = -1.0;
     const auto steps = static_cast<int>(std::ceil((end_s - early.attack_s) / step_s));
@@ -257,33 +284,6 @@ envelope spliced(const envelope& early, const envelope& late, double end_s) {
     if (out.decay.empty()) out.decay.push_back({.t60_s = infinity, .until_s = {}});
     return out;
 }
-
-/// The narrow band around freq_hz as a track: one point per band sample from t = 0 to note_s,
-/// level of A cos (A = 2 |y|), phase of cos at freq_hz, floor a quantile of the band's level.
-partial_track band_track(const note_spectrum& spectrum, double freq_hz, double half_width_hz, double note_s,
-                         const heard_peak_params& params) {
-    const narrowband b = spectrum.band(freq_hz, half_width_hz, params.band_rate_hz);
-    partial_track t;
-    if (b.y.empty()) return t;
-    const auto count = std::min(b.y.size(), static_cast<std::size_t>(note_s * b.sample_rate_hz));
-    std::vector<double> levels;
-    for (std::size_t m = 0; m < count; ++m) {
-        const double time_s = static_cast<double>(m) / b.sample_rate_hz;
-        const double level = to_level(amp_lin{2.0 * std::abs(b.y[m]) + 1e-30}).db;
-        // y = (A / 2) exp(i (phi + 2 pi (f - f_c) t)): the phase of cos at f, at t.
-        const double phase = std::arg(b.y[m]) + two_pi * (b.centre_hz - freq_hz) * time_s;
-        t.points.push_back({.time_s = time_s, .freq_hz = freq_hz, .level_db = level,
-                            .phase_rad = std::remainder(phase, two_pi), .floor_db = 0.0});
-        levels.push_back(level);
-    }
-    if (levels.empty()) return t;
-    const auto q = levels.begin() + static_cast<std::ptrdiff_t>(params.floor_quantile * static_cast<double>(levels.size() - 1));
-    std::nth_element(levels.begin(), q, levels.end());
-    for (track_point& pt : t.points) pt.floor_db = *q;
-    return t;
-}
-
-}  // namespace
 
 merge_result merge_late_companions(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
                                    double sample_rate_hz, const heard_peak_params& params) {
@@ -319,7 +319,7 @@ merge_result merge_late_companions(patch& p, std::span<const partial_track* cons
         for (const std::size_t j : group) {
             const envelope& other = p.partials[j].env;
             const bool first = q.env.attack_s <= other.attack_s;
-            q.env = spliced(first ? q.env : other, first ? other : q.env, note_s);
+            q.env = spliced_envelope(first ? q.env : other, first ? other : q.env, note_s);
             if (!first) q.phase_rad = p.partials[j].phase_rad;  // the start is the other's
             gone[j] = true;
         }
