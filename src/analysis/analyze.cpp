@@ -89,28 +89,6 @@ std::span<const float> analysed_part(std::span<const float> samples, double samp
     return samples.subspan(first, std::min(last, limit) - first);
 }
 
-/// A late part counts when its level peaks at least this long after it comes back over the floor
-/// (seconds): a rise, where two beating modes' next maximum comes within a beat period (a few
-/// tenths of a second at most for the close pairs of strings and bars; common practice, not from a source).
-constexpr double min_late_rise_s = 0.25;
-
-/// A track that comes back clearly over its floor after its fit ended (fitting/envelope_fit.hpp,
-/// late_part_start: a sympathetic string rising as the struck one fades) and rises there gets that late part
-/// fitted on its own, and the envelope becomes the early fit's until the late one is louder, then
-/// the late one's (spliced_envelope); the fitted stretch then runs to the late fit's end.
-void add_late_part(partial_fit& fit, const partial_track& track, const envelope_fit_params& fit_params) {
-    const auto start = late_part_start(track, fit, fit_params);
-    if (!start) return;
-    const partial_track late{.points = {track.points.begin() + static_cast<std::ptrdiff_t>(*start), track.points.end()},
-                             .harmonic = track.harmonic, .cut_by_end = track.cut_by_end};
-    const auto late_fit = fit_partial(late, fit_params);
-    if (!late_fit || late_fit->env.peak.db > max_peak_db) return;
-    // A rise, not the next maximum of a beat: the late part peaks well after it comes back.
-    if (late_fit->env.attack_s < late.points.front().time_s + min_late_rise_s) return;
-    fit.env = spliced_envelope(fit.env, late_fit->env, track.points.back().time_s);
-    fit.fit_end_s = late_fit->fit_end_s;
-}
-
 /// Fits every track's envelope into out.value's partials (in track order; tracks whose fit fails
 /// are counted as unfitted) and returns, per partial, its track and fitted stretch.
 std::vector<cut_part> fit_tracks(analysis_result& out, const envelope_fit_params& fit_params) {
@@ -118,13 +96,15 @@ std::vector<cut_part> fit_tracks(analysis_result& out, const envelope_fit_params
     double sq_error = 0.0, frames = 0.0;
     std::vector<cut_part> fitted;  // per partial: its track and fitted stretch (env set later)
     for (const partial_track& track : out.tracking.tracks) {
-        auto fit = fit_partial(track, fit_params);
+        const auto first_fit = fit_partial(track, fit_params);
         // A fit whose peak lies beyond what the format holds is no partial of this note.
-        if (!fit || fit->env.peak.db > max_peak_db) {
+        if (!first_fit || first_fit->env.peak.db > max_peak_db) {
             ++out.summary.unfitted;
             continue;
         }
-        add_late_part(*fit, track, fit_params);
+        // With the late part of a track that comes back clearly over its floor and rises there.
+        const partial_fit with_late = fit_track(*first_fit, track, fit_params);
+        const partial_fit* fit = with_late.env.peak.db > max_peak_db ? &*first_fit : &with_late;
         p.partials.push_back({.freq_hz = fit->freq_hz, .harmonic = track.harmonic, .phase_rad = fit->phase_rad,
                               .env = fit->env, .place = {}});
         fitted.push_back({.env = nullptr, .track = &track, .fit_start_s = fit->fit_start_s, .fit_end_s = fit->fit_end_s});

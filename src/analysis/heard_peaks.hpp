@@ -76,11 +76,6 @@ heard_span_spectrum heard_spectrum(std::span<const float> note, double sample_ra
 int move_to_heard_peaks(patch& p, std::span<const partial_track* const> tracks, const heard_span_spectrum& spectrum,
                         const heard_peak_params& params);
 
-/// The envelope of two components heard as one: the earlier one's (smaller attack_s) until the
-/// later one is first louder (searched up to end_s), then the later one's (its linear rise replaced
-/// from there by one straight dB segment up to its peak).
-envelope spliced_envelope(const envelope& early, const envelope& late, double end_s);
-
 /// A partial kept by merge_late_companions, its envelope spliced from the group's.
 struct merged_partial {
     std::size_t index = 0;     ///< in the patch before the merge

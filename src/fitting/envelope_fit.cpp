@@ -326,4 +326,53 @@ std::optional<std::size_t> late_part_start(const partial_track& track, const par
     return start;
 }
 
+/// The envelope of two components heard as one: the earlier one's (smaller attack_s) until the
+/// later one is first louder, then the later one's (its linear rise replaced from there by one
+/// straight dB segment up to its peak). Within 3 dB of their power sum wherever one leads the
+/// other by a few dB; at the crossing the sum is 3 dB over both (a beat's average).
+envelope spliced_envelope(const envelope& early, const envelope& late, double end_s) {
+    constexpr double step_s = 0.005;  ///< crossing search grid, s
+    double cross_s = -1.0;
+    const auto steps = static_cast<int>(std::ceil((end_s - early.attack_s) / step_s));
+    for (int k = 0; k < steps; ++k) {
+        const double t = early.attack_s + k * step_s;
+        if (envelope_level(late, t).db > envelope_level(early, t).db) { cross_s = t; break; }
+    }
+    if (cross_s < 0.0) return early;  // never louder: the early one's envelope carries the group
+    envelope out{.attack_s = early.attack_s, .peak = early.peak, .decay = {}};
+    for (const decay_segment& d : early.decay) {
+        if (d.until_s && *d.until_s < cross_s) { out.decay.push_back(d); continue; }
+        out.decay.push_back({.t60_s = d.t60_s, .until_s = cross_s});
+        break;
+    }
+    if (cross_s <= early.attack_s) out = {.attack_s = cross_s, .peak = envelope_level(early, cross_s), .decay = {}};
+    const double at_cross_db = envelope_level(late, cross_s).db;
+    if (cross_s < late.attack_s) {
+        // slope (dB/s) = (peak - level at the crossing) / time to the peak; t60 = -60 / slope.
+        const double slope = (late.peak.db - at_cross_db) / (late.attack_s - cross_s);
+        out.decay.push_back({.t60_s = slope > 0.0 ? -60.0 / slope : infinity, .until_s = late.attack_s});
+    }
+    const double from_s = std::max(cross_s, late.attack_s);
+    for (const decay_segment& d : late.decay)
+        if (!d.until_s || *d.until_s > from_s) out.decay.push_back(d);
+    if (out.decay.empty()) out.decay.push_back({.t60_s = infinity, .until_s = {}});
+    return out;
+}
+
+
+partial_fit fit_track(const partial_fit& fit, const partial_track& track, const envelope_fit_params& params) {
+    partial_fit out = fit;
+    const auto start = late_part_start(track, fit, params);
+    if (!start) return out;
+    const partial_track late{.points = {track.points.begin() + static_cast<std::ptrdiff_t>(*start), track.points.end()},
+                             .harmonic = track.harmonic, .cut_by_end = track.cut_by_end};
+    const auto late_fit = fit_partial(late, params);
+    if (!late_fit) return out;
+    // A rise, not the next maximum of a beat: the late part peaks well after it comes back.
+    if (late_fit->env.attack_s < late.points.front().time_s + params.min_late_rise_s) return out;
+    out.env = spliced_envelope(fit.env, late_fit->env, track.points.back().time_s);
+    out.fit_end_s = late_fit->fit_end_s;
+    return out;
+}
+
 }  // namespace wane
