@@ -28,11 +28,28 @@ enum : Eigen::Index { p_c = 0, p_s, p_u, p_rho, p_f, p_phi };
 /// Every this many points the walk below starts again from std::exp, std::cos and std::sin.
 constexpr std::size_t exact_every = 16;
 
+/// The points read: the track's thinned to at least a spacing apart, times from the first one.
 struct points {
-    std::span<const double> tau;    ///< seconds from the first point
-    std::span<const double> level;  ///< dB
-    std::span<const char> walked;   ///< whether point i is one step_s past point i - 1 (and i % exact_every != 0)
-    double step_s = 0.0;            ///< tau[1] - tau[0]
+    std::vector<double> tau;    ///< seconds from the first point
+    std::vector<double> level;  ///< dB
+    std::vector<char> walked;   ///< whether point i is one step_s past point i - 1 (and i % exact_every != 0)
+    double step_s = 0.0;        ///< tau[1] - tau[0]
+
+    /// Each point at least spacing_s after the last one kept.
+    points(std::span<const double> time_s, std::span<const double> level_db, double spacing_s) {
+        for (std::size_t i = 0; i < time_s.size(); ++i)
+            if (tau.empty() || time_s[i] - time_s.front() >= tau.back() + spacing_s - 1e-9) {
+                tau.push_back(time_s[i] - time_s.front());
+                level.push_back(level_db[i]);
+            }
+        if (tau.size() < 2) return;
+        // Where ratio_walk may step on: one spacing past the last point, no gap between.
+        step_s = tau[1] - tau[0];
+        constexpr double same_step_s = 1e-9;
+        walked.assign(tau.size(), 0);
+        for (std::size_t i = 1; i < tau.size(); ++i)
+            walked[i] = static_cast<char>(i % exact_every != 0 && std::abs(tau[i] - tau[i - 1] - step_s) <= same_step_s);
+    }
 };
 
 /// The second mode relative to the first, z(tau) = r(tau) e^(i theta(tau)) = x + i y, at each
@@ -138,29 +155,36 @@ void normal_equations(const points& x, const vec6& p, mat6& jtj, vec6& jte) {
     }
 }
 
-/// Levenberg-Marquardt from p, whose squared error is current (Marquardt's scaling of the normal
-/// equations' diagonal).
-double refine(const points& x, vec6& p, double current, int max_iterations) {
+/// A Levenberg-Marquardt search: where it stands, its squared error there, its damping, and
+/// whether it has stopped (converged, or no step of any damping up to 1e10 lowers the error).
+struct lm_state {
+    vec6 p;
+    double cost = 0.0;
     double lambda = 1e-3;
-    for (int it = 0; it < max_iterations && lambda < 1e10; ++it) {
+    bool stopped = false;
+};
+
+/// Up to `iterations` more Levenberg-Marquardt steps of s (Marquardt's scaling of the normal
+/// equations' diagonal).
+void refine(const points& x, lm_state& s, int iterations) {
+    for (int it = 0; it < iterations && !s.stopped; ++it) {
         mat6 jtj;
         vec6 jte;
-        normal_equations(x, p, jtj, jte);
-        while (lambda < 1e10) {
+        normal_equations(x, s.p, jtj, jte);
+        s.stopped = true;
+        while (s.lambda < 1e10) {
             mat6 a = jtj;
-            a.diagonal() += lambda * (jtj.diagonal().array() + 1e-12).matrix();
-            const vec6 trial = p - a.ldlt().solve(jte);
-            const double c = cost(x, trial, current);
-            if (std::isfinite(c) && c < current) {
-                const bool converged = current - c < 1e-10 * current;
-                p = trial, current = c, lambda = std::max(lambda * 0.1, 1e-9);
-                if (converged) return current;
+            a.diagonal() += s.lambda * (jtj.diagonal().array() + 1e-12).matrix();
+            const vec6 trial = s.p - a.ldlt().solve(jte);
+            const double c = cost(x, trial, s.cost);
+            if (std::isfinite(c) && c < s.cost) {
+                s.stopped = s.cost - c < 1e-10 * s.cost;  // converged
+                s.p = trial, s.cost = c, s.lambda = std::max(s.lambda * 0.1, 1e-9);
                 break;
             }
-            lambda *= 10.0;
+            s.lambda *= 10.0;
         }
     }
-    return current;
 }
 
 }  // namespace
@@ -171,53 +195,39 @@ std::optional<beat_level_fit> fit_beat_levels(std::span<const double> time_s, st
     constexpr std::size_t min_points = 12;
     if (time_s.size() < min_points) return std::nullopt;
     const double span_s = time_s.back() - time_s.front();
-    // The points read: each at least point_spacing_s after the last one kept.
-    std::vector<double> tau, level;
-    for (std::size_t i = 0; i < time_s.size(); ++i)
-        if (tau.empty() || time_s[i] - time_s.front() >= tau.back() + params.point_spacing_s - 1e-9) {
-            tau.push_back(time_s[i] - time_s.front());
-            level.push_back(level_db[i]);
-        }
-    if (tau.size() < min_points) return std::nullopt;
-    // Where the walk of ratio_walk may step on: one spacing past the last point, no gap between.
-    const double step_s = tau[1] - tau[0];
-    constexpr double same_step_s = 1e-9;
-    std::vector<char> walked(tau.size(), 0);
-    for (std::size_t i = 1; i < tau.size(); ++i)
-        walked[i] = static_cast<char>(i % exact_every != 0 && std::abs(tau[i] - tau[i - 1] - step_s) <= same_step_s);
-    const points x{.tau = tau, .level = level, .walked = walked, .step_s = step_s};
-    std::vector<double> ripple(tau.size());
-    const auto n = static_cast<double>(tau.size());
+    const points x(time_s, level_db, params.point_spacing_s);
+    if (x.tau.size() < min_points) return std::nullopt;
+    std::vector<double> ripple(x.tau.size());
+    const auto n = static_cast<double>(x.tau.size());
     vec6 line = vec6::Zero();
     line(p_u) = -max_log_ratio;  // no second mode
     const double line_rms_db = std::sqrt(solve_line(x, line, ripple) / n);
 
-    // Grid starts: f_b, phi, rho (mode B's decay relative to A's, 1/s) with r(0) = 0.3.
-    struct start {
-        vec6 p;
-        double cost;
-    };
-    std::vector<start> starts;
+    // Grid starts: f_b, phi, rho (mode B's decay relative to A's, 1/s) with r(0) = 0.3, scouted on
+    // the points thinned further; the best starts_refined go on on all the points read.
+    const points scout_x(time_s, level_db, params.scout_point_spacing_s);
+    std::vector<lm_state> starts;
     const double first_hz = std::max(params.min_beats / span_s, params.beat_step_hz);
     const auto rates = static_cast<int>(std::floor((params.max_beat_hz - first_hz) / params.beat_step_hz + 1e-9)) + 1;
     for (int j = 0; j < rates; ++j)
         for (int k = 0; k < params.phase_steps; ++k)
             for (const double rho : {-1.0, 0.0, 1.0}) {
-                vec6 p;
-                p << 0.0, 0.0, std::log(0.3), rho, first_hz + j * params.beat_step_hz, two_pi * k / params.phase_steps;
-                const double c = refine(x, p, solve_line(x, p, ripple), params.scout_iterations);
-                starts.push_back({.p = p, .cost = c});
+                lm_state s;
+                s.p << 0.0, 0.0, std::log(0.3), rho, first_hz + j * params.beat_step_hz, two_pi * k / params.phase_steps;
+                s.cost = solve_line(scout_x, s.p, ripple);
+                refine(scout_x, s, params.scout_iterations);
+                starts.push_back(s);
             }
     if (starts.empty()) return std::nullopt;
     const auto refined = std::min(starts.size(), static_cast<std::size_t>(params.starts_refined));
     std::partial_sort(starts.begin(), starts.begin() + static_cast<std::ptrdiff_t>(refined), starts.end(),
-                      [](const start& a, const start& b) { return a.cost < b.cost; });
+                      [](const lm_state& a, const lm_state& b) { return a.cost < b.cost; });
     vec6 best = starts.front().p;
     double best_cost = infinity;
     for (std::size_t k = 0; k < refined; ++k) {
-        vec6 p = starts[k].p;
-        const double c = refine(x, p, starts[k].cost, params.max_iterations);
-        if (c < best_cost) best = p, best_cost = c;
+        lm_state s{.p = starts[k].p, .cost = cost(x, starts[k].p)};  // anew from the scout's end
+        refine(x, s, params.max_iterations);
+        if (s.cost < best_cost) best = s.p, best_cost = s.cost;
     }
     const double rms_db = std::sqrt(best_cost / n);
     if (!(rms_db <= params.max_rms_db) || line_rms_db < params.min_line_ratio * rms_db) return std::nullopt;
