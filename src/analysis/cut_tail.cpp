@@ -6,6 +6,8 @@
 #include <optional>
 #include <vector>
 
+#include "analysis/beat_level_fit.hpp"
+
 namespace wane {
 
 namespace {
@@ -43,9 +45,37 @@ std::optional<double> level_slope(const cut_part& part, double from_s, double to
     return (stl - st * sl / n) / var;
 }
 
+/// Rule 0 for a plateau that starts at a beat's trough (cut_tail.hpp): the segment before it
+/// falls and the track rises at least min_swell_db above its lowest point near the knot within the
+/// plateau. Then the slower mode's slope of the two-mode fit of the track's level over the last two
+/// segments (analysis/beat_level_fit.hpp), when that fit is accepted and both modes decay
+/// (at least min_decay_db_per_s: a slower one would render as a drone); nullopt otherwise.
+std::optional<double> beat_tail(const cut_part& part, const cut_tail_params& params) {
+    const envelope& env = *part.env;
+    if (part.track == nullptr || env.decay.size() < 2) return std::nullopt;
+    if (!steep_enough(t60_to_slope_db_per_s(env.decay[env.decay.size() - 2].t60_s), params)) return std::nullopt;
+    const double knot_s = last_segment_start_s(env);
+    const double from_s = std::max(
+        part.fit_start_s, env.decay.size() > 2 ? env.decay[env.decay.size() - 3].until_s.value_or(env.attack_s) : env.attack_s);
+    double trough_db = infinity, swell_db = -infinity;
+    std::vector<double> time_s, level_db;
+    for (const track_point& q : part.track->points) {
+        if (q.time_s < from_s || q.time_s > part.fit_end_s) continue;
+        time_s.push_back(q.time_s);
+        level_db.push_back(q.level_db);
+        if (std::abs(q.time_s - knot_s) <= params.trough_search_s) trough_db = std::min(trough_db, q.level_db);
+        if (q.time_s > knot_s) swell_db = std::max(swell_db, q.level_db);
+    }
+    if (!(swell_db - trough_db >= params.min_swell_db)) return std::nullopt;
+    const auto fit = fit_beat_levels(time_s, level_db, params.beat);
+    if (!fit || !(std::max(fit->slope_a_db_per_s, fit->slope_b_db_per_s) < 0.0)) return std::nullopt;
+    return std::min(std::max(fit->slope_a_db_per_s, fit->slope_b_db_per_s), -params.min_decay_db_per_s);
+}
+
 /// Rules 0, 1 and 2: the slope the part falls at after the cut, when its own data show one.
 std::optional<double> own_decay(const cut_part& part, const cut_tail_params& params) {
     const envelope& env = *part.env;
+    if (const auto beat = beat_tail(part, params)) return beat;
     // Rule 0: the last part falls, if slowly (the late stage of a two-stage decay, measured on a
     // stretch too short to fall min_fall_db): it falls on at the slope its track shows there
     // (the fitted segment's slope without a track).

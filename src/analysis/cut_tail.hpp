@@ -6,9 +6,16 @@
 // min_fall_db over the stretch it was fitted on; otherwise it is a plateau (the level an unfinished
 // or looped recording leaves at its end, or a rising stretch). The plateau is kept up to the cut
 // (the copy stays faithful to what was recorded) and a segment after the cut falls at, in this order,
-//  0. the least-squares slope of the part's measured level over the plateau's own stretch (the
+//  0. for a plateau that starts at a trough of its track's level (the segment before it falls and
+//     the level rises at least min_swell_db after the knot: a beat of two close modes, where the
+//     straight-segment fit puts its knot), the slower mode's slope of a two-mode fit of the
+//     track's level over the last two segments (analysis/beat_level_fit.hpp), when that fit is
+//     accepted and both modes decay: the level read from a trough rises with the beat and is
+//     neither mode's slope, while past the cut the slower mode is what sounds on (banjo_g3's third
+//     harmonic, 593 Hz: two modes about 1 Hz apart, a trough at 1.25 s and a cut at 2.01 s);
+//     otherwise the least-squares slope of the part's measured level over the plateau's own stretch (the
 //     fitted segment's slope for a part without a track), when it falls at least
-//     min_decay_db_per_s: a slow late stage (a piano's or banjo's aftersound) seen over too short
+//     min_decay_db_per_s: a slow late stage (a piano's aftersound) seen over too short
 //     a stretch to fall min_fall_db is what the recording shows at its end, and the early stage's
 //     slope would make the tail die faster than that;
 //  1. the slope of the segment before the plateau, when that one falls: the part that decays;
@@ -19,6 +26,7 @@
 
 #include <span>
 
+#include "analysis/beat_level_fit.hpp"
 #include "core/envelope.hpp"
 #include "tracking/track.hpp"
 
@@ -31,6 +39,13 @@ struct cut_tail_params {
     /// Least fall of a last segment over its fitted stretch, dB. Reasoned choice: level wobbles of
     /// beating partials and noise reach a few dB, so a smaller fall does not show a decay.
     double min_fall_db = 3.0;
+    /// A plateau starts at a beat's trough when its track rises this much (dB) above its lowest
+    /// point within trough_search_s of the knot. Reasoned choice: over the track's frame-to-frame
+    /// wobble (tenths of a dB on a clean partial), under the swells of the real notes' beats
+    /// (banjo_g3's 593 Hz: 3.2 dB).
+    double min_swell_db = 2.0;
+    double trough_search_s = 0.05;
+    beat_level_params beat{};
 };
 
 /// One part of the note whose decay may need to run on: its envelope, the track it was fitted to

@@ -11,6 +11,7 @@
 #include <Eigen/Dense>
 
 #include "core/units.hpp"
+#include "modes/cholesky.hpp"
 #include "modes/fit_memo.hpp"
 #include "modes/mode_projection.hpp"
 #include "modes/mode_shape.hpp"
@@ -192,11 +193,16 @@ Eigen::VectorXd shape_projections(std::span<const float> x, double sample_rate_h
     return rhs;
 }
 
-/// LLT::solve's steps on a kept factor (factor_plain_gram): L y = theta, then L^T theta = y, in place.
-void solve_on_factor(const plain_gram_factor& factor, Eigen::VectorXd& theta) {
-    const Eigen::Map<const Eigen::MatrixXd> lower(factor.lower.data(), theta.size(), theta.size());
+/// G theta = rhs by a Cholesky factor L of G in the lower triangle of `lower`: L y = theta, then
+/// L^T theta = y, in place (theta holds rhs on entry).
+void solve_with_lower(const Eigen::Ref<const Eigen::MatrixXd>& lower, Eigen::VectorXd& theta) {
     lower.triangularView<Eigen::Lower>().solveInPlace(theta);
     lower.transpose().triangularView<Eigen::Upper>().solveInPlace(theta);
+}
+
+/// solve_with_lower on a kept factor (factor_plain_gram).
+void solve_on_factor(const plain_gram_factor& factor, Eigen::VectorXd& theta) {
+    solve_with_lower(Eigen::Map<const Eigen::MatrixXd>(factor.lower.data(), theta.size(), theta.size()), theta);
 }
 
 }  // namespace
@@ -223,9 +229,8 @@ plain_gram_factor factor_plain_gram(std::span<const damped_mode> modes, double s
     out.lower = out.gram;
     Eigen::Map<Eigen::MatrixXd> lower(out.lower.data(), dim, dim);
     lower.diagonal().array() += out.ridge;
-    // In place: the lower triangle becomes the factor (the same steps as Eigen::LLT<MatrixXd>).
-    const Eigen::LLT<Eigen::Ref<Eigen::MatrixXd>> llt(lower);
-    if (llt.info() != Eigen::Success) out.lower.clear();
+    // In place: the lower triangle becomes the factor (modes/cholesky.hpp).
+    if (!cholesky_in_place(lower)) out.lower.clear();
     return out;
 }
 
@@ -273,11 +278,11 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
         const double ridge = ridge_rel * exact.diagonal().mean();
         Eigen::MatrixXd gram = exact;
         gram.diagonal().array() += ridge;
-        // Cholesky (blocked: the ridged Gram matrix is positive definite), in place; LDLT with
-        // pivoting should rounding make it fail.
-        const Eigen::LLT<Eigen::Ref<Eigen::MatrixXd>> llt(gram);
-        if (llt.info() == Eigen::Success) {
-            theta = llt.solve(rhs);
+        // Cholesky (modes/cholesky.hpp: the ridged Gram matrix is positive definite), in place;
+        // LDLT with pivoting should rounding make it fail.
+        if (cholesky_in_place(gram)) {
+            theta = rhs;
+            solve_with_lower(gram, theta);
         } else {
             gram = exact;
             gram.diagonal().array() += ridge;
@@ -350,8 +355,7 @@ Eigen::MatrixXd sliding_factor(std::span<const damped_mode> modes, std::span<con
         fill_gram(own, omega, count, 0, gram);
         gram.diagonal().array() += params.ridge_rel * gram.diagonal().mean();
         // In place: the lower triangle becomes the factor.
-        const Eigen::LLT<Eigen::Ref<Eigen::MatrixXd>> llt(gram);
-        return llt.info() == Eigen::Success ? gram : Eigen::MatrixXd();
+        return cholesky_in_place(gram) ? gram : Eigen::MatrixXd();
     }
     const plain_gram_factor& lead = *params.leading;
     const auto n1 = static_cast<Eigen::Index>(2 * lead.modes.size()), n2 = dim - n1;
@@ -362,8 +366,7 @@ Eigen::MatrixXd sliding_factor(std::span<const damped_mode> modes, std::span<con
     Eigen::MatrixXd rest = gram.bottomRightCorner(n2, n2);
     rest.diagonal().array() += lead.ridge;
     rest.noalias() -= l21t.transpose() * l21t;
-    const Eigen::LLT<Eigen::Ref<Eigen::MatrixXd>> llt22(rest);
-    if (llt22.info() != Eigen::Success) return {};
+    if (!cholesky_in_place(rest)) return {};
     gram.topLeftCorner(n1, n1) = l11;
     gram.bottomLeftCorner(n2, n1) = l21t.transpose();
     gram.bottomRightCorner(n2, n2) = rest;
@@ -433,7 +436,7 @@ std::vector<double> sliding_fit_residuals(std::span<const float> x, double sampl
             }
         }
         auto part = rhs.leftCols(static_cast<Eigen::Index>(cols));
-        if (solved) lower.triangularView<Eigen::Lower>().solveInPlace(part);
+        if (solved) solve_lower_in_place(lower, part);
         for (std::size_t s = first; s < first + cols; ++s) {
             out[s] = std::max(0.0, out[s] - (solved ? part.col(static_cast<Eigen::Index>(s - first)).squaredNorm() : 0.0));
             least_cost = std::min(least_cost, before + out[s]);

@@ -9,6 +9,7 @@
 #include <Eigen/Core>
 
 #include "core/units.hpp"
+#include "modes/tile_products.hpp"
 
 namespace wane {
 
@@ -70,44 +71,48 @@ constexpr std::size_t block_n = 64;
 /// out[n] -= Re(amp_k z_k^n) for the plain modes k (z_k = exp(rho_k + i omega_k)), n = b B + m
 /// (B = block_n): Re(amp_k z_k^(bB) z_k^m) summed over k is the real part of the matrix product
 /// C = A Z, A(b, k) = amp_k z_k^(bB) (blocks x modes), Z(k, m) = z_k^m (modes x B), so
-/// Re C = Re A Re Z - Im A Im Z: two real products of O(blocks K B), at the speed of a matrix
-/// product instead of one phasor chain per mode. z^m by products over m < B; z^(bB) by products
-/// of z^B, re-anchored from the exact power every 16 blocks.
+/// Re C = Re A Re Z - Im A Im Z: one product of depth 2K (Re A beside -Im A, Re Z over Im Z) by
+/// modes/tile_products.hpp, O(blocks K B), at the speed of a matrix product instead of one
+/// phasor chain per mode. z^m by products over m < B; z^(bB) by products of z^B, re-anchored
+/// from the exact power every 16 blocks.
 void subtract_plain_modes(std::span<double> out, std::span<const double> rho, std::span<const double> omega,
                           std::span<const std::complex<double>> amp) {
-    const auto k_count = static_cast<Eigen::Index>(rho.size());
+    const std::size_t k_count = rho.size();
     const std::size_t count = out.size();
     if (k_count == 0 || count == 0) return;
-    const auto blocks = static_cast<Eigen::Index>((count + block_n - 1) / block_n);
-    const auto b_n = static_cast<Eigen::Index>(block_n);
-    Eigen::MatrixXd a_re(blocks, k_count), a_im(blocks, k_count), z_re(k_count, b_n), z_im(k_count, b_n);
-    for (Eigen::Index k = 0; k < k_count; ++k) {
-        const auto kk = static_cast<std::size_t>(k);
-        const std::complex<double> z = std::exp(std::complex<double>{rho[kk], omega[kk]});
+    const std::size_t blocks = (count + block_n - 1) / block_n;
+    const std::size_t rows_pad = (blocks + product_tile_rows - 1) / product_tile_rows * product_tile_rows;
+    const std::size_t cols_pad = (block_n + product_tile_cols - 1) / product_tile_cols * product_tile_cols;
+    // a(b, d) at a[d * rows_pad + b], d < 2K: Re A then -Im A; z(m, d) at z[d * cols_pad + m]: Re Z then Im Z.
+    std::vector<double> a(rows_pad * 2 * k_count, 0.0), z(cols_pad * 2 * k_count, 0.0);
+    for (std::size_t k = 0; k < k_count; ++k) {
+        const std::complex<double> step_z = std::exp(std::complex<double>{rho[k], omega[k]});
         std::complex<double> p{1.0, 0.0};
-        for (Eigen::Index m = 0; m < b_n; ++m) {
-            z_re(k, m) = p.real(), z_im(k, m) = p.imag();
-            p *= z;
+        for (std::size_t m = 0; m < block_n; ++m) {
+            z[k * cols_pad + m] = p.real(), z[(k_count + k) * cols_pad + m] = p.imag();
+            p *= step_z;
         }
         const auto step_n = static_cast<double>(block_n);
-        const std::complex<double> step = std::exp(std::complex<double>{rho[kk] * step_n, std::remainder(omega[kk] * step_n, two_pi)});
+        const std::complex<double> step = std::exp(std::complex<double>{rho[k] * step_n, std::remainder(omega[k] * step_n, two_pi)});
         std::complex<double> at{};
-        for (Eigen::Index b = 0; b < blocks; ++b) {
+        for (std::size_t b = 0; b < blocks; ++b) {
             if (b % 16 == 0) {
                 const double n = static_cast<double>(b) * step_n;
-                at = amp[kk] * std::exp(std::complex<double>{rho[kk] * n, std::remainder(omega[kk] * n, two_pi)});
+                at = amp[k] * std::exp(std::complex<double>{rho[k] * n, std::remainder(omega[k] * n, two_pi)});
             }
-            a_re(b, k) = at.real(), a_im(b, k) = at.imag();
+            a[k * rows_pad + b] = at.real(), a[(k_count + k) * rows_pad + b] = -at.imag();
             at *= step;
         }
     }
-    Eigen::MatrixXd c(blocks, b_n);
-    c.noalias() = a_re * z_re;
-    c.noalias() -= a_im * z_im;
-    for (Eigen::Index b = 0; b < blocks; ++b) {
-        const auto first = static_cast<std::size_t>(b) * block_n;
+    // minus_c = 0 - (Re A Re Z - Im A Im Z) = -Re C, blocks x B (column-major).
+    std::vector<double> minus_c(blocks * block_n, 0.0);
+    subtract_products(minus_c.data(), blocks,
+                      {.a = a.data(), .a_rows = rows_pad, .b = z.data(), .b_rows = cols_pad, .depth = 2 * k_count}, blocks,
+                      block_n, false);
+    for (std::size_t b = 0; b < blocks; ++b) {
+        const std::size_t first = b * block_n;
         const std::size_t end = std::min(count, first + block_n);
-        for (std::size_t n = first; n < end; ++n) out[n] -= c(b, static_cast<Eigen::Index>(n - first));
+        for (std::size_t n = first; n < end; ++n) out[n] += minus_c[(n - first) * blocks + b];
     }
 }
 

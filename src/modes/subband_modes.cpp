@@ -5,9 +5,8 @@
 #include <cmath>
 #include <complex>
 
-#include <Eigen/Core>
-
 #include "core/units.hpp"
+#include "modes/tile_products.hpp"
 
 namespace wane {
 
@@ -54,25 +53,30 @@ subband_signals make_subband_signals(std::span<const float> x, double sample_rat
     const double step_hz = 0.5 * params.band_hz;
     // The heterodyne of band i at sample n is w_i^n with w_i = exp(-i 2 pi c_i / fs); the windowed
     // taps are shared by all bands, so each output is sum_j (h[j] x[mD + j]) w_i^(mD + j): for all
-    // bands at once the matrix product Y = X P, X(m, j) = x[mD + j] (outputs x taps), P(j, i) =
-    // h[j] w_i^j (taps x bands; real and imaginary parts, two real products), then w_i^(mD).
+    // bands at once the product Y = X P, X(m, j) = x[mD + j] (outputs x taps), P(j, i) =
+    // h[j] w_i^j (taps x bands; real parts in columns 0 .. bands - 1, imaginary parts after), by
+    // modes/tile_products.hpp (it subtracts: Y = -(0 - X P)), then w_i^(mD).
     std::vector<double> centres;
     for (int i = 0; static_cast<double>(i) * step_hz - 0.25 * params.band_hz < top_hz; ++i) centres.push_back(static_cast<double>(i) * step_hz);
-    const auto rows = static_cast<Eigen::Index>(outputs), cols = static_cast<Eigen::Index>(taps);
-    const auto bands = static_cast<Eigen::Index>(centres.size());
-    Eigen::MatrixXd segment(rows, cols), p_re(cols, bands), p_im(cols, bands);
-    for (Eigen::Index j = 0; j < cols; ++j)
-        for (Eigen::Index m = 0; m < rows; ++m) segment(m, j) = double(x[static_cast<std::size_t>(m) * decim + static_cast<std::size_t>(j)]);
-    for (Eigen::Index i = 0; i < bands; ++i) {
-        const double w = -two_pi * centres[static_cast<std::size_t>(i)] / fs;
-        for (Eigen::Index j = 0; j < cols; ++j) {
-            const std::complex<double> ph = h[static_cast<std::size_t>(j)] * std::polar(1.0, w * static_cast<double>(j));
-            p_re(j, i) = ph.real(), p_im(j, i) = ph.imag();
+    const std::size_t bands = centres.size();
+    const std::size_t rows_pad = (outputs + product_tile_rows - 1) / product_tile_rows * product_tile_rows;
+    const std::size_t cols_pad = (2 * bands + product_tile_cols - 1) / product_tile_cols * product_tile_cols;
+    std::vector<double> segment(rows_pad * taps, 0.0), phased(cols_pad * taps, 0.0), minus_y(outputs * 2 * bands, 0.0);
+    for (std::size_t j = 0; j < taps; ++j)
+        for (std::size_t m = 0; m < outputs; ++m) segment[j * rows_pad + m] = double(x[m * decim + j]);
+    for (std::size_t i = 0; i < bands; ++i) {
+        const double w = -two_pi * centres[i] / fs;
+        for (std::size_t j = 0; j < taps; ++j) {
+            const std::complex<double> ph = h[j] * std::polar(1.0, w * static_cast<double>(j));
+            phased[j * cols_pad + i] = ph.real(), phased[j * cols_pad + bands + i] = ph.imag();
         }
     }
-    const Eigen::MatrixXd y_re = segment * p_re, y_im = segment * p_im;
-    for (Eigen::Index i = 0; i < bands; ++i) {
-        const double centre = centres[static_cast<std::size_t>(i)];
+    subtract_products(minus_y.data(), outputs,
+                      {.a = segment.data(), .a_rows = rows_pad, .b = phased.data(), .b_rows = cols_pad, .depth = taps},
+                      outputs, 2 * bands, false);
+    const auto y = [&](std::size_t m, std::size_t column) { return -minus_y[column * outputs + m]; };
+    for (std::size_t i = 0; i < bands; ++i) {
+        const double centre = centres[i];
         const double w = -two_pi * centre / fs;
         subband_signals::band b{.centre_hz = centre, .y = std::vector<std::complex<double>>(outputs)};
         // w^(mD) by a rotation per output, re-anchored every 64 outputs.
@@ -80,8 +84,7 @@ subband_signals make_subband_signals(std::span<const float> x, double sample_rat
         std::complex<double> at{1.0, 0.0};
         for (std::size_t m = 0; m < outputs; ++m) {
             if (m % 64 == 0) at = std::polar(1.0, std::fmod(w * static_cast<double>(m * decim), two_pi));
-            const auto row = static_cast<Eigen::Index>(m);
-            b.y[m] = std::complex<double>{y_re(row, i), y_im(row, i)} * at;
+            b.y[m] = std::complex<double>{y(m, i), y(m, bands + i)} * at;
             at *= turn;
         }
         out.bands.push_back(std::move(b));
