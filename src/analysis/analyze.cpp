@@ -96,12 +96,15 @@ std::vector<cut_part> fit_tracks(analysis_result& out, const envelope_fit_params
     double sq_error = 0.0, frames = 0.0;
     std::vector<cut_part> fitted;  // per partial: its track and fitted stretch (env set later)
     for (const partial_track& track : out.tracking.tracks) {
-        const auto fit = fit_partial(track, fit_params);
+        const auto first_fit = fit_partial(track, fit_params);
         // A fit whose peak lies beyond what the format holds is no partial of this note.
-        if (!fit || fit->env.peak.db > max_peak_db) {
+        if (!first_fit || first_fit->env.peak.db > max_peak_db) {
             ++out.summary.unfitted;
             continue;
         }
+        // With the late part of a track that comes back clearly over its floor and rises there.
+        const partial_fit with_late = fit_track(*first_fit, track, fit_params);
+        const partial_fit* fit = with_late.env.peak.db > max_peak_db ? &*first_fit : &with_late;
         p.partials.push_back({.freq_hz = fit->freq_hz, .harmonic = track.harmonic, .phase_rad = fit->phase_rad,
                               .env = fit->env, .place = {}});
         fitted.push_back({.env = nullptr, .track = &track, .fit_start_s = fit->fit_start_s, .fit_end_s = fit->fit_end_s});

@@ -10,7 +10,8 @@
 // away, the slower one: the decay a tail past the end of a recording keeps.
 //
 // The fit: the six parameters by least squares on the track's (time, dB) points, Levenberg-Marquardt
-// from the best few starts of a grid over f_b, phi and rho (c and s solved linearly at each start).
+// from the best few starts of a grid over f_b, phi and rho (c and s solved linearly at each start),
+// the grid scouted on fewer points than the best starts are refined on.
 #pragma once
 
 #include <optional>
@@ -27,6 +28,9 @@ struct beat_level_params {
     /// The points read are at least this far apart, seconds (the track's 10 ms frames thinned: a
     /// 4 Hz beat keeps 12 points per period; the fit's cost is in the points).
     double point_spacing_s = 0.02;
+    /// The grid's starts are scouted on points at least this far apart, seconds (6 points per
+    /// period of a 4 Hz beat); the best go on on all the points read.
+    double scout_point_spacing_s = 0.04;
     double beat_step_hz = 0.2;  ///< grid step of f_b for the starts
     int phase_steps = 4;        ///< grid steps of phi over one turn
     int scout_iterations = 4;   ///< Levenberg-Marquardt steps from every grid point ...

@@ -225,39 +225,6 @@ std::vector<std::size_t> partial_like_peaks(const span_spectrum& s, const heard_
     return peaks;
 }
 
-/// The envelope of two components heard as one: the earlier one's (smaller attack_s) until the
-/// later one is first louder, then the later one's (its linear rise replaced from there by one
-/// straight dB segment up to its peak). Within 3 dB of their power sum wherever one leads the
-/// other by a few dB; at the crossing the sum is 3 dB over both (a beat's average).
-envelope spliced(const envelope& early, const envelope& late, double end_s) {
-    constexpr double step_s = 0.005;  ///< crossing search grid, s
-    double cross_s = -1.0;
-    const auto steps = static_cast<int>(std::ceil((end_s - early.attack_s) / step_s));
-    for (int k = 0; k < steps; ++k) {
-        const double t = early.attack_s + k * step_s;
-        if (envelope_level(late, t).db > envelope_level(early, t).db) { cross_s = t; break; }
-    }
-    if (cross_s < 0.0) return early;  // never louder: the early one's envelope carries the group
-    envelope out{.attack_s = early.attack_s, .peak = early.peak, .decay = {}};
-    for (const decay_segment& d : early.decay) {
-        if (d.until_s && *d.until_s < cross_s) { out.decay.push_back(d); continue; }
-        out.decay.push_back({.t60_s = d.t60_s, .until_s = cross_s});
-        break;
-    }
-    if (cross_s <= early.attack_s) out = {.attack_s = cross_s, .peak = envelope_level(early, cross_s), .decay = {}};
-    const double at_cross_db = envelope_level(late, cross_s).db;
-    if (cross_s < late.attack_s) {
-        // slope (dB/s) = (peak - level at the crossing) / time to the peak; t60 = -60 / slope.
-        const double slope = (late.peak.db - at_cross_db) / (late.attack_s - cross_s);
-        out.decay.push_back({.t60_s = slope > 0.0 ? -60.0 / slope : infinity, .until_s = late.attack_s});
-    }
-    const double from_s = std::max(cross_s, late.attack_s);
-    for (const decay_segment& d : late.decay)
-        if (!d.until_s || *d.until_s > from_s) out.decay.push_back(d);
-    if (out.decay.empty()) out.decay.push_back({.t60_s = infinity, .until_s = {}});
-    return out;
-}
-
 /// The narrow band around freq_hz as a track: one point per band sample from t = 0 to note_s,
 /// level of A cos (A = 2 |y|), phase of cos at freq_hz, floor a quantile of the band's level.
 partial_track band_track(const note_spectrum& spectrum, double freq_hz, double half_width_hz, double note_s,
@@ -319,7 +286,7 @@ merge_result merge_late_companions(patch& p, std::span<const partial_track* cons
         for (const std::size_t j : group) {
             const envelope& other = p.partials[j].env;
             const bool first = q.env.attack_s <= other.attack_s;
-            q.env = spliced(first ? q.env : other, first ? other : q.env, note_s);
+            q.env = spliced_envelope(first ? q.env : other, first ? other : q.env, note_s);
             if (!first) q.phase_rad = p.partials[j].phase_rad;  // the start is the other's
             gone[j] = true;
         }

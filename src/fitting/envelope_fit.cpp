@@ -201,14 +201,13 @@ std::size_t smoothed_peak(const std::vector<track_point>& pts) {
     return peak;
 }
 
-/// First frame from the peak where the running median of (level - floor) drops below the margin
-/// (n when it never does).
-std::size_t first_end_below_margin(const std::vector<double>& excess, std::size_t peak, const envelope_fit_params& params) {
+/// Running median of (level - floor) over floor_median_frames frames, centred (fewer at the ends).
+std::vector<double> running_median_excess(const std::vector<double>& excess) {
     const std::size_t n = excess.size();
-    std::size_t end = n;
+    std::vector<double> median(n);
     std::array<double, floor_median_frames> win{};
     const int half = floor_median_frames / 2;
-    for (std::size_t i = peak; i < n; ++i) {
+    for (std::size_t i = 0; i < n; ++i) {
         int m = 0;
         for (int d = -half; d <= half; ++d) {
             const auto k = static_cast<std::ptrdiff_t>(i) + d;
@@ -216,12 +215,17 @@ std::size_t first_end_below_margin(const std::vector<double>& excess, std::size_
             win[m++] = excess[static_cast<std::size_t>(k)];
         }
         std::nth_element(win.begin(), win.begin() + m / 2, win.begin() + m);
-        if (win[m / 2] < params.floor_margin_db) {
-            end = i;
-            break;
-        }
+        median[i] = win[m / 2];
     }
-    return end;
+    return median;
+}
+
+/// First frame from `from` where the running median of (level - floor) is below the margin
+/// (n when it never is).
+std::size_t first_end_below_margin(const std::vector<double>& median, std::size_t from, const envelope_fit_params& params) {
+    for (std::size_t i = from; i < median.size(); ++i)
+        if (median[i] < params.floor_margin_db) return i;
+    return median.size();
 }
 
 /// Centred running mean of the measured excess over excess_smoothing_frames frames.
@@ -278,7 +282,7 @@ std::optional<partial_fit> fit_partial(const partial_track& track, const envelop
     // floor, so the end does not depend on which noisy frames happened to lie high.
     std::vector<double> excess(n);
     for (std::size_t i = 0; i < n; ++i) excess[i] = pts[i].level_db - pts[i].floor_db;
-    std::size_t end = first_end_below_margin(excess, peak, params);
+    std::size_t end = first_end_below_margin(running_median_excess(excess), peak, params);
     if (end < peak + 2) return std::nullopt;
     // Expected level above the floor: first a centred running mean of the measured excess, then
     // the fitted envelope's.
@@ -301,6 +305,73 @@ std::optional<partial_fit> fit_partial(const partial_track& track, const envelop
     }
 
     if (params.frequency_and_phase) fit_frequency_and_phase(pts, excess, peak, end, params, out);
+    return out;
+}
+
+std::optional<std::size_t> late_part_start(const partial_track& track, const partial_fit& fit,
+                                           const envelope_fit_params& params) {
+    const auto& pts = track.points;
+    const std::size_t n = pts.size();
+    std::size_t after = 0;  // first frame after the fit
+    while (after < n && pts[after].time_s <= fit.fit_end_s) ++after;
+    if (after >= n) return std::nullopt;
+    std::vector<double> excess(n);
+    for (std::size_t i = 0; i < n; ++i) excess[i] = pts[i].level_db - pts[i].floor_db;
+    const std::vector<double> median = running_median_excess(excess);
+    bool clear = false;
+    for (std::size_t i = after; i < n && !clear; ++i) clear = median[i] >= params.floor_margin_db + params.rebound_db;
+    if (!clear) return std::nullopt;
+    std::size_t start = after;
+    while (median[start] < params.floor_margin_db) ++start;  // ends at the latest on the clear frame
+    return start;
+}
+
+/// The envelope of two components heard as one: the earlier one's (smaller attack_s) until the
+/// later one is first louder, then the later one's (its linear rise replaced from there by one
+/// straight dB segment up to its peak). Within 3 dB of their power sum wherever one leads the
+/// other by a few dB; at the crossing the sum is 3 dB over both (a beat's average).
+envelope spliced_envelope(const envelope& early, const envelope& late, double end_s) {
+    constexpr double step_s = 0.005;  ///< crossing search grid, s
+    double cross_s = -1.0;
+    const auto steps = static_cast<int>(std::ceil((end_s - early.attack_s) / step_s));
+    for (int k = 0; k < steps; ++k) {
+        const double t = early.attack_s + k * step_s;
+        if (envelope_level(late, t).db > envelope_level(early, t).db) { cross_s = t; break; }
+    }
+    if (cross_s < 0.0) return early;  // never louder: the early one's envelope carries the group
+    envelope out{.attack_s = early.attack_s, .peak = early.peak, .decay = {}};
+    for (const decay_segment& d : early.decay) {
+        if (d.until_s && *d.until_s < cross_s) { out.decay.push_back(d); continue; }
+        out.decay.push_back({.t60_s = d.t60_s, .until_s = cross_s});
+        break;
+    }
+    if (cross_s <= early.attack_s) out = {.attack_s = cross_s, .peak = envelope_level(early, cross_s), .decay = {}};
+    const double at_cross_db = envelope_level(late, cross_s).db;
+    if (cross_s < late.attack_s) {
+        // slope (dB/s) = (peak - level at the crossing) / time to the peak; t60 = -60 / slope.
+        const double slope = (late.peak.db - at_cross_db) / (late.attack_s - cross_s);
+        out.decay.push_back({.t60_s = slope > 0.0 ? -60.0 / slope : infinity, .until_s = late.attack_s});
+    }
+    const double from_s = std::max(cross_s, late.attack_s);
+    for (const decay_segment& d : late.decay)
+        if (!d.until_s || *d.until_s > from_s) out.decay.push_back(d);
+    if (out.decay.empty()) out.decay.push_back({.t60_s = infinity, .until_s = {}});
+    return out;
+}
+
+
+partial_fit fit_track(const partial_fit& fit, const partial_track& track, const envelope_fit_params& params) {
+    partial_fit out = fit;
+    const auto start = late_part_start(track, fit, params);
+    if (!start) return out;
+    const partial_track late{.points = {track.points.begin() + static_cast<std::ptrdiff_t>(*start), track.points.end()},
+                             .harmonic = track.harmonic, .cut_by_end = track.cut_by_end};
+    const auto late_fit = fit_partial(late, params);
+    if (!late_fit) return out;
+    // A rise, not the next maximum of a beat: the late part peaks well after it comes back.
+    if (late_fit->env.attack_s < late.points.front().time_s + params.min_late_rise_s) return out;
+    out.env = spliced_envelope(fit.env, late_fit->env, track.points.back().time_s);
+    out.fit_end_s = late_fit->fit_end_s;
     return out;
 }
 

@@ -6,6 +6,8 @@
 //  - the attack ends at the level peak less half a window (frame smearing of an abrupt onset);
 //  - the fit runs from the peak to where the level comes within floor_margin_db of the noise
 //    floor (first from the smoothed data, then from the fitted envelope itself), or to the end;
+//    what the track holds after that, when it comes back clearly over the floor, is its late part
+//    (late_part_start), fitted on its own by the caller;
 //  - frame weights are 1 / (model^2 + noise^2), the noise term from the expected level above
 //    the floor (capped by the level's local roughness); frames are averaged in groups to at most
 //    max_fit_points points;
@@ -34,6 +36,13 @@ struct envelope_fit_params {
     int max_segments = 3;  ///< 1..max_fit_segments
     /// The fit stops where the (smoothed) level comes within this many dB of the noise floor.
     double floor_margin_db = 8.0;
+    /// A track that comes back this many dB over the margin after its fit ended has a late part
+    /// (late_part_start).
+    double rebound_db = 10.0;
+    /// ... and counts (fit_track) when its level peaks at least this long after it comes back,
+    /// seconds: a rise, where two beating modes' next maximum comes within a beat period (a few
+    /// tenths of a second at most for close strings and bars; common practice, not from a source).
+    double min_late_rise_s = 0.25;
     /// Shortest decay segment, seconds (keeps breakpoints from chasing beats and noise).
     double min_segment_s = 0.1;
     /// Frames are averaged in groups so the breakpoint search sees at most this many points.
@@ -74,6 +83,25 @@ struct partial_fit {
 
 /// Fits one track. Empty when fewer than two frames are above the noise floor by the margin.
 std::optional<partial_fit> fit_partial(const partial_track& track, const envelope_fit_params& params);
+
+/// Where a track comes back clearly over its floor after its fit ended (a sympathetic string
+/// rising as the struck one fades, the second stage of two beating modes): the first frame after
+/// fit.fit_end_s from which the running median of (level - floor) is back over floor_margin_db,
+/// when a later frame's stands rebound_db over that margin; empty when none does.
+std::optional<std::size_t> late_part_start(const partial_track& track, const partial_fit& fit,
+                                           const envelope_fit_params& params);
+
+/// The envelope of two components heard as one: the earlier one's (smaller attack_s) until the
+/// later one is first louder (searched up to end_s), then the later one's (its linear rise replaced
+/// from there by one straight dB segment up to its peak).
+envelope spliced_envelope(const envelope& early, const envelope& late, double end_s);
+
+/// fit (fit_partial's of track) with the track's late part (late_part_start) when that part rises
+/// (peaks min_late_rise_s or more after it comes back): the late part fitted on its own and
+/// spliced in (spliced_envelope), the fitted stretch then running to the late fit's end. A
+/// sympathetic string swelling as the struck one fades: the dip where they cancel reaches the
+/// floor, where fit_partial stops.
+partial_fit fit_track(const partial_fit& fit, const partial_track& track, const envelope_fit_params& params);
 
 /// The continuous piecewise-linear fit of points (time_s, level_db, weight), times ascending,
 /// weights the inverse noise variances of the points (the fit adds model error when the residuals

@@ -74,3 +74,28 @@ TEST_CASE("beat level fit: a plain decay with noise is no beat (a line explains 
     INFO("fitted: " << (fit ? fit->rms_db : 0.0) << " dB RMS against the line's " << (fit ? fit->line_rms_db : 0.0));
     CHECK_FALSE(fit.has_value());
 }
+
+TEST_CASE("beat level fit: a track with dropouts (points missing) still gives both slopes and the beat rate within 0.1",
+          "[beat_level_fit]") {
+    // The fit walks the second mode's phasor from point to evenly spaced point and computes it
+    // anew after a gap: frames missing at a gap_start_s for gap_s must not throw it off.
+    const double gap_start_s = GENERATE(0.13, 0.71, 1.5);
+    const double gap_s = GENERATE(0.03, 0.25);
+    const pair_truth m{-20.0, -12.0, -30.0, -5.0, 1.1, 2.5};
+    std::vector<double> time_all, level_all, time_s, level_db;
+    pair_levels(m, 1.9, 0.1, time_all, level_all);
+    for (std::size_t i = 0; i < time_all.size(); ++i)
+        if (time_all[i] < gap_start_s || time_all[i] >= gap_start_s + gap_s) {
+            time_s.push_back(time_all[i]);
+            level_db.push_back(level_all[i]);
+        }
+    const auto fit = fit_beat_levels(time_s, level_db);
+    CAPTURE(gap_start_s, gap_s, time_s.size());
+    REQUIRE(fit.has_value());
+    CAPTURE(fit->slope_a_db_per_s, fit->slope_b_db_per_s, fit->beat_hz, fit->rms_db);
+    // Tolerance: as for the full track (0.1 of the truth; the noise moves the slopes by hundredths).
+    CHECK_THAT(std::max(fit->slope_a_db_per_s, fit->slope_b_db_per_s), WithinAbs(-5.0, 0.5));
+    CHECK_THAT(std::min(fit->slope_a_db_per_s, fit->slope_b_db_per_s), WithinAbs(-12.0, 1.2));
+    CHECK_THAT(fit->beat_hz, WithinAbs(1.1, 0.11));
+    CHECK(fit->rms_db < 0.15);
+}
