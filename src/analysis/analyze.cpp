@@ -253,6 +253,9 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     heard_span_spectrum heard;  // the recording's spectrum over the heard span, for both steps
     if (params.long_spectrum && onset_frame < part.size())
         heard = move_to_long_spectrum(out, fitted, part.subspan(onset_frame), sample_rate_hz, params.heard_peaks);
+    // Short fits that hold their level follow the recording's narrow band from their end on.
+    if (params.long_spectrum && onset_frame < part.size())
+        fall_held_short_fits(p, fitted, part.subspan(onset_frame), sample_rate_hz, heard, params.heard_peaks, fit_params);
     done("long spectrum");
 
     const double analysed_s = static_cast<double>(part.size()) / sample_rate_hz - tr.onset_s;

@@ -4,6 +4,7 @@
 #include <cassert>
 #include <cmath>
 #include <complex>
+#include <optional>
 #include <vector>
 
 #include "core/cosine_walk.hpp"
@@ -334,6 +335,59 @@ int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz
         ++added;
     }
     return added;
+}
+
+namespace {
+
+/// Whether the last decay segment does not fall (a held or rising level).
+bool last_holds(const envelope& env) {
+    return env.decay.empty() || !(t60_to_slope_db_per_s(env.decay.back().t60_s) < 0.0);
+}
+
+/// env up to from_s, then band's decay segments from from_s on (the first from there, also when the
+/// band peaks later: a narrow band's rise is smeared over about 1 / its width).
+void continue_with_band(envelope& env, const envelope& band, double from_s) {
+    env.decay.back().until_s = from_s;
+    for (const decay_segment& d : band.decay)
+        if (!d.until_s || *d.until_s > from_s) env.decay.push_back(d);
+}
+
+/// Distance from partial i's frequency to the nearest other partial's, Hz (infinity when alone).
+double nearest_other_hz(const patch& p, std::size_t i) {
+    double d = infinity;
+    for (std::size_t j = 0; j < p.partials.size(); ++j)
+        if (j != i) d = std::min(d, std::abs(p.partials[j].freq_hz - p.partials[i].freq_hz));
+    return d;
+}
+
+}  // namespace
+
+int fall_held_short_fits(patch& p, std::span<const cut_part> fitted, std::span<const float> note, double sample_rate_hz,
+                         const heard_span_spectrum& s, const heard_peak_params& params,
+                         const envelope_fit_params& fit_params) {
+    if (s.mag.empty()) return 0;
+    const double note_s = static_cast<double>(note.size()) / sample_rate_hz;
+    const double capture_hz = capture_hz_of(s, params);
+    std::optional<note_spectrum> spectrum;  // made only when a partial needs it
+    int changed = 0;
+    for (std::size_t i = 0; i < fitted.size() && i < p.partials.size(); ++i) {
+        const cut_part& f = fitted[i];
+        envelope& env = p.partials[i].env;
+        if (f.track == nullptr || f.track->cut_by_end || f.fit_end_s - f.fit_start_s >= params.short_fit_s ||
+            !last_holds(env))
+            continue;
+        const double prev_knot_s = env.decay.size() > 1 ? *env.decay[env.decay.size() - 2].until_s : env.attack_s;
+        if (!(f.fit_end_s > prev_knot_s)) continue;
+        const double band_hz = std::max(capture_hz, std::min(params.short_fit_band_hz, 0.5 * nearest_other_hz(p, i)));
+        if (!spectrum)
+            spectrum.emplace(note, sample_rate_hz,
+                             note.size() + static_cast<std::size_t>(std::ceil(2.0 / capture_hz * sample_rate_hz)));
+        const auto band = fit_partial(band_track(*spectrum, p.partials[i].freq_hz, band_hz, note_s, params), fit_params);
+        if (!band || last_holds(band->env)) continue;
+        continue_with_band(env, band->env, f.fit_end_s);
+        ++changed;
+    }
+    return changed;
 }
 
 }  // namespace wane

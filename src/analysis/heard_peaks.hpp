@@ -14,6 +14,7 @@
 #include <span>
 #include <vector>
 
+#include "analysis/cut_tail.hpp"
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
 #include "pitch/root.hpp"
@@ -57,6 +58,14 @@ struct heard_peak_params {
     double companion_half_widths = 1.0;
     double band_rate_hz = 80.0;     ///< the narrow band's rate: points 12.5 ms apart, as the STFT hop
     double floor_quantile = 0.1;    ///< the band's noise floor: this quantile of its level over the note
+    /// A track's fit shorter than this (seconds) that holds its level (fall_held_short_fits) is
+    /// continued by the narrow band's decay: a few frames between the attack's noise and the
+    /// track's end say nothing about how the partial decays.
+    double short_fit_s = 0.1;
+    /// ... and that band's half-width, Hz: at most this, wide enough that its own smear (about
+    /// 1 / width seconds) does not slow a decay of 100 dB/s; at most half the distance to the
+    /// nearest other partial (so the band reads this one); at least the capture distance.
+    double short_fit_band_hz = 20.0;
 };
 
 /// The recording's magnitude spectrum over the span (Hann, zero padded), made once for both steps
@@ -101,6 +110,17 @@ struct merge_result {
 /// Only partials with a track take part.
 merge_result merge_late_companions(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
                                    double sample_rate_hz, const heard_peak_params& params);
+
+/// Partials whose fitted stretch (fitted[i], i in the patch's order) is shorter than short_fit_s,
+/// whose track ended before the file did and whose last segment does not fall (fit_partial holds a
+/// rising last slope level): held so, a partial the recording shows decaying would sound at that
+/// level for the whole note. From the fit's end on, such a partial follows the decay slopes of
+/// the narrow band around it over the whole note (band as in add_heard_peaks, fitted with
+/// fit_params; its segment at the fit's end runs from there), when the band's last slope falls.
+/// Returns how many partials were changed.
+int fall_held_short_fits(patch& p, std::span<const cut_part> fitted, std::span<const float> note, double sample_rate_hz,
+                         const heard_span_spectrum& s, const heard_peak_params& params,
+                         const envelope_fit_params& fit_params);
 
 /// Adds a partial for each strong peak of the same span spectrum that no partial accounts for
 /// (a mode the tracker missed or fitted far below its level): its level over the whole note from

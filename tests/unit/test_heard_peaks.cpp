@@ -105,3 +105,45 @@ TEST_CASE("late companion within 2 Hz merges into its partial, which carries the
         CHECK_THAT(got_db, WithinAbs(truth_db, 1.5));
     }
 }
+
+TEST_CASE("a short track's fit held level (track ended early) falls from the fit's end at the narrow band's "
+          "rate, to within 2 dB of the true level; a track cut by the file's end is left held",
+          "[heard_peaks]") {
+    const double t60_s = GENERATE(0.6, 0.8, 1.0, 1.2, 2.4);  // 100 .. 25 dB/s
+    const component c{.freq_hz = 3000.0, .amp_lin = 0.01, .attack_s = 0.0, .t60_s = t60_s, .phase_rad = 0.4};
+    const auto x = note_of({c});
+    // What the envelope fit gives a track of a few frames under the attack's noise: the level at
+    // the first frames, held (its slope came out level or rising) for the whole note.
+    partial_track track = track_of(c);
+    track.points.resize(7);  // 0 .. 0.075 s: the track ended well before the note
+    patch p;
+    p.partials.push_back({.freq_hz = c.freq_hz, .harmonic = 0, .phase_rad = c.phase_rad,
+                          .env = {.attack_s = 0.0, .peak = to_level(amp_lin{c.amp_lin}),
+                                  .decay = {{.t60_s = infinity, .until_s = {}}}},
+                          .place = {}});
+    const std::vector<cut_part> fitted = {{.env = nullptr, .track = &track, .fit_start_s = 0.0125, .fit_end_s = 0.0375}};
+    const heard_peak_params params{};
+    const heard_span_spectrum s = heard_spectrum(x, rate_hz, params);
+    const envelope_fit_params fit_params{.window_s = 0.05};
+
+    SECTION("track ended early: falls from the fit's end") {
+        REQUIRE(fall_held_short_fits(p, fitted, x, rate_hz, s, params, fit_params) == 1);
+        // Up to the fit's end the fitted level stays; after it the level follows the recording.
+        CHECK_THAT(envelope_level(p.partials[0].env, 0.03).db, WithinAbs(-40.0, 1e-9));
+        for (const double t : {0.5, 1.0, 2.0}) {
+            const double truth_db = 20.0 * std::log10(amp_at(c, t));
+            const double expected_db = truth_db + 20.0 * std::log10(amp_at(c, 0.0)) -
+                                       20.0 * std::log10(amp_at(c, 0.0375));  // held until 0.0375 s
+            const double got_db = envelope_level(p.partials[0].env, t).db;
+            CAPTURE(t60_s, t, truth_db, expected_db, got_db);
+            if (truth_db < -95.0) continue;  // under the -100 dB floor the band reads the noise
+            CHECK_THAT(got_db, WithinAbs(expected_db, 2.0));
+        }
+    }
+    SECTION("track cut by the file's end: unchanged") {
+        track.cut_by_end = true;
+        const envelope before = p.partials[0].env;
+        CHECK(fall_held_short_fits(p, fitted, x, rate_hz, s, params, fit_params) == 0);
+        CHECK(p.partials[0].env == before);
+    }
+}
