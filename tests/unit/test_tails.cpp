@@ -252,7 +252,7 @@ TEST_CASE("real notes: the cut recordings are found cut, their tails fall no fas
         // rule 0 gives 28 and 5.4 dB/s past the cut) falls on, but its harmonic 2 (394 Hz) rises
         // 13 dB after a dip at 0.45 s and holds, falling about 1 dB/s over the recording's last
         // 0.6 s (0.1 s Hann frames; a sympathetic string): its copy follows it (the envelope fit's
-        // late part, fitting/envelope_fit.hpp), and falls 12.4 dB by 3x.
+        // late part, fitting/envelope_fit.hpp), and falls 12.2 dB by 3x (tools/eval_texture.py).
         bool falls_20_db;
     };
     const note_case cases[] = {{"banjo_g3.wav", true, false}, {"guitar_steel_a2.wav", true, true},
