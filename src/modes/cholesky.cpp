@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstring>
+#include <numeric>
 #include <vector>
 
 #include "modes/tile_products.hpp"
@@ -105,9 +106,12 @@ bool cholesky_in_place(Eigen::Ref<Eigen::MatrixXd> a) {
         if (rest == 0) break;
         // The rows below: A21 <- A21 L11^-T.
         solve_panel(a.block(k0 + b, k0, rest, b), a.block(k0, k0, b, b));
-        // The trailing matrix: A22 -= A21 A21^T (lower triangle), A21 packed with padded rows.
+        // The trailing matrix: A22 -= A21 A21^T (lower triangle), A21 packed with padded rows. The
+        // one panel is both a (rows in tiles of product_tile_rows) and b (product_tile_cols), so
+        // its rows are padded to a multiple of both (zero rows: the sums of the real entries are unchanged).
         const auto m = static_cast<std::size_t>(rest);
-        const std::size_t rows_pad = (m + product_tile_rows - 1) / product_tile_rows * product_tile_rows;
+        constexpr std::size_t both_tiles = std::lcm(product_tile_rows, product_tile_cols);
+        const std::size_t rows_pad = (m + both_tiles - 1) / both_tiles * both_tiles;
         packed.assign(rows_pad * static_cast<std::size_t>(b), 0.0);
         for (Eigen::Index k = 0; k < b; ++k)
             for (Eigen::Index i = 0; i < rest; ++i) packed[static_cast<std::size_t>(k) * rows_pad + static_cast<std::size_t>(i)] = a(k0 + b + i, k0 + k);
