@@ -192,13 +192,18 @@ void refine_start(analysis_result& out, std::span<const float> note, double samp
     out.summary.segments = segment_count(p);
 }
 
-/// The early pitch glides, then the close modes of the strongest partials without one; done(stage)
-/// after each.
+/// The early pitch glides, then the close modes of the strongest partials without one and the
+/// partials' early companions (analysis/early_companion.hpp); done(stage) after each.
 void glides_and_modes(analysis_result& out, std::span<const float> part, double sample_rate_hz,
                       const analysis_params& params, const auto& done) {
     if (params.fit_glides) out.summary.glides = glides_from_onset(out, part, sample_rate_hz, params.glides);
     done("onset glides");
     if (params.split_modes) split_strong_partials(out, part, sample_rate_hz, params.modes);
+    const auto start = static_cast<std::size_t>(std::llround(out.tracking.onset_s * sample_rate_hz));
+    if (params.early_companions && start < part.size()) {
+        out.summary.partials += add_early_companions(out.value, part.subspan(start), sample_rate_hz, params.companions);
+        out.summary.segments = segment_count(out.value);
+    }
     done("mode split");
 }
 

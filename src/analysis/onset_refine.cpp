@@ -7,6 +7,7 @@
 #include <utility>
 #include <vector>
 
+#include "analysis/early_companion.hpp"
 #include "analysis/new_mode_rule.hpp"
 #include "analysis/onset_attack.hpp"
 #include "analysis/onset_start.hpp"
@@ -310,9 +311,26 @@ bool update_attacks(const patch& p, const waveform_fit& f, std::span<const doubl
     return changed;
 }
 
+/// Partials that start better with their STFT shape beside an early companion take it (become shaped,
+/// analysis/early_companion.hpp); the companions join one last fit only (apply_fit leaves them out).
+std::size_t take_stft_starts(fit_path& s, const patch& p, std::span<const float> note, std::span<const double> decay, shaped_fit_memo& memo,
+                             double span_energy, double sample_rate_hz, std::size_t fit_n, const early_companion_params& params) {
+    const std::size_t own = s.f.partial_of.size();
+    stft_starts stft;
+    for (const std::size_t k : s.f.partial_of) add_stft_start(stft, p.partials[k].env, s.roles[k] == role::exponential, sample_rate_hz, fit_n);
+    const stft_switch found = choose_stft_starts(joint_residual(s.f.target, sample_rate_hz, s.f.modes, s.f.shapes), sample_rate_hz,
+                                                 std::span(s.f.modes).first(own), std::span(s.f.shapes).first(own), stft,
+                                                 std::span(s.f.energy).first(own), span_energy, params);
+    for (const std::size_t i : found.partials) s.roles[s.f.partial_of[i]] = role::shaped;
+    s.new_modes.insert(s.new_modes.end(), found.companions.begin(), found.companions.end());
+    if (!found.companions.empty())
+        s.f = fit_waveform(p, note, sample_rate_hz, fit_n, s.roles, decay, s.attacks, s.new_modes, nullptr, &memo);
+    return found.companions.size();
+}
+
 /// Writes the fitted starts into the partials and appends the new modes as partials.
 void apply_fit(patch& p, const waveform_fit& f, std::span<const role> roles, std::span<const attack_choice> attacks,
-               double sample_rate_hz, const onset_refine_params& params, onset_refine_summary& summary) {
+               double sample_rate_hz, const onset_refine_params& params, onset_refine_summary& summary, std::size_t companions) {
     for (std::size_t i = 0; i < f.partial_of.size(); ++i) {
         partial& part = p.partials[f.partial_of[i]];
         const damped_mode& m = f.modes[i];
@@ -332,7 +350,7 @@ void apply_fit(patch& p, const waveform_fit& f, std::span<const role> roles, std
         part.phase_rad = std::arg(m.amp);
         ++summary.refined;
     }
-    for (std::size_t i = f.partial_of.size(); i < f.modes.size(); ++i) {
+    for (std::size_t i = f.partial_of.size(); i + companions < f.modes.size(); ++i) {  // the companions come later
         const damped_mode& m = f.modes[i];
         const double level0 = to_level(amp_lin{std::abs(m.amp)}).db;
         if (!(level0 < max_peak_db)) continue;
@@ -423,9 +441,9 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
     if (other) run(*other, 1, nullptr);
     const double energy = signal_energy(note.first(fit_n));
     if (other && other->f.residual_energy < s.f.residual_energy - params.attacks.min_gain_share * energy) s = std::move(*other);
-    const waveform_fit& f = s.f;
-    summary.explained_db = energy > 0.0 ? power_to_db(energy / std::max(f.residual_energy, 1e-30 * energy)) : 0.0;
-    apply_fit(p, f, s.roles, s.attacks, sample_rate_hz, params, summary);
+    const std::size_t companions = params.stft_starts ? take_stft_starts(s, p, note, decay, memo, energy, sample_rate_hz, fit_n, params.companions) : 0;
+    summary.explained_db = energy > 0.0 ? power_to_db(energy / std::max(s.f.residual_energy, 1e-30 * energy)) : 0.0;
+    apply_fit(p, s.f, s.roles, s.attacks, sample_rate_hz, params, summary, companions);
     return summary;
 }
 

@@ -9,6 +9,7 @@
 #include <span>
 
 #include "core/patch.hpp"
+#include "analysis/early_companion.hpp"
 #include "analysis/onset_attack.hpp"
 #include "modes/subband_modes.hpp"
 
@@ -90,6 +91,11 @@ struct onset_refine_params {
     double start_rise_decay_per_s = 46.0;
     /// An envelope with an instant onset that agrees with the early line within this is kept.
     double agree_db = 1.0;
+    /// After the passes, a partial whose STFT envelope rises may take that shape when it fits the
+    /// span better beside an early companion (analysis/early_companion.hpp: choose_stft_starts).
+    /// Off by default, with analysis_params::early_companions (which says why).
+    bool stft_starts = false;
+    early_companion_params companions{};
 };
 
 struct onset_refine_summary {

@@ -421,6 +421,10 @@ analysis_result analyze_stereo_note(std::span<const float> mix, std::span<const 
     mix_params.onset.attacks.max_rising_partials = 0;
     // The channels are placed by one phase per partial (plain damped modes): no glides on the mix.
     mix_params.fit_glides = false;
+    // Nor early companions (analysis/early_companion.hpp): two partials at one frequency are one
+    // sinusoid on the mix, and the channels' fit cannot tell which of the two a channel holds.
+    mix_params.early_companions = false;
+    mix_params.onset.stft_starts = false;
     analysis_result out = analyze_note(mix, sample_rate_hz, mix_params);
     patch& p = out.value;
     const auto onset = std::min(static_cast<std::size_t>(std::llround(p.source.onset_s * sample_rate_hz)), mix.size());
