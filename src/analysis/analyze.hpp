@@ -54,11 +54,14 @@ struct analysis_params {
     bool split_modes = true;
     mode_split_params modes{};
     /// Then give partials whose first 150 ms one shape cannot follow an early companion at their
-    /// frequency (analysis/early_companion.hpp). Off by default: on the 17 real notes (with
-    /// onset.stft_starts) the median first-100 ms SNR rose 13.59 -> 13.77 dB, piano_d2 +0.3,
-    /// xylophone +1.8, timpani +0.8 dB, LSD within 0.02 dB, but pizzicato_c2 fell 0.39 dB (the
-    /// evaluation aligns its copy 31 ms after the onset the companions were fitted from) and
-    /// banjo_g3 0.64 dB (its alignment moved by one sample; at the old lag it rose 0.63 dB).
+    /// frequency (analysis/early_companion.hpp); analyze_stereo_note turns it off for the mix.
+    /// Off by default. On (with onset.stft_starts), on the 17 real notes (tools/bench_fidelity),
+    /// the median first-100 ms SNR rose 13.59 -> 14.16 dB (piano_d2 7.81 -> 10.05, xylophone
+    /// 10.26 -> 12.66, dulcimer 6.04 -> 7.37, harpsichord 5.44 -> 6.56, timpani 5.08 -> 5.99; no
+    /// note down by more than 0.01 dB), no log-spectral distance up by more than 0.08 dB; but
+    /// tools/eval_texture.py's median floor at 8192 points moved -0.21 -> -0.48 dB, mostly
+    /// piano_as4's (-0.02 -> -1.44: its copy's gain moved 0.31 dB and peak matching stepped
+    /// its noise down 1 dB).
     bool early_companions = false;
     early_companion_params companions{};
     /// Give the partials that start at once a sub-millisecond rise where their jump from silence

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <complex>
 #include <functional>
+#include <numbers>
 #include <optional>
 #include <utility>
 
@@ -111,6 +112,12 @@ candidate fit_candidate(std::span<const float> r, double sample_rate_hz, const d
     return c;
 }
 
+/// A companion of this T60 at freq_hz is a resonance, not a burst: its quality factor
+/// Q = pi f / d (f over its -3 dB bandwidth d / pi; d = ln1000 / T60, 1/s) is at least min_q.
+bool is_resonance(double freq_hz, double t60_s, const early_companion_params& params) {
+    return std::numbers::pi * freq_hz * t60_s / ln1000 >= params.min_q;
+}
+
 /// A fitted amplitude in dB (of a shaped mode: its shape's scale, 0 dB as its envelope has it).
 double amp_db(const damped_mode& m) { return to_level(amp_lin{std::abs(m.amp)}).db; }
 
@@ -145,13 +152,14 @@ stft_switch choose_stft_starts(std::span<const double> joint, double sample_rate
         candidate kept = fit_candidate(with_own, sample_rate_hz, modes[i], shapes[i], 0.0);
         std::optional<candidate> switched;
         for (const double t60_s : params.t60_grid_s) {
+            if (!is_resonance(modes[i].freq_hz, t60_s, params)) continue;
             const double decay = ln1000 / t60_s;  // 1/s
             candidate c = fit_candidate(with_own, sample_rate_hz, modes[i], shapes[i], decay);
             if (c.left_energy < kept.left_energy) kept = std::move(c);
             if (stft.shapes[i].empty()) continue;
             c = fit_candidate(with_own, sample_rate_hz, modes[i], stft.shapes[i], decay);
             if (std::abs(amp_db(c.modes[0])) <= params.max_shape_scale_db &&
-                amp_db(c.modes[1]) <= stft.peak_db[i] + params.max_over_partial_db &&
+                amp_db(c.modes[1]) <= stft.peak_db[i] + params.max_over_stft_db &&
                 (!switched || c.left_energy < switched->left_energy))
                 switched = std::move(c);
         }
@@ -194,9 +202,9 @@ int add_early_companions(patch& p, std::span<const float> note, double sample_ra
         one_mode_fit best;
         double best_t60_s = 0.0;
         for (const double t60_s : params.t60_grid_s) {
+            if (!is_resonance(freq_hz, t60_s, params)) continue;
             const one_mode_fit f = fit_decaying(residual, cos_n, sin_n, -ln1000 / (t60_s * sample_rate_hz));
-            const double level = to_level(amp_lin{std::abs(f.amp) / gain_lin}).db;
-            if (f.explained > best.explained && level <= peak_db + params.max_over_partial_db) best = f, best_t60_s = t60_s;
+            if (f.explained > best.explained) best = f, best_t60_s = t60_s;
         }
         if (!(best.explained >= params.min_gain_share * signal)) continue;
         // Taken off the residual: the next partial's companion is fitted on what is left.

@@ -27,17 +27,26 @@ struct early_companion_params {
     /// Span of the recording after the patch's onset the companions are fitted on, seconds (the
     /// onset fit's).
     double span_s = 0.15;
-    /// T60s tried for a companion, seconds: it dies within the span or a little past it.
-    std::vector<double> t60_grid_s{0.015, 0.03, 0.06, 0.12};
+    /// T60s tried for a companion, seconds: it dies within the span or a little past it (-36 dB
+    /// at 0.15 s for the longest).
+    std::vector<double> t60_grid_s{0.015, 0.03, 0.06, 0.12, 0.25};
     /// Only partials whose loudest level over the span is within this of the loudest partial's get one.
     double range_db = 40.0;
     /// A companion is kept when it lowers the residual energy of the span by at least this share
     /// of the recording's energy there (1/10 of the attack search's margin, analysis/onset_attack.hpp:
     /// a secondary partial's early stage holds a few tenths of a percent of a note's first 150 ms).
     double min_gain_share = 0.0002;
-    /// A companion starts at most this far over its partial's loudest level over the span: louder,
-    /// it is the attack's noise at the partial's frequency, not a stage of the partial.
-    double max_over_partial_db = 0.0;
+    /// A companion is a resonance, not a burst of the attack's noise at the partial's frequency:
+    /// its quality factor pi f / d (f over its bandwidth; d = ln1000 / T60) is at least this (the
+    /// onset fit's min_new_q for its new modes). A level cap in its place (no louder than its
+    /// partial's STFT envelope over the span) kept out the companions piano_d2's second and third
+    /// harmonics need (the STFT has them 15-20 dB low at 10 ms); with neither, pizzicato_c2's
+    /// first-100 ms SNR fell 0.3 dB (its companions of T60 15-30 ms at 65-390 Hz: Q 1-6).
+    double min_q = 10.0;
+    /// In the onset fit, a companion beside a partial's STFT shape starts at most this far over
+    /// that envelope's loudest level over the span (the swell the STFT saw and its early stage;
+    /// with no cap there, glockenspiel_g6's log-spectral distance rose 0.45 dB).
+    double max_over_stft_db = 0.0;
     /// In the onset fit, a partial's STFT shape is taken only with a scale within this many dB of
     /// the envelope's (the fit's slow_rise_db: a shaped partial's level moves by at most this).
     double max_shape_scale_db = 6.0;
@@ -56,9 +65,9 @@ void add_stft_start(stft_starts& out, const envelope& env, bool may_take, double
 /// their STFT shape and a companion than with their fitted shape, with or without one. Each is
 /// refitted alone on the fit's residual with its own part put back (joint: target minus every
 /// fitted mode, analysis/onset_attack.hpp's joint_residual): its fitted shape alone, then with a
-/// companion of each grid T60, then its STFT shape (level within max_shape_scale_db of the
-/// envelope's) with one; the choice is taken into the residual before the next partial (by energy
-/// over the span, the strongest first). The STFT shape wins when it lowers the residual by
+/// companion of each grid T60 (min_q), then its STFT shape (level within max_shape_scale_db of the
+/// envelope's) with one (max_over_stft_db); the choice is taken into the residual before the next
+/// partial (by energy over the span, the strongest first). The STFT shape wins when it lowers the residual by
 /// min_gain_share of span_energy more than the best with the fitted shape. The companions
 /// themselves are fitted again at the end (add_early_companions). companions: the one chosen with
 /// each STFT shape (freq_hz, decay_per_s, amp at t = 0), for the fit's last pass.
