@@ -74,6 +74,18 @@ one_mode_fit fit_decaying(std::span<const double> r, std::span<const double> cos
     return {.amp = {ar, ai}, .explained = ar * ru + ai * rv};
 }
 
+/// Energy of a partial with envelope env (times gain_lin) over [0, span_s]: sum over samples of
+/// a(t)^2 / 2 (a sinusoid's mean square), a(t) read every millisecond.
+double span_energy(const envelope& env, double gain_lin, double sample_rate_hz, double span_s) {
+    constexpr double step_s = 0.001;
+    double sum = 0.0;
+    for (int j = 0; j < static_cast<int>(span_s / step_s); ++j) {
+        const double a = gain_lin * to_amp(envelope_level(env, step_s * (j + 0.5))).lin;
+        sum += 0.5 * a * a;
+    }
+    return sum * step_s * sample_rate_hz;
+}
+
 /// The loudest level of env over [0, span_s], sampled every 5 ms and at the attack's end, dB.
 double span_peak_db(const envelope& env, double span_s) {
     constexpr double step_s = 0.005;
@@ -206,7 +218,10 @@ int add_early_companions(patch& p, std::span<const float> note, double sample_ra
             const one_mode_fit f = fit_decaying(residual, cos_n, sin_n, -ln1000 / (t60_s * sample_rate_hz));
             if (f.explained > best.explained) best = f, best_t60_s = t60_s;
         }
-        if (!(best.explained >= params.min_gain_share * signal)) continue;
+        // What a companion must explain: a share of the span's energy, and of its partial's own
+        // energy there (a small level error of a strong partial leaves no stage to follow).
+        const double own_energy = span_energy(p.partials[k].env, gain_lin, sample_rate_hz, span_s);
+        if (!(best.explained >= std::max(params.min_gain_share * signal, params.min_partial_share * own_energy))) continue;
         // Taken off the residual: the next partial's companion is fitted on what is left.
         const double step = std::exp(-ln1000 / (best_t60_s * sample_rate_hz));
         double e = 1.0;

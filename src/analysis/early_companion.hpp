@@ -36,6 +36,10 @@ struct early_companion_params {
     /// of the recording's energy there (1/10 of the attack search's margin, analysis/onset_attack.hpp:
     /// a secondary partial's early stage holds a few tenths of a percent of a note's first 150 ms).
     double min_gain_share = 0.0002;
+    /// ... and at least this share of its partial's own energy over the span (-13 dB): a
+    /// strong partial's small level or decay error is no early stage (a clean note of three
+    /// damped modes got companions of 0.02-0.05% of its energy without this).
+    double min_partial_share = 0.05;
     /// A companion is a resonance, not a burst of the attack's noise at the partial's frequency:
     /// its quality factor pi f / d (f over its bandwidth; d = ln1000 / T60) is at least this (the
     /// onset fit's min_new_q for its new modes). A level cap in its place (no louder than its
