@@ -19,8 +19,8 @@
 namespace wane {
 
 struct glide_heard_params {
-    double step_s = 0.0005;       ///< the baseband's sample step (offsets up to 1000 Hz alias-free)
-    double grid_hz = 0.05;        ///< the coarse scan's step (the window's main lobe: 2 Hz over 1 s)
+    double step_s = 0.001;        ///< the baseband's sample step (offsets up to 500 Hz alias-free)
+    double grid_hz = 0.1;         ///< the coarse scan's step (the window's main lobe: +-2 Hz over 1 s)
     double tolerance_hz = 1e-5;   ///< the golden-section refinement's end
 };
 

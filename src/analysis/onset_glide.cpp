@@ -222,13 +222,13 @@ std::optional<partial> fit_heard_glide(const glide_target& t, const partial& q, 
     const double tolerance_hz = q.freq_hz * std::expm1(std::numbers::ln2 / 1200.0 * params.heard_tolerance_cents);
     for (int pass = 0;; ++pass) {
         const double miss_hz = g.freq_hz + glide_heard_offset_hz(g, heard_span_start_s, t.heard_end_s, {}) - q.freq_hz;
-            if (std::abs(miss_hz) <= tolerance_hz) return g;
+        if (std::abs(miss_hz) <= tolerance_hz) return g;
         if (pass == params.heard_passes) {
             // The refits move the glide by grid steps: the last one keeps its glide and only
             // its settled frequency moves (the miss follows it one for one).
             g.freq_hz -= miss_hz;
             const double left_hz = g.freq_hz + glide_heard_offset_hz(g, heard_span_start_s, t.heard_end_s, {}) - q.freq_hz;
-                    if (std::abs(left_hz) <= tolerance_hz) return g;
+            if (std::abs(left_hz) <= tolerance_hz) return g;
             return std::nullopt;
         }
         settled.freq_hz -= miss_hz;
