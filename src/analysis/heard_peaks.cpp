@@ -253,7 +253,8 @@ partial_track band_track(const note_spectrum& spectrum, double freq_hz, double h
 
 }  // namespace
 
-merge_result merge_late_companions(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
+merge_result merge_late_companions(patch& p, std::span<const partial_track* const> tracks,
+                                   std::span<const double> fit_end_s, std::span<const float> note,
                                    double sample_rate_hz, const heard_peak_params& params) {
     assert(tracks.size() <= p.partials.size());
     merge_result out;
@@ -284,14 +285,19 @@ merge_result merge_late_companions(patch& p, std::span<const partial_track* cons
         }
         if (group.empty()) continue;
         partial& q = p.partials[i];
+        std::size_t last = i;  // the member whose envelope runs on at the end
         for (const std::size_t j : group) {
             const envelope& other = p.partials[j].env;
             const bool first = q.env.attack_s <= other.attack_s;
-            q.env = spliced_envelope(first ? q.env : other, first ? other : q.env, note_s);
+            const envelope early = first ? q.env : other;
+            q.env = spliced_envelope(early, first ? other : q.env, note_s);
+            if (!(q.env == early)) last = first ? j : last;  // the later member took over
+            else if (!first) last = j;                       // never louder: the earlier member's
             if (!first) q.phase_rad = p.partials[j].phase_rad;  // the start is the other's
             gone[j] = true;
         }
-        out.kept.push_back({.index = i, .fit_start_s = 0.0, .fit_end_s = note_s});
+        const bool ran_on = fit_end_s.empty() || tracks[last]->cut_by_end;
+        out.kept.push_back({.index = i, .fit_start_s = 0.0, .fit_end_s = ran_on ? note_s : fit_end_s[last]});
     }
     for (std::size_t j = tracks.size(); j-- > 0;)
         if (gone[j]) {
@@ -360,11 +366,36 @@ double nearest_other_hz(const patch& p, std::size_t i) {
     return d;
 }
 
+/// Longest run of the band's points after from_s at which env stands more than over_db above the
+/// band's level, seconds (points times their spacing). The band's level: the power mean of its
+/// points within +-smoothing_s (a beat's trough or a noise dip is not what the partial may not pass).
+double time_over_band_s(const envelope& env, const partial_track& band, double from_s, double over_db,
+                        double smoothing_s) {
+    const auto& pts = band.points;
+    if (pts.size() < 2) return 0.0;
+    const double step_s = pts[1].time_s - pts[0].time_s;
+    const auto half = static_cast<std::ptrdiff_t>(std::floor(smoothing_s / step_s));
+    const auto pieces = envelope_pieces(env);
+    const auto n = static_cast<std::ptrdiff_t>(pts.size());
+    std::ptrdiff_t run = 0, longest = 0;
+    for (std::ptrdiff_t i = 0; i < n; ++i) {
+        if (pts[static_cast<std::size_t>(i)].time_s <= from_s) continue;
+        double power = 0.0;  // mean of 10^(level / 10) over the points within +-half
+        const std::ptrdiff_t a = std::max<std::ptrdiff_t>(0, i - half), b = std::min(n - 1, i + half);
+        for (std::ptrdiff_t k = a; k <= b; ++k) power += db_to_power(pts[static_cast<std::size_t>(k)].level_db);
+        const double band_db = power_to_db(power / static_cast<double>(b - a + 1));
+        const bool over = envelope_level(env, pieces, pts[static_cast<std::size_t>(i)].time_s).db - band_db > over_db;
+        run = over ? run + 1 : 0;
+        longest = std::max(longest, run);
+    }
+    return static_cast<double>(longest) * step_s;
+}
+
 }  // namespace
 
-int fall_held_short_fits(patch& p, std::span<const cut_part> fitted, std::span<const float> note, double sample_rate_hz,
-                         const heard_span_spectrum& s, const heard_peak_params& params,
-                         const envelope_fit_params& fit_params) {
+int follow_band_past_fits(patch& p, std::span<const cut_part> fitted, std::span<const float> note, double sample_rate_hz,
+                          const heard_span_spectrum& s, const heard_peak_params& params,
+                          const envelope_fit_params& fit_params) {
     if (s.mag.empty()) return 0;
     const double note_s = static_cast<double>(note.size()) / sample_rate_hz;
     const double capture_hz = capture_hz_of(s, params);
@@ -373,16 +404,19 @@ int fall_held_short_fits(patch& p, std::span<const cut_part> fitted, std::span<c
     for (std::size_t i = 0; i < fitted.size() && i < p.partials.size(); ++i) {
         const cut_part& f = fitted[i];
         envelope& env = p.partials[i].env;
-        if (f.track == nullptr || f.track->cut_by_end || f.fit_end_s - f.fit_start_s >= params.short_fit_s ||
-            !last_holds(env))
-            continue;
+        if (f.track != nullptr ? f.track->cut_by_end : !(f.fit_end_s < note_s)) continue;
         const double prev_knot_s = env.decay.size() > 1 ? *env.decay[env.decay.size() - 2].until_s : env.attack_s;
         if (!(f.fit_end_s > prev_knot_s)) continue;
+        const bool short_held = f.fit_end_s - f.fit_start_s < params.short_fit_s && last_holds(env);
         const double band_hz = std::max(capture_hz, std::min(params.short_fit_band_hz, 0.5 * nearest_other_hz(p, i)));
         if (!spectrum)
             spectrum.emplace(note, sample_rate_hz,
                              note.size() + static_cast<std::size_t>(std::ceil(2.0 / capture_hz * sample_rate_hz)));
-        const auto band = fit_partial(band_track(*spectrum, p.partials[i].freq_hz, band_hz, note_s, params), fit_params);
+        const partial_track band_points = band_track(*spectrum, p.partials[i].freq_hz, band_hz, note_s, params);
+        if (!short_held && time_over_band_s(env, band_points, f.fit_end_s, params.over_band_db,
+                                            params.band_smoothing_s) <= params.over_band_s)
+            continue;
+        const auto band = fit_partial(band_points, fit_params);
         if (!band || last_holds(band->env)) continue;
         continue_with_band(env, band->env, f.fit_end_s);
         ++changed;
