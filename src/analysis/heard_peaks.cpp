@@ -374,18 +374,18 @@ double time_over_band_s(const envelope& env, const partial_track& band, double f
     const auto& pts = band.points;
     if (pts.size() < 2) return 0.0;
     const double step_s = pts[1].time_s - pts[0].time_s;
-    const auto half = static_cast<std::ptrdiff_t>(std::floor(smoothing_s / step_s));
+    const auto half = static_cast<std::size_t>(std::floor(smoothing_s / step_s));
+    std::vector<double> power(pts.size());  // 10^(level / 10) of each point
+    for (std::size_t i = 0; i < pts.size(); ++i) power[i] = db_to_power(pts[i].level_db);
     const auto pieces = envelope_pieces(env);
-    const auto n = static_cast<std::ptrdiff_t>(pts.size());
-    std::ptrdiff_t run = 0, longest = 0;
-    for (std::ptrdiff_t i = 0; i < n; ++i) {
-        if (pts[static_cast<std::size_t>(i)].time_s <= from_s) continue;
-        double power = 0.0;  // mean of 10^(level / 10) over the points within +-half
-        const std::ptrdiff_t a = std::max<std::ptrdiff_t>(0, i - half), b = std::min(n - 1, i + half);
-        for (std::ptrdiff_t k = a; k <= b; ++k) power += db_to_power(pts[static_cast<std::size_t>(k)].level_db);
-        const double band_db = power_to_db(power / static_cast<double>(b - a + 1));
-        const bool over = envelope_level(env, pieces, pts[static_cast<std::size_t>(i)].time_s).db - band_db > over_db;
-        run = over ? run + 1 : 0;
+    std::size_t run = 0, longest = 0;
+    for (std::size_t i = 0; i < pts.size(); ++i) {
+        if (pts[i].time_s <= from_s) continue;
+        const std::size_t a = i > half ? i - half : 0, b = std::min(pts.size() - 1, i + half);
+        double sum = 0.0;  // the power mean over the points within +-half
+        for (std::size_t k = a; k <= b; ++k) sum += power[k];
+        const double band_db = power_to_db(sum / static_cast<double>(b - a + 1));
+        run = envelope_level(env, pieces, pts[i].time_s).db - band_db > over_db ? run + 1 : 0;
         longest = std::max(longest, run);
     }
     return static_cast<double>(longest) * step_s;
@@ -404,10 +404,11 @@ int follow_band_past_fits(patch& p, std::span<const cut_part> fitted, std::span<
     for (std::size_t i = 0; i < fitted.size() && i < p.partials.size(); ++i) {
         const cut_part& f = fitted[i];
         envelope& env = p.partials[i].env;
-        if (f.track != nullptr ? f.track->cut_by_end : !(f.fit_end_s < note_s)) continue;
+        if (!(f.fit_end_s < note_s)) continue;
         const double prev_knot_s = env.decay.size() > 1 ? *env.decay[env.decay.size() - 2].until_s : env.attack_s;
         if (!(f.fit_end_s > prev_knot_s)) continue;
-        const bool short_held = f.fit_end_s - f.fit_start_s < params.short_fit_s && last_holds(env);
+        const bool ended_early = f.track == nullptr || !f.track->cut_by_end;  // merged: fit_end_s says
+        const bool short_held = ended_early && f.fit_end_s - f.fit_start_s < params.short_fit_s && last_holds(env);
         const double band_hz = std::max(capture_hz, std::min(params.short_fit_band_hz, 0.5 * nearest_other_hz(p, i)));
         if (!spectrum)
             spectrum.emplace(note, sample_rate_hz,

@@ -123,18 +123,18 @@ merge_result merge_late_companions(patch& p, std::span<const partial_track* cons
                                    std::span<const double> fit_end_s, std::span<const float> note,
                                    double sample_rate_hz, const heard_peak_params& params);
 
-/// Partials whose track ended before the file did (a merged partial's, fitted[i].track null: as its
-/// fitted stretch says, merged_partial), and either whose fitted stretch (fitted[i], i in
-/// the patch's order) is shorter than short_fit_s and whose last segment does not fall
-/// (fit_partial holds a rising last slope level), or whose envelope after the fit's end stands more
-/// than over_band_db over the level of the narrow band around it (the power mean within
-/// +-band_smoothing_s) for longer than over_band_s: the recording shows the partial decaying
-/// faster than its fit's last slope runs on (a slope read off a few frames under the attack's
-/// noise, a beat's rise held level), and the band holds the partial and whatever lies near it, so
-/// the partial cannot be louder. From the fit's end on, such a partial follows the decay slopes of
-/// that band over the whole note (band as in add_heard_peaks, fitted with fit_params; its segment
-/// at the fit's end runs from there), when the band's last slope falls. Returns how many partials
-/// were changed.
+/// Partials whose fit (fitted[i], i in the patch's order) ended before the note did, and either
+/// whose track ended before the file did (a merged partial's, fitted[i].track null: as its fitted
+/// stretch says, merged_partial), whose fitted stretch is shorter than short_fit_s and whose last
+/// segment does not fall (fit_partial holds a rising last slope level), or whose envelope after
+/// the fit's end stands more than over_band_db over the level of the narrow band around it (the
+/// power mean within +-band_smoothing_s) for longer than over_band_s: the recording shows the
+/// partial decaying faster than its fit's last slope runs on (a slope read off a few frames under
+/// the attack's noise, a beat's rise held level), and the band holds the partial and whatever lies
+/// near it, so the partial cannot be louder. From the fit's end on, such a partial follows the
+/// decay slopes of that band over the whole note (band as in add_heard_peaks, fitted with
+/// fit_params; its segment at the fit's end runs from there), when the band's last slope falls.
+/// Returns how many partials were changed.
 int follow_band_past_fits(patch& p, std::span<const cut_part> fitted, std::span<const float> note, double sample_rate_hz,
                           const heard_span_spectrum& s, const heard_peak_params& params,
                           const envelope_fit_params& fit_params);

@@ -107,7 +107,8 @@ TEST_CASE("late companion within 2 Hz merges into its partial, which carries the
 }
 
 TEST_CASE("a short track's fit held level (track ended early) falls from the fit's end at the narrow band's "
-          "rate, to within 2 dB of the true level; a track cut by the file's end is left held",
+          "rate, to within 2 dB of the true level; a track cut by the file's end is left held by the short-fit "
+          "rule (changed only by the band rule, and not when fitted to the note's end)",
           "[heard_peaks]") {
     const double t60_s = GENERATE(0.6, 0.8, 1.0, 1.2, 2.4);  // 100 .. 25 dB/s
     const component c{.freq_hz = 3000.0, .amp_lin = 0.01, .attack_s = 0.0, .t60_s = t60_s, .phase_rad = 0.4};
@@ -140,11 +141,22 @@ TEST_CASE("a short track's fit held level (track ended early) falls from the fit
             CHECK_THAT(got_db, WithinAbs(expected_db, 2.0));
         }
     }
-    SECTION("track cut by the file's end: unchanged") {
+    SECTION("track cut by the file's end, fitted to the note's end: unchanged") {
         track.cut_by_end = true;
+        const std::vector<cut_part> to_end = {{.env = nullptr, .track = &track, .fit_start_s = 0.0125, .fit_end_s = note_s}};
         const envelope before = p.partials[0].env;
-        CHECK(follow_band_past_fits(p, fitted, x, rate_hz, s, params, fit_params) == 0);
+        CHECK(follow_band_past_fits(p, to_end, x, rate_hz, s, params, fit_params) == 0);
         CHECK(p.partials[0].env == before);
+    }
+    SECTION("track cut by the file's end, fit ended early: the short-fit rule leaves it, the band rule "
+            "(held 6 dB over the band for more than 0.1 s) does not") {
+        track.cut_by_end = true;
+        heard_peak_params short_rule_only = params;
+        short_rule_only.over_band_s = infinity;
+        patch q = p;
+        CHECK(follow_band_past_fits(q, fitted, x, rate_hz, s, short_rule_only, fit_params) == 0);
+        CHECK(q.partials[0].env == p.partials[0].env);
+        CHECK(follow_band_past_fits(p, fitted, x, rate_hz, s, params, fit_params) == 1);
     }
 }
 
