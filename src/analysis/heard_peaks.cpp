@@ -308,8 +308,27 @@ merge_result merge_late_companions(patch& p, std::span<const partial_track* cons
     return out;
 }
 
+namespace {
+
+/// The note's spectrum for its narrow bands, zero padded by more than a band's wrap (1 / half-width
+/// s, the half-width at least capture_hz) so the wrap reads silence: cache's when it was made of the
+/// same samples, else made anew (into cache, or into local without one).
+const note_spectrum& whole_note_spectrum(band_spectrum_cache* cache, std::optional<note_spectrum>& local,
+                                         std::span<const float> note, double sample_rate_hz, double capture_hz) {
+    std::optional<note_spectrum>& slot = cache != nullptr ? cache->spectrum : local;
+    if (cache != nullptr && slot && (cache->note.data() != note.data() || cache->note.size() != note.size())) slot.reset();
+    if (!slot) {
+        slot.emplace(note, sample_rate_hz,
+                     note.size() + static_cast<std::size_t>(std::ceil(2.0 / capture_hz * sample_rate_hz)));
+        if (cache != nullptr) cache->note = note;
+    }
+    return *slot;
+}
+
+}  // namespace
+
 int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz, const heard_span_spectrum& s,
-                    const heard_peak_params& params, const envelope_fit_params& fit_params) {
+                    const heard_peak_params& params, const envelope_fit_params& fit_params, band_spectrum_cache* cache) {
     const double note_s = static_cast<double>(note.size()) / sample_rate_hz;
     if (s.mag.empty() || params.max_added <= 0) return 0;
     const double capture_hz = capture_hz_of(s, params);
@@ -328,9 +347,8 @@ int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz
         if (static_cast<int>(missing.size()) == params.max_added) break;
     }
     if (missing.empty()) return 0;
-    // Zero padded by more than the band's wrap (1 / half-width s), so the wrap reads silence.
-    const note_spectrum spectrum(note, sample_rate_hz,
-                                 note.size() + static_cast<std::size_t>(std::ceil(2.0 / capture_hz * sample_rate_hz)));
+    std::optional<note_spectrum> local;
+    const note_spectrum& spectrum = whole_note_spectrum(cache, local, note, sample_rate_hz, capture_hz);
     int added = 0;
     for (const std::size_t k : missing) {
         const double f = peak_freq_hz(s, k);
@@ -395,11 +413,12 @@ double time_over_band_s(const envelope& env, const partial_track& band, double f
 
 int follow_band_past_fits(patch& p, std::span<const cut_part> fitted, std::span<const float> note, double sample_rate_hz,
                           const heard_span_spectrum& s, const heard_peak_params& params,
-                          const envelope_fit_params& fit_params) {
+                          const envelope_fit_params& fit_params, band_spectrum_cache* cache) {
     if (s.mag.empty()) return 0;
     const double note_s = static_cast<double>(note.size()) / sample_rate_hz;
     const double capture_hz = capture_hz_of(s, params);
-    std::optional<note_spectrum> spectrum;  // made only when a partial needs it
+    std::optional<note_spectrum> local;
+    const note_spectrum* spectrum = nullptr;  // made only when a partial needs it
     int changed = 0;
     for (std::size_t i = 0; i < fitted.size() && i < p.partials.size(); ++i) {
         const cut_part& f = fitted[i];
@@ -410,9 +429,7 @@ int follow_band_past_fits(patch& p, std::span<const cut_part> fitted, std::span<
         const bool ended_early = f.track == nullptr || !f.track->cut_by_end;  // merged: fit_end_s says
         const bool short_held = ended_early && f.fit_end_s - f.fit_start_s < params.short_fit_s && last_holds(env);
         const double band_hz = std::max(capture_hz, std::min(params.short_fit_band_hz, 0.5 * nearest_other_hz(p, i)));
-        if (!spectrum)
-            spectrum.emplace(note, sample_rate_hz,
-                             note.size() + static_cast<std::size_t>(std::ceil(2.0 / capture_hz * sample_rate_hz)));
+        if (spectrum == nullptr) spectrum = &whole_note_spectrum(cache, local, note, sample_rate_hz, capture_hz);
         const partial_track band_points = band_track(*spectrum, p.partials[i].freq_hz, band_hz, note_s, params);
         if (!short_held && time_over_band_s(env, band_points, f.fit_end_s, params.over_band_db,
                                             params.band_smoothing_s) <= params.over_band_s)

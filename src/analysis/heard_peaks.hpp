@@ -11,12 +11,14 @@
 // neighbourhood.
 #pragma once
 
+#include <optional>
 #include <span>
 #include <vector>
 
 #include "analysis/cut_tail.hpp"
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
+#include "modes/narrowband.hpp"
 #include "pitch/root.hpp"
 #include "tracking/track.hpp"
 
@@ -86,6 +88,14 @@ struct heard_span_spectrum {
 };
 heard_span_spectrum heard_spectrum(std::span<const float> note, double sample_rate_hz, const heard_peak_params& params);
 
+/// The whole note's spectrum the narrow bands of follow_band_past_fits and add_heard_peaks are read
+/// from (zero padded past the band's wrap), made by the first of them that needs it and reused by
+/// the other when it reads the same samples (the same span of the same note).
+struct band_spectrum_cache {
+    std::span<const float> note;  ///< the samples it was made of
+    std::optional<note_spectrum> spectrum;
+};
+
 /// Moves partial i (tracks[i] its track; nullptr: left alone) to the strongest local peak of the
 /// Hann-windowed spectrum of note (samples from the onset on) within the capture distance, when
 /// no partial stronger over the span lies within that distance of it, and re-anchors its phase
@@ -137,7 +147,7 @@ merge_result merge_late_companions(patch& p, std::span<const partial_track* cons
 /// Returns how many partials were changed.
 int follow_band_past_fits(patch& p, std::span<const cut_part> fitted, std::span<const float> note, double sample_rate_hz,
                           const heard_span_spectrum& s, const heard_peak_params& params,
-                          const envelope_fit_params& fit_params);
+                          const envelope_fit_params& fit_params, band_spectrum_cache* cache = nullptr);
 
 /// Adds a partial for each strong peak of the same span spectrum that no partial accounts for
 /// (a mode the tracker missed or fitted far below its level): its level over the whole note from
@@ -146,6 +156,6 @@ int follow_band_past_fits(patch& p, std::span<const cut_part> fitted, std::span<
 /// fit_params), at the peak's frequency. Returns how many were added (appended, harmonic 0).
 int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz, const heard_span_spectrum& spectrum,
                     const heard_peak_params& params,
-                    const envelope_fit_params& fit_params);
+                    const envelope_fit_params& fit_params, band_spectrum_cache* cache = nullptr);
 
 }  // namespace wane
