@@ -128,9 +128,13 @@ heard_span_spectrum move_to_long_spectrum(analysis_result& out, std::vector<cut_
     patch& p = out.value;
     heard_span_spectrum heard = heard_spectrum(note, sample_rate_hz, params);
     std::vector<const partial_track*> tracks(fitted.size());
-    for (std::size_t i = 0; i < fitted.size(); ++i) tracks[i] = fitted[i].track;
+    std::vector<double> fit_end_s(fitted.size());
+    for (std::size_t i = 0; i < fitted.size(); ++i) {
+        tracks[i] = fitted[i].track;
+        fit_end_s[i] = fitted[i].fit_end_s;
+    }
     out.summary.moved_to_heard_peaks = move_to_heard_peaks(p, tracks, heard, params);
-    const merge_result merged = merge_late_companions(p, tracks, note, sample_rate_hz, params);
+    const merge_result merged = merge_late_companions(p, tracks, fit_end_s, note, sample_rate_hz, params);
     for (const merged_partial& m : merged.kept)
         fitted[m.index] = {.env = nullptr, .track = nullptr, .fit_start_s = m.fit_start_s, .fit_end_s = m.fit_end_s};
     for (std::size_t k = merged.removed.size(); k-- > 0;)  // descending: indices stay valid
@@ -256,11 +260,14 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     const std::span<const float> fit_part = part.first(std::min(
         part.size(), onset_frame + static_cast<std::size_t>(std::llround(params.max_waveform_fit_s * sample_rate_hz))));
     heard_span_spectrum heard;  // the recording's spectrum over the heard span, for both steps
+    band_spectrum_cache whole_note;  // the note's spectrum for narrow bands, for both steps
     if (params.long_spectrum && onset_frame < part.size())
         heard = move_to_long_spectrum(out, fitted, part.subspan(onset_frame), sample_rate_hz, params.heard_peaks);
-    // Short fits that hold their level follow the recording's narrow band from their end on.
+    // Fits whose level after their end stands over the recording's narrow band (or short fits that
+    // hold their level) follow that band from their end on.
     if (params.long_spectrum && onset_frame < part.size())
-        fall_held_short_fits(p, fitted, part.subspan(onset_frame), sample_rate_hz, heard, params.heard_peaks, fit_params);
+        follow_band_past_fits(p, fitted, part.subspan(onset_frame), sample_rate_hz, heard, params.heard_peaks, fit_params,
+                              &whole_note);
     done("long spectrum");
 
     const double analysed_s = static_cast<double>(part.size()) / sample_rate_hz - tr.onset_s;
@@ -274,7 +281,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     // the tracks decide) and before the onset refinement (which refits their starts too).
     if (params.long_spectrum && onset_frame < part.size()) {
         out.summary.added_heard_peaks = add_heard_peaks(p, fit_part.subspan(onset_frame), sample_rate_hz, heard,
-                                                        params.heard_peaks, fit_params);
+                                                        params.heard_peaks, fit_params, &whole_note);
         out.summary.partials = static_cast<int>(p.partials.size());
     }
     done("root and added peaks");

@@ -253,7 +253,8 @@ partial_track band_track(const note_spectrum& spectrum, double freq_hz, double h
 
 }  // namespace
 
-merge_result merge_late_companions(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
+merge_result merge_late_companions(patch& p, std::span<const partial_track* const> tracks,
+                                   std::span<const double> fit_end_s, std::span<const float> note,
                                    double sample_rate_hz, const heard_peak_params& params) {
     assert(tracks.size() <= p.partials.size());
     merge_result out;
@@ -284,14 +285,19 @@ merge_result merge_late_companions(patch& p, std::span<const partial_track* cons
         }
         if (group.empty()) continue;
         partial& q = p.partials[i];
+        std::size_t last = i;  // the member whose envelope runs on at the end
         for (const std::size_t j : group) {
             const envelope& other = p.partials[j].env;
             const bool first = q.env.attack_s <= other.attack_s;
-            q.env = spliced_envelope(first ? q.env : other, first ? other : q.env, note_s);
+            const envelope early = first ? q.env : other;
+            q.env = spliced_envelope(early, first ? other : q.env, note_s);
+            if (!(q.env == early)) last = first ? j : last;  // the later member took over
+            else if (!first) last = j;                       // never louder: the earlier member's
             if (!first) q.phase_rad = p.partials[j].phase_rad;  // the start is the other's
             gone[j] = true;
         }
-        out.kept.push_back({.index = i, .fit_start_s = 0.0, .fit_end_s = note_s});
+        const bool ran_on = fit_end_s.empty() || tracks[last]->cut_by_end;
+        out.kept.push_back({.index = i, .fit_start_s = 0.0, .fit_end_s = ran_on ? note_s : fit_end_s[last]});
     }
     for (std::size_t j = tracks.size(); j-- > 0;)
         if (gone[j]) {
@@ -302,8 +308,27 @@ merge_result merge_late_companions(patch& p, std::span<const partial_track* cons
     return out;
 }
 
+namespace {
+
+/// The note's spectrum for its narrow bands, zero padded by more than a band's wrap (1 / half-width
+/// s, the half-width at least capture_hz) so the wrap reads silence: cache's when it was made of the
+/// same samples, else made anew (into cache, or into local without one).
+const note_spectrum& whole_note_spectrum(band_spectrum_cache* cache, std::optional<note_spectrum>& local,
+                                         std::span<const float> note, double sample_rate_hz, double capture_hz) {
+    std::optional<note_spectrum>& slot = cache != nullptr ? cache->spectrum : local;
+    if (cache != nullptr && slot && (cache->note.data() != note.data() || cache->note.size() != note.size())) slot.reset();
+    if (!slot) {
+        slot.emplace(note, sample_rate_hz,
+                     note.size() + static_cast<std::size_t>(std::ceil(2.0 / capture_hz * sample_rate_hz)));
+        if (cache != nullptr) cache->note = note;
+    }
+    return *slot;
+}
+
+}  // namespace
+
 int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz, const heard_span_spectrum& s,
-                    const heard_peak_params& params, const envelope_fit_params& fit_params) {
+                    const heard_peak_params& params, const envelope_fit_params& fit_params, band_spectrum_cache* cache) {
     const double note_s = static_cast<double>(note.size()) / sample_rate_hz;
     if (s.mag.empty() || params.max_added <= 0) return 0;
     const double capture_hz = capture_hz_of(s, params);
@@ -322,9 +347,8 @@ int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz
         if (static_cast<int>(missing.size()) == params.max_added) break;
     }
     if (missing.empty()) return 0;
-    // Zero padded by more than the band's wrap (1 / half-width s), so the wrap reads silence.
-    const note_spectrum spectrum(note, sample_rate_hz,
-                                 note.size() + static_cast<std::size_t>(std::ceil(2.0 / capture_hz * sample_rate_hz)));
+    std::optional<note_spectrum> local;
+    const note_spectrum& spectrum = whole_note_spectrum(cache, local, note, sample_rate_hz, capture_hz);
     int added = 0;
     for (const std::size_t k : missing) {
         const double f = peak_freq_hz(s, k);
@@ -360,29 +384,57 @@ double nearest_other_hz(const patch& p, std::size_t i) {
     return d;
 }
 
+/// Longest run of the band's points after from_s at which env stands more than over_db above the
+/// band's level, seconds (points times their spacing). The band's level: the power mean of its
+/// points within +-smoothing_s (a beat's trough or a noise dip is not what the partial may not pass).
+double time_over_band_s(const envelope& env, const partial_track& band, double from_s, double over_db,
+                        double smoothing_s) {
+    const auto& pts = band.points;
+    if (pts.size() < 2) return 0.0;
+    const double step_s = pts[1].time_s - pts[0].time_s;
+    const auto half = static_cast<std::size_t>(std::floor(smoothing_s / step_s));
+    std::vector<double> power(pts.size());  // 10^(level / 10) of each point
+    for (std::size_t i = 0; i < pts.size(); ++i) power[i] = db_to_power(pts[i].level_db);
+    const auto pieces = envelope_pieces(env);
+    std::size_t run = 0, longest = 0;
+    for (std::size_t i = 0; i < pts.size(); ++i) {
+        if (pts[i].time_s <= from_s) continue;
+        const std::size_t a = i > half ? i - half : 0, b = std::min(pts.size() - 1, i + half);
+        double sum = 0.0;  // the power mean over the points within +-half
+        for (std::size_t k = a; k <= b; ++k) sum += power[k];
+        const double band_db = power_to_db(sum / static_cast<double>(b - a + 1));
+        run = envelope_level(env, pieces, pts[i].time_s).db - band_db > over_db ? run + 1 : 0;
+        longest = std::max(longest, run);
+    }
+    return static_cast<double>(longest) * step_s;
+}
+
 }  // namespace
 
-int fall_held_short_fits(patch& p, std::span<const cut_part> fitted, std::span<const float> note, double sample_rate_hz,
-                         const heard_span_spectrum& s, const heard_peak_params& params,
-                         const envelope_fit_params& fit_params) {
+int follow_band_past_fits(patch& p, std::span<const cut_part> fitted, std::span<const float> note, double sample_rate_hz,
+                          const heard_span_spectrum& s, const heard_peak_params& params,
+                          const envelope_fit_params& fit_params, band_spectrum_cache* cache) {
     if (s.mag.empty()) return 0;
     const double note_s = static_cast<double>(note.size()) / sample_rate_hz;
     const double capture_hz = capture_hz_of(s, params);
-    std::optional<note_spectrum> spectrum;  // made only when a partial needs it
+    std::optional<note_spectrum> local;
+    const note_spectrum* spectrum = nullptr;  // made only when a partial needs it
     int changed = 0;
     for (std::size_t i = 0; i < fitted.size() && i < p.partials.size(); ++i) {
         const cut_part& f = fitted[i];
         envelope& env = p.partials[i].env;
-        if (f.track == nullptr || f.track->cut_by_end || f.fit_end_s - f.fit_start_s >= params.short_fit_s ||
-            !last_holds(env))
-            continue;
+        if (!(f.fit_end_s < note_s)) continue;
         const double prev_knot_s = env.decay.size() > 1 ? *env.decay[env.decay.size() - 2].until_s : env.attack_s;
         if (!(f.fit_end_s > prev_knot_s)) continue;
+        const bool ended_early = f.track == nullptr || !f.track->cut_by_end;  // merged: fit_end_s says
+        const bool short_held = ended_early && f.fit_end_s - f.fit_start_s < params.short_fit_s && last_holds(env);
         const double band_hz = std::max(capture_hz, std::min(params.short_fit_band_hz, 0.5 * nearest_other_hz(p, i)));
-        if (!spectrum)
-            spectrum.emplace(note, sample_rate_hz,
-                             note.size() + static_cast<std::size_t>(std::ceil(2.0 / capture_hz * sample_rate_hz)));
-        const auto band = fit_partial(band_track(*spectrum, p.partials[i].freq_hz, band_hz, note_s, params), fit_params);
+        if (spectrum == nullptr) spectrum = &whole_note_spectrum(cache, local, note, sample_rate_hz, capture_hz);
+        const partial_track band_points = band_track(*spectrum, p.partials[i].freq_hz, band_hz, note_s, params);
+        if (!short_held && time_over_band_s(env, band_points, f.fit_end_s, params.over_band_db,
+                                            params.band_smoothing_s) <= params.over_band_s)
+            continue;
+        const auto band = fit_partial(band_points, fit_params);
         if (!band || last_holds(band->env)) continue;
         continue_with_band(env, band->env, f.fit_end_s);
         ++changed;

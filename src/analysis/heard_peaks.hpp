@@ -11,12 +11,14 @@
 // neighbourhood.
 #pragma once
 
+#include <optional>
 #include <span>
 #include <vector>
 
 #include "analysis/cut_tail.hpp"
 #include "core/patch.hpp"
 #include "fitting/envelope_fit.hpp"
+#include "modes/narrowband.hpp"
 #include "pitch/root.hpp"
 #include "tracking/track.hpp"
 
@@ -58,7 +60,7 @@ struct heard_peak_params {
     double companion_half_widths = 1.0;
     double band_rate_hz = 80.0;     ///< the narrow band's rate: points 12.5 ms apart, as the STFT hop
     double floor_quantile = 0.1;    ///< the band's noise floor: this quantile of its level over the note
-    /// A track's fit shorter than this (seconds) that holds its level (fall_held_short_fits) is
+    /// A track's fit shorter than this (seconds) that holds its level (follow_band_past_fits) is
     /// continued by the narrow band's decay: a few frames between the attack's noise and the
     /// track's end say nothing about how the partial decays.
     double short_fit_s = 0.1;
@@ -66,6 +68,14 @@ struct heard_peak_params {
     /// 1 / width seconds) does not slow a decay of 100 dB/s; at most half the distance to the
     /// nearest other partial (so the band reads this one); at least the capture distance.
     double short_fit_band_hz = 20.0;
+    /// A fit whose envelope after its end stands this many dB over that band's level ...
+    /// (the survey's threshold, tools/survey_held.py: a partial 6 dB over the recording is heard
+    /// as a tone the note does not hold; reasoned choice) ...
+    double over_band_db = 6.0;
+    /// ... for longer than this, seconds (a moment of excess is a beat's trough or a noise dip) ...
+    double over_band_s = 0.1;
+    /// ... the band's level the power mean of its points within +-this, seconds.
+    double band_smoothing_s = 0.05;
 };
 
 /// The recording's magnitude spectrum over the span (Hann, zero padded), made once for both steps
@@ -78,6 +88,14 @@ struct heard_span_spectrum {
 };
 heard_span_spectrum heard_spectrum(std::span<const float> note, double sample_rate_hz, const heard_peak_params& params);
 
+/// The whole note's spectrum the narrow bands of follow_band_past_fits and add_heard_peaks are read
+/// from (zero padded past the band's wrap), made by the first of them that needs it and reused by
+/// the other when it reads the same samples (the same span of the same note).
+struct band_spectrum_cache {
+    std::span<const float> note;  ///< the samples it was made of
+    std::optional<note_spectrum> spectrum;
+};
+
 /// Moves partial i (tracks[i] its track; nullptr: left alone) to the strongest local peak of the
 /// Hann-windowed spectrum of note (samples from the onset on) within the capture distance, when
 /// no partial stronger over the span lies within that distance of it, and re-anchors its phase
@@ -88,7 +106,9 @@ int move_to_heard_peaks(patch& p, std::span<const partial_track* const> tracks, 
 /// A partial kept by merge_late_companions, its envelope spliced from the group's.
 struct merged_partial {
     std::size_t index = 0;     ///< in the patch before the merge
-    double fit_start_s = 0.0;  ///< the stretch its envelope stands for, seconds from the onset
+    double fit_start_s = 0.0;  ///< the stretch its envelope stands for, seconds from the onset:
+    /// to the fit's end of the member whose envelope runs on at the end (the note's end when that
+    /// member's track was cut by the file's end, or without fit ends)
     double fit_end_s = 0.0;
 };
 
@@ -107,20 +127,27 @@ struct merge_result {
 /// envelope is the earlier member's until the later one is first louder, then the later one's
 /// (each as fitted to its own track; the tracker's late fragment of a partial often starts where
 /// the first fragment ends), and its phase the earlier member's; the companions are erased from p.
-/// Only partials with a track take part.
-merge_result merge_late_companions(patch& p, std::span<const partial_track* const> tracks, std::span<const float> note,
+/// Only partials with a track take part. fit_end_s: each partial's fit's end, seconds from the
+/// onset (empty: the note's end for all).
+merge_result merge_late_companions(patch& p, std::span<const partial_track* const> tracks,
+                                   std::span<const double> fit_end_s, std::span<const float> note,
                                    double sample_rate_hz, const heard_peak_params& params);
 
-/// Partials whose fitted stretch (fitted[i], i in the patch's order) is shorter than short_fit_s,
-/// whose track ended before the file did and whose last segment does not fall (fit_partial holds a
-/// rising last slope level): held so, a partial the recording shows decaying would sound at that
-/// level for the whole note. From the fit's end on, such a partial follows the decay slopes of
-/// the narrow band around it over the whole note (band as in add_heard_peaks, fitted with
+/// Partials whose fit (fitted[i], i in the patch's order) ended before the note did, and either
+/// whose track ended before the file did (a merged partial's, fitted[i].track null: as its fitted
+/// stretch says, merged_partial), whose fitted stretch is shorter than short_fit_s and whose last
+/// segment does not fall (fit_partial holds a rising last slope level), or whose envelope after
+/// the fit's end stands more than over_band_db over the level of the narrow band around it (the
+/// power mean within +-band_smoothing_s) for longer than over_band_s: the recording shows the
+/// partial decaying faster than its fit's last slope runs on (a slope read off a few frames under
+/// the attack's noise, a beat's rise held level), and the band holds the partial and whatever lies
+/// near it, so the partial cannot be louder. From the fit's end on, such a partial follows the
+/// decay slopes of that band over the whole note (band as in add_heard_peaks, fitted with
 /// fit_params; its segment at the fit's end runs from there), when the band's last slope falls.
 /// Returns how many partials were changed.
-int fall_held_short_fits(patch& p, std::span<const cut_part> fitted, std::span<const float> note, double sample_rate_hz,
-                         const heard_span_spectrum& s, const heard_peak_params& params,
-                         const envelope_fit_params& fit_params);
+int follow_band_past_fits(patch& p, std::span<const cut_part> fitted, std::span<const float> note, double sample_rate_hz,
+                          const heard_span_spectrum& s, const heard_peak_params& params,
+                          const envelope_fit_params& fit_params, band_spectrum_cache* cache = nullptr);
 
 /// Adds a partial for each strong peak of the same span spectrum that no partial accounts for
 /// (a mode the tracker missed or fitted far below its level): its level over the whole note from
@@ -129,6 +156,6 @@ int fall_held_short_fits(patch& p, std::span<const cut_part> fitted, std::span<c
 /// fit_params), at the peak's frequency. Returns how many were added (appended, harmonic 0).
 int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz, const heard_span_spectrum& spectrum,
                     const heard_peak_params& params,
-                    const envelope_fit_params& fit_params);
+                    const envelope_fit_params& fit_params, band_spectrum_cache* cache = nullptr);
 
 }  // namespace wane

@@ -7,12 +7,14 @@
 #include <complex>
 #include <functional>
 #include <optional>
+#include <span>
 #include <utility>
 
 #include <Eigen/Core>
 
 #include "core/units.hpp"
 #include "modes/mode_residual.hpp"
+#include "synthesis/kernel_clones.hpp"
 
 namespace wane {
 
@@ -188,26 +190,99 @@ void projection_sums(std::span<const double> x, double omega, double rho, std::s
     for (std::size_t n = count; n-- > 0;) tail_sum[n] = demod[n] + step * tail_sum[n + 1];
 }
 
-/// sum_n a[n] q[n] for a rise's shape a (attack_shape: pieces over [0, rise), then exp(rho (n -
-/// rise)) from rise on), q = demod: the rise's pieces sample by sample (as shape_samples makes
-/// them), the decay from tail_sum[rise] (projection_sums).
+/// Shapes of rises evaluated side by side (rising_projections).
+constexpr std::size_t rise_lanes = 4;
+
+/// acc_l += sum_{n in [begin, end)} v_l[n] q[n] for the lanes l < rise_lanes, v_l[n] = scale_l
+/// exp(rho_l (n - begin)) anchored from the exact power every 512 samples and stepped by
+/// exp(rho_l) between (q: re, im pairs): one piece of several rises whose pieces share their
+/// knots, each lane the products and sums in the order of one piece summed alone.
+WANE_KERNEL_CLONES
+void add_piece_sums(const double* __restrict q, std::size_t begin, std::size_t end, const double* __restrict scale,
+                    const double* __restrict rho, double* __restrict acc_re, double* __restrict acc_im) {
+    constexpr std::size_t block = 512;
+    std::array<double, rise_lanes> ratio{}, v{}, sum_re{}, sum_im{};
+    for (std::size_t l = 0; l < rise_lanes; ++l) ratio[l] = std::exp(rho[l]), sum_re[l] = acc_re[l], sum_im[l] = acc_im[l];
+    for (std::size_t from = begin; from < end; from += block) {
+        for (std::size_t l = 0; l < rise_lanes; ++l) v[l] = scale[l] * std::exp(rho[l] * static_cast<double>(from - begin));
+        const std::size_t to = std::min(end, from + block);
+        for (std::size_t n = from; n < to; ++n) {
+            const double qr = q[2 * n], qi = q[2 * n + 1];
+            for (std::size_t l = 0; l < rise_lanes; ++l) {
+                sum_re[l] += v[l] * qr;
+                sum_im[l] += v[l] * qi;
+                v[l] *= ratio[l];
+            }
+        }
+    }
+    for (std::size_t l = 0; l < rise_lanes; ++l) acc_re[l] = sum_re[l], acc_im[l] = sum_im[l];
+}
+
+/// sum_n a_l[n] q[n] for up to rise_lanes rises' shapes a_l over the same `rise` samples
+/// (attack_shape with one rise_n: pieces over [0, rise) at the same knots, then exp(rho (n -
+/// rise)) from rise on), q = demod: the rises' pieces sample by sample (as shape_samples makes
+/// them), side by side, the decay from tail_sum[rise] (projection_sums).
+void rising_projections(std::span<const mode_shape> shapes, std::size_t rise, std::span<const std::complex<double>> demod,
+                        std::span<const std::complex<double>> tail_sum, std::span<std::complex<double>> out) {
+    assert(!shapes.empty() && shapes.size() <= rise_lanes && out.size() == shapes.size());
+    std::array<double, rise_lanes> scale{}, rho{}, acc_re{}, acc_im{};
+    const double* q = reinterpret_cast<const double*>(demod.data());  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): std::complex's array layout
+    for (std::size_t k = 0; k < shapes.front().size(); ++k) {
+        const shape_piece& p = shapes.front()[k];
+        if (p.start >= rise) break;
+        for (std::size_t l = 0; l < shapes.size(); ++l) {
+            const shape_piece& lp = shapes[l][k];
+            assert(lp.power == 0 && lp.start == p.start && lp.count == p.count);
+            scale[l] = lp.scale, rho[l] = lp.rho;
+        }
+        add_piece_sums(q, p.start, std::min(rise, p.start + p.count), scale.data(), rho.data(), acc_re.data(), acc_im.data());
+    }
+    for (std::size_t l = 0; l < shapes.size(); ++l) out[l] = std::complex<double>{acc_re[l], acc_im[l]} + tail_sum[rise];
+}
+
+/// sum_n a[n] q[n] for one rise's shape a (rising_projections with one lane).
 std::complex<double> rising_projection(const mode_shape& shape, std::size_t rise,
                                        std::span<const std::complex<double>> demod,
                                        std::span<const std::complex<double>> tail_sum) {
-    std::complex<double> acc{};
-    for (const shape_piece& p : shape) {
-        if (p.start >= rise) break;
-        assert(p.power == 0);
-        const std::size_t end = std::min(rise, p.start + p.count);
-        const double ratio = std::exp(p.rho);
-        double v = p.scale;
-        for (std::size_t n = p.start; n < end; ++n) {
-            if ((n - p.start) % 512 == 0) v = p.scale * std::exp(p.rho * static_cast<double>(n - p.start));
-            acc += v * demod[n];
-            v *= ratio;
+    std::complex<double> acc;
+    rising_projections(std::span(&shape, 1), rise, demod, tail_sum, std::span(&acc, 1));
+    return acc;
+}
+
+/// What the rises of one partial are searched on (choose_attacks): the mode's angular frequency
+/// and decay per sample, the span's samples, the residual demodulated at the mode's frequency and
+/// its decaying suffix sums (projection_sums).
+struct rise_search {
+    double omega = 0.0;
+    double rho = 0.0;
+    std::size_t count = 0;
+    std::span<const std::complex<double>> demod;
+    std::span<const std::complex<double>> tail_sum;
+};
+
+/// Tries the instant starts at each of start_ratios (in that order; all positive) that rise over
+/// n_rise samples, all but `current`: one that explains more than best becomes best and best_c
+/// (the first of equals kept). The rises' projections rise_lanes at a time (rising_projections).
+void consider_rises(const rise_search& s, std::size_t n_rise, std::span<const double> start_ratios,
+                    const attack_choice& current, double& best, attack_choice& best_c) {
+    std::array<mode_shape, rise_lanes> shapes;
+    std::array<std::complex<double>, rise_lanes> acc{};
+    for (std::size_t first = 0; first < start_ratios.size(); first += rise_lanes) {
+        const std::size_t lanes = std::min(rise_lanes, start_ratios.size() - first);
+        for (std::size_t l = 0; l < lanes; ++l) {
+            assert(start_ratios[first + l] > 0.0);
+            shapes[l] = attack_shape({.rise_n = n_rise, .start_ratio = start_ratios[first + l]}, s.rho, s.count);
+        }
+        rising_projections(std::span(shapes).first(lanes), std::min(n_rise, s.count), s.demod, s.tail_sum,
+                           std::span(acc).first(lanes));
+        for (std::size_t l = 0; l < lanes; ++l) {
+            const attack_choice c{.rise_n = n_rise, .start_ratio = start_ratios[first + l]};
+            if (c == current) continue;
+            std::complex<double> amp;
+            const double e = fit_one(shapes[l], s.omega, acc[l], amp);
+            if (e > best) best = e, best_c = c;
         }
     }
-    return acc + tail_sum[rise];
 }
 
 /// The linear attack lengths of the grid (samples), those in (0, count).
@@ -304,7 +379,8 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
             for (const double t : params.rise_grid_s) {
                 const auto n_rise = static_cast<std::size_t>(std::llround(t * sample_rate_hz));
                 if (n_rise < static_cast<std::size_t>(rise_segments) || n_rise >= count) continue;
-                for (const double c : params.start_ratios) consider({.rise_n = n_rise, .start_ratio = c});
+                const rise_search search{.omega = omega, .rho = rho, .count = count, .demod = demod, .tail_sum = tail_sum};
+                consider_rises(search, n_rise, params.start_ratios, chosen[i], best, best_c);
             }
             if (!(best_c == plain_c) && best > plain + params.min_gain_share * signal) chosen[i] = best_c;
         }

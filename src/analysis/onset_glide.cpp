@@ -6,14 +6,17 @@
 #include <cmath>
 #include <complex>
 #include <cstdint>
+#include <numbers>
 #include <numeric>
 #include <optional>
 #include <vector>
 
+#include "analysis/glide_heard.hpp"
 #include "analysis/glide_projection.hpp"
 #include "core/envelope.hpp"
 #include "core/glide.hpp"
 #include "core/units.hpp"
+#include "pitch/root.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -44,22 +47,28 @@ std::vector<double> render_start(const patch& p, const partial* q, double rate_h
 }
 
 /// The coarse grid's glide terms on the merged blocks: the same for every partial of a note (the
-/// blocks' centres depend on the span only), so made once.
+/// blocks' centres depend on the span only), so made once. Ring r holds the offsets over
+/// max_abs_cents 2^(r - 1) up to max_abs_cents 2^r (ring 0: all up to max_abs_cents).
 struct coarse_grid {
     std::vector<glide_terms> points;
 };
+using coarse_rings = std::vector<coarse_grid>;
 
-coarse_grid make_coarse_grid(const block_sums& coarse_sums, const onset_glide_params& params) {
+coarse_grid make_coarse_grid(const block_sums& coarse_sums, const onset_glide_params& params, std::size_t ring) {
     coarse_grid out;
-    const auto steps = static_cast<int>(std::floor(params.max_abs_cents / params.cents_step));
+    const double outer_cents = params.max_abs_cents * std::ldexp(1.0, static_cast<int>(ring));
+    const double inner_cents = ring == 0 ? 0.0 : 0.5 * outer_cents;
+    const auto steps = static_cast<int>(std::floor(outer_cents / params.cents_step));
     const double ratio = std::pow(params.max_fit_glide_s / params.min_fit_glide_s, 1.0 / (params.glide_s_steps - 1));
     // glide_s_steps up to max_fit_glide_s, then on at the same ratio for the short-lived partials.
     for (int j = 0;; ++j) {
         const double glide_s = params.min_fit_glide_s * std::pow(ratio, j);
         if (j >= params.glide_s_steps && glide_s > params.max_short_lived_glide_s) break;
         const std::vector<double> decay = decays(coarse_sums, glide_s);
-        for (int i = -steps; i <= steps; ++i)
-            if (i != 0) out.points.push_back(terms_at(i * params.cents_step, glide_s, decay));
+        for (int i = -steps; i <= steps; ++i) {
+            const double cents = i * params.cents_step;
+            if (std::abs(cents) > inner_cents && i != 0) out.points.push_back(terms_at(cents, glide_s, decay));
+        }
     }
     return out;
 }
@@ -70,11 +79,11 @@ coarse_grid make_coarse_grid(const block_sums& coarse_sums, const onset_glide_pa
 /// fit under kept_floor (the caller keeps none of those either). Candidates a bound shows under
 /// the floor that applies are not summed whole (evaluate_above).
 glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onset_glide_params& params,
-                 std::optional<coarse_grid>& grid, double longest_s, double coarse_floor, double kept_floor) {
+                 coarse_rings& rings, std::size_t ring, double longest_s, double coarse_floor, double kept_floor) {
     glide_fit best;
     const block_sums coarse_sums = merged_pairs(s, rate_hz);
-    if (!grid) grid = make_coarse_grid(coarse_sums, params);
-    for (glide_terms& t : grid->points) {  // made whole: projection makes none
+    while (rings.size() <= ring) rings.push_back(make_coarse_grid(coarse_sums, params, rings.size()));
+    for (glide_terms& t : rings[ring].points) {  // made whole: projection makes none
         if (t.glide_s > longest_s) continue;
         const std::optional<glide_fit> f = evaluate_above(coarse_sums, freq_hz, t, rate_hz, std::max(best.explained, coarse_floor));
         if (f && f->explained > best.explained) best = *f;
@@ -115,7 +124,7 @@ bool is_short_lived(const partial& q, const onset_glide_params& params) {
 /// glide must explain more than no glide (0: none asked); a coarse best short of half of it is
 /// not refined (the fine grid moves a best by under a coarse step). z: work space, reused.
 std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, double gain_lin, double rate_hz,
-                                   std::size_t block, const onset_glide_params& params, std::optional<coarse_grid>& grid,
+                                   std::size_t block, const onset_glide_params& params, coarse_rings& rings,
                                    double min_extra, heterodyned& z) {
     heterodyne_into(y, q.freq_hz, rate_hz, z);
     const block_sums flat = sum_flat(z, rate_hz, block);
@@ -131,11 +140,19 @@ std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, 
     const double n0 = none.explained;
     const double kept_floor = std::max(n0 + min_extra, std::min(n0 + share * n0, (n0 + share * flat.band_energy) / (1.0 + share))) *
                               (1.0 - 1e-9);
-    glide_fit best = search(flat, q.freq_hz, rate_hz, params, grid, longest_s, n0 + 0.5 * min_extra, kept_floor);
-    // A best at the grid's edge (the largest offset or the longest time constant) is a partial
-    // off its frequency over the whole span, not a glide that settles onto it.
-    const double edge_s = short_lived ? longest_s : params.max_fit_glide_s;
-    const bool at_edge = std::abs(best.cents) >= params.max_abs_cents || best.glide_s >= edge_s;
+    glide_fit best = search(flat, q.freq_hz, rate_hz, params, rings, 0, longest_s, n0 + 0.5 * min_extra, kept_floor);
+    // A best on the offset's outer edge: the grid goes on by rings of twice the range, up to
+    // offset_rings of them, while the best lies on the edge (onset_glide.hpp).
+    double range_cents = params.max_abs_cents;
+    for (std::size_t ring = 1; ring <= params.offset_rings && std::abs(best.cents) >= range_cents; ++ring) {
+        const glide_fit wider = search(flat, q.freq_hz, rate_hz, params, rings, ring, longest_s, n0 + 0.5 * min_extra, kept_floor);
+        if (wider.explained > best.explained) best = wider;
+        range_cents *= 2.0;
+    }
+    // A best still on the offset's edge is a partial off its frequency over the whole span, not a
+    // glide that settles onto it. (A best at the longest time constant is kept: the settled
+    // frequency then moves so that the copy is heard where the partial is, fit_heard_glide.)
+    const bool at_edge = std::abs(best.cents) >= range_cents;
     // What the glide explains more, against the smaller of what the partial explains without it
     // and what stays unexplained near f.
     const double unexplained = flat.band_energy - best.explained;
@@ -168,6 +185,57 @@ void scale_start(envelope& env, double scale, double max_db) {
         return;
     }
     env.peak = level_db{env.peak.db + change_db};
+}
+
+/// q with the glide `fit`: its offset and time constant, the phase arg(C) and the start level
+/// scaled by |C| (scale_start).
+partial with_glide(const partial& q, const glide_fit& fit, const onset_glide_params& params) {
+    partial g = q;
+    g.glide_cents = fit.cents;
+    g.glide_s = fit.glide_s;
+    g.phase_rad = std::arg(fit.amp);
+    scale_start(g.env, std::abs(fit.amp), params.max_level_change_db);
+    return g;
+}
+
+/// The fit's inputs that stay the same for every pass over one partial (fit_glide's).
+struct glide_target {
+    std::span<const double> y;
+    double gain_lin = 1.0;
+    double rate_hz = 0.0;
+    std::size_t block = 1;
+    double min_extra = 0.0;
+    double heard_end_s = 0.0;  ///< the heard span's end, within the note
+};
+
+/// q's glide (fit_glide), with its settled frequency moved so that the copy is heard where q is
+/// (onset_glide.hpp, heard_passes): q as it is for a short-lived partial, whose long-term
+/// frequency was measured after it died. None where a pass keeps no glide or the passes end
+/// with the copy's peak still off.
+std::optional<partial> fit_heard_glide(const glide_target& t, const partial& q, const onset_glide_params& params,
+                                       coarse_rings& rings, heterodyned& z) {
+    std::optional<glide_fit> fit = fit_glide(t.y, q, t.gain_lin, t.rate_hz, t.block, params, rings, t.min_extra, z);
+    if (!fit) return std::nullopt;
+    partial g = with_glide(q, *fit, params);
+    if (is_short_lived(q, params) || !(t.heard_end_s > heard_span_start_s)) return g;
+    partial settled = q;  // no glide, its frequency moved
+    const double tolerance_hz = q.freq_hz * std::expm1(std::numbers::ln2 / 1200.0 * params.heard_tolerance_cents);
+    for (int pass = 0;; ++pass) {
+        const double miss_hz = g.freq_hz + glide_heard_offset_hz(g, heard_span_start_s, t.heard_end_s, {}) - q.freq_hz;
+        if (std::abs(miss_hz) <= tolerance_hz) return g;
+        if (pass == params.heard_passes) {
+            // The refits move the glide by grid steps: the last one keeps its glide and only
+            // its settled frequency moves (the miss follows it one for one).
+            g.freq_hz -= miss_hz;
+            const double left_hz = g.freq_hz + glide_heard_offset_hz(g, heard_span_start_s, t.heard_end_s, {}) - q.freq_hz;
+            if (std::abs(left_hz) <= tolerance_hz) return g;
+            return std::nullopt;
+        }
+        settled.freq_hz -= miss_hz;
+        fit = fit_glide(t.y, settled, t.gain_lin, t.rate_hz, t.block, params, rings, t.min_extra, z);
+        if (!fit) return std::nullopt;
+        g = with_glide(settled, *fit, params);
+    }
 }
 
 double residual_energy(std::span<const float> x, std::span<const double> copy) {
@@ -222,7 +290,7 @@ onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, doub
     const auto early = std::min(count, static_cast<std::size_t>(std::llround(params.early_s * sample_rate_hz)));
     std::size_t tried = 0;
     std::size_t tried_short_lived = 0;  // past the max_partials strongest
-    std::optional<coarse_grid> grid;    // made at the first partial tried
+    coarse_rings rings;                 // made as the first partial needs them
     std::vector<double> y(count);       // each partial's target, the buffers reused
     heterodyned z;
     for (const std::size_t k : order) {
@@ -239,15 +307,13 @@ onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, doub
         }
         const std::vector<double> own = render_start(p, &q, sample_rate_hz, count);
         for (std::size_t n = 0; n < count; ++n) y[n] = static_cast<double>(note[n]) - copy[n] + own[n];
-        const double min_extra = past_strongest ? params.min_short_lived_extra * signal : 0.0;
-        const auto fit = fit_glide(y, q, gain_lin, sample_rate_hz, block, params, grid, min_extra, z);
+        const glide_target target{.y = y, .gain_lin = gain_lin, .rate_hz = sample_rate_hz, .block = block,
+                                  .min_extra = past_strongest ? params.min_short_lived_extra * signal : 0.0,
+                                  .heard_end_s = std::min(heard_span_end_s, p.note.length_s)};
+        const std::optional<partial> fit = fit_heard_glide(target, q, params, rings, z);
         if (!fit) continue;
-        const glide_fit& best = *fit;
         const partial p_before_glide = q;
-        q.glide_cents = best.cents;
-        q.glide_s = best.glide_s;
-        q.phase_rad = std::arg(best.amp);
-        scale_start(q.env, std::abs(best.amp), params.max_level_change_db);
+        q = *fit;
         const std::vector<double> gliding = render_start(p, &q, sample_rate_hz, count);
         const bool early_checked = past_strongest || tried > params.early_checked_after;
         if (early_checked && raises_early_residual(note, copy, own, gliding, early, params.max_early_rise)) {

@@ -20,8 +20,11 @@
 //   first milliseconds where a glide cannot be told from a phase), on a grid (cents_step over
 //   +-max_abs_cents, glide_s_steps time constants geometrically from min_fit_glide_s to
 //   max_fit_glide_s, on at that ratio to max_short_lived_glide_s for a short-lived partial), then
-//   on a finer grid around the best. A best at the grid's edge is a partial off its frequency
-//   over the whole span, not a glide, and is left out.
+//   on a finer grid around the best. A best on the offsets' outer edge takes the grid on by a
+//   ring of offsets up to twice as large (offset_rings); one still on the edge is a partial off
+//   its frequency over the whole span, not a glide, and is left out. A best at the longest time
+//   constant is kept: a glide slower than the span is the frequency the partial plays early, off
+//   where it is heard, and the heard frequency is kept as below.
 // The glide is kept when it explains clearly more than no glide: the extra energy E(c0, tau) - E(0)
 // is at least 10^(min_gain_db / 10) - 1 (26% for 1 dB) of the smaller of E(0) (what the partial
 // explains without it) and what stays unexplained near f (the energy of the block sums Z_b with
@@ -29,7 +32,11 @@
 // must buy a stated share, the penalty of this criterion, not any gain. The partial then takes the
 // glide, the phase arg(C) and its start level scaled by |C| with a = its envelope (the first decay
 // segment keeps its level at its end, so only the early decay changes; at most
-// max_level_change_db). Past the early_checked_after strongest, a glide that raises the copy's
+// max_level_change_db). A lasting partial's glide that has not settled by the heard span
+// (pitch/root.hpp) moves where the copy is heard: its settled frequency is moved by the miss and
+// the glide fitted again (heard_passes, analysis/glide_heard.hpp), so the copy's peak over the
+// span stays at the frequency the analysis measured there and the pitch a transposed copy is
+// tuned by stays put. Past the early_checked_after strongest, a glide that raises the copy's
 // residual over the first early_s is dropped. The whole set is kept only if the copy's residual over the span falls;
 // otherwise the patch is left as it was.
 #pragma once
@@ -59,6 +66,12 @@ struct onset_glide_params {
     double min_freq_hz = 60.0;         ///< below it a 150 ms span holds under 9 periods
     double max_abs_cents = 96.0;       ///< the coarse grid's range (measured strike glides: up to ~50)
     double cents_step = 4.0;
+    /// Rings of larger offsets searched where the best lies on the range's edge: ring r holds
+    /// max_abs_cents 2^(r-1) to 2^r. pizzicato_c2's second harmonic plays 133-136 Hz over its
+    /// first 0.25 s and is heard at 128.47 Hz (over 0.1-1.1 s): best at 96 cents without them,
+    /// 142 cents (tau 0.17 s) with one, first-100 ms SNR 6.08 -> 9.4 dB; a second ring gained no
+    /// note more and put timpani_d2's LSD 0.09 dB up (bench_fidelity).
+    std::size_t offset_rings = 1;
     double min_fit_glide_s = 0.005;
     double max_fit_glide_s = 0.25;
     int glide_s_steps = 10;
@@ -66,9 +79,10 @@ struct onset_glide_params {
     /// may take time constants past max_fit_glide_s, the grid going on at the same ratio up to
     /// max_short_lived_glide_s: for such a partial a slow glide is the frequency it plays while it
     /// sounds, which its long-term frequency (measured over 0.1-1.1 s, when it has died away)
-    /// misses; a longer-lived partial keeps time constants that settle early, so the pitch a
-    /// transposed copy is tuned by stays put (tests/cli/test_pitch_real_notes.sh). xylophone_fs3's
-    /// modes of T60 0.1-0.2 s took glides of 20-85 cents with time constants of 0.37-0.72 s.
+    /// misses; a longer-lived partial's grid stops at max_fit_glide_s (the fine grid reaching half
+    /// an octave past it): allowed 1 s, banjo_g3's first-100 ms SNR fell 5.67 -> 4.17 dB
+    /// (bench_fidelity, with the heard frequency kept). xylophone_fs3's modes of T60 0.1-0.2 s took
+    /// glides of 20-85 cents with time constants of 0.37-0.72 s.
     double max_short_lived_glide_s = 1.0;
     double short_lived_at_s = 0.3;
     double short_lived_drop_db = 40.0;
@@ -83,6 +97,17 @@ struct onset_glide_params {
     /// raising only, in the closing measurements of this stage).
     double max_level_change_db = 3.0;
     double block_s = 0.001;
+    /// A glide that has not settled by the heard span (pitch/root.hpp) moves where the copy is
+    /// heard: the settled frequency is then moved by the miss and the glide fitted again, up to
+    /// heard_passes times, until the copy's peak over the span (analysis/glide_heard.hpp) lies
+    /// within heard_tolerance_cents of freq_hz; otherwise the partial keeps no glide. Short-lived
+    /// partials are left out (their long-term frequency was measured when they had died away).
+    /// Measured without it, a kept 130-cent glide of pizzicato_c2's 128.47 Hz put the copy's
+    /// peak there 7.8 cents sharp (tests/cli/test_pitch_real_notes.sh: tolerance 1 cent). The
+    /// last pass keeps its glide and only moves the frequency (the refits move the glide by grid
+    /// steps, and the miss with them: banjo_g3's 5253 Hz swung +-0.24 Hz).
+    int heard_passes = 4;
+    double heard_tolerance_cents = 0.05;
     /// Past the early_checked_after strongest starts tried, a glide is dropped where it raises the
     /// copy's residual over the first early_s by more than the share max_early_rise: the fit
     /// weights the span's every instant alike and may buy the later part with the attack

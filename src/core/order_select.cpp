@@ -4,6 +4,8 @@
 #include <array>
 #include <cassert>
 #include <cmath>
+#include <cstdint>
+#include <cstring>
 #include <limits>
 
 namespace wane {
@@ -34,7 +36,7 @@ constexpr std::size_t small_rank_limit = 8;
 /// swap (no branch on the data, so the order of the values costs nothing; a NaN passes through).
 template <std::size_t K>
 order_values select_small_rank(std::span<const float> values, bool below) {
-    static_assert(K < small_rank_limit);
+    static_assert(K < small_rank_limit && small_rank_limit == max_small_rank + 1);
     assert(K < values.size());
     std::array<float, K + 1> kept{};
     std::copy_n(values.begin(), K + 1, kept.begin());
@@ -68,7 +70,59 @@ order_values select_small_rank(std::span<const float> values, std::size_t k, boo
     }
 }
 
+/// Four floats side by side (GCC's vector extension: one SSE register on the baseline) and their
+/// compare's mask; rank_lanes of them in `halves` such vectors.
+using float4 = float __attribute__((vector_size(16)));
+using mask4 = std::int32_t __attribute__((vector_size(16)));
+constexpr std::size_t halves = rank_lanes / 4;
+static_assert(rank_lanes % 4 == 0);
+
+/// select_small_ranks for k = K: per set the first K + 1 values sorted (as select_small_rank
+/// does), then each further value passed down the kept ones with select_small_rank's compare and
+/// swap, a lane per set (v < kept: v the new kept there and the old kept passed on; else v passed
+/// on), as min and max (x < y ? x : y and y < x ? x : y pick as that compare does, NaN included).
+template <std::size_t K>
+void select_small_ranks(std::span<const float> values, std::size_t count, std::span<float, rank_lanes> out) {
+    static_assert(K <= max_small_rank);
+    assert(K < count && values.size() >= count * rank_lanes);
+    std::array<std::array<float, rank_lanes>, K + 1> first_sorted{};
+    for (std::size_t l = 0; l < rank_lanes; ++l) {
+        std::array<float, K + 1> first{};
+        for (std::size_t j = 0; j <= K; ++j) first[j] = values[j * rank_lanes + l];
+        std::sort(first.begin(), first.end());
+        for (std::size_t j = 0; j <= K; ++j) first_sorted[j][l] = first[j];
+    }
+    std::array<std::array<float4, halves>, K + 1> kept{};
+    std::memcpy(kept.data(), first_sorted.data(), sizeof kept);
+    for (std::size_t i = K + 1; i < count; ++i) {
+        std::array<float4, halves> v{};
+        std::memcpy(v.data(), values.data() + i * rank_lanes, sizeof v);
+        for (std::size_t j = 0; j <= K; ++j) {
+            for (std::size_t h = 0; h < halves; ++h) {
+                const mask4 under = v[h] < kept[j][h];
+                const float4 low = under ? v[h] : kept[j][h];
+                v[h] = under ? kept[j][h] : v[h];
+                kept[j][h] = low;
+            }
+        }
+    }
+    std::memcpy(out.data(), kept[K].data(), sizeof kept[K]);
+}
+
 }  // namespace
+
+void select_small_ranks(std::span<const float> values, std::size_t count, std::size_t k, std::span<float, rank_lanes> out) {
+    switch (k) {
+    case 0: return select_small_ranks<0>(values, count, out);
+    case 1: return select_small_ranks<1>(values, count, out);
+    case 2: return select_small_ranks<2>(values, count, out);
+    case 3: return select_small_ranks<3>(values, count, out);
+    case 4: return select_small_ranks<4>(values, count, out);
+    case 5: return select_small_ranks<5>(values, count, out);
+    case 6: return select_small_ranks<6>(values, count, out);
+    default: assert(k == 7); return select_small_ranks<7>(values, count, out);
+    }
+}
 
 order_values select_order(std::span<float> values, std::size_t k, bool want_below, order_bracket bracket,
                           std::vector<float>& scratch) {

@@ -32,4 +32,14 @@ order_bracket bracket_around(float guess, double spread);
 order_values select_order(std::span<float> values, std::size_t k, bool want_below, order_bracket bracket,
                           std::vector<float>& scratch);
 
+/// Sets select_small_ranks takes side by side, and the largest rank it selects.
+inline constexpr std::size_t rank_lanes = 8;
+inline constexpr std::size_t max_small_rank = 7;
+
+/// The k-th smallest (k <= max_small_rank < count) of each of rank_lanes sets of `count` values,
+/// set l's value i at values[i * rank_lanes + l], into out[l]: select_order's pass for a small
+/// rank (the k + 1 smallest so far kept sorted, each further value passed down them by compare
+/// and swap), the sets in vector lanes; each out[l] is the kth select_order gives that set.
+void select_small_ranks(std::span<const float> values, std::size_t count, std::size_t k, std::span<float, rank_lanes> out);
+
 }  // namespace wane

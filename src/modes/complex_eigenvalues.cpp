@@ -143,11 +143,15 @@ std::vector<std::complex<double>> complex_eigenvalues(std::span<const std::compl
     }
     std::vector<std::complex<double>> out(n);
     for (std::size_t i = 0; i < n; ++i) out[i] = work.at(static_cast<index>(i), static_cast<index>(i));
-    // Ascending magnitude by selection (the first least of the rest each time).
+    // Ascending magnitude by selection (the first least of the rest each time), each magnitude
+    // taken once (std::abs, the same value at every compare).
+    std::vector<double> magnitude(n);
+    for (std::size_t i = 0; i < n; ++i) magnitude[i] = std::abs(out[i]);
     for (std::size_t i = 0; i < n; ++i) {
-        const auto least = std::min_element(out.begin() + static_cast<std::ptrdiff_t>(i), out.end(),
-                                            [](std::complex<double> x, std::complex<double> y) { return std::abs(x) < std::abs(y); });
-        std::iter_swap(out.begin() + static_cast<std::ptrdiff_t>(i), least);
+        const auto least = static_cast<std::size_t>(
+            std::min_element(magnitude.begin() + static_cast<std::ptrdiff_t>(i), magnitude.end()) - magnitude.begin());
+        std::swap(out[i], out[least]);
+        std::swap(magnitude[i], magnitude[least]);
     }
     return out;
 }

@@ -86,11 +86,29 @@ noise_floor::noise_floor(int bin_count, double bin_hz, double hop_s, const noise
     measured_db_.assign(bands_db_.size(), -300.0);
     scratch_.resize(static_cast<std::size_t>(band_bins_));
     select_scratch_.resize(scratch_.size());
+    lanes_.resize(scratch_.size() * rank_lanes);
 }
 
 void noise_floor::measure(std::span<const float> power) {
     assert(static_cast<int>(power.size()) == bin_count_);
-    for (std::size_t b = 0; b < bands_db_.size(); ++b) {
+    // Whole bands rank_lanes at a time when their rank is small (select_small_ranks: the values
+    // select_order gives each band alone, below).
+    const auto band = static_cast<std::size_t>(band_bins_);
+    const std::size_t whole_count = (band + bin_stride - 1) / bin_stride;
+    const auto whole_q = static_cast<std::size_t>(quantile_ * double(whole_count - 1));
+    std::size_t first = 0;
+    if (whole_q <= max_small_rank && whole_q < whole_count) {
+        std::array<float, rank_lanes> value{};
+        for (; first + rank_lanes <= bands_db_.size() && (first + rank_lanes) * band <= power.size(); first += rank_lanes) {
+            for (std::size_t l = 0; l < rank_lanes; ++l) {
+                const float* bins = power.data() + (first + l) * band;
+                for (std::size_t i = 0; i < whole_count; ++i) lanes_[i * rank_lanes + l] = bins[i * bin_stride];
+            }
+            select_small_ranks(lanes_, whole_count, whole_q, value);
+            for (std::size_t l = 0; l < rank_lanes; ++l) measured_db_[first + l] = db_of_power(double(value[l]) * mean_over_quantile_);
+        }
+    }
+    for (std::size_t b = first; b < bands_db_.size(); ++b) {
         const std::size_t lo = b * band_bins_;
         const std::size_t hi = std::min(power.size(), lo + band_bins_);
         // Every bin_stride-th bin: with zero padding neighbours are correlated, so this loses little.

@@ -56,6 +56,7 @@ private:
     std::vector<double> measured_db_;
     std::vector<float> scratch_;
     std::vector<float> select_scratch_;
+    std::vector<float> lanes_;  ///< whole bands' values side by side (select_small_ranks)
 };
 
 struct spectral_peak {

@@ -29,10 +29,11 @@ struct stft_config {
 /// Smallest even FFT size >= min_size whose factors are only 2, 3 and 5 (KissFFT's fast radices).
 int fast_fft_size(int min_size);
 
-/// One real block's spectrum on FFTW single precision (FFTW_ESTIMATE, no buffered solvers; the plan made and destroyed
-/// under the STFT's planner lock): input zero padded to fft_size (even, >= input.size()), bins
-/// 0 .. fft_size / 2 written to out (fft_size / 2 + 1 of them), unscaled. For one-off transforms
-/// of a whole span.
+/// One real block's spectrum on FFTW single precision (FFTW_ESTIMATE, no buffered solvers; one
+/// plan per size for the process, made under the STFT's planner lock on first use and executed on
+/// each call's own buffers, as inverse_real_fft's): input zero padded to fft_size (even, >=
+/// input.size()), bins 0 .. fft_size / 2 written to out (fft_size / 2 + 1 of them), unscaled.
+/// For one-off transforms of a whole span.
 void real_fft(std::span<const float> input, int fft_size, std::span<std::complex<float>> out);
 
 /// The unnormalized inverse real FFT of one size on FFTW single precision (FFTW_ESTIMATE, no

@@ -84,7 +84,7 @@ TEST_CASE("late companion within 2 Hz merges into its partial, which carries the
     std::vector<const partial_track*> ptrs;
     ptrs.reserve(tracks.size());
     for (const partial_track& t : tracks) ptrs.push_back(&t);
-    const merge_result m = merge_late_companions(p, ptrs, x, rate_hz, {});
+    const merge_result m = merge_late_companions(p, ptrs, {}, x, rate_hz, {});
 
     // The late companion is the stronger over the span (0.1-1.1 s): it is kept, the other merged.
     REQUIRE(m.removed == std::vector<std::size_t>{0});
@@ -107,7 +107,8 @@ TEST_CASE("late companion within 2 Hz merges into its partial, which carries the
 }
 
 TEST_CASE("a short track's fit held level (track ended early) falls from the fit's end at the narrow band's "
-          "rate, to within 2 dB of the true level; a track cut by the file's end is left held",
+          "rate, to within 2 dB of the true level; a track cut by the file's end is left held by the short-fit "
+          "rule (changed only by the band rule, and not when fitted to the note's end)",
           "[heard_peaks]") {
     const double t60_s = GENERATE(0.6, 0.8, 1.0, 1.2, 2.4);  // 100 .. 25 dB/s
     const component c{.freq_hz = 3000.0, .amp_lin = 0.01, .attack_s = 0.0, .t60_s = t60_s, .phase_rad = 0.4};
@@ -127,7 +128,7 @@ TEST_CASE("a short track's fit held level (track ended early) falls from the fit
     const envelope_fit_params fit_params{.window_s = 0.05};
 
     SECTION("track ended early: falls from the fit's end") {
-        REQUIRE(fall_held_short_fits(p, fitted, x, rate_hz, s, params, fit_params) == 1);
+        REQUIRE(follow_band_past_fits(p, fitted, x, rate_hz, s, params, fit_params) == 1);
         // Up to the fit's end the fitted level stays; after it the level follows the recording.
         CHECK_THAT(envelope_level(p.partials[0].env, 0.03).db, WithinAbs(-40.0, 1e-9));
         for (const double t : {0.5, 1.0, 2.0}) {
@@ -140,10 +141,97 @@ TEST_CASE("a short track's fit held level (track ended early) falls from the fit
             CHECK_THAT(got_db, WithinAbs(expected_db, 2.0));
         }
     }
-    SECTION("track cut by the file's end: unchanged") {
+    SECTION("track cut by the file's end, fitted to the note's end: unchanged") {
         track.cut_by_end = true;
+        const std::vector<cut_part> to_end = {{.env = nullptr, .track = &track, .fit_start_s = 0.0125, .fit_end_s = note_s}};
         const envelope before = p.partials[0].env;
-        CHECK(fall_held_short_fits(p, fitted, x, rate_hz, s, params, fit_params) == 0);
+        CHECK(follow_band_past_fits(p, to_end, x, rate_hz, s, params, fit_params) == 0);
         CHECK(p.partials[0].env == before);
     }
+    SECTION("track cut by the file's end, fit ended early: the short-fit rule leaves it, the band rule "
+            "(held 6 dB over the band for more than 0.1 s) does not") {
+        track.cut_by_end = true;
+        heard_peak_params short_rule_only = params;
+        short_rule_only.over_band_s = infinity;
+        patch q = p;
+        CHECK(follow_band_past_fits(q, fitted, x, rate_hz, s, short_rule_only, fit_params) == 0);
+        CHECK(q.partials[0].env == p.partials[0].env);
+        CHECK(follow_band_past_fits(p, fitted, x, rate_hz, s, params, fit_params) == 1);
+    }
+}
+
+TEST_CASE("a track's fit that falls slower than the recording (track ended early, fit longer than the short-fit "
+          "rule's 0.1 s) follows the narrow band from the fit's end to within 2 dB of the true level; a fit "
+          "that falls as the recording does is left alone",
+          "[heard_peaks]") {
+    const double t60_s = GENERATE(0.5, 0.8, 1.2);  // 120 .. 50 dB/s
+    const component c{.freq_hz = 3000.0, .amp_lin = 0.01, .attack_s = 0.0, .t60_s = t60_s, .phase_rad = 0.4};
+    const auto x = note_of({c});
+    partial_track track = track_of(c);
+    track.points.resize(25);  // 0 .. 0.3 s: the track ended well before the note
+    const double fit_end_s = 0.3;
+    const std::vector<cut_part> fitted = {{.env = nullptr, .track = &track, .fit_start_s = 0.0, .fit_end_s = fit_end_s}};
+    const heard_peak_params params{};
+    const heard_span_spectrum s = heard_spectrum(x, rate_hz, params);
+    const envelope_fit_params fit_params{.window_s = 0.05};
+    const auto patch_with_t60 = [&](double fitted_t60_s) {
+        patch p;
+        p.partials.push_back({.freq_hz = c.freq_hz, .harmonic = 0, .phase_rad = c.phase_rad,
+                              .env = {.attack_s = 0.0, .peak = to_level(amp_lin{c.amp_lin}),
+                                      .decay = {{.t60_s = fitted_t60_s, .until_s = {}}}},
+                              .place = {}});
+        return p;
+    };
+
+    SECTION("fitted three times too slow: falls at the band's rate from the fit's end") {
+        patch p = patch_with_t60(3.0 * t60_s);
+        const double at_end_db = envelope_level(p.partials[0].env, fit_end_s).db;
+        REQUIRE(follow_band_past_fits(p, fitted, x, rate_hz, s, params, fit_params) == 1);
+        CHECK_THAT(envelope_level(p.partials[0].env, 0.2).db, WithinAbs(to_level(amp_lin{c.amp_lin}).db - 60.0 * 0.2 / (3.0 * t60_s), 1e-9));  // kept up to the fit's end
+        for (const double t : {0.6, 1.0, 1.5}) {
+            const double truth_db = 20.0 * std::log10(amp_at(c, t));
+            const double expected_db = at_end_db + truth_db - 20.0 * std::log10(amp_at(c, fit_end_s));
+            const double got_db = envelope_level(p.partials[0].env, t).db;
+            CAPTURE(t60_s, t, truth_db, expected_db, got_db);
+            if (truth_db < -95.0) continue;  // under the -100 dB floor the band reads the noise
+            CHECK_THAT(got_db, WithinAbs(expected_db, 2.0));
+        }
+    }
+    SECTION("fitted at the true rate: unchanged") {
+        patch p = patch_with_t60(t60_s);
+        const envelope before = p.partials[0].env;
+        CHECK(follow_band_past_fits(p, fitted, x, rate_hz, s, params, fit_params) == 0);
+        CHECK(p.partials[0].env == before);
+    }
+}
+
+TEST_CASE("a merged partial's fitted stretch ends where the member whose envelope runs on at the end was "
+          "fitted to: the earlier member's fit end when the later one is never louder, the note's end when "
+          "that member's track was cut by the file's end",
+          "[heard_peaks]") {
+    // A partial held at its level (-42.5 dB) after a fit that ended at 0.4 s, and a late fragment of it
+    // that is never louder (-54 dB at its peak).
+    const std::vector<component> cs = {
+        {.freq_hz = 440.0, .amp_lin = 0.1, .attack_s = 0.0, .t60_s = 0.8, .phase_rad = 0.3},
+        {.freq_hz = 440.4, .amp_lin = 0.002, .attack_s = 0.6, .t60_s = 2.0, .phase_rad = 1.1},
+    };
+    const auto x = note_of(cs);
+    std::vector<partial_track> tracks = {track_of(cs[0]), track_of(cs[1])};
+    patch p;
+    p.partials.push_back({.freq_hz = 440.0, .harmonic = 0, .phase_rad = 0.3,
+                          .env = {.attack_s = 0.0, .peak = to_level(amp_lin{0.1}),
+                                  .decay = {{.t60_s = 0.8, .until_s = 0.3}, {.t60_s = infinity, .until_s = {}}}},
+                          .place = {}});
+    p.partials.push_back({.freq_hz = 440.4, .harmonic = 0, .phase_rad = 1.1,
+                          .env = {.attack_s = 0.6, .peak = to_level(amp_lin{0.002}), .decay = {{.t60_s = 2.0, .until_s = {}}}},
+                          .place = {}});
+    const std::vector<const partial_track*> ptrs = {&tracks[0], &tracks[1]};
+    const std::vector<double> fit_end_s = {0.4, 2.2};
+    const bool cut = GENERATE(false, true);
+    tracks[0].cut_by_end = cut;
+    const merge_result m = merge_late_companions(p, ptrs, fit_end_s, x, rate_hz, {});
+    REQUIRE(m.kept.size() == 1);
+    REQUIRE(p.partials.size() == 1);
+    CAPTURE(cut, m.kept[0].fit_end_s);
+    CHECK(m.kept[0].fit_end_s == (cut ? note_s : 0.4));
 }

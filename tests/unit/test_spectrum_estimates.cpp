@@ -6,6 +6,7 @@
 #include <sndfile.h>
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <cstdlib>
 #include <filesystem>
@@ -188,5 +189,34 @@ TEST_CASE("select_order finds the same k-th and (k-1)-th smallest as a full sort
         if (want_below) CHECK(got.below == sorted[k - 1]);
         std::sort(work.begin(), work.end());
         CHECK(work == sorted);  // reordered, nothing lost
+    }
+}
+
+TEST_CASE("select_small_ranks finds each set's k-th smallest, as a full sort of that set does",
+          "[spectrum][order]") {
+    // Reference: std::sort of each set alone (exact order statistics). Sets of different kinds
+    // side by side: exponential powers, quantized (ties), with zeros.
+    const int count = GENERATE(1, 2, 5, 8, 19, 24, 100);
+    const int k_wanted = GENERATE(0, 1, 3, 7);
+    if (k_wanted >= count) return;
+    const auto k = static_cast<std::size_t>(k_wanted);
+    const auto n = static_cast<std::size_t>(count);
+    splitmix64 rng{static_cast<std::uint64_t>(100 * count + k_wanted)};
+    std::vector<float> values(n * rank_lanes);
+    std::vector<std::vector<float>> sets(rank_lanes);
+    for (std::size_t i = 0; i < n; ++i)
+        for (std::size_t l = 0; l < rank_lanes; ++l) {
+            double x = -std::log(rng.unit_open());
+            if (l % 3 == 1) x = std::floor(4.0 * x) / 4.0;
+            if (l % 3 == 2 && rng.unit() < 0.3) x = 0.0;
+            values[i * rank_lanes + l] = static_cast<float>(x);
+            sets[l].push_back(static_cast<float>(x));
+        }
+    std::array<float, rank_lanes> got{};
+    select_small_ranks(values, n, k, got);
+    for (std::size_t l = 0; l < rank_lanes; ++l) {
+        std::sort(sets[l].begin(), sets[l].end());
+        CAPTURE(count, k, l, got[l], sets[l][k]);
+        CHECK(got[l] == sets[l][k]);
     }
 }
