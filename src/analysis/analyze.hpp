@@ -64,7 +64,7 @@ struct analysis_params {
     /// -0.02 -> -1.46: its gain moved and peak matching stepped its noise down 1 dB). With
     /// companions.min_partial_share 0 the median SNR rose to 14.16 dB, but a clean note of three
     /// damped modes got companions (test_pitch).
-    bool early_companions = false;
+    bool early_companions = true;
     early_companion_params companions{};
     /// Give the partials that start at once a sub-millisecond rise where their jump from silence
     /// is steeper than the recording's start (analysis/start_ramp.hpp).

@@ -94,7 +94,7 @@ struct onset_refine_params {
     /// After the passes, a partial whose STFT envelope rises may take that shape when it fits the
     /// span better beside an early companion (analysis/early_companion.hpp: choose_stft_starts).
     /// Off by default, with analysis_params::early_companions (which says why).
-    bool stft_starts = false;
+    bool stft_starts = true;
     early_companion_params companions{};
 };
 
