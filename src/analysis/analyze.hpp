@@ -55,15 +55,14 @@ struct analysis_params {
     mode_split_params modes{};
     /// Then give partials whose first 150 ms one shape cannot follow an early companion at their
     /// frequency (analysis/early_companion.hpp); analyze_stereo_note turns it off for the mix.
-    /// Off by default. On (with onset.stft_starts), on the 17 real notes (tools/bench_fidelity),
-    /// the first-100 ms SNR rose on the low notes (piano_d2 7.81 -> 9.83 dB, dulcimer 6.04 ->
-    /// 7.17, harpsichord 5.44 -> 6.41, timpani 5.08 -> 5.74, xylophone 10.26 -> 11.56; median
-    /// 13.59 -> 13.63), no log-spectral distance up by more than 0.09 dB; but banjo_g3's fell
-    /// 5.67 -> 4.98 (the evaluation's alignment moved one sample: at the old lag 6.32) and
-    /// tools/eval_texture.py's median floor at 8192 points moved -0.21 -> -0.55 dB (piano_as4
-    /// -0.02 -> -1.46: its gain moved and peak matching stepped its noise down 1 dB). With
-    /// companions.min_partial_share 0 the median SNR rose to 14.16 dB, but a clean note of three
-    /// damped modes got companions (test_pitch).
+    /// On by default (mono), with onset.stft_starts. Measured on the 17 real notes
+    /// (tools/bench_fidelity, against main 2486ce4 without them): first-100 ms SNR median 13.59 ->
+    /// 13.79 dB and no note down (piano_d2 7.81 -> 9.83, xylophone_fs3 11.12 -> 12.15, dulcimer_g4
+    /// 6.04 -> 7.17, timpani_d2 5.29 -> 6.11, banjo_g3 6.47 -> 7.23, harpsichord_d2 5.91 -> 6.52);
+    /// log-spectral distance median 4.38 -> 4.41, none up by more than 0.09 dB (glockenspiel_g6);
+    /// tools/eval_texture.py's floor medians -0.98 / -0.21 -> -0.81 / -0.35 dB. With
+    /// companions.min_partial_share 0 the SNR gains were larger, but a clean note of three damped
+    /// modes got companions (test_pitch).
     bool early_companions = true;
     early_companion_params companions{};
     /// Give the partials that start at once a sub-millisecond rise where their jump from silence

@@ -93,7 +93,7 @@ struct onset_refine_params {
     double agree_db = 1.0;
     /// After the passes, a partial whose STFT envelope rises may take that shape when it fits the
     /// span better beside an early companion (analysis/early_companion.hpp: choose_stft_starts).
-    /// Off by default, with analysis_params::early_companions (which says why).
+    /// On by default, with analysis_params::early_companions (which gives the figures).
     bool stft_starts = true;
     early_companion_params companions{};
 };
