@@ -1,6 +1,7 @@
 #include "analysis/early_companion.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cassert>
 #include <cmath>
 #include <complex>
@@ -9,9 +10,12 @@
 #include <optional>
 #include <utility>
 
+#include <Eigen/Core>
+
 #include "analysis/onset_attack.hpp"
 #include "core/envelope.hpp"
 #include "core/units.hpp"
+#include "modes/fit_memo.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -54,24 +58,46 @@ struct one_mode_fit {
     double explained = 0.0;      ///< energy the mode takes off the residual
 };
 
+constexpr int fit_lanes = 6;  ///< decays fitted in one pass over the samples (the grid's 5 in one)
+
+/// sum over n in [0, count) of z^n (a geometric series; |z| <= 1, z != 1).
+std::complex<double> geometric_sum(std::complex<double> z, std::size_t count) {
+    const double n = static_cast<double>(count);
+    const std::complex<double> z_n = std::polar(std::pow(std::abs(z), n), std::remainder(std::arg(z) * n, two_pi));
+    return (1.0 - z_n) / (1.0 - z);
+}
+
 /// Least squares of Re(amp exp(rho n) exp(i omega n)) = Ar u[n] + Ai v[n], u = e cos, v = -e sin,
-/// e = exp(rho n), on r: the 2 x 2 normal equations summed sample by sample (double); the energy
-/// explained is theta . rhs.
-one_mode_fit fit_decaying(std::span<const double> r, std::span<const double> cos_n, std::span<const double> sin_n,
-                          double rho) {
-    double uu = 0.0, vv = 0.0, uv = 0.0, ru = 0.0, rv = 0.0;
-    const double step = std::exp(rho);
-    double e = 1.0;
-    for (std::size_t n = 0; n < r.size(); ++n) {
-        const double u = e * cos_n[n], v = -e * sin_n[n];
-        uu += u * u, vv += v * v, uv += u * v;
-        ru += r[n] * u, rv += r[n] * v;
+/// e = exp(rho n), on a residual r given as rc = r cos(omega n), rs = -r sin(omega n), for up to
+/// fit_lanes decays rho (1/sample, < 0) at once. The right-hand sides sum e rc and e rs sample by
+/// sample (double, each decay in its own lane); the Gram entries are geometric series in closed
+/// form: with a = exp(2 rho), g = sum a^n, h = sum (a exp(2 i omega))^n, uu = (g + Re h) / 2,
+/// vv = (g - Re h) / 2, uv = -Im h / 2. The energy explained is theta . rhs. fits[j] for rho[j].
+void fit_decaying(std::span<const double> rc, std::span<const double> rs, double omega, std::span<const double> rho,
+                  std::span<one_mode_fit> fits) {
+    assert(rho.size() <= fit_lanes && fits.size() == rho.size() && rs.size() == rc.size());
+    using lanes = Eigen::Array<double, fit_lanes, 1>;
+    lanes step = lanes::Zero();  // an unused lane sums nothing
+    for (std::size_t j = 0; j < rho.size(); ++j) step(static_cast<Eigen::Index>(j)) = std::exp(rho[j]);
+    lanes ru = lanes::Zero(), rv = lanes::Zero(), e = step.sign();
+    for (std::size_t n = 0; n < rc.size(); ++n) {
+        ru += e * rc[n], rv += e * rs[n];
         e *= step;
     }
-    const double det = uu * vv - uv * uv;
-    if (!(uu > 0.0) || !(det > 1e-12 * uu * vv)) return {};
-    const double ar = (vv * ru - uv * rv) / det, ai = (uu * rv - uv * ru) / det;
-    return {.amp = {ar, ai}, .explained = ar * ru + ai * rv};
+    for (std::size_t j = 0; j < rho.size(); ++j) {
+        const auto l = static_cast<Eigen::Index>(j);
+        const double a = std::exp(2.0 * rho[j]);
+        const double g = geometric_sum(a, rc.size()).real();
+        const std::complex<double> h = geometric_sum(std::polar(a, 2.0 * omega), rc.size());
+        const double uu = 0.5 * (g + h.real()), vv = 0.5 * (g - h.real()), uv = -0.5 * h.imag();
+        const double det = uu * vv - uv * uv;
+        if (!(uu > 0.0) || !(det > 1e-12 * uu * vv)) {
+            fits[j] = {};
+            continue;
+        }
+        const double ar = (vv * ru(l) - uv * rv(l)) / det, ai = (uu * rv(l) - uv * ru(l)) / det;
+        fits[j] = {.amp = {ar, ai}, .explained = ar * ru(l) + ai * rv(l)};
+    }
 }
 
 /// Energy of a partial with envelope env (times gain_lin) over [0, span_s]: sum over samples of
@@ -110,7 +136,7 @@ struct candidate {
 };
 
 candidate fit_candidate(std::span<const float> r, double sample_rate_hz, const damped_mode& partial,
-                        const mode_shape& shape, double companion_decay) {
+                        const mode_shape& shape, double companion_decay, shaped_fit_memo& memo) {
     candidate c;
     c.modes.push_back({.freq_hz = partial.freq_hz, .decay_per_s = partial.decay_per_s});
     c.shapes.push_back(shape);
@@ -118,7 +144,7 @@ candidate fit_candidate(std::span<const float> r, double sample_rate_hz, const d
         c.modes.push_back({.freq_hz = partial.freq_hz, .decay_per_s = companion_decay});
         c.shapes.emplace_back();
     }
-    fit_shaped_amplitudes(r, sample_rate_hz, c.modes, c.shapes);
+    fit_shaped_amplitudes(r, sample_rate_hz, c.modes, c.shapes, 1e-9, nullptr, &memo);
     c.left = joint_residual(r, sample_rate_hz, c.modes, c.shapes);
     c.left_energy = energy_of(c.left);
     return c;
@@ -152,35 +178,55 @@ stft_switch choose_stft_starts(std::span<const double> joint, double sample_rate
     for (std::size_t i = 0; i < modes.size(); ++i) order.emplace_back(energy[i], i);
     std::sort(order.begin(), order.end(), std::greater<>());
     const double floor_energy = order.front().first * std::pow(10.0, -params.range_db / 10.0);
+    // Only a partial with an STFT shape may switch; the residual left past the last of them is
+    // never used. A switch lowers the residual by min_gain_share * span_energy more than `kept`
+    // leaves, which leaves at most the residual's energy (kept includes the partial alone refitted
+    // by least squares, which can match its fitted amplitude), so a switch needs that much residual
+    // energy; the residual's energy does not rise from one partial to the next, so once it is under
+    // half that (a margin over rounding) no later partial can switch either.
+    const auto may_switch = [&](std::size_t i) {
+        return !stft.shapes[i].empty() && modes[i].freq_hz > 0.0 && modes[i].freq_hz < 0.5 * sample_rate_hz;
+    };
+    std::size_t taken = 0;  // order[0, taken): the partials visited
+    for (std::size_t at = 0; at < order.size() && order[at].first >= floor_energy; ++at)
+        if (may_switch(order[at].second)) taken = at + 1;
+    const double min_gain = params.min_gain_share * span_energy;
     std::vector<double> residual(joint.begin(), joint.end());
+    double residual_energy = energy_of(residual);
     std::vector<float> with_own(residual.size());
     const std::vector<float> silence(residual.size());
-    for (const auto& [e, i] : order) {
-        if (e < floor_energy) break;
+    shaped_fit_memo memo;
+    for (const auto& [e, i] : std::span(order).first(taken)) {
+        if (residual_energy < 0.5 * min_gain) break;
         if (!(modes[i].freq_hz > 0.0) || modes[i].freq_hz >= 0.5 * sample_rate_hz) continue;
         // The residual with the partial's own part put back (as fitted; float, as the fit's target).
         const std::vector<double> minus_own = joint_residual(silence, sample_rate_hz, modes.subspan(i, 1), shapes.subspan(i, 1));
         for (std::size_t n = 0; n < residual.size(); ++n) with_own[n] = static_cast<float>(residual[n] - minus_own[n]);
-        candidate kept = fit_candidate(with_own, sample_rate_hz, modes[i], shapes[i], 0.0);
-        std::optional<candidate> switched;
+        // The fitted shape's candidates, then the STFT shape's: each fit after the first shares
+        // its partial's projection with the one before (the memo's, the same numbers).
+        candidate kept = fit_candidate(with_own, sample_rate_hz, modes[i], shapes[i], 0.0, memo);
         for (const double t60_s : params.t60_grid_s) {
             if (!is_resonance(modes[i].freq_hz, t60_s, params)) continue;
-            const double decay = ln1000 / t60_s;  // 1/s
-            candidate c = fit_candidate(with_own, sample_rate_hz, modes[i], shapes[i], decay);
+            candidate c = fit_candidate(with_own, sample_rate_hz, modes[i], shapes[i], ln1000 / t60_s, memo);
             if (c.left_energy < kept.left_energy) kept = std::move(c);
-            if (stft.shapes[i].empty()) continue;
-            c = fit_candidate(with_own, sample_rate_hz, modes[i], stft.shapes[i], decay);
+        }
+        std::optional<candidate> switched;
+        for (const double t60_s : params.t60_grid_s) {
+            if (stft.shapes[i].empty() || !is_resonance(modes[i].freq_hz, t60_s, params)) continue;
+            candidate c = fit_candidate(with_own, sample_rate_hz, modes[i], stft.shapes[i], ln1000 / t60_s, memo);
             if (std::abs(amp_db(c.modes[0])) <= params.max_shape_scale_db &&
                 amp_db(c.modes[1]) <= stft.peak_db[i] + params.max_over_stft_db &&
                 (!switched || c.left_energy < switched->left_energy))
                 switched = std::move(c);
         }
-        if (switched && switched->left_energy <= kept.left_energy - params.min_gain_share * span_energy) {
+        if (switched && switched->left_energy <= kept.left_energy - min_gain) {
             out.partials.push_back(i);
             out.companions.push_back(switched->modes[1]);
             residual = std::move(switched->left);
+            residual_energy = switched->left_energy;
         } else {
             residual = std::move(kept.left);
+            residual_energy = kept.left_energy;
         }
     }
     return out;
@@ -199,29 +245,46 @@ int add_early_companions(patch& p, std::span<const float> note, double sample_ra
         signal += static_cast<double>(note[n]) * static_cast<double>(note[n]);
     }
     if (!(signal > 0.0)) return 0;
+    // A companion takes at most the residual's energy (a least-squares projection), so a partial
+    // whose bar is over it (by a factor 2, a margin over rounding) is passed over without its fit.
+    double residual_energy = energy_of(residual);
     // The partials by their loudest level over the span, the loudest first.
     std::vector<std::pair<double, std::size_t>> order;
     for (std::size_t k = 0; k < p.partials.size(); ++k) order.emplace_back(span_peak_db(p.partials[k].env, span_s), k);
     std::sort(order.begin(), order.end(), std::greater<>());
     const double gain_lin = to_amp(level_db{p.note.gain_db}).lin;
-    std::vector<double> cos_n, sin_n;
+    std::vector<double> cos_n, sin_n, rc(count), rs(count);
     std::vector<partial> added;
     for (const auto& [peak_db, k] : order) {
         if (peak_db < order.front().first - params.range_db) break;
         const double freq_hz = p.partials[k].freq_hz;
         if (!(freq_hz > 0.0) || freq_hz >= 0.5 * sample_rate_hz) continue;
-        phasor_table(two_pi * freq_hz / sample_rate_hz, count, cos_n, sin_n);
-        one_mode_fit best;
-        double best_t60_s = 0.0;
-        for (const double t60_s : params.t60_grid_s) {
-            if (!is_resonance(freq_hz, t60_s, params)) continue;
-            const one_mode_fit f = fit_decaying(residual, cos_n, sin_n, -ln1000 / (t60_s * sample_rate_hz));
-            if (f.explained > best.explained) best = f, best_t60_s = t60_s;
-        }
         // What a companion must explain: a share of the span's energy, and of its partial's own
         // energy there (a small level error of a strong partial leaves no stage to follow).
         const double own_energy = span_energy(p.partials[k].env, gain_lin, sample_rate_hz, span_s);
-        if (!(best.explained >= std::max(params.min_gain_share * signal, params.min_partial_share * own_energy))) continue;
+        const double min_explained = std::max(params.min_gain_share * signal, params.min_partial_share * own_energy);
+        if (2.0 * residual_energy < min_explained) continue;
+        const double omega = two_pi * freq_hz / sample_rate_hz;  // rad/sample
+        phasor_table(omega, count, cos_n, sin_n);
+        for (std::size_t n = 0; n < count; ++n) rc[n] = residual[n] * cos_n[n], rs[n] = -residual[n] * sin_n[n];
+        one_mode_fit best;
+        double best_t60_s = 0.0;
+        std::size_t at = 0;  // into the grid
+        while (at < params.t60_grid_s.size()) {
+            std::array<double, fit_lanes> t60_s{}, rho{};
+            std::size_t used = 0;
+            for (; at < params.t60_grid_s.size() && used < fit_lanes; ++at) {
+                if (!is_resonance(freq_hz, params.t60_grid_s[at], params)) continue;
+                t60_s[used] = params.t60_grid_s[at];
+                rho[used++] = -ln1000 / (params.t60_grid_s[at] * sample_rate_hz);
+            }
+            if (used == 0) break;
+            std::array<one_mode_fit, fit_lanes> fits{};
+            fit_decaying(rc, rs, omega, std::span(rho).first(used), std::span(fits).first(used));
+            for (std::size_t j = 0; j < used; ++j)
+                if (fits[j].explained > best.explained) best = fits[j], best_t60_s = t60_s[j];
+        }
+        if (!(best.explained >= min_explained)) continue;
         // Taken off the residual: the next partial's companion is fitted on what is left.
         const double step = std::exp(-ln1000 / (best_t60_s * sample_rate_hz));
         double e = 1.0;
@@ -229,6 +292,7 @@ int add_early_companions(patch& p, std::span<const float> note, double sample_ra
             residual[n] -= e * (best.amp.real() * cos_n[n] - best.amp.imag() * sin_n[n]);
             e *= step;
         }
+        residual_energy = energy_of(residual);
         added.push_back({.freq_hz = freq_hz, .harmonic = 0, .phase_rad = std::arg(best.amp),
                          .env = {.attack_s = 0.0, .peak = to_level(amp_lin{std::abs(best.amp) / gain_lin}),
                                  .decay = {{.t60_s = best_t60_s, .until_s = std::nullopt}}},
