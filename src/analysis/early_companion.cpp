@@ -128,14 +128,15 @@ double energy_of(std::span<const double> x) {
 
 /// One candidate start in the onset fit: the partial with `shape`, and a companion of decay
 /// companion_decay (1/s; 0: none), fitted by least squares on r; what is left of r, and its energy.
+/// left_energy: the fit's own (its closed form, fit_shaped_amplitudes's residual share times
+/// r_energy, the energy of r); left, r minus the candidate sample by sample, only for the one taken.
 struct candidate {
     std::vector<damped_mode> modes;
     std::vector<mode_shape> shapes;
-    std::vector<double> left;
     double left_energy = 0.0;
 };
 
-candidate fit_candidate(std::span<const float> r, double sample_rate_hz, const damped_mode& partial,
+candidate fit_candidate(std::span<const float> r, double r_energy, double sample_rate_hz, const damped_mode& partial,
                         const mode_shape& shape, double companion_decay, shaped_fit_memo& memo) {
     candidate c;
     c.modes.push_back({.freq_hz = partial.freq_hz, .decay_per_s = partial.decay_per_s});
@@ -144,9 +145,7 @@ candidate fit_candidate(std::span<const float> r, double sample_rate_hz, const d
         c.modes.push_back({.freq_hz = partial.freq_hz, .decay_per_s = companion_decay});
         c.shapes.emplace_back();
     }
-    fit_shaped_amplitudes(r, sample_rate_hz, c.modes, c.shapes, 1e-9, nullptr, &memo);
-    c.left = joint_residual(r, sample_rate_hz, c.modes, c.shapes);
-    c.left_energy = energy_of(c.left);
+    c.left_energy = r_energy * fit_shaped_amplitudes(r, sample_rate_hz, c.modes, c.shapes, 1e-9, nullptr, &memo);
     return c;
 }
 
@@ -202,18 +201,20 @@ stft_switch choose_stft_starts(std::span<const double> joint, double sample_rate
         // The residual with the partial's own part put back (as fitted; float, as the fit's target).
         const std::vector<double> minus_own = joint_residual(silence, sample_rate_hz, modes.subspan(i, 1), shapes.subspan(i, 1));
         for (std::size_t n = 0; n < residual.size(); ++n) with_own[n] = static_cast<float>(residual[n] - minus_own[n]);
+        double own_energy = 0.0;  // of with_own, summed as fit_shaped_amplitudes sums it
+        for (const float v : with_own) own_energy += static_cast<double>(v) * static_cast<double>(v);
         // The fitted shape's candidates, then the STFT shape's: each fit after the first shares
         // its partial's projection with the one before (the memo's, the same numbers).
-        candidate kept = fit_candidate(with_own, sample_rate_hz, modes[i], shapes[i], 0.0, memo);
+        candidate kept = fit_candidate(with_own, own_energy, sample_rate_hz, modes[i], shapes[i], 0.0, memo);
         for (const double t60_s : params.t60_grid_s) {
             if (!is_resonance(modes[i].freq_hz, t60_s, params)) continue;
-            candidate c = fit_candidate(with_own, sample_rate_hz, modes[i], shapes[i], ln1000 / t60_s, memo);
+            candidate c = fit_candidate(with_own, own_energy, sample_rate_hz, modes[i], shapes[i], ln1000 / t60_s, memo);
             if (c.left_energy < kept.left_energy) kept = std::move(c);
         }
         std::optional<candidate> switched;
         for (const double t60_s : params.t60_grid_s) {
             if (stft.shapes[i].empty() || !is_resonance(modes[i].freq_hz, t60_s, params)) continue;
-            candidate c = fit_candidate(with_own, sample_rate_hz, modes[i], stft.shapes[i], ln1000 / t60_s, memo);
+            candidate c = fit_candidate(with_own, own_energy, sample_rate_hz, modes[i], stft.shapes[i], ln1000 / t60_s, memo);
             if (std::abs(amp_db(c.modes[0])) <= params.max_shape_scale_db &&
                 amp_db(c.modes[1]) <= stft.peak_db[i] + params.max_over_stft_db &&
                 (!switched || c.left_energy < switched->left_energy))
@@ -222,12 +223,11 @@ stft_switch choose_stft_starts(std::span<const double> joint, double sample_rate
         if (switched && switched->left_energy <= kept.left_energy - min_gain) {
             out.partials.push_back(i);
             out.companions.push_back(switched->modes[1]);
-            residual = std::move(switched->left);
-            residual_energy = switched->left_energy;
+            residual = joint_residual(with_own, sample_rate_hz, switched->modes, switched->shapes);
         } else {
-            residual = std::move(kept.left);
-            residual_energy = kept.left_energy;
+            residual = joint_residual(with_own, sample_rate_hz, kept.modes, kept.shapes);
         }
+        residual_energy = energy_of(residual);
     }
     return out;
 }

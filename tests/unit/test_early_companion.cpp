@@ -7,6 +7,7 @@
 
 #include <cmath>
 #include <complex>
+#include <optional>
 #include <vector>
 #include <sstream>
 
@@ -104,4 +105,65 @@ TEST_CASE("a secondary partial that sounds at once under a swell of its own is c
         CAPTURE(swell_phase_rad, t, t_copy, std::abs(want), std::abs(got), error_db, partials);
         CHECK(error_db < -10.0);
     }
+}
+
+namespace {
+
+/// A partial at freq_hz, peak_db at once, one decay of t60_s, phase_rad.
+partial damped_partial(double freq_hz, double peak_db, double t60_s, double phase_rad) {
+    return {.freq_hz = freq_hz, .harmonic = 0, .phase_rad = phase_rad,
+            .env = {.attack_s = 0.0, .peak = level_db{peak_db}, .decay = {{.t60_s = t60_s, .until_s = std::nullopt}}},
+            .place = {}};
+}
+
+/// The partials of p summed from their formula (cos(2 pi f t + phase) times the envelope's
+/// amplitude, double), n_frames at fs, plus uniform noise noise_db down (seeded).
+std::vector<float> render_truth(const std::vector<partial>& parts, std::size_t n_frames, double noise_db) {
+    std::vector<float> x(n_frames);
+    const double noise_amp = std::sqrt(3.0) * std::pow(10.0, noise_db / 20.0);
+    for (std::size_t i = 0; i < n_frames; ++i) {
+        const double t = static_cast<double>(i) / fs;
+        double v = noise_amp * hashed_signed(11, 0, i);
+        for (const partial& q : parts) v += to_amp(envelope_level(q.env, t)).lin * std::cos(two_pi * q.freq_hz * t + q.phase_rad);
+        x[i] = static_cast<float>(v);
+    }
+    return x;
+}
+
+}  // namespace
+
+TEST_CASE("a damped companion at a grid T60 under a copied partial is found with its level within 0.3 dB and phase within 0.03 rad",
+          "[analysis][companion]") {
+    const double t60_s = GENERATE(0.03, 0.06, 0.12);
+    const double phase_rad = GENERATE(-2.0, 0.4, 2.5);
+    const partial strong = damped_partial(200.0, -6.0, 2.0, 0.2);
+    // Louder than its partial at first (as piano_d2's second harmonic), so it passes min_partial_share.
+    const partial weak = damped_partial(1400.0, -20.0, 1.5, 1.0);
+    const partial early = damped_partial(1400.0, -12.0, t60_s, phase_rad);
+    const std::vector<float> x = render_truth({strong, weak, early}, static_cast<std::size_t>(0.3 * fs), -90.0);
+    patch p{};
+    p.note.length_s = 0.3;
+    p.partials = {strong, weak};
+    const int added = add_early_companions(p, x, fs, {});
+    REQUIRE(added == 1);
+    const partial& got = p.partials.back();
+    CAPTURE(t60_s, phase_rad, got.freq_hz, got.env.decay.front().t60_s, got.env.peak.db, got.phase_rad);
+    CHECK(got.freq_hz == 1400.0);
+    CHECK(got.env.decay.front().t60_s == t60_s);
+    CHECK(std::abs(got.env.peak.db - early.env.peak.db) < 0.3);
+    CHECK(std::abs(std::remainder(got.phase_rad - phase_rad, two_pi)) < 0.03);
+}
+
+TEST_CASE("a note its patch copies exactly takes no early companion", "[analysis][companion]") {
+    const double noise_db = GENERATE(-90.0, -60.0);
+    const partial strong = damped_partial(200.0, -6.0, 2.0, 0.2);
+    const partial weak = damped_partial(700.0, -20.0, 1.5, 1.0);
+    const std::vector<float> x = render_truth({strong, weak}, static_cast<std::size_t>(0.3 * fs), noise_db);
+    patch p{};
+    p.note.length_s = 0.3;
+    p.partials = {strong, weak};
+    const int added = add_early_companions(p, x, fs, {});
+    CAPTURE(noise_db, p.partials.size());
+    CHECK(added == 0);
+    CHECK(p.partials.size() == 2);
 }
