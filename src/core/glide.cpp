@@ -1,6 +1,7 @@
 // A partial's early pitch glide (see glide.hpp for the formula and its error budget).
 #include "core/glide.hpp"
 
+#include <algorithm>
 #include <array>
 #include <cassert>
 #include <cmath>
@@ -95,6 +96,34 @@ void glide_terms_at_decays(double glide_cents, double glide_s, std::span<const d
         for (std::size_t k = expm1_series_terms; k-- > 0;) expm1_sum = (expm1_sum + expm1_coefficients[k]) * x;
         remaining_rad_per_hz[b] = rad_per_hz * ein_sum;
         excess[b] = expm1_sum;
+    }
+}
+
+namespace {
+
+/// remaining_rad[b] = scale Ein(x0 decay[b]) by Ein's first Terms terms (Horner's rule, as ein).
+template <std::size_t Terms>
+void scaled_ein_series(double scale, double x0, std::span<const double> decay, std::span<double> remaining_rad) {
+    for (std::size_t b = 0; b < decay.size(); ++b) {
+        const double x = x0 * decay[b];
+        double sum = 0.0;
+        for (std::size_t k = Terms; k-- > 0;) sum = (sum + ein_coefficients[k]) * x;
+        remaining_rad[b] = scale * sum;
+    }
+}
+
+}  // namespace
+
+void glide_remaining_phases_at_decays_rad(double freq_hz, double glide_cents, double glide_s,
+                                          std::span<const double> decay, std::span<double> remaining_rad) {
+    assert(remaining_rad.size() == decay.size());
+    assert(std::all_of(decay.begin(), decay.end(), [](double d) { return d > 0.0 && d <= 1.0; }));
+    const double x0 = nepers_per_cent * glide_cents;
+    const double scale = two_pi * freq_hz * glide_s;  // glide_remaining_phase_at_decay_rad's factor
+    if (std::abs(x0) <= short_series_max_x) {
+        scaled_ein_series<short_series_terms>(scale, x0, decay, remaining_rad);
+    } else {
+        scaled_ein_series<ein_series_terms>(scale, x0, decay, remaining_rad);
     }
 }
 
