@@ -300,7 +300,7 @@ TEST_CASE("the worked glide in patches/README.md gives the figures it states", "
 
 TEST_CASE("glide terms at many decays match the one-instant functions: R bit for bit, the excess within 4e-16",
           "[glide]") {
-    // Offsets on both sides of the series' limit (108 cents) and decays over [0, 1]: R against
+    // Offsets on both sides of the series' limits (108 and 216 cents) and decays over [0, 1]: R against
     // glide_remaining_phase_at_decay_rad (the same series), the excess against the library's expm1.
     const std::vector<double> decay = [] {
         std::vector<double> d;
@@ -308,7 +308,8 @@ TEST_CASE("glide terms at many decays match the one-instant functions: R bit for
         d.push_back(0.0);
         return d;
     }();
-    for (const double cents : {-1200.0, -108.5, -100.0, -37.25, -0.5, 0.0, 0.5, 4.0, 96.0, 107.9, 109.0, 700.0}) {
+    for (const double cents : {-1200.0, -216.5, -215.0, -150.0, -108.5, -100.0, -37.25, -0.5, 0.0, 0.5, 4.0, 96.0, 107.9, 109.0, 142.0,
+                               192.0, 215.9, 217.0, 700.0}) {
         for (const double glide_s : {0.005, 0.25}) {
             std::vector<double> remaining(decay.size()), excess(decay.size());
             glide_terms_at_decays(cents, glide_s, decay, remaining, excess);
