@@ -50,9 +50,18 @@ double glide_freq_excess_at_decay(double glide_cents, double decay);
 /// For |x0| <= 1/16 (offsets up to 108 cents; decay <= 1) both come from their series in one
 /// loop the compiler vectorizes: Ein's is the one above (the same operations, the same bits), and
 /// expm1(x) = sum_{k=1..9} x^k / k! (the first term left out, |x|^10 / 10!, is under 2e-18 |x|),
-/// within an ulp or so of the library's expm1. Larger offsets take the functions above.
+/// within an ulp or so of the library's expm1. For |x0| <= 1/8 (offsets up to 216 cents) the
+/// same loop takes Ein's 16 terms where |x| > 1/16 (as above: the same bits) and expm1 to
+/// x^11 / 11! (the rest under 3e-19 |x|). Larger offsets take the functions above.
 void glide_terms_at_decays(double glide_cents, double glide_s, std::span<const double> decay,
                            std::span<double> remaining_rad_per_hz, std::span<double> excess);
+
+/// R (rad) at many decay factors (0 < decay <= 1, asserted; the renderer's gliding frames):
+/// remaining_rad[b] = 2 pi f tau Ein(x0 decay[b]), the same series as the function above in one loop
+/// the compiler vectorizes, its 8 terms for all when |x0| <= 1/16 (offsets up to 108 cents), else
+/// its 16 (both within double rounding of Ein, as above).
+void glide_remaining_phases_at_decays_rad(double freq_hz, double glide_cents, double glide_s,
+                                          std::span<const double> decay, std::span<double> remaining_rad);
 
 /// G = R(0): the whole glide's phase (rad); the settled partial plays at phase + G.
 double glide_total_phase_rad(double freq_hz, double glide_cents, double glide_s);

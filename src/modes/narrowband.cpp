@@ -1,7 +1,6 @@
 #include "modes/narrowband.hpp"
 
 #include <kiss_fft.h>
-#include <kiss_fftr.h>
 
 #include <algorithm>
 #include <cassert>
@@ -16,7 +15,7 @@ struct note_spectrum::state {
     double sample_rate_hz = 0.0;
     std::size_t signal_frames = 0;
     int fft_size = 0;
-    std::vector<kiss_fft_cpx> bins;
+    std::vector<std::complex<float>> bins;
 };
 
 note_spectrum::note_spectrum(std::span<const float> x, double sample_rate_hz, std::size_t padded_frames)
@@ -27,16 +26,10 @@ note_spectrum::note_spectrum(std::span<const float> x, double sample_rate_hz, st
     const int size = fast_fft_size(static_cast<int>(state_->signal_frames));
     assert(size % 2 == 0);
     state_->fft_size = size;
-    // The samples, zero padded to the FFT size, in the bins' own memory (size / 2 + 1 pairs of
-    // floats hold size floats): kiss_fftr reads its input whole into its own buffer before it
-    // writes a bin, so a note-long spectrum costs one note-long array, not two.
-    state_->bins.assign(static_cast<std::size_t>(size) / 2 + 1, kiss_fft_cpx{0.0f, 0.0f});
-    auto* samples = reinterpret_cast<float*>(state_->bins.data());  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): kiss_fft_cpx is two floats
-    static_assert(sizeof(kiss_fft_cpx) == 2 * sizeof(float));
-    std::copy(x.begin(), x.end(), samples);
-    kiss_fftr_cfg cfg = kiss_fftr_alloc(size, 0, nullptr, nullptr);
-    kiss_fftr(cfg, samples, state_->bins.data());
-    kiss_fftr_free(cfg);
+    // FFTW (spectrum/real_fft: one plan per size for the process, from the stored wisdom): a
+    // note-long size's twiddle factors cost KissFFT's allocation about as much as its transform.
+    state_->bins.resize(static_cast<std::size_t>(size) / 2 + 1);
+    real_fft(x, size, state_->bins);
 }
 
 note_spectrum::~note_spectrum() = default;
@@ -55,7 +48,7 @@ std::vector<std::complex<double>> note_spectrum::bins_between(double low_hz, dou
     const long hi = std::clamp(static_cast<long>(std::floor(high_hz / bin_hz)), 1L, last_bin);
     first_bin = lo;
     std::vector<std::complex<double>> out;
-    for (long k = lo; k <= hi; ++k) out.emplace_back(s.bins[static_cast<std::size_t>(k)].r, s.bins[static_cast<std::size_t>(k)].i);
+    for (long k = lo; k <= hi; ++k) out.emplace_back(s.bins[static_cast<std::size_t>(k)].real(), s.bins[static_cast<std::size_t>(k)].imag());
     return out;
 }
 
@@ -83,9 +76,9 @@ narrowband note_spectrum::band(double centre_hz, double half_width_hz, double mi
         // Flat over the inner half, raised cosine to 0 at the band edge.
         const double r = std::abs(static_cast<double>(j)) / static_cast<double>(half);
         const double taper = r <= 0.5 ? 1.0 : 0.5 * (1.0 + std::cos(pi * (r - 0.5) / 0.5));
-        const kiss_fft_cpx b = s.bins[static_cast<std::size_t>(kc + j)];
+        const std::complex<float> b = s.bins[static_cast<std::size_t>(kc + j)];
         const auto slot = static_cast<std::size_t>((j + points) % points);
-        in[slot] = {static_cast<float>(double(b.r) * taper * scale), static_cast<float>(double(b.i) * taper * scale)};
+        in[slot] = {static_cast<float>(double(b.real()) * taper * scale), static_cast<float>(double(b.imag()) * taper * scale)};
     }
     std::vector<kiss_fft_cpx> out(static_cast<std::size_t>(points));
     kiss_fft_cfg cfg = kiss_fft_alloc(points, 1, nullptr, nullptr);  // inverse: exp(+i ...)
