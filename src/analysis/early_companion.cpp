@@ -13,6 +13,7 @@
 #include <Eigen/Core>
 
 #include "analysis/onset_attack.hpp"
+#include "core/cosine_walk.hpp"
 #include "core/envelope.hpp"
 #include "core/units.hpp"
 #include "modes/fit_memo.hpp"
@@ -33,24 +34,12 @@ std::vector<double> render_partials(const patch& p, double rate_hz, std::size_t 
     return {y.begin(), y.end()};
 }
 
-/// cos and sin of omega n for n in [0, count): a rotation by exp(i omega), re-anchored from the
-/// exact phase every 512 samples.
+/// cos and sin of omega n for n in [0, count) (core/cosine_walk).
 void phasor_table(double omega, std::size_t count, std::vector<double>& cos_n, std::vector<double>& sin_n) {
-    constexpr std::size_t anchor_every = 512;
     cos_n.resize(count);
     sin_n.resize(count);
-    const double step_c = std::cos(omega), step_s = std::sin(omega);
-    double c = 1.0, s = 0.0;
-    for (std::size_t n = 0; n < count; ++n) {
-        if (n % anchor_every == 0) {
-            const double phase = std::remainder(omega * static_cast<double>(n), two_pi);
-            c = std::cos(phase), s = std::sin(phase);
-        }
-        cos_n[n] = c, sin_n[n] = s;
-        const double next_c = c * step_c - s * step_s;
-        s = c * step_s + s * step_c;
-        c = next_c;
-    }
+    cosine_walk walk(omega, 1.0);
+    for (std::size_t n = 0; n < count; ++n) cos_n[n] = walk.next(), sin_n[n] = walk.sine();
 }
 
 struct one_mode_fit {

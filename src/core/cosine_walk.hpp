@@ -2,8 +2,9 @@
 // exact_every-th j, between them the pair rotated on by one step of angle_num / angle_den (a few
 // ulps off at most over exact_every steps): one cosine and sine per exact_every values instead of
 // one per value. Used by the Hann window of the heard spectrum (angle 2 pi i / n) and the window's
-// zero-phase transform (angle step * m); test_spectrum checks the latter within 1e-12 of a
-// long-double direct sum.
+// zero-phase transform (angle step * m), and the phasors an early companion is fitted against
+// (analysis/early_companion: cos and sin of omega n); test_spectrum checks the cosines within 1e-12
+// of a long-double direct sum.
 #pragma once
 
 #include <cmath>
@@ -33,6 +34,9 @@ public:
         ++j_;
         return c_;
     }
+
+    /// The sine at the j of the last next().
+    [[nodiscard]] double sine() const { return s_; }
 
 private:
     double num_, den_, cos_step_, sin_step_;
