@@ -167,9 +167,9 @@ std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, 
     return best;
 }
 
-/// The partial's start level times `scale` (clamped to +-max_db): the peak moves, and a first
-/// decay segment with an end keeps its level there (its T60 follows), so the later envelope stays.
-void scale_start(envelope& env, double scale, double max_db) {
+}  // namespace
+
+void scale_envelope_start(envelope& env, double scale, double max_db) {
     const double change_db = std::clamp(to_level(amp_lin{scale}).db, -max_db, max_db);
     if (env.decay.size() >= 2 && env.decay[0].until_s) {
         const double until_s = *env.decay[0].until_s;
@@ -187,6 +187,8 @@ void scale_start(envelope& env, double scale, double max_db) {
     env.peak = level_db{env.peak.db + change_db};
 }
 
+namespace {
+
 /// q with the glide `fit`: its offset and time constant, the phase arg(C) and the start level
 /// scaled by |C| (scale_start).
 partial with_glide(const partial& q, const glide_fit& fit, const onset_glide_params& params) {
@@ -194,7 +196,7 @@ partial with_glide(const partial& q, const glide_fit& fit, const onset_glide_par
     g.glide_cents = fit.cents;
     g.glide_s = fit.glide_s;
     g.phase_rad = std::arg(fit.amp);
-    scale_start(g.env, std::abs(fit.amp), params.max_level_change_db);
+    scale_envelope_start(g.env, std::abs(fit.amp), params.max_level_change_db);
     return g;
 }
 

@@ -127,6 +127,11 @@ struct onset_glide_summary {
     double residual_after_db = 0.0;
 };
 
+/// The envelope's start level (its peak) times `scale`, clamped to +-max_db: a first decay segment
+/// with an end keeps its level there (its T60 follows), so the later envelope stays. Also
+/// analysis/early_refit's.
+void scale_envelope_start(envelope& env, double scale, double max_db);
+
 /// Fits glides to p's strong partials on note (note[0] at the patch's onset, where its phases
 /// count from), in place, as described above. Mono: a stereo mix's channels arrive apart.
 onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, double sample_rate_hz,

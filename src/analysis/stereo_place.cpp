@@ -424,6 +424,8 @@ analysis_result analyze_stereo_note(std::span<const float> mix, std::span<const 
     // Nor early companions (analysis/early_companion.hpp): two partials at one frequency are one
     // sinusoid on the mix, and the channels' fit cannot tell which of the two a channel holds.
     mix_params.early_companions = false;
+    // Nor the early refit (analysis/early_refit.hpp): the channels' fit places each partial's phase.
+    mix_params.refit_early = false;
     mix_params.onset.stft_starts = false;
     analysis_result out = analyze_note(mix, sample_rate_hz, mix_params);
     patch& p = out.value;

@@ -1,0 +1,131 @@
+// The strong partials' phases and start levels on the finished copy's first span (see early_refit.hpp).
+#include "analysis/early_refit.hpp"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+#include <complex>
+#include <numbers>
+#include <numeric>
+#include <vector>
+
+#include "analysis/onset_glide.hpp"
+#include "core/envelope.hpp"
+#include "core/units.hpp"
+#include "synthesis/render.hpp"
+
+namespace wane {
+
+namespace {
+
+/// The partials of `partials` alone (no noise) over the first `count` frames at rate_hz, as the
+/// renderer plays them (the note's gain included), into out (resized to count).
+void render_into(const patch& p, std::span<const partial> partials, double rate_hz, std::size_t count,
+                 std::vector<float>& work, std::vector<double>& out) {
+    patch one{.version = p.version, .note = p.note, .source = p.source,
+              .partials = {partials.begin(), partials.end()}, .noise = {}};
+    one.note.length_s = static_cast<double>(count) / rate_hz + 2.0 * end_fade_s;  // its fade past the span
+    const partial_renderer r(one, {.sample_rate_hz = rate_hz, .include_noise = false});
+    work.assign(count, 0.0F);
+    r.render(0, work);
+    out.assign(work.begin(), work.end());
+}
+
+/// What swapping own for moved in the copy does to the residual d = x - copy: its energy over the
+/// first `count` frames after the swap, and the change of its energy over the frames after them
+/// (sum (own - moved)(2 d + own - moved), whose sign needs no rounding of two large sums).
+struct swap_cost {
+    double early = 0.0;
+    double late_change = 0.0;
+};
+swap_cost cost_of_swap(std::span<const double> d, std::span<const double> own, std::span<const double> moved,
+                       std::size_t count) {
+    swap_cost c;
+    for (std::size_t n = 0; n < count; ++n) {
+        const double e = d[n] + own[n] - moved[n];
+        c.early += e * e;
+    }
+    for (std::size_t n = count; n < d.size(); ++n) {
+        const double step = own[n] - moved[n];
+        c.late_change += step * (2.0 * d[n] + step);
+    }
+    return c;
+}
+
+/// z = alpha + j beta of the least squares y ~ alpha w + beta w' with y = d + w (the residual d with
+/// the partial's own part put back), over w's frames; zero where the 2 x 2 system is singular.
+std::complex<double> complex_scale(std::span<const double> d, std::span<const double> w, std::span<const double> wq) {
+    double ww = 0.0, wqwq = 0.0, wwq = 0.0, yw = 0.0, ywq = 0.0;
+    for (std::size_t n = 0; n < wq.size(); ++n) {
+        const double y = d[n] + w[n];
+        ww += w[n] * w[n];
+        wqwq += wq[n] * wq[n];
+        wwq += w[n] * wq[n];
+        yw += y * w[n];
+        ywq += y * wq[n];
+    }
+    const double det = ww * wqwq - wwq * wwq;
+    if (!(det > 1e-12 * ww * wqwq)) return {};
+    return {(yw * wqwq - ywq * wwq) / det, (ywq * ww - yw * wwq) / det};
+}
+
+double energy(std::span<const double> v) {
+    return std::inner_product(v.begin(), v.end(), v.begin(), 0.0);
+}
+
+}  // namespace
+
+early_refit_summary refit_early_phases(patch& p, std::span<const float> note, double sample_rate_hz,
+                                       const early_refit_params& params) {
+    assert(sample_rate_hz > 0.0 && params.check_s >= params.span_s);
+    early_refit_summary summary;
+    const auto to_frames = [&](double s) { return std::min(note.size(), static_cast<std::size_t>(std::llround(s * sample_rate_hz))); };
+    const std::size_t count = to_frames(params.span_s);
+    const std::size_t total = std::max(count, to_frames(params.check_s));
+    if (p.partials.empty() || count < 64) return summary;
+    const std::span<const float> x = note.first(count);
+    double signal = 0.0;
+    for (const float v : x) signal += static_cast<double>(v) * static_cast<double>(v);
+    if (!(signal > 0.0)) return summary;
+
+    // The partials by their start level (the end of the attack), loudest first.
+    const auto start_db = [&](std::size_t i) { return envelope_level(p.partials[i].env, p.partials[i].env.attack_s).db; };
+    std::vector<std::size_t> order(p.partials.size());
+    std::iota(order.begin(), order.end(), std::size_t{0});
+    std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return start_db(a) > start_db(b); });
+    const double loudest_db = start_db(order.front());
+
+    std::vector<float> work;
+    std::vector<double> d, own, quad, moved;  // d: the residual x - copy over the whole check span
+    render_into(p, p.partials, sample_rate_hz, total, work, d);
+    for (std::size_t n = 0; n < total; ++n) d[n] = static_cast<double>(note[n]) - d[n];
+    double residual = energy(std::span<const double>(d).first(count));
+    summary.residual_before_db = to_level(amp_lin{std::sqrt(residual / signal)}).db;
+    for (const std::size_t k : order) {
+        if (start_db(k) < loudest_db - params.range_db) break;
+        partial& q = p.partials[k];
+        if (!(q.freq_hz > 0.0) || q.freq_hz >= 0.5 * sample_rate_hz) continue;
+        render_into(p, std::span(&q, 1), sample_rate_hz, total, work, own);
+        if (!(energy(own) > 0.0)) continue;
+        partial turned = q;
+        turned.phase_rad += 0.5 * std::numbers::pi;
+        render_into(p, std::span(&turned, 1), sample_rate_hz, count, work, quad);
+        const std::complex<double> z = complex_scale(d, own, quad);
+        if (!(std::abs(z) > 0.0)) continue;
+        partial refit = q;
+        refit.phase_rad = std::remainder(q.phase_rad + std::arg(z), two_pi);
+        scale_envelope_start(refit.env, std::abs(z), params.max_level_change_db);
+        render_into(p, std::span(&refit, 1), sample_rate_hz, total, work, moved);
+        // Kept where the span's residual falls and the later part's (to check_s) does not rise.
+        const swap_cost c = cost_of_swap(d, own, moved, count);
+        if (!(c.early < residual) || c.late_change > 0.0) continue;
+        for (std::size_t n = 0; n < total; ++n) d[n] += own[n] - moved[n];
+        residual = c.early;
+        q = refit;
+        ++summary.refitted;
+    }
+    summary.residual_after_db = to_level(amp_lin{std::sqrt(residual / signal)}).db;
+    return summary;
+}
+
+}  // namespace wane

@@ -1,0 +1,60 @@
+// The strong partials' phases and start levels refitted on the finished copy's first span_s.
+//
+// The onset fit (analysis/onset_refine.hpp) gives every partial its level and phase at the onset
+// by least squares over the first 150 ms, jointly with the other modes as that fit models them.
+// The stages after it change the copy around those partials: a neighbour takes a glide
+// (analysis/onset_glide.hpp), a partial becomes close modes (analysis/mode_split.hpp), a partial
+// takes an early companion (analysis/early_companion.hpp), and short-lived modes and slow rises are
+// rendered with the envelope the patch holds, not the shape the fit used. Nothing fits the other
+// partials again, so their phases are left where they best fitted a copy that no longer exists:
+// measured on the shared notes, timpani_d2's strongest partial (128.1 Hz, 40% of its first 100 ms)
+// played 23 degrees ahead of the recording over its first 30 ms, and a least-squares complex
+// scale of its own waveform alone on what the copy leaves took 3.3% of the span's energy off the
+// 24.5% the copy missed.
+//
+// Rule: per partial k, loudest first (its level at the end of its attack, within range_db of the
+// loudest), on y = x - (the copy's other partials) over the first span_s after the onset:
+//   w[n]  the partial as rendered (synthesis/render: glide, attack and segments included);
+//   w'[n] the same partial with phase_rad + pi/2 (its quadrature: a partial's render is
+//         Re(a(t) e^(j theta(t))), so a phase change of phi gives cos(phi) w + sin(phi) w');
+//   (alpha, beta) the least squares of y ~ alpha w + beta w', z = alpha + j beta.
+// The partial takes phase_rad + arg(z) and its start level scaled by |z| (at most
+// max_level_change_db either way; the first decay segment keeps its level at its end, so only the
+// early decay changes: onset_glide's scale_envelope_start), and keeps them only where the copy's
+// residual over the span falls and its residual over [span_s, check_s) does not rise: a phase is
+// the partial's for the whole note, and a partial whose pitch falls slowly (banjo_g3's 790.8 Hz
+// runs 76 degrees ahead of its copy at 0.15-0.3 s, 117 at 0.3-0.5 s) would otherwise buy its
+// first 150 ms with the next 350 (banjo_g3's first-100 ms SNR fell 7.23 -> 5.63 dB without the
+// check, tools/bench_fidelity: the evaluation's alignment, the cross-correlation over 0.5 s, moved
+// by a sample). The next partial is fitted on the copy with it. One pass, loudest first, so a weak
+// partial cannot take what a strong one's phase explains.
+#pragma once
+
+#include <cstddef>
+#include <span>
+
+#include "core/patch.hpp"
+
+namespace wane {
+
+struct early_refit_params {
+    double span_s = 0.15;              ///< the onset fit's span
+    double range_db = 40.0;            ///< partials whose start is within this of the loudest start
+    double max_level_change_db = 3.0;  ///< the start level moves at most this far (onset_glide's)
+    /// A refit is kept only where the copy's residual over [span_s, check_s) does not rise.
+    double check_s = 0.5;
+};
+
+struct early_refit_summary {
+    int refitted = 0;                  ///< partials whose phase or level moved
+    double residual_before_db = 0.0;   ///< the copy's residual over the span re the recording's energy
+    double residual_after_db = 0.0;
+};
+
+/// Refits the phases and start levels of p's strong partials on note (note[0] at the patch's
+/// onset, where its phases count from), in place, as described above. Mono: a stereo mix's
+/// channels are placed from the mix's phases.
+early_refit_summary refit_early_phases(patch& p, std::span<const float> note, double sample_rate_hz,
+                                       const early_refit_params& params);
+
+}  // namespace wane
