@@ -69,12 +69,13 @@ struct analysis_params {
     /// Then refit the strong partials' phases and start levels on what the finished copy leaves
     /// of the first 150 ms (analysis/early_refit.hpp); analyze_stereo_note turns it off for the mix.
     /// Measured on the 17 real notes (tools/bench_fidelity, against main 2da8a4a): first-100 ms SNR
-    /// mean 13.34 -> 13.46 dB, median 13.79 -> 13.76 (piano_as4, the median note, 13.79 -> 13.76),
-    /// none down by more than 0.11 dB (banjo_g3), xylophone_fs3 12.15 -> 12.53, pizzicato_c2 9.74
-    /// -> 10.20, marimba_c3 15.05 -> 15.37, dulcimer_g4 7.17 -> 7.42; log-spectral distance up by
-    /// at most 0.05 dB (pizzicato_c2, timpani_d2). Phase only (max_level_change_db 0): mean 13.38,
-    /// median 13.74. It costs 11% of the synthetic note's analysis instructions, 16% of the demo
-    /// note's (callgrind, before the residual passes were fused).
+    /// mean 13.34 -> 13.48 dB, median 13.79 -> 13.80, none down by more than 0.02 dB (banjo_g3),
+    /// xylophone_fs3 12.15 -> 12.53, pizzicato_c2 9.74 -> 10.20, marimba_c3 15.05 -> 15.37,
+    /// dulcimer_g4 7.17 -> 7.42; log-spectral distance up by at most 0.05 dB (pizzicato_c2,
+    /// timpani_d2). Phase only (max_level_change_db 0, check_s 0.5): mean 13.38, median 13.74.
+    /// It costs 6% more analysis instructions on the synthetic note, 9% on the demo note
+    /// (callgrind, whole analyze -j 1 against main 2da8a4a: 908.6M -> 964.4M, 1081.3M -> 1180.6M),
+    /// most of it in rendering each partial three times over 0.15-0.3 s.
     bool refit_early = true;
     early_refit_params early_refit{};
     /// Give the partials that start at once a sub-millisecond rise where their jump from silence

@@ -106,7 +106,6 @@ early_refit_summary refit_early_phases(patch& p, std::span<const float> note, do
         partial& q = p.partials[k];
         if (!(q.freq_hz > 0.0) || q.freq_hz >= 0.5 * sample_rate_hz) continue;
         render_into(p, std::span(&q, 1), sample_rate_hz, total, work, own);
-        if (!(energy(own) > 0.0)) continue;
         partial turned = q;
         turned.phase_rad += 0.5 * std::numbers::pi;
         render_into(p, std::span(&turned, 1), sample_rate_hz, count, work, quad);
