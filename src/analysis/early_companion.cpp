@@ -33,11 +33,18 @@ std::vector<double> render_partials(const patch& p, double rate_hz, std::size_t 
     return {y.begin(), y.end()};
 }
 
+/// cosine_walk_table(omega, 1.0, ..) into cos_n and sin_n (count each), compiled for AVX2 (its four
+/// stretches in one register) and the baseline (no FMA: the same bits).
+WANE_KERNEL_CLONES
+void walk_table(double omega, double* cos_n, double* sin_n, std::size_t count) {
+    cosine_walk_table(omega, 1.0, std::span(cos_n, count), std::span(sin_n, count));
+}
+
 /// cos and sin of omega n for n in [0, count) (core/cosine_walk's values, as a table).
 void phasor_table(double omega, std::size_t count, std::vector<double>& cos_n, std::vector<double>& sin_n) {
     cos_n.resize(count);
     sin_n.resize(count);
-    cosine_walk_table(omega, 1.0, cos_n, sin_n);
+    walk_table(omega, cos_n.data(), sin_n.data(), count);
 }
 
 struct one_mode_fit {
