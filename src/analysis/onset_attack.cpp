@@ -8,9 +8,8 @@
 #include <functional>
 #include <optional>
 #include <span>
+#include <type_traits>
 #include <utility>
-
-#include <Eigen/Core>
 
 #include "core/units.hpp"
 #include "modes/mode_residual.hpp"
@@ -60,41 +59,49 @@ std::optional<double> plain_rho(const damped_mode& m, const mode_shape& shape, d
     return std::nullopt;
 }
 
+/// Doubles side by side (GCC/Clang vector extension) for L blocks (L <= 4): two lanes at least (one
+/// double is no vector); a lane past L stays 0 and is never stored.
+using two_lanes = double __attribute__((vector_size(16)));
+using four_lanes = double __attribute__((vector_size(32)));
+template <int L>
+using block_lanes = std::conditional_t<(L > 2), four_lanes, two_lanes>;
+
 /// add_group<1>'s work on L of its 512-sample blocks at once, blocks first_block .. first_block +
 /// L - 1 (each `length` samples): every block's chains start from their exact anchors there, so
 /// the blocks are independent and each sample gets the arithmetic it gets in add_group<1>; the L
-/// chains overlap (one alone waits on its own products). samples: the shape's samples, or empty
-/// for the plain exponential exp(rho n). With Demodulate, each sum out[n] is also taken times the
-/// same phasor into demod[n] (v p[n] for the sum v: the
-/// products of std::complex's multiplication, written out, on the chain the sum walks).
-template <int L, bool Demodulate = false>
-void add_blocks(std::span<const double> samples, double rho, double omega, std::complex<double> amp, double sign,
-                std::size_t first_block, std::size_t length, std::vector<double>& out,
-                std::vector<std::complex<double>>* demod = nullptr) {
+/// chains overlap (one alone waits on its own products), side by side in a vector of doubles
+/// (GCC/Clang vector extension). samples: the shape's samples, or empty for the plain exponential
+/// exp(rho n). With Demodulate, each sum out[n] is also taken times the same phasor into demod[n]
+/// (v p[n] for the sum v: the products of std::complex's multiplication, written out, on the chain
+/// the sum walks).
+template <int L, bool Demodulate>
+[[gnu::always_inline]] inline void add_blocks(std::span<const double> samples, double rho, double omega, std::complex<double> amp,
+                                              double sign, std::size_t first_block, std::size_t length, std::vector<double>& out,
+                                              std::vector<std::complex<double>>* demod) {
     constexpr std::size_t block = 512;
-    using lanes = Eigen::Array<double, L, 1>;
+    using lanes = block_lanes<L>;
     const bool plain = samples.empty();
     const std::complex<double> z = std::polar(1.0, omega);
     const double ratio = plain ? std::exp(rho) : 1.0;
-    lanes pr, pi_, s;
+    lanes pr{}, pi_{}, s{};
     std::array<std::size_t, L> at{};
     for (int l = 0; l < L; ++l) {
         at[static_cast<std::size_t>(l)] = (first_block + static_cast<std::size_t>(l)) * block;
         const auto start = static_cast<double>(at[static_cast<std::size_t>(l)]);
         const std::complex<double> p = std::polar(1.0, std::remainder(omega * start, two_pi));
-        pr(l) = p.real(), pi_(l) = p.imag();
-        if (plain) s(l) = 1.0 * std::exp(rho * start);
+        pr[l] = p.real(), pi_[l] = p.imag();
+        if (plain) s[l] = 1.0 * std::exp(rho * start);
     }
     for (std::size_t t = 0; t < length; ++t) {
         if (!plain)
-            for (int l = 0; l < L; ++l) s(l) = samples[at[static_cast<std::size_t>(l)] + t];
+            for (int l = 0; l < L; ++l) s[l] = samples[at[static_cast<std::size_t>(l)] + t];
         const lanes term = sign * s * (amp.real() * pr - amp.imag() * pi_);
         if (plain) s *= ratio;
-        for (int l = 0; l < L; ++l) out[at[static_cast<std::size_t>(l)] + t] += term(l);
+        for (int l = 0; l < L; ++l) out[at[static_cast<std::size_t>(l)] + t] += term[l];
         if constexpr (Demodulate) {
             for (int l = 0; l < L; ++l) {
                 const double v = out[at[static_cast<std::size_t>(l)] + t];
-                (*demod)[at[static_cast<std::size_t>(l)] + t] = {v * pr(l), v * pi_(l)};
+                (*demod)[at[static_cast<std::size_t>(l)] + t] = {v * pr[l], v * pi_[l]};
             }
         }
         const lanes next_r = pr * z.real() - pi_ * z.imag();
@@ -103,10 +110,26 @@ void add_blocks(std::span<const double> samples, double rho, double omega, std::
     }
 }
 
+/// add_mode's blocks, four at a time, then two, then one (add_blocks).
+template <bool Demodulate>
+[[gnu::always_inline]] inline void add_all_blocks(std::span<const double> samples, double rho, double omega, std::complex<double> amp,
+                                                  double sign, std::vector<double>& out, std::vector<std::complex<double>>* demod) {
+    constexpr std::size_t block = 512;
+    const std::size_t count = out.size();
+    const std::size_t full = count / block;
+    std::size_t b = 0;
+    for (; b + 4 <= full; b += 4) add_blocks<4, Demodulate>(samples, rho, omega, amp, sign, b, block, out, demod);
+    for (; b + 2 <= full; b += 2) add_blocks<2, Demodulate>(samples, rho, omega, amp, sign, b, block, out, demod);
+    for (; b < full; ++b) add_blocks<1, Demodulate>(samples, rho, omega, amp, sign, b, block, out, demod);
+    if (full * block < count) add_blocks<1, Demodulate>(samples, rho, omega, amp, sign, full, count - full * block, out, demod);
+}
+
 /// Adds sign * Re(amp a[n] exp(i omega n)) for n in [0, out.size()) to out; a is the mode's shape
 /// (exp(-d n / fs) when empty). The phasor is re-anchored from the exact power every 512 samples:
-/// add_group<1>'s sums, its blocks four at a time (add_blocks). With demod, out[n] exp(i omega n)
-/// (the sum times the same phasor) into (*demod)[n] as well.
+/// add_group<1>'s sums, its blocks four at a time (add_all_blocks). With demod, out[n] exp(i omega n)
+/// (the sum times the same phasor) into (*demod)[n] as well. Compiled for AVX2 (four blocks in one
+/// register) and the baseline (no FMA: the same bits).
+WANE_KERNEL_CLONES
 void add_mode(const damped_mode& m, const mode_shape& shape, double sample_rate_hz, double sign,
               std::vector<double>& out, std::vector<double>& scratch, std::vector<std::complex<double>>* demod = nullptr) {
     const std::size_t count = out.size();
@@ -115,17 +138,8 @@ void add_mode(const damped_mode& m, const mode_shape& shape, double sample_rate_
     if (!rho) shape_samples(shape, count, scratch);
     const std::span<const double> samples = rho ? std::span<const double>{} : std::span<const double>(scratch);
     const double r = rho.value_or(0.0);
-    constexpr std::size_t block = 512;
-    const std::size_t full = count / block;
-    const auto blocks = [&]<int L>(std::size_t b, std::size_t length) {
-        if (demod != nullptr) add_blocks<L, true>(samples, r, omega, m.amp, sign, b, length, out, demod);
-        else add_blocks<L>(samples, r, omega, m.amp, sign, b, length, out);
-    };
-    std::size_t b = 0;
-    for (; b + 4 <= full; b += 4) blocks.template operator()<4>(b, block);
-    for (; b + 2 <= full; b += 2) blocks.template operator()<2>(b, block);
-    for (; b < full; ++b) blocks.template operator()<1>(b, block);
-    if (full * block < count) blocks.template operator()<1>(full, count - full * block);
+    if (demod != nullptr) add_all_blocks<true>(samples, r, omega, m.amp, sign, out, demod);
+    else add_all_blocks<false>(samples, r, omega, m.amp, sign, out, nullptr);
 }
 
 double energy_of(std::span<const float> x) {
