@@ -59,8 +59,9 @@ template <std::size_t G, typename Sample>
 }
 
 template <typename Sample>
-[[gnu::always_inline]] inline void project_group_of(std::span<const Sample> w, std::span<const std::size_t> which, std::span<const double> rho,
-                      std::span<const double> omega, std::span<std::complex<double>> out) {
+[[gnu::always_inline]] inline void project_group_of(std::span<const Sample> w, std::span<const std::size_t> which,
+                                                    std::span<const double> rho, std::span<const double> omega,
+                                                    std::span<std::complex<double>> out) {
     const std::size_t g = which.size();
     assert(g <= projection_group);
     static_assert(projection_group == 4);
