@@ -161,12 +161,17 @@ std::vector<std::vector<std::size_t>> segmented_least_squares(const point_sums& 
     const std::size_t min_pts = min_points_per_segment;
     // Run boundaries on a coarse grid: every stride-th point (and the end); run costs stay exact.
     const std::size_t stride = (n + dp_grid_points - 1) / dp_grid_points;
-    std::vector<std::size_t> cand;
-    for (std::size_t i = 0; i < n; i += stride) cand.push_back(i);
-    cand.push_back(n);
-    const std::size_t nc = cand.size();
-    std::vector<std::vector<double>> cost(kmax + 1, std::vector<double>(nc, infinity));
-    std::vector<std::vector<std::size_t>> from(kmax + 1, std::vector<std::size_t>(nc, 0));
+    // The grid and the tables in fixed arrays (at most dp_grid_points + 1 candidates and
+    // max_supported_segments runs): no allocation per fit.
+    assert(kmax <= max_supported_segments);
+    std::array<std::size_t, dp_grid_points + 1> cand{};
+    std::size_t nc = 0;
+    for (std::size_t i = 0; i < n; i += stride) cand[nc++] = i;
+    cand[nc++] = n;
+    using table = std::array<std::array<double, dp_grid_points + 1>, max_supported_segments + 1>;
+    table cost;
+    for (auto& row : cost) row.fill(infinity);
+    std::array<std::array<std::size_t, dp_grid_points + 1>, max_supported_segments + 1> from{};
     auto run_ok = [&](std::size_t a, std::size_t b) {
         return b - a >= min_pts && ps.x[b - 1] - ps.x[a] >= min_run_s;
     };
