@@ -17,6 +17,7 @@
 #include "core/envelope.hpp"
 #include "core/units.hpp"
 #include "modes/fit_memo.hpp"
+#include "synthesis/kernel_clones.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -49,6 +50,25 @@ struct one_mode_fit {
 
 constexpr int fit_lanes = 6;  ///< decays fitted in one pass over the samples (the grid's 5 in one)
 
+/// The right-hand sides of fit_decaying, each decay in its own lane: ru[j] = sum e_j[n] rc[n],
+/// rv[j] = sum e_j[n] rs[n], n < count, e_j[0] = e0[j], e_j[n + 1] = e_j[n] step[j] (a multiply,
+/// then an add: the same bits in every clone, and as Eigen's arrays of the lanes gave them).
+WANE_KERNEL_CLONES
+void decaying_sums(const double* __restrict rc, const double* __restrict rs, std::size_t count, const double* step,
+                   const double* e0, double* ru, double* rv) {
+    std::array<double, fit_lanes> e{}, su{}, sv{};
+    std::copy_n(e0, fit_lanes, e.begin());
+    for (std::size_t n = 0; n < count; ++n) {
+        for (std::size_t l = 0; l < fit_lanes; ++l) {
+            su[l] += e[l] * rc[n];
+            sv[l] += e[l] * rs[n];
+            e[l] *= step[l];
+        }
+    }
+    std::copy_n(su.begin(), fit_lanes, ru);
+    std::copy_n(sv.begin(), fit_lanes, rv);
+}
+
 /// sum over n in [0, count) of z^n (a geometric series; |z| <= 1, z != 1).
 std::complex<double> geometric_sum(std::complex<double> z, std::size_t count) {
     const double n = static_cast<double>(count);
@@ -68,11 +88,9 @@ void fit_decaying(std::span<const double> rc, std::span<const double> rs, double
     using lanes = Eigen::Array<double, fit_lanes, 1>;
     lanes step = lanes::Zero();  // an unused lane sums nothing
     for (std::size_t j = 0; j < rho.size(); ++j) step(static_cast<Eigen::Index>(j)) = std::exp(rho[j]);
-    lanes ru = lanes::Zero(), rv = lanes::Zero(), e = step.sign();
-    for (std::size_t n = 0; n < rc.size(); ++n) {
-        ru += e * rc[n], rv += e * rs[n];
-        e *= step;
-    }
+    const lanes e = step.sign();
+    lanes ru, rv;
+    decaying_sums(rc.data(), rs.data(), rc.size(), step.data(), e.data(), ru.data(), rv.data());
     for (std::size_t j = 0; j < rho.size(); ++j) {
         const auto l = static_cast<Eigen::Index>(j);
         const double a = std::exp(2.0 * rho[j]);
