@@ -120,11 +120,16 @@ void fit_decaying(std::span<const double> r, std::span<const double> cos_n, std:
 
 /// Energy of a partial with envelope env (times gain_lin) over [0, span_s]: sum over samples of
 /// a(t)^2 / 2 (a sinusoid's mean square), a(t) read every millisecond.
+/// env's pieces made once for the loops over times below (none without a decay, which they then
+/// never read: envelope_level needs them only from the attack's end on).
+std::vector<envelope_piece> pieces_of(const envelope& env) { return env.decay.empty() ? std::vector<envelope_piece>{} : envelope_pieces(env); }
+
 double span_energy(const envelope& env, double gain_lin, double sample_rate_hz, double span_s) {
     constexpr double step_s = 0.001;
+    const std::vector<envelope_piece> pieces = pieces_of(env);
     double sum = 0.0;
     for (int j = 0; j < static_cast<int>(span_s / step_s); ++j) {
-        const double a = gain_lin * to_amp(envelope_level(env, step_s * (j + 0.5))).lin;
+        const double a = gain_lin * to_amp(envelope_level(env, pieces, step_s * (j + 0.5))).lin;
         sum += 0.5 * a * a;
     }
     return sum * step_s * sample_rate_hz;
@@ -133,8 +138,9 @@ double span_energy(const envelope& env, double gain_lin, double sample_rate_hz, 
 /// The loudest level of env over [0, span_s], sampled every 5 ms and at the attack's end, dB.
 double span_peak_db(const envelope& env, double span_s) {
     constexpr double step_s = 0.005;
-    double peak = envelope_level(env, std::min(env.attack_s, span_s)).db;
-    for (int i = 0; i <= static_cast<int>(span_s / step_s); ++i) peak = std::max(peak, envelope_level(env, step_s * i).db);
+    const std::vector<envelope_piece> pieces = pieces_of(env);
+    double peak = envelope_level(env, pieces, std::min(env.attack_s, span_s)).db;
+    for (int i = 0; i <= static_cast<int>(span_s / step_s); ++i) peak = std::max(peak, envelope_level(env, pieces, step_s * i).db);
     return peak;
 }
 
