@@ -62,6 +62,10 @@ void apply_recording_end(analysis_result& out, std::span<const float> part, doub
     for (noise_band& b : p.noise)
         fitted.push_back({.env = &b.env, .track = nullptr, .fit_start_s = 0.0, .fit_end_s = out.summary.end.length_s});
     out.summary.continued_past_cut = continue_decays_past_cut(fitted, out.summary.end.length_s, params.cut_tail);
+    std::vector<envelope*> all;
+    for (partial& q : p.partials) all.push_back(&q.env);
+    for (noise_band& b : p.noise) all.push_back(&b.env);
+    out.summary.faded_past_cut = fade_past_cut(all, out.summary.end.length_s, params.cut_tail);
     out.summary.segments = 0;
     for (const partial& q : p.partials) out.summary.segments += static_cast<int>(q.env.decay.size());
 }

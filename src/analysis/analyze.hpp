@@ -104,6 +104,7 @@ struct analysis_summary {
     int unfitted = 0;          ///< tracks dropped: fewer than two frames clear of the floor
     recording_end end{};       ///< how the recording ends (analysis/recording_end.hpp)
     int continued_past_cut = 0;  ///< partials and bands whose last segment was made to fall (cut_tail.hpp)
+    int faded_past_cut = 0;      ///< partials and bands given the fade's T60 past the cut (cut_tail.hpp)
     int pairs_split = 0;       ///< partials split into beating pairs
     int moved_to_heard_peaks = 0;  ///< partials moved to the recording's long-spectrum peak
     int merged_companions = 0;     ///< late companions merged into their stronger neighbour (heard_peaks)

@@ -129,4 +129,19 @@ int continue_decays_past_cut(std::span<const cut_part> parts, double cut_s, cons
     return static_cast<int>(plateaus.size());
 }
 
+int fade_past_cut(std::span<envelope* const> envs, double cut_s, const cut_tail_params& params) {
+    assert(params.fade_lengths >= 0.0 && cut_s > 0.0);
+    if (params.fade_lengths == 0.0) return 0;
+    const double fade_db_per_s = -60.0 / (params.fade_lengths * cut_s);
+    int changed = 0;
+    for (envelope* env : envs) {
+        assert(env != nullptr && !env->decay.empty());
+        // A held or rising last segment (t60 inf or negative: slope >= 0) is slower than any fall.
+        if (t60_to_slope_db_per_s(env->decay.back().t60_s) <= fade_db_per_s) continue;
+        fall_after(*env, cut_s, fade_db_per_s);
+        ++changed;
+    }
+    return changed;
+}
+
 }  // namespace wane

@@ -22,6 +22,12 @@
 //  2. the least-squares slope of the partial's measured level over its fitted stretch, when it falls;
 //  3. the median last slope of the note's falling partials and bands (one resonator, one damping);
 //  4. min_decay_db_per_s.
+// Then the fade (fade_past_cut): past the cut no part, the partials the onset refinement and the
+// pair split added included, keeps a T60 longer than fade_lengths times the recorded length
+// (cut_s). A cut recording cannot show how long the note would have rung on, and the sample sets
+// that cut their notes while sounding (to be looped) often hold the level nearly flat over the
+// recorded end; a copy rendered to 3 lengths has then fallen at least 60 * 2 / fade_lengths dB at
+// the end of its render. A part already falling faster keeps its own slope.
 #pragma once
 
 #include <span>
@@ -46,6 +52,13 @@ struct cut_tail_params {
     double min_swell_db = 2.0;
     double trough_search_s = 0.05;
     beat_level_params beat{};
+    /// Longest T60 a part keeps past the cut, in recorded lengths (cut_s); 0 keeps every slope
+    /// the rules above give (the recording's own late slopes). Reasoned choice: 3 makes a copy
+    /// rendered to three times the recording's length fall 40 dB from the cut to its end (20 dB
+    /// or more over its last second, issue 16's measure, for recordings of 0.8 s and longer),
+    /// the tail of a note that dies out rather than a drone; the recordings' own late slopes
+    /// (bass, Rhodes, piano: 2 dB/s) would still sound after ten lengths.
+    double fade_lengths = 3.0;
 };
 
 /// One part of the note whose decay may need to run on: its envelope, the track it was fitted to
@@ -60,5 +73,11 @@ struct cut_part {
 /// Makes every part's last segment fall after cut_s, seconds from the onset (rules above). Returns
 /// how many parts were changed.
 int continue_decays_past_cut(std::span<const cut_part> parts, double cut_s, const cut_tail_params& params = {});
+
+/// The fade above: every envelope whose last segment falls slower than T60 = fade_lengths * cut_s
+/// keeps its segments up to cut_s and falls at that T60 after it (a last segment that starts
+/// after cut_s takes that T60). Returns how many envelopes were changed; none when fade_lengths
+/// is 0.
+int fade_past_cut(std::span<envelope* const> envs, double cut_s, const cut_tail_params& params = {});
 
 }  // namespace wane

@@ -61,6 +61,7 @@ struct analyze_options {
     bool no_onset_refine = false;
     bool no_long_spectrum = false;
     bool split_pairs = false;
+    double cut_fade_lengths = cut_tail_params{}.fade_lengths;
     double max_input_s = default_max_input_s;
     std::uintmax_t max_input_mib = default_max_input_bytes >> 20;
 };
@@ -72,6 +73,9 @@ std::string num(double v) {
 }
 
 void validate(const analyze_options& o) {
+    if (!(o.cut_fade_lengths >= 0.0 && o.cut_fade_lengths <= 1000.0))
+        throw usage_error("--cut-fade-lengths " + num(o.cut_fade_lengths) +
+                          ": must be 0 (keep the recording's late slopes) to 1000 recorded lengths");
     if (!(o.max_input_s > 0.0 && std::isfinite(o.max_input_s)))
         throw usage_error("--max-input-s " + num(o.max_input_s) + ": must be a positive number of seconds");
     if (o.max_input_mib == 0 || o.max_input_mib > (std::uintmax_t{1} << 40))
@@ -193,8 +197,9 @@ std::string summary_line(const job& j, const analysis_summary& s, std::uintmax_t
         end += buf;
     }
     if (s.end.kind == end_kind::cut) {
-        std::snprintf(buf, sizeof buf, " cut at %.3f s while sounding (%.1f dB under the peak, %d decays run on past it);",
-                      s.end.length_s, s.end.end_below_peak_db, s.continued_past_cut);
+        std::snprintf(buf, sizeof buf,
+                      " cut at %.3f s while sounding (%.1f dB under the peak, %d decays run on past it, %d faded past it);",
+                      s.end.length_s, s.end.end_below_peak_db, s.continued_past_cut, s.faded_past_cut);
         end += buf;
     } else if (s.end.kind == end_kind::holds) {
         std::snprintf(buf, sizeof buf, " holds its level for the last %.2f s;", s.end.held_s);
@@ -228,6 +233,7 @@ std::string run_one(const job& j, const analyze_options& o) {
                        .refine_onset = !o.no_onset_refine,
                        .split_pairs = o.split_pairs,
                        .long_spectrum = !o.no_long_spectrum};
+    ap.cut_tail.fade_lengths = o.cut_fade_lengths;
     if (o.f0_hz && *o.f0_hz >= 0.5 * audio.sample_rate_hz)
         throw io_error(j.input.string() + ": --f0 " + num(*o.f0_hz) + " Hz is not below half the sample rate (" +
                        num(audio.sample_rate_hz) + " Hz)");
@@ -335,6 +341,11 @@ void add_analyze_command(CLI::App& app, command_registry& reg) {
                   "recording, no partials added for its strong peaks the tracks missed");
     sub->add_flag("--split-pairs", o->split_pairs,
                   "Split a partial that beats into two close partials, each with its own decay");
+    sub->add_option("--cut-fade-lengths", o->cut_fade_lengths,
+                    "For a recording cut while the note sounds: past the cut no partial or band keeps a T60 "
+                    "longer than this many times the recorded length (0 keeps the slopes the recording shows "
+                    "at its end)")
+        ->capture_default_str();
     sub->add_option("--max-input-s", o->max_input_s, "Refuse input files longer than this, seconds")
         ->capture_default_str();
     sub->add_option("--max-input-mib", o->max_input_mib, "Refuse input files larger than this, MiB")

@@ -2,6 +2,7 @@
 #include <cstdio>
 #include <exception>
 #include <iostream>
+#include <string>
 
 #include "cli/common.hpp"
 #include "core/analysis_error.hpp"
@@ -100,8 +101,7 @@ int run_main(int argc, char** argv) {
     } catch (const CLI::CallForVersion& e) {
         return app.exit(e);
     } catch (const CLI::ParseError& e) {
-        print_error(e.what());
-        std::cerr << "Run 'wane --help' for usage.\n";
+        print_error(std::string(e.what()) + " (see wane --help)");  // one line, like every error
         return exit_usage;
     }
 

@@ -31,7 +31,7 @@ check 'near "$(length_of until.wav)" "$want" 0.001'
 
 # 3. Bad values: one error line, nothing written.
 for args in "--length-s 0" "--length-s -1" "--length-s 601" "--until-db 0" "--until-db 3" "--until-db -201" \
-            "--until-db nan"; do
+            "--until-db nan" "--length-s abc" "--until-db -6x"; do
   rm -f bad.wav
   # shellcheck disable=SC2086
   expect_error 2 "${args%% *}" "$wane" render pluck.toml -o bad.wav $args
