@@ -10,13 +10,12 @@
 #include <optional>
 #include <utility>
 
-#include <Eigen/Core>
-
 #include "analysis/onset_attack.hpp"
 #include "core/cosine_walk.hpp"
 #include "core/envelope.hpp"
 #include "core/units.hpp"
 #include "modes/fit_memo.hpp"
+#include "synthesis/kernel_clones.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -34,12 +33,18 @@ std::vector<double> render_partials(const patch& p, double rate_hz, std::size_t 
     return {y.begin(), y.end()};
 }
 
-/// cos and sin of omega n for n in [0, count) (core/cosine_walk).
+/// cosine_walk_table(omega, 1.0, ..) into cos_n and sin_n (count each), compiled for AVX2 (its four
+/// stretches in one register) and the baseline (no FMA: the same bits).
+WANE_KERNEL_CLONES
+void walk_table(double omega, double* cos_n, double* sin_n, std::size_t count) {
+    cosine_walk_table(omega, 1.0, std::span(cos_n, count), std::span(sin_n, count));
+}
+
+/// cos and sin of omega n for n in [0, count) (core/cosine_walk's values, as a table).
 void phasor_table(double omega, std::size_t count, std::vector<double>& cos_n, std::vector<double>& sin_n) {
     cos_n.resize(count);
     sin_n.resize(count);
-    cosine_walk walk(omega, 1.0);
-    for (std::size_t n = 0; n < count; ++n) cos_n[n] = walk.next(), sin_n[n] = walk.sine();
+    walk_table(omega, cos_n.data(), sin_n.data(), count);
 }
 
 struct one_mode_fit {
@@ -47,7 +52,8 @@ struct one_mode_fit {
     double explained = 0.0;      ///< energy the mode takes off the residual
 };
 
-constexpr int fit_lanes = 6;  ///< decays fitted in one pass over the samples (the grid's 5 in one)
+constexpr int fit_lanes = 6;  ///< decays fitted in one pass over the samples (the grid's 5 in one); even
+static_assert(fit_lanes % 2 == 0);
 
 /// sum over n in [0, count) of z^n (a geometric series; |z| <= 1, z != 1).
 std::complex<double> geometric_sum(std::complex<double> z, std::size_t count) {
@@ -56,46 +62,74 @@ std::complex<double> geometric_sum(std::complex<double> z, std::size_t count) {
     return (1.0 - z_n) / (1.0 - z);
 }
 
-/// Least squares of Re(amp exp(rho n) exp(i omega n)) = Ar u[n] + Ai v[n], u = e cos, v = -e sin,
-/// e = exp(rho n), on a residual r given as rc = r cos(omega n), rs = -r sin(omega n), for up to
-/// fit_lanes decays rho (1/sample, < 0) at once. The right-hand sides sum e rc and e rs sample by
-/// sample (double, each decay in its own lane); the Gram entries are geometric series in closed
-/// form: with a = exp(2 rho), g = sum a^n, h = sum (a exp(2 i omega))^n, uu = (g + Re h) / 2,
-/// vv = (g - Re h) / 2, uv = -Im h / 2. The energy explained is theta . rhs. fits[j] for rho[j].
-void fit_decaying(std::span<const double> rc, std::span<const double> rs, double omega, std::span<const double> rho,
-                  std::span<one_mode_fit> fits) {
-    assert(rho.size() <= fit_lanes && fits.size() == rho.size() && rs.size() == rc.size());
-    using lanes = Eigen::Array<double, fit_lanes, 1>;
-    lanes step = lanes::Zero();  // an unused lane sums nothing
-    for (std::size_t j = 0; j < rho.size(); ++j) step(static_cast<Eigen::Index>(j)) = std::exp(rho[j]);
-    lanes ru = lanes::Zero(), rv = lanes::Zero(), e = step.sign();
-    for (std::size_t n = 0; n < rc.size(); ++n) {
-        ru += e * rc[n], rv += e * rs[n];
-        e *= step;
+/// Four doubles side by side (GCC/Clang vector extension): one AVX register, two SSE2 ones.
+using lanes = double __attribute__((vector_size(32)));
+
+/// ru[j] = sum_n e_j[n] rc[n] and rv[j] = sum_n e_j[n] rs[n] over n in [0, count), rc = r cos_n,
+/// rs = -r sin_n, e_j[n] = step[j]^n stepped by one product a sample (0 throughout where step[j]
+/// is 0), for the fit_lanes decays: the pair (ru, rv) of two decays in one vector, each sum over n
+/// in order (a multiply, then an add). Compiled for AVX2 and the baseline (no FMA, the same bits).
+WANE_KERNEL_CLONES
+void decaying_sums(const double* __restrict r, const double* __restrict cos_n, const double* __restrict sin_n,
+                   std::size_t count, const double* __restrict step, double* __restrict ru, double* __restrict rv) {
+    constexpr std::size_t vectors = fit_lanes / 2;
+    std::array<lanes, vectors> e{}, ratio{}, acc{};
+    for (std::size_t k = 0; k < vectors; ++k) {
+        const double a = step[2 * k], b = step[2 * k + 1];
+        ratio[k] = lanes{a, a, b, b};
+        e[k] = lanes{a > 0.0 ? 1.0 : 0.0, a > 0.0 ? 1.0 : 0.0, b > 0.0 ? 1.0 : 0.0, b > 0.0 ? 1.0 : 0.0};
     }
+    for (std::size_t n = 0; n < count; ++n) {
+        const double rc = r[n] * cos_n[n], rs = -r[n] * sin_n[n];
+        const lanes x{rc, rs, rc, rs};
+        for (std::size_t k = 0; k < vectors; ++k) {
+            acc[k] += e[k] * x;
+            e[k] *= ratio[k];
+        }
+    }
+    for (std::size_t k = 0; k < vectors; ++k)
+        ru[2 * k] = acc[k][0], rv[2 * k] = acc[k][1], ru[2 * k + 1] = acc[k][2], rv[2 * k + 1] = acc[k][3];
+}
+
+/// Least squares of Re(amp exp(rho n) exp(i omega n)) = Ar u[n] + Ai v[n], u = e cos, v = -e sin,
+/// e = exp(rho n), on a residual r (cos_n, sin_n: cos and sin of omega n), for up to fit_lanes
+/// decays rho (1/sample, < 0) at once. The right-hand sides sum e r cos and -e r sin sample by
+/// sample (decaying_sums); the Gram entries are geometric series in closed form: with
+/// a = exp(2 rho), g = sum a^n, h = sum (a exp(2 i omega))^n, uu = (g + Re h) / 2,
+/// vv = (g - Re h) / 2, uv = -Im h / 2. The energy explained is theta . rhs. fits[j] for rho[j].
+void fit_decaying(std::span<const double> r, std::span<const double> cos_n, std::span<const double> sin_n, double omega,
+                  std::span<const double> rho, std::span<one_mode_fit> fits) {
+    assert(rho.size() <= fit_lanes && fits.size() == rho.size() && cos_n.size() == r.size() && sin_n.size() == r.size());
+    std::array<double, fit_lanes> step{}, ru{}, rv{};  // an unused lane (step 0) sums nothing
+    for (std::size_t j = 0; j < rho.size(); ++j) step[j] = std::exp(rho[j]);
+    decaying_sums(r.data(), cos_n.data(), sin_n.data(), r.size(), step.data(), ru.data(), rv.data());
     for (std::size_t j = 0; j < rho.size(); ++j) {
-        const auto l = static_cast<Eigen::Index>(j);
         const double a = std::exp(2.0 * rho[j]);
-        const double g = geometric_sum(a, rc.size()).real();
-        const std::complex<double> h = geometric_sum(std::polar(a, 2.0 * omega), rc.size());
+        const double g = geometric_sum(a, r.size()).real();
+        const std::complex<double> h = geometric_sum(std::polar(a, 2.0 * omega), r.size());
         const double uu = 0.5 * (g + h.real()), vv = 0.5 * (g - h.real()), uv = -0.5 * h.imag();
         const double det = uu * vv - uv * uv;
         if (!(uu > 0.0) || !(det > 1e-12 * uu * vv)) {
             fits[j] = {};
             continue;
         }
-        const double ar = (vv * ru(l) - uv * rv(l)) / det, ai = (uu * rv(l) - uv * ru(l)) / det;
-        fits[j] = {.amp = {ar, ai}, .explained = ar * ru(l) + ai * rv(l)};
+        const double ar = (vv * ru[j] - uv * rv[j]) / det, ai = (uu * rv[j] - uv * ru[j]) / det;
+        fits[j] = {.amp = {ar, ai}, .explained = ar * ru[j] + ai * rv[j]};
     }
 }
 
 /// Energy of a partial with envelope env (times gain_lin) over [0, span_s]: sum over samples of
 /// a(t)^2 / 2 (a sinusoid's mean square), a(t) read every millisecond.
+/// env's pieces made once for the loops over times below (none without a decay, which they then
+/// never read: envelope_level needs them only from the attack's end on).
+std::vector<envelope_piece> pieces_of(const envelope& env) { return env.decay.empty() ? std::vector<envelope_piece>{} : envelope_pieces(env); }
+
 double span_energy(const envelope& env, double gain_lin, double sample_rate_hz, double span_s) {
     constexpr double step_s = 0.001;
+    const std::vector<envelope_piece> pieces = pieces_of(env);
     double sum = 0.0;
     for (int j = 0; j < static_cast<int>(span_s / step_s); ++j) {
-        const double a = gain_lin * to_amp(envelope_level(env, step_s * (j + 0.5))).lin;
+        const double a = gain_lin * to_amp(envelope_level(env, pieces, step_s * (j + 0.5))).lin;
         sum += 0.5 * a * a;
     }
     return sum * step_s * sample_rate_hz;
@@ -104,8 +138,9 @@ double span_energy(const envelope& env, double gain_lin, double sample_rate_hz, 
 /// The loudest level of env over [0, span_s], sampled every 5 ms and at the attack's end, dB.
 double span_peak_db(const envelope& env, double span_s) {
     constexpr double step_s = 0.005;
-    double peak = envelope_level(env, std::min(env.attack_s, span_s)).db;
-    for (int i = 0; i <= static_cast<int>(span_s / step_s); ++i) peak = std::max(peak, envelope_level(env, step_s * i).db);
+    const std::vector<envelope_piece> pieces = pieces_of(env);
+    double peak = envelope_level(env, pieces, std::min(env.attack_s, span_s)).db;
+    for (int i = 0; i <= static_cast<int>(span_s / step_s); ++i) peak = std::max(peak, envelope_level(env, pieces, step_s * i).db);
     return peak;
 }
 
@@ -242,7 +277,7 @@ int add_early_companions(patch& p, std::span<const float> note, double sample_ra
     for (std::size_t k = 0; k < p.partials.size(); ++k) order.emplace_back(span_peak_db(p.partials[k].env, span_s), k);
     std::sort(order.begin(), order.end(), std::greater<>());
     const double gain_lin = to_amp(level_db{p.note.gain_db}).lin;
-    std::vector<double> cos_n, sin_n, rc(count), rs(count);
+    std::vector<double> cos_n, sin_n;
     std::vector<partial> added;
     for (const auto& [peak_db, k] : order) {
         if (peak_db < order.front().first - params.range_db) break;
@@ -255,7 +290,6 @@ int add_early_companions(patch& p, std::span<const float> note, double sample_ra
         if (2.0 * residual_energy < min_explained) continue;
         const double omega = two_pi * freq_hz / sample_rate_hz;  // rad/sample
         phasor_table(omega, count, cos_n, sin_n);
-        for (std::size_t n = 0; n < count; ++n) rc[n] = residual[n] * cos_n[n], rs[n] = -residual[n] * sin_n[n];
         one_mode_fit best;
         double best_t60_s = 0.0;
         std::size_t at = 0;  // into the grid
@@ -269,7 +303,7 @@ int add_early_companions(patch& p, std::span<const float> note, double sample_ra
             }
             if (used == 0) break;
             std::array<one_mode_fit, fit_lanes> fits{};
-            fit_decaying(rc, rs, omega, std::span(rho).first(used), std::span(fits).first(used));
+            fit_decaying(residual, cos_n, sin_n, omega, std::span(rho).first(used), std::span(fits).first(used));
             for (std::size_t j = 0; j < used; ++j)
                 if (fits[j].explained > best.explained) best = fits[j], best_t60_s = t60_s[j];
         }

@@ -4,6 +4,7 @@
 #include <cassert>
 #include <cmath>
 #include <cstdint>
+#include <memory>
 
 #include "core/order_select.hpp"
 #include "synthesis/render.hpp"
@@ -210,15 +211,15 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
     }
     band_selection selection(bp);
 
-    // The buffer holds residual [buf_first, buf_first + buf.size()); it starts at a multiple of
-    // the renderer's anchor length (so the partials come out as in one whole render).
+    // The buffer holds residual [buf_first, buf_first + buf.size()) (source writes it whole: not
+    // zeroed); it starts at a multiple of the renderer's anchor length (as in one whole render).
     const auto half = static_cast<std::size_t>(plan.half_length());
     const std::size_t buf_capacity =
         std::min(total, residual_blocks * render_anchor_frames + 2 * half + render_anchor_frames);
     // The frames read nothing past the last one's window: the buffer stops there.
     const std::size_t read_end = frame_count == 0 ? 0 : std::min(total, (frame_count - 1) * hop + half + 1);
-    std::vector<float> buf;
-    buf.reserve(std::min(buf_capacity, read_end));
+    const auto buf_store = std::make_unique_for_overwrite<float[]>(std::min(buf_capacity, read_end));
+    std::span<float> buf;
     std::size_t buf_first = 0;
     const std::size_t dense_frames = std::isfinite(bp.dense_span_s) && bp.sparse_hops > 1
                                          ? static_cast<std::size_t>(std::max(0.0, std::ceil(bp.dense_span_s * sample_rate_hz / static_cast<double>(hop))))
@@ -235,7 +236,7 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
         const std::size_t hi = std::min(total, centre + half + 1);
         if (buf.empty() || lo < buf_first || hi > buf_first + buf.size()) {
             buf_first = lo / render_anchor_frames * render_anchor_frames;
-            buf.resize(std::min(buf_capacity, read_end - buf_first));
+            buf = {buf_store.get(), std::min(buf_capacity, read_end - buf_first)};
             source(buf_first, buf);
         }
         // Frames that reach past either end of the residual see the buffer's edges there too

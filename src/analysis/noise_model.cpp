@@ -297,15 +297,13 @@ std::vector<noise_band> fit_note_noise(std::span<const float> note, double sampl
     const partial_renderer partials(p, render);
     const partial_renderer abrupt_partials(abrupt_patch, render);
     const std::size_t common = std::min(note.size(), partials.frames());
-    std::vector<float> rendered;
+    // The partials rendered into dest, then taken from the note in place (no buffer of their own).
     auto residual_of = [&](const partial_renderer& r) {
         return [&, rp = &r](std::size_t first, std::span<float> dest) {
-            std::copy_n(note.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
-            if (first >= common) return;
-            const std::size_t n = std::min(dest.size(), common - first);
-            rendered.resize(n);
-            rp->render(first, rendered);
-            for (std::size_t i = 0; i < n; ++i) dest[i] -= rendered[i];
+            const std::size_t n = first < common ? std::min(dest.size(), common - first) : 0;
+            if (n > 0) rp->render(first, dest.first(n));
+            for (std::size_t i = 0; i < n; ++i) dest[i] = note[first + i] - dest[i];
+            std::copy_n(note.begin() + static_cast<std::ptrdiff_t>(first + n), dest.size() - n, dest.begin() + static_cast<std::ptrdiff_t>(n));
         };
     };
     const residual_source source = residual_of(partials);

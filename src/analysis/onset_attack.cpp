@@ -8,9 +8,8 @@
 #include <functional>
 #include <optional>
 #include <span>
+#include <type_traits>
 #include <utility>
-
-#include <Eigen/Core>
 
 #include "core/units.hpp"
 #include "modes/mode_residual.hpp"
@@ -60,58 +59,87 @@ std::optional<double> plain_rho(const damped_mode& m, const mode_shape& shape, d
     return std::nullopt;
 }
 
+/// Doubles side by side (GCC/Clang vector extension) for L blocks (L <= 4): two lanes at least (one
+/// double is no vector); a lane past L stays 0 and is never stored.
+using two_lanes = double __attribute__((vector_size(16)));
+using four_lanes = double __attribute__((vector_size(32)));
+template <int L>
+using block_lanes = std::conditional_t<(L > 2), four_lanes, two_lanes>;
+
 /// add_group<1>'s work on L of its 512-sample blocks at once, blocks first_block .. first_block +
 /// L - 1 (each `length` samples): every block's chains start from their exact anchors there, so
 /// the blocks are independent and each sample gets the arithmetic it gets in add_group<1>; the L
-/// chains overlap (one alone waits on its own products). samples: the shape's samples, or empty
-/// for the plain exponential exp(rho n).
-template <int L>
-void add_blocks(std::span<const double> samples, double rho, double omega, std::complex<double> amp, double sign,
-                std::size_t first_block, std::size_t length, std::vector<double>& out) {
+/// chains overlap (one alone waits on its own products), side by side in a vector of doubles
+/// (GCC/Clang vector extension). samples: the shape's samples, or empty for the plain exponential
+/// exp(rho n). With Demodulate, each sum out[n] is also taken times the same phasor into demod[n]
+/// (v p[n] for the sum v: the products of std::complex's multiplication, written out, on the chain
+/// the sum walks).
+template <int L, bool Demodulate>
+[[gnu::always_inline]] inline void add_blocks(std::span<const double> samples, double rho, double omega, std::complex<double> amp,
+                                              double sign, std::size_t first_block, std::size_t length, std::vector<double>& out,
+                                              std::vector<std::complex<double>>* demod) {
     constexpr std::size_t block = 512;
-    using lanes = Eigen::Array<double, L, 1>;
+    using lanes = block_lanes<L>;
     const bool plain = samples.empty();
     const std::complex<double> z = std::polar(1.0, omega);
     const double ratio = plain ? std::exp(rho) : 1.0;
-    lanes pr, pi_, s;
+    lanes pr{}, pi_{}, s{};
     std::array<std::size_t, L> at{};
     for (int l = 0; l < L; ++l) {
         at[static_cast<std::size_t>(l)] = (first_block + static_cast<std::size_t>(l)) * block;
         const auto start = static_cast<double>(at[static_cast<std::size_t>(l)]);
         const std::complex<double> p = std::polar(1.0, std::remainder(omega * start, two_pi));
-        pr(l) = p.real(), pi_(l) = p.imag();
-        if (plain) s(l) = 1.0 * std::exp(rho * start);
+        pr[l] = p.real(), pi_[l] = p.imag();
+        if (plain) s[l] = 1.0 * std::exp(rho * start);
     }
     for (std::size_t t = 0; t < length; ++t) {
         if (!plain)
-            for (int l = 0; l < L; ++l) s(l) = samples[at[static_cast<std::size_t>(l)] + t];
+            for (int l = 0; l < L; ++l) s[l] = samples[at[static_cast<std::size_t>(l)] + t];
         const lanes term = sign * s * (amp.real() * pr - amp.imag() * pi_);
         if (plain) s *= ratio;
-        for (int l = 0; l < L; ++l) out[at[static_cast<std::size_t>(l)] + t] += term(l);
+        for (int l = 0; l < L; ++l) out[at[static_cast<std::size_t>(l)] + t] += term[l];
+        if constexpr (Demodulate) {
+            for (int l = 0; l < L; ++l) {
+                const double v = out[at[static_cast<std::size_t>(l)] + t];
+                (*demod)[at[static_cast<std::size_t>(l)] + t] = {v * pr[l], v * pi_[l]};
+            }
+        }
         const lanes next_r = pr * z.real() - pi_ * z.imag();
         pi_ = pr * z.imag() + pi_ * z.real();
         pr = next_r;
     }
 }
 
+/// add_mode's blocks, four at a time, then two, then one (add_blocks).
+template <bool Demodulate>
+[[gnu::always_inline]] inline void add_all_blocks(std::span<const double> samples, double rho, double omega, std::complex<double> amp,
+                                                  double sign, std::vector<double>& out, std::vector<std::complex<double>>* demod) {
+    constexpr std::size_t block = 512;
+    const std::size_t count = out.size();
+    const std::size_t full = count / block;
+    std::size_t b = 0;
+    for (; b + 4 <= full; b += 4) add_blocks<4, Demodulate>(samples, rho, omega, amp, sign, b, block, out, demod);
+    for (; b + 2 <= full; b += 2) add_blocks<2, Demodulate>(samples, rho, omega, amp, sign, b, block, out, demod);
+    for (; b < full; ++b) add_blocks<1, Demodulate>(samples, rho, omega, amp, sign, b, block, out, demod);
+    if (full * block < count) add_blocks<1, Demodulate>(samples, rho, omega, amp, sign, full, count - full * block, out, demod);
+}
+
 /// Adds sign * Re(amp a[n] exp(i omega n)) for n in [0, out.size()) to out; a is the mode's shape
 /// (exp(-d n / fs) when empty). The phasor is re-anchored from the exact power every 512 samples:
-/// add_group<1>'s sums, its blocks four at a time (add_blocks).
+/// add_group<1>'s sums, its blocks four at a time (add_all_blocks). With demod, out[n] exp(i omega n)
+/// (the sum times the same phasor) into (*demod)[n] as well. Compiled for AVX2 (four blocks in one
+/// register) and the baseline (no FMA: the same bits).
+WANE_KERNEL_CLONES
 void add_mode(const damped_mode& m, const mode_shape& shape, double sample_rate_hz, double sign,
-              std::vector<double>& out, std::vector<double>& scratch) {
+              std::vector<double>& out, std::vector<double>& scratch, std::vector<std::complex<double>>* demod = nullptr) {
     const std::size_t count = out.size();
     const double omega = two_pi * m.freq_hz / sample_rate_hz;
     const std::optional<double> rho = plain_rho(m, shape, sample_rate_hz, count);
     if (!rho) shape_samples(shape, count, scratch);
     const std::span<const double> samples = rho ? std::span<const double>{} : std::span<const double>(scratch);
     const double r = rho.value_or(0.0);
-    constexpr std::size_t block = 512;
-    const std::size_t full = count / block;
-    std::size_t b = 0;
-    for (; b + 4 <= full; b += 4) add_blocks<4>(samples, r, omega, m.amp, sign, b, block, out);
-    for (; b + 2 <= full; b += 2) add_blocks<2>(samples, r, omega, m.amp, sign, b, block, out);
-    for (; b < full; ++b) add_blocks<1>(samples, r, omega, m.amp, sign, b, block, out);
-    if (full * block < count) add_blocks<1>(samples, r, omega, m.amp, sign, full, count - full * block, out);
+    if (demod != nullptr) add_all_blocks<true>(samples, r, omega, m.amp, sign, out, demod);
+    else add_all_blocks<false>(samples, r, omega, m.amp, sign, out, nullptr);
 }
 
 double energy_of(std::span<const float> x) {
@@ -140,49 +168,12 @@ double fit_one(const mode_shape& a, double omega, std::complex<double> acc, std:
     return t0 * r0 + t1 * r1;
 }
 
-/// q[n] = x[n] p[n] into demod for the L 512-sample blocks first_block .. first_block + L - 1 (each
-/// `length` samples), p[n] = exp(i omega n) anchored at each block's start from the exact power and
-/// stepped by exp(i omega) (the products of std::complex's multiplication, written out): the blocks
-/// are independent, their chains overlapped.
-template <int L>
-void demodulate_blocks(std::span<const double> x, double omega, std::size_t first_block, std::size_t length,
-                       std::vector<std::complex<double>>& demod) {
-    constexpr std::size_t block = 512;
-    using lanes = Eigen::Array<double, L, 1>;
-    const std::complex<double> z = std::polar(1.0, omega);
-    lanes pr, pi_;
-    std::array<std::size_t, L> at{};
-    for (int l = 0; l < L; ++l) {
-        at[static_cast<std::size_t>(l)] = (first_block + static_cast<std::size_t>(l)) * block;
-        const std::complex<double> p = std::polar(1.0, std::remainder(omega * static_cast<double>(at[static_cast<std::size_t>(l)]), two_pi));
-        pr(l) = p.real(), pi_(l) = p.imag();
-    }
-    for (std::size_t t = 0; t < length; ++t) {
-        for (int l = 0; l < L; ++l) {
-            const double v = x[at[static_cast<std::size_t>(l)] + t];
-            demod[at[static_cast<std::size_t>(l)] + t] = {v * pr(l), v * pi_(l)};
-        }
-        const lanes next_r = pr * z.real() - pi_ * z.imag();
-        pi_ = pr * z.imag() + pi_ * z.real();
-        pr = next_r;
-    }
-}
-
-/// q[n] = x[n] exp(i omega n) into demod (the phasor re-anchored from the exact power every 512
-/// samples, demodulate_blocks), the prefix sums of n q[n] into ramp_sum[0 .. ramp_count] (the
-/// longest linear attack asked for; ramp_sum[0] = 0 kept) and the suffix sums
-/// t[T] = q[T] + exp(rho) t[T + 1] into tail_sum (count + 1).
-void projection_sums(std::span<const double> x, double omega, double rho, std::size_t ramp_count,
-                     std::vector<std::complex<double>>& demod, std::vector<std::complex<double>>& ramp_sum,
-                     std::vector<std::complex<double>>& tail_sum) {
-    const std::size_t count = x.size();
-    constexpr std::size_t block = 512;
-    const std::size_t full = count / block;
-    std::size_t b = 0;
-    for (; b + 4 <= full; b += 4) demodulate_blocks<4>(x, omega, b, block, demod);
-    for (; b + 2 <= full; b += 2) demodulate_blocks<2>(x, omega, b, block, demod);
-    for (; b < full; ++b) demodulate_blocks<1>(x, omega, b, block, demod);
-    if (full * block < count) demodulate_blocks<1>(x, omega, full, count - full * block, demod);
+/// From q[n] = x[n] exp(i omega n) in demod (count values, add_mode's with demod), the prefix sums
+/// of n q[n] into ramp_sum[0 .. ramp_count] (the longest linear attack asked for; ramp_sum[0] = 0
+/// kept) and the suffix sums t[T] = q[T] + exp(rho) t[T + 1] into tail_sum (count + 1).
+void projection_sums(std::span<const std::complex<double>> demod, double rho, std::size_t ramp_count,
+                     std::vector<std::complex<double>>& ramp_sum, std::vector<std::complex<double>>& tail_sum) {
+    const std::size_t count = demod.size();
     assert(ramp_count <= count && ramp_sum.size() > ramp_count);
     for (std::size_t n = 0; n < ramp_count; ++n) ramp_sum[n + 1] = ramp_sum[n] + static_cast<double>(n) * demod[n];
     const double step = std::exp(rho);
@@ -332,7 +323,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
     for (std::size_t r = 0; r < order.size() && r < params.max_partials; ++r) {
         if (order[r].first < floor_energy) break;
         const std::size_t i = order[r].second;
-        add_mode(modes[i], shapes[i], sample_rate_hz, 1.0, residual, scratch);
+        add_mode(modes[i], shapes[i], sample_rate_hz, 1.0, residual, scratch, &demod);  // and q[n] below
         // With q[n] = residual[n] exp(i omega n), the projection on the rise over T samples then
         // exp(rho (n - T)) is  (1/T) sum_{n<T} n q[n] + t[T],  t[T] = sum_{n>=T} q[n] exp(rho (n - T)):
         // prefix sums of n q[n] and the suffix recursion t[T] = q[T] + exp(rho) t[T + 1] give
@@ -342,7 +333,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
         const attack_choice& now = chosen[i];
         const std::size_t now_linear = now.start_ratio > 0.0 ? 0 : std::min(now.rise_n, count);
         const std::size_t ramp_n = std::max(longest_attack, now_linear);
-        projection_sums(residual, omega, rho, ramp_n, demod, ramp_sum, tail_sum);
+        projection_sums(demod, rho, ramp_n, ramp_sum, tail_sum);
         // An instant start that rises: its projection sum a[n] q[n] directly, O(count) per choice.
         const auto explained = [&](const attack_choice& c, std::complex<double>& amp) {
             const mode_shape shape = attack_shape(c, rho, count);

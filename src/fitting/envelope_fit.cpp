@@ -201,13 +201,29 @@ std::size_t smoothed_peak(const std::vector<track_point>& pts) {
     return peak;
 }
 
+/// The median of five values (the third smallest: nth_element's value) by a fixed network of
+/// compare-exchanges, branch-free: the first two values' order, then the last two's, and so on.
+double median_of_five(std::array<double, 5> v) {
+    auto order = [&](std::size_t a, std::size_t b) {
+        const double lo = std::min(v[a], v[b]), hi = std::max(v[a], v[b]);
+        v[a] = lo, v[b] = hi;
+    };
+    order(0, 1), order(3, 4), order(0, 3), order(1, 4), order(1, 2), order(2, 3), order(1, 2);
+    return v[2];
+}
+
 /// Running median of (level - floor) over floor_median_frames frames, centred (fewer at the ends).
 std::vector<double> running_median_excess(const std::vector<double>& excess) {
+    static_assert(floor_median_frames == 5);  // median_of_five away from the ends
     const std::size_t n = excess.size();
     std::vector<double> median(n);
     std::array<double, floor_median_frames> win{};
     const int half = floor_median_frames / 2;
     for (std::size_t i = 0; i < n; ++i) {
+        if (i >= 2 && i + 2 < n) {
+            median[i] = median_of_five({excess[i - 2], excess[i - 1], excess[i], excess[i + 1], excess[i + 2]});
+            continue;
+        }
         int m = 0;
         for (int d = -half; d <= half; ++d) {
             const auto k = static_cast<std::ptrdiff_t>(i) + d;

@@ -72,20 +72,28 @@ bool solve_small(int m, std::array<double, max_unknowns_sq>& g, std::array<doubl
 /// Normal equations from the suffix sums: for x > k, sum w (x - a)(x - k) = Sxx - (a + k) Sx + a k Sw.
 using normal_matrix = std::array<double, max_unknowns_sq>;
 using normal_vector = std::array<double, max_unknowns>;
+/// Each knot's first point after it (point_sums::first_after), knot by knot.
+using knot_indices = std::array<std::size_t, max_supported_segments>;
 
-void build_normal(const point_sums& ps, std::span<const double> knots, normal_matrix& g, normal_vector& b) {
+knot_indices indices_of(const point_sums& ps, std::span<const double> knots) {
+    knot_indices idx{};
+    for (std::size_t j = 0; j < knots.size(); ++j) idx[j] = ps.first_after(knots[j]);
+    return idx;
+}
+
+/// The normal equations of the knots whose first points after them are idx: every entry of g's
+/// leading (nk + 2) x (nk + 2) block is written (solve_small reads no other), b whole.
+void build_normal(const point_sums& ps, std::span<const double> knots, const knot_indices& idx, normal_matrix& g,
+                  normal_vector& b) {
     const int nk = static_cast<int>(knots.size());
     const std::size_t n = ps.size();
-    g.fill(0.0);
     b.fill(0.0);
-    std::array<std::size_t, max_supported_segments> idx{};
     auto at = [&](int r, int c) -> double& { return g[r * max_unknowns + c]; };
     at(0, 0) = ps.w[n];
     at(0, 1) = at(1, 0) = ps.wx[n];
     at(1, 1) = ps.wxx[n];
     b[0] = ps.wy[n];
     b[1] = ps.wxy[n];
-    for (int j = 0; j < nk; ++j) idx[j] = ps.first_after(knots[j]);
     for (int j = 0; j < nk; ++j) {
         const std::size_t i = idx[j];
         const double k = knots[j];
@@ -101,13 +109,12 @@ void build_normal(const point_sums& ps, std::span<const double> knots, normal_ma
     }
 }
 
-}  // namespace
-
-continuous_solution solve_continuous(const point_sums& ps, std::span<const double> knots) {
+/// solve_continuous with each knot's first point after it given (idx).
+continuous_solution solve_at(const point_sums& ps, std::span<const double> knots, const knot_indices& idx) {
     const int m = static_cast<int>(knots.size()) + 2;
     normal_matrix g;
     normal_vector b;
-    build_normal(ps, knots, g, b);
+    build_normal(ps, knots, idx, g, b);
     continuous_solution out;
     std::array<double, max_unknowns> rhs = b;
     if (!solve_small(m, g, rhs)) return out;
@@ -118,15 +125,24 @@ continuous_solution solve_continuous(const point_sums& ps, std::span<const doubl
     return out;
 }
 
+}  // namespace
+
+continuous_solution solve_continuous(const point_sums& ps, std::span<const double> knots) {
+    return solve_at(ps, knots, indices_of(ps, knots));
+}
+
+namespace {
+
 /// Feasible range for knot j given its neighbours: every segment lasts min_segment_s and holds
-/// min_points_per_segment points.
-bool knots_feasible(const point_sums& ps, std::span<const double> knots, double min_segment_s) {
+/// min_points_per_segment points (idx_of: each knot's first point after it).
+bool knots_feasible(const point_sums& ps, std::span<const double> knots, const knot_indices& idx_of,
+                    double min_segment_s) {
     const double end = ps.x.back();
     double prev = 0.0;
     std::size_t prev_idx = 0;
     for (std::size_t j = 0; j <= knots.size(); ++j) {
         const double k = j < knots.size() ? knots[j] : end;
-        const std::size_t idx = j < knots.size() ? ps.first_after(k) : ps.size();
+        const std::size_t idx = j < knots.size() ? idx_of[j] : ps.size();
         if (k - prev < min_segment_s) return false;
         if (idx - prev_idx < static_cast<std::size_t>(min_points_per_segment)) return false;
         prev = k;
@@ -134,6 +150,8 @@ bool knots_feasible(const point_sums& ps, std::span<const double> knots, double 
     }
     return true;
 }
+
+}  // namespace
 
 /// Bellman's dynamic program for segmented least squares (no continuity): the best split of the
 /// points into k runs, for every k up to kmax. Returns, per k, the run starts (k - 1 of them).
@@ -143,12 +161,17 @@ std::vector<std::vector<std::size_t>> segmented_least_squares(const point_sums& 
     const std::size_t min_pts = min_points_per_segment;
     // Run boundaries on a coarse grid: every stride-th point (and the end); run costs stay exact.
     const std::size_t stride = (n + dp_grid_points - 1) / dp_grid_points;
-    std::vector<std::size_t> cand;
-    for (std::size_t i = 0; i < n; i += stride) cand.push_back(i);
-    cand.push_back(n);
-    const std::size_t nc = cand.size();
-    std::vector<std::vector<double>> cost(kmax + 1, std::vector<double>(nc, infinity));
-    std::vector<std::vector<std::size_t>> from(kmax + 1, std::vector<std::size_t>(nc, 0));
+    // The grid and the tables in fixed arrays (at most dp_grid_points + 1 candidates and
+    // max_supported_segments runs): no allocation per fit.
+    assert(kmax <= max_supported_segments);
+    std::array<std::size_t, dp_grid_points + 1> cand{};
+    std::size_t nc = 0;
+    for (std::size_t i = 0; i < n; i += stride) cand[nc++] = i;
+    cand[nc++] = n;
+    using table = std::array<std::array<double, dp_grid_points + 1>, max_supported_segments + 1>;
+    table cost;
+    for (auto& row : cost) row.fill(infinity);
+    std::array<std::array<std::size_t, dp_grid_points + 1>, max_supported_segments + 1> from{};
     auto run_ok = [&](std::size_t a, std::size_t b) {
         return b - a >= min_pts && ps.x[b - 1] - ps.x[a] >= min_run_s;
     };
@@ -182,14 +205,21 @@ std::vector<std::vector<std::size_t>> segmented_least_squares(const point_sums& 
 }
 
 knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double min_segment_s) {
-    knot_fit best{knots, solve_continuous(ps, knots)};
+    // Each knot's first point after it is looked up once per knot position (a trial moves one).
+    knot_indices best_idx = indices_of(ps, knots);
+    knot_fit best{knots, solve_at(ps, knots, best_idx)};
     if (knots.empty()) return best;
-    if (!knots_feasible(ps, knots, min_segment_s)) best.sol.rss = infinity;
+    if (!knots_feasible(ps, knots, best_idx, min_segment_s)) best.sol.rss = infinity;
     const std::size_t n = ps.size();
     for (int sweep = 0; sweep < knot_sweeps; ++sweep) {
         bool moved = false;
         for (std::size_t j = 0; j < knots.size(); ++j) {
             std::vector<double> trial = best.knots;
+            knot_indices trial_idx = best_idx;
+            auto move_to = [&](double t) {
+                trial[j] = t;
+                trial_idx[j] = ps.first_after(t);
+            };
             double best_rss = best.sol.rss;
             std::size_t best_i = n;
             std::size_t scan_lo = 1, scan_hi = n - 1;
@@ -199,9 +229,9 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
                 scan_hi = std::min(n - 1, at + knot_scan_halfwidth);
             }
             for (std::size_t i = scan_lo; i < scan_hi; ++i) {
-                trial[j] = ps.x[i];
-                if (!knots_feasible(ps, trial, min_segment_s)) continue;
-                const continuous_solution s = solve_continuous(ps, trial);
+                move_to(ps.x[i]);
+                if (!knots_feasible(ps, trial, trial_idx, min_segment_s)) continue;
+                const continuous_solution s = solve_at(ps, trial, trial_idx);
                 if (s.rss < best_rss) {
                     best_rss = s.rss;
                     best_i = i;
@@ -215,9 +245,9 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
             double lo = ps.x[ci > 0 ? ci - 1 : 0];
             double hi = ps.x[std::min(ci + 1, n - 1)];
             auto eval = [&](double t) {
-                trial[j] = t;
-                if (!knots_feasible(ps, trial, min_segment_s)) return infinity;
-                return solve_continuous(ps, trial).rss;
+                move_to(t);
+                if (!knots_feasible(ps, trial, trial_idx, min_segment_s)) return infinity;
+                return solve_at(ps, trial, trial_idx).rss;
             };
             double a = hi - golden * (hi - lo), c = lo + golden * (hi - lo);
             double fa = eval(a), fc = eval(c);
@@ -243,9 +273,10 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
                 cand_rss = best_rss;
             }
             if (cand_rss < best.sol.rss) {
-                trial[j] = cand;
+                move_to(cand);
                 best.knots = trial;
-                best.sol = solve_continuous(ps, trial);
+                best_idx = trial_idx;
+                best.sol = solve_at(ps, trial, trial_idx);
                 moved = true;
             }
         }
@@ -295,7 +326,7 @@ bool changes_significant(const point_sums& ps, const knot_fit& f, double inflati
     for (int j = 0; j < static_cast<int>(f.knots.size()); ++j) {
         normal_matrix g;
         normal_vector b;
-        build_normal(ps, f.knots, g, b);
+        build_normal(ps, f.knots, indices_of(ps, f.knots), g, b);
         normal_vector e{};
         e[2 + j] = 1.0;
         if (!solve_small(m, g, e)) return false;

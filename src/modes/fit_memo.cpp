@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <bit>
 #include <cstdint>
+#include <cstring>
 #include <numeric>
 #include <utility>
 
@@ -52,11 +53,8 @@ std::vector<std::ptrdiff_t> memo_matches(const shaped_fit_memo& memo, std::span<
 }
 
 bool memo_same_samples(const shaped_fit_memo& memo, std::span<const float> x) {
-    // Bitwise (a -0 or a NaN sample is not the same sample here).
-    return memo.x.size() == x.size() &&
-           std::equal(x.begin(), x.end(), memo.x.begin(), [](float a, float b) {
-               return std::bit_cast<std::uint32_t>(a) == std::bit_cast<std::uint32_t>(b);
-           });
+    // Bitwise (a -0 or a NaN sample is not the same sample here): the samples' bytes.
+    return memo.x.size() == x.size() && (x.empty() || std::memcmp(x.data(), memo.x.data(), x.size_bytes()) == 0);
 }
 
 }  // namespace wane

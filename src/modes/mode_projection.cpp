@@ -5,38 +5,46 @@
 #include <cassert>
 #include <cmath>
 #include <complex>
+#include <type_traits>
 #include <vector>
 
 #include <Eigen/Dense>
 
 #include "core/units.hpp"
+#include "synthesis/kernel_clones.hpp"
 
 namespace wane {
 
 namespace {
 
+/// Doubles side by side (GCC/Clang vector extension) for G chains (G <= 4): two lanes at least (one
+/// double is no vector); a lane past G stays 0 and is never read.
+using two_lanes = double __attribute__((vector_size(16)));
+using four_lanes = double __attribute__((vector_size(32)));
+template <std::size_t G>
+using chain_lanes = std::conditional_t<(G > 2), four_lanes, two_lanes>;
+
 /// project_group for exactly G modes: the complex products written out on real and imaginary
-/// parts (the same products and sums as std::complex's), the G chains kept in registers. Sample
-/// is float or double: a float sample is widened exactly, so both give the same sums.
+/// parts (the same products and sums as std::complex's), the G chains side by side in one vector
+/// (each lane's arithmetic its own, as written). Sample is float or double: a float sample is
+/// widened exactly, so both give the same sums.
 template <std::size_t G, typename Sample>
-void project_chains(std::span<const Sample> w, std::span<const std::size_t> which, std::span<const double> rho,
-                    std::span<const double> omega, std::span<std::complex<double>> out) {
+[[gnu::always_inline]] inline void project_chains(std::span<const Sample> w, std::span<const std::size_t> which,
+                                                  std::span<const double> rho, std::span<const double> omega,
+                                                  std::span<std::complex<double>> out) {
     constexpr std::size_t anchor = 512;
-    // Element-wise arrays (Eigen packets): each chain's arithmetic is its own, as written.
-    using lanes = Eigen::Array<double, static_cast<int>(G), 1>;
-    lanes zr, zi, pr, pi_, accr = lanes::Zero(), acci = lanes::Zero();
+    using lanes = chain_lanes<G>;
+    lanes zr{}, zi{}, pr{}, pi_{}, accr{}, acci{};
     for (std::size_t i = 0; i < G; ++i) {
         const std::complex<double> z = std::exp(std::complex<double>{rho[which[i]], omega[which[i]]});
-        const auto lane = static_cast<Eigen::Index>(i);
-        zr(lane) = z.real(), zi(lane) = z.imag();
+        zr[i] = z.real(), zi[i] = z.imag();
     }
     for (std::size_t start = 0; start < w.size(); start += anchor) {
         const std::size_t end = std::min(w.size(), start + anchor);
         const auto at = static_cast<double>(start);
         for (std::size_t i = 0; i < G; ++i) {
             const std::complex<double> p = std::exp(std::complex<double>{rho[which[i]] * at, std::remainder(omega[which[i]] * at, two_pi)});
-            const auto lane = static_cast<Eigen::Index>(i);
-            pr(lane) = p.real(), pi_(lane) = p.imag();
+            pr[i] = p.real(), pi_[i] = p.imag();
         }
         for (std::size_t n = start; n < end; ++n) {
             const auto wn = static_cast<double>(w[n]);
@@ -47,15 +55,13 @@ void project_chains(std::span<const Sample> w, std::span<const std::size_t> whic
             pr = next_r;
         }
     }
-    for (std::size_t i = 0; i < G; ++i) {
-        const auto lane = static_cast<Eigen::Index>(i);
-        out[which[i]] = {accr(lane), acci(lane)};
-    }
+    for (std::size_t i = 0; i < G; ++i) out[which[i]] = {accr[i], acci[i]};
 }
 
 template <typename Sample>
-void project_group_of(std::span<const Sample> w, std::span<const std::size_t> which, std::span<const double> rho,
-                      std::span<const double> omega, std::span<std::complex<double>> out) {
+[[gnu::always_inline]] inline void project_group_of(std::span<const Sample> w, std::span<const std::size_t> which,
+                                                    std::span<const double> rho, std::span<const double> omega,
+                                                    std::span<std::complex<double>> out) {
     const std::size_t g = which.size();
     assert(g <= projection_group);
     static_assert(projection_group == 4);
@@ -71,12 +77,15 @@ void project_group_of(std::span<const Sample> w, std::span<const std::size_t> wh
 
 }  // namespace
 
+// The entry points compiled for AVX2 (four chains in one register) and the baseline (no FMA: the same bits).
+WANE_KERNEL_CLONES
 void project_group(std::span<const double> w, std::span<const std::size_t> which, std::span<const double> rho,
                    std::span<const double> omega, std::span<std::complex<double>> out) {
     project_group_of(w, which, rho, omega, out);
 }
 
 
+WANE_KERNEL_CLONES
 void project_modes(std::span<const float> x, std::size_t count, std::span<const double> rho,
                    std::span<const double> omega, std::span<std::complex<double>> out) {
     assert(count <= x.size());

@@ -5,6 +5,7 @@
 #include <cassert>
 #include <cmath>
 #include <complex>
+#include <memory>
 
 #include <Eigen/Core>
 
@@ -84,7 +85,14 @@ void subtract_plain_modes(std::span<double> out, std::span<const double> rho, st
     const std::size_t rows_pad = (blocks + product_tile_rows - 1) / product_tile_rows * product_tile_rows;
     const std::size_t cols_pad = (block_n + product_tile_cols - 1) / product_tile_cols * product_tile_cols;
     // a(b, d) at a[d * rows_pad + b], d < 2K: Re A then -Im A; z(m, d) at z[d * cols_pad + m]: Re Z then Im Z.
-    std::vector<double> a(rows_pad * 2 * k_count, 0.0), z(cols_pad * 2 * k_count, 0.0);
+    // Not zeroed whole: the loops below write every entry but the padding (rows b >= blocks of a,
+    // m >= block_n of z), which is zeroed here.
+    const auto a = std::make_unique_for_overwrite<double[]>(rows_pad * 2 * k_count);
+    const auto z = std::make_unique_for_overwrite<double[]>(cols_pad * 2 * k_count);
+    for (std::size_t d = 0; d < 2 * k_count; ++d) {
+        std::fill(a.get() + d * rows_pad + blocks, a.get() + (d + 1) * rows_pad, 0.0);
+        std::fill(z.get() + d * cols_pad + block_n, z.get() + (d + 1) * cols_pad, 0.0);
+    }
     for (std::size_t k = 0; k < k_count; ++k) {
         const std::complex<double> step_z = std::exp(std::complex<double>{rho[k], omega[k]});
         std::complex<double> p{1.0, 0.0};
@@ -107,7 +115,7 @@ void subtract_plain_modes(std::span<double> out, std::span<const double> rho, st
     // minus_c = 0 - (Re A Re Z - Im A Im Z) = -Re C, blocks x B (column-major).
     std::vector<double> minus_c(blocks * block_n, 0.0);
     subtract_products(minus_c.data(), blocks,
-                      {.a = a.data(), .a_rows = rows_pad, .b = z.data(), .b_rows = cols_pad, .depth = 2 * k_count}, blocks,
+                      {.a = a.get(), .a_rows = rows_pad, .b = z.get(), .b_rows = cols_pad, .depth = 2 * k_count}, blocks,
                       block_n, false);
     for (std::size_t b = 0; b < blocks; ++b) {
         const std::size_t first = b * block_n;

@@ -5,11 +5,32 @@
 #include <algorithm>
 #include <cassert>
 #include <cmath>
+#include <map>
+#include <memory>
+#include <new>
 
 #include "core/units.hpp"
 #include "spectrum/stft.hpp"
 
 namespace wane {
+
+namespace {
+
+/// KissFFT's inverse complex plan of one size, made on first use and kept for the thread: the
+/// bands of a note come in a few sizes, and a plan's twiddle table (a cosine and sine per point)
+/// cost about as much as its transform (the same table every time, so the same transform).
+kiss_fft_cfg inverse_plan(int points) {
+    struct kiss_free {
+        void operator()(kiss_fft_state* cfg) const { kiss_fft_free(cfg); }
+    };
+    thread_local std::map<int, std::unique_ptr<kiss_fft_state, kiss_free>> plans;
+    auto& plan = plans[points];
+    if (!plan) plan.reset(kiss_fft_alloc(points, 1, nullptr, nullptr));  // inverse: exp(+i ...)
+    if (!plan) throw std::bad_alloc();
+    return plan.get();
+}
+
+}  // namespace
 
 struct note_spectrum::state {
     double sample_rate_hz = 0.0;
@@ -81,9 +102,7 @@ narrowband note_spectrum::band(double centre_hz, double half_width_hz, double mi
         in[slot] = {static_cast<float>(double(b.real()) * taper * scale), static_cast<float>(double(b.imag()) * taper * scale)};
     }
     std::vector<kiss_fft_cpx> out(static_cast<std::size_t>(points));
-    kiss_fft_cfg cfg = kiss_fft_alloc(points, 1, nullptr, nullptr);  // inverse: exp(+i ...)
-    kiss_fft(cfg, in.data(), out.data());
-    kiss_fft_free(cfg);
+    kiss_fft(inverse_plan(points), in.data(), out.data());
     narrowband nb{.centre_hz = static_cast<double>(kc) * bin_hz,
                   .sample_rate_hz = static_cast<double>(points) * bin_hz,
                   .y = std::vector<std::complex<double>>(static_cast<std::size_t>(points))};

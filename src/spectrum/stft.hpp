@@ -23,6 +23,8 @@ struct stft_config {
     int fft_size = 4096;       ///< even, >= 2 x window_length (zero padding >= 2)
     /// A plan for a handful of frames: KissFFT, whose set-up is its twiddle table (~0.2 ms at
     /// 19440), instead of FFTW's planner search (2-3 ms per new size, more than a few frames cost).
+    /// A size with stored FFTW choices (spectrum/fft_planning.hpp) plans for less than that table:
+    /// the tracker's survey, which used this, now runs on FFTW.
     bool few_frames = false;
 };
 

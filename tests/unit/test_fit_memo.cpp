@@ -7,6 +7,7 @@
 
 #include <complex>
 #include <cstddef>
+#include <limits>
 #include <span>
 #include <vector>
 
@@ -133,4 +134,24 @@ TEST_CASE("fits with the last fit's memo equal fits without, pass after pass", "
     for (mode_shape& s : shorter.shapes)
         if (!s.empty()) s = envelope_shape(env, fs, count - 100);
     check_same(shorter, memo);
+}
+
+TEST_CASE("memo_same_samples is bitwise: -0 and +0 differ, a NaN is the same as its own bits, sizes must match", "[modes][memo]") {
+    // The reference is the samples' bit patterns themselves (std::bit_cast per sample), the test
+    // the memo's fits rely on (a fit on -0 instead of +0 is not the fit the memo kept).
+    const std::size_t n = GENERATE(1U, 7U, 7200U);
+    const std::size_t at = GENERATE(0U, 1U, 2U);
+    if (at >= n) return;
+    const std::vector<float> x = noisy_modes(std::vector<damped_mode>{{.freq_hz = 440.0, .decay_per_s = 5.0, .amp = {0.3, 0.1}}}, n, 7);
+    shaped_fit_memo memo{.count = n, .sample_rate_hz = fs, .x = x, .own = {}, .omega = {}, .plain = {}, .gram = {}, .rhs = {}};
+    CAPTURE(n, at);
+    CHECK(memo_same_samples(memo, x));
+    std::vector<float> y = x;
+    y[at] = 0.0F;
+    memo.x[at] = -0.0F;
+    CHECK_FALSE(memo_same_samples(memo, y));
+    y[at] = std::numeric_limits<float>::quiet_NaN();
+    memo.x[at] = y[at];
+    CHECK(memo_same_samples(memo, y));
+    CHECK_FALSE(memo_same_samples(memo, std::span<const float>(y).first(n - 1)));
 }

@@ -7,10 +7,12 @@
 #include <algorithm>
 #include <cmath>
 #include <complex>
+#include <limits>
 #include <string>
 #include <thread>
 #include <vector>
 
+#include "core/cosine_walk.hpp"
 #include "core/rng.hpp"
 #include "core/units.hpp"
 #include "spectrum/stft.hpp"
@@ -109,6 +111,28 @@ TEST_CASE("zero_phase_transform matches the direct cosine sum within 1e-12 of th
     const double got = zero_phase_transform(w, fft_size, nu);
     CAPTURE(length, nu, got, static_cast<double>(ref));
     CHECK(std::abs(static_cast<long double>(got) - ref) <= 1e-12L * abs_sum);
+}
+
+TEST_CASE("cosine_walk_table gives cosine_walk's values bit for bit, near long double's", "[spectrum][window]") {
+    // Two references: the walk itself, value by value (the table walks four stretches side by
+    // side and must give the same bits), and std::cos / std::sin in long double, within 1e-12
+    // plus what rounding the angle to double moves it (4 eps |angle|: the walk's exact anchors
+    // take the angle in double).
+    const std::size_t count = GENERATE(0U, 1U, 15U, 16U, 63U, 64U, 65U, 200U, 7200U);
+    const double num = GENERATE(0.1234, two_pi, 3.0), den = GENERATE(1.0, 1000.0);
+    std::vector<double> cos_n(count), sin_n(count);
+    cosine_walk_table(num, den, cos_n, sin_n);
+    cosine_walk walk(num, den);
+    for (std::size_t j = 0; j < count; ++j) {
+        const double c = walk.next(), s = walk.sine();
+        const long double angle = static_cast<long double>(num) * static_cast<long double>(j) / static_cast<long double>(den);
+        CAPTURE(count, num, den, j, cos_n[j], c, sin_n[j], s);
+        REQUIRE(cos_n[j] == c);
+        REQUIRE(sin_n[j] == s);
+        const long double tol = 1e-12L + 4.0L * std::numeric_limits<double>::epsilon() * angle;
+        REQUIRE(std::abs(static_cast<long double>(c) - std::cos(angle)) <= tol);
+        REQUIRE(std::abs(static_cast<long double>(s) - std::sin(angle)) <= tol);
+    }
 }
 
 TEST_CASE("make_window's taps are window_value's cosine sum rounded to float, tap for tap", "[spectrum][window]") {
