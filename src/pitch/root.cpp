@@ -55,18 +55,42 @@ std::optional<double> strike_note_hz(std::span<const root_mode> strong, double t
     return best;
 }
 
+/// The octave of a series without its partial 1: the largest power of two k (up to 8) that numbers
+/// every partial within strong_below_max_db of the strongest numbered one a multiple of k. A series
+/// whose strong partials are all even-numbered (2, 4, 8 of f0, nothing odd within that range) is
+/// heard an octave up, at its lowest strong partial's octave: a missing fundamental is heard from
+/// neighbouring harmonics, odd and even (Terhardt 1974: virtual pitch from a harmonic pattern), and
+/// 2, 4, 8 alone are the pattern of 2 f0. A kalimba tine (G3) whose
+/// strong numbered partials 196 and 392 Hz (2 and 4 of a 98 Hz series) once had G2 for its root.
+int strong_octave(std::span<const root_mode> modes, const root_params& params) {
+    double max_db = -infinity;
+    for (const root_mode& m : modes)
+        if (m.harmonic > 0) max_db = std::max(max_db, m.level_db);
+    int k = 1;
+    while (k < 8) {
+        bool all = true;
+        for (const root_mode& m : modes)
+            if (m.harmonic > 0 && m.level_db >= max_db - params.strong_below_max_db && m.harmonic % (2 * k) != 0) all = false;
+        if (!all) break;
+        k *= 2;
+    }
+    return k;
+}
+
 /// The fundamental of a series as measured: the strongest partial numbered 1 when it is within
 /// fundamental_below_max_db of the strongest partial (real strings put partial 1 a few cents off
 /// the series of the upper partials, and partial 1 is the pitch heard); else the series' f0 (a
-/// missing or very weak fundamental).
-double fundamental_hz(std::span<const root_mode> modes, double series_f0_hz, const root_params& params) {
+/// missing or very weak fundamental), times strong_octave when its strong partials are all even.
+/// With from_hint the user's f0 stands as given.
+double fundamental_hz(std::span<const root_mode> modes, double series_f0_hz, bool from_hint, const root_params& params) {
     double max_db = -infinity;
     for (const root_mode& m : modes) max_db = std::max(max_db, m.level_db);
     double best_db = max_db - params.fundamental_below_max_db;
-    double f = series_f0_hz;
+    double f = 0.0;
     for (const root_mode& m : modes)
         if (m.harmonic == 1 && m.level_db >= best_db) best_db = m.level_db, f = m.freq_hz;
-    return f;
+    if (f > 0.0) return f;
+    return from_hint ? series_f0_hz : series_f0_hz * strong_octave(modes, params);
 }
 
 double peak_level(const root_mode& m) { return m.level_db; }
@@ -93,11 +117,11 @@ root_estimate find_root(std::span<const root_mode> modes, double series_f0_hz, b
     if (modes.empty()) return {};
     const std::vector<root_mode> strong = strong_modes(modes, params, peak_level);
     const std::vector<root_mode> heard = strong_modes(modes, params, heard_level);
-    if (from_hint && series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, params), root_method::f0_hint};
+    if (from_hint && series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, true, params), root_method::f0_hint};
     // A dense wash of modes with no series has no pitch; ratios found in it are chance.
     if (series_f0_hz <= 0.0 && static_cast<int>(strong.size()) > params.unpitched_min_strong_modes) return {};
     if (const auto s = strike_note_hz(strong, params.bell_tolerance_rel)) return {*s, root_method::strike_note};
-    if (series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, params), root_method::harmonic_series};
+    if (series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, false, params), root_method::harmonic_series};
     if (heard.empty()) return {};
     return {heard.front().freq_hz, root_method::lowest_mode};
 }

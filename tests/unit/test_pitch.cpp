@@ -15,6 +15,7 @@
 #include "pitch/series_fit.hpp"
 #include "synthesis/render.hpp"
 #include "core/rng.hpp"
+#include "io/audio_file.hpp"
 #include "transform/transform.hpp"
 
 using Catch::Matchers::WithinAbs;
@@ -181,6 +182,44 @@ TEST_CASE("root finder: a dense set of unrelated modes (a cymbal's wash) is unpi
     const root_estimate r = find_root(modes, 0.0, false);
     CHECK(r.method == root_method::unpitched);
     CHECK(r.freq_hz == 0.0);
+}
+
+TEST_CASE("root finder: a series with no partial 1 and only even-numbered strong partials is heard an octave up, "
+          "unless an odd one is strong or the f0 was a hint",
+          "[pitch]") {
+    // Partials 2 and 4 (and 8) of a 98 Hz series, the odd ones absent or 30 dB under the strongest
+    // (outside strong_below_max_db = 20 dB): the pattern of 196 Hz's partials 1, 2 (and 4).
+    const double f0_hz = 98.0;
+    const int top_even = GENERATE(4, 8);
+    std::vector<root_mode> modes = {{2.0 * f0_hz, -10.0, 2}, {4.0 * f0_hz, -18.0, 4}, {11.0 * f0_hz, -40.0, 11}};
+    if (top_even == 8) modes.push_back({8.0 * f0_hz, -25.0, 8});
+    CAPTURE(top_even);
+    root_estimate r = find_root(modes, f0_hz, false);
+    CHECK(r.method == root_method::harmonic_series);
+    CHECK_THAT(r.freq_hz, WithinRel(2.0 * f0_hz, 1e-12));
+    // Partials 4 and 8 only: two octaves up.
+    r = find_root(std::vector<root_mode>{{4.0 * f0_hz, -10.0, 4}, {8.0 * f0_hz, -15.0, 8}}, f0_hz, false);
+    CHECK_THAT(r.freq_hz, WithinRel(4.0 * f0_hz, 1e-12));
+    // A strong odd partial (3, 15 dB under): the series' own f0, the missing fundamental.
+    modes.push_back({3.0 * f0_hz, -25.0, 3});
+    r = find_root(modes, f0_hz, false);
+    CHECK_THAT(r.freq_hz, WithinRel(f0_hz, 1e-12));
+    // The user's --f0 stands.
+    r = find_root(std::vector<root_mode>{{2.0 * f0_hz, -10.0, 2}, {4.0 * f0_hz, -18.0, 4}}, f0_hz, true);
+    CHECK(r.method == root_method::f0_hint);
+    CHECK_THAT(r.freq_hz, WithinRel(f0_hz, 1e-12));
+}
+
+TEST_CASE("real kalimba tine (G3): root G3 within 5 cents of its measured fundamental, not an octave down", "[pitch][real]") {
+    // tests/data/more-notes/README.md: the sampler's root key 55 (G3), measured 195.91 Hz. Its
+    // harmonic partials are 196 and 392 Hz; inharmonic modes near 11 x 98 Hz once made G2 its root.
+    const mono_audio a = read_audio(std::string(WANE_TEST_DATA_DIR) + "/more-notes/kalimba_g3.wav");
+    const analysis_result r = analyze_note(a.samples, a.sample_rate_hz, {});
+    const note_root& root = r.value.note.root;
+    const double root_hz = midi_to_hz(root.midi + root.tuning_cents / 100.0);
+    CAPTURE(root.midi, root.tuning_cents, root_hz);
+    CHECK(root.midi == 55);
+    CHECK(std::abs(cents(root_hz, 195.91)) <= 5.0);  // the struck bars' tolerance of the real notes' pitch check
 }
 
 TEST_CASE("f0 hint: numbers the partials without changing which partials are found", "[pitch]") {
