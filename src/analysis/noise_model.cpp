@@ -275,8 +275,12 @@ std::vector<noise_band> fit_noise_bands(std::span<const float> residual, double 
 }
 
 std::vector<noise_band> fit_note_noise(std::span<const float> note, double sample_rate_hz, const patch& p,
-                                       const noise_model_params& params) {
+                                       const noise_model_params& note_params) {
     if (note.empty()) return {};
+    noise_model_params params = note_params;
+    const double length_s = static_cast<double>(note.size()) / sample_rate_hz;
+    params.max_floor_window_s = std::min(params.max_floor_window_s,
+                                         std::max(params.min_floor_window_s, params.max_floor_window_share * length_s));
     std::vector<double> freqs_hz;
     double loudest_db = -infinity;
     for (const partial& q : p.partials) {

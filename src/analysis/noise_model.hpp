@@ -59,6 +59,10 @@ struct noise_model_params {
     double floor_window_spacings = 24.0;
     double min_floor_window_s = 0.06;
     double max_floor_window_s = 0.3;
+    /// ... and at most this share of the note's length (not under min_floor_window_s): a note
+    /// shorter than a few floor windows has too few frames to fit a band's envelope on (a 0.21 s
+    /// clavinet note, f0 131 Hz, window 0.18 s, got no band at all: log-spectral distance 24 dB).
+    double max_floor_window_share = 0.25;
     /// Bins this close to a partial (in window main-lobe half-widths) are left out of a band.
     double partial_guard_lobes = 1.25;
     /// A band with fewer free bins takes this many free bins nearest its centre (log frequency).
