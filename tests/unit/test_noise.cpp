@@ -15,6 +15,7 @@
 #include "analysis/analyze.hpp"
 #include "core/noise_bands.hpp"
 #include "core/rng.hpp"
+#include "test_band_noise.hpp"
 #include "core/octave_bands.hpp"
 #include "synthesis/noise_render.hpp"
 #include "synthesis/render.hpp"
@@ -35,31 +36,6 @@ double first_fall_t60_s(const envelope& env) {
     return infinity;
 }
 
-
-/// White noise band-passed by FFTW (bins outside [low, high) zeroed), scaled to unit power.
-std::vector<double> band_noise(std::size_t n, double low_hz, double high_hz, std::uint64_t seed) {
-    splitmix64 rng{seed};  // the project's generator (core/rng.hpp)
-    std::vector<double> x(n);
-    for (double& v : x) v = rng.gaussian();
-    const std::size_t bins = n / 2 + 1;
-    auto* spec = static_cast<fftw_complex*>(fftw_malloc(sizeof(fftw_complex) * bins));
-    fftw_plan fwd = fftw_plan_dft_r2c_1d(static_cast<int>(n), x.data(), spec, FFTW_ESTIMATE);
-    fftw_execute(fwd);
-    for (std::size_t k = 0; k < bins; ++k) {
-        const double f = static_cast<double>(k) * rate_hz / static_cast<double>(n);
-        if (f < low_hz || f >= high_hz) spec[k][0] = spec[k][1] = 0.0;
-    }
-    fftw_plan inv = fftw_plan_dft_c2r_1d(static_cast<int>(n), spec, x.data(), FFTW_ESTIMATE);
-    fftw_execute(inv);
-    fftw_destroy_plan(fwd);
-    fftw_destroy_plan(inv);
-    fftw_free(spec);
-    double power = 0.0;
-    for (double v : x) power += v * v;
-    const double scale = 1.0 / std::sqrt(power / static_cast<double>(n));
-    for (double& v : x) v *= scale;
-    return x;
-}
 
 /// Power spectrum by FFTW (Hann window), bins 0..n/2.
 std::vector<double> power_spectrum(const std::vector<float>& y) {
@@ -427,44 +403,4 @@ TEST_CASE("a broadband burst over low partials: its energy within 2 dB over the 
     const double all_diff_db = 10.0 * std::log10(all_energy / all_truth_energy);
     CAPTURE(all_diff_db);
     CHECK_THAT(all_diff_db, WithinAbs(0.0, 2.0));  // ground truth
-}
-
-TEST_CASE("a note shorter than a few floor windows still gets its noise bands: a 0.22 s low note's noise within 3 dB",
-          "[noise]") {
-    // Harmonics 1-4 of 131 Hz (the floor window would be 24 / 131 Hz = 0.18 s, most of the note)
-    // at -12 dB, T60 2 s, and noise over 2-8 kHz held at -40 dB RMS (a broad band: a narrow one
-    // over so short a note is taken for partials), over 0.22 s after a 10 ms lead; white noise at
-    // -100 dB as the floor. The window is held to a quarter of the note
-    // (noise_model_params::max_floor_window_share), so frames fit bands (a 0.21 s clavinet note
-    // once got none; with the window at 0.18 s this note's bands come out at -43.8 dB).
-    // 3 dB: our tolerance for so few frames.
-    const double lead_s = 0.01, length_s = 0.22, f0_hz = 131.0, noise_db = -40.0, low_hz = 2000.0, high_hz = 8000.0;
-    const auto lead = static_cast<std::size_t>(lead_s * rate_hz);
-    const auto n = static_cast<std::size_t>((lead_s + length_s) * rate_hz);
-    const auto noise = band_noise(n - lead, low_hz, high_hz, 21);
-    splitmix64 rng{22};
-    std::vector<float> x(n);
-    for (std::size_t i = 0; i < n; ++i) {
-        double v = 1e-5 * rng.gaussian();
-        if (i >= lead) {
-            const double t = static_cast<double>(i - lead) / rate_hz;
-            for (int k = 1; k <= 4; ++k)
-                v += std::pow(10.0, -12.0 / 20.0) * std::exp(-ln1000 * t / 2.0) * std::cos(2.0 * pi * k * f0_hz * t);
-            v += std::pow(10.0, noise_db / 20.0) * noise[i - lead];
-        }
-        x[i] = static_cast<float>(v);
-    }
-    // The bands' power over 2-8 kHz halfway in (each band's share of its width inside the range).
-    auto level_db_of = [&](const patch& p) {
-        double power = 0.0;
-        for (const noise_band& b : p.noise) {
-            const double inside_hz = std::max(0.0, std::min(b.high_hz, high_hz) - std::max(b.low_hz, low_hz));
-            power += std::pow(10.0, envelope_level(b.env, 0.5 * length_s).db / 10.0) * inside_hz / (b.high_hz - b.low_hz);
-        }
-        return 10.0 * std::log10(power);
-    };
-    const analysis_result r = analyze_note(x, rate_hz, {});
-    const double level_db = level_db_of(r.value);
-    CAPTURE(level_db, r.value.noise.size(), r.value.partials.size());
-    CHECK_THAT(level_db, WithinAbs(noise_db, 3.0));  // ground truth, our tolerance
 }
