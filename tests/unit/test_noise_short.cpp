@@ -8,9 +8,9 @@
 
 #include "analysis/analyze.hpp"
 #include "core/envelope.hpp"
-#include "core/rng.hpp"
 #include "core/units.hpp"
 #include "test_band_noise.hpp"
+#include "test_signals.hpp"
 
 using Catch::Matchers::WithinAbs;
 using namespace wane;
@@ -27,20 +27,12 @@ TEST_CASE("a note shorter than a few floor windows still gets its noise bands: a
     const double lead_s = 0.01, length_s = 0.22, f0_hz = 131.0, noise_db = -40.0, low_hz = 2000.0, high_hz = 8000.0;
     const double want_db = noise_db;
     const auto lead = static_cast<std::size_t>(lead_s * rate_hz);
-    const auto n = static_cast<std::size_t>((lead_s + length_s) * rate_hz);
-    const std::vector<double> noise = band_noise(n - lead, low_hz, high_hz, 21, rate_hz);
-    splitmix64 rng{22};  // the project's generator (core/rng.hpp)
-    std::vector<float> x(n);
-    for (std::size_t i = 0; i < n; ++i) {
-        double v = 1e-5 * rng.gaussian();
-        if (i >= lead) {
-            const double t = static_cast<double>(i - lead) / rate_hz;
-            for (int k = 1; k <= 4; ++k)
-                v += std::pow(10.0, -12.0 / 20.0) * std::exp(-ln1000 * t / 2.0) * std::cos(2.0 * pi * k * f0_hz * t);
-            v += std::pow(10.0, noise_db / 20.0) * noise[i - lead];
-        }
-        x[i] = static_cast<float>(v);
-    }
+    std::vector<test::decaying_partial> harmonics;
+    for (int k = 1; k <= 4; ++k) harmonics.push_back({k * f0_hz, std::pow(10.0, -12.0 / 20.0), 2.0, 0.0});
+    std::vector<float> x = test::decaying_partials(harmonics, rate_hz, lead_s + length_s, lead_s, 1e-5, 22);
+    const std::vector<double> noise = band_noise(x.size() - lead, low_hz, high_hz, 21, rate_hz);
+    for (std::size_t i = lead; i < x.size(); ++i)
+        x[i] = static_cast<float>(static_cast<double>(x[i]) + std::pow(10.0, noise_db / 20.0) * noise[i - lead]);
     const analysis_result r = analyze_note(x, rate_hz, {});
     // The bands' power over 2-8 kHz halfway in (each band's share of its width inside the range).
     double power = 0.0;
