@@ -30,7 +30,11 @@ and measure
                   taken as inaudible beside it; from common practice, not a published limit);
   lsd_db, lsd_nonoise_db log-spectral distance (2048-point Hann frames, hop 512, RMS over bins of
                   the dB difference, mean over frames; powers floored 120 dB under the
-                  recording's loudest bin) of the copy with and without its noise bands.
+                  recording's loudest bin) of the copy with and without its noise bands;
+  drop            on a cut note, the level (RMS, dB) over the 100 ms before the cut minus that of
+                  the last second of a render 3x the recording's length; for recordings under 0.5 s
+                  (whose 3x render's last second starts before the cut) the summary also gives the
+                  drop to the render's last third.
 Prints one row per note and the summary figures.
 """
 import os
@@ -45,6 +49,10 @@ from scipy.signal import butter, sosfiltfilt
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 from eval_fidelity import read_mono  # noqa: E402  (one WAV reader for the evaluation scripts)
+
+
+# A cut recording shorter than this (s): the last second of its 3x render starts before the cut.
+SHORT_CUT_S = 0.5
 
 
 def read_float(path):
@@ -172,6 +180,12 @@ def evaluate_note(wane, wav, work):
     at_cut = y[int((cut_s - 0.1) * rate):int(cut_s * rate)]
     last = y[-rate:]
     out["tail_drop_db"] = float(10 * np.log10(np.mean(at_cut ** 2) / max(np.mean(last ** 2), 1e-30)))
+    # A recording under 0.5 s long: the 3x render's last second starts before the cut, so it holds
+    # part of the recording and its level cannot fall 20 dB under the cut's. There the render's
+    # last third (from 2x the length: wholly past the cut) is measured as well.
+    out["cut_s"] = cut_s
+    third = y[int(2 * cut_s * rate):]
+    out["tail_drop_third_db"] = float(10 * np.log10(np.mean(at_cut ** 2) / max(np.mean(third ** 2), 1e-30)))
     return out
 
 
@@ -204,6 +218,16 @@ def main():
     cut = [r for r in rows if r["cut"]]
     print(f"cut notes: {len(cut)}; 3x render, last second under the level at the cut: min "
           f"{min(r['tail_drop_db'] for r in cut):.1f} dB, at least 20 dB on {sum(r['tail_drop_db'] >= 20 for r in cut)}")
+    long_cut = [r for r in cut if r["cut_s"] >= SHORT_CUT_S]
+    short_cut = [r for r in cut if r["cut_s"] < SHORT_CUT_S]
+    if long_cut and short_cut:
+        print(f"  cut notes of {SHORT_CUT_S} s or longer: {len(long_cut)}; min {min(r['tail_drop_db'] for r in long_cut):.1f} dB, "
+              f"at least 20 dB on {sum(r['tail_drop_db'] >= 20 for r in long_cut)}")
+    if short_cut:
+        drops = ", ".join(f"{r['note']} {r['tail_drop_third_db']:.1f}" for r in short_cut)
+        print(f"  cut notes under {SHORT_CUT_S} s (the last second holds part of the recording): {len(short_cut)}; "
+              f"their render's last third under the level at the cut: at least 20 dB on "
+              f"{sum(r['tail_drop_third_db'] >= 20 for r in short_cut)} ({drops})")
     gain = np.median([r["lsd_nonoise_db"] for r in rows]) - np.median([r["lsd_db"] for r in rows])
     print(f"LSD median: with noise {np.median([r['lsd_db'] for r in rows]):.2f} dB, without "
           f"{np.median([r['lsd_nonoise_db'] for r in rows]):.2f} dB, improvement {gain:+.2f} dB")
