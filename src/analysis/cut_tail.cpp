@@ -129,10 +129,32 @@ int continue_decays_past_cut(std::span<const cut_part> parts, double cut_s, cons
     return static_cast<int>(plateaus.size());
 }
 
+double fade_slope_db_per_s(double cut_s, const cut_tail_params& params) {
+    assert(params.fade_lengths >= 0.0 && cut_s > 0.0 && params.end_window_s > 0.0);
+    if (params.fade_lengths == 0.0) return 0.0;
+    const double by_length = -60.0 / (params.fade_lengths * cut_s);
+    const double window_s = params.end_window_s;
+    const double from_s = (params.fade_lengths - 1.0) * cut_s - window_s;  // d, past the cut
+    if (from_s < 0.0) return by_length;
+    // P(s) of the header: mean power over the window, dB relative to the level at the cut.
+    const auto mean_power_db = [&](double slope) {
+        const double k = -slope * std::log(10.0) / 10.0;  // power falls as e^(-k t)
+        return slope * from_s + 10.0 * std::log10(-std::expm1(-k * window_s) / (k * window_s));
+    };
+    if (mean_power_db(by_length) <= -params.end_fall_db) return by_length;
+    // P falls monotonically as the slope steepens; -1e6 dB/s is past any window of a microsecond.
+    double slow = by_length, steep = -1e6;
+    for (int i = 0; i < 100 && slow - steep > 1e-9 * -steep; ++i) {
+        const double mid = 0.5 * (slow + steep);
+        (mean_power_db(mid) <= -params.end_fall_db ? steep : slow) = mid;
+    }
+    return steep;
+}
+
 int fade_past_cut(std::span<envelope* const> envs, double cut_s, const cut_tail_params& params) {
     assert(params.fade_lengths >= 0.0 && cut_s > 0.0);
     if (params.fade_lengths == 0.0) return 0;
-    const double fade_db_per_s = -60.0 / (params.fade_lengths * cut_s);
+    const double fade_db_per_s = fade_slope_db_per_s(cut_s, params);
     int changed = 0;
     for (envelope* env : envs) {
         assert(env != nullptr && !env->decay.empty());

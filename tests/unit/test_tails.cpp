@@ -300,18 +300,47 @@ TEST_CASE("real notes: the cut recordings are found cut, their tails fall 20 dB 
     }
 }
 
-TEST_CASE("the fade past a cut: a part slower than T60 = 3 cut lengths takes that T60 after the cut, a faster one "
-          "keeps its own, and a 3x render falls 20 dB by its last second",
+TEST_CASE("real notes cut at 0.55-0.7 s: a 3x render's last second falls 20 dB under the cut", "[tails][real]") {
+    // Short cuts of long recordings (as tools/cut_notes.py makes them): with the 3-length rule
+    // alone these copies fall 11.0-16.2 dB (end_fall_db 0; on 71 cuts at 0.55-0.65 s of the 24
+    // notes of tools/more_notes.py 1.5 s or longer, 62 fell under 20 dB, tools/eval_texture.py on
+    // main 6141141); the end rule (cut_tail_params::end_fall_db) brings every one to 20 dB or more.
+    const char* const files[] = {"banjo_g3.wav", "piano_as4.wav", "rhodes_c3.wav", "bass_ds2.wav"};
+    const double length_s = GENERATE(0.55, 0.6, 0.7);
+    for (const char* file : files) {
+        const mono_audio a = read_audio(std::string(WANE_TEST_DATA_DIR) + "/real-notes/" + file);
+        const auto frames = static_cast<std::size_t>(length_s * a.sample_rate_hz);
+        const analysis_result r = analyze_note(std::span(a.samples).first(frames), a.sample_rate_hz, analysis_params{});
+        const patch& p = r.value;
+        INFO(file << " cut at " << length_s << " s");
+        REQUIRE(p.source.cut_s.has_value());
+        const double cut_s = *p.source.cut_s;
+        const auto y = render_patch(p, {.sample_rate_hz = a.sample_rate_hz, .length_s = 3.0 * cut_s});
+        const double drop_db = rms_db(y, a.sample_rate_hz, cut_s - 0.1, cut_s) -
+                               rms_db(y, a.sample_rate_hz, 3.0 * cut_s - 1.0, 3.0 * cut_s - 0.02);  // before the end fade
+        CAPTURE(cut_s, drop_db);
+        CHECK(drop_db >= 20.0);  // issue 16's measure
+    }
+}
+
+TEST_CASE("the fade past a cut: a part slower than T60 = 3 cut lengths (or, cut under 0.8 s, the fade that "
+          "brings a 3x render's last second 21 dB under the cut) takes it after the cut, a faster one keeps "
+          "its own, and a 3x render falls 20 dB by its last second",
           "[tails]") {
-    const double cut_s = GENERATE(0.8, 1.1, 2.0, 4.0);
-    const double fade_t60_s = 3.0 * cut_s;  // cut_tail_params::fade_lengths, by its definition
-    // A held partial, a slowly falling one (T60 40 s), a rising one, a fast one (T60 0.5 s) and a
+    const double cut_s = GENERATE(0.51, 0.55, 0.6, 0.7, 0.8, 1.1, 2.0, 4.0);
+    // cut_tail_params::fade_lengths (3), by its definition; under 0.8 s the end_fall_db rule is
+    // steeper (checked below by the render: the drop lands at 21 dB, not more).
+    const bool by_length = cut_s >= 0.8;
+    const double fade_t60_s = slope_db_per_s_to_t60(fade_slope_db_per_s(cut_s));
+    if (by_length) CHECK_THAT(fade_t60_s, WithinRel(3.0 * cut_s, 1e-12));
+    else CHECK(fade_t60_s < 3.0 * cut_s);
+    // A held partial, a slowly falling one (T60 40 s), a rising one, a fast one (T60 0.2 s) and a
     // band whose last segment starts after the cut (one the rules before the fade appended).
     envelope held{.attack_s = 0.0, .peak = level_db{-10.0}, .decay = {{.t60_s = infinity, .until_s = {}}}};
     envelope slow{.attack_s = 0.0, .peak = level_db{-12.0},
                   .decay = {{.t60_s = 0.5, .until_s = 0.2}, {.t60_s = 40.0, .until_s = {}}}};
     envelope rising{.attack_s = 0.0, .peak = level_db{-30.0}, .decay = {{.t60_s = -20.0, .until_s = {}}}};
-    envelope fast{.attack_s = 0.0, .peak = level_db{-6.0}, .decay = {{.t60_s = 0.5, .until_s = {}}}};
+    envelope fast{.attack_s = 0.0, .peak = level_db{-6.0}, .decay = {{.t60_s = 0.2, .until_s = {}}}};
     envelope appended{.attack_s = 0.0, .peak = level_db{-40.0},
                       .decay = {{.t60_s = infinity, .until_s = cut_s}, {.t60_s = 50.0, .until_s = {}}}};
     envelope* const envs[] = {&held, &slow, &rising, &fast, &appended};
@@ -326,7 +355,7 @@ TEST_CASE("the fade past a cut: a part slower than T60 = 3 cut lengths takes tha
     }
     CHECK(slow.decay[1].t60_s == 40.0);
     CHECK(fast.decay.size() == 1);
-    CHECK(fast.decay.back().t60_s == 0.5);
+    CHECK(fast.decay.back().t60_s == 0.2);
     REQUIRE(appended.decay.size() == 2);  // its last segment starts at the cut: only its T60 changes
     CHECK_THAT(appended.decay.back().t60_s, WithinRel(fade_t60_s, 1e-12));
     // The claim of cut_tail_params::fade_lengths: a 3x render's last second is 20 dB or more under
@@ -336,8 +365,12 @@ TEST_CASE("the fade past a cut: a part slower than T60 = 3 cut lengths takes tha
     p.partials.push_back({.freq_hz = 440.0, .harmonic = 1, .phase_rad = 0.0, .env = held});
     const auto y = render_patch(p, {.sample_rate_hz = rate_hz, .length_s = 3.0 * cut_s});
     const double drop_db = rms_db(y, rate_hz, cut_s - 0.1, cut_s) - rms_db(y, rate_hz, 3.0 * cut_s - 1.0, 3.0 * cut_s - 0.02);
-    CAPTURE(cut_s, drop_db);
+    CAPTURE(cut_s, fade_t60_s, drop_db);
     CHECK(drop_db >= 20.0);
+    // Where the end rule sets the slope, its mean-power formula against this render: 21 dB over
+    // the window [3 cut - 1, 3 cut]; the render's window stops 20 ms short (the end fade), which
+    // leaves out the quietest part: up to 0.1 dB less.
+    if (!by_length) CHECK_THAT(drop_db, WithinAbs(21.0, 0.15));
 }
 
 TEST_CASE("sound length: the exact time every part falls below the peak less the stated dB", "[tails][render]") {
