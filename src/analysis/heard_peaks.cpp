@@ -7,6 +7,7 @@
 #include <optional>
 #include <vector>
 
+#include "analysis/span_peaks.hpp"
 #include "core/cosine_walk.hpp"
 #include "core/units.hpp"
 #include "modes/narrowband.hpp"
@@ -60,26 +61,6 @@ double span_amplitude(const partial_track& track, const span_spectrum& s) {
         wsum += w;
     }
     return wsum > 0.0 ? sum / wsum : 0.0;
-}
-
-/// Index of the strongest local maximum of s.mag within [low_hz, high_hz]; 0 when there is none.
-std::size_t strongest_peak(const span_spectrum& s, double low_hz, double high_hz) {
-    const auto last = s.mag.size() - 1;
-    const auto lo = std::clamp<std::size_t>(static_cast<std::size_t>(std::ceil(low_hz / s.bin_hz)), 1, last - 1);
-    const auto hi = std::clamp<std::size_t>(static_cast<std::size_t>(std::floor(high_hz / s.bin_hz)), 1, last - 1);
-    std::size_t best = 0;
-    for (std::size_t k = lo; k <= hi; ++k)
-        if (s.mag[k] > s.mag[k - 1] && s.mag[k] >= s.mag[k + 1] && (best == 0 || s.mag[k] > s.mag[best])) best = k;
-    return best;
-}
-
-/// Frequency of the peak at bin k: vertex of the parabola through the log magnitudes of k - 1, k,
-/// k + 1 (with zero padding of 8 or more the bias is far below a hundredth of a bin).
-double peak_freq_hz(const span_spectrum& s, std::size_t k) {
-    const double a = std::log(s.mag[k - 1]), b = std::log(s.mag[k]), c = std::log(s.mag[k + 1]);
-    const double den = a - 2.0 * b + c;
-    const double offset = den < 0.0 ? 0.5 * (a - c) / den : 0.0;
-    return (static_cast<double>(k) + offset) * s.bin_hz;
 }
 
 /// Phase at t = 0 for freq_hz: phase - 2 pi f t averaged on the circle (amplitude weights) over
@@ -173,7 +154,8 @@ int move_to_heard_peaks(patch& p, std::span<const partial_track* const> tracks, 
         if (!alone) continue;
         const std::size_t k = strongest_peak(s, f - reach_hz, f + reach_hz);
         if (k == 0 || std::abs(20.0 * std::log10(s.mag[k] / amp[i])) > params.level_gate_db) continue;
-        const double g = peak_freq_hz(s, k);
+        const double g = p.partials[i].harmonic == 1 ? group_centre_hz(s, k, f - reach_hz, f + reach_hz, params.group_within_db)
+                                                     : peak_freq_hz(s, k);
         if (std::abs(g - f) > reach_hz) continue;
         partial& q = p.partials[i];
         q.freq_hz = g;

@@ -210,6 +210,23 @@ double peak_matching_gain_db(const patch& p, std::span<const float> note, double
     return match_copy_peak(p, note, sample_rate_hz, params).gain_db;
 }
 
+double render_limited_gain_db(const patch& p, double sample_rate_hz, const peak_match_params& params) {
+    patch q = p;  // as the file keeps it, with its gain
+    patch_numbers::round_to_file_precision(q);
+    std::vector<double> rates{default_output_rate_hz};
+    if (sample_rate_hz != default_output_rate_hz && renderable_at(sample_rate_hz)) rates.push_back(sample_rate_hz);
+    float peak = 0.0f;
+    for (const double rate : rates) {
+        for (const std::vector<float>& channel : render_channels(q, {.sample_rate_hz = rate, .noise_seed = params.default_seed}))
+            for (const float v : channel) peak = std::max(peak, std::abs(v));
+    }
+    const double over_db = peak_level_db(peak) + default_render_margin_db;
+    if (!(over_db > 0.0)) return p.note.gain_db;
+    // The file keeps gains to 0.01 dB (core/patch_numbers.hpp, fmt_level): the step at or below.
+    constexpr double gain_step_db = 0.01;
+    return std::floor((q.note.gain_db - over_db) / gain_step_db) * gain_step_db;
+}
+
 void match_peak(patch& p, std::span<const float> note, double sample_rate_hz, const peak_match_params& params) {
     const peak_match_result first = match_copy_peak(p, note, sample_rate_hz, params);
     p.note.gain_db = first.gain_db;

@@ -81,6 +81,16 @@ peak_match_result match_copy_peak(const patch& p, std::span<const float> note, d
 double peak_matching_gain_db(const patch& p, std::span<const float> note, double sample_rate_hz,
                              const peak_match_params& params = {});
 
+/// p's gain, or where its default render or its render at sample_rate_hz (when renderable and not
+/// the default rate), every channel as render_channels makes them and the file keeps p, would
+/// peak within default_render_margin_db of full scale, the gain (at the file's 0.01 dB step)
+/// that keeps them that far under. For a
+/// stereo patch, whose gain comes from each channel's match_copy_peak: those render each channel
+/// as a mono patch with its own noise draw, the stereo render draws the channels' noise with
+/// their coherence, and its peak is another draw's (piano_fs3_stereo with its fundamental's
+/// group centred: +0.04 dBFS, refused).
+double render_limited_gain_db(const patch& p, double sample_rate_hz, const peak_match_params& params = {});
+
 /// Where the default draw alone holds the partials more than max_noise_hold_db under the gain
 /// of the expected peak, every band is turned down by noise_step_db at a time, at most
 /// max_noise_cut_db, until it does not (the partials keep the expected peak's gain).

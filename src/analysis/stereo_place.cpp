@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "analysis/noise_model.hpp"
+#include "analysis/peak_match.hpp"
 #include "core/envelope.hpp"
 #include "core/noise_bands.hpp"
 #include "core/stereo.hpp"
@@ -439,6 +440,7 @@ analysis_result analyze_stereo_note(std::span<const float> mix, std::span<const 
     if (params.match_peak) {
         p.note.gain_db = std::min(peak_matching_gain_db(channel_patch(p, channel_side::left), l, sample_rate_hz),
                                   peak_matching_gain_db(channel_patch(p, channel_side::right), r, sample_rate_hz));
+        p.note.gain_db = render_limited_gain_db(p, sample_rate_hz);  // the stereo render's own draw
     }
     return out;
 }

@@ -198,3 +198,36 @@ TEST_CASE("a quiet default draw still peaks within the allowed miss of the recor
     CHECK(r.gain_db > r.expected_gain_db);
     CHECK(std::abs(default_db - (recording_db - max_default_peak_miss_db)) < 0.001);
 }
+
+TEST_CASE("a stereo copy's gain keeps both channels of its own default render, at 48 kHz and at the source rate, "
+          "0.1 dB under full scale at the file's gain step",
+          "[peak_match][stereo]") {
+    // Two channels drawn with their coherence: the render a stereo patch plays (render_channels),
+    // whose peak the per-channel peak matches never rendered.
+    patch p = string_copy(-0.5, -30.0);
+    p.note.channels = 2;
+    p.partials[0].place.pan = 0.5;  // the right channel 1.8 dB over centre: over full scale
+    for (noise_band& b : p.noise) b.coherence = 0.5;
+    const double source_rate_hz = GENERATE(48000.0, 44100.0, 32000.0);
+    const double gain_db = GENERATE(0.0, -3.0);
+    p.note.gain_db = gain_db;
+    const auto peak_of = [&](const patch& q, double rate_hz) {
+        double m = -infinity;
+        for (const auto& channel : render_channels(q, {.sample_rate_hz = rate_hz, .noise_seed = peak_match_params{}.default_seed}))
+            m = std::max(m, peak_db(channel));
+        return m;
+    };
+    const double before_db = std::max(peak_of(p, 48000.0), peak_of(p, source_rate_hz));
+    const double limited_db = render_limited_gain_db(p, source_rate_hz);
+    patch q = p;
+    q.note.gain_db = limited_db;
+    const double after_db = std::max(peak_of(q, 48000.0), peak_of(q, source_rate_hz));
+    CAPTURE(source_rate_hz, gain_db, before_db, limited_db, after_db);
+    if (before_db <= -default_render_margin_db) {
+        CHECK(limited_db == gain_db);  // under the margin: left as it is
+    } else {
+        CHECK(after_db <= -default_render_margin_db);
+        CHECK(after_db > -default_render_margin_db - 0.01 - 1e-3);  // not lower than the 0.01 dB step needs
+    }
+    CHECK((gain_db == 0.0) == (before_db > -default_render_margin_db));  // the sweep has both cases
+}
