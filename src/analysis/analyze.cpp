@@ -205,6 +205,7 @@ void refine_start(analysis_result& out, std::span<const float> note, double samp
 void glides_and_modes(analysis_result& out, std::span<const float> part, double sample_rate_hz,
                       const analysis_params& params, const auto& done) {
     if (params.fit_glides) out.summary.glides = glides_from_onset(out, part, sample_rate_hz, params.glides);
+    if (params.fit_glides && params.fit_slow_glides) out.summary.glides += glides_from_onset(out, part, sample_rate_hz, params.slow_glides);
     done("onset glides");
     if (params.split_modes) split_strong_partials(out, part, sample_rate_hz, params.modes);
     const auto start = static_cast<std::size_t>(std::llround(out.tracking.onset_s * sample_rate_hz));

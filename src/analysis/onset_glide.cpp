@@ -296,9 +296,13 @@ onset_glide_summary fit_onset_glides(patch& p, std::span<const float> note, doub
     std::vector<double> y(count);       // each partial's target, the buffers reused
     heterodyned z;
     for (const std::size_t k : order) {
-        if (start_db(k) < strongest_db - params.range_db || tried_short_lived == params.max_short_lived_partials) break;
+        if (start_db(k) < strongest_db - params.range_db ||
+            (tried == params.max_partials && tried_short_lived == params.max_short_lived_partials)) {
+            break;
+        }
         partial& q = p.partials[k];
         if (q.glide_cents != 0.0 || q.freq_hz < params.min_freq_hz || q.freq_hz >= 0.5 * sample_rate_hz) continue;
+        if (params.lasting_only && is_short_lived(q, params)) continue;
         const bool past_strongest = tried == params.max_partials;
         if (!past_strongest) {
             ++tried;

@@ -119,6 +119,8 @@ struct onset_glide_params {
     double early_s = 0.01;
     double max_early_rise = 0.0;
     std::size_t early_checked_after = 8;
+    /// Leave short-lived partials out (analysis_params::slow_glides: a pass for lasting partials).
+    bool lasting_only = false;
 };
 
 struct onset_glide_summary {
