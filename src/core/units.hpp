@@ -30,15 +30,20 @@ struct amp_lin {
     friend constexpr auto operator<=>(amp_lin, amp_lin) = default;
 };
 
-/// amplitude = 10^(dB / 20); -inf dB gives 0.
-inline amp_lin to_amp(level_db l) { return amp_lin{std::pow(10.0, l.db / 20.0)}; }
+/// Nepers of amplitude per dB, ln(10) / 20, and of power, ln(10) / 10.
+inline constexpr double amp_neper_per_db = std::numbers::ln10 / 20.0;
+inline constexpr double power_neper_per_db = std::numbers::ln10 / 10.0;
+
+/// amplitude = 10^(dB / 20) = e^(dB ln(10) / 20); -inf dB gives 0. By std::exp, not std::pow:
+/// a third of pow's cost in glibc, within a few ulps of it (0.5 per nepers unit of the argument).
+inline amp_lin to_amp(level_db l) { return amp_lin{std::exp(l.db * amp_neper_per_db)}; }
 /// dB = 20 log10(amplitude); 0 gives -inf dB.
 inline level_db to_level(amp_lin a) { return level_db{20.0 * std::log10(a.lin)}; }
 
 /// Power ratio to dB: 10 log10(p).
 inline double power_to_db(double power) { return 10.0 * std::log10(power); }
-/// Power (mean square) ratio of a level in dB: 10^(db / 10).
-inline double db_to_power(double db) { return std::pow(10.0, db / 10.0); }
+/// Power (mean square) ratio of a level in dB: 10^(db / 10) = e^(db ln(10) / 10) (as to_amp).
+inline double db_to_power(double db) { return std::exp(db * power_neper_per_db); }
 
 /// T60 in seconds to the slope of the level line in dB per second (-60 / T60).
 /// T60 = inf holds the level (slope 0); a negative T60 rises at 60 / |T60| dB/s.

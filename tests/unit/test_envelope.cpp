@@ -2,8 +2,10 @@
 #include <catch2/catch.hpp>
 
 #include <cmath>
+#include <numbers>
 
 #include "core/envelope.hpp"
+#include "core/units.hpp"
 
 using Catch::Matchers::WithinAbs;
 using namespace wane;
@@ -58,4 +60,27 @@ TEST_CASE("held_before leaves a rise past the time given, and a level that does 
     CHECK(held_before(slow_rise, 0.1) == slow_rise);
     const envelope rising{.attack_s = 0.0, .peak = level_db{-30.0}, .decay = {{.t60_s = -1.0, .until_s = 0.5}, {.t60_s = 3.0, .until_s = {}}}};
     CHECK(held_before(rising, 0.2) == rising);
+}
+
+TEST_CASE("to_amp and db_to_power are 10^(dB / 20) and 10^(dB / 10) to the rounding of their argument, -400..+40 dB", "[envelope][units]") {
+    // The reference: powl in long double (64-bit mantissa, the quotient dB / 20 rounded 11 bits
+    // finer than in double). The double result e^x, x = dB ln(10) / 20 (or / 10) in nepers, is off
+    // by the rounding of x (|x| 2^-53 relative, twice: the constant and the product) and exp's own
+    // half ulp: a relative error under (|x| + 1) 2^-52. (pow(10, dB / 20), the earlier form, errs
+    // by the same amount: dB / 20 is rounded too.)
+    const double db = GENERATE(range(-400.0, 40.0, 0.37));
+    const auto rel_error = [](double got, long double want) {
+        return static_cast<double>(std::fabs(static_cast<long double>(got) - want) / want);
+    };
+    const double eps = std::ldexp(1.0, -52);
+    const long double amp = std::pow(10.0L, static_cast<long double>(db) / 20.0L);
+    const long double power = std::pow(10.0L, static_cast<long double>(db) / 10.0L);
+    const double amp_nepers = std::abs(db) * std::numbers::ln10 / 20.0;
+    CAPTURE(db, to_amp(level_db{db}).lin, db_to_power(db), rel_error(to_amp(level_db{db}).lin, amp), rel_error(db_to_power(db), power));
+    CHECK(rel_error(to_amp(level_db{db}).lin, amp) <= (amp_nepers + 1.0) * eps);
+    CHECK(rel_error(db_to_power(db), power) <= (2.0 * amp_nepers + 1.0) * eps);
+    CHECK(to_amp(level_db{0.0}).lin == 1.0);
+    CHECK(db_to_power(0.0) == 1.0);
+    CHECK(to_amp(level_db{-INFINITY}).lin == 0.0);
+    CHECK(db_to_power(-INFINITY) == 0.0);
 }

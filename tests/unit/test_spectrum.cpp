@@ -157,6 +157,24 @@ TEST_CASE("make_window's taps are window_value's cosine sum rounded to float, ta
     }
 }
 
+TEST_CASE("make_window asked again for a window, after other windows in between, gives window_value's taps", "[spectrum][window]") {
+    // make_window keeps the last few windows of the thread: the window asked again is found there
+    // or (after more windows than it keeps) made anew. Either way its taps are the plain cosine
+    // sums rounded to float, and changing a copy leaves the next one whole.
+    const int between = GENERATE(0, 1, 7, 8, 9, 20);
+    const int n = 2617;
+    auto first = make_window(window_kind::blackman_harris_4, n, window_symmetry::symmetric);
+    first.front() = 1.0F;  // a caller's change of its copy
+    for (int k = 0; k < between; ++k) (void)make_window(window_kind::hann, 101 + 2 * k, window_symmetry::periodic);
+    const auto again = make_window(window_kind::blackman_harris_4, n, window_symmetry::symmetric);
+    REQUIRE(again.size() == static_cast<std::size_t>(n));
+    std::size_t differ = 0;
+    for (int i = 0; i < n; ++i)
+        if (again[static_cast<std::size_t>(i)] != static_cast<float>(window_value(window_kind::blackman_harris_4, i / (n - 1.0)))) ++differ;
+    CAPTURE(between, again.front());
+    CHECK(differ == 0);
+}
+
 TEST_CASE("window figures match the published tables", "[spectrum][window]") {
     struct published {
         window_kind kind;
