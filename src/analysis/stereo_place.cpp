@@ -140,8 +140,7 @@ bool place_partial(partial& q, cplx left, cplx right, double reference_s) {
     return true;
 }
 
-/// One span's channel fit, its midpoint (s) and whether it was made (the note may end before it).
-struct drift_span {
+struct drift_span {  ///< one span's midpoint (s) and channel fits (none where the note ends before it)
     double mid_s = 0.0;
     std::optional<std::pair<channel_fit, channel_fit>> fit;
 };
@@ -161,8 +160,7 @@ void place_over_spans(partial& q, const partial& mix, const std::vector<drift_sp
         const double a = envelope_amp(mix.env, sp.mid_s).lin;
         points.push_back({.time_s = sp.mid_s, .left_amp = l * a, .right_amp = r * a});
     }
-    // Neither channel may stop falling: the spread is bounded by the last segment's fall.
-    const double bound_db_per_s = std::max(0.0, 60.0 / q.env.decay.back().t60_s);
+    const double bound_db_per_s = std::max(0.0, 60.0 / q.env.decay.back().t60_s);  // neither channel may rise
     if (const auto d = drift_of_spans(points, params.fit_span_s, q.env.attack_s, bound_db_per_s, params.drift))
         q.place = {.pan = d->pan, .delay_us = q.place.delay_us, .spread_db_per_s = d->spread_db_per_s};
 }
