@@ -140,22 +140,29 @@ bool place_partial(partial& q, cplx left, cplx right, double reference_s) {
     return true;
 }
 
-/// Right-minus-left level difference (dB) of two channel ratios.
-double level_difference_db(cplx left, cplx right) { return 20.0 * std::log10(std::abs(right) / std::abs(left)); }
+struct drift_span {  ///< one span's midpoint (s) and channel fits (none where the note ends before it)
+    double mid_s = 0.0;
+    std::optional<std::pair<channel_fit, channel_fit>> fit;
+};
 
-/// The spread of a partial from its channel ratios at two span midpoints (see stereo_place.hpp);
-/// 0 unless the difference moves clearly. Bounded so neither channel stops falling faster than
-/// half the partial's last segment.
-double partial_spread(const partial& q, cplx l0, cplx r0, cplx l1, cplx r1, double dt_s, const stereo_place_params& params) {
+/// Partial k's place over the note from the spans where it sounds: its mix envelope within audible_db
+/// of its first span's level, neither channel 60 dB under the other (mix: the partial as fitted on the mix).
+void place_over_spans(partial& q, const partial& mix, const std::vector<drift_span>& spans, std::size_t k,
+                      const stereo_place_params& params) {
     constexpr double min_ratio = 1e-3;  // a channel 60 dB under the other: no level difference to follow
-    for (const cplx c : {l0, r0, l1, r1})
-        if (!(std::abs(c) > min_ratio * std::max({std::abs(l0), std::abs(r0), std::abs(l1), std::abs(r1)}))) return 0.0;
-    const double move_db = level_difference_db(l1, r1) - level_difference_db(l0, r0);
-    const double rate = move_db / dt_s;
-    if (std::abs(move_db) < params.min_spread_db || std::abs(rate) < params.min_spread_db_per_s) return 0.0;
-    const double last_fall = -60.0 / q.env.decay.back().t60_s;  // dB/s, <= 0 when falling
-    const double bound = std::max(0.0, -last_fall);
-    return std::clamp(rate, -bound, bound);
+    const double top_db = envelope_level(mix.env, spans.front().mid_s).db;
+    std::vector<channel_amplitudes> points;  // the spans' channel amplitudes (analysis/stereo_drift.hpp)
+    for (const drift_span& sp : spans) {
+        if (!sp.fit || envelope_level(mix.env, sp.mid_s).db < top_db - params.audible_db) continue;
+        const double l = std::abs(sp.fit->first.ratio[k]);
+        const double r = std::abs(sp.fit->second.ratio[k]);
+        if (!(l > min_ratio * r && r > min_ratio * l)) continue;
+        const double a = envelope_amp(mix.env, sp.mid_s).lin;
+        points.push_back({.time_s = sp.mid_s, .left_amp = l * a, .right_amp = r * a});
+    }
+    const double bound_db_per_s = std::max(0.0, 60.0 / q.env.decay.back().t60_s);  // neither channel may rise
+    if (const auto d = drift_of_spans(points, params.fit_span_s, q.env.attack_s, bound_db_per_s, params.drift))
+        q.place = {.pan = d->pan, .delay_us = q.place.delay_us, .spread_db_per_s = d->spread_db_per_s};
 }
 
 /// Channel residual (channel minus its own partials) over the first n frames. The channel's
@@ -369,8 +376,13 @@ void place_stereo(patch& p, std::span<const float> left, std::span<const float> 
     };
     const auto early = fit_at(0.0, params.min_shape_in_span);
     const auto late = fit_at(params.late_start_s, params.min_shape_in_span);
-    const auto spread = fit_at(params.spread_start_s, 0.0);
-    const double spread_dt_s = params.spread_start_s;  // between the two spans' midpoints
+    std::vector<drift_span> spans;  // every drift_step_s from the onset (the ratios do not depend on min_shape)
+    for (int j = 0; j < params.drift_spans; ++j) {
+        const double t0_s = j * params.drift_step_s;
+        spans.push_back({t0_s + params.fit_span_s / 2.0,
+                         j == 0 ? early : t0_s == params.late_start_s ? late : fit_at(t0_s, 0.0)});
+        if (!spans.back().fit) break;
+    }
     std::vector<bool> was_placed(p.partials.size(), false);
     const std::vector<partial> mixes = p.partials;
     for (std::size_t k = 0; k < p.partials.size(); ++k) {
@@ -386,17 +398,7 @@ void place_stereo(patch& p, std::span<const float> left, std::span<const float> 
             continue;
         }
         was_placed[k] = true;
-        if (early && early->first.usable[k] && spread && spread->first.usable[k]) {
-            const double s = partial_spread(q, early->first.ratio[k], early->second.ratio[k], spread->first.ratio[k],
-                                            spread->second.ratio[k], spread_dt_s, params);
-            if (s != 0.0) {
-                // The pan holds at the attack's end; the early span's difference is at its midpoint.
-                const double mid_s = params.fit_span_s / 2.0;
-                const double diff0 = pan_level_difference_db(q.place.pan) - s * (mid_s - q.env.attack_s);
-                q.place.pan = pan_of_level_difference(diff0);
-                q.place.spread_db_per_s = s;
-            }
-        }
+        if (early && early->first.usable[k]) place_over_spans(q, mixes[k], spans, k, params);
     }
     follow_placed_neighbours(p, mixes, was_placed, 1.0 / params.fit_span_s);
     place_noise(p, left, right, sample_rate_hz, reference_s, params);

@@ -14,9 +14,12 @@
 // below min_shape_in_span of their peak) get their place from a later span
 // [late_start_s, late_start_s + fit_span_s] where they sound, else stay centred.
 //
-// Per-channel decay: the same fit on a later span (spread_start_s) gives each channel's level
-// again; a partial whose right-minus-left level difference moves by at least min_spread_db between
-// the two spans, at a rate of at least min_spread_db_per_s, gets that rate as spread_db_per_s.
+// Over the note: the same fit on a span every drift_step_s (up to drift_spans of them) gives each
+// channel's level of a partial placed on the first span again; its pan follows the channels'
+// energies over the first second and its spread (a level difference moving at a steady rate) is
+// kept only where a line through all the spans where it sounds explains them
+// (analysis/stereo_drift.hpp). Two spans' difference, extended to the end of the note, made a
+// beating partial's swing a drift of tens of dB.
 //
 // Noise bands: the residual of each channel (the channel minus its own partials, which start when
 // the channel's sound arrives: the broadband delay) is measured in the noise bands over the first
@@ -35,6 +38,7 @@
 
 #include "analysis/analyze.hpp"
 #include "analysis/noise_model.hpp"
+#include "analysis/stereo_drift.hpp"
 #include "core/patch.hpp"
 
 namespace wane {
@@ -43,9 +47,10 @@ struct stereo_place_params {
     double fit_span_s = 0.15;
     double min_shape_in_span = 0.5;
     double late_start_s = 0.3;
-    double spread_start_s = 0.8;
-    double min_spread_db = 3.0;
-    double min_spread_db_per_s = 1.0;
+    double drift_step_s = 0.3;   ///< spans for the pan and spread start every this many seconds
+    int drift_spans = 12;        ///< at most this many (3.45 s of note)
+    double audible_db = 40.0;    ///< a span counts while the partial is within this of its first span's level
+    drift_params drift{};
     double reference_span_s = 0.05;
     double max_reference_delay_s = 0.003;
     double noise_span_s = 1.0;
