@@ -41,6 +41,10 @@ std::vector<damped_mode> lasting_modes(std::span<const damped_mode> candidates, 
 /// f is far from 0 Hz). The window keeps the partials two resolution cells away out of it.
 std::complex<double> windowed_amplitude(std::span<const float> note, double sample_rate_hz, const damped_mode& m,
                                         std::size_t first, std::size_t count);
+/// The same with the window given (spectrum/window.hpp: make_window(hann, count, symmetric), zero
+/// at both ends), made once for many modes.
+std::complex<double> windowed_amplitude(std::span<const float> note, double sample_rate_hz, const damped_mode& m,
+                                        std::size_t first, std::span<const float> window);
 
 /// The candidates found again on the shorter span (stable): within stable_freq_cells cells of
 /// cluster_hz and stable_decay_rel of their decay.
