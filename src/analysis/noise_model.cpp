@@ -11,6 +11,7 @@
 #include "analysis/burst_fit.hpp"
 #include "analysis/floor_onset.hpp"
 #include "analysis/noise_measure.hpp"
+#include "core/envelope.hpp"
 #include "core/noise_bands.hpp"
 #include "spectrum/stft.hpp"
 #include "synthesis/render.hpp"
@@ -284,7 +285,7 @@ std::vector<noise_band> fit_note_noise(std::span<const float> note, double sampl
     std::vector<double> freqs_hz;
     double loudest_db = -infinity;
     for (const partial& q : p.partials) {
-        freqs_hz.push_back(q.freq_hz);
+        if (envelope_level(q.env, params.short_partial_s).db >= q.env.peak.db - 60.0) freqs_hz.push_back(q.freq_hz);
         loudest_db = std::max(loudest_db, q.env.peak.db);
     }
     const render_params render{.sample_rate_hz = sample_rate_hz,
