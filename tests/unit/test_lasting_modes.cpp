@@ -64,8 +64,8 @@ TEST_CASE("a new mode whose T60 exceeds max_new_t60_s is kept only where the rec
     const std::vector<damped_mode> candidates{pole(700.0, 0.35), pole(1310.0, 0.35), pole(2050.0, 0.10)};
     const auto n = static_cast<std::size_t>(span_s * fs);
     const std::vector<damped_mode> kept = lasting_modes(candidates, x, fs, n, params);
-    std::vector<double> kept_hz;
-    for (const damped_mode& m : kept) kept_hz.push_back(m.freq_hz);
+    std::vector<double> kept_hz(kept.size());
+    for (std::size_t i = 0; i < kept.size(); ++i) kept_hz[i] = kept[i].freq_hz;
     CAPTURE(kept_hz, params.max_new_t60_s, params.max_lasting_t60_s, params.lasting_tolerance_db);
     REQUIRE(kept.size() == 2);
     CHECK(kept[0].freq_hz == 700.0);
