@@ -7,6 +7,7 @@
 #include "core/units.hpp"
 #include "modes/mode_residual.hpp"
 #include "modes/narrowband.hpp"
+#include "spectrum/window.hpp"
 
 namespace wane {
 
@@ -16,12 +17,53 @@ std::vector<damped_mode> new_mode_candidates(const patch& p, std::span<const dam
     std::vector<damped_mode> out;
     for (std::size_t j = 0; j < found.size(); ++j) {
         const double d = found[j].decay_per_s;
-        if (taken[j] || d <= 0.0 || ln1000 / d < params.min_new_t60_s || ln1000 / d > params.max_new_t60_s) continue;
+        if (taken[j] || d <= 0.0 || ln1000 / d < params.min_new_t60_s || ln1000 / d > params.max_lasting_t60_s) continue;
         if (pi * found[j].freq_hz / d < params.min_new_q) continue;
         const bool near_partial = std::any_of(p.partials.begin(), p.partials.end(), [&](const partial& q) {
             return std::abs(q.freq_hz - found[j].freq_hz) < params.new_mode_clearance_cells * cluster_hz;
         });
         if (!near_partial) out.push_back(found[j]);
+    }
+    return out;
+}
+
+std::complex<double> windowed_amplitude(std::span<const float> note, double sample_rate_hz, const damped_mode& m,
+                                        std::size_t first, std::span<const float> window) {
+    const std::size_t count = window.size();
+    assert(sample_rate_hz > 0.0 && first + count <= note.size() && count > 1);
+    // conj(z)^n walked by one product a sample, exact every 256th.
+    const std::complex<double> s{-m.decay_per_s, -two_pi * m.freq_hz};
+    const std::complex<double> step = std::exp(s / sample_rate_hz);
+    std::complex<double> along{}, z_n{};
+    double weight = 0.0;
+    for (std::size_t k = 0; k < count; ++k) {
+        z_n = k % 256 == 0 ? std::exp(s * (static_cast<double>(first + k) / sample_rate_hz)) : z_n * step;
+        along += double(window[k]) * double(note[first + k]) * z_n;
+        weight += double(window[k]) * std::norm(z_n);
+    }
+    return weight > 0.0 ? 2.0 * along / weight : std::complex<double>{};
+}
+
+std::complex<double> windowed_amplitude(std::span<const float> note, double sample_rate_hz, const damped_mode& m,
+                                        std::size_t first, std::size_t count) {
+    return windowed_amplitude(note, sample_rate_hz, m, first, make_window(window_kind::hann, static_cast<int>(count), window_symmetry::symmetric));
+}
+
+std::vector<damped_mode> lasting_modes(std::span<const damped_mode> candidates, std::span<const float> note,
+                                       double sample_rate_hz, std::size_t span_n, const onset_refine_params& params) {
+    std::vector<damped_mode> out;
+    const double floor_ratio = std::pow(10.0, -params.lasting_tolerance_db / 20.0);
+    std::vector<float> window;  // made for the first long candidate
+    for (const damped_mode& c : candidates) {
+        if (ln1000 / c.decay_per_s <= params.max_new_t60_s) {
+            out.push_back(c);
+            continue;
+        }
+        if (note.size() < 2 * span_n || span_n < 2) continue;
+        if (window.empty()) window = make_window(window_kind::hann, static_cast<int>(span_n), window_symmetry::symmetric);
+        const double early = std::abs(windowed_amplitude(note, sample_rate_hz, c, 0, window));
+        const double late = std::abs(windowed_amplitude(note, sample_rate_hz, c, span_n, window));
+        if (early > 0.0 && late >= floor_ratio * early) out.push_back(c);
     }
     return out;
 }

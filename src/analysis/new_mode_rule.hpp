@@ -7,6 +7,7 @@
 // test does not depend on a neighbour's phase.
 #pragma once
 
+#include <complex>
 #include <cstddef>
 #include <span>
 #include <vector>
@@ -20,10 +21,30 @@ namespace wane {
 
 /// Candidate new modes among found: not taken by a partial, clear of every partial (by
 /// new_mode_clearance_cells of cluster_hz), decaying, with a T60 in [min_new_t60_s,
-/// max_new_t60_s] and a quality factor pi f / d of at least min_new_q.
+/// max_lasting_t60_s] and a quality factor pi f / d of at least min_new_q.
 std::vector<damped_mode> new_mode_candidates(const patch& p, std::span<const damped_mode> found,
                                              const std::vector<bool>& taken, double cluster_hz,
                                              const onset_refine_params& params);
+
+/// Candidate new modes whose T60 lies over max_new_t60_s (up to max_lasting_t60_s, chosen by
+/// new_mode_candidates) that note (x[0] at the onset, at least 2 span_n samples) shows lasting: the
+/// mode's amplitude estimated on [span_n, 2 span_n), along its own decay from n = 0, is within
+/// lasting_tolerance_db under the one estimated on [0, span_n) (windowed_amplitude). The shorter-
+/// lived candidates pass as they are. Poles that fit a burst of noise on the span find nothing
+/// after it; a mode that dies faster than its pole says would ring on in the copy.
+std::vector<damped_mode> lasting_modes(std::span<const damped_mode> candidates, std::span<const float> note,
+                                       double sample_rate_hz, std::size_t span_n, const onset_refine_params& params);
+
+/// The complex amplitude A of the mode Re(A z^n), z = exp((-d + i 2 pi f) / fs), n counted from
+/// note[0], estimated on note[first, first + count) by its Hann-windowed projection:
+/// 2 sum w[k] x[n] conj(z^n) / sum w[k] |z^n|^2, n = first + k (the mode's conjugate half left out:
+/// f is far from 0 Hz). The window keeps the partials two resolution cells away out of it.
+std::complex<double> windowed_amplitude(std::span<const float> note, double sample_rate_hz, const damped_mode& m,
+                                        std::size_t first, std::size_t count);
+/// The same with the window given (spectrum/window.hpp: make_window(hann, count, symmetric), zero
+/// at both ends), made once for many modes.
+std::complex<double> windowed_amplitude(std::span<const float> note, double sample_rate_hz, const damped_mode& m,
+                                        std::size_t first, std::span<const float> window);
 
 /// The candidates found again on the shorter span (stable): within stable_freq_cells cells of
 /// cluster_hz and stable_decay_rel of their decay.

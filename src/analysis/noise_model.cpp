@@ -11,6 +11,7 @@
 #include "analysis/burst_fit.hpp"
 #include "analysis/floor_onset.hpp"
 #include "analysis/noise_measure.hpp"
+#include "core/envelope.hpp"
 #include "core/noise_bands.hpp"
 #include "spectrum/stft.hpp"
 #include "synthesis/render.hpp"
@@ -283,8 +284,9 @@ std::vector<noise_band> fit_note_noise(std::span<const float> note, double sampl
                                          std::max(params.min_floor_window_s, params.max_floor_window_share * length_s));
     std::vector<double> freqs_hz;
     double loudest_db = -infinity;
+    const double short_by_s = std::min(params.short_partial_s, params.short_partial_share * length_s);
     for (const partial& q : p.partials) {
-        freqs_hz.push_back(q.freq_hz);
+        if (envelope_level(q.env, short_by_s).db >= q.env.peak.db - 60.0) freqs_hz.push_back(q.freq_hz);
         loudest_db = std::max(loudest_db, q.env.peak.db);
     }
     const render_params render{.sample_rate_hz = sample_rate_hz,

@@ -65,6 +65,13 @@ struct noise_model_params {
     double max_floor_window_share = 0.25;
     /// Bins this close to a partial (in window main-lobe half-widths) are left out of a band.
     double partial_guard_lobes = 1.25;
+    /// ... a partial that lasts: one whose envelope has fallen 60 dB under its peak by this time,
+    /// or by this share of the note's length if that comes first (the onset fit's short-lived
+    /// modes; a 0.21 s clavinet note's partials all fall within 0.5 s), guards no bins and counts
+    /// as no partial inside a band: a short mode's bins were left out of the whole note's floor,
+    /// so a band holding a few lost its own bins and borrowed other bands' (fit_note_noise).
+    double short_partial_s = 0.5;
+    double short_partial_share = 0.25;
     /// A band with fewer free bins takes this many free bins nearest its centre (log frequency).
     int min_free_bins = 5;
     /// Attack bands whose fitted peak is further than this below the loudest partial are dropped

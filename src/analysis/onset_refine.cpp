@@ -379,7 +379,7 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
     std::vector<role> roles = initial_roles(p, sample_rate_hz, cluster_hz, params);
     std::vector<bool> taken(found.size(), false);
     const std::vector<double> decay = early_decays(p, roles, found, taken, params);
-    const std::vector<damped_mode> candidates = new_mode_candidates(p, found, taken, cluster_hz, params);
+    const auto candidates = lasting_modes(new_mode_candidates(p, found, taken, cluster_hz, params), note, sample_rate_hz, fit_n, params);
     // The stability check of modal analysis: a resonance is found again, at the same frequency and
     // decay, on a shorter span; poles that fit noise move. Only the candidates' bands are searched.
     std::vector<double> near_hz;

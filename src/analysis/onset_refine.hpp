@@ -56,9 +56,16 @@ struct onset_refine_params {
     double stable_span_fraction = 0.6;
     double stable_freq_cells = 0.5;
     double stable_decay_rel = 0.3;
-    /// ... and at most max_new_t60_s: a mode that lives longer is seen by the STFT tracker, and
-    /// poles that fit the attack noise ring on as tones.
+    /// ... and at most max_new_t60_s: poles that fit the attack noise ring on as tones. A mode
+    /// that lives longer, up to max_lasting_t60_s, is kept only where the recording shows it
+    /// lasting (lasting_modes, analysis/new_mode_rule.hpp): the STFT tracker does not keep every
+    /// such mode (a steel guitar's 110 Hz body mode, T60 0.27 s, 20 dB under its strongest
+    /// partial, in tools/more_notes.py's steel_b4).
     double max_new_t60_s = 0.2;
+    double max_lasting_t60_s = 0.5;
+    /// ... lasting: its amplitude measured on the span after the fit span, counted from t = 0
+    /// along its own decay, is no more than this many dB under the one measured on the fit span.
+    double lasting_tolerance_db = 3.0;
     /// A partial whose fitted onset level is this far below its STFT peak rises slowly: it keeps
     /// its fitted attack ramp and only its level (by at most this much) and phase are fitted.
     double slow_rise_db = 6.0;
