@@ -5,6 +5,7 @@
 #include <cmath>
 #include <limits>
 #include <optional>
+#include <utility>
 #include <vector>
 
 #include "core/envelope.hpp"
@@ -93,19 +94,47 @@ double fundamental_hz(std::span<const root_mode> modes, double series_f0_hz, boo
     return from_hint ? series_f0_hz : series_f0_hz * strong_octave(modes, params);
 }
 
+/// A harmonic series the upper modes agree on over a lowest strong mode at f1: modes of
+/// members_from near n f1 (n = 2..upper_series_max_n, within upper_series_search_rel); with at least upper_series_min_members of them, 2 and 3 among them,
+/// their least-squares f = sum n f_n / sum n^2, kept when every member lies within
+/// upper_series_fit_rel of n f and f within upper_series_search_rel of f1. The f a section in
+/// unison or a wandering fundamental is heard at; none for a tuned bar (1 : 4 : 10, 1 : 3 : 6.x),
+/// a bell or a drum head, whose modes are not on 2, 3, 4 times their lowest.
+std::optional<double> upper_series_hz(double f1, std::span<const root_mode> members_from, const root_params& params) {
+    struct member {
+        int n;
+        double freq_hz, weight;
+    };
+    std::vector<member> members;
+    for (int n = 2; n <= params.upper_series_max_n; ++n)
+        if (const auto m = mode_near(members_from, n * f1, params.upper_series_search_rel))
+            members.push_back({n, m->freq_hz, db_to_power(std::isnan(m->heard_db) ? m->level_db : m->heard_db)});
+    const auto has = [&](int n) { return std::any_of(members.begin(), members.end(), [n](const member& m) { return m.n == n; }); };
+    if (static_cast<int>(members.size()) < params.upper_series_min_members || !has(2) || !has(3)) return {};
+    // Weighted least squares of f_n = n f, weights the members' heard power (the louder partials'
+    // frequencies are the better measured).
+    double num = 0.0, den = 0.0;
+    for (const member& m : members) num += m.weight * m.n * m.freq_hz, den += m.weight * m.n * m.n;
+    const double f = num / den;
+    for (const member& m : members)
+        if (std::abs(m.freq_hz / (m.n * f) - 1.0) > params.upper_series_fit_rel) return {};
+    if (std::abs(f / f1 - 1.0) > params.upper_series_search_rel) return {};
+    return f;
+}
+
 double peak_level(const root_mode& m) { return m.level_db; }
 /// The heard level where known, else the peak level.
 double heard_level(const root_mode& m) { return std::isnan(m.heard_db) ? m.level_db : m.heard_db; }
 
-/// The modes (of positive frequency) within strong_below_max_db of the strongest by level_of, by
+/// The modes (of positive frequency) within below_max_db of the strongest by level_of, by
 /// frequency.
-std::vector<root_mode> strong_modes(std::span<const root_mode> modes, const root_params& params,
+std::vector<root_mode> strong_modes(std::span<const root_mode> modes, double below_max_db,
                                     double (*level_of)(const root_mode&)) {
     double max_db = -infinity;
     for (const root_mode& m : modes) max_db = std::max(max_db, level_of(m));
     std::vector<root_mode> strong;
     for (const root_mode& m : modes)
-        if (level_of(m) >= max_db - params.strong_below_max_db && m.freq_hz > 0.0) strong.push_back(m);
+        if (level_of(m) >= max_db - below_max_db && m.freq_hz > 0.0) strong.push_back(m);
     std::sort(strong.begin(), strong.end(), [](auto& a, auto& b) { return a.freq_hz < b.freq_hz; });
     return strong;
 }
@@ -115,14 +144,16 @@ std::vector<root_mode> strong_modes(std::span<const root_mode> modes, const root
 root_estimate find_root(std::span<const root_mode> modes, double series_f0_hz, bool from_hint,
                         const root_params& params) {
     if (modes.empty()) return {};
-    const std::vector<root_mode> strong = strong_modes(modes, params, peak_level);
-    const std::vector<root_mode> heard = strong_modes(modes, params, heard_level);
+    const std::vector<root_mode> strong = strong_modes(modes, params.strong_below_max_db, peak_level);
+    const std::vector<root_mode> heard = strong_modes(modes, params.strong_below_max_db, heard_level);
     if (from_hint && series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, true, params), root_method::f0_hint};
     // A dense wash of modes with no series has no pitch; ratios found in it are chance.
     if (series_f0_hz <= 0.0 && static_cast<int>(strong.size()) > params.unpitched_min_strong_modes) return {};
     if (const auto s = strike_note_hz(strong, params.bell_tolerance_rel)) return {*s, root_method::strike_note};
     if (series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, false, params), root_method::harmonic_series};
     if (heard.empty()) return {};
+    if (const auto f = upper_series_hz(heard.front().freq_hz, strong_modes(modes, params.upper_series_below_db, heard_level), params))
+        return {*f, root_method::harmonic_series};
     return {heard.front().freq_hz, root_method::lowest_mode};
 }
 

@@ -30,6 +30,20 @@ struct root_params {
     double fundamental_below_max_db = 30.0;
     /// Relative tolerance of the bell partial ratios (bells are seldom tuned closer than this).
     double bell_tolerance_rel = 0.025;
+    /// A note without a fitted series whose strong modes above the lowest lie on 2, 3, ... times
+    /// one f (upper_series_hz in root.cpp): pizzicato strings playing in unison (pizz_a3 of
+    /// tools/more_notes.py: a fundamental at 113.7 Hz, 2.6% over the 110.9 Hz its partials 2-4
+    /// agree on, left the tracker without a series). Searched this far (relative) from n times the
+    /// lowest mode, for n up to upper_series_max_n, at least upper_series_min_members of them
+    /// (2 and 3 among them), each within upper_series_fit_rel of the fitted series (the tracker's
+    /// labelling tolerance, tracker_tuning.hpp). Reasoned choices.
+    double upper_series_search_rel = 0.05;
+    int upper_series_max_n = 6;
+    int upper_series_min_members = 3;
+    /// ... the members among the modes within this of the strongest by heard level (the upper
+    /// partials of pizz_e4 sound 20-40 dB under its smeared fundamental group).
+    double upper_series_below_db = 40.0;
+    double upper_series_fit_rel = 0.02;
 };
 
 struct root_estimate {
@@ -50,7 +64,9 @@ struct root_estimate {
 /// 2. a harmonic or stretched series: its fundamental as measured, the strongest partial numbered
 ///    1 when within fundamental_below_max_db of the strongest partial, else series_f0_hz
 ///    (harmonic_series, or f0_hint when the series was started from the user's --f0);
-/// 3. otherwise (tuned bars, timpani, tines): the lowest mode strong by its heard level, the note's
+/// 3. otherwise, where the modes above the lowest strong one (by heard level) lie on 2, 3 and
+///    more times one f (upper_series_* below): that f, the series' fundamental (strings in unison);
+/// 4. otherwise (tuned bars, timpani, tines): the lowest mode strong by its heard level, the note's
 ///    nominal pitch (a tuned bar's nominal pitch is its lowest mode: Fletcher and Rossing 1998,
 ///    ch. 19); strong by the heard level, not the peak, since a mallet's hard strike can put
 ///    short-lived upper modes over the fundamental for a few milliseconds (a glockenspiel's).

@@ -268,3 +268,30 @@ TEST_CASE("analysis: a fundamental of two beating strings within 3 dB of each ot
     CAPTURE(weaker_db, expected_hz, root_hz(p.note), root_method_name(p.note.root.method), p.note.f0_hz);
     CHECK_THAT(cents(root_hz(p.note), expected_hz), WithinAbs(0.0, 2.0));
 }
+
+TEST_CASE("root finder: without a fitted series, a fundamental off the series its upper partials agree on "
+          "(strings in unison) takes that series, and tuned bars and a drum head keep their lowest mode",
+          "[pitch]") {
+    // Exact truth: partials 2..6 at n x 110 Hz, 8-30 dB under a fundamental at 113 Hz (2.7% sharp,
+    // as pizz_a3 of tools/more_notes.py), no series from the tracker: the root is 110 Hz.
+    const double fundamental_hz = GENERATE(113.0, 107.5, 110.0);
+    std::vector<root_mode> strings{{fundamental_hz, -6.0, 0}};
+    for (int n = 2; n <= 6; ++n) strings.push_back({110.0 * n, -14.0 - 4.0 * n, 0});
+    const root_estimate s = find_root(strings, 0.0, false);
+    CAPTURE(fundamental_hz, s.freq_hz);
+    CHECK(s.method == root_method::harmonic_series);
+    CHECK_THAT(s.freq_hz, WithinRel(110.0, 1e-12));
+    // Mode ratios of a marimba bar (1 : 3.9 : 9.2), a xylophone bar (1 : 3 : 6.0), a glockenspiel
+    // bar (1 : 2.71 : 5.15) (Fletcher and Rossing 1998, ch. 19) and a timpani head (1 : 1.50 :
+    // 1.98 : 2.44 : 2.90, the air-loaded membrane, ch. 18; values from memory of that table):
+    // never 2, 3 and a third multiple of the lowest within 2%, so the lowest mode stays the root.
+    const std::vector<std::vector<double>> sets{{1.0, 3.9, 9.2}, {1.0, 3.0, 6.0}, {1.0, 2.71, 5.15}, {1.0, 1.50, 1.98, 2.44, 2.90}};
+    for (const auto& ratios : sets) {
+        std::vector<root_mode> bar;
+        for (std::size_t k = 0; k < ratios.size(); ++k) bar.push_back({220.0 * ratios[k], -6.0 - 3.0 * static_cast<double>(k), 0});
+        const root_estimate b = find_root(bar, 0.0, false);
+        CAPTURE(ratios.size(), ratios[1], b.freq_hz, root_method_name(b.method));
+        CHECK(b.method == root_method::lowest_mode);
+        CHECK(b.freq_hz == 220.0);
+    }
+}
