@@ -121,6 +121,30 @@ std::vector<float> render_one(const patch& p, std::size_t k, double rate_hz, dou
     return y;
 }
 
+/// A note of parts (noise at noise_lin, seed) whose first partial the patch holds where the long
+/// spectrum hears that partial alone (0.1-1.1 s), as the analysis hands it on; fitted with params.
+struct heard_glide_fit {
+    double heard_hz = 0.0;         ///< where the recording's partial is heard
+    patch p;                       ///< after fit_onset_glides
+    onset_glide_summary summary;
+    double copy_heard_hz = 0.0;    ///< where the copy's first partial is heard
+};
+
+heard_glide_fit fit_heard_glide(const std::vector<true_partial>& parts, double rate_hz, double length_s,
+                                std::uint64_t seed, const onset_glide_params& params) {
+    heard_glide_fit r;
+    r.heard_hz = heard_peak_hz(gliding_note({parts[0]}, rate_hz, length_s, 0.0, 1), rate_hz, parts[0].freq_hz);
+    const std::vector<float> x = gliding_note(parts, rate_hz, length_s, 1e-4, seed);
+    r.p = patch_of(parts);
+    r.p.note.length_s = length_s;
+    r.p.partials[0].freq_hz = r.heard_hz;
+    r.summary = fit_onset_glides(r.p, x, rate_hz, params);
+    r.copy_heard_hz = heard_peak_hz(render_one(r.p, 0, rate_hz, length_s), rate_hz, r.heard_hz);
+    return r;
+}
+
+double cents_apart(double a_hz, double b_hz) { return 1200.0 * std::log2(a_hz / b_hz); }
+
 }  // namespace
 
 TEST_CASE("the onset glide fit finds a known glide within 3 cents and 25% of its time constant", "[analysis][glide]") {
@@ -324,17 +348,8 @@ TEST_CASE("a large slow glide of a lasting partial is fitted, and the copy is he
         {.freq_hz = f_hz, .amp_lin = 0.3, .t60_s = 3.0, .phase_rad = 0.4, .cents = cents, .glide_s = glide_s},
         {.freq_hz = 523.0, .amp_lin = 0.15, .t60_s = 2.0, .phase_rad = -1.1, .cents = 0.0, .glide_s = 0.0},
     };
-    const double length_s = 1.2;
-    const std::vector<float> alone = gliding_note({parts[0]}, rate_hz, length_s, 0.0, 1);
-    const double heard_hz = heard_peak_hz(alone, rate_hz, f_hz);
-    const std::vector<float> x = gliding_note(parts, rate_hz, length_s, 1e-4, 13);
-    patch p = patch_of(parts);
-    p.note.length_s = length_s;
-    p.partials[0].freq_hz = heard_hz;
-    const onset_glide_summary s = fit_onset_glides(p, x, rate_hz, {});
+    const auto [heard_hz, p, s, copy_heard_hz] = fit_heard_glide(parts, rate_hz, 1.2, 13, {});
     const partial& g = p.partials[0];
-    const double copy_heard_hz = heard_peak_hz(render_one(p, 0, rate_hz, length_s), rate_hz, heard_hz);
-    const auto cents_apart = [](double a_hz, double b_hz) { return 1200.0 * std::log2(a_hz / b_hz); };
     CAPTURE(cents, glide_s, heard_hz, s.glides, g.freq_hz, g.glide_cents, g.glide_s, copy_heard_hz);
     CHECK(s.glides == 1);
     CHECK(std::abs(cents_apart(copy_heard_hz, heard_hz)) <= 0.1);
@@ -365,18 +380,8 @@ TEST_CASE("the slow-glide pass fits a small glide of a lasting low partial over 
         {.freq_hz = f_hz, .amp_lin = 0.3, .t60_s = 4.0, .phase_rad = 0.9, .cents = cents, .glide_s = glide_s},
         {.freq_hz = 131.0, .amp_lin = 0.2, .t60_s = 3.0, .phase_rad = -0.4, .cents = 0.0, .glide_s = 0.0},
     };
-    const double length_s = 1.2;
-    const std::vector<float> alone = gliding_note({parts[0]}, rate_hz, length_s, 0.0, 1);
-    const double heard_hz = heard_peak_hz(alone, rate_hz, f_hz);
-    const std::vector<float> x = gliding_note(parts, rate_hz, length_s, 1e-4, 17);
-    patch p = patch_of(parts);
-    p.note.length_s = length_s;
-    p.partials[0].freq_hz = heard_hz;
-    const onset_glide_params params = analysis_params{}.slow_glides;
-    const onset_glide_summary s = fit_onset_glides(p, x, rate_hz, params);
+    const auto [heard_hz, p, s, copy_heard_hz] = fit_heard_glide(parts, rate_hz, 1.2, 17, analysis_params{}.slow_glides);
     const partial& g = p.partials[0];
-    const double copy_heard_hz = heard_peak_hz(render_one(p, 0, rate_hz, length_s), rate_hz, heard_hz);
-    const auto cents_apart = [](double a_hz, double b_hz) { return 1200.0 * std::log2(a_hz / b_hz); };
     CAPTURE(cents, glide_s, heard_hz, s.glides, g.freq_hz, g.glide_cents, g.glide_s, copy_heard_hz,
             s.residual_before_db, s.residual_after_db);
     CHECK(s.glides == 1);

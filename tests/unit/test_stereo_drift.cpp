@@ -53,6 +53,25 @@ double first_second_diff_db(const std::vector<channel_amplitudes>& spans) {
     return 10.0 * std::log10(r / l);
 }
 
+/// The strongest partial of the stereo analysis (no peak match) of left and right with their mix,
+/// and the onset the analysis found.
+struct strongest_placed {
+    partial q;
+    double onset_s = 0.0;
+};
+
+strongest_placed analyse_strongest(const std::vector<float>& mix, const std::vector<float>& left,
+                                   const std::vector<float>& right, double fs) {
+    analysis_params ap;
+    ap.match_peak = false;
+    const patch p = analyze_stereo_note(mix, left, right, fs, ap, {}).value;
+    REQUIRE_FALSE(p.partials.empty());
+    const partial* q = &p.partials.front();
+    for (const partial& c : p.partials)
+        if (c.env.peak.db > q->env.peak.db) q = &c;
+    return {*q, p.source.onset_s};
+}
+
 }  // namespace
 
 TEST_CASE("drift: a level difference moving on a line gives the line's slope and its value at the attack's end",
@@ -133,18 +152,13 @@ TEST_CASE("stereo analysis: channels decaying at their own rates give that sprea
         right[i] = static_cast<float>(r);
         mix[i] = 0.5f * (left[i] + right[i]);
     }
-    analysis_params ap;
-    ap.match_peak = false;
-    const patch p = analyze_stereo_note(mix, left, right, fs, ap, {}).value;
-    REQUIRE_FALSE(p.partials.empty());
-    const partial* q = &p.partials.front();
-    for (const partial& c : p.partials)
-        if (c.env.peak.db > q->env.peak.db) q = &c;
+    const auto [strongest, found_onset_s] = analyse_strongest(mix, left, right, fs);
+    const partial* q = &strongest;
     const double want_spread = 60.0 / t60_left_s - 60.0 / t60_right_s;
-    CAPTURE(t60_left_s, t60_right_s, q->freq_hz, q->place.pan, q->place.spread_db_per_s, want_spread, p.source.onset_s);
+    CAPTURE(t60_left_s, t60_right_s, q->freq_hz, q->place.pan, q->place.spread_db_per_s, want_spread, found_onset_s);
     CHECK_THAT(q->place.spread_db_per_s, WithinAbs(want_spread, 0.5));
     // The channels' levels at the patch's t = 0 (the onset the analysis found).
-    const double shift_s = p.source.onset_s - onset_s;
+    const double shift_s = found_onset_s - onset_s;
     for (const channel_side side : {channel_side::left, channel_side::right}) {
         const bool is_left = side == channel_side::left;
         const double want = (is_left ? left_db : right_db) - 60.0 / (is_left ? t60_left_s : t60_right_s) * shift_s;
@@ -187,13 +201,8 @@ TEST_CASE("stereo analysis: a partial beating in opposite phase in the two chann
         right[i] = static_cast<float>(r);
         mix[i] = 0.5f * (left[i] + right[i]);
     }
-    analysis_params ap;
-    ap.match_peak = false;
-    const patch p = analyze_stereo_note(mix, left, right, fs, ap, {}).value;
-    REQUIRE_FALSE(p.partials.empty());
-    const partial* q = &p.partials.front();
-    for (const partial& c : p.partials)
-        if (c.env.peak.db > q->env.peak.db) q = &c;
+    const partial strongest = analyse_strongest(mix, left, right, fs).q;
+    const partial* q = &strongest;
     const double want_db = 10.0 * std::log10(energy_right / energy_left);
     CAPTURE(beat_hz, q->freq_hz, q->place.pan, pan_level_difference_db(q->place.pan), want_db, q->place.spread_db_per_s);
     CHECK(q->place.spread_db_per_s == 0.0);
