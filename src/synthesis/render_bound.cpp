@@ -3,6 +3,9 @@
 #include <algorithm>
 #include <cassert>
 #include <cmath>
+#include <cstddef>
+#include <span>
+#include <vector>
 
 #include "core/noise_bands.hpp"
 #include "core/units.hpp"
@@ -180,13 +183,15 @@ block_peaks block_peaks_within(const patch& p, const render_params& params, cons
                                std::size_t stretch_frames) {
     assert(stretch_frames > 0 && stretch_frames % render_anchor_frames == 0);
     std::vector<float> kept;
-    block_peaks r{.frames = frames_within_keeping(p, params, bound, within_db, stretch_frames, kept), .peak = 0.0f, .peaks = {}};
+    block_peaks r{.frames = frames_within_keeping(p, params, bound, within_db, stretch_frames, kept), .peak = 0.0f, .peaks = {}, .samples = {}, .partials = {}};
     if (r.frames == 0) return r;
     if (kept.size() == r.frames) {
         // A short render: its partials (no end fade in them) and the noise over them.
+        r.partials = kept;
         if (params.include_noise && !p.noise.empty())
             add_noise_bands_part(p.noise, noise_params_of(p, params), bound.frames(), 0, kept);
         add_block_peaks(kept, r);
+        r.samples = std::move(kept);
         return r;
     }
     const partial_renderer renderer(p, params);
@@ -203,10 +208,18 @@ std::size_t block_peaks::end_at_or_above(const patch& p, const render_params& pa
     std::size_t block = peaks.size();
     while (block > 0 && peaks[block - 1] < level) --block;
     if (block == 0) return 0;
-    // The samples of that block again (bit for bit: it starts at an anchor), the last one at or over level.
+    // The samples of that block, kept or again (bit for bit: it starts at an anchor), the last one at or over level.
     const std::size_t first = (block - 1) * render_anchor_frames;
-    std::vector<float> x(std::min(render_anchor_frames, frames - first));
-    partial_renderer(p, params).render_with_noise(p, params, first, x);
+    const std::size_t size = std::min(render_anchor_frames, frames - first);
+    std::vector<float> rendered;
+    std::span<const float> x;
+    if (samples.size() == frames) {
+        x = std::span(samples).subspan(first, size);
+    } else {
+        rendered.resize(size);
+        partial_renderer(p, params).render_with_noise(p, params, first, rendered);
+        x = rendered;
+    }
     std::size_t end = x.size();
     while (end > 0 && std::abs(x[end - 1]) < level) --end;
     return first + end;

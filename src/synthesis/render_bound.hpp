@@ -92,9 +92,15 @@ struct block_peaks {
     std::size_t frames = 0;
     float peak = 0.0f;
     std::vector<float> peaks;  ///< per block
+    /// A render made in one piece (frames within the stretch, short of the end fade): its frames,
+    /// and its partials' alone (no noise), kept so that nothing needs rendering again (the
+    /// loud end below; the peak match's other draws share the partials). Empty otherwise.
+    std::vector<float> samples;
+    std::vector<float> partials;
 
     /// One past the last of the frames whose |sample| is at or over level (0 if none): the last
-    /// block that reaches it rendered again (p and params those the figures were made from).
+    /// block that reaches it read from samples, or rendered again when they were not kept (p
+    /// and params those the figures were made from).
     std::size_t end_at_or_above(const patch& p, const render_params& params, float level) const;
 };
 /// Frames block_peaks_within renders at once by default, and the longest render whose partials
