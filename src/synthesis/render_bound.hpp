@@ -112,4 +112,11 @@ inline constexpr std::size_t peak_stretch_frames = 1024 * render_anchor_frames;
 block_peaks block_peaks_within(const patch& p, const render_params& params, const render_bound& bound, double within_db,
                                std::size_t stretch_frames = peak_stretch_frames);
 
+/// The peak |sample| of render_patch(p, params) (bound: render_bound(p, params)), as
+/// block_peaks_within(p, params, bound, 0.0).peak: rendered first only as far as a level of
+/// guess_lin (0: none) proves nothing later can reach, which holds when the peak found reaches
+/// it (a good guess: a level a little under the peak, known from another render of p); else
+/// sought again without it. The same peak either way; only the cost depends on the guess.
+float render_peak(const patch& p, const render_params& params, const render_bound& bound, double guess_lin);
+
 }  // namespace wane
