@@ -301,7 +301,10 @@ std::vector<noise_band> fit_note_noise(std::span<const float> note, double sampl
         q.env.attack_s = 0.0;
     }
     const partial_renderer partials(p, render);
-    const partial_renderer abrupt_partials(abrupt_patch, render);
+    // Without a rise dropped the abrupt residual is measured on no frame (abrupt_until_s below):
+    // its renderer is not made (the same samples as partials' otherwise).
+    std::optional<partial_renderer> abrupt_partials;
+    if (longest_removed_s > 0.0) abrupt_partials.emplace(abrupt_patch, render);
     const std::size_t common = std::min(note.size(), partials.frames());
     // The partials rendered into dest, then taken from the note in place (no buffer of their own).
     auto residual_of = [&](const partial_renderer& r) {
@@ -313,7 +316,7 @@ std::vector<noise_band> fit_note_noise(std::span<const float> note, double sampl
         };
     };
     const residual_source source = residual_of(partials);
-    const residual_source abrupt = residual_of(abrupt_partials);
+    const residual_source abrupt = residual_of(abrupt_partials ? *abrupt_partials : partials);
     const residual_source recording = [&](std::size_t first, std::span<float> dest) {
         std::copy_n(note.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
     };

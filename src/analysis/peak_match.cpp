@@ -5,6 +5,7 @@
 #include <cmath>
 #include <cstddef>
 #include <cstdint>
+#include <optional>
 #include <span>
 #include <vector>
 
@@ -43,6 +44,31 @@ struct default_peak {
     std::size_t frames = 0;    ///< length of the render
     double peak_db = 0.0;      ///< its peak level
     std::size_t loud_end = 0;  ///< loud_end of it
+    /// Its partials' samples over its first frames (block_peaks::partials: the render made in one
+    /// piece; else empty), the same at every noise draw.
+    std::vector<float> partials;
+};
+
+/// q's partials at rate (the default render's), frames [first, first + out.size()): copied from
+/// those the default render kept where they reach (the same bits), else rendered, the renderer
+/// made at the first need (on most notes none: the draws are rendered over kept frames only).
+class draw_partials {
+public:
+    draw_partials(const patch& q, double rate, std::span<const float> kept) : q_(&q), rate_(rate), kept_(kept) {}
+    void render(std::size_t first, std::span<float> out) const {
+        if (first + out.size() <= kept_.size()) {
+            std::copy_n(kept_.begin() + static_cast<std::ptrdiff_t>(first), out.size(), out.begin());
+            return;
+        }
+        if (!renderer_) renderer_.emplace(*q_, render_params{.sample_rate_hz = rate_});
+        renderer_->render(first, out);
+    }
+
+private:
+    const patch* q_;
+    double rate_;
+    std::span<const float> kept_;
+    mutable std::optional<partial_renderer> renderer_;
 };
 
 /// Frames of the other draws rendered at once (all draws side by side; each stretch's noise
@@ -52,7 +78,7 @@ constexpr std::size_t draw_stretch_frames = 128 * render_anchor_frames;
 /// The peaks (|sample|) of the draws of seeds, each render of q at rate (partials: its partials,
 /// frames: the render's length) over frames [0, reach) only, a stretch at a time.
 std::vector<float> draw_peaks(const patch& q, double rate, std::span<const std::uint64_t> seeds,
-                              const partial_renderer& partials, std::size_t frames, std::size_t reach) {
+                              const draw_partials& partials, std::size_t frames, std::size_t reach) {
     const auto fade_from = frames - std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * rate)));
     std::vector<float> peaks(seeds.size(), 0.0f);
     if (seeds.empty() || reach == 0) return peaks;
@@ -86,7 +112,8 @@ std::vector<float> draw_peaks(const patch& q, double rate, std::span<const std::
 constexpr double first_reach_db = 1.0;
 
 /// The median over the draws of the peak (dB) of q rendered at rate (q.note.gain_db = 0).
-/// def: of q's render with the default seed (the full render, not repeated); bound: of q's render at rate.
+/// def: of q's render at rate with the default seed (the full render, not repeated; its kept partials are
+/// the draws'); bound: of q's render at rate.
 double expected_peak_db(const patch& q, double rate, const default_peak& def, const render_bound& bound,
                         const peak_match_params& params) {
     assert(params.draws >= 1);
@@ -94,9 +121,8 @@ double expected_peak_db(const patch& q, double rate, const default_peak& def, co
     if (q.noise.empty()) return default_db;
     // Other draws peak where the default one comes within peak_window_db of its peak (a draw
     // would have to add that much more there): the partials and the draws over that span only.
-    const partial_renderer partials_of(q, {.sample_rate_hz = rate});
-    const std::size_t frames = partials_of.frames();
-    assert(frames == def.frames);
+    const draw_partials partials_of(q, rate, def.partials);
+    const std::size_t frames = def.frames;
     const auto margin = static_cast<std::size_t>(std::llround(peak_window_margin_s * rate));
     const std::size_t span = std::min(frames, def.loud_end + margin);
     std::vector<double> peaks_db;
@@ -159,6 +185,11 @@ struct default_renders {
     }
 };
 
+/// How far under the output rate's peak the source rate's render is first assumed to peak (they
+/// differ by a few hundredths of a dB); only the cost depends on it: a render that peaks lower is
+/// rendered again as far as its own partials prove (render_peak).
+constexpr double source_peak_guess_db = 0.25;
+
 bool renderable_at(double rate) { return rate >= min_render_rate_hz && rate <= max_render_rate_hz; }
 
 default_renders render_default(const patch& q, double sample_rate_hz, const render_bound& output_bound,
@@ -167,11 +198,15 @@ default_renders render_default(const patch& q, double sample_rate_hz, const rend
     // loud_end needs every frame within peak_window_db of the peak: their figures, made a
     // stretch at a time (on a held note they reach minutes into it).
     const render_params output{.sample_rate_hz = default_output_rate_hz, .noise_seed = params.default_seed};
-    const block_peaks out = block_peaks_within(q, output, output_bound, peak_window_db);
-    d.output = {.frames = output_bound.frames(), .peak_db = peak_level_db(out.peak), .loud_end = loud_end(out, q, output)};
+    block_peaks out = block_peaks_within(q, output, output_bound, peak_window_db);
+    d.output = {.frames = output_bound.frames(), .peak_db = peak_level_db(out.peak), .loud_end = loud_end(out, q, output),
+                .partials = std::move(out.partials)};
     if (sample_rate_hz != default_output_rate_hz && renderable_at(sample_rate_hz)) {
         const render_params source{.sample_rate_hz = sample_rate_hz, .noise_seed = params.default_seed};
-        d.source_db = peak_level_db(block_peaks_within(q, source, render_bound(q, source), 0.0).peak);
+        // The source rate's peak lies within hundredths of a dB of the output rate's: a level a
+        // little under that stops its render early (synthesis/render_bound: render_peak).
+        const double guess_lin = std::isfinite(d.output.peak_db) ? to_amp(level_db{d.output.peak_db - source_peak_guess_db}).lin : 0.0;
+        d.source_db = peak_level_db(render_peak(q, source, render_bound(q, source), guess_lin));
     } else {
         d.source_db = d.output.peak_db;
     }

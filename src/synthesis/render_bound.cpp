@@ -3,6 +3,9 @@
 #include <algorithm>
 #include <cassert>
 #include <cmath>
+#include <cstddef>
+#include <span>
+#include <vector>
 
 #include "core/noise_bands.hpp"
 #include "core/units.hpp"
@@ -120,8 +123,10 @@ constexpr std::size_t bounded_step_frames = 8 * render_anchor_frames;
 
 /// frames_within, leaving the partials of the frames it gives in kept when they are at most
 /// keep_frames and short of the end fade (else kept is empty): they need only the noise then.
+/// least_lin: a level the render's peak is taken to reach at least (0: none; the peak found must
+/// be checked against it), which stops the search earlier than the partials alone prove.
 std::size_t frames_within_keeping(const patch& p, const render_params& params, const render_bound& bound, double within_db,
-                                  std::size_t keep_frames, std::vector<float>& kept) {
+                                  std::size_t keep_frames, std::vector<float>& kept, double least_lin = 0.0) {
     const partial_renderer partials(p, params);
     const std::size_t frames = partials.frames();
     assert(frames == bound.frames());
@@ -145,9 +150,9 @@ std::size_t frames_within_keeping(const patch& p, const render_params& params, c
         partials.render(end, part);
         blocks.add(part, end, bound);
         end = step_end;
-        if (bound.from(end) < ratio * blocks.least_peak) break;
+        if (bound.from(end) < ratio * std::max(least_lin, blocks.least_peak)) break;
     }
-    const std::size_t within = std::min(end, blocks.frames_reaching(ratio * blocks.least_peak));
+    const std::size_t within = std::min(end, blocks.frames_reaching(ratio * std::max(least_lin, blocks.least_peak)));
     const auto fade_frames = std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * params.sample_rate_hz)));
     // The end fade scales partials and noise together: a render that reaches it is taken whole.
     if (within + fade_frames > frames) {
@@ -176,17 +181,23 @@ std::size_t frames_within(const patch& p, const render_params& params, const ren
     return frames_within_keeping(p, params, bound, within_db, 0, none);
 }
 
-block_peaks block_peaks_within(const patch& p, const render_params& params, const render_bound& bound, double within_db,
-                               std::size_t stretch_frames) {
+namespace {
+
+/// block_peaks_within, the search stopped by least_lin as well (frames_within_keeping).
+block_peaks block_peaks_over(const patch& p, const render_params& params, const render_bound& bound, double within_db,
+                             std::size_t stretch_frames, double least_lin) {
     assert(stretch_frames > 0 && stretch_frames % render_anchor_frames == 0);
     std::vector<float> kept;
-    block_peaks r{.frames = frames_within_keeping(p, params, bound, within_db, stretch_frames, kept), .peak = 0.0f, .peaks = {}};
+    block_peaks r{.frames = frames_within_keeping(p, params, bound, within_db, stretch_frames, kept, least_lin),
+                  .peak = 0.0f, .peaks = {}, .samples = {}, .partials = {}};
     if (r.frames == 0) return r;
     if (kept.size() == r.frames) {
         // A short render: its partials (no end fade in them) and the noise over them.
+        r.partials = kept;
         if (params.include_noise && !p.noise.empty())
             add_noise_bands_part(p.noise, noise_params_of(p, params), bound.frames(), 0, kept);
         add_block_peaks(kept, r);
+        r.samples = std::move(kept);
         return r;
     }
     const partial_renderer renderer(p, params);
@@ -199,14 +210,39 @@ block_peaks block_peaks_within(const patch& p, const render_params& params, cons
     return r;
 }
 
+}  // namespace
+
+block_peaks block_peaks_within(const patch& p, const render_params& params, const render_bound& bound, double within_db,
+                               std::size_t stretch_frames) {
+    return block_peaks_over(p, params, bound, within_db, stretch_frames, 0.0);
+}
+
+float render_peak(const patch& p, const render_params& params, const render_bound& bound, double guess_lin) {
+    // Every frame left out stays under guess_lin / render_bound_margin: when the frames kept
+    // reach guess_lin, their peak is the render's.
+    if (guess_lin > 0.0) {
+        const float peak = block_peaks_over(p, params, bound, 0.0, peak_stretch_frames, guess_lin).peak;
+        if (static_cast<double>(peak) >= guess_lin) return peak;
+    }
+    return block_peaks_within(p, params, bound, 0.0).peak;
+}
+
 std::size_t block_peaks::end_at_or_above(const patch& p, const render_params& params, float level) const {
     std::size_t block = peaks.size();
     while (block > 0 && peaks[block - 1] < level) --block;
     if (block == 0) return 0;
-    // The samples of that block again (bit for bit: it starts at an anchor), the last one at or over level.
+    // The samples of that block, kept or again (bit for bit: it starts at an anchor), the last one at or over level.
     const std::size_t first = (block - 1) * render_anchor_frames;
-    std::vector<float> x(std::min(render_anchor_frames, frames - first));
-    partial_renderer(p, params).render_with_noise(p, params, first, x);
+    const std::size_t size = std::min(render_anchor_frames, frames - first);
+    std::vector<float> rendered;
+    std::span<const float> x;
+    if (samples.size() == frames) {
+        x = std::span(samples).subspan(first, size);
+    } else {
+        rendered.resize(size);
+        partial_renderer(p, params).render_with_noise(p, params, first, rendered);
+        x = rendered;
+    }
     std::size_t end = x.size();
     while (end > 0 && std::abs(x[end - 1]) < level) --end;
     return first + end;

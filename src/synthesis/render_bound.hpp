@@ -92,9 +92,15 @@ struct block_peaks {
     std::size_t frames = 0;
     float peak = 0.0f;
     std::vector<float> peaks;  ///< per block
+    /// A render made in one piece (frames within the stretch, short of the end fade): its frames,
+    /// and its partials' alone (no noise), kept so that nothing needs rendering again (the
+    /// loud end below; the peak match's other draws share the partials). Empty otherwise.
+    std::vector<float> samples;
+    std::vector<float> partials;
 
     /// One past the last of the frames whose |sample| is at or over level (0 if none): the last
-    /// block that reaches it rendered again (p and params those the figures were made from).
+    /// block that reaches it read from samples, or rendered again when they were not kept (p
+    /// and params those the figures were made from).
     std::size_t end_at_or_above(const patch& p, const render_params& params, float level) const;
 };
 /// Frames block_peaks_within renders at once by default, and the longest render whose partials
@@ -105,5 +111,12 @@ inline constexpr std::size_t peak_stretch_frames = 1024 * render_anchor_frames;
 /// stretch_frames: a multiple of render_anchor_frames (the figures do not depend on it).
 block_peaks block_peaks_within(const patch& p, const render_params& params, const render_bound& bound, double within_db,
                                std::size_t stretch_frames = peak_stretch_frames);
+
+/// The peak |sample| of render_patch(p, params) (bound: render_bound(p, params)), as
+/// block_peaks_within(p, params, bound, 0.0).peak: rendered first only as far as a level of
+/// guess_lin (0: none) proves nothing later can reach, which holds when the peak found reaches
+/// it (a good guess: a level a little under the peak, known from another render of p); else
+/// sought again without it. The same peak either way; only the cost depends on the guess.
+float render_peak(const patch& p, const render_params& params, const render_bound& bound, double guess_lin);
 
 }  // namespace wane

@@ -224,6 +224,22 @@ TEST_CASE("block_peaks_within: the streamed peak, block peaks and end of the lou
     if (which >= 6 && within_db == 6.0) CHECK(kept.size() > static_cast<std::size_t>(1.5 * rate_hz));  // the late peak is reached
 }
 
+TEST_CASE("render_peak: the full render's peak whether the guessed level lies under the peak, over it or is missing",
+          "[render_bound]") {
+    // Random short patches, and held notes of 3 s whose peak comes 1.5 s or 2.5 s in; the guess a
+    // factor of the true peak (0: none; over 1 the render falls short of it and is sought again).
+    const auto which = GENERATE(range(0, 10));
+    const double rate_hz = GENERATE(48000.0, 44100.0);
+    const double guess_of_peak = GENERATE(0.0, 0.5, 0.97, 1.0, 1.5);
+    const patch p = which < 6 ? random_patch(static_cast<std::uint64_t>(which) + 60)
+                              : late_peak_patch(static_cast<std::uint64_t>(which), which < 8 ? 1.5 : 2.5, 0.3, 3.0);
+    const render_params params{.sample_rate_hz = rate_hz, .noise_seed = 5};
+    const float peak_ref = peak_of(render_patch(p, params));
+    const float peak = render_peak(p, params, render_bound(p, params), guess_of_peak * static_cast<double>(peak_ref));
+    CAPTURE(which, rate_hz, guess_of_peak, peak, peak_ref);
+    CHECK(peak == peak_ref);
+}
+
 TEST_CASE("add_noise_band_draws_part: several draws a stretch at a time equal the whole draws bit for bit", "[render_bound]") {
     const auto seed = GENERATE(range(std::uint64_t{1}, std::uint64_t{5}));
     const double rate_hz = GENERATE(48000.0, 44100.0);
