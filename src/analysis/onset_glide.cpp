@@ -119,6 +119,20 @@ bool is_short_lived(const partial& q, const onset_glide_params& params) {
     return envelope_level(q.env, params.short_lived_at_s).db <= start_db - params.short_lived_drop_db;
 }
 
+/// Whether no glide the search can reach explains floor_explained on s: |S| <= sum_b |Z_b| + max_b
+/// |g'_b| sum_b |Z1_b| (projection's bound before any block is summed), |g'_b| at most 2 pi f / fs
+/// times the excess of the largest offset searched, expm1(c ln2 / 1200) (the outer ring's edge
+/// plus the fine grid's reach; a flat offset's excess, |f(t) / f - 1|, is largest at t = 0 and for
+/// a positive offset), padded like projection's. Then every candidate would be rejected and the
+/// fit kept nowhere: the search is skipped (the same answer, none; mostly the short-lived
+/// partials, whose least extra share their weak block sums cannot reach).
+bool explains_under(const block_sums& s, double freq_hz, double rate_hz, const onset_glide_params& params, double floor_explained) {
+    const double largest_cents = params.max_abs_cents * std::ldexp(1.0, static_cast<int>(params.offset_rings)) + params.cents_step;
+    const double slope = two_pi * freq_hz / rate_hz * std::expm1(largest_cents * std::numbers::ln2 / 1200.0);
+    const double bound = (s.tail_z[0] + slope * s.tail_z1[0]) * (1.0 + 1e-6);
+    return 2.0 * bound * bound / s.amp_energy < floor_explained;
+}
+
 /// The glide of partial q on y (q's partial alone plus what the copy leaves), when it is kept
 /// (onset_glide.hpp): the search with a = 1, C with a = q's envelope. min_extra: the energy the
 /// glide must explain more than no glide (0: none asked); a coarse best short of half of it is
@@ -140,6 +154,7 @@ std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, 
     const double n0 = none.explained;
     const double kept_floor = std::max(n0 + min_extra, std::min(n0 + share * n0, (n0 + share * flat.band_energy) / (1.0 + share))) *
                               (1.0 - 1e-9);
+    if (explains_under(flat, q.freq_hz, rate_hz, params, kept_floor)) return std::nullopt;
     glide_fit best = search(flat, q.freq_hz, rate_hz, params, rings, 0, longest_s, n0 + 0.5 * min_extra, kept_floor);
     // A best on the offset's outer edge: the grid goes on by rings of twice the range, up to
     // offset_rings of them, while the best lies on the edge (onset_glide.hpp).
