@@ -48,9 +48,12 @@ std::vector<double> render_start(const patch& p, const partial* q, double rate_h
 
 /// The coarse grid's glide terms on the merged blocks: the same for every partial of a note (the
 /// blocks' centres depend on the span only), so made once. Ring r holds the offsets over
-/// max_abs_cents 2^(r - 1) up to max_abs_cents 2^r (ring 0: all up to max_abs_cents).
+/// max_abs_cents 2^(r - 1) up to max_abs_cents 2^r (ring 0: all up to max_abs_cents). A point's
+/// terms are made as a sum first reaches its blocks (most candidates the bound rejects early) and
+/// kept for the next partial: the same numbers as made whole.
 struct coarse_grid {
     std::vector<glide_terms> points;
+    std::vector<std::vector<double>> decay;  ///< per time constant; the points' decay spans look into these
 };
 using coarse_rings = std::vector<coarse_grid>;
 
@@ -64,10 +67,16 @@ coarse_grid make_coarse_grid(const block_sums& coarse_sums, const onset_glide_pa
     for (int j = 0;; ++j) {
         const double glide_s = params.min_fit_glide_s * std::pow(ratio, j);
         if (j >= params.glide_s_steps && glide_s > params.max_short_lived_glide_s) break;
-        const std::vector<double> decay = decays(coarse_sums, glide_s);
+        out.decay.push_back(decays(coarse_sums, glide_s));
+        const std::span<const double> decay = out.decay.back();  // its buffer moves with out, unchanged
         for (int i = -steps; i <= steps; ++i) {
             const double cents = i * params.cents_step;
-            if (std::abs(cents) > inner_cents && i != 0) out.points.push_back(terms_at(cents, glide_s, decay));
+            if (std::abs(cents) > inner_cents && i != 0) {
+                out.points.push_back({.cents = cents, .glide_s = glide_s,
+                                      .whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0),
+                                      .remaining_rad_per_hz = std::vector<double>(decay.size()),
+                                      .excess = std::vector<double>(decay.size()), .decay = decay, .filled = 0});
+            }
         }
     }
     return out;
@@ -83,7 +92,7 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
     glide_fit best;
     const block_sums coarse_sums = merged_pairs(s, rate_hz);
     while (rings.size() <= ring) rings.push_back(make_coarse_grid(coarse_sums, params, rings.size()));
-    for (glide_terms& t : rings[ring].points) {  // made whole: projection makes none
+    for (glide_terms& t : rings[ring].points) {  // made as the sums reach them (evaluate_above)
         if (t.glide_s > longest_s) continue;
         const std::optional<glide_fit> f = evaluate_above(coarse_sums, freq_hz, t, rate_hz, std::max(best.explained, coarse_floor));
         if (f && f->explained > best.explained) best = *f;
