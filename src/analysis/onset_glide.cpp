@@ -99,14 +99,19 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
     }
     const glide_fit coarse = best;
     if (coarse.explained < coarse_floor) return coarse;
-    best = evaluate(s, freq_hz, coarse.cents, coarse.glide_s, rate_hz);  // on the fine blocks
+    // The fine grid on the fine blocks, or on the merged ones (onset_glide_params::fine_on_merged_blocks,
+    // under a floor a share lower: the two sums' values differ by the glide's second-order term)
+    // with its best summed again on the fine blocks.
+    const block_sums& f_sums = params.fine_on_merged_blocks ? coarse_sums : s;
+    const double f_floor = params.fine_on_merged_blocks ? kept_floor * (1.0 - params.merged_floor_share) : kept_floor;
+    best = evaluate(f_sums, freq_hz, coarse.cents, coarse.glide_s, rate_hz);
     const auto fine = static_cast<int>(std::round(params.cents_step / params.fine_cents_step));
     const int half_octave = params.fine_glide_s_steps_per_octave / 2;
-    glide_terms lazy{.remaining_rad_per_hz = std::vector<double>(s.z.size()), .excess = std::vector<double>(s.z.size())};
+    glide_terms lazy{.remaining_rad_per_hz = std::vector<double>(f_sums.z.size()), .excess = std::vector<double>(f_sums.z.size())};
     for (int j = -half_octave; j <= half_octave; ++j) {
         const double glide_s = std::clamp(coarse.glide_s * std::exp2(static_cast<double>(j) / params.fine_glide_s_steps_per_octave),
                                           params.min_fit_glide_s / 2.0, max_glide_s);
-        const std::vector<double> decay = decays(s, glide_s);
+        const std::vector<double> decay = decays(f_sums, glide_s);
         for (int i = -fine; i <= fine; ++i) {
             const double cents = coarse.cents + i * params.fine_cents_step;
             if (cents == 0.0) continue;
@@ -115,10 +120,11 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
             lazy.whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0);
             lazy.decay = decay;
             lazy.filled = 0;
-            const std::optional<glide_fit> f = evaluate_above(s, freq_hz, lazy, rate_hz, std::max(best.explained, kept_floor));
+            const std::optional<glide_fit> f = evaluate_above(f_sums, freq_hz, lazy, rate_hz, std::max(best.explained, f_floor));
             if (f && f->explained > best.explained) best = *f;
         }
     }
+    if (params.fine_on_merged_blocks) best = evaluate(s, freq_hz, best.cents, best.glide_s, rate_hz);
     return best;
 }
 
