@@ -48,9 +48,12 @@ std::vector<double> render_start(const patch& p, const partial* q, double rate_h
 
 /// The coarse grid's glide terms on the merged blocks: the same for every partial of a note (the
 /// blocks' centres depend on the span only), so made once. Ring r holds the offsets over
-/// max_abs_cents 2^(r - 1) up to max_abs_cents 2^r (ring 0: all up to max_abs_cents).
+/// max_abs_cents 2^(r - 1) up to max_abs_cents 2^r (ring 0: all up to max_abs_cents). A point's
+/// terms are made as a sum first reaches its blocks (most candidates the bound rejects early) and
+/// kept for the next partial: the same numbers as made whole.
 struct coarse_grid {
     std::vector<glide_terms> points;
+    std::vector<std::vector<double>> decay;  ///< per time constant; the points' decay spans look into these
 };
 using coarse_rings = std::vector<coarse_grid>;
 
@@ -64,10 +67,16 @@ coarse_grid make_coarse_grid(const block_sums& coarse_sums, const onset_glide_pa
     for (int j = 0;; ++j) {
         const double glide_s = params.min_fit_glide_s * std::pow(ratio, j);
         if (j >= params.glide_s_steps && glide_s > params.max_short_lived_glide_s) break;
-        const std::vector<double> decay = decays(coarse_sums, glide_s);
+        out.decay.push_back(decays(coarse_sums, glide_s));
+        const std::span<const double> decay = out.decay.back();  // its buffer moves with out, unchanged
         for (int i = -steps; i <= steps; ++i) {
             const double cents = i * params.cents_step;
-            if (std::abs(cents) > inner_cents && i != 0) out.points.push_back(terms_at(cents, glide_s, decay));
+            if (std::abs(cents) > inner_cents && i != 0) {
+                out.points.push_back({.cents = cents, .glide_s = glide_s,
+                                      .whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0),
+                                      .remaining_rad_per_hz = std::vector<double>(decay.size()),
+                                      .excess = std::vector<double>(decay.size()), .decay = decay, .filled = 0});
+            }
         }
     }
     return out;
@@ -83,21 +92,26 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
     glide_fit best;
     const block_sums coarse_sums = merged_pairs(s, rate_hz);
     while (rings.size() <= ring) rings.push_back(make_coarse_grid(coarse_sums, params, rings.size()));
-    for (glide_terms& t : rings[ring].points) {  // made whole: projection makes none
+    for (glide_terms& t : rings[ring].points) {  // made as the sums reach them (evaluate_above)
         if (t.glide_s > longest_s) continue;
         const std::optional<glide_fit> f = evaluate_above(coarse_sums, freq_hz, t, rate_hz, std::max(best.explained, coarse_floor));
         if (f && f->explained > best.explained) best = *f;
     }
     const glide_fit coarse = best;
     if (coarse.explained < coarse_floor) return coarse;
-    best = evaluate(s, freq_hz, coarse.cents, coarse.glide_s, rate_hz);  // on the fine blocks
+    // The fine grid on the fine blocks, or on the merged ones (onset_glide_params::fine_on_merged_blocks,
+    // under a floor a share lower: the two sums' values differ by the glide's second-order term)
+    // with its best summed again on the fine blocks.
+    const block_sums& f_sums = params.fine_on_merged_blocks ? coarse_sums : s;
+    const double f_floor = params.fine_on_merged_blocks ? kept_floor * (1.0 - params.merged_floor_share) : kept_floor;
+    best = evaluate(f_sums, freq_hz, coarse.cents, coarse.glide_s, rate_hz);
     const auto fine = static_cast<int>(std::round(params.cents_step / params.fine_cents_step));
     const int half_octave = params.fine_glide_s_steps_per_octave / 2;
-    glide_terms lazy{.remaining_rad_per_hz = std::vector<double>(s.z.size()), .excess = std::vector<double>(s.z.size())};
+    glide_terms lazy{.remaining_rad_per_hz = std::vector<double>(f_sums.z.size()), .excess = std::vector<double>(f_sums.z.size())};
     for (int j = -half_octave; j <= half_octave; ++j) {
         const double glide_s = std::clamp(coarse.glide_s * std::exp2(static_cast<double>(j) / params.fine_glide_s_steps_per_octave),
                                           params.min_fit_glide_s / 2.0, max_glide_s);
-        const std::vector<double> decay = decays(s, glide_s);
+        const std::vector<double> decay = decays(f_sums, glide_s);
         for (int i = -fine; i <= fine; ++i) {
             const double cents = coarse.cents + i * params.fine_cents_step;
             if (cents == 0.0) continue;
@@ -106,10 +120,11 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
             lazy.whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0);
             lazy.decay = decay;
             lazy.filled = 0;
-            const std::optional<glide_fit> f = evaluate_above(s, freq_hz, lazy, rate_hz, std::max(best.explained, kept_floor));
+            const std::optional<glide_fit> f = evaluate_above(f_sums, freq_hz, lazy, rate_hz, std::max(best.explained, f_floor));
             if (f && f->explained > best.explained) best = *f;
         }
     }
+    if (params.fine_on_merged_blocks) best = evaluate(s, freq_hz, best.cents, best.glide_s, rate_hz);
     return best;
 }
 
@@ -117,6 +132,20 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
 bool is_short_lived(const partial& q, const onset_glide_params& params) {
     const double start_db = envelope_level(q.env, q.env.attack_s).db;
     return envelope_level(q.env, params.short_lived_at_s).db <= start_db - params.short_lived_drop_db;
+}
+
+/// Whether no glide the search can reach explains floor_explained on s: |S| <= sum_b |Z_b| + max_b
+/// |g'_b| sum_b |Z1_b| (projection's bound before any block is summed), |g'_b| at most 2 pi f / fs
+/// times the excess of the largest offset searched, expm1(c ln2 / 1200) (the outer ring's edge
+/// plus the fine grid's reach; a flat offset's excess, |f(t) / f - 1|, is largest at t = 0 and for
+/// a positive offset), padded like projection's. Then every candidate would be rejected and the
+/// fit kept nowhere: the search is skipped (the same answer, none; mostly the short-lived
+/// partials, whose least extra share their weak block sums cannot reach).
+bool explains_under(const block_sums& s, double freq_hz, double rate_hz, const onset_glide_params& params, double floor_explained) {
+    const double largest_cents = params.max_abs_cents * std::ldexp(1.0, static_cast<int>(params.offset_rings)) + params.cents_step;
+    const double slope = two_pi * freq_hz / rate_hz * std::expm1(largest_cents * std::numbers::ln2 / 1200.0);
+    const double bound = (s.tail_z[0] + slope * s.tail_z1[0]) * (1.0 + 1e-6);
+    return 2.0 * bound * bound / s.amp_energy < floor_explained;
 }
 
 /// The glide of partial q on y (q's partial alone plus what the copy leaves), when it is kept
@@ -140,6 +169,7 @@ std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, 
     const double n0 = none.explained;
     const double kept_floor = std::max(n0 + min_extra, std::min(n0 + share * n0, (n0 + share * flat.band_energy) / (1.0 + share))) *
                               (1.0 - 1e-9);
+    if (explains_under(flat, q.freq_hz, rate_hz, params, kept_floor)) return std::nullopt;
     glide_fit best = search(flat, q.freq_hz, rate_hz, params, rings, 0, longest_s, n0 + 0.5 * min_extra, kept_floor);
     // A best on the offset's outer edge: the grid goes on by rings of twice the range, up to
     // offset_rings of them, while the best lies on the edge (onset_glide.hpp).
