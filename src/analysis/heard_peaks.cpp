@@ -185,15 +185,24 @@ std::vector<std::size_t> partial_like_peaks(const span_spectrum& s, const heard_
     std::vector<std::size_t> peaks;
     double top = 0.0;
     const auto first = static_cast<std::size_t>(std::ceil(lowest_hz / s.bin_hz));
-    std::size_t from = 0;  // the first local maximum at or past lo (lo only grows)
+    // The highest local maximum within [lo, hi] by a sliding-window maximum: both ends only grow,
+    // so the maxima in the window are kept as a queue of decreasing values (each one entered and
+    // left once: linear in the maxima, where scanning each window cost their count times its
+    // ~40 maxima). The same maximum, so the same peaks.
+    std::vector<std::size_t> queue(maxima.size());  // indices into maxima; [head, tail) live
+    std::size_t head = 0, tail = 0, next = 0;       // next: the first local maximum not yet entered
     for (const std::size_t u : maxima) {
         if (u < first) continue;
         const auto k = static_cast<std::ptrdiff_t>(u);
         const auto lo = static_cast<std::size_t>(std::max<std::ptrdiff_t>(0, k - isolation));
         const auto hi = static_cast<std::size_t>(std::min(n - 1, k + isolation));
-        while (maxima[from] < lo) ++from;
+        for (; next < maxima.size() && maxima[next] <= hi; ++next) {
+            while (tail > head && s.mag[maxima[queue[tail - 1]]] <= s.mag[maxima[next]]) --tail;
+            queue[tail++] = next;
+        }
+        while (tail > head && maxima[queue[head]] < lo) ++head;
         double highest = std::max(s.mag[lo], s.mag[hi]);
-        for (std::size_t j = from; j < maxima.size() && maxima[j] <= hi; ++j) highest = std::max(highest, s.mag[maxima[j]]);
+        if (tail > head) highest = std::max(highest, s.mag[maxima[queue[head]]]);
         if (highest > s.mag[u]) continue;
         peaks.push_back(u);
         top = std::max(top, s.mag[u]);
