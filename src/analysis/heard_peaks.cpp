@@ -185,10 +185,8 @@ std::vector<std::size_t> partial_like_peaks(const span_spectrum& s, const heard_
     std::vector<std::size_t> peaks;
     double top = 0.0;
     const auto first = static_cast<std::size_t>(std::ceil(lowest_hz / s.bin_hz));
-    // The highest local maximum within [lo, hi] by a sliding-window maximum: both ends only grow,
-    // so the maxima in the window are kept as a queue of decreasing values (each one entered and
-    // left once: linear in the maxima, where scanning each window cost their count times its
-    // ~40 maxima). The same maximum, so the same peaks.
+    // The highest local maximum within [lo, hi] as a sliding-window maximum (both ends only grow): a
+    // queue of decreasing values, each maximum entered and left once (not ~40 per window).
     std::vector<std::size_t> queue(maxima.size());  // indices into maxima; [head, tail) live
     std::size_t head = 0, tail = 0, next = 0;       // next: the first local maximum not yet entered
     for (const std::size_t u : maxima) {
@@ -217,8 +215,8 @@ std::vector<std::size_t> partial_like_peaks(const span_spectrum& s, const heard_
     return peaks;
 }
 
-/// The narrow band around freq_hz and its level at each band sample from t = 0 to note_s (level of
-/// A cos, A = 2 |y|): what follow_band_past_fits' test reads, before any phase (band_track's).
+/// The narrow band around freq_hz and its level (of A cos, A = 2 |y|) at each sample from t = 0 to
+/// note_s: all that follow_band_past_fits' test reads (band_track adds phases and floor).
 struct band_levels {
     narrowband band;
     std::vector<double> level_db;
@@ -255,12 +253,6 @@ partial_track band_track(const band_levels& bl, double freq_hz, const heard_peak
     std::nth_element(levels.begin(), q, levels.end());
     for (track_point& pt : t.points) pt.floor_db = *q;
     return t;
-}
-
-/// The narrow band around freq_hz as a track (band_levels_of, then band_track).
-partial_track band_track(const note_spectrum& spectrum, double freq_hz, double half_width_hz, double note_s,
-                         const heard_peak_params& params) {
-    return band_track(band_levels_of(spectrum, freq_hz, half_width_hz, note_s, params), freq_hz, params);
 }
 
 }  // namespace
@@ -364,7 +356,7 @@ int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz
     int added = 0;
     for (const std::size_t k : missing) {
         const double f = peak_freq_hz(s, k);
-        const partial_track t = band_track(spectrum, f, capture_hz, note_s, params);
+        const partial_track t = band_track(band_levels_of(spectrum, f, capture_hz, note_s, params), f, params);
         const auto fit = fit_partial(t, fit_params);
         if (!fit || !(fit->env.peak.db < 0.0)) continue;
         p.partials.push_back({.freq_hz = f, .harmonic = 0, .phase_rad = fit->phase_rad, .env = fit->env, .place = {}});
@@ -396,10 +388,9 @@ double nearest_other_hz(const patch& p, std::size_t i) {
     return d;
 }
 
-/// Whether env stands more than over_db above the band's level at more than longer_than_s of the
-/// band's points after from_s in a row (points times their spacing). The band's level: the power
-/// mean of its points within +-smoothing_s (a beat's trough or a noise dip is not what the partial
-/// may not pass). Stops at the first run that long: the longest run is only compared with it.
+/// Whether env stands more than over_db over the band's level (the power mean of its points within
+/// +-smoothing_s: not a beat's trough or a noise dip) at a run of points after from_s longer than
+/// longer_than_s (points times their spacing); stops at the first such run.
 bool over_band_longer_than(const envelope& env, const band_levels& band, double from_s, double over_db,
                            double smoothing_s, double longer_than_s) {
     const std::vector<double>& level = band.level_db;
@@ -444,12 +435,11 @@ int follow_band_past_fits(patch& p, std::span<const cut_part> fitted, std::span<
         const bool short_held = ended_early && f.fit_end_s - f.fit_start_s < params.short_fit_s && last_holds(env);
         const double band_hz = std::max(capture_hz, std::min(params.short_fit_band_hz, 0.5 * nearest_other_hz(p, i)));
         if (spectrum == nullptr) spectrum = &whole_note_spectrum(cache, local, note, sample_rate_hz, capture_hz);
-        // The test reads the band's levels only; its phases and floor (the track) only for a fit.
         const band_levels levels = band_levels_of(*spectrum, p.partials[i].freq_hz, band_hz, note_s, params);
         if (!short_held && !over_band_longer_than(env, levels, f.fit_end_s, params.over_band_db, params.band_smoothing_s,
                                                   params.over_band_s))
             continue;
-        const auto band = fit_partial(band_track(levels, p.partials[i].freq_hz, params), fit_params);
+        const auto band = fit_partial(band_track(levels, p.partials[i].freq_hz, params), fit_params);  // a track only now
         if (!band || last_holds(band->env)) continue;
         continue_with_band(env, band->env, f.fit_end_s);
         ++changed;
