@@ -185,15 +185,22 @@ std::vector<std::size_t> partial_like_peaks(const span_spectrum& s, const heard_
     std::vector<std::size_t> peaks;
     double top = 0.0;
     const auto first = static_cast<std::size_t>(std::ceil(lowest_hz / s.bin_hz));
-    std::size_t from = 0;  // the first local maximum at or past lo (lo only grows)
+    // The highest local maximum within [lo, hi] as a sliding-window maximum (both ends only grow): a
+    // queue of decreasing values, each maximum entered and left once (not ~40 per window).
+    std::vector<std::size_t> queue(maxima.size());  // indices into maxima; [head, tail) live
+    std::size_t head = 0, tail = 0, next = 0;       // next: the first local maximum not yet entered
     for (const std::size_t u : maxima) {
         if (u < first) continue;
         const auto k = static_cast<std::ptrdiff_t>(u);
         const auto lo = static_cast<std::size_t>(std::max<std::ptrdiff_t>(0, k - isolation));
         const auto hi = static_cast<std::size_t>(std::min(n - 1, k + isolation));
-        while (maxima[from] < lo) ++from;
+        for (; next < maxima.size() && maxima[next] <= hi; ++next) {
+            while (tail > head && s.mag[maxima[queue[tail - 1]]] <= s.mag[maxima[next]]) --tail;
+            queue[tail++] = next;
+        }
+        while (tail > head && maxima[queue[head]] < lo) ++head;
         double highest = std::max(s.mag[lo], s.mag[hi]);
-        for (std::size_t j = from; j < maxima.size() && maxima[j] <= hi; ++j) highest = std::max(highest, s.mag[maxima[j]]);
+        if (tail > head) highest = std::max(highest, s.mag[maxima[queue[head]]]);
         if (highest > s.mag[u]) continue;
         peaks.push_back(u);
         top = std::max(top, s.mag[u]);
@@ -208,25 +215,40 @@ std::vector<std::size_t> partial_like_peaks(const span_spectrum& s, const heard_
     return peaks;
 }
 
-/// The narrow band around freq_hz as a track: one point per band sample from t = 0 to note_s,
-/// level of A cos (A = 2 |y|), phase of cos at freq_hz, floor a quantile of the band's level.
-partial_track band_track(const note_spectrum& spectrum, double freq_hz, double half_width_hz, double note_s,
-                         const heard_peak_params& params) {
-    const narrowband b = spectrum.band(freq_hz, half_width_hz, params.band_rate_hz);
-    partial_track t;
-    if (b.y.empty()) return t;
+/// The narrow band around freq_hz and its level (of A cos, A = 2 |y|) at each sample from t = 0 to
+/// note_s: all that follow_band_past_fits' test reads (band_track adds phases and floor).
+struct band_levels {
+    narrowband band;
+    std::vector<double> level_db;
+    double time_s(std::size_t m) const { return static_cast<double>(m) / band.sample_rate_hz; }
+};
+
+band_levels band_levels_of(const note_spectrum& spectrum, double freq_hz, double half_width_hz, double note_s,
+                           const heard_peak_params& params) {
+    band_levels out{.band = spectrum.band(freq_hz, half_width_hz, params.band_rate_hz), .level_db = {}};
+    const narrowband& b = out.band;
+    if (b.y.empty()) return out;
     const auto count = std::min(b.y.size(), static_cast<std::size_t>(note_s * b.sample_rate_hz));
-    std::vector<double> levels;
-    for (std::size_t m = 0; m < count; ++m) {
-        const double time_s = static_cast<double>(m) / b.sample_rate_hz;
-        const double level = to_level(amp_lin{2.0 * std::abs(b.y[m]) + 1e-30}).db;
+    out.level_db.resize(count);
+    for (std::size_t m = 0; m < count; ++m) out.level_db[m] = to_level(amp_lin{2.0 * std::abs(b.y[m]) + 1e-30}).db;
+    return out;
+}
+
+/// The narrow band (band_levels_of's) as a track: one point per level, phase of cos at freq_hz,
+/// floor a quantile of the band's level.
+partial_track band_track(const band_levels& bl, double freq_hz, const heard_peak_params& params) {
+    const narrowband& b = bl.band;
+    partial_track t;
+    if (bl.level_db.empty()) return t;
+    t.points.reserve(bl.level_db.size());
+    for (std::size_t m = 0; m < bl.level_db.size(); ++m) {
+        const double time_s = bl.time_s(m);
         // y = (A / 2) exp(i (phi + 2 pi (f - f_c) t)): the phase of cos at f, at t.
         const double phase = std::arg(b.y[m]) + two_pi * (b.centre_hz - freq_hz) * time_s;
-        t.points.push_back({.time_s = time_s, .freq_hz = freq_hz, .level_db = level,
+        t.points.push_back({.time_s = time_s, .freq_hz = freq_hz, .level_db = bl.level_db[m],
                             .phase_rad = std::remainder(phase, two_pi), .floor_db = 0.0});
-        levels.push_back(level);
     }
-    if (levels.empty()) return t;
+    std::vector<double> levels = bl.level_db;
     const auto q = levels.begin() + static_cast<std::ptrdiff_t>(params.floor_quantile * static_cast<double>(levels.size() - 1));
     std::nth_element(levels.begin(), q, levels.end());
     for (track_point& pt : t.points) pt.floor_db = *q;
@@ -334,7 +356,7 @@ int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz
     int added = 0;
     for (const std::size_t k : missing) {
         const double f = peak_freq_hz(s, k);
-        const partial_track t = band_track(spectrum, f, capture_hz, note_s, params);
+        const partial_track t = band_track(band_levels_of(spectrum, f, capture_hz, note_s, params), f, params);
         const auto fit = fit_partial(t, fit_params);
         if (!fit || !(fit->env.peak.db < 0.0)) continue;
         p.partials.push_back({.freq_hz = f, .harmonic = 0, .phase_rad = fit->phase_rad, .env = fit->env, .place = {}});
@@ -366,29 +388,30 @@ double nearest_other_hz(const patch& p, std::size_t i) {
     return d;
 }
 
-/// Longest run of the band's points after from_s at which env stands more than over_db above the
-/// band's level, seconds (points times their spacing). The band's level: the power mean of its
-/// points within +-smoothing_s (a beat's trough or a noise dip is not what the partial may not pass).
-double time_over_band_s(const envelope& env, const partial_track& band, double from_s, double over_db,
-                        double smoothing_s) {
-    const auto& pts = band.points;
-    if (pts.size() < 2) return 0.0;
-    const double step_s = pts[1].time_s - pts[0].time_s;
+/// Whether env stands more than over_db over the band's level (the power mean of its points within
+/// +-smoothing_s: not a beat's trough or a noise dip) at a run of points after from_s longer than
+/// longer_than_s (points times their spacing); stops at the first such run.
+bool over_band_longer_than(const envelope& env, const band_levels& band, double from_s, double over_db,
+                           double smoothing_s, double longer_than_s) {
+    const std::vector<double>& level = band.level_db;
+    if (level.size() < 2) return 0.0 > longer_than_s;
+    const double step_s = band.time_s(1) - band.time_s(0);
     const auto half = static_cast<std::size_t>(std::floor(smoothing_s / step_s));
-    std::vector<double> power(pts.size());  // 10^(level / 10) of each point
-    for (std::size_t i = 0; i < pts.size(); ++i) power[i] = db_to_power(pts[i].level_db);
+    std::vector<double> power(level.size());  // 10^(level / 10) of each point
+    for (std::size_t i = 0; i < level.size(); ++i) power[i] = db_to_power(level[i]);
     const auto pieces = envelope_pieces(env);
-    std::size_t run = 0, longest = 0;
-    for (std::size_t i = 0; i < pts.size(); ++i) {
-        if (pts[i].time_s <= from_s) continue;
-        const std::size_t a = i > half ? i - half : 0, b = std::min(pts.size() - 1, i + half);
+    std::size_t run = 0;
+    for (std::size_t i = 0; i < level.size(); ++i) {
+        const double time_s = band.time_s(i);
+        if (time_s <= from_s) continue;
+        const std::size_t a = i > half ? i - half : 0, b = std::min(level.size() - 1, i + half);
         double sum = 0.0;  // the power mean over the points within +-half
         for (std::size_t k = a; k <= b; ++k) sum += power[k];
         const double band_db = power_to_db(sum / static_cast<double>(b - a + 1));
-        run = envelope_level(env, pieces, pts[i].time_s).db - band_db > over_db ? run + 1 : 0;
-        longest = std::max(longest, run);
+        run = envelope_level(env, pieces, time_s).db - band_db > over_db ? run + 1 : 0;
+        if (static_cast<double>(run) * step_s > longer_than_s) return true;
     }
-    return static_cast<double>(longest) * step_s;
+    return false;
 }
 
 }  // namespace
@@ -412,11 +435,11 @@ int follow_band_past_fits(patch& p, std::span<const cut_part> fitted, std::span<
         const bool short_held = ended_early && f.fit_end_s - f.fit_start_s < params.short_fit_s && last_holds(env);
         const double band_hz = std::max(capture_hz, std::min(params.short_fit_band_hz, 0.5 * nearest_other_hz(p, i)));
         if (spectrum == nullptr) spectrum = &whole_note_spectrum(cache, local, note, sample_rate_hz, capture_hz);
-        const partial_track band_points = band_track(*spectrum, p.partials[i].freq_hz, band_hz, note_s, params);
-        if (!short_held && time_over_band_s(env, band_points, f.fit_end_s, params.over_band_db,
-                                            params.band_smoothing_s) <= params.over_band_s)
+        const band_levels levels = band_levels_of(*spectrum, p.partials[i].freq_hz, band_hz, note_s, params);
+        if (!short_held && !over_band_longer_than(env, levels, f.fit_end_s, params.over_band_db, params.band_smoothing_s,
+                                                  params.over_band_s))
             continue;
-        const auto band = fit_partial(band_points, fit_params);
+        const auto band = fit_partial(band_track(levels, p.partials[i].freq_hz, params), fit_params);  // a track only now
         if (!band || last_holds(band->env)) continue;
         continue_with_band(env, band->env, f.fit_end_s);
         ++changed;

@@ -50,7 +50,12 @@ struct heard_peak_params {
     /// first-100 ms SNR median fell 13.80 -> 13.72 dB and the 40 more notes' 11.65 -> 11.57 (bars'
     /// and bells' modes, piano_d2), where a copy's single partial follows the louder member better.
     double group_within_db = 3.0;
-    int zero_padding = 8;           ///< FFT size >= zero_padding x span length
+    /// FFT size >= zero_padding x span length. 4 (was 8): peaks read by log-parabolic
+    /// interpolation between bins a quarter of the main-lobe half-width apart; half the transform
+    /// and its bins to scan (callgrind on the synthetic note: heard_spectrum 25.7 -> 14.8 M
+    /// instructions) for medians of LSD and first-100 ms SNR unchanged on the 17 shared and 40
+    /// held-out notes (no note's LSD worse by more than 0.09 dB nor its SNR by more than 0.21 dB).
+    int zero_padding = 4;
     /// Peaks the tracks missed (add_heard_peaks): within this many dB of the span's strongest
     /// peak, ...
     double add_within_db = 50.0;

@@ -59,18 +59,22 @@ spectral_peak peak_at(std::span<const float> power, std::span<const kiss_fft_cpx
     spectral_peak peak{.freq_hz = (double(k) + fit.offset_bins) * bin_hz,
                        .level_db = fit.level_db,
                        .phase_rad = 0.0,
-                       .floor_db = band_floor_db};
-    if (!bins.empty()) {
-        // Zero-phase frame: the phase is nearly flat over the main lobe; interpolate linearly
-        // toward the neighbour on the side of the true peak.
-        const std::size_t k2 = fit.offset_bins >= 0.0 ? k + 1 : k - 1;
-        const double ph0 = std::atan2(double(bins[k].i), double(bins[k].r));
-        const double ph1 = std::atan2(double(bins[k2].i), double(bins[k2].r));
-        peak.phase_rad = wrap_phase(ph0 + std::abs(fit.offset_bins) * wrap_phase(ph1 - ph0));
-    }
+                       .floor_db = band_floor_db,
+                       .bin = k,
+                       .offset_bins = fit.offset_bins};
+    if (!bins.empty()) peak.phase_rad = peak_phase_rad(bins, k, fit.offset_bins);
     return peak;
 }
 }  // namespace
+
+double peak_phase_rad(std::span<const kiss_fft_cpx> bins, std::size_t bin, double offset_bins) {
+    // Zero-phase frame: the phase is nearly flat over the main lobe; interpolate linearly toward
+    // the neighbour on the side of the true peak.
+    const std::size_t k2 = offset_bins >= 0.0 ? bin + 1 : bin - 1;
+    const double ph0 = std::atan2(double(bins[bin].i), double(bins[bin].r));
+    const double ph1 = std::atan2(double(bins[k2].i), double(bins[k2].r));
+    return wrap_phase(ph0 + std::abs(offset_bins) * wrap_phase(ph1 - ph0));
+}
 
 noise_floor::noise_floor(int bin_count, double bin_hz, double hop_s, const noise_floor_params& params)
     : bin_count_(bin_count),

@@ -64,7 +64,13 @@ struct spectral_peak {
     double level_db = 0.0;   ///< dBFS, sinusoid scale
     double phase_rad = 0.0;  ///< phase of cos at the frame centre
     double floor_db = 0.0;   ///< noise floor at this frequency
+    std::size_t bin = 0;      ///< the local maximum's FFT bin
+    double offset_bins = 0.0; ///< the QIFFT offset from it (freq_hz = (bin + offset_bins) x bin spacing)
 };
+
+/// The phase of a peak at `bin` + `offset_bins` from a zero-phase frame's raw bins: linear between
+/// the bin's and its neighbour's on the side of the true peak (find_peaks' phase_rad).
+double peak_phase_rad(std::span<const kiss_fft_cpx> bins, std::size_t bin, double offset_bins);
 
 struct peak_params {
     double min_freq_hz = 20.0;
@@ -75,7 +81,8 @@ struct peak_params {
 };
 
 /// Local maxima of `power` (sinusoid scale) passing the thresholds, interpolated with the window's
-/// QIFFT correction. `bins` (same length, raw FFT) gives the phase; pass an empty span to skip it.
+/// QIFFT correction. `bins` (same length, raw FFT) gives the phase; pass an empty span to skip it
+/// (peak_phase_rad gives it later, for the peaks that need one).
 void find_peaks(std::span<const float> power, std::span<const kiss_fft_cpx> bins,
                 const qifft_correction& correction, int fft_size, double sample_rate_hz,
                 const noise_floor* floor, const peak_params& params, std::vector<spectral_peak>& out);

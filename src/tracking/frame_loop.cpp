@@ -4,6 +4,7 @@
 #include <cmath>
 #include <cstdint>
 #include <numeric>
+#include <span>
 #include <string>
 #include <vector>
 
@@ -58,13 +59,15 @@ public:
           hop_time_s_(hop_s) {}
 
     /// One frame: continue tracks on the peaks (sorted by frequency), end the tracks that waited
-    /// too long, start tracks on strong unmatched peaks.
-    void step(const std::vector<spectral_peak>& peaks, double time_s) {
+    /// too long, start tracks on strong unmatched peaks. The peaks come without phases: a point's
+    /// phase is read from the frame's bins when a peak becomes one (peak_phase_rad; the same number
+    /// find_peaks would give every peak, most of which no track takes).
+    void step(const std::vector<spectral_peak>& peaks, std::span<const kiss_fft_cpx> bins, double time_s) {
         double frame_max_db = -infinity;
         for (const auto& p : peaks) frame_max_db = std::max(frame_max_db, p.level_db);
-        continue_tracks(peaks, time_s);
+        continue_tracks(peaks, bins, time_s);
         end_unmatched();
-        start_tracks(peaks, time_s, frame_max_db);
+        start_tracks(peaks, bins, time_s, frame_max_db);
     }
 
     bool none_alive() const { return live_.empty(); }
@@ -126,7 +129,7 @@ private:
         done_peak_db.resize(keep_at_most);
     }
 
-    void continue_tracks(const std::vector<spectral_peak>& peaks, double time_s) {
+    void continue_tracks(const std::vector<spectral_peak>& peaks, std::span<const kiss_fft_cpx> bins, double time_s) {
         // Candidate (track, peak) pairs within the deviation limit; peaks are sorted by frequency.
         matches_.clear();
         for (std::uint32_t ti = 0; ti < live_.size(); ++ti) {
@@ -154,7 +157,7 @@ private:
                        hop_time_s_);
             t.missed = 0;
             t.track.points.push_back({.time_s = time_s, .freq_hz = p.freq_hz, .level_db = p.level_db,
-                                      .phase_rad = p.phase_rad, .floor_db = p.floor_db});
+                                      .phase_rad = peak_phase_rad(bins, p.bin, p.offset_bins), .floor_db = p.floor_db});
             t.peak_db = std::max(t.peak_db, p.level_db);
         }
     }
@@ -174,7 +177,8 @@ private:
     }
 
     /// Births: strong unmatched peaks.
-    void start_tracks(const std::vector<spectral_peak>& peaks, double time_s, double frame_max_db) {
+    void start_tracks(const std::vector<spectral_peak>& peaks, std::span<const kiss_fft_cpx> bins, double time_s,
+                      double frame_max_db) {
         for (std::size_t pk = 0; pk < peaks.size(); ++pk) {
             const spectral_peak& p = peaks[pk];
             if (peak_used_[pk] || p.level_db < p.floor_db + birth_above_floor_db ||
@@ -192,7 +196,7 @@ private:
             }
             t.peak_db = p.level_db;
             t.track.points.push_back({.time_s = time_s, .freq_hz = p.freq_hz, .level_db = p.level_db,
-                                      .phase_rad = p.phase_rad, .floor_db = p.floor_db});
+                                      .phase_rad = peak_phase_rad(bins, p.bin, p.offset_bins), .floor_db = p.floor_db});
             live_.push_back(std::move(t));
         }
     }
@@ -229,9 +233,8 @@ frame_tracks run_frames(std::span<const float> x, double fs, std::int64_t onset,
         plan.analyze(x, centre, dc);
         floor.update(plan.power());
         for (std::size_t bnd = 0; bnd < floor_sum.size(); ++bnd) floor_sum[bnd] += floor.bands_db()[bnd];
-        find_peaks(plan.power(), plan.bins(), plan.correction(), m, fs, &floor,
-                   {.above_floor_db = continue_above_floor_db}, peaks);
-        tracks.step(peaks, time_s);
+        find_peaks(plan.power(), {}, plan.correction(), m, fs, &floor, {.above_floor_db = continue_above_floor_db}, peaks);
+        tracks.step(peaks, plan.bins(), time_s);
         // The note is over once every track has ended and nothing new stood up for a while: the
         // rest of the file is noise (or silence) and would only cost frames.
         quiet_frames = tracks.none_alive() ? quiet_frames + 1 : 0;
