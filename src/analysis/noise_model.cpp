@@ -37,6 +37,12 @@ struct timed_source {
     double until_s = infinity;
 };
 
+/// How many frames past where a floor band's line leaves the measured levels give the rate it
+/// falls at from there (held_past_fit): 0.1 s, at least 4 (project choice: short enough to stay on
+/// a fall of 300 dB/s that reaches its floor within 0.15 s, test_noise_past_fit; the slope of 17
+/// frames of 3-4 dB scatter at the 5.7 ms hop of f0 262 Hz is known to about 30 dB/s).
+std::size_t fall_span_frames(double hop_s) { return std::max<std::size_t>(4, static_cast<std::size_t>(std::lround(0.1 / hop_s))); }
+
 /// Frames [first, end) of a band level track as a partial track for the envelope fit; the floor
 /// under each frame is floor_db or the neighbours' leakage, whichever is higher.
 partial_track as_track(const noise_band_track& t, std::size_t first, std::size_t end, double floor_db) {
@@ -145,6 +151,11 @@ std::vector<noise_band> fit_bands(const std::vector<noise_band_track>& floors,
             result->env = limit_run_back(result->env, {.window = window, .window_s = window_s,
                                                        .hop_s = t.hop_s, .level_db = t.level_db, .first = first});
         if (result) result->env = held_to_measured(result->env, t, first, end);
+        if (result) {
+            // The fit's last frame (its times are frame times, as_track).
+            const auto fit_end = std::min(end, static_cast<std::size_t>(std::lround(result->fit_end_s / t.hop_s)) + 1);
+            result->env = held_past_fit(result->env, t, std::max(first, fit_end), end);
+        }
         // Bounded like the partials' fits (analyze.cpp): a peak beyond what the format holds (an
         // attack extrapolated far above the measured levels) is no band of this note.
         // A floor band is kept down to digital silence (the recording's own hiss is part of its
@@ -235,6 +246,46 @@ envelope held_to_measured(envelope env, const noise_band_track& t, std::size_t f
         fitted_db = std::max(fitted_db, envelope_level(env, pieces, static_cast<double>(i) * t.hop_s).db);
     }
     if (fitted_db > measured_db + floor_runaway_db) env.peak = level_db{env.peak.db - (fitted_db - measured_db)};
+    return env;
+}
+
+envelope held_past_fit(envelope env, const noise_band_track& t, std::size_t fit_end, std::size_t end) {
+    assert(fit_end <= end && end <= t.level_db.size());
+    if (fit_end >= end) return env;
+    // loudest[i - fit_end]: the loudest level measured on frames [i, end).
+    std::vector<double> loudest(end - fit_end);
+    double running_db = -std::numeric_limits<double>::infinity();
+    for (std::size_t i = end; i-- > fit_end;) {
+        running_db = std::max(running_db, static_cast<double>(t.level_db[i]));
+        loudest[i - fit_end] = running_db;
+    }
+    const std::vector<envelope_piece> pieces = envelope_pieces(env);
+    // Only where a whole fall span of frames follows (near the end the loudest of a few frames is
+    // their scatter, not the band's level).
+    const std::size_t span = fall_span_frames(t.hop_s);
+    for (std::size_t i = fit_end; i + span <= end; ++i) {
+        const double time_s = static_cast<double>(i) * t.hop_s;
+        const double line_db = envelope_level(env, pieces, time_s).db;
+        if (time_s <= env.attack_s || line_db <= loudest[i - fit_end] + floor_runaway_db) continue;
+        // From here the line stands clear over every later frame: it falls at the rate the
+        // measured levels fall over the next span frames (least-squares slope of their dB levels
+        // against time, dB/s), when that is steeper than its own.
+        const std::size_t last = i + span;
+        double st = 0.0, sl = 0.0, stt = 0.0, stl = 0.0;
+        for (std::size_t j = i; j < last; ++j) {
+            const double u = static_cast<double>(j - i) * t.hop_s;
+            const auto l = static_cast<double>(t.level_db[j]);
+            st += u; sl += l; stt += u * u; stl += u * l;
+        }
+        const auto n = static_cast<double>(last - i);
+        const double denom = n * stt - st * st;
+        if (!(denom > 0.0)) return env;
+        const double slope_db_per_s = (n * stl - st * sl) / denom;
+        if (!(slope_db_per_s < pieces.back().slope_db_per_s)) return env;
+        env.decay.back().until_s = time_s;
+        env.decay.push_back({.t60_s = -60.0 / slope_db_per_s, .until_s = std::nullopt});
+        return env;
+    }
     return env;
 }
 

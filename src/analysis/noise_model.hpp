@@ -117,6 +117,15 @@ inline constexpr double floor_runaway_db = 10.0;
 /// levels, the whole envelope is lowered until its highest point there is that loudest level.
 envelope held_to_measured(envelope env, const noise_band_track& t, std::size_t first, std::size_t end);
 
+/// env past the frames it was fitted on (fit_end..end-1 of t), whose last slope runs on: from the
+/// first frame where its level stands more than floor_runaway_db over the loudest level measured on
+/// that frame and every later one (with at least 0.1 s of frames after it), a last segment falls
+/// at the rate the measured levels fall over that 0.1 s (when steeper than the line's own). A
+/// band's own level is never over what was measured in it: xylophone_c5's 141-178 Hz band of the
+/// held-out notes, fitted on two frames before it fell under its neighbours' leakage, was held flat
+/// at -70 dB for the whole note over frames falling to -120 dB.
+envelope held_past_fit(envelope env, const noise_band_track& t, std::size_t fit_end, std::size_t end);
+
 /// Floor window length for a note with this f0 (0: none) and these partials (rule above), seconds.
 double floor_window_s(std::span<const double> partial_freqs_hz, double f0_hz, const noise_model_params& params);
 
