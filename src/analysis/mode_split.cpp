@@ -5,6 +5,7 @@
 #include <cassert>
 #include <cmath>
 #include <complex>
+#include <cstring>
 #include <numeric>
 #include <optional>
 #include <vector>
@@ -13,6 +14,7 @@
 #include "core/units.hpp"
 #include "modes/damped_mode.hpp"
 #include "modes/esprit.hpp"
+#include "synthesis/kernel_clones.hpp"
 #include "synthesis/render.hpp"
 
 namespace wane {
@@ -75,15 +77,35 @@ void take_modes_off(std::span<float> residual, std::span<const float> own, std::
     }
 }
 
-/// max |x[n]| (0 for none), in eight lanes (a vector loop; the maximum is the same in any order).
-float largest_magnitude(std::span<const float> x) {
+/// Eight float lanes (GCC/Clang vector extensions): one AVX register, two SSE registers.
+using vfloat8 = float __attribute__((vector_size(32)));
+
+/// work[n] = residual[n] + work[n] for every n (the candidate's own render made its target, in
+/// place), returning max |own[n]| over the render as it came in (0 for none): one pass over the
+/// note where a separate maximum and sum took two. The maximum is the same in any order, lane by
+/// lane as a scalar would take it (a NaN never replaces a lane's maximum: the comparison is false).
+WANE_KERNEL_CLONES
+float add_own_keep_loudest(std::span<const float> residual, std::span<float> work) {
+    assert(residual.size() == work.size());
     constexpr std::size_t lanes = 8;
-    std::array<float, lanes> top{};
+    vfloat8 top{};
     std::size_t n = 0;
-    for (; n + lanes <= x.size(); n += lanes)
-        for (std::size_t k = 0; k < lanes; ++k) top[k] = std::max(top[k], std::abs(x[n + k]));
-    for (; n < x.size(); ++n) top[0] = std::max(top[0], std::abs(x[n]));
-    return *std::max_element(top.begin(), top.end());
+    for (; n + lanes <= work.size(); n += lanes) {
+        vfloat8 own, res;
+        std::memcpy(&own, work.data() + n, sizeof own);
+        std::memcpy(&res, residual.data() + n, sizeof res);
+        const vfloat8 size = own < 0.0F ? -own : own;
+        top = size > top ? size : top;
+        const vfloat8 sum = res + own;
+        std::memcpy(work.data() + n, &sum, sizeof sum);
+    }
+    float loudest = 0.0F;
+    for (std::size_t k = 0; k < lanes; ++k) loudest = std::max(loudest, top[k]);
+    for (; n < work.size(); ++n) {
+        loudest = std::max(loudest, std::abs(work[n]));
+        work[n] = residual[n] + work[n];
+    }
+    return loudest;
 }
 
 double energy(std::span<const float> x, std::size_t count) {
@@ -310,8 +332,7 @@ mode_split_summary split_into_modes(patch& p, std::span<const float> note, doubl
         const partial_renderer own_of(some_of(p, one), partials_only(sample_rate_hz, frames));
         assert(own_of.frames() == frames);
         own_of.render(0, work);
-        const auto loudest = static_cast<double>(largest_magnitude(work));
-        for (std::size_t n = 0; n < frames; ++n) work[n] = residual[n] + work[n];
+        const auto loudest = static_cast<double>(add_own_keep_loudest(residual, work));
         const std::span<const float> target = work;
         const double freq_hz = p.partials[k].freq_hz;
         const cvec band = band_of(target, freq_hz, sample_rate_hz, d);
