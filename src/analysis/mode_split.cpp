@@ -319,6 +319,9 @@ mode_split_summary split_into_modes(patch& p, std::span<const float> note, doubl
     const auto early = static_cast<std::size_t>(params.early_s * sample_rate_hz);
     const double gain = to_amp(level_db{p.note.gain_db}).lin;
     const double min_gain = to_amp(level_db{params.min_gain_db}).lin;  // squared below: a power ratio
+    // No candidate, no residual to render (the list depends on p as it came in only).
+    const std::vector<std::size_t> tried = candidates(p, sample_rate_hz, params);
+    if (tried.empty()) return summary;
     std::vector<std::size_t> all(p.partials.size());
     std::iota(all.begin(), all.end(), std::size_t{0});
     std::vector<float> residual = render_patch(some_of(p, all), partials_only(sample_rate_hz, frames));
@@ -327,7 +330,7 @@ mode_split_summary split_into_modes(patch& p, std::span<const float> note, doubl
     // One note-long buffer besides the residual: the candidate's own render (render_patch's frames),
     // made its target (residual + own) in place, and its own render again once modes are found.
     std::vector<float> work(frames);
-    for (std::size_t k : candidates(p, sample_rate_hz, params)) {
+    for (std::size_t k : tried) {
         const std::size_t one[] = {k};
         const partial_renderer own_of(some_of(p, one), partials_only(sample_rate_hz, frames));
         assert(own_of.frames() == frames);
