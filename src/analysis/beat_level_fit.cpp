@@ -8,6 +8,7 @@
 
 #include <Eigen/Dense>
 
+#include "core/line_fit.hpp"
 #include "core/units.hpp"
 
 namespace wane {
@@ -107,17 +108,15 @@ double cost(const points& x, const vec6& p, double stop_at = infinity) {
 /// at each point, dB, a buffer of the points' size); returns the squared error.
 double solve_line(const points& x, vec6& p, std::span<double> ripple) {
     ratio_walk z(p, x);
-    double n = 0.0, st = 0.0, sy = 0.0, stt = 0.0, sty = 0.0;
+    line_sums sums;
     for (std::size_t i = 0; i < x.tau.size(); ++i) {
         double re = 0.0, im = 0.0;
         z.next(i, re, im);
         ripple[i] = db_per_ln_power * std::log(ripple_power(re, im));
-        const double y = x.level[i] - ripple[i];
-        n += 1.0, st += x.tau[i], sy += y, stt += x.tau[i] * x.tau[i], sty += x.tau[i] * y;
+        sums.add(x.tau[i], x.level[i] - ripple[i]);
     }
-    const double var = stt - st * st / n;
-    p(p_s) = var > 0.0 ? (sty - st * sy / n) / var : 0.0;
-    p(p_c) = (sy - p(p_s) * st) / n;
+    p(p_s) = sums.slope().value_or(0.0);
+    p(p_c) = sums.intercept(p(p_s));
     double e2 = 0.0;
     for (std::size_t i = 0; i < x.tau.size(); ++i) {
         const double e = p(p_c) + p(p_s) * x.tau[i] + ripple[i] - x.level[i];

@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "analysis/beat_level_fit.hpp"
+#include "core/line_fit.hpp"
 
 namespace wane {
 
@@ -27,22 +28,14 @@ bool last_segment_falls(const cut_part& part, const cut_tail_params& params) {
     return -slope * std::max(0.0, part.fit_end_s - last_segment_start_s(*part.env)) >= params.min_fall_db;
 }
 
-/// Least-squares slope of the track's level (dB) over [from_s, to_s], dB per second.
+/// Least-squares slope of the track's level (dB) over [from_s, to_s], dB per second (core/line_fit),
+/// from 3 points or more.
 std::optional<double> level_slope(const cut_part& part, double from_s, double to_s) {
     if (part.track == nullptr) return std::nullopt;
-    double n = 0.0, st = 0.0, sl = 0.0, stt = 0.0, stl = 0.0;
-    for (const track_point& q : part.track->points) {
-        if (q.time_s < from_s || q.time_s > to_s) continue;
-        n += 1.0;
-        st += q.time_s;
-        sl += q.level_db;
-        stt += q.time_s * q.time_s;
-        stl += q.time_s * q.level_db;
-    }
-    if (n < 3.0) return std::nullopt;
-    const double var = stt - st * st / n;
-    if (!(var > 0.0)) return std::nullopt;
-    return (stl - st * sl / n) / var;
+    line_sums sums;
+    for (const track_point& q : part.track->points)
+        if (q.time_s >= from_s && q.time_s <= to_s) sums.add(q.time_s, q.level_db);
+    return sums.slope(3.0);
 }
 
 /// Rule 0 for a plateau that starts at a beat's trough (cut_tail.hpp): the segment before it

@@ -12,6 +12,8 @@
 #include "analysis/floor_onset.hpp"
 #include "analysis/noise_measure.hpp"
 #include "core/envelope.hpp"
+#include "core/line_fit.hpp"
+#include "core/units.hpp"
 #include "core/noise_bands.hpp"
 #include "spectrum/stft.hpp"
 #include "synthesis/render.hpp"
@@ -270,20 +272,13 @@ envelope held_past_fit(envelope env, const noise_band_track& t, std::size_t fit_
         // From here the line stands clear over every later frame: it falls at the rate the
         // measured levels fall over the next span frames (least-squares slope of their dB levels
         // against time, dB/s), when that is steeper than its own.
-        const std::size_t last = i + span;
-        double st = 0.0, sl = 0.0, stt = 0.0, stl = 0.0;
-        for (std::size_t j = i; j < last; ++j) {
-            const double u = static_cast<double>(j - i) * t.hop_s;
-            const auto l = static_cast<double>(t.level_db[j]);
-            st += u; sl += l; stt += u * u; stl += u * l;
-        }
-        const auto n = static_cast<double>(last - i);
-        const double denom = n * stt - st * st;
-        if (!(denom > 0.0)) return env;
-        const double slope_db_per_s = (n * stl - st * sl) / denom;
-        if (!(slope_db_per_s < pieces.back().slope_db_per_s)) return env;
+        line_sums sums;
+        for (std::size_t j = i; j < i + span; ++j)
+            sums.add(static_cast<double>(j - i) * t.hop_s, static_cast<double>(t.level_db[j]));
+        const std::optional<double> slope_db_per_s = sums.slope();
+        if (!slope_db_per_s || !(*slope_db_per_s < pieces.back().slope_db_per_s)) return env;
         env.decay.back().until_s = time_s;
-        env.decay.push_back({.t60_s = -60.0 / slope_db_per_s, .until_s = std::nullopt});
+        env.decay.push_back({.t60_s = slope_db_per_s_to_t60(*slope_db_per_s), .until_s = std::nullopt});
         return env;
     }
     return env;
