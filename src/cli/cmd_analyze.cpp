@@ -315,7 +315,7 @@ void add_analyze_command(CLI::App& app, command_registry& reg) {
                     "Patch file for one input; folder for several (one <stem>.toml each)")
         ->required();
     sub->add_option("--f0", o->f0_hz, "Hint of the fundamental in Hz: numbers the harmonics and starts the series fit; the partials found are the same as without it");
-    sub->add_option("--max-partials", o->max_partials, "Keep at most this many partials, strongest first")
+    sub->add_option("--max-partials", o->max_partials, "Keep at most this many partials, strongest first; past the 80 strongest only those within 60 dB of the strongest")
         ->capture_default_str();
     sub->add_option("--max-segments", o->max_segments, "Decay segments per partial, at most")->capture_default_str();
     sub->add_option("--start-s", o->start_s, "Analyze from this time in the file, seconds")->capture_default_str();

@@ -85,10 +85,23 @@ void label_harmonics(const std::vector<double>& freqs, double f0_hz, double b, d
 /// The tracks' strength (peak level), frequency and fit weight, by index.
 struct track_ranking {
     std::vector<double> strength, rep_freq, weight;
-    std::vector<std::size_t> order;  ///< the strongest max_partials, by frequency
+    std::vector<std::size_t> order;  ///< the tracks kept (track_keep), by frequency
 };
 
-track_ranking rank_tracks(const std::vector<partial_track>& done, double window_s, int max_partials) {
+}  // namespace
+
+std::size_t kept_track_count(std::span<const double> strength_desc, const track_keep& keep) {
+    const std::size_t cap = std::min(strength_desc.size(), static_cast<std::size_t>(std::max(keep.max_partials, 0)));
+    std::size_t n = std::min(cap, static_cast<std::size_t>(std::max(keep.faint_rank, 0)));
+    if (strength_desc.empty()) return 0;
+    const double lowest_db = strength_desc.front() - keep.faint_range_db;
+    while (n < cap && strength_desc[n] >= lowest_db) ++n;
+    return n;
+}
+
+namespace {
+
+track_ranking rank_tracks(const std::vector<partial_track>& done, double window_s, const track_keep& keep) {
     track_ranking r;
     std::vector<double>& strength = r.strength;
     std::vector<double>& rep_freq = r.rep_freq;
@@ -110,7 +123,9 @@ track_ranking rank_tracks(const std::vector<partial_track>& done, double window_
     order.resize(done.size());
     std::iota(order.begin(), order.end(), std::size_t{0});
     std::sort(order.begin(), order.end(), [&](auto a, auto c) { return strength[a] > strength[c]; });
-    if (order.size() > static_cast<std::size_t>(max_partials)) order.resize(max_partials);
+    std::vector<double> strength_desc(order.size());
+    for (std::size_t i = 0; i < order.size(); ++i) strength_desc[i] = strength[order[i]];
+    order.resize(kept_track_count(strength_desc, keep));
     std::sort(order.begin(), order.end(), [&](auto a, auto c) { return rep_freq[a] < rep_freq[c]; });
     return r;
 }
@@ -185,8 +200,8 @@ series_fit fit_labelled_series(const std::vector<int>& harmonic, const std::vect
 }
 
 void label_tracks(std::vector<partial_track>& done, double f0_hz, double b, std::optional<double> f0_override,
-                  int max_partials, tracking_result& result) {
-    const track_ranking r = rank_tracks(done, result.window_s, max_partials);
+                  const track_keep& keep, tracking_result& result) {
+    const track_ranking r = rank_tracks(done, result.window_s, keep);
     const std::vector<std::size_t>& order = r.order;
     std::vector<int> harmonic(order.size(), 0);
     std::vector<double> freqs(order.size()), weights(order.size());

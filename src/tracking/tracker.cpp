@@ -191,7 +191,10 @@ tracking_result track_note(std::span<const float> samples, double sample_rate_hz
     tracker_steps::join_fragments(found.tracks, found.peak_db, result.hop_s, max_join_gap_s, join_rel_tol);
 
     // ---- keep the strongest, label harmonics, fit B ----
-    tracker_steps::label_tracks(found.tracks, guess.f0_hz, guess.b, params.f0_hz, params.max_partials, result);
+    const tracker_steps::track_keep keep{.max_partials = params.max_partials,
+                                         .faint_rank = params.faint_rank,
+                                         .faint_range_db = params.faint_range_db};
+    tracker_steps::label_tracks(found.tracks, guess.f0_hz, guess.b, params.f0_hz, keep, result);
     return result;
 }
 

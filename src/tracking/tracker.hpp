@@ -17,7 +17,13 @@ struct tracking_params {
     std::optional<double> window_s;     ///< override the automatic window length (--window-s)
     std::optional<int> fft_size;        ///< override the FFT size (--fft-size)
     std::optional<double> hop_s;        ///< override the hop (--hop-s)
-    int max_partials = 80;              ///< keep at most this many tracks, strongest first
+    int max_partials = 160;             ///< keep at most this many tracks, strongest first
+    /// Past the faint_rank strongest tracks, a track is kept only when its peak is within
+    /// faint_range_db of the strongest track's: a harpsichord's upper harmonics, 26-60 dB under
+    /// its strongest, are heard, where the tracks 75-100 dB under a guitar's or piano's strongest
+    /// are peaks of the noise floor that start seconds late (held-out notes, s39).
+    int faint_rank = 80;
+    double faint_range_db = 60.0;
 };
 
 /// Finds the onset, f0 and the partial tracks of a mono note. Throws analysis_error with

@@ -53,9 +53,20 @@ void join_fragments(std::vector<partial_track>& tracks, std::vector<double>& pea
 series_fit fit_labelled_series(const std::vector<int>& harmonic, const std::vector<double>& freq_hz,
                                const std::vector<double>& weight);
 
-/// Keeps the max_partials strongest tracks, labels them with harmonic numbers on the refitted
+/// Which tracks are kept: at most max_partials, strongest (peak level) first; past the
+/// faint_rank strongest only those within faint_range_db of the strongest (tracking_params).
+struct track_keep {
+    int max_partials = 0;
+    int faint_rank = 0;
+    double faint_range_db = 0.0;
+};
+
+/// The number of tracks kept of `strength_desc` (each track's peak level, dB, strongest first).
+std::size_t kept_track_count(std::span<const double> strength_desc, const track_keep& keep);
+
+/// Keeps the strongest tracks (track_keep), labels them with harmonic numbers on the refitted
 /// series, and fills result.tracks (by frequency), series_f0_hz, inharmonicity_b and f0_hz.
 void label_tracks(std::vector<partial_track>& done, double f0_hz, double b, std::optional<double> f0_override,
-                  int max_partials, tracking_result& result);
+                  const track_keep& keep, tracking_result& result);
 
 }  // namespace wane::tracker_steps

@@ -376,3 +376,67 @@ TEST_CASE("odd harmonics only, falling as 1/n^2 (a triangle wave): f0 and B = 0"
         CHECK(std::abs(cents_between(track_freq_hz(t), t.harmonic * f0)) < 0.2);
     }
 }
+
+namespace {
+
+/// Harmonics n = 1..count of f0_hz with the given levels (dB re 0.2), T60 3 s, random phases, in
+/// noise 110 dB under 0.2; 1.5 s at 48 kHz.
+std::vector<float> harmonic_comb(double f0_hz, const std::vector<double>& level_db, unsigned seed) {
+    splitmix64 rng{seed};
+    const test::uniform_draw<double> uni{0.0, 1.0};
+    std::vector<synth_partial> partials;
+    for (std::size_t i = 0; i < level_db.size(); ++i)
+        partials.push_back({.freq_hz = f0_hz * static_cast<double>(i + 1),
+                            .amp_lin = 0.2 * std::pow(10.0, level_db[i] / 20.0),
+                            .t60_s = 3.0,
+                            .phase_rad = two_pi * uni(rng)});
+    return synth(partials, 48000.0, 1.5, 0.1, 0.2 * std::pow(10.0, -110.0 / 20.0), seed);
+}
+
+}  // namespace
+
+TEST_CASE("past the 80 strongest, tracks within the faint range of the strongest are kept", "[tracking][keep]") {
+    constexpr double f0 = 100.0;
+    constexpr int count = 120;
+    SECTION("120 harmonics, 0 to -40 dB: every one kept and numbered; at most 80 when asked") {
+        std::vector<double> level_db;
+        for (int n = 1; n <= count; ++n) level_db.push_back(-40.0 * (n - 1) / (count - 1));
+        const auto x = harmonic_comb(f0, level_db, 5);
+        const tracking_result r = track_note(x, 48000.0, {});
+        CAPTURE(r.f0_hz, r.tracks.size());
+        std::vector<int> seen(count + 1, 0);
+        for (const auto& t : r.tracks) {
+            CAPTURE(t.harmonic, track_freq_hz(t));
+            REQUIRE(t.harmonic >= 1);
+            REQUIRE(t.harmonic <= count);
+            CHECK(std::abs(cents_between(track_freq_hz(t), f0 * t.harmonic)) < 1.0);
+            ++seen[t.harmonic];
+        }
+        for (int n = 1; n <= count; ++n) {
+            CAPTURE(n);
+            CHECK(seen[n] == 1);
+        }
+        tracking_params at_most_80;
+        at_most_80.max_partials = 80;
+        const tracking_result r80 = track_note(x, 48000.0, at_most_80);
+        REQUIRE(r80.tracks.size() == 80);
+        for (const auto& t : r80.tracks) {
+            CAPTURE(t.harmonic);
+            CHECK(t.harmonic <= 80);  // the strongest: levels fall with n
+        }
+    }
+    SECTION("80 harmonics within 30 dB and 40 at -65 dB: the faint 40 kept only in a wider range") {
+        const double range_db = GENERATE(60.0, 75.0);
+        std::vector<double> level_db;
+        for (int n = 1; n <= count; ++n) level_db.push_back(n <= 80 ? -30.0 * (n - 1) / 79 : -65.0);
+        const auto x = harmonic_comb(f0, level_db, 6);
+        tracking_params p;
+        p.faint_range_db = range_db;
+        const tracking_result r = track_note(x, 48000.0, p);
+        int faint = 0;
+        for (const auto& t : r.tracks) faint += t.harmonic > 80 ? 1 : 0;
+        CAPTURE(range_db, r.tracks.size(), faint);
+        CHECK(r.tracks.size() == (range_db > 65.0 ? 120U : 80U));
+        CHECK(faint == (range_db > 65.0 ? 40 : 0));
+    }
+}
