@@ -257,33 +257,9 @@ struct fit_path {
     waveform_fit f;
 };
 
-/// True when the recording holds mode m (a partial's frequency and early decay) at the fitted level0
-/// (dB) and goes on with it: its Hann-windowed projection (analysis/new_mode_rule.hpp:
-/// windowed_amplitude, the neighbours two cells off left out) on target (the fit span, the fixed
-/// partials taken off) within loud_heard_db under level0; and the recording goes on at the
-/// partial's frequency: its steady projection on note's next fit_n samples falls from the one on
-/// the first less than a mode of T60 loud_lasting_t60_s would. A start far louder than the
-/// partial's STFT envelope is then the partial's own (its track born late, its first frames' level
-/// lost to a neighbour's track or under a dip), not least squares trading amplitude between modes
-/// that cancel, nor a short-lived component at the partial's frequency that dies within the span.
-bool heard_at_fitted_level(std::span<const float> note, std::span<const float> target, double sample_rate_hz,
-                           const damped_mode& m, double level0_db, const onset_refine_params& params) {
-    const std::size_t fit_n = target.size();
-    if (!(level0_db < max_peak_db) || note.size() < 2 * fit_n) return false;
-    const double span_db = to_level(amp_lin{std::abs(windowed_amplitude(target, sample_rate_hz, m, 0, fit_n))}).db;
-    // Steady projections (no decay assumed) on the span and on the next.
-    const damped_mode steady{.freq_hz = m.freq_hz, .decay_per_s = 0.0};
-    const double first_db = to_level(amp_lin{std::abs(windowed_amplitude(note, sample_rate_hz, steady, 0, fit_n))}).db;
-    const double next_db = to_level(amp_lin{std::abs(windowed_amplitude(note, sample_rate_hz, steady, fit_n, fit_n))}).db;
-    // The Hann windows' centres lie fit_n apart: a mode of T60 loud_lasting_t60_s falls
-    // 60 fit_n / (fs T60) dB between them.
-    const double lasting_drop_db = 60.0 * static_cast<double>(fit_n) / (sample_rate_hz * params.loud_lasting_t60_s);
-    return span_db >= level0_db - params.loud_heard_db && next_db >= first_db - lasting_drop_db;
-}
-
 /// After a pass: exponential starts that came out as a slow rise (far under the STFT peak) or
-/// implausibly loud become shaped; shaped ones whose level would move by more than slow_rise_db
-/// become fixed; new modes too weak or too loud are dropped. True when anything changed.
+/// implausibly loud (the recording not holding them: heard_at_fitted_level) become shaped; shaped ones
+/// whose level would move by more than slow_rise_db become fixed; new modes too weak or too loud are dropped.
 bool revise_roles(const patch& p, std::span<const float> note, const waveform_fit& f, std::span<const double> joint, std::vector<role>& roles,
                   std::vector<damped_mode>& new_modes, double sample_rate_hz, const onset_refine_params& params) {
     bool changed = false;
@@ -295,10 +271,8 @@ bool revise_roles(const patch& p, std::span<const float> note, const waveform_fi
             if (std::abs(level0) > params.slow_rise_db) roles[k] = role::fixed, changed = true;
             continue;
         }
-        const bool slow_rise = level0 < part.env.peak.db - params.slow_rise_db && part.env.attack_s > 0.0 &&
-                               part.env.attack_s <= params.max_shaped_attack_s;
-        const bool loud = !(level0 <= std::min(part.env.peak.db + 12.0, max_peak_db)) &&
-                          !heard_at_fitted_level(note, f.target, sample_rate_hz, f.modes[i], level0, params);
+        const bool slow_rise = level0 < part.env.peak.db - params.slow_rise_db && part.env.attack_s > 0.0 && part.env.attack_s <= params.max_shaped_attack_s;
+        const bool loud = !(level0 <= std::min(part.env.peak.db + 12.0, max_peak_db)) && !heard_at_fitted_level(note, f.target, sample_rate_hz, f.modes[i], level0, params);
         if (slow_rise || loud) roles[k] = role::shaped, changed = true;
     }
     std::vector<damped_mode> kept = kept_new_modes(f.target, sample_rate_hz, f.modes, f.shapes, f.energy, f.partial_of.size(), params, joint);
