@@ -49,6 +49,21 @@ std::complex<double> windowed_amplitude(std::span<const float> note, double samp
     return windowed_amplitude(note, sample_rate_hz, m, first, make_window(window_kind::hann, static_cast<int>(count), window_symmetry::symmetric));
 }
 
+bool heard_at_fitted_level(std::span<const float> note, std::span<const float> target, double sample_rate_hz,
+                           const damped_mode& m, double level0_db, const onset_refine_params& params) {
+    const std::size_t fit_n = target.size();
+    if (!(level0_db < max_peak_db) || note.size() < 2 * fit_n) return false;
+    const double span_db = to_level(amp_lin{std::abs(windowed_amplitude(target, sample_rate_hz, m, 0, fit_n))}).db;
+    // Steady projections (no decay assumed) on the span and on the next.
+    const damped_mode steady{.freq_hz = m.freq_hz, .decay_per_s = 0.0};
+    const double first_db = to_level(amp_lin{std::abs(windowed_amplitude(note, sample_rate_hz, steady, 0, fit_n))}).db;
+    const double next_db = to_level(amp_lin{std::abs(windowed_amplitude(note, sample_rate_hz, steady, fit_n, fit_n))}).db;
+    // The Hann windows' centres lie fit_n apart: a mode of T60 loud_lasting_t60_s falls
+    // 60 fit_n / (fs T60) dB between them.
+    const double lasting_drop_db = 60.0 * static_cast<double>(fit_n) / (sample_rate_hz * params.loud_lasting_t60_s);
+    return span_db >= level0_db - params.loud_heard_db && next_db >= first_db - lasting_drop_db;
+}
+
 std::vector<damped_mode> lasting_modes(std::span<const damped_mode> candidates, std::span<const float> note,
                                        double sample_rate_hz, std::size_t span_n, const onset_refine_params& params) {
     std::vector<damped_mode> out;

@@ -46,6 +46,18 @@ std::complex<double> windowed_amplitude(std::span<const float> note, double samp
 std::complex<double> windowed_amplitude(std::span<const float> note, double sample_rate_hz, const damped_mode& m,
                                         std::size_t first, std::span<const float> window);
 
+/// For the onset fit's loud starts (onset_refine.cpp): true when the recording holds mode m (a
+/// partial's frequency and early decay) at the fitted level0 (dB): its Hann-windowed projection
+/// (windowed_amplitude, the neighbours two cells off left out) on target (the fit span, the fixed
+/// partials taken off) within loud_heard_db under level0; and the recording goes on at the
+/// partial's frequency: its steady projection on note's next fit_n samples falls from the one on
+/// the first less than a mode of T60 loud_lasting_t60_s would. A start far louder than the
+/// partial's STFT envelope is then the partial's own (its track born late, its first frames' level
+/// lost to a neighbour's track or under a dip), not least squares trading amplitude between modes
+/// that cancel, nor a short-lived component at the partial's frequency that dies within the span.
+bool heard_at_fitted_level(std::span<const float> note, std::span<const float> target, double sample_rate_hz,
+                           const damped_mode& m, double level0_db, const onset_refine_params& params);
+
 /// The candidates found again on the shorter span (stable): within stable_freq_cells cells of
 /// cluster_hz and stable_decay_rel of their decay.
 std::vector<damped_mode> stable_modes(std::span<const damped_mode> candidates, std::span<const damped_mode> again,

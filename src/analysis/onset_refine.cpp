@@ -258,9 +258,9 @@ struct fit_path {
 };
 
 /// After a pass: exponential starts that came out as a slow rise (far under the STFT peak) or
-/// implausibly loud become shaped; shaped ones whose level would move by more than slow_rise_db
-/// become fixed; new modes too weak or too loud are dropped. True when anything changed.
-bool revise_roles(const patch& p, const waveform_fit& f, std::span<const double> joint, std::vector<role>& roles,
+/// implausibly loud (the recording not holding them: heard_at_fitted_level) become shaped; shaped ones
+/// whose level would move by more than slow_rise_db become fixed; new modes too weak or too loud are dropped.
+bool revise_roles(const patch& p, std::span<const float> note, const waveform_fit& f, std::span<const double> joint, std::vector<role>& roles,
                   std::vector<damped_mode>& new_modes, double sample_rate_hz, const onset_refine_params& params) {
     bool changed = false;
     for (std::size_t i = 0; i < f.partial_of.size(); ++i) {
@@ -271,9 +271,9 @@ bool revise_roles(const patch& p, const waveform_fit& f, std::span<const double>
             if (std::abs(level0) > params.slow_rise_db) roles[k] = role::fixed, changed = true;
             continue;
         }
-        const bool slow_rise = level0 < part.env.peak.db - params.slow_rise_db && part.env.attack_s > 0.0 &&
-                               part.env.attack_s <= params.max_shaped_attack_s;
-        if (slow_rise || !(level0 <= std::min(part.env.peak.db + 12.0, max_peak_db))) roles[k] = role::shaped, changed = true;
+        const bool slow_rise = level0 < part.env.peak.db - params.slow_rise_db && part.env.attack_s > 0.0 && part.env.attack_s <= params.max_shaped_attack_s;
+        const bool loud = !(level0 <= std::min(part.env.peak.db + 12.0, max_peak_db)) && !heard_at_fitted_level(note, f.target, sample_rate_hz, f.modes[i], level0, params);
+        if (slow_rise || loud) roles[k] = role::shaped, changed = true;
     }
     std::vector<damped_mode> kept = kept_new_modes(f.target, sample_rate_hz, f.modes, f.shapes, f.energy, f.partial_of.size(), params, joint);
     changed = changed || kept.size() != new_modes.size();
@@ -429,7 +429,7 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
             const std::vector<double> joint = joint_residual(s.f.target, sample_rate_hz, s.f.modes, s.f.shapes);  // for both
             const bool attacks_changed = params.search_attacks && update_attacks(p, s.f, joint, s.roles, sample_rate_hz, params.attacks, s.attacks);
             if (two_ways) update_attacks(p, s.f, {}, s.roles, sample_rate_hz, alone_params, alone, true);
-            const bool roles_changed = revise_roles(p, s.f, joint, s.roles, s.new_modes, sample_rate_hz, params);
+            const bool roles_changed = revise_roles(p, note, s.f, joint, s.roles, s.new_modes, sample_rate_hz, params);
             if (two_ways && alone != s.attacks && !s.new_modes.empty()) *other = fit_path{s.roles, s.new_modes, alone, {}};
             other = nullptr;
             if (!attacks_changed && !roles_changed) return;

@@ -96,6 +96,12 @@ struct onset_refine_params {
     /// ... each of the strongest partials (attacks.max_rising_partials) searched with a companion
     /// of this decay (1/s; 46: T60 0.15 s, the fit span), so a partial may swell from the start.
     double start_rise_decay_per_s = 46.0;
+    /// An exponential start more than 12 dB over the partial's STFT peak is taken as the fit's, not
+    /// the recording's (the partial keeps its STFT shape), unless the span's Hann-windowed
+    /// projection at the partial reads it within this many dB and the next span goes on with it
+    /// (falling no faster than a mode of T60 loud_lasting_t60_s; onset_refine.cpp: heard_at_fitted_level).
+    double loud_heard_db = 3.0;
+    double loud_lasting_t60_s = 1.0;
     /// An envelope with an instant onset that agrees with the early line within this is kept.
     double agree_db = 1.0;
     /// After the passes, a partial whose STFT envelope rises may take that shape when it fits the
