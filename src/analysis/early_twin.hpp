@@ -48,16 +48,17 @@ struct early_twin_params {
     /// T60s tried, seconds: from a short stage to a steady mode.
     std::vector<double> t60_grid_s{0.1, 0.2, 0.4, 0.8, 1.6, 3.2};
     /// A twin is kept when it takes at least this share of the recording's energy over the span
-    /// (-33 dB; chosen on the 20 held-out notes at odd places, tools/bench_fidelity: 0.002 / 0.001 /
-    /// 0.0005 gave a first-100 ms SNR median of 14.40 / 14.44 / 14.54 dB against 14.04 without, the
-    /// late tests keeping every note's log-spectral distance within 0.04 dB).
+    /// (-33 dB). Chosen on the 20 held-out notes at odd places (tools/bench_fidelity), in an
+    /// earlier form (one-cent refinement, no edge rule): 0.002 / 0.001 / 0.0005 gave a first-100 ms
+    /// SNR median of 14.40 / 14.44 / 14.54 dB against 14.04 without, each note's log-spectral
+    /// distance within 0.04 dB.
     double min_gain_share = 0.0005;
     double min_q = 10.0;          ///< quality factor pi f T60 / ln1000 at least this (early_companion's)
     /// The later note: the band around the partial (analysis/mode_band.hpp) of the copy with the
     /// twin follows the recording's block levels over these blocks (to check_s) no worse than the
     /// copy without it, within late_tolerance_db (mean |dB| difference, mode_split's test).
     late_band_span late{.from_s = 0.3, .block_s = 0.05, .range_db = 40.0};
-    double late_tolerance_db = 0.25;  ///< 0 / 0.25 / 0.5 on those notes (with 0.0005): 14.54 / 15.12 / 15.12 dB
+    double late_tolerance_db = 0.25;  ///< 0 / 0.25 / 0.5 there (with 0.0005): 14.54 / 15.12 / 15.12 dB
     /// ... over at least this many blocks: no twin where the note is too short or its band too
     /// quiet for the test to read (a 0.37 s koto note's twins changed its noise model).
     int min_late_blocks = 2;
