@@ -213,6 +213,10 @@ void glides_and_modes(analysis_result& out, std::span<const float> part, double 
         out.summary.partials += add_early_companions(out.value, part.subspan(start), sample_rate_hz, params.companions);
         out.summary.segments = segment_count(out.value);
     }
+    if (params.early_companions && params.early_twins && start < part.size()) {
+        out.summary.partials += add_early_twins(out.value, part.subspan(start), sample_rate_hz, params.twins).added;
+        out.summary.segments = segment_count(out.value);
+    }
     if (params.refit_early && start < part.size()) refit_early_phases(out.value, part.subspan(start), sample_rate_hz, params.early_refit);
     done("mode split");
 }

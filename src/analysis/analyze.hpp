@@ -9,6 +9,7 @@
 #include "analysis/cut_tail.hpp"
 #include "analysis/early_companion.hpp"
 #include "analysis/early_refit.hpp"
+#include "analysis/early_twin.hpp"
 #include "analysis/noise_model.hpp"
 #include "analysis/recording_end.hpp"
 #include "analysis/beating_pairs.hpp"
@@ -98,6 +99,18 @@ struct analysis_params {
     /// modes got companions (test_pitch).
     bool early_companions = true;
     early_companion_params companions{};
+    /// Then give the strongest partials a steady twin a few cents off where the first 150 ms beat
+    /// and the later note agrees (analysis/early_twin.hpp); with the companions (off for a stereo
+    /// mix: analyze_stereo_note turns those off). Measured with tools/bench_fidelity against main
+    /// ddfdaf4: the 40 held-out notes' first-100 ms SNR median 13.63 -> 14.20 dB (the 20 at odd
+    /// places, tuned on: 14.04 -> 14.46; the other 20: 13.50 -> 14.00), none down by more than
+    /// 0.04 dB (timpani_3), banjo_4 6.73 -> 10.41, nylon_a3 13.58 -> 17.24, musicbox_gs3 15.02 ->
+    /// 19.01; log-spectral distance median 5.21 -> 5.21, none up by more than 0.04 dB; the 17
+    /// shared notes: SNR median 13.89 -> 13.89, none down by more than 0.03 dB (banjo_g3 8.30 ->
+    /// 11.28), log-spectral distance median 4.45 -> 4.45. Analysis instructions +4.8% on the
+    /// synthetic note, +4.5% on the demo note (callgrind, -j 1; neither takes a twin).
+    bool early_twins = true;
+    early_twin_params twins{};
     /// Then refit the strong partials' phases and start levels on what the finished copy leaves
     /// of the first 150 ms (analysis/early_refit.hpp); analyze_stereo_note turns it off for the mix.
     /// Measured on the 17 real notes (tools/bench_fidelity, against main 2da8a4a): first-100 ms SNR

@@ -3,6 +3,7 @@
 
 #include <array>
 #include <cassert>
+#include <algorithm>
 #include <cmath>
 
 #include "core/units.hpp"
@@ -131,6 +132,30 @@ cvec band_of(std::span<const float> x, double freq_hz, double sample_rate_hz, st
     }
     for (; b < blocks; ++b) add_block(b, moments_of(x.data() + (b * d - 2), 0, phasor));
     return out;
+}
+
+double late_band_error_db(std::span<const std::complex<double>> rec, std::span<const std::complex<double>> cand,
+                          double band_rate_hz, const late_band_span& span, int* blocks_read) {
+    const auto per_block = std::max<std::size_t>(1, static_cast<std::size_t>(std::lround(span.block_s * band_rate_hz)));
+    const std::size_t blocks = std::min(rec.size(), cand.size()) / per_block;
+    std::vector<double> r(blocks), c(blocks);
+    for (std::size_t b = 0; b < blocks; ++b) {
+        for (std::size_t j = 0; j < per_block; ++j) {
+            r[b] += std::norm(rec[b * per_block + j]);
+            c[b] += std::norm(cand[b * per_block + j]);
+        }
+    }
+    const double top = blocks > 0 ? *std::max_element(r.begin(), r.end()) : 0.0;
+    double sum = 0.0;
+    int count = 0;
+    for (std::size_t b = 0; b < blocks; ++b) {
+        if (static_cast<double>(b * per_block) / band_rate_hz < span.from_s) continue;
+        if (!(r[b] > 0.0) || power_to_db(r[b] / top) < -span.range_db) break;
+        sum += std::abs(power_to_db(std::max(c[b], 1e-300) / r[b]));
+        ++count;
+    }
+    if (blocks_read != nullptr) *blocks_read = count;
+    return count > 0 ? sum / count : 0.0;
 }
 
 }  // namespace wane

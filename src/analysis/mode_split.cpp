@@ -123,28 +123,10 @@ double residual_energy(std::span<const float> a, std::span<const float> b, std::
     return e;
 }
 
-/// Mean |dB| difference of the band's block levels, candidate against recording, over the blocks
-/// from late_from_s on while the recording's stays within late_range_db of its loudest block.
+/// late_band_error_db (analysis/mode_band.hpp) with the split's late span.
 double late_error_db(const cvec& rec, const cvec& cand, double band_rate_hz, const mode_split_params& params) {
-    const auto per_block = std::max<std::size_t>(1, static_cast<std::size_t>(std::lround(params.late_block_s * band_rate_hz)));
-    const std::size_t blocks = std::min(rec.size(), cand.size()) / per_block;
-    std::vector<double> r(blocks), c(blocks);
-    for (std::size_t b = 0; b < blocks; ++b) {
-        for (std::size_t j = 0; j < per_block; ++j) {
-            r[b] += std::norm(rec[b * per_block + j]);
-            c[b] += std::norm(cand[b * per_block + j]);
-        }
-    }
-    const double top = blocks > 0 ? *std::max_element(r.begin(), r.end()) : 0.0;
-    double sum = 0.0;
-    int count = 0;
-    for (std::size_t b = 0; b < blocks; ++b) {
-        if (static_cast<double>(b * per_block) / band_rate_hz < params.late_from_s) continue;
-        if (!(r[b] > 0.0) || power_to_db(r[b] / top) < -params.late_range_db) break;
-        sum += std::abs(power_to_db(std::max(c[b], 1e-300) / r[b]));
-        ++count;
-    }
-    return count > 0 ? sum / count : 0.0;
+    return late_band_error_db(rec, cand, band_rate_hz, {.from_s = params.late_from_s, .block_s = params.late_block_s,
+                                                        .range_db = params.late_range_db});
 }
 
 struct mode_set {
