@@ -203,7 +203,7 @@ void refine_start(analysis_result& out, std::span<const float> note, double samp
 /// The early pitch glides, then the close modes of the strongest partials without one and the
 /// partials' early companions (analysis/early_companion.hpp); done(stage) after each.
 void glides_and_modes(analysis_result& out, std::span<const float> part, double sample_rate_hz,
-                      const analysis_params& params, const auto& done) {
+                      const analysis_params& params, const heard_span_spectrum& heard, const auto& done) {
     if (params.fit_glides) out.summary.glides = glides_from_onset(out, part, sample_rate_hz, params.glides);
     if (params.fit_glides && params.fit_slow_glides) out.summary.glides += glides_from_onset(out, part, sample_rate_hz, params.slow_glides);
     done("onset glides");
@@ -214,7 +214,7 @@ void glides_and_modes(analysis_result& out, std::span<const float> part, double 
         out.summary.segments = segment_count(out.value);
     }
     if (params.early_companions && params.early_twins && start < part.size()) {
-        out.summary.partials += add_early_twins(out.value, part.subspan(start), sample_rate_hz, params.twins).added;
+        out.summary.partials += add_early_twins(out.value, part.subspan(start), sample_rate_hz, params.twins, &heard).added;
         out.summary.segments = segment_count(out.value);
     }
     if (params.refit_early && start < part.size()) refit_early_phases(out.value, part.subspan(start), sample_rate_hz, params.early_refit);
@@ -310,7 +310,7 @@ analysis_result analyze_note(std::span<const float> samples, double sample_rate_
     if (params.refine_onset && onset_frame < part.size())
         refine_start(out, part.subspan(onset_frame), sample_rate_hz, params.onset);
     done("onset refinement");
-    glides_and_modes(out, fit_part, sample_rate_hz, params, done);  // reports "onset glides", "mode split"
+    glides_and_modes(out, fit_part, sample_rate_hz, params, heard, done);  // reports "onset glides", "mode split"
     if (params.soften_start) out.summary.start_ramp_s = soften_partials_start(out, part, sample_rate_hz, params);
     done("start rise");
     if (params.noise_model) add_noise_model(p, part, sample_rate_hz, tr.onset_s, params.noise);

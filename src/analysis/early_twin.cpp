@@ -10,6 +10,7 @@
 #include <numeric>
 
 #include "analysis/decaying_fit.hpp"
+#include "analysis/heard_shift.hpp"
 #include "analysis/mode_band.hpp"
 #include "core/envelope.hpp"
 #include "core/units.hpp"
@@ -166,12 +167,41 @@ bool under_its_partial(const partial& q, double peak_db, double t60_s, double le
     return true;
 }
 
+/// The twin t of partial q as a partial of the patch: an instant start, one decay, q's harmonic
+/// number (two partials with one harmonic number sum), its level in the patch's units.
+partial as_partial(const twin_fit& t, const partial& q, double gain_lin) {
+    return {.freq_hz = t.freq_hz, .harmonic = q.harmonic, .phase_rad = std::arg(t.fit.amp),
+            .env = {.attack_s = 0.0, .peak = to_level(amp_lin{std::abs(t.fit.amp) / gain_lin}),
+                    .decay = {{.t60_s = t.t60_s, .until_s = std::nullopt}}},
+            .place = {}};
+}
+
+/// Whether the twin takes its partial's heard peak (analysis/heard_shift.hpp) further from the
+/// recording's (ref_hz; times the ratio) than max_heard_shift_cents and than the copy without it
+/// stands, at any of heard_ratios, among the patch's partials and the twins added.
+bool moves_heard_pitch(std::span<const partial> partials, std::span<const partial> added, const partial& twin,
+                       double freq_hz, double ref_hz, const heard_span_spectrum& heard, const early_twin_params& params) {
+    if (!(heard.end_s > heard.start_s)) return false;
+    std::vector<partial> near;
+    for (const auto& list : {partials, added})
+        for (const partial& q : list)
+            if (std::abs(q.freq_hz - freq_hz) <= params.heard.near_share * freq_hz) near.push_back(q);
+    std::vector<partial> with = near;
+    with.push_back(twin);
+    return std::any_of(params.heard_ratios.begin(), params.heard_ratios.end(), [&](double ratio) {
+        const auto off_cents = [&](std::span<const partial> set) {
+            return std::abs(cents_between(copy_heard_peak_hz(set, freq_hz, ratio, heard.start_s, heard.end_s, params.heard), ratio * ref_hz));
+        };
+        return off_cents(with) > std::max(params.max_heard_shift_cents, off_cents(near));
+    });
+}
+
 double energy_of(std::span<const double> x) { return std::inner_product(x.begin(), x.end(), x.begin(), 0.0); }
 
 }  // namespace
 
 early_twin_summary add_early_twins(patch& p, std::span<const float> note, double sample_rate_hz,
-                                   const early_twin_params& params) {
+                                   const early_twin_params& params, const heard_span_spectrum* heard) {
     assert(sample_rate_hz > 0.0 && params.check_s >= params.span_s && params.cents_step >= 1.0);
     early_twin_summary summary;
     const auto to_frames = [&](double s) { return std::min(note.size(), static_cast<std::size_t>(std::llround(s * sample_rate_hz))); };
@@ -218,6 +248,7 @@ early_twin_summary add_early_twins(patch& p, std::span<const float> note, double
         std::stable_sort(each.begin(), each.end(), [](const twin_fit& a, const twin_fit& b) { return a.fit.explained > b.fit.explained; });
         const late_bands bands = late_bands_of(note.first(total), copy, q.freq_hz, sample_rate_hz, params);
         const twin_fit* taken = nullptr;
+        const double ref_hz = heard != nullptr ? recording_heard_peak_hz(*heard, q.freq_hz, params.heard).value_or(q.freq_hz) : q.freq_hz;
         for (const twin_fit& t : each) {
             if (bands.blocks < params.min_late_blocks) break;  // nothing tells how the twin would last
             if (!(t.fit.explained >= min_gain)) break;
@@ -227,6 +258,10 @@ early_twin_summary add_early_twins(patch& p, std::span<const float> note, double
             for (std::size_t n = 0; n < total; ++n) with_twin[n] = static_cast<float>(static_cast<double>(copy[n]) + w[n]);
             const double with_db = late_band_error_db(bands.rec, band_of(with_twin, q.freq_hz, sample_rate_hz, bands.d), bands.band_rate_hz, params.late);
             if (with_db > bands.copy_error_db + params.late_tolerance_db) continue;
+            if (heard != nullptr && moves_heard_pitch(p.partials, added, as_partial(t, q, gain_lin), q.freq_hz, ref_hz, *heard, params)) {
+                ++summary.refused_pitch;
+                continue;
+            }
             taken = &t;
             break;
         }
@@ -237,10 +272,7 @@ early_twin_summary add_early_twins(patch& p, std::span<const float> note, double
         const twin_fit& t = *taken;
         copy.swap(with_twin);
         for (std::size_t n = 0; n < total; ++n) d[n] -= w[n];
-        added.push_back({.freq_hz = t.freq_hz, .harmonic = q.harmonic, .phase_rad = std::arg(t.fit.amp),
-                         .env = {.attack_s = 0.0, .peak = to_level(amp_lin{std::abs(t.fit.amp) / gain_lin}),
-                                 .decay = {{.t60_s = t.t60_s, .until_s = std::nullopt}}},
-                         .place = {}});
+        added.push_back(as_partial(t, q, gain_lin));
     }
     p.partials.insert(p.partials.end(), added.begin(), added.end());
     summary.added = static_cast<int>(added.size());

@@ -22,7 +22,9 @@
 //   the note's end (max_over_partial_db), and whose band around the partial
 //   (analysis/mode_band.hpp) follows the recording's block levels over [late.from_s, check_s) no
 //   worse than the copy's without it (late_tolerance_db; read over at least min_late_blocks
-//   blocks), is kept. A lasting twin sounds over the note's body: it must be there in the recording.
+//   blocks), and which keeps the copy's heard peak at the recording's (max_heard_shift_cents, at
+//   the note's pitch and transposed: analysis/heard_shift.hpp), is kept. A lasting twin sounds over the
+//   note's body: it must be there in the recording.
 // A twin is taken off d before the next partial. It is written as a partial of its own (an instant
 // start, one decay) with its parent's harmonic number (two partials with one harmonic number sum).
 // Measured (tools/bench_fidelity against main ddfdaf4): see analysis_params::early_twins.
@@ -32,6 +34,7 @@
 #include <span>
 #include <vector>
 
+#include "analysis/heard_shift.hpp"
 #include "analysis/mode_band.hpp"
 #include "core/patch.hpp"
 
@@ -71,16 +74,26 @@ struct early_twin_params {
     double late_band_share = 0.2;
     double min_band_rate_hz = 20.0;
     double max_band_rate_hz = 200.0;
+    /// With the recording's heard spectrum given (analysis/heard_peaks; heard_shift.hpp): the copy's
+    /// heard peak near the partial, at the note's pitch and transposed by each of heard_ratios with
+    /// the decays kept (render --to-note: an octave down halves the offset in Hz), stays within this
+    /// many cents of the recording's peak (times the ratio), or no further than the copy without
+    /// the twin. A third of the 1 cent issue 17's to-note check allows (our choice); shared
+    /// timpani_d2's 222.6 Hz partial, with a twin 17 cents up, moved 2.3 cents an octave down.
+    double max_heard_shift_cents = 0.3;
+    std::vector<double> heard_ratios{1.0, 0.5};
+    heard_shift_params heard{};
 };
 
 struct early_twin_summary {
     int added = 0;        ///< twins added
     int refused_late = 0; ///< twins that passed the span's test and were refused for the later note
+    int refused_pitch = 0; ///< ... and for moving their partial's heard peak (max_heard_shift_cents)
 };
 
 /// Adds the early twins of p's strongest partials, fitted on note (note[0] at p's onset, where its
 /// phases count from), as partials at the end of p.partials. Mono.
 early_twin_summary add_early_twins(patch& p, std::span<const float> note, double sample_rate_hz,
-                                   const early_twin_params& params);
+                                   const early_twin_params& params, const heard_span_spectrum* heard = nullptr);
 
 }  // namespace wane
