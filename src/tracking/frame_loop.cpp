@@ -202,6 +202,11 @@ private:
     }
 };
 
+/// The fewest frames a kept track has: at least `frames`, and at least `windows` window lengths.
+int min_track_length_frames(int frames, double windows, const tracking_result& result) {
+    return std::max(frames, static_cast<int>(std::ceil(windows * result.window_s / result.hop_s)));
+}
+
 }  // namespace
 
 frame_tracks run_frames(std::span<const float> x, double fs, std::int64_t onset, float dc, const frame_grid& grid,
@@ -217,15 +222,18 @@ frame_tracks run_frames(std::span<const float> x, double fs, std::int64_t onset,
     std::vector<spectral_peak> peaks;
     const std::int64_t h = plan.half_length();
     const auto size = static_cast<std::int64_t>(x.size());
-    const int min_frames = std::max(min_track_frames,
-                                    static_cast<int>(std::ceil(min_track_windows * result.window_s / result.hop_s)));
+    const int min_frames = min_track_length_frames(min_track_frames, min_track_windows, result);
     if (const std::int64_t fitting = size - h - onset; fitting < 0 || fitting / hop + 1 < min_frames) {
         const double need_s = double(2 * h + (min_frames - 1) * hop) / fs;
         refuse("too short after the onset: " + std::to_string(std::lround(double(size - onset) / fs * 1000.0)) +
                " ms of sound, the " + std::to_string(std::lround(result.window_s * 1000.0)) +
                " ms analysis window needs at least " + std::to_string(std::lround(need_s * 1000.0)) + " ms");
     }
-    track_set tracks(min_frames, max_partials, f0_hz, b, bin_hz, result.hop_s);
+    // A short note keeps shorter tracks (the refusal above stays on the long rule).
+    const bool short_note = double(size - onset) / fs < short_note_s;
+    const int keep_frames =
+        short_note ? min_track_length_frames(short_min_track_frames, short_min_track_windows, result) : min_frames;
+    track_set tracks(keep_frames, max_partials, f0_hz, b, bin_hz, result.hop_s);
     int frames = 0;
     int quiet_frames = 0;
     for (std::int64_t centre = onset; centre + h <= size || frames == 0; centre += hop, ++frames) {

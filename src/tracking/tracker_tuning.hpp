@@ -26,6 +26,11 @@ inline constexpr double dev_max_f0 = 0.3;               ///< ... and at most thi
 inline constexpr int max_gap_frames = 3;                ///< gaps up to this many frames are bridged
 inline constexpr int min_track_frames = 5;              ///< a track lasts at least this many frames
 inline constexpr double min_track_windows = 1.5;        ///< ... and at least this many window lengths
+/// A short note (under this long after the onset) keeps shorter tracks: its upper harmonics last
+/// only a few frames, and the long rule above would drop them all (a 0.21 s clavinet kept 24 tracks).
+inline constexpr double short_note_s = 0.5;
+inline constexpr int short_min_track_frames = 3;        ///< a short note's track lasts this many frames
+inline constexpr double short_min_track_windows = 0.5;  ///< ... and this many window lengths
 inline constexpr double max_join_gap_s = 0.3;           ///< fragments of one partial this close are joined
 inline constexpr double join_rel_tol = 0.005;           ///< ... when their frequencies meet within this
 inline constexpr double harmonic_tolerance_rel = 0.02;  ///< labelling tracks with harmonic numbers
