@@ -58,7 +58,7 @@ const partial_track* numbered(const tracking_result& r, int n) {
 
 }  // namespace
 
-TEST_CASE("a 0.25 s note keeps its fast upper harmonics, numbered and in tune; a 1 s note drops some",
+TEST_CASE("a 0.25 s note keeps its fast upper harmonics numbered and in tune and a 1 s note drops some",
           "[tracking][short]") {
     const std::uint64_t seed = GENERATE(11U, 12U, 13U, 14U);
     const auto partials = note_partials();
