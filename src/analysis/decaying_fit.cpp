@@ -8,10 +8,21 @@
 #include <vector>
 
 #include "core/cosine_walk.hpp"
+#include "core/patch.hpp"
 #include "core/units.hpp"
 #include "synthesis/kernel_clones.hpp"
+#include "synthesis/render.hpp"
 
 namespace wane {
+
+std::vector<float> render_copy_start(const patch& p, double rate_hz, std::size_t count) {
+    patch one{.version = p.version, .note = p.note, .source = p.source, .partials = p.partials, .noise = {}};
+    one.note.length_s = static_cast<double>(count) / rate_hz + 2.0 * end_fade_s;  // its fade past the span
+    const partial_renderer r(one, {.sample_rate_hz = rate_hz, .include_noise = false});
+    std::vector<float> y(count);
+    r.render(0, y);
+    return y;
+}
 
 namespace {
 

@@ -10,6 +10,14 @@
 
 namespace wane {
 
+struct patch;
+
+/// The partials of p alone (no noise bands) over its first count frames at rate_hz, the note's gain
+/// included, as the renderer plays them: p's header and partials rendered with a length that runs
+/// 2 end_fade_s past the span, so the render's end fade falls outside it. The copy the early
+/// companions and twins fit against.
+std::vector<float> render_copy_start(const patch& p, double rate_hz, std::size_t count);
+
 /// cos and sin of omega n for n in [0, count) (core/cosine_walk's values, as a table).
 void phasor_table(double omega, std::size_t count, std::vector<double>& cos_n, std::vector<double>& sin_n);
 

@@ -15,22 +15,10 @@
 #include "core/envelope.hpp"
 #include "core/units.hpp"
 #include "modes/fit_memo.hpp"
-#include "synthesis/render.hpp"
 
 namespace wane {
 
 namespace {
-
-/// The partials of p alone (no noise) over the first count samples at rate_hz, the patch's gain
-/// included.
-std::vector<double> render_partials(const patch& p, double rate_hz, std::size_t count) {
-    patch one{.version = p.version, .note = p.note, .source = p.source, .partials = p.partials, .noise = {}};
-    one.note.length_s = static_cast<double>(count) / rate_hz + 2.0 * end_fade_s;  // its fade past the span
-    const partial_renderer r(one, {.sample_rate_hz = rate_hz, .include_noise = false});
-    std::vector<float> y(count);
-    r.render(0, y);
-    return {y.begin(), y.end()};
-}
 
 /// Energy of a partial with envelope env (times gain_lin) over [0, span_s]: sum over samples of
 /// a(t)^2 / 2 (a sinusoid's mean square), a(t) read every millisecond.
@@ -176,7 +164,8 @@ int add_early_companions(patch& p, std::span<const float> note, double sample_ra
     const auto count = std::min(note.size(), static_cast<std::size_t>(std::llround(params.span_s * sample_rate_hz)));
     if (p.partials.empty() || count < 64) return 0;
     const double span_s = static_cast<double>(count) / sample_rate_hz;
-    std::vector<double> residual = render_partials(p, sample_rate_hz, count);
+    const std::vector<float> copy = render_copy_start(p, sample_rate_hz, count);
+    std::vector<double> residual(copy.begin(), copy.end());
     double signal = 0.0;
     for (std::size_t n = 0; n < count; ++n) {
         residual[n] = static_cast<double>(note[n]) - residual[n];

@@ -14,25 +14,10 @@
 #include "analysis/mode_band.hpp"
 #include "core/envelope.hpp"
 #include "core/units.hpp"
-#include "synthesis/render.hpp"
 
 namespace wane {
 
 namespace {
-
-/// The partials of p alone (no noise) over the first count frames at rate_hz, the note's gain
-/// included, as the renderer plays them.
-std::vector<float> render_copy(const patch& p, double rate_hz, std::size_t count) {
-    patch one{.version = p.version, .note = p.note, .source = p.source, .partials = p.partials, .noise = {}};
-    one.note.length_s = static_cast<double>(count) / rate_hz + 2.0 * end_fade_s;  // its fade past the span
-    const partial_renderer r(one, {.sample_rate_hz = rate_hz, .include_noise = false});
-    std::vector<float> y(count);
-    r.render(0, y);
-    return y;
-}
-
-/// A frequency ratio of c cents: 2^(c / 1200).
-double cents_ratio(double cents) { return std::exp2(cents / 1200.0); }
 
 /// Whether some partial of p lies within min_cents of freq_hz.
 bool near_a_partial(const patch& p, double freq_hz, double min_cents) {
@@ -89,7 +74,7 @@ twin_fit search_twin(const patch& p, std::span<const double> d, double freq_hz, 
     const auto try_cents = [&](double cents) {
         twin_fit at;
         fits.clear();
-        const double f = freq_hz * cents_ratio(cents);
+        const double f = freq_hz * cents_to_ratio(cents);
         if (std::abs(cents) < params.min_cents || f >= 0.5 * sample_rate_hz || near_a_partial(p, f, params.min_cents)) return at;
         fit_at(d, f, sample_rate_hz, params, cos_n, sin_n, at, &fits);
         if (at.fit.explained > best.fit.explained) {
@@ -222,7 +207,7 @@ early_twin_summary add_early_twins(patch& p, std::span<const float> note, double
     if (order.empty()) return summary;
     const double loudest_db = start_db(order.front());
 
-    std::vector<float> copy = render_copy(p, sample_rate_hz, total);
+    std::vector<float> copy = render_copy_start(p, sample_rate_hz, total);
     std::vector<double> d(total);  // the residual x - copy, double
     for (std::size_t n = 0; n < total; ++n) d[n] = static_cast<double>(note[n]) - static_cast<double>(copy[n]);
     const double gain_lin = to_amp(level_db{p.note.gain_db}).lin;

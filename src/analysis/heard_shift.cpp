@@ -49,7 +49,7 @@ double copy_heard_peak_hz(std::span<const partial> partials, double freq_hz, dou
     for (const partial& q : partials)
         if (std::abs(q.freq_hz - freq_hz) <= params.near_share * freq_hz) add_baseband(q, freq_hz, ratio, start_s, params.step_s, z);
     const double centre_hz = ratio * freq_hz;
-    const double grid_hz = centre_hz * (std::exp2(params.grid_cents / 1200.0) - 1.0);
+    const double grid_hz = centre_hz * (cents_to_ratio(params.grid_cents) - 1.0);
     const auto half = static_cast<int>(std::ceil(params.search_cents / params.grid_cents));
     std::vector<double> level_db(static_cast<std::size_t>(2 * half + 1));
     for (std::size_t i = 0; i < level_db.size(); ++i) {
@@ -66,8 +66,8 @@ double copy_heard_peak_hz(std::span<const partial> partials, double freq_hz, dou
 std::optional<double> recording_heard_peak_hz(const heard_span_spectrum& heard, double freq_hz,
                                               const heard_shift_params& params) {
     if (heard.mag.size() < 3 || !(heard.bin_hz > 0.0)) return std::nullopt;
-    const double low_hz = freq_hz * std::exp2(-params.search_cents / 1200.0);
-    const double high_hz = freq_hz * std::exp2(params.search_cents / 1200.0);
+    const double low_hz = freq_hz * cents_to_ratio(-params.search_cents);
+    const double high_hz = freq_hz * cents_to_ratio(params.search_cents);
     const auto first = static_cast<std::size_t>(std::max(1.0, std::floor(low_hz / heard.bin_hz)));
     const auto last = std::min(heard.mag.size() - 2, static_cast<std::size_t>(std::ceil(high_hz / heard.bin_hz)));
     if (last < first + 2) return std::nullopt;

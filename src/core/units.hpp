@@ -55,5 +55,7 @@ inline double slope_db_per_s_to_t60(double slope_db_per_s) {
 
 /// Cents between two frequencies: 1200 log2(f / ref).
 inline double cents_between(double freq_hz, double ref_hz) { return 1200.0 * std::log2(freq_hz / ref_hz); }
+/// The frequency ratio of an interval of c cents: 2^(c / 1200) (the inverse of cents_between).
+inline double cents_to_ratio(double cents) { return std::exp2(cents / 1200.0); }
 
 }  // namespace wane
