@@ -60,7 +60,7 @@ partial_track track_of(const component& c) {
 
 }  // namespace
 
-TEST_CASE("late companion within 2 Hz merges into its partial, which carries the companion's late level; "
+TEST_CASE("late companion within 2 Hz merges into its partial, which carries the companion's late level, "
           "a pair present from the onset and a companion 3 Hz off stay apart",
           "[heard_peaks]") {
     const std::vector<component> cs = {
@@ -107,7 +107,7 @@ TEST_CASE("late companion within 2 Hz merges into its partial, which carries the
 }
 
 TEST_CASE("a short track's fit held level (track ended early) falls from the fit's end at the narrow band's "
-          "rate, to within 2 dB of the true level; a track cut by the file's end is left held by the short-fit "
+          "rate, to within 2 dB of the true level, a track cut by the file's end is left held by the short-fit "
           "rule (changed only by the band rule, and not when fitted to the note's end)",
           "[heard_peaks]") {
     const double t60_s = GENERATE(0.6, 0.8, 1.0, 1.2, 2.4);  // 100 .. 25 dB/s
@@ -161,7 +161,7 @@ TEST_CASE("a short track's fit held level (track ended early) falls from the fit
 }
 
 TEST_CASE("a track's fit that falls slower than the recording (track ended early, fit longer than the short-fit "
-          "rule's 0.1 s) follows the narrow band from the fit's end to within 2 dB of the true level; a fit "
+          "rule's 0.1 s) follows the narrow band from the fit's end to within 2 dB of the true level, a fit "
           "that falls as the recording does is left alone",
           "[heard_peaks]") {
     const double t60_s = GENERATE(0.5, 0.8, 1.2);  // 120 .. 50 dB/s

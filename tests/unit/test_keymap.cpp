@@ -71,7 +71,7 @@ void check_tiling(const std::vector<keymap_job>& jobs, const keymap_params& para
 
 }  // namespace
 
-TEST_CASE("note ranges parse by name and number; bad ones are refused", "[transform][keymap]") {
+TEST_CASE("note ranges parse by name and number, bad ones are refused", "[transform][keymap]") {
     const note_range r = parse_note_range("C2..C6");
     CHECK(r.low_midi == 36);  // scientific pitch: C4 = MIDI 60
     CHECK(r.high_midi == 84);
@@ -83,7 +83,7 @@ TEST_CASE("note ranges parse by name and number; bad ones are refused", "[transf
     CHECK_THROWS_AS(parse_note_range(bad), transform_error);
 }
 
-TEST_CASE("keymap regions tile keys and velocities; the SFZ text parses", "[transform][keymap]") {
+TEST_CASE("keymap regions tile keys and velocities, the SFZ text parses", "[transform][keymap]") {
     const int every = GENERATE(1, 2, 3, 5);
     const int layers = GENERATE(1, 3, 4);
     const int variants = GENERATE(1, 2);

@@ -74,7 +74,7 @@ TEST_CASE("the budget edge: one frame more crosses it", "[limits]") {
     CHECK_THAT(refusal(p, rate_hz, 24414.063), Contains("over the budget"));
 }
 
-TEST_CASE("only rendered partials count; length 0 means the patch's own length", "[limits]") {
+TEST_CASE("only rendered partials count, length 0 means the patch's own length", "[limits]") {
     // 4096 partials at 30 kHz are above the 24 kHz Nyquist of a 48 kHz render: none is computed.
     const patch high = patch_of(max_partials, 30000.0);
     CHECK(render_cost_of(high, 48000.0, 600.0).partials == 0);

@@ -46,7 +46,7 @@ patch twin_patch(double twin_peak_db) {
 
 }  // namespace
 
-TEST_CASE("a partial whose twin stays 30 dB under it gets its start fitted; a near-equal twin keeps both as they are",
+TEST_CASE("a partial whose twin stays 30 dB under it gets its start fitted, a near-equal twin keeps both as they are",
           "[analysis][onset]") {
     const std::vector<float> note = true_note();
     const onset_refine_params params{};

@@ -14,7 +14,7 @@ TEST_CASE("FNV-1a 64 matches the published test vectors", "[checksum]") {
     CHECK(wane::fnv1a64("foobar") == 0x85944171f73967e8ULL);
 }
 
-TEST_CASE("a patch as written is unchanged; any edit, also after the mark, is seen", "[checksum]") {
+TEST_CASE("a patch as written is unchanged, any edit, also after the mark, is seen", "[checksum]") {
     const std::string body = "format = \"wane-patch\"\nversion = 2\n\n[note]\ngain_db = 0.00\n";
     const std::string written = wane::with_checksum(body);
     CAPTURE(written);

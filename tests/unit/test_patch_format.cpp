@@ -186,7 +186,7 @@ TEST_CASE("the envelope read from a file follows the definition", "[patch][envel
     CHECK_THAT(envelope_amp(env, 0.0015).lin, WithinAbs(0.5 * std::pow(10.0, -18.0 / 20.0), 1e-12));
 }
 
-TEST_CASE("partials and bands are returned in canonical order; messages count in file order", "[patch]") {
+TEST_CASE("partials and bands are returned in canonical order, messages count in file order", "[patch]") {
     // Swap the two partials' frequencies in the text: the file lists 293.9 Hz first.
     std::string text = with(base_text, "freq_hz = 146.901", "freq_hz = XXX");
     text = with(text, "freq_hz = 293.9", "freq_hz = 146.901");

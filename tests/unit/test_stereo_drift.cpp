@@ -112,7 +112,7 @@ TEST_CASE("drift: a swing of the difference back and forth keeps the first secon
     CHECK_THAT(pan_level_difference_db(d->pan), WithinAbs(want_db, 1e-9));
 }
 
-TEST_CASE("drift: two spans give no spread however far apart they lie; the slope is bounded", "[stereo][drift]") {
+TEST_CASE("drift: two spans give no spread however far apart they lie, the slope is bounded", "[stereo][drift]") {
     const auto two = spans_of(2, [](double t) { return 10.0 * t; });
     const auto d2 = drift_of_spans(two, span_s, 0.0, 100.0, {});
     REQUIRE(d2.has_value());

@@ -80,7 +80,7 @@ TEST_CASE("pan law: constant power, 0 dB per channel at centre, +3.01 dB at the 
     if (pan == -1.0) CHECK_THAT(20.0 * std::log10(l), WithinAbs(10.0 * std::log10(2.0), 1e-12));  // +3.01 dB
 }
 
-TEST_CASE("a stereo patch round-trips byte for byte as version 3; its keys are read", "[stereo][patch]") {
+TEST_CASE("a stereo patch round-trips byte for byte as version 3, its keys are read", "[stereo][patch]") {
     const auto r = parse_patch(stereo_text, "st.toml");
     CHECK(r.warnings.empty());
     const patch& p = r.value;

@@ -148,7 +148,7 @@ TEST_CASE("a free bar (1 : 2.756 : 5.404) is not called harmonic", "[tracking][b
     for (const auto& t : r.tracks) CHECK(t.harmonic == 0);
 }
 
-TEST_CASE("missing fundamental: f0 from the upper harmonics; --f0 overrides", "[tracking][f0]") {
+TEST_CASE("missing fundamental: f0 from the upper harmonics, --f0 overrides", "[tracking][f0]") {
     constexpr double fs = 44100.0, f0 = 196.0;
     std::vector<synth_partial> partials;
     for (int n = 2; n <= 10; ++n) partials.push_back({n * f0, 0.1, 2.0, 0.5 * n});  // no harmonic 1

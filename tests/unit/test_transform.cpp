@@ -73,7 +73,7 @@ TEST_CASE("to-note on an unpitched patch is refused", "[transform][pitch]") {
     CHECK_THROWS_AS(apply_transforms(p, {.to_midi = 60}, 48000.0), transform_error);
 }
 
-TEST_CASE("partials at or above Nyquist are dropped; none left is an error", "[transform][pitch]") {
+TEST_CASE("partials at or above Nyquist are dropped, none left is an error", "[transform][pitch]") {
     const patch p = harmonic_patch(1000.0, 30);  // 1..30 kHz
     transform_report report;
     const patch t = apply_transforms(p, {}, 48000.0, &report);
