@@ -192,8 +192,7 @@ hermitian_tridiagonal tridiagonalize(std::vector<double> a_re, std::vector<doubl
         for (std::size_t i = top + 1; i < n; ++i) rest += a_re[k * n + i] * a_re[k * n + i] + a_im[k * n + i] * a_im[k * n + i];
         std::complex<double> tau{};
         double beta = ar;
-        v_re[0] = 1.0, v_im[0] = 0.0;
-        for (std::size_t i = 1; i < m; ++i) v_re[i] = 0.0, v_im[i] = 0.0;
+        v_re[0] = 1.0, v_im[0] = 0.0;  // v(1 ..) is written below before it is read, and read only there
         if (rest > 0.0 || ai != 0.0) {
             beta = -std::copysign(std::sqrt(ar * ar + ai * ai + rest), ar);
             tau = {(beta - ar) / beta, -ai / beta};
