@@ -63,7 +63,7 @@ struct candidate {
 };
 
 candidate fit_candidate(std::span<const float> r, double r_energy, double sample_rate_hz, const damped_mode& partial,
-                        const mode_shape& shape, double companion_decay, shaped_fit_memo& memo) {
+                        const mode_shape& shape, double companion_decay, shaped_fit_memo& memo, shaped_fit_memo& seen) {
     candidate c;
     c.modes.push_back({.freq_hz = partial.freq_hz, .decay_per_s = partial.decay_per_s});
     c.shapes.push_back(shape);
@@ -71,7 +71,9 @@ candidate fit_candidate(std::span<const float> r, double r_energy, double sample
         c.modes.push_back({.freq_hz = partial.freq_hz, .decay_per_s = companion_decay});
         c.shapes.emplace_back();
     }
+    add_projections(memo, seen);  // both on r: memo holds the partial's last fit when seen holds any
     c.left_energy = r_energy * fit_shaped_amplitudes(r, sample_rate_hz, c.modes, c.shapes, 1e-9, nullptr, &memo);
+    add_projections(seen, memo);
     return c;
 }
 
@@ -130,17 +132,20 @@ stft_switch choose_stft_starts(std::span<const double> joint, double sample_rate
         double own_energy = 0.0;  // of with_own, summed as fit_shaped_amplitudes sums it
         for (const float v : with_own) own_energy += static_cast<double>(v) * static_cast<double>(v);
         // The fitted shape's candidates, then the STFT shape's: each fit after the first shares
-        // its partial's projection with the one before (the memo's, the same numbers).
-        candidate kept = fit_candidate(with_own, own_energy, sample_rate_hz, modes[i], shapes[i], 0.0, memo);
+        // its partial's projection with the one before (the memo's, the same numbers), and the
+        // STFT shape's take the companions' projections from the fitted shape's (seen: every
+        // projection the partial's fits made, on with_own).
+        shaped_fit_memo seen{};
+        candidate kept = fit_candidate(with_own, own_energy, sample_rate_hz, modes[i], shapes[i], 0.0, memo, seen);
         for (const double t60_s : params.t60_grid_s) {
             if (!is_resonance(modes[i].freq_hz, t60_s, params)) continue;
-            candidate c = fit_candidate(with_own, own_energy, sample_rate_hz, modes[i], shapes[i], ln1000 / t60_s, memo);
+            candidate c = fit_candidate(with_own, own_energy, sample_rate_hz, modes[i], shapes[i], ln1000 / t60_s, memo, seen);
             if (c.left_energy < kept.left_energy) kept = std::move(c);
         }
         std::optional<candidate> switched;
         for (const double t60_s : params.t60_grid_s) {
             if (stft.shapes[i].empty() || !is_resonance(modes[i].freq_hz, t60_s, params)) continue;
-            candidate c = fit_candidate(with_own, own_energy, sample_rate_hz, modes[i], stft.shapes[i], ln1000 / t60_s, memo);
+            candidate c = fit_candidate(with_own, own_energy, sample_rate_hz, modes[i], stft.shapes[i], ln1000 / t60_s, memo, seen);
             if (std::abs(amp_db(c.modes[0])) <= params.max_shape_scale_db &&
                 amp_db(c.modes[1]) <= stft.peak_db[i] + params.max_over_stft_db &&
                 (!switched || c.left_energy < switched->left_energy))

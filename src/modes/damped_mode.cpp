@@ -273,7 +273,8 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
     } else {
         gram_exact.resize(static_cast<std::size_t>(dim * dim));
         const Eigen::Map<Eigen::MatrixXd> exact(gram_exact.data(), dim, dim);
-        const gram_reuse from{.old_of = old_of, .old = last.gram.data(), .old_dim = 2 * last.omega.size()};
+        const std::vector<std::ptrdiff_t> gram_of = gram_matches(last, old_of);
+        const gram_reuse from{.old_of = gram_of, .old = last.gram.data(), .old_dim = 2 * last.gram_modes};
         fill_gram(own, omega, n_count, 0, exact, &from);
         const double ridge = ridge_rel * exact.diagonal().mean();
         Eigen::MatrixXd gram = exact;
@@ -297,7 +298,7 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
     if (memo != nullptr) {
         *memo = {.count = n_count, .sample_rate_hz = sample_rate_hz, .x = {x.begin(), x.end()}, .own = std::move(own),
                  .omega = std::move(omega), .plain = std::move(plain), .gram = std::move(gram_exact),
-                 .rhs = {rhs.data(), rhs.data() + dim}};
+                 .rhs = {rhs.data(), rhs.data() + dim}, .gram_modes = k_count};
     }
     return std::clamp(residual / energy, 0.0, 1.0);
 }

@@ -57,4 +57,24 @@ bool memo_same_samples(const shaped_fit_memo& memo, std::span<const float> x) {
     return memo.x.size() == x.size() && (x.empty() || std::memcmp(x.data(), memo.x.data(), x.size_bytes()) == 0);
 }
 
+std::vector<std::ptrdiff_t> gram_matches(const shaped_fit_memo& memo, std::span<const std::ptrdiff_t> old_of) {
+    std::vector<std::ptrdiff_t> out(old_of.begin(), old_of.end());
+    for (std::ptrdiff_t& a : out)
+        if (a >= static_cast<std::ptrdiff_t>(memo.gram_modes)) a = -1;
+    return out;
+}
+
+void add_projections(shaped_fit_memo& to, const shaped_fit_memo& from) {
+    if (to.count == 0) to.count = from.count, to.sample_rate_hz = from.sample_rate_hz;
+    if (from.count == 0 || from.count != to.count || from.sample_rate_hz != to.sample_rate_hz) return;
+    const std::vector<std::ptrdiff_t> in_to = memo_matches(to, from.own, from.omega, from.plain, from.count, from.sample_rate_hz);
+    for (std::size_t k = 0; k < from.omega.size(); ++k) {
+        if (in_to[k] >= 0) continue;
+        to.own.push_back(from.own[k]);
+        to.omega.push_back(from.omega[k]);
+        to.plain.push_back(from.plain[k]);
+        to.rhs.insert(to.rhs.end(), from.rhs.begin() + static_cast<std::ptrdiff_t>(2 * k), from.rhs.begin() + static_cast<std::ptrdiff_t>(2 * k + 2));
+    }
+}
+
 }  // namespace wane

@@ -22,8 +22,11 @@ struct shaped_fit_memo {
     std::vector<mode_shape> own;  ///< each mode's shape as the fit used it (an exponential when none was given)
     std::vector<double> omega;    ///< each mode's angular frequency, rad per sample
     std::vector<char> plain;      ///< 1: no shape given (projected as a damped phasor)
-    std::vector<double> gram;     ///< 2K x 2K, column-major, without the ridge
+    std::vector<double> gram;     ///< 2G x 2G, column-major, without the ridge: the first G = gram_modes modes
     std::vector<double> rhs;      ///< 2K: the projections on x (real columns, as the fit orders them)
+    /// The leading modes whose Gram entries `gram` holds (a fit keeps all of its own); the modes
+    /// after them (add_projections) lend only their projections.
+    std::size_t gram_modes = 0;
 };
 
 /// For each mode of a new fit (shape own[k], omega[k], plain[k]) the index of the same mode in the
@@ -35,6 +38,18 @@ std::vector<std::ptrdiff_t> memo_matches(const shaped_fit_memo& memo, std::span<
 
 /// True when the memo's projections were taken on exactly these samples.
 bool memo_same_samples(const shaped_fit_memo& memo, std::span<const float> x);
+
+/// old_of (memo_matches) with -1 for the modes whose Gram entries the memo does not hold (at or
+/// past its gram_modes).
+std::vector<std::ptrdiff_t> gram_matches(const shaped_fit_memo& memo, std::span<const std::ptrdiff_t> old_of);
+
+/// Appends to `to` the modes of `from` it lacks (memo_matches), with their projections and no
+/// Gram entries (an empty `to` takes from's count and rate first, and keeps no samples); nothing
+/// when the counts or rates differ. The samples are not compared: the caller makes sure that both
+/// hold projections on the same ones. Several fits on one signal (the early companions'
+/// candidates: the same companion beside two shapes of a partial) so share every projection any
+/// of them made, not only the last fit's.
+void add_projections(shaped_fit_memo& to, const shaped_fit_memo& from);
 
 /// The old Gram matrix's entries a fill may copy: mode k of the new fit is mode old_of[k] of the
 /// old (or -1). A pair j <= k is copied only when both are there in the same order (j < k with

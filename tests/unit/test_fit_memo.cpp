@@ -143,7 +143,7 @@ TEST_CASE("memo_same_samples is bitwise: -0 and +0 differ, a NaN is the same as 
     const std::size_t at = GENERATE(0U, 1U, 2U);
     if (at >= n) return;
     const std::vector<float> x = noisy_modes(std::vector<damped_mode>{{.freq_hz = 440.0, .decay_per_s = 5.0, .amp = {0.3, 0.1}}}, n, 7);
-    shaped_fit_memo memo{.count = n, .sample_rate_hz = fs, .x = x, .own = {}, .omega = {}, .plain = {}, .gram = {}, .rhs = {}};
+    shaped_fit_memo memo{.count = n, .sample_rate_hz = fs, .x = x, .own = {}, .omega = {}, .plain = {}, .gram = {}, .rhs = {}, .gram_modes = 0};
     CAPTURE(n, at);
     CHECK(memo_same_samples(memo, x));
     std::vector<float> y = x;
@@ -154,4 +154,55 @@ TEST_CASE("memo_same_samples is bitwise: -0 and +0 differ, a NaN is the same as 
     memo.x[at] = y[at];
     CHECK(memo_same_samples(memo, y));
     CHECK_FALSE(memo_same_samples(memo, std::span<const float>(y).first(n - 1)));
+}
+
+TEST_CASE("fits with a memo lent other fits' projections (add_projections) equal fits without, as the companions' candidates run", "[modes][fit_memo]") {
+    // The early companions' order (analysis/early_companion.cpp): a partial with one shape alone,
+    // then beside a companion of each decay; then with another shape beside the same companions,
+    // whose projections come from `seen` (every fit's, no Gram entries) and not the last fit.
+    const std::size_t count = GENERATE(std::size_t{1200}, std::size_t{7200});
+    const double freq_hz = GENERATE(110.0, 1234.5);
+    const damped_mode partial{.freq_hz = freq_hz, .decay_per_s = 3.0, .amp = {0.2, -0.1}};
+    const std::vector<float> x = noisy_modes(std::vector<damped_mode>{partial}, count, 11);
+    const envelope fitted{.attack_s = 0.0, .peak = level_db{-14.0}, .decay = {{.t60_s = 0.05, .until_s = 0.01}, {.t60_s = 2.0, .until_s = std::nullopt}}};
+    const envelope stft{.attack_s = 0.008, .peak = level_db{-15.0}, .decay = {{.t60_s = 1.5, .until_s = std::nullopt}}};
+    shaped_fit_memo memo, seen;
+    std::size_t lent = 0;  // fits whose companion came from seen alone
+    for (const bool second : {false, true}) {
+        const envelope& env = second ? stft : fitted;
+        for (const double t60_s : {0.0, 0.015, 0.06, 0.25}) {
+            one_fit f{.modes = {{.freq_hz = freq_hz, .decay_per_s = partial.decay_per_s}}, .shapes = {envelope_shape(env, fs, count)}, .x = x};
+            if (t60_s > 0.0) f.modes.push_back({.freq_hz = freq_hz, .decay_per_s = ln1000 / t60_s}), f.shapes.emplace_back();
+            const std::size_t before = memo.omega.size();
+            add_projections(memo, seen);
+            if (second && t60_s > 0.0 && memo.omega.size() > before) ++lent;
+            check_same(f, memo);
+            CHECK(memo.gram_modes == f.modes.size());
+            add_projections(seen, memo);
+        }
+    }
+    CHECK(lent == 3);
+    CHECK(seen.gram.empty());
+    CHECK(seen.omega.size() == 5);  // the two shapes and three companions, each once
+}
+
+TEST_CASE("gram_matches keeps only the memo's leading gram_modes; add_projections skips other counts and rates", "[modes][fit_memo]") {
+    shaped_fit_memo memo{.count = 10, .sample_rate_hz = fs, .x = {}, .own = {}, .omega = {0.1, 0.2, 0.3}, .plain = {1, 1, 1},
+                         .gram = std::vector<double>(16, 1.0), .rhs = std::vector<double>(6, 2.0), .gram_modes = 2};
+    const std::vector<std::ptrdiff_t> old_of{2, -1, 0, 1};
+    CHECK(gram_matches(memo, old_of) == std::vector<std::ptrdiff_t>{-1, -1, 0, 1});
+    memo.own.resize(3);
+    shaped_fit_memo other = memo;
+    other.omega = {0.4};
+    other.plain = {1};
+    other.own.resize(1);
+    other.rhs = {5.0, 6.0};
+    other.count = 11;
+    add_projections(memo, other);
+    CHECK(memo.omega.size() == 3);
+    other.count = 10;
+    add_projections(memo, other);
+    CHECK(memo.omega == std::vector<double>{0.1, 0.2, 0.3, 0.4});
+    CHECK(memo.rhs.back() == 6.0);
+    CHECK(memo.gram_modes == 2);
 }
