@@ -277,10 +277,10 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
         const gram_reuse from{.old_of = gram_of, .old = last.gram.data(), .old_dim = 2 * last.gram_modes};
         fill_gram(own, omega, n_count, 0, exact, &from);
         const double ridge = ridge_rel * exact.diagonal().mean();
-        Eigen::MatrixXd gram = exact;
+        // Cholesky in place (modes/cholesky.hpp) on a copy of the lower triangle, all it reads; LDLT should rounding fail it.
+        Eigen::MatrixXd gram(dim, dim);
+        gram.triangularView<Eigen::Lower>() = exact;
         gram.diagonal().array() += ridge;
-        // Cholesky (modes/cholesky.hpp: the ridged Gram matrix is positive definite), in place;
-        // LDLT with pivoting should rounding make it fail.
         if (cholesky_in_place(gram)) {
             theta = rhs;
             solve_with_lower(gram, theta);
