@@ -6,6 +6,7 @@
 #include <cmath>
 #include <complex>
 #include <cstdint>
+#include <memory>
 #include <numbers>
 #include <numeric>
 #include <optional>
@@ -41,9 +42,9 @@ std::vector<double> render_start(const patch& p, const partial* q, double rate_h
     }
     one.note.length_s = static_cast<double>(count) / rate_hz + render_margin_s;
     const partial_renderer r(one, {.sample_rate_hz = rate_hz, .include_noise = false});
-    std::vector<float> y(count);
-    r.render(0, y);
-    return {y.begin(), y.end()};
+    const auto y = std::make_unique_for_overwrite<float[]>(count);  // the render writes every frame
+    r.render(0, {y.get(), count});
+    return {y.get(), y.get() + count};
 }
 
 /// The coarse grid's glide terms on the merged blocks: the same for every partial of a note (the
