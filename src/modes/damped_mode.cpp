@@ -122,8 +122,7 @@ void fill_gram(std::span<const mode_shape> own, std::span<const double> omega, s
     }
 }
 
-/// Each mode's shape over count samples (exp(-d n / fs) where shapes[k] is empty) and angular
-/// frequency (rad per sample).
+/// Each mode's shape over count samples (exp(-d n / fs) where shapes[k] is empty) and angular frequency (rad per sample).
 void own_shapes(std::span<const damped_mode> modes, std::span<const mode_shape> shapes, double sample_rate_hz,
                 std::size_t count, std::vector<mode_shape>& own, std::vector<double>& omega) {
     own.resize(modes.size());
@@ -257,7 +256,8 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
     const shaped_fit_memo none{};
     const shaped_fit_memo& last = memo != nullptr ? *memo : none;
     const std::vector<std::ptrdiff_t> old_of = memo_matches(last, own, omega, plain, n_count, sample_rate_hz);
-    const std::span<const std::ptrdiff_t> rhs_known = memo_same_samples(last, x) ? std::span(old_of) : std::span<const std::ptrdiff_t>{};
+    const bool same_samples = memo_same_samples(last, x);  // (then the memo keeps its samples as they are)
+    const std::span<const std::ptrdiff_t> rhs_known = same_samples ? std::span(old_of) : std::span<const std::ptrdiff_t>{};
     const Eigen::VectorXd rhs = shape_projections(x, sample_rate_hz, modes, shapes, own, omega, rhs_known, last.rhs);
     const auto dim = static_cast<Eigen::Index>(2 * k_count);
     Eigen::VectorXd theta, g_theta;  // the solution and G theta (G without the ridge)
@@ -296,7 +296,8 @@ double fit_shaped_amplitudes(std::span<const float> x, double sample_rate_hz, st
     // Residual energy = |x|^2 - 2 theta.rhs + theta' G theta.
     const double residual = energy - 2.0 * theta.dot(rhs) + theta.dot(g_theta);
     if (memo != nullptr) {
-        *memo = {.count = n_count, .sample_rate_hz = sample_rate_hz, .x = {x.begin(), x.end()}, .own = std::move(own),
+        *memo = {.count = n_count, .sample_rate_hz = sample_rate_hz,
+                 .x = same_samples ? std::move(memo->x) : std::vector<float>(x.begin(), x.end()), .own = std::move(own),
                  .omega = std::move(omega), .plain = std::move(plain), .gram = std::move(gram_exact),
                  .rhs = {rhs.data(), rhs.data() + dim}, .gram_modes = k_count};
     }
@@ -408,9 +409,8 @@ std::vector<double> sliding_fit_residuals(std::span<const float> x, double sampl
                                                    std::remainder(omega[k] * static_cast<double>(count), two_pi)});
     }
     const Eigen::MatrixXd lower = sliding_factor(modes, own, omega, sample_rate_hz, count, params);
-    // The explained energy theta.rhs = rhs' G^-1 rhs = |L^-1 rhs|^2 (0 when the factorization
-    // failed): the projections of a block of starts, one column each, then one blocked triangular
-    // solve for the block.
+    // The explained energy theta.rhs = rhs' G^-1 rhs = |L^-1 rhs|^2 (0 when the factorization failed): the
+    // projections of a block of starts, one column each, then one blocked triangular solve for the block.
     const bool solved = lower.size() > 0;
     const auto dim = static_cast<Eigen::Index>(2 * k_count);
     constexpr std::size_t block = 32, exact_every = 128;
