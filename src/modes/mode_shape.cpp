@@ -105,8 +105,18 @@ std::complex<double> shape_pair_sum(const mode_shape& a, const mode_shape& b, st
 }
 
 void shape_samples(const mode_shape& a, std::size_t count, std::vector<double>& out) {
-    out.assign(count, 0.0);
+    // Pieces in order without overlap (as every shape made here): only the samples between and
+    // after them are zeroed; otherwise all of them first.
+    const bool in_order = std::adjacent_find(a.begin(), a.end(), [](const shape_piece& p, const shape_piece& q) {
+                              return q.start < p.start + p.count;
+                          }) == a.end();
+    if (!in_order) out.assign(count, 0.0);
+    out.resize(count);
+    std::size_t zero_from = 0;  // (in order) the first sample no piece before has written
     for (const shape_piece& p : a) {
+        if (in_order) std::fill(out.begin() + static_cast<std::ptrdiff_t>(std::min(zero_from, count)),
+                                out.begin() + static_cast<std::ptrdiff_t>(std::min(p.start, count)), 0.0);
+        zero_from = std::max(zero_from, p.start + p.count);
         assert(p.power == 0 || p.power == 1);
         const std::size_t end = std::min(count, p.start + p.count);
         const double ratio = std::exp(p.rho);
@@ -117,6 +127,7 @@ void shape_samples(const mode_shape& a, std::size_t count, std::vector<double>& 
             v *= ratio;
         }
     }
+    if (in_order) std::fill(out.begin() + static_cast<std::ptrdiff_t>(std::min(zero_from, count)), out.end(), 0.0);
 }
 
 }  // namespace wane

@@ -6,6 +6,7 @@
 
 #include <cmath>
 #include <complex>
+#include <limits>
 #include <span>
 #include <vector>
 
@@ -402,4 +403,32 @@ TEST_CASE("sliding fit residuals skipping dominated starts keep every solved val
     CAPTURE(lead, skipped);
     CHECK(best_of(some) == best_of(all));
     CHECK(skipped > 0);  // the energy before the last starts exceeds the best start's residual
+}
+
+TEST_CASE("shape_samples into a reused buffer: each piece's samples where it lies, zeros in the gaps, pieces in any order", "[modes]") {
+    // The reference: sample n is scale exp(rho (n - start)) n^power of the last piece (in the
+    // shape's order) holding n, or 0; the buffer is filled with NaN first (a scratch reused).
+    const std::size_t count = 3000;
+    const shape_piece ramp{.start = 10, .count = 600, .scale = 1e-3, .rho = 0.0, .power = 1};
+    const shape_piece fall{.start = 700, .count = 1200, .scale = 0.8, .rho = -4e-4, .power = 0};
+    const shape_piece rise{.start = 1500, .count = 900, .scale = 0.2, .rho = 2e-4, .power = 0};
+    const int which = GENERATE(0, 1, 2, 3);
+    mode_shape shape;
+    if (which == 0) shape = {ramp, fall};            // in order, gaps before, between and after
+    if (which == 1) shape = {fall, ramp};            // out of order
+    if (which == 2) shape = {ramp, fall, rise};      // overlapping: rise after fall
+    if (which == 3) shape = {ramp, {.start = 610, .count = 2390, .scale = 0.5, .rho = -1e-3, .power = 0}};  // no gap after
+    std::vector<double> out(count + GENERATE(std::size_t{0}, std::size_t{500}), std::numeric_limits<double>::quiet_NaN());
+    shape_samples(shape, count, out);
+    REQUIRE(out.size() == count);
+    std::size_t wrong = 0;
+    for (std::size_t n = 0; n < count; ++n) {
+        double want = 0.0;
+        for (const shape_piece& p : shape)
+            if (n >= p.start && n < p.start + p.count)
+                want = p.scale * std::exp(p.rho * static_cast<double>(n - p.start)) * (p.power == 1 ? static_cast<double>(n) : 1.0);
+        if (!(std::abs(out[n] - want) <= 1e-12 * std::abs(want))) ++wrong;
+    }
+    CAPTURE(which, out[0], out[650], out[count - 1]);
+    CHECK(wrong == 0);
 }
