@@ -112,9 +112,12 @@ bool cholesky_in_place(Eigen::Ref<Eigen::MatrixXd> a) {
         const auto m = static_cast<std::size_t>(rest);
         constexpr std::size_t both_tiles = std::lcm(product_tile_rows, product_tile_cols);
         const std::size_t rows_pad = (m + both_tiles - 1) / both_tiles * both_tiles;
-        packed.assign(rows_pad * static_cast<std::size_t>(b), 0.0);
-        for (Eigen::Index k = 0; k < b; ++k)
-            for (Eigen::Index i = 0; i < rest; ++i) packed[static_cast<std::size_t>(k) * rows_pad + static_cast<std::size_t>(i)] = a(k0 + b + i, k0 + k);
+        packed.resize(rows_pad * static_cast<std::size_t>(b));  // every entry written below
+        for (Eigen::Index k = 0; k < b; ++k) {
+            double* column = packed.data() + static_cast<std::size_t>(k) * rows_pad;
+            for (Eigen::Index i = 0; i < rest; ++i) column[i] = a(k0 + b + i, k0 + k);
+            std::fill(column + rest, column + rows_pad, 0.0);
+        }
         const product_panels panel{.a = packed.data(), .a_rows = rows_pad, .b = packed.data(), .b_rows = rows_pad,
                                    .depth = static_cast<std::size_t>(b)};
         subtract_products(&a(k0 + b, k0 + b), static_cast<std::size_t>(a.outerStride()), panel, m, m, true);
