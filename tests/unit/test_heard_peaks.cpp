@@ -237,7 +237,7 @@ TEST_CASE("a merged partial's fitted stretch ends where the member whose envelop
 }
 
 TEST_CASE("a short note's partials (0.21-0.25 s after the onset, a span of 0.16-0.2 s) move from a few cents "
-          "off to their true frequency within 0.3 cent; no peak is added over a span that short",
+          "off to their true frequency within 0.3 cent, and no peak is added over a span that short",
           "[heard_peaks]") {
     const double length_s = GENERATE(0.21, 0.23, 0.25);
     const double off_cents = GENERATE(-3.0, 3.0);
@@ -257,6 +257,7 @@ TEST_CASE("a short note's partials (0.21-0.25 s after the onset, a span of 0.16-
                               .place = {}});
     }
     std::vector<const partial_track*> ptrs;
+    ptrs.reserve(tracks.size());
     for (const partial_track& t : tracks) ptrs.push_back(&t);
     const heard_peak_params params{};
     const heard_span_spectrum s = heard_spectrum(x, rate_hz, params);
