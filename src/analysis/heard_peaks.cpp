@@ -334,7 +334,7 @@ const note_spectrum& whole_note_spectrum(band_spectrum_cache* cache, std::option
 int add_heard_peaks(patch& p, std::span<const float> note, double sample_rate_hz, const heard_span_spectrum& s,
                     const heard_peak_params& params, const envelope_fit_params& fit_params, band_spectrum_cache* cache) {
     const double note_s = static_cast<double>(note.size()) / sample_rate_hz;
-    if (s.mag.empty() || params.max_added <= 0) return 0;
+    if (s.mag.empty() || params.max_added <= 0 || s.end_s - s.start_s < params.min_add_span_s) return 0;
     const double capture_hz = capture_hz_of(s, params);
     const double lobe_hz = 2.0 / (s.end_s - s.start_s);  // Hann main-lobe half-width
     std::vector<double> amp;

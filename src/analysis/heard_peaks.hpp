@@ -31,7 +31,16 @@ struct heard_peak_params {
     double span_start_s = heard_span_start_s;  // the heard span's one home: pitch/root.hpp
     double span_s = heard_span_s;
     double short_start_s = 0.05;
-    double min_span_s = 0.25;       ///< shorter: nothing is moved
+    /// Shorter: nothing is moved. 0.15 s (was 0.25): a note of 0.2 s after its onset has its
+    /// partials read where the span's spectrum puts them, as the pitch check reads a short note
+    /// (tests/cli/pitch_check.py: 0.05 s to its end); clavinet_c4 of tools/more_notes.py (0.21 s)
+    /// kept its tracks' frequencies up to 1.05 cents off those peaks, and a copy transposed by a
+    /// fifth or an octave played them there (now 0.14 cents; first-100 ms SNR 13.99 -> 14.40 dB).
+    double min_span_s = 0.15;
+    /// Peaks are added (add_heard_peaks) only over a span at least this long (the old min_span_s):
+    /// over clavinet_c4's 0.16 s span the patch went 53 -> 62 partials and its log-spectral distance rose
+    /// 9.40 -> 9.67 dB (8 kHz band 11.37 -> 12.27), where the moves alone took it 9.46 -> 9.40.
+    double min_add_span_s = 0.25;
     /// How far a partial may move, in main-lobe half-widths (2 / T Hz for a Hann window over T s):
     /// two, the distance inside which a span of T s cannot tell two components apart cleanly.
     double capture_half_widths = 2.0;

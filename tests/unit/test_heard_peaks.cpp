@@ -32,8 +32,8 @@ double amp_at(const component& c, double t) {
     return c.amp_lin * std::pow(10.0, -3.0 * (t - c.attack_s) / c.t60_s);
 }
 
-std::vector<float> note_of(const std::vector<component>& cs) {
-    const auto n = static_cast<std::size_t>(note_s * rate_hz);
+std::vector<float> note_of(const std::vector<component>& cs, double length_s = note_s) {
+    const auto n = static_cast<std::size_t>(length_s * rate_hz);
     std::vector<float> x(n, 0.0f);
     wane::test::splitmix64 rng{17};
     for (std::size_t i = 0; i < n; ++i) {
@@ -234,4 +234,42 @@ TEST_CASE("a merged partial's fitted stretch ends where the member whose envelop
     REQUIRE(p.partials.size() == 1);
     CAPTURE(cut, m.kept[0].fit_end_s);
     CHECK(m.kept[0].fit_end_s == (cut ? note_s : 0.4));
+}
+
+TEST_CASE("a short note's partials (0.21-0.25 s after the onset, a span of 0.16-0.2 s) move from a few cents "
+          "off to their true frequency within 0.3 cent, and no peak is added over a span that short",
+          "[heard_peaks]") {
+    const double length_s = GENERATE(0.21, 0.23, 0.25);
+    const double off_cents = GENERATE(-3.0, 3.0);
+    const std::vector<component> cs = {
+        {.freq_hz = 261.5, .amp_lin = 0.5, .attack_s = 0.0, .t60_s = 0.6, .phase_rad = 0.3},
+        {.freq_hz = 523.7, .amp_lin = 0.2, .attack_s = 0.0, .t60_s = 0.4, .phase_rad = 1.2},
+        {.freq_hz = 1310.0, .amp_lin = 0.1, .attack_s = 0.0, .t60_s = 0.3, .phase_rad = 2.0},
+    };
+    const auto x = note_of(cs, length_s);
+    std::vector<partial_track> tracks;
+    patch p;
+    for (const component& c : cs) {
+        tracks.push_back(track_of(c));
+        p.partials.push_back({.freq_hz = c.freq_hz * cents_to_ratio(off_cents), .harmonic = 0, .phase_rad = c.phase_rad,
+                              .env = {.attack_s = 0.0, .peak = to_level(amp_lin{c.amp_lin}),
+                                      .decay = {{.t60_s = c.t60_s, .until_s = {}}}},
+                              .place = {}});
+    }
+    std::vector<const partial_track*> ptrs;
+    ptrs.reserve(tracks.size());
+    for (const partial_track& t : tracks) ptrs.push_back(&t);
+    const heard_peak_params params{};
+    const heard_span_spectrum s = heard_spectrum(x, rate_hz, params);
+    REQUIRE(!s.mag.empty());
+    CHECK(move_to_heard_peaks(p, ptrs, s, params) == 3);
+    for (std::size_t i = 0; i < cs.size(); ++i) {
+        const double error_cents = cents_between(p.partials[i].freq_hz, cs[i].freq_hz);
+        CAPTURE(length_s, off_cents, cs[i].freq_hz, p.partials[i].freq_hz, error_cents);
+        CHECK(std::abs(error_cents) < 0.3);
+    }
+    // A peak no partial accounts for (the third's, once it is taken away) is not added over this span.
+    p.partials.pop_back();
+    CHECK(add_heard_peaks(p, x, rate_hz, s, params, {}) == 0);
+    CHECK(p.partials.size() == 2);
 }
