@@ -186,7 +186,7 @@ TEST_CASE("fits with a memo lent other fits' projections (add_projections) equal
     CHECK(seen.omega.size() == 5);  // the two shapes and three companions, each once
 }
 
-TEST_CASE("gram_matches keeps only the memo's leading gram_modes; add_projections skips other counts and rates", "[modes][fit_memo]") {
+TEST_CASE("gram_matches keeps only the memo's leading gram_modes, add_projections skips other counts and rates", "[modes][fit_memo]") {
     shaped_fit_memo memo{.count = 10, .sample_rate_hz = fs, .x = {}, .own = {}, .omega = {0.1, 0.2, 0.3}, .plain = {1, 1, 1},
                          .gram = std::vector<double>(16, 1.0), .rhs = std::vector<double>(6, 2.0), .gram_modes = 2};
     const std::vector<std::ptrdiff_t> old_of{2, -1, 0, 1};
