@@ -30,6 +30,17 @@ struct root_params {
     double fundamental_below_max_db = 30.0;
     /// Relative tolerance of the bell partial ratios (bells are seldom tuned closer than this).
     double bell_tolerance_rel = 0.025;
+    /// A bell without a strong prime is heard at its nominal's octave below, the nominal read as
+    /// the power-weighted mean frequency (by heard level) of the modes within this of the chosen
+    /// one: a split mode (a tube's or a bell's two close components) or a strike transient beside
+    /// it is one tone to the ear, heard at the group's centre as analysis/heard_peaks reads a
+    /// harmonic note's partial 1 (tubular_c7 of tools/more_notes.py: nominal 2106.87 Hz, a
+    /// component of peak -12.85 dB and T60 0.25 s, where the heard span holds it and 2091.21 Hz
+    /// about equally, 1.1 dB apart; root 1053.43 -> 1050.0 Hz, the recording's modes 4, 5, 6 by
+    /// their heard peaks: 1047.8-1050.5 Hz). 1% (reasoned choice): components that close (20 Hz
+    /// at 2 kHz, a tenth of the critical band) beat rather than sound apart, and a bell's partials
+    /// lie further apart than that (the nearest pair of the church bell's, 1.2 : 1.5, 25%).
+    double nominal_group_rel = 0.01;
     /// A note without a fitted series whose strong modes above the lowest lie on 2, 3, ... times
     /// one f (upper_series_hz in root.cpp): pizzicato strings playing in unison (pizz_a3 of
     /// tools/more_notes.py: a fundamental at 113.7 Hz, 2.6% over the 110.9 Hz its partials 2-4
@@ -60,7 +71,8 @@ struct root_estimate {
 ///    nominal and at the prime of a well-tuned bell (Fletcher and Rossing 1998, ch. 21: the
 ///    prime's own frequency when a strong prime lies within bell_tolerance_rel of s); the
 ///    ear hears it as the missing fundamental of the nominal, twelfth and upper octave (Terhardt
-///    and Seewann 1984);
+///    and Seewann 1984); without a strong prime, N is read as the heard centre of the modes
+///    within nominal_group_rel of the nominal (a split mode is heard as one tone);
 /// 2. a harmonic or stretched series: its fundamental as measured, the strongest partial numbered
 ///    1 when within fundamental_below_max_db of the strongest partial, else series_f0_hz
 ///    (harmonic_series, or f0_hint when the series was started from the user's --f0);

@@ -295,3 +295,22 @@ TEST_CASE("root finder: without a fitted series, a fundamental off the series it
         CHECK(b.freq_hz == 220.0);
     }
 }
+
+TEST_CASE("root finder: a bell without a prime whose nominal is a split pair, one member with a louder strike, "
+          "is heard an octave below the pair's centre",
+          "[pitch]") {
+    // Exact truth: strike note 500 Hz with no prime (a tube or a bell tuned without one): hum 250,
+    // tierce 600, quint 750, twelfth 1500, upper octave 2000 Hz, and the nominal split into 995 and
+    // 1005 Hz of equal heard level (-20 dB over the heard span), one of them with a strike 6 dB
+    // louder at its peak. Two equal components 10 Hz apart beat as one tone at their midpoint
+    // (1000 Hz whatever weighting of equal levels), so the strike note is 500 Hz; the nominal read
+    // at the louder-peaked member alone gives 497.5 or 502.5 Hz (8.7 cents off).
+    const double struck_hz = GENERATE(995.0, 1005.0);
+    std::vector<root_mode> bell{{250.0, -20.0, 0, -24.0}, {600.0, -12.0, 0, -16.0}, {750.0, -16.0, 0, -20.0},
+                                {1500.0, -12.0, 0, -16.0}, {2000.0, -15.0, 0, -19.0}};
+    for (const double f : {995.0, 1005.0}) bell.push_back({f, f == struck_hz ? -4.0 : -10.0, 0, -20.0});
+    const root_estimate r = find_root(bell, 0.0, false);
+    CAPTURE(struck_hz, r.freq_hz, root_method_name(r.method));
+    CHECK(r.method == root_method::strike_note);
+    CHECK_THAT(cents(r.freq_hz, 500.0), WithinAbs(0.0, 0.01));
+}
