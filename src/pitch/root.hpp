@@ -34,12 +34,12 @@ struct root_params {
     /// the power-weighted mean frequency (by heard level) of the modes within this of the chosen
     /// one: a split mode (a tube's or a bell's two close components) or a strike transient beside
     /// it is one tone to the ear, heard at the group's centre as analysis/heard_peaks reads a
-    /// harmonic note's partial 1 (tubular_c7 of tools/more_notes.py: nominal 2106.87 Hz, a
-    /// component of peak -12.85 dB and T60 0.25 s, where the heard span holds it and 2091.21 Hz
-    /// about equally, 1.1 dB apart; root 1053.43 -> 1050.0 Hz, the recording's modes 4, 5, 6 by
-    /// their heard peaks: 1047.8-1050.5 Hz). 1% (reasoned choice): components that close (20 Hz
-    /// at 2 kHz, a tenth of the critical band) beat rather than sound apart, and a bell's partials
-    /// lie further apart than that (the nearest pair of the church bell's, 1.2 : 1.5, 25%).
+    /// harmonic note's partial 1 (tubular_c7 of tools/more_notes.py: its nominal the louder-peaked
+    /// 2106.87 Hz, peak -11.6 dB, heard -23.1 dB, beside 2095.64 Hz, peak -25.3 dB, heard -30.2
+    /// dB; root 1053.43 -> 1052.52 Hz, where the recording's mode 4 over the heard span peaks at
+    /// 2095.64 Hz). 1% (reasoned choice): components that close (20 Hz at 2 kHz, under a tenth
+    /// of the critical band there) beat rather than sound apart, and a bell's partials lie further
+    /// apart than that (the nearest pair of a church bell's, prime and tierce at 1 : 1.2, 20%).
     double nominal_group_rel = 0.01;
     /// A note without a fitted series whose strong modes above the lowest lie on 2, 3, ... times
     /// one f (upper_series_hz in root.cpp): pizzicato strings playing in unison (pizz_a3 of
