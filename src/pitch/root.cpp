@@ -31,15 +31,18 @@ double peak_level(const root_mode& m) { return m.level_db; }
 /// The heard level where known, else the peak level.
 double heard_level(const root_mode& m) { return std::isnan(m.heard_db) ? m.level_db : m.heard_db; }
 
+/// Level over the heard span as its spectrum weighs it where known, else the heard level.
+double span_level(const root_mode& m) { return std::isnan(m.span_db) ? heard_level(m) : m.span_db; }
+
 /// The heard centre of the modes within group_rel of freq_hz (Hz): their mean frequency weighted
-/// by heard power (db_to_power of heard_level), the pitch a group of components too close to sound
-/// apart is heard at (as analysis/heard_peaks reads a beating partial 1); freq_hz when none of
-/// them sounds over the heard span.
+/// by power over the heard span as its spectrum shows it (db_to_power of span_level), the pitch a
+/// group of components too close to sound apart is heard at (as analysis/heard_peaks reads a
+/// beating partial 1); freq_hz when none of them sounds over the heard span.
 double heard_centre_hz(std::span<const root_mode> modes, double freq_hz, double group_rel) {
     double sum_power = 0.0, sum_power_hz = 0.0;
     for (const root_mode& m : modes) {
         if (!(m.freq_hz > 0.0) || std::abs(m.freq_hz / freq_hz - 1.0) > group_rel) continue;
-        const double power = db_to_power(heard_level(m));
+        const double power = db_to_power(span_level(m));
         sum_power += power, sum_power_hz += power * m.freq_hz;
     }
     return sum_power > 0.0 ? sum_power_hz / sum_power : freq_hz;
@@ -175,6 +178,19 @@ root_estimate find_root(std::span<const root_mode> modes, double series_f0_hz, b
     return {heard.front().freq_hz, root_method::lowest_mode};
 }
 
+double span_weighted_amplitude(const envelope& env, double start_s, double end_s) {
+    constexpr int steps = 200;
+    double sum = 0.0, wsum = 0.0;
+    const std::vector<envelope_piece> pieces = envelope_pieces(env);  // made once, not per point
+    for (int j = 1; j < steps; ++j) {
+        const double u = static_cast<double>(j) / steps;
+        const double w = 0.5 - 0.5 * std::cos(two_pi * u);
+        sum += w * envelope_amp(env, pieces, start_s + u * (end_s - start_s)).lin;
+        wsum += w;
+    }
+    return sum / wsum;
+}
+
 double heard_level_db(const envelope& env) {
     constexpr int points = 101;  // every 10 ms
     const std::vector<envelope_piece> pieces = envelope_pieces(env);
@@ -194,11 +210,13 @@ note_root note_root_of(std::span<const partial> partials, double series_f0_hz, b
     for (const partial& q : partials) {
         const double heard_db = heard_level_db(q.env);
         any_heard = any_heard || std::isfinite(heard_db);
-        modes.push_back({.freq_hz = q.freq_hz, .level_db = q.env.peak.db, .harmonic = q.harmonic, .heard_db = heard_db});
+        const double span_amp = span_weighted_amplitude(q.env, heard_span_start_s, heard_span_end_s);
+        modes.push_back({.freq_hz = q.freq_hz, .level_db = q.env.peak.db, .harmonic = q.harmonic, .heard_db = heard_db,
+                         .span_db = span_amp > 0.0 ? 20.0 * std::log10(span_amp) : -infinity});
     }
     // A note shorter than the heard span's start: the peak levels stand for what is heard.
     if (!any_heard)
-        for (root_mode& m : modes) m.heard_db = std::numeric_limits<double>::quiet_NaN();
+        for (root_mode& m : modes) m.heard_db = m.span_db = std::numeric_limits<double>::quiet_NaN();
     const root_estimate r = find_root(modes, series_f0_hz, from_hint);
     if (r.method == root_method::unpitched || !(r.freq_hz > 0.0)) return {.method = root_method::unpitched};
     return root_from_hz(r.freq_hz, r.method);
