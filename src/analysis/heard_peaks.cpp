@@ -95,19 +95,10 @@ double capture_hz_of(const span_spectrum& s, const heard_peak_params& params) {
     return params.capture_half_widths * 2.0 / (s.end_s - s.start_s);
 }
 
-/// Hann-weighted mean amplitude of an envelope over the span (what the span's spectrum shows of
-/// a partial at its peak).
+/// Hann-weighted mean amplitude of an envelope over the span (pitch/root.hpp's
+/// span_weighted_amplitude: what the span's spectrum shows of a partial at its peak).
 double envelope_span_amplitude(const envelope& env, const span_spectrum& s) {
-    constexpr int steps = 200;
-    double sum = 0.0, wsum = 0.0;
-    const std::vector<envelope_piece> pieces = envelope_pieces(env);  // made once, not per point
-    for (int j = 1; j < steps; ++j) {
-        const double u = static_cast<double>(j) / steps;
-        const double w = 0.5 - 0.5 * std::cos(two_pi * u);
-        sum += w * envelope_amp(env, pieces, s.start_s + u * (s.end_s - s.start_s)).lin;
-        wsum += w;
-    }
-    return sum / wsum;
+    return span_weighted_amplitude(env, s.start_s, s.end_s);
 }
 
 /// Median of s.mag over [low_hz, high_hz].

@@ -27,12 +27,36 @@ std::optional<root_mode> mode_near(std::span<const root_mode> strong, double tar
     return best;
 }
 
+double peak_level(const root_mode& m) { return m.level_db; }
+/// The heard level where known, else the peak level.
+double heard_level(const root_mode& m) { return std::isnan(m.heard_db) ? m.level_db : m.heard_db; }
+
+/// Level over the heard span as its spectrum weighs it where known, else the heard level.
+double span_level(const root_mode& m) { return std::isnan(m.span_db) ? heard_level(m) : m.span_db; }
+
+/// The heard centre of the modes within group_rel of freq_hz (Hz): their mean frequency weighted
+/// by power over the heard span as its spectrum shows it (db_to_power of span_level), the pitch a
+/// group of components too close to sound apart is heard at (as analysis/heard_peaks reads a
+/// beating partial 1); freq_hz when none of them sounds over the heard span.
+double heard_centre_hz(std::span<const root_mode> modes, double freq_hz, double group_rel) {
+    double sum_power = 0.0, sum_power_hz = 0.0;
+    for (const root_mode& m : modes) {
+        if (!(m.freq_hz > 0.0) || std::abs(m.freq_hz / freq_hz - 1.0) > group_rel) continue;
+        const double power = db_to_power(span_level(m));
+        sum_power += power, sum_power_hz += power * m.freq_hz;
+    }
+    return sum_power > 0.0 ? sum_power_hz / sum_power : freq_hz;
+}
+
 /// Strike note of a bell: the nominal N, twelfth 1.5 N and upper octave 2 N all strong, with the
 /// tierce at 0.6 N (a minor third above N / 2) strong too; the strike note is N / 2, an octave
 /// below the nominal, as bell tuners name it (Fletcher and Rossing 1998, ch. 21), taken as the
 /// prime's own frequency when a strong prime sits there (a tuned bell). Where several modes could
-/// be the nominal, the strongest one is.
-std::optional<double> strike_note_hz(std::span<const root_mode> strong, double tol_rel) {
+/// be the nominal, the strongest one is; without a prime, N is the heard centre of the modes
+/// (all of them, heard levels) within nominal_group_rel of it (heard_centre_hz).
+std::optional<double> strike_note_hz(std::span<const root_mode> strong, std::span<const root_mode> modes,
+                                     const root_params& params) {
+    const double tol_rel = params.bell_tolerance_rel;
     // Ideal partial ratios of a tuned church bell relative to the strike note (prime): hum 0.5,
     // prime 1, tierce 1.2, quint 1.5, nominal 2, twelfth 3, upper octave 4 (Fletcher and Rossing
     // 1998, ch. 21).
@@ -51,7 +75,8 @@ std::optional<double> strike_note_hz(std::span<const root_mode> strong, double t
         // Bell-tuning practice names the strike note an octave below the nominal; a tuned bell
         // has its prime there, and then the prime is the note.
         const auto prime = mode_near(strong, s, tol_rel);
-        if (n.level_db > best_db) best_db = n.level_db, best = prime ? prime->freq_hz : s;
+        if (n.level_db > best_db)
+            best_db = n.level_db, best = prime ? prime->freq_hz : heard_centre_hz(modes, n.freq_hz, params.nominal_group_rel) / nominal;
     }
     return best;
 }
@@ -122,10 +147,6 @@ std::optional<double> upper_series_hz(double f1, std::span<const root_mode> memb
     return f;
 }
 
-double peak_level(const root_mode& m) { return m.level_db; }
-/// The heard level where known, else the peak level.
-double heard_level(const root_mode& m) { return std::isnan(m.heard_db) ? m.level_db : m.heard_db; }
-
 /// The modes (of positive frequency) within below_max_db of the strongest by level_of, by
 /// frequency.
 std::vector<root_mode> strong_modes(std::span<const root_mode> modes, double below_max_db,
@@ -149,12 +170,25 @@ root_estimate find_root(std::span<const root_mode> modes, double series_f0_hz, b
     if (from_hint && series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, true, params), root_method::f0_hint};
     // A dense wash of modes with no series has no pitch; ratios found in it are chance.
     if (series_f0_hz <= 0.0 && static_cast<int>(strong.size()) > params.unpitched_min_strong_modes) return {};
-    if (const auto s = strike_note_hz(strong, params.bell_tolerance_rel)) return {*s, root_method::strike_note};
+    if (const auto s = strike_note_hz(strong, modes, params)) return {*s, root_method::strike_note};
     if (series_f0_hz > 0.0) return {fundamental_hz(modes, series_f0_hz, false, params), root_method::harmonic_series};
     if (heard.empty()) return {};
     if (const auto f = upper_series_hz(heard.front().freq_hz, strong_modes(modes, params.upper_series_below_db, heard_level), params))
         return {*f, root_method::harmonic_series};
     return {heard.front().freq_hz, root_method::lowest_mode};
+}
+
+double span_weighted_amplitude(const envelope& env, double start_s, double end_s) {
+    constexpr int steps = 200;
+    double sum = 0.0, wsum = 0.0;
+    const std::vector<envelope_piece> pieces = envelope_pieces(env);  // made once, not per point
+    for (int j = 1; j < steps; ++j) {
+        const double u = static_cast<double>(j) / steps;
+        const double w = 0.5 - 0.5 * std::cos(two_pi * u);
+        sum += w * envelope_amp(env, pieces, start_s + u * (end_s - start_s)).lin;
+        wsum += w;
+    }
+    return sum / wsum;
 }
 
 double heard_level_db(const envelope& env) {
@@ -176,11 +210,13 @@ note_root note_root_of(std::span<const partial> partials, double series_f0_hz, b
     for (const partial& q : partials) {
         const double heard_db = heard_level_db(q.env);
         any_heard = any_heard || std::isfinite(heard_db);
-        modes.push_back({.freq_hz = q.freq_hz, .level_db = q.env.peak.db, .harmonic = q.harmonic, .heard_db = heard_db});
+        const double span_amp = span_weighted_amplitude(q.env, heard_span_start_s, heard_span_end_s);
+        modes.push_back({.freq_hz = q.freq_hz, .level_db = q.env.peak.db, .harmonic = q.harmonic, .heard_db = heard_db,
+                         .span_db = span_amp > 0.0 ? 20.0 * std::log10(span_amp) : -infinity});
     }
     // A note shorter than the heard span's start: the peak levels stand for what is heard.
     if (!any_heard)
-        for (root_mode& m : modes) m.heard_db = std::numeric_limits<double>::quiet_NaN();
+        for (root_mode& m : modes) m.heard_db = m.span_db = std::numeric_limits<double>::quiet_NaN();
     const root_estimate r = find_root(modes, series_f0_hz, from_hint);
     if (r.method == root_method::unpitched || !(r.freq_hz > 0.0)) return {.method = root_method::unpitched};
     return root_from_hz(r.freq_hz, r.method);

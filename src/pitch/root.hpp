@@ -17,6 +17,9 @@ struct root_mode {
     /// Mean level over the heard span (heard_level_db), dBFS: what is still heard once the strike's
     /// short-lived modes have died. NaN when not known: level_db stands for it.
     double heard_db = std::numeric_limits<double>::quiet_NaN();
+    /// Amplitude over the heard span as its spectrum weighs it (span_weighted_amplitude), dB:
+    /// the weight of a split nominal's members. NaN when not known: heard_db stands for it.
+    double span_db = std::numeric_limits<double>::quiet_NaN();
 };
 
 struct root_params {
@@ -30,6 +33,18 @@ struct root_params {
     double fundamental_below_max_db = 30.0;
     /// Relative tolerance of the bell partial ratios (bells are seldom tuned closer than this).
     double bell_tolerance_rel = 0.025;
+    /// A bell without a strong prime is heard at its nominal's octave below, the nominal read as
+    /// the power-weighted mean frequency of the modes within this of the chosen one, each
+    /// weighted by its amplitude as the heard span's spectrum shows it (span_db): a split mode (a
+    /// tube's or a bell's two close components) or a strike transient beside it is one tone to
+    /// the ear, heard at the group's centre as analysis/heard_peaks reads a harmonic note's
+    /// partial 1 from that spectrum (tubular_c7 of tools/more_notes.py: its nominal the
+    /// louder-peaked 2106.87 Hz, peak -11.6 dB, over the span -40.9 dB (mean level -23.1 dB, most
+    /// of it in the span's first tenth), beside 2095.64 Hz, peak -25.3 dB, over the span -30.9
+    /// dB; the recording's mode 4 over the span peaks at 2095.64 Hz, 12 dB over 2106.87 Hz). 1% (reasoned choice): components that close (20 Hz at 2 kHz, under a tenth
+    /// of the critical band there) beat rather than sound apart, and a bell's partials lie further
+    /// apart than that (the nearest pair of a church bell's, prime and tierce at 1 : 1.2, 20%).
+    double nominal_group_rel = 0.01;
     /// A note without a fitted series whose strong modes above the lowest lie on 2, 3, ... times
     /// one f (upper_series_hz in root.cpp): pizzicato strings playing in unison (pizz_a3 of
     /// tools/more_notes.py: a fundamental at 113.7 Hz, 2.6% over the 110.9 Hz its partials 2-4
@@ -60,7 +75,8 @@ struct root_estimate {
 ///    nominal and at the prime of a well-tuned bell (Fletcher and Rossing 1998, ch. 21: the
 ///    prime's own frequency when a strong prime lies within bell_tolerance_rel of s); the
 ///    ear hears it as the missing fundamental of the nominal, twelfth and upper octave (Terhardt
-///    and Seewann 1984);
+///    and Seewann 1984); without a strong prime, N is read as the heard centre of the modes
+///    within nominal_group_rel of the nominal (a split mode is heard as one tone);
 /// 2. a harmonic or stretched series: its fundamental as measured, the strongest partial numbered
 ///    1 when within fundamental_below_max_db of the strongest partial, else series_f0_hz
 ///    (harmonic_series, or f0_hint when the series was started from the user's --f0);
@@ -79,6 +95,11 @@ root_estimate find_root(std::span<const root_mode> modes, double series_f0_hz, b
 inline constexpr double heard_span_start_s = 0.1;
 inline constexpr double heard_span_s = 1.0;
 inline constexpr double heard_span_end_s = heard_span_start_s + heard_span_s;  // 1.1, the same double
+
+/// Hann-weighted mean amplitude (linear) of an envelope over [start_s, end_s]: what a spectrum
+/// of that span (Hann window) shows of a steady partial at its peak; the window sampled at 199
+/// points, 1/200 of the span apart (the ends, where it is 0, left out).
+double span_weighted_amplitude(const envelope& env, double start_s, double end_s);
 
 /// Mean level of an envelope over the heard span, dBFS: 10 log10 of the mean of amp^2 at 101
 /// times 10 ms apart over [heard_span_start_s, heard_span_end_s] (the envelope's decay run on past

@@ -295,3 +295,30 @@ TEST_CASE("root finder: without a fitted series, a fundamental off the series it
         CHECK(b.freq_hz == 220.0);
     }
 }
+
+TEST_CASE("root finder: a bell without a prime whose nominal is a split pair, one member with a louder strike, "
+          "is heard an octave below the pair's centre as the heard span's spectrum weighs them",
+          "[pitch]") {
+    // Exact truth: strike note 500 Hz with no prime (a tube or a bell tuned without one): hum 250,
+    // tierce 600, quint 750, twelfth 1500, upper octave 2000 Hz, and the nominal split into 996 and
+    // 1004 Hz (0.8% apart, inside nominal_group_rel) of equal amplitude over the heard span as its
+    // spectrum weighs it (span_db -20 dB), one of them with a strike 6 dB louder at its peak whose
+    // energy falls in the span's first tenth (mean level over the span -14 dB, as tubular_c7's
+    // 2106.87 Hz). Two components of
+    // equal level 8 Hz apart are heard as one tone at their midpoint (1000 Hz, whatever the
+    // weighting of equal levels), so the strike note is 500 Hz; the nominal read at the
+    // louder-peaked member gives 498 or 502 Hz (6.9 cents off), and weighted by the mean
+    // levels 498.8 or 501.2 Hz.
+    const double struck_hz = GENERATE(996.0, 1004.0);
+    std::vector<root_mode> bell{{250.0, -20.0, 0, -24.0}, {600.0, -12.0, 0, -16.0}, {750.0, -16.0, 0, -20.0},
+                                {1500.0, -12.0, 0, -16.0}, {2000.0, -15.0, 0, -19.0}};
+    for (const double f : {996.0, 1004.0}) {
+        const bool struck = f == struck_hz;
+        bell.push_back({.freq_hz = f, .level_db = struck ? -4.0 : -10.0, .harmonic = 0, .heard_db = struck ? -14.0 : -20.0,
+                        .span_db = -20.0});
+    }
+    const root_estimate r = find_root(bell, 0.0, false);
+    CAPTURE(struck_hz, r.freq_hz, root_method_name(r.method));
+    CHECK(r.method == root_method::strike_note);
+    CHECK_THAT(cents(r.freq_hz, 500.0), WithinAbs(0.0, 0.01));
+}
