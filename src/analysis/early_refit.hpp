@@ -46,13 +46,10 @@ struct early_refit_params {
     /// the span. Measured against 0.5 s (bench_fidelity): banjo_g3's first-100 ms SNR 7.12 -> 7.21
     /// dB, piano_as4's 13.76 -> 13.98, no note lower, and a shorter render per partial.
     double check_s = 0.3;
-    /// A partial with its attack shortened and nothing else changed (with_attack: its later part is
-    /// the same but for rounding) may raise that residual by this share of the recording's energy
-    /// there: it is not refused for the sign of a sum that is zero but for rounding.
-    double late_rise = 1e-6;
-    /// A partial whose attack lasts at least min_attack_s is also tried with its attack shortened
-    /// to each of these fractions, its level from its old attack end on kept (the lowest residual
-    /// over the span among the tries that pass the check is kept).
+    /// A partial whose attack lasts from min_attack_s to span_s is first tried with its attack
+    /// shortened to each of these fractions, its level from its old attack end on kept; the one
+    /// whose copy leaves least over the span, where that is less than with the partial as it is,
+    /// stands for the partial in the refit (and is kept as it is where its refit is not).
     double min_attack_s = 0.002;
     std::vector<double> attack_fractions{0.0, 0.5};
 };
