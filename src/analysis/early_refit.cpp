@@ -12,6 +12,7 @@
 #include <optional>
 #include <vector>
 
+#include "analysis/early_stage.hpp"
 #include "analysis/onset_glide.hpp"
 #include "core/envelope.hpp"
 #include "core/units.hpp"
@@ -221,6 +222,29 @@ std::optional<trial> fit_trial(const patch& p, const partial& c, bool is_q, std:
     return t;
 }
 
+/// q's early stage (analysis/early_stage.hpp) refitted on d, cur being q's render over the check
+/// span; kept, with d and residual (the span's) updated, where the span's residual falls and the
+/// residual over [span, check span) does not rise by more than the renders' rounding
+/// (late_rounding of the span's signal energy: the stage leaves q's level from its join on as it
+/// was, but the renderer starts a new run there).
+bool refit_stage(const patch& p, partial& q, std::vector<double>& d, std::span<const float> cur, double& residual,
+                 double signal, const trial_frames& f, const early_refit_params& params, patch& one, trial_buffers& buf) {
+    if (!params.stage.enabled) return false;
+    const std::optional<early_stage_fit> fit =
+        fit_early_stage(d, cur.first(f.count), q.env.attack_s, f.rate_hz, signal, params.stage);
+    if (!fit) return false;
+    partial c = q;
+    c.env = with_early_stage(q.env, *fit);
+    render_into(p, std::span(&c, 1), f.rate_hz, f.total, one, buf.cand);
+    double late_change = 0.0, early = 0.0;
+    swap_sums(d.data(), cur.data(), buf.cand.data(), f.count, f.total, late_change, early);
+    if (late_change > params.late_rounding * signal || !(early < residual)) return false;
+    for (std::size_t n = 0; n < f.total; ++n) d[n] += static_cast<double>(cur[n]) - static_cast<double>(buf.cand[n]);
+    residual = early;
+    q = std::move(c);
+    return true;
+}
+
 }  // namespace
 
 early_refit_summary refit_early_phases(patch& p, std::span<const float> note, double sample_rate_hz,
@@ -271,11 +295,13 @@ early_refit_summary refit_early_phases(patch& p, std::span<const float> note, do
             // the span's residual falls.
             if (t && !(t->late_change > 0.0) && t->early < (best ? best->early : residual)) best = std::move(t);
         }
-        if (!best) continue;
-        for (std::size_t n = 0; n < total; ++n) d[n] += static_cast<double>(own[n]) - static_cast<double>(best->moved[n]);
-        residual = best->early;
-        q = best->refit;
-        ++summary.refitted;
+        if (best) {
+            for (std::size_t n = 0; n < total; ++n) d[n] += static_cast<double>(own[n]) - static_cast<double>(best->moved[n]);
+            residual = best->early;
+            q = best->refit;
+        }
+        const bool staged = refit_stage(p, q, d, best ? best->moved : own, residual, signal, frames, params, one, buf);
+        if (best || staged) ++summary.refitted;
     }
     summary.residual_after_db = to_level(amp_lin{std::sqrt(residual / signal)}).db;
     return summary;

@@ -46,6 +46,7 @@
 #include <span>
 #include <vector>
 
+#include "analysis/early_stage.hpp"
 #include "core/patch.hpp"
 
 namespace wane {
@@ -64,6 +65,11 @@ struct early_refit_params {
     /// stands for the partial in the refit (and is kept as it is where its refit is not).
     double min_attack_s = 0.002;
     std::vector<double> attack_fractions{0.0, 0.5};
+    /// Then each partial's early stage refitted (analysis/early_stage.hpp), kept where the span's
+    /// residual falls and the later part's does not rise by more than late_rounding of the span's
+    /// signal energy.
+    early_stage_params stage{};
+    double late_rounding = 1e-9;
 };
 
 struct early_refit_summary {
