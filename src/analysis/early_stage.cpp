@@ -15,51 +15,64 @@ namespace {
 /// d(gain)/d(offset dB) / gain: ln(10) / 20 per dB (the gain is 10^(g / 20) = e^(c g)).
 constexpr double neper_per_db_amp = 0.11512925464970229;
 
-/// Frames [begin, end) over which the knots' two weights are straight lines in the frame: h0 (the
-/// start offset's weight) and h1 (the knee's) at begin, and their steps per frame. The offset line
-/// is g = a0 h0 + a1 h1 (dB).
-struct stage_region {
-    std::size_t begin = 0, end = 0;
-    double h0 = 0.0, dh0 = 0.0, h1 = 0.0, dh1 = 0.0;
+/// The span in blocks of block_frames frames (the last may be shorter): per block the sums
+/// sum w^2 and sum d w, and the knots' weights at the block's centre, h0 (the start offset's: 1
+/// before the attack's end, falling to 0 at the knee) and h1 (the knee's: rising from the
+/// attack's end to 1 at the knee, falling to 0 at the join); past the join both are 0 and nothing
+/// changes. The offset line is g = a0 h0 + a1 h1 (dB), taken as constant over a block: the
+/// weights move by at most block_frames / (20 ms * rate) per block. Structure of arrays.
+struct stage_blocks {
+    std::vector<double> ww, dw, h0, h1;
+    std::size_t used = 0;  ///< blocks up to the join's
 };
 
-/// The three regions: before the attack's end (h0 = 1), attack end to knee (h0 falls to 0 as h1
-/// rises to 1), knee to join (h1 falls to 0); past the join both are 0 and nothing changes.
-std::array<stage_region, 3> regions_of(double attack_s, double knee_s, double join_s, double rate_hz, std::size_t frames) {
-    const auto frame_at = [&](double s) { return std::min(frames, static_cast<std::size_t>(std::ceil(s * rate_hz))); };
-    const std::size_t na = frame_at(attack_s), n1 = frame_at(knee_s), n2 = frame_at(join_s);
-    const auto time_of = [&](std::size_t n) { return static_cast<double>(n) / rate_hz; };
-    const double rise = 1.0 / ((knee_s - attack_s) * rate_hz), fall = 1.0 / ((join_s - knee_s) * rate_hz);
-    const double h0_at_na = (knee_s - time_of(na)) / (knee_s - attack_s);
-    return {{{.begin = 0, .end = na, .h0 = 1.0, .dh0 = 0.0, .h1 = 0.0, .dh1 = 0.0},
-             {.begin = na, .end = n1, .h0 = h0_at_na, .dh0 = -rise, .h1 = 1.0 - h0_at_na, .dh1 = rise},
-             {.begin = n1, .end = n2, .h0 = 0.0, .dh0 = 0.0, .h1 = (join_s - time_of(n1)) / (join_s - knee_s), .dh1 = -fall}}};
+void block_sums(std::span<const double> d, std::span<const float> w, std::size_t block_frames, stage_blocks& b) {
+    const std::size_t blocks = (w.size() + block_frames - 1) / block_frames;
+    b.ww.assign(blocks, 0.0), b.dw.assign(blocks, 0.0), b.h0.resize(blocks), b.h1.resize(blocks);
+    for (std::size_t k = 0; k < blocks; ++k) {
+        const std::size_t end = std::min(w.size(), (k + 1) * block_frames);
+        double ww = 0.0, dw = 0.0;
+        for (std::size_t n = k * block_frames; n < end; ++n) {
+            const auto wn = static_cast<double>(w[n]);
+            ww += wn * wn, dw += d[n] * wn;
+        }
+        b.ww[k] = ww, b.dw[k] = dw;
+    }
 }
 
-/// The Gauss-Newton sums at offsets (a0, a1): u = w 10^(g / 20) the partial with the offset, e =
-/// d + w - u the residual with it, J_i = c u h_i the residual's derivatives (negated); a = J^T J
-/// (2 x 2: a00, a01, a11), b = J^T e, and change = sum (e^2 - d^2), the residual energy's change.
+/// The knots' weights at each block's centre for one (knee_s, join_s).
+void set_weights(double attack_s, double knee_s, double join_s, double rate_hz, std::size_t frames, std::size_t block_frames,
+                 stage_blocks& b) {
+    b.used = 0;
+    for (std::size_t k = 0; k < b.ww.size(); ++k) {
+        const std::size_t begin = k * block_frames, end = std::min(frames, begin + block_frames);
+        const double t = 0.5 * static_cast<double>(begin + end - 1) / rate_hz;
+        if (t >= join_s) break;
+        const bool before = t < attack_s, rising = t < knee_s;
+        b.h0[k] = before ? 1.0 : rising ? (knee_s - t) / (knee_s - attack_s) : 0.0;
+        b.h1[k] = before ? 0.0 : rising ? (t - attack_s) / (knee_s - attack_s) : (join_s - t) / (join_s - knee_s);
+        b.used = k + 1;
+    }
+}
+
+/// The Gauss-Newton sums at offsets (a0, a1), per block with gain G = 10^(g / 20): the partial
+/// with the offset u = G w, the residual with it e = d + (1 - G) w, its derivatives (negated)
+/// J_i = c G h_i w; a = J^T J (2 x 2: a00, a01, a11), b = J^T e, change = sum (e^2 - d^2).
 struct stage_sums {
     double a00 = 0.0, a01 = 0.0, a11 = 0.0, b0 = 0.0, b1 = 0.0, change = 0.0;
 };
 
-stage_sums sums_at(std::span<const double> d, std::span<const float> w, const std::array<stage_region, 3>& regions,
-                   double a0, double a1) {
+stage_sums sums_at(const stage_blocks& b, double a0, double a1) {
     constexpr double c = neper_per_db_amp;
     stage_sums s;
-    for (const stage_region& r : regions) {
-        double h0 = r.h0, h1 = r.h1;
-        double gain = std::exp(c * (a0 * h0 + a1 * h1));
-        const double ratio = std::exp(c * (a0 * r.dh0 + a1 * r.dh1));  // the gain is geometric in a region
-        for (std::size_t n = r.begin; n < r.end; ++n) {
-            const double wn = static_cast<double>(w[n]);
-            const double u = wn * gain, e = d[n] + (wn - u);
-            const double j0 = c * u * h0, j1 = c * u * h1;
-            s.a00 += j0 * j0, s.a01 += j0 * j1, s.a11 += j1 * j1;
-            s.b0 += j0 * e, s.b1 += j1 * e;
-            s.change += e * e - d[n] * d[n];
-            gain *= ratio, h0 += r.dh0, h1 += r.dh1;
-        }
+    const bool zero = a0 == 0.0 && a1 == 0.0;  // the first step's sums: no gain to take
+    for (std::size_t k = 0; k < b.used; ++k) {
+        const double gain = zero ? 1.0 : std::exp(c * (a0 * b.h0[k] + a1 * b.h1[k])), keep = 1.0 - gain;
+        const double jw = c * gain, ew = b.dw[k] + keep * b.ww[k];  // J_i = jw h_i w; sum e w
+        const double jj = jw * jw * b.ww[k];
+        s.a00 += jj * b.h0[k] * b.h0[k], s.a01 += jj * b.h0[k] * b.h1[k], s.a11 += jj * b.h1[k] * b.h1[k];
+        s.b0 += jw * b.h0[k] * ew, s.b1 += jw * b.h1[k] * ew;
+        s.change += keep * (2.0 * b.dw[k] + keep * b.ww[k]);
     }
     return s;
 }
@@ -76,8 +89,13 @@ std::optional<std::array<double, 2>> step_from(const stage_sums& s, double a0, d
 
 std::optional<early_stage_fit> fit_early_stage(std::span<const double> d, std::span<const float> w, double attack_s,
                                                double rate_hz, double signal, const early_stage_params& params) {
-    assert(w.size() <= d.size() && rate_hz > 0.0);
+    assert(w.size() <= d.size() && rate_hz > 0.0 && params.block_frames > 0);
     const double span_s = static_cast<double>(w.size()) / rate_hz;
+    stage_blocks blocks;
+    block_sums(d, w, params.block_frames, blocks);
+    const auto weigh = [&](double knee_s, double join_s) {
+        set_weights(attack_s, knee_s, join_s, rate_hz, w.size(), params.block_frames, blocks);
+    };
     // The pair whose first step (linear in the offsets) promises the largest fall: b^T (J^T J)^-1 b.
     std::optional<early_stage_fit> best;
     double best_promise = 0.0;
@@ -85,7 +103,8 @@ std::optional<early_stage_fit> fit_early_stage(std::span<const double> d, std::s
         if (!(knee_s >= attack_s + params.min_knee_after_attack_s)) continue;
         for (const double join_s : params.join_s) {
             if (!(join_s > knee_s) || join_s > span_s + 0.5 / rate_hz) continue;
-            const stage_sums s = sums_at(d, w, regions_of(attack_s, knee_s, join_s, rate_hz, w.size()), 0.0, 0.0);
+            weigh(knee_s, join_s);
+            const stage_sums s = sums_at(blocks, 0.0, 0.0);
             const std::optional<std::array<double, 2>> a = step_from(s, 0.0, 0.0, infinity);
             if (!a) continue;
             const double promise = s.b0 * (*a)[0] + s.b1 * (*a)[1];
@@ -96,13 +115,13 @@ std::optional<early_stage_fit> fit_early_stage(std::span<const double> d, std::s
         }
     }
     if (!best || best_promise < params.min_fall * signal) return std::nullopt;
-    // Gauss-Newton on that pair, each step's offsets kept while the exact residual falls.
-    const std::array<stage_region, 3> regions = regions_of(attack_s, best->knee_s, best->join_s, rate_hz, w.size());
-    stage_sums at = sums_at(d, w, regions, 0.0, 0.0);
+    // Gauss-Newton on that pair, each step's offsets kept while the model's residual falls.
+    weigh(best->knee_s, best->join_s);
+    stage_sums at = sums_at(blocks, 0.0, 0.0);
     for (int step = 0; step <= params.gauss_newton_steps; ++step) {
         const std::optional<std::array<double, 2>> a = step_from(at, best->start_db, best->knee_db, params.max_change_db);
         if (!a) break;
-        const stage_sums next = sums_at(d, w, regions, (*a)[0], (*a)[1]);
+        const stage_sums next = sums_at(blocks, (*a)[0], (*a)[1]);
         if (!(next.change < -best->fall)) break;
         best->start_db = (*a)[0], best->knee_db = (*a)[1], best->fall = -next.change;
         at = next;

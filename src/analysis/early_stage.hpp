@@ -12,11 +12,12 @@
 // its envelope becomes attack + a segment to knee_s + a segment to join_s + its own segments from
 // join_s on (with_early_stage): the later part is the STFT fit's. The offsets are the least
 // squares of the waveform y ~ w(t) 10^(g(t) / 20) over the span (w the partial as rendered, y
-// what the copy leaves with w put back, g the offset line): one Gauss-Newton step from g = 0 for
+// what the copy leaves with w put back, g the offset line, taken constant over blocks of 32
+// frames whose sums of w^2 and y w are made once): one Gauss-Newton step from g = 0 for
 // each (knee_s, join_s) of the grids, the pair whose step lowers the residual most taken further
-// by gauss_newton_steps more steps while the residual falls. Each step's residual is exact for
-// the model (w times the offset's gain, frame by frame), so the renderer is needed only for the
-// candidate the caller keeps or drops (early_refit: the copy's residual over the span must fall
+// by gauss_newton_steps more steps while the residual falls. Each step's residual is the model's
+// (w times the offset's gain), so the renderer is needed only for the candidate the caller keeps
+// or drops (early_refit: the copy's residual over the span must fall
 // and over [span, check) not rise).
 #pragma once
 
@@ -36,6 +37,9 @@ struct early_stage_params {
     double min_knee_after_attack_s = 0.005;        ///< a knee at least this long after the attack's end
     double max_change_db = 9.0;                    ///< each knot's offset at most this far either way
     int gauss_newton_steps = 2;                    ///< steps past the first for the chosen pair
+    /// The sums are taken per block of this many frames, the offset constant over each (0.67 ms at
+    /// 48 kHz): the candidate handed back is rendered and tested on the frames by the caller.
+    std::size_t block_frames = 32;
     /// A candidate is handed back only where the model's residual over the span falls by this much
     /// of the recording's energy there (-40 dB): smaller changes are not worth a render.
     double min_fall = 1e-4;
