@@ -99,6 +99,7 @@ TEST_CASE("an early refit moves a partial's start level by at most max_level_cha
           "[analysis][onset][early_refit]") {
     const std::vector<float> x = make_note(0.5, 1e-4);
     early_refit_params params{};
+    params.stage.enabled = false;  // the early stage's own refit is checked in test_early_stage
     patch p = patch_of_truth();
     // The loudest partial 6 dB low, with a first segment that ends at 0.3 s at the true level
     // there: the refit may raise its start by 3 dB only, and the level at 0.3 s stays.
@@ -111,4 +112,28 @@ TEST_CASE("an early refit moves a partial's start level by at most max_level_cha
     CAPTURE(start_db, p.partials[0].env.peak.db, end_db, envelope_level(p.partials[0].env, 0.3).db);
     CHECK_THAT(p.partials[0].env.peak.db, Catch::Matchers::WithinAbs(start_db + params.max_level_change_db, 1e-9));
     CHECK_THAT(envelope_level(p.partials[0].env, 0.3).db, Catch::Matchers::WithinAbs(end_db, 1e-6));
+}
+
+TEST_CASE("an early refit shortens a partial's attack that was drawn out to the note's own (0 or half), its later level kept",
+          "[analysis][onset][early_refit]") {
+    const std::vector<float> x = make_note(0.5, 1e-4);
+    const early_refit_params params{};
+    // Partial 0 starts at once and is handed a 50 ms rise; partial 1 rises over 20 ms and is
+    // handed a 40 ms rise. Each handed level at the end of its rise is the truth's there, so only
+    // the first 50 / 40 ms differ: the stage's tries at 0 and half the attack hold the truth.
+    const std::size_t which = GENERATE(0U, 1U);
+    const double handed_attack_s = which == 0 ? 0.05 : 0.04;
+    patch p = patch_of_truth();
+    partial& q = p.partials[which];
+    const envelope true_env = q.env;
+    q.env.attack_s = handed_attack_s;
+    q.env.peak = envelope_level(true_env, handed_attack_s);
+    const early_refit_summary s = refit_early_phases(p, x, fs, params);
+    const envelope& got = p.partials[which].env;
+    CAPTURE(which, s.refitted, s.residual_before_db, s.residual_after_db, got.attack_s, got.peak.db, true_env.peak.db);
+    CHECK_THAT(got.attack_s, Catch::Matchers::WithinAbs(truth[which].attack_s, 1e-12));
+    CHECK_THAT(got.peak.db, Catch::Matchers::WithinAbs(true_env.peak.db, 0.02));
+    CHECK_THAT(envelope_level(got, 0.2).db, Catch::Matchers::WithinAbs(envelope_level(true_env, 0.2).db, 0.02));
+    CHECK(phase_error_rad(p.partials[which].phase_rad, truth[which].phase_rad) < 0.003);
+    CHECK(s.residual_after_db < -60.0);
 }
