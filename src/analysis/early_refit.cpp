@@ -159,17 +159,6 @@ struct trial {
     double late_change = 0.0;    ///< change of the residual energy over [span, check span)
 };
 
-/// The span's residual energy with q (rendered as `own`) swapped for the partial rendered in cand:
-/// sum over the span of (d + own - cand)^2.
-double swapped_energy(std::span<const double> d, std::span<const float> own, std::span<const float> cand) {
-    double e = 0.0;
-    for (std::size_t n = 0; n < cand.size(); ++n) {
-        const double v = d[n] + (static_cast<double>(own[n]) - static_cast<double>(cand[n]));
-        e += v * v;
-    }
-    return e;
-}
-
 /// q, or q with its attack shortened (with_attack) to the fraction of it (attack_fractions) whose
 /// copy leaves the least over the span, where q's attack lasts from min_attack_s to the span (so
 /// that nothing past the span changes) and that least is under `residual`, the span's residual with
@@ -183,7 +172,8 @@ std::optional<trial> shorter_attack(const patch& p, const partial& q, std::span<
     for (const double fraction : params.attack_fractions) {
         const partial c = with_attack(q, fraction * attack_s);
         render_into(p, std::span(&c, 1), f.rate_hz, f.count, one, buf.cand);
-        const double e = swapped_energy(d, own, buf.cand);
+        double late_change = 0.0, e = 0.0;  // over the span alone (no frames past it)
+        swap_sums(d.data(), own.data(), buf.cand.data(), f.count, f.count, late_change, e);
         if (!(e < (best ? best->early : residual))) continue;
         if (!best) best = trial{.refit = c, .moved = std::vector<float>(own.begin(), own.end()), .early = e, .late_change = 0.0};
         best->refit = c, best->early = e;
