@@ -23,7 +23,8 @@ double sample_at(std::span<const float> x, std::ptrdiff_t i) {
 
 }  // namespace
 
-std::vector<double> level_envelope_db(std::span<const float> x, double sample_rate_hz, const onset_params& params) {
+std::vector<double> level_envelope_db(std::span<const float> x, double sample_rate_hz,
+                                      const align_onset_params& params) {
     const std::size_t hop = frames_of(params.hop_s, sample_rate_hz);
     const std::size_t win = frames_of(params.frame_s, sample_rate_hz);
     const std::size_t count = (x.size() + hop - 1) / hop;
@@ -61,7 +62,7 @@ std::vector<double> onset_strength(std::span<const double> level_db, std::size_t
     return out;
 }
 
-std::size_t find_onset_frames(std::span<const float> x, double sample_rate_hz, const onset_params& params) {
+std::size_t find_onset_frames(std::span<const float> x, double sample_rate_hz, const align_onset_params& params) {
     const std::vector<double> level = level_envelope_db(x, sample_rate_hz, params);
     if (level.empty()) return 0;
     const double peak_db = *std::max_element(level.begin(), level.end());
@@ -73,7 +74,7 @@ std::size_t find_onset_frames(std::span<const float> x, double sample_rate_hz, c
 }
 
 alignment align_onsets(std::span<const float> a, std::span<const float> b, double sample_rate_hz,
-                       const onset_params& params) {
+                       const align_onset_params& params) {
     alignment out;
     const std::size_t hop = frames_of(params.hop_s, sample_rate_hz);
     const std::size_t lookback = std::max<std::size_t>(1, frames_of(params.rise_lookback_s, sample_rate_hz) / hop);

@@ -9,7 +9,7 @@
 
 namespace wane {
 
-struct onset_params {
+struct align_onset_params {
     double hop_s = 0.001;          ///< envelope hop
     double frame_s = 0.002;        ///< RMS window of the level envelope
     double floor_below_peak_db = 80.0;  ///< level envelope floored this far below its peak frame
@@ -20,7 +20,8 @@ struct onset_params {
 };
 
 /// Short-time level in dB at hop_s (RMS over frame_s), floored floor_below_peak_db below its peak.
-std::vector<double> level_envelope_db(std::span<const float> x, double sample_rate_hz, const onset_params& params);
+std::vector<double> level_envelope_db(std::span<const float> x, double sample_rate_hz,
+                                      const align_onset_params& params);
 
 /// Onset strength: how far each envelope frame rises above the loudest of the lookback_frames
 /// before it, in dB (0 when it does not). Frames before the start count as the envelope's floor.
@@ -30,7 +31,7 @@ std::vector<double> onset_strength(std::span<const double> level_db, std::size_t
 
 /// Onset in samples: the start of the first envelope frame whose level is within
 /// threshold_below_peak_db of the loudest frame. 0 for a silent signal.
-std::size_t find_onset_frames(std::span<const float> x, double sample_rate_hz, const onset_params& params = {});
+std::size_t find_onset_frames(std::span<const float> x, double sample_rate_hz, const align_onset_params& params = {});
 
 struct alignment {
     /// b[n + lag_frames] lines up with a[n] (positive: b starts later than a).
@@ -42,7 +43,7 @@ struct alignment {
 
 /// Aligns b to a (same sample rate).
 alignment align_onsets(std::span<const float> a, std::span<const float> b, double sample_rate_hz,
-                       const onset_params& params = {});
+                       const align_onset_params& params = {});
 
 /// b shifted so it lines up with a: out[n] = b[n + lag] (zero outside b), length out_frames.
 std::vector<float> shift_by_lag(std::span<const float> b, std::ptrdiff_t lag_frames, std::size_t out_frames);

@@ -21,7 +21,7 @@ namespace wane {
 double snr_db(std::span<const float> a, std::span<const float> b, std::size_t begin, std::size_t end);
 
 struct compare_params {
-    onset_params onset{};
+    align_onset_params onset{};
     spectral_distance_params spectral{};  ///< its time range is set by compare_signals
     decay_params decay{};
     double early_window_s = 0.100;        ///< "first 100 ms after onset" for the early distance and SNR
