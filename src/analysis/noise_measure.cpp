@@ -103,18 +103,24 @@ band_plan floor_plan(double sample_rate_hz, std::span<const double> partial_freq
         const int first = std::max(1, static_cast<int>(std::ceil(e.low_hz / bin_hz)));
         const int last = std::min(n_bins - 2, static_cast<int>(std::ceil(e.high_hz / bin_hz)) - 1);
         if (last < first || free_bins.empty()) continue;
-        std::vector<int> chosen;
-        for (int k : free_bins)
-            if (k >= first && k <= last) chosen.push_back(k);
+        // The free bins inside the band (free_bins ascends).
+        std::vector<int> chosen(std::lower_bound(free_bins.begin(), free_bins.end(), first),
+                                std::upper_bound(free_bins.begin(), free_bins.end(), last));
         if (chosen.size() < static_cast<std::size_t>(params.min_free_bins)) {
-            // Borrow the free bins nearest the band's centre in log frequency.
+            // Borrow the free bins nearest the band's centre in log frequency: in order of
+            // frequency they lie on either side of it, each side's further from it the further out,
+            // so the nearest are taken by walking out from it, the nearer of the two sides first.
             const double centre_hz = std::sqrt(e.low_hz * e.high_hz);
-            chosen = free_bins;
-            const auto n = std::min(chosen.size(), static_cast<std::size_t>(params.min_free_bins));
-            std::partial_sort(chosen.begin(), chosen.begin() + static_cast<std::ptrdiff_t>(n), chosen.end(), [&](int a, int b) {
-                return std::abs(std::log(a * bin_hz / centre_hz)) < std::abs(std::log(b * bin_hz / centre_hz));
-            });
-            chosen.resize(n);
+            auto distance = [&](int k) { return std::abs(std::log(k * bin_hz / centre_hz)); };
+            const auto n = std::min(free_bins.size(), static_cast<std::size_t>(params.min_free_bins));
+            auto above = std::lower_bound(free_bins.begin(), free_bins.end(), centre_hz / bin_hz,
+                                         [](int k, double c) { return k < c; });
+            auto below = above;
+            chosen.clear();
+            while (chosen.size() < n) {
+                const bool take_below = below != free_bins.begin() && (above == free_bins.end() || distance(*(below - 1)) <= distance(*above));
+                chosen.push_back(take_below ? *--below : *above++);
+            }
         }
         add_band(plan, e, std::move(chosen), first, last);
     }
