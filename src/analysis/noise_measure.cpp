@@ -103,18 +103,24 @@ band_plan floor_plan(double sample_rate_hz, std::span<const double> partial_freq
         const int first = std::max(1, static_cast<int>(std::ceil(e.low_hz / bin_hz)));
         const int last = std::min(n_bins - 2, static_cast<int>(std::ceil(e.high_hz / bin_hz)) - 1);
         if (last < first || free_bins.empty()) continue;
-        std::vector<int> chosen;
-        for (int k : free_bins)
-            if (k >= first && k <= last) chosen.push_back(k);
+        // The free bins inside the band (free_bins ascends).
+        std::vector<int> chosen(std::lower_bound(free_bins.begin(), free_bins.end(), first),
+                                std::upper_bound(free_bins.begin(), free_bins.end(), last));
         if (chosen.size() < static_cast<std::size_t>(params.min_free_bins)) {
-            // Borrow the free bins nearest the band's centre in log frequency.
+            // Borrow the free bins nearest the band's centre in log frequency: in order of
+            // frequency they lie on either side of it, each side's further from it the further out,
+            // so the nearest are taken by walking out from it, the nearer of the two sides first.
             const double centre_hz = std::sqrt(e.low_hz * e.high_hz);
-            chosen = free_bins;
-            const auto n = std::min(chosen.size(), static_cast<std::size_t>(params.min_free_bins));
-            std::partial_sort(chosen.begin(), chosen.begin() + static_cast<std::ptrdiff_t>(n), chosen.end(), [&](int a, int b) {
-                return std::abs(std::log(a * bin_hz / centre_hz)) < std::abs(std::log(b * bin_hz / centre_hz));
-            });
-            chosen.resize(n);
+            auto distance = [&](int k) { return std::abs(std::log(k * bin_hz / centre_hz)); };
+            const auto n = std::min(free_bins.size(), static_cast<std::size_t>(params.min_free_bins));
+            auto above = std::lower_bound(free_bins.begin(), free_bins.end(), centre_hz / bin_hz,
+                                         [](int k, double c) { return k < c; });
+            auto below = above;
+            chosen.clear();
+            while (chosen.size() < n) {
+                const bool take_below = below != free_bins.begin() && (above == free_bins.end() || distance(*(below - 1)) <= distance(*above));
+                chosen.push_back(take_below ? *--below : *above++);
+            }
         }
         add_band(plan, e, std::move(chosen), first, last);
     }
@@ -189,6 +195,34 @@ double mean_bin_power(const band_plan& bp, std::size_t b, std::span<const float>
 
 }  // namespace
 
+namespace {
+
+/// The hop of a band plan in samples, and how many frames it measures over a residual of total
+/// samples (frames centred before until_s).
+struct frame_grid {
+    std::size_t hop = 1;
+    std::size_t frame_count = 0;
+    frame_grid(std::size_t total, double sample_rate_hz, const band_plan& bp, double until_s)
+        : hop(static_cast<std::size_t>(std::max<std::int64_t>(1, std::llround(bp.hop_s * sample_rate_hz)))) {
+        std::size_t end = total;
+        if (bp.span_s > 0.0) end = std::min(total, static_cast<std::size_t>(std::llround(bp.span_s * sample_rate_hz)));
+        if (until_s < static_cast<double>(end) / sample_rate_hz)
+            end = static_cast<std::size_t>(std::ceil(std::max(0.0, until_s) * sample_rate_hz));
+        frame_count = end == 0 ? 0 : (end - 1) / hop + 1;
+    }
+    /// The frames read nothing past the last one's window.
+    [[nodiscard]] std::size_t read_end(std::size_t total, std::size_t half) const {
+        return frame_count == 0 ? 0 : std::min(total, (frame_count - 1) * hop + half + 1);
+    }
+};
+
+}  // namespace
+
+std::size_t measure_read_end(std::size_t total, double sample_rate_hz, const band_plan& bp, int half_length,
+                             double until_s) {
+    return frame_grid(total, sample_rate_hz, bp, until_s).read_end(total, static_cast<std::size_t>(half_length));
+}
+
 std::vector<noise_band_track> measure_bands(std::size_t total, const residual_source& source, double sample_rate_hz,
                                             const band_plan& bp, stft_plan& plan, double until_s) {
     assert(plan.fft_size() == plan_config(bp, sample_rate_hz).fft_size);
@@ -197,12 +231,9 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
     for (float w : plan.window_samples()) window_power_sum += static_cast<double>(w) * static_cast<double>(w);
     const double amp_scale_sq = plan.amp_scale() * plan.amp_scale();
 
-    const auto hop = static_cast<std::size_t>(std::max<std::int64_t>(1, std::llround(bp.hop_s * sample_rate_hz)));
-    std::size_t end = total;
-    if (bp.span_s > 0.0) end = std::min(total, static_cast<std::size_t>(std::llround(bp.span_s * sample_rate_hz)));
-    if (until_s < static_cast<double>(end) / sample_rate_hz)
-        end = static_cast<std::size_t>(std::ceil(std::max(0.0, until_s) * sample_rate_hz));
-    const std::size_t frame_count = end == 0 ? 0 : (end - 1) / hop + 1;
+    const frame_grid grid(total, sample_rate_hz, bp, until_s);
+    const std::size_t hop = grid.hop;
+    const std::size_t frame_count = grid.frame_count;
     std::vector<noise_band_track> tracks(bp.bands.size());
     for (std::size_t b = 0; b < bp.bands.size(); ++b) {
         tracks[b] = {.low_hz = bp.bands[b].low_hz, .high_hz = bp.bands[b].high_hz,
@@ -217,7 +248,7 @@ std::vector<noise_band_track> measure_bands(std::size_t total, const residual_so
     const std::size_t buf_capacity =
         std::min(total, residual_blocks * render_anchor_frames + 2 * half + render_anchor_frames);
     // The frames read nothing past the last one's window: the buffer stops there.
-    const std::size_t read_end = frame_count == 0 ? 0 : std::min(total, (frame_count - 1) * hop + half + 1);
+    const std::size_t read_end = grid.read_end(total, half);
     const auto buf_store = std::make_unique_for_overwrite<float[]>(std::min(buf_capacity, read_end));
     std::span<float> buf;
     std::size_t buf_first = 0;

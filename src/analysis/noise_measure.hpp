@@ -57,6 +57,10 @@ stft_config plan_config(const band_plan& plan, double sample_rate_hz);
 /// its sources). Frames are analysed in order; the samples each needs are fetched
 /// into a buffer that slides forward, so only one buffer of residual is held. Frames near the ends
 /// read zeros outside the residual, exactly as stft_plan does on the whole residual.
+/// How many of the residual's first samples measure_bands reads (frames centred before until_s).
+std::size_t measure_read_end(std::size_t total, double sample_rate_hz, const band_plan& bp, int half_length,
+                             double until_s = infinity);
+
 std::vector<noise_band_track> measure_bands(std::size_t total, const residual_source& source, double sample_rate_hz,
                                             const band_plan& bp, stft_plan& plan, double until_s = infinity);
 

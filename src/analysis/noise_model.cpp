@@ -197,9 +197,31 @@ std::vector<bool> spread_bands(const band_plan& plan, std::span<const double> pa
 /// recording is the subtraction's error, not noise. The bands take, frame by frame, the lowest of
 /// the levels: what neither rise explains, and never more than was recorded (over the first
 /// recording_cap_span_s: later the subtraction's error stands under the floor on the notes measured).
-std::vector<noise_band> model_from(std::size_t total, std::span<const timed_source> sources,
+std::vector<noise_band> model_from(std::size_t total, std::span<const timed_source> given,
                                    double sample_rate_hz, std::span<const double> partial_freqs_hz, double f0_hz,
                                    double loudest_partial_db, const noise_model_params& params) {
+    const band_plan attack = attack_plan(sample_rate_hz, params);
+    // The attack plan reads only each source's first samples, which the floor plan's first block
+    // (read from sample 0 on) already holds: they are kept from it (a render from sample 0 gives
+    // the same samples at any length, synthesis/render.hpp), not formed again.
+    const int attack_half = plan_config(attack, sample_rate_hz).window_length / 2;
+    std::vector<std::vector<float>> heads(given.size());
+    std::vector<residual_source> kept;
+    std::vector<timed_source> sources;
+    kept.reserve(given.size());
+    for (std::size_t k = 0; k < given.size(); ++k) {
+        const std::size_t head_size = measure_read_end(total, sample_rate_hz, attack, attack_half, given[k].until_s);
+        kept.emplace_back([&, k, head_size](std::size_t first, std::span<float> dest) {
+            std::vector<float>& head = heads[k];
+            if (first + dest.size() <= head.size()) {
+                std::copy_n(head.begin() + static_cast<std::ptrdiff_t>(first), dest.size(), dest.begin());
+                return;
+            }
+            (*given[k].read)(first, dest);
+            if (first == 0 && head.empty() && dest.size() >= head_size) head.assign(dest.begin(), dest.begin() + static_cast<std::ptrdiff_t>(head_size));
+        });
+        sources.push_back({.read = &kept.back(), .until_s = given[k].until_s});
+    }
     auto lower_of_both = [&](const band_plan& plan, const std::vector<bool>& spread) {
         const leak_sources floor_from = spread.empty() ? leak_sources::all : leak_sources::skirts;
         stft_plan stft(plan_config(plan, sample_rate_hz));
@@ -231,7 +253,6 @@ std::vector<noise_band> model_from(std::size_t total, std::span<const timed_sour
     floor.dense_span_s = params.floor_dense_span_s;
     floor.sparse_hops = std::max(1, static_cast<int>(std::floor(params.floor_sparse_hop_windows * floor.window_s / floor.hop_s + 1e-9)));
     const auto floors = lower_of_both(floor, {});
-    const band_plan attack = attack_plan(sample_rate_hz, params);
     const auto attacks = lower_of_both(attack, spread_bands(attack, partial_freqs_hz));
     return fit_bands(floors, attacks, floor.window, floor.window_s, loudest_partial_db, params);
 }

@@ -44,6 +44,33 @@ void rotate_columns(double* __restrict x, double* __restrict y, index count, dou
     }
 }
 
+/// A plane rotation G = [c, -conj(s); s, c] (c real, c^2 + |s|^2 = 1) with G [p; q] = [r; 0]:
+/// c = |p| / h, s = -c q / p, r = h p / |p|, h = sqrt(|p|^2 + |q|^2) (p = 0: c = 0, s = -q / |q|,
+/// r = |q|; p = q = 0: the identity), on p and q scaled by their largest part. Eigen's makeGivens
+/// gives the same rotation up to the sign of c and s.
+struct givens {
+    double c = 1.0;
+    std::complex<double> s{0.0, 0.0}, r{0.0, 0.0};
+};
+
+givens make_givens(std::complex<double> p, std::complex<double> q) {
+    double pr = p.real(), pi_ = p.imag(), qr = q.real(), qi = q.imag();
+    const double top = std::max({std::abs(pr), std::abs(pi_), std::abs(qr), std::abs(qi)});
+    if (!(top > 0.0)) return {};
+    const double inv = 1.0 / top;
+    pr *= inv, pi_ *= inv, qr *= inv, qi *= inv;
+    const double p2 = pr * pr + pi_ * pi_, q2 = qr * qr + qi * qi;
+    const double h = std::sqrt(p2 + q2);
+    if (p2 == 0.0) {
+        const double qa = std::sqrt(q2);
+        return {.c = 0.0, .s = {-qr / qa, -qi / qa}, .r = {top * qa, 0.0}};
+    }
+    const double pa = std::sqrt(p2);
+    const double k = 1.0 / (pa * h);  // s = -(q conj p) / (|p| h)
+    const double rk = top * h / pa;   // r = p h / |p|, unscaled
+    return {.c = pa / h, .s = {-(qr * pr + qi * pi_) * k, -(qi * pr - qr * pi_) * k}, .r = {pr * rk, pi_ * rk}};
+}
+
 /// The complex entry as its real and imaginary parts (std::complex's array layout).
 double* parts(std::complex<double>& v) { return reinterpret_cast<double*>(&v); }
 
@@ -90,20 +117,20 @@ struct hessenberg {
     /// the next ones chase it down and out. Each rotation acts on two rows over the block's columns
     /// from the bulge on, and on two columns over the block's rows down to the bulge.
     void step(index il, index iu, std::complex<double> mu) {
-        Eigen::JacobiRotation<std::complex<double>> rot;
         for (index i = il; i < iu; ++i) {
             index from_col = il;
+            givens rot;
             if (i == il) {
-                rot.makeGivens(at(il, il) - mu, at(il + 1, il));
+                rot = make_givens(at(il, il) - mu, at(il + 1, il));
             } else {
-                rot.makeGivens(at(i, i - 1), at(i + 1, i - 1), &at(i, i - 1));
+                rot = make_givens(at(i, i - 1), at(i + 1, i - 1));
+                at(i, i - 1) = rot.r;
                 at(i + 1, i - 1) = 0.0;
                 from_col = i;
             }
-            const double c = rot.c().real();
-            // Rows i, i + 1 by the adjoint rotation (c, -s); columns i, i + 1 by the rotation's
-            // transpose (c, -conj(s)).
-            const std::complex<double> row_s = -rot.s(), col_s = -std::conj(rot.s());
+            const double c = rot.c;
+            // Rows i, i + 1 by G (c, -s); columns i, i + 1 by G^H (c, -conj(s)).
+            const std::complex<double> row_s = -rot.s, col_s = -std::conj(rot.s);
             rotate(parts(at(i, from_col)), parts(at(i + 1, from_col)), iu - from_col + 1, h.rows(), c, row_s.real(), row_s.imag());
             rotate_columns(parts(at(il, i)), parts(at(il, i + 1)), std::min(i + 2, iu) - il + 1, c, col_s.real(), col_s.imag());
         }

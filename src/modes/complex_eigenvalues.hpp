@@ -6,10 +6,12 @@
 // shift after 10 and 20 steps on one eigenvalue (EISPACK's comqr, Smith et al. 1976).
 //
 // The steps, deflation test and shifts are those of Eigen's ComplexSchur, so the eigenvalues are
-// the ones Eigen's ComplexEigenSolver gives; but each rotation is applied only within the active
-// block (the rows above it and the columns to its right hold the Schur form's off-diagonal part,
-// which the eigenvalues never read), and on plain real and imaginary parts, the rotation's cosine
-// being real.
+// the ones Eigen's ComplexEigenSolver gives up to rounding (the plane rotations are formed by a
+// formula of their own, c = |p| / sqrt(|p|^2 + |q|^2) >= 0, not by Eigen's makeGivens, whose c
+// and s may differ in sign and last bits); each rotation is applied only within the active block
+// (the rows above it and the columns to its right hold the Schur form's off-diagonal part, which
+// the eigenvalues never read), and on plain real and imaginary parts, the rotation's cosine being
+// real.
 #pragma once
 
 #include <complex>

@@ -70,23 +70,15 @@ void lag_sums(const double* __restrict re, const double* __restrict im, std::siz
     }
 }
 
-/// cov(i, 0) = sum_{m < cols} y[m + i] conj y[m] for i < dim (lag_sums).
-void first_column(std::span<const std::complex<double>> y, Eigen::Index dim, Eigen::Index cols, cmatrix& cov) {
-    const std::size_t n = y.size();
-    std::vector<double> re(n), im(n), out_re(static_cast<std::size_t>(dim)), out_im(static_cast<std::size_t>(dim));
-    for (std::size_t k = 0; k < n; ++k) re[k] = y[k].real(), im[k] = y[k].imag();
-    lag_sums(re.data(), im.data(), static_cast<std::size_t>(dim), static_cast<std::size_t>(cols), out_re.data(), out_im.data());
-    for (Eigen::Index i = 0; i < dim; ++i) cov(i, 0) = {out_re[static_cast<std::size_t>(i)], out_im[static_cast<std::size_t>(i)]};
-}
-
-/// The largest |entry| of a (std::abs, as cwiseAbs gives it), found among the entries whose
-/// squared magnitude is within 1e-9 of the largest (one hypot per candidate, not per entry).
-double largest_magnitude(const cmatrix& a) {
+/// The largest |entry| (std::abs, as cwiseAbs gives it) of the complex entries (re[k], im[k]),
+/// k < size, found among those whose squared magnitude is within 1e-9 of the largest (one hypot
+/// per candidate, not per entry).
+double largest_magnitude(const double* re, const double* im, std::size_t size) {
     double top = 0.0;
-    for (Eigen::Index k = 0; k < a.size(); ++k) top = std::max(top, std::norm(a(k)));
+    for (std::size_t k = 0; k < size; ++k) top = std::max(top, re[k] * re[k] + im[k] * im[k]);
     double out = 0.0;
-    for (Eigen::Index k = 0; k < a.size(); ++k)
-        if (std::norm(a(k)) >= top * (1.0 - 1e-9)) out = std::max(out, std::abs(a(k)));
+    for (std::size_t k = 0; k < size; ++k)
+        if (re[k] * re[k] + im[k] * im[k] >= top * (1.0 - 1e-9)) out = std::max(out, std::abs(std::complex<double>{re[k], im[k]}));
     return out;
 }
 
@@ -112,25 +104,35 @@ void decompose(std::span<const std::complex<double>> y, int dimension, decomposi
     // the first column directly, then along each diagonal
     //   R(i + 1, j + 1) = R(i, j) - y[i] conj y[j] + y[cols + i] conj y[cols + j],
     // O(L N + L^2) instead of O(L^2 N).
-    cmatrix cov(dim, dim);
-    const auto at = [&](Eigen::Index k) { return y[static_cast<std::size_t>(k)]; };
-    first_column(y, dim, cols, cov);
-    for (Eigen::Index j = 1; j < dim; ++j)
-        for (Eigen::Index i = j; i < dim; ++i)
-            cov(i, j) = cov(i - 1, j - 1) - at(i - 1) * std::conj(at(j - 1)) + at(cols + i - 1) * std::conj(at(cols + j - 1));
-    for (Eigen::Index j = 1; j < dim; ++j)
-        for (Eigen::Index i = 0; i < j; ++i) cov(i, j) = std::conj(cov(j, i));
+    // Built on real and imaginary parts (column-major, re + i im), each entry by the products and
+    // sums of complex arithmetic: a conj b = (ar br + ai bi) + i (ai br - ar bi).
+    const auto d = static_cast<std::size_t>(dim), c = static_cast<std::size_t>(cols), size = d * d;
+    std::vector<double> re(size), im(size);
+    {
+        const std::size_t n_y = y.size();
+        std::vector<double> y_re(n_y), y_im(n_y);
+        for (std::size_t k = 0; k < n_y; ++k) y_re[k] = y[k].real(), y_im[k] = y[k].imag();
+        lag_sums(y_re.data(), y_im.data(), d, c, re.data(), im.data());  // column 0
+        for (std::size_t j = 1; j < d; ++j)
+            for (std::size_t i = j; i < d; ++i) {
+                const std::size_t at = j * d + i, before = at - d - 1;
+                const double ar = y_re[i - 1], ai = y_im[i - 1], br = y_re[j - 1], bi = y_im[j - 1];
+                const double cr = y_re[c + i - 1], ci = y_im[c + i - 1], er = y_re[c + j - 1], ei = y_im[c + j - 1];
+                re[at] = (re[before] - (ar * br + ai * bi)) + (cr * er + ci * ei);
+                im[at] = (im[before] - (ai * br - ar * bi)) + (ci * er - cr * ei);
+            }
+        for (std::size_t j = 1; j < d; ++j)
+            for (std::size_t i = 0; i < j; ++i) re[j * d + i] = re[i * d + j], im[j * d + i] = -im[i * d + j];
+    }
     // The eigen-decomposition as Eigen's SelfAdjointEigenSolver makes it (R scaled to a largest
     // entry of 1, Householder tridiagonalization R = Q T Q^H with T real, implicit QR steps on T),
     // with the QR's rotations gathered in a real matrix V (T = V D V^T) and only the wanted
     // columns of Q V formed below: the eigenvectors of R are the columns of Q V. The
     // tridiagonalization and Q are modes/hermitian_tridiagonal.hpp's; without vectors, T's
     // eigenvalues alone (Eigen's computeFromTridiagonal).
-    double scale = largest_magnitude(cov);
+    double scale = largest_magnitude(re.data(), im.data(), size);
     if (!(scale > 0.0)) scale = 1.0;
-    const auto size = static_cast<std::size_t>(dim * dim);
-    std::vector<double> re(size), im(size);
-    for (std::size_t k = 0; k < size; ++k) re[k] = cov(static_cast<Eigen::Index>(k)).real() / scale, im[k] = cov(static_cast<Eigen::Index>(k)).imag() / scale;
+    for (std::size_t k = 0; k < size; ++k) re[k] /= scale, im[k] /= scale;
     out.own = tridiagonalize(std::move(re), std::move(im), static_cast<std::size_t>(dim));
     if (vectors) {
         if (!tridiagonal_eigen(out.own.diag, out.own.sub, out.values, out.vectors)) return;

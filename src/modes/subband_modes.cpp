@@ -4,6 +4,9 @@
 #include <cassert>
 #include <cmath>
 #include <complex>
+#include <cstdint>
+#include <limits>
+#include <numeric>
 
 #include "core/units.hpp"
 #include "modes/tile_products.hpp"
@@ -30,6 +33,15 @@ std::vector<double> lowpass_taps(std::size_t taps, double cutoff_hz, double samp
     return h;
 }
 
+/// The least P > 0 with step_hz P / fs_hz a whole number, when both are whole numbers of Hz (the
+/// band heterodynes' common period in samples); the largest std::size_t otherwise.
+std::size_t repeat_period(double fs_hz, double step_hz) {
+    const auto whole = [](double v) { return v > 0.0 && v < 1e9 && v == std::round(v); };
+    if (!whole(fs_hz) || !whole(step_hz)) return std::numeric_limits<std::size_t>::max();
+    const auto fs = static_cast<std::uint64_t>(fs_hz), step = static_cast<std::uint64_t>(step_hz);
+    return static_cast<std::size_t>(fs / std::gcd(fs, step));
+}
+
 bool wanted_band(double centre_hz, double band_hz, std::span<const double> near_hz, double near_tol_hz) {
     if (near_hz.empty()) return true;
     const double lo = centre_hz - 0.25 * band_hz - near_tol_hz, hi = centre_hz + 0.25 * band_hz + near_tol_hz;
@@ -52,27 +64,33 @@ subband_signals make_subband_signals(std::span<const float> x, double sample_rat
     const double top_hz = std::min(params.max_freq_hz, 0.45 * fs);
     const double step_hz = 0.5 * params.band_hz;
     // The heterodyne of band i at sample n is w_i^n with w_i = exp(-i 2 pi c_i / fs); the windowed
-    // taps are shared by all bands, so each output is sum_j (h[j] x[mD + j]) w_i^(mD + j): for all
-    // bands at once the product Y = X P, X(m, j) = x[mD + j] (outputs x taps), P(j, i) =
-    // h[j] w_i^j (taps x bands; real parts in columns 0 .. bands - 1, imaginary parts after), by
-    // modes/tile_products.hpp (it subtracts: Y = -(0 - X P)), then w_i^(mD).
+    // taps are shared by all bands, so each output is sum_j (h[j] x[mD + j]) w_i^(mD + j). With
+    // c_i = i step_hz, w_i^j repeats every `period` taps (the least P with step_hz P / fs whole,
+    // when fs and step_hz are whole numbers of Hz; else no repeat within the taps), so the taps
+    // j = r + k P share one phase: each output is sum_{r < depth} (sum_k h[r + k P] x[mD + r + k P])
+    // w_i^r. For all bands at once the product Y = X P, X(m, r) = that folded sum (outputs x
+    // depth), P(r, i) = w_i^r (depth x bands; real parts in columns 0 .. bands - 1, imaginary
+    // parts after), by modes/tile_products.hpp (it subtracts: Y = -(0 - X P)), then w_i^(mD).
     std::vector<double> centres;
     for (int i = 0; static_cast<double>(i) * step_hz - 0.25 * params.band_hz < top_hz; ++i) centres.push_back(static_cast<double>(i) * step_hz);
     const std::size_t bands = centres.size();
+    const std::size_t depth = std::min(taps, repeat_period(fs, step_hz));
     const std::size_t rows_pad = (outputs + product_tile_rows - 1) / product_tile_rows * product_tile_rows;
     const std::size_t cols_pad = (2 * bands + product_tile_cols - 1) / product_tile_cols * product_tile_cols;
-    std::vector<double> segment(rows_pad * taps, 0.0), phased(cols_pad * taps, 0.0), minus_y(outputs * 2 * bands, 0.0);
-    for (std::size_t j = 0; j < taps; ++j)
-        for (std::size_t m = 0; m < outputs; ++m) segment[j * rows_pad + m] = double(x[m * decim + j]);
+    std::vector<double> segment(rows_pad * depth, 0.0), phased(cols_pad * depth, 0.0), minus_y(outputs * 2 * bands, 0.0);
+    for (std::size_t j = 0; j < taps; ++j) {
+        double* column = segment.data() + (j % depth) * rows_pad;
+        for (std::size_t m = 0; m < outputs; ++m) column[m] += h[j] * double(x[m * decim + j]);
+    }
     for (std::size_t i = 0; i < bands; ++i) {
         const double w = -two_pi * centres[i] / fs;
-        for (std::size_t j = 0; j < taps; ++j) {
-            const std::complex<double> ph = h[j] * std::polar(1.0, w * static_cast<double>(j));
-            phased[j * cols_pad + i] = ph.real(), phased[j * cols_pad + bands + i] = ph.imag();
+        for (std::size_t r = 0; r < depth; ++r) {
+            const std::complex<double> ph = std::polar(1.0, w * static_cast<double>(r));
+            phased[r * cols_pad + i] = ph.real(), phased[r * cols_pad + bands + i] = ph.imag();
         }
     }
     subtract_products(minus_y.data(), outputs,
-                      {.a = segment.data(), .a_rows = rows_pad, .b = phased.data(), .b_rows = cols_pad, .depth = taps},
+                      {.a = segment.data(), .a_rows = rows_pad, .b = phased.data(), .b_rows = cols_pad, .depth = depth},
                       outputs, 2 * bands, false);
     const auto y = [&](std::size_t m, std::size_t column) { return -minus_y[column * outputs + m]; };
     for (std::size_t i = 0; i < bands; ++i) {

@@ -3,11 +3,14 @@
 // few hundred samples, and ESPRIT (modes/esprit.hpp) finds their poles there. What the STFT
 // tracker cannot see: modes that live 10-100 ms.
 //
-// Computed in the time domain, by the sum below itself: per band, the taps times the band's
-// heterodyne (h[j] w^j) are formed once and every output is their dot product with T samples of
-// the segment, times w^(mD) (a rotation per output, re-anchored every 64): O(T) per output, T
-// samples of the segment only; all bands' dot products as one matrix product (segment rows times
-// the bands' tap columns). The segment is filtered once for the longest span asked; a shorter
+// Computed in the time domain, by the sum below itself: the heterodynes w_i^j of all bands repeat
+// every P samples (P the least with P band_hz / (2 fs) whole: 96 at 48 kHz, 64 at 32 kHz; none
+// within the taps at 44.1 kHz), so the windowed segment h[j] x[mD + j] is first folded onto
+// P taps (the terms sharing a phase summed) and every output is the dot product of that with
+// the band's w_i^r (r < P), times w^(mD) (a rotation per output, re-anchored every 64): O(T) per
+// output for the fold, O(min(T, P)) per band, T samples of the segment only; all bands' dot
+// products as one matrix product (folded segment rows times the bands' phase columns; at 48 kHz
+// a quarter of the multiply-adds of the unfolded sum). The segment is filtered once for the longest span asked; a shorter
 // span's band signals are the first outputs (subband_modes).
 //
 // Bands: centres c_i = i * band_hz / 2 (i = 0, 1, ...), so neighbours overlap by half; a band keeps
