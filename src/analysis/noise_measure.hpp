@@ -52,15 +52,16 @@ band_plan attack_plan(double sample_rate_hz, const noise_model_params& params);
 /// The STFT a band plan measures with (its window and FFT size).
 stft_config plan_config(const band_plan& plan, double sample_rate_hz);
 
+/// How many of the residual's first samples measure_bands reads (frames centred before until_s;
+/// half_length: half the plan's window, in samples).
+std::size_t measure_read_end(std::size_t total, double sample_rate_hz, const band_plan& bp, int half_length,
+                             double until_s = infinity);
+
 /// The band measurement over a residual of `total` samples read through `source` (frames centred
 /// before until_s seconds only), with plan made from plan_config(bp) (one per band plan, shared by
 /// its sources). Frames are analysed in order; the samples each needs are fetched
 /// into a buffer that slides forward, so only one buffer of residual is held. Frames near the ends
 /// read zeros outside the residual, exactly as stft_plan does on the whole residual.
-/// How many of the residual's first samples measure_bands reads (frames centred before until_s).
-std::size_t measure_read_end(std::size_t total, double sample_rate_hz, const band_plan& bp, int half_length,
-                             double until_s = infinity);
-
 std::vector<noise_band_track> measure_bands(std::size_t total, const residual_source& source, double sample_rate_hz,
                                             const band_plan& bp, stft_plan& plan, double until_s = infinity);
 
