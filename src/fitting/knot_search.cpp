@@ -318,7 +318,11 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
                 scan_hi = std::min(n - 1, at + knot_scan_halfwidth);
             }
             for (std::size_t i = scan_lo; i < scan_hi; ++i) {
-                move_to(ps.x[i]);
+                // The first point after x[i] by a step from i (the times ascend): first_after's index.
+                std::size_t after = i + 1;
+                while (after < n && ps.x[after] <= ps.x[i]) ++after;
+                trial[j] = ps.x[i];
+                trial_idx[j] = after;
                 if (!knots_feasible(ps, trial, trial_idx, min_segment_s)) continue;
                 const double rss = trial_rss(ps.x[i]);
                 if (rss < best_rss) {
