@@ -3,6 +3,7 @@
 
 #include <cassert>
 #include <cmath>
+#include <utility>
 
 namespace wane::knot_search {
 
@@ -223,7 +224,7 @@ moving_knot::moving_knot(const point_sums& ps, std::span<const double> knots, st
     normal_matrix g;
     normal_vector b;
     build_normal(ps, fixed_knots, idx, g, b);
-    auto lower = [&](int r, int c) -> double& { return chol_[static_cast<std::size_t>(r * max_unknowns + c)]; };
+    auto lower = [&](int r, int c) -> double& { return chol_[r * max_unknowns + c]; };
     for (int r = 0; r < fixed_; ++r) {
         for (int c = 0; c <= r; ++c) {
             double sum = g[r * max_unknowns + c];
@@ -274,8 +275,8 @@ std::optional<double> moving_knot::rss_at(double k, std::size_t i) const {
     double yy = 0.0, yv = 0.0;
     for (int r = 0; r < fixed_; ++r) {
         double sum = c[r];
-        for (int q = 0; q < r; ++q) sum -= chol_[static_cast<std::size_t>(r * max_unknowns + q)] * y[q];
-        y[r] = sum / chol_[static_cast<std::size_t>(r * max_unknowns + r)];
+        for (int q = 0; q < r; ++q) sum -= chol_[r * max_unknowns + q] * y[q];
+        y[r] = sum / chol_[r * max_unknowns + r];
         yy += y[r] * y[r];
         yv += y[r] * v_[r];
     }
@@ -284,6 +285,34 @@ std::optional<double> moving_knot::rss_at(double k, std::size_t i) const {
     const double r = beta - yv;
     return std::max(fixed_rss_ - r * r / schur, 0.0);
 }
+
+namespace {
+
+/// Golden-section search for the least of f over [lo, hi] in knot_refine_steps steps: the better
+/// of its last two points, and f there.
+template <class F>
+std::pair<double, double> golden_least(double lo, double hi, F&& f) {
+    double a = hi - golden * (hi - lo), c = lo + golden * (hi - lo);
+    double fa = f(a), fc = f(c);
+    for (int step = 0; step < knot_refine_steps; ++step) {
+        if (fa < fc) {
+            hi = c;
+            c = a;
+            fc = fa;
+            a = hi - golden * (hi - lo);
+            fa = f(a);
+        } else {
+            lo = a;
+            a = c;
+            fa = fc;
+            c = lo + golden * (hi - lo);
+            fc = f(c);
+        }
+    }
+    return {fa < fc ? a : c, std::min(fa, fc)};
+}
+
+}  // namespace
 
 knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double min_segment_s) {
     // Each knot's first point after it is looked up once per knot position (a trial moves one).
@@ -342,25 +371,7 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
                 if (!knots_feasible(ps, trial, trial_idx, min_segment_s)) return infinity;
                 return trial_rss(t);
             };
-            double a = hi - golden * (hi - lo), c = lo + golden * (hi - lo);
-            double fa = eval(a), fc = eval(c);
-            for (int step = 0; step < knot_refine_steps; ++step) {
-                if (fa < fc) {
-                    hi = c;
-                    c = a;
-                    fc = fa;
-                    a = hi - golden * (hi - lo);
-                    fa = eval(a);
-                } else {
-                    lo = a;
-                    a = c;
-                    fa = fc;
-                    c = lo + golden * (hi - lo);
-                    fc = eval(c);
-                }
-            }
-            double cand = fa < fc ? a : c;
-            double cand_rss = std::min(fa, fc);
+            auto [cand, cand_rss] = golden_least(lo, hi, eval);
             if (best_i < n && best_rss <= cand_rss) {
                 cand = ps.x[best_i];
                 cand_rss = best_rss;

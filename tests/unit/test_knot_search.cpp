@@ -67,6 +67,7 @@ TEST_CASE("moving_knot's RSS as one knot moves equals a QR least-squares fit of 
     const point_sums ps(t.times_s, t.levels_db, t.weights);
     const double span_s = ps.x.back();
     std::vector<double> knots;
+    knots.reserve(static_cast<std::size_t>(knot_count));
     for (int j = 0; j < knot_count; ++j) knots.push_back(span_s * (j + 1) / (knot_count + 1) + 0.0031);
     for (std::size_t j = 0; j < knots.size(); ++j) {
         const moving_knot moving(ps, knots, j);
