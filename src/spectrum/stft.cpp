@@ -152,7 +152,8 @@ stft_plan::stft_plan(const stft_config& config)
         plan_ = shared_forward_plan(config.fft_size, frame_.get(), reinterpret_cast<fftwf_complex*>(spectrum_.get()));  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
         if (plan_ == nullptr) throw std::bad_alloc();
     }
-    power_.resize(n / 2 + 1);
+    bins_.resize(n / 2 + 1);
+    power_.resize(bins_.size());
 }
 
 stft_plan::~stft_plan() = default;  // plan_ is the process's (shared_forward_plan)
@@ -189,7 +190,10 @@ void stft_plan::analyze(std::span<const float> samples, std::int64_t centre, flo
     transform(samples, centre, dc_offset);
     const float scale2 = static_cast<float>(amp_scale_ * amp_scale_);
     const float* out = spectrum_.get();  // re, im interleaved
-    for (std::size_t k = 0; k < power_.size(); ++k) power_[k] = (out[2 * k] * out[2 * k] + out[2 * k + 1] * out[2 * k + 1]) * scale2;
+    for (std::size_t k = 0; k < bins_.size(); ++k) {
+        bins_[k] = {.r = out[2 * k], .i = out[2 * k + 1]};
+        power_[k] = (bins_[k].r * bins_[k].r + bins_[k].i * bins_[k].i) * scale2;
+    }
 }
 
 void stft_plan::analyze_power(std::span<const float> samples, std::int64_t centre) {

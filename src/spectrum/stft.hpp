@@ -80,15 +80,11 @@ public:
     /// Transforms the frame centred at sample `centre` (dc_offset subtracted from every sample);
     /// then bins() and power() describe it.
     void analyze(std::span<const float> samples, std::int64_t centre, float dc_offset = 0.0f);
-    /// The same frame for power(); bins() then hold its transform too.
+    /// The same frame for power() only: bins() are left as they were.
     void analyze_power(std::span<const float> samples, std::int64_t centre);
 
-    /// Raw FFT bins (fft_size / 2 + 1), unscaled: the transform's output itself (FFTW's and
-    /// KissFFT's complex are two floats, re and im), not a copy.
-    std::span<const kiss_fft_cpx> bins() const {
-        static_assert(sizeof(kiss_fft_cpx) == 2 * sizeof(float));
-        return {reinterpret_cast<const kiss_fft_cpx*>(spectrum_.get()), power_.size()};  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
-    }
+    /// Raw FFT bins (fft_size / 2 + 1), unscaled.
+    std::span<const kiss_fft_cpx> bins() const { return bins_; }
     /// |X[k]|^2 * amp_scale()^2: squared amplitude of a sinusoid centred on bin k (fft_size/2 + 1).
     std::span<const float> power() const { return power_; }
 
@@ -123,6 +119,7 @@ private:
     std::unique_ptr<kiss_fftr_state, kiss_free> kiss_;  ///< with few_frames
     std::unique_ptr<float, fftw_buffer_free> frame_;      ///< fft_size real inputs (FFTW-aligned)
     std::unique_ptr<float, fftw_buffer_free> spectrum_;   ///< fft_size / 2 + 1 complex outputs
+    std::vector<kiss_fft_cpx> bins_;
     std::vector<float> power_;
 };
 
