@@ -8,6 +8,8 @@
 #include <cstring>
 #include <limits>
 
+#include "synthesis/kernel_clones.hpp"
+
 namespace wane {
 
 order_bracket bracket_around(float guess, double spread) {
@@ -70,19 +72,20 @@ order_values select_small_rank(std::span<const float> values, std::size_t k, boo
     }
 }
 
-/// Four floats side by side (GCC's vector extension: one SSE register on the baseline) and their
-/// compare's mask; rank_lanes of them in `halves` such vectors.
-using float4 = float __attribute__((vector_size(16)));
-using mask4 = std::int32_t __attribute__((vector_size(16)));
-constexpr std::size_t halves = rank_lanes / 4;
-static_assert(rank_lanes % 4 == 0);
+/// Eight floats side by side, a set's value in each lane (GCC's vector extension: one AVX
+/// register in select_small_ranks' AVX2 clone, two SSE registers on the baseline), and their
+/// compare's mask.
+using float8 = float __attribute__((vector_size(32)));
+using mask8 = std::int32_t __attribute__((vector_size(32)));
+static_assert(rank_lanes == 8);
 
 /// select_small_ranks for k = K: per set the first K + 1 values sorted (as select_small_rank
 /// does), then each further value passed down the kept ones with select_small_rank's compare and
 /// swap, a lane per set (v < kept: v the new kept there and the old kept passed on; else v passed
 /// on), as min and max (x < y ? x : y and y < x ? x : y pick as that compare does, NaN included).
 template <std::size_t K>
-void select_small_ranks(std::span<const float> values, std::size_t count, std::span<float, rank_lanes> out) {
+[[gnu::always_inline]] inline void select_small_ranks(std::span<const float> values, std::size_t count,
+                                                      std::span<float, rank_lanes> out) {
     static_assert(K <= max_small_rank);
     assert(K < count && values.size() >= count * rank_lanes);
     std::array<std::array<float, rank_lanes>, K + 1> first_sorted{};
@@ -92,25 +95,26 @@ void select_small_ranks(std::span<const float> values, std::size_t count, std::s
         std::sort(first.begin(), first.end());
         for (std::size_t j = 0; j <= K; ++j) first_sorted[j][l] = first[j];
     }
-    std::array<std::array<float4, halves>, K + 1> kept{};
+    std::array<float8, K + 1> kept{};
     std::memcpy(kept.data(), first_sorted.data(), sizeof kept);
     for (std::size_t i = K + 1; i < count; ++i) {
-        std::array<float4, halves> v{};
-        std::memcpy(v.data(), values.data() + i * rank_lanes, sizeof v);
+        float8 v;
+        std::memcpy(&v, values.data() + i * rank_lanes, sizeof v);
         for (std::size_t j = 0; j <= K; ++j) {
-            for (std::size_t h = 0; h < halves; ++h) {
-                const mask4 under = v[h] < kept[j][h];
-                const float4 low = under ? v[h] : kept[j][h];
-                v[h] = under ? kept[j][h] : v[h];
-                kept[j][h] = low;
-            }
+            const mask8 under = v < kept[j];
+            const float8 low = under ? v : kept[j];
+            v = under ? kept[j] : v;
+            kept[j] = low;
         }
     }
-    std::memcpy(out.data(), kept[K].data(), sizeof kept[K]);
+    std::memcpy(out.data(), &kept[K], sizeof kept[K]);
 }
 
 }  // namespace
 
+// Compiled for AVX2 and the baseline (WANE_KERNEL_CLONES), each clone with the eight ranks' loops
+// inlined: the same compares and picks, bit for bit.
+WANE_KERNEL_CLONES
 void select_small_ranks(std::span<const float> values, std::size_t count, std::size_t k, std::span<float, rank_lanes> out) {
     switch (k) {
     case 0: return select_small_ranks<0>(values, count, out);

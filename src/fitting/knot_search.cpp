@@ -3,6 +3,7 @@
 
 #include <cassert>
 #include <cmath>
+#include <utility>
 
 namespace wane::knot_search {
 
@@ -19,6 +20,9 @@ constexpr int knot_sweeps = 2;
 /// where it is (the dynamic program already placed it near its optimum); a lone knot is
 /// scanned over the whole grid.
 constexpr std::size_t knot_scan_halfwidth = 6;
+/// moving_knot gives no value where a pivot of its Cholesky factor, or its Schur complement,
+/// falls under this fraction of the diagonal entry it comes from (the whole system is solved there).
+constexpr double cholesky_min_pivot_rel = 1e-9;
 
 /// Solves the small symmetric system g theta = b (Gaussian elimination with partial pivoting).
 /// Returns false when singular. M unknowns known at compile time (solve_small picks it): the
@@ -204,6 +208,112 @@ std::vector<std::vector<std::size_t>> segmented_least_squares(const point_sums& 
     return starts;
 }
 
+moving_knot::moving_knot(const point_sums& ps, std::span<const double> knots, std::size_t j) : ps_(&ps) {
+    // The fixed columns are the normal equations of the fit without knot j.
+    std::array<double, max_supported_segments> others{};
+    std::size_t count = 0;
+    for (std::size_t l = 0; l < knots.size(); ++l)
+        if (l != j) others[count++] = knots[l];
+    const std::span<const double> fixed_knots(others.data(), count);
+    const knot_indices idx = indices_of(ps, fixed_knots);
+    for (std::size_t q = 0; q < count; ++q) {
+        other_knot_[q] = others[q];
+        other_idx_[q] = idx[q];
+    }
+    fixed_ = static_cast<int>(count) + 2;
+    normal_matrix g;
+    normal_vector b;
+    build_normal(ps, fixed_knots, idx, g, b);
+    auto lower = [&](int r, int c) -> double& { return chol_[r * max_unknowns + c]; };
+    for (int r = 0; r < fixed_; ++r) {
+        for (int c = 0; c <= r; ++c) {
+            double sum = g[r * max_unknowns + c];
+            for (int k = 0; k < c; ++k) sum -= lower(r, k) * lower(c, k);
+            if (c < r) {
+                lower(r, c) = sum / lower(c, c);
+            } else {
+                if (!(sum > cholesky_min_pivot_rel * g[r * max_unknowns + r])) return;  // near singular
+                lower(r, r) = std::sqrt(sum);
+            }
+        }
+    }
+    double vv = 0.0;
+    for (int r = 0; r < fixed_; ++r) {
+        double sum = b[r];
+        for (int k = 0; k < r; ++k) sum -= lower(r, k) * v_[k];
+        v_[r] = sum / lower(r, r);
+        vv += v_[r] * v_[r];
+    }
+    fixed_rss_ = ps.wyy[ps.size()] - vv;
+    factored_ = true;
+}
+
+std::optional<double> moving_knot::rss_at(double k, std::size_t i) const {
+    if (!factored_) return std::nullopt;
+    const point_sums& ps = *ps_;
+    const std::size_t n = ps.size();
+    // The moving hinge's column against the fixed ones (build_normal's entries, the suffix sums
+    // from the later of the two knots).
+    std::array<double, max_unknowns> c{};
+    {
+        const double sw = ps.w[n] - ps.w[i], sx = ps.wx[n] - ps.wx[i], sxx = ps.wxx[n] - ps.wxx[i];
+        c[0] = sx - k * sw;
+        c[1] = sxx - k * sx;
+    }
+    for (int q = 0; q + 2 < fixed_; ++q) {
+        const std::size_t from = std::max(i, other_idx_[q]);
+        const double sw = ps.w[n] - ps.w[from], sx = ps.wx[n] - ps.wx[from], sxx = ps.wxx[n] - ps.wxx[from];
+        const double a = other_knot_[q];
+        c[2 + q] = sxx - (a + k) * sx + a * k * sw;
+    }
+    const double sw = ps.w[n] - ps.w[i], sx = ps.wx[n] - ps.wx[i], sxx = ps.wxx[n] - ps.wxx[i];
+    const double sy = ps.wy[n] - ps.wy[i], sxy = ps.wxy[n] - ps.wxy[i];
+    const double d = sxx - (k + k) * sx + k * k * sw;
+    const double beta = sxy - k * sy;
+    // y = L^-1 c by forward substitution; the Schur complement d - y.y and the residual beta - y.v.
+    std::array<double, max_unknowns> y{};
+    double yy = 0.0, yv = 0.0;
+    for (int r = 0; r < fixed_; ++r) {
+        double sum = c[r];
+        for (int q = 0; q < r; ++q) sum -= chol_[r * max_unknowns + q] * y[q];
+        y[r] = sum / chol_[r * max_unknowns + r];
+        yy += y[r] * y[r];
+        yv += y[r] * v_[r];
+    }
+    const double schur = d - yy;
+    if (!(schur > cholesky_min_pivot_rel * d)) return std::nullopt;
+    const double r = beta - yv;
+    return std::max(fixed_rss_ - r * r / schur, 0.0);
+}
+
+namespace {
+
+/// Golden-section search for the least of f over [lo, hi] in knot_refine_steps steps: the better
+/// of its last two points, and f there.
+template <class F>
+std::pair<double, double> golden_least(double lo, double hi, F&& f) {
+    double a = hi - golden * (hi - lo), c = lo + golden * (hi - lo);
+    double fa = f(a), fc = f(c);
+    for (int step = 0; step < knot_refine_steps; ++step) {
+        if (fa < fc) {
+            hi = c;
+            c = a;
+            fc = fa;
+            a = hi - golden * (hi - lo);
+            fa = f(a);
+        } else {
+            lo = a;
+            a = c;
+            fa = fc;
+            c = lo + golden * (hi - lo);
+            fc = f(c);
+        }
+    }
+    return {fa < fc ? a : c, std::min(fa, fc)};
+}
+
+}  // namespace
+
 knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double min_segment_s) {
     // Each knot's first point after it is looked up once per knot position (a trial moves one).
     knot_indices best_idx = indices_of(ps, knots);
@@ -220,7 +330,15 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
                 trial[j] = t;
                 trial_idx[j] = ps.first_after(t);
             };
-            double best_rss = best.sol.rss;
+            // The trials' RSS with the other knots fixed (the whole system where that is near singular).
+            const moving_knot moving(ps, best.knots, j);
+            auto trial_rss = [&](double t) {  // t where move_to put knot j
+                const std::optional<double> rss = moving.rss_at(t, trial_idx[j]);
+                return rss ? *rss : solve_at(ps, trial, trial_idx).rss;
+            };
+            // The knot where it is, by the same arithmetic as its trials.
+            const double current_rss = std::isfinite(best.sol.rss) ? trial_rss(best.knots[j]) : infinity;
+            double best_rss = current_rss;
             std::size_t best_i = n;
             std::size_t scan_lo = 1, scan_hi = n - 1;
             if (knots.size() > 1) {
@@ -229,11 +347,15 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
                 scan_hi = std::min(n - 1, at + knot_scan_halfwidth);
             }
             for (std::size_t i = scan_lo; i < scan_hi; ++i) {
-                move_to(ps.x[i]);
+                // The first point after x[i] by a step from i (the times ascend): first_after's index.
+                std::size_t after = i + 1;
+                while (after < n && ps.x[after] <= ps.x[i]) ++after;
+                trial[j] = ps.x[i];
+                trial_idx[j] = after;
                 if (!knots_feasible(ps, trial, trial_idx, min_segment_s)) continue;
-                const continuous_solution s = solve_at(ps, trial, trial_idx);
-                if (s.rss < best_rss) {
-                    best_rss = s.rss;
+                const double rss = trial_rss(ps.x[i]);
+                if (rss < best_rss) {
+                    best_rss = rss;
                     best_i = i;
                 }
             }
@@ -247,32 +369,14 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
             auto eval = [&](double t) {
                 move_to(t);
                 if (!knots_feasible(ps, trial, trial_idx, min_segment_s)) return infinity;
-                return solve_at(ps, trial, trial_idx).rss;
+                return trial_rss(t);
             };
-            double a = hi - golden * (hi - lo), c = lo + golden * (hi - lo);
-            double fa = eval(a), fc = eval(c);
-            for (int step = 0; step < knot_refine_steps; ++step) {
-                if (fa < fc) {
-                    hi = c;
-                    c = a;
-                    fc = fa;
-                    a = hi - golden * (hi - lo);
-                    fa = eval(a);
-                } else {
-                    lo = a;
-                    a = c;
-                    fa = fc;
-                    c = lo + golden * (hi - lo);
-                    fc = eval(c);
-                }
-            }
-            double cand = fa < fc ? a : c;
-            double cand_rss = std::min(fa, fc);
+            auto [cand, cand_rss] = golden_least(lo, hi, eval);
             if (best_i < n && best_rss <= cand_rss) {
                 cand = ps.x[best_i];
                 cand_rss = best_rss;
             }
-            if (cand_rss < best.sol.rss) {
+            if (cand_rss < current_rss) {
                 move_to(cand);
                 best.knots = trial;
                 best_idx = trial_idx;

@@ -6,6 +6,7 @@
 #include <algorithm>
 #include <array>
 #include <cstddef>
+#include <optional>
 #include <span>
 #include <vector>
 
@@ -99,6 +100,32 @@ struct knot_fit {
 };
 
 knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double min_segment_s);
+
+/// The continuous fit's RSS as one knot (j) moves while the others stay, by the Schur complement
+/// of the moving hinge column: the fixed columns' normal matrix G (intercept, slope, the other
+/// hinges) is factored once, G = L L^T (Cholesky), with v = L^-1 b; for a knot at k with column
+/// c(k), diagonal d(k) and right-hand side beta(k) (the suffix sums of build_normal), y = L^-1 c:
+///   RSS(k) = (wyy - v.v) - (beta - y.v)^2 / (d - y.y)   [dB^2 x weight],
+/// the same least squares as solve_continuous (O(m^2) a position, not O(m^3)); equal to it to
+/// rounding (test_knot_search). No value (nullopt) where the fixed columns or the Schur
+/// complement are near singular: the caller solves the whole system there.
+class moving_knot {
+public:
+    moving_knot(const point_sums& ps, std::span<const double> knots, std::size_t j);
+    /// RSS with knot j at relative time k (between its neighbours, ascending), whose first point
+    /// after it is i (point_sums::first_after(k)).
+    std::optional<double> rss_at(double k, std::size_t i) const;
+
+private:
+    const point_sums* ps_;
+    int fixed_ = 0;  ///< fixed unknowns: 2 + the other knots
+    std::array<double, max_unknowns> other_knot_{};
+    std::array<std::size_t, max_unknowns> other_idx_{};
+    std::array<double, max_unknowns_sq> chol_{};  ///< L, row-major, max_unknowns wide
+    std::array<double, max_unknowns> v_{};         ///< L^-1 b
+    double fixed_rss_ = 0.0;                        ///< wyy - v.v: the RSS without knot j
+    bool factored_ = false;
+};
 
 /// The K slopes of a continuous solution.
 std::vector<double> slopes_of(const continuous_solution& s, int k);

@@ -17,29 +17,52 @@ constexpr int variance_bisection_steps = 40;
 /// Residual lag-1 correlation is clamped to this before the effective sample count is formed.
 constexpr double max_residual_correlation = 0.9;
 
-/// Every K from 1 to kmax fitted to the points with the given weights (index = K; infinite RSS
-/// where K is infeasible).
-std::vector<knot_fit> fit_all_k(const point_sums& ps, int kmax, const envelope_fit_params& params) {
-    const auto splits = segmented_least_squares(ps, kmax, 0.5 * params.min_segment_s);
-    std::vector<knot_fit> fits(kmax + 1);
-    fits[1] = {{}, solve_continuous(ps, {})};
-    for (int k = 2; k <= kmax; ++k) {
-        if (splits[k].empty()) continue;
+/// The fits of K = 1..kmax segments (index = K; infinite RSS where K is infeasible or not yet
+/// fitted), each K fitted when asked for from the dynamic program's starting knots (made once for
+/// every K): a pass whose fits are replaced by a second pass fits only the largest feasible K.
+class k_fits {
+public:
+    k_fits(const point_sums& ps, int kmax, const envelope_fit_params& params)
+        : fits(kmax + 1), ps_(&ps), params_(&params),
+          splits_(segmented_least_squares(ps, kmax, 0.5 * params.min_segment_s)) {}
+
+    std::vector<knot_fit> fits;
+
+    /// Fits K from kmax down to the first feasible one and returns that K (1 when none is): the
+    /// largest K with a finite RSS, as if every K were fitted.
+    int fit_largest_feasible() {
+        for (int k = static_cast<int>(fits.size()) - 1; k > 1; --k) {
+            fit(k);
+            if (std::isfinite(fits[k].sol.rss)) return k;
+        }
+        fit(1);
+        return 1;
+    }
+    /// Fits every K under k.
+    void fit_below(int k) {
+        for (int j = 1; j < k; ++j) fit(j);
+    }
+
+private:
+    const point_sums* ps_;
+    const envelope_fit_params* params_;
+    std::vector<std::vector<std::size_t>> splits_;
+
+    void fit(int k) {
+        const point_sums& ps = *ps_;
+        if (k == 1) {
+            fits[1] = {{}, solve_continuous(ps, {})};
+            return;
+        }
+        if (splits_[k].empty()) return;
         std::vector<double> knots(k - 1);
         for (int j = 0; j < k - 1; ++j) {
-            const std::size_t s = splits[k][j];
+            const std::size_t s = splits_[k][j];
             knots[j] = 0.5 * (ps.x[s - 1] + ps.x[s]);
         }
-        fits[k] = refine_knots(ps, std::move(knots), params.min_segment_s);
+        fits[k] = refine_knots(ps, std::move(knots), params_->min_segment_s);
     }
-    return fits;
-}
-
-int largest_feasible(const std::vector<knot_fit>& fits) {
-    for (int k = static_cast<int>(fits.size()) - 1; k >= 1; --k)
-        if (std::isfinite(fits[k].sol.rss)) return k;
-    return 1;
-}
+};
 
 /// s2 solving sum r_i^2 / (1 / w_i + s2) = dof, by bisection on [0, max r_i^2] (the left side
 /// falls with s2).
@@ -92,9 +115,11 @@ level_line_fit fit_level_lines(std::span<const double> times_s, std::span<const 
     const int kmax = std::max(1, std::min(params.max_segments, kmax_pts));
 
     // Pass 1 with the given weights (inverse noise variances of the points).
+    // Its fits under the largest feasible K are made only if no second pass replaces them.
     point_sums ps(times_s, levels_db, weights);
-    std::vector<knot_fit> fits = fit_all_k(ps, kmax, params);
-    int kbig = largest_feasible(fits);
+    k_fits fitted(ps, kmax, params);
+    int kbig = fitted.fit_largest_feasible();
+    std::vector<knot_fit>& fits = fitted.fits;
 
     // Variance model var_i = 1 / w_i + s2: the noise term is trusted (it follows from the level
     // above the floor); when the richest model's residuals exceed it, s2 (model error: beating,
@@ -112,8 +137,12 @@ level_line_fit fit_level_lines(std::span<const double> times_s, std::span<const 
         for (std::size_t i = 0; i < n; ++i) w2[i] = 1.0 / (1.0 / weights[i] + s2);
         // Pass 2 with the calibrated weights.
         ps = point_sums(times_s, levels_db, w2);
-        fits = fit_all_k(ps, kmax, params);
-        kbig = largest_feasible(fits);
+        k_fits second(ps, kmax, params);
+        kbig = second.fit_largest_feasible();
+        second.fit_below(kbig);
+        fits = std::move(second.fits);
+    } else {
+        fitted.fit_below(kbig);
     }
 
     // Effective number of independent points from the residual lag-1 correlation of the largest

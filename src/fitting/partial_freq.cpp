@@ -5,8 +5,25 @@
 #include <vector>
 
 #include "core/units.hpp"
+#include "synthesis/kernel_clones.hpp"
 
 namespace wane {
+
+namespace {
+
+/// Each phasor (re[k], im[k]) times its turn (turn_re[k], turn_im[k]), a complex product written
+/// out (the numbers of std::complex's for finite values); compiled for AVX2 and the baseline
+/// (WANE_KERNEL_CLONES: no FMA, the same products and sums bit for bit).
+WANE_KERNEL_CLONES
+void turn_phasors(double* re, double* im, const double* turn_re, const double* turn_im, std::size_t count) {
+    for (std::size_t k = 0; k < count; ++k) {
+        const double r = re[k] * turn_re[k] - im[k] * turn_im[k];
+        im[k] = re[k] * turn_im[k] + im[k] * turn_re[k];
+        re[k] = r;
+    }
+}
+
+}  // namespace
 
 double heard_freq_hz(std::span<const track_point> pts, std::size_t peak, std::size_t end) {
     constexpr double span_start_s = 0.1;
@@ -60,11 +77,7 @@ double heard_freq_hz(std::span<const track_point> pts, std::size_t peak, std::si
         for (int j = -steps; j <= steps; ++j) {
             double sum_re = 0.0, sum_im = 0.0;
             for (std::size_t k = 0; k < frames; ++k) sum_re += ph_re[k], sum_im += ph_im[k];
-            for (std::size_t k = 0; k < frames; ++k) {
-                const double re = ph_re[k] * turn_re[k] - ph_im[k] * turn_im[k];
-                ph_im[k] = ph_re[k] * turn_im[k] + ph_im[k] * turn_re[k];
-                ph_re[k] = re;
-            }
+            turn_phasors(ph_re.data(), ph_im.data(), turn_re.data(), turn_im.data(), frames);
             if (const double pw = std::norm(std::complex<double>{sum_re, sum_im}); pw > best_p) best_p = pw, best = j;
         }
         if (best > -steps && best < steps) {

@@ -22,20 +22,29 @@ constexpr std::size_t bin_stride = 2;  ///< the floor looks at every 2nd bin (ze
 constexpr std::size_t scan_lanes = 16;
 static_assert(scan_lanes % 4 == 0);
 
-/// max x[n] over a non-empty x of non-negative powers, in scan_lanes lanes (a vector loop; the
-/// maximum is the same in any order: the same value as std::max_element's).
-float largest_power(std::span<const float> x) {
-    std::array<float, scan_lanes> top{};
-    std::size_t n = 0;
-    for (; n + scan_lanes <= x.size(); n += scan_lanes)
-        for (std::size_t k = 0; k < scan_lanes; ++k) top[k] = std::max(top[k], x[n + k]);
-    for (; n < x.size(); ++n) top[0] = std::max(top[0], x[n]);
-    return *std::max_element(top.begin(), top.end());
-}
-
 /// Four floats side by side (GCC's vector extension: SSE on the baseline), and their compare.
 using float4 = float __attribute__((vector_size(16)));
 using int4 = std::int32_t __attribute__((vector_size(16)));
+
+/// max x[n] over a non-empty x of non-negative powers, in scan_lanes lanes of float4 vectors (the
+/// maximum is the same in any order: the same value as std::max_element's).
+float largest_power(std::span<const float> x) {
+    constexpr std::size_t vectors = scan_lanes / 4;
+    std::array<float4, vectors> top{};
+    std::size_t n = 0;
+    for (; n + scan_lanes <= x.size(); n += scan_lanes) {
+        for (std::size_t k = 0; k < vectors; ++k) {
+            float4 v;
+            std::memcpy(&v, x.data() + n + 4 * k, sizeof v);
+            top[k] = v > top[k] ? v : top[k];
+        }
+    }
+    float best = 0.0f;
+    for (const float4& t : top)
+        for (int l = 0; l < 4; ++l) best = std::max(best, t[l]);
+    for (; n < x.size(); ++n) best = std::max(best, x[n]);
+    return best;
+}
 
 /// Whether any of the scan_lanes values from x is over thr (branch-free: vector compares, one
 /// test of their union).

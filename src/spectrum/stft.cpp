@@ -51,6 +51,24 @@ struct fftw_free_buffer {
     void operator()(float* p) const { fftwf_free(p); }
 };
 
+/// One forward (real to complex, out of place) plan per size for the process, made under the
+/// planner lock on first use (after its stored wisdom) with in and out (FFTW-aligned, their
+/// contents kept: FFTW_ESTIMATE's planner does not write them), and executed on any
+/// FFTW-aligned buffers by FFTW's new-array execute (thread-safe): real_fft's and every
+/// stft_plan's on FFTW share it, so a size is planned once per process (an analysis's tracker
+/// frames and its heard peaks' spectrum at the same size, each later note of a batch). Never
+/// destroyed, as inverse_real_fft's plans.
+fftwf_plan shared_forward_plan(int size, float* in, fftwf_complex* out) {
+    static auto* const plans = new std::map<int, fftwf_plan>();  // guarded by planner_lock()
+    const std::lock_guard<std::mutex> hold(planner_lock());
+    fftwf_plan& made = (*plans)[size];
+    if (made == nullptr) {
+        import_stored_wisdom(size, false);
+        made = fftwf_plan_dft_r2c_1d(size, in, out, fft_planner_flags);
+    }
+    return made;
+}
+
 }  // namespace
 
 void stft_plan::fftw_buffer_free::operator()(void* p) const { fftwf_free(p); }
@@ -73,22 +91,10 @@ void real_fft(std::span<const float> input, int fft_size, std::span<std::complex
     const std::unique_ptr<float, fftw_free_buffer> spectrum(fftwf_alloc_real(n + 2));  // n / 2 + 1 complex
     if (!in || !spectrum) throw std::bad_alloc();
     auto* const bins_out = reinterpret_cast<fftwf_complex*>(spectrum.get());  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): FFTW's complex is float[2]
-    // One plan per size for the process (as inverse_real_fft's), made under the planner lock on
-    // first use and executed on each call's own buffers (FFTW's new-array execute: thread-safe,
-    // buffers from fftwf_alloc_* aligned as the first call's): the same plan each time, without
-    // its planning (the heard spectrum's 384000 points at its former 8x padding: about 8 M
-    // instructions, mostly its twiddle factors) after the first. Never destroyed, as inverse_real_fft's plans.
-    static auto* const plans = new std::map<int, fftwf_plan>();
-    fftwf_plan plan = nullptr;
-    {
-        const std::lock_guard<std::mutex> hold(planner_lock());
-        fftwf_plan& made = (*plans)[fft_size];
-        if (made == nullptr) {
-            import_stored_wisdom(fft_size, false);
-            made = fftwf_plan_dft_r2c_1d(fft_size, in.get(), bins_out, fft_planner_flags);
-        }
-        plan = made;
-    }
+    // The size's one plan for the process (shared_forward_plan), executed on this call's own
+    // buffers: the same plan each time, without its planning (the heard spectrum's 384000 points
+    // at its former 8x padding: about 8 M instructions, mostly its twiddle factors) after the first.
+    fftwf_plan plan = shared_forward_plan(fft_size, in.get(), bins_out);
     if (plan == nullptr) throw std::bad_alloc();
     std::copy(input.begin(), input.end(), in.get());
     std::fill(in.get() + input.size(), in.get() + n, 0.0f);
@@ -143,21 +149,14 @@ stft_plan::stft_plan(const stft_config& config)
         kiss_.reset(kiss_fftr_alloc(config.fft_size, 0, nullptr, nullptr));
         if (!kiss_) throw std::bad_alloc();
     } else {
-        const std::lock_guard<std::mutex> hold(planner_lock());
-        import_stored_wisdom(config.fft_size, false);
-        plan_ = fftwf_plan_dft_r2c_1d(config.fft_size, frame_.get(), reinterpret_cast<fftwf_complex*>(spectrum_.get()),  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
-                                      fft_planner_flags);
+        plan_ = shared_forward_plan(config.fft_size, frame_.get(), reinterpret_cast<fftwf_complex*>(spectrum_.get()));  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
         if (plan_ == nullptr) throw std::bad_alloc();
     }
     bins_.resize(n / 2 + 1);
     power_.resize(bins_.size());
 }
 
-stft_plan::~stft_plan() {
-    if (plan_ == nullptr) return;
-    const std::lock_guard<std::mutex> hold(planner_lock());
-    fftwf_destroy_plan(plan_);
-}
+stft_plan::~stft_plan() = default;  // plan_ is the process's (shared_forward_plan)
 
 void stft_plan::transform(std::span<const float> samples, std::int64_t centre, float dc_offset) {
     const std::int64_t h = half_length();
@@ -184,7 +183,7 @@ void stft_plan::transform(std::span<const float> samples, std::int64_t centre, f
         kiss_fftr(kiss_.get(), buf, reinterpret_cast<kiss_fft_cpx*>(spectrum_.get()));  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
         return;
     }
-    fftwf_execute(plan_);
+    fftwf_execute_dft_r2c(plan_, buf, reinterpret_cast<fftwf_complex*>(spectrum_.get()));  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
 }
 
 void stft_plan::analyze(std::span<const float> samples, std::int64_t centre, float dc_offset) {

@@ -112,7 +112,7 @@ private:
     struct fftw_buffer_free {
         void operator()(void* p) const;
     };
-    fftwf_plan_s* plan_ = nullptr;  ///< null with few_frames
+    fftwf_plan_s* plan_ = nullptr;  ///< the size's plan for the process (stft.cpp: shared_forward_plan); null with few_frames
     struct kiss_free {
         void operator()(kiss_fftr_cfg cfg) const { kiss_fftr_free(cfg); }
     };
