@@ -246,14 +246,24 @@ block_sums sum_shaped(const heterodyned& z, const partial& q, double gain_lin, d
         const double centre = static_cast<double>(b0) + 0.5 * static_cast<double>(block - 1);
         cplx zs{}, z1s{};
         decay_amp = -1.0;  // exact again at each block's start
-        for (std::size_t n = b0; n < b0 + block; ++n) {
-            const double t = static_cast<double>(n) / rate_hz;
-            const double a = gain_lin * amp_at(t);
-            const cplx zn(z.re[n], z.im[n]);
+        std::size_t n = b0;
+        const auto add = [&](double a) {  // sample n's terms (a * zn, then (offset a) * zn, as complex products)
             const double offset = static_cast<double>(n) - centre;
-            zs += a * zn;
-            z1s += offset * a * zn;
+            zs += a * cplx(z.re[n], z.im[n]);
+            z1s += offset * a * cplx(z.re[n], z.im[n]);
             shaped.amp_energy += a * a;
+        };
+        add(gain_lin * amp_at(static_cast<double>(n) / rate_hz));
+        // A block past the attack within one piece: amp_at's path for its other samples is the
+        // sample before times step_ratio (its tests would pass the same way): taken directly.
+        const double last_s = static_cast<double>(b0 + block - 1) / rate_hz;
+        if (!(static_cast<double>(b0) / rate_hz < q.env.attack_s) && (piece + 1 >= pieces.size() || last_s < pieces[piece].end_s)) {
+            for (++n; n < b0 + block; ++n) {
+                decay_amp *= step_ratio;
+                add(gain_lin * decay_amp);
+            }
+        } else {
+            for (++n; n < b0 + block; ++n) add(gain_lin * amp_at(static_cast<double>(n) / rate_hz));
         }
         shaped.band_energy += 2.0 * std::norm(zs) / static_cast<double>(block);
         shaped.z.push_back(zs);
