@@ -81,7 +81,7 @@ struct analysis_params {
     /// (synthetic note; +21% demo note), the whole analysis +4.5% (+3.0%) (callgrind, -j 1).
     bool fit_slow_glides = true;
     onset_glide_params slow_glides{.span_s = 0.4, .min_freq_hz = 30.0, .max_abs_cents = 24.0, .cents_step = 2.0, .min_fit_glide_s = 0.02,
-                                   .max_fit_glide_s = 0.35, .min_gain_db = 0.02, .min_cents = 1.0, .max_level_change_db = 0.0,
+                                   .max_fit_glide_s = 0.35, .min_gain_db = 0.02, .refine_share = 0.25, .min_cents = 1.0, .max_level_change_db = 0.0,
                                    .block_s = 0.002, .lasting_only = true};
     /// Then replace the strongest partials without a glide by a few close modes each where those
     /// fit the recording better (analysis/mode_split.hpp).

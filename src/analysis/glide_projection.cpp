@@ -5,6 +5,7 @@
 #include <cassert>
 #include <cmath>
 #include <cstdint>
+#include <numbers>
 #include <numeric>
 
 #include "core/envelope.hpp"
@@ -24,9 +25,15 @@ void add_tails(block_sums& s) {
     const std::size_t count = s.z.size();
     s.tail_z.assign(count + 1, 0.0);
     s.tail_z1.assign(count + 1, 0.0);
+    s.tail_sum.assign(count + 1, cplx{});
+    s.abs_z.resize(count);
+    s.abs_z1.resize(count);
     for (std::size_t b = count; b-- > 0;) {
-        s.tail_z[b] = s.tail_z[b + 1] + std::abs(s.z[b]);
-        s.tail_z1[b] = s.tail_z1[b + 1] + std::abs(s.z1[b]);
+        s.abs_z[b] = std::abs(s.z[b]);
+        s.abs_z1[b] = std::abs(s.z1[b]);
+        s.tail_z[b] = s.tail_z[b + 1] + s.abs_z[b];
+        s.tail_z1[b] = s.tail_z1[b + 1] + s.abs_z1[b];
+        s.tail_sum[b] = s.tail_sum[b + 1] + s.z[b];
     }
 }
 
@@ -116,21 +123,42 @@ constexpr double bound_margin = 1e-9;
 /// |g'_b| there at most its value at the first block left (the excess shrinks with the decay):
 /// the tail sums once per partial (block_sums::tail_z) bound every candidate's rest.
 std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz,
-                               double floor_norm, std::vector<double>& scratch) {
+                               double floor_norm, const decay_tails* tails, std::vector<double>& scratch) {
     if (t.cents == 0.0) return std::accumulate(s.z.begin(), s.z.end(), cplx{});
     const std::size_t count = s.z.size();
     assert(t.excess.size() == count && (!(floor_norm > 0.0) || s.tail_z.size() == count + 1));
+    assert(!tails || (tails->z.size() == count + 1 && tails->z1.size() == count + 1 && s.tail_sum.size() == count + 1));
     scratch.resize(2 * count);
     double* sin_g = scratch.data();
     double* cos_g = scratch.data() + count;
     const double rad_per_frame = two_pi * freq_hz / rate_hz;
-    // The bound before any block is summed: the blocks' magnitudes alone (tail sums from 0).
-    if (floor_norm > 0.0 && count > 0) {
-        fill_terms(t, 1);
-        const double bound = s.tail_z[0] + std::abs(rad_per_frame * t.excess[0]) * s.tail_z1[0];
-        const double padded = bound * (1.0 + bound_margin);
-        if (padded * padded < floor_norm) return std::nullopt;
+    if (!(floor_norm > 0.0) || count == 0) tails = nullptr;
+    // The settled bound's terms (evaluate_above): e^(-j G), the decay tails' weights, the padding.
+    double settled_re = 0.0, settled_im = 0.0, turn_weight = 0.0, slope_weight = 0.0, settled_pad = 0.0;
+    if (count > 0) fill_terms(t, 1);
+    if (tails) {
+        const double whole_rad = freq_hz * t.whole_rad_per_hz;
+        sincos_poly(-whole_rad, settled_im, settled_re);
+        const double excess_bound = std::expm1(std::abs(t.cents) * std::numbers::ln2 / 1200.0);
+        turn_weight = two_pi * freq_hz * t.glide_s * excess_bound;
+        slope_weight = rad_per_frame * excess_bound;
+        settled_pad = bound_margin * (s.tail_z[0] + std::abs(rad_per_frame * t.excess[0]) * s.tail_z1[0]);
     }
+    // Whether no sum whose blocks before b1 summed to (re, im) reaches floor_norm.
+    const auto under_floor = [&](std::size_t b1, double re, double im) {
+        const double loose = (std::sqrt(re * re + im * im) + s.tail_z[b1] + std::abs(rad_per_frame * t.excess[b1]) * s.tail_z1[b1]) *
+                             (1.0 + bound_margin);
+        if (loose * loose < floor_norm) return true;
+        if (!tails) return false;
+        const cplx rest = s.tail_sum[b1];
+        const double sum_re = re + settled_re * rest.real() - settled_im * rest.imag();
+        const double sum_im = im + settled_re * rest.imag() + settled_im * rest.real();
+        const double settled = std::sqrt(sum_re * sum_re + sum_im * sum_im) + turn_weight * tails->z[b1] +
+                               slope_weight * tails->z1[b1] + settled_pad;
+        return settled * settled < floor_norm;
+    };
+    // The bound before any block is summed.
+    if (floor_norm > 0.0 && count > 0 && under_floor(0, 0.0, 0.0)) return std::nullopt;
     double re = 0.0, im = 0.0;
     for (std::size_t b0 = 0; b0 < count; b0 += bound_chunk_blocks) {
         const std::size_t b1 = std::min(count, b0 + bound_chunk_blocks);
@@ -145,9 +173,7 @@ std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms&
             im += cos_g[b] * a_im - sin_g[b] * a_re;
         }
         if (b1 == count || !(floor_norm > 0.0)) continue;
-        const double bound = std::sqrt(re * re + im * im) + s.tail_z[b1] + std::abs(rad_per_frame * t.excess[b1]) * s.tail_z1[b1];
-        const double padded = bound * (1.0 + bound_margin);
-        if (padded * padded < floor_norm) return std::nullopt;
+        if (under_floor(b1, re, im)) return std::nullopt;
     }
     return cplx{re, im};
 }
@@ -220,14 +246,24 @@ block_sums sum_shaped(const heterodyned& z, const partial& q, double gain_lin, d
         const double centre = static_cast<double>(b0) + 0.5 * static_cast<double>(block - 1);
         cplx zs{}, z1s{};
         decay_amp = -1.0;  // exact again at each block's start
-        for (std::size_t n = b0; n < b0 + block; ++n) {
-            const double t = static_cast<double>(n) / rate_hz;
-            const double a = gain_lin * amp_at(t);
-            const cplx zn(z.re[n], z.im[n]);
+        std::size_t n = b0;
+        const auto add = [&](double a) {  // sample n's terms (a * zn, then (offset a) * zn, as complex products)
             const double offset = static_cast<double>(n) - centre;
-            zs += a * zn;
-            z1s += offset * a * zn;
+            zs += a * cplx(z.re[n], z.im[n]);
+            z1s += offset * a * cplx(z.re[n], z.im[n]);
             shaped.amp_energy += a * a;
+        };
+        add(gain_lin * amp_at(static_cast<double>(n) / rate_hz));
+        // A block past the attack within one piece: amp_at's path for its other samples is the
+        // sample before times step_ratio (its tests would pass the same way): taken directly.
+        const double last_s = static_cast<double>(b0 + block - 1) / rate_hz;
+        if (!(static_cast<double>(b0) / rate_hz < q.env.attack_s) && (piece + 1 >= pieces.size() || last_s < pieces[piece].end_s)) {
+            for (++n; n < b0 + block; ++n) {
+                decay_amp *= step_ratio;
+                add(gain_lin * decay_amp);
+            }
+        } else {
+            for (++n; n < b0 + block; ++n) add(gain_lin * amp_at(static_cast<double>(n) / rate_hz));
         }
         shaped.band_energy += 2.0 * std::norm(zs) / static_cast<double>(block);
         shaped.z.push_back(zs);
@@ -263,6 +299,17 @@ glide_terms terms_at(double cents, double glide_s, std::span<const double> decay
     return out;
 }
 
+decay_tails tails_at(const block_sums& s, std::span<const double> decay) {
+    const std::size_t count = s.z.size();
+    assert(decay.size() == count && s.abs_z.size() == count);
+    decay_tails out{.z = std::vector<double>(count + 1), .z1 = std::vector<double>(count + 1)};
+    for (std::size_t b = count; b-- > 0;) {
+        out.z[b] = out.z[b + 1] + decay[b] * s.abs_z[b];
+        out.z1[b] = out.z1[b + 1] + decay[b] * s.abs_z1[b];
+    }
+    return out;
+}
+
 /// e^(-t_b / tau) at the blocks' centres.
 std::vector<double> decays(const block_sums& s, double glide_s) {
     std::vector<double> out(s.centre_s.size());
@@ -273,9 +320,9 @@ std::vector<double> decays(const block_sums& s, double glide_s) {
 /// The fit at t, or none when it explains less than floor_explained (a bound shows it before the
 /// whole sum: projection).
 std::optional<glide_fit> evaluate_above(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz,
-                                        double floor_explained) {
+                                        double floor_explained, const decay_tails* tails) {
     thread_local std::vector<double> scratch;  // the blocks' sin and cos, kept between calls
-    const std::optional<cplx> sum = projection(s, freq_hz, t, rate_hz, 0.5 * floor_explained * s.amp_energy, scratch);
+    const std::optional<cplx> sum = projection(s, freq_hz, t, rate_hz, 0.5 * floor_explained * s.amp_energy, tails, scratch);
     if (!sum) return std::nullopt;
     return glide_fit{.cents = t.cents, .glide_s = t.glide_s, .explained = 2.0 * std::norm(*sum) / s.amp_energy,
                      .amp = 2.0 * *sum / s.amp_energy};

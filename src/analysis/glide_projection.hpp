@@ -27,7 +27,23 @@ struct block_sums {
     /// the flat and the merged sums): the bound by which a candidate is rejected early.
     std::vector<double> tail_z;
     std::vector<double> tail_z1;
+    /// tail_sum[b] = sum_{b' >= b} Z_b' (count + 1; made with the tail sums): the rest of the
+    /// no-glide sum, which a candidate's rest approaches where its glide has settled.
+    std::vector<std::complex<double>> tail_sum;
+    std::vector<double> abs_z;   ///< |Z_b| (made with the tail sums)
+    std::vector<double> abs_z1;  ///< |Z1_b|
 };
+
+/// Sums of the blocks left weighted by one time constant's decay (count + 1 each, like the tail
+/// sums): z[b] = sum_{b' >= b} decay[b'] |Z_b'|, z1 the same of |Z1_b'|. They bound what a glide
+/// of that time constant still turns the blocks left by (evaluate_above's settled bound).
+struct decay_tails {
+    std::vector<double> z;
+    std::vector<double> z1;
+};
+
+/// s's decay tails for decay[b] = e^(-t_b / tau) at its blocks' centres.
+decay_tails tails_at(const block_sums& s, std::span<const double> decay);
 
 /// z[n] = y[n] e^(-j 2 pi f n / fs), kept per sample for the flat and the shaped sums.
 struct heterodyned {
@@ -81,12 +97,20 @@ struct glide_fit {
 };
 
 /// The fit at t, or none when it explains less than floor_explained: the blocks are summed in
-/// order 8 at a time, and after each stretch |S| <= |sum so far| + sum over the blocks left of
-/// (|Z_b| + |g'_b| |Z1_b|) (|g'_b| at most its value at the first block left: the excess shrinks
-/// with the decay), padded by 1e-9; the tail sums are made once per partial. Lazy terms are
-/// made as the sum reaches their blocks.
+/// order 8 at a time, and before the first and after each stretch |S| <= |sum so far| + sum over
+/// the blocks left of (|Z_b| + |g'_b| |Z1_b|) (|g'_b| at most its value at the first block left:
+/// the excess shrinks with the decay), padded by 1e-9; the tail sums are made once per partial.
+/// With tails (t's time constant's, tails_at) also the settled bound, whichever is lower:
+/// g_b = G - R_b (G = f whole_rad_per_hz, R_b = f remaining_rad_per_hz[b]), so the blocks left
+/// add e^(-j G) sum_b e^(j R_b) (Z_b - j g'_b Z1_b), and |S| <= |sum so far + e^(-j G)
+/// tail_sum| + sum over the blocks left of (|R_b| |Z_b| + |g'_b| |Z1_b|) (|e^(j R) - 1| <= |R|),
+/// where |R_b| <= 2 pi f tau expm1(|x0|) decay_b and |g'_b| <= 2 pi f / fs expm1(|x0|) decay_b
+/// (|Ein(u)| and |expm1(u)| are at most expm1(|u|), and expm1(|x0| d) <= d expm1(|x0|) for
+/// 0 <= d <= 1: convexity), padded by 1e-9 of the blocks' whole magnitude (the first bound's):
+/// near the whole sum once the glide has settled. Lazy terms are made as the sum reaches their
+/// blocks.
 std::optional<glide_fit> evaluate_above(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz,
-                                        double floor_explained);
+                                        double floor_explained, const decay_tails* tails = nullptr);
 
 /// The fit at t (summed whole).
 glide_fit evaluate(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz);

@@ -55,6 +55,7 @@ std::vector<double> render_start(const patch& p, const partial* q, double rate_h
 struct coarse_grid {
     std::vector<glide_terms> points;
     std::vector<std::vector<double>> decay;  ///< per time constant; the points' decay spans look into these
+    std::vector<std::size_t> decay_of;       ///< per point: its time constant's index in decay
 };
 using coarse_rings = std::vector<coarse_grid>;
 
@@ -77,6 +78,7 @@ coarse_grid make_coarse_grid(const block_sums& coarse_sums, const onset_glide_pa
                                       .whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0),
                                       .remaining_rad_per_hz = std::vector<double>(decay.size()),
                                       .excess = std::vector<double>(decay.size()), .decay = decay, .filled = 0});
+                out.decay_of.push_back(out.decay.size() - 1);
             }
         }
     }
@@ -93,9 +95,14 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
     glide_fit best;
     const block_sums coarse_sums = merged_pairs(s, rate_hz);
     while (rings.size() <= ring) rings.push_back(make_coarse_grid(coarse_sums, params, rings.size()));
-    for (glide_terms& t : rings[ring].points) {  // made as the sums reach them (evaluate_above)
+    coarse_grid& grid = rings[ring];
+    std::vector<decay_tails> tails;  // this partial's, per time constant (evaluate_above's settled bound)
+    for (const std::vector<double>& decay : grid.decay) tails.push_back(tails_at(coarse_sums, decay));
+    for (std::size_t i = 0; i < grid.points.size(); ++i) {  // terms made as the sums reach them (evaluate_above)
+        glide_terms& t = grid.points[i];
         if (t.glide_s > longest_s) continue;
-        const std::optional<glide_fit> f = evaluate_above(coarse_sums, freq_hz, t, rate_hz, std::max(best.explained, coarse_floor));
+        const std::optional<glide_fit> f =
+            evaluate_above(coarse_sums, freq_hz, t, rate_hz, std::max(best.explained, coarse_floor), &tails[grid.decay_of[i]]);
         if (f && f->explained > best.explained) best = *f;
     }
     const glide_fit coarse = best;
@@ -113,6 +120,7 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
         const double glide_s = std::clamp(coarse.glide_s * std::exp2(static_cast<double>(j) / params.fine_glide_s_steps_per_octave),
                                           params.min_fit_glide_s / 2.0, max_glide_s);
         const std::vector<double> decay = decays(f_sums, glide_s);
+        const decay_tails settled = tails_at(f_sums, decay);
         for (int i = -fine; i <= fine; ++i) {
             const double cents = coarse.cents + i * params.fine_cents_step;
             if (cents == 0.0) continue;
@@ -121,7 +129,7 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
             lazy.whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0);
             lazy.decay = decay;
             lazy.filled = 0;
-            const std::optional<glide_fit> f = evaluate_above(f_sums, freq_hz, lazy, rate_hz, std::max(best.explained, f_floor));
+            const std::optional<glide_fit> f = evaluate_above(f_sums, freq_hz, lazy, rate_hz, std::max(best.explained, f_floor), &settled);
             if (f && f->explained > best.explained) best = *f;
         }
     }
@@ -171,12 +179,15 @@ std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, 
     const double kept_floor = std::max(n0 + min_extra, std::min(n0 + share * n0, (n0 + share * flat.band_energy) / (1.0 + share))) *
                               (1.0 - 1e-9);
     if (explains_under(flat, q.freq_hz, rate_hz, params, kept_floor)) return std::nullopt;
-    glide_fit best = search(flat, q.freq_hz, rate_hz, params, rings, 0, longest_s, n0 + 0.5 * min_extra, kept_floor);
+    // A coarse best short of refine_share of the way from no glide to kept_floor, or of half of
+    // min_extra, is not refined (the fine grid moves a best by under a coarse step).
+    const double coarse_floor = n0 + std::max(0.5 * min_extra, params.refine_share * (kept_floor - n0));
+    glide_fit best = search(flat, q.freq_hz, rate_hz, params, rings, 0, longest_s, coarse_floor, kept_floor);
     // A best on the offset's outer edge: the grid goes on by rings of twice the range, up to
     // offset_rings of them, while the best lies on the edge (onset_glide.hpp).
     double range_cents = params.max_abs_cents;
     for (std::size_t ring = 1; ring <= params.offset_rings && std::abs(best.cents) >= range_cents; ++ring) {
-        const glide_fit wider = search(flat, q.freq_hz, rate_hz, params, rings, ring, longest_s, n0 + 0.5 * min_extra, kept_floor);
+        const glide_fit wider = search(flat, q.freq_hz, rate_hz, params, rings, ring, longest_s, coarse_floor, kept_floor);
         if (wider.explained > best.explained) best = wider;
         range_cents *= 2.0;
     }

@@ -20,7 +20,7 @@
 //   first milliseconds where a glide cannot be told from a phase), on a grid (cents_step over
 //   +-max_abs_cents, glide_s_steps time constants geometrically from min_fit_glide_s to
 //   max_fit_glide_s, on at that ratio to max_short_lived_glide_s for a short-lived partial), then
-//   on a finer grid around the best. A best on the offsets' outer edge takes the grid on by a
+//   on a finer grid around the best (refine_share: not for a coarse best far short of a kept one). A best on the offsets' outer edge takes the grid on by a
 //   ring of offsets up to twice as large (offset_rings); one still on the edge is a partial off
 //   its frequency over the whole span, not a glide, and is left out. A best at the longest time
 //   constant is kept: a glide slower than the span is the frequency the partial plays early, off
@@ -99,6 +99,13 @@ struct onset_glide_params {
     bool fine_on_merged_blocks = true;
     double merged_floor_share = 0.01;
     double min_gain_db = 1.0;          ///< the share the glide must explain more (see above)
+    /// A coarse best short of this share of the way from no glide (E(0)) to the least E kept is not
+    /// refined (nor one short of half of min_short_lived_extra): the fine grid moves a best by
+    /// under a coarse step. Measured on the 17 shared, the demo and the 40 held-out notes (58; main
+    /// 26d29e6, -j 1): of the 1812 glides that passed every check of the fit, the lowest coarse
+    /// best lay 0.735 of the way (banjo_g3's 2475.7 Hz, 80.5 cents) at 1 dB asked, 0.387 at the
+    /// slow pass's 0.02 dB (rhodes_g4's 1766.4 Hz, -2.5 cents; the next 0.517).
+    double refine_share = 0.5;
     /// A glide under one coarse step is the fine search walking the coarse best (never 0) back
     /// towards no glide: too weak a case (on guitar_nylon_d3 a -3-cent glide cost 0.03 dB of SNR).
     double min_cents = 4.0;

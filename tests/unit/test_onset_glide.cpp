@@ -275,17 +275,18 @@ TEST_CASE("a glide that would spoil the copy's first 10 ms, exact there, is not 
     CHECK(p == before);
 }
 
-TEST_CASE("a glide candidate the bound stops early explains less than its floor, and one it sums gives the whole sum",
+TEST_CASE("a glide candidate the bounds stop early explains less than its floor, and one they sum gives the whole sum",
           "[analysis][glide]") {
-    // analysis/glide_projection: evaluate_above against evaluate (every block summed) on a gliding
-    // partial with noise and on noise alone, at every point of a grid and floors from 0.3 to 1.2
-    // times the no-glide fit's: a stopped candidate's whole-sum E is under the floor, a summed one
-    // is the same number, and the lazily made terms give the same numbers as whole ones.
+    // analysis/glide_projection: evaluate_above, with and without the settled bound (decay tails),
+    // against evaluate (every block summed) on a gliding partial with noise and on noise alone, at
+    // every point of a grid and floors from 0.3 to 1.2 times the no-glide fit's: a stopped
+    // candidate's whole-sum E is under the floor, a summed one is the same number, and the lazily
+    // made terms give the same numbers as whole ones.
     using namespace glide_projection;
     const double rate_hz = 48000.0;
     const auto count = static_cast<std::size_t>(0.15 * rate_hz);
     const std::size_t block = 48;
-    int stopped = 0, summed = 0;
+    int stopped = 0, summed = 0, stopped_settled = 0;
     for (const double noise_rms : {0.02, 1.0}) {
         const std::vector<float> note = gliding_note({{.freq_hz = 523.0, .amp_lin = noise_rms < 1.0 ? 0.5 : 0.0, .t60_s = 2.0,
                                                       .phase_rad = 0.3, .cents = 30.0, .glide_s = 0.02}},
@@ -298,32 +299,34 @@ TEST_CASE("a glide candidate the bound stops early explains less than its floor,
         for (const block_sums* s : {&fine, &coarse}) {
             for (const double glide_s : {0.005, 0.02, 0.1, 0.5}) {
                 const std::vector<double> decay = decays(*s, glide_s);
+                const decay_tails tails = tails_at(*s, decay);
                 for (int step = -12; step <= 12; ++step) {
                     if (step == 0) continue;
                     const double cents = 4.0 * step;
                     glide_terms whole = terms_at(cents, glide_s, decay);
                     const double want = evaluate(*s, 523.0, whole, rate_hz).explained;
-                    for (const double share : {0.3, 0.9, 1.0, 1.2}) {
+                    for (const double share : {0.3, 0.9, 1.0, 1.2}) for (const decay_tails* settled : {static_cast<const decay_tails*>(nullptr), &tails}) {
                         glide_terms lazy{.cents = cents, .glide_s = glide_s, .whole_rad_per_hz = whole.whole_rad_per_hz,
                                          .remaining_rad_per_hz = std::vector<double>(decay.size()),
                                          .excess = std::vector<double>(decay.size()), .decay = decay, .filled = 0};
-                        const auto got = evaluate_above(*s, 523.0, lazy, rate_hz, share * none);
+                        const auto got = evaluate_above(*s, 523.0, lazy, rate_hz, share * none, settled);
                         INFO("noise " << noise_rms << ", blocks " << s->z.size() << ", cents " << cents << ", tau " << glide_s
-                                      << ", floor " << share * none << ", whole-sum E " << want);
+                                      << ", floor " << share * none << ", whole-sum E " << want << ", settled bound " << (settled != nullptr));
                         if (got) {
                             CHECK(got->explained == want);
                             ++summed;
                         } else {
                             CHECK(want < share * none);
-                            ++stopped;
+                            ++(settled ? stopped_settled : stopped);
                         }
                     }
                 }
             }
         }
     }
-    INFO("stopped " << stopped << ", summed " << summed);
+    INFO("stopped " << stopped << " (with the settled bound " << stopped_settled << "), summed " << summed);
     CHECK(stopped > 100);
+    CHECK(stopped_settled > stopped);  // the settled bound stops candidates the first one sums
     CHECK(summed > 100);
 }
 
