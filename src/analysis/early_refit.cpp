@@ -23,17 +23,15 @@ namespace wane {
 
 namespace {
 
-/// The partials of `partials` alone (no noise) over the first `count` frames at rate_hz, as the
-/// renderer plays them (the note's gain included), into out (resized to count: the render writes
-/// every frame, so nothing is zeroed first). `one` is the patch rendered, p's header with these
-/// partials, kept between calls so that its storage is reused.
-void render_into(const patch& p, std::span<const partial> partials, double rate_hz, std::size_t count, patch& one,
-                 std::vector<float>& out) {
+/// The partials of `partials` alone (no noise) over the first out.size() frames at rate_hz, as the
+/// renderer plays them (the note's gain included), into out (the render writes every frame, so
+/// the buffers it is given are never zeroed first). `one` is the patch rendered, p's header with
+/// these partials, kept between calls so that its storage is reused.
+void render_into(const patch& p, std::span<const partial> partials, double rate_hz, patch& one, std::span<float> out) {
     one.version = p.version, one.note = p.note;
     one.partials.assign(partials.begin(), partials.end());
-    one.note.length_s = static_cast<double>(count) / rate_hz + 2.0 * end_fade_s;  // its fade past the span
+    one.note.length_s = static_cast<double>(out.size()) / rate_hz + 2.0 * end_fade_s;  // its fade past the span
     const partial_renderer r(one, {.sample_rate_hz = rate_hz, .include_noise = false});
-    out.resize(count);
     r.render(0, out);
 }
 
@@ -146,10 +144,21 @@ struct trial_frames {
     double rate_hz = 0.0;
 };
 
-/// Storage reused from one trial to the next.
+/// Storage reused from one trial to the next: cand holds the check span's frames (a render over the
+/// span alone in its first ones), quad the span's, spare the trials' renders no longer wanted.
 struct trial_buffers {
     std::vector<float> cand, quad;
     std::vector<double> put_back;
+    std::vector<std::vector<float>> spare;
+    /// A buffer of `frames` floats, its values left as they are (every caller writes them all).
+    std::vector<float> take(std::size_t frames) {
+        if (spare.empty()) return std::vector<float>(frames);
+        std::vector<float> v = std::move(spare.back());
+        spare.pop_back();
+        assert(v.size() == frames);
+        return v;
+    }
+    void give(std::vector<float>&& v) { if (!v.empty()) spare.push_back(std::move(v)); }
 };
 
 struct trial {
@@ -171,13 +180,17 @@ std::optional<trial> shorter_attack(const patch& p, const partial& q, std::span<
     std::optional<trial> best;
     for (const double fraction : params.attack_fractions) {
         const partial c = with_attack(q, fraction * attack_s);
-        render_into(p, std::span(&c, 1), f.rate_hz, f.count, one, buf.cand);
+        const std::span<float> cand = std::span(buf.cand).first(f.count);
+        render_into(p, std::span(&c, 1), f.rate_hz, one, cand);
         double late_change = 0.0, e = 0.0;  // over the span alone (no frames past it)
-        swap_sums(d.data(), own.data(), buf.cand.data(), f.count, f.count, late_change, e);
+        swap_sums(d.data(), own.data(), cand.data(), f.count, f.count, late_change, e);
         if (!(e < (best ? best->early : residual))) continue;
-        if (!best) best = trial{.refit = c, .moved = std::vector<float>(own.begin(), own.end()), .early = e, .late_change = 0.0};
+        if (!best) {
+            best = trial{.refit = c, .moved = buf.take(own.size()), .early = e, .late_change = 0.0};
+            std::copy(own.begin(), own.end(), best->moved.begin());
+        }
         best->refit = c, best->early = e;
-        std::copy(buf.cand.begin(), buf.cand.end(), best->moved.begin());
+        std::copy(cand.begin(), cand.end(), best->moved.begin());
     }
     return best;
 }
@@ -191,23 +204,26 @@ std::optional<trial> fit_trial(const patch& p, const partial& c, bool is_q, std:
                                patch& one, trial_buffers& buf) {
     partial turned = c;
     turned.phase_rad += 0.5 * std::numbers::pi;
-    render_into(p, std::span(&turned, 1), f.rate_hz, f.count, one, buf.quad);
+    const std::span<float> quad = std::span(buf.quad).first(f.count);
+    render_into(p, std::span(&turned, 1), f.rate_hz, one, quad);
     // complex_scale fits d + w on w: for another c than q, d with q's render swapped for c's.
     std::span<const double> y = d.first(f.count);
     std::span<const float> w = own.first(f.count);
     if (!is_q) {
-        render_into(p, std::span(&c, 1), f.rate_hz, f.count, one, buf.cand);
+        const std::span<float> cand = std::span(buf.cand).first(f.count);
+        render_into(p, std::span(&c, 1), f.rate_hz, one, cand);
         buf.put_back.resize(f.count);
         for (std::size_t n = 0; n < f.count; ++n)
-            buf.put_back[n] = d[n] + (static_cast<double>(own[n]) - static_cast<double>(buf.cand[n]));
-        y = buf.put_back, w = buf.cand;
+            buf.put_back[n] = d[n] + (static_cast<double>(own[n]) - static_cast<double>(cand[n]));
+        y = buf.put_back, w = cand;
     }
-    const std::complex<double> z = complex_scale(y, w, buf.quad);
+    const std::complex<double> z = complex_scale(y, w, quad);
     if (!(std::abs(z) > 0.0)) return std::nullopt;
     trial t{.refit = c, .moved = {}, .early = 0.0, .late_change = 0.0};
     t.refit.phase_rad = std::remainder(c.phase_rad + std::arg(z), two_pi);
     scale_envelope_start(t.refit.env, std::abs(z), params.max_level_change_db);
-    render_into(p, std::span(&t.refit, 1), f.rate_hz, f.total, one, t.moved);
+    t.moved = buf.take(f.total);
+    render_into(p, std::span(&t.refit, 1), f.rate_hz, one, t.moved);
     swap_sums(d.data(), own.data(), t.moved.data(), f.count, f.total, t.late_change, t.early);
     return t;
 }
@@ -225,7 +241,7 @@ bool refit_stage(const patch& p, partial& q, std::vector<double>& d, std::span<c
     if (!fit) return false;
     partial c = q;
     c.env = with_early_stage(q.env, *fit);
-    render_into(p, std::span(&c, 1), f.rate_hz, f.total, one, buf.cand);
+    render_into(p, std::span(&c, 1), f.rate_hz, one, buf.cand);
     double late_change = 0.0, early = 0.0;
     swap_sums(d.data(), cur.data(), buf.cand.data(), f.count, f.total, late_change, early);
     if (late_change > params.late_rounding * signal || !(early < residual)) return false;
@@ -260,18 +276,18 @@ early_refit_summary refit_early_phases(patch& p, std::span<const float> note, do
     // The renders in float as the renderer gives them (each taken to double where it is used:
     // exact); d, the residual x - copy over the whole check span, in double.
     patch one{.version = p.version, .note = p.note, .source = {}, .partials = {}, .noise = {}};
-    std::vector<float> own;
-    render_into(p, p.partials, sample_rate_hz, total, one, own);
+    std::vector<float> own(total);
+    render_into(p, p.partials, sample_rate_hz, one, own);
     std::vector<double> d(total);
     for (std::size_t n = 0; n < total; ++n) d[n] = static_cast<double>(note[n]) - static_cast<double>(own[n]);
     double residual = energy(std::span<const double>(d).first(count));
     summary.residual_before_db = to_level(amp_lin{std::sqrt(residual / signal)}).db;
-    trial_buffers buf;
+    trial_buffers buf{.cand = std::vector<float>(total), .quad = std::vector<float>(count), .put_back = {}, .spare = {}};
     for (const std::size_t k : order) {
         if (start_db(k) < loudest_db - params.range_db) break;
         partial& q = p.partials[k];
         if (!(q.freq_hz > 0.0) || q.freq_hz >= 0.5 * sample_rate_hz) continue;
-        render_into(p, std::span(&q, 1), sample_rate_hz, total, one, own);
+        render_into(p, std::span(&q, 1), sample_rate_hz, one, own);
         const trial_frames frames{.count = count, .total = total, .rate_hz = sample_rate_hz};
         // q refitted; q with a shorter attack where that leaves less, as it is or refitted: the
         // one that leaves least over the span.
@@ -283,7 +299,12 @@ early_refit_summary refit_early_phases(patch& p, std::span<const float> note, do
             // Kept where the later part's residual (to check_s) does not rise, the test that fails
             // more often (on a third to half of the partials of the demo and synthetic notes), and
             // the span's residual falls.
-            if (t && !(t->late_change > 0.0) && t->early < (best ? best->early : residual)) best = std::move(t);
+            if (t && !(t->late_change > 0.0) && t->early < (best ? best->early : residual)) {
+                if (best) buf.give(std::move(best->moved));
+                best = std::move(t);
+            } else if (t) {
+                buf.give(std::move(t->moved));
+            }
         }
         if (best) {
             for (std::size_t n = 0; n < total; ++n) d[n] += static_cast<double>(own[n]) - static_cast<double>(best->moved[n]);
@@ -292,6 +313,7 @@ early_refit_summary refit_early_phases(patch& p, std::span<const float> note, do
         }
         const bool staged = refit_stage(p, q, d, best ? best->moved : own, residual, signal, frames, params, one, buf);
         if (best || staged) ++summary.refitted;
+        if (best) buf.give(std::move(best->moved));
     }
     summary.residual_after_db = to_level(amp_lin{std::sqrt(residual / signal)}).db;
     return summary;
