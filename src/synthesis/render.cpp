@@ -267,21 +267,22 @@ void add_gliding_part(const render_plan& plan, std::size_t k, const span& s, std
 /// Anchors every lane from exact double values at `from`.
 void add_span_part(const render_plan& plan, std::size_t k, const span& s, std::size_t from,
                    std::size_t to, std::size_t block_begin, float* block) {
-    alignas(32) float re[lanes];
-    alignas(32) float im[lanes];
-    const std::complex<double> z = exact_phasor(plan.cycles_per_frame[k], plan.phase_rad[k], from);
+    alignas(32) float re[lanes], im[lanes];
+    const auto anchor = [&] { return exact_phasor(plan.cycles_per_frame[k], plan.phase_rad[k], from); };
     if (s.kind == span_kind::decay) {
         const double ln_from = plan.ln_gain[k] + s.ln_amp_begin +
                                s.ln_amp_per_frame * static_cast<double>(from - s.begin);
         const double ln_last = ln_from + s.ln_amp_per_frame * static_cast<double>(to - 1 - from);
-        // Skip stretches entirely below the silence floor (the envelope is monotone in a span).
+        // Skip stretches entirely below the silence floor (the envelope is monotone in a span), unanchored.
         if (std::max(ln_from, ln_last) < ln_silence_amp) return;
+        const std::complex<double> z = anchor();
         const double amp = std::exp(ln_from);
         set_lane_anchors(s, amp * z.real(), amp * z.imag(), re, im);
         add_damped(block + (from - block_begin), to - from, re, im, s.step_re, s.step_im);
     } else {
         alignas(32) float amp[lanes];
         const double amp_per_frame = plan.gain_lin[k] * s.amp_per_frame;
+        const std::complex<double> z = anchor();
         set_lane_anchors(s, z.real(), z.imag(), re, im);
         for (std::size_t l = 0; l < lanes; ++l) {
             amp[l] = static_cast<float>(amp_per_frame * static_cast<double>(from + l));
@@ -290,33 +291,6 @@ void add_span_part(const render_plan& plan, std::size_t k, const span& s, std::s
                    static_cast<float>(amp_per_frame * static_cast<double>(lanes)));
     }
 }
-
-}  // namespace
-
-double band_limit_gain(double freq_hz, double sample_rate_hz) {
-    const double nyquist_hz = 0.5 * sample_rate_hz;
-    const double fade_start_hz = band_fade_start_fraction * nyquist_hz;
-    if (freq_hz >= nyquist_hz) return 0.0;
-    if (freq_hz <= fade_start_hz) return 1.0;
-    return 0.5 * (1.0 + std::cos(pi * (freq_hz - fade_start_hz) / (nyquist_hz - fade_start_hz)));
-}
-
-double end_fade_gain(std::size_t n, std::size_t total_frames, double sample_rate_hz) {
-    const auto fade_frames = std::min(total_frames,
-                                      static_cast<std::size_t>(std::llround(end_fade_s * sample_rate_hz)));
-    assert(n < total_frames);
-    const std::size_t fade_begin = total_frames - fade_frames;
-    if (n < fade_begin) return 1.0;
-    const double k = static_cast<double>(n - fade_begin);
-    return 0.5 * (1.0 + std::cos(pi * (k + 1.0) / static_cast<double>(fade_frames)));
-}
-
-std::size_t render_frames(const patch& p, const render_params& params) {
-    const double length_s = params.length_s > 0.0 ? params.length_s : p.note.length_s;
-    return static_cast<std::size_t>(std::llround(length_s * params.sample_rate_hz));
-}
-
-namespace {
 
 /// The partials of frames [first, first + out.size()) into out (overwritten), block by block from
 /// `first`: each block anchors every oscillator from exact values, so a stretch starting at a
@@ -380,6 +354,29 @@ void apply_end_fade(std::size_t first, std::span<float> out, std::size_t total, 
 }
 
 }  // namespace
+
+double band_limit_gain(double freq_hz, double sample_rate_hz) {
+    const double nyquist_hz = 0.5 * sample_rate_hz;
+    const double fade_start_hz = band_fade_start_fraction * nyquist_hz;
+    if (freq_hz >= nyquist_hz) return 0.0;
+    if (freq_hz <= fade_start_hz) return 1.0;
+    return 0.5 * (1.0 + std::cos(pi * (freq_hz - fade_start_hz) / (nyquist_hz - fade_start_hz)));
+}
+
+double end_fade_gain(std::size_t n, std::size_t total_frames, double sample_rate_hz) {
+    const auto fade_frames = std::min(total_frames,
+                                      static_cast<std::size_t>(std::llround(end_fade_s * sample_rate_hz)));
+    assert(n < total_frames);
+    const std::size_t fade_begin = total_frames - fade_frames;
+    if (n < fade_begin) return 1.0;
+    const double k = static_cast<double>(n - fade_begin);
+    return 0.5 * (1.0 + std::cos(pi * (k + 1.0) / static_cast<double>(fade_frames)));
+}
+
+std::size_t render_frames(const patch& p, const render_params& params) {
+    const double length_s = params.length_s > 0.0 ? params.length_s : p.note.length_s;
+    return static_cast<std::size_t>(std::llround(length_s * params.sample_rate_hz));
+}
 
 std::vector<float> render_patch(const patch& p, const render_params& params) {
     assert(params.sample_rate_hz >= min_render_rate_hz && params.sample_rate_hz <= max_render_rate_hz);
