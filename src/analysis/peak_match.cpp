@@ -88,7 +88,7 @@ std::vector<float> draw_peaks(const patch& q, double rate, std::span<const std::
     for (std::size_t first = 0; first < reach; first += stretch) {
         const std::size_t size = std::min(stretch, reach - first);
         partials.render(first, std::span(part).first(size));
-        std::fill(noise.begin(), noise.end(), 0.0f);
+        if (first > 0) std::fill(noise.begin(), noise.end(), 0.0f);  // made zeroed for the first stretch
         std::vector<std::span<float>> outs;
         for (std::size_t d = 0; d < seeds.size(); ++d) outs.emplace_back(noise.data() + d * stretch, size);
         // The draws as renders of reach frames (add_noise_band_draws: each as its own render would be).

@@ -15,7 +15,7 @@
 #include "core/units.hpp"
 #include "spectrum/stft.hpp"
 #include "synthesis/amplitude_runs.hpp"
-#include "synthesis/kernel_clones.hpp"
+#include "synthesis/noise_kernels.hpp"
 #include "synthesis/noise_streams.hpp"
 #include "synthesis/rate_convert.hpp"
 
@@ -103,26 +103,6 @@ frame_change change_over(const band_bins& b, double from_s, double to_s) {
     const double loudest = *std::max_element(db.begin(), db.end());
     const double quietest = *std::min_element(db.begin(), db.begin() + 3);
     return {.fast = !(loudest - quietest <= fast_change_db), .loudest_db = loudest};
-}
-
-// acc[n] += gain * src[n], n < count (a multiply, then an add: the same bits in every clone).
-WANE_KERNEL_CLONES
-void add_scaled(float* __restrict acc, const float* __restrict src, float gain, std::size_t count) {
-    for (std::size_t n = 0; n < count; ++n) acc[n] += gain * src[n];
-}
-
-// acc[n] += gain * (amp[n] * src[n]), n < count.
-WANE_KERNEL_CLONES
-void add_modulated(float* __restrict acc, const float* __restrict src, const float* __restrict amp, float gain,
-                   std::size_t count) {
-    for (std::size_t n = 0; n < count; ++n) acc[n] += gain * (amp[n] * src[n]);
-}
-
-// out[n] += frame[n] * window[n], n < count.
-WANE_KERNEL_CLONES
-void add_windowed(float* __restrict out, const float* __restrict frame, const float* __restrict window,
-                  std::size_t count) {
-    for (std::size_t n = 0; n < count; ++n) out[n] += frame[n] * window[n];
 }
 
 /// The band's pool: pool_frames periodic unit frames of n_fft samples, each stored twice in a row
@@ -270,6 +250,10 @@ struct draw_player {
     void play(std::vector<std::vector<band_bins>>& layouts, std::span<const band_in_frame> plays, double start_s,
               double dt_s, std::size_t pool_index) {
         const std::size_t bands = layouts.front().size();
+        // The first band that sounds writes the frames (onto_zero), the others add to them.
+        first_sounding_ = 0;
+        while (first_sounding_ < bands && plays[first_sounding_].bin_amp == 0.0f) ++first_sounding_;
+        if (first_sounding_ == bands) std::fill(frames_.begin(), frames_.end(), 0.0f);
         // Bands in turn, a few fast ones at a time: their amplitudes first, each in a row of its
         // own (their runs played side by side), then every band's draws in band order.
         for (std::size_t i0 = 0; i0 < bands;) {
@@ -307,9 +291,9 @@ private:
             const float* unit = pool.data() + pool_index * 2 * n_ + shift;
             float* frame = frames_.data() + d * n_;
             if (plays[i].fast) {
-                add_modulated(frame, unit, amp_.data() + row_of_[i] * n_, plays[i].bin_amp, n_);
+                noise_kernels::add_modulated(frame, unit, amp_.data() + row_of_[i] * n_, plays[i].bin_amp, n_, i == first_sounding_);
             } else {
-                add_scaled(frame, unit, plays[i].bin_amp, n_);
+                noise_kernels::add_scaled(frame, unit, plays[i].bin_amp, n_, i == first_sounding_);
             }
         }
     }
@@ -327,6 +311,7 @@ private:
     std::unique_ptr<float[]> pools_;
     std::vector<float> amp_;  ///< a few fast bands' amplitudes in the frame, a row of n_fft each
     std::vector<std::size_t> row_of_;  ///< each band's row of amp_ (while it is being played)
+    std::size_t first_sounding_ = 0;   ///< the frame's first band that sounds (play)
     std::vector<amplitude_run> runs_;
 };
 
@@ -390,13 +375,12 @@ void add_noise_at_draw_rate(std::span<const noise_band> bands, const noise_rende
                 for (band_bins& b : l) b.shifts.skip(1);
             continue;
         }
-        std::fill(frames.begin(), frames.end(), 0.0f);
         const auto pool_index = static_cast<std::size_t>(((m % pool_frames) + pool_frames) % pool_frames);
         player.play(layouts, plays, static_cast<double>(start) * dt_s, dt_s, pool_index);
         const long from = std::max(0L, first - start);
         const long to = std::min<long>(n_fft, end - start);
         for (std::size_t d = 0; d < draws; ++d)
-            add_windowed(outs[d].data() + (start + from - first), frames.data() + d * n + from, window.data() + from,
+            noise_kernels::add_windowed(outs[d].data() + (start + from - first), frames.data() + d * n + from, window.data() + from,
                          static_cast<std::size_t>(to - from));
     }
 }
