@@ -294,7 +294,9 @@ void add_span_part(const render_plan& plan, std::size_t k, const span& s, std::s
 
 /// The partials of frames [first, first + out.size()) into out (overwritten), block by block from
 /// `first`: each block anchors every oscillator from exact values, so a stretch starting at a
-/// multiple of render_anchor_frames gives the same bits as the whole render.
+/// multiple of render_anchor_frames gives the same bits as the whole render. Compiled for AVX2 and the
+/// baseline as the kernels are (element-wise IEEE operations, no FMA: the same bits).
+WANE_KERNEL_CLONES
 void render_partials_range(const render_plan& plan, std::size_t first, std::span<float> out, double rate_hz) {
     assert(first + out.size() <= plan.frames);
     const std::size_t end = first + out.size();
