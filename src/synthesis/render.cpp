@@ -53,15 +53,14 @@ constexpr double neper_per_db = 1.0 / db_per_neper;
 /// The silence floor in nepers of amplitude.
 constexpr double ln_silence_amp = render_silence_level.db * neper_per_db;
 
-// The hot kernels: one body each (damped_kernels.hpp), compiled for AVX2 and for the baseline.
-WANE_KERNEL_CLONES
-void add_damped(float* __restrict out, std::size_t frames, const float* __restrict re0,
+// The hot kernels: one body each (damped_kernels.hpp), inlined into render_partials_range's clones
+// (for AVX2 and for the baseline).
+[[gnu::always_inline]] inline void add_damped(float* __restrict out, std::size_t frames, const float* __restrict re0,
                 const float* __restrict im0, float step_re, float step_im) {
     damped_kernels::add_damped_lanes(out, frames, re0, im0, step_re, step_im);
 }
 
-WANE_KERNEL_CLONES
-void add_ramped(float* __restrict out, std::size_t frames, const float* __restrict re0,
+[[gnu::always_inline]] inline void add_ramped(float* __restrict out, std::size_t frames, const float* __restrict re0,
                 const float* __restrict im0, const float* __restrict amp0, float step_re,
                 float step_im, float amp_step) {
     damped_kernels::add_ramped_lanes(out, frames, re0, im0, amp0, step_re, step_im, amp_step);
@@ -206,8 +205,7 @@ void set_lane_anchors(const span& s, double z_re, double z_im, float* re, float*
 // - remaining_rad[i]), in double. The angles' sines and cosines by sincos_poly (branch-free) into
 // sin_work and cos_work in one loop, both kept so that the compiler vectorizes it rather than
 // branching to the one polynomial a cosine needs; a 32-bit index, whose conversion vectorizes.
-WANE_KERNEL_CLONES
-void add_glide_cosines(float* __restrict out, std::size_t frames, const double* __restrict amp,
+[[gnu::always_inline]] inline void add_glide_cosines(float* __restrict out, std::size_t frames, const double* __restrict amp,
                        const double* __restrict remaining_rad, double first_cycles, double cycles_per_frame,
                        double phase_rad, double* __restrict sin_work, double* __restrict cos_work) {
     assert(frames <= render_anchor_frames);
@@ -227,13 +225,12 @@ void add_glide_cosines(float* __restrict out, std::size_t frames, const double* 
 /// relative slope x Ein'(x) / Ein(x) is under 1.3 for |x| <= ln 2), 8e-8 rad at the keys' limits
 /// (|R| <= 2 pi 24 kHz 2 s Ein(ln 2) = 2.5e5 rad) and 1e-11 rad for a 150-cent glide of 0.2 s at
 /// 1 kHz; R by glide_remaining_phases_at_decays_rad, the cosine by sincos_poly (error under 1e-15).
-void add_gliding_part(const render_plan& plan, std::size_t k, const span& s, std::size_t from,
+[[gnu::always_inline]] inline void add_gliding_part(const render_plan& plan, std::size_t k, const span& s, std::size_t from,
                       std::size_t to, std::size_t block_begin, float* block, double rate_hz) {
     assert(from < to && to - from <= render_anchor_frames);
     const std::size_t count = to - from;
-    alignas(64) std::array<double, render_anchor_frames> amp{};
-    alignas(64) std::array<double, render_anchor_frames> decay{};
-    alignas(64) std::array<double, render_anchor_frames> remaining_rad{};
+    // Work arrays, not zeroed: each of their first count values is written before it is read.
+    alignas(64) std::array<double, render_anchor_frames> amp, decay, remaining_rad;
     const double from_s = static_cast<double>(from) / rate_hz;
     double d = std::exp(-from_s / plan.glide_s[k]);
     const double d_step = std::exp(-1.0 / (rate_hz * plan.glide_s[k]));
@@ -257,7 +254,7 @@ void add_gliding_part(const render_plan& plan, std::size_t k, const span& s, std
                                          std::span<double>(remaining_rad).first(count));
     double first_cycles = static_cast<double>(from) * plan.cycles_per_frame[k];
     first_cycles -= std::floor(first_cycles);
-    alignas(64) std::array<double, render_anchor_frames> sines{};
+    alignas(64) std::array<double, render_anchor_frames> sines;
     // decay's room, no longer read, takes the cosines.
     add_glide_cosines(block + (from - block_begin), count, amp.data(), remaining_rad.data(), first_cycles,
                       plan.cycles_per_frame[k], plan.phase_rad[k], sines.data(), decay.data());
@@ -265,7 +262,7 @@ void add_gliding_part(const render_plan& plan, std::size_t k, const span& s, std
 
 /// Adds one partial's frames [from, to) (inside span s) to block (block[0] is frame block_begin).
 /// Anchors every lane from exact double values at `from`.
-void add_span_part(const render_plan& plan, std::size_t k, const span& s, std::size_t from,
+[[gnu::always_inline]] inline void add_span_part(const render_plan& plan, std::size_t k, const span& s, std::size_t from,
                    std::size_t to, std::size_t block_begin, float* block) {
     alignas(32) float re[lanes], im[lanes];
     const auto anchor = [&] { return exact_phasor(plan.cycles_per_frame[k], plan.phase_rad[k], from); };
