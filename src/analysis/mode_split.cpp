@@ -6,6 +6,7 @@
 #include <cmath>
 #include <complex>
 #include <cstring>
+#include <memory>
 #include <numeric>
 #include <optional>
 #include <vector>
@@ -306,12 +307,17 @@ mode_split_summary split_into_modes(patch& p, std::span<const float> note, doubl
     if (tried.empty()) return summary;
     std::vector<std::size_t> all(p.partials.size());
     std::iota(all.begin(), all.end(), std::size_t{0});
-    std::vector<float> residual = render_patch(some_of(p, all), partials_only(sample_rate_hz, frames));
+    // The buffers' floats are left unset: the renders write every one (the partials' renderer, render_patch's
+    // frames without noise: the same bits).
+    const auto residual_floats = std::make_unique_for_overwrite<float[]>(frames);
+    const std::span<float> residual(residual_floats.get(), frames);
+    partial_renderer(some_of(p, all), partials_only(sample_rate_hz, frames)).render(0, residual);
     for (std::size_t n = 0; n < frames; ++n) residual[n] = note[n] - residual[n];
     std::vector<partial> appended;
     // One note-long buffer besides the residual: the candidate's own render (render_patch's frames),
     // made its target (residual + own) in place, and its own render again once modes are found.
-    std::vector<float> work(frames);
+    const auto work_floats = std::make_unique_for_overwrite<float[]>(frames);
+    const std::span<float> work(work_floats.get(), frames);
     for (std::size_t k : tried) {
         const std::size_t one[] = {k};
         const partial_renderer own_of(some_of(p, one), partials_only(sample_rate_hz, frames));
