@@ -31,11 +31,12 @@
 
 #include <algorithm>
 #include <array>
-#include <bit>
 #include <cassert>
 #include <cmath>
 #include <complex>
 #include <cstdint>
+#include <cstring>
+#include <numbers>
 
 namespace wane {
 
@@ -95,17 +96,12 @@ std::size_t first_frame_at_or_after(double time_s, double rate_hz, std::size_t t
     return std::min(n, total_frames);
 }
 
-/// A partial's e^(j w l) = (cos(w l), sin(w l)), l <= lanes, w = 2 pi cycles_per_frame: every span's turns,
-/// kept per thread in a slot per hash of cycles_per_frame's bits (the analysis renders its partials again and again).
+/// A partial's e^(j w l) = (cos(w l), sin(w l)), l <= lanes, w = 2 pi cycles_per_frame: every span's turns.
 using unit_powers = std::array<std::complex<double>, lanes + 1>;
-const unit_powers& unit_powers_of(double cycles_per_frame) {
-    struct slot { std::uint64_t key = ~std::uint64_t{0}; unit_powers u; };  // a NaN's bits: empty
-    thread_local const std::unique_ptr<std::array<slot, 256>> slots = std::make_unique<std::array<slot, 256>>();
-    const auto key = std::bit_cast<std::uint64_t>(cycles_per_frame);
-    slot& s = (*slots)[(key * 0x9E3779B97F4A7C15ULL) >> 56U];  // Fibonacci hashing (2^64 / golden ratio): the top 8 bits
-    if (s.key == key) return s.u;
-    for (std::size_t l = 0; l <= lanes; ++l) s.u[l] = std::polar(1.0, two_pi * cycles_per_frame * static_cast<double>(l));
-    return s.key = key, s.u;
+unit_powers unit_powers_of(double cycles_per_frame) {
+    unit_powers u;
+    for (std::size_t l = 0; l <= lanes; ++l) u[l] = std::polar(1.0, two_pi * cycles_per_frame * static_cast<double>(l));
+    return u;
 }
 /// Exact per-frame powers m^l, l < lanes, and m^lanes in float, for a phasor turning by u and changing by
 /// ln_amp_per_frame nepers per frame: e^(ln_amp_per_frame l) u[l], the products std::polar forms (rho cos, rho sin).
@@ -159,7 +155,7 @@ render_plan make_plan(const patch& p, const render_params& params) {
         plan.glide_cents.push_back(part.glide_cents);
         plan.glide_s.push_back(part.glide_s);
         plan.span_first.push_back(plan.spans.size());
-        const unit_powers& turns = unit_powers_of(cpf);  // read before the next partial's call
+        const unit_powers turns = unit_powers_of(cpf);
 
         const std::size_t attack_end = first_frame_at_or_after(part.env.attack_s, rate, plan.frames);
         if (attack_end > 0) {
