@@ -77,7 +77,7 @@ struct early_refit_params {
     /// residual falls and the later part's does not rise by more than late_rounding of the span's
     /// signal energy.
     early_stage_params stage{};
-    double late_rounding = 1e-9;
+    double late_rounding = 1e-6;
 };
 
 struct early_refit_summary {

@@ -173,9 +173,15 @@ std::optional<std::vector<damped_mode>> modes_of_poles(std::span<const std::comp
         if (std::abs(offset_hz) > params.max_offset_hz || !(decay > ln1000 / longest_t60_s)) return std::nullopt;
         out.push_back({.freq_hz = freq_hz + offset_hz, .decay_per_s = decay, .amp = {}});
     }
+    // A mode shorter than min_separation_t60_s is down 60 * 0.1 / T60 dB (20 at 0.3 s) where the
+    // pitch is read (0.1-1.1 s) and its frequency is unsure by more than the separation (its band
+    // is decay / pi Hz wide): no pair with it counts; check_modes still weighs it as heard.
+    const double lasting_decay_per_s = ln1000 / params.min_separation_t60_s;
     for (std::size_t i = 0; i < out.size(); ++i)
         for (std::size_t j = 0; j < i; ++j)
-            if (std::abs(out[i].freq_hz - out[j].freq_hz) < params.min_separation_hz) return std::nullopt;
+            if (std::abs(out[i].freq_hz - out[j].freq_hz) < params.min_separation_hz &&
+                out[i].decay_per_s < lasting_decay_per_s && out[j].decay_per_s < lasting_decay_per_s)
+                return std::nullopt;
     return out;
 }
 

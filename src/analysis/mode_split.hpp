@@ -50,6 +50,10 @@ struct mode_split_params {
     /// scales), so an instrument made from the patch would play out of tune by a cent or more
     /// (tests/cli/pitch_check.py); pairs that close are left to --split-pairs.
     double min_separation_hz = 2.0;
+    /// ... for two modes both with a T60 over this (s): a shorter one has fallen 20 dB by 0.1 s and
+    /// its pole's frequency is unsure by several Hz (marimba_fs4's 370 Hz fundamental: a 0.13 s
+    /// mode at 367.0 Hz, at 368.2 Hz with the recording one sample later, split refused there).
+    double min_separation_t60_s = 0.3;
     /// The mode with the most energy over 0.1-1.1 s lies within this of the partial's frequency
     /// (cents): the partial was placed at the recording's long-spectrum peak over that span
     /// (analysis/heard_peaks.hpp), the pitch an instrument made from the patch is tuned by.
