@@ -96,7 +96,7 @@ TEST_CASE("a note shorter than the span the modes need is left alone", "[mode_sp
     CHECK(p == before);
 }
 
-TEST_CASE("a short companion closer than min_separation_hz is split off; with every pair held apart it is not",
+TEST_CASE("a short companion closer than min_separation_hz is split off, and not when every pair is held apart",
           "[mode_split]") {
     // A struck bar's fundamental with a mode that dies within 0.15 s, 1.2-1.6 Hz away: the pole of
     // a mode that short is unsure by more than the separation, and it is gone where the pitch is read.
