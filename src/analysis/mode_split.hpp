@@ -15,7 +15,8 @@
 // are fitted by least squares on the target at the full rate over the whole note
 // (modes/damped_mode.hpp). The order chosen has the least BIC (bic_factor times the usual
 // penalty) of the band's residual, among the orders whose modes lie within max_offset_hz of f and
-// at least min_separation_hz apart, whose mode heard most over 0.1-1.1 s stays within
+// at least min_separation_hz apart (a pair where both last over min_separation_t60_s), whose
+// mode heard most over 0.1-1.1 s stays within
 // max_heard_shift_cents of f (every other mode within twice min_separation_hz of that one heard
 // min_heard_margin_db less), that decay (T60 under 60 s) and are tame (none louder than the partial's loudest sample by
 // max_rise_db: louder ones cancel each other, an ill-conditioned fit).
