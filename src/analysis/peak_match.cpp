@@ -7,6 +7,7 @@
 #include <cstdint>
 #include <optional>
 #include <span>
+#include <utility>
 #include <vector>
 
 #include "core/patch_numbers.hpp"
@@ -111,14 +112,91 @@ std::vector<float> draw_peaks(const patch& q, double rate, std::span<const std::
 /// default draw's peak: most draws peak there, and a draw that does not is rendered again further.
 constexpr double first_reach_db = 1.0;
 
-/// The median over the draws of the peak (dB) of q rendered at rate (q.note.gain_db = 0).
+/// The expected gain (match_copy_peak: the one nearest 0 within peak_tolerance_db of target_db,
+/// at most max_peak_raise_db) for an expected peak of expected_db; nullopt where that is not
+/// finite. It never rises as expected_db does (each step rounds monotonically), so where it is
+/// the same at both ends of a range of expected peaks it is that gain over the whole range.
+std::optional<double> gain_for_peak_db(double target_db, double expected_db) {
+    if (!std::isfinite(expected_db)) return std::nullopt;
+    const double to_target_db = target_db - expected_db;
+    return std::min(std::clamp(0.0, to_target_db - peak_tolerance_db, to_target_db + peak_tolerance_db), max_peak_raise_db);
+}
+
+/// The quiet bands' bound may add this share of the default draw's peak at most (0.01 dB; only
+/// the cost depends on it: bands over it are rendered with the loud ones).
+constexpr double quiet_share = 1e-2;
+/// How far (relative to the most a render reaches, most_lin) a draw's sample summed with its loud
+/// bands alone may round otherwise than with every band: each of the at most max_noise_bands + 1
+/// float additions rounds by at most 2^-24 of a running sum under most_lin, 6.1e-5 in all (a
+/// bound over it; only the cost depends on it, through how often the loud bands settle the gain).
+constexpr double sum_rounding = 1e-4;
+/// A margin (dB) on either side of a range of peaks before gain_for_peak_db is read at its ends:
+/// far over the rounding of a level's log10, so the ends keep the peaks' order.
+constexpr double settle_margin_db = 1e-9;
+
+/// The median of values (odd count: one of them).
+double median_of(std::vector<double> values) {
+    const auto mid = values.begin() + static_cast<std::ptrdiff_t>(values.size() / 2);
+    std::nth_element(values.begin(), mid, values.end());
+    return *mid;
+}
+
+/// The expected gain from the draws rendered with their loud bands only, where that settles it:
+/// a draw's peak over [0, span) (what expected_gain_db's reaches give, the bound holding) lies
+/// within the quiet bands' bound of its loud bands' peak (each band its own stream: the loud ones
+/// play as in the whole draw; render_bound_margin covers the sums' rounding), and past
+/// first_reach under past_lin; the median of the draws' lowest and of their highest peaks, the
+/// default draw's own among them, then bracket the draws' median. Nullopt where the gain differs
+/// across that range (then every band is rendered).
+std::optional<double> settled_by_loud_bands(const patch& q, double rate, const default_peak& def, std::span<const std::uint64_t> seeds,
+                                            const draw_partials& partials, std::size_t span, std::size_t first_reach,
+                                            double past_lin, double most_lin, double target_db) {
+    // Each band's bound over the span alone; the quietest ones while their sum stays under quiet_share.
+    std::vector<std::pair<double, std::size_t>> band_bounds;
+    for (std::size_t b = 0; b < q.noise.size(); ++b) {
+        patch one = q;
+        one.partials.clear();
+        one.noise = {q.noise[b]};
+        band_bounds.emplace_back(render_bound(one, {.sample_rate_hz = rate}).noise_over(0, span), b);
+    }
+    std::sort(band_bounds.begin(), band_bounds.end());
+    const double allowed = quiet_share * to_amp(level_db{def.peak_db}).lin;
+    double quiet_lin = 0.0;
+    std::size_t quiet = 0;
+    while (quiet < band_bounds.size() && quiet_lin + band_bounds[quiet].first <= allowed) quiet_lin += band_bounds[quiet++].first;
+    if (quiet == 0) return std::nullopt;  // nothing to leave out: the draws as they are
+    patch loud = q;
+    loud.noise.clear();
+    std::vector<std::size_t> kept;
+    for (std::size_t k = quiet; k < band_bounds.size(); ++k) kept.push_back(band_bounds[k].second);
+    std::sort(kept.begin(), kept.end());  // the patch's order
+    for (const std::size_t b : kept) loud.noise.push_back(q.noise[b]);
+    const std::vector<float> peaks = draw_peaks(loud, rate, seeds, partials, def.frames, first_reach);
+    std::vector<double> low_db{def.peak_db};
+    std::vector<double> high_db{def.peak_db};
+    // The two sums of a sample differ by the quiet bands and by their rounding (sum_rounding).
+    const double rounding_lin = sum_rounding * most_lin;
+    for (const float peak : peaks) {
+        const double low_lin = static_cast<double>(peak) - quiet_lin - rounding_lin;
+        const double high_lin = std::max(static_cast<double>(peak) + quiet_lin + rounding_lin, past_lin);
+        low_db.push_back(low_lin > 0.0 ? to_level(amp_lin{low_lin}).db : -infinity);
+        high_db.push_back(to_level(amp_lin{high_lin}).db);
+    }
+    const std::optional<double> low_gain = gain_for_peak_db(target_db, median_of(low_db) - settle_margin_db);
+    const std::optional<double> high_gain = gain_for_peak_db(target_db, median_of(high_db) + settle_margin_db);
+    if (low_gain && high_gain && *low_gain == *high_gain) return low_gain;
+    return std::nullopt;
+}
+
+/// The expected gain (gain_for_peak_db) of the median over the draws of the peak (dB) of q
+/// rendered at rate (q.note.gain_db = 0); nullopt when that peak is not finite.
 /// def: of q's render at rate with the default seed (the full render, not repeated; its kept partials are
 /// the draws'); bound: of q's render at rate.
-double expected_peak_db(const patch& q, double rate, const default_peak& def, const render_bound& bound,
-                        const peak_match_params& params) {
+std::optional<double> expected_gain_db(const patch& q, double rate, const default_peak& def, const render_bound& bound,
+                                       double target_db, const peak_match_params& params) {
     assert(params.draws >= 1);
     const double default_db = def.peak_db;
-    if (q.noise.empty()) return default_db;
+    if (q.noise.empty()) return gain_for_peak_db(target_db, default_db);
     // Other draws peak where the default one comes within peak_window_db of its peak (a draw
     // would have to add that much more there): the partials and the draws over that span only.
     const draw_partials partials_of(q, rate, def.partials);
@@ -149,6 +227,15 @@ double expected_peak_db(const patch& q, double rate, const default_peak& def, co
     }
     const double first_level = std::max(blocks.least_peak, to_amp(level_db{default_db - first_reach_db}).lin);
     const std::size_t first_reach = std::min(span, blocks.frames_reaching(first_level / render_bound_margin));
+    if (params.settle_by_bound && !seeds.empty() && !blocks.most.empty()) {
+        // The most any draw reaches past first_reach (blocks up to span only: the draws are read there).
+        double past_lin = 0.0;
+        for (std::size_t b = (first_reach + render_anchor_frames - 1) / render_anchor_frames; b < blocks.most.size(); ++b)
+            past_lin = std::max(past_lin, blocks.most[b] * render_bound_margin);
+        const double most_lin = *std::max_element(blocks.most.begin(), blocks.most.end()) * render_bound_margin;
+        if (const auto gain = settled_by_loud_bands(q, rate, def, seeds, partials_of, span, first_reach, past_lin, most_lin, target_db))
+            return gain;
+    }
     std::vector<float> peaks = draw_peaks(q, rate, seeds, partials_of, frames, first_reach);
     const float lowest = peaks.empty() ? 0.0f : *std::min_element(peaks.begin(), peaks.end());
     if (static_cast<double>(lowest) < first_level / render_bound_margin) {
@@ -157,9 +244,7 @@ double expected_peak_db(const patch& q, double rate, const default_peak& def, co
         if (reach > first_reach) peaks = draw_peaks(q, rate, seeds, partials_of, frames, reach);
     }
     for (const float peak : peaks) peaks_db.push_back(to_level(amp_lin{static_cast<double>(peak)}).db);
-    const auto mid = peaks_db.begin() + static_cast<std::ptrdiff_t>(peaks_db.size() / 2);
-    std::nth_element(peaks_db.begin(), mid, peaks_db.end());
-    return *mid;
+    return gain_for_peak_db(target_db, median_of(peaks_db));
 }
 
 /// The patch as the file keeps it (numbers rounded: a copy within 0.1 dB of full scale can move
@@ -223,13 +308,12 @@ peak_match_result match_copy_peak(const patch& p, std::span<const float> note, d
     const render_bound output_bound(q, {.sample_rate_hz = default_output_rate_hz});
     const default_renders d = render_default(q, sample_rate_hz, output_bound, params);
     // The draws at the default output rate: no rate conversion, and the rate a copy plays at.
-    const double expected_db = expected_peak_db(q, default_output_rate_hz, d.output, output_bound, params);
-    if (!std::isfinite(expected_db)) return {};
-    peak_match_result r;
     // The fitted level (gain 0) unless the expected peak lies more than the tolerance off.
-    const double to_target_db = target_db - expected_db;
-    r.expected_gain_db = std::min(std::clamp(0.0, to_target_db - peak_tolerance_db, to_target_db + peak_tolerance_db),
-                                  max_peak_raise_db);
+    const std::optional<double> expected_gain =
+        expected_gain_db(q, default_output_rate_hz, d.output, output_bound, target_db, params);
+    if (!expected_gain) return {};
+    peak_match_result r;
+    r.expected_gain_db = *expected_gain;
     // A quiet default draw: its render still peaks within max_default_peak_miss_db of the
     // recording (which may peak over the target).
     const double lowest_db = std::isfinite(d.source_db)

@@ -49,6 +49,11 @@ struct peak_match_params {
     /// The seed of the render that must stay under full scale: the default render's (render_params
     /// and `wane render --seed` default to 1).
     std::uint64_t default_seed = 1;
+    /// The other draws are rendered first with their loud bands only, the quiet ones' bound
+    /// (synthesis/render_bound) standing for them, and in full only where that leaves the
+    /// expected gain open: the same gain as the full draws'. Off: always in full (the tests'
+    /// reference).
+    bool settle_by_bound = true;
 };
 
 /// Draws peak only where the default draw comes within this of its own peak (dB), and up to

@@ -126,6 +126,28 @@ TEST_CASE("the expected peak is the draws' median also where draws peak late and
     CHECK(std::abs(r.expected_gain_db - want_db) < 0.001);
 }
 
+TEST_CASE("draws first rendered with their loud bands alone give the gain of draws rendered with every band",
+          "[peak_match]") {
+    // Four loud bands and quiet ones (-95 dB: their bound stands for them), the recording's peak
+    // on either side of both tolerance edges, down to 0.005 dB from them (where the quiet bands'
+    // bound leaves the gain open and every band must be rendered), and well inside.
+    patch p = string_copy(-9.0, -21.0);
+    for (std::size_t b = 4; b < p.noise.size(); ++b) p.noise[b].env.peak = level_db{-95.0};
+    const double rate_hz = GENERATE(44100.0, 48000.0);
+    const double median_db = median(draw_peaks_db(p, default_output_rate_hz, 1, 9));
+    const double offset_db = GENERATE(-0.8, -0.505, -0.495, -0.2, 0.0, 0.3, 0.495, 0.505, 0.8);
+    const auto peak_lin = static_cast<float>(std::pow(10.0, (median_db + offset_db) / 20.0));
+    const std::vector<float> note = recording(rate_hz, peak_lin);
+    const peak_match_result settled = match_copy_peak(p, note, rate_hz, {.settle_by_bound = true});
+    const peak_match_result full = match_copy_peak(p, note, rate_hz, {.settle_by_bound = false});
+    const double want_db = std::clamp(0.0, offset_db - peak_tolerance_db, offset_db + peak_tolerance_db);
+    CAPTURE(rate_hz, median_db, offset_db, settled.expected_gain_db, full.expected_gain_db, want_db);
+    CHECK(settled.expected_gain_db == full.expected_gain_db);
+    CHECK(settled.gain_db == full.gain_db);
+    CHECK(settled.held_down_db == full.held_down_db);
+    CHECK(std::abs(full.expected_gain_db - want_db) < 0.001);
+}
+
 TEST_CASE("the partials' gain does not follow one noise draw", "[peak_match]") {
     // Disjoint sets of draws give nearly the same gain, where single draws spread by a dB or
     // more: the median of 9 spreads about a third as much (0.52 against 1.56 dB here).
