@@ -76,9 +76,10 @@ private:
 /// remade from the draws' seeds: add_noise_band_draws_part, bit for bit the whole render's).
 constexpr std::size_t draw_stretch_frames = 128 * render_anchor_frames;
 
-/// The peaks (|sample|) of the draws of seeds, each render of q at rate (partials: its partials,
-/// frames: the render's length) over frames [0, reach) only, a stretch at a time.
-std::vector<float> draw_peaks(const patch& q, double rate, std::span<const std::uint64_t> seeds,
+/// The peaks (|sample|) of the draws of seeds, each render at rate of partials and of bands (a
+/// patch's, or some of them; frames: the render's length) over frames [0, reach) only, a stretch
+/// at a time.
+std::vector<float> draw_peaks(std::span<const noise_band> bands, double rate, std::span<const std::uint64_t> seeds,
                               const draw_partials& partials, std::size_t frames, std::size_t reach) {
     const auto fade_from = frames - std::min(frames, static_cast<std::size_t>(std::llround(end_fade_s * rate)));
     std::vector<float> peaks(seeds.size(), 0.0f);
@@ -93,7 +94,7 @@ std::vector<float> draw_peaks(const patch& q, double rate, std::span<const std::
         std::vector<std::span<float>> outs;
         for (std::size_t d = 0; d < seeds.size(); ++d) outs.emplace_back(noise.data() + d * stretch, size);
         // The draws as renders of reach frames (add_noise_band_draws: each as its own render would be).
-        add_noise_band_draws_part(q.noise, {.sample_rate_hz = rate, .gain_db = 0.0}, seeds, reach, first, outs);
+        add_noise_band_draws_part(bands, {.sample_rate_hz = rate, .gain_db = 0.0}, seeds, reach, first, outs);
         for (std::size_t d = 0; d < seeds.size(); ++d) {
             float peak = peaks[d];
             for (std::size_t i = 0; i < size; ++i) {
@@ -153,10 +154,10 @@ std::optional<double> settled_by_loud_bands(const patch& q, double rate, const d
                                             double past_lin, double most_lin, double target_db) {
     // Each band's bound over the span alone; the quietest ones while their sum stays under quiet_share.
     std::vector<std::pair<double, std::size_t>> band_bounds;
+    patch one;  // q's note with one band at a time
+    one.note = q.note;
     for (std::size_t b = 0; b < q.noise.size(); ++b) {
-        patch one = q;
-        one.partials.clear();
-        one.noise = {q.noise[b]};
+        one.noise.assign(1, q.noise[b]);
         band_bounds.emplace_back(render_bound(one, {.sample_rate_hz = rate}).noise_over(0, span), b);
     }
     std::sort(band_bounds.begin(), band_bounds.end());
@@ -165,12 +166,11 @@ std::optional<double> settled_by_loud_bands(const patch& q, double rate, const d
     std::size_t quiet = 0;
     while (quiet < band_bounds.size() && quiet_lin + band_bounds[quiet].first <= allowed) quiet_lin += band_bounds[quiet++].first;
     if (quiet == 0) return std::nullopt;  // nothing to leave out: the draws as they are
-    patch loud = q;
-    loud.noise.clear();
     std::vector<std::size_t> kept;
     for (std::size_t k = quiet; k < band_bounds.size(); ++k) kept.push_back(band_bounds[k].second);
     std::sort(kept.begin(), kept.end());  // the patch's order
-    for (const std::size_t b : kept) loud.noise.push_back(q.noise[b]);
+    std::vector<noise_band> loud;
+    for (const std::size_t b : kept) loud.push_back(q.noise[b]);
     const std::vector<float> peaks = draw_peaks(loud, rate, seeds, partials, def.frames, first_reach);
     std::vector<double> low_db{def.peak_db};
     std::vector<double> high_db{def.peak_db};
@@ -236,12 +236,12 @@ std::optional<double> expected_gain_db(const patch& q, double rate, const defaul
         if (const auto gain = settled_by_loud_bands(q, rate, def, seeds, partials_of, span, first_reach, past_lin, most_lin, target_db))
             return gain;
     }
-    std::vector<float> peaks = draw_peaks(q, rate, seeds, partials_of, frames, first_reach);
+    std::vector<float> peaks = draw_peaks(q.noise, rate, seeds, partials_of, frames, first_reach);
     const float lowest = peaks.empty() ? 0.0f : *std::min_element(peaks.begin(), peaks.end());
     if (static_cast<double>(lowest) < first_level / render_bound_margin) {
         const double level = std::max(blocks.least_peak, static_cast<double>(lowest));
         const std::size_t reach = std::min(span, blocks.frames_reaching(level / render_bound_margin));
-        if (reach > first_reach) peaks = draw_peaks(q, rate, seeds, partials_of, frames, reach);
+        if (reach > first_reach) peaks = draw_peaks(q.noise, rate, seeds, partials_of, frames, reach);
     }
     for (const float peak : peaks) peaks_db.push_back(to_level(amp_lin{static_cast<double>(peak)}).db);
     return gain_for_peak_db(target_db, median_of(peaks_db));
