@@ -173,11 +173,12 @@ std::optional<double> settled_by_loud_bands(const patch& q, double rate, const d
     // and held-out notes, which left out 26% of their bands: about as much lost as saved). With
     // half the bands or more left out: 6 tries there, 5 settled.
     if (quiet == 0 || quiet * least_quiet_share_inverse < band_bounds.size()) return std::nullopt;
-    std::vector<std::size_t> kept;
-    for (std::size_t k = quiet; k < band_bounds.size(); ++k) kept.push_back(band_bounds[k].second);
-    std::sort(kept.begin(), kept.end());  // the patch's order
-    std::vector<noise_band> loud;
-    for (const std::size_t b : kept) loud.push_back(q.noise[b]);
+    std::vector<bool> is_loud(q.noise.size(), false);
+    for (std::size_t k = quiet; k < band_bounds.size(); ++k) is_loud[band_bounds[k].second] = true;
+    std::vector<noise_band> loud;  // in the patch's order
+    loud.reserve(band_bounds.size() - quiet);
+    for (std::size_t b = 0; b < q.noise.size(); ++b)
+        if (is_loud[b]) loud.push_back(q.noise[b]);
     const std::vector<float> peaks = draw_peaks(loud, rate, seeds, partials, def.frames, first_reach);
     std::vector<double> low_db{def.peak_db};
     std::vector<double> high_db{def.peak_db};
