@@ -2,9 +2,11 @@
 
 #include <algorithm>
 #include <array>
+#include <bit>
 #include <cassert>
 #include <cmath>
 #include <complex>
+#include <cstdint>
 #include <functional>
 #include <optional>
 #include <span>
@@ -148,13 +150,29 @@ double energy_of(std::span<const float> x) {
     return e;
 }
 
+/// The Gram sums of a mode Re(amp a[n] exp(i omega n)) with shape a, in closed form.
+attack_gram_memo::sums gram_sums(const mode_shape& a, double omega) {
+    return {.s_pq = shape_pair_sum(a, a, {0.0, 2.0 * omega}), .s_pcq = shape_pair_sum(a, a, {0.0, 0.0}).real()};
+}
+
+/// gram_sums of the shape of choice c, attack_shape(c, rho, count), from the memo when it holds
+/// them (then kept there when computed).
+attack_gram_memo::sums gram_sums_of(const attack_choice& c, double omega, double rho, std::size_t count, attack_gram_memo* memo) {
+    if (memo == nullptr) return gram_sums(attack_shape(c, rho, count), omega);
+    const auto key = std::tuple(std::bit_cast<std::uint64_t>(omega), std::bit_cast<std::uint64_t>(rho), count, c.rise_n,
+                                std::bit_cast<std::uint64_t>(c.start_ratio));
+    const auto it = memo->kept.find(key);
+    if (it != memo->kept.end()) return it->second;
+    return memo->kept.emplace(key, gram_sums(attack_shape(c, rho, count), omega)).first->second;
+}
+
 /// The least-squares fit of one mode Re(amp a[n] exp(i omega n)) with shape a to a signal whose
 /// projection on the mode is acc = sum x[n] a[n] exp(i omega n): the 2 x 2 normal equations of
 /// (Re amp, Im amp), as in fit_shaped_amplitudes (modes/damped_mode.cpp), with the shape's Gram
-/// sums in closed form. Returns the energy the mode explains (theta . rhs) and sets amp.
-double fit_one(const mode_shape& a, double omega, std::complex<double> acc, std::complex<double>& amp) {
-    const std::complex<double> s_pq = shape_pair_sum(a, a, {0.0, 2.0 * omega});
-    const double s_pcq = shape_pair_sum(a, a, {0.0, 0.0}).real();
+/// sums g (gram_sums). Returns the energy the mode explains (theta . rhs) and sets amp.
+double fit_one(const attack_gram_memo::sums& g, std::complex<double> acc, std::complex<double>& amp) {
+    const std::complex<double> s_pq = g.s_pq;
+    const double s_pcq = g.s_pcq;
     const double uu = 0.5 * (s_pq.real() + s_pcq), vv = 0.5 * (s_pcq - s_pq.real());
     const double uv = -0.5 * s_pq.imag();  // Gram entry of (Re, Im): -sum Re p Im p
     const double r0 = acc.real(), r1 = -acc.imag();
@@ -249,6 +267,7 @@ struct rise_search {
     std::size_t count = 0;
     std::span<const std::complex<double>> demod;
     std::span<const std::complex<double>> tail_sum;
+    attack_gram_memo* memo = nullptr;
 };
 
 /// Tries the instant starts at each of start_ratios (in that order; all positive) that rise over
@@ -270,7 +289,7 @@ void consider_rises(const rise_search& s, std::size_t n_rise, std::span<const do
             const attack_choice c{.rise_n = n_rise, .start_ratio = start_ratios[first + l]};
             if (c == current) continue;
             std::complex<double> amp;
-            const double e = fit_one(shapes[l], s.omega, acc[l], amp);
+            const double e = fit_one(gram_sums_of(c, s.omega, s.rho, s.count, s.memo), acc[l], amp);
             if (e > best) best = e, best_c = c;
         }
     }
@@ -300,7 +319,8 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
                                           std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
                                           std::span<const double> energy, std::span<const std::size_t> may_rise,
                                           std::span<const std::size_t> may_swell, std::span<const attack_choice> current,
-                                          const onset_attack_params& params, std::span<const double> joint) {
+                                          const onset_attack_params& params, std::span<const double> joint,
+                                          attack_gram_memo* memo) {
     assert(shapes.size() == modes.size() && current.size() == modes.size() && energy.size() == modes.size());
     assert(joint.empty() || joint.size() == target.size());
     const std::size_t count = target.size();
@@ -336,16 +356,15 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
         projection_sums(demod, rho, ramp_n, ramp_sum, tail_sum);
         // An instant start that rises: its projection sum a[n] q[n] directly, O(count) per choice.
         const auto explained = [&](const attack_choice& c, std::complex<double>& amp) {
-            const mode_shape shape = attack_shape(c, rho, count);
             std::complex<double> acc;
             if (c.start_ratio > 0.0 && c.rise_n > 0) {
-                acc = rising_projection(shape, std::min(c.rise_n, count), demod, tail_sum);
+                acc = rising_projection(attack_shape(c, rho, count), std::min(c.rise_n, count), demod, tail_sum);
             } else {
                 assert(c.rise_n <= ramp_n);
                 acc = (c.rise_n == 0 ? std::complex<double>{} : ramp_sum[c.rise_n] / static_cast<double>(c.rise_n)) +
                       tail_sum[c.rise_n];
             }
-            return fit_one(shape, omega, acc, amp);
+            return fit_one(gram_sums_of(c, omega, rho, count, memo), acc, amp);
         };
         // The current choice first: another must explain min_gain_share of the signal more.
         std::complex<double> amp;
@@ -370,7 +389,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
             for (const double t : params.rise_grid_s) {
                 const auto n_rise = static_cast<std::size_t>(std::llround(t * sample_rate_hz));
                 if (n_rise < static_cast<std::size_t>(rise_segments) || n_rise >= count) continue;
-                const rise_search search{.omega = omega, .rho = rho, .count = count, .demod = demod, .tail_sum = tail_sum};
+                const rise_search search{.omega = omega, .rho = rho, .count = count, .demod = demod, .tail_sum = tail_sum, .memo = memo};
                 consider_rises(search, n_rise, params.start_ratios, chosen[i], best, best_c);
             }
             if (!(best_c == plain_c) && best > plain + params.min_gain_share * signal) chosen[i] = best_c;
