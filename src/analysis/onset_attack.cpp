@@ -7,6 +7,7 @@
 #include <cmath>
 #include <complex>
 #include <cstdint>
+#include <cstring>
 #include <functional>
 #include <optional>
 #include <span>
@@ -189,14 +190,33 @@ double fit_one(const attack_gram_memo::sums& g, std::complex<double> acc, std::c
 /// From q[n] = x[n] exp(i omega n) in demod (count values, add_mode's with demod), the prefix sums
 /// of n q[n] into ramp_sum[0 .. ramp_count] (the longest linear attack asked for; ramp_sum[0] = 0
 /// kept) and the suffix sums t[T] = q[T] + exp(rho) t[T + 1] into tail_sum (count + 1).
+/// The values are std::complex's sums and products (ramp_sum[n] + n q[n], q[n] + exp(rho) t[n + 1]),
+/// each complex as two doubles side by side (a GCC/Clang vector: the real and imaginary parts'
+/// products and sums, the same bits).
 void projection_sums(std::span<const std::complex<double>> demod, double rho, std::size_t ramp_count,
                      std::vector<std::complex<double>>& ramp_sum, std::vector<std::complex<double>>& tail_sum) {
     const std::size_t count = demod.size();
-    assert(ramp_count <= count && ramp_sum.size() > ramp_count);
-    for (std::size_t n = 0; n < ramp_count; ++n) ramp_sum[n + 1] = ramp_sum[n] + static_cast<double>(n) * demod[n];
+    assert(ramp_count <= count && ramp_sum.size() > ramp_count && tail_sum.size() > count);
+    const auto* q = reinterpret_cast<const char*>(demod.data());  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): std::complex's array layout
+    auto* ramp = reinterpret_cast<char*>(ramp_sum.data());        // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): the same
+    auto* tail = reinterpret_cast<char*>(tail_sum.data());        // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): the same
+    constexpr std::size_t bytes = sizeof(two_lanes);
+    static_assert(sizeof(std::complex<double>) == bytes);
+    two_lanes acc, qn;
+    std::memcpy(&acc, ramp, bytes);
+    for (std::size_t n = 0; n < ramp_count; ++n) {
+        std::memcpy(&qn, q + n * bytes, bytes);
+        acc = acc + static_cast<double>(n) * qn;
+        std::memcpy(ramp + (n + 1) * bytes, &acc, bytes);
+    }
     const double step = std::exp(rho);
-    tail_sum[count] = {};
-    for (std::size_t n = count; n-- > 0;) tail_sum[n] = demod[n] + step * tail_sum[n + 1];
+    two_lanes t{};
+    std::memcpy(tail + count * bytes, &t, bytes);
+    for (std::size_t n = count; n-- > 0;) {
+        std::memcpy(&qn, q + n * bytes, bytes);
+        t = qn + step * t;
+        std::memcpy(tail + n * bytes, &t, bytes);
+    }
 }
 
 /// Shapes of rises evaluated side by side (rising_projections).
