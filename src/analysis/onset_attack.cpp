@@ -95,17 +95,21 @@ template <int L, bool Demodulate>
         pr[l] = p.real(), pi_[l] = p.imag();
         if (plain) s[l] = 1.0 * std::exp(rho * start);
     }
+    double* const sums = out.data();
+    std::complex<double>* const demod_at = Demodulate ? demod->data() : nullptr;
     for (std::size_t t = 0; t < length; ++t) {
         if (!plain)
             for (int l = 0; l < L; ++l) s[l] = samples[at[static_cast<std::size_t>(l)] + t];
         const lanes term = sign * s * (amp.real() * pr - amp.imag() * pi_);
         if (plain) s *= ratio;
-        for (int l = 0; l < L; ++l) out[at[static_cast<std::size_t>(l)] + t] += term[l];
+        // out[n] += term, the L sums side by side (each the one addition out[n] + term).
+        lanes v{};
+        for (int l = 0; l < L; ++l) v[l] = sums[at[static_cast<std::size_t>(l)] + t];
+        v += term;
+        for (int l = 0; l < L; ++l) sums[at[static_cast<std::size_t>(l)] + t] = v[l];
         if constexpr (Demodulate) {
-            for (int l = 0; l < L; ++l) {
-                const double v = out[at[static_cast<std::size_t>(l)] + t];
-                (*demod)[at[static_cast<std::size_t>(l)] + t] = {v * pr[l], v * pi_[l]};
-            }
+            const lanes re = v * pr, im = v * pi_;
+            for (int l = 0; l < L; ++l) demod_at[at[static_cast<std::size_t>(l)] + t] = {re[l], im[l]};
         }
         const lanes next_r = pr * z.real() - pi_ * z.imag();
         pi_ = pr * z.imag() + pi_ * z.real();
@@ -360,8 +364,10 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
     // The linear attacks tried (below): their lengths bound the prefix sums needed.
     const std::vector<std::size_t> attack_ns = linear_attacks(params, sample_rate_hz, count);
     const std::size_t longest_attack = attack_ns.empty() ? 0 : *std::max_element(attack_ns.begin(), attack_ns.end());
-    for (std::size_t r = 0; r < order.size() && r < params.max_partials; ++r) {
-        if (order[r].first < floor_energy) break;
+    // The partials searched: the strongest max_partials within range_db of the strongest.
+    std::size_t searched = 0;
+    while (searched < order.size() && searched < params.max_partials && !(order[searched].first < floor_energy)) ++searched;
+    for (std::size_t r = 0; r < searched; ++r) {
         const std::size_t i = order[r].second;
         add_mode(modes[i], shapes[i], sample_rate_hz, 1.0, residual, scratch, &demod);  // and q[n] below
         // With q[n] = residual[n] exp(i omega n), the projection on the rise over T samples then
@@ -414,6 +420,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
             }
             if (!(best_c == plain_c) && best > plain + params.min_gain_share * signal) chosen[i] = best_c;
         }
+        if (r + 1 == searched) break;  // the residual is for the partials after this one
         damped_mode refit = modes[i];
         explained(chosen[i], refit.amp);
         add_mode(refit, attack_shape(chosen[i], rho, count), sample_rate_hz, -1.0, residual, scratch);
