@@ -329,6 +329,20 @@ std::vector<std::size_t> linear_attacks(const onset_attack_params& params, doubl
     return out;
 }
 
+/// The modes of may_rise searched (with their energy over the span), the strongest first: at most
+/// max_partials, those within range_db of the strongest. may_rise not empty.
+std::vector<std::pair<double, std::size_t>> searched_order(std::span<const double> energy, std::span<const std::size_t> may_rise,
+                                                          const onset_attack_params& params) {
+    std::vector<std::pair<double, std::size_t>> order;
+    for (const std::size_t i : may_rise) order.emplace_back(energy[i], i);
+    std::sort(order.begin(), order.end(), std::greater<>());
+    const double floor_energy = order.front().first * std::pow(10.0, -params.range_db / 10.0);
+    std::size_t searched = 0;
+    while (searched < order.size() && searched < params.max_partials && !(order[searched].first < floor_energy)) ++searched;
+    order.resize(searched);
+    return order;
+}
+
 }  // namespace
 
 std::vector<double> joint_residual(std::span<const float> target, double sample_rate_hz,
@@ -355,19 +369,12 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
     std::vector<double> residual = joint.empty() ? joint_residual(target, sample_rate_hz, modes, shapes)
                                                  : std::vector<double>(joint.begin(), joint.end());
     std::vector<double> scratch;
-    // The searched modes by their energy over the span, the strongest first.
-    std::vector<std::pair<double, std::size_t>> order;
-    for (const std::size_t i : may_rise) order.emplace_back(energy[i], i);
-    std::sort(order.begin(), order.end(), std::greater<>());
-    const double floor_energy = order.front().first * std::pow(10.0, -params.range_db / 10.0);
+    const std::vector<std::pair<double, std::size_t>> order = searched_order(energy, may_rise, params);
     std::vector<std::complex<double>> demod(count), ramp_sum(count + 1), tail_sum(count + 1);
     // The linear attacks tried (below): their lengths bound the prefix sums needed.
     const std::vector<std::size_t> attack_ns = linear_attacks(params, sample_rate_hz, count);
     const std::size_t longest_attack = attack_ns.empty() ? 0 : *std::max_element(attack_ns.begin(), attack_ns.end());
-    // The partials searched: the strongest max_partials within range_db of the strongest.
-    std::size_t searched = 0;
-    while (searched < order.size() && searched < params.max_partials && !(order[searched].first < floor_energy)) ++searched;
-    for (std::size_t r = 0; r < searched; ++r) {
+    for (std::size_t r = 0; r < order.size(); ++r) {
         const std::size_t i = order[r].second;
         add_mode(modes[i], shapes[i], sample_rate_hz, 1.0, residual, scratch, &demod);  // and q[n] below
         // With q[n] = residual[n] exp(i omega n), the projection on the rise over T samples then
@@ -420,7 +427,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
             }
             if (!(best_c == plain_c) && best > plain + params.min_gain_share * signal) chosen[i] = best_c;
         }
-        if (r + 1 == searched) break;  // the residual is for the partials after this one
+        if (r + 1 == order.size()) break;  // the residual is for the partials after this one
         damped_mode refit = modes[i];
         explained(chosen[i], refit.amp);
         add_mode(refit, attack_shape(chosen[i], rho, count), sample_rate_hz, -1.0, residual, scratch);

@@ -371,7 +371,6 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
     if (fit_n < 64 || p.partials.empty()) return summary;
     // Modes closer than this cannot be told apart on the span (one Fourier resolution cell).
     const double cluster_hz = sample_rate_hz / static_cast<double>(fit_n);
-
     const subband_mode_params& sub = params.subbands;
     const subband_signals signals = make_subband_signals(note, sample_rate_hz, sub);
     const std::vector<damped_mode> found = subband_modes(signals, sub, sub.span_s);
