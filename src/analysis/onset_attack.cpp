@@ -15,6 +15,7 @@
 #include <utility>
 
 #include "core/units.hpp"
+#include "analysis/attack_walk.hpp"
 #include "modes/mode_residual.hpp"
 #include "synthesis/kernel_clones.hpp"
 
@@ -53,101 +54,8 @@ mode_shape attack_shape(const attack_choice& choice, double rho, std::size_t cou
 
 namespace {
 
-/// rho of a shape that is one plain exponential exp(rho n) over [0, count) (empty: the mode's own
-/// decay), which add_group makes itself; nothing for any other shape.
-std::optional<double> plain_rho(const damped_mode& m, const mode_shape& shape, double sample_rate_hz, std::size_t count) {
-    if (shape.empty()) return -m.decay_per_s / sample_rate_hz;
-    const shape_piece& p = shape.front();
-    if (shape.size() == 1 && p.start == 0 && p.count == count && p.scale == 1.0 && p.power == 0) return p.rho;
-    return std::nullopt;
-}
-
-/// Doubles side by side (GCC/Clang vector extension) for L blocks (L <= 4): two lanes at least (one
-/// double is no vector); a lane past L stays 0 and is never stored.
+/// Two doubles side by side (GCC/Clang vector extension): a complex's real and imaginary parts.
 using two_lanes = double __attribute__((vector_size(16)));
-using four_lanes = double __attribute__((vector_size(32)));
-template <int L>
-using block_lanes = std::conditional_t<(L > 2), four_lanes, two_lanes>;
-
-/// add_group<1>'s work on L of its 512-sample blocks at once, blocks first_block .. first_block +
-/// L - 1 (each `length` samples): every block's chains start from their exact anchors there, so
-/// the blocks are independent and each sample gets the arithmetic it gets in add_group<1>; the L
-/// chains overlap (one alone waits on its own products), side by side in a vector of doubles
-/// (GCC/Clang vector extension). samples: the shape's samples, or empty for the plain exponential
-/// exp(rho n). With Demodulate, each sum out[n] is also taken times the same phasor into demod[n]
-/// (v p[n] for the sum v: the products of std::complex's multiplication, written out, on the chain
-/// the sum walks).
-template <int L, bool Demodulate>
-[[gnu::always_inline]] inline void add_blocks(std::span<const double> samples, double rho, double omega, std::complex<double> amp,
-                                              double sign, std::size_t first_block, std::size_t length, std::vector<double>& out,
-                                              std::vector<std::complex<double>>* demod) {
-    constexpr std::size_t block = 512;
-    using lanes = block_lanes<L>;
-    const bool plain = samples.empty();
-    const std::complex<double> z = std::polar(1.0, omega);
-    const double ratio = plain ? std::exp(rho) : 1.0;
-    lanes pr{}, pi_{}, s{};
-    std::array<std::size_t, L> at{};
-    for (int l = 0; l < L; ++l) {
-        at[static_cast<std::size_t>(l)] = (first_block + static_cast<std::size_t>(l)) * block;
-        const auto start = static_cast<double>(at[static_cast<std::size_t>(l)]);
-        const std::complex<double> p = std::polar(1.0, std::remainder(omega * start, two_pi));
-        pr[l] = p.real(), pi_[l] = p.imag();
-        if (plain) s[l] = 1.0 * std::exp(rho * start);
-    }
-    double* const sums = out.data();
-    std::complex<double>* const demod_at = Demodulate ? demod->data() : nullptr;
-    for (std::size_t t = 0; t < length; ++t) {
-        if (!plain)
-            for (int l = 0; l < L; ++l) s[l] = samples[at[static_cast<std::size_t>(l)] + t];
-        const lanes term = sign * s * (amp.real() * pr - amp.imag() * pi_);
-        if (plain) s *= ratio;
-        // out[n] += term, the L sums side by side (each the one addition out[n] + term).
-        lanes v{};
-        for (int l = 0; l < L; ++l) v[l] = sums[at[static_cast<std::size_t>(l)] + t];
-        v += term;
-        for (int l = 0; l < L; ++l) sums[at[static_cast<std::size_t>(l)] + t] = v[l];
-        if constexpr (Demodulate) {
-            const lanes re = v * pr, im = v * pi_;
-            for (int l = 0; l < L; ++l) demod_at[at[static_cast<std::size_t>(l)] + t] = {re[l], im[l]};
-        }
-        const lanes next_r = pr * z.real() - pi_ * z.imag();
-        pi_ = pr * z.imag() + pi_ * z.real();
-        pr = next_r;
-    }
-}
-
-/// add_mode's blocks, four at a time, then two, then one (add_blocks).
-template <bool Demodulate>
-[[gnu::always_inline]] inline void add_all_blocks(std::span<const double> samples, double rho, double omega, std::complex<double> amp,
-                                                  double sign, std::vector<double>& out, std::vector<std::complex<double>>* demod) {
-    constexpr std::size_t block = 512;
-    const std::size_t count = out.size();
-    const std::size_t full = count / block;
-    std::size_t b = 0;
-    for (; b + 4 <= full; b += 4) add_blocks<4, Demodulate>(samples, rho, omega, amp, sign, b, block, out, demod);
-    for (; b + 2 <= full; b += 2) add_blocks<2, Demodulate>(samples, rho, omega, amp, sign, b, block, out, demod);
-    for (; b < full; ++b) add_blocks<1, Demodulate>(samples, rho, omega, amp, sign, b, block, out, demod);
-    if (full * block < count) add_blocks<1, Demodulate>(samples, rho, omega, amp, sign, full, count - full * block, out, demod);
-}
-
-/// Adds sign * Re(amp a[n] exp(i omega n)) for n in [0, out.size()) to out; a is the mode's shape
-/// (exp(-d n / fs) when empty). The phasor is re-anchored from the exact power every 512 samples:
-/// add_group<1>'s sums, its blocks four at a time (add_all_blocks). With demod, out[n] exp(i omega n)
-/// (the sum times the same phasor) into (*demod)[n] as well. Compiled for AVX2 (four blocks in one
-/// register) and the baseline (no FMA: the same bits).
-WANE_KERNEL_CLONES
-void add_mode(const damped_mode& m, const mode_shape& shape, double sample_rate_hz, double sign,
-              std::vector<double>& out, std::vector<double>& scratch, std::vector<std::complex<double>>* demod = nullptr) {
-    const std::size_t count = out.size();
-    const double omega = two_pi * m.freq_hz / sample_rate_hz;
-    const std::optional<double> rho = plain_rho(m, shape, sample_rate_hz, count);
-    if (!rho) shape_samples(shape, count, scratch);
-    const std::span<const double> samples = rho ? std::span<const double>{} : std::span<const double>(scratch);
-    const double r = rho.value_or(0.0);
-    if (demod != nullptr) add_all_blocks<true>(samples, r, omega, m.amp, sign, out, demod);
-    else add_all_blocks<false>(samples, r, omega, m.amp, sign, out, nullptr);
-}
 
 double energy_of(std::span<const float> x) {
     double e = 0.0;
@@ -368,7 +276,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
     // The residual of the joint fit, then each searched mode refitted alone on it plus its own part.
     std::vector<double> residual = joint.empty() ? joint_residual(target, sample_rate_hz, modes, shapes)
                                                  : std::vector<double>(joint.begin(), joint.end());
-    std::vector<double> scratch;
+    std::array<std::vector<double>, 2> scratch;
     const std::vector<std::pair<double, std::size_t>> order = searched_order(energy, may_rise, params);
     std::vector<std::complex<double>> demod(count), ramp_sum(count + 1), tail_sum(count + 1);
     // The linear attacks tried (below): their lengths bound the prefix sums needed.
@@ -376,7 +284,7 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
     const std::size_t longest_attack = attack_ns.empty() ? 0 : *std::max_element(attack_ns.begin(), attack_ns.end());
     for (std::size_t r = 0; r < order.size(); ++r) {
         const std::size_t i = order[r].second;
-        add_mode(modes[i], shapes[i], sample_rate_hz, 1.0, residual, scratch, &demod);  // and q[n] below
+        if (r == 0) add_mode_part(modes[i], shapes[i], sample_rate_hz, 1.0, residual, scratch[0], &demod);  // and q[n] below (later: swap_mode_parts)
         // With q[n] = residual[n] exp(i omega n), the projection on the rise over T samples then
         // exp(rho (n - T)) is  (1/T) sum_{n<T} n q[n] + t[T],  t[T] = sum_{n>=T} q[n] exp(rho (n - T)):
         // prefix sums of n q[n] and the suffix recursion t[T] = q[T] + exp(rho) t[T + 1] give
@@ -430,7 +338,8 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
         if (r + 1 == order.size()) break;  // the residual is for the partials after this one
         damped_mode refit = modes[i];
         explained(chosen[i], refit.amp);
-        add_mode(refit, attack_shape(chosen[i], rho, count), sample_rate_hz, -1.0, residual, scratch);
+        swap_mode_parts(refit, attack_shape(chosen[i], rho, count), modes[order[r + 1].second], shapes[order[r + 1].second], sample_rate_hz,
+                        residual, scratch, demod);  // this one's refit off, the next one's own part back, and its q[n]
     }
     return chosen;
 }
