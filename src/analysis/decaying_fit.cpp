@@ -26,11 +26,50 @@ std::vector<float> render_copy_start(const patch& p, double rate_hz, std::size_t
 
 namespace {
 
-/// cosine_walk_table(omega, 1.0, ..) into cos_n and sin_n (count each), compiled for AVX2 (its four
+/// cos and sin of omega n into cos_n and sin_n (count each): cosine_walk_table's walk, four
+/// 16-step stretches side by side, each stretch from its anchor rotated on by one step of omega,
+/// but the anchors themselves walked: exact (std::cos, std::sin) at every multiple of
+/// exact_anchor_every, between them each rotated on from the one before by 16 omega. A std::sin
+/// and std::cos pair cost 140 instructions a stretch, most of the table's work; the walked anchors
+/// stay within a few ulps times the 16 steps between exact ones. Compiled for AVX2 (the four
 /// stretches in one register) and the baseline (no FMA: the same bits).
+constexpr std::size_t exact_anchor_every = 256;
 WANE_KERNEL_CLONES
 void walk_table(double omega, double* cos_n, double* sin_n, std::size_t count) {
-    cosine_walk_table(omega, 1.0, std::span(cos_n, count), std::span(sin_n, count));
+    using lanes = double __attribute__((vector_size(32)));
+    constexpr std::size_t stretch = cosine_walk::exact_every, width = 4 * stretch;
+    static_assert(exact_anchor_every % width == 0);
+    const double cos_step = std::cos(omega), sin_step = std::sin(omega);
+    const double cos_jump = std::cos(omega * static_cast<double>(stretch)), sin_jump = std::sin(omega * static_cast<double>(stretch));
+    double ac = 1.0, as = 0.0;  // the anchor of the next stretch
+    std::size_t from = 0;
+    for (; from + width <= count; from += width) {
+        lanes c, s;
+        for (std::size_t l = 0; l < 4; ++l) {
+            const std::size_t at = from + l * stretch;
+            if (at % exact_anchor_every == 0) {
+                const double angle = omega * static_cast<double>(at);
+                ac = std::cos(angle), as = std::sin(angle);
+            }
+            c[l] = ac, s[l] = as;
+            cosine_walk::rotate_on(ac, as, cos_jump, sin_jump);
+        }
+        for (std::size_t t = 0;; ++t) {
+            for (std::size_t l = 0; l < 4; ++l) cos_n[from + l * stretch + t] = c[l], sin_n[from + l * stretch + t] = s[l];
+            if (t + 1 == stretch) break;
+            cosine_walk::rotate_on(c, s, cos_step, sin_step);
+        }
+    }
+    double c = ac, s = as;
+    for (std::size_t j = from; j < count; ++j) {
+        if (j % exact_anchor_every == 0) {
+            const double angle = omega * static_cast<double>(j);
+            c = std::cos(angle), s = std::sin(angle);
+        } else if (j > from) {
+            cosine_walk::rotate_on(c, s, cos_step, sin_step);
+        }
+        cos_n[j] = c, sin_n[j] = s;
+    }
 }
 
 static_assert(fit_lanes % 2 == 0);

@@ -5,8 +5,10 @@
 #include <array>
 #include <cassert>
 #include <cmath>
+#include <cstring>
 
 #include "core/units.hpp"
+#include "synthesis/kernel_clones.hpp"
 
 namespace wane {
 
@@ -24,10 +26,33 @@ struct stage_blocks {
     std::size_t used = 0;  ///< blocks up to the join's
 };
 
+/// Four doubles side by side (GCC/Clang vector extension): one AVX register, two SSE2 ones.
+using lanes = double __attribute__((vector_size(32)));
+
+/// block_sums of four whole blocks at once, blocks first .. first + 3 in the lanes, each lane's
+/// sums in the order of its block summed alone. Compiled for AVX2 and the baseline (no FMA: the
+/// same bits).
+WANE_KERNEL_CLONES
+void four_block_sums(const double* __restrict d, const float* __restrict w, std::size_t first, std::size_t block_frames,
+                     double* __restrict ww_out, double* __restrict dw_out) {
+    lanes ww{}, dw{};
+    const std::size_t at = first * block_frames;
+    for (std::size_t n = 0; n < block_frames; ++n) {
+        const lanes wn{static_cast<double>(w[at + n]), static_cast<double>(w[at + block_frames + n]),
+                       static_cast<double>(w[at + 2 * block_frames + n]), static_cast<double>(w[at + 3 * block_frames + n])};
+        const lanes dn{d[at + n], d[at + block_frames + n], d[at + 2 * block_frames + n], d[at + 3 * block_frames + n]};
+        ww += wn * wn, dw += dn * wn;
+    }
+    std::memcpy(ww_out + first, &ww, sizeof ww), std::memcpy(dw_out + first, &dw, sizeof dw);
+}
+
 void block_sums(std::span<const double> d, std::span<const float> w, std::size_t block_frames, stage_blocks& b) {
     const std::size_t blocks = (w.size() + block_frames - 1) / block_frames;
     b.ww.assign(blocks, 0.0), b.dw.assign(blocks, 0.0), b.h0.resize(blocks), b.h1.resize(blocks);
-    for (std::size_t k = 0; k < blocks; ++k) {
+    const std::size_t whole = w.size() / block_frames;  // the blocks of block_frames frames
+    std::size_t k = 0;
+    for (; k + 4 <= whole; k += 4) four_block_sums(d.data(), w.data(), k, block_frames, b.ww.data(), b.dw.data());
+    for (; k < blocks; ++k) {
         const std::size_t end = std::min(w.size(), (k + 1) * block_frames);
         double ww = 0.0, dw = 0.0;
         for (std::size_t n = k * block_frames; n < end; ++n) {
@@ -83,6 +108,61 @@ std::optional<std::array<double, 2>> step_from(const stage_sums& s, double a0, d
     return std::array<double, 2>{std::clamp(a0 + d0, -max_db, max_db), std::clamp(a1 + d1, -max_db, max_db)};
 }
 
+/// A bound on every pair's promise (fit_early_stage: b^T (J^T J)^-1 b at zero offsets, the energy
+/// of d's projection on the pair's two columns h0 w and h1 w, blockwise). Each pair's h0 and h1
+/// are continuous and piecewise linear in t with breaks at the attack's end, its knee and its join
+/// (1 and 0 before the attack's end, 0 from the join on), so on the block centres they are sums of
+/// the hat functions on the knots `knots` (the attack's end, then every knee and join of a pair
+/// tried, ascending; the first hat 1 before the attack's end; none at the last knot, where every
+/// pair's weights are 0): the pairs' columns lie in the span of the hats' columns, and d's
+/// projection on that span is at least each pair's. Returns that projection's energy by a
+/// Cholesky factor of the hats' Gram matrix (infinity where it fails: no bound then).
+double promise_bound(const stage_blocks& b, std::span<const double> knots, double rate_hz, std::size_t frames,
+                     std::size_t block_frames) {
+    constexpr std::size_t most = 8;
+    const std::size_t hats = knots.size() - 1;
+    if (hats == 0) return 0.0;
+    if (hats > most) return infinity;
+    std::array<double, most * most> a{};  // row-major hats x hats
+    std::array<double, most> rhs{};
+    for (std::size_t k = 0; k < b.ww.size(); ++k) {
+        const std::size_t begin = k * block_frames, end = std::min(frames, begin + block_frames);
+        const double t = 0.5 * static_cast<double>(begin + end - 1) / rate_hz;  // as set_weights
+        if (t >= knots[hats]) break;
+        std::size_t j = 0;  // the hats j (weight 1 - f) and j + 1 (weight f) carry the block
+        double f = 0.0;
+        if (t >= knots[0]) {
+            while (t >= knots[j + 1]) ++j;
+            f = (t - knots[j]) / (knots[j + 1] - knots[j]);
+        }
+        const std::array<double, 2> v{1.0 - f, f};
+        for (std::size_t r = 0; r < 2 && j + r < hats; ++r) {
+            rhs[j + r] += v[r] * b.dw[k];
+            for (std::size_t c = 0; c < 2 && j + c < hats; ++c) a[(j + r) * most + j + c] += v[r] * v[c] * b.ww[k];
+        }
+    }
+    // L y = rhs with L L^T = a; the bound is |y|^2. A hat that holds no frame of w (a zero row) is left out.
+    double bound = 0.0;
+    for (std::size_t r = 0; r < hats; ++r) {
+        if (!(a[r * most + r] > 0.0)) continue;
+        const double diag = a[r * most + r];
+        for (std::size_t c = 0; c < r; ++c) {
+            double v = a[r * most + c];
+            for (std::size_t m = 0; m < c; ++m) v -= a[r * most + m] * a[c * most + m];
+            a[r * most + c] = a[c * most + c] > 0.0 ? v / a[c * most + c] : 0.0;
+        }
+        double pivot = diag;
+        for (std::size_t m = 0; m < r; ++m) pivot -= a[r * most + m] * a[r * most + m];
+        if (!(pivot > 1e-12 * diag)) return infinity;
+        a[r * most + r] = std::sqrt(pivot);
+        double y = rhs[r];
+        for (std::size_t m = 0; m < r; ++m) y -= a[r * most + m] * rhs[m];
+        rhs[r] = y / a[r * most + r];
+        bound += rhs[r] * rhs[r];
+    }
+    return bound;
+}
+
 }  // namespace
 
 std::optional<early_stage_fit> fit_early_stage(std::span<const double> d, std::span<const float> w, double attack_s,
@@ -91,6 +171,16 @@ std::optional<early_stage_fit> fit_early_stage(std::span<const double> d, std::s
     const double span_s = static_cast<double>(w.size()) / rate_hz;
     stage_blocks blocks;
     block_sums(d, w, params.block_frames, blocks);
+    // No pair can promise min_fall where the hats' bound (promise_bound) stays under it; the margin
+    // covers the rounding of the two computations (a relative 1e-3: far over it).
+    std::vector<double> knots{attack_s};
+    for (const double knee_s : params.knee_s)
+        for (const double join_s : params.join_s)
+            if (knee_s >= attack_s + params.min_knee_after_attack_s && join_s > knee_s && join_s <= span_s + 0.5 / rate_hz)
+                knots.push_back(knee_s), knots.push_back(join_s);
+    std::sort(knots.begin() + 1, knots.end());
+    knots.erase(std::unique(knots.begin(), knots.end()), knots.end());
+    if (promise_bound(blocks, knots, rate_hz, w.size(), params.block_frames) < 0.999 * params.min_fall * signal) return std::nullopt;
     const auto weigh = [&](double knee_s, double join_s) {
         set_weights(attack_s, knee_s, join_s, rate_hz, w.size(), params.block_frames, blocks);
     };

@@ -19,10 +19,13 @@ namespace wane {
 
 namespace {
 
-/// Whether some partial of p lies within min_cents of freq_hz.
+/// Whether some partial of p lies within min_cents of freq_hz. The cents are measured only for the
+/// partials within twice that ratio of freq_hz (the rest are farther: no log2 for them).
 bool near_a_partial(const patch& p, double freq_hz, double min_cents) {
+    const double wide = std::exp2(2.0 * min_cents / 1200.0);
     return std::any_of(p.partials.begin(), p.partials.end(), [&](const partial& q) {
-        return q.freq_hz > 0.0 && std::abs(1200.0 * std::log2(freq_hz / q.freq_hz)) < min_cents;
+        return q.freq_hz > 0.0 && q.freq_hz < wide * freq_hz && freq_hz < wide * q.freq_hz &&
+               std::abs(1200.0 * std::log2(freq_hz / q.freq_hz)) < min_cents;
     });
 }
 

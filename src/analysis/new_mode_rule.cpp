@@ -1,13 +1,16 @@
 #include "analysis/new_mode_rule.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cassert>
 #include <cmath>
+#include <cstring>
 
 #include "core/units.hpp"
 #include "modes/mode_residual.hpp"
 #include "modes/narrowband.hpp"
 #include "spectrum/window.hpp"
+#include "synthesis/kernel_clones.hpp"
 
 namespace wane {
 
@@ -44,6 +47,72 @@ std::complex<double> windowed_amplitude(std::span<const float> note, double samp
     return weight > 0.0 ? 2.0 * along / weight : std::complex<double>{};
 }
 
+namespace {
+
+/// Four doubles side by side (GCC/Clang vector extension): one AVX register, two SSE2 ones.
+using lanes = double __attribute__((vector_size(32)));
+constexpr std::size_t amplitude_lanes = 4;
+
+/// windowed_amplitude's sums for four modes at once, lane l the arithmetic of mode l alone (the
+/// products std::complex's multiplication and std::norm form, in their order): z walked by one
+/// product a sample from z0 (each lane's exact power at the samples k % 256 == 0, anchor_re/im
+/// [k / 256]), along += w x z, weight += w |z|^2. Compiled for AVX2 and the baseline (no FMA:
+/// the same bits).
+WANE_KERNEL_CLONES
+void windowed_sums(const float* __restrict x, const float* __restrict window, std::size_t count, const double* __restrict step_re,
+                   const double* __restrict step_im, const double* __restrict anchor_re, const double* __restrict anchor_im,
+                   double* __restrict out) {
+    lanes zr{}, zi{}, ar{}, ai{}, weight{};
+    lanes sr, si;
+    std::memcpy(&sr, step_re, sizeof sr), std::memcpy(&si, step_im, sizeof si);
+    for (std::size_t k = 0; k < count; ++k) {
+        if (k % 256 == 0) {
+            std::memcpy(&zr, anchor_re + (k / 256) * amplitude_lanes, sizeof zr);
+            std::memcpy(&zi, anchor_im + (k / 256) * amplitude_lanes, sizeof zi);
+        } else {
+            const lanes next_r = zr * sr - zi * si;
+            zi = zr * si + zi * sr;
+            zr = next_r;
+        }
+        const double w = static_cast<double>(window[k]);
+        const double wx = w * static_cast<double>(x[k]);
+        ar += wx * zr, ai += wx * zi;
+        weight += w * (zr * zr + zi * zi);
+    }
+    std::memcpy(out, &ar, sizeof ar), std::memcpy(out + 4, &ai, sizeof ai), std::memcpy(out + 8, &weight, sizeof weight);
+}
+
+/// windowed_amplitude(note, sample_rate_hz, modes[l], first, window) for up to four modes, the
+/// same numbers (windowed_sums).
+void windowed_amplitudes(std::span<const float> note, double sample_rate_hz, std::span<const damped_mode> modes,
+                         std::size_t first, std::span<const float> window, std::span<std::complex<double>> out) {
+    const std::size_t count = window.size();
+    assert(sample_rate_hz > 0.0 && first + count <= note.size() && count > 1);
+    assert(!modes.empty() && modes.size() <= amplitude_lanes && out.size() == modes.size());
+    std::array<double, amplitude_lanes> step_re{}, step_im{};
+    std::vector<double> anchor_re((count + 255) / 256 * amplitude_lanes), anchor_im(anchor_re.size());
+    for (std::size_t l = 0; l < amplitude_lanes; ++l) {
+        const damped_mode& m = modes[std::min(l, modes.size() - 1)];  // a lane past the modes repeats the last
+        const std::complex<double> s{-m.decay_per_s, -two_pi * m.freq_hz};
+        const std::complex<double> step = std::exp(s / sample_rate_hz);
+        step_re[l] = step.real(), step_im[l] = step.imag();
+        for (std::size_t k = 0; k < count; k += 256) {
+            const std::complex<double> z = std::exp(s * (static_cast<double>(first + k) / sample_rate_hz));
+            anchor_re[k / 256 * amplitude_lanes + l] = z.real(), anchor_im[k / 256 * amplitude_lanes + l] = z.imag();
+        }
+    }
+    std::array<double, 3 * amplitude_lanes> sums{};
+    windowed_sums(note.data() + first, window.data(), count, step_re.data(), step_im.data(), anchor_re.data(), anchor_im.data(),
+                  sums.data());
+    for (std::size_t l = 0; l < modes.size(); ++l) {
+        const std::complex<double> along{sums[l], sums[amplitude_lanes + l]};
+        const double weight = sums[2 * amplitude_lanes + l];
+        out[l] = weight > 0.0 ? 2.0 * along / weight : std::complex<double>{};
+    }
+}
+
+}  // namespace
+
 std::complex<double> windowed_amplitude(std::span<const float> note, double sample_rate_hz, const damped_mode& m,
                                         std::size_t first, std::size_t count) {
     return windowed_amplitude(note, sample_rate_hz, m, first, make_window(window_kind::hann, static_cast<int>(count), window_symmetry::symmetric));
@@ -68,17 +137,30 @@ std::vector<damped_mode> lasting_modes(std::span<const damped_mode> candidates, 
                                        double sample_rate_hz, std::size_t span_n, const onset_refine_params& params) {
     std::vector<damped_mode> out;
     const double floor_ratio = std::pow(10.0, -params.lasting_tolerance_db / 20.0);
-    std::vector<float> window;  // made for the first long candidate
+    // The long candidates' amplitudes on both spans, four candidates at a time (windowed_amplitudes).
+    std::vector<damped_mode> long_ones;
+    for (const damped_mode& c : candidates)
+        if (!(ln1000 / c.decay_per_s <= params.max_new_t60_s) && note.size() >= 2 * span_n && span_n >= 2) long_ones.push_back(c);
+    std::vector<std::complex<double>> early(long_ones.size()), late(long_ones.size());
+    if (!long_ones.empty()) {
+        const std::vector<float> window = make_window(window_kind::hann, static_cast<int>(span_n), window_symmetry::symmetric);
+        for (std::size_t i = 0; i < long_ones.size(); i += amplitude_lanes) {
+            const std::size_t n = std::min(amplitude_lanes, long_ones.size() - i);
+            const std::span<const damped_mode> some = std::span(long_ones).subspan(i, n);
+            windowed_amplitudes(note, sample_rate_hz, some, 0, window, std::span(early).subspan(i, n));
+            windowed_amplitudes(note, sample_rate_hz, some, span_n, window, std::span(late).subspan(i, n));
+        }
+    }
+    std::size_t at = 0;  // into long_ones, in the candidates' order
     for (const damped_mode& c : candidates) {
         if (ln1000 / c.decay_per_s <= params.max_new_t60_s) {
             out.push_back(c);
             continue;
         }
         if (note.size() < 2 * span_n || span_n < 2) continue;
-        if (window.empty()) window = make_window(window_kind::hann, static_cast<int>(span_n), window_symmetry::symmetric);
-        const double early = std::abs(windowed_amplitude(note, sample_rate_hz, c, 0, window));
-        const double late = std::abs(windowed_amplitude(note, sample_rate_hz, c, span_n, window));
-        if (early > 0.0 && late >= floor_ratio * early) out.push_back(c);
+        const double e = std::abs(early[at]), l = std::abs(late[at]);
+        ++at;
+        if (e > 0.0 && l >= floor_ratio * e) out.push_back(c);
     }
     return out;
 }

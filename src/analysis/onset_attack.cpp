@@ -2,9 +2,12 @@
 
 #include <algorithm>
 #include <array>
+#include <bit>
 #include <cassert>
 #include <cmath>
 #include <complex>
+#include <cstdint>
+#include <cstring>
 #include <functional>
 #include <optional>
 #include <span>
@@ -12,6 +15,7 @@
 #include <utility>
 
 #include "core/units.hpp"
+#include "analysis/attack_walk.hpp"
 #include "modes/mode_residual.hpp"
 #include "synthesis/kernel_clones.hpp"
 
@@ -50,97 +54,8 @@ mode_shape attack_shape(const attack_choice& choice, double rho, std::size_t cou
 
 namespace {
 
-/// rho of a shape that is one plain exponential exp(rho n) over [0, count) (empty: the mode's own
-/// decay), which add_group makes itself; nothing for any other shape.
-std::optional<double> plain_rho(const damped_mode& m, const mode_shape& shape, double sample_rate_hz, std::size_t count) {
-    if (shape.empty()) return -m.decay_per_s / sample_rate_hz;
-    const shape_piece& p = shape.front();
-    if (shape.size() == 1 && p.start == 0 && p.count == count && p.scale == 1.0 && p.power == 0) return p.rho;
-    return std::nullopt;
-}
-
-/// Doubles side by side (GCC/Clang vector extension) for L blocks (L <= 4): two lanes at least (one
-/// double is no vector); a lane past L stays 0 and is never stored.
+/// Two doubles side by side (GCC/Clang vector extension): a complex's real and imaginary parts.
 using two_lanes = double __attribute__((vector_size(16)));
-using four_lanes = double __attribute__((vector_size(32)));
-template <int L>
-using block_lanes = std::conditional_t<(L > 2), four_lanes, two_lanes>;
-
-/// add_group<1>'s work on L of its 512-sample blocks at once, blocks first_block .. first_block +
-/// L - 1 (each `length` samples): every block's chains start from their exact anchors there, so
-/// the blocks are independent and each sample gets the arithmetic it gets in add_group<1>; the L
-/// chains overlap (one alone waits on its own products), side by side in a vector of doubles
-/// (GCC/Clang vector extension). samples: the shape's samples, or empty for the plain exponential
-/// exp(rho n). With Demodulate, each sum out[n] is also taken times the same phasor into demod[n]
-/// (v p[n] for the sum v: the products of std::complex's multiplication, written out, on the chain
-/// the sum walks).
-template <int L, bool Demodulate>
-[[gnu::always_inline]] inline void add_blocks(std::span<const double> samples, double rho, double omega, std::complex<double> amp,
-                                              double sign, std::size_t first_block, std::size_t length, std::vector<double>& out,
-                                              std::vector<std::complex<double>>* demod) {
-    constexpr std::size_t block = 512;
-    using lanes = block_lanes<L>;
-    const bool plain = samples.empty();
-    const std::complex<double> z = std::polar(1.0, omega);
-    const double ratio = plain ? std::exp(rho) : 1.0;
-    lanes pr{}, pi_{}, s{};
-    std::array<std::size_t, L> at{};
-    for (int l = 0; l < L; ++l) {
-        at[static_cast<std::size_t>(l)] = (first_block + static_cast<std::size_t>(l)) * block;
-        const auto start = static_cast<double>(at[static_cast<std::size_t>(l)]);
-        const std::complex<double> p = std::polar(1.0, std::remainder(omega * start, two_pi));
-        pr[l] = p.real(), pi_[l] = p.imag();
-        if (plain) s[l] = 1.0 * std::exp(rho * start);
-    }
-    for (std::size_t t = 0; t < length; ++t) {
-        if (!plain)
-            for (int l = 0; l < L; ++l) s[l] = samples[at[static_cast<std::size_t>(l)] + t];
-        const lanes term = sign * s * (amp.real() * pr - amp.imag() * pi_);
-        if (plain) s *= ratio;
-        for (int l = 0; l < L; ++l) out[at[static_cast<std::size_t>(l)] + t] += term[l];
-        if constexpr (Demodulate) {
-            for (int l = 0; l < L; ++l) {
-                const double v = out[at[static_cast<std::size_t>(l)] + t];
-                (*demod)[at[static_cast<std::size_t>(l)] + t] = {v * pr[l], v * pi_[l]};
-            }
-        }
-        const lanes next_r = pr * z.real() - pi_ * z.imag();
-        pi_ = pr * z.imag() + pi_ * z.real();
-        pr = next_r;
-    }
-}
-
-/// add_mode's blocks, four at a time, then two, then one (add_blocks).
-template <bool Demodulate>
-[[gnu::always_inline]] inline void add_all_blocks(std::span<const double> samples, double rho, double omega, std::complex<double> amp,
-                                                  double sign, std::vector<double>& out, std::vector<std::complex<double>>* demod) {
-    constexpr std::size_t block = 512;
-    const std::size_t count = out.size();
-    const std::size_t full = count / block;
-    std::size_t b = 0;
-    for (; b + 4 <= full; b += 4) add_blocks<4, Demodulate>(samples, rho, omega, amp, sign, b, block, out, demod);
-    for (; b + 2 <= full; b += 2) add_blocks<2, Demodulate>(samples, rho, omega, amp, sign, b, block, out, demod);
-    for (; b < full; ++b) add_blocks<1, Demodulate>(samples, rho, omega, amp, sign, b, block, out, demod);
-    if (full * block < count) add_blocks<1, Demodulate>(samples, rho, omega, amp, sign, full, count - full * block, out, demod);
-}
-
-/// Adds sign * Re(amp a[n] exp(i omega n)) for n in [0, out.size()) to out; a is the mode's shape
-/// (exp(-d n / fs) when empty). The phasor is re-anchored from the exact power every 512 samples:
-/// add_group<1>'s sums, its blocks four at a time (add_all_blocks). With demod, out[n] exp(i omega n)
-/// (the sum times the same phasor) into (*demod)[n] as well. Compiled for AVX2 (four blocks in one
-/// register) and the baseline (no FMA: the same bits).
-WANE_KERNEL_CLONES
-void add_mode(const damped_mode& m, const mode_shape& shape, double sample_rate_hz, double sign,
-              std::vector<double>& out, std::vector<double>& scratch, std::vector<std::complex<double>>* demod = nullptr) {
-    const std::size_t count = out.size();
-    const double omega = two_pi * m.freq_hz / sample_rate_hz;
-    const std::optional<double> rho = plain_rho(m, shape, sample_rate_hz, count);
-    if (!rho) shape_samples(shape, count, scratch);
-    const std::span<const double> samples = rho ? std::span<const double>{} : std::span<const double>(scratch);
-    const double r = rho.value_or(0.0);
-    if (demod != nullptr) add_all_blocks<true>(samples, r, omega, m.amp, sign, out, demod);
-    else add_all_blocks<false>(samples, r, omega, m.amp, sign, out, nullptr);
-}
 
 double energy_of(std::span<const float> x) {
     double e = 0.0;
@@ -148,13 +63,29 @@ double energy_of(std::span<const float> x) {
     return e;
 }
 
+/// The Gram sums of a mode Re(amp a[n] exp(i omega n)) with shape a, in closed form.
+attack_gram_memo::sums gram_sums(const mode_shape& a, double omega) {
+    return {.s_pq = shape_pair_sum(a, a, {0.0, 2.0 * omega}), .s_pcq = shape_pair_sum(a, a, {0.0, 0.0}).real()};
+}
+
+/// gram_sums of the shape of choice c, attack_shape(c, rho, count), from the memo when it holds
+/// them (then kept there when computed).
+attack_gram_memo::sums gram_sums_of(const attack_choice& c, double omega, double rho, std::size_t count, attack_gram_memo* memo) {
+    if (memo == nullptr) return gram_sums(attack_shape(c, rho, count), omega);
+    const auto key = std::tuple(std::bit_cast<std::uint64_t>(omega), std::bit_cast<std::uint64_t>(rho), count, c.rise_n,
+                                std::bit_cast<std::uint64_t>(c.start_ratio));
+    const auto it = memo->kept.find(key);
+    if (it != memo->kept.end()) return it->second;
+    return memo->kept.emplace(key, gram_sums(attack_shape(c, rho, count), omega)).first->second;
+}
+
 /// The least-squares fit of one mode Re(amp a[n] exp(i omega n)) with shape a to a signal whose
 /// projection on the mode is acc = sum x[n] a[n] exp(i omega n): the 2 x 2 normal equations of
 /// (Re amp, Im amp), as in fit_shaped_amplitudes (modes/damped_mode.cpp), with the shape's Gram
-/// sums in closed form. Returns the energy the mode explains (theta . rhs) and sets amp.
-double fit_one(const mode_shape& a, double omega, std::complex<double> acc, std::complex<double>& amp) {
-    const std::complex<double> s_pq = shape_pair_sum(a, a, {0.0, 2.0 * omega});
-    const double s_pcq = shape_pair_sum(a, a, {0.0, 0.0}).real();
+/// sums g (gram_sums). Returns the energy the mode explains (theta . rhs) and sets amp.
+double fit_one(const attack_gram_memo::sums& g, std::complex<double> acc, std::complex<double>& amp) {
+    const std::complex<double> s_pq = g.s_pq;
+    const double s_pcq = g.s_pcq;
     const double uu = 0.5 * (s_pq.real() + s_pcq), vv = 0.5 * (s_pcq - s_pq.real());
     const double uv = -0.5 * s_pq.imag();  // Gram entry of (Re, Im): -sum Re p Im p
     const double r0 = acc.real(), r1 = -acc.imag();
@@ -171,14 +102,33 @@ double fit_one(const mode_shape& a, double omega, std::complex<double> acc, std:
 /// From q[n] = x[n] exp(i omega n) in demod (count values, add_mode's with demod), the prefix sums
 /// of n q[n] into ramp_sum[0 .. ramp_count] (the longest linear attack asked for; ramp_sum[0] = 0
 /// kept) and the suffix sums t[T] = q[T] + exp(rho) t[T + 1] into tail_sum (count + 1).
+/// The values are std::complex's sums and products (ramp_sum[n] + n q[n], q[n] + exp(rho) t[n + 1]),
+/// each complex as two doubles side by side (a GCC/Clang vector: the real and imaginary parts'
+/// products and sums, the same bits).
 void projection_sums(std::span<const std::complex<double>> demod, double rho, std::size_t ramp_count,
                      std::vector<std::complex<double>>& ramp_sum, std::vector<std::complex<double>>& tail_sum) {
     const std::size_t count = demod.size();
-    assert(ramp_count <= count && ramp_sum.size() > ramp_count);
-    for (std::size_t n = 0; n < ramp_count; ++n) ramp_sum[n + 1] = ramp_sum[n] + static_cast<double>(n) * demod[n];
+    assert(ramp_count <= count && ramp_sum.size() > ramp_count && tail_sum.size() > count);
+    const auto* q = reinterpret_cast<const char*>(demod.data());  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): std::complex's array layout
+    auto* ramp = reinterpret_cast<char*>(ramp_sum.data());        // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): the same
+    auto* tail = reinterpret_cast<char*>(tail_sum.data());        // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast): the same
+    constexpr std::size_t bytes = sizeof(two_lanes);
+    static_assert(sizeof(std::complex<double>) == bytes);
+    two_lanes acc, qn;
+    std::memcpy(&acc, ramp, bytes);
+    for (std::size_t n = 0; n < ramp_count; ++n) {
+        std::memcpy(&qn, q + n * bytes, bytes);
+        acc = acc + static_cast<double>(n) * qn;
+        std::memcpy(ramp + (n + 1) * bytes, &acc, bytes);
+    }
     const double step = std::exp(rho);
-    tail_sum[count] = {};
-    for (std::size_t n = count; n-- > 0;) tail_sum[n] = demod[n] + step * tail_sum[n + 1];
+    two_lanes t{};
+    std::memcpy(tail + count * bytes, &t, bytes);
+    for (std::size_t n = count; n-- > 0;) {
+        std::memcpy(&qn, q + n * bytes, bytes);
+        t = qn + step * t;
+        std::memcpy(tail + n * bytes, &t, bytes);
+    }
 }
 
 /// Shapes of rises evaluated side by side (rising_projections).
@@ -249,6 +199,7 @@ struct rise_search {
     std::size_t count = 0;
     std::span<const std::complex<double>> demod;
     std::span<const std::complex<double>> tail_sum;
+    attack_gram_memo* memo = nullptr;
 };
 
 /// Tries the instant starts at each of start_ratios (in that order; all positive) that rise over
@@ -270,7 +221,7 @@ void consider_rises(const rise_search& s, std::size_t n_rise, std::span<const do
             const attack_choice c{.rise_n = n_rise, .start_ratio = start_ratios[first + l]};
             if (c == current) continue;
             std::complex<double> amp;
-            const double e = fit_one(shapes[l], s.omega, acc[l], amp);
+            const double e = fit_one(gram_sums_of(c, s.omega, s.rho, s.count, s.memo), acc[l], amp);
             if (e > best) best = e, best_c = c;
         }
     }
@@ -284,6 +235,20 @@ std::vector<std::size_t> linear_attacks(const onset_attack_params& params, doubl
         if (n_attack > 0 && n_attack < count) out.push_back(n_attack);
     }
     return out;
+}
+
+/// The modes of may_rise searched (with their energy over the span), the strongest first: at most
+/// max_partials, those within range_db of the strongest. may_rise not empty.
+std::vector<std::pair<double, std::size_t>> searched_order(std::span<const double> energy, std::span<const std::size_t> may_rise,
+                                                          const onset_attack_params& params) {
+    std::vector<std::pair<double, std::size_t>> order;
+    for (const std::size_t i : may_rise) order.emplace_back(energy[i], i);
+    std::sort(order.begin(), order.end(), std::greater<>());
+    const double floor_energy = order.front().first * std::pow(10.0, -params.range_db / 10.0);
+    std::size_t searched = 0;
+    while (searched < order.size() && searched < params.max_partials && !(order[searched].first < floor_energy)) ++searched;
+    order.resize(searched);
+    return order;
 }
 
 }  // namespace
@@ -300,7 +265,8 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
                                           std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
                                           std::span<const double> energy, std::span<const std::size_t> may_rise,
                                           std::span<const std::size_t> may_swell, std::span<const attack_choice> current,
-                                          const onset_attack_params& params, std::span<const double> joint) {
+                                          const onset_attack_params& params, std::span<const double> joint,
+                                          attack_gram_memo* memo) {
     assert(shapes.size() == modes.size() && current.size() == modes.size() && energy.size() == modes.size());
     assert(joint.empty() || joint.size() == target.size());
     const std::size_t count = target.size();
@@ -310,20 +276,15 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
     // The residual of the joint fit, then each searched mode refitted alone on it plus its own part.
     std::vector<double> residual = joint.empty() ? joint_residual(target, sample_rate_hz, modes, shapes)
                                                  : std::vector<double>(joint.begin(), joint.end());
-    std::vector<double> scratch;
-    // The searched modes by their energy over the span, the strongest first.
-    std::vector<std::pair<double, std::size_t>> order;
-    for (const std::size_t i : may_rise) order.emplace_back(energy[i], i);
-    std::sort(order.begin(), order.end(), std::greater<>());
-    const double floor_energy = order.front().first * std::pow(10.0, -params.range_db / 10.0);
+    std::array<std::vector<double>, 2> scratch;
+    const std::vector<std::pair<double, std::size_t>> order = searched_order(energy, may_rise, params);
     std::vector<std::complex<double>> demod(count), ramp_sum(count + 1), tail_sum(count + 1);
     // The linear attacks tried (below): their lengths bound the prefix sums needed.
     const std::vector<std::size_t> attack_ns = linear_attacks(params, sample_rate_hz, count);
     const std::size_t longest_attack = attack_ns.empty() ? 0 : *std::max_element(attack_ns.begin(), attack_ns.end());
-    for (std::size_t r = 0; r < order.size() && r < params.max_partials; ++r) {
-        if (order[r].first < floor_energy) break;
+    for (std::size_t r = 0; r < order.size(); ++r) {
         const std::size_t i = order[r].second;
-        add_mode(modes[i], shapes[i], sample_rate_hz, 1.0, residual, scratch, &demod);  // and q[n] below
+        if (r == 0) add_mode_part(modes[i], shapes[i], sample_rate_hz, 1.0, residual, scratch[0], &demod);  // and q[n] below (later: swap_mode_parts)
         // With q[n] = residual[n] exp(i omega n), the projection on the rise over T samples then
         // exp(rho (n - T)) is  (1/T) sum_{n<T} n q[n] + t[T],  t[T] = sum_{n>=T} q[n] exp(rho (n - T)):
         // prefix sums of n q[n] and the suffix recursion t[T] = q[T] + exp(rho) t[T + 1] give
@@ -336,16 +297,15 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
         projection_sums(demod, rho, ramp_n, ramp_sum, tail_sum);
         // An instant start that rises: its projection sum a[n] q[n] directly, O(count) per choice.
         const auto explained = [&](const attack_choice& c, std::complex<double>& amp) {
-            const mode_shape shape = attack_shape(c, rho, count);
             std::complex<double> acc;
             if (c.start_ratio > 0.0 && c.rise_n > 0) {
-                acc = rising_projection(shape, std::min(c.rise_n, count), demod, tail_sum);
+                acc = rising_projection(attack_shape(c, rho, count), std::min(c.rise_n, count), demod, tail_sum);
             } else {
                 assert(c.rise_n <= ramp_n);
                 acc = (c.rise_n == 0 ? std::complex<double>{} : ramp_sum[c.rise_n] / static_cast<double>(c.rise_n)) +
                       tail_sum[c.rise_n];
             }
-            return fit_one(shape, omega, acc, amp);
+            return fit_one(gram_sums_of(c, omega, rho, count, memo), acc, amp);
         };
         // The current choice first: another must explain min_gain_share of the signal more.
         std::complex<double> amp;
@@ -370,14 +330,16 @@ std::vector<attack_choice> choose_attacks(std::span<const float> target, double 
             for (const double t : params.rise_grid_s) {
                 const auto n_rise = static_cast<std::size_t>(std::llround(t * sample_rate_hz));
                 if (n_rise < static_cast<std::size_t>(rise_segments) || n_rise >= count) continue;
-                const rise_search search{.omega = omega, .rho = rho, .count = count, .demod = demod, .tail_sum = tail_sum};
+                const rise_search search{.omega = omega, .rho = rho, .count = count, .demod = demod, .tail_sum = tail_sum, .memo = memo};
                 consider_rises(search, n_rise, params.start_ratios, chosen[i], best, best_c);
             }
             if (!(best_c == plain_c) && best > plain + params.min_gain_share * signal) chosen[i] = best_c;
         }
+        if (r + 1 == order.size()) break;  // the residual is for the partials after this one
         damped_mode refit = modes[i];
         explained(chosen[i], refit.amp);
-        add_mode(refit, attack_shape(chosen[i], rho, count), sample_rate_hz, -1.0, residual, scratch);
+        swap_mode_parts(refit, attack_shape(chosen[i], rho, count), modes[order[r + 1].second], shapes[order[r + 1].second], sample_rate_hz,
+                        residual, scratch, demod);  // this one's refit off, the next one's own part back, and its q[n]
     }
     return chosen;
 }

@@ -6,7 +6,11 @@
 // one of a few attack times (the patch's attack_s), chosen by least squares on the waveform.
 #pragma once
 
+#include <complex>
+#include <cstdint>
+#include <map>
 #include <span>
+#include <tuple>
 #include <vector>
 
 #include "modes/damped_mode.hpp"
@@ -61,6 +65,20 @@ mode_shape attack_shape(const attack_choice& choice, double rho, std::size_t cou
 std::vector<double> joint_residual(std::span<const float> target, double sample_rate_hz,
                                    std::span<const damped_mode> modes, std::span<const mode_shape> shapes);
 
+/// The closed-form Gram sums of the attack shapes tried on a mode (sum a^2 exp(2 i omega n) and
+/// sum a^2 over the span), kept between choose_attacks calls on the same span: they depend on the
+/// shape (its choice, the mode's decay per sample, the span's count) and omega only, and the onset
+/// refinement's passes try the same shapes on the same partials again (analysis/onset_refine.cpp).
+/// The numbers kept are the ones computed, so a search with the memo chooses as one without.
+struct attack_gram_memo {
+    struct sums {
+        std::complex<double> s_pq;  ///< sum a[n]^2 exp(2 i omega n)
+        double s_pcq = 0.0;         ///< sum a[n]^2
+    };
+    /// (omega, rho, count, rise_n, start_ratio) -> sums; the doubles by their bits.
+    std::map<std::tuple<std::uint64_t, std::uint64_t, std::size_t, std::size_t, std::uint64_t>, sums> kept;
+};
+
 /// One coordinate pass over the searched modes (indices in `may_rise`, each fitted with its decay
 /// in modes[i].decay_per_s): with the other modes as fitted, the attack time from the grid (or 0)
 /// whose best complex amplitude leaves the least residual of target, or for the strongest
@@ -68,11 +86,13 @@ std::vector<double> joint_residual(std::span<const float> target, double sample_
 /// start that rises (attack_choice). Returns the choice per mode
 /// (instant for the modes not searched or that stay so); current gives the current choice. modes, shapes: as fitted on target (shapes[i] empty = exponential); energy:
 /// each mode's energy over the span (orders the search). joint: joint_residual(target, ..,
-/// modes, shapes) when the caller has it (empty: computed here).
+/// modes, shapes) when the caller has it (empty: computed here). memo: the shapes' Gram sums kept
+/// from earlier calls on the same span (attack_gram_memo), or none.
 std::vector<attack_choice> choose_attacks(std::span<const float> target, double sample_rate_hz,
                                           std::span<const damped_mode> modes, std::span<const mode_shape> shapes,
                                           std::span<const double> energy, std::span<const std::size_t> may_rise,
                                           std::span<const std::size_t> may_swell, std::span<const attack_choice> current,
-                                          const onset_attack_params& params, std::span<const double> joint = {});
+                                          const onset_attack_params& params, std::span<const double> joint = {},
+                                          attack_gram_memo* memo = nullptr);
 
 }  // namespace wane

@@ -114,11 +114,6 @@ envelope instant_rise(envelope env, const attack_choice& a, double sample_rate_h
     return env;
 }
 
-/// Slope of the envelope's first decay segment (dB/s).
-double first_slope_db_per_s(const envelope& env) {
-    return env.decay.empty() ? 0.0 : t60_to_slope_db_per_s(env.decay.front().t60_s);
-}
-
 bool same_mode(double a_hz, double b_hz, const onset_refine_params& params) {
     const double tol = std::max(params.same_mode_hz, std::min(a_hz, b_hz) * (std::exp2(params.same_mode_cents / 1200.0) - 1.0));
     return std::abs(a_hz - b_hz) <= tol;
@@ -183,7 +178,8 @@ std::vector<double> early_decays(const patch& p, std::span<const role> roles, st
     std::vector<double> decay(p.partials.size());
     for (std::size_t k = 0; k < p.partials.size(); ++k) {
         const partial& part = p.partials[k];
-        decay[k] = -first_slope_db_per_s(part.env) / db_per_neper;
+        // The slope of the envelope's first decay segment (dB/s), in nepers per second.
+        decay[k] = -(part.env.decay.empty() ? 0.0 : t60_to_slope_db_per_s(part.env.decay.front().t60_s)) / db_per_neper;
         if (roles[k] == role::fixed) continue;
         std::size_t best = found.size();
         for (std::size_t j = 0; j < found.size(); ++j) {
@@ -255,6 +251,7 @@ struct fit_path {
     std::vector<damped_mode> new_modes;
     std::vector<attack_choice> attacks;
     waveform_fit f;
+    std::vector<double> joint;  ///< joint_residual of f where the pass that made f computed it, else empty
 };
 
 /// After a pass: exponential starts that came out as a slow rise (far under the STFT peak) or
@@ -283,10 +280,11 @@ bool revise_roles(const patch& p, std::span<const float> note, const waveform_fi
 
 /// The attack of each exponential partial, searched on the residual of fit f (analysis/onset_attack.hpp;
 /// joint: f's residual, joint_residual, or empty); attacks is per partial. Alone: as if the fit had
-/// no new modes (they stay in the residual; joint is not used). True when any changed.
+/// no new modes (they stay in the residual; joint is not used). memo: the attack shapes' Gram sums,
+/// kept for every search of the refinement (attack_gram_memo). True when any changed.
 bool update_attacks(const patch& p, const waveform_fit& f, std::span<const double> joint, std::span<const role> roles,
                     double sample_rate_hz, const onset_attack_params& params, std::vector<attack_choice>& attacks,
-                    bool alone = false) {
+                    attack_gram_memo& memo, bool alone = false) {
     const std::size_t seen = alone ? f.partial_of.size() : f.modes.size();
     std::vector<std::size_t> may_rise, may_swell;
     std::vector<attack_choice> per_mode(seen);
@@ -302,7 +300,7 @@ bool update_attacks(const patch& p, const waveform_fit& f, std::span<const doubl
     const std::vector<attack_choice> chosen =
         choose_attacks(f.target, sample_rate_hz, std::span(f.modes).first(seen), std::span(f.shapes).first(seen),
                        std::span(f.energy).first(seen), may_rise, may_swell, per_mode, params,
-                       alone ? std::span<const double>{} : joint);
+                       alone ? std::span<const double>{} : joint, &memo);
     bool changed = false;
     for (const std::size_t i : may_rise) {
         changed = changed || chosen[i] != per_mode[i];
@@ -318,13 +316,14 @@ std::size_t take_stft_starts(fit_path& s, const patch& p, std::span<const float>
     const std::size_t own = s.f.partial_of.size();
     stft_starts stft;
     for (const std::size_t k : s.f.partial_of) add_stft_start(stft, p.partials[k].env, s.roles[k] == role::exponential, sample_rate_hz, fit_n);
-    const stft_switch found = choose_stft_starts(joint_residual(s.f.target, sample_rate_hz, s.f.modes, s.f.shapes), sample_rate_hz,
+    if (s.joint.empty()) s.joint = joint_residual(s.f.target, sample_rate_hz, s.f.modes, s.f.shapes);
+    const stft_switch found = choose_stft_starts(s.joint, sample_rate_hz,
                                                  std::span(s.f.modes).first(own), std::span(s.f.shapes).first(own), stft,
                                                  std::span(s.f.energy).first(own), span_energy, params);
     for (const std::size_t i : found.partials) s.roles[s.f.partial_of[i]] = role::shaped;
     s.new_modes.insert(s.new_modes.end(), found.companions.begin(), found.companions.end());
     if (!found.companions.empty())
-        s.f = fit_waveform(p, note, sample_rate_hz, fit_n, s.roles, decay, s.attacks, s.new_modes, nullptr, &memo);
+        s.f = fit_waveform(p, note, sample_rate_hz, fit_n, s.roles, decay, s.attacks, s.new_modes, nullptr, &memo), s.joint.clear();
     return found.companions.size();
 }
 
@@ -372,7 +371,6 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
     if (fit_n < 64 || p.partials.empty()) return summary;
     // Modes closer than this cannot be told apart on the span (one Fourier resolution cell).
     const double cluster_hz = sample_rate_hz / static_cast<double>(fit_n);
-
     const subband_mode_params& sub = params.subbands;
     const subband_signals signals = make_subband_signals(note, sample_rate_hz, sub);
     const std::vector<damped_mode> found = subband_modes(signals, sub, sub.span_s);
@@ -414,28 +412,29 @@ onset_refine_summary refine_onset(patch& p, std::span<const float> note, double 
     // (onset_refine_params::alone_attack_partials).
     constexpr int passes = 4;
     shaped_fit_memo memo;  // the last fit's Gram entries and projections, for the modes a pass keeps
+    attack_gram_memo gram_memo;  // the attack shapes' Gram sums, for every attack search
     onset_attack_params alone_params = params.attacks;  // ramps only, for the strongest partials
     alone_params.max_partials = params.alone_attack_partials;
     alone_params.max_rising_partials = 0;
     const auto run = [&](fit_path& s, int first_pass, std::optional<fit_path>* other) {
         for (int pass = first_pass;; ++pass) {
-            s.f = fit_waveform(p, note, sample_rate_hz, fit_n, s.roles, decay, s.attacks, s.new_modes, pass == 0 ? &first_fit : nullptr, &memo);
+            s.f = fit_waveform(p, note, sample_rate_hz, fit_n, s.roles, decay, s.attacks, s.new_modes, pass == 0 ? &first_fit : nullptr, &memo), s.joint.clear();
             if (pass == 0) first_fit = {};  // its memory (two 2K x 2K matrices) back
             if (pass == passes - 1) return;
             // The attacks are searched on this pass's residual (joint) and the roles revised from
             // it; the next pass fits both.
             const bool two_ways = params.search_attacks && params.alone_attack_partials > 0 && other != nullptr && !s.new_modes.empty();
             std::vector<attack_choice> alone = two_ways ? s.attacks : std::vector<attack_choice>{};
-            const std::vector<double> joint = joint_residual(s.f.target, sample_rate_hz, s.f.modes, s.f.shapes);  // for both
-            const bool attacks_changed = params.search_attacks && update_attacks(p, s.f, joint, s.roles, sample_rate_hz, params.attacks, s.attacks);
-            if (two_ways) update_attacks(p, s.f, {}, s.roles, sample_rate_hz, alone_params, alone, true);
-            const bool roles_changed = revise_roles(p, note, s.f, joint, s.roles, s.new_modes, sample_rate_hz, params);
-            if (two_ways && alone != s.attacks && !s.new_modes.empty()) *other = fit_path{s.roles, s.new_modes, alone, {}};
+            s.joint = joint_residual(s.f.target, sample_rate_hz, s.f.modes, s.f.shapes);  // for both, and kept with f
+            const bool attacks_changed = params.search_attacks && update_attacks(p, s.f, s.joint, s.roles, sample_rate_hz, params.attacks, s.attacks, gram_memo);
+            if (two_ways) update_attacks(p, s.f, {}, s.roles, sample_rate_hz, alone_params, alone, gram_memo, true);
+            const bool roles_changed = revise_roles(p, note, s.f, s.joint, s.roles, s.new_modes, sample_rate_hz, params);
+            if (two_ways && alone != s.attacks && !s.new_modes.empty()) *other = fit_path{s.roles, s.new_modes, alone, {}, {}};
             other = nullptr;
             if (!attacks_changed && !roles_changed) return;
         }
     };
-    fit_path s{.roles = std::move(roles), .new_modes = std::move(new_modes), .attacks = std::vector<attack_choice>(p.partials.size()), .f = {}};
+    fit_path s{.roles = std::move(roles), .new_modes = std::move(new_modes), .attacks = std::vector<attack_choice>(p.partials.size()), .f = {}, .joint = {}};
     std::optional<fit_path> other;
     run(s, 0, &other);
     if (other) run(*other, 1, nullptr);

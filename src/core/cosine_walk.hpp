@@ -2,8 +2,9 @@
 // exact_every-th j, between them the pair rotated on by one step of angle_num / angle_den (a few
 // ulps off at most over exact_every steps): one cosine and sine per exact_every values instead of
 // one per value. Used by the Hann window of the heard spectrum (angle 2 pi i / n) and the window's
-// zero-phase transform (angle step * m), and the phasors an early companion is fitted against
-// (analysis/early_companion: cos and sin of omega n, as a whole table by cosine_walk_table); test_spectrum
+// zero-phase transform (angle step * m); the phasors an early companion is fitted against
+// (analysis/decaying_fit's phasor_table) walk cosine_walk_table's stretches with their anchors
+// walked as well, exact every 256th; test_spectrum
 // checks the cosines within 1e-12 of a long-double direct sum, and the table against the walk bit for bit.
 #pragma once
 

@@ -7,11 +7,13 @@
 
 #include <cmath>
 #include <complex>
+#include <limits>
 #include <optional>
 #include <vector>
 #include <sstream>
 
 #include "analysis/analyze.hpp"
+#include "analysis/decaying_fit.hpp"
 #include "analysis/early_companion.hpp"
 #include "core/envelope.hpp"
 #include "core/rng.hpp"
@@ -166,4 +168,24 @@ TEST_CASE("a note its patch copies exactly takes no early companion", "[analysis
     CAPTURE(noise_db, p.partials.size());
     CHECK(added == 0);
     CHECK(p.partials.size() == 2);
+}
+
+TEST_CASE("phasor_table is within 1e-13 of long double's cos and sin over a fit span and past it", "[analysis][companion]") {
+    // Reference: std::cos / std::sin in long double of omega n (omega rounded to double first,
+    // as the table takes it), within 1e-13 plus what rounding omega n to double moves the angle
+    // (4 eps |angle|: the exact anchors take the angle in double). Counts around the walk's
+    // 16-step stretches, its groups of four and its exact anchors every 256.
+    const std::size_t count = GENERATE(0U, 1U, 15U, 63U, 64U, 65U, 255U, 256U, 257U, 300U, 7200U, 48001U);
+    const double omega = GENERATE(0.0, 1e-4, 0.0123, 0.5, 2.9, 3.14159);
+    std::vector<double> cos_n, sin_n;
+    wane::phasor_table(omega, count, cos_n, sin_n);
+    REQUIRE(cos_n.size() == count);
+    REQUIRE(sin_n.size() == count);
+    for (std::size_t n = 0; n < count; ++n) {
+        const long double angle = static_cast<long double>(omega) * static_cast<long double>(n);
+        const long double tol = 1e-13L + 4.0L * std::numeric_limits<double>::epsilon() * angle;
+        CAPTURE(count, omega, n, cos_n[n], sin_n[n]);
+        REQUIRE(std::abs(static_cast<long double>(cos_n[n]) - std::cos(angle)) <= tol);
+        REQUIRE(std::abs(static_cast<long double>(sin_n[n]) - std::sin(angle)) <= tol);
+    }
 }
