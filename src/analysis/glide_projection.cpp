@@ -139,9 +139,9 @@ std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms&
     if (tails) {
         const double whole_rad = freq_hz * t.whole_rad_per_hz;
         sincos_poly(-whole_rad, settled_im, settled_re);
-        const double excess_bound = std::expm1(std::abs(t.cents) * std::numbers::ln2 / 1200.0);
-        turn_weight = two_pi * freq_hz * t.glide_s * excess_bound;
-        slope_weight = rad_per_frame * excess_bound;
+        if (t.excess_bound < 0.0) t.excess_bound = std::expm1(std::abs(t.cents) * std::numbers::ln2 / 1200.0);
+        turn_weight = two_pi * freq_hz * t.glide_s * t.excess_bound;
+        slope_weight = rad_per_frame * t.excess_bound;
         settled_pad = bound_margin * (s.tail_z[0] + std::abs(rad_per_frame * t.excess[0]) * s.tail_z1[0]);
     }
     // Whether no sum whose blocks before b1 summed to (re, im) reaches floor_norm.

@@ -129,6 +129,7 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
             lazy.whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0);
             lazy.decay = decay;
             lazy.filled = 0;
+            lazy.excess_bound = -1.0;
             const std::optional<glide_fit> f = evaluate_above(f_sums, freq_hz, lazy, rate_hz, std::max(best.explained, f_floor), &settled);
             if (f && f->explained > best.explained) best = *f;
         }
