@@ -2,6 +2,7 @@
 #include "analysis/glide_projection.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cassert>
 #include <cmath>
 #include <cstdint>
@@ -111,15 +112,43 @@ void flat_sums_of_one(const double* re, const double* im, std::size_t block, cpl
 /// Four doubles side by side (GCC/Clang vector extensions: one AVX register, two SSE registers).
 using lanes = double __attribute__((vector_size(32)));
 
+/// The 4 x 4 block of doubles a[k][l] as b[l][k] (the rows four loads, the columns four lanes).
+[[gnu::always_inline]] inline void transpose_four(lanes& a0, lanes& a1, lanes& a2, lanes& a3) {
+    using index = long long __attribute__((vector_size(32)));
+    const lanes lo01 = __builtin_shuffle(a0, a1, index{0, 4, 2, 6}), hi01 = __builtin_shuffle(a0, a1, index{1, 5, 3, 7});
+    const lanes lo23 = __builtin_shuffle(a2, a3, index{0, 4, 2, 6}), hi23 = __builtin_shuffle(a2, a3, index{1, 5, 3, 7});
+    a0 = __builtin_shuffle(lo01, lo23, index{0, 1, 4, 5});
+    a1 = __builtin_shuffle(hi01, hi23, index{0, 1, 4, 5});
+    a2 = __builtin_shuffle(lo01, lo23, index{2, 3, 6, 7});
+    a3 = __builtin_shuffle(hi01, hi23, index{2, 3, 6, 7});
+}
+
 /// Four consecutive blocks' flat sums (flat_sums_of_one's, the same operations in the same order
 /// per block: the same numbers), the blocks in four lanes: four independent chains of additions in
-/// flight. Compiled for AVX2 and the baseline (synthesis/kernel_clones.hpp: no FMA).
+/// flight. Four samples of each block are loaded at once and turned into four samples' lanes
+/// (transpose_four), the samples past the last four gathered one by one. Compiled for AVX2 and the
+/// baseline (synthesis/kernel_clones.hpp: no FMA).
 WANE_KERNEL_CLONES
 void flat_sums_of_four(const double* __restrict re, const double* __restrict im, std::size_t block, cplx* __restrict z,
                        cplx* __restrict z1) {
     const double half = 0.5 * static_cast<double>(block - 1);
     lanes zr{}, zi{}, z1r{}, z1i{};
-    for (std::size_t j = 0; j < block; ++j) {
+    std::size_t j = 0;
+    for (; j + 4 <= block; j += 4) {
+        std::array<lanes, 4> r, i;
+        std::memcpy(&r[0], re + j, sizeof(lanes)), std::memcpy(&i[0], im + j, sizeof(lanes));
+        std::memcpy(&r[1], re + j + block, sizeof(lanes)), std::memcpy(&i[1], im + j + block, sizeof(lanes));
+        std::memcpy(&r[2], re + j + 2 * block, sizeof(lanes)), std::memcpy(&i[2], im + j + 2 * block, sizeof(lanes));
+        std::memcpy(&r[3], re + j + 3 * block, sizeof(lanes)), std::memcpy(&i[3], im + j + 3 * block, sizeof(lanes));
+        transpose_four(r[0], r[1], r[2], r[3]);
+        transpose_four(i[0], i[1], i[2], i[3]);
+        for (std::size_t k = 0; k < 4; ++k) {
+            const double offset = static_cast<double>(j + k) - half;
+            zr += r[k], zi += i[k];
+            z1r += offset * r[k], z1i += offset * i[k];
+        }
+    }
+    for (; j < block; ++j) {
         const double offset = static_cast<double>(j) - half;
         const lanes r{re[j], re[j + block], re[j + 2 * block], re[j + 3 * block]};
         const lanes i{im[j], im[j + block], im[j + 2 * block], im[j + 3 * block]};
