@@ -114,13 +114,12 @@ using lanes = double __attribute__((vector_size(32)));
 
 /// The 4 x 4 block of doubles a[k][l] as b[l][k] (the rows four loads, the columns four lanes).
 [[gnu::always_inline]] inline void transpose_four(lanes& a0, lanes& a1, lanes& a2, lanes& a3) {
-    using index = long long __attribute__((vector_size(32)));
-    const lanes lo01 = __builtin_shuffle(a0, a1, index{0, 4, 2, 6}), hi01 = __builtin_shuffle(a0, a1, index{1, 5, 3, 7});
-    const lanes lo23 = __builtin_shuffle(a2, a3, index{0, 4, 2, 6}), hi23 = __builtin_shuffle(a2, a3, index{1, 5, 3, 7});
-    a0 = __builtin_shuffle(lo01, lo23, index{0, 1, 4, 5});
-    a1 = __builtin_shuffle(hi01, hi23, index{0, 1, 4, 5});
-    a2 = __builtin_shuffle(lo01, lo23, index{2, 3, 6, 7});
-    a3 = __builtin_shuffle(hi01, hi23, index{2, 3, 6, 7});
+    const lanes lo01 = __builtin_shufflevector(a0, a1, 0, 4, 2, 6), hi01 = __builtin_shufflevector(a0, a1, 1, 5, 3, 7);
+    const lanes lo23 = __builtin_shufflevector(a2, a3, 0, 4, 2, 6), hi23 = __builtin_shufflevector(a2, a3, 1, 5, 3, 7);
+    a0 = __builtin_shufflevector(lo01, lo23, 0, 1, 4, 5);
+    a1 = __builtin_shufflevector(hi01, hi23, 0, 1, 4, 5);
+    a2 = __builtin_shufflevector(lo01, lo23, 2, 3, 6, 7);
+    a3 = __builtin_shufflevector(hi01, hi23, 2, 3, 6, 7);
 }
 
 /// Four consecutive blocks' flat sums (flat_sums_of_one's, the same operations in the same order

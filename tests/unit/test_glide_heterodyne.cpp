@@ -17,7 +17,7 @@ using namespace wane;
 TEST_CASE("the glide search's heterodyne is y times its phasor within the phase's rounding and 1e-13 of y's size at every sample", "[analysis][glide]") {
     // Lengths with and without a stretch left over at the end, frequencies from 0 to half the rate
     // (the turn per sample near pi), and a long span (the slow pass's 0.4 s at 96 kHz).
-    splitmix64 rng(2024);
+    splitmix64 rng{2024};
     const test::gaussian_draw<double> draw{0.0, 1.0};
     for (const double rate_hz : {44100.0, 48000.0, 96000.0}) {
         for (const std::size_t count : {std::size_t{7}, std::size_t{7200}, std::size_t{7231}, std::size_t{38400}}) {

@@ -38,7 +38,7 @@ std::vector<lcomplex> running_mean(const std::vector<lcomplex>& in, std::size_t 
 TEST_CASE("the mode split's band equals three running means of the target moved to 0 Hz within 1e-12 of its peak",
           "[analysis][modes]") {
     constexpr long double pi_l = 3.14159265358979323846264338327950288L;
-    splitmix64 rng(4242);
+    splitmix64 rng{4242};
     const test::gaussian_draw<double> draw{0.0, 0.1};
     for (const double rate_hz : {44100.0, 48000.0}) {
         // d as the mode split takes it (rate / 200 Hz), an odd d (a block's last samples one at a
