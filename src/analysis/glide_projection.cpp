@@ -2,9 +2,11 @@
 #include "analysis/glide_projection.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cassert>
 #include <cmath>
 #include <cstdint>
+#include <cstring>
 #include <numbers>
 #include <numeric>
 
@@ -20,6 +22,14 @@ namespace {
 
 using cplx = std::complex<double>;
 
+/// |z| as the bounds take it: sqrt(re^2 + im^2), within two ulps of std::abs (hypot) and a
+/// fraction of its cost; std::abs itself where the squares could underflow (or overflow). The
+/// bounds built on it are padded by far more (bound_margin, explains_under's 1e-6).
+double bound_abs(std::complex<double> z) {
+    const double squared = std::norm(z);
+    return squared > 1e-250 && squared < 1e250 ? std::sqrt(squared) : std::abs(z);
+}
+
 /// s's tail sums (block_sums::tail_z, tail_z1).
 void add_tails(block_sums& s) {
     const std::size_t count = s.z.size();
@@ -29,29 +39,60 @@ void add_tails(block_sums& s) {
     s.abs_z.resize(count);
     s.abs_z1.resize(count);
     for (std::size_t b = count; b-- > 0;) {
-        s.abs_z[b] = std::abs(s.z[b]);
-        s.abs_z1[b] = std::abs(s.z1[b]);
+        s.abs_z[b] = bound_abs(s.z[b]);
+        s.abs_z1[b] = bound_abs(s.z1[b]);
         s.tail_z[b] = s.tail_z[b + 1] + s.abs_z[b];
         s.tail_z1[b] = s.tail_z1[b + 1] + s.abs_z1[b];
         s.tail_sum[b] = s.tail_sum[b + 1] + s.z[b];
     }
 }
 
-/// y[n] e^(-j 2 pi f n / fs) for n < count, its real and imaginary parts (the phasor from the
-/// fraction of n f / fs cycles), one vector loop compiled for AVX2 and for the baseline
-/// (synthesis/kernel_clones.hpp: the same bits).
+/// Samples between two phasors made from their phase (heterodyne's stretches): a multiple of 4.
+constexpr std::size_t walk_stretch = 32;
+
+/// y[n] e^(-j 2 pi f n / fs) for n < count, its real and imaginary parts. Four consecutive
+/// samples' phasors side by side (a vector of four doubles), made from the fraction of n f / fs
+/// cycles (sincos_poly) at the start of every walk_stretch samples and rotated on by four samples'
+/// turn e^(-j 8 pi f / fs) between them (a few ulps off at most over a stretch; a sincos_poly per
+/// sample cost twice the rest); the last samples one at a time. Compiled for AVX2 and for the
+/// baseline (synthesis/kernel_clones.hpp: no FMA, the same bits).
 WANE_KERNEL_CLONES
 void heterodyne(const double* __restrict y, std::size_t count, double cycles_per_frame, double* __restrict re,
                 double* __restrict im) {
+    using lanes = double __attribute__((vector_size(32)));
     assert(count < (std::size_t{1} << 31U) && cycles_per_frame >= 0.0 && cycles_per_frame <= 0.5);
-    const auto frames = static_cast<std::int32_t>(count);
-    for (std::int32_t n = 0; n < frames; ++n) {  // a 32-bit count: its conversion to double vectorizes
+    // The phasor at n from its phase, -2 pi times the fraction of n f / fs cycles (cycles >= 0).
+    const auto phase_at = [cycles_per_frame](std::size_t n) {
         double cycles = static_cast<double>(n) * cycles_per_frame;
-        cycles -= static_cast<double>(static_cast<std::int32_t>(cycles));  // its floor: cycles >= 0
-        double sin_p = 0.0, cos_p = 0.0;
-        sincos_poly(-two_pi * cycles, sin_p, cos_p);
-        re[n] = y[n] * cos_p;
-        im[n] = y[n] * sin_p;
+        cycles -= static_cast<double>(static_cast<std::int64_t>(cycles));
+        return -two_pi * cycles;
+    };
+    const auto phasor_at = [&](std::size_t n, double& sin_p, double& cos_p) { sincos_poly(phase_at(n), sin_p, cos_p); };
+    double turn_sin = 0.0, turn_cos = 1.0;
+    phasor_at(4, turn_sin, turn_cos);
+    std::size_t from = 0;
+    for (; from + walk_stretch <= count; from += walk_stretch) {
+        alignas(32) double phase[4], sin_a[4], cos_a[4];
+        for (std::size_t l = 0; l < 4; ++l) phase[l] = phase_at(from + l);
+        for (std::size_t l = 0; l < 4; ++l) sincos_poly(phase[l], sin_a[l], cos_a[l]);
+        lanes c, s;
+        std::memcpy(&c, cos_a, sizeof c), std::memcpy(&s, sin_a, sizeof s);
+        for (std::size_t n = from;; n += 4) {
+            lanes y4;
+            std::memcpy(&y4, y + n, sizeof y4);
+            const lanes zr = y4 * c, zi = y4 * s;
+            std::memcpy(re + n, &zr, sizeof zr), std::memcpy(im + n, &zi, sizeof zi);
+            if (n + 4 == from + walk_stretch) break;
+            const lanes next_c = c * turn_cos - s * turn_sin;
+            s = s * turn_cos + c * turn_sin;
+            c = next_c;
+        }
+    }
+    for (std::size_t n = from; n < count; ++n) {
+        double s = 0.0, c = 1.0;
+        phasor_at(n, s, c);
+        re[n] = y[n] * c;
+        im[n] = y[n] * s;
     }
 }
 
@@ -71,15 +112,42 @@ void flat_sums_of_one(const double* re, const double* im, std::size_t block, cpl
 /// Four doubles side by side (GCC/Clang vector extensions: one AVX register, two SSE registers).
 using lanes = double __attribute__((vector_size(32)));
 
+/// The 4 x 4 block of doubles a[k][l] as b[l][k] (the rows four loads, the columns four lanes).
+[[gnu::always_inline]] inline void transpose_four(lanes& a0, lanes& a1, lanes& a2, lanes& a3) {
+    const lanes lo01 = __builtin_shufflevector(a0, a1, 0, 4, 2, 6), hi01 = __builtin_shufflevector(a0, a1, 1, 5, 3, 7);
+    const lanes lo23 = __builtin_shufflevector(a2, a3, 0, 4, 2, 6), hi23 = __builtin_shufflevector(a2, a3, 1, 5, 3, 7);
+    a0 = __builtin_shufflevector(lo01, lo23, 0, 1, 4, 5);
+    a1 = __builtin_shufflevector(hi01, hi23, 0, 1, 4, 5);
+    a2 = __builtin_shufflevector(lo01, lo23, 2, 3, 6, 7);
+    a3 = __builtin_shufflevector(hi01, hi23, 2, 3, 6, 7);
+}
+
 /// Four consecutive blocks' flat sums (flat_sums_of_one's, the same operations in the same order
 /// per block: the same numbers), the blocks in four lanes: four independent chains of additions in
-/// flight. Compiled for AVX2 and the baseline (synthesis/kernel_clones.hpp: no FMA).
+/// flight. Four samples of each block are loaded at once and turned into four samples' lanes
+/// (transpose_four), the samples past the last four gathered one by one. Compiled for AVX2 and the
+/// baseline (synthesis/kernel_clones.hpp: no FMA).
 WANE_KERNEL_CLONES
 void flat_sums_of_four(const double* __restrict re, const double* __restrict im, std::size_t block, cplx* __restrict z,
                        cplx* __restrict z1) {
     const double half = 0.5 * static_cast<double>(block - 1);
     lanes zr{}, zi{}, z1r{}, z1i{};
-    for (std::size_t j = 0; j < block; ++j) {
+    std::size_t j = 0;
+    for (; j + 4 <= block; j += 4) {
+        std::array<lanes, 4> r, i;
+        std::memcpy(&r[0], re + j, sizeof(lanes)), std::memcpy(&i[0], im + j, sizeof(lanes));
+        std::memcpy(&r[1], re + j + block, sizeof(lanes)), std::memcpy(&i[1], im + j + block, sizeof(lanes));
+        std::memcpy(&r[2], re + j + 2 * block, sizeof(lanes)), std::memcpy(&i[2], im + j + 2 * block, sizeof(lanes));
+        std::memcpy(&r[3], re + j + 3 * block, sizeof(lanes)), std::memcpy(&i[3], im + j + 3 * block, sizeof(lanes));
+        transpose_four(r[0], r[1], r[2], r[3]);
+        transpose_four(i[0], i[1], i[2], i[3]);
+        for (std::size_t k = 0; k < 4; ++k) {
+            const double offset = static_cast<double>(j + k) - half;
+            zr += r[k], zi += i[k];
+            z1r += offset * r[k], z1i += offset * i[k];
+        }
+    }
+    for (; j < block; ++j) {
         const double offset = static_cast<double>(j) - half;
         const lanes r{re[j], re[j + block], re[j + 2 * block], re[j + 3 * block]};
         const lanes i{im[j], im[j + block], im[j + 2 * block], im[j + 3 * block]};
@@ -139,9 +207,9 @@ std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms&
     if (tails) {
         const double whole_rad = freq_hz * t.whole_rad_per_hz;
         sincos_poly(-whole_rad, settled_im, settled_re);
-        const double excess_bound = std::expm1(std::abs(t.cents) * std::numbers::ln2 / 1200.0);
-        turn_weight = two_pi * freq_hz * t.glide_s * excess_bound;
-        slope_weight = rad_per_frame * excess_bound;
+        if (t.excess_bound < 0.0) t.excess_bound = std::expm1(std::abs(t.cents) * std::numbers::ln2 / 1200.0);
+        turn_weight = two_pi * freq_hz * t.glide_s * t.excess_bound;
+        slope_weight = rad_per_frame * t.excess_bound;
         settled_pad = bound_margin * (s.tail_z[0] + std::abs(rad_per_frame * t.excess[0]) * s.tail_z1[0]);
     }
     // Whether no sum whose blocks before b1 summed to (re, im) reaches floor_norm.

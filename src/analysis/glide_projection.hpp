@@ -81,6 +81,10 @@ struct glide_terms {
     /// the first `filled` blocks' are made, the rest come from decay as the sum reaches them.
     std::span<const double> decay{};
     std::size_t filled = 0;
+    /// expm1(|cents| ln2 / 1200), the settled bound's largest excess (evaluate_above), made as the
+    /// first sum needs it and kept with the terms (a coarse point's for every partial); < 0: not
+    /// made yet (set it back with cents).
+    double excess_bound = -1.0;
 };
 
 /// The terms of (cents, glide_s) at every decay, made whole.

@@ -5,6 +5,7 @@
 #include <cassert>
 #include <algorithm>
 #include <cmath>
+#include <cstring>
 
 #include "core/units.hpp"
 #include "synthesis/kernel_clones.hpp"
@@ -33,43 +34,42 @@ block_moments moments_of(const float* xb, std::size_t from, std::span<const std:
     return {m0, m1, m2};
 }
 
-/// Two blocks' complex sums side by side, {re_a, im_a, re_b, im_b} (GCC/Clang vector extensions):
-/// the lane arithmetic below is the IEEE operations std::complex<double> does for a real times a
-/// complex and for a sum, four lanes at a time (one AVX register, two SSE registers).
-using vblocks = double __attribute__((vector_size(32)));
+/// Four doubles side by side (GCC/Clang vector extensions: one AVX register, two SSE registers).
+using lanes = double __attribute__((vector_size(32)));
 
-/// Four whole blocks' moments (j from 0; x[i] the block's sample at j = 0) in one loop: each
-/// block's sums are chains of additions that wait on the one before, the blocks' chains are
-/// independent, so the processor runs them side by side. Each is summed in j order with the
-/// operations moments_of does: the same numbers. Compiled for AVX2 and the baseline
-/// (synthesis/kernel_clones.hpp: no FMA, the same bits).
+/// One whole block's moments (j from 0; x the block's sample at j = 0), four consecutive j side by
+/// side: lane l sums j = l mod 4, the lanes added at the end (m0, m1, m2 each summed in that
+/// order: a different rounding from moments_of's, within a few ulps of the block's magnitude), the
+/// j left past the last four in moments_of's order. The phasor as real and imaginary parts apart.
+/// Compiled for AVX2 and the baseline (synthesis/kernel_clones.hpp: no FMA, the same bits).
 WANE_KERNEL_CLONES
-void moments_of_four(const std::array<const float*, 4>& x, const std::complex<double>* __restrict phasor, std::size_t d,
-                     std::array<block_moments, 4>& out) {
-    vblocks ab0{}, ab1{}, ab2{}, cd0{}, cd1{}, cd2{};
-    for (std::size_t j = 0; j < d; ++j) {
-        const auto jd = static_cast<double>(j);
-        const double jj = jd * jd;
-        const double re = phasor[j].real(), im = phasor[j].imag();
-        const vblocks ph{re, im, re, im};
-        const auto xa = static_cast<double>(x[0][j]), xb = static_cast<double>(x[1][j]);
-        const auto xc = static_cast<double>(x[2][j]), xd = static_cast<double>(x[3][j]);
-        const vblocks wab = vblocks{xa, xa, xb, xb} * ph;
-        const vblocks wcd = vblocks{xc, xc, xd, xd} * ph;
-        ab0 += wab;
-        ab1 += jd * wab;
-        ab2 += jj * wab;
-        cd0 += wcd;
-        cd1 += jd * wcd;
-        cd2 += jj * wcd;
+block_moments moments_of_whole(const float* __restrict x, const double* __restrict phasor_re,
+                               const double* __restrict phasor_im, std::size_t d) {
+    lanes m0r{}, m0i{}, m1r{}, m1i{}, m2r{}, m2i{};
+    lanes jv{0.0, 1.0, 2.0, 3.0};
+    std::size_t j = 0;
+    for (; j + 4 <= d; j += 4) {
+        const lanes xv{static_cast<double>(x[j]), static_cast<double>(x[j + 1]), static_cast<double>(x[j + 2]),
+                       static_cast<double>(x[j + 3])};
+        lanes pr, pi;
+        std::memcpy(&pr, phasor_re + j, sizeof pr), std::memcpy(&pi, phasor_im + j, sizeof pi);
+        const lanes wr = xv * pr, wi = xv * pi;
+        const lanes jj = jv * jv;
+        m0r += wr, m0i += wi;
+        m1r += jv * wr, m1i += jv * wi;
+        m2r += jj * wr, m2i += jj * wi;
+        jv += 4.0;
     }
-    const auto put = [&](std::size_t i, const vblocks& m0, const vblocks& m1, const vblocks& m2, std::size_t lane) {
-        out[i] = {{m0[lane], m0[lane + 1]}, {m1[lane], m1[lane + 1]}, {m2[lane], m2[lane + 1]}};
-    };
-    put(0, ab0, ab1, ab2, 0);
-    put(1, ab0, ab1, ab2, 2);
-    put(2, cd0, cd1, cd2, 0);
-    put(3, cd0, cd1, cd2, 2);
+    const auto total = [](const lanes& v) { return (v[0] + v[1]) + (v[2] + v[3]); };
+    block_moments out{{total(m0r), total(m0i)}, {total(m1r), total(m1i)}, {total(m2r), total(m2i)}};
+    for (; j < d; ++j) {
+        const std::complex<double> w = static_cast<double>(x[j]) * std::complex<double>{phasor_re[j], phasor_im[j]};
+        const auto jd = static_cast<double>(j);
+        out.m0 += w;
+        out.m1 += jd * w;
+        out.m2 += (jd * jd) * w;
+    }
+    return out;
 }
 
 }  // namespace
@@ -122,15 +122,10 @@ cvec band_of(std::span<const float> x, double freq_hz, double sample_rate_hz, st
     // Block b: x[b d - 2 + j], j < d (the two samples before x[0] are none: block 0 from j = 2).
     const std::size_t blocks = outputs + 2;
     add_block(0, moments_of(x.data(), 2, phasor));
-    std::size_t b = 1;
-    for (; b + 3 < blocks; b += 4) {
-        std::array<block_moments, 4> m;
-        moments_of_four({x.data() + (b * d - 2), x.data() + ((b + 1) * d - 2), x.data() + ((b + 2) * d - 2),
-                         x.data() + ((b + 3) * d - 2)},
-                        phasor.data(), d, m);
-        for (std::size_t i = 0; i < 4; ++i) add_block(b + i, m[i]);
-    }
-    for (; b < blocks; ++b) add_block(b, moments_of(x.data() + (b * d - 2), 0, phasor));
+    std::vector<double> phasor_re(d), phasor_im(d);
+    for (std::size_t j = 0; j < d; ++j) phasor_re[j] = phasor[j].real(), phasor_im[j] = phasor[j].imag();
+    for (std::size_t b = 1; b < blocks; ++b)
+        add_block(b, moments_of_whole(x.data() + (b * d - 2), phasor_re.data(), phasor_im.data(), d));
     return out;
 }
 

@@ -10,6 +10,8 @@
 #include <numbers>
 #include <numeric>
 #include <optional>
+#include <span>
+#include <utility>
 #include <vector>
 
 #include "analysis/glide_heard.hpp"
@@ -57,7 +59,21 @@ struct coarse_grid {
     std::vector<std::vector<double>> decay;  ///< per time constant; the points' decay spans look into these
     std::vector<std::size_t> decay_of;       ///< per point: its time constant's index in decay
 };
-using coarse_rings = std::vector<coarse_grid>;
+/// The grids' terms kept for the next partial of the note: the coarse rings, and the fine grid's
+/// decays e^(-t_b / tau) on its blocks (the same blocks for every partial) per time constant met
+/// (the fine grid's time constants follow the coarse best's, which partials share).
+struct coarse_rings {
+    std::vector<coarse_grid> grids;
+    std::vector<std::pair<double, std::vector<double>>> fine_decays;  ///< (tau, decay) as met
+
+    /// The fine blocks' decay for tau, made the first time (decays).
+    std::span<const double> fine_decay(const block_sums& f_sums, double glide_s) {
+        for (const auto& [tau, decay] : fine_decays)
+            if (tau == glide_s) return decay;
+        fine_decays.emplace_back(glide_s, decays(f_sums, glide_s));
+        return fine_decays.back().second;
+    }
+};
 
 coarse_grid make_coarse_grid(const block_sums& coarse_sums, const onset_glide_params& params, std::size_t ring) {
     coarse_grid out;
@@ -94,8 +110,8 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
                  coarse_rings& rings, std::size_t ring, double longest_s, double coarse_floor, double kept_floor) {
     glide_fit best;
     const block_sums coarse_sums = merged_pairs(s, rate_hz);
-    while (rings.size() <= ring) rings.push_back(make_coarse_grid(coarse_sums, params, rings.size()));
-    coarse_grid& grid = rings[ring];
+    while (rings.grids.size() <= ring) rings.grids.push_back(make_coarse_grid(coarse_sums, params, rings.grids.size()));
+    coarse_grid& grid = rings.grids[ring];
     std::vector<decay_tails> tails;  // this partial's, per time constant (evaluate_above's settled bound)
     for (const std::vector<double>& decay : grid.decay) tails.push_back(tails_at(coarse_sums, decay));
     for (std::size_t i = 0; i < grid.points.size(); ++i) {  // terms made as the sums reach them (evaluate_above)
@@ -119,7 +135,8 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
     for (int j = -half_octave; j <= half_octave; ++j) {
         const double glide_s = std::clamp(coarse.glide_s * std::exp2(static_cast<double>(j) / params.fine_glide_s_steps_per_octave),
                                           params.min_fit_glide_s / 2.0, max_glide_s);
-        const std::vector<double> decay = decays(f_sums, glide_s);
+        // Its buffer moves with fine_decays' entry, unchanged, when the list grows.
+        const std::span<const double> decay = rings.fine_decay(f_sums, glide_s);
         const decay_tails settled = tails_at(f_sums, decay);
         for (int i = -fine; i <= fine; ++i) {
             const double cents = coarse.cents + i * params.fine_cents_step;
@@ -129,6 +146,7 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
             lazy.whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0);
             lazy.decay = decay;
             lazy.filled = 0;
+            lazy.excess_bound = -1.0;
             const std::optional<glide_fit> f = evaluate_above(f_sums, freq_hz, lazy, rate_hz, std::max(best.explained, f_floor), &settled);
             if (f && f->explained > best.explained) best = *f;
         }
