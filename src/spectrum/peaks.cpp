@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <array>
+#include <bit>
 #include <cassert>
 #include <cmath>
 #include <cstdint>
@@ -46,18 +47,22 @@ float largest_power(std::span<const float> x) {
     return best;
 }
 
-/// Whether any of the scan_lanes values from x is over thr (branch-free: vector compares, one
-/// test of their union).
-bool any_over(const float* x, float thr) {
-    int4 over{};
+/// Which of the scan_lanes values from x are over thr: bit i set for x[i] > thr (vector compares;
+/// each lane's compare is all ones or all zeros, so one bit of it says which).
+std::uint32_t lanes_over(const float* x, float thr) {
+    std::uint32_t mask = 0;
     for (std::size_t k = 0; k < scan_lanes; k += 4) {
         float4 v;
         std::memcpy(&v, x + k, sizeof v);
-        over |= v > thr;
+        const int4 over = v > thr;
+#if defined(__SSE__)
+        // The lanes' sign bits in one instruction (movmskps on the compare's bits).
+        mask |= static_cast<std::uint32_t>(__builtin_ia32_movmskps(std::bit_cast<float4>(over))) << k;
+#else
+        for (std::size_t l = 0; l < 4; ++l) mask |= (static_cast<std::uint32_t>(over[l]) & 1u) << (k + l);
+#endif
     }
-    std::int64_t halves[2];
-    std::memcpy(halves, &over, sizeof halves);
-    return (halves[0] | halves[1]) != 0;
+    return mask;
 }
 
 /// The QIFFT peak at local maximum k (power[k - 1] < power[k] >= power[k + 1]); its phase from the
@@ -187,9 +192,19 @@ void find_peaks(std::span<const float> power, std::span<const kiss_fft_cpx> bins
         const auto thr = static_cast<float>(
             floor != nullptr ? std::max(base_thr, floor->band_power(band) * above_floor) : base_thr);
         for (std::size_t chunk = lo; chunk < hi; chunk += scan_lanes) {
-            // Most bins lie under the threshold: scan_lanes of them at once are passed over.
+            // Most bins lie under the threshold: scan_lanes of them are compared at once, and only
+            // those over it are looked at, in order (callgrind, `wane analyze` of the synthetic
+            // note: find_peaks 14.91 -> 14.23 M instructions; the same peaks).
             const std::size_t end = std::min(chunk + scan_lanes, hi);
-            if (end - chunk == scan_lanes && !any_over(&power[chunk], thr)) continue;
+            if (end - chunk == scan_lanes) {
+                for (std::uint32_t over = lanes_over(&power[chunk], thr); over != 0; over &= over - 1) {
+                    const std::size_t k = chunk + static_cast<std::size_t>(std::countr_zero(over));
+                    const float p = power[k];
+                    if (p > power[k - 1] && p >= power[k + 1])
+                        out.push_back(peak_at(power, bins, correction, k, bin_hz, band_floor_db));
+                }
+                continue;
+            }
             for (std::size_t k = chunk; k < end; ++k) {
                 const float p = power[k];
                 if (p <= thr || !(p > power[k - 1] && p >= power[k + 1])) continue;
