@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <array>
+#include <bit>
 #include <cassert>
 #include <cmath>
 #include <cstdint>
@@ -9,12 +10,26 @@
 
 #include "core/order_select.hpp"
 #include "core/units.hpp"
+#include "synthesis/kernel_clones.hpp"
 
 namespace wane {
 
 namespace {
 double db_of_power(double power) { return 10.0 * std::log10(std::max(power, 1e-30)); }
-double wrap_phase(double phase) { return std::remainder(phase, two_pi); }
+/// std::remainder(phase, two_pi) for |phase| < 1.5 two_pi, without the library call: the nearest
+/// multiple n two_pi has n in {-1, 0, 1} (n = 0 at |phase| = two_pi / 2, the tie rounding to even),
+/// and phase -+ two_pi is exact there (Sterbenz: |phase| within [two_pi / 2, 2 two_pi]), so the
+/// same value as the remainder. peak_phase_rad's phases are atan2's, in [-two_pi / 2, two_pi / 2]:
+/// their difference stays within two_pi, and ph0 + |offset| x that wrapped difference under
+/// 1.5 two_pi for |offset_bins| < 2 (QIFFT offsets are within 0.5). (Callgrind, `wane analyze` of
+/// the synthetic note: peak_phase_rad 3.95 -> 2.84 M instructions.)
+double wrap_phase(double phase) {
+    assert(std::abs(phase) < 1.5 * two_pi);
+    constexpr double half_turn = 0.5 * two_pi;  // exact: a power-of-two scaling
+    if (phase > half_turn) return phase - two_pi;
+    if (phase < -half_turn) return phase + two_pi;
+    return phase;
+}
 constexpr std::size_t bin_stride = 2;  ///< the floor looks at every 2nd bin (zero padding >= 2)
 
 /// Bins find_peaks tests at a time against the threshold before looking at each (a vector loop;
@@ -46,18 +61,33 @@ float largest_power(std::span<const float> x) {
     return best;
 }
 
-/// Whether any of the scan_lanes values from x is over thr (branch-free: vector compares, one
-/// test of their union).
-bool any_over(const float* x, float thr) {
-    int4 over{};
+/// Which of the scan_lanes values from x are over thr: bit i set for x[i] > thr (vector compares;
+/// each lane's compare is all ones or all zeros, so one bit of it says which).
+std::uint32_t lanes_over(const float* x, float thr) {
+    std::uint32_t mask = 0;
     for (std::size_t k = 0; k < scan_lanes; k += 4) {
         float4 v;
         std::memcpy(&v, x + k, sizeof v);
-        over |= v > thr;
+        const int4 over = v > thr;
+#if defined(__SSE__)
+        // The lanes' sign bits in one instruction (movmskps on the compare's bits).
+        mask |= static_cast<std::uint32_t>(__builtin_ia32_movmskps(std::bit_cast<float4>(over))) << k;
+#else
+        for (std::size_t l = 0; l < 4; ++l) mask |= (static_cast<std::uint32_t>(over[l]) & 1u) << (k + l);
+#endif
     }
-    std::int64_t halves[2];
-    std::memcpy(halves, &over, sizeof halves);
-    return (halves[0] | halves[1]) != 0;
+    return mask;
+}
+
+/// lanes[i * rank_lanes + l] = bins[l * band + i * bin_stride], i < count, l < rank_lanes: rank_lanes
+/// bands' every bin_stride-th bin side by side (select_small_ranks' layout), a row of lanes at a
+/// time (contiguous stores). Compiled for AVX2 and the baseline (WANE_KERNEL_CLONES: copies only,
+/// the same values in both; callgrind, `wane analyze` of the synthetic note: noise_floor::measure
+/// 11.13 -> 10.13 M instructions).
+WANE_KERNEL_CLONES
+void gather_band_lanes(const float* bins, std::size_t band, std::size_t count, float* lanes) {
+    for (std::size_t i = 0; i < count; ++i)
+        for (std::size_t l = 0; l < rank_lanes; ++l) lanes[i * rank_lanes + l] = bins[l * band + i * bin_stride];
 }
 
 /// The QIFFT peak at local maximum k (power[k - 1] < power[k] >= power[k + 1]); its phase from the
@@ -113,10 +143,7 @@ void noise_floor::measure(std::span<const float> power) {
     if (whole_q <= max_small_rank && whole_q < whole_count) {
         std::array<float, rank_lanes> value{};
         for (; first + rank_lanes <= bands_db_.size() && (first + rank_lanes) * band <= power.size(); first += rank_lanes) {
-            for (std::size_t l = 0; l < rank_lanes; ++l) {
-                const float* bins = power.data() + (first + l) * band;
-                for (std::size_t i = 0; i < whole_count; ++i) lanes_[i * rank_lanes + l] = bins[i * bin_stride];
-            }
+            gather_band_lanes(power.data() + first * band, band, whole_count, lanes_.data());
             select_small_ranks(lanes_, whole_count, whole_q, value);
             for (std::size_t l = 0; l < rank_lanes; ++l) measured_db_[first + l] = db_of_power(double(value[l]) * mean_over_quantile_);
         }
@@ -187,9 +214,19 @@ void find_peaks(std::span<const float> power, std::span<const kiss_fft_cpx> bins
         const auto thr = static_cast<float>(
             floor != nullptr ? std::max(base_thr, floor->band_power(band) * above_floor) : base_thr);
         for (std::size_t chunk = lo; chunk < hi; chunk += scan_lanes) {
-            // Most bins lie under the threshold: scan_lanes of them at once are passed over.
+            // Most bins lie under the threshold: scan_lanes of them are compared at once, and only
+            // those over it are looked at, in order (callgrind, `wane analyze` of the synthetic
+            // note: find_peaks 14.91 -> 14.23 M instructions; the same peaks).
             const std::size_t end = std::min(chunk + scan_lanes, hi);
-            if (end - chunk == scan_lanes && !any_over(&power[chunk], thr)) continue;
+            if (end - chunk == scan_lanes) {
+                for (std::uint32_t over = lanes_over(&power[chunk], thr); over != 0; over &= over - 1) {
+                    const std::size_t k = chunk + static_cast<std::size_t>(std::countr_zero(over));
+                    const float p = power[k];
+                    if (p > power[k - 1] && p >= power[k + 1])
+                        out.push_back(peak_at(power, bins, correction, k, bin_hz, band_floor_db));
+                }
+                continue;
+            }
             for (std::size_t k = chunk; k < end; ++k) {
                 const float p = power[k];
                 if (p <= thr || !(p > power[k - 1] && p >= power[k + 1])) continue;

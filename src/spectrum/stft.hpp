@@ -80,11 +80,15 @@ public:
     /// Transforms the frame centred at sample `centre` (dc_offset subtracted from every sample);
     /// then bins() and power() describe it.
     void analyze(std::span<const float> samples, std::int64_t centre, float dc_offset = 0.0f);
-    /// The same frame for power() only: bins() are left as they were.
+    /// The same frame for power() only: bins() are left as they were (the FFT writes a buffer of
+    /// its own, not the one bins() shows).
     void analyze_power(std::span<const float> samples, std::int64_t centre);
 
-    /// Raw FFT bins (fft_size / 2 + 1), unscaled.
-    std::span<const kiss_fft_cpx> bins() const { return bins_; }
+    /// Raw FFT bins (fft_size / 2 + 1), unscaled: the FFT's own output, not a copy (kiss_fft_cpx
+    /// is two floats, as FFTW's complex).
+    std::span<const kiss_fft_cpx> bins() const {
+        return {reinterpret_cast<const kiss_fft_cpx*>(spectrum_.get()), bin_count_};  // NOLINT(cppcoreguidelines-pro-type-reinterpret-cast)
+    }
     /// |X[k]|^2 * amp_scale()^2: squared amplitude of a sinusoid centred on bin k (fft_size/2 + 1).
     std::span<const float> power() const { return power_; }
 
@@ -103,8 +107,11 @@ public:
     }
 
 private:
-    /// Windows the frame into the FFT input and runs the FFT (its output in spectrum_).
-    void transform(std::span<const float> samples, std::int64_t centre, float dc_offset);
+    /// Windows the frame into the FFT input and runs the FFT, its output (fft_size / 2 + 1
+    /// complex values, re and im interleaved) written to out: spectrum_ or power_spectrum_.
+    void transform(std::span<const float> samples, std::int64_t centre, float dc_offset, float* out);
+    /// |X[k]|^2 amp_scale()^2 of the interleaved bins in `spectrum` into power_.
+    void set_power(const float* spectrum);
     stft_config config_;
     std::vector<float> window_;
     double amp_scale_ = 0.0;
@@ -118,8 +125,9 @@ private:
     };
     std::unique_ptr<kiss_fftr_state, kiss_free> kiss_;  ///< with few_frames
     std::unique_ptr<float, fftw_buffer_free> frame_;      ///< fft_size real inputs (FFTW-aligned)
-    std::unique_ptr<float, fftw_buffer_free> spectrum_;   ///< fft_size / 2 + 1 complex outputs
-    std::vector<kiss_fft_cpx> bins_;
+    std::unique_ptr<float, fftw_buffer_free> spectrum_;   ///< fft_size / 2 + 1 complex outputs: bins()
+    std::unique_ptr<float, fftw_buffer_free> power_spectrum_;  ///< the same for analyze_power
+    std::size_t bin_count_ = 0;                           ///< fft_size / 2 + 1
     std::vector<float> power_;
 };
 
