@@ -137,10 +137,14 @@ std::vector<damped_mode> lasting_modes(std::span<const damped_mode> candidates, 
                                        double sample_rate_hz, std::size_t span_n, const onset_refine_params& params) {
     std::vector<damped_mode> out;
     const double floor_ratio = std::pow(10.0, -params.lasting_tolerance_db / 20.0);
+    const auto is_short = [&](const damped_mode& c) { return ln1000 / c.decay_per_s <= params.max_new_t60_s; };
+    // A long candidate is measured on [0, span_n) and [span_n, 2 span_n): without them it is left out.
+    const bool measurable = note.size() >= 2 * span_n && span_n >= 2;
     // The long candidates' amplitudes on both spans, four candidates at a time (windowed_amplitudes).
     std::vector<damped_mode> long_ones;
-    for (const damped_mode& c : candidates)
-        if (!(ln1000 / c.decay_per_s <= params.max_new_t60_s) && note.size() >= 2 * span_n && span_n >= 2) long_ones.push_back(c);
+    if (measurable)
+        for (const damped_mode& c : candidates)
+            if (!is_short(c)) long_ones.push_back(c);
     std::vector<std::complex<double>> early(long_ones.size()), late(long_ones.size());
     if (!long_ones.empty()) {
         const std::vector<float> window = make_window(window_kind::hann, static_cast<int>(span_n), window_symmetry::symmetric);
@@ -153,11 +157,11 @@ std::vector<damped_mode> lasting_modes(std::span<const damped_mode> candidates, 
     }
     std::size_t at = 0;  // into long_ones, in the candidates' order
     for (const damped_mode& c : candidates) {
-        if (ln1000 / c.decay_per_s <= params.max_new_t60_s) {
+        if (is_short(c)) {
             out.push_back(c);
             continue;
         }
-        if (note.size() < 2 * span_n || span_n < 2) continue;
+        if (!measurable) continue;
         const double e = std::abs(early[at]), l = std::abs(late[at]);
         ++at;
         if (e > 0.0 && l >= floor_ratio * e) out.push_back(c);
