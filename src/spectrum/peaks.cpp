@@ -147,6 +147,19 @@ void noise_floor::measure(std::span<const float> power) {
             select_small_ranks(lanes_, whole_count, whole_q, value);
             for (std::size_t l = 0; l < rank_lanes; ++l) measured_db_[first + l] = db_of_power(double(value[l]) * mean_over_quantile_);
         }
+        // The whole bands left over (fewer than rank_lanes) in one more pass, the unused lanes
+        // repeating the last of them: each lane's value is its own set's, so the same values as
+        // select_order's one band at a time (callgrind, `wane analyze` of the synthetic note:
+        // noise_floor::update 11.95 -> 11.67 M instructions).
+        const std::size_t whole_bands = std::min(bands_db_.size(), power.size() / band);
+        if (const std::size_t left = whole_bands > first ? whole_bands - first : 0; left > 0) {
+            for (std::size_t i = 0; i < whole_count; ++i)
+                for (std::size_t l = 0; l < rank_lanes; ++l)
+                    lanes_[i * rank_lanes + l] = power[(first + std::min(l, left - 1)) * band + i * bin_stride];
+            select_small_ranks(lanes_, whole_count, whole_q, value);
+            for (std::size_t l = 0; l < left; ++l) measured_db_[first + l] = db_of_power(double(value[l]) * mean_over_quantile_);
+            first += left;
+        }
     }
     for (std::size_t b = first; b < bands_db_.size(); ++b) {
         const std::size_t lo = b * band_bins_;
