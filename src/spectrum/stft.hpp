@@ -102,7 +102,7 @@ public:
     /// The QIFFT correction of this window and FFT size, made on first use (the plans that only
     /// measure power, the noise model's, never need it).
     const qifft_correction& correction() const {
-        if (!correction_) correction_.emplace(config_.window, config_.window_length, config_.fft_size);
+        if (!correction_) correction_.emplace(made_qifft_correction(config_.window, config_.window_length, config_.fft_size));
         return *correction_;
     }
 

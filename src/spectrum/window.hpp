@@ -66,4 +66,8 @@ private:
     std::vector<double> level_fix_db_;   ///< true height - parabola height at the same p
 };
 
+/// qifft_correction(kind, window_length, fft_size), the last few a thread made kept and copied
+/// out as make_window's windows: each analysis asks for the tracker survey's and frames' again.
+qifft_correction made_qifft_correction(window_kind kind, int window_length, int fft_size);
+
 }  // namespace wane
