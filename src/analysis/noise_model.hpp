@@ -9,7 +9,7 @@
 //    the median of n bins is the mean times the expected median of n unit exponentials). The median
 //    ignores what the subtraction left of a partial and any peak the tracker did not keep, so only
 //    the noise between the partials is measured. Hop 5 ms (or window / 16), no zero padding (the
-//    bins then are independent, as the median's scale assumes); past the first 0.5 s only a frame
+//    bins then are independent, as the median's scale assumes); past the first 0.3 s only a frame
 //    every quarter window is measured, those between on the line in dB between them (the floor
 //    changes slowly there; a third of the FFTs). Fitted on the frames
 //    whose window lies wholly inside the recording (the first line run back to the onset), over
@@ -43,8 +43,12 @@ struct noise_model_params {
     double floor_hops_per_window = 16.0;
     /// The noise model measures the floor at every hop over the first floor_dense_span_s after the
     /// onset and after it at the whole number of hops nearest under floor_sparse_hop_windows
-    /// windows, the levels between interpolated in dB.
-    double floor_dense_span_s = 0.5;
+    /// windows, the levels between interpolated in dB. Measured against 0.5 s: the same fidelity
+    /// medians on the 17 real and 40 held-out notes, every note's LSD within 0.05 dB and SNR100
+    /// within 0.01 dB (0.25 s put dulcimer_g4 at LSD 9.10 dB, +0.04); the noise model 112.7 ->
+    /// 105.8 M instructions on the synthetic 4 s note (f0 110 Hz: 15 fewer floor frames of both
+    /// the residual and the recording).
+    double floor_dense_span_s = 0.3;
     double floor_sparse_hop_windows = 0.25;
     /// The floor bands are held under the recording's own levels (the residual louder than the
     /// recording is the subtraction's error) on the frames centred within this long after the
