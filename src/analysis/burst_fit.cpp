@@ -153,7 +153,10 @@ struct framed_burst {
         if (i < out.size()) {
             const double centre_s = static_cast<double>(first + i) * hop_s;
             double p = fall->spread_power * std::exp(-rate_per_s * (centre_s - decay_from_s));
-            for (; i < out.size(); ++i, p *= fall->hop_ratio) out[i] = p;
+            for (; i < out.size(); ++i) {
+                out[i] = p;
+                p *= fall->hop_ratio;
+            }
         }
         return decay_first;
     }
