@@ -52,18 +52,24 @@ struct decay_spread {
     double rate_per_s = 0.0;  ///< k
     double spread_db = 0.0;
     double step = 0.0;
+    double spread_power = 0.0;  ///< the window's mean of exp(-k (t - centre)) (spread_db as a power)
+    double hop_ratio = 0.0;     ///< exp(-k hop): one frame's power over the one before, wholly in the decay
+    /// tail[j] = sum over i >= j of w2[i] step^(i - j): a frame whose decay starts at point j sums
+    /// its decay points as exp(-k (t_j - decay start)) tail[j] (Horner's rule from the window's end).
+    std::array<double, window_points> tail{};
     decay_spread() = default;
-    decay_spread(const window_power& w, double window_s, double t60_s) : rate_per_s(2.0 * ln1000 / t60_s) {
+    decay_spread(const window_power& w, double window_s, double hop_s, double t60_s) : rate_per_s(2.0 * ln1000 / t60_s) {
         // The points are evenly spaced (window_power: x_j = (j + 1/2) / n), so exp(-k (x_j - 1/2) W)
         // is the first point's times step^j (a relative error of about j ulps, j < 64).
         step = std::exp(-rate_per_s * window_s / static_cast<double>(w.x.size()));
-        double decay = std::exp(-rate_per_s * (w.x[0] - 0.5) * window_s);
-        double weighted = 0.0;
-        for (std::size_t j = 0; j < w.x.size(); ++j) {
-            weighted += w.w2[j] * decay;
-            decay *= step;
+        double suffix = 0.0;
+        for (std::size_t j = w.x.size(); j-- > 0;) {
+            suffix = w.w2[j] + step * suffix;
+            tail[j] = suffix;
         }
-        spread_db = power_to_db(weighted / w.total);
+        spread_power = std::exp(-rate_per_s * (w.x[0] - 0.5) * window_s) * tail[0] / w.total;
+        spread_db = power_to_db(spread_power);
+        hop_ratio = std::exp(-rate_per_s * hop_s);
     }
 };
 
@@ -75,9 +81,10 @@ struct framed_burst {
     double rate_per_s = 0.0;    ///< k
     double spread_db = 0.0;     ///< 10 log10 of that window mean
     double step = 0.0;          ///< exp(-k dt) from one point to the next
-    framed_burst(const window_power& w, double window, double attack, double hold, const decay_spread& decay)
-        : wp(&w), window_s(window), attack_s(attack), hold_s(hold), rate_per_s(decay.rate_per_s),
-          spread_db(decay.spread_db), step(decay.step) {}
+    const decay_spread* fall = nullptr;  ///< the decay's sums (powers())
+    framed_burst(const window_power& w, double window, double attack, double hold, const decay_spread& d)
+        : wp(&w), window_s(window), attack_s(attack), hold_s(hold), rate_per_s(d.rate_per_s),
+          spread_db(d.spread_db), step(d.step), fall(&d) {}
     /// The window points before the decay (the attack's ramp, the hold: the same for every T60):
     /// their weighted sum, and the first point in the decay (window_points when none).
     struct head {
@@ -122,41 +129,36 @@ struct framed_burst {
     [[nodiscard]] double db(double centre_s) const { return db(centre_s, head_of(centre_s)); }
     /// The frames' powers (db_to_power of db(), without the trip through dB) at centres
     /// (first + i) hop_s, i < out.size(), heads[i] their heads: a frame wholly in the decay is the
-    /// one before it times exp(-k hop), from 10^(spread_db / 10) exp(-k (centre - decay start)) at
-    /// the first such frame (relative error about i ulps against db_to_power of db()).
-    void powers(std::size_t first, double hop_s, std::span<const head> heads, std::span<double> out) const {
+    /// one before it times exp(-k hop) (decay_spread::hop_ratio), from the window's mean spread
+    /// times exp(-k (centre - decay start)) at the first such frame; a frame partly in it adds its
+    /// decay points as one product (decay_spread::tail). Equal to db_to_power of db() to rounding
+    /// (a relative error of tens of ulps). Returns the index of the first frame wholly in the decay.
+    std::size_t powers(std::size_t first, double hop_s, std::span<const head> heads, std::span<double> out) const {
         const double decay_from_s = attack_s + hold_s;
-        double decay_power = -1.0;  // the last decay frame's power, once one is reached
-        const double decay_ratio = std::exp(-rate_per_s * hop_s);
-        for (std::size_t i = 0; i < out.size(); ++i) {
-            const double centre_s = static_cast<double>(first + i) * hop_s;
-            if (centre_s - 0.5 * window_s < decay_from_s) {
-                out[i] = frame_power(centre_s, heads[i]);
-                continue;
-            }
-            decay_power = decay_power < 0.0 ? db_to_power(spread_db) * std::exp(-rate_per_s * (centre_s - decay_from_s))
-                                            : decay_power * decay_ratio;
-            out[i] = decay_power;
-        }
-    }
-
-private:
-    /// The power of a frame not wholly in the decay (db()'s point by point sum, as a power: the
-    /// same products and sums in the same order, the first decay point's exp taken out of the loop).
-    [[nodiscard]] double frame_power(double centre_s, const head& h) const {
-        double weighted = h.weighted;
         const std::size_t n = wp->x.size();
-        if (h.first_decay < n) {
-            const double decay_from_s = attack_s + hold_s;
-            const double t = centre_s - 0.5 * window_s + wp->x[h.first_decay] * window_s;
-            double decay = std::exp(-rate_per_s * (t - decay_from_s));
-            weighted += wp->w2[h.first_decay] * decay;
-            for (std::size_t j = h.first_decay + 1; j < n; ++j) {
-                decay *= step;
-                weighted += wp->w2[j] * decay;
+        std::size_t i = 0;
+        for (; i < out.size(); ++i) {
+            const double centre_s = static_cast<double>(first + i) * hop_s;
+            const double start_s = centre_s - 0.5 * window_s;
+            if (start_s >= decay_from_s) break;
+            const head& h = heads[i];
+            double weighted = h.weighted;
+            if (h.first_decay < n) {
+                const double t = start_s + wp->x[h.first_decay] * window_s;
+                weighted += std::exp(-rate_per_s * (t - decay_from_s)) * fall->tail[h.first_decay];
+            }
+            out[i] = weighted > 0.0 ? weighted / wp->total : 0.0;
+        }
+        const std::size_t decay_first = i;
+        if (i < out.size()) {
+            const double centre_s = static_cast<double>(first + i) * hop_s;
+            double p = fall->spread_power * std::exp(-rate_per_s * (centre_s - decay_from_s));
+            for (; i < out.size(); ++i) {
+                out[i] = p;
+                p *= fall->hop_ratio;
             }
         }
-        return weighted > 0.0 ? weighted / wp->total : 0.0;
+        return decay_first;
     }
 };
 
@@ -184,18 +186,31 @@ burst_error error_of(const burst_frames& f, std::span<const double> smoothed, co
     const framed_burst model(wp, f.window_s, attack_s, hold_s, decay);
     const std::size_t last = std::min(f.level_db.size(), end + 1);
     // Each frame's model power once (smoothed_db's terms: the same sums, a third of the powers).
-    std::array<double, max_fit_frames + 2> model_power{};
+    std::array<double, max_fit_frames + 2> model_power;  // the first count written by powers()
     const std::size_t count = last - f.first;
-    model.powers(f.first, f.hop_s, std::span(heads).first(count),
-                 std::span(model_power).first(count));
+    const std::size_t decay_first = model.powers(f.first, f.hop_s, std::span(heads).first(count),
+                                                 std::span(model_power).first(count));
+    // Where all three of a mean's frames lie wholly in the decay, each mean is the one before it
+    // times exp(-k hop): its dB the one before plus that ratio in dB (no logarithm per frame).
+    const double step_db = -decay.rate_per_s * f.hop_s * (10.0 / std::numbers::ln10);
     double sum = 0.0, sum_sq = 0.0;
+    double model_db = 0.0;
+    bool on_line = false;  // model_db holds the previous frame's mean, all three in the decay
     const auto n = static_cast<double>(end - f.first);
     for (std::size_t i = f.first; i < end; ++i) {
         const std::size_t k = i - f.first;
-        double power = 0.0;
-        int terms = 0;
-        for (std::size_t j = k > 0 ? k - 1 : 0; j < std::min(count, k + 2); ++j, ++terms) power += model_power[j];
-        const double d = smoothed[k] - power_to_db(power / terms);
+        const std::size_t lo = k > 0 ? k - 1 : 0;
+        const std::size_t hi = std::min(count, k + 2);
+        const bool in_decay = hi - lo == 3 && lo >= decay_first;
+        if (in_decay && on_line) {
+            model_db += step_db;
+        } else {
+            double power = 0.0;
+            for (std::size_t j = lo; j < hi; ++j) power += model_power[j];
+            model_db = power_to_db(power / static_cast<double>(hi - lo));
+        }
+        on_line = in_decay;
+        const double d = smoothed[k] - model_db;
         sum += d;
         sum_sq += d * d;
     }
@@ -235,14 +250,15 @@ struct t60_search {
     /// The grid's decays, made once for every hold (fill_grid).
     std::array<decay_spread, t60_grid_points> grid{};
     void fill_grid() {
-        for (int j = 0; j < t60_grid_points; ++j) grid[static_cast<std::size_t>(j)] = decay_spread(*wp, frames->window_s, grid_t60_s(j));
+        for (int j = 0; j < t60_grid_points; ++j) grid[static_cast<std::size_t>(j)] = decay_spread(*wp, frames->window_s, frames->hop_s, grid_t60_s(j));
     }
     /// The frames' heads of the hold last asked for (a grid row and a refinement each ask one).
     mutable double heads_hold_s = -1.0;
     mutable frame_heads heads{};
     const frame_heads& heads_for(double hold_s) const {
         if (hold_s != heads_hold_s) {
-            const framed_burst model(*wp, frames->window_s, attack_s, hold_s, decay_spread{});
+            const decay_spread no_decay{};  // the heads read no decay
+            const framed_burst model(*wp, frames->window_s, attack_s, hold_s, no_decay);
             const std::size_t last = std::min(frames->level_db.size(), end + 1);
             for (std::size_t j = frames->first; j < last; ++j)
                 heads[j - frames->first] = model.head_of(static_cast<double>(j) * frames->hop_s);
@@ -251,7 +267,7 @@ struct t60_search {
         return heads;
     }
     [[nodiscard]] burst_error at(double hold_s, double t60_s) const {
-        return error_of(*frames, smoothed, *wp, end, attack_s, hold_s, decay_spread(*wp, frames->window_s, t60_s),
+        return error_of(*frames, smoothed, *wp, end, attack_s, hold_s, decay_spread(*wp, frames->window_s, frames->hop_s, t60_s),
                         heads_for(hold_s));
     }
     [[nodiscard]] burst_error at_grid(double hold_s, int j) const {
@@ -294,7 +310,7 @@ double burst_framed_level_db(double attack_s, double hold_s, double t60_s, windo
                              double centre_s) {
     assert(window_s > 0.0 && t60_s > 0.0 && attack_s >= 0.0 && hold_s >= 0.0);
     const window_power wp(window);
-    return framed_burst(wp, window_s, attack_s, hold_s, decay_spread(wp, window_s, t60_s)).db(centre_s);
+    return framed_burst(wp, window_s, attack_s, hold_s, decay_spread(wp, window_s, window_s, t60_s)).db(centre_s);
 }
 
 std::optional<burst_fit> fit_burst(const burst_frames& f, const burst_fit_params& params) {
