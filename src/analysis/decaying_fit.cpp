@@ -5,6 +5,7 @@
 #include <cassert>
 #include <cmath>
 #include <complex>
+#include <memory>
 #include <vector>
 
 #include "core/cosine_walk.hpp"
@@ -15,13 +16,38 @@
 
 namespace wane {
 
-std::vector<float> render_copy_start(const patch& p, double rate_hz, std::size_t count) {
+namespace {
+
+/// The renderer of render_copy_start's render: p's header and partials, its length 2 end_fade_s past
+/// count frames (the render's end fade falls outside them).
+std::unique_ptr<const partial_renderer> copy_renderer(const patch& p, double rate_hz, std::size_t count) {
     patch one{.version = p.version, .note = p.note, .source = p.source, .partials = p.partials, .noise = {}};
     one.note.length_s = static_cast<double>(count) / rate_hz + 2.0 * end_fade_s;  // its fade past the span
-    const partial_renderer r(one, {.sample_rate_hz = rate_hz, .include_noise = false});
+    return std::make_unique<const partial_renderer>(one, render_params{.sample_rate_hz = rate_hz, .include_noise = false});
+}
+
+}  // namespace
+
+std::vector<float> render_copy_start(const patch& p, double rate_hz, std::size_t count) {
     std::vector<float> y(count);
-    r.render(0, y);
+    copy_renderer(p, rate_hz, count)->render(0, y);
     return y;
+}
+
+copy_start_render::copy_start_render(const patch& p, double rate_hz, std::size_t count)
+    : renderer_(copy_renderer(p, rate_hz, count)), samples_(count) {}
+
+copy_start_render::~copy_start_render() = default;
+
+std::vector<float>& copy_start_render::at_least(std::size_t frames) {
+    assert(frames <= samples_.size());
+    if (frames > made_) {
+        // Up to the next multiple of render_anchor_frames (the next stretch starts at one).
+        const std::size_t to = std::min(samples_.size(), (frames + render_anchor_frames - 1) / render_anchor_frames * render_anchor_frames);
+        renderer_->render(made_, std::span(samples_).subspan(made_, to - made_));
+        made_ = to;
+    }
+    return samples_;
 }
 
 namespace {

@@ -26,13 +26,17 @@ namespace {
 /// The partials of `partials` alone (no noise) over the first out.size() frames at rate_hz, as the
 /// renderer plays them (the note's gain included), into out (the render writes every frame, so
 /// the buffers it is given are never zeroed first). `one` is the patch rendered, p's header with
-/// these partials, kept between calls so that its storage is reused.
-void render_into(const patch& p, std::span<const partial> partials, double rate_hz, patch& one, std::span<float> out) {
+/// these partials, kept between calls so that its storage is reused; renderer_of makes the
+/// renderer of a render over `frames`.
+partial_renderer renderer_of(const patch& p, std::span<const partial> partials, double rate_hz, patch& one, std::size_t frames) {
     one.version = p.version, one.note = p.note;
     one.partials.assign(partials.begin(), partials.end());
-    one.note.length_s = static_cast<double>(out.size()) / rate_hz + 2.0 * end_fade_s;  // its fade past the span
-    const partial_renderer r(one, {.sample_rate_hz = rate_hz, .include_noise = false});
-    r.render(0, out);
+    one.note.length_s = static_cast<double>(frames) / rate_hz + 2.0 * end_fade_s;  // its fade past the span
+    return partial_renderer(one, {.sample_rate_hz = rate_hz, .include_noise = false});
+}
+
+void render_into(const patch& p, std::span<const partial> partials, double rate_hz, patch& one, std::span<float> out) {
+    renderer_of(p, partials, rate_hz, one, out.size()).render(0, out);
 }
 
 /// Four doubles side by side (GCC/Clang vector extensions: one AVX register, two SSE registers).
@@ -144,6 +148,28 @@ struct trial_frames {
     double rate_hz = 0.0;
 };
 
+/// c rendered over the check span into moved (total frames) and what swapping own for it in the
+/// copy does (swap_sums: late_change over [count, total), early over [0, count)), the later part
+/// first: the frames from the last multiple of render_anchor_frames at or before count on (bit for
+/// bit those of the whole render), their late_change, and only where that is at most late_limit
+/// (the test that fails more often) the frames before them and the span's energy; early is infinity
+/// and moved's first frames left unwritten otherwise. The two swap_sums calls add each frame in
+/// the lane and order of one call over both parts.
+void render_checked(const patch& p, const partial& c, std::span<const double> d, std::span<const float> own,
+                    const trial_frames& f, double late_limit, patch& one, std::span<float> moved, double& late_change,
+                    double& early) {
+    assert(moved.size() == f.total && d.size() >= f.total && own.size() >= f.total);
+    const partial_renderer r = renderer_of(p, std::span(&c, 1), f.rate_hz, one, f.total);
+    const std::size_t head = f.count / render_anchor_frames * render_anchor_frames;
+    r.render(head, moved.subspan(head));
+    double none = 0.0;  // the calls' other sum, over no frames
+    swap_sums(d.data() + f.count, own.data() + f.count, moved.data() + f.count, 0, f.total - f.count, late_change, none);
+    early = infinity;
+    if (late_change > late_limit) return;
+    if (head > 0) r.render(0, moved.first(head));
+    swap_sums(d.data(), own.data(), moved.data(), f.count, f.count, none, early);
+}
+
 /// Storage reused from one trial to the next: cand holds the check span's frames (a render over the
 /// span alone in its first ones), quad the span's, spare the trials' renders no longer wanted.
 struct trial_buffers {
@@ -223,8 +249,7 @@ std::optional<trial> fit_trial(const patch& p, const partial& c, bool is_q, std:
     t.refit.phase_rad = std::remainder(c.phase_rad + std::arg(z), two_pi);
     scale_envelope_start(t.refit.env, std::abs(z), params.max_level_change_db);
     t.moved = buf.take(f.total);
-    render_into(p, std::span(&t.refit, 1), f.rate_hz, one, t.moved);
-    swap_sums(d.data(), own.data(), t.moved.data(), f.count, f.total, t.late_change, t.early);
+    render_checked(p, t.refit, d, own, f, 0.0, one, t.moved, t.late_change, t.early);
     return t;
 }
 
@@ -241,9 +266,8 @@ bool refit_stage(const patch& p, partial& q, std::vector<double>& d, std::span<c
     if (!fit) return false;
     partial c = q;
     c.env = with_early_stage(q.env, *fit);
-    render_into(p, std::span(&c, 1), f.rate_hz, one, buf.cand);
     double late_change = 0.0, early = 0.0;
-    swap_sums(d.data(), cur.data(), buf.cand.data(), f.count, f.total, late_change, early);
+    render_checked(p, c, d, cur, f, params.late_rounding * signal, one, buf.cand, late_change, early);
     if (late_change > params.late_rounding * signal || !(early < residual)) return false;
     for (std::size_t n = 0; n < f.total; ++n) d[n] += static_cast<double>(cur[n]) - static_cast<double>(buf.cand[n]);
     residual = early;

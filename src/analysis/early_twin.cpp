@@ -210,9 +210,11 @@ early_twin_summary add_early_twins(patch& p, std::span<const float> note, double
     if (order.empty()) return summary;
     const double loudest_db = start_db(order.front());
 
-    std::vector<float> copy = render_copy_start(p, sample_rate_hz, total);
-    std::vector<double> d(total);  // the residual x - copy, double
-    for (std::size_t n = 0; n < total; ++n) d[n] = static_cast<double>(note[n]) - static_cast<double>(copy[n]);
+    // The copy over the check span, its frames past the span made when a late test first reads them.
+    copy_start_render copy_render(p, sample_rate_hz, total);
+    std::vector<float>& copy = copy_render.at_least(count);
+    std::vector<double> d(count);  // the residual x - copy over the span (the search's), double
+    for (std::size_t n = 0; n < count; ++n) d[n] = static_cast<double>(note[n]) - static_cast<double>(copy[n]);
     const double gain_lin = to_amp(level_db{p.note.gain_db}).lin;
     std::vector<double> cos_n, sin_n, w;
     std::vector<float> with_twin(total);
@@ -226,7 +228,7 @@ early_twin_summary add_early_twins(patch& p, std::span<const float> note, double
         if (std::any_of(searched.begin(), searched.end(), [&](double f) { return std::abs(1200.0 * std::log2(q.freq_hz / f)) < params.min_cents; }))
             continue;
         searched.push_back(q.freq_hz);
-        const std::span<const double> early(d.data(), count);
+        const std::span<const double> early(d);
         if (2.0 * energy_of(early) < min_gain) break;  // no twin can take that much
         std::vector<twin_fit> each;
         const twin_fit found = search_twin(p, early, q.freq_hz, sample_rate_hz, params, cos_n, sin_n, each);
@@ -234,7 +236,7 @@ early_twin_summary add_early_twins(patch& p, std::span<const float> note, double
         // At the offset found, each T60 of the grid that takes enough, the most first: the first
         // that keeps under its partial and passes the band's late test.
         std::stable_sort(each.begin(), each.end(), [](const twin_fit& a, const twin_fit& b) { return a.fit.explained > b.fit.explained; });
-        const late_bands bands = late_bands_of(note.first(total), copy, q.freq_hz, sample_rate_hz, params);
+        const late_bands bands = late_bands_of(note.first(total), copy_render.at_least(total), q.freq_hz, sample_rate_hz, params);
         const twin_fit* taken = nullptr;
         const double ref_hz = heard != nullptr ? recording_heard_peak_hz(*heard, q.freq_hz, params.heard).value_or(q.freq_hz) : q.freq_hz;
         for (const twin_fit& t : each) {
@@ -259,7 +261,7 @@ early_twin_summary add_early_twins(patch& p, std::span<const float> note, double
         }
         const twin_fit& t = *taken;
         copy.swap(with_twin);
-        for (std::size_t n = 0; n < total; ++n) d[n] -= w[n];
+        for (std::size_t n = 0; n < count; ++n) d[n] -= w[n];
         added.push_back(as_partial(t, q, gain_lin));
     }
     p.partials.insert(p.partials.end(), added.begin(), added.end());

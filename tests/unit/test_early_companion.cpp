@@ -5,6 +5,7 @@
 // from the project's seeded generator.
 #include <catch2/catch.hpp>
 
+#include <algorithm>
 #include <cmath>
 #include <complex>
 #include <limits>
@@ -188,4 +189,23 @@ TEST_CASE("phasor_table is within 1e-13 of long double's cos and sin over a fit 
         REQUIRE(std::abs(static_cast<long double>(cos_n[n]) - std::cos(angle)) <= tol);
         REQUIRE(std::abs(static_cast<long double>(sin_n[n]) - std::sin(angle)) <= tol);
     }
+}
+
+TEST_CASE("copy_start_render made in stretches as frames are asked for equals render_copy_start bit for bit", "[analysis][companion]") {
+    // Reference: render_copy_start's render made whole (the render's stretches from multiples of
+    // 1024 frames are the same bits: synthesis/render.hpp). Tolerance 0: the same floats.
+    const std::size_t count = GENERATE(700U, 7200U, 48000U);
+    const std::size_t first_ask = GENERATE(0U, 1U, 1024U, 7200U);
+    patch p{};
+    p.note.length_s = 1.0;
+    p.partials = {damped_partial(200.0, -6.0, 2.0, 0.2), damped_partial(1400.0, -20.0, 0.1, 1.0), damped_partial(3100.0, -30.0, 1.5, -2.0)};
+    const std::vector<float> whole = render_copy_start(p, fs, count);
+    copy_start_render parts(p, fs, count);
+    const std::size_t asked = std::min(first_ask, count);
+    const std::vector<float> head = parts.at_least(asked);
+    REQUIRE(head.size() == count);
+    for (std::size_t n = 0; n < asked; ++n) REQUIRE(head[n] == whole[n]);
+    const std::vector<float>& all = parts.at_least(count);
+    CAPTURE(count, first_ask);
+    CHECK(all == whole);
 }
