@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "core/cosine_walk.hpp"
+#include "core/recent_values.hpp"
 #include "core/units.hpp"
 
 namespace wane {
@@ -88,34 +89,24 @@ std::vector<float> compute_window(window_kind kind, int length, window_symmetry 
     return w;
 }
 
-/// The windows a thread made last, newest first: an analysis asks for the same few again (the
-/// tracker's frames, the noise model's floor and attack STFTs and their leakage tables; each
-/// analysis of a batch the same), so each is computed once (4.2 M instructions of cosines per
-/// analysis of the synthetic note otherwise). At most window_cache_size kept.
-struct made_window {
+/// The windows a thread made last (core/recent_values.hpp): an analysis asks for the same few
+/// again (the tracker's frames, the noise model's floor and attack STFTs and their leakage tables;
+/// each analysis of a batch the same), so each is computed once (4.2 M instructions of cosines per
+/// analysis of the synthetic note otherwise). At most 8 kept.
+struct window_key {
     window_kind kind;
     int length;
     window_symmetry symmetry;
-    std::vector<float> samples;
+    bool operator==(const window_key&) const = default;
 };
-constexpr std::size_t window_cache_size = 8;
 
 }  // namespace
 
 std::vector<float> make_window(window_kind kind, int length, window_symmetry symmetry) {
     assert(length >= 2);
-    thread_local std::vector<made_window> made;
-    const auto hit = std::find_if(made.begin(), made.end(), [&](const made_window& m) {
-        return m.kind == kind && m.length == length && m.symmetry == symmetry;
-    });
-    if (hit != made.end()) {
-        std::rotate(made.begin(), hit, hit + 1);  // newest first
-        return made.front().samples;
-    }
-    if (made.size() == window_cache_size) made.pop_back();
-    made.insert(made.begin(), made_window{.kind = kind, .length = length, .symmetry = symmetry,
-                                          .samples = compute_window(kind, length, symmetry)});
-    return made.front().samples;
+    thread_local recent_values<window_key, std::vector<float>, 8> made;
+    return made.get({.kind = kind, .length = length, .symmetry = symmetry},
+                    [&] { return compute_window(kind, length, symmetry); });
 }
 
 double zero_phase_transform(std::span<const float> window, int fft_size, double nu_bins) {
@@ -178,25 +169,15 @@ qifft_correction made_qifft_correction(window_kind kind, int window_length, int 
     // The same table as made anew (a copy of the one computed for these arguments); without it a
     // bench_analyze repeat of the synthetic note computed the survey's and the frames' tables
     // again (callgrind: 2.9 M instructions per analysis, cosine_sum_transform's sines).
-    struct made {
+    struct table_key {
         window_kind kind;
         int window_length;
         int fft_size;
-        qifft_correction table;
+        bool operator==(const table_key&) const = default;
     };
-    constexpr std::size_t kept = 4;
-    thread_local std::vector<made> tables;
-    const auto hit = std::find_if(tables.begin(), tables.end(), [&](const made& m) {
-        return m.kind == kind && m.window_length == window_length && m.fft_size == fft_size;
-    });
-    if (hit != tables.end()) {
-        std::rotate(tables.begin(), hit, hit + 1);  // newest first
-        return tables.front().table;
-    }
-    if (tables.size() == kept) tables.pop_back();
-    tables.insert(tables.begin(), made{.kind = kind, .window_length = window_length, .fft_size = fft_size,
-                                       .table = qifft_correction(kind, window_length, fft_size)});
-    return tables.front().table;
+    thread_local recent_values<table_key, qifft_correction, 4> tables;
+    return tables.get({.kind = kind, .window_length = window_length, .fft_size = fft_size},
+                      [&] { return qifft_correction(kind, window_length, fft_size); });
 }
 
 qifft_correction::result qifft_correction::interpolate(double left_db, double centre_db,
