@@ -230,29 +230,29 @@ bool tridiagonal_eigen(Eigen::VectorXd diag, Eigen::VectorXd sub, Eigen::VectorX
     return true;
 }
 
-bool tridiagonal_values(Eigen::VectorXd diag, Eigen::VectorXd sub, Eigen::VectorXd& values, tridiagonal_rotations& out) {
+bool tridiagonal_values(Eigen::VectorXd diag, Eigen::VectorXd sub, Eigen::VectorXd& values, tridiagonal_rotations& rotations) {
     const Eigen::Index n = diag.size();
-    out.n = static_cast<std::size_t>(n);
-    out.at.clear(), out.c.clear(), out.s.clear();
-    out.column.resize(out.n);
-    for (std::size_t i = 0; i < out.n; ++i) out.column[i] = i;
+    rotations.n = static_cast<std::size_t>(n);
+    rotations.at.clear(), rotations.c.clear(), rotations.s.clear();
+    rotations.column.resize(rotations.n);
+    for (std::size_t i = 0; i < rotations.n; ++i) rotations.column[i] = i;
     const auto keep = [&](Eigen::Index k, double c, double s) {
-        out.at.push_back(static_cast<std::size_t>(k)), out.c.push_back(c), out.s.push_back(s);
+        rotations.at.push_back(static_cast<std::size_t>(k)), rotations.c.push_back(c), rotations.s.push_back(s);
     };
-    const auto swap = [&](Eigen::Index i, Eigen::Index j) { std::swap(out.column[static_cast<std::size_t>(i)], out.column[static_cast<std::size_t>(j)]); };
+    const auto swap = [&](Eigen::Index i, Eigen::Index j) { std::swap(rotations.column[static_cast<std::size_t>(i)], rotations.column[static_cast<std::size_t>(j)]); };
     if (!tridiagonal_iterate(diag, sub, keep, swap)) return false;
     values = std::move(diag);
     return true;
 }
 
-void tridiagonal_vectors(const tridiagonal_rotations& r, std::size_t first, std::vector<double>& out, std::size_t& stride) {
-    const std::size_t n = r.n, cols = n - first;
+void tridiagonal_vectors(const tridiagonal_rotations& rotations, std::size_t first, std::vector<double>& out, std::size_t& stride) {
+    const std::size_t n = rotations.n, cols = n - first;
     stride = (cols + 3) / 4 * 4;
     out.assign(n * stride, 0.0);
-    for (std::size_t c = 0; c < cols; ++c) out[r.column[first + c] * stride + c] = 1.0;
-    for (std::size_t t = r.at.size(); t-- > 0;) {
-        const std::size_t k = r.at[t];
-        rotate_rows(out.data() + k * stride, out.data() + (k + 1) * stride, stride, r.c[t], r.s[t]);
+    for (std::size_t c = 0; c < cols; ++c) out[rotations.column[first + c] * stride + c] = 1.0;
+    for (std::size_t t = rotations.at.size(); t-- > 0;) {
+        const std::size_t k = rotations.at[t];
+        rotate_rows(out.data() + k * stride, out.data() + (k + 1) * stride, stride, rotations.c[t], rotations.s[t]);
     }
 }
 
