@@ -1,9 +1,9 @@
 // Householder tridiagonalization of a small Hermitian matrix, R = Q T Q^H with T real symmetric
 // tridiagonal, and Q applied to a real matrix: the first and last steps of the eigenvectors of an
 // ESPRIT covariance (modes/esprit.cpp), in place of Eigen's Tridiagonalization and its Householder
-// sequence. The steps are LAPACK's zhetd2 (lower) with zlarfg's reflectors; the matrix is kept
-// whole as real and imaginary parts, so every update is a multiply-add over a column (or, for Q,
-// over a row of columns) that runs side by side.
+// sequence. The steps are LAPACK's zhetd2 (lower) with zlarfg's reflectors; the matrix's lower
+// triangle is kept as real and imaginary parts, so every update is a multiply-add over a column
+// (or, for Q, over a row of columns) that runs side by side.
 #pragma once
 
 #include <complex>
