@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cassert>
 #include <cmath>
+#include <cstring>
 #include <utility>
 
 #include <Eigen/Dense>
@@ -20,24 +21,43 @@ using index = Eigen::Index;
 /// |re| + |im|: the 1-norm of a complex number, which the deflation test and the shift use.
 double norm1(std::complex<double> v) { return std::abs(v.real()) + std::abs(v.imag()); }
 
-/// The rotation [x; y] <- [c x + conj(s) y; c y - s x] of two complex sequences, x and y stepped
-/// by `stride` complex entries (as re, im pairs): c real, s complex, on real and imaginary parts
-/// (the products and sums of complex arithmetic, written out). x and y do not overlap.
+/// Four doubles side by side (GCC/Clang vector extension): one AVX register, two SSE2 ones.
+using lanes = double __attribute__((vector_size(32)));
+
+/// The rotation [x; y] <- [c x + conj(s) y; c y - s x] of two neighbouring rows (entry k of x at
+/// xy + 2 k stride as re, im, y's right after it): c real, s complex, the products and sums of
+/// complex arithmetic written out, all four parts of an entry pair in one set of lanes:
+/// [xr, xi, yr, yi] <- c [xr, xi, yr, yi] + ([sr, sr, -sr, -sr] [yr, yi, xr, xi]
+/// + [si, -si, si, -si] [yi, yr, xi, xr]), lane by lane the scalar order (-(a - b) = -a + b and
+/// a - b = a + -b exactly), so both clones give the same bits.
 WANE_KERNEL_CLONES
-void rotate(double* __restrict x, double* __restrict y, index count, index stride, double c, double sr, double si) {
+void rotate(double* __restrict xy, index count, index stride, double c, double sr, double si) {
+    const lanes a = {sr, sr, -sr, -sr}, b = {si, -si, si, -si};
     for (index k = 0; k < count; ++k) {
-        double* xk = x + 2 * k * stride;
-        double* yk = y + 2 * k * stride;
-        const double xr = xk[0], xi = xk[1], yr = yk[0], yi = yk[1];
-        xk[0] = c * xr + (sr * yr + si * yi), xk[1] = c * xi + (sr * yi - si * yr);
-        yk[0] = c * yr - (sr * xr - si * xi), yk[1] = c * yi - (sr * xi + si * xr);
+        double* at = xy + 2 * k * stride;
+        lanes v;
+        std::memcpy(&v, at, sizeof v);
+        const lanes p = __builtin_shufflevector(v, v, 2, 3, 0, 1), q = __builtin_shufflevector(v, v, 3, 2, 1, 0);
+        v = c * v + (a * p + b * q);
+        std::memcpy(at, &v, sizeof v);
     }
 }
 
-/// rotate of two columns (stride 1): the same arithmetic, the entries side by side.
+/// rotate of two columns (stride 1): the same arithmetic, two entries of each column in one set
+/// of lanes: x <- c x + ([sr, sr] y + [si, -si] y'), y <- c y + ([-sr, -sr] x + [si, -si] x')
+/// (x' the parts of each entry swapped), lane by lane the scalar order.
 WANE_KERNEL_CLONES
 void rotate_columns(double* __restrict x, double* __restrict y, index count, double c, double sr, double si) {
-    for (index k = 0; k < count; ++k) {
+    const lanes a = {sr, sr, sr, sr}, b = {si, -si, si, -si}, a2 = {-sr, -sr, -sr, -sr};
+    index k = 0;
+    for (; k + 2 <= count; k += 2) {
+        lanes u, v;
+        std::memcpy(&u, x + 2 * k, sizeof u), std::memcpy(&v, y + 2 * k, sizeof v);
+        const lanes us = __builtin_shufflevector(u, u, 1, 0, 3, 2), vs = __builtin_shufflevector(v, v, 1, 0, 3, 2);
+        const lanes nu = c * u + (a * v + b * vs), nv = c * v + (a2 * u + b * us);
+        std::memcpy(x + 2 * k, &nu, sizeof nu), std::memcpy(y + 2 * k, &nv, sizeof nv);
+    }
+    for (; k < count; ++k) {
         const double xr = x[2 * k], xi = x[2 * k + 1], yr = y[2 * k], yi = y[2 * k + 1];
         x[2 * k] = c * xr + (sr * yr + si * yi), x[2 * k + 1] = c * xi + (sr * yi - si * yr);
         y[2 * k] = c * yr - (sr * xr - si * xi), y[2 * k + 1] = c * yi - (sr * xi + si * xr);
@@ -131,7 +151,7 @@ struct hessenberg {
             const double c = rot.c;
             // Rows i, i + 1 by G (c, -s); columns i, i + 1 by G^H (c, -conj(s)).
             const std::complex<double> row_s = -rot.s, col_s = -std::conj(rot.s);
-            rotate(parts(at(i, from_col)), parts(at(i + 1, from_col)), iu - from_col + 1, h.rows(), c, row_s.real(), row_s.imag());
+            rotate(parts(at(i, from_col)), iu - from_col + 1, h.rows(), c, row_s.real(), row_s.imag());
             rotate_columns(parts(at(il, i)), parts(at(il, i + 1)), std::min(i + 2, iu) - il + 1, c, col_s.real(), col_s.imag());
         }
     }

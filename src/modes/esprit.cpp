@@ -70,6 +70,24 @@ void lag_sums(const double* __restrict re, const double* __restrict im, std::siz
     }
 }
 
+/// Column j of R's lower triangle from column j - 1 (rows j .. dim - 1), along each diagonal:
+///   R(i, j) = R(i - 1, j - 1) - y[i - 1] conj y[j - 1] + y[cols + i - 1] conj y[cols + j - 1]
+/// (the products of complex arithmetic: a conj b = (ar br + ai bi) + i (ai br - ar bi)). col_re,
+/// col_im: column j; column j - 1 is dim entries before them. Compiled for AVX2 and the baseline
+/// (no FMA, the same bits).
+WANE_KERNEL_CLONES
+void next_lag_column(const double* __restrict y_re, const double* __restrict y_im, std::size_t cols, std::size_t dim,
+                     std::size_t j, double* __restrict col_re, double* __restrict col_im) {
+    const double* prev_re = col_re - dim;
+    const double* prev_im = col_im - dim;
+    const double br = y_re[j - 1], bi = y_im[j - 1], er = y_re[cols + j - 1], ei = y_im[cols + j - 1];
+    for (std::size_t i = j; i < dim; ++i) {
+        const double ar = y_re[i - 1], ai = y_im[i - 1], cr = y_re[cols + i - 1], ci = y_im[cols + i - 1];
+        col_re[i] = (prev_re[i - 1] - (ar * br + ai * bi)) + (cr * er + ci * ei);
+        col_im[i] = (prev_im[i - 1] - (ai * br - ar * bi)) + (ci * er - cr * ei);
+    }
+}
+
 /// The largest |entry| (std::abs, as cwiseAbs gives it) of the complex entries (re[k], im[k]),
 /// k < size, found among those whose squared magnitude is within 1e-9 of the largest (one hypot
 /// per candidate, not per entry).
@@ -88,7 +106,7 @@ double largest_magnitude(const double* re, const double* im, std::size_t size) {
 struct decomposition {
     Eigen::Index dim = 0;
     hermitian_tridiagonal own;               ///< R / scale = Q T Q^H
-    Eigen::MatrixXd vectors;                 ///< with vectors: T's eigenvectors (tridiagonal_eigen)
+    tridiagonal_rotations rotations;         ///< with vectors: T's QR steps (tridiagonal_values)
     Eigen::VectorXd values;      ///< R's, ascending (with vectors: all; without: the `top` largest)
     Eigen::VectorXd t_values;    ///< without vectors: T's `top` largest (R's before the scaling), ascending
     bool ok = false;
@@ -156,7 +174,8 @@ void decompose(std::span<const std::complex<double>> y, int dimension, decomposi
     out.dim = dim;
     if (dim < 3) return;
     const Eigen::Index cols = n - dim + 1;
-    // R(i, j) = sum_{m < cols} y[m + i] conj y[m + j] (the Hankel data matrix times its adjoint):
+    // R(i, j) = sum_{m < cols} y[m + i] conj y[m + j] (the Hankel data matrix times its adjoint),
+    // its lower triangle (i >= j; the upper one stays 0: tridiagonalize reads the lower only):
     // the first column directly, then along each diagonal
     //   R(i + 1, j + 1) = R(i, j) - y[i] conj y[j] + y[cols + i] conj y[cols + j],
     // O(L N + L^2) instead of O(L^2 N).
@@ -170,15 +189,7 @@ void decompose(std::span<const std::complex<double>> y, int dimension, decomposi
         for (std::size_t k = 0; k < n_y; ++k) y_re[k] = y[k].real(), y_im[k] = y[k].imag();
         lag_sums(y_re.data(), y_im.data(), d, c, re.data(), im.data());  // column 0
         for (std::size_t j = 1; j < d; ++j)
-            for (std::size_t i = j; i < d; ++i) {
-                const std::size_t at = j * d + i, before = at - d - 1;
-                const double ar = y_re[i - 1], ai = y_im[i - 1], br = y_re[j - 1], bi = y_im[j - 1];
-                const double cr = y_re[c + i - 1], ci = y_im[c + i - 1], er = y_re[c + j - 1], ei = y_im[c + j - 1];
-                re[at] = (re[before] - (ar * br + ai * bi)) + (cr * er + ci * ei);
-                im[at] = (im[before] - (ai * br - ar * bi)) + (ci * er - cr * ei);
-            }
-        for (std::size_t j = 1; j < d; ++j)
-            for (std::size_t i = 0; i < j; ++i) re[j * d + i] = re[i * d + j], im[j * d + i] = -im[i * d + j];
+            next_lag_column(y_re.data(), y_im.data(), c, d, j, re.data() + j * d, im.data() + j * d);
     }
     // The eigen-decomposition as Eigen's SelfAdjointEigenSolver makes it (R scaled to a largest
     // entry of 1, Householder tridiagonalization R = Q T Q^H with T real, implicit QR steps on T),
@@ -191,7 +202,7 @@ void decompose(std::span<const std::complex<double>> y, int dimension, decomposi
     for (std::size_t k = 0; k < size; ++k) re[k] /= scale, im[k] /= scale;
     out.own = tridiagonalize(std::move(re), std::move(im), static_cast<std::size_t>(dim));
     if (vectors) {
-        if (!tridiagonal_eigen(out.own.diag, out.own.sub, out.values, out.vectors)) return;
+        if (!tridiagonal_values(out.own.diag, out.own.sub, out.values, out.rotations)) return;
         out.values *= scale;  // ascending
     } else {
         out.t_values = largest_tridiagonal_values(out.own.diag, out.own.sub, std::clamp<int>(top, 1, static_cast<int>(dim)));
@@ -214,9 +225,20 @@ cmatrix basis_of(const decomposition& dec, const Eigen::MatrixXd& v) {
     return u;
 }
 
-/// The poles of the subspace of the `order` largest eigenvalues (0 < order < dim).
+/// The poles of the subspace of the `order` largest eigenvalues (0 < order < dim): their
+/// eigenvectors of T alone (tridiagonal_vectors), then Q applied.
 std::vector<std::complex<double>> poles_of_order(const decomposition& dec, int order) {
-    const cmatrix u = basis_of(dec, dec.vectors.rightCols(order));
+    std::vector<double> u_re, u_im;
+    std::size_t stride = 0;
+    const auto cols = static_cast<std::size_t>(order);
+    tridiagonal_vectors(dec.rotations, static_cast<std::size_t>(dec.dim) - cols, u_re, stride);
+    apply_q_in_place(dec.own, stride, u_re, u_im);
+    cmatrix u(dec.dim, order);
+    for (Eigen::Index r = 0; r < dec.dim; ++r)
+        for (std::size_t c = 0; c < cols; ++c) {
+            const std::size_t at = static_cast<std::size_t>(r) * stride + c;
+            u(r, static_cast<Eigen::Index>(c)) = {u_re[at], u_im[at]};
+        }
     const cmatrix phi = rotation(u);
     return complex_eigenvalues(std::span(phi.data(), static_cast<std::size_t>(phi.size())), static_cast<std::size_t>(order));
 }
