@@ -47,8 +47,7 @@ order_values select_small_rank(std::span<const float> values, bool below) {
     assert(K < values.size());
     std::array<float, K + 1> kept{};
     kept.fill(std::numeric_limits<float>::infinity());
-    for (std::size_t i = 0; i < values.size(); ++i) {
-        float v = values[i];
+    for (float v : values) {
         for (std::size_t j = 0; j <= K; ++j) {
             const bool under = v < kept[j];
             const float low = under ? v : kept[j];

@@ -39,7 +39,8 @@ TEST_CASE("split_range copies the values inside the range in order and counts th
     const int kind = GENERATE(0, 1, 2, 3);
     const double low = GENERATE(0.0, 0.25, 0.5, 2.0);
     const double width = GENERATE(0.0, 0.5, 1.0, 100.0);
-    const std::vector<float> values = test_values(static_cast<std::size_t>(n), kind, static_cast<std::uint64_t>(31 * n + kind));
+    const std::uint64_t seed = 31 * static_cast<std::uint64_t>(n) + static_cast<std::uint64_t>(kind);
+    const std::vector<float> values = test_values(static_cast<std::size_t>(n), kind, seed);
     const auto lo = static_cast<float>(low), hi = static_cast<float>(low + width);
     // Reference: a filter one value at a time (the range closed at both ends, a NaN in neither count).
     std::vector<float> expected;
@@ -60,7 +61,8 @@ TEST_CASE("select_order with a bracket finds the k-th and (k-1)-th smallest that
     const int n = GENERATE(9, 15, 16, 17, 40, 257);
     const int kind = GENERATE(0, 1, 2);
     const double guess_scale = GENERATE(0.5, 0.97, 1.0, 1.03, 2.0);  // the bracket's centre over the answer
-    const std::vector<float> values = test_values(static_cast<std::size_t>(n), kind, static_cast<std::uint64_t>(77 * n + kind));
+    const std::uint64_t seed = 77 * static_cast<std::uint64_t>(n) + static_cast<std::uint64_t>(kind);
+    const std::vector<float> values = test_values(static_cast<std::size_t>(n), kind, seed);
     std::vector<float> scratch;
     for (std::size_t k = 8; k < values.size(); k += 3) {
         std::vector<float> reference = values;
