@@ -184,7 +184,7 @@ double mean_bin_power(const band_plan& bp, std::size_t b, std::span<const float>
         for (int k : bins) sum += static_cast<double>(power[static_cast<std::size_t>(k)]);
         return sum / static_cast<double>(n) / amp_scale_sq;
     }
-    for (std::size_t i = 0; i < n; ++i) sel.values[i] = power[static_cast<std::size_t>(bins[i])];
+    gather_values(power, bins, sel.values);
     const order_values mid = select_order(std::span(sel.values).first(n), n / 2, n % 2 == 0,
                                           bracket_around(sel.last_median[b], sel.spread[b]), sel.scratch);
     sel.last_median[b] = mid.kth;

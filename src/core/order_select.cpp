@@ -10,6 +10,10 @@
 
 #include "synthesis/kernel_clones.hpp"
 
+#if defined(__x86_64__)
+#include <immintrin.h>
+#endif
+
 namespace wane {
 
 order_bracket bracket_around(float guess, double spread) {
@@ -34,17 +38,16 @@ order_values select_all(std::span<float> values, std::size_t k, bool below) {
 constexpr std::size_t small_rank_limit = 8;
 
 /// The k-th (and with below the (k-1)-th) smallest for k = K < small_rank_limit: the K + 1
-/// smallest so far kept sorted, one pass; each value is passed down the kept ones by compare and
-/// swap (no branch on the data, so the order of the values costs nothing; a NaN passes through).
+/// smallest so far kept sorted (at first all infinity), one pass; each value is passed down the
+/// kept ones by compare and swap (no branch on the data, so the order of the values costs
+/// nothing; a NaN passes through, never kept).
 template <std::size_t K>
 order_values select_small_rank(std::span<const float> values, bool below) {
     static_assert(K < small_rank_limit && small_rank_limit == max_small_rank + 1);
     assert(K < values.size());
     std::array<float, K + 1> kept{};
-    std::copy_n(values.begin(), K + 1, kept.begin());
-    std::sort(kept.begin(), kept.end());
-    for (std::size_t i = K + 1; i < values.size(); ++i) {
-        float v = values[i];
+    kept.fill(std::numeric_limits<float>::infinity());
+    for (float v : values) {
         for (std::size_t j = 0; j <= K; ++j) {
             const bool under = v < kept[j];
             const float low = under ? v : kept[j];
@@ -79,25 +82,18 @@ using float8 = float __attribute__((vector_size(32)));
 using mask8 = std::int32_t __attribute__((vector_size(32)));
 static_assert(rank_lanes == 8);
 
-/// select_small_ranks for k = K: per set the first K + 1 values sorted (as select_small_rank
-/// does), then each further value passed down the kept ones with select_small_rank's compare and
-/// swap, a lane per set (v < kept: v the new kept there and the old kept passed on; else v passed
+/// select_small_ranks for k = K: per set the kept values at first all infinity (as
+/// select_small_rank's), then each value passed down the kept ones with select_small_rank's
+/// compare and swap, a lane per set (v < kept: v the new kept there and the old kept passed on; else v passed
 /// on), as min and max (x < y ? x : y and y < x ? x : y pick as that compare does, NaN included).
 template <std::size_t K>
 [[gnu::always_inline]] inline void select_small_ranks(std::span<const float> values, std::size_t count,
                                                       std::span<float, rank_lanes> out) {
     static_assert(K <= max_small_rank);
     assert(K < count && values.size() >= count * rank_lanes);
-    std::array<std::array<float, rank_lanes>, K + 1> first_sorted{};
-    for (std::size_t l = 0; l < rank_lanes; ++l) {
-        std::array<float, K + 1> first{};
-        for (std::size_t j = 0; j <= K; ++j) first[j] = values[j * rank_lanes + l];
-        std::sort(first.begin(), first.end());
-        for (std::size_t j = 0; j <= K; ++j) first_sorted[j][l] = first[j];
-    }
     std::array<float8, K + 1> kept{};
-    std::memcpy(kept.data(), first_sorted.data(), sizeof kept);
-    for (std::size_t i = K + 1; i < count; ++i) {
+    for (float8& k : kept) k = float8{} + std::numeric_limits<float>::infinity();
+    for (std::size_t i = 0; i < count; ++i) {
         float8 v;
         std::memcpy(&v, values.data() + i * rank_lanes, sizeof v);
         for (std::size_t j = 0; j <= K; ++j) {
@@ -128,6 +124,102 @@ void select_small_ranks(std::span<const float> values, std::size_t count, std::s
     }
 }
 
+range_split split_range_baseline(std::span<const float> values, float low, float high, std::span<float> inside) {
+    assert(inside.size() >= values.size());
+    std::size_t under = 0, m = 0;
+    for (const float v : values) {
+        inside[m] = v;
+        m += static_cast<std::size_t>((v >= low) & (v <= high));
+        under += static_cast<std::size_t>(v < low);
+    }
+    return {.under = under, .inside = m};
+}
+
+#if defined(__x86_64__)
+namespace {
+
+/// compress_lanes[mask]: the lanes whose bit is set in mask, in order, then lane 0 for the rest
+/// (vpermps' indices: the kept values packed to the front).
+using lane_indices = std::array<std::int32_t, 8>;
+constexpr std::array<lane_indices, 256> make_compress_lanes() {
+    std::array<lane_indices, 256> table{};
+    for (std::size_t mask = 0; mask < table.size(); ++mask) {
+        std::size_t to = 0;
+        for (std::int32_t lane = 0; lane < 8; ++lane)
+            if ((mask >> lane) & 1u) table[mask][to++] = lane;
+    }
+    return table;
+}
+alignas(32) constexpr std::array<lane_indices, 256> compress_lanes = make_compress_lanes();
+
+/// split_range_baseline eight values at a time: the same compares (ordered: false for a NaN), the
+/// values inside packed to the front by vpermps and stored whole at inside + m (m <= the values
+/// read, so the store stays within inside's first values.size()), then the last few one by one.
+/// The same counts and the same values inside in the same order, bit for bit.
+[[gnu::target("avx2,popcnt")]] range_split split_range_avx2(std::span<const float> values, float low, float high,
+                                                            std::span<float> inside) {
+    const __m256 low8 = _mm256_set1_ps(low), high8 = _mm256_set1_ps(high);
+    std::size_t under = 0, m = 0, i = 0;
+    for (; i + 8 <= values.size(); i += 8) {
+        const __m256 v = _mm256_loadu_ps(values.data() + i);
+        const __m256 in = _mm256_and_ps(_mm256_cmp_ps(v, low8, _CMP_GE_OQ), _mm256_cmp_ps(v, high8, _CMP_LE_OQ));
+        const auto in_mask = static_cast<unsigned>(_mm256_movemask_ps(in));
+        const auto under_mask = static_cast<unsigned>(_mm256_movemask_ps(_mm256_cmp_ps(v, low8, _CMP_LT_OQ)));
+        __m256i lanes;
+        std::memcpy(&lanes, compress_lanes[in_mask].data(), sizeof lanes);
+        _mm256_storeu_ps(inside.data() + m, _mm256_permutevar8x32_ps(v, lanes));
+        m += static_cast<std::size_t>(__builtin_popcount(in_mask));
+        under += static_cast<std::size_t>(__builtin_popcount(under_mask));
+    }
+    for (; i < values.size(); ++i) {
+        const float v = values[i];
+        inside[m] = v;
+        m += static_cast<std::size_t>((v >= low) & (v <= high));
+        under += static_cast<std::size_t>(v < low);
+    }
+    return {.under = under, .inside = m};
+}
+
+/// gather_values eight at a time (vgatherdps: the same loads, one instruction), the last few one
+/// by one.
+[[gnu::target("avx2")]] void gather_values_avx2(std::span<const float> from, std::span<const int> at, std::span<float> out) {
+    std::size_t i = 0;
+    for (; i + 8 <= at.size(); i += 8) {
+        __m256i index;
+        std::memcpy(&index, at.data() + i, sizeof index);
+        _mm256_storeu_ps(out.data() + i, _mm256_i32gather_ps(from.data(), index, sizeof(float)));
+    }
+    for (; i < at.size(); ++i) out[i] = from[static_cast<std::size_t>(at[i])];
+}
+
+bool cpu_has_avx2() {
+    static const bool has = [] {
+        __builtin_cpu_init();
+        return __builtin_cpu_supports("avx2") != 0;
+    }();
+    return has;
+}
+
+}  // namespace
+#endif
+
+void gather_values(std::span<const float> from, std::span<const int> at, std::span<float> out) {
+    assert(out.size() >= at.size());
+    assert(std::all_of(at.begin(), at.end(), [&](int k) { return k >= 0 && static_cast<std::size_t>(k) < from.size(); }));
+#if defined(__x86_64__)
+    if (cpu_has_avx2()) return gather_values_avx2(from, at, out);
+#endif
+    for (std::size_t i = 0; i < at.size(); ++i) out[i] = from[static_cast<std::size_t>(at[i])];
+}
+
+range_split split_range(std::span<const float> values, float low, float high, std::span<float> inside) {
+    assert(inside.size() >= values.size());
+#if defined(__x86_64__)
+    if (cpu_has_avx2()) return split_range_avx2(values, low, high, inside);
+#endif
+    return split_range_baseline(values, low, high, inside);
+}
+
 order_values select_order(std::span<float> values, std::size_t k, bool want_below, order_bracket bracket,
                           std::vector<float>& scratch) {
     const std::size_t n = values.size();
@@ -139,13 +231,10 @@ order_values select_order(std::span<float> values, std::size_t k, bool want_belo
     if (scratch.size() < n) scratch.resize(n);
     // One pass: the values inside the bracket go to scratch (ranks [under, under + m)), those
     // under it are counted (ranks [0, under)); the rest hold ranks [under + m, n).
-    std::size_t under = 0, m = 0;
-    for (const float v : values) {
-        scratch[m] = v;
-        m += static_cast<std::size_t>((v >= bracket.low) & (v <= bracket.high));
-        under += static_cast<std::size_t>(v < bracket.low);
-    }
-    const std::size_t upto = under + m;
+    const range_split split = split_range(values, bracket.low, bracket.high, scratch);
+    const std::size_t under = split.under;
+    const std::size_t upto = under + split.inside;
+    std::size_t m = split.inside;
     if (under <= first_rank && k < upto) return select_all(std::span(scratch).first(m), k - under, below);
     // Both ranks lie under the bracket or both over it: select among that side only.
     float low = -std::numeric_limits<float>::infinity(), high = std::numeric_limits<float>::infinity();
@@ -158,11 +247,7 @@ order_values select_order(std::span<float> values, std::size_t k, bool want_belo
     } else {
         return select_all(values, k, below);  // the two ranks lie in two parts
     }
-    m = 0;
-    for (const float v : values) {
-        scratch[m] = v;
-        m += static_cast<std::size_t>((v >= low) & (v <= high));
-    }
+    m = split_range(values, low, high, scratch).inside;
     return select_all(std::span(scratch).first(m), k - rank0, below);
 }
 

@@ -24,9 +24,27 @@ struct order_bracket {
 /// The bracket guess / spread .. guess * spread (spread >= 1); none when guess is not positive.
 order_bracket bracket_around(float guess, double spread);
 
+/// out[i] = from[at[i]] for i < at.size() (every at[i] an index into from; out at least as long):
+/// a set's values picked out of a frame's bins. An AVX2 gather where the CPU has it, else one by
+/// one; the same values either way.
+void gather_values(std::span<const float> from, std::span<const int> at, std::span<float> out);
+
+/// How split_range divided a set by a value range [low, high].
+struct range_split {
+    std::size_t under = 0;   ///< values under low
+    std::size_t inside = 0;  ///< values in [low, high], copied in order to inside[0, inside)
+};
+
+/// Copies the values in [low, high] to the front of `inside` (size >= values.size(); past the
+/// count its values are left unspecified) in their order, and counts those under low; a NaN is
+/// neither. An AVX2 path where the CPU has it (eight values per compare, packed by a lane
+/// permute), else split_range_baseline's one value at a time: the same counts and values.
+range_split split_range(std::span<const float> values, float low, float high, std::span<float> inside);
+range_split split_range_baseline(std::span<const float> values, float low, float high, std::span<float> inside);
+
 /// Selects the k-th smallest of `values` (reordered; 0-based, k < size) and, with want_below and
 /// k > 0, the (k-1)-th. A small k (under 8) keeps the k + 1 smallest in one pass. Otherwise one
-/// branch-free pass copies the values inside `bracket` to `scratch` (which keeps its capacity
+/// pass (split_range) copies the values inside `bracket` to `scratch` (which keeps its capacity
 /// across calls) and counts those under it; when both ranks fall inside, only those are selected
 /// among, else the side that holds both, else all (std::nth_element).
 order_values select_order(std::span<float> values, std::size_t k, bool want_below, order_bracket bracket,

@@ -10,7 +10,10 @@
 
 #include "core/order_select.hpp"
 #include "core/units.hpp"
-#include "synthesis/kernel_clones.hpp"
+
+#if defined(__x86_64__)
+#include <immintrin.h>
+#endif
 
 namespace wane {
 
@@ -81,13 +84,34 @@ std::uint32_t lanes_over(const float* x, float thr) {
 
 /// lanes[i * rank_lanes + l] = bins[l * band + i * bin_stride], i < count, l < rank_lanes: rank_lanes
 /// bands' every bin_stride-th bin side by side (select_small_ranks' layout), a row of lanes at a
-/// time (contiguous stores). Compiled for AVX2 and the baseline (WANE_KERNEL_CLONES: copies only,
-/// the same values in both; callgrind, `wane analyze` of the synthetic note: noise_floor::measure
-/// 11.13 -> 10.13 M instructions).
-WANE_KERNEL_CLONES
-void gather_band_lanes(const float* bins, std::size_t band, std::size_t count, float* lanes) {
+/// time (contiguous stores). Copies only: the same values on every path (callgrind, `wane analyze`
+/// of the synthetic note: noise_floor::measure 11.13 -> 10.13 M instructions compiled for AVX2).
+void gather_band_lanes_baseline(const float* bins, std::size_t band, std::size_t count, float* lanes) {
     for (std::size_t i = 0; i < count; ++i)
         for (std::size_t l = 0; l < rank_lanes; ++l) lanes[i * rank_lanes + l] = bins[l * band + i * bin_stride];
+}
+
+#if defined(__x86_64__)
+/// gather_band_lanes_baseline with a row of lanes per vgatherdps (lane l at l * band).
+[[gnu::target("avx2")]] void gather_band_lanes_avx2(const float* bins, std::size_t band, std::size_t count, float* lanes) {
+    static_assert(rank_lanes == 8);
+    assert(band * rank_lanes < (std::size_t{1} << 31));
+    const auto b = static_cast<int>(band);
+    const __m256i at = _mm256_setr_epi32(0, b, 2 * b, 3 * b, 4 * b, 5 * b, 6 * b, 7 * b);
+    for (std::size_t i = 0; i < count; ++i)
+        _mm256_storeu_ps(lanes + i * rank_lanes, _mm256_i32gather_ps(bins + i * bin_stride, at, sizeof(float)));
+}
+#endif
+
+void gather_band_lanes(const float* bins, std::size_t band, std::size_t count, float* lanes) {
+#if defined(__x86_64__)
+    static const bool has_avx2 = [] {
+        __builtin_cpu_init();
+        return __builtin_cpu_supports("avx2") != 0;
+    }();
+    if (has_avx2) return gather_band_lanes_avx2(bins, band, count, lanes);
+#endif
+    gather_band_lanes_baseline(bins, band, count, lanes);
 }
 
 /// The QIFFT peak at local maximum k (power[k - 1] < power[k] >= power[k + 1]); its phase from the
