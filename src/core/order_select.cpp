@@ -192,14 +192,6 @@ alignas(32) constexpr std::array<lane_indices, 256> compress_lanes = make_compre
     for (; i < at.size(); ++i) out[i] = from[static_cast<std::size_t>(at[i])];
 }
 
-bool cpu_has_avx2() {
-    static const bool has = [] {
-        __builtin_cpu_init();
-        return __builtin_cpu_supports("avx2") != 0;
-    }();
-    return has;
-}
-
 }  // namespace
 #endif
 

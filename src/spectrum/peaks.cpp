@@ -10,6 +10,7 @@
 
 #include "core/order_select.hpp"
 #include "core/units.hpp"
+#include "synthesis/kernel_clones.hpp"
 
 #if defined(__x86_64__)
 #include <immintrin.h>
@@ -105,11 +106,7 @@ void gather_band_lanes_baseline(const float* bins, std::size_t band, std::size_t
 
 void gather_band_lanes(const float* bins, std::size_t band, std::size_t count, float* lanes) {
 #if defined(__x86_64__)
-    static const bool has_avx2 = [] {
-        __builtin_cpu_init();
-        return __builtin_cpu_supports("avx2") != 0;
-    }();
-    if (has_avx2) return gather_band_lanes_avx2(bins, band, count, lanes);
+    if (cpu_has_avx2()) return gather_band_lanes_avx2(bins, band, count, lanes);
 #endif
     gather_band_lanes_baseline(bins, band, count, lanes);
 }

@@ -12,3 +12,22 @@
 #ifndef WANE_KERNEL_CLONES
 #define WANE_KERNEL_CLONES
 #endif
+
+namespace wane {
+
+/// Whether this CPU runs AVX2, asked once: the one home of the check for kernels written with
+/// AVX2 intrinsics beside a baseline loop (an explicit choice where target_clones cannot make
+/// the instruction wanted, e.g. a gather). False off x86-64.
+inline bool cpu_has_avx2() {
+#if defined(__x86_64__)
+    static const bool has = [] {
+        __builtin_cpu_init();
+        return __builtin_cpu_supports("avx2") != 0;
+    }();
+    return has;
+#else
+    return false;
+#endif
+}
+
+}  // namespace wane
