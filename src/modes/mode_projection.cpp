@@ -59,12 +59,6 @@ template <std::size_t G, typename Sample>
     for (std::size_t i = 0; i < G; ++i) out[which[i]] = {accr[i], acci[i]};
 }
 
-/// Lane indices for __builtin_shuffle that swap each pair's two lanes (two_lanes, four_lanes).
-using two_masks = long long __attribute__((vector_size(16)));
-using four_masks = long long __attribute__((vector_size(32)));
-constexpr two_masks swap_two{1, 0};
-constexpr four_masks swap_four{1, 0, 3, 2};
-
 /// project_chains for G = 1 or 2 with each chain's complex numbers side by side, [re, im] per
 /// chain: p z as p * [z_re, z_re] + [p_im, p_re] * [-z_im, z_im]. The same bits as
 /// project_chains's: pr zr + pi (-zi) is pr zr - pi zi (a negated product is exact, and x + (-y)
@@ -94,11 +88,11 @@ template <std::size_t G, typename Sample>
         for (std::size_t n = start; n < end; ++n) {
             const auto wn = static_cast<double>(w[n]);
             acc += wn * p;
-            lanes swapped;
+            lanes swapped;  // each pair's two lanes swapped: [p_im, p_re]
             if constexpr (G == 1) {
-                swapped = __builtin_shuffle(p, swap_two);
+                swapped = __builtin_shufflevector(p, p, 1, 0);
             } else {
-                swapped = __builtin_shuffle(p, swap_four);
+                swapped = __builtin_shufflevector(p, p, 1, 0, 3, 2);
             }
             p = p * z_same + swapped * z_cross;
         }
