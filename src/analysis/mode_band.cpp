@@ -41,24 +41,24 @@ using lanes = double __attribute__((vector_size(32)));
 /// side: lane l sums j = l mod 4, the lanes added at the end (m0, m1, m2 each summed in that
 /// order: a different rounding from moments_of's, within a few ulps of the block's magnitude), the
 /// j left past the last four in moments_of's order. The phasor as real and imaginary parts apart.
-/// Compiled for AVX2 and the baseline (synthesis/kernel_clones.hpp: no FMA, the same bits).
+/// Compiled for AVX2 and the baseline (synthesis/kernel_clones.hpp: no FMA, the same bits). j and
+/// j^2 come from tables (band_of: exact integers, the same values as counting j in the lanes).
 WANE_KERNEL_CLONES
 block_moments moments_of_whole(const float* __restrict x, const double* __restrict phasor_re,
-                               const double* __restrict phasor_im, std::size_t d) {
+                               const double* __restrict phasor_im, const double* __restrict j_of,
+                               const double* __restrict jj_of, std::size_t d) {
     lanes m0r{}, m0i{}, m1r{}, m1i{}, m2r{}, m2i{};
-    lanes jv{0.0, 1.0, 2.0, 3.0};
     std::size_t j = 0;
     for (; j + 4 <= d; j += 4) {
         const lanes xv{static_cast<double>(x[j]), static_cast<double>(x[j + 1]), static_cast<double>(x[j + 2]),
                        static_cast<double>(x[j + 3])};
-        lanes pr, pi;
+        lanes pr, pi, jv, jj;
         std::memcpy(&pr, phasor_re + j, sizeof pr), std::memcpy(&pi, phasor_im + j, sizeof pi);
+        std::memcpy(&jv, j_of + j, sizeof jv), std::memcpy(&jj, jj_of + j, sizeof jj);
         const lanes wr = xv * pr, wi = xv * pi;
-        const lanes jj = jv * jv;
         m0r += wr, m0i += wi;
         m1r += jv * wr, m1i += jv * wi;
         m2r += jj * wr, m2i += jj * wi;
-        jv += 4.0;
     }
     const auto total = [](const lanes& v) { return (v[0] + v[1]) + (v[2] + v[3]); };
     block_moments out{{total(m0r), total(m0i)}, {total(m1r), total(m1i)}, {total(m2r), total(m2i)}};
@@ -122,10 +122,14 @@ cvec band_of(std::span<const float> x, double freq_hz, double sample_rate_hz, st
     // Block b: x[b d - 2 + j], j < d (the two samples before x[0] are none: block 0 from j = 2).
     const std::size_t blocks = outputs + 2;
     add_block(0, moments_of(x.data(), 2, phasor));
-    std::vector<double> phasor_re(d), phasor_im(d);
-    for (std::size_t j = 0; j < d; ++j) phasor_re[j] = phasor[j].real(), phasor_im[j] = phasor[j].imag();
+    std::vector<double> phasor_re(d), phasor_im(d), j_of(d), jj_of(d);
+    for (std::size_t j = 0; j < d; ++j) {
+        phasor_re[j] = phasor[j].real(), phasor_im[j] = phasor[j].imag();
+        j_of[j] = static_cast<double>(j), jj_of[j] = j_of[j] * j_of[j];
+    }
     for (std::size_t b = 1; b < blocks; ++b)
-        add_block(b, moments_of_whole(x.data() + (b * d - 2), phasor_re.data(), phasor_im.data(), d));
+        add_block(b, moments_of_whole(x.data() + (b * d - 2), phasor_re.data(), phasor_im.data(), j_of.data(),
+                                      jj_of.data(), d));
     return out;
 }
 

@@ -45,21 +45,33 @@ constexpr std::size_t mode_chunk_frames = std::size_t{1} << 16;
 /// sum_k Re(amp_k z_k^n) for n from first_frame (a multiple of 1024) into out (double recursion,
 /// re-anchored every 1024 samples: a stretch is the same samples as from n = 0). The modes
 /// advance together, sample by sample: their recursions are independent chains in flight at once.
+/// w z written out on real and imaginary parts apart, (a + ib)(c + id) = (ac - bd) + i(ad + bc):
+/// std::complex's product where it is finite (its NaN recovery aside; the amplitudes are finite and
+/// |z| < 1), without its per-sample NaN test.
 void mode_signal(std::span<const damped_mode> modes, double sample_rate_hz, std::size_t first_frame, std::span<float> out) {
     assert(first_frame % 1024U == 0U);
-    std::vector<std::complex<double>> a(modes.size()), z(modes.size()), w(modes.size());
-    for (std::size_t k = 0; k < modes.size(); ++k) {
+    const std::size_t count = modes.size();
+    std::vector<std::complex<double>> a(count);
+    // Per mode: z's real and imaginary part, then w's (the running amp z^n).
+    std::vector<double> z_re(count), z_im(count), w_re(count), w_im(count);
+    for (std::size_t k = 0; k < count; ++k) {
         a[k] = {-modes[k].decay_per_s / sample_rate_hz, two_pi * modes[k].freq_hz / sample_rate_hz};
-        z[k] = std::exp(a[k]);
+        const std::complex<double> z = std::exp(a[k]);
+        z_re[k] = z.real(), z_im[k] = z.imag();
     }
     for (std::size_t i = 0; i < out.size(); ++i) {
         const std::size_t n = first_frame + i;
         if ((n & 1023U) == 0U)
-            for (std::size_t k = 0; k < modes.size(); ++k) w[k] = modes[k].amp * std::exp(a[k] * static_cast<double>(n));
+            for (std::size_t k = 0; k < count; ++k) {
+                const std::complex<double> w = modes[k].amp * std::exp(a[k] * static_cast<double>(n));
+                w_re[k] = w.real(), w_im[k] = w.imag();
+            }
         double sum = 0.0;
-        for (std::size_t k = 0; k < modes.size(); ++k) {
-            sum += w[k].real();
-            w[k] *= z[k];
+        for (std::size_t k = 0; k < count; ++k) {
+            sum += w_re[k];
+            const double next_re = w_re[k] * z_re[k] - w_im[k] * z_im[k];
+            w_im[k] = w_re[k] * z_im[k] + w_im[k] * z_re[k];
+            w_re[k] = next_re;
         }
         out[i] = static_cast<float>(sum);
     }
