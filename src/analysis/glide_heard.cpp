@@ -29,12 +29,15 @@ baseband make_baseband(const partial& q, double start_s, double end_s, std::size
     out.im.resize(count);
     out.step_s = (end_s - start_s) / static_cast<double>(count - 1);
     const std::vector<envelope_piece> pieces = envelope_pieces(q.env);  // made once (envelope_amp's)
+    // glide_phase_offset_rad's first term, the same at every t: made once.
+    const double total_rad = glide_total_phase_rad(q.freq_hz, q.glide_cents, q.glide_s);
     for (std::size_t n = 0; n < count; ++n) {
         const double t = start_s + static_cast<double>(n) * out.step_s;
         // Hann over the span: 0 at both ends.
         const double w = 0.5 - 0.5 * std::cos(two_pi * static_cast<double>(n) / static_cast<double>(count - 1));
         const double a = envelope_amp(q.env, pieces, t).lin;
-        const double phase = glide_phase_offset_rad(q.freq_hz, q.glide_cents, q.glide_s, t);
+        // glide_phase_offset_rad(q.freq_hz, q.glide_cents, q.glide_s, t), the same difference
+        const double phase = total_rad - glide_remaining_phase_rad(q.freq_hz, q.glide_cents, q.glide_s, t);
         out.re[n] = a * w * std::cos(phase);
         out.im[n] = a * w * std::sin(phase);
     }

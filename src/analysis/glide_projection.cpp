@@ -168,14 +168,26 @@ void fill_terms(glide_terms& t, std::size_t upto) {
     t.filled = upto;
 }
 
-/// sin_g[b], cos_g[b] of freq_hz (whole_rad_per_hz - remaining_rad_per_hz[b]) for b < count: the
-/// glide's phase at each block, one vector loop (no reduction), compiled for AVX2 and for the
-/// baseline (synthesis/kernel_clones.hpp: no FMA, element-wise IEEE operations, the same bits).
+/// Each block's term of S for b < count: e^(-j g_b) (Z_b - j g'_b Z1_b) with g_b = freq_hz
+/// (whole_rad_per_hz - remaining_rad_per_hz[b]) and g'_b = rad_per_frame excess[b], its real and
+/// imaginary parts (z, z1: the blocks' sums, re and im interleaved as std::complex keeps them).
+/// Element-wise (no reduction: projection adds the terms in block order, each term formed as the
+/// sum had formed it), one vector loop compiled for AVX2 and for the baseline
+/// (synthesis/kernel_clones.hpp: no FMA, element-wise IEEE operations, the same bits).
 WANE_KERNEL_CLONES
-void glide_phases(double freq_hz, double whole_rad_per_hz, const double* __restrict remaining_rad_per_hz,
-                  std::size_t count, double* __restrict sin_g, double* __restrict cos_g) {
-    for (std::size_t b = 0; b < count; ++b)
-        sincos_poly(freq_hz * (whole_rad_per_hz - remaining_rad_per_hz[b]), sin_g[b], cos_g[b]);
+void block_terms(double freq_hz, double whole_rad_per_hz, const double* __restrict remaining_rad_per_hz,
+                 const double* __restrict excess, double rad_per_frame, const double* __restrict z,
+                 const double* __restrict z1, std::size_t count, double* __restrict term_re, double* __restrict term_im) {
+    for (std::size_t b = 0; b < count; ++b) {
+        double sin_g = 0.0, cos_g = 1.0;
+        sincos_poly(freq_hz * (whole_rad_per_hz - remaining_rad_per_hz[b]), sin_g, cos_g);
+        const double slope = rad_per_frame * excess[b];  // g' per frame
+        // a = Z - j slope Z1; (cos g - j sin g) a.
+        const double a_re = z[2 * b] + slope * z1[2 * b + 1];
+        const double a_im = z[2 * b + 1] - slope * z1[2 * b];
+        term_re[b] = cos_g * a_re + sin_g * a_im;
+        term_im[b] = cos_g * a_im - sin_g * a_re;
+    }
 }
 
 /// Blocks summed between two looks at projection's bound.
@@ -197,8 +209,8 @@ std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms&
     assert(t.excess.size() == count && (!(floor_norm > 0.0) || s.tail_z.size() == count + 1));
     assert(!tails || (tails->z.size() == count + 1 && tails->z1.size() == count + 1 && s.tail_sum.size() == count + 1));
     scratch.resize(2 * count);
-    double* sin_g = scratch.data();
-    double* cos_g = scratch.data() + count;
+    double* term_re = scratch.data();
+    double* term_im = scratch.data() + count;
     const double rad_per_frame = two_pi * freq_hz / rate_hz;
     if (!(floor_norm > 0.0) || count == 0) tails = nullptr;
     // The settled bound's terms (evaluate_above): e^(-j G), the decay tails' weights, the padding.
@@ -231,15 +243,10 @@ std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms&
     for (std::size_t b0 = 0; b0 < count; b0 += bound_chunk_blocks) {
         const std::size_t b1 = std::min(count, b0 + bound_chunk_blocks);
         fill_terms(t, std::min(count, b1 + 1));  // b1's excess for the bound
-        glide_phases(freq_hz, t.whole_rad_per_hz, t.remaining_rad_per_hz.data() + b0, b1 - b0, sin_g + b0, cos_g + b0);
-        for (std::size_t b = b0; b < b1; ++b) {
-            const double slope = rad_per_frame * t.excess[b];  // g' per frame
-            // a = Z - j slope Z1; (cos g - j sin g) a.
-            const double a_re = s.z[b].real() + slope * s.z1[b].imag();
-            const double a_im = s.z[b].imag() - slope * s.z1[b].real();
-            re += cos_g[b] * a_re + sin_g[b] * a_im;
-            im += cos_g[b] * a_im - sin_g[b] * a_re;
-        }
+        block_terms(freq_hz, t.whole_rad_per_hz, t.remaining_rad_per_hz.data() + b0, t.excess.data() + b0, rad_per_frame,
+                    reinterpret_cast<const double*>(s.z.data() + b0), reinterpret_cast<const double*>(s.z1.data() + b0), b1 - b0,
+                    term_re + b0, term_im + b0);
+        for (std::size_t b = b0; b < b1; ++b) re += term_re[b], im += term_im[b];
         if (b1 == count || !(floor_norm > 0.0)) continue;
         if (under_floor(b1, re, im)) return std::nullopt;
     }
@@ -347,6 +354,9 @@ block_sums merged_pairs(const block_sums& s, double rate_hz) {
     block_sums out;
     out.amp_energy = s.amp_energy;
     out.band_energy = s.band_energy;
+    out.z.reserve(s.z.size() / 2);
+    out.z1.reserve(s.z.size() / 2);
+    out.centre_s.reserve(s.z.size() / 2);
     for (std::size_t b = 0; b + 1 < s.z.size(); b += 2) {
         const double centre_s = 0.5 * (s.centre_s[b] + s.centre_s[b + 1]);
         const double half_frames = 0.5 * (s.centre_s[b + 1] - s.centre_s[b]) * rate_hz;
@@ -389,7 +399,7 @@ std::vector<double> decays(const block_sums& s, double glide_s) {
 /// whole sum: projection).
 std::optional<glide_fit> evaluate_above(const block_sums& s, double freq_hz, glide_terms& t, double rate_hz,
                                         double floor_explained, const decay_tails* tails) {
-    thread_local std::vector<double> scratch;  // the blocks' sin and cos, kept between calls
+    thread_local std::vector<double> scratch;  // the blocks' terms, kept between calls
     const std::optional<cplx> sum = projection(s, freq_hz, t, rate_hz, 0.5 * floor_explained * s.amp_energy, tails, scratch);
     if (!sum) return std::nullopt;
     return glide_fit{.cents = t.cents, .glide_s = t.glide_s, .explained = 2.0 * std::norm(*sum) / s.amp_energy,

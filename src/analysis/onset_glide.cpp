@@ -59,21 +59,40 @@ struct coarse_grid {
     std::vector<std::vector<double>> decay;  ///< per time constant; the points' decay spans look into these
     std::vector<std::size_t> decay_of;       ///< per point: its time constant's index in decay
 };
+/// The decay of s's blocks for glide_s from met (tau, decay), made and added the first time
+/// (decays). An entry's buffer moves with it, unchanged, when the list grows.
+std::span<const double> decay_in(std::vector<std::pair<double, std::vector<double>>>& met, const block_sums& s,
+                                 double glide_s) {
+    for (const auto& [tau, decay] : met)
+        if (tau == glide_s) return decay;
+    met.emplace_back(glide_s, decays(s, glide_s));
+    return met.back().second;
+}
+
 /// The grids' terms kept for the next partial of the note: the coarse rings, and the fine grid's
 /// decays e^(-t_b / tau) on its blocks (the same blocks for every partial) per time constant met
 /// (the fine grid's time constants follow the coarse best's, which partials share).
 struct coarse_rings {
     std::vector<coarse_grid> grids;
     std::vector<std::pair<double, std::vector<double>>> fine_decays;  ///< (tau, decay) as met
+    /// The same on the flat sums' blocks (the shaped sums have the same centres), for the best's
+    /// sum on them (the fine grid's own when it is not on the merged blocks).
+    std::vector<std::pair<double, std::vector<double>>> block_decays;
 
     /// The fine blocks' decay for tau, made the first time (decays).
-    std::span<const double> fine_decay(const block_sums& f_sums, double glide_s) {
-        for (const auto& [tau, decay] : fine_decays)
-            if (tau == glide_s) return decay;
-        fine_decays.emplace_back(glide_s, decays(f_sums, glide_s));
-        return fine_decays.back().second;
-    }
+    std::span<const double> fine_decay(const block_sums& f_sums, double glide_s) { return decay_in(fine_decays, f_sums, glide_s); }
+    /// The flat (and shaped) blocks' decay for tau, made the first time (decays).
+    std::span<const double> block_decay(const block_sums& s, double glide_s) { return decay_in(block_decays, s, glide_s); }
 };
+
+/// evaluate(s, freq_hz, cents, glide_s, rate_hz) with the decay of s's blocks kept in rings
+/// (block_decay; the same numbers as decays makes each time).
+glide_fit evaluate_on_blocks(const block_sums& s, double freq_hz, double cents, double glide_s, double rate_hz,
+                             coarse_rings& rings) {
+    if (cents == 0.0) return evaluate(s, freq_hz, cents, glide_s, rate_hz);
+    glide_terms t = terms_at(cents, glide_s, rings.block_decay(s, glide_s));
+    return evaluate(s, freq_hz, t, rate_hz);
+}
 
 coarse_grid make_coarse_grid(const block_sums& coarse_sums, const onset_glide_params& params, std::size_t ring) {
     coarse_grid out;
@@ -128,7 +147,9 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
     // with its best summed again on the fine blocks.
     const block_sums& f_sums = params.fine_on_merged_blocks ? coarse_sums : s;
     const double f_floor = params.fine_on_merged_blocks ? kept_floor * (1.0 - params.merged_floor_share) : kept_floor;
-    best = evaluate(f_sums, freq_hz, coarse.cents, coarse.glide_s, rate_hz);
+    // The coarse best summed on f_sums: the coarse fit itself where those are the merged blocks
+    // (the same terms, summed whole in the same order).
+    best = params.fine_on_merged_blocks && coarse.cents != 0.0 ? coarse : evaluate(f_sums, freq_hz, coarse.cents, coarse.glide_s, rate_hz);
     const auto fine = static_cast<int>(std::round(params.cents_step / params.fine_cents_step));
     const int half_octave = params.fine_glide_s_steps_per_octave / 2;
     glide_terms lazy{.remaining_rad_per_hz = std::vector<double>(f_sums.z.size()), .excess = std::vector<double>(f_sums.z.size())};
@@ -151,7 +172,7 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
             if (f && f->explained > best.explained) best = *f;
         }
     }
-    if (params.fine_on_merged_blocks) best = evaluate(s, freq_hz, best.cents, best.glide_s, rate_hz);
+    if (params.fine_on_merged_blocks) best = evaluate_on_blocks(s, freq_hz, best.cents, best.glide_s, rate_hz, rings);
     return best;
 }
 
@@ -223,7 +244,7 @@ std::optional<glide_fit> fit_glide(std::span<const double> y, const partial& q, 
     }
     const block_sums shaped = sum_shaped(z, q, gain_lin, rate_hz, block);
     if (!(shaped.amp_energy > 0.0)) return std::nullopt;
-    best.amp = evaluate(shaped, q.freq_hz, best.cents, best.glide_s, rate_hz).amp;
+    best.amp = evaluate_on_blocks(shaped, q.freq_hz, best.cents, best.glide_s, rate_hz, rings).amp;
     return best;
 }
 

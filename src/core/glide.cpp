@@ -9,6 +9,7 @@
 #include <numbers>
 
 #include "core/units.hpp"
+#include "synthesis/kernel_clones.hpp"
 
 namespace wane {
 
@@ -85,9 +86,9 @@ namespace {
 /// where |x| <= short_series_max_x and its 16 elsewhere, as ein takes them (both summed, one kept:
 /// the loop stays branch-free); expm1's first Expm1Terms terms. Horner's rule, as ein.
 template <bool MidRange, std::size_t Expm1Terms>
-void terms_by_series(double x0, double rad_per_hz, std::span<const double> decay,
-                     std::span<double> remaining_rad_per_hz, std::span<double> excess) {
-    for (std::size_t b = 0; b < decay.size(); ++b) {
+[[gnu::always_inline]] inline void terms_by_series(double x0, double rad_per_hz, const double* __restrict decay, std::size_t count,
+                                                   double* __restrict remaining_rad_per_hz, double* __restrict excess) {
+    for (std::size_t b = 0; b < count; ++b) {
         assert(std::abs(decay[b]) <= 1.0);
         const double x = x0 * decay[b];  // the product ein's caller forms, nepers_per_cent * cents * decay
         double ein_sum = 0.0;
@@ -102,6 +103,19 @@ void terms_by_series(double x0, double rad_per_hz, std::span<const double> decay
         remaining_rad_per_hz[b] = rad_per_hz * ein_sum;
         excess[b] = expm1_sum;
     }
+}
+
+/// terms_by_series for offsets up to short_series_max_x and up to mid_series_max_x: element-wise
+/// loops, compiled for AVX2 and for the baseline (synthesis/kernel_clones.hpp: no FMA, the same bits).
+WANE_KERNEL_CLONES
+void short_terms_by_series(double x0, double rad_per_hz, const double* decay, std::size_t count, double* remaining_rad_per_hz,
+                           double* excess) {
+    terms_by_series<false, expm1_series_terms>(x0, rad_per_hz, decay, count, remaining_rad_per_hz, excess);
+}
+WANE_KERNEL_CLONES
+void mid_terms_by_series(double x0, double rad_per_hz, const double* decay, std::size_t count, double* remaining_rad_per_hz,
+                         double* excess) {
+    terms_by_series<true, mid_expm1_series_terms>(x0, rad_per_hz, decay, count, remaining_rad_per_hz, excess);
 }
 
 }  // namespace
@@ -119,9 +133,9 @@ void glide_terms_at_decays(double glide_cents, double glide_s, std::span<const d
     }
     const double rad_per_hz = two_pi * 1.0 * glide_s;  // glide_remaining_phase_at_decay_rad's factor at f = 1 Hz
     if (std::abs(x0) <= short_series_max_x) {
-        terms_by_series<false, expm1_series_terms>(x0, rad_per_hz, decay, remaining_rad_per_hz, excess);
+        short_terms_by_series(x0, rad_per_hz, decay.data(), decay.size(), remaining_rad_per_hz.data(), excess.data());
     } else {
-        terms_by_series<true, mid_expm1_series_terms>(x0, rad_per_hz, decay, remaining_rad_per_hz, excess);
+        mid_terms_by_series(x0, rad_per_hz, decay.data(), decay.size(), remaining_rad_per_hz.data(), excess.data());
     }
 }
 
