@@ -215,7 +215,8 @@ std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms&
     if (!(floor_norm > 0.0) || count == 0) tails = nullptr;
     // The settled bound's terms (evaluate_above): e^(-j G), the decay tails' weights, the padding.
     double settled_re = 0.0, settled_im = 0.0, turn_weight = 0.0, slope_weight = 0.0, settled_pad = 0.0;
-    if (count > 0) fill_terms(t, 1);
+    // The first stretch's terms and the next block's excess (the bound's), made at once.
+    if (count > 0) fill_terms(t, std::min(count, bound_chunk_blocks + 1));
     if (tails) {
         const double whole_rad = freq_hz * t.whole_rad_per_hz;
         sincos_poly(-whole_rad, settled_im, settled_re);
