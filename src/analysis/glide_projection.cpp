@@ -378,14 +378,22 @@ glide_terms terms_at(double cents, double glide_s, std::span<const double> decay
     return out;
 }
 
-decay_tails tails_at(const block_sums& s, std::span<const double> decay) {
+void tails_into(const block_sums& s, std::span<const double> decay, decay_tails& out) {
     const std::size_t count = s.z.size();
     assert(decay.size() == count && s.abs_z.size() == count);
-    decay_tails out{.z = std::vector<double>(count + 1), .z1 = std::vector<double>(count + 1)};
+    out.z.resize(count + 1);
+    out.z1.resize(count + 1);
+    out.z[count] = 0.0;
+    out.z1[count] = 0.0;
     for (std::size_t b = count; b-- > 0;) {
         out.z[b] = out.z[b + 1] + decay[b] * s.abs_z[b];
         out.z1[b] = out.z1[b + 1] + decay[b] * s.abs_z1[b];
     }
+}
+
+decay_tails tails_at(const block_sums& s, std::span<const double> decay) {
+    decay_tails out;
+    tails_into(s, decay, out);
     return out;
 }
 

@@ -44,6 +44,8 @@ struct decay_tails {
 
 /// s's decay tails for decay[b] = e^(-t_b / tau) at its blocks' centres.
 decay_tails tails_at(const block_sums& s, std::span<const double> decay);
+/// The same into out, whose buffers are reused (nothing allocated when they are long enough).
+void tails_into(const block_sums& s, std::span<const double> decay, decay_tails& out);
 
 /// z[n] = y[n] e^(-j 2 pi f n / fs), kept per sample for the flat and the shaped sums.
 struct heterodyned {

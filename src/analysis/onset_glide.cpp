@@ -78,6 +78,10 @@ struct coarse_rings {
     /// The same on the flat sums' blocks (the shaped sums have the same centres), for the best's
     /// sum on them (the fine grid's own when it is not on the merged blocks).
     std::vector<std::pair<double, std::vector<double>>> block_decays;
+    /// Work space for search: a partial's decay tails per coarse time constant, and the fine
+    /// grid's of one time constant (their buffers reused from partial to partial).
+    std::vector<decay_tails> coarse_tails;
+    decay_tails fine_tails;
 
     /// The fine blocks' decay for tau, made the first time (decays).
     std::span<const double> fine_decay(const block_sums& f_sums, double glide_s) { return decay_in(fine_decays, f_sums, glide_s); }
@@ -131,8 +135,10 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
     const block_sums coarse_sums = merged_pairs(s, rate_hz);
     while (rings.grids.size() <= ring) rings.grids.push_back(make_coarse_grid(coarse_sums, params, rings.grids.size()));
     coarse_grid& grid = rings.grids[ring];
-    std::vector<decay_tails> tails;  // this partial's, per time constant (evaluate_above's settled bound)
-    for (const std::vector<double>& decay : grid.decay) tails.push_back(tails_at(coarse_sums, decay));
+    // This partial's decay tails per time constant (evaluate_above's settled bound).
+    std::vector<decay_tails>& tails = rings.coarse_tails;
+    if (tails.size() < grid.decay.size()) tails.resize(grid.decay.size());
+    for (std::size_t k = 0; k < grid.decay.size(); ++k) tails_into(coarse_sums, grid.decay[k], tails[k]);
     for (std::size_t i = 0; i < grid.points.size(); ++i) {  // terms made as the sums reach them (evaluate_above)
         glide_terms& t = grid.points[i];
         if (t.glide_s > longest_s) continue;
@@ -158,7 +164,8 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
                                           params.min_fit_glide_s / 2.0, max_glide_s);
         // Its buffer moves with fine_decays' entry, unchanged, when the list grows.
         const std::span<const double> decay = rings.fine_decay(f_sums, glide_s);
-        const decay_tails settled = tails_at(f_sums, decay);
+        const decay_tails& settled = rings.fine_tails;
+        tails_into(f_sums, decay, rings.fine_tails);
         for (int i = -fine; i <= fine; ++i) {
             const double cents = coarse.cents + i * params.fine_cents_step;
             if (cents == 0.0) continue;
