@@ -220,7 +220,7 @@ std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms&
     if (tails) {
         const double whole_rad = freq_hz * t.whole_rad_per_hz;
         sincos_poly(-whole_rad, settled_im, settled_re);
-        if (t.excess_bound < 0.0) t.excess_bound = std::expm1(std::abs(t.cents) * std::numbers::ln2 / 1200.0);
+        if (t.excess_bound < 0.0) t.excess_bound = excess_bound_at(t.cents);
         turn_weight = two_pi * freq_hz * t.glide_s * t.excess_bound;
         slope_weight = rad_per_frame * t.excess_bound;
         settled_pad = bound_margin * (s.tail_z[0] + std::abs(rad_per_frame * t.excess[0]) * s.tail_z1[0]);
@@ -368,6 +368,8 @@ block_sums merged_pairs(const block_sums& s, double rate_hz) {
     add_tails(out);
     return out;
 }
+
+double excess_bound_at(double cents) { return std::expm1(std::abs(cents) * std::numbers::ln2 / 1200.0); }
 
 glide_terms terms_at(double cents, double glide_s, std::span<const double> decay) {
     glide_terms out{.cents = cents, .glide_s = glide_s,

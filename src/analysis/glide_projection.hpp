@@ -89,6 +89,9 @@ struct glide_terms {
     double excess_bound = -1.0;
 };
 
+/// glide_terms::excess_bound of an offset: expm1(|cents| ln2 / 1200).
+double excess_bound_at(double cents);
+
 /// The terms of (cents, glide_s) at every decay, made whole.
 glide_terms terms_at(double cents, double glide_s, std::span<const double> decay);
 
