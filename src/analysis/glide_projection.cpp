@@ -217,20 +217,22 @@ std::optional<cplx> projection(const block_sums& s, double freq_hz, glide_terms&
     double settled_re = 0.0, settled_im = 0.0, turn_weight = 0.0, slope_weight = 0.0, settled_pad = 0.0;
     // The first stretch's terms and the next block's excess (the bound's), made at once.
     if (count > 0) fill_terms(t, std::min(count, bound_chunk_blocks + 1));
-    if (tails) {
-        const double whole_rad = freq_hz * t.whole_rad_per_hz;
-        sincos_poly(-whole_rad, settled_im, settled_re);
-        if (t.excess_bound < 0.0) t.excess_bound = excess_bound_at(t.cents);
-        turn_weight = two_pi * freq_hz * t.glide_s * t.excess_bound;
-        slope_weight = rad_per_frame * t.excess_bound;
-        settled_pad = bound_margin * (s.tail_z[0] + std::abs(rad_per_frame * t.excess[0]) * s.tail_z1[0]);
-    }
+    bool settled_made = false;  // the settled bound's terms are made as it is first needed
     // Whether no sum whose blocks before b1 summed to (re, im) reaches floor_norm.
     const auto under_floor = [&](std::size_t b1, double re, double im) {
         const double loose = (std::sqrt(re * re + im * im) + s.tail_z[b1] + std::abs(rad_per_frame * t.excess[b1]) * s.tail_z1[b1]) *
                              (1.0 + bound_margin);
         if (loose * loose < floor_norm) return true;
         if (!tails) return false;
+        if (!settled_made) {
+            const double whole_rad = freq_hz * t.whole_rad_per_hz;
+            sincos_poly(-whole_rad, settled_im, settled_re);
+            if (t.excess_bound < 0.0) t.excess_bound = excess_bound_at(t.cents);
+            turn_weight = two_pi * freq_hz * t.glide_s * t.excess_bound;
+            slope_weight = rad_per_frame * t.excess_bound;
+            settled_pad = bound_margin * (s.tail_z[0] + std::abs(rad_per_frame * t.excess[0]) * s.tail_z1[0]);
+            settled_made = true;
+        }
         const cplx rest = s.tail_sum[b1];
         const double sum_re = re + settled_re * rest.real() - settled_im * rest.imag();
         const double sum_im = im + settled_re * rest.imag() + settled_im * rest.real();
