@@ -160,8 +160,8 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
     const int half_octave = params.fine_glide_s_steps_per_octave / 2;
     glide_terms lazy{.remaining_rad_per_hz = std::vector<double>(f_sums.z.size()), .excess = std::vector<double>(f_sums.z.size())};
     // Each offset's excess bound, the same at every time constant: made once.
-    std::vector<double> excess_bounds(static_cast<std::size_t>(2 * fine + 1));
-    for (int i = -fine; i <= fine; ++i) excess_bounds[static_cast<std::size_t>(i + fine)] = excess_bound_at(coarse.cents + i * params.fine_cents_step);
+    std::vector<double> excess_bounds;
+    for (int i = -fine; i <= fine; ++i) excess_bounds.push_back(excess_bound_at(coarse.cents + i * params.fine_cents_step));
     for (int j = -half_octave; j <= half_octave; ++j) {
         const double glide_s = std::clamp(coarse.glide_s * std::exp2(static_cast<double>(j) / params.fine_glide_s_steps_per_octave),
                                           params.min_fit_glide_s / 2.0, max_glide_s);
@@ -169,7 +169,8 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
         const std::span<const double> decay = rings.fine_decay(f_sums, glide_s);
         const decay_tails& settled = rings.fine_tails;
         tails_into(f_sums, decay, rings.fine_tails);
-        for (int i = -fine; i <= fine; ++i) {
+        std::size_t at = 0;  // i's index in excess_bounds
+        for (int i = -fine; i <= fine; ++i, ++at) {
             const double cents = coarse.cents + i * params.fine_cents_step;
             if (cents == 0.0) continue;
             lazy.cents = cents;
@@ -177,7 +178,7 @@ glide_fit search(const block_sums& s, double freq_hz, double rate_hz, const onse
             lazy.whole_rad_per_hz = glide_remaining_phase_at_decay_rad(1.0, cents, glide_s, 1.0);
             lazy.decay = decay;
             lazy.filled = 0;
-            lazy.excess_bound = excess_bounds[static_cast<std::size_t>(i + fine)];
+            lazy.excess_bound = excess_bounds[at];
             const std::optional<glide_fit> f = evaluate_above(f_sums, freq_hz, lazy, rate_hz, std::max(best.explained, f_floor), &settled);
             if (f && f->explained > best.explained) best = *f;
         }
