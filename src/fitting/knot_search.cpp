@@ -1,6 +1,8 @@
 // The continuous piecewise-linear least squares behind fit_level_lines (see knot_search.hpp).
 #include "fitting/knot_search.hpp"
 
+#include <algorithm>
+#include <array>
 #include <cassert>
 #include <cmath>
 #include <utility>
@@ -328,7 +330,10 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
     for (int sweep = 0; sweep < knot_sweeps; ++sweep) {
         bool moved = false;
         for (std::size_t j = 0; j < knots.size(); ++j) {
-            std::vector<double> trial = best.knots;
+            // The trial knots in a fixed array (no allocation per knot), a copy of best.knots.
+            std::array<double, max_supported_segments> trial_knots{};
+            std::copy(best.knots.begin(), best.knots.end(), trial_knots.begin());
+            const std::span<double> trial(trial_knots.data(), best.knots.size());
             knot_indices trial_idx = best_idx;
             auto move_to = [&](double t) {
                 trial[j] = t;
@@ -382,7 +387,7 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
             }
             if (cand_rss < current_rss) {
                 move_to(cand);
-                best.knots = trial;
+                best.knots.assign(trial.begin(), trial.end());
                 best_idx = trial_idx;
                 best.sol = solve_at(ps, trial, trial_idx);
                 moved = true;
