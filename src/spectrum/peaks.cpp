@@ -7,7 +7,6 @@
 #include <cmath>
 #include <cstdint>
 #include <cstring>
-#include <limits>
 
 #include "core/order_select.hpp"
 #include "core/units.hpp"
@@ -112,22 +111,11 @@ void gather_band_lanes(const float* bins, std::size_t band, std::size_t count, f
     gather_band_lanes_baseline(bins, band, count, lanes);
 }
 
-/// The level of the bin after the last maximum peak_at looked at (maxima come in ascending bins):
-/// a maximum two bins further has it as its left neighbour, and takes it from here (the same
-/// value as db_of_power's of the same bin).
-struct right_neighbour_db {
-    std::size_t bin = std::numeric_limits<std::size_t>::max();  ///< none yet
-    double level_db = 0.0;
-};
-
 /// The QIFFT peak at local maximum k (power[k - 1] < power[k] >= power[k + 1]); its phase from the
-/// bins when given. Maxima in ascending k, each after the last one's (last).
+/// bins when given.
 spectral_peak peak_at(std::span<const float> power, std::span<const kiss_fft_cpx> bins, const qifft_correction& correction,
-                      std::size_t k, double bin_hz, double band_floor_db, right_neighbour_db& last) {
-    const double left_db = last.bin == k - 1 ? last.level_db : db_of_power(power[k - 1]);
-    const double right_db = db_of_power(power[k + 1]);
-    last = {.bin = k + 1, .level_db = right_db};
-    const auto fit = correction.interpolate(left_db, db_of_power(power[k]), right_db);
+                      std::size_t k, double bin_hz, double band_floor_db) {
+    const auto fit = correction.interpolate(db_of_power(power[k - 1]), db_of_power(power[k]), db_of_power(power[k + 1]));
     spectral_peak peak{.freq_hz = (double(k) + fit.offset_bins) * bin_hz,
                        .level_db = fit.level_db,
                        .phase_rad = 0.0,
@@ -252,7 +240,6 @@ void find_peaks(std::span<const float> power, std::span<const kiss_fft_cpx> bins
     // Power threshold per floor band (the floor's bands are whole multiples of FFT bins).
     const double band_hz = floor != nullptr ? floor->band_hz() : sample_rate_hz;
     const auto band_bins = std::max<std::size_t>(1, static_cast<std::size_t>(std::lround(band_hz / bin_hz)));
-    right_neighbour_db previous;
     for (std::size_t band_lo = (first / band_bins) * band_bins; band_lo <= last; band_lo += band_bins) {
         const std::size_t lo = std::max(band_lo, first);
         const std::size_t hi = std::min(band_lo + band_bins, last + 1);
@@ -270,14 +257,14 @@ void find_peaks(std::span<const float> power, std::span<const kiss_fft_cpx> bins
                     const std::size_t k = chunk + static_cast<std::size_t>(std::countr_zero(over));
                     const float p = power[k];
                     if (p > power[k - 1] && p >= power[k + 1])
-                        out.push_back(peak_at(power, bins, correction, k, bin_hz, band_floor_db, previous));
+                        out.push_back(peak_at(power, bins, correction, k, bin_hz, band_floor_db));
                 }
                 continue;
             }
             for (std::size_t k = chunk; k < end; ++k) {
                 const float p = power[k];
                 if (p <= thr || !(p > power[k - 1] && p >= power[k + 1])) continue;
-                out.push_back(peak_at(power, bins, correction, k, bin_hz, band_floor_db, previous));
+                out.push_back(peak_at(power, bins, correction, k, bin_hz, band_floor_db));
             }
         }
     }
