@@ -1,8 +1,6 @@
 // The continuous piecewise-linear least squares behind fit_level_lines (see knot_search.hpp).
 #include "fitting/knot_search.hpp"
 
-#include <algorithm>
-#include <array>
 #include <cassert>
 #include <cmath>
 #include <utility>
@@ -330,8 +328,7 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
     for (int sweep = 0; sweep < knot_sweeps; ++sweep) {
         bool moved = false;
         for (std::size_t j = 0; j < knots.size(); ++j) {
-            // The trial knots in a fixed array (no allocation per knot), a copy of best.knots.
-            std::array<double, max_supported_segments> trial_knots{};
+            std::array<double, max_supported_segments> trial_knots{};  // best.knots, not allocated
             std::copy(best.knots.begin(), best.knots.end(), trial_knots.begin());
             const std::span<double> trial(trial_knots.data(), best.knots.size());
             knot_indices trial_idx = best_idx;
