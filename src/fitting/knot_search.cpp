@@ -328,7 +328,9 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
     for (int sweep = 0; sweep < knot_sweeps; ++sweep) {
         bool moved = false;
         for (std::size_t j = 0; j < knots.size(); ++j) {
-            std::vector<double> trial = best.knots;
+            std::array<double, max_supported_segments> trial_knots{};  // best.knots, not allocated
+            std::copy(best.knots.begin(), best.knots.end(), trial_knots.begin());
+            const std::span<double> trial(trial_knots.data(), best.knots.size());
             knot_indices trial_idx = best_idx;
             auto move_to = [&](double t) {
                 trial[j] = t;
@@ -382,7 +384,7 @@ knot_fit refine_knots(const point_sums& ps, std::vector<double> knots, double mi
             }
             if (cand_rss < current_rss) {
                 move_to(cand);
-                best.knots = trial;
+                best.knots.assign(trial.begin(), trial.end());
                 best_idx = trial_idx;
                 best.sol = solve_at(ps, trial, trial_idx);
                 moved = true;

@@ -68,11 +68,15 @@ private:
 /// falls with s2).
 double model_error_variance(const std::vector<double>& resid, std::span<const double> weights, double dof) {
     const std::size_t n = resid.size();
+    // r_i^2 and 1 / w_i once, not at every bisection step (the same values, summed in the same
+    // order).
+    std::vector<double> r2(n), inv_w(n);
+    for (std::size_t i = 0; i < n; ++i) r2[i] = resid[i] * resid[i], inv_w[i] = 1.0 / weights[i];
     double lo = 0.0, hi = 0.0;
-    for (double r : resid) hi = std::max(hi, r * r);
+    for (double r : r2) hi = std::max(hi, r);
     auto excess_chi2 = [&](double s2) {
         double sum = 0.0;
-        for (std::size_t i = 0; i < n; ++i) sum += resid[i] * resid[i] / (1.0 / weights[i] + s2);
+        for (std::size_t i = 0; i < n; ++i) sum += r2[i] / (inv_w[i] + s2);
         return sum - dof;
     };
     for (int it = 0; it < variance_bisection_steps; ++it) {

@@ -34,6 +34,7 @@ double heard_freq_hz(std::span<const track_point> pts, std::size_t peak, std::si
     constexpr double step_hz = 0.05;    ///< about 1/20 of the main lobe of a 1 s Hann window
     constexpr double fine_refinement = 50.0;
     std::vector<double> w, t, phi;
+    w.reserve(pts.size()), t.reserve(pts.size()), phi.reserve(pts.size());  // one allocation each
     double fa = 0.0, fw = 0.0;
     for (const track_point& p : pts) {
         const double u = (p.time_s - span_start_s) / span_s;
