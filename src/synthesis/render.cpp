@@ -24,6 +24,7 @@
 // constant frequency and the settled phase phase_rad + G (the glide's whole phase).
 #include "synthesis/render.hpp"
 #include "synthesis/noise_render.hpp"
+#include "synthesis/phasor_powers.hpp"
 #include "synthesis/damped_kernels.hpp"
 #include "synthesis/kernel_clones.hpp"
 #include "core/glide.hpp"
@@ -96,19 +97,11 @@ std::size_t first_frame_at_or_after(double time_s, double rate_hz, std::size_t t
     return std::min(n, total_frames);
 }
 
-/// A partial's e^(j w l) = (cos(w l), sin(w l)), l <= lanes, w = 2 pi cycles_per_frame: every span's turns.
-using unit_powers = std::array<std::complex<double>, lanes + 1>;
-unit_powers unit_powers_of(double cycles_per_frame) {
-    unit_powers u;
-    for (std::size_t l = 0; l <= lanes; ++l) u[l] = std::polar(1.0, two_pi * cycles_per_frame * static_cast<double>(l));
-    return u;
-}
 /// Exact per-frame powers m^l, l < lanes, and m^lanes in float, for a phasor turning by u and changing by
-/// ln_amp_per_frame nepers per frame: e^(ln_amp_per_frame l) u[l], the products std::polar forms (rho cos, rho sin).
-void set_phasor_powers(span& s, const unit_powers& u, double ln_amp_per_frame) {
+/// rho (synthesis/phasor_powers.hpp): rho[l] u[l], the products std::polar forms (rho cos, rho sin).
+void set_phasor_powers(span& s, const lane_turns& u, const lane_decays& rho) {
     for (std::size_t l = 0; l <= lanes; ++l) {
-        const double rho = ln_amp_per_frame == 0.0 ? 1.0 : std::exp(ln_amp_per_frame * static_cast<double>(l));  // e^0 = 1
-        const double re = rho * u[l].real(), im = rho * u[l].imag();
+        const double re = rho[l] * u[l].real(), im = rho[l] * u[l].imag();
         if (l < lanes) s.m_pow_re[l] = re, s.m_pow_im[l] = im;
         else s.step_re = static_cast<float>(re), s.step_im = static_cast<float>(im);
     }
@@ -155,14 +148,14 @@ render_plan make_plan(const patch& p, const render_params& params) {
         plan.glide_cents.push_back(part.glide_cents);
         plan.glide_s.push_back(part.glide_s);
         plan.span_first.push_back(plan.spans.size());
-        const unit_powers turns = unit_powers_of(cpf);
+        const lane_turns turns = lane_turns_of(cpf);
 
         const std::size_t attack_end = first_frame_at_or_after(part.env.attack_s, rate, plan.frames);
         if (attack_end > 0) {
             span s{.begin = 0, .end = attack_end, .kind = span_kind::ramp,
                    // A(t) = peak * t / attack_s with t = n / rate
                    .amp_per_frame = peak_amp / (part.env.attack_s * rate)};
-            set_phasor_powers(s, turns, 0.0);
+            set_phasor_powers(s, turns, lane_decays_of(0.0));
             plan.spans.push_back(s);
         }
         for (const envelope_piece& piece : envelope_pieces(part.env)) {
@@ -177,7 +170,7 @@ render_plan make_plan(const patch& p, const render_params& params) {
                    .ln_amp_begin = neper_per_db *
                                    (piece.start_level.db + piece.slope_db_per_s * (t_begin_s - piece.start_s)),
                    .ln_amp_per_frame = neper_per_db * piece.slope_db_per_s / rate};
-            set_phasor_powers(s, turns, s.ln_amp_per_frame);
+            set_phasor_powers(s, turns, lane_decays_of(s.ln_amp_per_frame));
             plan.spans.push_back(s);
         }
         plan.span_last.push_back(plan.spans.size());
