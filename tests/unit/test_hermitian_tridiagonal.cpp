@@ -50,22 +50,38 @@ TEST_CASE("tridiagonalize gives R = Q T Q^H with Q unitary and T holding R's eig
     CHECK(value_error < 1e-13);
 }
 
+namespace {
+
+/// A symmetric tridiagonal matrix of size n (diagonal uniform in [-1, 1), off-diagonal 1e-3 times
+/// that, every fifth 1e-9 smaller still: nearly split blocks, where QR deflates) and Eigen's
+/// eigen-decomposition of it, the reference for tridiagonal_eigen and tridiagonal_values.
+struct tridiagonal_case {
+    Eigen::VectorXd diag, sub;
+    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> ref;
+};
+tridiagonal_case make_tridiagonal_case(Eigen::Index n, std::uint64_t seed) {
+    tridiagonal_case c{.diag = Eigen::VectorXd(n), .sub = Eigen::VectorXd(n - 1), .ref = {}};
+    for (Eigen::Index i = 0; i < n; ++i) c.diag(i) = hashed_signed(seed, 0, static_cast<std::uint64_t>(i));
+    for (Eigen::Index i = 0; i + 1 < n; ++i)
+        c.sub(i) = 1e-3 * hashed_signed(seed, 1, static_cast<std::uint64_t>(i)) * (i % 5 == 0 ? 1e-9 : 1.0);
+    c.ref.computeFromTridiagonal(c.diag, c.sub, Eigen::ComputeEigenvectors);
+    return c;
+}
+
+}  // namespace
+
 TEST_CASE("tridiagonal_eigen gives Eigen's computeFromTridiagonal values and vectors, bit for bit", "[modes]") {
     // Its promise: Eigen's steps, with the rotations applied by a loop of its own that does the
     // same products and sums per entry.
     const auto n = static_cast<Eigen::Index>(GENERATE(2, 5, 24, 40));
     const std::uint64_t seed = GENERATE(1u, 2u, 3u);
-    Eigen::VectorXd diag(n), sub(n - 1);
-    for (Eigen::Index i = 0; i < n; ++i) diag(i) = hashed_signed(seed, 0, static_cast<std::uint64_t>(i));
-    for (Eigen::Index i = 0; i + 1 < n; ++i) sub(i) = 1e-3 * hashed_signed(seed, 1, static_cast<std::uint64_t>(i)) * (i % 5 == 0 ? 1e-9 : 1.0);
+    const tridiagonal_case tc = make_tridiagonal_case(n, seed);
     Eigen::VectorXd values;
     Eigen::MatrixXd vectors;
-    REQUIRE(tridiagonal_eigen(diag, sub, values, vectors));
-    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> ref;
-    ref.computeFromTridiagonal(diag, sub, Eigen::ComputeEigenvectors);
-    REQUIRE(ref.info() == Eigen::Success);
-    const double value_diff = (values - ref.eigenvalues()).cwiseAbs().maxCoeff();
-    const double vector_diff = (vectors - ref.eigenvectors()).cwiseAbs().maxCoeff();
+    REQUIRE(tridiagonal_eigen(tc.diag, tc.sub, values, vectors));
+    REQUIRE(tc.ref.info() == Eigen::Success);
+    const double value_diff = (values - tc.ref.eigenvalues()).cwiseAbs().maxCoeff();
+    const double vector_diff = (vectors - tc.ref.eigenvectors()).cwiseAbs().maxCoeff();
     CAPTURE(n, seed, value_diff, vector_diff);
     CHECK(value_diff == 0.0);
     CHECK(vector_diff == 0.0);
@@ -77,16 +93,12 @@ TEST_CASE("tridiagonal_values and tridiagonal_vectors give Eigen's values bit fo
     // (tolerance: a few hundred rotations of unit vectors, each exact to eps).
     const auto n = static_cast<Eigen::Index>(GENERATE(2, 5, 24, 40));
     const std::uint64_t seed = GENERATE(1u, 2u, 3u);
-    Eigen::VectorXd diag(n), sub(n - 1);
-    for (Eigen::Index i = 0; i < n; ++i) diag(i) = hashed_signed(seed, 0, static_cast<std::uint64_t>(i));
-    for (Eigen::Index i = 0; i + 1 < n; ++i) sub(i) = 1e-3 * hashed_signed(seed, 1, static_cast<std::uint64_t>(i)) * (i % 5 == 0 ? 1e-9 : 1.0);
+    const tridiagonal_case tc = make_tridiagonal_case(n, seed);
     Eigen::VectorXd values;
     tridiagonal_rotations rotations;
-    REQUIRE(tridiagonal_values(diag, sub, values, rotations));
-    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> ref;
-    ref.computeFromTridiagonal(diag, sub, Eigen::ComputeEigenvectors);
-    REQUIRE(ref.info() == Eigen::Success);
-    CHECK((values - ref.eigenvalues()).cwiseAbs().maxCoeff() == 0.0);
+    REQUIRE(tridiagonal_values(tc.diag, tc.sub, values, rotations));
+    REQUIRE(tc.ref.info() == Eigen::Success);
+    CHECK((values - tc.ref.eigenvalues()).cwiseAbs().maxCoeff() == 0.0);
     const auto first = static_cast<std::size_t>(GENERATE(0, 1)) * static_cast<std::size_t>(n / 2);
     std::vector<double> got;
     std::size_t stride = 0;
@@ -98,7 +110,7 @@ TEST_CASE("tridiagonal_values and tridiagonal_vectors give Eigen's values bit fo
         for (std::size_t c = 0; c < stride; ++c) {
             const double have = got[r * stride + c];
             if (first + c < static_cast<std::size_t>(n)) {
-                const double want = ref.eigenvectors()(static_cast<Eigen::Index>(r), static_cast<Eigen::Index>(first + c));
+                const double want = tc.ref.eigenvectors()(static_cast<Eigen::Index>(r), static_cast<Eigen::Index>(first + c));
                 vector_diff = std::max(vector_diff, std::abs(have - want));
             } else {
                 padding = std::max(padding, std::abs(have));
